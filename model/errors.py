@@ -1,0 +1,18 @@
+"""The one error type the model raises for bad user input."""
+
+
+class InputError(ValueError):
+    """Bad user input: a field, a file or a flag.
+
+    The message is one line a user can act on: it names the field (or file and row),
+    the value found and what is allowed. Front ends print it as is, never a traceback.
+    """
+
+    def __init__(self, field: str, value, allowed: str):
+        self.field = field
+        self.value = value
+        self.allowed = allowed
+        shown = repr(value) if not isinstance(value, str) else f"'{value}'"
+        if len(shown) > 80:
+            shown = shown[:77] + "..."
+        super().__init__(f"{field}: got {shown}; {allowed}")

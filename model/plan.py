@@ -1,0 +1,399 @@
+"""Case plans: the dataclasses the model computes on, and the TOML plan file format.
+
+A plan file is TOML in the project's own format (documented in README.md, "Plan files"):
+top-level ``name`` and ``agent``, tables ``[patient]``, ``[settings]`` and ``[prices]``,
+and one ``[[phases]]`` table per phase. Numbers may carry units as text ("500 mL/min");
+bare numbers are read in the documented default unit of each field.
+"""
+
+from __future__ import annotations
+
+import tomllib
+from dataclasses import asdict, dataclass, field, replace
+from pathlib import Path
+from typing import Any, Mapping
+
+import pydantic
+import tomli_w
+
+from .errors import InputError
+from .freshgas import RATIO_BEHAVIOURS
+from .reference import DEFAULT_GWP, GWP_SOURCES, VOLATILES, normalise_agent_name
+from .units import check_range, to_base
+
+PLAN_FORMAT = "fresh-gas-ledger plan 1"
+CONTROL_MODES = ("dial", "target")
+#: Largest plan file read. [bytes]
+MAX_PLAN_BYTES = 1_000_000
+
+
+@dataclass(frozen=True)
+class Patient:
+    """The patient of a case plan. Optional values default by Brody's scaling (see physiology)."""
+
+    weight_kg: float = 70.0
+    age_years: float = 40.0
+    cardiac_output_l_min: float | None = None
+    vo2_ml_min: float | None = None
+    minute_ventilation_l_min: float | None = None
+
+
+@dataclass(frozen=True)
+class Phase:
+    """One phase of a case at constant flowmeter settings.
+
+    Exactly one of ``dial_pct`` (vaporizer setting, control mode "dial") and ``target_mac``
+    (end-tidal target as a MAC multiple, control mode "target") is set.
+    """
+
+    name: str
+    minutes: float
+    o2_l_min: float
+    air_l_min: float = 0.0
+    n2o_l_min: float = 0.0
+    dial_pct: float | None = None
+    target_mac: float | None = None
+
+    @property
+    def mode(self) -> str:
+        return "dial" if self.dial_pct is not None else "target"
+
+    @property
+    def fgf_l_min(self) -> float:
+        return self.o2_l_min + self.air_l_min + self.n2o_l_min
+
+
+@dataclass(frozen=True)
+class Settings:
+    """Conditions and choices of a computation, with their defaults."""
+
+    temperature_c: float = 20.0
+    pressure_kpa: float = 101.325
+    gwp_source: str = DEFAULT_GWP
+    #: Share of scavenged agent captured before release. [1]
+    capture_efficiency: float = 0.0
+    #: Lowest O2 share of O2 + N2O the workstation allows. [1] (common practice, no source)
+    min_o2_share: float = 0.25
+    #: O2 flow under which the workstation stops N2O. [L/min] (common practice, no source)
+    min_o2_flow_l_min: float = 0.2
+    ratio_behaviour: str = "cap_n2o"
+    #: Inspired O2 under which the model warns. [1] Never below 0.21.
+    inspired_o2_floor: float = 0.30
+    #: Sevoflurane fresh gas flow under which the model cautions. [L/min]
+    #: Source: sevoflurane labelling in some countries (at least 1 L/min, 2 L/min beyond
+    #: 1 MAC-hour), from memory.
+    sevoflurane_min_flow_l_min: float = 1.0
+
+
+@dataclass(frozen=True)
+class CasePlan:
+    """A case: patient, volatile agent, phases, settings and price overrides."""
+
+    name: str
+    agent: str
+    phases: tuple[Phase, ...]
+    patient: Patient = field(default_factory=Patient)
+    settings: Settings = field(default_factory=Settings)
+    #: Price overrides in the settings-file form (``currency``, ``bottle.<agent>``, ...).
+    prices: Mapping[str, Any] = field(default_factory=dict)
+
+    @property
+    def minutes(self) -> float:
+        return float(sum(p.minutes for p in self.phases))
+
+    def with_phase(self, index: int, **changes) -> "CasePlan":
+        """A copy with one phase changed (e.g. ``with_phase(1, o2_l_min=0.5)``)."""
+        phases = list(self.phases)
+        phases[index] = replace(phases[index], **changes)
+        return replace(self, phases=tuple(phases))
+
+
+# --------------------------------------------------------------------------------------
+# The file format, validated with pydantic. Each field converts its unit at this edge.
+
+
+def _quantity(unit: str, low: float, high: float, default_unit: str | None = None,
+              low_open: bool = False, shown_unit: str | None = None):
+    def convert(value, info: pydantic.ValidationInfo):
+        name = info.field_name
+        number = to_base(value, unit, name, default_unit)
+        return check_range(number, name, low, high, shown_unit or unit, low_open)
+    return pydantic.BeforeValidator(convert)
+
+
+def _share(value, info: pydantic.ValidationInfo):
+    """A share typed as 0.3, "30 %" or "0.3": stored as a fraction."""
+    name = info.field_name
+    if isinstance(value, str) and "%" in value:
+        number = to_base(value, "percent", name) / 100.0
+    else:
+        number = to_base(value, "dimensionless", name)
+    return check_range(number, name, 0.0, 1.0, "")
+
+
+def _percent(value, info: pydantic.ValidationInfo):
+    """A concentration typed as 2, "2 %" or "2%": stored in percent."""
+    return check_range(to_base(value, "percent", info.field_name), info.field_name, 0.0, 100.0, "%")
+
+
+Share = pydantic.BeforeValidator(_share)
+Percent = pydantic.BeforeValidator(_percent)
+
+from typing import Annotated  # noqa: E402  (kept beside its only use)
+
+Flow = Annotated[float, _quantity("L/min", 0.0, 20.0)]
+
+
+class _Strict(pydantic.BaseModel):
+    model_config = pydantic.ConfigDict(extra="forbid", str_strip_whitespace=True)
+
+
+class PatientIn(_Strict):
+    weight: Annotated[float, _quantity("kg", 0.5, 350.0)] = 70.0
+    age: Annotated[float, _quantity("year", 0.0, 120.0)] = 40.0
+    cardiac_output: Annotated[float | None, _quantity("L/min", 0.1, 40.0, low_open=True)] = None
+    o2_consumption: Annotated[float | None, _quantity("mL/min", 5.0, 2000.0)] = None
+    minute_ventilation: Annotated[float | None, _quantity("L/min", 0.2, 40.0)] = None
+
+
+class PhaseIn(_Strict):
+    name: Annotated[str, pydantic.StringConstraints(min_length=1, max_length=80)] = "phase"
+    duration: Annotated[float, _quantity("min", 0.0, 24 * 60, low_open=True)]
+    o2: Flow = 0.0
+    air: Flow = 0.0
+    n2o: Flow = 0.0
+    dial: Annotated[float | None, Percent] = None
+    target: Annotated[float | None, _quantity("dimensionless", 0.0, 3.0, shown_unit="MAC")] = None
+
+    @pydantic.model_validator(mode="after")
+    def _one_control(self):
+        if (self.dial is None) == (self.target is None):
+            raise InputError("dial/target", "both" if self.dial is not None else "neither",
+                             "give exactly one: dial (vaporizer %) or target (end-tidal MAC multiple)")
+        if self.o2 + self.air + self.n2o <= 0:
+            raise InputError("o2/air/n2o", 0, "the phase needs some fresh gas flow")
+        if self.o2 + self.air + self.n2o > 30:
+            raise InputError("o2/air/n2o", f"{self.o2 + self.air + self.n2o:g} L/min total",
+                             "total fresh gas flow above 30 L/min is not plausible")
+        return self
+
+
+class SettingsIn(_Strict):
+    room_temperature: Annotated[float, _quantity("degC", 0.0, 45.0)] = 20.0
+    pressure: Annotated[float, _quantity("kPa", 50.0, 120.0)] = 101.325
+    gwp_source: str = DEFAULT_GWP
+    capture_efficiency: Annotated[float, Share] = 0.0
+    min_o2_share: Annotated[float, Share] = 0.25
+    n2o_cutoff_o2_flow: Annotated[float, _quantity("L/min", 0.0, 5.0)] = 0.2
+    ratio_limit: str = "cap_n2o"
+    inspired_o2_floor: Annotated[float, Share] = 0.30
+    sevoflurane_min_flow: Annotated[float, _quantity("L/min", 0.0, 20.0)] = 1.0
+
+    @pydantic.field_validator("gwp_source")
+    @classmethod
+    def _known_source(cls, v):
+        if v not in GWP_SOURCES:
+            raise InputError("gwp_source", v, "allowed sources are " + ", ".join(GWP_SOURCES))
+        return v
+
+    @pydantic.field_validator("ratio_limit")
+    @classmethod
+    def _known_behaviour(cls, v):
+        if v not in RATIO_BEHAVIOURS:
+            raise InputError("ratio_limit", v, "allowed values are " + ", ".join(RATIO_BEHAVIOURS))
+        return v
+
+    @pydantic.field_validator("inspired_o2_floor")
+    @classmethod
+    def _floor(cls, v):
+        if v < 0.21:
+            raise InputError("inspired_o2_floor", v, "the floor is never below 0.21 (21 %)")
+        return v
+
+    @pydantic.field_validator("min_o2_share")
+    @classmethod
+    def _share_positive(cls, v):
+        if v <= 0:
+            raise InputError("min_o2_share", v, "must be above 0")
+        return v
+
+
+class PlanIn(_Strict):
+    format: str = PLAN_FORMAT
+    name: Annotated[str, pydantic.StringConstraints(min_length=1, max_length=120)] = "Unnamed plan"
+    agent: str
+    patient: PatientIn = PatientIn()
+    settings: SettingsIn = SettingsIn()
+    prices: dict[str, Any] = {}
+    phases: Annotated[list[PhaseIn], pydantic.Field(min_length=1, max_length=100)]
+
+    @pydantic.field_validator("agent")
+    @classmethod
+    def _volatile(cls, v):
+        key = normalise_agent_name(v)
+        if key not in VOLATILES:
+            raise InputError("agent", v, "allowed agents are " + ", ".join(VOLATILES))
+        return key
+
+    @pydantic.field_validator("format")
+    @classmethod
+    def _format(cls, v):
+        if v != PLAN_FORMAT:
+            raise InputError("format", v, f"this version reads '{PLAN_FORMAT}'")
+        return v
+
+
+def _where(loc) -> str:
+    parts = []
+    for item in loc:
+        if isinstance(item, int):
+            parts.append(f"[{item + 1}]")
+        else:
+            parts.append(("." if parts else "") + str(item))
+    return "".join(parts)
+
+
+def _first_error(exc: pydantic.ValidationError, source: str) -> InputError:
+    err = exc.errors(include_url=False)[0]
+    loc = tuple(x for x in err["loc"] if not (isinstance(x, str) and x.startswith("function-")))
+    where = _where(loc)
+    original = (err.get("ctx") or {}).get("error")
+    prefix = f"{source}: " if source else ""
+    if isinstance(original, InputError):
+        # The validator knew the field's own name; put it in its place in the path.
+        base = where
+        if not loc or loc[-1] != original.field:
+            base = f"{base}.{original.field}" if base else original.field
+        return InputError(prefix + base, original.value, original.allowed)
+    kind = err["type"]
+    value = err.get("input")
+    if kind == "missing":
+        return InputError(prefix + where, "nothing", "this field is required")
+    if kind == "extra_forbidden":
+        return InputError(prefix + where, value, "unknown field (check its spelling in the README's plan format)")
+    if kind == "too_short" and loc and loc[-1] == "phases":
+        return InputError(prefix + where, "no phases", "a plan needs at least one [[phases]] table")
+    return InputError(prefix + where, value, err["msg"].replace("Value error, ", ""))
+
+
+def plan_from_dict(data: Mapping, source: str = "") -> CasePlan:
+    """Validate a plan given as a dict (as read from TOML) and convert its units.
+
+    Raises
+    ------
+    InputError
+        With a message naming the first wrong field (e.g. ``phases[2].o2``), the value
+        found and what is allowed.
+    """
+    try:
+        raw = PlanIn.model_validate(data)
+    except pydantic.ValidationError as exc:
+        raise _first_error(exc, source) from None
+    from .reference import DEFAULT_REFERENCE
+
+    agent = DEFAULT_REFERENCE.agent(raw.agent)
+    phases = []
+    for i, p in enumerate(raw.phases, start=1):
+        if p.dial is not None and p.dial > agent.vaporizer_max:
+            prefix = f"{source}: " if source else ""
+            raise InputError(f"{prefix}phases[{i}].dial", f"{p.dial:g} %",
+                             f"the {agent.label.lower()} vaporizer goes up to {agent.vaporizer_max:g} %")
+        phases.append(Phase(p.name, p.duration, p.o2, p.air, p.n2o, p.dial, p.target))
+    s = raw.settings
+    pt = raw.patient
+    return CasePlan(
+        name=raw.name,
+        agent=raw.agent,
+        phases=tuple(phases),
+        patient=Patient(pt.weight, pt.age, pt.cardiac_output, pt.o2_consumption, pt.minute_ventilation),
+        settings=Settings(s.room_temperature, s.pressure, s.gwp_source, s.capture_efficiency,
+                          s.min_o2_share, s.n2o_cutoff_o2_flow, s.ratio_limit, s.inspired_o2_floor,
+                          s.sevoflurane_min_flow),
+        prices=dict(raw.prices),
+    )
+
+
+def parse_plan_text(text: str, source: str = "plan") -> CasePlan:
+    """Read a plan from TOML text. Raises InputError for malformed TOML or bad fields."""
+    if len(text) > MAX_PLAN_BYTES:
+        raise InputError(source, f"{len(text)} characters", f"a plan file is at most {MAX_PLAN_BYTES} bytes")
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(source, "the file", f"not valid TOML ({exc})") from None
+    except RecursionError:
+        raise InputError(source, "the file", "nested too deeply to be a plan") from None
+    return plan_from_dict(data, source)
+
+
+def load_plan(path) -> CasePlan:
+    """Read a plan file (TOML). Raises InputError naming the file and the field."""
+    p = Path(path)
+    try:
+        size = p.stat().st_size
+        if size > MAX_PLAN_BYTES:
+            raise InputError(str(p), f"{size} bytes", f"a plan file is at most {MAX_PLAN_BYTES} bytes")
+        text = p.read_bytes().decode("utf-8")
+    except FileNotFoundError:
+        raise InputError(str(p), str(p), "the file does not exist") from None
+    except IsADirectoryError:
+        raise InputError(str(p), str(p), "expected a file, found a folder") from None
+    except UnicodeDecodeError:
+        raise InputError(str(p), "the file", "expected UTF-8 text (a TOML plan file)") from None
+    except OSError as exc:
+        raise InputError(str(p), str(p), f"cannot be read ({exc.strerror})") from None
+    return parse_plan_text(text, str(p))
+
+
+def plan_to_dict(plan: CasePlan) -> dict:
+    """The plan in file form (units written out), the inverse of ``plan_from_dict``."""
+    s = plan.settings
+    pt = plan.patient
+    patient = {"weight": f"{pt.weight_kg:g} kg", "age": f"{pt.age_years:g} year"}
+    if pt.cardiac_output_l_min is not None:
+        patient["cardiac_output"] = f"{pt.cardiac_output_l_min:g} L/min"
+    if pt.vo2_ml_min is not None:
+        patient["o2_consumption"] = f"{pt.vo2_ml_min:g} mL/min"
+    if pt.minute_ventilation_l_min is not None:
+        patient["minute_ventilation"] = f"{pt.minute_ventilation_l_min:g} L/min"
+    phases = []
+    for p in plan.phases:
+        row = {"name": p.name, "duration": f"{p.minutes:g} min", "o2": f"{p.o2_l_min:g} L/min",
+               "air": f"{p.air_l_min:g} L/min", "n2o": f"{p.n2o_l_min:g} L/min"}
+        if p.dial_pct is not None:
+            row["dial"] = f"{p.dial_pct:g} %"
+        else:
+            row["target"] = p.target_mac
+        phases.append(row)
+    out = {
+        "format": PLAN_FORMAT,
+        "name": plan.name,
+        "agent": plan.agent,
+        "patient": patient,
+        "settings": {
+            "room_temperature": f"{s.temperature_c:g} degC",
+            "pressure": f"{s.pressure_kpa:g} kPa",
+            "gwp_source": s.gwp_source,
+            "capture_efficiency": s.capture_efficiency,
+            "min_o2_share": s.min_o2_share,
+            "n2o_cutoff_o2_flow": f"{s.min_o2_flow_l_min:g} L/min",
+            "ratio_limit": s.ratio_behaviour,
+            "inspired_o2_floor": s.inspired_o2_floor,
+            "sevoflurane_min_flow": f"{s.sevoflurane_min_flow_l_min:g} L/min",
+        },
+        "phases": phases,
+    }
+    if plan.prices:
+        out["prices"] = dict(plan.prices)
+    return out
+
+
+def plan_to_toml(plan: CasePlan) -> str:
+    """The plan as TOML text in the project's plan format."""
+    return tomli_w.dumps(plan_to_dict(plan))
+
+
+def plan_as_record(plan: CasePlan) -> dict:
+    """Plain-dict view of the dataclasses (for JSON output)."""
+    return asdict(plan)
+

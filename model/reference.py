@@ -1,0 +1,461 @@
+"""Reference data for agents, gases, GWP sources and prices, each value with its provenance."""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+import os
+import tomllib
+from dataclasses import dataclass, field, replace
+from pathlib import Path
+from types import MappingProxyType
+from typing import Mapping
+
+from .errors import InputError
+
+# Provenance labels. Every value in this module carries one of these as its ``basis``.
+PUBLISHED = "published"
+FROM_MEMORY = "from memory"
+COMMON_PRACTICE = "common practice, no source"
+INVENTED = "invented example price"
+USER = "user override"
+
+#: Molar gas constant. [J/(mol K)] Source: CODATA 2018 (exact since the 2019 SI).
+R_GAS = 8.314462618
+#: Standard atmosphere. [kPa] Source: ISO 2533 / SI definition of 1 atm.
+STANDARD_PRESSURE_KPA = 101.325
+#: Oxygen fraction of dry air (by volume). Source: US Standard Atmosphere 1976 (20.946 %).
+AIR_O2_FRACTION = 0.20946
+#: Molar mass of CO2. [g/mol] Source: IUPAC standard atomic weights (C 12.011, O 15.999).
+CO2_MOLAR_MASS = 44.009
+
+
+@dataclass(frozen=True)
+class Sourced:
+    """One reference value with its unit and where it came from."""
+
+    value: float | None
+    unit: str
+    source: str
+    basis: str = PUBLISHED
+    #: What the value was before a user override (None if never overridden).
+    default: "Sourced | None" = None
+
+
+def _s(value, unit, source, basis=FROM_MEMORY):
+    return Sourced(value, unit, source, basis)
+
+
+# Field name -> (unit, description); the order is the order of the reference table.
+AGENT_FIELDS: Mapping[str, tuple[str, str]] = MappingProxyType({
+    "molar_mass": ("g/mol", "molar mass"),
+    "liquid_density": ("g/mL", "liquid density"),
+    "density_temperature": ("degC", "temperature of the liquid density"),
+    "svp_20c": ("kPa", "saturated vapour pressure at 20 °C"),
+    "boiling_point": ("degC", "boiling point at 101.325 kPa"),
+    "blood_gas": ("1", "blood/gas partition coefficient at 37 °C"),
+    "mac40": ("%", "MAC at age 40 in O2"),
+    "vaporizer_max": ("%", "highest vaporizer dial setting"),
+    "bottle_volume": ("mL", "bottle volume"),
+    "metabolised_fraction": ("1", "share of the agent taken up that is metabolised"),
+    "lifetime": ("yr", "atmospheric lifetime"),
+})
+
+_MOLMASS = "computed from the formula with IUPAC standard atomic weights"
+
+
+@dataclass(frozen=True)
+class Agent:
+    """Reference data for one anaesthetic agent or medical gas.
+
+    Numeric attributes are plain floats in the unit of ``AGENT_FIELDS``; ``values`` keeps
+    each one with its source. ``kind`` is "volatile" (a liquid given by a vaporizer) or
+    "gas" (O2, air, N2O from flowmeters).
+    """
+
+    name: str
+    label: str
+    formula: str
+    kind: str
+    values: Mapping[str, Sourced]
+
+    def __getattr__(self, item):
+        # Called only when normal lookup fails: expose each value as a float attribute.
+        values = object.__getattribute__(self, "values")
+        if item in values:
+            return values[item].value
+        raise AttributeError(item)
+
+
+def _agent(name, label, formula, kind, **values) -> Agent:
+    for key in values:
+        if key not in AGENT_FIELDS:
+            raise KeyError(key)
+    return Agent(name, label, formula, kind, MappingProxyType(values))
+
+
+_LABEL_SEVO = "sevoflurane prescribing information (Ultane/Sevorane), from memory"
+_LABEL_DES = "desflurane prescribing information (Suprane), from memory"
+_LABEL_ISO = "isoflurane prescribing information (Forane), from memory"
+_LABEL_HAL = "halothane monograph (Fluothane), from memory"
+_YASUDA = "Yasuda N et al., Anesth Analg 1989;69:370-3 (blood/gas at 37 °C), from memory"
+_MAPLESON = "Mapleson WW, Br J Anaesth 1996;76:179-85 (MAC at 40 y), from memory"
+_AR6 = "IPCC AR6 WG1 Ch. 7 Supplementary Table 7.SM.7"
+_VAPORIZER = "common vaporizer design (maximum dial mark)"
+_BOTTLE = "common bottle size"
+_METAB = "textbook range of in vivo metabolism, from memory"
+
+AGENTS: Mapping[str, Agent] = MappingProxyType({
+    "sevoflurane": _agent(
+        "sevoflurane", "Sevoflurane", "C4H3F7O", "volatile",
+        molar_mass=_s(200.05, "g/mol", _MOLMASS, PUBLISHED),
+        liquid_density=_s(1.52, "g/mL", _LABEL_SEVO + " (1.520-1.525 at 20 °C)"),
+        density_temperature=_s(20.0, "degC", _LABEL_SEVO),
+        svp_20c=_s(20.9, "kPa", _LABEL_SEVO + " (157 mmHg at 20 °C)"),
+        boiling_point=_s(58.6, "degC", _LABEL_SEVO),
+        blood_gas=_s(0.65, "1", _YASUDA),
+        mac40=_s(2.1, "%", _LABEL_SEVO + " (age 40, in O2)"),
+        vaporizer_max=_s(8.0, "%", _VAPORIZER, COMMON_PRACTICE),
+        bottle_volume=_s(250.0, "mL", _BOTTLE, COMMON_PRACTICE),
+        metabolised_fraction=_s(0.03, "1", _METAB + " (2-5 %)"),
+        lifetime=_s(1.9, "yr", _AR6 + ", from memory"),
+    ),
+    "desflurane": _agent(
+        "desflurane", "Desflurane", "C3H2F6O", "volatile",
+        molar_mass=_s(168.04, "g/mol", _MOLMASS, PUBLISHED),
+        liquid_density=_s(1.465, "g/mL", _LABEL_DES + " (1.465 at 20 °C)"),
+        density_temperature=_s(20.0, "degC", _LABEL_DES),
+        svp_20c=_s(89.2, "kPa", _LABEL_DES + " (669 mmHg at 20 °C)"),
+        boiling_point=_s(22.8, "degC", _LABEL_DES),
+        blood_gas=_s(0.45, "1", _YASUDA),
+        mac40=_s(6.0, "%", _LABEL_DES + " (ages 31-65, in O2)"),
+        vaporizer_max=_s(18.0, "%", _VAPORIZER, COMMON_PRACTICE),
+        bottle_volume=_s(240.0, "mL", _BOTTLE, COMMON_PRACTICE),
+        metabolised_fraction=_s(0.0002, "1", _METAB + " (0.02 %)"),
+        lifetime=_s(10.8, "yr", _AR6 + ", from memory"),
+    ),
+    "isoflurane": _agent(
+        "isoflurane", "Isoflurane", "C3H2ClF5O", "volatile",
+        molar_mass=_s(184.49, "g/mol", _MOLMASS, PUBLISHED),
+        liquid_density=_s(1.496, "g/mL", _LABEL_ISO + " (specific gravity 1.496)"),
+        density_temperature=_s(20.0, "degC", _LABEL_ISO),
+        svp_20c=_s(31.7, "kPa", _LABEL_ISO + " (238 mmHg at 20 °C)"),
+        boiling_point=_s(48.5, "degC", _LABEL_ISO),
+        blood_gas=_s(1.4, "1", _YASUDA),
+        mac40=_s(1.15, "%", _LABEL_ISO + " (about age 44, in O2)"),
+        vaporizer_max=_s(5.0, "%", _VAPORIZER, COMMON_PRACTICE),
+        bottle_volume=_s(250.0, "mL", _BOTTLE, COMMON_PRACTICE),
+        metabolised_fraction=_s(0.002, "1", _METAB + " (0.2 %)"),
+        lifetime=_s(3.5, "yr", _AR6 + ", from memory"),
+    ),
+    "halothane": _agent(
+        "halothane", "Halothane", "C2HBrClF3", "volatile",
+        molar_mass=_s(197.38, "g/mol", _MOLMASS, PUBLISHED),
+        liquid_density=_s(1.86, "g/mL", _LABEL_HAL + " (1.86 at 20 °C)"),
+        density_temperature=_s(20.0, "degC", _LABEL_HAL),
+        svp_20c=_s(32.4, "kPa", _LABEL_HAL + " (243 mmHg at 20 °C)"),
+        boiling_point=_s(50.2, "degC", _LABEL_HAL),
+        blood_gas=_s(2.4, "1", _YASUDA + " (2.3-2.5)"),
+        mac40=_s(0.75, "%", _MAPLESON),
+        vaporizer_max=_s(5.0, "%", _VAPORIZER, COMMON_PRACTICE),
+        bottle_volume=_s(250.0, "mL", _BOTTLE, COMMON_PRACTICE),
+        metabolised_fraction=_s(0.20, "1", _METAB + " (about 20 %)"),
+        lifetime=_s(1.0, "yr", _AR6 + ", from memory"),
+    ),
+    "nitrous_oxide": _agent(
+        "nitrous_oxide", "Nitrous oxide", "N2O", "gas",
+        molar_mass=_s(44.013, "g/mol", _MOLMASS, PUBLISHED),
+        boiling_point=_s(-88.5, "degC", "CRC Handbook of Chemistry and Physics, from memory"),
+        blood_gas=_s(0.47, "1", "Eger EI, Anesthetic Uptake and Action, 1974, from memory"),
+        mac40=_s(104.0, "%", _MAPLESON),
+        metabolised_fraction=_s(0.00004, "1", "textbook value (0.004 %), from memory"),
+        lifetime=_s(109.0, "yr", _AR6 + ", from memory"),
+    ),
+    "oxygen": _agent(
+        "oxygen", "Oxygen", "O2", "gas",
+        molar_mass=_s(31.998, "g/mol", _MOLMASS, PUBLISHED),
+        boiling_point=_s(-183.0, "degC", "CRC Handbook of Chemistry and Physics, from memory"),
+    ),
+    "air": _agent(
+        "air", "Medical air", "", "gas",
+        molar_mass=_s(28.965, "g/mol", "US Standard Atmosphere 1976 (dry air), from memory"),
+    ),
+})
+
+VOLATILES = tuple(name for name, a in AGENTS.items() if a.kind == "volatile")
+
+
+@dataclass(frozen=True)
+class GwpSource:
+    """A named set of global warming potentials (kg CO2e per kg emitted)."""
+
+    key: str
+    label: str
+    horizon_years: int
+    citation: str
+    values: Mapping[str, Sourced]
+
+
+def _gwp(value, citation, basis=PUBLISHED):
+    return Sourced(value, "kg CO2e/kg", citation, basis)
+
+
+_AR6_NOTE = "IPCC AR6 WG1 (2021), Ch. 7 Suppl. Table 7.SM.7"
+_AR5_NOTE = "IPCC AR5 WG1 (2013), Ch. 8 Appendix 8.A, Table 8.A.1"
+_SA2012 = "Sulbaek Andersen MP et al., Anesth Analg 2012;114:1081-5"
+
+GWP_SOURCES: Mapping[str, GwpSource] = MappingProxyType({
+    "ar6_gwp100": GwpSource("ar6_gwp100", "IPCC AR6 GWP100", 100, _AR6_NOTE, MappingProxyType({
+        "nitrous_oxide": _gwp(273.0, _AR6_NOTE),
+        "desflurane": _gwp(2590.0, _AR6_NOTE + " (HFE-236ea2)"),
+        "isoflurane": _gwp(539.0, _AR6_NOTE + " (HCFE-235da2)"),
+        "sevoflurane": _gwp(195.0, _AR6_NOTE + " (HFE-347mmz1), from memory", FROM_MEMORY),
+        "halothane": _gwp(50.8, _AR6_NOTE + " (halothane), from memory", FROM_MEMORY),
+    })),
+    "ar6_gwp20": GwpSource("ar6_gwp20", "IPCC AR6 GWP20", 20, _AR6_NOTE, MappingProxyType({
+        "nitrous_oxide": _gwp(273.0, _AR6_NOTE),
+        "desflurane": _gwp(7020.0, _AR6_NOTE + " (HFE-236ea2)"),
+        "isoflurane": _gwp(1930.0, _AR6_NOTE + " (HCFE-235da2)"),
+        "sevoflurane": _gwp(702.0, _AR6_NOTE + " (HFE-347mmz1), from memory", FROM_MEMORY),
+        "halothane": _gwp(185.0, _AR6_NOTE + " (halothane), from memory", FROM_MEMORY),
+    })),
+    "ar5_gwp100": GwpSource("ar5_gwp100", "IPCC AR5 GWP100", 100, _AR5_NOTE, MappingProxyType({
+        "nitrous_oxide": _gwp(265.0, _AR5_NOTE),
+        "desflurane": _gwp(1790.0, _AR5_NOTE + " (HFE-236ea2)"),
+        "isoflurane": _gwp(491.0, _AR5_NOTE + " (HCFE-235da2)"),
+        "sevoflurane": _gwp(216.0, _AR5_NOTE + " (HFE-347mmz1), from memory", FROM_MEMORY),
+        "halothane": _gwp(41.0, _AR5_NOTE + " (halothane), from memory", FROM_MEMORY),
+    })),
+    "sulbaek_andersen_2012": GwpSource(
+        "sulbaek_andersen_2012", "Sulbaek Andersen et al. 2012 GWP100", 100, _SA2012,
+        MappingProxyType({
+            "nitrous_oxide": _gwp(298.0, _SA2012 + " (IPCC AR4 value used there), from memory", FROM_MEMORY),
+            "desflurane": _gwp(2540.0, _SA2012 + ", from memory", FROM_MEMORY),
+            "isoflurane": _gwp(510.0, _SA2012 + ", from memory", FROM_MEMORY),
+            "sevoflurane": _gwp(130.0, _SA2012 + ", from memory", FROM_MEMORY),
+            "halothane": _gwp(None, _SA2012 + ": no value given there", FROM_MEMORY),
+        })),
+    "user": GwpSource("user", "User values", 100, "values from the user's settings file",
+                      MappingProxyType({})),
+})
+DEFAULT_GWP = "ar6_gwp100"
+
+
+@dataclass(frozen=True)
+class Prices:
+    """Unit prices in one currency. All defaults are invented example prices."""
+
+    currency: str = "GBP"
+    #: Price of one bottle per volatile agent. [currency/bottle]
+    bottle: Mapping[str, float] = field(default_factory=lambda: MappingProxyType({
+        "sevoflurane": 120.0, "desflurane": 75.0, "isoflurane": 20.0, "halothane": 30.0}))
+    #: Gas prices. [currency per 1000 L at room conditions]
+    oxygen_per_1000_l: float = 3.0
+    air_per_1000_l: float = 2.0
+    nitrous_oxide_per_1000_l: float = 8.0
+    #: CO2 absorbent. [currency/kg]
+    absorbent_per_kg: float = 6.0
+    #: Where the prices came from.
+    basis: str = INVENTED
+
+    def gas_per_1000_l(self, gas: str) -> float:
+        return {"oxygen": self.oxygen_per_1000_l, "air": self.air_per_1000_l,
+                "nitrous_oxide": self.nitrous_oxide_per_1000_l}[gas]
+
+
+@dataclass(frozen=True)
+class Reference:
+    """Everything the model reads from reference data; overrides make a new Reference."""
+
+    agents: Mapping[str, Agent] = field(default_factory=lambda: AGENTS)
+    gwp_sources: Mapping[str, GwpSource] = field(default_factory=lambda: GWP_SOURCES)
+    prices: Prices = field(default_factory=Prices)
+    #: Where overrides came from (file paths or "dashboard"), for reports.
+    override_origins: tuple[str, ...] = ()
+
+    def agent(self, name: str, field_name: str = "agent") -> Agent:
+        """Look up an agent by name (case-insensitive; "N2O" and "nitrous oxide" accepted)."""
+        key = normalise_agent_name(name)
+        if key not in self.agents:
+            raise InputError(field_name, name, "allowed agents are " + ", ".join(self.agents))
+        return self.agents[key]
+
+    def volatile(self, name: str, field_name: str = "agent") -> Agent:
+        agent = self.agent(name, field_name)
+        if agent.kind != "volatile":
+            raise InputError(field_name, name, "allowed volatile agents are " + ", ".join(VOLATILES))
+        return agent
+
+    def gwp(self, agent: str, source: str = DEFAULT_GWP) -> float:
+        """GWP of ``agent`` under ``source``. [kg CO2e/kg]"""
+        src = self.gwp_source(source)
+        value = src.values.get(agent)
+        if value is None or value.value is None:
+            raise InputError("gwp_source", source,
+                             f"{src.label} has no value for {agent}; choose another source "
+                             f"or give a user value under [gwp.user] in the settings file")
+        return value.value
+
+    def gwp_source(self, source: str) -> GwpSource:
+        if source not in self.gwp_sources:
+            raise InputError("gwp_source", source, "allowed sources are " + ", ".join(self.gwp_sources))
+        return self.gwp_sources[source]
+
+    def with_overrides(self, overrides: Mapping, origin: str) -> "Reference":
+        """Return a new Reference with user overrides applied; see ``load_settings``.
+
+        ``overrides`` has optional tables ``agents.<agent>.<field>``, ``gwp.<source>.<agent>``
+        and ``prices`` (``currency``, ``bottle.<agent>``, ``oxygen_per_1000_l``, ...). Every
+        replaced value keeps its default beside it, so the reference table can show both.
+        """
+        allowed_top = {"agents", "gwp", "prices"}
+        for key in overrides:
+            if key not in allowed_top:
+                raise InputError(f"{origin}: [{key}]", key, "allowed tables are agents, gwp, prices")
+        agents = dict(self.agents)
+        for name, fields in _table(overrides.get("agents", {}), f"{origin}: [agents]").items():
+            agent = self.agent(name, f"{origin}: [agents.{name}]")
+            values = dict(agent.values)
+            for fname, raw in _table(fields, f"{origin}: [agents.{name}]").items():
+                where = f"{origin}: agents.{name}.{fname}"
+                if fname not in AGENT_FIELDS:
+                    raise InputError(where, fname, "allowed fields are " + ", ".join(AGENT_FIELDS))
+                number = _finite(raw, where)
+                if fname not in ("boiling_point", "density_temperature") and number < 0:
+                    raise InputError(where, raw, "must not be negative")
+                old = values.get(fname) or Sourced(None, AGENT_FIELDS[fname][0], "no default")
+                values[fname] = Sourced(number, old.unit, f"user override ({origin})", USER,
+                                        old.default or old)
+            agents[agent.name] = replace(agent, values=MappingProxyType(values))
+        sources = dict(self.gwp_sources)
+        for skey, table in _table(overrides.get("gwp", {}), f"{origin}: [gwp]").items():
+            src = self.gwp_source(skey)
+            values = dict(src.values)
+            for aname, raw in _table(table, f"{origin}: [gwp.{skey}]").items():
+                where = f"{origin}: gwp.{skey}.{aname}"
+                agent = self.agent(aname, where)
+                number = _finite(raw, where)
+                if number < 0:
+                    raise InputError(where, raw, "must not be negative")
+                old = values.get(agent.name) or Sourced(None, "kg CO2e/kg", "no default")
+                values[agent.name] = Sourced(number, "kg CO2e/kg", f"user override ({origin})",
+                                             USER, old.default or old)
+            sources[skey] = replace(src, values=MappingProxyType(values))
+        prices = self.prices
+        ptable = _table(overrides.get("prices", {}), f"{origin}: [prices]")
+        if ptable:
+            changes = {"basis": f"user prices ({origin})"}
+            for key, raw in ptable.items():
+                where = f"{origin}: prices.{key}"
+                if key == "currency":
+                    if not isinstance(raw, str) or not 0 < len(raw.strip()) <= 12:
+                        raise InputError(where, raw, "expected a short currency label such as 'GBP'")
+                    changes["currency"] = raw.strip()
+                elif key == "bottle":
+                    bottle = dict(prices.bottle)
+                    for aname, braw in _table(raw, where).items():
+                        agent = self.volatile(aname, f"{where}.{aname}")
+                        bottle[agent.name] = _non_negative(braw, f"{where}.{aname}")
+                    changes["bottle"] = MappingProxyType(bottle)
+                elif key in {f.name for f in dataclasses.fields(Prices)} - {"currency", "bottle", "basis"}:
+                    changes[key] = _non_negative(raw, where)
+                else:
+                    allowed = [f.name for f in dataclasses.fields(Prices) if f.name != "basis"]
+                    raise InputError(where, key, "allowed price fields are " + ", ".join(allowed))
+            prices = replace(prices, **changes)
+        return Reference(MappingProxyType(agents), MappingProxyType(sources), prices,
+                         self.override_origins + (origin,))
+
+    def table(self):
+        """The reference table as rows of dicts: item, field, value, unit, source, basis."""
+        rows = []
+        for agent in self.agents.values():
+            for fname, (unit, description) in AGENT_FIELDS.items():
+                v = agent.values.get(fname)
+                if v is None:
+                    continue
+                rows.append(dict(item=agent.label, field=description, value=v.value, unit=unit,
+                                 source=v.source, basis=v.basis,
+                                 default=None if v.default is None else v.default.value))
+        for src in self.gwp_sources.values():
+            for aname, v in src.values.items():
+                rows.append(dict(item=self.agents[aname].label, field=f"GWP, {src.label}",
+                                 value=v.value, unit=v.unit, source=v.source, basis=v.basis,
+                                 default=None if v.default is None else v.default.value))
+        p = self.prices
+        for aname, price in p.bottle.items():
+            rows.append(dict(item=self.agents[aname].label, field="price per bottle", value=price,
+                             unit=f"{p.currency}/bottle", source=p.basis, basis=_price_basis(p),
+                             default=None))
+        for key, label in (("oxygen_per_1000_l", "Oxygen"), ("air_per_1000_l", "Medical air"),
+                           ("nitrous_oxide_per_1000_l", "Nitrous oxide")):
+            rows.append(dict(item=label, field="price per 1000 L", value=getattr(p, key),
+                             unit=f"{p.currency}/1000 L", source=p.basis, basis=_price_basis(p),
+                             default=None))
+        rows.append(dict(item="CO2 absorbent", field="price per kg", value=p.absorbent_per_kg,
+                         unit=f"{p.currency}/kg", source=p.basis, basis=_price_basis(p), default=None))
+        return rows
+
+
+def _price_basis(p: Prices) -> str:
+    return INVENTED if p.basis == INVENTED else USER
+
+
+def _table(value, where) -> Mapping:
+    if not isinstance(value, Mapping):
+        raise InputError(where, value, "expected a table")
+    return value
+
+
+def _finite(raw, where) -> float:
+    if isinstance(raw, bool) or not isinstance(raw, (int, float)) or not math.isfinite(raw):
+        raise InputError(where, raw, "expected a finite number")
+    return float(raw)
+
+
+def _non_negative(raw, where) -> float:
+    number = _finite(raw, where)
+    if number < 0:
+        raise InputError(where, raw, "must not be negative")
+    return number
+
+
+_ALIASES = {"n2o": "nitrous_oxide", "nitrous oxide": "nitrous_oxide", "nitrous": "nitrous_oxide",
+            "o2": "oxygen", "sevo": "sevoflurane", "des": "desflurane", "iso": "isoflurane",
+            "medical air": "air"}
+
+
+def normalise_agent_name(name) -> str:
+    """Canonical key of an agent name: lower case, aliases resolved ("N2O" -> nitrous_oxide)."""
+    if not isinstance(name, str):
+        return repr(name)
+    key = name.strip().lower()
+    key = _ALIASES.get(key, key)
+    return key.replace(" ", "_")
+
+
+def load_settings(path: str | os.PathLike | None = None, base: Reference | None = None) -> Reference:
+    """Reference data with the overrides of a user settings file (TOML) applied.
+
+    With ``path`` None, the environment variable ``GAS_LEDGER_SETTINGS`` names the file;
+    with neither, the built-in reference is returned.
+    """
+    base = base or Reference()
+    path = path or os.environ.get("GAS_LEDGER_SETTINGS")
+    if not path:
+        return base
+    p = Path(path)
+    try:
+        data = tomllib.loads(p.read_text(encoding="utf-8"))
+    except FileNotFoundError:
+        raise InputError("settings file", str(p), "the file does not exist") from None
+    except UnicodeDecodeError:
+        raise InputError("settings file", str(p), "expected UTF-8 text") from None
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError("settings file", str(p), f"not valid TOML ({exc})") from None
+    except OSError as exc:
+        raise InputError("settings file", str(p), f"cannot be read ({exc.strerror})") from None
+    return base.with_overrides(data, str(p))
+
+
+DEFAULT_REFERENCE = Reference()

@@ -1,0 +1,88 @@
+"""The package's single pint UnitRegistry and the parsing of user-typed quantities."""
+
+from __future__ import annotations
+
+import functools
+import math
+
+import pint
+
+from .errors import InputError
+
+
+@functools.lru_cache(maxsize=1)
+def registry() -> pint.UnitRegistry:
+    """The one UnitRegistry of the package (built once, on first use)."""
+    ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
+    # Percent as a dimensionless unit, so "2 %" and "0.02" mean the same.
+    if "percent" not in ureg:
+        ureg.define("percent = 0.01 = %")
+    return ureg
+
+
+def to_base(value, unit: str, field: str, default_unit: str | None = None) -> float:
+    """Convert a user value to a float in ``unit``.
+
+    Parameters
+    ----------
+    value : str, int or float
+        What the user typed: a bare number (read in ``default_unit``, or ``unit``) or a
+        string with a unit such as ``"500 mL/min"``.
+    unit : str
+        The documented base unit to return, e.g. ``"L/min"``.
+    field : str
+        Name of the field, used in the error message.
+    default_unit : str, optional
+        Unit of a bare number; defaults to ``unit``.
+
+    Returns
+    -------
+    float
+        The value in ``unit``.
+
+    Raises
+    ------
+    InputError
+        The text is not a quantity, the number is not finite, or the dimension is wrong.
+    """
+    ureg = registry()
+    default_unit = default_unit or unit
+    if isinstance(value, bool):
+        raise InputError(field, value, f"expected a number in {default_unit} or a quantity such as '1 {unit}'")
+    if isinstance(value, (int, float)):
+        number = float(value)
+        if not math.isfinite(number):
+            raise InputError(field, value, "expected a finite number")
+        if default_unit == unit:
+            return number
+        return float(ureg.Quantity(number, default_unit).to(unit).magnitude)
+    if not isinstance(value, str):
+        raise InputError(field, value, f"expected a number in {default_unit} or a quantity such as '1 {unit}'")
+    text = value.strip()
+    if not text or len(text) > 64:
+        raise InputError(field, value, f"expected a quantity such as '1 {unit}'")
+    try:
+        quantity = ureg.Quantity(text)
+    except Exception:
+        raise InputError(field, value, f"expected a quantity such as '1 {unit}'") from None
+    if isinstance(quantity, (int, float)) or quantity.unitless:
+        # A bare number typed as text: read it in the default unit.
+        return to_base(float(getattr(quantity, "magnitude", quantity)), unit, field, default_unit)
+    try:
+        number = float(quantity.to(unit).magnitude)
+    except Exception:
+        raise InputError(field, value, f"expected a quantity convertible to {unit}") from None
+    if not math.isfinite(number):
+        raise InputError(field, value, "expected a finite number")
+    return number
+
+
+def check_range(number: float, field: str, low: float, high: float, unit: str,
+                low_open: bool = False) -> float:
+    """Return ``number`` if it lies in [low, high] (or (low, high]), else raise InputError."""
+    ok = (number > low if low_open else number >= low) and number <= high
+    if not ok:
+        bracket = "(" if low_open else "["
+        raise InputError(field, f"{number:g} {unit}".strip(),
+                         f"allowed range is {bracket}{low:g}, {high:g}] {unit}".rstrip())
+    return number

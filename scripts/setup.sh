@@ -1,0 +1,15 @@
+#!/usr/bin/env bash
+# Set up (or refresh) the project's virtual environment in .venv with every dependency.
+# Used by scripts/dashboard.sh and scripts/test.sh; safe to run again.
+set -euo pipefail
+cd "$(dirname "$0")/.."
+PYTHON=${PYTHON:-python3}
+if [ ! -x .venv/bin/python ]; then
+  "$PYTHON" -m venv .venv
+fi
+stamp=.venv/.installed
+if [ ! -f "$stamp" ] || [ pyproject.toml -nt "$stamp" ]; then
+  .venv/bin/python -m pip install --quiet --upgrade pip
+  .venv/bin/python -m pip install --quiet -e ".[test]"
+  touch "$stamp"
+fi
