@@ -22,6 +22,8 @@ def _fmt(value, digits=2):
     if value is None:
         return "-"
     if isinstance(value, float):
+        if value != 0 and abs(value) < 10 ** -digits:
+            return f"{value:.2g}"  # small shares (e.g. 0.0002) would print as 0.00
         return f"{value:,.{digits}f}"
     return str(value)
 
@@ -99,7 +101,14 @@ def cmd_reference(args) -> int:
     if args.json:
         print_json(rows)
         return 0
-    print_table(rows, ["item", "field", "value", "unit", "basis", "source"])
+    columns = ["item", "field", "value", "unit", "basis", "source"]
+    if any(r.get("default") is not None for r in rows):
+        # Overridden values keep their built-in default (and its source) beside them.
+        columns += ["default", "default_source"]
+    print_table(rows, columns)
+    if ref.override_origins:
+        print()
+        print("Overrides from: " + ", ".join(ref.override_origins))
     return 0
 
 
@@ -141,16 +150,26 @@ def _extra_commands():
     return out
 
 
+def _command_names(parser) -> list[str]:
+    for action in parser._actions:
+        if isinstance(action, argparse._SubParsersAction):
+            return list(action.choices)
+    return []
+
+
 def main(argv=None) -> int:
     parser = build_parser()
     args = parser.parse_args(argv)
     if not getattr(args, "func", None):
         parser.print_help()
+        sys.stderr.write("gas-ledger: no command given; choose one of "
+                         + ", ".join(_command_names(parser)) + "\n")
         return EXIT_INPUT
     try:
         return args.func(args)
     except InputError as exc:
-        sys.stderr.write(f"gas-ledger: {exc}\n")
+        # One line, whatever the message holds (file paths and TOML errors may hold newlines).
+        sys.stderr.write("gas-ledger: " + " ".join(str(exc).split()) + "\n")
         return EXIT_INPUT
     except BrokenPipeError:
         return 0

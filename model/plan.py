@@ -8,6 +8,7 @@ bare numbers are read in the documented default unit of each field.
 
 from __future__ import annotations
 
+import re
 import tomllib
 from dataclasses import asdict, dataclass, field, replace
 from pathlib import Path
@@ -128,7 +129,9 @@ def _share(value, info: pydantic.ValidationInfo):
         number = to_base(value, "percent", name) / 100.0
     else:
         number = to_base(value, "dimensionless", name)
-    return check_range(number, name, 0.0, 1.0, "")
+    if not 0.0 <= number <= 1.0:
+        raise InputError(name, value, "a share from 0 to 1 (e.g. 0.3 or '30 %')")
+    return number
 
 
 def _percent(value, info: pydantic.ValidationInfo):
@@ -320,10 +323,22 @@ def parse_plan_text(text: str, source: str = "plan") -> CasePlan:
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
-        raise InputError(source, "the file", f"not valid TOML ({exc})") from None
+        raise toml_error(source, exc) from None
     except RecursionError:
         raise InputError(source, "the file", "nested too deeply to be a plan") from None
     return plan_from_dict(data, source)
+
+
+def toml_error(source: str, exc: Exception,
+               allowed: str = "the file is not valid TOML (see the plan format in README.md)") -> InputError:
+    """One-line InputError for malformed TOML, naming the file, line and column."""
+    text = " ".join(str(exc).split())
+    match = re.search(r"\s*\(at line (\d+), column (\d+)\)", text)
+    where = source
+    if match:
+        where = f"{source} (line {match.group(1)}, column {match.group(2)})"
+        text = text[:match.start()] + text[match.end():]
+    return InputError(where, text.strip() or "malformed text", allowed)
 
 
 def load_plan(path) -> CasePlan:
@@ -335,33 +350,41 @@ def load_plan(path) -> CasePlan:
             raise InputError(str(p), f"{size} bytes", f"a plan file is at most {MAX_PLAN_BYTES} bytes")
         text = p.read_bytes().decode("utf-8")
     except FileNotFoundError:
-        raise InputError(str(p), str(p), "the file does not exist") from None
+        raise InputError("plan file", str(p), "no such file; give the path of a TOML plan file") from None
     except IsADirectoryError:
-        raise InputError(str(p), str(p), "expected a file, found a folder") from None
+        raise InputError("plan file", str(p), "that is a folder; give the path of a TOML plan file") from None
     except UnicodeDecodeError:
-        raise InputError(str(p), "the file", "expected UTF-8 text (a TOML plan file)") from None
+        raise InputError("plan file", str(p), "not UTF-8 text; a plan file is TOML text") from None
     except OSError as exc:
-        raise InputError(str(p), str(p), f"cannot be read ({exc.strerror})") from None
+        raise InputError("plan file", str(p), f"cannot be read ({exc.strerror}); "
+                         "give a readable TOML plan file") from None
     return parse_plan_text(text, str(p))
+
+
+def _q(number: float, unit: str) -> str:
+    """A quantity as text that reads back to the same float ("0.35 L/min")."""
+    number = float(number)
+    short = f"{number:g}"
+    return f"{short if float(short) == number else repr(number)} {unit}"
 
 
 def plan_to_dict(plan: CasePlan) -> dict:
     """The plan in file form (units written out), the inverse of ``plan_from_dict``."""
     s = plan.settings
     pt = plan.patient
-    patient = {"weight": f"{pt.weight_kg:g} kg", "age": f"{pt.age_years:g} year"}
+    patient = {"weight": _q(pt.weight_kg, "kg"), "age": _q(pt.age_years, "year")}
     if pt.cardiac_output_l_min is not None:
-        patient["cardiac_output"] = f"{pt.cardiac_output_l_min:g} L/min"
+        patient["cardiac_output"] = _q(pt.cardiac_output_l_min, "L/min")
     if pt.vo2_ml_min is not None:
-        patient["o2_consumption"] = f"{pt.vo2_ml_min:g} mL/min"
+        patient["o2_consumption"] = _q(pt.vo2_ml_min, "mL/min")
     if pt.minute_ventilation_l_min is not None:
-        patient["minute_ventilation"] = f"{pt.minute_ventilation_l_min:g} L/min"
+        patient["minute_ventilation"] = _q(pt.minute_ventilation_l_min, "L/min")
     phases = []
     for p in plan.phases:
-        row = {"name": p.name, "duration": f"{p.minutes:g} min", "o2": f"{p.o2_l_min:g} L/min",
-               "air": f"{p.air_l_min:g} L/min", "n2o": f"{p.n2o_l_min:g} L/min"}
+        row = {"name": p.name, "duration": _q(p.minutes, "min"), "o2": _q(p.o2_l_min, "L/min"),
+               "air": _q(p.air_l_min, "L/min"), "n2o": _q(p.n2o_l_min, "L/min")}
         if p.dial_pct is not None:
-            row["dial"] = f"{p.dial_pct:g} %"
+            row["dial"] = _q(p.dial_pct, "%")
         else:
             row["target"] = p.target_mac
         phases.append(row)
@@ -371,15 +394,15 @@ def plan_to_dict(plan: CasePlan) -> dict:
         "agent": plan.agent,
         "patient": patient,
         "settings": {
-            "room_temperature": f"{s.temperature_c:g} degC",
-            "pressure": f"{s.pressure_kpa:g} kPa",
+            "room_temperature": _q(s.temperature_c, "degC"),
+            "pressure": _q(s.pressure_kpa, "kPa"),
             "gwp_source": s.gwp_source,
             "capture_efficiency": s.capture_efficiency,
             "min_o2_share": s.min_o2_share,
-            "n2o_cutoff_o2_flow": f"{s.min_o2_flow_l_min:g} L/min",
+            "n2o_cutoff_o2_flow": _q(s.min_o2_flow_l_min, "L/min"),
             "ratio_limit": s.ratio_behaviour,
             "inspired_o2_floor": s.inspired_o2_floor,
-            "sevoflurane_min_flow": f"{s.sevoflurane_min_flow_l_min:g} L/min",
+            "sevoflurane_min_flow": _q(s.sevoflurane_min_flow_l_min, "L/min"),
         },
         "phases": phases,
     }

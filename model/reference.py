@@ -367,34 +367,51 @@ class Reference:
                          self.override_origins + (origin,))
 
     def table(self):
-        """The reference table as rows of dicts: item, field, value, unit, source, basis."""
+        """The reference table as rows of dicts: item, field, value, unit, source, basis, default.
+
+        ``default`` is the built-in value a user override replaced (None where nothing was
+        overridden); ``default_source`` is where that built-in value came from.
+        """
         rows = []
+        base_prices = Prices()
         for agent in self.agents.values():
             for fname, (unit, description) in AGENT_FIELDS.items():
                 v = agent.values.get(fname)
                 if v is None:
                     continue
                 rows.append(dict(item=agent.label, field=description, value=v.value, unit=unit,
-                                 source=v.source, basis=v.basis,
-                                 default=None if v.default is None else v.default.value))
+                                 source=v.source, basis=v.basis, **_default_of(v)))
         for src in self.gwp_sources.values():
             for aname, v in src.values.items():
                 rows.append(dict(item=self.agents[aname].label, field=f"GWP, {src.label}",
                                  value=v.value, unit=v.unit, source=v.source, basis=v.basis,
-                                 default=None if v.default is None else v.default.value))
+                                 **_default_of(v)))
         p = self.prices
         for aname, price in p.bottle.items():
             rows.append(dict(item=self.agents[aname].label, field="price per bottle", value=price,
                              unit=f"{p.currency}/bottle", source=p.basis, basis=_price_basis(p),
-                             default=None))
+                             **_price_default(price, base_prices.bottle.get(aname))))
         for key, label in (("oxygen_per_1000_l", "Oxygen"), ("air_per_1000_l", "Medical air"),
                            ("nitrous_oxide_per_1000_l", "Nitrous oxide")):
             rows.append(dict(item=label, field="price per 1000 L", value=getattr(p, key),
                              unit=f"{p.currency}/1000 L", source=p.basis, basis=_price_basis(p),
-                             default=None))
+                             **_price_default(getattr(p, key), getattr(base_prices, key))))
         rows.append(dict(item="CO2 absorbent", field="price per kg", value=p.absorbent_per_kg,
-                         unit=f"{p.currency}/kg", source=p.basis, basis=_price_basis(p), default=None))
+                         unit=f"{p.currency}/kg", source=p.basis, basis=_price_basis(p),
+                         **_price_default(p.absorbent_per_kg, base_prices.absorbent_per_kg)))
         return rows
+
+
+def _default_of(v: Sourced) -> dict:
+    if v.default is None:
+        return dict(default=None, default_source=None)
+    return dict(default=v.default.value, default_source=v.default.source)
+
+
+def _price_default(value, built_in) -> dict:
+    if built_in is None or value == built_in:
+        return dict(default=None, default_source=None)
+    return dict(default=built_in, default_source=f"{INVENTED} ({Prices().currency})")
 
 
 def _price_basis(p: Prices) -> str:
@@ -448,13 +465,16 @@ def load_settings(path: str | os.PathLike | None = None, base: Reference | None 
     try:
         data = tomllib.loads(p.read_text(encoding="utf-8"))
     except FileNotFoundError:
-        raise InputError("settings file", str(p), "the file does not exist") from None
+        raise InputError("settings file", str(p), "no such file; give the path of a TOML settings file") from None
     except UnicodeDecodeError:
-        raise InputError("settings file", str(p), "expected UTF-8 text") from None
+        raise InputError("settings file", str(p), "not UTF-8 text; a settings file is TOML text") from None
     except tomllib.TOMLDecodeError as exc:
-        raise InputError("settings file", str(p), f"not valid TOML ({exc})") from None
+        from .plan import toml_error
+        raise toml_error(f"settings file {p}", exc,
+                         "the file is not valid TOML (see 'Settings file' in README.md)") from None
     except OSError as exc:
-        raise InputError("settings file", str(p), f"cannot be read ({exc.strerror})") from None
+        raise InputError("settings file", str(p), f"cannot be read ({exc.strerror}); "
+                         "give a readable TOML settings file") from None
     return base.with_overrides(data, str(p))
 
 
