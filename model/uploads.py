@@ -1,0 +1,293 @@
+"""The guard every uploaded file passes before a parser reads it.
+
+``check_upload(name, data, kind)`` accepts only the documented formats of each kind of file,
+checks the size against the app's configured upload limit and sniffs the content: archives,
+office documents, images, executables and other binary junk, NUL bytes or control characters
+in text, text not in UTF-8, over-long lines and deeply nested TOML are refused with one
+``InputError`` line naming the file. It returns the bytes and, for text formats, the decoded
+text, so the caller hands the same text to its parser.
+"""
+
+from __future__ import annotations
+
+import io
+import os
+import re
+import tomllib
+from dataclasses import dataclass
+from functools import lru_cache
+from pathlib import Path, PurePath
+from types import MappingProxyType
+from typing import Mapping
+
+from .errors import InputError
+
+#: The Streamlit configuration shipped with the project; its ``server.maxUploadSize`` [MB,
+#: counted as MiB by Streamlit] is the one upload limit of the app.
+CONFIG_PATH = Path(__file__).resolve().parents[1] / ".streamlit" / "config.toml"
+#: Streamlit's environment form of ``server.maxUploadSize``; it wins over the file, as in Streamlit.
+UPLOAD_LIMIT_ENV = "STREAMLIT_SERVER_MAX_UPLOAD_SIZE"
+#: Used only when neither the environment nor the config file sets a limit. [MB]
+FALLBACK_UPLOAD_MB = 25
+
+#: Formats each kind of upload may come in (file extension -> format).
+KINDS: Mapping[str, tuple[str, ...]] = MappingProxyType({
+    "plan": ("toml",),
+    "settings": ("toml",),
+    "scenario": ("toml",),
+    "casemix": ("csv", "toml"),
+    "records": ("csv", "parquet"),
+    "purchases": ("csv", "parquet"),
+})
+_TEXT_FORMATS = ("csv", "toml")
+
+#: Largest TOML file (plans, settings, scenarios, case mixes). [bytes] Same as plan files.
+MAX_TOML_BYTES = 1_000_000
+#: Longest line in a text upload. [characters]
+MAX_LINE_CHARS = 10_000
+#: Deepest nesting of tables and arrays in a TOML upload (the documented formats need 4).
+MAX_TOML_DEPTH = 8
+#: Most rows and columns in a Parquet upload (its data may be compressed far below its size).
+MAX_PARQUET_ROWS = 5_000_000
+MAX_PARQUET_COLUMNS = 200
+
+# Leading bytes of formats that are never one of ours. (offset, magic, what it is)
+_SIGNATURES = (
+    (0, b"PK\x03\x04", "a zip archive (or an Excel/OpenDocument workbook)"),
+    (0, b"PK\x05\x06", "an empty zip archive"),
+    (0, b"PK\x07\x08", "a split zip archive"),
+    (0, b"\x1f\x8b", "a gzip archive"),
+    (0, b"BZh", "a bzip2 archive"),
+    (0, b"\xfd7zXZ\x00", "an xz archive"),
+    (0, b"7z\xbc\xaf\x27\x1c", "a 7-Zip archive"),
+    (0, b"Rar!\x1a\x07", "a RAR archive"),
+    (0, b"\x28\xb5\x2f\xfd", "a zstd archive"),
+    (0, b"\x04\x22\x4d\x18", "an lz4 archive"),
+    (257, b"ustar", "a tar archive"),
+    (0, b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1", "an old Excel/Office document"),
+    (0, b"%PDF", "a PDF document"),
+    (0, b"\x89PNG", "a PNG image"),
+    (0, b"\xff\xd8\xff", "a JPEG image"),
+    (0, b"GIF8", "a GIF image"),
+    (0, b"\x7fELF", "a program (ELF)"),
+    (0, b"MZ", "a Windows program"),
+    (0, b"SQLite format 3\x00", "an SQLite database"),
+    (0, b"{\\rtf", "an RTF document"),
+)
+_PARQUET_MAGIC = b"PAR1"
+# Control characters refused in text: all but tab, line feed, form feed, carriage return.
+_CONTROL = re.compile("[\x00-\x08\x0b\x0e-\x1f\x7f]")
+_CONTROL_OR_BREAK = re.compile("[\x00-\x1f\x7f\x85\u2028\u2029]")
+_LONG_LINE = re.compile("^[^\n]{%d}" % (MAX_LINE_CHARS + 1), re.MULTILINE)
+
+
+@dataclass(frozen=True)
+class Upload:
+    """An upload that passed the guard."""
+
+    #: File name as uploaded, without any folder part.
+    name: str
+    #: One of ``KINDS``.
+    kind: str
+    #: "toml", "csv" or "parquet".
+    format: str
+    data: bytes
+    #: The decoded UTF-8 text (byte-order mark removed) for toml and csv; None for parquet.
+    text: str | None
+
+
+def upload_limit_mb(config_path: Path | None = None) -> int:
+    """The app's upload limit: ``server.maxUploadSize``. [MB]
+
+    Read from the environment variable ``STREAMLIT_SERVER_MAX_UPLOAD_SIZE`` if set, else from
+    the project's ``.streamlit/config.toml`` (the file Streamlit itself reads), else
+    ``FALLBACK_UPLOAD_MB``.
+    """
+    env = os.environ.get(UPLOAD_LIMIT_ENV, "").strip()
+    if env:
+        try:
+            value = int(env)
+        except ValueError:
+            raise InputError(UPLOAD_LIMIT_ENV, env, "expected a whole number of MB") from None
+        if value < 1:
+            raise InputError(UPLOAD_LIMIT_ENV, env, "expected at least 1 MB")
+        return value
+    return _config_limit_mb(str(config_path or CONFIG_PATH))
+
+
+@lru_cache(maxsize=4)
+def _config_limit_mb(path: str) -> int:
+    try:
+        config = tomllib.loads(Path(path).read_text(encoding="utf-8"))
+    except FileNotFoundError:
+        return FALLBACK_UPLOAD_MB
+    except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError) as exc:
+        raise InputError(path, "the file", f"cannot read server.maxUploadSize ({exc})") from None
+    value = config.get("server", {}).get("maxUploadSize", FALLBACK_UPLOAD_MB)
+    if isinstance(value, bool) or not isinstance(value, int) or value < 1:
+        raise InputError(f"{path}: server.maxUploadSize", value, "expected a whole number of MB, at least 1")
+    return value
+
+
+def upload_limit_bytes(config_path: Path | None = None) -> int:
+    """The app's upload limit in bytes (Streamlit counts a MB as 1024 * 1024 bytes)."""
+    return upload_limit_mb(config_path) * 1024 * 1024
+
+
+def check_upload(name: str, data: bytes, kind: str) -> Upload:
+    """Check an uploaded file before any parser reads it.
+
+    Parameters
+    ----------
+    name : str
+        The file name as uploaded (``UploadedFile.name``); its extension picks the format.
+    data : bytes
+        The whole content (``UploadedFile.getvalue()``).
+    kind : str
+        What the upload is for: one of ``KINDS`` ("plan", "settings", "scenario", "casemix",
+        "records", "purchases").
+
+    Returns
+    -------
+    Upload
+        Name, kind, format, the bytes, and the decoded text for TOML and CSV.
+
+    Raises
+    ------
+    InputError
+        One line naming the file (and line, where there is one), what was found and what
+        is accepted.
+    """
+    if kind not in KINDS:
+        raise InputError("upload kind", kind, "allowed kinds are " + ", ".join(KINDS))
+    if isinstance(data, (bytearray, memoryview)):
+        data = bytes(data)
+    if not isinstance(data, bytes):
+        raise InputError("upload", type(data).__name__, "expected the file's bytes")
+    # The name is shown in messages: drop any folder part and make control characters visible.
+    shown = _CONTROL_OR_BREAK.sub("?", PurePath(str(name or "").replace("\\", "/")).name).strip()
+    if not shown:
+        raise InputError("upload", "no file name", "the file needs a name ending in " + _extensions(kind))
+    where = f"{kind} upload '{shown}'"
+    fmt = shown.rsplit(".", 1)[-1].lower() if "." in shown else ""
+    if fmt not in KINDS[kind]:
+        raise InputError(where, shown, f"a {kind} file must end in " + _extensions(kind))
+
+    size = len(data)
+    limit = upload_limit_bytes()
+    if fmt == "toml":
+        limit = min(limit, MAX_TOML_BYTES)
+    if size > limit:
+        raise InputError(where, f"{size} bytes", f"the largest {fmt.upper()} upload is {_size(limit)}")
+    if size == 0:
+        raise InputError(where, "an empty file", f"expected a {fmt.upper()} file")
+
+    found = _sniff(data)
+    if found is not None:
+        raise InputError(where, found, f"expected a plain {fmt.upper()} file; "
+                         "unpack or export it first (archives and office files are not read)")
+    if fmt == "parquet":
+        _check_parquet(data, where)
+        return Upload(shown, kind, fmt, data, None)
+    if data.startswith(_PARQUET_MAGIC):
+        raise InputError(where, "a Parquet file", f"expected {fmt.upper()} text; name a Parquet file '.parquet'")
+    text = _decode_text(data, where)
+    _check_lines(text, where)
+    if fmt == "toml":
+        _check_toml(text, where)
+    return Upload(shown, kind, fmt, data, text)
+
+
+def _extensions(kind: str) -> str:
+    return " or ".join("." + f for f in KINDS[kind])
+
+
+def _size(n: int) -> str:
+    return f"{n / (1024 * 1024):g} MB" if n >= 1024 * 1024 else f"{n:,} bytes"
+
+
+def _sniff(data: bytes) -> str | None:
+    for offset, magic, what in _SIGNATURES:
+        if data[offset:offset + len(magic)] == magic:
+            return what
+    return None
+
+
+def _decode_text(data: bytes, where: str) -> str:
+    if data.startswith((b"\xff\xfe", b"\xfe\xff")):
+        raise InputError(where, "UTF-16 text", "save the file as UTF-8 text")
+    nul = data.find(b"\x00")
+    if nul >= 0:
+        line = data.count(b"\n", 0, nul) + 1
+        raise InputError(f"{where}, line {line}", "a NUL byte",
+                         "expected plain text; the file looks binary or is not UTF-8")
+    try:
+        text = data.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        line = data.count(b"\n", 0, exc.start) + 1
+        raise InputError(f"{where}, line {line}", f"byte 0x{data[exc.start]:02x}",
+                         "expected UTF-8 text; save it as UTF-8 (in spreadsheet programs: CSV UTF-8)") from None
+    found = _CONTROL.search(text)
+    if found is not None:
+        bad = found.start()
+        line = text.count("\n", 0, bad) + 1
+        raise InputError(f"{where}, line {line}", f"control character U+{ord(text[bad]):04X}",
+                         "expected plain text (tabs and line breaks only)")
+    return text
+
+
+def _check_lines(text: str, where: str) -> None:
+    found = _LONG_LINE.search(text)
+    if found is not None:
+        start = text.rfind("\n", 0, found.start()) + 1
+        end = text.find("\n", start)
+        length = (len(text) if end < 0 else end) - start
+        raise InputError(f"{where}, line {text.count(chr(10), 0, start) + 1}", f"{length} characters",
+                         f"a line is at most {MAX_LINE_CHARS:,} characters")
+
+
+def _check_toml(text: str, where: str) -> None:
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(where, "the file", f"not valid TOML ({exc})") from None
+    except RecursionError:
+        raise InputError(where, "nesting too deep", f"tables and arrays nest at most {MAX_TOML_DEPTH} deep") from None
+    depth = _depth(data)
+    if depth > MAX_TOML_DEPTH:
+        raise InputError(where, f"nesting {depth} deep", f"tables and arrays nest at most {MAX_TOML_DEPTH} deep")
+
+
+def _depth(value) -> int:
+    """Nesting depth of dicts and lists (a flat table is 1), without recursion."""
+    deepest = 0
+    stack = [(value, 1)]
+    while stack:
+        item, level = stack.pop()
+        if isinstance(item, dict):
+            deepest = max(deepest, level)
+            stack.extend((v, level + 1) for v in item.values())
+        elif isinstance(item, list):
+            deepest = max(deepest, level)
+            stack.extend((v, level + 1) for v in item)
+        if deepest > MAX_TOML_DEPTH:
+            break
+    return deepest
+
+
+def _check_parquet(data: bytes, where: str) -> None:
+    if len(data) < 12 or not (data.startswith(_PARQUET_MAGIC) and data.endswith(_PARQUET_MAGIC)):
+        raise InputError(where, "not a Parquet file", "expected a Parquet file (it starts and ends with 'PAR1')")
+    footer = int.from_bytes(data[-8:-4], "little")
+    if footer <= 0 or footer > len(data) - 12:
+        raise InputError(where, "a damaged Parquet footer", "expected a complete Parquet file")
+    import pyarrow.parquet as pq
+
+    try:
+        meta = pq.read_metadata(io.BytesIO(data))
+    except Exception as exc:  # pyarrow raises several types for damaged files
+        raise InputError(where, "a damaged Parquet file", f"could not read its metadata ({type(exc).__name__})") from None
+    if meta.num_columns > MAX_PARQUET_COLUMNS:
+        raise InputError(where, f"{meta.num_columns} columns", f"at most {MAX_PARQUET_COLUMNS} columns")
+    if meta.num_rows > MAX_PARQUET_ROWS:
+        raise InputError(where, f"{meta.num_rows:,} rows", f"at most {MAX_PARQUET_ROWS:,} rows per upload")

@@ -1,0 +1,83 @@
+"""The Streamlit configuration shipped with the project keeps the hospital-network choices."""
+
+import json
+import subprocess
+import sys
+import tomllib
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parents[1]
+CONFIG = ROOT / ".streamlit" / "config.toml"
+
+
+@pytest.fixture(scope="module")
+def config() -> dict:
+    return tomllib.loads(CONFIG.read_text(encoding="utf-8"))
+
+
+def test_cross_site_protections_stay_on(config):
+    assert config["server"]["enableXsrfProtection"] is True
+    assert config["server"]["enableCORS"] is True
+    # Nothing in the file relaxes them again (origin allow-lists, SameSite=None cookies).
+    assert "corsAllowedOrigins" not in config["server"]
+    assert config["server"].get("xsrfCookieSameSite", "lax") in ("lax", "strict")
+
+
+def test_upload_limit_is_set_and_small(config):
+    limit = config["server"]["maxUploadSize"]
+    assert isinstance(limit, int) and not isinstance(limit, bool)
+    # Streamlit's default is 200 MB; ours is deliberately smaller.
+    assert 1 <= limit <= 50
+
+
+def test_usage_statistics_are_off(config):
+    assert config["browser"]["gatherUsageStats"] is False
+
+
+def test_no_reload_from_disk_and_no_developer_surface(config):
+    assert config["server"]["runOnSave"] is False
+    assert config["server"]["fileWatcherType"] == "none"
+    assert config["server"]["enableAgentApi"] is False
+    assert config["server"]["enableStaticServing"] is False
+    assert config["server"]["headless"] is True
+    assert config["server"]["address"] in ("localhost", "127.0.0.1")
+
+
+def test_users_see_no_tracebacks_or_outside_links(config):
+    assert config["client"]["showErrorDetails"] == "none"
+    assert config["client"]["showErrorLinks"] is False
+    assert config["client"]["toolbarMode"] == "viewer"
+
+
+def test_streamlit_reads_every_setting_from_the_shipped_file(config):
+    # Source: Streamlit's own configuration loader (streamlit.config), run from the project
+    # folder as `streamlit run` is: each key must be an option it knows, with our value.
+    flat = {f"{section}.{key}": value for section, table in config.items()
+            for key, value in table.items()}
+    code = (
+        "import json, sys\n"
+        "from streamlit import config\n"
+        "config.get_config_options(force_reparse=True)\n"
+        "keys = json.loads(sys.argv[1])\n"
+        "out = {k: [k in config._config_options,\n"
+        "           config.get_option(k) if k in config._config_options else None,\n"
+        "           config._config_options[k].where_defined if k in config._config_options else None]\n"
+        "       for k in keys}\n"
+        "print(json.dumps(out))\n"
+    )
+    done = subprocess.run([sys.executable, "-c", code, json.dumps(sorted(flat))], cwd=ROOT,
+                          capture_output=True, text=True, timeout=120, check=True)
+    seen = json.loads(done.stdout.strip().splitlines()[-1])
+    for key, value in flat.items():
+        known, actual, where = seen[key]
+        assert known, f"{key} is not a Streamlit option"
+        assert actual == value, key
+        assert Path(where).resolve() == CONFIG, key
+
+
+def test_upload_guard_uses_the_configured_limit(config):
+    from model.uploads import upload_limit_bytes
+
+    assert upload_limit_bytes() == config["server"]["maxUploadSize"] * 1024 * 1024
