@@ -233,7 +233,10 @@ GWP_SOURCES: Mapping[str, GwpSource] = MappingProxyType({
             "desflurane": _gwp(2540.0, _SA2012 + ", from memory", FROM_MEMORY),
             "isoflurane": _gwp(510.0, _SA2012 + ", from memory", FROM_MEMORY),
             "sevoflurane": _gwp(130.0, _SA2012 + ", from memory", FROM_MEMORY),
-            "halothane": _gwp(None, _SA2012 + ": no value given there", FROM_MEMORY),
+            # The paper may list halothane too; its value is not carried here because it
+            # could not be confirmed from memory. Give a user value under [gwp.user].
+            "halothane": _gwp(None, _SA2012 + ": halothane value not carried (unconfirmed)",
+                              FROM_MEMORY),
         })),
     "user": GwpSource("user", "User values", 100, "values from the user's settings file",
                       MappingProxyType({})),
