@@ -1,0 +1,224 @@
+"""Exports of result tables: CSV, Excel (xlsx) and a self-contained HTML report.
+
+Every text cell that comes from a user (plan names, phase names, notes) may begin with a
+character a spreadsheet program reads as the start of a formula (``=``, ``+``, ``-``, ``@``,
+tab, carriage return). Such cells are written with a leading apostrophe so they stay text;
+numbers stay numbers. The HTML report escapes every piece of text and carries plotly's
+JavaScript inline (nothing is fetched when it is opened).
+"""
+
+from __future__ import annotations
+
+import html
+import io
+import math
+import re
+from datetime import datetime, timezone
+from typing import Iterable, Mapping, Sequence
+
+import numpy as np
+import pandas as pd
+
+#: Characters that make a spreadsheet read a cell as a formula.
+FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
+#: Prefix that keeps such a cell as text. (OWASP "CSV injection" advice; common practice.)
+NEUTRAL_PREFIX = "'"
+
+
+def neutralise(value):
+    """A cell value safe to open in a spreadsheet program.
+
+    Strings beginning with a formula character get a leading apostrophe; every other
+    value (numbers, booleans, None) is returned unchanged.
+    """
+    if isinstance(value, str) and value.startswith(FORMULA_STARTS):
+        return NEUTRAL_PREFIX + value
+    return value
+
+
+def neutralise_frame(df: pd.DataFrame) -> pd.DataFrame:
+    """A copy of ``df`` with text cells and column names neutralised; numbers untouched."""
+    out = df.copy()
+    out.columns = [neutralise(str(c)) for c in out.columns]
+    for col in out.columns:
+        if out[col].dtype == object or pd.api.types.is_string_dtype(out[col]):
+            out[col] = out[col].map(neutralise)
+    return out
+
+
+def to_csv(df: pd.DataFrame) -> bytes:
+    """One table as CSV (UTF-8, RFC 4180 line ends), formula cells neutralised.
+
+    CRLF line ends make the writer quote any field holding a carriage return or newline.
+    """
+    return neutralise_frame(df).to_csv(index=False, lineterminator="\r\n").encode("utf-8")
+
+
+_SHEET_BAD = re.compile(r"[\[\]:*?/\\]")
+
+
+def _sheet_title(name: str, used: set) -> str:
+    title = _SHEET_BAD.sub(" ", str(name)).strip("' ")[:31] or "Sheet"
+    base, n = title, 2
+    while title.lower() in used:
+        suffix = f" ({n})"
+        title = base[:31 - len(suffix)] + suffix
+        n += 1
+    used.add(title.lower())
+    return title
+
+
+def _cell(value):
+    """A value openpyxl writes as a plain cell (numbers as numbers, text neutralised)."""
+    if value is None:
+        return None
+    if isinstance(value, (bool, np.bool_)):
+        return bool(value)
+    if isinstance(value, (int, np.integer)):
+        return int(value)
+    if isinstance(value, (float, np.floating)):
+        v = float(value)
+        return v if math.isfinite(v) else None
+    if isinstance(value, (pd.Timestamp, datetime)):
+        return value.isoformat()
+    try:
+        if pd.isna(value):
+            return None
+    except (TypeError, ValueError):
+        pass
+    return neutralise(str(value))
+
+
+def to_xlsx(sheets: Mapping[str, pd.DataFrame], notes: Sequence[str] = ()) -> bytes:
+    """Several tables as one Excel workbook, one sheet each, plus an optional notes sheet.
+
+    Text cells are neutralised and typed as text; numbers are written as numbers.
+    """
+    from openpyxl import Workbook
+    from openpyxl.styles import Font
+
+    wb = Workbook()
+    wb.remove(wb.active)
+    used: set = set()
+    for name, df in sheets.items():
+        ws = wb.create_sheet(_sheet_title(name, used))
+        ws.append([_cell(str(c)) for c in df.columns])
+        for cell in ws[1]:
+            cell.font = Font(bold=True)
+        for row in df.itertuples(index=False, name=None):
+            ws.append([_cell(v) for v in row])
+        for cell_row in ws.iter_rows(min_row=1):
+            for cell in cell_row:
+                if isinstance(cell.value, str):
+                    cell.data_type = "s"   # never a formula, whatever the text
+        for i, col in enumerate(df.columns, start=1):
+            width = max([len(str(col))] + [len(str(v)) for v in df[col].head(200)]) + 2
+            ws.column_dimensions[ws.cell(1, i).column_letter].width = min(60, max(8, width))
+        ws.freeze_panes = "A2"
+    if notes:
+        ws = wb.create_sheet(_sheet_title("Notes", used))
+        for line in notes:
+            ws.append([_cell(line)])
+            ws.cell(ws.max_row, 1).data_type = "s"
+        ws.column_dimensions["A"].width = 120
+    buf = io.BytesIO()
+    wb.save(buf)
+    return buf.getvalue()
+
+
+def chart_text(text) -> str:
+    """User text for a plotly label (plotly reads a few HTML tags in labels; escape them)."""
+    return html.escape(str(text), quote=True)
+
+
+_CSS = """
+body{font-family:system-ui,-apple-system,'Segoe UI',sans-serif;margin:2rem auto;max-width:1100px;
+color:#1d2a33;line-height:1.45;padding:0 1rem}
+h1{font-size:1.6rem;margin-bottom:.2rem}h2{font-size:1.2rem;margin-top:2rem;border-bottom:1px solid #cfd8dc;
+padding-bottom:.2rem}.meta{color:#546e7a;font-size:.9rem}
+table{border-collapse:collapse;font-size:.85rem;margin:.5rem 0}th,td{border:1px solid #cfd8dc;
+padding:.25rem .5rem;text-align:left}th{background:#eef3f5}td.num{text-align:right}
+.caution{background:#fff8e1;border-left:4px solid #f0a500;padding:.6rem 1rem;margin:1rem 0}
+.warning{background:#fdecea;border-left:4px solid #c62828;padding:.4rem 1rem;margin:.3rem 0}
+"""
+
+
+def _table_html(df: pd.DataFrame, digits: int = 3) -> str:
+    head = "".join(f"<th>{html.escape(str(c))}</th>" for c in df.columns)
+    rows = []
+    for row in df.itertuples(index=False, name=None):
+        cells = []
+        for v in row:
+            if isinstance(v, (bool, np.bool_)):
+                cells.append(f"<td>{'yes' if v else 'no'}</td>")
+            elif isinstance(v, (int, np.integer)):
+                cells.append(f"<td class='num'>{int(v):,}</td>")
+            elif isinstance(v, (float, np.floating)):
+                shown = "" if not math.isfinite(float(v)) else f"{float(v):,.{digits}g}" if abs(float(v)) < 1 \
+                    else f"{float(v):,.2f}"
+                cells.append(f"<td class='num'>{shown}</td>")
+            elif v is None:
+                cells.append("<td></td>")
+            else:
+                cells.append(f"<td>{html.escape(str(v))}</td>")
+        rows.append("<tr>" + "".join(cells) + "</tr>")
+    return f"<table><thead><tr>{head}</tr></thead><tbody>{''.join(rows)}</tbody></table>"
+
+
+def html_report(title: str, *, inputs: Mapping[str, object] | None = None,
+                tables: Mapping[str, pd.DataFrame] | None = None,
+                figures: Iterable[tuple[str, object]] = (),
+                warnings: Sequence[str] = (), cautions: Sequence[str] = (),
+                sources: pd.DataFrame | None = None, generated_by: str = "Fresh Gas Ledger") -> str:
+    """A self-contained HTML report: inputs, tables, charts, warnings, cautions, sources.
+
+    Parameters
+    ----------
+    title : str
+        Report title (user text; escaped).
+    inputs : mapping
+        Input names and values, shown as a two-column table.
+    tables : mapping of str to DataFrame
+        Result tables by heading.
+    figures : iterable of (str, plotly Figure)
+        Charts by heading; plotly.js is inlined once, so the file opens offline.
+    warnings, cautions : sequence of str
+        Model warnings for these inputs, and the standing cautions.
+    sources : DataFrame, optional
+        The reference values used, with their sources.
+
+    Returns
+    -------
+    str
+        The HTML document.
+    """
+    e = html.escape
+    parts = [f"<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>"
+             f"<meta name='viewport' content='width=device-width, initial-scale=1'>"
+             f"<title>{e(str(title))}</title><style>{_CSS}</style></head><body>",
+             f"<h1>{e(str(title))}</h1>",
+             f"<p class='meta'>{e(generated_by)}, {datetime.now(timezone.utc):%Y-%m-%d %H:%M} UTC</p>"]
+    for c in cautions:
+        parts.append(f"<div class='caution'>{e(str(c))}</div>")
+    if warnings:
+        parts.append("<h2>Warnings</h2>")
+        parts.extend(f"<div class='warning'>{e(str(w))}</div>" for w in warnings)
+    if inputs:
+        parts.append("<h2>Inputs</h2>")
+        parts.append(_table_html(pd.DataFrame({"input": list(inputs), "value": [str(v) for v in inputs.values()]})))
+    for heading, df in (tables or {}).items():
+        parts.append(f"<h2>{e(str(heading))}</h2>")
+        parts.append(_table_html(df))
+    first = True
+    for heading, fig in figures:
+        if fig is None:
+            continue
+        parts.append(f"<h2>{e(str(heading))}</h2>")
+        parts.append(fig.to_html(full_html=False, include_plotlyjs=True if first else False,
+                                 config={"displaylogo": False, "responsive": True}))
+        first = False
+    if sources is not None and len(sources):
+        parts.append("<h2>Reference values and their sources</h2>")
+        parts.append(_table_html(sources))
+    parts.append("</body></html>")
+    return "\n".join(parts)
