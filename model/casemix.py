@@ -1,0 +1,339 @@
+"""A department's case mix: case types with yearly counts, durations, agents and flow practice.
+
+A case-mix file is CSV in the project's own format (documented in README.md, "Case-mix and
+scenario files"): one row per case type, a header row naming the columns, lines starting
+with ``#`` ignored. Each row names a case plan file (the flow practice of that type, in the
+plan format of :mod:`model.plan`) relative to the case-mix file.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import math
+from dataclasses import dataclass, field, replace
+from pathlib import Path
+from typing import Callable, Mapping
+
+import numpy as np
+import pandas as pd
+
+from .errors import InputError
+from .plan import CasePlan, Patient, load_plan
+from .reference import VOLATILES
+from .units import check_range, to_base
+
+CASEMIX_COLUMNS = ("case_type", "cases_per_year", "median_duration", "duration_spread",
+                   *VOLATILES, "n2o_share", "band", "weight", "age", "plan")
+REQUIRED_COLUMNS = ("case_type", "cases_per_year", "median_duration", "plan")
+#: Largest case-mix file read. [bytes]
+MAX_CASEMIX_BYTES = 2_000_000
+#: Most case types in one mix.
+MAX_CASE_TYPES = 500
+#: Most cases of one type per year (a very large hospital does some tens of thousands in all).
+MAX_CASES_PER_TYPE = 1_000_000
+#: Tolerance on the sum of agent shares. [1]
+SHARE_TOLERANCE = 0.005
+#: Name of the phase that stretches with case duration, when a plan has one.
+STRETCH_PHASE_NAME = "maintenance"
+
+
+@dataclass(frozen=True)
+class CaseType:
+    """One case type of a mix.
+
+    ``spread`` is the standard deviation of the natural log of the case duration (a
+    log-normal distribution around ``median_min``); 0 means every case lasts the median.
+    ``agent_shares`` maps each volatile agent to its share of the type's cases (sum 1).
+    """
+
+    name: str
+    cases_per_year: int
+    median_min: float
+    spread: float
+    agent_shares: Mapping[str, float]
+    n2o_share: float
+    plan: CasePlan
+    plan_name: str
+    band: str = "adult"
+    weight_kg: float = 70.0
+    age_years: float = 40.0
+
+    @property
+    def stretch_index(self) -> int:
+        """Index of the phase whose length follows the case duration (see :func:`stretch_phase`)."""
+        return stretch_phase(self.plan)
+
+    @property
+    def fixed_min(self) -> float:
+        """Minutes of the phases that keep their planned length. [min]"""
+        i = self.stretch_index
+        return float(sum(p.minutes for j, p in enumerate(self.plan.phases) if j != i))
+
+
+@dataclass(frozen=True)
+class CaseMix:
+    """The case types of a department, and the file they came from."""
+
+    types: tuple[CaseType, ...]
+    source: str = ""
+    #: Plans by the name used in the ``plan`` column.
+    plans: Mapping[str, CasePlan] = field(default_factory=dict)
+
+    @property
+    def cases_per_year(self) -> int:
+        return int(sum(t.cases_per_year for t in self.types))
+
+    def with_counts(self, factor: float) -> "CaseMix":
+        """A copy with every yearly count multiplied by ``factor`` (rounded to whole cases)."""
+        return replace(self, types=tuple(replace(t, cases_per_year=int(round(t.cases_per_year * factor)))
+                                         for t in self.types))
+
+
+def stretch_phase(plan: CasePlan) -> int:
+    """Index of the phase that takes up a case's duration beyond the other phases.
+
+    The phase named "maintenance" (any case), else the longest phase (the first of equals).
+    The other phases keep their planned minutes in every case (common practice, no source:
+    induction and emergence take about the same time whatever the operation).
+    """
+    for i, p in enumerate(plan.phases):
+        if p.name.strip().lower() == STRETCH_PHASE_NAME:
+            return i
+    return int(np.argmax([p.minutes for p in plan.phases]))
+
+
+def _number(raw: str, where: str, unit: str, low: float, high: float, default=None,
+            low_open=False, shown_unit: str | None = None) -> float:
+    if raw is None or str(raw).strip() == "":
+        if default is None:
+            raise InputError(where, "nothing", "this field is required")
+        return default
+    value = to_base(str(raw).strip(), unit, where)
+    return check_range(value, where, low, high, shown_unit if shown_unit is not None else unit, low_open)
+
+
+def _share(raw, where: str) -> float:
+    if raw is None or str(raw).strip() == "":
+        return 0.0
+    text = str(raw).strip()
+    if "%" in text:
+        value = to_base(text, "percent", where) / 100.0
+    else:
+        value = to_base(text, "dimensionless", where)
+    return check_range(value, where, 0.0, 1.0, "")
+
+
+def _count(raw, where: str) -> int:
+    if raw is None or str(raw).strip() == "":
+        raise InputError(where, "nothing", "this field is required (cases per year)")
+    text = str(raw).strip().replace("_", "")
+    try:
+        value = float(text)
+    except ValueError:
+        raise InputError(where, raw, "expected a whole number of cases per year") from None
+    if not math.isfinite(value) or value != int(value):
+        raise InputError(where, raw, "expected a whole number of cases per year")
+    return int(check_range(int(value), where, 0, MAX_CASES_PER_TYPE, ""))
+
+
+def case_type_from_row(row: Mapping[str, object], plan_for: Callable[[str, str], CasePlan],
+                       where: str) -> CaseType:
+    """Validate one case-mix row (values as text or numbers) into a :class:`CaseType`.
+
+    Parameters
+    ----------
+    row : mapping
+        Column name -> value, in the case-mix file's columns.
+    plan_for : callable
+        ``plan_for(name, where)`` returns the case plan named in the ``plan`` column.
+    where : str
+        Where the row sits (file and line), for error messages.
+
+    Raises
+    ------
+    InputError
+        Naming the row and the field.
+    """
+    def get(key):
+        v = row.get(key)
+        if v is None or (isinstance(v, float) and math.isnan(v)):
+            return None
+        return v
+
+    name = str(get("case_type") or "").strip()
+    if not name:
+        raise InputError(f"{where}, case_type", "nothing", "every case type needs a name")
+    if len(name) > 120:
+        raise InputError(f"{where}, case_type", name, "at most 120 characters")
+    count = _count(get("cases_per_year"), f"{where}, cases_per_year")
+    median = _number(get("median_duration"), f"{where}, median_duration", "min", 0.0, 24 * 60,
+                     low_open=True)
+    spread = _number(get("duration_spread"), f"{where}, duration_spread", "dimensionless", 0.0, 2.0,
+                     default=0.0, shown_unit="")
+    shares = {a: _share(get(a), f"{where}, {a}") for a in VOLATILES}
+    total = sum(shares.values())
+    if abs(total - 1.0) > SHARE_TOLERANCE:
+        raise InputError(f"{where}, agent shares", f"{total:g}",
+                         "the shares of " + ", ".join(VOLATILES) + " must add up to 1 (100 %)")
+    shares = {a: s / total for a, s in shares.items()}
+    n2o = _share(get("n2o_share"), f"{where}, n2o_share")
+    band = str(get("band") or "adult").strip()[:40] or "adult"
+    weight = _number(get("weight"), f"{where}, weight", "kg", 0.5, 350.0, default=70.0)
+    age = _number(get("age"), f"{where}, age", "year", 0.0, 120.0, default=40.0)
+    plan_name = str(get("plan") or "").strip()
+    if not plan_name:
+        raise InputError(f"{where}, plan", "nothing", "name the case plan file of this type's flow practice")
+    plan = plan_for(plan_name, f"{where}, plan")
+    for i, p in enumerate(plan.phases, start=1):
+        if p.dial_pct is None:
+            raise InputError(f"{where}, plan", plan_name,
+                             f"phase {i} has an end-tidal target; the year model reads dial settings")
+    plan = replace(plan, patient=replace(plan.patient, weight_kg=weight, age_years=age))
+    ctype = CaseType(name, count, median, spread, shares, n2o, plan, plan_name, band, weight, age)
+    if median <= ctype.fixed_min:
+        raise InputError(f"{where}, median_duration", f"{median:g} min",
+                         f"must be longer than the plan's fixed phases ({ctype.fixed_min:g} min)")
+    return ctype
+
+
+def _check_names(types, source):
+    seen = set()
+    for t in types:
+        if t.name in seen:
+            raise InputError(f"{source}: case_type", t.name, "each case type name appears once")
+        seen.add(t.name)
+
+
+def parse_casemix_text(text: str, source: str = "case mix",
+                       plan_for: Callable[[str, str], CasePlan] | None = None) -> CaseMix:
+    """Read a case mix from CSV text.
+
+    Parameters
+    ----------
+    text : str
+        The CSV text (header row first; ``#`` lines ignored).
+    source : str
+        Name of the file, for error messages.
+    plan_for : callable, optional
+        ``plan_for(name, where)`` returns a plan by the name in the ``plan`` column. By
+        default plan names are files relative to the current folder.
+
+    Raises
+    ------
+    InputError
+        Naming the file, line and column.
+    """
+    if len(text) > MAX_CASEMIX_BYTES:
+        raise InputError(source, f"{len(text)} characters", f"a case-mix file is at most {MAX_CASEMIX_BYTES} bytes")
+    plans: dict[str, CasePlan] = {}
+    loader = plan_for or (lambda name, where: _load_plan_file(Path(name), name, where))
+
+    def cached(name, where):
+        if name not in plans:
+            plans[name] = loader(name, where)
+        return plans[name]
+
+    reader = csv.reader(io.StringIO(text))
+    header = None
+    types = []
+    try:
+        for row in reader:
+            line = reader.line_num
+            if not row or not "".join(row).strip() or row[0].lstrip().startswith("#"):
+                continue
+            if header is None:
+                header = [h.strip().lower() for h in row]
+                unknown = [h for h in header if h not in CASEMIX_COLUMNS]
+                if unknown:
+                    raise InputError(f"{source}: line {line}", unknown[0],
+                                     "allowed columns are " + ", ".join(CASEMIX_COLUMNS))
+                missing = [c for c in REQUIRED_COLUMNS if c not in header]
+                if missing:
+                    raise InputError(f"{source}: header", missing[0], "this column is required")
+                continue
+            if len(row) > len(header):
+                raise InputError(f"{source}: line {line}", f"{len(row)} fields",
+                                 f"the header has {len(header)} columns")
+            if len(types) >= MAX_CASE_TYPES:
+                raise InputError(source, f"more than {MAX_CASE_TYPES} case types", "split the mix")
+            record = dict(zip(header, row))
+            types.append(case_type_from_row(record, cached, f"{source}: line {line}"))
+    except csv.Error as exc:
+        raise InputError(f"{source}: line {reader.line_num}", "the row", f"not valid CSV ({exc})") from None
+    if header is None or not types:
+        raise InputError(source, "no case types", "a case mix needs a header row and at least one case type")
+    _check_names(types, source)
+    return CaseMix(tuple(types), source, dict(plans))
+
+
+def _load_plan_file(path: Path, name: str, where: str) -> CasePlan:
+    try:
+        return load_plan(path)
+    except InputError as exc:
+        if "does not exist" in exc.allowed:
+            raise InputError(where, name, f"no plan file at {path}") from None
+        raise
+
+
+def load_casemix(path) -> CaseMix:
+    """Read a case-mix file (CSV); plan names are files relative to its folder."""
+    p = Path(path)
+    try:
+        size = p.stat().st_size
+        if size > MAX_CASEMIX_BYTES:
+            raise InputError(str(p), f"{size} bytes", f"a case-mix file is at most {MAX_CASEMIX_BYTES} bytes")
+        text = p.read_bytes().decode("utf-8-sig")
+    except FileNotFoundError:
+        raise InputError(str(p), str(p), "the file does not exist") from None
+    except IsADirectoryError:
+        raise InputError(str(p), str(p), "expected a file, found a folder") from None
+    except UnicodeDecodeError:
+        raise InputError(str(p), "the file", "expected UTF-8 text (a CSV case-mix file)") from None
+    except OSError as exc:
+        raise InputError(str(p), str(p), f"cannot be read ({exc.strerror})") from None
+    folder = p.parent
+    return parse_casemix_text(text, str(p),
+                              lambda name, where: _load_plan_file(folder / name, name, where))
+
+
+def casemix_from_frame(frame: pd.DataFrame, plans: Mapping[str, CasePlan], source: str = "table") -> CaseMix:
+    """A case mix from an edited table (columns as in the file), with plans given by name.
+
+    Rows are numbered from 1 in error messages.
+    """
+    def plan_for(name, where):
+        if name not in plans:
+            raise InputError(where, name, "known plans are " + ", ".join(sorted(plans)))
+        return plans[name]
+
+    types = []
+    for i, record in enumerate(frame.to_dict("records"), start=1):
+        if all(v is None or (isinstance(v, float) and math.isnan(v)) or str(v).strip() == ""
+               for v in record.values()):
+            continue
+        record = {str(k).strip().lower(): v for k, v in record.items()}
+        types.append(case_type_from_row(record, plan_for, f"{source}: row {i}"))
+    if not types:
+        raise InputError(source, "no case types", "a case mix needs at least one case type")
+    _check_names(types, source)
+    return CaseMix(tuple(types), source, dict(plans))
+
+
+def casemix_to_frame(mix: CaseMix) -> pd.DataFrame:
+    """The case mix as a table in file form (durations in min, shares as fractions)."""
+    rows = []
+    for t in mix.types:
+        rows.append({
+            "case_type": t.name, "cases_per_year": t.cases_per_year,
+            "median_duration": t.median_min, "duration_spread": t.spread,
+            **{a: round(t.agent_shares.get(a, 0.0), 6) for a in VOLATILES},
+            "n2o_share": t.n2o_share, "band": t.band, "weight": t.weight_kg, "age": t.age_years,
+            "plan": t.plan_name,
+        })
+    return pd.DataFrame(rows, columns=list(CASEMIX_COLUMNS))
+
+
+def casemix_to_csv(mix: CaseMix) -> str:
+    """The case mix as CSV text in the case-mix file format."""
+    return casemix_to_frame(mix).to_csv(index=False)
