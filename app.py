@@ -1,27 +1,38 @@
-"""Fresh Gas Ledger dashboard (entry point): `streamlit run app.py`."""
+"""Fresh Gas Ledger dashboard (entry point): `streamlit run app.py`.
+
+Navigation over the pages in ``pages/``; the settings sidebar is drawn here so its values
+persist as the user moves between pages. Pages written by other parts of the project appear
+when their files exist.
+"""
 
 from pathlib import Path
 
 import streamlit as st
 
-from model import compute_case, load_plan
+import ui.common
 
-st.set_page_config(page_title="Fresh Gas Ledger", layout="wide")
-st.title("Fresh Gas Ledger")
-st.warning(
-    "Estimates support planning, budgeting and reporting; they are not a prescription. "
-    "Flows, mixes and dial settings follow local protocols, the workstation's instructions "
-    "for use and licensed practice, with inspired O2 and end-tidal agent monitored."
-)
-plan = load_plan(Path(__file__).parent / "demo_data" / "plans" / "lap_chole_low_flow.toml")
-result = compute_case(plan)
-t = result.totals
-st.subheader(plan.name)
-cols = st.columns(4)
-cols[0].metric("Liquid agent", f"{t['liquid_agent_ml']:.1f} mL")
-cols[1].metric("CO2e", f"{t['co2e_total_kg']:.2f} kg")
-cols[2].metric("Cost", f"{t['cost_total']:.2f} {result.currency}")
-cols[3].metric("MAC-hours", f"{t['mac_hours']:.2f}")
-st.dataframe(result.phases, hide_index=True)
-for w in result.warnings:
-    st.caption(w)
+HERE = Path(__file__).resolve().parent
+
+st.set_page_config(page_title="Fresh Gas Ledger", page_icon=":material/air:", layout="wide")
+
+
+def _page(file: str, title: str, icon: str, default: bool = False):
+    path = HERE / "pages" / file
+    return st.Page(str(path), title=title, icon=icon, default=default) if path.exists() else None
+
+
+sections = {
+    "One case": [_page("case_plan.py", "Case plan", ":material/stethoscope:", default=True),
+                 _page("compare.py", "Compare", ":material/compare_arrows:")],
+    "The department": [_page("department_year.py", "Department year", ":material/calendar_month:"),
+                       _page("record_audit.py", "Record audit", ":material/fact_check:")],
+    "Data": [_page("reference.py", "Reference", ":material/menu_book:")],
+}
+sections = {name: [p for p in pages if p is not None] for name, pages in sections.items()}
+navigation = st.navigation({name: pages for name, pages in sections.items() if pages})
+
+with st.sidebar:
+    st.markdown("### Fresh Gas Ledger")
+    st.caption("Agent, gases, absorbent, cost and CO2e of anaesthesia, per case and per year.")
+ui.common.sidebar_for_app()
+navigation.run()

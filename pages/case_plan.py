@@ -1,0 +1,413 @@
+"""Case plan: edit one case (patient, agent, phases) and see what it consumes, costs and emits."""
+
+from __future__ import annotations
+
+import json
+import re
+
+import pandas as pd
+import streamlit as st
+
+import ui
+from model import InputError
+from model.exports import html_report
+from model.plan import CasePlan, plan_from_dict, plan_to_dict, plan_to_toml
+from model.reference import VOLATILES
+from ui import charts
+
+view = ui.page_start("Case plan", "Build one case phase by phase. Figures update as you type; "
+                     "numbers may carry units (\"500 mL/min\", \"1.5 h\").")
+store = ui.get_store()
+ref = ui.reference(view)
+ref_key = ui.reference_key(view)
+ss = st.session_state
+
+COLUMNS = {"phase": "name", "duration": "duration", "O2": "o2", "air": "air", "N2O": "n2o"}
+CONTROL_LABELS = {"dial": "vaporizer dial (%)", "target": "end-tidal target (x MAC)"}
+
+
+# ---- loading a plan into the widgets ---------------------------------------------------
+
+def _editor_frame(plan: CasePlan) -> pd.DataFrame:
+    rows = []
+    for p in plan.phases:
+        rows.append({"phase": p.name, "duration": f"{p.minutes:g} min", "O2": view.flow(p.o2_l_min),
+                     "air": view.flow(p.air_l_min), "N2O": view.flow(p.n2o_l_min), "control": p.mode,
+                     "setting": f"{p.dial_pct:g} %" if p.dial_pct is not None else f"{p.target_mac:g}"})
+    return pd.DataFrame(rows, columns=["phase", "duration", "O2", "air", "N2O", "control", "setting"])
+
+
+def _load(plan: CasePlan, origin: str) -> None:
+    ss["cp_base"] = plan
+    ss["cp_origin"] = origin
+    ss["cp_name"] = plan.name
+    ss["cp_agent"] = plan.agent
+    ss["cp_weight"] = f"{plan.patient.weight_kg:g} kg"
+    ss["cp_age"] = f"{plan.patient.age_years:g} year"
+    ss["cp_floor"] = f"{plan.settings.inspired_o2_floor * 100:g} %"
+    ss["cp_sevo_min"] = f"{plan.settings.sevoflurane_min_flow_l_min:g} L/min"
+    ss["cp_capture"] = f"{plan.settings.capture_efficiency * 100:g} %"
+    ss["cp_editor_df"] = _editor_frame(plan)
+    ss["cp_editor_unit"] = view.flow_unit
+    ss["cp_rev"] = ss.get("cp_rev", 0) + 1
+    ss["cp_last_toml"] = plan_to_toml(ui.apply_settings(plan, view))
+
+
+def _open_selected() -> None:
+    name = ss.get("cp_open_name")
+    version = ss.get("cp_open_version")
+    try:
+        plan = store.load_plan(name, None if version in (None, "latest") else int(version))
+    except InputError as err:
+        ss["cp_flash"] = ("error", str(err))
+        return
+    _load(plan, f"saved plan '{name}'" + (f" version {version}" if version not in (None, "latest") else ""))
+
+
+names = store.names("plan")
+if "cp_base" not in ss:
+    if names:
+        _load(store.load_plan(names[0]), f"saved plan '{names[0]}'")
+    else:
+        st.info("The store holds no plans yet; import a plan file below.")
+        st.stop()
+elif ss.get("cp_editor_unit") != view.flow_unit:
+    # The flow unit changed in the sidebar: show the current plan's flows in the new unit.
+    current = ss.get("cp_current_plan", ss["cp_base"])
+    ss["cp_editor_df"] = _editor_frame(current)
+    ss["cp_editor_unit"] = view.flow_unit
+    ss["cp_rev"] += 1
+
+with st.container(border=True):
+    c1, c2, c3 = st.columns([3, 1, 1], vertical_alignment="bottom")
+    c1.selectbox("Open a saved plan", names, key="cp_open_name",
+                 index=names.index(ss["cp_base"].name) if ss["cp_base"].name in names else 0)
+    history = store.history("plan", ss["cp_open_name"]) if ss.get("cp_open_name") in names else []
+    c2.selectbox("Version", ["latest"] + [str(v.version) for v in history], key="cp_open_version")
+    c3.button("Open", on_click=_open_selected, icon=":material/folder_open:", width="stretch")
+    st.caption(f"Editing: {ss['cp_origin']}")
+flash = ss.pop("cp_flash", None)
+if flash:
+    getattr(st, flash[0])(flash[1])
+
+
+# ---- the inputs ----------------------------------------------------------------------
+
+st.subheader("Inputs")
+field_errors: dict[str, str] = {}
+a1, a2, a3, a4 = st.columns([3, 1.3, 1, 1])
+a1.text_input("Plan name", key="cp_name", max_chars=120)
+a2.selectbox("Agent", VOLATILES, key="cp_agent", format_func=lambda k: ref.agents[k].label)
+a3.text_input("Patient weight", key="cp_weight", help="e.g. 78 kg or 172 lb")
+a4.text_input("Patient age", key="cp_age", help="in years, e.g. 52 year")
+slots = {"name": a1.empty(), "agent": a2.empty(), "weight": a3.empty(), "age": a4.empty()}
+
+with st.expander("Safety limits and scavenging", icon=":material/tune:"):
+    b1, b2, b3 = st.columns(3)
+    b1.text_input("Warn under inspired O2", key="cp_floor", help="Never below 21 %")
+    b2.text_input("Lowest sevoflurane flow", key="cp_sevo_min",
+                  help="Some labelling asks for at least 1 L/min (2 L/min beyond 1 MAC-hour); follow local protocol")
+    b3.text_input("Agent captured before release", key="cp_capture", help="Share of scavenged agent captured, 0-100 %")
+    slots.update({"inspired_o2_floor": b1.empty(), "sevoflurane_min_flow": b2.empty(),
+                  "capture_efficiency": b3.empty()})
+
+st.markdown("**Phases** — one row per phase; add or delete rows at the table's edge.")
+edited = st.data_editor(
+    ss["cp_editor_df"], key=f"cp_phases_{ss['cp_rev']}", num_rows="dynamic", hide_index=True,
+    width="stretch",
+    column_config={
+        "phase": st.column_config.TextColumn("phase", required=True, max_chars=80),
+        "duration": st.column_config.TextColumn("duration", help="e.g. 75 min or 1.25 h", required=True),
+        "O2": st.column_config.TextColumn("O2 flow", help="e.g. 0.5 L/min or 500 mL/min"),
+        "air": st.column_config.TextColumn("air flow"),
+        "N2O": st.column_config.TextColumn("N2O flow"),
+        "control": st.column_config.SelectboxColumn("control", options=list(CONTROL_LABELS), required=True,
+                                                    help="dial: vaporizer setting; target: end-tidal MAC multiple"),
+        "setting": st.column_config.TextColumn("dial % or target", help="e.g. 2.5 % (dial) or 1.0 (x MAC)"),
+    })
+table_slot = st.empty()
+
+
+def _raw_inputs() -> dict:
+    base = plan_to_dict(ss["cp_base"])
+    base["name"] = ss["cp_name"]
+    base["agent"] = ss["cp_agent"]
+    base["patient"]["weight"] = ss["cp_weight"]
+    base["patient"]["age"] = ss["cp_age"]
+    base["settings"]["inspired_o2_floor"] = ss["cp_floor"]
+    base["settings"]["sevoflurane_min_flow"] = ss["cp_sevo_min"]
+    base["settings"]["capture_efficiency"] = ss["cp_capture"]
+    base["settings"]["gwp_source"] = view.gwp_source
+    base["settings"]["room_temperature"] = f"{view.temperature_c:g} degC"
+    phases = []
+    for row in edited.to_dict("records"):
+        if all(v is None or (isinstance(v, str) and not v.strip()) or v != v for v in row.values()):
+            continue    # an empty added row
+        p = {}
+        for col, key in COLUMNS.items():
+            v = row.get(col)
+            if v is not None and v == v and str(v).strip():
+                p[key] = str(v).strip()
+        setting = row.get("setting")
+        if setting is not None and setting == setting and str(setting).strip():
+            p["target" if row.get("control") == "target" else "dial"] = str(setting).strip()
+        phases.append(p)
+    base["phases"] = phases
+    return base
+
+
+@st.cache_data(show_spinner=False, max_entries=256)
+def _build(raw_json: str) -> tuple[str, str, str]:
+    """("ok", plan TOML, "") or ("error", field, message) for the typed inputs."""
+    try:
+        plan = plan_from_dict(json.loads(raw_json), "")
+    except InputError as err:
+        return "error", err.field, str(err)
+    return "ok", plan_to_toml(plan), ""
+
+
+_PHASE_FIELD = re.compile(r"^phases\[(\d+)\]\.?(\w*)")
+_FIELD_LABEL = {"name": "phase", "duration": "duration", "o2": "O2 flow", "air": "air flow",
+                "n2o": "N2O flow", "dial": "dial % or target", "target": "dial % or target",
+                "dial/target": "dial % or target", "o2/air/n2o": "flows"}
+
+
+def _place_error(field: str, message: str) -> None:
+    m = _PHASE_FIELD.match(field)
+    if m:
+        row, col = int(m.group(1)), m.group(2)
+        text = message.split(": ", 1)[-1] if ": " in message else message
+        table_slot.error(f"Phases table, row {row}, {_FIELD_LABEL.get(col, col or 'row')}: {text}",
+                         icon=":material/error:")
+        return
+    if field == "phases":
+        table_slot.error("Phases table: a plan needs at least one phase.", icon=":material/error:")
+        return
+    key = field.split(".")[-1]
+    slot = slots.get(key)
+    (slot or table_slot).error(message, icon=":material/error:")
+
+
+status, payload, message = _build(json.dumps(_raw_inputs(), sort_keys=True, default=str))
+result = None
+if status == "ok":
+    try:
+        with st.spinner("Computing the case..."):
+            result = ui.compute_cached(payload, ref_key, ref)
+        ss["cp_last_toml"] = payload
+    except InputError as err:
+        _place_error(err.field, str(err))
+else:
+    _place_error(payload, message)
+
+if result is None:
+    st.warning("The figures below are the last valid result; correct the entry above to update them.",
+               icon=":material/history:")
+    try:
+        result = ui.compute_cached(ss["cp_last_toml"], ref_key, ref)
+    except InputError as err:   # e.g. the GWP source has no value for this agent
+        ui.show_input_error(err)
+        st.stop()
+plan = result.plan
+ss["cp_current_plan"] = plan
+t = result.totals
+
+
+# ---- results -------------------------------------------------------------------------
+
+@st.cache_data(show_spinner=False, max_entries=64)
+def _baseline_totals(base_toml: str, ref_key: str, _ref) -> dict:
+    return ui.compute_cached(base_toml, ref_key, _ref).totals
+
+
+base_toml = plan_to_toml(ui.apply_settings(ss["cp_base"], view))
+try:
+    b = _baseline_totals(base_toml, ref_key, ref)
+except InputError:
+    b = None
+
+
+def _delta(key, fmt, scale=1.0):
+    if b is None or abs(t[key] - b[key]) < 1e-9:
+        return None
+    return fmt((t[key] - b[key]) * scale)
+
+
+st.subheader("What this case uses")
+agent = ref.volatile(plan.agent)
+co2e_scale = ui.common.CO2E_UNITS[view.co2e_unit]
+m = st.columns(6)
+m[0].metric("Liquid agent", f"{t['liquid_agent_ml']:.1f} mL", _delta("liquid_agent_ml", lambda d: f"{d:+.1f} mL"),
+            delta_color="inverse", help="Change shown against the plan as opened")
+m[1].metric("Bottles", f"{t['bottles']:.2f}", _delta("bottles", lambda d: f"{d:+.2f}"), delta_color="inverse",
+            help=f"{agent.label} bottle of {agent.bottle_volume:g} mL")
+m[2].metric("Emissions", view.co2e(t["co2e_total_kg"]),
+            _delta("co2e_total_kg", lambda d: f"{d:+,.3g} {view.co2e_unit}", co2e_scale), delta_color="inverse",
+            help=f"{result.gwp_label}; agent and N2O released")
+m[3].metric("Cost", view.money(t["cost_total"]), _delta("cost_total", lambda d: f"{d:+,.2f} {view.currency}"),
+            delta_color="inverse", help="Agent pro rata by volume, gases, absorbent")
+m[4].metric("MAC-hours", f"{t['mac_hours']:.2f}", _delta("mac_hours", lambda d: f"{d:+.2f}"), delta_color="off")
+tc = result.timecourse
+fio2_col = None if tc is None else next((c for c in tc.columns if "fio2" in c.lower() or "inspired_o2" in c.lower()), None)
+if fio2_col is not None:
+    m[5].metric("Lowest inspired O2", f"{tc[fio2_col].min():.0f} %", help="Predicted by the circle model")
+else:
+    m[5].metric("Lowest fresh gas O2", f"{t['min_fd_o2_pct']:.0f} %",
+                help="O2 share of the fresh gas; inspired O2 in a circle is lower at low flow")
+g = st.columns(6)
+g[0].metric("Oxygen", f"{t['oxygen_l']:,.0f} L")
+g[1].metric("Medical air", f"{t['air_l']:,.0f} L")
+g[2].metric("Nitrous oxide", f"{t['nitrous_oxide_l']:,.0f} L")
+g[3].metric("CO2 absorbent", f"{t['absorbent_g']:,.0f} g")
+g[4].metric("Agent emitted", f"{t['agent_emitted_g']:.1f} g")
+g[5].metric("Duration", f"{t['duration_min']:.0f} min")
+
+if result.warnings:
+    with st.container(border=True):
+        st.markdown("**Check before use**")
+        for w in result.warnings:
+            st.warning(w, icon=":material/warning:")
+else:
+    st.success("No warnings for this plan at the chosen limits.", icon=":material/check_circle:")
+
+
+# ---- charts --------------------------------------------------------------------------
+
+fate = charts.agent_fate(t, agent.metabolised_fraction)
+figs = {"time": charts.timecourse_figure(tc), "fate": charts.fate_figure(fate, agent.label),
+        "cost": charts.cost_figure(t, result.currency)}
+
+
+def _sweep():
+    try:
+        from model import sweep as sweep_mod   # added by the physiology part of the project
+    except ImportError:
+        return None
+    fn = getattr(sweep_mod, "flow_sweep", None) or getattr(sweep_mod, "sweep_flows", None)
+    return None if fn is None else (sweep_mod, fn)
+
+
+tabs = st.tabs(["Time course", "Where the agent went", "Flow sweep", "Phases", "Cost by item"])
+with tabs[0]:
+    if figs["time"] is not None:
+        st.plotly_chart(figs["time"], width="stretch", key="cp_fig_time")
+    else:
+        st.info("The minute-by-minute time course (dial, inspired and end-tidal agent, inspired O2, "
+                "cumulative liquid) appears here when the patient and circle model runs for this plan.",
+                icon=":material/schedule:")
+with tabs[1]:
+    c1, c2 = st.columns([3, 2])
+    c1.plotly_chart(figs["fate"], width="stretch", key="cp_fig_fate")
+    c2.dataframe(fate.assign(agent_g=fate["agent_g"].round(1)), hide_index=True,
+                 column_config={"where": "where it went", "agent_g": "agent (g)"})
+    if t.get("agent_uptake_g", 0.0) == 0.0:
+        c2.caption("No uptake model ran for this plan: all delivered agent counts as vented (an upper bound).")
+    if plan.settings.capture_efficiency > 0:
+        c2.caption(f"{plan.settings.capture_efficiency:.0%} of the vented agent is captured before release.")
+with tabs[2]:
+    sweep_api = _sweep()
+    figs["sweep"] = None
+    if sweep_api is None:
+        st.info("The flow sweep (cost and CO2e against maintenance flow, lowest of each marked) "
+                "appears here when the sweep model is installed.", icon=":material/ssid_chart:")
+    else:
+        from ui.sweep_view import show_sweep
+        figs["sweep"] = show_sweep(sweep_api, plan, ref, ref_key, view)
+with tabs[3]:
+    ph = result.phases
+    shown = pd.DataFrame({
+        "phase": ph["phase"], "minutes": ph["duration_min"],
+        f"fresh gas ({view.flow_unit})": ph["fgf_l_min"] * (1000 if view.flow_unit == "mL/min" else 1),
+        "flow band": ph["flow_band"], "fresh gas O2 %": ph["fd_o2_pct"].round(0), "dial %": ph["dial_pct"],
+        "liquid (mL)": ph["liquid_agent_ml"].round(1), f"CO2e ({view.co2e_unit})": (ph["co2e_kg"] * co2e_scale).round(3),
+        f"cost ({result.currency})": ph["cost_total"].round(2), "MAC-hours": ph["mac_hours"].round(2),
+        "mix altered": ph["flows_altered"]})
+    st.dataframe(shown, hide_index=True, width="stretch")
+with tabs[4]:
+    c1, c2 = st.columns([3, 2])
+    c1.plotly_chart(figs["cost"], width="stretch", key="cp_fig_cost")
+    c2.dataframe(charts.cost_by_item(t, result.currency), hide_index=True)
+
+
+# ---- downloads, saving, plan files ---------------------------------------------------
+
+LABELS = [("Liquid agent", "liquid_agent_ml", "mL"), ("Bottles", "bottles", "bottles"),
+          ("Agent delivered", "agent_mass_g", "g"), ("Agent emitted", "agent_emitted_g", "g"),
+          ("Oxygen", "oxygen_l", "L"), ("Medical air", "air_l", "L"), ("Nitrous oxide", "nitrous_oxide_l", "L"),
+          ("CO2 absorbent", "absorbent_g", "g"), ("CO2e, agent", "co2e_agent_kg", "kg CO2e"),
+          ("CO2e, nitrous oxide", "co2e_nitrous_oxide_kg", "kg CO2e"), ("CO2e, total", "co2e_total_kg", "kg CO2e"),
+          ("Cost, total", "cost_total", result.currency), ("MAC-hours", "mac_hours", "MAC-h"),
+          ("Duration", "duration_min", "min"), ("Lowest fresh gas O2", "min_fd_o2_pct", "%")]
+summary = pd.DataFrame({"plan": plan.name, "figure": [x[0] for x in LABELS],
+                        "value": [float(t[x[1]]) for x in LABELS], "unit": [x[2] for x in LABELS]})
+inputs = {"plan": plan.name, "agent": agent.label, "patient weight": f"{plan.patient.weight_kg:g} kg",
+          "patient age": f"{plan.patient.age_years:g} years", "GWP source": result.gwp_label,
+          "room temperature": f"{plan.settings.temperature_c:g} °C", "currency": result.currency,
+          "inspired O2 floor": f"{plan.settings.inspired_o2_floor:.0%}",
+          "overrides": ", ".join(ref.override_origins) or "none"}
+inputs.update({f"phase {i}: {p.name}": f"{p.minutes:g} min; O2 {p.o2_l_min:g}, air {p.air_l_min:g}, "
+               f"N2O {p.n2o_l_min:g} L/min; " + (f"dial {p.dial_pct:g} %" if p.dial_pct is not None
+                                                 else f"target {p.target_mac:g} x MAC")
+               for i, p in enumerate(plan.phases, start=1)})
+sources = pd.DataFrame(ref.table())
+tables = {"Summary": summary, "Phases": result.phases.assign(plan=plan.name),
+          "Cost by item": charts.cost_by_item(t, result.currency), "Where the agent went": fate,
+          "Inputs": pd.DataFrame({"input": list(inputs), "value": list(inputs.values())}), "Sources": sources}
+if tc is not None:
+    tables["Time course"] = tc
+
+
+def _report() -> str:
+    return html_report(f"Case plan: {plan.name}", inputs=inputs,
+                       tables={"Summary": summary[["figure", "value", "unit"]],
+                               "Phases": shown},
+                       figures=[("Time course", figs["time"]), ("Where the agent went", figs["fate"]),
+                                ("Flow sweep", figs.get("sweep")), ("Cost by item", figs["cost"])],
+                       warnings=result.warnings, cautions=[ui.CAUTION], sources=sources)
+
+
+st.divider()
+d1, d2 = st.columns([3, 2])
+with d1:
+    st.markdown("**Download these results**")
+    ui.downloads(plan.name, tables, _report, key="cp_dl")
+with d2:
+    st.markdown("**Save this plan**")
+    s1, s2 = st.columns([3, 1], vertical_alignment="bottom")
+    note = s1.text_input("Note for this version", key="cp_note", placeholder="optional, e.g. after theatre meeting")
+    if s2.button("Save", type="primary", icon=":material/save:", width="stretch", disabled=status != "ok"):
+        version = store.save_plan(plan, note)
+        ss["cp_base"] = plan
+        ss["cp_origin"] = f"saved plan '{plan.name}' version {version}"
+        ss["cp_saved_msg"] = f"Saved '{plan.name}' as version {version}. Earlier versions are kept."
+        st.rerun()
+    saved_msg = ss.pop("cp_saved_msg", None)
+    if saved_msg:
+        st.success(saved_msg, icon=":material/check_circle:")
+
+with st.expander("Plan files and saved versions", icon=":material/description:"):
+    f1, f2 = st.columns(2)
+    with f1:
+        st.markdown("**Import a plan file** (TOML, the format in the README)")
+        up = st.file_uploader("Plan file", type=["toml"], key="cp_upload", label_visibility="collapsed")
+        if up is not None and ss.get("cp_upload_done") != up.file_id:
+            ss["cp_upload_done"] = up.file_id
+            try:
+                from model.uploads import check_upload
+                text = check_upload(up.name, up.getvalue(), "plan").text
+                imported, version = store.import_plan_text(text, up.name)
+            except InputError as err:
+                st.error(f"Not imported, the store is unchanged. {err}", icon=":material/error:")
+            else:
+                _load(imported, f"imported file {up.name}")
+                st.success(f"Imported '{imported.name}' as version {version}.")
+                st.rerun()
+    with f2:
+        st.markdown("**Export this plan**")
+        st.download_button("Plan file (TOML)", data=plan_to_toml(plan), file_name=f"{ui.common._slug(plan.name)}.toml",
+                           mime="application/toml", key="cp_dl_toml", on_click="ignore", icon=":material/download:")
+    hist = store.history("plan", plan.name)
+    if hist:
+        st.markdown(f"**Saved versions of '{plan.name}'**")
+        st.dataframe(pd.DataFrame({"version": [v.version for v in hist], "saved (UTC)": [v.saved_at[:19] for v in hist],
+                                   "note": [v.note for v in hist]}), hide_index=True, width="stretch")

@@ -1,0 +1,19 @@
+"""Shared pieces of the dashboard pages: settings sidebar, caution, store, cached model calls,
+downloads and chart builders. Presentation only; every computation lives in ``model``.
+
+API for page authors (see DEVELOPERS.md, "Dashboard pages"):
+
+- ``page_start(title, intro)`` -> ``ViewSettings``: title, the settings sidebar, the caution.
+- ``get_store()``: the session's :class:`model.store.Store`.
+- ``reference()``: the Reference with the user's saved overrides and currency label applied.
+- ``reference_key()``: a short text that changes whenever ``reference()`` does (cache key).
+- ``compute_cached(plan_toml, reference_key(), reference())``: cached ``compute_case``.
+- ``show_input_error(err)``: one line for a :class:`model.errors.InputError`.
+- ``downloads(name, tables, report_html, key)``: the CSV / Excel / HTML download row.
+"""
+
+from .common import (CAUTION, CAUTION_SHORT, ViewSettings, apply_settings, compute_cached, downloads, get_store,
+                     page_start, reference, reference_key, show_input_error, view_settings)
+
+__all__ = ["CAUTION", "CAUTION_SHORT", "ViewSettings", "apply_settings", "compute_cached", "downloads", "get_store",
+           "page_start", "reference", "reference_key", "show_input_error", "view_settings"]

@@ -1,0 +1,226 @@
+"""Settings sidebar, standing caution, store access, cached model calls and download row."""
+
+from __future__ import annotations
+
+import json
+import re
+from dataclasses import dataclass, replace
+from pathlib import Path
+from typing import Callable, Mapping
+
+import pandas as pd
+import streamlit as st
+
+from model import DEFAULT_REFERENCE, InputError, Reference, compute_case, parse_plan_text
+from model.exports import to_csv, to_xlsx
+from model.plan import CasePlan
+from model.store import Store, StoreError, default_path
+
+ROOT = Path(__file__).resolve().parents[1]
+DEMO_PLANS = ROOT / "demo_data" / "plans"
+
+#: The standing caution (DESIGN.md section 6), shown on every page and in every report.
+CAUTION = (
+    "Estimates support planning, budgeting and reporting; they are not a prescription. "
+    "Flows, mixes and dial settings for a patient follow local protocols, the workstation's "
+    "instructions for use and licensed practice, with inspired O2 and end-tidal agent monitored.")
+CAUTION_SHORT = "Planning estimates, not a prescription: follow local protocols and monitor inspired O2 and end-tidal agent."
+
+FLOW_UNITS = ("L/min", "mL/min")
+CO2E_UNITS = {"kg CO2e": 1.0, "g CO2e": 1000.0, "t CO2e": 0.001}
+
+
+@dataclass(frozen=True)
+class ViewSettings:
+    """What the settings sidebar holds; every page reads it."""
+
+    currency: str = "GBP"
+    gwp_source: str = "ar6_gwp100"
+    gwp_horizon_years: int = 100
+    temperature_c: float = 20.0
+    flow_unit: str = "L/min"
+    co2e_unit: str = "kg CO2e"
+
+    def flow(self, l_min: float) -> str:
+        """A flow in the chosen unit, as text a user may type back."""
+        if self.flow_unit == "mL/min":
+            return f"{l_min * 1000:.0f} mL/min"
+        return f"{l_min:.3g} L/min"
+
+    def co2e(self, kg: float) -> str:
+        v = kg * CO2E_UNITS[self.co2e_unit]
+        return f"{v:,.3g} {self.co2e_unit}" if abs(v) < 100 else f"{v:,.0f} {self.co2e_unit}"
+
+    def money(self, amount: float) -> str:
+        return f"{amount:,.2f} {self.currency}"
+
+
+# ---- store and reference -------------------------------------------------------------
+
+@st.cache_resource(show_spinner=False)
+def _store_at(path: str) -> Store:
+    store = Store(path)
+    if store.count_versions() == 0:
+        # A new store starts with the demo plans, so the dashboard is usable at once.
+        for f in sorted(DEMO_PLANS.glob("*.toml")):
+            store.import_plan_text(f.read_text(encoding="utf-8"), f.name, "demo plan (invented)")
+    return store
+
+
+def get_store() -> Store:
+    """The store named by ``GAS_LEDGER_STORE`` (or the default file), seeded with the demo.
+
+    A store file that cannot be used (foreign, or from a newer program) stops the page
+    with its one-line message.
+    """
+    try:
+        return _store_at(str(default_path()))
+    except StoreError as err:
+        st.error(str(err), icon=":material/error:")
+        st.stop()
+
+
+def _saved_overrides() -> dict:
+    try:
+        return get_store().load_overrides()
+    except InputError:
+        return {}
+
+
+@st.cache_resource(show_spinner=False, max_entries=64)
+def _reference_for(overrides_json: str, currency: str) -> Reference:
+    overrides = json.loads(overrides_json)
+    ref = DEFAULT_REFERENCE
+    if overrides:
+        ref = ref.with_overrides(overrides, "dashboard")
+    if currency and currency != ref.prices.currency:
+        ref = ref.with_overrides({"prices": {"currency": currency}}, "dashboard currency label")
+    return ref
+
+
+def reference_key(view: ViewSettings | None = None) -> str:
+    """Text that changes whenever :func:`reference` would (use it as a cache key)."""
+    view = view or view_settings()
+    return json.dumps(_saved_overrides(), sort_keys=True) + "|" + view.currency
+
+
+def reference(view: ViewSettings | None = None) -> Reference:
+    """The Reference with the saved overrides and the sidebar's currency label applied."""
+    view = view or view_settings()
+    try:
+        return _reference_for(json.dumps(_saved_overrides(), sort_keys=True), view.currency)
+    except InputError as err:
+        st.error(f"Saved overrides could not be applied, defaults used: {err}")
+        return _reference_for("{}", view.currency)
+
+
+def apply_settings(plan: CasePlan, view: ViewSettings) -> CasePlan:
+    """The plan with the sidebar's GWP source and room temperature."""
+    return replace(plan, settings=replace(plan.settings, gwp_source=view.gwp_source,
+                                          temperature_c=view.temperature_c))
+
+
+@st.cache_data(show_spinner=False, max_entries=512)
+def compute_cached(plan_toml: str, ref_key: str, _ref: Reference):
+    """``compute_case`` on a plan given as plan-file text (the hashable cache key)."""
+    return compute_case(parse_plan_text(plan_toml, "plan"), _ref)
+
+
+# ---- sidebar and page header ---------------------------------------------------------
+
+def _sidebar() -> ViewSettings:
+    ss = st.session_state
+    saved_currency = (_saved_overrides().get("prices") or {}).get("currency") or DEFAULT_REFERENCE.prices.currency
+    ss.setdefault("gl_currency", saved_currency)
+    ss.setdefault("gl_horizon", "100 years")
+    ss.setdefault("gl_temp", 20.0)
+    ss.setdefault("gl_flow_unit", FLOW_UNITS[0])
+    ss.setdefault("gl_co2e_unit", "kg CO2e")
+    ref = DEFAULT_REFERENCE
+    with st.sidebar:
+        st.markdown("#### Settings for every page")
+        currency = st.text_input("Currency label", key="gl_currency", max_chars=12,
+                                 help="Shown beside every cost. It labels your prices; it does not convert them.")
+        if not re.fullmatch(r"[\w .$€£¥-]{1,12}", currency or ""):
+            st.error("Currency label: use 1-12 letters or symbols, e.g. GBP or EUR.")
+            currency = saved_currency
+        horizon = st.radio("GWP horizon", ["100 years", "20 years"], key="gl_horizon", horizontal=True)
+        years = int(horizon.split()[0])
+        user_values = bool(_saved_overrides().get("gwp", {}).get("user"))
+        options = [k for k, s in ref.gwp_sources.items()
+                   if s.horizon_years == years and (k != "user" or user_values)]
+        if st.session_state.get("gl_gwp") not in options:
+            st.session_state["gl_gwp"] = options[0]
+        source = st.selectbox("GWP source", options, key="gl_gwp",
+                              format_func=lambda k: ref.gwp_sources[k].label)
+        temp = st.number_input("Room temperature (°C)", min_value=0.0, max_value=45.0, step=1.0,
+                               key="gl_temp", help="Sets the vapour volume per mL of liquid (ideal gas).")
+        flow_unit = st.selectbox("Flows shown in", FLOW_UNITS, key="gl_flow_unit")
+        co2e_unit = st.selectbox("Emissions shown in", list(CO2E_UNITS), key="gl_co2e_unit")
+        st.divider()
+        st.caption(CAUTION)
+        st.caption(f"Store: `{default_path()}`")
+    return ViewSettings(currency.strip(), source, years, float(temp), flow_unit, co2e_unit)
+
+
+def sidebar_for_app() -> ViewSettings:
+    """Draw the sidebar from the entry point (``app.py``) so its values persist across pages."""
+    view = _sidebar()
+    st.session_state["_gl_view"] = view
+    st.session_state["_gl_entrypoint"] = True
+    return view
+
+
+def view_settings() -> ViewSettings:
+    """The current sidebar settings (drawing the sidebar when a page runs on its own)."""
+    if st.session_state.get("_gl_entrypoint") and "_gl_view" in st.session_state:
+        return st.session_state["_gl_view"]
+    view = _sidebar()
+    st.session_state["_gl_view"] = view
+    return view
+
+
+def page_start(title: str, intro: str = "") -> ViewSettings:
+    """Start a page: its title, a one-line intro, the settings sidebar and the caution."""
+    view = view_settings()
+    st.title(title)
+    if intro:
+        st.caption(intro)
+    st.info(CAUTION, icon=":material/health_and_safety:")
+    return view
+
+
+def show_input_error(err: Exception, where: str = "") -> None:
+    """One clear line for a bad entry (never a traceback)."""
+    prefix = f"{where}: " if where else ""
+    st.error(prefix + str(err), icon=":material/error:")
+
+
+# ---- downloads -----------------------------------------------------------------------
+
+def _slug(name: str) -> str:
+    s = re.sub(r"[^A-Za-z0-9]+", "-", name).strip("-").lower()
+    return (s or "export")[:60]
+
+
+def downloads(name: str, tables: Mapping[str, pd.DataFrame], report: Callable[[], str] | None,
+              key: str, notes: tuple[str, ...] = ()) -> None:
+    """The row of downloads under a results view: CSV (first table), Excel (all), HTML report.
+
+    The Excel workbook and HTML report are built only when asked for.
+    """
+    slug = _slug(name)
+    first_name, first = next(iter(tables.items()))
+    c1, c2, c3, _ = st.columns([1, 1, 1, 2])
+    c1.download_button("CSV", data=to_csv(first), file_name=f"{slug}-{_slug(first_name)}.csv",
+                       mime="text/csv", key=f"{key}_csv", on_click="ignore",
+                       icon=":material/download:", help=f"The '{first_name}' table as CSV")
+    c2.download_button("Excel", data=lambda: to_xlsx(tables, notes=(CAUTION,) + tuple(notes)),
+                       file_name=f"{slug}.xlsx", key=f"{key}_xlsx", on_click="ignore",
+                       mime="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
+                       icon=":material/download:", help="Every table, one sheet each")
+    if report is not None:
+        c3.download_button("HTML report", data=report, file_name=f"{slug}.html", mime="text/html",
+                           key=f"{key}_html", on_click="ignore", icon=":material/download:",
+                           help="Self-contained report: inputs, results, charts, sources, cautions")
+
