@@ -268,12 +268,9 @@ def parse_casemix_text(text: str, source: str = "case mix",
 
 
 def _load_plan_file(path: Path, name: str, where: str) -> CasePlan:
-    try:
-        return load_plan(path)
-    except InputError as exc:
-        if "does not exist" in exc.allowed:
-            raise InputError(where, name, f"no plan file at {path}") from None
-        raise
+    if not path.is_file():
+        raise InputError(where, name, f"no plan file at {path}")
+    return load_plan(path)
 
 
 def load_casemix(path) -> CaseMix:
