@@ -132,6 +132,8 @@ def _sidebar() -> ViewSettings:
     ss = st.session_state
     saved_currency = (_saved_overrides().get("prices") or {}).get("currency") or DEFAULT_REFERENCE.prices.currency
     ss.setdefault("gl_currency", saved_currency)
+    if "gl_currency_pending" in ss:      # set by a page that saved a new currency label
+        ss["gl_currency"] = ss.pop("gl_currency_pending")
     ss.setdefault("gl_horizon", "100 years")
     ss.setdefault("gl_temp", 20.0)
     ss.setdefault("gl_flow_unit", FLOW_UNITS[0])

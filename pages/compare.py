@@ -1,0 +1,154 @@
+"""Compare: saved plans side by side, with differences against a baseline."""
+
+from __future__ import annotations
+
+import pandas as pd
+import streamlit as st
+
+import ui
+from model import InputError
+from model.exports import html_report
+from model.plan import plan_to_toml
+from ui import charts
+
+view = ui.page_start("Compare", "Saved plans side by side. The first plan is the baseline; every "
+                     "other plan shows its difference from it, in units and in per cent.")
+store = ui.get_store()
+ref = ui.reference(view)
+ref_key = ui.reference_key(view)
+
+FIGURES = [("Liquid agent", "liquid_agent_ml", "mL"), ("Bottles", "bottles", "bottles"),
+           ("CO2e, total", "co2e_total_kg", "kg CO2e"), ("CO2e, agent", "co2e_agent_kg", "kg CO2e"),
+           ("CO2e, nitrous oxide", "co2e_nitrous_oxide_kg", "kg CO2e"), ("Cost, total", "cost_total", "currency"),
+           ("Oxygen", "oxygen_l", "L"), ("Medical air", "air_l", "L"), ("Nitrous oxide", "nitrous_oxide_l", "L"),
+           ("CO2 absorbent", "absorbent_g", "g"), ("MAC-hours", "mac_hours", "MAC-h"), ("Duration", "duration_min", "min")]
+
+
+def _pct(new: float, old: float) -> float | None:
+    return None if abs(old) < 1e-12 else (new - old) / old * 100.0
+
+
+def _delta_text(new: float, old: float, unit: str, digits: int = 1) -> str | None:
+    d = new - old
+    if abs(d) < 1e-9:
+        return None
+    pct = _pct(new, old)
+    return f"{d:+,.{digits}f}" + (f" {unit}" if unit else "") + (f" ({pct:+.0f} %)" if pct is not None else "")
+
+
+tab_plans, tab_year = st.tabs(["Case plans", "Year scenarios"])
+
+def _compare_plans() -> None:
+    names = store.names("plan")
+    if len(names) < 2:
+        st.info("Save at least two plans on the Case plan page to compare them.")
+        return
+    chosen = st.multiselect("Plans to compare (the first is the baseline)", names, default=names[:2],
+                            key="cmp_plans", max_selections=8)
+    if len(chosen) < 2:
+        st.warning("Choose two or more plans.")
+        return
+    results = {}
+    with st.spinner("Computing the plans..."):
+        for name in chosen:
+            try:
+                plan = ui.apply_settings(store.load_plan(name), view)
+                results[name] = ui.compute_cached(plan_to_toml(plan), ref_key, ref)
+            except InputError as err:
+                ui.show_input_error(err, f"'{name}'")
+    if len(results) < 2:
+        return
+    base_name, base = next(iter(results.items()))
+    bt = base.totals
+    scale = ui.common.CO2E_UNITS[view.co2e_unit]
+
+    st.subheader("Against the baseline")
+    st.caption(f"Baseline: **{base_name}** ({ref.agents[base.plan.agent].label}, "
+               f"{bt['duration_min']:.0f} min). Green is less used, emitted or spent.")
+    for name, res in list(results.items())[1:]:
+        t = res.totals
+        with st.container(border=True):
+            st.markdown(f"**{name}** — {ref.agents[res.plan.agent].label}, {t['duration_min']:.0f} min")
+            c = st.columns(5)
+            c[0].metric("Liquid agent", f"{t['liquid_agent_ml']:.1f} mL",
+                        _delta_text(t["liquid_agent_ml"], bt["liquid_agent_ml"], "mL"), delta_color="inverse")
+            c[1].metric("Emissions", view.co2e(t["co2e_total_kg"]),
+                        _delta_text(t["co2e_total_kg"] * scale, bt["co2e_total_kg"] * scale, view.co2e_unit, 2),
+                        delta_color="inverse")
+            c[2].metric("Cost", view.money(t["cost_total"]),
+                        _delta_text(t["cost_total"], bt["cost_total"], view.currency, 2), delta_color="inverse")
+            c[3].metric("Bottles", f"{t['bottles']:.2f}", _delta_text(t["bottles"], bt["bottles"], "", 2),
+                        delta_color="inverse")
+            c[4].metric("MAC-hours", f"{t['mac_hours']:.2f}", _delta_text(t["mac_hours"], bt["mac_hours"], "", 2),
+                        delta_color="off")
+
+    rows = []
+    for label, key, unit in FIGURES:
+        row = {"figure": label, "unit": view.currency if unit == "currency" else unit}
+        for name, res in results.items():
+            row[name] = float(res.totals[key])
+        for name, res in list(results.items())[1:]:
+            row[f"{name}: difference"] = float(res.totals[key] - bt[key])
+            row[f"{name}: difference %"] = _pct(float(res.totals[key]), float(bt[key]))
+        rows.append(row)
+    table = pd.DataFrame(rows)
+    st.subheader("Side by side")
+    st.dataframe(table, hide_index=True, width="stretch",
+                 column_config={c: st.column_config.NumberColumn(format="%.2f") for c in table.columns[2:]})
+
+    cost_df = pd.DataFrame({"item": charts.cost_by_item(bt, base.currency)["item"]})
+    co2e_df = pd.DataFrame({"source": ["Volatile agent", "Nitrous oxide"]})
+    use_df = pd.DataFrame({"item": ["Liquid agent (mL)", "Oxygen (10 L)", "Medical air (10 L)",
+                                    "Nitrous oxide (10 L)", "CO2 absorbent (10 g)"]})
+    for name, res in results.items():
+        t = res.totals
+        cost_df[name] = charts.cost_by_item(t, res.currency).iloc[:, 1].to_numpy()
+        co2e_df[name] = [t["co2e_agent_kg"] * scale, t["co2e_nitrous_oxide_kg"] * scale]
+        use_df[name] = [t["liquid_agent_ml"], t["oxygen_l"] / 10, t["air_l"] / 10, t["nitrous_oxide_l"] / 10,
+                        t["absorbent_g"] / 10]
+    figs = [("Cost by item", charts.grouped_bars(cost_df, "item", list(results), "Cost by item", view.currency)),
+            ("Emissions by source", charts.grouped_bars(co2e_df, "source", list(results), "Emissions by source",
+                                                        view.co2e_unit)),
+            ("What each plan uses", charts.grouped_bars(use_df, "item", list(results), "What each plan uses"))]
+    st.subheader("Charts")
+    g1, g2 = st.columns(2)
+    g1.plotly_chart(figs[0][1], width="stretch", key="cmp_fig_cost")
+    g2.plotly_chart(figs[1][1], width="stretch", key="cmp_fig_co2e")
+    st.plotly_chart(figs[2][1], width="stretch", key="cmp_fig_use")
+
+    warnings = [f"{name}: {w}" for name, res in results.items() for w in res.warnings]
+    if warnings:
+        with st.expander(f"Warnings ({len(warnings)})", icon=":material/warning:"):
+            for w in warnings:
+                st.warning(w)
+
+    sources = pd.DataFrame(ref.table())
+    tables = {"Comparison": table, "Cost by item": cost_df, "Emissions by source": co2e_df}
+    for name, res in results.items():
+        tables[f"Phases {name}"] = res.phases.assign(plan=name)
+    tables["Sources"] = sources
+    inputs = {"baseline": base_name, "compared": ", ".join(list(results)[1:]), "GWP source": base.gwp_label,
+              "room temperature": f"{view.temperature_c:g} °C", "currency": view.currency}
+
+    def _report() -> str:
+        return html_report("Plan comparison", inputs=inputs, tables={"Side by side": table}, figures=figs,
+                           warnings=warnings, cautions=[ui.CAUTION], sources=sources)
+
+    st.divider()
+    st.markdown("**Download this comparison**")
+    ui.downloads("plan comparison", tables, _report, key="cmp_dl")
+
+
+with tab_plans:
+    _compare_plans()
+
+with tab_year:
+    # The year part of the project fills this tab from ui/year_compare.py (a function
+    # ``render(view)``); until then it explains where year scenarios are compared.
+    try:
+        from ui.year_compare import render as render_year
+    except ImportError:
+        st.info("Year scenarios (a department's case mix under two practices) are compared on the "
+                "Department year page.", icon=":material/calendar_month:")
+    else:
+        render_year(view)

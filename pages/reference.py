@@ -1,0 +1,153 @@
+"""Reference: every value the model uses with its source, and the user's own values."""
+
+from __future__ import annotations
+
+import json
+
+import pandas as pd
+import streamlit as st
+
+import ui
+from model import DEFAULT_REFERENCE, InputError
+from model.exports import html_report
+from model.reference import VOLATILES
+
+view = ui.page_start("Reference", "Every value the model uses, where it comes from, and your own "
+                     "values in place of the defaults. Saved values apply on every page.")
+store = ui.get_store()
+ref = ui.reference(view)
+saved = store.load_overrides()
+ss = st.session_state
+
+# ---- the table -----------------------------------------------------------------------
+
+table = pd.DataFrame(ref.table())
+table = table.rename(columns={"default": "default (before your value)"})
+f1, f2 = st.columns([2, 3])
+items = f1.multiselect("Items", sorted(table["item"].unique()), key="ref_items", placeholder="all items")
+search = f2.text_input("Search fields and sources", key="ref_search", placeholder="e.g. GWP, density, Yasuda")
+shown = table
+if items:
+    shown = shown[shown["item"].isin(items)]
+if search.strip():
+    needle = search.strip().lower()
+    mask = shown.apply(lambda r: needle in " ".join(str(v) for v in r.values).lower(), axis=1)
+    shown = shown[mask]
+st.dataframe(shown, hide_index=True, width="stretch", height=420,
+             column_config={"value": st.column_config.NumberColumn(format="%.6g"),
+                            "source": st.column_config.TextColumn(width="large")})
+st.caption(f"{len(shown)} of {len(table)} values. Basis says how each is known: published, from memory, "
+           "common practice, invented example price, or your own value.")
+
+
+def _report() -> str:
+    return html_report("Reference values", inputs={"your values": json.dumps(saved, sort_keys=True) or "none",
+                                                  "currency": view.currency},
+                       tables={"Reference values": table}, cautions=[ui.CAUTION])
+
+
+ui.downloads("reference values", {"Reference": table}, _report, key="ref_dl")
+
+# ---- the user's values ---------------------------------------------------------------
+
+st.subheader("Your values")
+st.caption("Leave a value as it is to keep the default. Saving keeps every earlier set of values.")
+default = DEFAULT_REFERENCE
+prices_saved = saved.get("prices", {})
+with st.form("ref_overrides"):
+    tab_p, tab_g, tab_m = st.tabs(["Prices", "GWP values", "MAC at age 40"])
+    with tab_p:
+        c = st.columns(4)
+        currency = c[0].text_input("Currency label", value=prices_saved.get("currency", default.prices.currency),
+                                   max_chars=12)
+        bottle = {}
+        for i, a in enumerate(VOLATILES):
+            bottle[a] = c[(i + 1) % 4].number_input(
+                f"{default.agents[a].label} per bottle", min_value=0.0, step=1.0,
+                value=float(ref.prices.bottle.get(a, 0.0)), key=f"ref_bottle_{a}")
+        c = st.columns(4)
+        gases = {}
+        for i, (k, label) in enumerate([("oxygen_per_1000_l", "Oxygen per 1000 L"), ("air_per_1000_l", "Medical air per 1000 L"),
+                                        ("nitrous_oxide_per_1000_l", "Nitrous oxide per 1000 L"),
+                                        ("absorbent_per_kg", "CO2 absorbent per kg")]):
+            gases[k] = c[i].number_input(label, min_value=0.0, step=0.5, value=float(getattr(ref.prices, k)),
+                                         key=f"ref_{k}")
+        st.caption("Shipped prices are invented examples; put your own contract prices here.")
+    with tab_g:
+        st.caption("Values for the source \"User values\" (GWP100, kg CO2e per kg). Choose that source in "
+                   "the sidebar to use them. Leave empty to give none.")
+        user_saved = saved.get("gwp", {}).get("user", {})
+        c = st.columns(5)
+        gwp_user = {}
+        for i, a in enumerate(list(VOLATILES) + ["nitrous_oxide"]):
+            v = c[i].number_input(default.agents[a].label, min_value=0.0, step=1.0, value=user_saved.get(a),
+                                  key=f"ref_gwp_{a}", placeholder="none")
+            if v is not None:
+                gwp_user[a] = float(v)
+    with tab_m:
+        st.caption("MAC at age 40 in O2 (%). Age adjustment (Mapleson 1996) applies to your value.")
+        c = st.columns(5)
+        mac = {}
+        for i, a in enumerate(list(VOLATILES) + ["nitrous_oxide"]):
+            mac[a] = c[i].number_input(default.agents[a].label, min_value=0.0, step=0.05,
+                                       value=float(ref.agents[a].mac40), key=f"ref_mac_{a}", format="%.3g")
+    note = st.text_input("Note for this set of values", placeholder="optional, e.g. 2026 contract prices")
+    submitted = st.form_submit_button("Save my values", type="primary", icon=":material/save:")
+
+
+def _collect() -> dict:
+    out: dict = {}
+    prices: dict = {}
+    if currency.strip() != default.prices.currency:
+        prices["currency"] = currency.strip()
+    changed_bottles = {a: v for a, v in bottle.items() if abs(v - default.prices.bottle.get(a, 0.0)) > 1e-12}
+    if changed_bottles:
+        prices["bottle"] = changed_bottles
+    for k, v in gases.items():
+        if abs(v - getattr(default.prices, k)) > 1e-12:
+            prices[k] = v
+    if prices:
+        out["prices"] = prices
+    if gwp_user:
+        out["gwp"] = {"user": gwp_user}
+    agents = {a: {"mac40": v} for a, v in mac.items() if abs(v - default.agents[a].mac40) > 1e-9}
+    if agents:
+        out["agents"] = agents
+    return out
+
+
+if submitted:
+    overrides = _collect()
+    try:
+        default.with_overrides(overrides, "dashboard")     # check before saving
+    except InputError as err:
+        ui.show_input_error(err, "Not saved")
+    else:
+        version = store.save_overrides(overrides, note=note)
+        ss["gl_currency_pending"] = currency.strip()
+        ss["ref_msg"] = f"Saved your values as version {version}; every page now uses them."
+        st.rerun()
+msg = ss.pop("ref_msg", None)
+if msg:
+    st.success(msg, icon=":material/check_circle:")
+
+history = store.history("overrides", "dashboard")
+with st.expander(f"Earlier sets of values ({len(history)})", icon=":material/history:"):
+    if not history:
+        st.caption("None saved yet: the built-in defaults apply.")
+    else:
+        st.dataframe(pd.DataFrame({"version": [v.version for v in history],
+                                   "saved (UTC)": [v.saved_at[:19] for v in history],
+                                   "note": [v.note for v in history],
+                                   "values": [v.body for v in history]}), hide_index=True, width="stretch")
+        h1, h2, h3 = st.columns([1, 1, 2], vertical_alignment="bottom")
+        pick = h1.selectbox("Version", [v.version for v in history], key="ref_restore_pick")
+        if h2.button("Use this version again", icon=":material/restore:"):
+            body = store.get("overrides", "dashboard", int(pick)).body
+            version = store.save_overrides(json.loads(body), note=f"restored version {pick}")
+            ss["ref_msg"] = f"Version {pick} is in use again (saved as version {version})."
+            st.rerun()
+        if h3.button("Go back to the built-in defaults", icon=":material/undo:"):
+            version = store.save_overrides({}, note="back to built-in defaults")
+            ss["ref_msg"] = f"Built-in defaults in use (saved as version {version}; earlier values kept)."
+            st.rerun()

@@ -1,0 +1,177 @@
+"""Streamlit AppTest for the dashboard pages: render, respond in the right direction, refuse bad input."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+from streamlit.testing.v1 import AppTest
+
+from model.store import STORE_ENV, Store
+
+ROOT = Path(__file__).resolve().parents[1]
+TIMEOUT = 120
+
+
+@pytest.fixture(autouse=True)
+def isolated_store(tmp_path, monkeypatch):
+    path = tmp_path / "store.sqlite3"
+    monkeypatch.setenv(STORE_ENV, str(path))
+    return path
+
+
+def page(name: str) -> AppTest:
+    at = AppTest.from_file(str(ROOT / "pages" / name), default_timeout=TIMEOUT)
+    at.run()
+    assert not at.exception, [e.message for e in at.exception]
+    return at
+
+
+def metric(at: AppTest, label: str) -> float:
+    value = next(m.value for m in at.metric if m.label == label)
+    return float(value.split()[0].replace(",", ""))
+
+
+def open_plan(at: AppTest, name: str) -> None:
+    at.selectbox(key="cp_open_name").select(name)
+    at.run()
+    next(b for b in at.button if b.label == "Open").click()
+    at.run()
+    assert not at.exception
+
+
+def edit_phase(at: AppTest, row: int, **cells) -> None:
+    key = at.data_editor[0].key
+    at.session_state[key] = {"edited_rows": {row: cells}, "added_rows": [], "deleted_rows": []}
+    at.run()
+    assert not at.exception, [e.message for e in at.exception]
+
+
+def test_app_entry_point_renders_with_navigation():
+    at = AppTest.from_file(str(ROOT / "app.py"), default_timeout=TIMEOUT)
+    at.run()
+    assert not at.exception, [e.message for e in at.exception]
+    assert any(m.label == "Liquid agent" for m in at.metric)      # the default page is the case plan
+
+
+def test_case_plan_renders_on_demo_data_with_caution():
+    at = page("case_plan.py")
+    assert metric(at, "Liquid agent") > 0
+    assert any("not a prescription" in i.value for i in at.info)
+    assert not at.error
+
+
+def test_lower_maintenance_flow_uses_less_liquid_agent():
+    at = page("case_plan.py")
+    open_plan(at, "Laparoscopic cholecystectomy, high flow")
+    before = metric(at, "Liquid agent")
+    cost_before = metric(at, "Cost")
+    # 2 L/min (1 O2 + 1 air) down to 0.5 L/min, typed in two different units.
+    edit_phase(at, 1, O2="250 mL/min", air="0.25 L/min")
+    after = metric(at, "Liquid agent")
+    # Source: Dion P., Can J Anaesth 1992 - liquid use is proportional to fresh gas flow at a
+    # fixed dial, so a quarter of the maintenance flow cuts maintenance liquid to a quarter.
+    assert after < before
+    assert metric(at, "Cost") < cost_before
+    assert not at.error
+
+
+def test_desflurane_instead_of_sevoflurane_raises_emissions():
+    at = page("case_plan.py")
+    open_plan(at, "Laparoscopic cholecystectomy, high flow")
+    before = metric(at, "Emissions")
+    at.selectbox(key="cp_agent").select("desflurane")
+    at.run()
+    assert not at.exception
+    # Source: IPCC AR6 WG1 Table 7.SM.7 - desflurane's GWP100 (2590) is over ten times
+    # sevoflurane's (195), and the same dial % of desflurane is a little less liquid by mass.
+    assert metric(at, "Emissions") > 5 * before
+
+
+@pytest.mark.parametrize("cells, shown", [
+    ({"O2": "banana"}, "row 2, O2 flow"),
+    ({"O2": "5 kg"}, "row 2, O2 flow"),
+    ({"duration": "-10 min"}, "row 2, duration"),
+    ({"setting": "40 %"}, "row 2, dial % or target"),
+])
+def test_invalid_phase_entry_shows_error_and_keeps_last_result(cells, shown):
+    at = page("case_plan.py")
+    before = metric(at, "Liquid agent")
+    edit_phase(at, 1, **cells)
+    assert any(shown in e.value for e in at.error), [e.value for e in at.error]
+    assert metric(at, "Liquid agent") == before
+    assert any("last valid result" in w.value for w in at.warning)
+
+
+def test_invalid_patient_weight_shows_error_by_the_field():
+    at = page("case_plan.py")
+    at.text_input(key="cp_weight").input("heavy")
+    at.run()
+    assert not at.exception
+    assert any("weight" in e.value for e in at.error)
+
+
+def test_saving_keeps_versions_and_survives_a_new_session(isolated_store):
+    at = page("case_plan.py")
+    name = at.text_input(key="cp_name").value
+    edit_phase(at, 1, O2="0.8 L/min")
+    next(b for b in at.button if b.label == "Save").click()
+    at.run()
+    assert any("version 2" in s.value for s in at.success)
+    # A new session (as after a restart) opens the store from the file and finds the change.
+    store = Store(isolated_store)
+    assert store.load_plan(name).phases[1].o2_l_min == 0.8
+    assert store.load_plan(name, 1).phases[1].o2_l_min != 0.8
+    again = page("case_plan.py")
+    assert again.text_input(key="cp_name").value == name
+
+
+def test_corrupt_plan_upload_is_refused_and_store_unchanged(isolated_store):
+    at = page("case_plan.py")
+    before = Store(isolated_store).count_versions()
+    uploader = at.get("file_uploader")[0]
+    uploader.upload("evil.toml", b"\x00\x01 not a plan \xff", "application/toml")
+    at.run()
+    assert not at.exception
+    assert any("Not imported" in e.value for e in at.error)
+    assert Store(isolated_store).count_versions() == before
+
+
+def test_compare_renders_differences():
+    at = page("compare.py")
+    deltas = [m.delta for m in at.metric if m.label == "Liquid agent"]
+    assert deltas and "%" in deltas[0]
+    table = at.dataframe[0].value
+    assert "figure" in table.columns and any(c.endswith("difference %") for c in table.columns)
+
+
+def test_compare_higher_flow_plan_shows_more_liquid():
+    at = page("compare.py")
+    at.multiselect(key="cmp_plans").set_value(["Laparoscopic cholecystectomy, low flow",
+                                                "Laparoscopic cholecystectomy, high flow"])
+    at.run()
+    assert not at.exception
+    delta = next(m.delta for m in at.metric if m.label == "Liquid agent")
+    assert delta.startswith("+")
+
+
+def test_reference_page_lists_sources_and_saves_overrides(isolated_store):
+    at = page("reference.py")
+    table = at.dataframe[0].value
+    assert {"value", "source", "basis"} <= set(table.columns)
+    assert table["source"].notna().all()
+    at.number_input(key="ref_bottle_sevoflurane").set_value(240.0)
+    next(b for b in at.button if b.label == "Save my values").click()
+    at.run()
+    assert not at.exception
+    assert Store(isolated_store).load_overrides()["prices"]["bottle"]["sevoflurane"] == 240.0
+    assert any("version 1" in s.value for s in at.success)
+
+
+def test_reference_override_changes_case_cost(isolated_store):
+    cp = page("case_plan.py")
+    cost_before = metric(cp, "Cost")
+    Store(isolated_store).save_overrides({"prices": {"bottle": {"sevoflurane": 480.0}}})
+    cp2 = page("case_plan.py")
+    # Invented demo price 120 per bottle -> 480: agent cost four times as high.
+    assert metric(cp2, "Cost") > cost_before

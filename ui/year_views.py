@@ -1,0 +1,157 @@
+"""Pieces of the year views (Department year page, year tab of Compare): scenario choice,
+cached year runs and plotly figures. Presentation only; the year is computed in model.year.
+"""
+
+from __future__ import annotations
+
+import json
+from dataclasses import replace
+from pathlib import Path
+
+import pandas as pd
+import plotly.graph_objects as go
+import streamlit as st
+
+from model.casemix import CaseMix
+from model.exports import chart_text
+from model.plan import load_plan
+from model.reference import VOLATILES, Reference
+from model.scenario import MONTHS, Scenario, load_scenario
+from model.year import compare_years, compute_year
+
+from .charts import PALETTE, _style
+
+ROOT = Path(__file__).resolve().parents[1]
+YEAR_DIR = ROOT / "demo_data" / "year"
+AGENT_COLOURS = dict(zip(VOLATILES, (PALETTE[0], PALETTE[1], PALETTE[2], PALETTE[4])))
+
+
+def scenario_files() -> dict[str, Path]:
+    """Demo scenario files by their scenario name (file order)."""
+    out = {}
+    for path in sorted(YEAR_DIR.glob("*.toml")):
+        try:
+            out[load_scenario(path).name] = path
+        except Exception:  # a broken demo file is skipped, not shown as a choice
+            continue
+    return out
+
+
+@st.cache_resource(show_spinner=False)
+def plan_library() -> dict:
+    """Plans a case type may use, by the name the case-mix file gives (relative path)."""
+    lib = {}
+    for folder, prefix in ((YEAR_DIR / "plans", "plans/"), (ROOT / "demo_data" / "plans", "../plans/")):
+        for path in sorted(folder.glob("*.toml")):
+            try:
+                lib[prefix + path.name] = load_plan(path)
+            except Exception:
+                continue
+    return lib
+
+
+def scenario_for_view(scenario: Scenario, view, mix: CaseMix | None = None) -> Scenario:
+    """The scenario with the sidebar's GWP source and currency label (and an edited mix)."""
+    prices = dict(scenario.prices)
+    prices["currency"] = view.currency
+    out = replace(scenario, gwp_source=view.gwp_source, prices=prices)
+    return replace(out, casemix=mix) if mix is not None else out
+
+
+def _key(*parts) -> str:
+    return json.dumps([repr(p) for p in parts])
+
+
+@st.cache_resource(show_spinner=False, max_entries=16)
+def year_cached(key: str, _scenario: Scenario, _ref: Reference):
+    return compute_year(_scenario, _ref)
+
+
+@st.cache_resource(show_spinner=False, max_entries=16)
+def compare_cached(key: str, _baseline: Scenario, _proposal: Scenario, _ref: Reference):
+    return compare_years(_baseline, _proposal, _ref)
+
+
+def run_year(scenario: Scenario, ref: Reference, ref_key: str):
+    return year_cached(_key(scenario, ref_key), scenario, ref)
+
+
+def run_compare(baseline: Scenario, proposal: Scenario, ref: Reference, ref_key: str):
+    return compare_cached(_key(baseline, proposal, ref_key), baseline, proposal, ref)
+
+
+# ---- figures -------------------------------------------------------------------------
+
+def monthly_bottles_figure(monthly: pd.DataFrame) -> go.Figure:
+    """Bottles bought per month, one bar per agent used."""
+    fig = go.Figure()
+    for a in VOLATILES:
+        col = f"bottles_{a}"
+        if col in monthly and monthly[col].sum() > 0:
+            fig.add_trace(go.Bar(name=a.capitalize(), x=monthly["month"], y=monthly[col],
+                                 marker_color=AGENT_COLOURS[a],
+                                 hovertemplate="%{x}: %{y:.0f} bottles<extra>" + a + "</extra>"))
+    fig.update_layout(barmode="group")
+    fig.update_yaxes(title_text="bottles")
+    return _style(fig, "Bottles bought per month", 340)
+
+
+def monthly_cost_figure(monthly: pd.DataFrame, currency: str) -> go.Figure:
+    fig = go.Figure(go.Bar(x=monthly["month"], y=monthly["cost_total"], marker_color=PALETTE[0],
+                           hovertemplate="%{x}: %{y:,.0f} " + chart_text(currency) + "<extra></extra>"))
+    fig.update_yaxes(title_text=chart_text(currency))
+    return _style(fig, "Cost per month", 340)
+
+
+def co2e_by_source_figure(totals: dict) -> go.Figure:
+    """Tonnes CO2e by volatile agent and nitrous oxide."""
+    labels, values, colours = [], [], []
+    for a in VOLATILES:
+        v = totals.get(f"co2e_{a}_t", 0.0)
+        if v > 0:
+            labels.append(a.capitalize())
+            values.append(v)
+            colours.append(AGENT_COLOURS[a])
+    labels.append("Nitrous oxide")
+    values.append(totals.get("co2e_nitrous_oxide_t", 0.0))
+    colours.append(PALETTE[3])
+    fig = go.Figure(go.Bar(x=values, y=labels, orientation="h", marker_color=colours,
+                           text=[f"{v:,.1f} t" for v in values], textposition="auto",
+                           hovertemplate="%{y}: %{x:,.2f} t CO2e<extra></extra>"))
+    fig.update_yaxes(autorange="reversed")
+    fig.update_xaxes(title_text="t CO2e")
+    return _style(fig, "CO2e by source", 300)
+
+
+def fan_figure(fan: pd.DataFrame, figure: str, unit: str, colour: str = PALETTE[0]) -> go.Figure:
+    """Cumulative figure through the year: P50 line inside its P5-P95 band."""
+    d = fan[fan["figure"] == figure]
+    x = list(d["month"])
+    fig = go.Figure()
+    fig.add_trace(go.Scatter(x=x + x[::-1], y=list(d["p95"]) + list(d["p5"])[::-1], fill="toself",
+                             fillcolor="rgba(47,111,143,0.18)" if colour == PALETTE[0] else "rgba(181,82,59,0.18)",
+                             line=dict(width=0), name="P5-P95", hoverinfo="skip"))
+    fig.add_trace(go.Scatter(x=x, y=d["p50"], mode="lines+markers", line=dict(color=colour, width=2.5),
+                             name="P50", hovertemplate="%{x}: %{y:,.1f} " + chart_text(unit) + "<extra>P50</extra>"))
+    fig.update_xaxes(categoryorder="array", categoryarray=list(MONTHS))
+    fig.update_yaxes(title_text=chart_text(unit))
+    return _style(fig, f"{figure.capitalize()} through the year", 320)
+
+
+def difference_figure(summary: pd.DataFrame, keys: list[tuple[str, str]]) -> go.Figure:
+    """Paired differences (proposal - baseline) as P50 bars with P5-P95 whiskers."""
+    rows = summary.set_index("key")
+    labels = [label for _, label in keys]
+    p50 = [rows.loc[k, "p50"] for k, _ in keys]
+    lo = [rows.loc[k, "p50"] - rows.loc[k, "p5"] for k, _ in keys]
+    hi = [rows.loc[k, "p95"] - rows.loc[k, "p50"] for k, _ in keys]
+    colours = [PALETTE[2] if v <= 0 else PALETTE[3] for v in p50]
+    fig = go.Figure(go.Bar(x=labels, y=p50, marker_color=colours,
+                           error_y=dict(type="data", symmetric=False, array=hi, arrayminus=lo, color="#1d2a33"),
+                           hovertemplate="%{x}: %{y:,.1f}<extra>P50</extra>"))
+    fig.add_hline(y=0, line=dict(color="#546e7a", width=1))
+    return _style(fig, "Change per year (P50, whiskers P5-P95)", 340)
+
+
+def band_text(row, digits: int = 0) -> str:
+    return f"P5-P95: {row['p5']:,.{digits}f} to {row['p95']:,.{digits}f}"
