@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from types import SimpleNamespace
 
 import numpy as np
 import pandas as pd
@@ -12,6 +13,7 @@ from .emissions import co2e_kg, emitted_mass_g, gas_mass_g
 from .errors import InputError
 from .freshgas import apply_ratio_limit, delivered_fractions, flow_band
 from .mac import mac_at_age, mac_multiple
+from .circle import simulate_cases
 from .plan import CasePlan
 from .reference import DEFAULT_REFERENCE, Reference
 from .vapour import liquid_used_ml
@@ -108,9 +110,181 @@ def case_costs(liquid_ml, oxygen_l, air_l, nitrous_oxide_l, absorbent_g, agent, 
     return costs
 
 
+#: A target reached later than this after a phase starts is reported. [min]
+#: Common practice, no source.
+SLOW_TARGET_MIN = 5.0
+
+
+def simulation_totals(sim, agent, prices, *, gwp_agent, gwp_n2o, capture_efficiency=0.0,
+                      temperature_c=20.0, pressure_kpa=101.325, nitrous_oxide=None):
+    """Consumption, emissions and cost of many simulated cases, vectorised.
+
+    Parameters
+    ----------
+    sim : dict
+        Output of :func:`model.circle.simulate_cases` (arrays over ``n_cases``).
+    agent : Agent
+        The volatile agent simulated.
+    prices : Prices
+        Unit prices.
+    gwp_agent, gwp_n2o : float
+        GWP of the agent and of N2O under the chosen source. [kg CO2e/kg]
+    capture_efficiency : float or array_like
+        Share of scavenged agent captured. [1]
+    temperature_c, pressure_kpa : float
+        Room conditions of the gas volumes. [°C], [kPa]
+    nitrous_oxide : Agent, optional
+        N2O reference data (default from ``DEFAULT_REFERENCE``).
+
+    Returns
+    -------
+    totals : dict of ndarray, shape (n_cases,)
+        The keys of :func:`compute_case` totals (units in the names).
+    phases : dict of ndarray, shape (n_phases, n_cases)
+        ``liquid_agent_ml``, ``agent_mass_g``, ``oxygen_l``, ``air_l``, ``nitrous_oxide_l``,
+        ``agent_emitted_g``, ``nitrous_oxide_emitted_g``, ``co2e_kg``, ``absorbent_g``,
+        ``cost_total``, ``mac_multiple``, ``agent_uptake_g``, ``agent_vented_g``.
+
+    Notes
+    -----
+    Emitted agent is the delivered agent less the metabolised share of what entered the
+    patient's blood (gross uptake; the rest is exhaled, during the case or after it), less
+    the capture efficiency: :func:`model.emissions.emitted_mass_g`.
+
+    References
+    ----------
+    .. [1] Sulbaek Andersen MP et al. Anesth Analg 2012;114:1081-5.
+    .. [2] Mapleson WW. Br J Anaesth 1996;76:179-85 (MAC-hours, age-adjusted).
+    """
+    n2o_agent = nitrous_oxide or DEFAULT_REFERENCE.agents["nitrous_oxide"]
+    m_ag, m_n2o = agent.molar_mass, n2o_agent.molar_mass
+
+    def grams(litres, molar_mass):
+        return gas_mass_g(litres, molar_mass, temperature_c, pressure_kpa)
+
+    minutes = sim["phase_minutes"]
+    liquid = sim["phase_liquid_ml"]
+    agent_g = liquid * agent.liquid_density
+    oxygen_l = sim["phase_o2_l_min"] * minutes
+    air_l = sim["phase_air_l_min"] * minutes
+    n2o_l = sim["phase_n2o_l_min"] * minutes
+    n2o_g = grams(n2o_l, m_n2o)
+    agent_emitted = emitted_mass_g(agent_g, grams(sim["phase_agent_gross_uptake_l"], m_ag),
+                                   agent.metabolised_fraction, capture_efficiency)
+    n2o_emitted = emitted_mass_g(n2o_g, grams(sim["phase_nitrous_oxide_gross_uptake_l"], m_n2o),
+                                 n2o_agent.metabolised_fraction, 0.0)
+    absorbent_g = sim["phase_co2_absorbed_l"] / sim["absorbent_capacity_l_per_kg"] * 1000.0
+    costs = case_costs(liquid, oxygen_l, air_l, n2o_l, absorbent_g, agent, prices)
+    mean_dial = np.nan_to_num(sim["phase_mean_dial_pct"])
+    mac_mult = mac_multiple(mean_dial, sim["mac_agent_pct"], sim["phase_fd_n2o"] * 100.0, sim["mac_n2o_pct"])
+    mac_mult = np.where(minutes > 0, mac_mult, 0.0)
+    phases = {
+        "liquid_agent_ml": liquid, "agent_mass_g": agent_g, "oxygen_l": oxygen_l, "air_l": air_l,
+        "nitrous_oxide_l": n2o_l, "agent_emitted_g": agent_emitted, "nitrous_oxide_emitted_g": n2o_emitted,
+        "co2e_kg": co2e_kg(agent_emitted, gwp_agent) + co2e_kg(n2o_emitted, gwp_n2o),
+        "absorbent_g": absorbent_g, "cost_total": costs["total"], "mac_multiple": mac_mult,
+        "agent_uptake_g": grams(sim["phase_agent_uptake_l"], m_ag),
+        "agent_vented_g": grams(sim["phase_agent_vented_l"], m_ag),
+    }
+    co2e_agent = co2e_kg(agent_emitted.sum(axis=0), gwp_agent)
+    co2e_n2o = co2e_kg(n2o_emitted.sum(axis=0), gwp_n2o)
+    liquid_total = liquid.sum(axis=0)
+    residuals = []
+    for s in ("oxygen", "nitrous_oxide", "agent"):
+        d = sim[f"{s}_delivered_l"]
+        rest = sim[f"{s}_uptake_l"] + sim[f"{s}_vented_l"] + sim[f"{s}_held_end_l"] - sim[f"{s}_held_start_l"]
+        scale = np.maximum.reduce([np.abs(d), np.abs(sim[f"{s}_held_start_l"]), np.full_like(d, 1e-12)])
+        residuals.append(np.abs(d - rest) / scale)
+    # The longest phase stands for maintenance in the case-level O2 figure.
+    longest = np.argmax(minutes, axis=0)
+    cols = np.arange(minutes.shape[1])
+    target_time = np.where(sim["phase_target_mode"] & (minutes > 0), sim["phase_time_to_target_min"], np.nan)
+    n_target = np.sum(sim["phase_target_mode"] & (minutes > 0), axis=0)
+    not_reached = np.sum(sim["phase_target_mode"] & (minutes > 0) & np.isnan(sim["phase_time_to_target_min"]), axis=0)
+    with np.errstate(all="ignore"):
+        slowest = np.where(n_target - not_reached > 0, np.nanmax(np.where(np.isnan(target_time), -np.inf, target_time),
+                                                                  axis=0), np.nan)
+    totals = {
+        "duration_min": minutes.sum(axis=0),
+        "liquid_agent_ml": liquid_total,
+        "bottles": liquid_total / agent.bottle_volume,
+        "agent_mass_g": agent_g.sum(axis=0),
+        "oxygen_l": oxygen_l.sum(axis=0),
+        "air_l": air_l.sum(axis=0),
+        "nitrous_oxide_l": n2o_l.sum(axis=0),
+        "absorbent_g": absorbent_g.sum(axis=0),
+        "agent_uptake_g": grams(sim["agent_uptake_l"], m_ag),
+        "agent_emitted_g": agent_emitted.sum(axis=0),
+        "nitrous_oxide_emitted_g": n2o_emitted.sum(axis=0),
+        "co2e_agent_kg": co2e_agent,
+        "co2e_nitrous_oxide_kg": co2e_n2o,
+        "co2e_total_kg": co2e_agent + co2e_n2o,
+        **{f"cost_{k}": np.sum(v, axis=0) for k, v in costs.items()},
+        "mac_hours": (mac_mult * minutes / 60.0).sum(axis=0),
+        "min_fd_o2_pct": np.where(minutes > 0, sim["phase_fd_o2"] * 100.0, np.inf).min(axis=0),
+        # Low-flow physics (circle simulation).
+        "agent_delivered_vapour_l": sim["agent_delivered_l"],
+        "agent_gross_uptake_g": grams(sim["agent_gross_uptake_l"], m_ag),
+        "agent_metabolised_g": agent_g.sum(axis=0) - np.sum(emitted_mass_g(
+            agent_g, grams(sim["phase_agent_gross_uptake_l"], m_ag), agent.metabolised_fraction, 0.0), axis=0),
+        "agent_vented_g": grams(sim["agent_vented_l"], m_ag),
+        "agent_held_in_circle_g": grams(sim["agent_held_end_l"] - sim["agent_held_start_l"], m_ag),
+        "oxygen_delivered_l": sim["oxygen_delivered_l"],
+        "oxygen_consumed_l": sim["oxygen_uptake_l"],
+        "oxygen_vented_l": sim["oxygen_vented_l"],
+        "nitrous_oxide_uptake_l": sim["nitrous_oxide_uptake_l"],
+        "nitrous_oxide_vented_l": sim["nitrous_oxide_vented_l"],
+        "conservation_error_rel": np.maximum.reduce(residuals),
+        "co2_absorbed_l": sim["co2_absorbed_l"],
+        "min_inspired_o2_pct": sim["min_inspired_o2"] * 100.0,
+        "min_inspired_o2_time_min": sim["min_inspired_o2_time_min"],
+        "o2_shortfall_l": sim["o2_shortfall_l"],
+        "lowest_safe_fd_o2_pct": sim["phase_lowest_safe_fd_o2"][longest, cols] * 100.0,
+        "end_tidal_mac_hours": sim["end_tidal_mac_hours"],
+        "slowest_time_to_target_min": slowest,
+        "targets_not_reached": not_reached.astype(float),
+        "vo2_ml_min": sim["vo2_l_min"] * 1000.0,
+        "vco2_ml_min": sim["vco2_l_min"] * 1000.0,
+        "cardiac_output_l_min": sim["cardiac_output_l_min"],
+        "minute_ventilation_l_min": sim["minute_ventilation_l_min"],
+        "circle_volume_l": sim["circle_volume_l"],
+    }
+    return totals, phases
+
+
+def simulate_plan(plan: CasePlan, reference: Reference = DEFAULT_REFERENCE, *, record=False, **changes):
+    """Run one plan through the circle simulation (:func:`model.circle.simulate_cases`).
+
+    ``changes`` override keyword arguments of ``simulate_cases`` (e.g. phase arrays of
+    shape ``(n_phases, n_cases)`` to run variants of the plan at once, as the flow sweep
+    does).
+    """
+    s = plan.settings
+    pt = plan.patient
+    agent = reference.volatile(plan.agent)
+    col = lambda values: np.array(values, dtype=float)[:, None]  # noqa: E731
+    kwargs = dict(
+        minutes=col([p.minutes for p in plan.phases]),
+        o2_l_min=col([p.o2_l_min for p in plan.phases]),
+        air_l_min=col([p.air_l_min for p in plan.phases]),
+        n2o_l_min=col([p.n2o_l_min for p in plan.phases]),
+        dial_pct=col([np.nan if p.dial_pct is None else p.dial_pct for p in plan.phases]),
+        target_mac=col([np.nan if p.target_mac is None else p.target_mac for p in plan.phases]),
+        weight_kg=pt.weight_kg, age_years=pt.age_years, cardiac_output_l_min=pt.cardiac_output_l_min,
+        vo2_ml_min=pt.vo2_ml_min, minute_ventilation_l_min=pt.minute_ventilation_l_min,
+        uptake_model=s.uptake_model, circle_volume_l=s.circle_volume_l,
+        absorbent_capacity_l_per_kg=s.absorbent_capacity_l_per_kg, temperature_c=s.temperature_c,
+        pressure_kpa=s.pressure_kpa, min_o2_share=s.min_o2_share, min_o2_flow_l_min=s.min_o2_flow_l_min,
+        ratio_behaviour=s.ratio_behaviour, inspired_o2_floor=s.inspired_o2_floor, record=record,
+        nitrous_oxide=reference.agents["nitrous_oxide"],
+    )
+    kwargs.update(changes)
+    return simulate_cases(agent, **kwargs)
+
+
 @dataclass
 class CaseResult:
-    """Per-case result: phase table, totals with units in the keys, and warnings."""
+    """Per-case result: phase table, totals with units in the keys, warnings, time course."""
 
     plan: CasePlan
     phases: pd.DataFrame
@@ -119,8 +293,10 @@ class CaseResult:
     gwp_source: str
     gwp_label: str
     warnings: list[str] = field(default_factory=list)
-    #: Minute-by-minute time course (from the physiology model, when it ran).
+    #: Minute-by-minute time course of the circle simulation (columns with units in names).
     timecourse: pd.DataFrame | None = None
+    #: Patient uptake model used ("compartment" or "lowe").
+    uptake_model: str = ""
 
     def to_dict(self) -> dict:
         """Machine-readable form with stable keys (units in the key names)."""
@@ -134,42 +310,64 @@ class CaseResult:
                 return bool(v)
             return v
         phases = [{k: clean(v) for k, v in row.items()} for row in self.phases.to_dict("records")]
-        return {
+        out = {
             "plan": self.plan.name,
             "agent": self.plan.agent,
             "currency": self.currency,
             "gwp_source": self.gwp_source,
             "gwp_source_label": self.gwp_label,
+            "uptake_model": self.uptake_model,
             "totals": {k: clean(v) for k, v in self.totals.items()},
             "phases": phases,
             "warnings": list(self.warnings),
         }
+        if self.timecourse is not None:
+            out["timecourse"] = [{k: clean(v) for k, v in row.items()}
+                                 for row in self.timecourse.to_dict("records")]
+        return out
 
 
 def compute_case(plan: CasePlan, reference: Reference = DEFAULT_REFERENCE) -> CaseResult:
-    """What a case plan consumes, costs and emits.
+    """What a case plan consumes, costs and emits, with the low-flow physics.
 
     Parameters
     ----------
     plan : CasePlan
-        Patient, agent, phases and settings.
+        Patient, agent, phases (each with a dial setting or an end-tidal target) and
+        settings (uptake model, circle volume, absorbent capacity, O2 floor, ...).
     reference : Reference
         Reference data and prices (with any user overrides).
 
     Returns
     -------
     CaseResult
-        Totals: ``duration_min``, ``liquid_agent_ml``, ``bottles``, ``agent_mass_g``,
-        ``oxygen_l``, ``air_l``, ``nitrous_oxide_l``, ``absorbent_g``, ``agent_emitted_g``,
-        ``nitrous_oxide_emitted_g``, ``co2e_agent_kg``, ``co2e_nitrous_oxide_kg``,
-        ``co2e_total_kg``, ``cost_agent`` ... ``cost_total`` (in ``currency``),
-        ``mac_hours`` and ``min_fd_o2``.
+        ``totals`` keeps the foundation keys (``duration_min``, ``liquid_agent_ml``,
+        ``bottles``, ``agent_mass_g``, ``oxygen_l``, ``air_l``, ``nitrous_oxide_l``,
+        ``absorbent_g``, ``agent_uptake_g``, ``agent_emitted_g``, ``nitrous_oxide_emitted_g``,
+        ``co2e_agent_kg``, ``co2e_nitrous_oxide_kg``, ``co2e_total_kg``, ``cost_agent``,
+        ``cost_oxygen``, ``cost_air``, ``cost_nitrous_oxide``, ``cost_absorbent``,
+        ``cost_total``, ``mac_hours``, ``min_fd_o2_pct``) and adds those of
+        :func:`simulation_totals` plus ``inspired_o2_floor_pct``, ``inspired_o2_below_floor``
+        and ``sevoflurane_low_flow_caution``; ``phases`` one row per phase; ``timecourse``
+        one row per minute (``time_min``, ``phase``, ``dial_pct``, ``inspired_agent_pct``,
+        ``end_tidal_agent_pct``, ``end_tidal_mac``, ``inspired_o2_pct``, ``end_tidal_o2_pct``,
+        ``inspired_n2o_pct``, ``end_tidal_n2o_pct``, ``agent_uptake_ml_min``,
+        ``agent_vented_ml_min``, ``liquid_agent_cumulative_ml``, ``co2_absorbed_cumulative_l``,
+        ``absorbent_used_cumulative_g``).
 
     Notes
     -----
-    Without an uptake model every delivered gram counts as emitted (an upper bound), less
-    the capture efficiency. MAC-hours count the dial setting and the delivered N2O
-    fraction against the age-adjusted MAC (Mapleson 1996).
+    The case runs through the circle-system simulation (:mod:`model.circle`): in dial
+    phases the liquid agent equals Dion's formula; in target phases the dial is found over
+    time. Emitted agent is delivered agent less the metabolised share of the patient's
+    uptake, less the capture efficiency. ``mac_hours`` counts the (mean) dial setting and
+    the delivered N2O fraction against the age-adjusted MAC; ``end_tidal_mac_hours`` counts
+    the simulated end-tidal concentrations.
+
+    References
+    ----------
+    .. [1] Dion P. Can J Anaesth 1992;39:633-4.
+    .. [2] Mapleson WW. Br J Anaesth 1996;76:179-85.
     """
     if plan.prices:
         reference = reference.with_overrides({"prices": plan.prices}, f"plan '{plan.name}'")
@@ -178,79 +376,101 @@ def compute_case(plan: CasePlan, reference: Reference = DEFAULT_REFERENCE) -> Ca
     n2o_agent = reference.agents["nitrous_oxide"]
     gwp_agent = reference.gwp(agent.name, s.gwp_source)
     gwp_n2o = reference.gwp("nitrous_oxide", s.gwp_source)
-    for i, p in enumerate(plan.phases, start=1):
-        if p.dial_pct is None:
-            raise InputError(f"phases[{i}].target", p.target_mac,
-                             "end-tidal targets need the physiology model; give a dial setting")
-    minutes = np.array([p.minutes for p in plan.phases])
-    dial = np.array([p.dial_pct for p in plan.phases], dtype=float)
-    c = phase_consumption(minutes, [p.o2_l_min for p in plan.phases],
-                          [p.air_l_min for p in plan.phases], [p.n2o_l_min for p in plan.phases],
-                          dial, agent, temperature_c=s.temperature_c, pressure_kpa=s.pressure_kpa,
-                          min_o2_share=s.min_o2_share, min_o2_flow_l_min=s.min_o2_flow_l_min,
-                          ratio_behaviour=s.ratio_behaviour)
-    uptake_g = np.zeros_like(minutes)
-    absorbent_g = np.zeros_like(minutes)
-    agent_emitted = emitted_mass_g(c["agent_g"], uptake_g, agent.metabolised_fraction, s.capture_efficiency)
-    n2o_emitted = emitted_mass_g(c["nitrous_oxide_g"], 0.0, n2o_agent.metabolised_fraction, 0.0)
-    mac_agent = mac_at_age(agent.mac40, plan.patient.age_years)
-    mac_n2o = mac_at_age(n2o_agent.mac40, plan.patient.age_years)
-    mac_mult = mac_multiple(dial, mac_agent, c["fd_n2o"] * 100.0, mac_n2o)
-    costs = case_costs(c["liquid_ml"], c["oxygen_l"], c["air_l"], c["nitrous_oxide_l"], absorbent_g,
-                       agent, reference.prices)
+    sim = simulate_plan(plan, reference, record=True)
+    tot, ph = simulation_totals(sim, agent, reference.prices, gwp_agent=gwp_agent, gwp_n2o=gwp_n2o,
+                                capture_efficiency=s.capture_efficiency, temperature_c=s.temperature_c,
+                                pressure_kpa=s.pressure_kpa, nitrous_oxide=n2o_agent)
+    minutes = sim["phase_minutes"][:, 0]
+    first = lambda a: np.asarray(a)[:, 0]  # noqa: E731
+    target_mode = first(sim["phase_target_mode"])
     phases = pd.DataFrame({
         "phase": [p.name for p in plan.phases],
         "duration_min": minutes,
-        "o2_l_min": c["o2_l_min"],
-        "air_l_min": np.array([p.air_l_min for p in plan.phases], dtype=float),
-        "n2o_l_min": c["n2o_l_min"],
-        "fgf_l_min": c["fgf_l_min"],
-        "flow_band": flow_band(c["fgf_l_min"]),
-        "fd_o2_pct": c["fd_o2"] * 100.0,
-        "fd_n2o_pct": c["fd_n2o"] * 100.0,
-        "dial_pct": dial,
-        "liquid_agent_ml": c["liquid_ml"],
-        "agent_mass_g": c["agent_g"],
-        "oxygen_l": c["oxygen_l"],
-        "air_l": c["air_l"],
-        "nitrous_oxide_l": c["nitrous_oxide_l"],
-        "co2e_kg": co2e_kg(agent_emitted, gwp_agent) + co2e_kg(n2o_emitted, gwp_n2o),
-        "cost_total": costs["total"],
-        "mac_multiple": mac_mult,
-        "mac_hours": mac_mult * minutes / 60.0,
-        "flows_altered": c["altered"],
+        "mode": np.where(target_mode, "target", "dial"),
+        "o2_l_min": first(sim["phase_o2_l_min"]),
+        "air_l_min": first(sim["phase_air_l_min"]),
+        "n2o_l_min": first(sim["phase_n2o_l_min"]),
+        "fgf_l_min": first(sim["phase_fgf_l_min"]),
+        "flow_band": flow_band(first(sim["phase_fgf_l_min"])),
+        "fd_o2_pct": first(sim["phase_fd_o2"]) * 100.0,
+        "fd_n2o_pct": first(sim["phase_fd_n2o"]) * 100.0,
+        "dial_pct": first(sim["phase_mean_dial_pct"]),
+        "target_mac": first(sim["phase_target_mac"]),
+        "liquid_agent_ml": first(ph["liquid_agent_ml"]),
+        "agent_mass_g": first(ph["agent_mass_g"]),
+        "oxygen_l": first(ph["oxygen_l"]),
+        "air_l": first(ph["air_l"]),
+        "nitrous_oxide_l": first(ph["nitrous_oxide_l"]),
+        "co2e_kg": first(ph["co2e_kg"]),
+        "cost_total": first(ph["cost_total"]),
+        "mac_multiple": first(ph["mac_multiple"]),
+        "mac_hours": first(ph["mac_multiple"]) * minutes / 60.0,
+        "flows_altered": first(sim["phase_altered"]),
+        "agent_uptake_g": first(ph["agent_uptake_g"]),
+        "agent_vented_g": first(ph["agent_vented_g"]),
+        "agent_emitted_g": first(ph["agent_emitted_g"]),
+        "end_tidal_agent_pct": first(sim["phase_end_tidal_agent"]) * 100.0,
+        "inspired_agent_pct": first(sim["phase_inspired_agent"]) * 100.0,
+        "end_tidal_mac": first(sim["phase_end_tidal_mac"]),
+        "time_to_target_min": first(sim["phase_time_to_target_min"]),
+        "time_at_max_below_target_min": first(sim["phase_time_at_max_below_target_min"]),
+        "min_inspired_o2_pct": first(sim["phase_min_inspired_o2"]) * 100.0,
+        "steady_inspired_o2_pct": first(sim["phase_steady_fio2"]) * 100.0,
+        "lowest_safe_fd_o2_pct": first(sim["phase_lowest_safe_fd_o2"]) * 100.0,
+        "rebreathed_pct": first(sim["phase_rebreathed_share"]) * 100.0,
+        "co2_absorbed_l": first(sim["phase_co2_absorbed_l"]),
+        "absorbent_g": first(ph["absorbent_g"]),
     })
-    co2e_agent = float(co2e_kg(agent_emitted.sum(), gwp_agent))
-    co2e_n2o = float(co2e_kg(n2o_emitted.sum(), gwp_n2o))
-    totals = {
-        "duration_min": float(minutes.sum()),
-        "liquid_agent_ml": float(c["liquid_ml"].sum()),
-        "bottles": float(c["liquid_ml"].sum() / agent.bottle_volume),
-        "agent_mass_g": float(c["agent_g"].sum()),
-        "oxygen_l": float(c["oxygen_l"].sum()),
-        "air_l": float(c["air_l"].sum()),
-        "nitrous_oxide_l": float(c["nitrous_oxide_l"].sum()),
-        "absorbent_g": float(absorbent_g.sum()),
-        "agent_uptake_g": float(uptake_g.sum()),
-        "agent_emitted_g": float(agent_emitted.sum()),
-        "nitrous_oxide_emitted_g": float(n2o_emitted.sum()),
-        "co2e_agent_kg": co2e_agent,
-        "co2e_nitrous_oxide_kg": co2e_n2o,
-        "co2e_total_kg": co2e_agent + co2e_n2o,
-        **{f"cost_{k}": float(np.sum(v)) for k, v in costs.items()},
-        "mac_hours": float(phases["mac_hours"].sum()),
-        "min_fd_o2_pct": float(phases["fd_o2_pct"].min()),
-    }
-    warnings = case_warnings(plan, phases, agent)
+    totals = {k: float(np.asarray(v)[0]) for k, v in tot.items()}
+    totals["inspired_o2_floor_pct"] = s.inspired_o2_floor * 100.0
+    totals["inspired_o2_below_floor"] = bool(totals["min_inspired_o2_pct"] < s.inspired_o2_floor * 100.0)
+    timecourse = _timecourse(sim["series"], [p.name for p in plan.phases], minutes)
+    warnings = case_warnings(plan, phases, agent, totals, timecourse)
+    totals["sevoflurane_low_flow_caution"] = any("sevoflurane at" in w for w in warnings)
     return CaseResult(plan, phases, totals, reference.prices.currency, s.gwp_source,
-                      reference.gwp_source(s.gwp_source).label, warnings)
+                      reference.gwp_source(s.gwp_source).label, warnings, timecourse, s.uptake_model)
 
 
-def case_warnings(plan: CasePlan, phases: pd.DataFrame, agent) -> list[str]:
-    """Cautions for a computed plan (altered mixes, low sevoflurane flow, low fresh gas O2)."""
+def _timecourse(series, names, minutes) -> pd.DataFrame:
+    """Minute-by-minute table from the recorded simulation of one case."""
+    t = series["time_min"][:, 0]
+    total = float(np.sum(minutes))
+    grid = np.arange(0.0, math.floor(total + 1e-9) + 1.0)
+    if total - grid[-1] > 1e-9:
+        grid = np.append(grid, total)
+    idx = np.clip(np.searchsorted(t, grid - 1e-9, side="left"), 1, len(t) - 1)
+
+    def at(key, scale=1.0):
+        return np.interp(grid, t, series[key][:, 0]) * scale
+
+    phase_index = series["phase_index"][idx, 0].astype(int)
+    return pd.DataFrame({
+        "time_min": grid,
+        "phase": [names[i] for i in phase_index],
+        "dial_pct": series["dial_pct"][idx, 0],
+        "inspired_agent_pct": at("inspired_agent", 100.0),
+        "end_tidal_agent_pct": at("end_tidal_agent", 100.0),
+        "end_tidal_mac": at("end_tidal_mac"),
+        "inspired_o2_pct": at("inspired_o2", 100.0),
+        "end_tidal_o2_pct": at("end_tidal_o2", 100.0),
+        "inspired_n2o_pct": at("inspired_n2o", 100.0),
+        "end_tidal_n2o_pct": at("end_tidal_n2o", 100.0),
+        "agent_uptake_ml_min": at("agent_uptake_l_min", 1000.0),
+        "agent_vented_ml_min": at("agent_vented_l_min", 1000.0),
+        "liquid_agent_cumulative_ml": at("liquid_ml"),
+        "co2_absorbed_cumulative_l": at("co2_absorbed_l"),
+        "absorbent_used_cumulative_g": at("absorbent_g"),
+    })
+
+
+def case_warnings(plan: CasePlan, phases: pd.DataFrame, agent, totals: dict | None = None,
+                  timecourse: pd.DataFrame | None = None) -> list[str]:
+    """Cautions for a computed plan: altered mixes, sevoflurane flow, inspired O2, targets."""
     s = plan.settings
+    floor_pct = s.inspired_o2_floor * 100.0
+    rows = [SimpleNamespace(**r) for r in phases.to_dict("records")]
     out = []
-    for i, row in enumerate(phases.itertuples(index=False), start=1):
+    for i, row in enumerate(rows, start=1):
         p = plan.phases[i - 1]
         label = f"phase {i} ({row.phase})"
         if row.flows_altered:
@@ -263,5 +483,43 @@ def case_warnings(plan: CasePlan, phases: pd.DataFrame, agent) -> list[str]:
                        f"{s.sevoflurane_min_flow_l_min:g} L/min; follow local protocol and labelling")
         if row.fd_o2_pct / 100.0 < s.inspired_o2_floor:
             out.append(f"{label}: fresh gas O2 {row.fd_o2_pct:.0f} % is under the inspired O2 floor of "
-                       f"{s.inspired_o2_floor * 100:.0f} %; inspired O2 in a circle is lower still")
+                       f"{floor_pct:.0f} %; inspired O2 in a circle is lower still")
+        elif math.isfinite(row.lowest_safe_fd_o2_pct) and row.fd_o2_pct < row.lowest_safe_fd_o2_pct - 1e-9:
+            out.append(f"{label}: at {row.fgf_l_min:.2f} L/min, fresh gas O2 {row.fd_o2_pct:.0f} % is under the "
+                       f"{row.lowest_safe_fd_o2_pct:.0f} % that keeps inspired O2 above {floor_pct:.0f} % at "
+                       f"steady state (O2 consumption {totals['vo2_ml_min']:.0f} mL/min)" if totals else
+                       f"{label}: fresh gas O2 under the lowest safe share")
+        elif not math.isfinite(row.lowest_safe_fd_o2_pct):
+            out.append(f"{label}: fresh gas flow {row.fgf_l_min:.2f} L/min does not exceed the O2 consumption; "
+                       f"no fresh gas mix keeps inspired O2 above {floor_pct:.0f} %")
+        if row.mode == "target":
+            if not math.isfinite(row.time_to_target_min):
+                out.append(f"{label}: the end-tidal target of {row.target_mac:g} MAC is not reached within "
+                           f"the phase at {row.fgf_l_min:.2f} L/min (vaporizer maximum "
+                           f"{agent.vaporizer_max:g} %); raise the flow or allow longer")
+            elif row.time_to_target_min > SLOW_TARGET_MIN:
+                out.append(f"{label}: end-tidal reaches the target of {row.target_mac:g} MAC only after "
+                           f"{row.time_to_target_min:.0f} min at {row.fgf_l_min:.2f} L/min")
+    if totals is not None:
+        if totals["min_inspired_o2_pct"] < floor_pct:
+            t_min = totals["min_inspired_o2_time_min"]
+            out.append(f"predicted inspired O2 falls to {totals['min_inspired_o2_pct']:.0f} % (at {t_min:.0f} min), "
+                       f"under the floor of {floor_pct:.0f} %: hypoxic mixture; raise the O2 share or the flow")
+        if totals["o2_shortfall_l"] > 1e-6:
+            out.append(f"the circle runs out of O2 for the patient's consumption "
+                       f"({totals['o2_shortfall_l']:.2f} L short): O2 inflow must at least match consumption")
+    if agent.name == "sevoflurane" and timecourse is not None and len(timecourse) > 1:
+        t = timecourse["time_min"].to_numpy()
+        et = timecourse["end_tidal_mac"].to_numpy()
+        mac_min = np.concatenate([[0.0], np.cumsum(np.diff(t) * 0.5 * (et[1:] + et[:-1]))])
+        ends = np.cumsum(phases["duration_min"].to_numpy())
+        starts = ends - phases["duration_min"].to_numpy()
+        for i, row in enumerate(rows, start=1):
+            if row.fgf_l_min >= s.sevoflurane_min_flow_long_l_min:
+                continue
+            late = (t > starts[i - 1]) & (t <= ends[i - 1]) & (mac_min > 60.0)
+            if late.any():
+                out.append(f"phase {i} ({row.phase}): sevoflurane at {row.fgf_l_min:.2f} L/min beyond 1 MAC-hour "
+                           f"is under the set minimum of {s.sevoflurane_min_flow_long_l_min:g} L/min; follow "
+                           f"local protocol and labelling")
     return out

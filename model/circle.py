@@ -68,6 +68,9 @@ COARSE_STEP_MIN = 1.0
 #: Common practice, no source.
 TARGET_TOLERANCE = 0.05
 SPECIES = ("oxygen", "nitrous_oxide", "agent")
+#: Per-phase amounts: 0 (not NaN) where a case skips the phase.
+_PHASE_AMOUNTS = ("phase_liquid_ml", "phase_agent_uptake_l", "phase_agent_vented_l", "phase_agent_gross_uptake_l",
+                  "phase_nitrous_oxide_gross_uptake_l", "phase_co2_absorbed_l")
 
 
 def steady_state_fio2(fgf_l_min, fd_o2, vo2_l_min, n2o_uptake_l_min=0.0, agent_uptake_l_min=0.0):
@@ -239,17 +242,18 @@ def simulate_cases(agent: Agent, minutes, o2_l_min, air_l_min=0.0, n2o_l_min=0.0
 
         ``liquid_ml``; for each species ``s`` in ``oxygen``, ``nitrous_oxide``, ``agent``:
         ``{s}_delivered_l``, ``{s}_uptake_l`` (O2: consumed), ``{s}_vented_l``,
-        ``{s}_held_start_l``, ``{s}_held_end_l`` (circuit + lungs + tissues), with
-        ``delivered = uptake + vented + held_end - held_start - tissue held at start``
-        (tissues start empty, so uptake is what the tissues hold at the end);
+        ``{s}_held_start_l``, ``{s}_held_end_l`` (gas in circuit and lungs), with
+        ``delivered = uptake + vented + held_end - held_start`` to rounding error; uptake
+        is the net uptake into the tissues (what they hold at the end, ``{s}_tissue_end_l``);
         ``agent_gross_uptake_l`` (agent that entered the blood, before any came back out:
-        the base of the metabolised share), ``co2_absorbed_l``, ``absorbent_g``, ``min_inspired_o2``, ``min_inspired_o2_time_min``,
+        the base of the metabolised share), ``nitrous_oxide_gross_uptake_l``, ``co2_absorbed_l``, ``absorbent_g``, ``min_inspired_o2``, ``min_inspired_o2_time_min``,
         ``o2_shortfall_l`` (O2 the patient needed but the circle could not supply),
         ``end_tidal_mac_hours``, ``vco2_l_min``, ``vo2_l_min``, ``minute_ventilation_l_min``.
 
         Per phase: ``phase_fgf_l_min``, ``phase_o2_l_min``, ``phase_n2o_l_min`` (delivered),
         ``phase_altered``, ``phase_fd_o2``, ``phase_fd_n2o``, ``phase_liquid_ml``,
         ``phase_mean_dial_pct``, ``phase_agent_uptake_l``, ``phase_agent_vented_l``,
+        ``phase_agent_gross_uptake_l``, ``phase_nitrous_oxide_gross_uptake_l``,
         ``phase_co2_absorbed_l``, ``phase_rebreathed_share``, ``phase_min_inspired_o2``,
         ``phase_end_tidal_agent``, ``phase_inspired_agent``, ``phase_end_tidal_mac``,
         ``phase_target_fraction`` (end-tidal agent aimed at, at phase end; NaN in dial mode),
@@ -330,15 +334,16 @@ def simulate_cases(agent: Agent, minutes, o2_l_min, air_l_min=0.0, n2o_l_min=0.0
 
     delivered = np.zeros((3, n_cases))
     uptake = np.zeros((3, n_cases))
-    gross_agent = np.zeros(n_cases)
+    gross = np.zeros((2, n_cases))  # N2O and agent into the blood, before any comes back
     vented = np.zeros((3, n_cases))
     co2_total = np.zeros(n_cases)
     min_fio2 = fc[0].copy()
     min_fio2_t = np.zeros(n_cases)
     et_mac_min = np.zeros(n_cases)  # end-tidal MAC x minutes
 
-    ph = {key: np.full(shape, np.nan) for key in (
+    ph = {key: np.full(shape, 0.0 if key in _PHASE_AMOUNTS else np.nan) for key in (
         "phase_liquid_ml", "phase_mean_dial_pct", "phase_agent_uptake_l", "phase_agent_vented_l",
+        "phase_agent_gross_uptake_l", "phase_nitrous_oxide_gross_uptake_l",
         "phase_co2_absorbed_l", "phase_min_inspired_o2", "phase_end_tidal_agent", "phase_inspired_agent",
         "phase_end_tidal_mac", "phase_target_fraction", "phase_time_to_target_min",
         "phase_time_at_max_below_target_min")}
@@ -385,6 +390,7 @@ def simulate_cases(agent: Agent, minutes, o2_l_min, air_l_min=0.0, n2o_l_min=0.0
         any_target = bool(tmode.any())
         co2_rate = vco2 * rebreathed_share(f, ve)
         start_deliv, start_up, start_vent = delivered[2].copy(), uptake[2].copy(), vented[2].copy()
+        start_gross = gross.copy()
         ph_min_o2 = np.full(n_cases, np.inf)
         t_reach = np.full(n_cases, np.nan)
         t_at_max = np.zeros(n_cases)
@@ -434,7 +440,7 @@ def simulate_cases(agent: Agent, minutes, o2_l_min, air_l_min=0.0, n2o_l_min=0.0
                 delivered[2] += deliv_ag
                 uptake[0] += s_o2 * dt
                 uptake[1:] += up_rate * dt
-                gross_agent += np.maximum(up_rate[1], 0.0) * dt
+                gross += np.maximum(up_rate, 0.0) * dt
                 vented += (dt * vent) * fc_new
                 fc, fa = fc_new, fa_new
                 u_prev = s_o2 + up_rate[0] + up_rate[1]
@@ -477,6 +483,8 @@ def simulate_cases(agent: Agent, minutes, o2_l_min, air_l_min=0.0, n2o_l_min=0.0
             "phase_mean_dial_pct": np.where(active, ph_deliv_ag / (f_safe * np.maximum(minutes[i], 1e-300)) * 100.0, np.nan),
             "phase_agent_uptake_l": uptake[2] - start_up,
             "phase_agent_vented_l": vented[2] - start_vent,
+            "phase_agent_gross_uptake_l": gross[1] - start_gross[1],
+            "phase_nitrous_oxide_gross_uptake_l": gross[0] - start_gross[0],
             "phase_co2_absorbed_l": co2_rate * minutes[i],
             "phase_min_inspired_o2": ph_min_o2,
             "phase_end_tidal_agent": fa[2].copy(),
@@ -488,8 +496,8 @@ def simulate_cases(agent: Agent, minutes, o2_l_min, air_l_min=0.0, n2o_l_min=0.0
         }
         for key, value in put.items():
             ph[key][i] = np.where(active, value, np.nan)
-        ph["phase_liquid_ml"][i] = np.where(active, ph["phase_liquid_ml"][i], 0.0)
-        ph["phase_co2_absorbed_l"][i] = np.where(active, ph["phase_co2_absorbed_l"][i], 0.0)
+        for key in _PHASE_AMOUNTS:
+            ph[key][i] = np.where(active, put[key], 0.0)
 
     held_end = v_c * fc + v_l * fa
     tissue_end = np.zeros((3, n_cases))
@@ -497,7 +505,8 @@ def simulate_cases(agent: Agent, minutes, o2_l_min, air_l_min=0.0, n2o_l_min=0.0
     out = {
         "liquid_ml": delivered[2] / vapour_per_ml,
         "co2_absorbed_l": co2_total,
-        "agent_gross_uptake_l": gross_agent,
+        "agent_gross_uptake_l": gross[1],
+        "nitrous_oxide_gross_uptake_l": gross[0],
         "absorbent_g": co2_total / absorbent_capacity_l_per_kg * 1000.0,
         "min_inspired_o2": min_fio2,
         "min_inspired_o2_time_min": min_fio2_t,
@@ -521,6 +530,9 @@ def simulate_cases(agent: Agent, minutes, o2_l_min, air_l_min=0.0, n2o_l_min=0.0
         "phase_lowest_safe_fd_o2": lowest_safe_fd_o2(fgf, vo2[None, :], inspired_o2_floor),
         "phase_steady_fio2": steady_state_fio2(fgf, fd_o2, vo2[None, :]),
         "phase_target_mode": target_mode,
+        "phase_minutes": minutes, "phase_dial_pct": dial * 100.0, "phase_target_mac": target,
+        "absorbent_capacity_l_per_kg": np.full(n_cases, float(absorbent_capacity_l_per_kg)),
+        "circle_volume_l": v_c, "frc_l": v_l,
     })
     if series is not None:
         series["dial_pct"][0] = series["dial_pct"][1] if total_steps else 0.0

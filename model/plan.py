@@ -21,6 +21,8 @@ from .errors import InputError
 from .freshgas import RATIO_BEHAVIOURS
 from .reference import DEFAULT_GWP, GWP_SOURCES, VOLATILES, normalise_agent_name
 from .units import check_range, to_base
+from .circle import ABSORBENT_CAPACITY_L_PER_KG, CIRCLE_VOLUME_L
+from .uptake import DEFAULT_UPTAKE_MODEL, UPTAKE_MODELS
 
 PLAN_FORMAT = "fresh-gas-ledger plan 1"
 CONTROL_MODES = ("dial", "target")
@@ -84,6 +86,16 @@ class Settings:
     #: Source: sevoflurane labelling in some countries (at least 1 L/min, 2 L/min beyond
     #: 1 MAC-hour), from memory.
     sevoflurane_min_flow_l_min: float = 1.0
+    #: Sevoflurane fresh gas flow under which the model cautions once the case has passed
+    #: 1 MAC-hour (end-tidal). [L/min]  Source: as above (2 L/min), from memory.
+    sevoflurane_min_flow_long_l_min: float = 2.0
+    #: Patient uptake model of the circle simulation: "compartment" or "lowe".
+    uptake_model: str = DEFAULT_UPTAKE_MODEL
+    #: Gas volume of the circle system. [L]  Source: see ``model.circle.CIRCLE_VOLUME_L``.
+    circle_volume_l: float = CIRCLE_VOLUME_L
+    #: CO2 taken up per kg of absorbent. [L/kg]  Source: see
+    #: ``model.circle.ABSORBENT_CAPACITY_L_PER_KG``.
+    absorbent_capacity_l_per_kg: float = ABSORBENT_CAPACITY_L_PER_KG
 
 
 @dataclass(frozen=True)
@@ -191,6 +203,17 @@ class SettingsIn(_Strict):
     ratio_limit: str = "cap_n2o"
     inspired_o2_floor: Annotated[float, Share] = 0.30
     sevoflurane_min_flow: Annotated[float, _quantity("L/min", 0.0, 20.0)] = 1.0
+    sevoflurane_min_flow_long: Annotated[float, _quantity("L/min", 0.0, 20.0)] = 2.0
+    uptake_model: str = DEFAULT_UPTAKE_MODEL
+    circle_volume: Annotated[float, _quantity("L", 0.5, 20.0)] = CIRCLE_VOLUME_L
+    absorbent_capacity: Annotated[float, _quantity("L/kg", 10.0, 300.0)] = ABSORBENT_CAPACITY_L_PER_KG
+
+    @pydantic.field_validator("uptake_model")
+    @classmethod
+    def _known_uptake_model(cls, v):
+        if v not in UPTAKE_MODELS:
+            raise InputError("uptake_model", v, "allowed models are " + ", ".join(UPTAKE_MODELS))
+        return v
 
     @pydantic.field_validator("gwp_source")
     @classmethod
@@ -311,7 +334,8 @@ def plan_from_dict(data: Mapping, source: str = "") -> CasePlan:
         patient=Patient(pt.weight, pt.age, pt.cardiac_output, pt.o2_consumption, pt.minute_ventilation),
         settings=Settings(s.room_temperature, s.pressure, s.gwp_source, s.capture_efficiency,
                           s.min_o2_share, s.n2o_cutoff_o2_flow, s.ratio_limit, s.inspired_o2_floor,
-                          s.sevoflurane_min_flow),
+                          s.sevoflurane_min_flow, s.sevoflurane_min_flow_long, s.uptake_model,
+                          s.circle_volume, s.absorbent_capacity),
         prices=dict(raw.prices),
     )
 
@@ -403,6 +427,10 @@ def plan_to_dict(plan: CasePlan) -> dict:
             "ratio_limit": s.ratio_behaviour,
             "inspired_o2_floor": s.inspired_o2_floor,
             "sevoflurane_min_flow": _q(s.sevoflurane_min_flow_l_min, "L/min"),
+            "sevoflurane_min_flow_long": _q(s.sevoflurane_min_flow_long_l_min, "L/min"),
+            "uptake_model": s.uptake_model,
+            "circle_volume": _q(s.circle_volume_l, "L"),
+            "absorbent_capacity": _q(s.absorbent_capacity_l_per_kg, "L/kg"),
         },
         "phases": phases,
     }
