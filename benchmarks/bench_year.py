@@ -1,0 +1,74 @@
+"""Benchmark: a 30-type case mix with 10,000 Monte Carlo draws per type (goal: under 1 s).
+
+Prints wall time (best of several runs) for the per-type rates, the sampling, a whole year
+and a paired comparison, the ratio to the goal, and peak traced memory.
+
+    .venv/bin/python benchmarks/bench_year.py
+"""
+
+from __future__ import annotations
+
+import resource
+import sys
+import time
+import tracemalloc
+from dataclasses import replace
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parents[1]
+sys.path.insert(0, str(ROOT))
+
+from model.scenario import Sampling, load_scenario  # noqa: E402
+from model.year import compare_years, compute_year, year_inputs  # noqa: E402
+
+TYPES = 30
+DRAWS = 10_000
+GOAL_S = 1.0
+
+
+def thirty_type_scenario():
+    base = load_scenario(ROOT / "demo_data" / "year" / "proposal_half_litre.toml")
+    src = base.casemix.types
+    types = tuple(replace(src[i % len(src)], name=f"{src[i % len(src)].name} #{i + 1}",
+                          cases_per_year=50 + 37 * i) for i in range(TYPES))
+    return replace(base, casemix=replace(base.casemix, types=types),
+                   sampling=Sampling(draws=DRAWS, seed=1, price_spread=0.1,
+                                     gwp_sources=("ar6_gwp100", "ar5_gwp100", "sulbaek_andersen_2012")))
+
+
+def best_of(fn, runs=5):
+    times = []
+    for _ in range(runs):
+        t = time.perf_counter()
+        fn()
+        times.append(time.perf_counter() - t)
+    return min(times), sorted(times)[len(times) // 2]
+
+
+def main():
+    scenario = thirty_type_scenario()
+    baseline = replace(scenario, practice=replace(scenario.practice, maintenance_flow_l_min=None,
+                                                  dial_factor=1.0))
+    compute_year(scenario)  # warm up imports and caches
+    rates_best, _ = best_of(lambda: year_inputs(scenario))
+    year_best, year_median = best_of(lambda: compute_year(scenario))
+    pair_best, pair_median = best_of(lambda: compare_years(baseline, scenario), runs=3)
+    tracemalloc.start()
+    compute_year(scenario)
+    _, peak_year = tracemalloc.get_traced_memory()
+    tracemalloc.reset_peak()
+    compare_years(baseline, scenario)
+    _, peak_pair = tracemalloc.get_traced_memory()
+    tracemalloc.stop()
+    rss_mb = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+    print(f"case mix: {TYPES} types, {DRAWS:,} draws per type")
+    print(f"per-type rates (once per scenario): {rates_best * 1000:7.1f} ms")
+    print(f"one year with bands:                {year_best * 1000:7.1f} ms best, {year_median * 1000:.1f} ms median"
+          f"  -> {year_best / GOAL_S:.2f} x the 1 s goal")
+    print(f"paired comparison (two years):      {pair_best * 1000:7.1f} ms best, {pair_median * 1000:.1f} ms median")
+    print(f"peak traced memory: year {peak_year / 2**20:.0f} MiB, comparison {peak_pair / 2**20:.0f} MiB; "
+          f"process max RSS {rss_mb:.0f} MiB")
+
+
+if __name__ == "__main__":
+    main()

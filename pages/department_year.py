@@ -1,0 +1,164 @@
+"""Department year: a case mix under one practice, scaled to a year with uncertainty bands."""
+
+from __future__ import annotations
+
+from dataclasses import replace
+
+import pandas as pd
+import streamlit as st
+
+import ui
+from model import InputError
+from model.casemix import casemix_from_frame, casemix_to_frame
+from model.exports import html_report
+from model.reference import GWP_SOURCES, VOLATILES
+from model.scenario import MAX_DRAWS, Practice, Sampling, load_scenario
+from model.year import nonzero_rows
+from ui import year_views as yv
+
+view = ui.page_start("Department year", "A department's case mix scaled to a year: bottles per month, "
+                     "gases, absorbent, cost and CO2e, with P5-P95 bands from sampled durations, "
+                     "adherence, prices and GWP source.")
+ref = ui.reference(view)
+ref_key = ui.reference_key(view)
+
+files = yv.scenario_files()
+if not files:
+    st.error("No scenario files found in demo_data/year.")
+    st.stop()
+name = st.selectbox("Scenario", list(files), key="dy_scenario",
+                    help="Scenario files (TOML) in demo_data/year; each names its case-mix file (CSV).")
+try:
+    base = load_scenario(files[name])
+except InputError as err:
+    ui.show_input_error(err)
+    st.stop()
+library = {**yv.plan_library(), **base.casemix.plans}
+
+st.subheader("Case mix")
+st.caption("Edit counts, durations, agent shares and each type's plan (its flow practice). Durations in "
+           "minutes; spread is the SD of ln(duration); shares as fractions.")
+share_cols = {a: st.column_config.NumberColumn(a, min_value=0.0, max_value=1.0, step=0.05, format="%.2f")
+              for a in VOLATILES}
+edited = st.data_editor(
+    casemix_to_frame(base.casemix), key=f"dy_mix_{name}", num_rows="dynamic", hide_index=True, width="stretch",
+    column_config={
+        "case_type": st.column_config.TextColumn("case type", required=True),
+        "cases_per_year": st.column_config.NumberColumn("cases / year", min_value=0, step=10, format="%d"),
+        "median_duration": st.column_config.NumberColumn("median min", min_value=1.0, step=5.0),
+        "duration_spread": st.column_config.NumberColumn("spread", min_value=0.0, max_value=2.0, step=0.05),
+        **share_cols,
+        "n2o_share": st.column_config.NumberColumn("N2O share", min_value=0.0, max_value=1.0, step=0.05),
+        "weight": st.column_config.NumberColumn("kg", min_value=0.5, max_value=350.0),
+        "age": st.column_config.NumberColumn("age", min_value=0.0, max_value=120.0),
+        "plan": st.column_config.SelectboxColumn("plan", options=sorted(library), required=True),
+    })
+try:
+    mix = casemix_from_frame(edited, library, "case mix table")
+except InputError as err:
+    ui.show_input_error(err)
+    st.stop()
+
+with st.expander("Practice change and uncertainty", expanded=False, icon=":material/tune:"):
+    p = base.practice
+    c1, c2, c3 = st.columns(3)
+    use_flow = c1.checkbox("Set maintenance flow", value=p.maintenance_flow_l_min is not None, key=f"dy_uf_{name}")
+    flow = c1.number_input("Maintenance flow (L/min)", 0.1, 10.0, p.maintenance_flow_l_min or 2.0, 0.1,
+                           key=f"dy_flow_{name}", disabled=not use_flow)
+    dial_factor = c1.number_input("Dial factor in maintenance", 0.5, 3.0, p.dial_factor, 0.05, key=f"dy_df_{name}",
+                                  help="Multiplies the maintenance dial setting; a lower flow needs a higher dial.")
+    switch = c2.checkbox("Move desflurane cases to sevoflurane", value=p.switch_from == "desflurane",
+                         key=f"dy_sw_{name}")
+    adh = c2.slider("Adherence: low, likely, high (%)", 0, 100,
+                    (round(p.adherence_low * 100), round(p.adherence_high * 100)), key=f"dy_adh_{name}")
+    mode = c2.slider("Most likely adherence (%)", 0, 100, round(p.adherence * 100), key=f"dy_mode_{name}")
+    s = base.sampling
+    draws = c3.number_input("Monte Carlo draws", 100, MAX_DRAWS, s.draws, 500, key=f"dy_draws_{name}")
+    seed = c3.number_input("Seed", 0, 2**31 - 1, s.seed, 1, key=f"dy_seed_{name}")
+    spread = c3.number_input("Price spread (SD of ln price)", 0.0, 1.0, s.price_spread, 0.05, key=f"dy_ps_{name}")
+    gwps = st.multiselect("GWP sources drawn in the bands (empty: the sidebar's source only)",
+                          [k for k in GWP_SOURCES if k != "user"], default=list(s.gwp_sources),
+                          format_func=lambda k: GWP_SOURCES[k].label, key=f"dy_gwps_{name}")
+    e1, e2 = st.columns([1, 3])
+    car = e1.number_input("Car factor (kg CO2e/km)", 0.01, 2.0, base.car_kg_per_km, 0.01, key=f"dy_car_{name}")
+    car_source = e2.text_input("Source of the car factor", base.car_source, key=f"dy_cars_{name}", max_chars=300)
+
+low, high = adh[0] / 100, adh[1] / 100
+mode = min(max(mode / 100, low), high)
+practice = Practice(flow if use_flow else None, dial_factor, "desflurane" if switch else None,
+                    "sevoflurane" if switch else None, mode, low, high)
+scenario = replace(yv.scenario_for_view(base, view, mix), practice=practice,
+                   sampling=Sampling(int(draws), int(seed), float(spread), tuple(gwps)),
+                   car_kg_per_km=float(car), car_source=car_source.strip() or base.car_source)
+try:
+    with st.spinner("Sampling the year..."):
+        result = yv.run_year(scenario, ref, ref_key)
+except InputError as err:
+    ui.show_input_error(err)
+    st.stop()
+
+t = result.totals
+rows = result.summary.set_index("key")
+cur = result.currency
+st.subheader("The year")
+st.caption(f"{t['cases']:,.0f} cases; {result.inputs.gwp_label}; {result.n_draws:,} draws (seed {result.seed}). "
+           "Expected values, with P5-P95 under each.")
+m = st.columns(5)
+m[0].metric(f"Cost ({cur})", f"{t['cost_total']:,.0f}", yv.band_text(rows.loc["cost_total"]), delta_color="off")
+m[1].metric("Emissions (t CO2e)", f"{t['co2e_total_t']:,.1f}", yv.band_text(rows.loc["co2e_total_t"], 1),
+            delta_color="off")
+m[2].metric("Bottles bought", f"{t['bottles_total']:,.0f}", yv.band_text(rows.loc["bottles_total"]), delta_color="off")
+m[3].metric("CO2 absorbent (kg)", f"{t['absorbent_kg']:,.0f}", yv.band_text(rows.loc["absorbent_kg"]),
+            delta_color="off")
+m[4].metric("Average car (km)", f"{t['car_km']:,.0f}", f"at {scenario.car_kg_per_km:g} kg CO2e/km", delta_color="off",
+            help=scenario.car_source)
+st.caption(f"Per case: {result.per_case['cost_total']:,.2f} {cur}, {result.per_case['co2e_total_t'] * 1000:,.1f} kg CO2e, "
+           f"{sum(result.per_case[f'liquid_ml_{a}'] for a in VOLATILES):,.1f} mL liquid agent.")
+
+figs = [("Bottles bought per month", yv.monthly_bottles_figure(result.monthly)),
+        ("Cost per month", yv.monthly_cost_figure(result.monthly, cur)),
+        ("CO2e by source", yv.co2e_by_source_figure(t)),
+        ("Cumulative CO2e", yv.fan_figure(result.fan, "cumulative t CO2e", "t CO2e", yv.PALETTE[3])),
+        ("Cumulative cost", yv.fan_figure(result.fan, "cumulative cost", cur))]
+g1, g2 = st.columns(2)
+g1.plotly_chart(figs[0][1], width="stretch", key="dy_fig_bottles")
+g2.plotly_chart(figs[1][1], width="stretch", key="dy_fig_cost")
+g3, g4 = st.columns(2)
+g3.plotly_chart(figs[3][1], width="stretch", key="dy_fig_fan_co2e")
+g4.plotly_chart(figs[4][1], width="stretch", key="dy_fig_fan_cost")
+st.plotly_chart(figs[2][1], width="stretch", key="dy_fig_source")
+
+summary = nonzero_rows(result.summary).drop(columns=["key"])
+st.subheader("Headline figures")
+st.dataframe(summary, hide_index=True, width="stretch",
+             column_config={c: st.column_config.NumberColumn(format="%.2f")
+                            for c in ("deterministic", "p5", "p50", "p95")})
+with st.expander("Per month and per case type"):
+    st.dataframe(result.monthly, hide_index=True, width="stretch")
+    st.dataframe(result.by_type, hide_index=True, width="stretch")
+
+if result.warnings:
+    with st.expander(f"Warnings ({len(result.warnings)})", icon=":material/warning:"):
+        for w in result.warnings:
+            st.warning(w)
+for note in result.notes:
+    st.caption(note)
+
+tables = {"Headline figures": summary, "Per month": result.monthly, "Per case type": result.by_type,
+          "Case mix": casemix_to_frame(mix), "Sources": pd.DataFrame(ref.table())}
+inputs = {"scenario": scenario.name, "cases per year": f"{t['cases']:,.0f}", "GWP source": result.inputs.gwp_label,
+          "draws": result.n_draws, "seed": result.seed, "car factor": f"{scenario.car_kg_per_km:g} kg CO2e/km "
+          f"({scenario.car_source})", "currency": cur}
+
+
+def _report() -> str:
+    return html_report(f"Department year: {scenario.name}", inputs=inputs,
+                       tables={"Headline figures": summary, "Per month": result.monthly,
+                               "Per case type": result.by_type},
+                       figures=figs, warnings=result.warnings, cautions=[ui.CAUTION, *result.notes],
+                       sources=tables["Sources"])
+
+
+st.divider()
+st.markdown("**Download this year**")
+ui.downloads(f"year {scenario.name}", tables, _report, key="dy_dl", notes=tuple(result.notes))
