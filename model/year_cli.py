@@ -58,7 +58,7 @@ def cmd_year(args) -> int:
     scenario = load_scenario(args.scenario)
     result = compute_year(scenario, _reference(args), draws=draws, seed=seed)
     if args.json:
-        print_json(result.to_dict())
+        print_json(result.to_dict(), sys.stdout)
         return 0
     print(f"{scenario.name}  ({result.totals['cases']:,.0f} cases a year; {result.inputs.gwp_label}; "
           f"{result.n_draws} draws, seed {result.seed})")
@@ -66,7 +66,7 @@ def cmd_year(args) -> int:
     rows = [{"figure": r["figure"], "unit": r["unit"], "expected": _num(r["deterministic"], r["unit"]),
              "P5": _num(r["p5"], r["unit"]), "P50": _num(r["p50"], r["unit"]), "P95": _num(r["p95"], r["unit"])}
             for r in nonzero_rows(result.summary).to_dict("records")]
-    print_table(rows, ["figure", "unit", "expected", "P5", "P50", "P95"])
+    print_table(rows, ["figure", "unit", "expected", "P5", "P50", "P95"], sys.stdout)
     print()
     print("Per month (expected):")
     month_rows = []
@@ -78,7 +78,7 @@ def cmd_year(args) -> int:
         row["cost_total"] = f"{r['cost_total']:,.0f}"
         row["co2e_total_t"] = f"{r['co2e_total_t']:.2f}"
         month_rows.append(row)
-    print_table(month_rows, ["month", *used, "cost_total", "co2e_total_t"])
+    print_table(month_rows, ["month", *used, "cost_total", "co2e_total_t"], sys.stdout)
     _tail(result.warnings, result.notes)
     return 0
 
@@ -92,7 +92,7 @@ def cmd_compare(args) -> int:
     proposal = load_scenario(args.proposal)
     comp = compare_years(baseline, proposal, _reference(args), draws=draws, seed=seed)
     if args.json:
-        print_json(comp.to_dict())
+        print_json(comp.to_dict(), sys.stdout)
         return 0
     b = comp.baseline
     print(f"{proposal.name}  minus  {baseline.name}")
@@ -104,12 +104,12 @@ def cmd_compare(args) -> int:
         rows.append({"figure": r["figure"], "unit": u, "baseline": _num(r["baseline"], u),
                      "proposal": _num(r["proposal"], u), "difference": _num(r["difference"], u),
                      "P5": _num(r["p5"], u), "P50": _num(r["p50"], u), "P95": _num(r["p95"], u)})
-    print_table(rows, ["figure", "unit", "baseline", "proposal", "difference", "P5", "P50", "P95"])
+    print_table(rows, ["figure", "unit", "baseline", "proposal", "difference", "P5", "P50", "P95"], sys.stdout)
     _tail(list(dict.fromkeys(b.warnings + comp.proposal.warnings)), comp.notes + comp.proposal.notes)
     return 0
 
 
-def _tail(warnings, notes, out=sys.stdout):
+def _tail(warnings, notes):
     if warnings:
         print()
         print("Warnings:")
