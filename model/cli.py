@@ -28,8 +28,9 @@ def _fmt(value, digits=2):
     return str(value)
 
 
-def print_table(rows, columns, out=sys.stdout):
+def print_table(rows, columns, out=None):
     """Print rows (dicts) as a plain aligned text table."""
+    out = out or sys.stdout  # looked up at call time, so redirected output is honoured
     cells = [[_fmt(r.get(c)) for c in columns] for r in rows]
     widths = [max([len(c)] + [len(row[i]) for row in cells]) for i, c in enumerate(columns)]
     out.write("  ".join(c.ljust(w) for c, w in zip(columns, widths)).rstrip() + "\n")
@@ -38,7 +39,8 @@ def print_table(rows, columns, out=sys.stdout):
         out.write("  ".join(v.ljust(w) for v, w in zip(row, widths)).rstrip() + "\n")
 
 
-def print_json(data, out=sys.stdout):
+def print_json(data, out=None):
+    out = out or sys.stdout
     json.dump(data, out, indent=2, ensure_ascii=False, allow_nan=False)
     out.write("\n")
 
