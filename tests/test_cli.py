@@ -115,7 +115,7 @@ def test_reference_prints_every_value_with_its_source(capsys):
                  "molar mass", "liquid density", "MAC at age 40", "GWP, IPCC AR6 GWP100",
                  "GWP, IPCC AR5 GWP100", "GWP, IPCC AR6 GWP20", "Sulbaek Andersen",
                  "from memory", "common practice, no source", "invented example price",
-                 "IPCC AR6 WG1 (2021)", "Dion" if False else "Mapleson"):
+                 "IPCC AR6 WG1 (2021)", "Mapleson"):
         assert text in out, text
     assert "0.0002" in out  # small shares are not rounded to 0.00
 
@@ -300,8 +300,9 @@ def test_no_command_prints_help_and_one_line(capsys):
     status, out, err = run([], capsys)
     assert status == 2
     assert "usage: gas-ledger" in out
-    assert err.splitlines() == ["gas-ledger: no command given; choose one of case, reference"] or (
-        len(err.splitlines()) == 1 and err.startswith("gas-ledger: no command given; choose one of case, reference"))
+    # (other parts of the project may register more commands after these two)
+    assert len(err.splitlines()) == 1
+    assert err.startswith("gas-ledger: no command given; choose one of case, reference")
 
 
 # --- the installed console script and `python -m model` -----------------------------------
