@@ -1,0 +1,177 @@
+"""Seeded generator of invented case records for the demo and the benchmarks.
+
+Everything it writes is invented: the fictional Fernhollow General Hospital, its theatres,
+case mix and practice. Run ``python -m model.synth --rows N --out DIR`` (see ``--help``).
+"""
+
+from __future__ import annotations
+
+import argparse
+import math
+import sys
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from .errors import InputError
+
+#: Invented theatres of the fictional Fernhollow General Hospital.
+THEATRES = ("Alder", "Birch", "Cedar", "Hazel", "Rowan", "Willow", "Day Unit 1", "Day Unit 2")
+#: Invented agent mix of the demo hospital (shares of cases).
+AGENT_MIX = {"sevoflurane": 0.74, "desflurane": 0.10, "isoflurane": 0.10, "none": 0.06}
+#: Invented maintenance dial settings per agent. [%]
+MAINTENANCE_DIAL = {"sevoflurane": 2.0, "desflurane": 6.0, "isoflurane": 1.2, "none": 0.0}
+#: Invented share of cases run at low flow, and of cases with N2O.
+LOW_FLOW_SHARE = 0.55
+N2O_SHARE = 0.12
+#: Columns written, in order (units in the column names, the record format's own way).
+COLUMNS = ("case_id", "time", "theatre", "agent", "o2 [L/min]", "air [L/min]", "n2o [L/min]",
+           "dial [%]", "end_tidal [%]")
+
+
+def generate(rows: int, seed: int = 2025, year: int = 2025, first_case: int = 0) -> pd.DataFrame:
+    """Invented minute-level records of about ``rows`` samples (whole cases, trimmed to ``rows``).
+
+    Parameters
+    ----------
+    rows : int
+        Number of sample rows.
+    seed : int
+        Seed of the random generator: the same seed gives the same records.
+    year : int
+        Calendar year of the case dates.
+    first_case : int
+        Number of the first case (for writing many parts with distinct case ids).
+
+    Returns
+    -------
+    DataFrame
+        Columns ``COLUMNS``; one row per minute of each case.
+    """
+    if rows < 1:
+        return pd.DataFrame({c: [] for c in COLUMNS})
+    rng = np.random.default_rng(seed)
+    n_cases = max(int(rows / 40) + 10, 1)
+    # Case lengths: lognormal around 80 min, 20-360 min (invented).
+    dur = np.clip(np.round(rng.lognormal(math.log(70), 0.5, n_cases)), 20, 360).astype(np.int64)
+    ends = np.cumsum(dur)
+    n_cases = int(np.searchsorted(ends, rows) + 1)
+    dur = dur[:n_cases]
+    dur[-1] -= int(dur.sum() - rows)
+    dur = np.maximum(dur, 1)
+    names = np.array(list(AGENT_MIX))
+    agent = rng.choice(len(names), n_cases, p=np.array(list(AGENT_MIX.values())))
+    low = rng.random(n_cases) < LOW_FLOW_SHARE
+    uses_n2o = rng.random(n_cases) < N2O_SHARE
+    theatre = rng.integers(0, len(THEATRES), n_cases)
+    day = rng.integers(0, 365 if year % 4 else 366, n_cases)
+    start = (np.datetime64(f"{year}-01-01T08:00") + day.astype("timedelta64[D]")
+             + rng.integers(0, 9 * 60, n_cases).astype("timedelta64[m]"))
+    maint_fgf = np.where(low, rng.uniform(0.5, 1.0, n_cases), rng.uniform(2.0, 3.0, n_cases))
+    # A few high-flow cases stay at 6 L/min throughout (invented).
+    maint_fgf = np.where(rng.random(n_cases) < 0.04, 6.0, maint_fgf)
+    base_dial = np.array([MAINTENANCE_DIAL[n] for n in names])[agent]
+    dial_case = base_dial * np.where(low, 1.2, 1.0) * rng.uniform(0.85, 1.15, n_cases)
+    induction = rng.integers(4, 10, n_cases)
+
+    case_of_row = np.repeat(np.arange(n_cases), dur)
+    first = np.repeat(np.cumsum(dur) - dur, dur)
+    minute = np.arange(len(case_of_row)) - first
+    left = np.repeat(dur, dur) - minute
+    ind = minute < induction[case_of_row]
+    emerg = (left <= 5) & ~ind
+    fgf = np.where(ind, 6.0, np.where(emerg, 8.0, maint_fgf[case_of_row]))
+    fgf = np.round(fgf * rng.uniform(0.95, 1.05, len(fgf)), 1)
+    n2o_on = uses_n2o[case_of_row] & ~emerg
+    o2_share = np.where(n2o_on, 0.34, np.where(ind | emerg, 1.0, 0.5))
+    o2 = np.round(fgf * o2_share, 2)
+    n2o = np.where(n2o_on, np.round(fgf - o2, 2), 0.0)
+    air = np.round(np.maximum(fgf - o2 - n2o, 0.0), 2)
+    volatile = agent[case_of_row] != list(names).index("none")
+    dial = np.where(ind, np.minimum(dial_case[case_of_row] * 2.0, np.where(
+        agent[case_of_row] == list(names).index("desflurane"), 12.0, 6.0)),
+        np.where(emerg, 0.0, dial_case[case_of_row]))
+    dial = np.where(volatile, np.round(dial, 1), 0.0)
+    et = np.where(volatile, np.round(dial * np.where(ind, 0.5, 0.8) * rng.uniform(0.9, 1.1, len(dial)), 2), 0.0)
+    case_ids = np.char.add(f"FH{year % 100:02d}-", np.char.zfill(
+        (np.arange(n_cases) + first_case).astype(str), 7))
+    return pd.DataFrame({
+        "case_id": case_ids[case_of_row],
+        "time": start[case_of_row] + minute.astype("timedelta64[m]"),
+        "theatre": np.array(THEATRES)[theatre][case_of_row],
+        "agent": names[agent][case_of_row],
+        "o2 [L/min]": o2, "air [L/min]": air, "n2o [L/min]": n2o,
+        "dial [%]": dial, "end_tidal [%]": et,
+    })
+
+
+def write(df: pd.DataFrame, path) -> Path:
+    """Write records as CSV or Parquet, by the file's extension."""
+    import pyarrow as pa
+
+    p = Path(path)
+    p.parent.mkdir(parents=True, exist_ok=True)
+    table = pa.Table.from_pandas(df, preserve_index=False)
+    if p.suffix == ".parquet":
+        import pyarrow.parquet as pq
+
+        pq.write_table(table, p, compression="zstd")
+    elif p.suffix == ".csv":
+        import pyarrow.csv as pc
+
+        table = table.set_column(table.schema.get_field_index("time"), "time",
+                                 pa.compute.strftime(table["time"], "%Y-%m-%d %H:%M:%S"))
+        pc.write_csv(table, p)
+    else:
+        raise InputError("output file", str(p), "expected a name ending in .csv or .parquet")
+    return p
+
+
+def write_many(rows: int, out_dir, seed: int = 2025, fmt: str = "parquet",
+               rows_per_file: int = 5_000_000, year: int = 2025, prefix: str = "records") -> list[Path]:
+    """Write ``rows`` invented samples as files of at most ``rows_per_file`` rows each.
+
+    Each part has its own seed (``seed`` + part number) and distinct case ids, so memory
+    stays bounded by one part whatever the total.
+    """
+    if fmt not in ("parquet", "csv"):
+        raise InputError("format", fmt, "allowed formats are parquet, csv")
+    if rows < 1:
+        raise InputError("rows", rows, "expected at least 1 row")
+    out = []
+    done = 0
+    part = 0
+    case_base = 0
+    while done < rows:
+        n = min(rows_per_file, rows - done)
+        df = generate(n, seed + part, year, first_case=case_base)
+        case_base += df["case_id"].nunique() + 1
+        name = f"{prefix}.{fmt}" if rows <= rows_per_file else f"{prefix}-{part:05d}.{fmt}"
+        out.append(write(df, Path(out_dir) / name))
+        done += n
+        part += 1
+    return out
+
+
+def main(argv=None) -> int:
+    parser = argparse.ArgumentParser(prog="python -m model.synth",
+                                     description="Write invented case records (Fernhollow General Hospital).")
+    parser.add_argument("--rows", type=int, required=True, help="number of sample rows")
+    parser.add_argument("--out", required=True, help="output folder")
+    parser.add_argument("--seed", type=int, default=2025)
+    parser.add_argument("--format", choices=("parquet", "csv"), default="parquet")
+    parser.add_argument("--rows-per-file", type=int, default=5_000_000)
+    parser.add_argument("--year", type=int, default=2025)
+    args = parser.parse_args(argv)
+    try:
+        paths = write_many(args.rows, args.out, args.seed, args.format, args.rows_per_file, args.year)
+    except InputError as exc:
+        sys.stderr.write(f"model.synth: {exc}\n")
+        return 2
+    print(f"wrote {args.rows:,} rows in {len(paths)} file(s) under {args.out}")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
