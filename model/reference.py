@@ -475,6 +475,8 @@ def load_settings(path: str | os.PathLike | None = None, base: Reference | None 
         from .plan import toml_error
         raise toml_error(f"settings file {p}", exc,
                          "the file is not valid TOML (see 'Settings file' in README.md)") from None
+    except RecursionError:
+        raise InputError("settings file", str(p), "nested too deeply to be a settings file") from None
     except OSError as exc:
         raise InputError("settings file", str(p), f"cannot be read ({exc.strerror}); "
                          "give a readable TOML settings file") from None

@@ -50,7 +50,10 @@ def to_base(value, unit: str, field: str, default_unit: str | None = None) -> fl
     if isinstance(value, bool):
         raise InputError(field, value, f"expected a number in {default_unit} or a quantity such as '1 {unit}'")
     if isinstance(value, (int, float)):
-        number = float(value)
+        try:
+            number = float(value)
+        except OverflowError:  # an int beyond float range
+            number = math.inf
         if not math.isfinite(number):
             raise InputError(field, value, "expected a finite number")
         if default_unit == unit:
@@ -59,15 +62,19 @@ def to_base(value, unit: str, field: str, default_unit: str | None = None) -> fl
     if not isinstance(value, str):
         raise InputError(field, value, f"expected a number in {default_unit} or a quantity such as '1 {unit}'")
     text = value.strip()
-    if not text or len(text) > 64:
+    # No powers: pint evaluates them exactly, and "9**9**9" would hold the server for hours.
+    if not text or len(text) > 64 or "**" in text or "^" in text:
         raise InputError(field, value, f"expected a quantity such as '1 {unit}'")
     try:
         quantity = ureg.Quantity(text)
+        bare = isinstance(quantity, (int, float)) or quantity.unitless
+        if bare:
+            magnitude = float(getattr(quantity, "magnitude", quantity))
     except Exception:
         raise InputError(field, value, f"expected a quantity such as '1 {unit}'") from None
-    if isinstance(quantity, (int, float)) or quantity.unitless:
+    if bare:
         # A bare number typed as text: read it in the default unit.
-        return to_base(float(getattr(quantity, "magnitude", quantity)), unit, field, default_unit)
+        return to_base(magnitude, unit, field, default_unit)
     try:
         number = float(quantity.to(unit).magnitude)
     except Exception:
