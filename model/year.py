@@ -30,6 +30,8 @@ import pandas as pd
 from scipy.special import ndtr
 
 from .case import phase_consumption
+from .circle import rebreathed_share
+from .patient import patient_values
 from .casemix import CaseMix, CaseType
 from .emissions import emitted_mass_g
 from .errors import InputError
@@ -213,6 +215,10 @@ def year_inputs(scenario: Scenario, reference: Reference = DEFAULT_REFERENCE) ->
             variants.append((1, *practised_plan(t, scenario)))
         for v, plan, shares in variants:
             s = plan.settings
+            pv = patient_values(plan.patient)
+            co2_l_min = float(pv.vco2_l_min)
+            ve_l_min = float(pv.minute_ventilation_l_min)
+            capacity = s.absorbent_capacity_l_per_kg
             for agent_name, share in shares.items():
                 if share <= 0:
                     continue
@@ -233,7 +239,7 @@ def year_inputs(scenario: Scenario, reference: Reference = DEFAULT_REFERENCE) ->
                         bucket.append((i, v, j == k, p.minutes, weight, o2, air, n2o,
                                        _dial_for(agent, plan_agent, p.dial_pct),
                                        s.capture_efficiency, p.name, s.sevoflurane_min_flow_l_min,
-                                       s.inspired_o2_floor, with_n2o))
+                                       s.inspired_o2_floor, with_n2o, co2_l_min, ve_l_min, capacity))
     for key, bucket in rows.items():
         agent = ref.volatile(key[0])
         a = VOLATILES.index(key[0])
@@ -256,6 +262,9 @@ def year_inputs(scenario: Scenario, reference: Reference = DEFAULT_REFERENCE) ->
         per_min[:, _Q["nitrous_oxide_l"]] = c["nitrous_oxide_l"]
         per_min[:, _Q["nitrous_oxide_emitted_g"]] = c["nitrous_oxide_g"]
         per_min[:, _Q["minutes"]] = 1.0
+        # Absorbent at steady state: VCO2 x the rebreathed share of exhaled gas / capacity.
+        per_min[:, _Q["absorbent_g"]] = (np.array(cols[14]) * rebreathed_share(c["fgf_l_min"], np.array(cols[15]))
+                                         / np.array(cols[16]) * 1000.0)
         contrib = per_min * weight[:, None]
         np.add.at(fixed, (vi[~is_stretch], ti[~is_stretch]), contrib[~is_stretch] * minutes[~is_stretch, None])
         np.add.at(rate, (vi[is_stretch], ti[is_stretch]), contrib[is_stretch])
@@ -293,7 +302,7 @@ def year_inputs(scenario: Scenario, reference: Reference = DEFAULT_REFERENCE) ->
 def _collect_warnings(out: dict, types, bucket, c, agent, a):
     """Cautions of the sub-plans: altered mixes, low sevoflurane flow, low fresh gas O2."""
     for row, fgf, fd_o2, altered in zip(bucket, c["fgf_l_min"], c["fd_o2"], c["altered"]):
-        i, v, _, _, _, _, _, _, _, _, phase, sevo_min, floor, with_n2o = row
+        i, v, _, _, _, _, _, _, _, _, phase, sevo_min, floor, with_n2o = row[:14]
         who = f"{types[i].name}{' (changed practice)' if v else ''}, {agent.label.lower()}" \
               f"{' with N2O' if with_n2o else ''}, {phase}"
         if agent.name == "sevoflurane" and fgf < sevo_min - 1e-12:
@@ -578,8 +587,9 @@ def _fan(months: dict) -> pd.DataFrame:
 def _notes(inp: YearInputs, scenario: Scenario) -> list[str]:
     notes = [
         "Liquid agent by Dion's formula from the plans' dial settings; all delivered agent counts "
-        "as emitted (no patient uptake yet): an upper bound.",
-        "CO2 absorbent needs the patient and circle model; it counts as 0 here.",
+        "as emitted (the metabolised share of uptake, under 1 % of emissions, is not subtracted).",
+        "CO2 absorbent at steady state: the patient's VCO2 (Brody) x the rebreathed share of "
+        "exhaled gas (1 - FGF / minute ventilation) / the absorbent's capacity.",
         "Agent cost is whole bottles bought per month (rounded up); gases and absorbent pro rata.",
         f"Equivalence: {scenario.car_kg_per_km:g} kg CO2e per km by an average car ({scenario.car_source}).",
     ]
