@@ -239,7 +239,7 @@ def audit_records(records, *, reference: Reference = DEFAULT_REFERENCE, gwp_sour
     if engine not in ENGINES:
         raise InputError("engine", engine, "allowed engines are " + ", ".join(ENGINES))
     if engine == "auto":
-        n_rows = records.con.sql("SELECT count(*) FROM raw").fetchone()[0]
+        n_rows = records.con.sql("SELECT count(*) FROM raw").fetchall()[0][0]
         engine = "memory" if n_rows <= IN_MEMORY_ROWS else "sql"
     if engine == "memory":
         raw, counts, time_rows, gap_rows = _numpy_engine(records, high_flow_l_min)

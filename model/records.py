@@ -791,8 +791,8 @@ def _issue_row(rf: RecordFile, r, reference: Reference):
         msg = f"agent '{agent_raw}' is unknown; allowed are {allowed}, none"
     elif kind == "negative_flow":
         col = "flow"
-        val = ", ".join(f"{n} {_fmt_num(v)}" for n, v in (("o2", o2), ("air", air), ("n2o", n2o), ("fgf", fgf))
-                        if v is not None and v < 0)
+        shown = (("o2", o2), ("air", air), ("n2o", n2o)) if parts else (("fgf", fgf),)
+        val = ", ".join(f"{n} {_fmt_num(v)}" for n, v in shown if v is not None and v < 0)
         msg = f"negative flow ({val} L/min)"
     elif kind == "absurd_flow":
         col = "flow"

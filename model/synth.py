@@ -154,16 +154,102 @@ def write_many(rows: int, out_dir, seed: int = 2025, fmt: str = "parquet",
     return out
 
 
+#: Invented purchase factors of the demo: purchased / recorded use (wastage, stock, losses).
+DEMO_PURCHASE_FACTORS = {"sevoflurane": 1.08, "desflurane": 1.05, "isoflurane": 1.12,
+                         "nitrous_oxide": 2.4, "oxygen": 1.3}
+#: Invented size of the demo's N2O cylinders. [L of gas at room conditions]
+DEMO_N2O_CYLINDER_L = 9000.0
+
+
+def write_demo(out_dir, rows: int = 120_000, seed: int = 2025) -> list[Path]:
+    """Write the demo records and purchases of the fictional Fernhollow General Hospital.
+
+    Files: ``fernhollow_2025.parquet`` (a year of minute-level records, sampled lightly),
+    ``fernhollow_birch_cases.csv`` (one theatre in the other layout: elapsed minutes, total
+    flow with O2 share, flows in mL/min declared in a units line, and a few deliberate
+    problems to show the checks) and ``fernhollow_purchases_2025.csv``.
+    """
+    from .audit import audit_records
+    from .purchases import write_purchases
+
+    out = Path(out_dir)
+    out.mkdir(parents=True, exist_ok=True)
+    df = generate(rows, seed)
+    main_path = write(df, out / "fernhollow_2025.parquet")
+    # About 30 cases of one theatre in the second layout.
+    week = generate(2500, seed + 1)
+    week = week[week["agent"] != "none"].reset_index(drop=True)
+    t0 = week.groupby("case_id")["time"].transform("min")
+    fgf = week["o2 [L/min]"] + week["air [L/min]"] + week["n2o [L/min]"]
+    o2_share = (week["o2 [L/min]"] + 0.20946 * week["air [L/min]"]) / fgf * 100.0
+    csv = pd.DataFrame({
+        "case": week["case_id"].str.replace("FH25-", "BW-", regex=False),
+        "date": "",
+        "elapsed": ((week["time"] - t0).dt.total_seconds() / 60.0).round(1),
+        "location": "Birch",
+        "agent": week["agent"].map({"sevoflurane": "Sevo", "desflurane": "Des", "isoflurane": "Iso"}),
+        "total_flow": (fgf * 1000.0).round(0),
+        "n2o_share": (week["n2o [L/min]"] / fgf * 100.0).round(1),
+        "o2_share": o2_share.round(1),
+        "dial": week["dial [%]"],
+    })
+    csv["date"] = week.groupby("case_id")["time"].transform("min").dt.strftime("%Y-%m-%d")
+    csv = csv.astype(object)
+    # Deliberate problems (each one a kind the checks report).
+    csv.loc[10, "total_flow"] = "n/a?"
+    csv.loc[20, "agent"] = "Xenon"
+    csv.loc[30, "total_flow"] = -500
+    csv.loc[40, "dial"] = 14
+    csv.loc[51, "elapsed"] = csv.loc[50, "elapsed"]
+    # A 12-minute gap in the middle of the longest case.
+    sizes = csv.groupby("case", sort=False).size()
+    start = int(csv.index[csv["case"] == sizes.idxmax()][0])
+    middle = start + int(sizes.max()) // 2
+    csv = csv.drop(index=range(middle, middle + 12)).reset_index(drop=True)
+    birch = out / "fernhollow_birch_cases.csv"
+    with open(birch, "w", encoding="utf-8", newline="") as fh:
+        fh.write("# Fernhollow General Hospital (invented), theatre Birch, about 30 cases\n")
+        fh.write("# units: total_flow=mL/min, elapsed=min, o2_share=%, n2o_share=%, dial=%\n")
+        csv.to_csv(fh, index=False)
+    # Purchases: recorded use of the year times invented factors, in whole bottles/cylinders.
+    use = audit_records([main_path]).use_by_month()
+    rows_out = []
+    for r in use.itertuples(index=False):
+        f = DEMO_PURCHASE_FACTORS.get(r.item)
+        if f is None or r.recorded <= 0:
+            continue
+        if r.item in ("sevoflurane", "desflurane", "isoflurane"):
+            from .reference import DEFAULT_REFERENCE
+
+            bottle = DEFAULT_REFERENCE.agents[r.item].bottle_volume
+            rows_out.append((r.month, r.item, int(math.ceil(r.recorded * f / bottle)), "bottle", ""))
+        elif r.item == "nitrous_oxide":
+            rows_out.append((r.month, r.item, int(math.ceil(r.recorded * f / DEMO_N2O_CYLINDER_L)),
+                             "cylinder", f"{DEMO_N2O_CYLINDER_L:g} L"))
+        else:
+            rows_out.append((r.month, r.item, round(r.recorded * f / 1000.0, 1), "m**3", ""))
+    purchases = write_purchases(rows_out, out / "fernhollow_purchases_2025.csv")
+    return [main_path, birch, purchases]
+
+
 def main(argv=None) -> int:
     parser = argparse.ArgumentParser(prog="python -m model.synth",
                                      description="Write invented case records (Fernhollow General Hospital).")
-    parser.add_argument("--rows", type=int, required=True, help="number of sample rows")
+    parser.add_argument("--rows", type=int, default=None, help="number of sample rows")
     parser.add_argument("--out", required=True, help="output folder")
+    parser.add_argument("--demo", action="store_true",
+                        help="write the demo records and purchases (demo_data/records) instead")
     parser.add_argument("--seed", type=int, default=2025)
     parser.add_argument("--format", choices=("parquet", "csv"), default="parquet")
     parser.add_argument("--rows-per-file", type=int, default=5_000_000)
     parser.add_argument("--year", type=int, default=2025)
     args = parser.parse_args(argv)
+    if args.demo:
+        paths = write_demo(args.out, args.rows or 120_000, args.seed)
+        print("wrote " + ", ".join(str(p) for p in paths))
+        return 0
+    if args.rows is None:
+        parser.error("--rows is required (or --demo)")
     try:
         paths = write_many(args.rows, args.out, args.seed, args.format, args.rows_per_file, args.year)
     except InputError as exc:

@@ -1,0 +1,121 @@
+"""The ``gas-ledger audit`` sub-command: audit case records, reconcile with purchases."""
+
+from __future__ import annotations
+
+import sys
+
+from .cli import CAUTION, print_json, print_table
+
+DE_IDENTIFY = ("Records must be de-identified before they are audited or shared: no names, "
+               "hospital numbers or dates of birth.")
+
+
+def register(subparsers) -> None:
+    """Add ``audit`` to the ``gas-ledger`` command line."""
+    p = subparsers.add_parser(
+        "audit", help="audit case records (CSV/Parquet); reconcile with purchases",
+        description="Per-case consumption, CO2e, cost and flow bands from case records, "
+                    "sums by theatre, month and agent, and optionally a reconciliation with "
+                    "purchases. Rows with problems are set aside and reported, never fatal.")
+    p.add_argument("files", nargs="+", metavar="FILES", help="record files or globs (.csv, .parquet)")
+    p.add_argument("--purchases", metavar="FILE", help="purchases file (.csv or .parquet)")
+    p.add_argument("--json", action="store_true", help="machine-readable output")
+    p.add_argument("--gap-limit", type=float, default=None, metavar="MIN",
+                   help="longest interval between samples that is counted [min] (default 5)")
+    p.add_argument("--high-flow-limit", type=float, default=None, metavar="MIN",
+                   help="flag cases with a high-flow run at least this long [min] (default 15)")
+    p.add_argument("--gwp-source", default=None, help="GWP source key (default ar6_gwp100)")
+    p.add_argument("--memory-limit", default=None, metavar="SIZE",
+                   help="duckdb memory limit for large record sets, e.g. 3GB")
+    p.add_argument("--messages", type=int, default=20, metavar="N",
+                   help="row-level messages printed (the JSON output carries up to 2000)")
+    p.set_defaults(func=cmd_audit)
+
+
+def cmd_audit(args) -> int:
+    from .audit import DEFAULT_HIGH_FLOW_LIMIT_MIN, audit_records
+    from .errors import InputError
+    from .records import DEFAULT_GAP_LIMIT_MIN
+    from .reference import DEFAULT_GWP, load_settings
+
+    reference = load_settings(args.settings)
+    if args.messages < 0:
+        raise InputError("--messages", args.messages, "expected 0 or more")
+    result = audit_records(
+        args.files, reference=reference, gwp_source=args.gwp_source or DEFAULT_GWP,
+        gap_limit_min=DEFAULT_GAP_LIMIT_MIN if args.gap_limit is None else args.gap_limit,
+        high_flow_limit_min=DEFAULT_HIGH_FLOW_LIMIT_MIN if args.high_flow_limit is None else args.high_flow_limit,
+        memory_limit=args.memory_limit)
+    recon = None
+    if args.purchases:
+        from .purchases import read_purchases, reconcile
+
+        purchases = read_purchases(args.purchases, reference)
+        recon = reconcile(purchases, result.use_by_month(), reference, result.gwp_source)
+    if args.json:
+        data = result.to_dict()
+        if recon is not None:
+            data["reconciliation"] = [{k: _num(v) for k, v in r.items()} for r in recon.to_dict("records")]
+        data["caution"] = CAUTION
+        data["de_identification"] = DE_IDENTIFY
+        print_json(data)
+        return 0
+    out = sys.stdout
+    rep = result.report
+    s = rep.summary()
+    out.write(f"Records: {len(s['files'])} file(s), {s['rows_read']:,} rows read, {s['rows_valid']:,} used, "
+              f"{s['rows_set_aside']:,} set aside; {s['gaps']:,} gap(s) over {s['gap_limit_min']:g} min "
+              f"({s['gap_minutes_not_counted']:,.0f} min not counted)\n")
+    kinds = {k: v for k, v in s["set_aside_by_kind"].items() if v}
+    if kinds:
+        out.write("Set aside by kind: " + ", ".join(f"{k} {v:,}" for k, v in kinds.items()) + "\n")
+    for m in list(rep.issues["message"])[: args.messages]:
+        out.write(f"  - {m}\n")
+    if len(rep.issues) > args.messages:
+        out.write(f"  ... {len(rep.issues) - args.messages} more message(s) (--messages N, or --json)\n")
+    for m in list(rep.gap_list["message"])[: max(args.messages // 2, 0)]:
+        out.write(f"  - {m}\n")
+    for note in s["notes"]:
+        out.write(f"Note: {note}\n")
+    out.write("\n")
+    t = result.total
+    cur = result.currency
+    rows = [("Cases", f"{int(t['cases']):,}"),
+            ("Liquid agent", f"{t['liquid_agent_ml']:,.0f} mL ({t['bottles']:,.1f} bottles)"),
+            ("Oxygen / air / N2O", f"{t['oxygen_l']:,.0f} / {t['air_l']:,.0f} / {t['nitrous_oxide_l']:,.0f} L"),
+            (f"CO2e ({result.gwp_label})", f"{t['co2e_total_kg']:,.1f} kg (agent {t['co2e_agent_kg']:,.1f}, "
+                                           f"N2O {t['co2e_nitrous_oxide_kg']:,.1f})"),
+            ("Cost", f"{t['cost_total']:,.2f} {cur}"),
+            ("Cases with long high flow", f"{int(t['high_flow_cases']):,} (run of "
+                                          f"{result.settings['high_flow_limit_min']:g} min or more above "
+                                          f"{result.settings['high_flow_l_min']:g} L/min)")]
+    width = max(len(k) for k, _ in rows)
+    for k, v in rows:
+        out.write(f"{k.ljust(width)}  {v}\n")
+    for key in ("theatre", "month", "agent"):
+        out.write(f"\nBy {key}\n")
+        print_table(result.by(key).to_dict("records"),
+                    [key, "cases", "liquid_agent_ml", "co2e_total_kg", "cost_total", "mean_fgf_l_min",
+                     "high_flow_cases"], out)
+    if recon is not None:
+        out.write("\nPurchases against recorded use (unexplained = purchased - recorded)\n")
+        print_table(recon.to_dict("records"),
+                    ["item", "month", "unit", "purchased", "recorded", "unexplained", "unexplained_share",
+                     "unexplained_co2e_kg"], out)
+        loss = recon[(recon["item"] == "nitrous_oxide") & (recon["month"] == "all")]
+        if len(loss):
+            r = loss.iloc[0]
+            share = "" if r["unexplained_share"] != r["unexplained_share"] else f" ({r['unexplained_share']:.0%} of purchases)"
+            out.write(f"N2O apparent loss: {r['apparent_loss']:,.0f} L{share}\n")
+    out.write("\n" + DE_IDENTIFY + "\n" + CAUTION + "\n")
+    return 0
+
+
+def _num(v):
+    if isinstance(v, float) and v != v:
+        return None
+    if hasattr(v, "item"):
+        v = v.item()
+        if isinstance(v, float) and v != v:
+            return None
+    return v

@@ -1,0 +1,281 @@
+"""Purchases of agents and gases: the purchases file, purchase-based emissions, reconciliation.
+
+A purchases file (CSV or Parquet, documented in README.md, "Purchases") has one row per
+purchase: ``month`` (YYYY-MM), ``item`` (an agent or gas), ``quantity``, ``unit`` and, for
+bottles and cylinders, ``size``. Volatile agents are counted as liquid [mL], gases as gas
+volume at room conditions [L]. Purchase-based emissions count everything bought as emitted
+(the usual purchase-based method); reconciliation sets purchases against recorded (or
+modelled) use per item and month and reports the share nothing recorded explains. For
+nitrous oxide that gap is the apparent loss (piped systems leak; cylinders are returned
+part-full).
+"""
+
+from __future__ import annotations
+
+import re
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from .emissions import co2e_kg, gas_mass_g
+from .errors import InputError
+from .reference import DEFAULT_GWP, DEFAULT_REFERENCE, STANDARD_PRESSURE_KPA, Reference, normalise_agent_name
+from .units import registry
+from .vapour import molar_volume_l
+
+PURCHASE_COLUMNS = ("month", "item", "quantity", "unit", "size")
+GASES = ("nitrous_oxide", "oxygen", "air")
+_MONTH = re.compile(r"^\d{4}-(0[1-9]|1[0-2])$")
+
+
+def _convert(value: float, unit: str, base: str):
+    """Convert with pint; returns None when the dimension differs."""
+    ureg = registry()
+    try:
+        return float(ureg.Quantity(value, unit).to(base).magnitude)
+    except Exception:
+        return None
+
+
+def read_purchases(path, reference: Reference = DEFAULT_REFERENCE, temperature_c: float = 20.0,
+                   pressure_kpa: float = STANDARD_PRESSURE_KPA) -> pd.DataFrame:
+    """Read a purchases file.
+
+    Parameters
+    ----------
+    path : path
+        CSV (UTF-8, lines starting with ``#`` are comments) or Parquet.
+    reference : Reference
+        Agent data (bottle volumes, densities, molar masses).
+    temperature_c, pressure_kpa : float
+        Room conditions for gas volumes bought by mass. [°C], [kPa]
+
+    Returns
+    -------
+    DataFrame
+        ``month``, ``item``, ``amount`` and ``unit`` ("mL" of liquid for volatile agents,
+        "L" of gas at room conditions for gases), one row per purchase line.
+
+    Raises
+    ------
+    InputError
+        Naming the file, the line and the column of the first bad entry.
+    """
+    p = Path(path)
+    where = str(p)
+    if not p.is_file():
+        raise InputError(where, where, "the purchases file does not exist")
+    fmt = p.suffix.lower()
+    try:
+        if fmt == ".csv":
+            df = pd.read_csv(p, dtype=str, keep_default_na=False, comment="#", skip_blank_lines=True,
+                             encoding="utf-8-sig")
+            first_line = _header_line(p)
+            lines = _data_lines(p, first_line)
+        elif fmt == ".parquet":
+            df = pd.read_parquet(p).astype(str)
+            lines = np.arange(1, len(df) + 1)
+        else:
+            raise InputError(where, p.suffix or "no extension", "a purchases file ends in .csv or .parquet")
+    except UnicodeDecodeError:
+        raise InputError(where, "the file", "expected UTF-8 text (CSV UTF-8)") from None
+    except (pd.errors.ParserError, pd.errors.EmptyDataError) as exc:
+        raise InputError(where, "the file", f"not readable as CSV ({str(exc).splitlines()[0]})") from None
+    label = "line" if fmt == ".csv" else "row"
+    df.columns = [c.strip().lower() for c in df.columns]
+    missing = [c for c in ("month", "item", "quantity", "unit") if c not in df.columns]
+    if missing:
+        raise InputError(f"{where}: columns", ", ".join(df.columns), "missing column(s): " + ", ".join(missing))
+    if "size" not in df.columns:
+        df["size"] = ""
+    out = []
+    for i, r in enumerate(df.itertuples(index=False)):
+        at = f"{where}, {label} {int(lines[i]) if i < len(lines) else i + 1}"
+        month = str(r.month).strip()
+        if not _MONTH.match(month):
+            raise InputError(f"{at}: month", month, "expected a month as YYYY-MM, e.g. 2025-03")
+        key = normalise_agent_name(str(r.item))
+        if key not in reference.agents:
+            raise InputError(f"{at}: item", r.item, "allowed items are " + ", ".join(reference.agents))
+        agent = reference.agents[key]
+        try:
+            qty = float(str(r.quantity).strip())
+        except ValueError:
+            raise InputError(f"{at}: quantity", r.quantity, "expected a number") from None
+        if not np.isfinite(qty) or qty < 0:
+            raise InputError(f"{at}: quantity", r.quantity, "expected a finite number, not negative")
+        unit = str(r.unit).strip()
+        size = str(r.size).strip() if r.size is not None else ""
+        if agent.kind == "volatile":
+            amount = _volatile_ml(qty, unit, size, agent, at)
+            base = "mL"
+        else:
+            amount = _gas_l(qty, unit, size, agent, at, temperature_c, pressure_kpa)
+            base = "L"
+        out.append((month, key, amount, base))
+    return pd.DataFrame(out, columns=["month", "item", "amount", "unit"])
+
+
+def _header_line(p: Path) -> int:
+    with open(p, encoding="utf-8-sig") as fh:
+        for n, line in enumerate(fh, start=1):
+            if line.strip() and not line.lstrip().startswith("#"):
+                return n
+    return 1
+
+
+def _data_lines(p: Path, header: int) -> np.ndarray:
+    with open(p, encoding="utf-8-sig") as fh:
+        return np.array([n for n, line in enumerate(fh, start=1)
+                         if n > header and line.strip() and not line.lstrip().startswith("#")])
+
+
+def _volatile_ml(qty, unit, size, agent, at) -> float:
+    if unit.lower() in ("bottle", "bottles"):
+        volume = agent.bottle_volume
+        if size:
+            volume = _convert_text(size, "mL", f"{at}: size", "a bottle volume such as '250 mL'")
+        return qty * volume
+    ml = _convert(qty, unit, "mL")
+    if ml is not None:
+        return ml
+    grams = _convert(qty, unit, "g")
+    if grams is not None:
+        return grams / agent.liquid_density
+    raise InputError(f"{at}: unit", unit, "expected bottle, a liquid volume (mL, L) or a mass (g, kg)")
+
+
+def _gas_l(qty, unit, size, agent, at, temperature_c, pressure_kpa) -> float:
+    if unit.lower() in ("cylinder", "cylinders"):
+        if not size:
+            raise InputError(f"{at}: size", "empty", "give the gas volume of one cylinder, e.g. '9000 L'")
+        return qty * _convert_text(size, "L", f"{at}: size", "a gas volume such as '9000 L'")
+    litres = _convert(qty, unit, "L")
+    if litres is not None:
+        return litres
+    grams = _convert(qty, unit, "g")
+    if grams is not None and agent.molar_mass:
+        # Ideal gas at room conditions (the inverse of model.emissions.gas_mass_g).
+        return grams / agent.molar_mass * float(molar_volume_l(temperature_c, pressure_kpa))
+    raise InputError(f"{at}: unit", unit, "expected cylinder, a gas volume (L, m**3) or a mass (kg)")
+
+
+def _convert_text(text, base, where, example) -> float:
+    ureg = registry()
+    try:
+        q = ureg.Quantity(text)
+        value = float(q.to(base).magnitude) if not isinstance(q, (int, float)) else float(q)
+    except Exception:
+        raise InputError(where, text, f"expected {example}") from None
+    if not np.isfinite(value) or value <= 0:
+        raise InputError(where, text, f"expected {example}")
+    return value
+
+
+def purchase_emissions(purchases: pd.DataFrame, reference: Reference = DEFAULT_REFERENCE,
+                       gwp_source: str = DEFAULT_GWP, temperature_c: float = 20.0,
+                       pressure_kpa: float = STANDARD_PRESSURE_KPA) -> pd.DataFrame:
+    """Purchase-based use and emissions per month and item.
+
+    Parameters
+    ----------
+    purchases : DataFrame
+        From :func:`read_purchases`.
+
+    Returns
+    -------
+    DataFrame
+        ``month``, ``item``, ``purchased`` and ``unit`` (mL liquid or L gas), ``mass_kg``,
+        ``co2e_kg`` (all purchased counted as emitted; oxygen and air have none).
+
+    Notes
+    -----
+    Liquid mass = volume x density; gas mass by the ideal gas law
+    (:func:`model.emissions.gas_mass_g`); CO2e = mass x GWP (:func:`model.emissions.co2e_kg`).
+    """
+    g = purchases.groupby(["month", "item", "unit"], as_index=False)["amount"].sum()
+    g = g.rename(columns={"amount": "purchased"})
+    mass = np.zeros(len(g))
+    co2e = np.zeros(len(g))
+    for i, r in enumerate(g.itertuples(index=False)):
+        agent = reference.agents[r.item]
+        if agent.kind == "volatile":
+            grams = r.purchased * agent.liquid_density
+        else:
+            grams = float(gas_mass_g(r.purchased, agent.molar_mass, temperature_c, pressure_kpa))
+        mass[i] = grams / 1000.0
+        if r.item == "nitrous_oxide" or agent.kind == "volatile":
+            co2e[i] = float(co2e_kg(grams, reference.gwp(r.item, gwp_source)))
+    g["mass_kg"] = mass
+    g["co2e_kg"] = co2e
+    return g[["month", "item", "purchased", "unit", "mass_kg", "co2e_kg"]]
+
+
+def reconcile(purchases: pd.DataFrame, use: pd.DataFrame, reference: Reference = DEFAULT_REFERENCE,
+              gwp_source: str = DEFAULT_GWP, temperature_c: float = 20.0,
+              pressure_kpa: float = STANDARD_PRESSURE_KPA) -> pd.DataFrame:
+    """Purchased against recorded (or modelled) use, per item and month, with a total per item.
+
+    Parameters
+    ----------
+    purchases : DataFrame
+        From :func:`read_purchases`.
+    use : DataFrame
+        ``month``, ``item``, ``recorded`` in the same units (mL liquid, L gas), e.g.
+        :meth:`model.audit.AuditResult.use_by_month`, or modelled use in that form.
+
+    Returns
+    -------
+    DataFrame
+        ``item``, ``month`` ("all" for the total row of each item), ``unit``, ``purchased``,
+        ``recorded``, ``unexplained`` (purchased - recorded), ``unexplained_share``
+        (of purchased; empty where nothing was bought), ``unexplained_co2e_kg`` and, for
+        nitrous oxide, ``apparent_loss`` (the same gap, named as such).
+
+    Notes
+    -----
+    Months differ by stock held over; the total row of each item is the fairer figure.
+    A negative unexplained amount means more was recorded than bought in that period.
+    """
+    pe = purchase_emissions(purchases, reference, gwp_source, temperature_c, pressure_kpa)
+    u = use.groupby(["month", "item"], as_index=False)["recorded"].sum() if len(use) else \
+        pd.DataFrame(columns=["month", "item", "recorded"])
+    items = set(pe["item"])
+    u = u[u["item"].isin(items)]
+    m = pe[["month", "item", "purchased"]].merge(u, on=["month", "item"], how="outer").fillna(
+        {"purchased": 0.0, "recorded": 0.0})
+    m["unit"] = ["mL" if reference.agents[i].kind == "volatile" else "L" for i in m["item"]]
+    tot = m.groupby(["item", "unit"], as_index=False)[["purchased", "recorded"]].sum()
+    tot["month"] = "all"
+    out = pd.concat([m, tot], ignore_index=True)
+    out["unexplained"] = out["purchased"] - out["recorded"]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        out["unexplained_share"] = np.where(out["purchased"] > 0, out["unexplained"] / out["purchased"].where(
+            out["purchased"] > 0, 1), np.nan)
+    co2 = np.zeros(len(out))
+    for i, r in enumerate(out.itertuples(index=False)):
+        agent = reference.agents[r.item]
+        if agent.kind == "volatile":
+            grams = r.unexplained * agent.liquid_density
+        elif r.item == "nitrous_oxide":
+            grams = float(gas_mass_g(r.unexplained, agent.molar_mass, temperature_c, pressure_kpa))
+        else:
+            continue
+        co2[i] = float(co2e_kg(grams, reference.gwp(r.item, gwp_source)))
+    out["unexplained_co2e_kg"] = co2
+    out["apparent_loss"] = np.where(out["item"] == "nitrous_oxide", out["unexplained"], np.nan)
+    out["_total"] = out["month"] == "all"
+    out = out.sort_values(["item", "_total", "month"]).drop(columns="_total").reset_index(drop=True)
+    return out[["item", "month", "unit", "purchased", "recorded", "unexplained", "unexplained_share",
+                "unexplained_co2e_kg", "apparent_loss"]]
+
+
+def write_purchases(rows, path) -> Path:
+    """Write purchase rows (dicts or tuples of ``PURCHASE_COLUMNS``) as a CSV purchases file."""
+    p = Path(path)
+    df = pd.DataFrame(rows, columns=list(PURCHASE_COLUMNS))
+    with open(p, "w", encoding="utf-8", newline="") as fh:
+        fh.write("# Purchases file (fresh-gas-ledger purchases 1): month, item, quantity, unit, size\n")
+        df.to_csv(fh, index=False)
+    return p
