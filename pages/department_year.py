@@ -104,14 +104,14 @@ st.subheader("The year")
 st.caption(f"{t['cases']:,.0f} cases; {result.inputs.gwp_label}; {result.n_draws:,} draws (seed {result.seed}). "
            "Expected values, with P5-P95 under each.")
 m = st.columns(5)
-m[0].metric(f"Cost ({cur})", f"{t['cost_total']:,.0f}", yv.band_text(rows.loc["cost_total"]), delta_color="off")
-m[1].metric("Emissions (t CO2e)", f"{t['co2e_total_t']:,.1f}", yv.band_text(rows.loc["co2e_total_t"], 1),
-            delta_color="off")
-m[2].metric("Bottles bought", f"{t['bottles_total']:,.0f}", yv.band_text(rows.loc["bottles_total"]), delta_color="off")
-m[3].metric("CO2 absorbent (kg)", f"{t['absorbent_kg']:,.0f}", yv.band_text(rows.loc["absorbent_kg"]),
-            delta_color="off")
-m[4].metric("Average car (km)", f"{t['car_km']:,.0f}", f"at {scenario.car_kg_per_km:g} kg CO2e/km", delta_color="off",
-            help=scenario.car_source)
+for col, (label, key, value, digits) in zip(m, [
+        (f"Cost ({cur})", "cost_total", f"{t['cost_total']:,.0f}", 0),
+        ("Emissions (t CO2e)", "co2e_total_t", f"{t['co2e_total_t']:,.1f}", 1),
+        ("Bottles bought", "bottles_total", f"{t['bottles_total']:,.0f}", 0),
+        ("CO2 absorbent (kg)", "absorbent_kg", f"{t['absorbent_kg']:,.0f}", 0),
+        ("Average car (km)", "car_km", f"{t['car_km']:,.0f}", 0)]):
+    col.metric(label, value, help=scenario.car_source if key == "car_km" else None)
+    col.caption(yv.band_text(rows.loc[key], digits))
 st.caption(f"Per case: {result.per_case['cost_total']:,.2f} {cur}, {result.per_case['co2e_total_t'] * 1000:,.1f} kg CO2e, "
            f"{sum(result.per_case[f'liquid_ml_{a}'] for a in VOLATILES):,.1f} mL liquid agent.")
 

@@ -40,7 +40,7 @@ def test_page_renders_the_demo_year_with_caution_and_bands():
     at = _page("department_year.py")
     assert _metric(at, "Cost (GBP)") > 0
     assert _metric(at, "Emissions (t CO2e)") > 0
-    assert any("P5-P95" in str(m.delta) for m in at.metric)
+    assert any("P5-P95" in c.value for c in at.caption)
     assert any("not a prescription" in i.value for i in at.info)
     assert not at.error
 

@@ -93,7 +93,9 @@ def monthly_bottles_figure(monthly: pd.DataFrame) -> go.Figure:
                                  hovertemplate="%{x}: %{y:.0f} bottles<extra>" + a + "</extra>"))
     fig.update_layout(barmode="group")
     fig.update_yaxes(title_text="bottles")
-    return _style(fig, "Bottles bought per month", 340)
+    fig = _style(fig, "Bottles bought per month", 340)
+    fig.update_layout(legend=dict(orientation="h", yanchor="top", y=-0.18, x=0))
+    return fig
 
 
 def monthly_cost_figure(monthly: pd.DataFrame, currency: str) -> go.Figure:
@@ -135,7 +137,9 @@ def fan_figure(fan: pd.DataFrame, figure: str, unit: str, colour: str = PALETTE[
                              name="P50", hovertemplate="%{x}: %{y:,.1f} " + chart_text(unit) + "<extra>P50</extra>"))
     fig.update_xaxes(categoryorder="array", categoryarray=list(MONTHS))
     fig.update_yaxes(title_text=chart_text(unit))
-    return _style(fig, f"{figure.capitalize()} through the year", 320)
+    fig = _style(fig, f"{figure[0].upper()}{figure[1:]} through the year", 320)
+    fig.update_layout(legend=dict(orientation="h", yanchor="top", y=-0.18, x=0))
+    return fig
 
 
 def difference_figure(summary: pd.DataFrame, keys: list[tuple[str, str]]) -> go.Figure:
