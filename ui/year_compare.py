@@ -13,8 +13,8 @@ from model.year import nonzero_rows
 
 from . import year_views as yv
 
-HEADLINES = [("cost_total", "Cost"), ("bottles_total", "Bottles"), ("co2e_total_t", "t CO2e"),
-             ("absorbent_kg", "Absorbent (kg)")]
+HEADLINES = [("cost_total", "cost"), ("bottles_total", "bottles"), ("co2e_total_t", "t CO2e"),
+             ("absorbent_kg", "absorbent (kg)")]
 
 
 def render(view) -> None:
@@ -44,10 +44,11 @@ def render(view) -> None:
     for col, (key, label) in zip(cols, HEADLINES):
         r = rows.loc[key]
         unit = f" {comp.baseline.currency}" if key == "cost_total" else ""
-        col.metric(f"Change in {label.lower()}", f"{r['difference']:+,.1f}{unit}",
-                   f"P5-P95: {r['p5']:+,.1f} to {r['p95']:+,.1f}", delta_color="off")
+        col.metric(f"Change in {label}", f"{r['difference']:+,.1f}{unit}")
+        col.caption(f"P5-P95: {r['p5']:+,.1f} to {r['p95']:+,.1f}")
     fig = yv.difference_figure(comp.summary, [("cost_total", f"cost ({comp.baseline.currency})"),
-                                              ("bottles_total", "bottles"), ("co2e_total_t", "t CO2e")])
+                                              ("bottles_total", "bottles"), ("co2e_total_t", "t CO2e"),
+                                              ("absorbent_kg", "absorbent")])
     st.plotly_chart(fig, width="stretch", key="yc_fig")
     table = nonzero_rows(comp.summary, ("baseline", "proposal", "p5", "p95")).drop(columns=["key"])
     st.dataframe(table, hide_index=True, width="stretch",

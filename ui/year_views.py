@@ -143,18 +143,20 @@ def fan_figure(fan: pd.DataFrame, figure: str, unit: str, colour: str = PALETTE[
 
 
 def difference_figure(summary: pd.DataFrame, keys: list[tuple[str, str]]) -> go.Figure:
-    """Paired differences (proposal - baseline) as P50 bars with P5-P95 whiskers."""
+    """Paired differences (proposal - baseline) in % of the baseline: P50 bars, P5-P95 whiskers."""
     rows = summary.set_index("key")
     labels = [label for _, label in keys]
-    p50 = [rows.loc[k, "p50"] for k, _ in keys]
-    lo = [rows.loc[k, "p50"] - rows.loc[k, "p5"] for k, _ in keys]
-    hi = [rows.loc[k, "p95"] - rows.loc[k, "p50"] for k, _ in keys]
+    base = [abs(rows.loc[k, "baseline"]) or 1.0 for k, _ in keys]
+    p50 = [rows.loc[k, "p50"] / b * 100 for (k, _), b in zip(keys, base)]
+    lo = [(rows.loc[k, "p50"] - rows.loc[k, "p5"]) / b * 100 for (k, _), b in zip(keys, base)]
+    hi = [(rows.loc[k, "p95"] - rows.loc[k, "p50"]) / b * 100 for (k, _), b in zip(keys, base)]
     colours = [PALETTE[2] if v <= 0 else PALETTE[3] for v in p50]
     fig = go.Figure(go.Bar(x=labels, y=p50, marker_color=colours,
                            error_y=dict(type="data", symmetric=False, array=hi, arrayminus=lo, color="#1d2a33"),
-                           hovertemplate="%{x}: %{y:,.1f}<extra>P50</extra>"))
+                           hovertemplate="%{x}: %{y:+.1f} %<extra>P50</extra>"))
     fig.add_hline(y=0, line=dict(color="#546e7a", width=1))
-    return _style(fig, "Change per year (P50, whiskers P5-P95)", 340)
+    fig.update_yaxes(title_text="% of the baseline year")
+    return _style(fig, "Change per year in % of the baseline (P50, whiskers P5-P95)", 340)
 
 
 def band_text(row, digits: int = 0) -> str:
