@@ -66,7 +66,7 @@ class AuditResult:
 
     def bands_by_theatre(self) -> pd.DataFrame:
         """Minutes in each flow band by theatre, long form (theatre, band, minutes, share)."""
-        t = self.by("theatre")
+        t = self.by("theatre")[["theatre", *BAND_COLUMNS]]
         long = t.melt(id_vars="theatre", value_vars=list(BAND_COLUMNS), var_name="band", value_name="minutes")
         long["band"] = long["band"].map(dict(zip(BAND_COLUMNS, FLOW_BAND_NAMES)))
         totals = long.groupby("theatre")["minutes"].transform("sum")

@@ -1,0 +1,217 @@
+"""Record audit: what the department's case records say it used and emitted, against purchases."""
+
+from __future__ import annotations
+
+import hashlib
+import tempfile
+from pathlib import Path
+
+import pandas as pd
+import plotly.express as px
+import streamlit as st
+
+import ui
+from model import InputError
+from model.audit import DEFAULT_HIGH_FLOW_L_MIN, DEFAULT_HIGH_FLOW_LIMIT_MIN, audit_records
+from model.freshgas import FLOW_BAND_NAMES
+from model.purchases import read_purchases, reconcile
+from model.records import DEFAULT_GAP_LIMIT_MIN
+from model.uploads import check_upload
+
+ROOT = Path(__file__).resolve().parents[1]
+DEMO = ROOT / "demo_data" / "records"
+DEMO_RECORDS = {"A year of all theatres (Parquet)": DEMO / "fernhollow_2025.parquet",
+                "About 30 Birch cases, other layout, with deliberate problems (CSV)":
+                    DEMO / "fernhollow_birch_cases.csv"}
+DEMO_PURCHASES = DEMO / "fernhollow_purchases_2025.csv"
+
+view = ui.page_start("Record audit", "What case records say was used and emitted, case by case, by "
+                     "theatre and month, and how that compares with what was bought.")
+st.warning("Records must be de-identified before upload: no names, hospital numbers or dates of "
+           "birth. A case id, times, theatre, agent, flows and dial or end-tidal settings are all "
+           "the audit needs.", icon=":material/shield_person:")
+ss = st.session_state
+ref = ui.reference(view)
+
+source = st.radio("Records", ["Demo records (Fernhollow General Hospital, invented)", "Upload files"],
+                  key="ra_source", horizontal=True)
+files: list[tuple[str, bytes]] = []
+purchases_file: tuple[str, bytes] | None = None
+if source.startswith("Demo"):
+    chosen = st.multiselect("Demo files", list(DEMO_RECORDS), default=list(DEMO_RECORDS), key="ra_demo")
+    files = [(DEMO_RECORDS[c].name, DEMO_RECORDS[c].read_bytes()) for c in chosen]
+    if st.checkbox("Reconcile with the demo purchases", value=True, key="ra_demo_purchases"):
+        purchases_file = (DEMO_PURCHASES.name, DEMO_PURCHASES.read_bytes())
+else:
+    uploads = st.file_uploader("Record files (.csv or .parquet; format in the README, 'Case records')",
+                               type=["csv", "parquet"], accept_multiple_files=True, key="ra_upload")
+    up_p = st.file_uploader("Purchases file (optional; .csv or .parquet)", type=["csv", "parquet"],
+                            key="ra_upload_purchases")
+    try:
+        for u in uploads or []:
+            ok = check_upload(u.name, u.getvalue(), "records")
+            files.append((ok.name, ok.data))
+        if up_p is not None:
+            ok = check_upload(up_p.name, up_p.getvalue(), "purchases")
+            purchases_file = (ok.name, ok.data)
+    except InputError as err:
+        ui.show_input_error(err)
+        st.stop()
+
+with st.expander("Audit settings"):
+    c1, c2, c3 = st.columns(3)
+    gap_limit = c1.number_input("Longest interval counted [min]", 0.5, 240.0, DEFAULT_GAP_LIMIT_MIN, 0.5,
+                                key="ra_gap", help="Longer gaps between two samples of a case are reported and "
+                                                   "left out of every sum, never filled in.")
+    high_flow = c2.number_input("High flow above [L/min]", 0.5, 20.0, float(DEFAULT_HIGH_FLOW_L_MIN), 0.5,
+                                key="ra_high", help="Baker 1994: flows above 2 L/min are high flow.")
+    high_limit = c3.number_input("Flag high-flow runs of at least [min]", 1.0, 600.0,
+                                 DEFAULT_HIGH_FLOW_LIMIT_MIN, 1.0, key="ra_high_limit")
+
+if not files:
+    st.info("Choose demo files or upload record files to start the audit.")
+    st.stop()
+
+
+def run_audit(files: tuple, purchases: tuple | None, settings: tuple, _ref, _progress):
+    """Audit the files (written to a private temporary folder) and reconcile with purchases."""
+    gap, high, limit, gwp, temp = settings
+    with tempfile.TemporaryDirectory(prefix="gas-ledger-audit-") as tmp:
+        paths = []
+        for i, (name, data) in enumerate(files):
+            p = Path(tmp) / f"{i:03d}-{Path(name).name}"
+            p.write_bytes(data)
+            paths.append(p)
+        result = audit_records(paths, reference=_ref, gwp_source=gwp, temperature_c=temp,
+                               gap_limit_min=gap, high_flow_l_min=high, high_flow_limit_min=limit,
+                               progress=_progress)
+        recon = None
+        if purchases is not None:
+            p = Path(tmp) / Path(purchases[0]).name
+            p.write_bytes(purchases[1])
+            recon = reconcile(read_purchases(p, _ref), result.use_by_month(), _ref, gwp)
+    # File names inside the temporary folder mean nothing to the user: show the uploaded names.
+    for i, (name, _) in enumerate(files):
+        shown = Path(name).name
+        inner = str(Path(tmp) / f"{i:03d}-{shown}")
+        for df in (result.report.issues, result.report.gap_list):
+            for col in ("file", "message"):
+                if len(df):
+                    df[col] = df[col].str.replace(inner, shown, regex=False)
+        result.report.files[i] = shown
+    result.report.notes = [n.replace(tmp + "/", "") for n in result.report.notes]
+    return result, recon
+
+
+digest = hashlib.sha256()
+for name, data in files:
+    digest.update(name.encode() + b"\0" + hashlib.sha256(data).digest())
+if purchases_file:
+    digest.update(b"purchases" + hashlib.sha256(purchases_file[1]).digest())
+settings = (float(gap_limit), float(high_flow), float(high_limit), view.gwp_source, float(view.temperature_c))
+cache_key = (digest.hexdigest(), settings, ui.reference_key(view))
+# Results are kept per session (the last few), so moving between tabs does not re-run the audit;
+# st.cache_data cannot hold it because the progress bar is drawn while the audit runs.
+cache = ss.setdefault("ra_results", {})
+if cache_key not in cache:
+    bar = st.progress(0.0, text="Auditing the records...")
+
+    def _progress(fraction: float, text: str) -> None:
+        bar.progress(min(max(fraction, 0.0), 1.0), text=text)
+
+    try:
+        cache[cache_key] = run_audit(tuple(files), purchases_file, settings, ref, _progress)
+    except InputError as err:
+        bar.empty()
+        ui.show_input_error(err)
+        st.stop()
+    bar.empty()
+    while len(cache) > 3:
+        cache.pop(next(iter(cache)))
+result, recon = cache[cache_key]
+
+rep = result.report
+summary = rep.summary()
+total = result.total
+m = st.columns(3) + st.columns(3)
+m[0].metric("Cases", f"{int(total['cases']):,}")
+m[1].metric("Rows used", f"{summary['rows_valid']:,}", help=f"{summary['rows_read']:,} rows read")
+m[2].metric("Rows set aside", f"{summary['rows_set_aside']:,}")
+m[3].metric("Liquid agent", f"{total['liquid_agent_ml']:,.0f} mL")
+m[4].metric("CO2e", view.co2e(total["co2e_total_kg"]))
+m[5].metric("Cost", view.money(total["cost_total"]))
+st.caption(f"GWP source: {result.gwp_label}. Every delivered gram counts as emitted (no uptake model). "
+           f"{int(total['high_flow_cases']):,} case(s) ran {high_limit:g} min or more above {high_flow:g} L/min.")
+
+with st.expander(f"Checks: {summary['rows_set_aside']:,} row(s) set aside, {summary['gaps']:,} gap(s)",
+                 expanded=summary["rows_set_aside"] > 0 or summary["gaps"] > 0):
+    kinds = pd.DataFrame([(k, v) for k, v in summary["set_aside_by_kind"].items() if v],
+                         columns=["problem", "rows set aside"])
+    if len(kinds):
+        st.dataframe(kinds, hide_index=True)
+        st.dataframe(rep.issues[["file", "row", "kind", "column", "value", "message"]], hide_index=True,
+                     width="stretch", height=min(35 * (len(rep.issues) + 1) + 3, 300))
+    else:
+        st.caption("Every row passed the checks.")
+    if summary["gaps"]:
+        st.caption(f"Gaps over {summary['gap_limit_min']:g} min are not filled: "
+                   f"{summary['gap_minutes_not_counted']:,.0f} min are left out of the sums.")
+        st.dataframe(rep.gap_list[["file", "row", "case_id", "minutes"]], hide_index=True, width="stretch")
+    for note in summary["notes"]:
+        st.caption(note)
+
+cases = result.cases
+tab_cases, tab_bands, tab_month, tab_recon = st.tabs(
+    ["Per case", "Flow bands by theatre", "Monthly trend", "Purchases"])
+with tab_cases:
+    volatile = cases[cases["agent"] != "none"]
+    if len(volatile):
+        fig = px.box(volatile, x="agent", y="liquid_agent_ml", color="agent", points="outliers",
+                     labels={"liquid_agent_ml": "liquid agent per case [mL]", "agent": "agent"},
+                     title="Liquid agent per case: spread by agent")
+        st.plotly_chart(fig, width="stretch", key="ra_hist")
+    st.dataframe(cases, hide_index=True, width="stretch", height=300)
+with tab_bands:
+    bands = result.bands_by_theatre()
+    fig = px.bar(bands, x="theatre", y="share", color="band", category_orders={"band": list(FLOW_BAND_NAMES)},
+                 labels={"share": "share of counted minutes", "band": "flow band (Baker 1994)"},
+                 title="Time in each fresh gas flow band, by theatre")
+    fig.update_yaxes(tickformat=".0%")
+    st.plotly_chart(fig, width="stretch", key="ra_bands")
+    by_theatre = result.by("theatre")
+    st.dataframe(by_theatre, hide_index=True, width="stretch")
+with tab_month:
+    by_month = result.by("month")
+    fig = px.line(by_month, x="month", y="co2e_total_kg", markers=True,
+                  labels={"co2e_total_kg": "CO2e [kg]", "month": "month"}, title="CO2e by month")
+    st.plotly_chart(fig, width="stretch", key="ra_month")
+    by_agent = result.by("agent")
+    st.dataframe(by_month, hide_index=True, width="stretch")
+    st.dataframe(by_agent, hide_index=True, width="stretch")
+with tab_recon:
+    if recon is None:
+        st.caption("Add a purchases file (format in the README, 'Purchases') to compare with what was bought.")
+    else:
+        totals = recon[recon["month"] == "all"]
+        n2o = totals[totals["item"] == "nitrous_oxide"]
+        if len(n2o):
+            r = n2o.iloc[0]
+            share = "" if pd.isna(r["unexplained_share"]) else f"{r['unexplained_share']:.0%} of purchases"
+            st.metric("N2O apparent loss", f"{r['apparent_loss']:,.0f} L", share, delta_color="off",
+                      help="Purchased minus recorded N2O: losses in pipes and manifolds, part-full cylinders "
+                           "returned, and use not in the records.")
+        long = totals.melt(id_vars=["item", "unit"], value_vars=["purchased", "recorded"], var_name="source",
+                           value_name="amount")
+        long["item"] = long["item"] + " [" + long["unit"] + "]"
+        fig = px.bar(long, x="item", y="amount", color="source", barmode="group", log_y=True,
+                     title="Purchased and recorded, whole period", labels={"amount": "amount (log scale)"})
+        st.plotly_chart(fig, width="stretch", key="ra_recon")
+        st.dataframe(recon, hide_index=True, width="stretch",
+                     column_config={"unexplained_share": st.column_config.NumberColumn(format="percent")})
+        st.caption("Months differ by stock held over; the 'all' row of each item is the fairer comparison.")
+
+tables = {"Cases": cases, "By theatre": result.by("theatre"), "By month": result.by("month"),
+          "By agent": result.by("agent"), "Set-aside rows": rep.issues, "Gaps": rep.gap_list}
+if recon is not None:
+    tables["Purchases"] = recon
+ui.downloads("record audit", tables, None, key="ra_dl")

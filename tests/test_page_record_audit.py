@@ -1,0 +1,62 @@
+"""AppTest of the Record audit page."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+from streamlit.testing.v1 import AppTest
+
+from model.audit import audit_records
+from model.store import STORE_ENV
+
+ROOT = Path(__file__).resolve().parents[1]
+DEMO = ROOT / "demo_data" / "records"
+TIMEOUT = 120
+
+
+@pytest.fixture(autouse=True)
+def isolated_store(tmp_path, monkeypatch):
+    monkeypatch.setenv(STORE_ENV, str(tmp_path / "store.sqlite3"))
+
+
+def _run() -> AppTest:
+    at = AppTest.from_file(str(ROOT / "pages" / "record_audit.py"), default_timeout=TIMEOUT)
+    at.run()
+    assert not at.exception, [e.message for e in at.exception]
+    return at
+
+
+def _metric(at: AppTest, label: str) -> str:
+    return next(m.value for m in at.metric if m.label == label)
+
+
+def test_demo_audit_shows_cases_checks_and_reconciliation():
+    at = _run()
+    assert at.title[0].value == "Record audit"
+    # The page tells the user to de-identify records before upload.
+    assert any("de-identified" in w.value for w in at.warning)
+    # The page's case count equals the model's for the same demo files.
+    expected = audit_records(sorted(DEMO.glob("fernhollow_*.parquet")) + [DEMO / "fernhollow_birch_cases.csv"])
+    assert int(_metric(at, "Cases").replace(",", "")) == int(expected.total["cases"])
+    assert int(_metric(at, "Rows set aside").replace(",", "")) == expected.report.rows_set_aside > 0
+    # Row-numbered messages of the deliberate problems are shown, with the uploaded file name.
+    messages = " ".join(str(v) for df in at.dataframe for v in df.value.get("message", []))
+    assert "fernhollow_birch_cases.csv: line" in messages
+    assert "N2O apparent loss" in [m.label for m in at.metric]
+    assert len(at.get("plotly_chart")) >= 4
+
+
+def test_without_purchases_the_reconciliation_asks_for_a_file():
+    at = _run()
+    at.checkbox(key="ra_demo_purchases").uncheck().run()
+    assert not at.exception
+    assert "N2O apparent loss" not in [m.label for m in at.metric]
+    assert any("Add a purchases file" in c.value for c in at.caption)
+
+
+def test_no_files_chosen_shows_a_prompt_not_an_error():
+    at = _run()
+    at.multiselect(key="ra_demo").set_value([]).run()
+    assert not at.exception
+    assert any("Choose demo files" in i.value for i in at.info)
