@@ -45,7 +45,7 @@ import pandas as pd
 from .errors import InputError
 from .freshgas import FLOW_BANDS
 from .reference import AIR_O2_FRACTION, DEFAULT_REFERENCE, Reference, normalise_agent_name
-from .units import registry
+from .units import registry, safe_quantity_text
 
 RECORD_FORMATS = ("csv", "parquet")
 
@@ -178,6 +178,8 @@ def _unit_factor(unit: str, base: str, where: str) -> float:
     if text.lower() in ("fraction", "1", "ratio"):
         text = "dimensionless"
     try:
+        if not safe_quantity_text(text):  # pint would evaluate "9**9**9" for hours
+            raise ValueError(text)
         return float(ureg.Quantity(1.0, text).to(base).magnitude)
     except Exception:
         raise InputError(where, unit, f"expected a unit convertible to {base.replace('percent', '%')}") from None
@@ -311,7 +313,10 @@ def inspect_file(path) -> RecordFile:
         raise InputError(where, "an empty file", "expected a header row with column names")
     import csv
 
-    names = next(csv.reader([header_line]))
+    try:
+        names = next(csv.reader([header_line]))
+    except csv.Error as exc:
+        raise InputError(f"{where}, line {skip + 1}", "the header row", f"not readable as CSV ({exc})") from None
     columns, ignored = map_columns(names, declared, where)
     return RecordFile(where, fmt, columns, ignored, skip, {n: "VARCHAR" for n in names})
 
@@ -490,7 +495,7 @@ def _csv_table(con, rf: RecordFile, index: int, report: ReadReport):
         f"skip={rf.skip_lines}, delim=',', quote='\"', escape='\"', auto_detect=false, "
         f"columns={columns}, "
         f"store_rejects=true, rejects_table={_sql_str(rej)}, rejects_scan={_sql_str(scan)}, "
-        f"strict_mode=false, null_padding=false)")
+        f"strict_mode=true, null_padding=false)")
     table = rel.arrow()
     if hasattr(table, "read_all"):
         table = table.read_all()
