@@ -169,10 +169,12 @@ def simulation_totals(sim, agent, prices, *, gwp_agent, gwp_n2o, capture_efficie
     air_l = sim["phase_air_l_min"] * minutes
     n2o_l = sim["phase_n2o_l_min"] * minutes
     n2o_g = grams(n2o_l, m_n2o)
-    agent_emitted = emitted_mass_g(agent_g, grams(sim["phase_agent_gross_uptake_l"], m_ag),
-                                   agent.metabolised_fraction, capture_efficiency)
-    n2o_emitted = emitted_mass_g(n2o_g, grams(sim["phase_nitrous_oxide_gross_uptake_l"], m_n2o),
-                                 n2o_agent.metabolised_fraction, 0.0)
+    # Metabolism acts on the case's gross uptake; it is shared out over the phases in
+    # proportion to the agent delivered in each (so no phase shows negative emissions).
+    agent_emitted = _emitted_by_phase(agent_g, grams(sim["agent_gross_uptake_l"], m_ag),
+                                      agent.metabolised_fraction, capture_efficiency)
+    n2o_emitted = _emitted_by_phase(n2o_g, grams(sim["nitrous_oxide_gross_uptake_l"], m_n2o),
+                                    n2o_agent.metabolised_fraction, 0.0)
     absorbent_g = sim["phase_co2_absorbed_l"] / sim["absorbent_capacity_l_per_kg"] * 1000.0
     costs = case_costs(liquid, oxygen_l, air_l, n2o_l, absorbent_g, agent, prices)
     mean_dial = np.nan_to_num(sim["phase_mean_dial_pct"])
@@ -225,8 +227,8 @@ def simulation_totals(sim, agent, prices, *, gwp_agent, gwp_n2o, capture_efficie
         # Low-flow physics (circle simulation).
         "agent_delivered_vapour_l": sim["agent_delivered_l"],
         "agent_gross_uptake_g": grams(sim["agent_gross_uptake_l"], m_ag),
-        "agent_metabolised_g": agent_g.sum(axis=0) - np.sum(emitted_mass_g(
-            agent_g, grams(sim["phase_agent_gross_uptake_l"], m_ag), agent.metabolised_fraction, 0.0), axis=0),
+        "agent_metabolised_g": agent_g.sum(axis=0) - emitted_mass_g(
+            agent_g.sum(axis=0), grams(sim["agent_gross_uptake_l"], m_ag), agent.metabolised_fraction, 0.0),
         "agent_vented_g": grams(sim["agent_vented_l"], m_ag),
         "agent_held_in_circle_g": grams(sim["agent_held_end_l"] - sim["agent_held_start_l"], m_ag),
         "oxygen_delivered_l": sim["oxygen_delivered_l"],
@@ -250,6 +252,15 @@ def simulation_totals(sim, agent, prices, *, gwp_agent, gwp_n2o, capture_efficie
         "circle_volume_l": sim["circle_volume_l"],
     }
     return totals, phases
+
+
+def _emitted_by_phase(delivered_g, gross_uptake_g, metabolised_fraction, capture_efficiency):
+    """Emitted mass per phase (n_phases, n_cases): the case's emission shared by delivery."""
+    total = delivered_g.sum(axis=0)
+    emitted_total = emitted_mass_g(total, gross_uptake_g, metabolised_fraction, 0.0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        share = np.where(total > 0, emitted_total / np.where(total > 0, total, 1.0), 1.0)
+    return delivered_g * share * (1.0 - np.asarray(capture_efficiency, dtype=float))
 
 
 def simulate_plan(plan: CasePlan, reference: Reference = DEFAULT_REFERENCE, *, record=False, **changes):

@@ -418,7 +418,7 @@ def simulate_cases(agent: Agent, minutes, o2_l_min, air_l_min=0.0, n2o_l_min=0.0
                 fa_new = (a11 * r2 + a12 * r1) / det
                 fc_new = (r1 * a22 + a12 * r2) / det
                 # O2 consumption, limited to what the lungs hold (then the patient is hypoxic).
-                k_o2 = a11 * dt / det[0]
+                k_o2 = np.maximum(a11 * dt / det[0], 1e-300)
                 s_o2 = np.minimum(vo2, np.maximum(fa_new[0], 0.0) / k_o2)
                 fa_new[0] -= k_o2 * s_o2
                 fc_new[0] -= (a12 * dt / det[0]) * s_o2
