@@ -14,6 +14,8 @@ from model.reference import AGENTS, GWP_SOURCES, VOLATILES
 from model.vapour import liquid_used_ml
 
 FAST = settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+# Whole cases run the circle simulation (about 0.1 s each): fewer examples keep the suite fast.
+CASES = settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 
 
 def floats(low, high, **kw):
@@ -75,8 +77,13 @@ def test_phase_liquid_is_monotonic_in_air_flow(agent, rows):
 # --- the O2/N2O ratio limit ------------------------------------------------------------------
 
 
+# Flows are 0 or at least 1e-9 L/min: a subnormal O2 flow (5e-324) times the allowed ratio
+# rounds back to itself, which no flowmeter can set and which says nothing about the limit.
+meter_flows = st.one_of(st.just(0.0), floats(1e-9, 20.0))
+
+
 @settings(max_examples=300, deadline=None)
-@given(st.lists(st.tuples(flows, flows), min_size=1, max_size=30), floats(0.01, 1.0),
+@given(st.lists(st.tuples(meter_flows, meter_flows), min_size=1, max_size=30), floats(0.01, 1.0),
        floats(0.0, 5.0), st.sampled_from(RATIO_BEHAVIOURS))
 def test_ratio_limit_never_delivers_o2_share_under_minimum(requests, share, cutoff, behaviour):
     o2_req, n2o_req = (np.array(c) for c in zip(*requests))
@@ -144,7 +151,7 @@ SUMMED = {
 }
 
 
-@FAST
+@CASES
 @given(dial_plans())
 def test_case_totals_are_sums_of_their_phases(plan):
     result = compute_case(plan)
@@ -158,7 +165,7 @@ def test_case_totals_are_sums_of_their_phases(plan):
     assert t["min_fd_o2_pct"] == pytest.approx(float(result.phases["fd_o2_pct"].min()))
 
 
-@FAST
+@CASES
 @given(dial_plans(), st.integers(0, 7), floats(0.05, 0.95))
 def test_case_totals_do_not_change_when_a_phase_is_split(plan, index, cut):
     index = index % len(plan.phases)
@@ -168,7 +175,11 @@ def test_case_totals_do_not_change_when_a_phase_is_split(plan, index, cut):
     split = replace(plan, phases=plan.phases[:index] + (first, second) + plan.phases[index + 1:])
     a, b = compute_case(plan).totals, compute_case(split).totals
     for key in SUMMED:
-        assert b[key] == pytest.approx(a[key], rel=1e-9, abs=1e-9), key
+        # Consumption is exact. Emissions and absorbent (in cost_total) come from the circle
+        # simulation, whose steps follow the phase boundaries: they agree to its numerical
+        # accuracy (seen: 2e-5 relative for a 0.5 min phase cut at a quarter).
+        rel = 1e-3 if key in ("co2e_total_kg", "cost_total") else 1e-9
+        assert b[key] == pytest.approx(a[key], rel=rel, abs=1e-9), key
 
 
 # --- plan files -----------------------------------------------------------------------------
