@@ -21,7 +21,7 @@ import pandas as pd
 from .emissions import co2e_kg, gas_mass_g
 from .errors import InputError
 from .reference import DEFAULT_GWP, DEFAULT_REFERENCE, STANDARD_PRESSURE_KPA, Reference, normalise_agent_name
-from .units import registry
+from .units import registry, safe_quantity_text
 from .vapour import molar_volume_l
 
 PURCHASE_COLUMNS = ("month", "item", "quantity", "unit", "size")
@@ -33,6 +33,8 @@ def _convert(value: float, unit: str, base: str):
     """Convert with pint; returns None when the dimension differs."""
     ureg = registry()
     try:
+        if not safe_quantity_text(unit):  # pint would evaluate "9**9**9" for hours
+            return None
         return float(ureg.Quantity(value, unit).to(base).magnitude)
     except Exception:
         return None
@@ -164,6 +166,8 @@ def _gas_l(qty, unit, size, agent, at, temperature_c, pressure_kpa) -> float:
 def _convert_text(text, base, where, example) -> float:
     ureg = registry()
     try:
+        if not safe_quantity_text(str(text)):  # pint would evaluate "9**9**9" for hours
+            raise ValueError(text)
         q = ureg.Quantity(text)
         value = float(q.to(base).magnitude) if not isinstance(q, (int, float)) else float(q)
     except Exception:

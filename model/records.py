@@ -490,13 +490,19 @@ def _csv_table(con, rf: RecordFile, index: int, report: ReadReport):
     rej = f"rejects_{index}"
     columns = "{" + ", ".join(f"{_sql_str(n)}: 'VARCHAR'" for n in rf.types) + "}"
     scan = f"rejects_scan_{index}"
-    rel = con.sql(
-        f"SELECT * FROM read_csv({_sql_str(rf.path)}, all_varchar=true, header=true, "
-        f"skip={rf.skip_lines}, delim=',', quote='\"', escape='\"', auto_detect=false, "
-        f"columns={columns}, "
-        f"store_rejects=true, rejects_table={_sql_str(rej)}, rejects_scan={_sql_str(scan)}, "
-        f"strict_mode=true, null_padding=false)")
-    table = rel.arrow()
+    import duckdb
+
+    try:
+        rel = con.sql(
+            f"SELECT * FROM read_csv({_sql_str(rf.path)}, all_varchar=true, header=true, "
+            f"skip={rf.skip_lines}, delim=',', quote='\"', escape='\"', auto_detect=false, "
+            f"columns={columns}, "
+            f"store_rejects=true, rejects_table={_sql_str(rej)}, rejects_scan={_sql_str(scan)}, "
+            f"strict_mode=true, null_padding=false)")
+        table = rel.arrow()
+    except duckdb.Error as exc:  # junk its rejects table cannot hold (e.g. a lone NUL before CR)
+        first = (str(exc).strip().splitlines() or [type(exc).__name__])[0]
+        raise InputError(rf.path, "the file", f"not readable as CSV ({first})") from None
     if hasattr(table, "read_all"):
         table = table.read_all()
     rejects = con.sql(f"SELECT line, min(error_type) AS error_type, any_value(csv_line) AS csv_line "
