@@ -241,16 +241,19 @@ m[0].metric("Liquid agent", f"{t['liquid_agent_ml']:.1f} mL", _delta("liquid_age
             delta_color="inverse", help="Change shown against the plan as opened")
 m[1].metric("Bottles", f"{t['bottles']:.2f}", _delta("bottles", lambda d: f"{d:+.2f}"), delta_color="inverse",
             help=f"{agent.label} bottle of {agent.bottle_volume:g} mL")
-m[2].metric("Emissions", view.co2e(t["co2e_total_kg"]),
-            _delta("co2e_total_kg", lambda d: f"{d:+,.3g} {view.co2e_unit}", co2e_scale), delta_color="inverse",
+m[2].metric(f"Emissions ({view.co2e_unit})", f"{t['co2e_total_kg'] * co2e_scale:,.3g}",
+            _delta("co2e_total_kg", lambda d: f"{d:+,.3g}", co2e_scale), delta_color="inverse",
             help=f"{result.gwp_label}; agent and N2O released")
-m[3].metric("Cost", view.money(t["cost_total"]), _delta("cost_total", lambda d: f"{d:+,.2f} {view.currency}"),
+m[3].metric(f"Cost ({result.currency})", f"{t['cost_total']:,.2f}", _delta("cost_total", lambda d: f"{d:+,.2f}"),
             delta_color="inverse", help="Agent pro rata by volume, gases, absorbent")
 m[4].metric("MAC-hours", f"{t['mac_hours']:.2f}", _delta("mac_hours", lambda d: f"{d:+.2f}"), delta_color="off")
 tc = result.timecourse
-fio2_col = None if tc is None else next((c for c in tc.columns if "fio2" in c.lower() or "inspired_o2" in c.lower()), None)
-if fio2_col is not None:
-    m[5].metric("Lowest inspired O2", f"{tc[fio2_col].min():.0f} %", help="Predicted by the circle model")
+if "min_inspired_o2_pct" in t:
+    safe = t.get("lowest_safe_fd_o2_pct")
+    m[5].metric("Lowest inspired O2", f"{t['min_inspired_o2_pct']:.0f} %",
+                _delta("min_inspired_o2_pct", lambda d: f"{d:+.0f} %"),
+                help="Predicted by the circle model" + (f"; lowest fresh gas O2 that keeps it above the floor: "
+                                                         f"{safe:.0f} %" if safe == safe and safe is not None else ""))
 else:
     m[5].metric("Lowest fresh gas O2", f"{t['min_fd_o2_pct']:.0f} %",
                 help="O2 share of the fresh gas; inspired O2 in a circle is lower at low flow")
@@ -274,19 +277,18 @@ else:
 # ---- charts --------------------------------------------------------------------------
 
 fate = charts.agent_fate(t, agent.metabolised_fraction)
-figs = {"time": charts.timecourse_figure(tc), "fate": charts.fate_figure(fate, agent.label),
+figs = {"time": charts.timecourse_figure(tc, plan.settings.inspired_o2_floor * 100), "fate": charts.fate_figure(fate, agent.label),
         "cost": charts.cost_figure(t, result.currency)}
 
 
-def _sweep():
-    try:
-        from model import sweep as sweep_mod   # added by the physiology part of the project
-    except ImportError:
-        return None
-    fn = getattr(sweep_mod, "flow_sweep", None) or getattr(sweep_mod, "sweep_flows", None)
-    return None if fn is None else (sweep_mod, fn)
+@st.cache_data(show_spinner=False, max_entries=128)
+def _sweep_cached(plan_toml: str, ref_key: str, _ref):
+    from model.sweep import flow_sweep
+    from model.plan import parse_plan_text
+    return flow_sweep(parse_plan_text(plan_toml, "plan"), _ref)
 
 
+sweep_table = None
 tabs = st.tabs(["Time course", "Where the agent went", "Flow sweep", "Phases", "Cost by item"])
 with tabs[0]:
     if figs["time"] is not None:
@@ -300,19 +302,35 @@ with tabs[1]:
     c1.plotly_chart(figs["fate"], width="stretch", key="cp_fig_fate")
     c2.dataframe(fate.assign(agent_g=fate["agent_g"].round(1)), hide_index=True,
                  column_config={"where": "where it went", "agent_g": "agent (g)"})
-    if t.get("agent_uptake_g", 0.0) == 0.0:
+    if "agent_vented_g" not in t and t.get("agent_uptake_g", 0.0) == 0.0:
         c2.caption("No uptake model ran for this plan: all delivered agent counts as vented (an upper bound).")
     if plan.settings.capture_efficiency > 0:
         c2.caption(f"{plan.settings.capture_efficiency:.0%} of the vented agent is captured before release.")
 with tabs[2]:
-    sweep_api = _sweep()
     figs["sweep"] = None
-    if sweep_api is None:
-        st.info("The flow sweep (cost and CO2e against maintenance flow, lowest of each marked) "
-                "appears here when the sweep model is installed.", icon=":material/ssid_chart:")
+    try:
+        with st.spinner("Sweeping the maintenance flow..."):
+            sw = _sweep_cached(plan_to_toml(plan), ref_key, ref)
+    except InputError as err:
+        ui.show_input_error(err, "Flow sweep")
     else:
-        from ui.sweep_view import show_sweep
-        figs["sweep"] = show_sweep(sweep_api, plan, ref, ref_key, view)
+        sweep_table = sw.table
+        figs["sweep"] = charts.sweep_figure(sweep_table, "fgf_l_min", "cost_total", "co2e_total_kg",
+                                            sw.cost_lowest_flow_l_min, sw.emission_lowest_flow_l_min,
+                                            result.currency, co2e_scale, view.co2e_unit,
+                                            feasible=sweep_table.get("feasible"))
+        st.plotly_chart(figs["sweep"], width="stretch", key="cp_fig_sweep")
+        phase_name = plan.phases[sw.phase_index].name
+        best = [f"lowest cost at **{sw.cost_lowest_flow_l_min:g} L/min**" if sw.cost_lowest_flow_l_min else None,
+                f"lowest CO2e at **{sw.emission_lowest_flow_l_min:g} L/min**" if sw.emission_lowest_flow_l_min else None]
+        st.markdown(f"Flow of the *{phase_name}* phase varied at the same end-tidal depth "
+                    f"({sw.target_mac:.2f} x MAC): " + (", ".join(b for b in best if b) or
+                                                        "no flow keeps inspired O2 above the floor") + ".")
+        st.caption(f"Only flows that keep predicted inspired O2 above {sw.inspired_o2_floor_pct:.0f} % and hold "
+                   "the depth count as candidates (hollow markers do not). A lower flow also needs closer "
+                   "monitoring and follows local protocol.")
+        with st.expander("Sweep table"):
+            st.dataframe(sweep_table, hide_index=True, width="stretch")
 with tabs[3]:
     ph = result.phases
     shown = pd.DataFrame({
@@ -355,6 +373,8 @@ tables = {"Summary": summary, "Phases": result.phases.assign(plan=plan.name),
           "Inputs": pd.DataFrame({"input": list(inputs), "value": list(inputs.values())}), "Sources": sources}
 if tc is not None:
     tables["Time course"] = tc
+if sweep_table is not None:
+    tables["Flow sweep"] = sweep_table
 
 
 def _report() -> str:

@@ -28,7 +28,7 @@ def page(name: str) -> AppTest:
 
 
 def metric(at: AppTest, label: str) -> float:
-    value = next(m.value for m in at.metric if m.label == label)
+    value = next(m.value for m in at.metric if m.label == label or m.label.startswith(label + " ("))
     return float(value.split()[0].replace(",", ""))
 
 

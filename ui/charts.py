@@ -47,21 +47,25 @@ def cost_figure(totals: dict, currency: str) -> go.Figure:
 def agent_fate(totals: dict, metabolised_fraction: float) -> pd.DataFrame:
     """Where the delivered agent went, in grams (from the case totals).
 
-    Vented = delivered less the patient's uptake; metabolised = uptake x the agent's
-    metabolised share (unless the model reports it); taken up = the rest of the uptake.
+    Uses the circle model's split (vented, taken up, metabolised, left in the circle) when
+    the totals carry it; otherwise vented = delivered less uptake and metabolised = uptake x
+    the agent's metabolised share.
     """
     delivered = float(totals.get("agent_mass_g", 0.0))
     uptake = float(totals.get("agent_uptake_g", 0.0))
     metabolised = float(totals.get("agent_metabolised_g", uptake * metabolised_fraction))
+    in_circle = float(totals.get("agent_held_in_circle_g", 0.0))
+    vented = float(totals.get("agent_vented_g", max(delivered - uptake - in_circle, 0.0)))
     return pd.DataFrame({
-        "where": ["Vented through the scavenger", "Taken up by the patient", "Metabolised"],
-        "agent_g": [max(delivered - uptake, 0.0), max(uptake - metabolised, 0.0), metabolised],
+        "where": ["Vented through the scavenger", "Taken up by the patient", "Metabolised",
+                  "Left in the circle"],
+        "agent_g": [vented, max(uptake - metabolised, 0.0), metabolised, in_circle],
     })
 
 
 def fate_figure(fate: pd.DataFrame, agent_label: str) -> go.Figure:
     fig = go.Figure(go.Pie(labels=fate["where"], values=fate["agent_g"], hole=0.55, sort=False,
-                           marker=dict(colors=[PALETTE[1], PALETTE[0], PALETTE[2]]),
+                           marker=dict(colors=[PALETTE[1], PALETTE[0], PALETTE[2], PALETTE[5]]),
                            texttemplate="%{percent:.1%}", hovertemplate="%{label}: %{value:.1f} g<extra></extra>"))
     total = float(fate["agent_g"].sum())
     fig.add_annotation(text=f"{total:.1f} g<br>{chart_text(agent_label.lower())}", showarrow=False,
@@ -69,60 +73,69 @@ def fate_figure(fate: pd.DataFrame, agent_label: str) -> go.Figure:
     return _style(fig, "Where the agent went", 320)
 
 
-_TC_GROUPS = [
-    ("Agent (%)", ("dial", "inspired_agent", "fi_agent", "end_tidal", "et_agent", "alveolar")),
-    ("Inspired O2 (%)", ("inspired_o2", "fio2", "fi_o2")),
-    ("Liquid used (mL)", ("liquid", "cumulative")),
+#: Time-course panels: (title, [(column, label)]) in the circle model's column names.
+_TC_PANELS = [
+    ("Agent (%)", [("dial_pct", "vaporizer dial"), ("inspired_agent_pct", "inspired"),
+                   ("end_tidal_agent_pct", "end-tidal")]),
+    ("Inspired O2 (%)", [("inspired_o2_pct", "inspired O2"), ("end_tidal_o2_pct", "end-tidal O2")]),
+    ("Liquid agent used (mL)", [("liquid_agent_cumulative_ml", "cumulative liquid")]),
 ]
 
 
-def timecourse_figure(tc: pd.DataFrame | None) -> go.Figure | None:
-    """The case's time course: agent concentrations, inspired O2 and cumulative liquid.
+def timecourse_figure(tc: pd.DataFrame | None, o2_floor_pct: float | None = None) -> go.Figure | None:
+    """The case's time course: dial, inspired and end-tidal agent, inspired O2, cumulative liquid.
 
-    Columns are matched by name (``dial``, ``inspired``/``end_tidal`` agent, ``fio2``,
-    cumulative ``liquid``); the x axis is the ``minute``/``time`` column or the index.
+    Reads the columns of ``CaseResult.timecourse`` (``time_min``, ``dial_pct``, ...); panels
+    whose columns are missing are left out.
     """
-    if tc is None or len(tc) == 0:
+    if tc is None or len(tc) == 0 or "time_min" not in tc.columns:
         return None
-    tc = tc.reset_index(drop=False) if "minute" not in tc.columns and "time_min" not in tc.columns else tc
-    xcol = next((c for c in tc.columns if c in ("minute", "time_min", "t_min", "minutes")), tc.columns[0])
-    groups = []
-    used = {xcol}
-    for label, keys in _TC_GROUPS:
-        cols = [c for c in tc.columns if c not in used and pd.api.types.is_numeric_dtype(tc[c])
-                and any(k in str(c).lower() for k in keys)]
-        used.update(cols)
-        if cols:
-            groups.append((label, cols))
-    if not groups:
+    panels = [(title, [(c, label) for c, label in cols if c in tc.columns]) for title, cols in _TC_PANELS]
+    panels = [p for p in panels if p[1]]
+    if not panels:
         return None
-    fig = make_subplots(rows=len(groups), cols=1, shared_xaxes=True, vertical_spacing=0.07,
-                        subplot_titles=[g[0] for g in groups])
-    for row, (label, cols) in enumerate(groups, start=1):
-        for i, c in enumerate(cols):
-            fig.add_trace(go.Scatter(x=tc[xcol], y=tc[c], mode="lines", name=str(c).replace("_", " "),
-                                     line=dict(width=2, color=PALETTE[(row * 3 + i) % len(PALETTE)],
-                                               shape="hv" if "dial" in str(c) else "linear")),
+    fig = make_subplots(rows=len(panels), cols=1, shared_xaxes=True, vertical_spacing=0.08,
+                        subplot_titles=[p[0] for p in panels])
+    colours = iter(PALETTE * 3)
+    for row, (_, cols) in enumerate(panels, start=1):
+        for c, label in cols:
+            fig.add_trace(go.Scatter(x=tc["time_min"], y=tc[c], mode="lines", name=label,
+                                     line=dict(width=2, color=next(colours),
+                                               shape="hv" if c == "dial_pct" else "linear",
+                                               dash="dot" if c == "dial_pct" else None)),
                           row=row, col=1)
-    fig.update_xaxes(title_text="minutes", row=len(groups), col=1)
-    return _style(fig, "Time course", 220 * len(groups) + 60)
+        if o2_floor_pct is not None and any(c == "inspired_o2_pct" for c, _ in cols):
+            fig.add_hline(y=o2_floor_pct, line=dict(color="#c62828", dash="dash", width=1), row=row, col=1,
+                          annotation_text=f"floor {o2_floor_pct:.0f} %", annotation_position="bottom right")
+    fig.update_xaxes(title_text="minutes from start", row=len(panels), col=1)
+    return _style(fig, "Time course", 200 * len(panels) + 80)
 
 
 def sweep_figure(sweep: pd.DataFrame, flow_col: str, cost_col: str, co2e_col: str,
                  best_cost: float | None, best_co2e: float | None, currency: str,
-                 co2e_scale: float = 1.0, co2e_unit: str = "kg CO2e") -> go.Figure:
-    """Cost and CO2e against maintenance fresh gas flow, with the lowest of each marked."""
+                 co2e_scale: float = 1.0, co2e_unit: str = "kg CO2e", feasible=None) -> go.Figure:
+    """Cost and CO2e against maintenance fresh gas flow, with the lowest of each marked.
+
+    Points that are not candidates (``feasible`` False: inspired O2 under the floor or the
+    depth not held) are drawn as hollow markers.
+    """
+    ok = np.ones(len(sweep), bool) if feasible is None else np.asarray(feasible, bool)
+    symbols = np.where(ok, "circle", "circle-open")
     fig = make_subplots(specs=[[{"secondary_y": True}]])
     fig.add_trace(go.Scatter(x=sweep[flow_col], y=sweep[cost_col], name=f"cost ({chart_text(currency)})",
-                             mode="lines", line=dict(color=PALETTE[0], width=2.5)), secondary_y=False)
+                             mode="lines+markers", marker=dict(symbol=symbols, size=8),
+                             line=dict(color=PALETTE[0], width=2.5)), secondary_y=False)
     fig.add_trace(go.Scatter(x=sweep[flow_col], y=sweep[co2e_col] * co2e_scale, name=co2e_unit,
-                             mode="lines", line=dict(color=PALETTE[3], width=2.5, dash="dot")),
+                             mode="lines+markers", marker=dict(symbol=symbols, size=8),
+                             line=dict(color=PALETTE[3], width=2.5, dash="dot")),
                   secondary_y=True)
-    for flow, label, color in ((best_cost, "lowest cost", PALETTE[0]), (best_co2e, "lowest CO2e", PALETTE[3])):
+    for flow, label, color, pos in ((best_cost, "lowest cost", PALETTE[0], "top right"),
+                                    (best_co2e, "lowest CO2e", PALETTE[3], "bottom right")):
         if flow is not None and np.isfinite(flow):
             fig.add_vline(x=flow, line=dict(color=color, dash="dash", width=1.5),
-                          annotation_text=f"{label}: {flow:.2g} L/min", annotation_position="top")
-    fig.update_xaxes(title_text="maintenance fresh gas flow (L/min)")
+                          annotation_text=f"{label}: {flow:.2g} L/min", annotation_position=pos,
+                          annotation_font_color=color)
+    fig.update_xaxes(title_text="fresh gas flow of the varied phase (L/min)")
     fig.update_yaxes(title_text=f"cost ({chart_text(currency)})", secondary_y=False)
     fig.update_yaxes(title_text=co2e_unit, secondary_y=True)
     return _style(fig, "Flow sweep", 380)
