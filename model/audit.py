@@ -246,8 +246,17 @@ def audit_records(records, *, reference: Reference = DEFAULT_REFERENCE, gwp_sour
     else:
         raw = records.con.sql(_case_sql(high_flow_l_min)).df()
         step(0.8, "Counting set-aside rows")
-        counts = dict(records.con.sql(
-            "SELECT problem, count(*) FROM checked WHERE problem IS NOT NULL GROUP BY 1").fetchall())
+        # Row checks need no window: count them from ``prepared``. The time checks set aside
+        # the rest of the rows that passed them; only when there are some is the window
+        # over ``checked`` run again to tell duplicates from backward times.
+        by_kind = dict(records.con.sql("SELECT coalesce(problem_a, ''), count(*) FROM prepared GROUP BY 1").fetchall())
+        passed = by_kind.pop("", 0)
+        counts = by_kind
+        used = int(raw["samples"].sum()) if len(raw) else 0
+        if passed > used:
+            counts.update(records.con.sql(
+                "SELECT problem, count(*) FROM checked WHERE problem IN ('duplicate_time', 'time_backwards') "
+                "GROUP BY 1").fetchall())
         time_rows = gap_rows = None
     rows_valid = int(raw["samples"].sum()) if len(raw) else 0
     finish_report(records, counts, rows_valid, int(raw["gaps"].sum()) if len(raw) else 0,
@@ -379,6 +388,11 @@ def _column(table, name):
     return col.combine_chunks() if hasattr(col, "combine_chunks") else col
 
 
+def _float(table, name) -> np.ndarray:
+    """A numeric column as float64 with NaN for nulls."""
+    return np.asarray(_column(table, name).to_numpy(zero_copy_only=False), dtype=float)
+
+
 def _numpy_engine(recs: Records, high_flow_l_min: float):
     """Time checks, integration and per-case sums in numpy.
 
@@ -396,14 +410,12 @@ def _numpy_engine(recs: Records, high_flow_l_min: float):
     import pyarrow.compute as pc
 
     con = recs.con
-    con.execute("SET preserve_insertion_order = false")
     rel = con.sql("""SELECT _fileno, _row, case_id, theatre, agent, t_min, month, start_hint,
         greatest(o2, 0) AS o2, greatest(air, 0) AS air, greatest(n2o, 0) AS n2o, dial, end_tidal, problem_a
         FROM prepared""")
     table = rel.arrow()
     if hasattr(table, "read_all"):
         table = table.read_all()
-    con.execute("SET preserve_insertion_order = true")
     n = table.num_rows
     problem_a = _column(table, "problem_a")
     counts = {}
@@ -416,8 +428,14 @@ def _numpy_engine(recs: Records, high_flow_l_min: float):
     case_names = case_codes.dictionary
     fileno = _column(table, "_fileno").to_numpy(zero_copy_only=False).astype(np.int64)
     row = _column(table, "_row").to_numpy(zero_copy_only=False).astype(np.int64)
-    t = _column(table, "t_min").fill_null(np.nan).to_numpy(zero_copy_only=False).astype(float)
-    order = np.lexsort((row, fileno, code))
+    t = _float(table, "t_min")
+    # One sort key: case, then file, then row. Records usually come grouped by case in file
+    # order (case codes number cases by first appearance), and then no sort is needed.
+    if n and fileno.max() < (1 << 8) and row.max() < (1 << 35) and code.max() < (1 << 20):
+        key = (code << 43) | (fileno << 35) | row
+        order = np.arange(n) if bool(np.all(key[1:] > key[:-1])) else np.argsort(key, kind="stable")
+    else:
+        order = np.lexsort((row, fileno, code))
     code_s, t_s, ok_s = code[order], t[order], ok_a[order]
     # Running maximum of the earlier A-valid times of the same case, exactly, through ranks.
     empty_cols = (np.zeros(0),) * 3
@@ -463,19 +481,23 @@ def _numpy_engine(recs: Records, high_flow_l_min: float):
     gap_rows = [(int(fileno[vidx[i]]), int(row[vidx[i]]), case_names[int(cv[i])].as_py(), float(tv[i]),
                  float(dt_raw[i])) for i in np.flatnonzero(gap)[: recs._max_messages]]
 
-    def take(name, fill=0.0):
-        return _column(table, name).take(vidx).fill_null(fill).to_numpy(zero_copy_only=False).astype(float)
+    identity = m == n and bool(np.all(vidx == np.arange(n)))
+
+    def take(name):
+        values = np.nan_to_num(_float(table, name), nan=0.0)
+        return values if identity else values[vidx]
 
     o2, air, n2o = take("o2"), take("air"), take("n2o")
     fgf = o2 + air + n2o
-    dial_arr = _column(table, "dial").take(vidx)
-    from_et = dial_arr.is_null().to_numpy(zero_copy_only=False)
-    agent_arr = pc.dictionary_encode(_column(table, "agent").take(vidx))
-    agent_code = agent_arr.indices.to_numpy(zero_copy_only=False).astype(np.int64)
-    agent_names = np.array(agent_arr.dictionary.to_pylist(), dtype=object)
+    dial_raw = _float(table, "dial")
+    dial_raw = dial_raw if identity else dial_raw[vidx]
+    from_et = np.isnan(dial_raw)
+    agent_dict = pc.dictionary_encode(_column(table, "agent"))
+    agent_code = agent_dict.indices.fill_null(0).to_numpy(zero_copy_only=False).astype(np.int64)
+    agent_code = agent_code if identity else agent_code[vidx]
+    agent_names = np.array(agent_dict.dictionary.to_pylist(), dtype=object)
     is_none = agent_names[agent_code] == "none" if m else np.zeros(0, dtype=bool)
-    dose = np.where(is_none, 0.0, np.where(from_et, take("end_tidal"), dial_arr.fill_null(0.0)
-                                           .to_numpy(zero_copy_only=False).astype(float)))
+    dose = np.where(is_none, 0.0, np.where(from_et, take("end_tidal"), np.nan_to_num(dial_raw, nan=0.0)))
     from_et = from_et & ~is_none
     # High-flow runs: a run ends at a sample below the threshold or before a gap.
     high = fgf > high_flow_l_min
@@ -490,7 +512,13 @@ def _numpy_engine(recs: Records, high_flow_l_min: float):
     # Groups: case and agent.
     n_agents = max(len(agent_names), 1)
     gkey = cv * n_agents + agent_code
-    uniq, first, inv = np.unique(gkey, return_index=True, return_inverse=True)
+    step = np.diff(gkey)
+    if m and bool(np.all(step >= 0)):  # groups already contiguous: no second sort
+        first = np.concatenate(([0], np.flatnonzero(step) + 1))
+        uniq = gkey[first]
+        inv = np.cumsum(np.concatenate(([0], step != 0)))
+    else:
+        uniq, first, inv = np.unique(gkey, return_index=True, return_inverse=True)
     g = len(uniq)
 
     def gsum(weights):
@@ -506,8 +534,8 @@ def _numpy_engine(recs: Records, high_flow_l_min: float):
     theatre = _column(table, "theatre").take(vfirst).fill_null("unknown").to_pylist()
     month = _column(table, "month").take(vfirst)
     month = [("unknown" if x is None else x.strftime("%Y-%m")) for x in month.to_pylist()]
-    starts = pd.to_datetime(pd.Series(_column(table, "start_hint").take(vidx).to_pandas()))
-    start = starts.groupby(inv).min().reindex(range(g)).to_numpy() if m else np.zeros(0)
+    # The first valid sample of a group is its earliest (valid samples rise in time).
+    start = pd.to_datetime(pd.Series(_column(table, "start_hint").take(vfirst).to_pandas())).to_numpy()
     raw = pd.DataFrame({
         "case_id": np.array(case_names.to_pylist(), dtype=object)[uniq // n_agents] if g else [],
         "agent": agent_names[uniq % n_agents] if g else [],

@@ -615,6 +615,9 @@ def read_records(paths, *, reference: Reference = DEFAULT_REFERENCE,
         name = f"csv_{i}"
         con.register(name, table)
         selects.append(_raw_select(s, i, name))
+    # The CSV files are read (in file order, for their line numbers); every later query
+    # orders what it needs by file and row, so duckdb may stream in any order.
+    con.execute("SET preserve_insertion_order = false")
     con.execute("CREATE OR REPLACE TEMP VIEW raw AS " + " UNION ALL BY NAME ".join(selects))
     # Agent names: normalise the few distinct values in Python with the reference's rules.
     step(0.35, "Checking agents")

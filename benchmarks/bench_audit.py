@@ -1,0 +1,133 @@
+"""Benchmark: auditing case records, a hospital's year (2 million rows) and a health system's
+(200 million rows across Parquet files, out of core).
+
+Writes invented minute-level records with ``model.synth`` under /tmp (never in the project),
+then, each in a fresh process so the peak memory (maximum resident size) is its own:
+
+- ``audit``: ``model.audit.audit_records`` on the files: reading, every row check, the
+  per-case integration, sums and costs (the "memory" engine up to 20 million rows, duckdb's
+  out-of-core "sql" engine beyond, with ``--memory-limit``);
+- ``numpy``: a bare numpy pass over the same columns (read the Parquet columns, sum
+  FGF x dial x dt over the rows), the floor any audit must pay.
+
+Prints wall time, peak memory and the ratio audit / numpy. Goals: under 2 s for 2 million
+rows; bounded memory (under 4 GB) for 200 million. No assertions (speed goals are reported,
+never tested). Deletes the data afterwards unless ``--keep``.
+
+    .venv/bin/python benchmarks/bench_audit.py [--rows 2000000] [--memory-limit 3GB] [--keep]
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import resource
+import shutil
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parents[1]
+sys.path.insert(0, str(ROOT))
+
+
+def _peak_mb() -> float:
+    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
+
+
+def measure_audit(files, memory_limit, repeats) -> dict:
+    from model.audit import audit_records
+    from model.units import registry
+
+    registry()  # the unit registry is built once per process; not part of the audit
+    times = []
+    for _ in range(repeats):
+        t = time.perf_counter()
+        r = audit_records(files, memory_limit=memory_limit, threads=None)
+        times.append(time.perf_counter() - t)
+    return {"seconds": min(times), "all_seconds": times, "rows": r.report.rows_read,
+            "cases": int(r.total["cases"]), "peak_mb": _peak_mb()}
+
+
+def measure_numpy(files, repeats) -> dict:
+    import numpy as np
+    import pyarrow.parquet as pq
+
+    cols = ["time", "o2 [L/min]", "air [L/min]", "n2o [L/min]", "dial [%]"]
+    times = []
+    for _ in range(repeats):
+        t = time.perf_counter()
+        total = 0.0
+        rows = 0
+        for f in files:
+            tb = pq.read_table(f, columns=cols)
+            tm = tb["time"].to_numpy().astype("datetime64[s]").astype(np.float64) / 60.0
+            fgf = tb["o2 [L/min]"].to_numpy() + tb["air [L/min]"].to_numpy() + tb["n2o [L/min]"].to_numpy()
+            dial = tb["dial [%]"].to_numpy()
+            dt = np.diff(tm)
+            total += float(np.sum(fgf[:-1] * dial[:-1] * np.where((dt > 0) & (dt < 5), dt, 0.0)))
+            rows += len(tm)
+            del tb, tm, fgf, dial, dt
+        times.append(time.perf_counter() - t)
+    return {"seconds": min(times), "all_seconds": times, "rows": rows, "check": total, "peak_mb": _peak_mb()}
+
+
+def _child(kind, files, memory_limit, repeats) -> dict:
+    cmd = [sys.executable, __file__, "--child", kind, "--repeats", str(repeats), "--files", *map(str, files)]
+    if memory_limit:
+        cmd += ["--memory-limit", memory_limit]
+    out = subprocess.run(cmd, check=True, capture_output=True, text=True).stdout
+    return json.loads(out.strip().splitlines()[-1])
+
+
+def main(argv=None) -> int:
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--rows", type=int, default=2_000_000)
+    ap.add_argument("--rows-per-file", type=int, default=5_000_000)
+    ap.add_argument("--memory-limit", default="3GB", help="duckdb memory limit (default 3GB)")
+    ap.add_argument("--repeats", type=int, default=None, help="runs of each (default 3 under 20M rows, else 1)")
+    ap.add_argument("--keep", action="store_true", help="keep the generated data")
+    ap.add_argument("--child", choices=("audit", "numpy"), help=argparse.SUPPRESS)
+    ap.add_argument("--files", nargs="*", help=argparse.SUPPRESS)
+    args = ap.parse_args(argv)
+    repeats = args.repeats or (3 if args.rows <= 20_000_000 else 1)
+    if args.child:
+        res = (measure_audit(args.files, args.memory_limit, repeats) if args.child == "audit"
+               else measure_numpy(args.files, repeats))
+        print(json.dumps(res))
+        return 0
+
+    from model.synth import write_many
+
+    out = Path("/tmp") / f"gas-ledger-bench-{args.rows}"
+    free = shutil.disk_usage("/tmp").free
+    need = args.rows * 8  # about 5.5 bytes a row as zstd Parquet; a margin on top
+    if free < need:
+        print(f"not enough free space under /tmp: {free / 1e9:.1f} GB free, about {need / 1e9:.1f} GB needed")
+        return 1
+    t = time.perf_counter()
+    if out.exists():
+        files = sorted(out.glob("*.parquet"))
+    else:
+        files = write_many(args.rows, out, seed=2025, rows_per_file=args.rows_per_file)
+    gen = time.perf_counter() - t
+    size = sum(f.stat().st_size for f in files)
+    print(f"data: {args.rows:,} rows in {len(files)} Parquet file(s), {size / 1e6:,.0f} MB, "
+          f"written in {gen:.1f} s under {out}")
+    try:
+        bare = _child("numpy", files, None, repeats)
+        audit = _child("audit", files, args.memory_limit, repeats)
+    finally:
+        if not args.keep:
+            shutil.rmtree(out, ignore_errors=True)
+    print(f"bare numpy pass : {bare['seconds']:8.2f} s   peak {bare['peak_mb']:8,.0f} MB")
+    print(f"audit           : {audit['seconds']:8.2f} s   peak {audit['peak_mb']:8,.0f} MB   "
+          f"({audit['rows']:,} rows, {audit['cases']:,} cases; runs {', '.join(f'{s:.2f}' for s in audit['all_seconds'])} s)")
+    print(f"ratio audit / numpy: {audit['seconds'] / bare['seconds']:.1f}")
+    print(f"rows per second (audit): {audit['rows'] / audit['seconds']:,.0f}")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
