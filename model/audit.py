@@ -235,6 +235,17 @@ def audit_records(records, *, reference: Reference = DEFAULT_REFERENCE, gwp_sour
         kwargs = {} if max_messages is None else {"max_messages": max_messages}
         records = read_records(records, reference=reference, gap_limit_min=gap_limit_min,
                                memory_limit=memory_limit, threads=threads, progress=progress, **kwargs)
+        try:
+            return _audit(records, reference, gwp_source, temperature_c, pressure_kpa, capture_efficiency,
+                          high_flow_l_min, high_flow_limit_min, engine, step)
+        finally:
+            records.close()
+    return _audit(records, reference, gwp_source, temperature_c, pressure_kpa, capture_efficiency,
+                  high_flow_l_min, high_flow_limit_min, engine, step)
+
+
+def _audit(records, reference, gwp_source, temperature_c, pressure_kpa, capture_efficiency,
+           high_flow_l_min, high_flow_limit_min, engine, step) -> AuditResult:
     step(0.45, "Integrating the samples of each case")
     if engine not in ENGINES:
         raise InputError("engine", engine, "allowed engines are " + ", ".join(ENGINES))

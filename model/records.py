@@ -469,6 +469,16 @@ class Records:
     reference: Reference = DEFAULT_REFERENCE
     _tmpdir: object = None
 
+    def close(self) -> None:
+        """Close the duckdb connection and remove its spill folder."""
+        import shutil
+
+        try:
+            self.con.close()
+        finally:
+            if self._tmpdir:
+                shutil.rmtree(self._tmpdir, ignore_errors=True)
+
 
 def connect(memory_limit: str | None = None, threads: int | None = None):
     """A duckdb connection with bounded memory that spills to a temporary folder."""

@@ -162,3 +162,33 @@ def test_memory_and_sql_engines_agree_on_messy_records(tmp_path):
     pd.testing.assert_frame_equal(a.report.issues, b.report.issues)
     pd.testing.assert_frame_equal(a.report.gap_list, b.report.gap_list)
     assert a.report.rows_set_aside == 6 and a.report.gaps >= 1
+
+
+def test_cli_audit_reports_rows_set_aside_without_failing(capsys):
+    import json
+
+    from model.cli import main
+
+    code = main(["audit", str(DEMO / "fernhollow_birch_cases.csv"), "--purchases",
+                 str(DEMO / "fernhollow_purchases_2025.csv"), "--json"])
+    assert code == 0
+    data = json.loads(capsys.readouterr().out)
+    assert data["report"]["rows_set_aside"] == len(data["messages"]) > 0
+    assert data["report"]["gaps"] == len(data["gaps"]) >= 1
+    assert any(r["item"] == "nitrous_oxide" and r["month"] == "all" for r in data["reconciliation"])
+    assert "de-identified" in data["de_identification"]
+    assert main(["audit", str(DEMO / "fernhollow_birch_cases.csv")]) == 0
+    out = capsys.readouterr().out
+    assert "set aside" in out and "line 14" in out and "By theatre" in out
+
+
+def test_cli_audit_bad_file_exits_2_with_one_line(tmp_path, capsys):
+    from model.cli import main
+
+    p = tmp_path / "no_agent.csv"
+    p.write_text("case_id,elapsed,o2\nA,0,1\n", encoding="utf-8")
+    assert main(["audit", str(p)]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and "agent" in err and str(p) in err
+    assert main(["audit", str(DEMO / "fernhollow_birch_cases.csv"), "--gap-limit", "-1"]) == 2
+    assert "gap limit" in capsys.readouterr().err
