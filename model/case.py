@@ -10,9 +10,8 @@ import numpy as np
 import pandas as pd
 
 from .emissions import co2e_kg, emitted_mass_g, gas_mass_g
-from .errors import InputError
 from .freshgas import apply_ratio_limit, delivered_fractions, flow_band
-from .mac import mac_at_age, mac_multiple
+from .mac import mac_multiple
 from .circle import simulate_cases
 from .plan import CasePlan
 from .reference import DEFAULT_REFERENCE, Reference
