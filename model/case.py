@@ -9,10 +9,10 @@ from types import SimpleNamespace
 import numpy as np
 import pandas as pd
 
+from .circle import simulate_cases
 from .emissions import co2e_kg, emitted_mass_g, gas_mass_g
 from .freshgas import apply_ratio_limit, delivered_fractions, flow_band
 from .mac import mac_multiple
-from .circle import simulate_cases
 from .plan import CasePlan
 from .reference import DEFAULT_REFERENCE, Reference
 from .vapour import liquid_used_ml
