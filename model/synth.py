@@ -96,11 +96,12 @@ def generate(rows: int, seed: int = 2025, year: int = 2025, first_case: int = 0)
     et = np.where(volatile, np.round(dial * np.where(ind, 0.5, 0.8) * rng.uniform(0.9, 1.1, len(dial)), 2), 0.0)
     case_ids = np.char.add(f"FH{year % 100:02d}-", np.char.zfill(
         (np.arange(n_cases) + first_case).astype(str), 7))
+    # Text columns as categories (codes per row): fast to build, written as dictionary columns.
     return pd.DataFrame({
-        "case_id": case_ids[case_of_row],
+        "case_id": pd.Categorical.from_codes(case_of_row, categories=case_ids),
         "time": start[case_of_row] + minute.astype("timedelta64[m]"),
-        "theatre": np.array(THEATRES)[theatre][case_of_row],
-        "agent": names[agent][case_of_row],
+        "theatre": pd.Categorical.from_codes(theatre[case_of_row], categories=list(THEATRES)),
+        "agent": pd.Categorical.from_codes(agent[case_of_row], categories=list(names)),
         "o2 [L/min]": o2, "air [L/min]": air, "n2o [L/min]": n2o,
         "dial [%]": dial, "end_tidal [%]": et,
     })
@@ -122,6 +123,9 @@ def write(df: pd.DataFrame, path) -> Path:
 
         table = table.set_column(table.schema.get_field_index("time"), "time",
                                  pa.compute.strftime(table["time"], "%Y-%m-%d %H:%M:%S"))
+        for name in ("case_id", "theatre", "agent"):
+            i = table.schema.get_field_index(name)
+            table = table.set_column(i, name, table[name].cast(pa.string()))
         pc.write_csv(table, p)
     else:
         raise InputError("output file", str(p), "expected a name ending in .csv or .parquet")
@@ -177,7 +181,7 @@ def write_demo(out_dir, rows: int = 120_000, seed: int = 2025) -> list[Path]:
     df = generate(rows, seed)
     main_path = write(df, out / "fernhollow_2025.parquet")
     # About 30 cases of one theatre in the second layout.
-    week = generate(2500, seed + 1)
+    week = generate(2500, seed + 1).astype({"case_id": str, "theatre": str, "agent": str})
     week = week[week["agent"] != "none"].reset_index(drop=True)
     t0 = week.groupby("case_id")["time"].transform("min")
     fgf = week["o2 [L/min]"] + week["air [L/min]"] + week["n2o [L/min]"]

@@ -147,7 +147,8 @@ def test_csv_and_parquet_of_the_same_records_give_the_same_result(tmp_path):
 
 
 def test_memory_and_sql_engines_agree_on_messy_records(tmp_path):
-    df = generate(3000, seed=5).astype({"o2 [L/min]": object, "dial [%]": object})
+    df = generate(3000, seed=5).astype({"o2 [L/min]": object, "dial [%]": object, "agent": str,
+                                        "case_id": str, "theatre": str})
     df.loc[10, "o2 [L/min]"] = "x"
     df.loc[20, "agent"] = "argon"
     df.loc[30, "dial [%]"] = 40
