@@ -454,6 +454,12 @@ def normalise_agent_name(name) -> str:
     return key.replace(" ", "_")
 
 
+def shown_path(path) -> str:
+    """A path short enough for a one-line message, keeping its end (the file name)."""
+    text = str(path)
+    return text if len(text) <= 76 else "..." + text[-73:]
+
+
 def load_settings(path: str | os.PathLike | None = None, base: Reference | None = None) -> Reference:
     """Reference data with the overrides of a user settings file (TOML) applied.
 
@@ -468,17 +474,17 @@ def load_settings(path: str | os.PathLike | None = None, base: Reference | None 
     try:
         data = tomllib.loads(p.read_text(encoding="utf-8"))
     except FileNotFoundError:
-        raise InputError("settings file", str(p), "no such file; give the path of a TOML settings file") from None
+        raise InputError("settings file", shown_path(p), "no such file; give the path of a TOML settings file") from None
     except UnicodeDecodeError:
-        raise InputError("settings file", str(p), "not UTF-8 text; a settings file is TOML text") from None
+        raise InputError("settings file", shown_path(p), "not UTF-8 text; a settings file is TOML text") from None
     except tomllib.TOMLDecodeError as exc:
         from .plan import toml_error
         raise toml_error(f"settings file {p}", exc,
                          "the file is not valid TOML (see 'Settings file' in README.md)") from None
     except RecursionError:
-        raise InputError("settings file", str(p), "nested too deeply to be a settings file") from None
+        raise InputError("settings file", shown_path(p), "nested too deeply to be a settings file") from None
     except OSError as exc:
-        raise InputError("settings file", str(p), f"cannot be read ({exc.strerror}); "
+        raise InputError("settings file", shown_path(p), f"cannot be read ({exc.strerror}); "
                          "give a readable TOML settings file") from None
     return base.with_overrides(data, str(p))
 

@@ -251,7 +251,7 @@ def test_missing_plan_file_exits_2(capsys, tmp_path):
 
 def test_folder_as_plan_exits_2(capsys, tmp_path):
     status, out, err = run(["case", tmp_path], capsys)
-    assert_one_clear_line(status, out, err, ["plan file", str(tmp_path), "folder"])
+    assert_one_clear_line(status, out, err, ["plan file", tmp_path.name, "folder"])
 
 
 def test_unreadable_plan_exits_2(capsys, tmp_path, monkeypatch):
