@@ -113,13 +113,17 @@ class Store:
 
     def __init__(self, path: str | os.PathLike | None = None):
         self.path = Path(path) if path is not None else default_path()
+        try:
+            self.path.parent.mkdir(parents=True, exist_ok=True)
+        except OSError as exc:
+            raise StoreError("store file", str(self.path), f"its folder cannot be made ({exc.strerror})") from None
+        self._wal = False
         self._open_and_migrate()
 
     # ---- connection and schema -------------------------------------------------------
 
     def _connect(self, setup: bool = True) -> sqlite3.Connection:
         try:
-            self.path.parent.mkdir(parents=True, exist_ok=True)
             con = sqlite3.connect(self.path, timeout=BUSY_TIMEOUT_MS / 1000, isolation_level=None)
         except (OSError, sqlite3.Error) as exc:
             raise StoreError("store file", str(self.path), f"cannot be opened ({exc})") from None
@@ -127,7 +131,9 @@ class Store:
             con.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS}")
             if not setup:      # only look: a foreign file must stay byte for byte as it was
                 return con
-            con.execute("PRAGMA journal_mode = WAL")
+            if not self._wal:     # WAL is a property of the file: set it once per Store
+                con.execute("PRAGMA journal_mode = WAL")
+                self._wal = True
             con.execute("PRAGMA synchronous = FULL")
             con.execute("PRAGMA foreign_keys = ON")
         except sqlite3.DatabaseError as exc:

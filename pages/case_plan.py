@@ -241,7 +241,7 @@ m[0].metric("Liquid agent", f"{t['liquid_agent_ml']:.1f} mL", _delta("liquid_age
             delta_color="inverse", help="Change shown against the plan as opened")
 m[1].metric("Bottles", f"{t['bottles']:.2f}", _delta("bottles", lambda d: f"{d:+.2f}"), delta_color="inverse",
             help=f"{agent.label} bottle of {agent.bottle_volume:g} mL")
-m[2].metric(f"Emissions ({view.co2e_unit})", f"{t['co2e_total_kg'] * co2e_scale:,.3g}",
+m[2].metric(f"Emissions ({view.co2e_unit})", view.co2e_number(t["co2e_total_kg"]),
             _delta("co2e_total_kg", lambda d: f"{d:+,.3g}", co2e_scale), delta_color="inverse",
             help=f"{result.gwp_label}; agent and N2O released")
 m[3].metric(f"Cost ({result.currency})", f"{t['cost_total']:,.2f}", _delta("cost_total", lambda d: f"{d:+,.2f}"),
@@ -277,8 +277,24 @@ else:
 # ---- charts --------------------------------------------------------------------------
 
 fate = charts.agent_fate(t, agent.metabolised_fraction)
-figs = {"time": charts.timecourse_figure(tc, plan.settings.inspired_o2_floor * 100), "fate": charts.fate_figure(fate, agent.label),
-        "cost": charts.cost_figure(t, result.currency)}
+result_toml = ss["cp_last_toml"]
+
+
+@st.cache_resource(show_spinner=False, max_entries=64)
+def _figures(plan_toml: str, ref_key: str, _result, _fate, _label) -> dict:
+    """The page's figures for one result (kept, not rebuilt, while the inputs stay the same)."""
+    return {"time": charts.timecourse_figure(_result.timecourse, _result.plan.settings.inspired_o2_floor * 100),
+            "fate": charts.fate_figure(_fate, _label), "cost": charts.cost_figure(_result.totals, _result.currency)}
+
+
+@st.cache_resource(show_spinner=False, max_entries=64)
+def _sweep_figure(plan_toml: str, ref_key: str, co2e_unit: str, _sw, _currency):
+    return charts.sweep_figure(_sw.table, "fgf_l_min", "cost_total", "co2e_total_kg", _sw.cost_lowest_flow_l_min,
+                               _sw.emission_lowest_flow_l_min, _currency, ui.common.CO2E_UNITS[co2e_unit],
+                               co2e_unit, feasible=_sw.table.get("feasible"))
+
+
+figs = dict(_figures(result_toml, ref_key, result, fate, agent.label))
 
 
 @st.cache_data(show_spinner=False, max_entries=128)
@@ -310,15 +326,12 @@ with tabs[2]:
     figs["sweep"] = None
     try:
         with st.spinner("Sweeping the maintenance flow..."):
-            sw = _sweep_cached(plan_to_toml(plan), ref_key, ref)
+            sw = _sweep_cached(result_toml, ref_key, ref)
     except InputError as err:
         ui.show_input_error(err, "Flow sweep")
     else:
         sweep_table = sw.table
-        figs["sweep"] = charts.sweep_figure(sweep_table, "fgf_l_min", "cost_total", "co2e_total_kg",
-                                            sw.cost_lowest_flow_l_min, sw.emission_lowest_flow_l_min,
-                                            result.currency, co2e_scale, view.co2e_unit,
-                                            feasible=sweep_table.get("feasible"))
+        figs["sweep"] = _sweep_figure(result_toml, ref_key, view.co2e_unit, sw, result.currency)
         st.plotly_chart(figs["sweep"], width="stretch", key="cp_fig_sweep")
         phase_name = plan.phases[sw.phase_index].name
         best = [f"lowest cost at **{sw.cost_lowest_flow_l_min:g} L/min**" if sw.cost_lowest_flow_l_min else None,
@@ -367,7 +380,7 @@ inputs.update({f"phase {i}: {p.name}": f"{p.minutes:g} min; O2 {p.o2_l_min:g}, a
                f"N2O {p.n2o_l_min:g} L/min; " + (f"dial {p.dial_pct:g} %" if p.dial_pct is not None
                                                  else f"target {p.target_mac:g} x MAC")
                for i, p in enumerate(plan.phases, start=1)})
-sources = pd.DataFrame(ref.table())
+sources = ui.common.sources_table(ref_key, ref)
 tables = {"Summary": summary, "Phases": result.phases.assign(plan=plan.name),
           "Cost by item": charts.cost_by_item(t, result.currency), "Where the agent went": fate,
           "Inputs": pd.DataFrame({"input": list(inputs), "value": list(inputs.values())}), "Sources": sources}

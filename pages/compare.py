@@ -72,11 +72,11 @@ def _compare_plans() -> None:
             c = st.columns(5)
             c[0].metric("Liquid agent", f"{t['liquid_agent_ml']:.1f} mL",
                         _delta_text(t["liquid_agent_ml"], bt["liquid_agent_ml"], "mL"), delta_color="inverse")
-            c[1].metric("Emissions", view.co2e(t["co2e_total_kg"]),
-                        _delta_text(t["co2e_total_kg"] * scale, bt["co2e_total_kg"] * scale, view.co2e_unit, 2),
+            c[1].metric(f"Emissions ({view.co2e_unit})", view.co2e_number(t["co2e_total_kg"]),
+                        _delta_text(t["co2e_total_kg"] * scale, bt["co2e_total_kg"] * scale, "", 2),
                         delta_color="inverse")
-            c[2].metric("Cost", view.money(t["cost_total"]),
-                        _delta_text(t["cost_total"], bt["cost_total"], view.currency, 2), delta_color="inverse")
+            c[2].metric(f"Cost ({res.currency})", f"{t['cost_total']:,.2f}",
+                        _delta_text(t["cost_total"], bt["cost_total"], "", 2), delta_color="inverse")
             c[3].metric("Bottles", f"{t['bottles']:.2f}", _delta_text(t["bottles"], bt["bottles"], "", 2),
                         delta_color="inverse")
             c[4].metric("MAC-hours", f"{t['mac_hours']:.2f}", _delta_text(t["mac_hours"], bt["mac_hours"], "", 2),

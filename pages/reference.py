@@ -33,7 +33,7 @@ if search.strip():
     needle = search.strip().lower()
     mask = shown.apply(lambda r: needle in " ".join(str(v) for v in r.values).lower(), axis=1)
     shown = shown[mask]
-st.dataframe(shown, hide_index=True, width="stretch", height=420,
+st.dataframe(shown, hide_index=True, width="stretch", height=530,
              column_config={"value": st.column_config.NumberColumn(format="%.6g"),
                             "source": st.column_config.TextColumn(width="large")})
 st.caption(f"{len(shown)} of {len(table)} values. Basis says how each is known: published, from memory, "
@@ -57,12 +57,12 @@ prices_saved = saved.get("prices", {})
 with st.form("ref_overrides"):
     tab_p, tab_g, tab_m = st.tabs(["Prices", "GWP values", "MAC at age 40"])
     with tab_p:
-        c = st.columns(4)
+        c = st.columns(5)
         currency = c[0].text_input("Currency label", value=prices_saved.get("currency", default.prices.currency),
                                    max_chars=12)
         bottle = {}
         for i, a in enumerate(VOLATILES):
-            bottle[a] = c[(i + 1) % 4].number_input(
+            bottle[a] = c[i + 1].number_input(
                 f"{default.agents[a].label} per bottle", min_value=0.0, step=1.0,
                 value=float(ref.prices.bottle.get(a, 0.0)), key=f"ref_bottle_{a}")
         c = st.columns(4)

@@ -9,6 +9,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 import plotly.graph_objects as go
+import plotly.io as pio
 from plotly.subplots import make_subplots
 
 from model.exports import chart_text
@@ -16,13 +17,31 @@ from model.exports import chart_text
 #: A calm palette of our own (colour-blind friendly order).
 PALETTE = ["#2f6f8f", "#e08a2e", "#5a9e6f", "#b5523b", "#7d6aa8", "#8a8a8a", "#c9a227"]
 FONT = dict(family="system-ui, -apple-system, Segoe UI, sans-serif", size=13, color="#1d2a33")
+_GRID = "#e3e9ec"
+# A small template of our own: cheaper to apply than the built-in ones (plotly copies the
+# whole template into every figure) and the house look in one place.
+pio.templates["fresh_gas_ledger"] = go.layout.Template(layout=dict(
+    font=FONT, colorway=PALETTE, paper_bgcolor="white", plot_bgcolor="white",
+    xaxis=dict(gridcolor=_GRID, linecolor="#9aa8b0", zerolinecolor=_GRID, ticks="outside", tickcolor="#9aa8b0"),
+    yaxis=dict(gridcolor=_GRID, linecolor="#9aa8b0", zerolinecolor=_GRID),
+    hoverlabel=dict(font=dict(family=FONT["family"]))))
+TEMPLATE = "fresh_gas_ledger"
 
 
-def _style(fig: go.Figure, title: str = "", height: int = 360) -> go.Figure:
-    fig.update_layout(title=dict(text=title, x=0.0, xanchor="left", font=dict(size=15)) if title else None,
-                      template="plotly_white", font=FONT, height=height, colorway=PALETTE,
-                      margin=dict(l=10, r=10, t=50 if title else 20, b=10),
-                      legend=dict(orientation="h", yanchor="bottom", y=1.02, x=0))
+def _fig(*data) -> go.Figure:
+    """A new figure on the house template (so plotly's default template is never copied)."""
+    return go.Figure(data=list(data), layout=dict(template=TEMPLATE))
+
+
+def _style(fig: go.Figure, title: str = "", height: int = 360, legend_right: bool = False) -> go.Figure:
+    """House style: title top left, legend under the title (or at the right), quiet grid."""
+    legend = (dict(orientation="v", yanchor="top", y=1.0, x=1.02, xanchor="left") if legend_right
+              else dict(orientation="h", yanchor="bottom", y=1.02, x=0, xanchor="left"))
+    top = 20 if not title else (60 if legend_right else 95)
+    fig.update_layout(title=dict(text=title, x=0.0, xanchor="left", y=0.985, yref="container", yanchor="top",
+                                 font=dict(size=15)) if title else None,
+                      template=TEMPLATE, height=height + top - 20,
+                      margin=dict(l=10, r=10, t=top, b=10), legend=legend)
     return fig
 
 
@@ -36,7 +55,7 @@ def cost_by_item(totals: dict, currency: str) -> pd.DataFrame:
 def cost_figure(totals: dict, currency: str) -> go.Figure:
     df = cost_by_item(totals, currency)
     col = df.columns[1]
-    fig = go.Figure(go.Bar(x=df[col], y=df["item"], orientation="h", marker_color=PALETTE[0],
+    fig = _fig(go.Bar(x=df[col], y=df["item"], orientation="h", marker_color=PALETTE[0],
                            text=[f"{v:,.2f}" for v in df[col]], textposition="auto",
                            hovertemplate="%{y}: %{x:,.2f} " + chart_text(currency) + "<extra></extra>"))
     fig.update_yaxes(autorange="reversed")
@@ -64,13 +83,13 @@ def agent_fate(totals: dict, metabolised_fraction: float) -> pd.DataFrame:
 
 
 def fate_figure(fate: pd.DataFrame, agent_label: str) -> go.Figure:
-    fig = go.Figure(go.Pie(labels=fate["where"], values=fate["agent_g"], hole=0.55, sort=False,
+    fig = _fig(go.Pie(labels=fate["where"], values=fate["agent_g"], hole=0.55, sort=False,
                            marker=dict(colors=[PALETTE[1], PALETTE[0], PALETTE[2], PALETTE[5]]),
                            texttemplate="%{percent:.1%}", hovertemplate="%{label}: %{value:.1f} g<extra></extra>"))
     total = float(fate["agent_g"].sum())
     fig.add_annotation(text=f"{total:.1f} g<br>{chart_text(agent_label.lower())}", showarrow=False,
                        font=dict(size=14))
-    return _style(fig, "Where the agent went", 320)
+    return _style(fig, "Where the agent went", 320, legend_right=True)
 
 
 #: Time-course panels: (title, [(column, label)]) in the circle model's column names.
@@ -95,7 +114,7 @@ def timecourse_figure(tc: pd.DataFrame | None, o2_floor_pct: float | None = None
     if not panels:
         return None
     fig = make_subplots(rows=len(panels), cols=1, shared_xaxes=True, vertical_spacing=0.08,
-                        subplot_titles=[p[0] for p in panels])
+                        subplot_titles=[p[0] for p in panels], figure=_fig())
     colours = iter(PALETTE * 3)
     for row, (_, cols) in enumerate(panels, start=1):
         for c, label in cols:
@@ -108,7 +127,7 @@ def timecourse_figure(tc: pd.DataFrame | None, o2_floor_pct: float | None = None
             fig.add_hline(y=o2_floor_pct, line=dict(color="#c62828", dash="dash", width=1), row=row, col=1,
                           annotation_text=f"floor {o2_floor_pct:.0f} %", annotation_position="bottom right")
     fig.update_xaxes(title_text="minutes from start", row=len(panels), col=1)
-    return _style(fig, "Time course", 200 * len(panels) + 80)
+    return _style(fig, "Time course", 200 * len(panels) + 40, legend_right=True)
 
 
 def sweep_figure(sweep: pd.DataFrame, flow_col: str, cost_col: str, co2e_col: str,
@@ -121,7 +140,7 @@ def sweep_figure(sweep: pd.DataFrame, flow_col: str, cost_col: str, co2e_col: st
     """
     ok = np.ones(len(sweep), bool) if feasible is None else np.asarray(feasible, bool)
     symbols = np.where(ok, "circle", "circle-open")
-    fig = make_subplots(specs=[[{"secondary_y": True}]])
+    fig = make_subplots(specs=[[{"secondary_y": True}]], figure=_fig())
     fig.add_trace(go.Scatter(x=sweep[flow_col], y=sweep[cost_col], name=f"cost ({chart_text(currency)})",
                              mode="lines+markers", marker=dict(symbol=symbols, size=8),
                              line=dict(color=PALETTE[0], width=2.5)), secondary_y=False)
@@ -144,7 +163,7 @@ def sweep_figure(sweep: pd.DataFrame, flow_col: str, cost_col: str, co2e_col: st
 def grouped_bars(df: pd.DataFrame, category: str, value_cols: list[str], title: str,
                  yaxis: str = "") -> go.Figure:
     """Bars of several series side by side per category (one series per value column)."""
-    fig = go.Figure()
+    fig = _fig()
     for i, col in enumerate(value_cols):
         fig.add_trace(go.Bar(name=chart_text(col), x=df[category], y=df[col],
                              marker_color=PALETTE[i % len(PALETTE)]))

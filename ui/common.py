@@ -48,8 +48,12 @@ class ViewSettings:
         return f"{l_min:.3g} L/min"
 
     def co2e(self, kg: float) -> str:
+        return f"{self.co2e_number(kg)} {self.co2e_unit}"
+
+    def co2e_number(self, kg: float) -> str:
+        """CO2e in the chosen unit, without the unit (two decimals under 100, else none)."""
         v = kg * CO2E_UNITS[self.co2e_unit]
-        return f"{v:,.3g} {self.co2e_unit}" if abs(v) < 100 else f"{v:,.0f} {self.co2e_unit}"
+        return f"{v:,.2f}" if abs(v) < 100 else f"{v:,.0f}"
 
     def money(self, amount: float) -> str:
         return f"{amount:,.2f} {self.currency}"
@@ -118,6 +122,12 @@ def apply_settings(plan: CasePlan, view: ViewSettings) -> CasePlan:
     """The plan with the sidebar's GWP source and room temperature."""
     return replace(plan, settings=replace(plan.settings, gwp_source=view.gwp_source,
                                           temperature_c=view.temperature_c))
+
+
+@st.cache_data(show_spinner=False, max_entries=32)
+def sources_table(ref_key: str, _ref: Reference) -> pd.DataFrame:
+    """The reference table (values and sources) as a DataFrame, for downloads and reports."""
+    return pd.DataFrame(_ref.table())
 
 
 @st.cache_data(show_spinner=False, max_entries=512)
