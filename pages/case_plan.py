@@ -85,10 +85,10 @@ with st.container(border=True):
     history = store.history("plan", ss["cp_open_name"]) if ss.get("cp_open_name") in names else []
     c2.selectbox("Version", ["latest"] + [str(v.version) for v in history], key="cp_open_version")
     c3.button("Open", on_click=_open_selected, icon=":material/folder_open:", width="stretch")
-    st.caption(f"Editing: {ss['cp_origin']}")
+    st.caption(f"Editing: {ui.md(ss['cp_origin'])}")
 flash = ss.pop("cp_flash", None)
 if flash:
-    getattr(st, flash[0])(flash[1])
+    getattr(st, flash[0])(ui.md(flash[1]))
 
 
 # ---- the inputs ----------------------------------------------------------------------
@@ -177,7 +177,7 @@ def _place_error(field: str, message: str) -> None:
     if m:
         row, col = int(m.group(1)), m.group(2)
         text = message.split(": ", 1)[-1] if ": " in message else message
-        table_slot.error(f"Phases table, row {row}, {_FIELD_LABEL.get(col, col or 'row')}: {text}",
+        table_slot.error(ui.md(f"Phases table, row {row}, {_FIELD_LABEL.get(col, col or 'row')}: {text}"),
                          icon=":material/error:")
         return
     if field == "phases":
@@ -185,7 +185,7 @@ def _place_error(field: str, message: str) -> None:
         return
     key = field.split(".")[-1]
     slot = slots.get(key)
-    (slot or table_slot).error(message, icon=":material/error:")
+    (slot or table_slot).error(ui.md(message), icon=":material/error:")
 
 
 status, payload, message = _build(json.dumps(_raw_inputs(), sort_keys=True, default=str))
@@ -269,7 +269,7 @@ if result.warnings:
     with st.container(border=True):
         st.markdown("**Check before use**")
         for w in result.warnings:
-            st.warning(w, icon=":material/warning:")
+            st.warning(ui.md(w), icon=":material/warning:")
 else:
     st.success("No warnings for this plan at the chosen limits.", icon=":material/check_circle:")
 
@@ -336,7 +336,7 @@ with tabs[2]:
         phase_name = plan.phases[sw.phase_index].name
         best = [f"lowest cost at **{sw.cost_lowest_flow_l_min:g} L/min**" if sw.cost_lowest_flow_l_min else None,
                 f"lowest CO2e at **{sw.emission_lowest_flow_l_min:g} L/min**" if sw.emission_lowest_flow_l_min else None]
-        st.markdown(f"Flow of the *{phase_name}* phase varied at the same end-tidal depth "
+        st.markdown(f"Flow of the *{ui.md(phase_name)}* phase varied at the same end-tidal depth "
                     f"({sw.target_mac:.2f} x MAC): " + (", ".join(b for b in best if b) or
                                                         "no flow keeps inspired O2 above the floor") + ".")
         st.caption(f"Only flows that keep predicted inspired O2 above {sw.inspired_o2_floor_pct:.0f} % and hold "
@@ -416,7 +416,7 @@ with d2:
         st.rerun()
     saved_msg = ss.pop("cp_saved_msg", None)
     if saved_msg:
-        st.success(saved_msg, icon=":material/check_circle:")
+        st.success(ui.md(saved_msg), icon=":material/check_circle:")
 
 with st.expander("Plan files and saved versions", icon=":material/description:"):
     f1, f2 = st.columns(2)
@@ -430,10 +430,10 @@ with st.expander("Plan files and saved versions", icon=":material/description:")
                 text = check_upload(up.name, up.getvalue(), "plan").text
                 imported, version = store.import_plan_text(text, up.name)
             except InputError as err:
-                st.error(f"Not imported, the store is unchanged. {err}", icon=":material/error:")
+                st.error(ui.md(f"Not imported, the store is unchanged. {err}"), icon=":material/error:")
             else:
                 _load(imported, f"imported file {up.name}")
-                st.success(f"Imported '{imported.name}' as version {version}.")
+                st.success(ui.md(f"Imported '{imported.name}' as version {version}."))
                 st.rerun()
     with f2:
         st.markdown("**Export this plan**")
@@ -441,6 +441,6 @@ with st.expander("Plan files and saved versions", icon=":material/description:")
                            mime="application/toml", key="cp_dl_toml", on_click="ignore", icon=":material/download:")
     hist = store.history("plan", plan.name)
     if hist:
-        st.markdown(f"**Saved versions of '{plan.name}'**")
+        st.markdown(f"**Saved versions of '{ui.md(plan.name)}'**")
         st.dataframe(pd.DataFrame({"version": [v.version for v in hist], "saved (UTC)": [v.saved_at[:19] for v in hist],
                                    "note": [v.note for v in hist]}), hide_index=True, width="stretch")

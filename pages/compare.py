@@ -63,12 +63,12 @@ def _compare_plans() -> None:
     scale = ui.common.CO2E_UNITS[view.co2e_unit]
 
     st.subheader("Against the baseline")
-    st.caption(f"Baseline: **{base_name}** ({ref.agents[base.plan.agent].label}, "
+    st.caption(f"Baseline: **{ui.md(base_name)}** ({ref.agents[base.plan.agent].label}, "
                f"{bt['duration_min']:.0f} min). Green is less used, emitted or spent.")
     for name, res in list(results.items())[1:]:
         t = res.totals
         with st.container(border=True):
-            st.markdown(f"**{name}** — {ref.agents[res.plan.agent].label}, {t['duration_min']:.0f} min")
+            st.markdown(f"**{ui.md(name)}** — {ref.agents[res.plan.agent].label}, {t['duration_min']:.0f} min")
             c = st.columns(5)
             c[0].metric("Liquid agent", f"{t['liquid_agent_ml']:.1f} mL",
                         _delta_text(t["liquid_agent_ml"], bt["liquid_agent_ml"], "mL"), delta_color="inverse")
@@ -120,7 +120,7 @@ def _compare_plans() -> None:
     if warnings:
         with st.expander(f"Warnings ({len(warnings)})", icon=":material/warning:"):
             for w in warnings:
-                st.warning(w)
+                st.warning(ui.md(w))
 
     sources = pd.DataFrame(ref.table())
     tables = {"Comparison": table, "Cost by item": cost_df, "Emissions by source": co2e_df}

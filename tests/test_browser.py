@@ -37,8 +37,13 @@ def _free_port() -> int:
 
 
 @pytest.fixture(scope="module")
-def app_url(tmp_path_factory):
-    store = tmp_path_factory.mktemp("browser-store") / "store.sqlite3"
+def store_path(tmp_path_factory):
+    return tmp_path_factory.mktemp("browser-store") / "store.sqlite3"
+
+
+@pytest.fixture(scope="module")
+def app_url(tmp_path_factory, store_path):
+    store = store_path
     port = _free_port()
     env = dict(os.environ, GAS_LEDGER_STORE=str(store))
     log = open(tmp_path_factory.mktemp("browser-log") / "streamlit.log", "w")
@@ -219,3 +224,37 @@ def test_every_page_renders_and_is_captured(page, app_url, title, slug, marker):
     page.wait_for_timeout(800)          # let plotly finish drawing
     assert page.locator('[data-testid="stException"]').count() == 0
     page.screenshot(path=str(ARTIFACTS / f"page_{slug}.png"))
+
+
+HOSTILE_NAME = "<img src=x onerror=\"window.__pwned=1\">[link](javascript:window.__pwned=2)"
+
+
+def test_hostile_plan_name_is_shown_as_text_and_escaped_in_the_report(page, app_url, store_path, tmp_path):
+    from dataclasses import replace
+
+    from model import load_plan
+    from model.store import Store
+    open_app(page, app_url)                    # the app has made and seeded the store
+    demo = load_plan(ROOT / "demo_data" / "plans" / "lap_chole_low_flow.toml")
+    Store(store_path).save_plan(replace(demo, name=HOSTILE_NAME))
+    page.reload()
+    page.get_by_text("What this case uses").wait_for()
+    wait_idle(page)
+    page.get_by_text("Editing: saved plan '<img src=x").wait_for()     # shown as typed
+    assert page.locator("main img[src='x']").count() == 0
+    assert page.locator("a[href^='javascript']").count() == 0
+    assert page.evaluate("() => window.__pwned === undefined")
+    with page.expect_download() as dl:
+        click_button(page, "HTML report")
+    path = tmp_path / "report.html"
+    dl.value.save_as(path)
+    doc = path.read_text(encoding="utf-8")
+    assert "&lt;img src=x" in doc and "<img src=x" not in doc
+    # Open the report itself: the name is text, nothing runs, nothing is fetched.
+    requests = []
+    page.on("request", lambda r: requests.append(r.url))
+    page.goto(path.as_uri())
+    page.wait_for_timeout(1500)
+    assert page.evaluate("() => window.__pwned === undefined")
+    assert page.locator("img[src='x']").count() == 0
+    assert all(u.startswith("file:") or u.startswith("data:") for u in requests), requests

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import re
 from pathlib import Path
 
 import pytest
@@ -175,3 +176,30 @@ def test_reference_override_changes_case_cost(isolated_store):
     cp2 = page("case_plan.py")
     # Invented demo price 120 per bottle -> 480: agent cost four times as high.
     assert metric(cp2, "Cost") > cost_before
+
+
+HOSTILE_NAME = "<img src=x onerror=alert(1)>[click](javascript:alert(1))"
+
+
+def test_hostile_plan_name_never_reaches_markdown_unescaped(isolated_store):
+    from dataclasses import replace
+    from model import load_plan
+    page("case_plan.py")                 # the first run seeds the demo plans
+    store = Store(isolated_store)
+    demo = load_plan(ROOT / "demo_data" / "plans" / "lap_chole_low_flow.toml")
+    store.save_plan(replace(demo, name=HOSTILE_NAME,
+                            phases=tuple(replace(p, name="=" + HOSTILE_NAME[:40]) for p in demo.phases)))
+    for name in ("case_plan.py", "compare.py"):
+        at = AppTest.from_file(str(ROOT / "pages" / name), default_timeout=TIMEOUT)
+        if name == "case_plan.py":
+            at.run()
+            assert at.text_input(key="cp_name").value == HOSTILE_NAME      # opened: most recent
+        else:
+            at.run()
+        assert not at.exception
+        shown = [e.value for kind in ("markdown", "caption", "success", "warning", "error", "info")
+                 for e in at.get(kind)]
+        assert any("\\<img src=x" in v for v in shown), (name, shown)
+        # Markdown sources only ever hold the escaped form: no raw tag, no live link.
+        assert not any(re.search(r"(?<!\\)<img", v) for v in shown)
+        assert not any(re.search(r"(?<!\\)\]\(javascript", v) for v in shown)

@@ -8,12 +8,13 @@ API for page authors (see DEVELOPERS.md, "Dashboard pages"):
 - ``reference()``: the Reference with the user's saved overrides and currency label applied.
 - ``reference_key()``: a short text that changes whenever ``reference()`` does (cache key).
 - ``compute_cached(plan_toml, reference_key(), reference())``: cached ``compute_case``.
+- ``md(text)``: user text escaped for markdown (every st.markdown/caption/message with user text).
 - ``show_input_error(err)``: one line for a :class:`model.errors.InputError`.
 - ``downloads(name, tables, report_html, key)``: the CSV / Excel / HTML download row.
 """
 
 from .common import (CAUTION, CAUTION_SHORT, ViewSettings, apply_settings, compute_cached, downloads, get_store,
-                     page_start, reference, reference_key, show_input_error, view_settings)
+                     md, page_start, reference, reference_key, show_input_error, view_settings)
 
 __all__ = ["CAUTION", "CAUTION_SHORT", "ViewSettings", "apply_settings", "compute_cached", "downloads", "get_store",
-           "page_start", "reference", "reference_key", "show_input_error", "view_settings"]
+           "md", "page_start", "reference", "reference_key", "show_input_error", "view_settings"]

@@ -80,7 +80,7 @@ def get_store() -> Store:
     try:
         return _store_at(str(default_path()))
     except StoreError as err:
-        st.error(str(err), icon=":material/error:")
+        st.error(md(str(err)), icon=":material/error:")
         st.stop()
 
 
@@ -114,7 +114,7 @@ def reference(view: ViewSettings | None = None) -> Reference:
     try:
         return _reference_for(json.dumps(_saved_overrides(), sort_keys=True), view.currency)
     except InputError as err:
-        st.error(f"Saved overrides could not be applied, defaults used: {err}")
+        st.error(md(f"Saved overrides could not be applied, defaults used: {err}"))
         return _reference_for("{}", view.currency)
 
 
@@ -171,7 +171,7 @@ def _sidebar() -> ViewSettings:
         co2e_unit = st.selectbox("Emissions shown in", list(CO2E_UNITS), key="gl_co2e_unit")
         st.divider()
         st.caption(CAUTION)
-        st.caption(f"Store: `{default_path()}`")
+        st.caption(f"Store: {md(default_path())}")
     return ViewSettings(currency.strip(), source, years, float(temp), flow_unit, co2e_unit)
 
 
@@ -202,10 +202,22 @@ def page_start(title: str, intro: str = "") -> ViewSettings:
     return view
 
 
+_MD_SPECIAL = re.compile(r"([\\`*_{}\[\]()#+\-.!|<>~$:&])")
+
+
+def md(text) -> str:
+    """User text made safe for Streamlit markdown (titles, captions, messages).
+
+    Every markdown and HTML character is backslash-escaped, so a name such as
+    ``<img src=x>`` or ``[a](javascript:...)`` shows as typed and never becomes markup.
+    """
+    return _MD_SPECIAL.sub(r"\\\1", str(text)).replace("\n", " ").replace("\r", " ")
+
+
 def show_input_error(err: Exception, where: str = "") -> None:
-    """One clear line for a bad entry (never a traceback)."""
+    """One clear line for a bad entry (never a traceback); user text in it is escaped."""
     prefix = f"{where}: " if where else ""
-    st.error(prefix + str(err), icon=":material/error:")
+    st.error(md(prefix + str(err)), icon=":material/error:")
 
 
 # ---- downloads -----------------------------------------------------------------------
