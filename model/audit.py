@@ -524,7 +524,8 @@ def _numpy_engine(recs: Records, high_flow_l_min: float):
     n_agents = max(len(agent_names), 1)
     gkey = cv * n_agents + agent_code
     step = np.diff(gkey)
-    if m and bool(np.all(step >= 0)):  # groups already contiguous: no second sort
+    contiguous = m > 0 and bool(np.all(step >= 0))
+    if contiguous:  # groups already contiguous: no second sort
         first = np.concatenate(([0], np.flatnonzero(step) + 1))
         uniq = gkey[first]
         inv = np.cumsum(np.concatenate(([0], step != 0)))
@@ -535,8 +536,11 @@ def _numpy_engine(recs: Records, high_flow_l_min: float):
     def gsum(weights):
         return np.bincount(inv, weights=weights, minlength=g)
 
-    longest = np.zeros(g)
-    np.maximum.at(longest, inv[high], run_len[high])
+    if contiguous:
+        longest = np.maximum.reduceat(np.where(high, run_len, 0.0), first) if g else np.zeros(0)
+    else:
+        longest = np.zeros(g)
+        np.maximum.at(longest, inv[high], run_len[high])
     edges = np.array([upper for _, upper in FLOW_BANDS[:-1]])
     band = np.searchsorted(edges, fgf, side="left")  # the rule of model.freshgas.flow_band
     band_min = np.bincount(inv * len(FLOW_BANDS) + band, weights=dt,
@@ -544,7 +548,7 @@ def _numpy_engine(recs: Records, high_flow_l_min: float):
     vfirst = vidx[first]
     theatre = _column(table, "theatre").take(vfirst).fill_null("unknown").to_pylist()
     month = _column(table, "month").take(vfirst)
-    month = [("unknown" if x is None else x.strftime("%Y-%m")) for x in month.to_pylist()]
+    month = pc.strftime(pc.cast(month, "timestamp[s]"), "%Y-%m").fill_null("unknown").to_pylist()
     # The first valid sample of a group is its earliest (valid samples rise in time).
     start = pd.to_datetime(pd.Series(_column(table, "start_hint").take(vfirst).to_pandas())).to_numpy()
     raw = pd.DataFrame({

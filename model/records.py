@@ -639,9 +639,6 @@ def read_records(paths, *, reference: Reference = DEFAULT_REFERENCE,
             amap.append((raw, "none", 0.0))
         elif key in reference.agents and reference.agents[key].kind == "volatile":
             amap.append((raw, key, float(reference.agents[key].vaporizer_max)))
-    con.execute("CREATE OR REPLACE TEMP TABLE agent_map (agent_raw VARCHAR, agent VARCHAR, max_dial DOUBLE)")
-    if amap:
-        con.executemany("INSERT INTO agent_map VALUES (?, ?, ?)", amap)
     agent_case = ("CASE agent_raw " + " ".join(f"WHEN {_sql_str(r)} THEN {_sql_str(k)}" for r, k, _ in amap)
                   + " END") if amap else "NULL::VARCHAR"
     dial_case = ("CASE agent_raw " + " ".join(f"WHEN {_sql_str(r)} THEN {d!r}" for r, _, d in amap)
