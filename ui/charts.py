@@ -133,31 +133,29 @@ def timecourse_figure(tc: pd.DataFrame | None, o2_floor_pct: float | None = None
 def sweep_figure(sweep: pd.DataFrame, flow_col: str, cost_col: str, co2e_col: str,
                  best_cost: float | None, best_co2e: float | None, currency: str,
                  co2e_scale: float = 1.0, co2e_unit: str = "kg CO2e", feasible=None) -> go.Figure:
-    """Cost and CO2e against maintenance fresh gas flow, with the lowest of each marked.
+    """Cost and CO2e against the varied phase's fresh gas flow, side by side, lowest of each marked.
 
     Points that are not candidates (``feasible`` False: inspired O2 under the floor or the
     depth not held) are drawn as hollow markers.
     """
     ok = np.ones(len(sweep), bool) if feasible is None else np.asarray(feasible, bool)
     symbols = np.where(ok, "circle", "circle-open")
-    fig = make_subplots(specs=[[{"secondary_y": True}]], figure=_fig())
-    fig.add_trace(go.Scatter(x=sweep[flow_col], y=sweep[cost_col], name=f"cost ({chart_text(currency)})",
-                             mode="lines+markers", marker=dict(symbol=symbols, size=8),
-                             line=dict(color=PALETTE[0], width=2.5)), secondary_y=False)
-    fig.add_trace(go.Scatter(x=sweep[flow_col], y=sweep[co2e_col] * co2e_scale, name=co2e_unit,
-                             mode="lines+markers", marker=dict(symbol=symbols, size=8),
-                             line=dict(color=PALETTE[3], width=2.5, dash="dot")),
-                  secondary_y=True)
-    for flow, label, color, pos in ((best_cost, "lowest cost", PALETTE[0], "top right"),
-                                    (best_co2e, "lowest CO2e", PALETTE[3], "bottom right")):
-        if flow is not None and np.isfinite(flow):
-            fig.add_vline(x=flow, line=dict(color=color, dash="dash", width=1.5),
-                          annotation_text=f"{label}: {flow:.2g} L/min", annotation_position=pos,
-                          annotation_font_color=color)
-    fig.update_xaxes(title_text="fresh gas flow of the varied phase (L/min)")
-    fig.update_yaxes(title_text=f"cost ({chart_text(currency)})", secondary_y=False)
-    fig.update_yaxes(title_text=co2e_unit, secondary_y=True)
-    return _style(fig, "Flow sweep", 380)
+    cur = chart_text(currency)
+    fig = make_subplots(rows=1, cols=2, horizontal_spacing=0.1, figure=_fig(),
+                        subplot_titles=[f"Cost of the case ({cur})", f"Emissions of the case ({co2e_unit})"])
+    panels = ((1, sweep[cost_col], PALETTE[0], best_cost, "lowest cost", "%{y:,.2f} " + cur),
+              (2, sweep[co2e_col] * co2e_scale, PALETTE[3], best_co2e, "lowest CO2e", "%{y:,.2f} " + co2e_unit))
+    for col, y, colour, best, label, fmt in panels:
+        fig.add_trace(go.Scatter(x=sweep[flow_col], y=y, mode="lines+markers", name=label.split()[1],
+                                 marker=dict(symbol=symbols, size=9, color=colour, line=dict(width=2, color=colour)),
+                                 line=dict(color=colour, width=2.5), showlegend=False,
+                                 hovertemplate="%{x:g} L/min: " + fmt + "<extra></extra>"), row=1, col=col)
+        if best is not None and np.isfinite(best):
+            fig.add_vline(x=best, line=dict(color=colour, dash="dash", width=1.5), row=1, col=col,
+                          annotation_text=f"{label}: {best:.2g} L/min", annotation_position="top right",
+                          annotation_font_color=colour)
+        fig.update_xaxes(title_text="fresh gas flow (L/min)", row=1, col=col)
+    return _style(fig, "", 360)
 
 
 def grouped_bars(df: pd.DataFrame, category: str, value_cols: list[str], title: str,

@@ -235,7 +235,7 @@ def downloads(name: str, tables: Mapping[str, pd.DataFrame], report: Callable[[]
     """
     slug = _slug(name)
     first_name, first = next(iter(tables.items()))
-    c1, c2, c3, _ = st.columns([1, 1, 1, 2])
+    c1, c2, c3, _ = st.columns([1, 1, 1.5, 1])
     c1.download_button("CSV", data=to_csv(first), file_name=f"{slug}-{_slug(first_name)}.csv",
                        mime="text/csv", key=f"{key}_csv", on_click="ignore",
                        icon=":material/download:", help=f"The '{first_name}' table as CSV")
