@@ -203,3 +203,19 @@ def test_hostile_plan_name_never_reaches_markdown_unescaped(isolated_store):
         # Markdown sources only ever hold the escaped form: no raw tag, no live link.
         assert not any(re.search(r"(?<!\\)<img", v) for v in shown)
         assert not any(re.search(r"(?<!\\)\]\(javascript", v) for v in shown)
+
+
+def test_sidebar_gwp_horizon_and_flow_unit_apply():
+    at = page("case_plan.py")
+    before = metric(at, "Emissions")
+    liquid = metric(at, "Liquid agent")
+    at.radio(key="gl_horizon").set_value("20 years")
+    at.run()
+    assert not at.exception
+    # Source: IPCC AR6 WG1 Table 7.SM.7 - every volatile agent's GWP20 exceeds its GWP100.
+    assert metric(at, "Emissions") > before
+    at.selectbox(key="gl_flow_unit").select("mL/min")
+    at.run()
+    assert not at.exception
+    assert "mL/min" in at.data_editor[0].value["O2"].iloc[1]
+    assert metric(at, "Liquid agent") == liquid      # the same plan, only shown differently
