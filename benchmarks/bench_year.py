@@ -29,8 +29,11 @@ GOAL_S = 1.0
 def thirty_type_scenario():
     base = load_scenario(ROOT / "demo_data" / "year" / "proposal_half_litre.toml")
     src = base.casemix.types
+    # Every type distinct (its own median duration), so no two share a simulation.
     types = tuple(replace(src[i % len(src)], name=f"{src[i % len(src)].name} #{i + 1}",
-                          cases_per_year=50 + 37 * i) for i in range(TYPES))
+                          cases_per_year=50 + 37 * i,
+                          median_min=src[i % len(src)].median_min * (1.0 + 0.05 * (i // len(src))))
+                  for i in range(TYPES))
     return replace(base, casemix=replace(base.casemix, types=types),
                    sampling=Sampling(draws=DRAWS, seed=1, price_spread=0.1,
                                      gwp_sources=("ar6_gwp100", "ar5_gwp100", "sulbaek_andersen_2012")))

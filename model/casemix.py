@@ -185,10 +185,6 @@ def case_type_from_row(row: Mapping[str, object], plan_for: Callable[[str, str],
     if not plan_name:
         raise InputError(f"{where}, plan", "nothing", "name the case plan file of this type's flow practice")
     plan = plan_for(plan_name, f"{where}, plan")
-    for i, p in enumerate(plan.phases, start=1):
-        if p.dial_pct is None:
-            raise InputError(f"{where}, plan", plan_name,
-                             f"phase {i} has an end-tidal target; the year model reads dial settings")
     plan = replace(plan, patient=replace(plan.patient, weight_kg=weight, age_years=age))
     ctype = CaseType(name, count, median, spread, shares, n2o, plan, plan_name, band, weight, age)
     if median <= ctype.fixed_min:

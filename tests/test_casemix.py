@@ -20,7 +20,7 @@ def _plans(name, where):
 
 def test_demo_casemix_reads_every_type():
     mix = load_casemix(YEAR / "fernhollow_casemix.csv")
-    assert len(mix.types) == 10
+    assert len(mix.types) == 11
     assert mix.cases_per_year == sum(t.cases_per_year for t in mix.types)
     for t in mix.types:
         assert sum(t.agent_shares.values()) == pytest.approx(1.0)
@@ -90,3 +90,10 @@ def test_blank_rows_in_an_edited_table_are_skipped():
     mix = load_casemix(YEAR / "fernhollow_casemix.csv")
     frame = pd.concat([casemix_to_frame(mix), pd.DataFrame([{c: None for c in casemix_to_frame(mix).columns}])])
     assert len(casemix_from_frame(frame, mix.plans).types) == len(mix.types)
+
+
+def test_a_plan_with_an_end_tidal_target_is_a_valid_case_type():
+    # The year runs plans through the circle model, which finds the dial for a target.
+    text = HEADER + "Laparotomy,100,150,0.4,1,0,0,plans/adult_target_2l.toml\n"
+    t = parse_casemix_text(text, "mix.csv", _plans).types[0]
+    assert t.plan.phases[t.stretch_index].mode == "target"
