@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import math
 import sys
 
 from .errors import InputError
@@ -76,7 +77,12 @@ def cmd_case(args) -> int:
         ("Liquid agent", f"{t['liquid_agent_ml']:.1f} mL ({t['bottles']:.2f} bottles)"),
         ("Agent mass", f"{t['agent_mass_g']:.1f} g"),
         ("Oxygen / air / N2O", f"{t['oxygen_l']:.0f} / {t['air_l']:.0f} / {t['nitrous_oxide_l']:.0f} L"),
-        ("Absorbent", f"{t['absorbent_g']:.0f} g"),
+        ("Absorbent", f"{t['absorbent_g']:.0f} g ({t.get('co2_absorbed_l', 0.0):.1f} L CO2 absorbed)"),
+        ("Agent taken up", f"{t.get('agent_uptake_g', 0.0):.1f} g by the patient "
+                           f"(metabolised {t.get('agent_metabolised_g', 0.0):.2f} g)"),
+        ("Inspired O2, lowest", f"{t.get('min_inspired_o2_pct', float('nan')):.0f} % at "
+                                f"{t.get('min_inspired_o2_time_min', float('nan')):.0f} min "
+                                f"(floor {t.get('inspired_o2_floor_pct', 30.0):.0f} %)"),
         (f"CO2e ({result.gwp_label})", f"{t['co2e_total_kg']:.2f} kg "
                                        f"(agent {t['co2e_agent_kg']:.2f}, N2O {t['co2e_nitrous_oxide_kg']:.2f})"),
         ("Cost", f"{t['cost_total']:.2f} {cur} (agent {t['cost_agent']:.2f}, gases "
@@ -84,6 +90,11 @@ def cmd_case(args) -> int:
                  f"absorbent {t['cost_absorbent']:.2f})"),
         ("MAC-hours", f"{t['mac_hours']:.2f}"),
     ]
+    safe = t.get("lowest_safe_fd_o2_pct")
+    if safe is not None and math.isfinite(safe):
+        at = next(i for i, (k, _) in enumerate(rows) if k == "Inspired O2, lowest") + 1
+        rows.insert(at, ("Lowest safe fresh gas O2", f"{safe:.0f} % at the longest phase's flow "
+                                                     f"(keeps inspired O2 above the floor at steady state)"))
     width = max(len(k) for k, _ in rows)
     for k, v in rows:
         print(f"{k.ljust(width)}  {v}")
