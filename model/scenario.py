@@ -41,8 +41,11 @@ class Practice:
     """A change of practice and the share of cases that really follow it.
 
     ``maintenance_flow_l_min`` sets the total fresh gas flow of each plan's stretched phase
-    (O2, air and N2O keep their proportions); ``dial_factor`` multiplies that phase's dial
-    setting (at a lower flow a higher dial keeps the same end-tidal agent); ``switch_from``
+    (O2, air and N2O keep their proportions); ``maintenance_o2_share`` sets the share of that
+    phase's flow on the O2 flowmeter (the rest keeps the plan's air : N2O proportion, air if
+    the plan has neither), since a low flow needs a richer O2 mix to keep inspired O2 up;
+    ``dial_factor`` multiplies that phase's dial setting in "dial" mode (at a lower flow a
+    higher dial keeps the same end-tidal agent; a "target" phase needs no factor); ``switch_from``
     -> ``switch_to`` moves one agent's share of cases to another. Cases that do not follow
     the change keep the plan as written. Adherence is a triangular distribution with mode
     ``adherence`` between ``adherence_low`` and ``adherence_high``.
@@ -55,11 +58,12 @@ class Practice:
     adherence: float = 1.0
     adherence_low: float = 1.0
     adherence_high: float = 1.0
+    maintenance_o2_share: float | None = None
 
     @property
     def changes_anything(self) -> bool:
         return (self.maintenance_flow_l_min is not None or self.dial_factor != 1.0
-                or self.switch_from is not None)
+                or self.switch_from is not None or self.maintenance_o2_share is not None)
 
 
 @dataclass(frozen=True)
@@ -120,6 +124,7 @@ class _SwitchIn(_Strict):
 
 class _PracticeIn(_Strict):
     maintenance_flow: Annotated[float | None, _quantity("L/min", 0.0, 20.0, low_open=True)] = None
+    maintenance_o2_share: Annotated[float | None, Share] = None
     dial_factor: Annotated[float, _quantity("dimensionless", 0.0, 5.0, low_open=True, shown_unit="")] = 1.0
     switch_agent: _SwitchIn | None = None
     adherence: Annotated[float | None, Share] = None
@@ -232,7 +237,8 @@ def scenario_from_dict(data: Mapping, source: str = "scenario", base_dir: Path |
         switch_to=p.switch_agent.to if p.switch_agent else None,
         adherence=mode,
         adherence_low=mode if p.adherence_low is None else p.adherence_low,
-        adherence_high=mode if p.adherence_high is None else p.adherence_high)
+        adherence_high=mode if p.adherence_high is None else p.adherence_high,
+        maintenance_o2_share=p.maintenance_o2_share)
     u = raw.uncertainty
     scenario = Scenario(
         name=raw.name, casemix=casemix, practice=practice, gwp_source=raw.gwp_source,

@@ -143,8 +143,9 @@ def stretch_minutes_moments(median_min, spread, fixed_min):
 def practised_plan(ctype: CaseType, scenario: Scenario):
     """The type's plan and agent shares for cases that follow the scenario's practice change.
 
-    The maintenance flow scales the stretched phase's O2, air and N2O flows alike; the dial
-    factor multiplies its dial setting in "dial" mode (in "target" mode the circle model
+    The maintenance flow scales the stretched phase's O2, air and N2O flows alike (then the
+    O2 share, if set, splits that flow between O2 and the rest); the dial factor multiplies
+    its dial setting in "dial" mode (in "target" mode the circle model
     finds the dial that holds the end-tidal target at the new flow).
     """
     pr = scenario.practice
@@ -156,6 +157,14 @@ def practised_plan(ctype: CaseType, scenario: Scenario):
         scale = pr.maintenance_flow_l_min / phase.fgf_l_min
         changes.update(o2_l_min=phase.o2_l_min * scale, air_l_min=phase.air_l_min * scale,
                        n2o_l_min=phase.n2o_l_min * scale)
+    if pr.maintenance_o2_share is not None:
+        total = pr.maintenance_flow_l_min if pr.maintenance_flow_l_min is not None else phase.fgf_l_min
+        air, n2o = changes.get("air_l_min", phase.air_l_min), changes.get("n2o_l_min", phase.n2o_l_min)
+        rest = total * (1.0 - pr.maintenance_o2_share)
+        other = air + n2o
+        changes.update(o2_l_min=total * pr.maintenance_o2_share,
+                       air_l_min=rest * air / other if other > 0 else rest,
+                       n2o_l_min=rest * n2o / other if other > 0 else 0.0)
     if pr.dial_factor != 1.0 and phase.dial_pct is not None:
         changes["dial_pct"] = phase.dial_pct * pr.dial_factor
     if changes:
@@ -511,7 +520,7 @@ def _assemble(scenario: Scenario, ref: Reference, subplans: list[SubPlan], cols,
                                         [t.fixed_min for t in types])
     e_f = np.zeros((2, n_types, len(QUANTITIES)))
     cov = np.zeros_like(e_f)
-    warnings: dict[str, None] = {}
+    warnings: dict[str, dict] = {}   # caution text -> case types it applies to
     r2 = [1.0]
     for sub, where in zip(subplans, cols):
         t = types[sub.type_index]
@@ -552,7 +561,7 @@ def _assemble(scenario: Scenario, ref: Reference, subplans: list[SubPlan], cols,
         adherence=(pr.adherence_low, pr.adherence, pr.adherence_high) if changed else (1.0, 1.0, 1.0),
         month_weights=weights / weights.sum(), car_kg_per_km=scenario.car_kg_per_km,
         currency=prices.currency, gwp_label=ref.gwp_source(scenario.gwp_source).label,
-        warnings=list(warnings), subplans=subplans,
+        warnings=[f"{', '.join(names)}: {text}" for text, names in warnings.items()], subplans=subplans,
         variance_explained=float(np.clip(min(r2), 0.0, 1.0)))
 
 
@@ -563,7 +572,12 @@ def _subplan_warnings(out: dict, ctype: CaseType, sub: SubPlan, where, groups) -
     plan, s = sub.plan, sub.plan.settings
     floor_pct = s.inspired_o2_floor * 100.0
     label = DEFAULT_REFERENCE.agents[sub.agent].label.lower()
-    who = f"{ctype.name}{' (changed practice)' if sub.variant else ''}, {label}{' with N2O' if sub.with_n2o else ''}"
+    # Keyed by the text without the type's name, so types with the same caution share a line.
+    who = f"{'changed practice, ' if sub.variant else ''}{label}{' with N2O' if sub.with_n2o else ''}"
+
+    def add(text):
+        out.setdefault(text, {})[ctype.name] = None
+
     gkey, c0 = where[-1]
     g = groups[gkey]
     sim, off = g["sim"], int(g["offsets"][c0])
@@ -574,47 +588,46 @@ def _subplan_warnings(out: dict, ctype: CaseType, sub: SubPlan, where, groups) -
         safe = float(sim["phase_lowest_safe_fd_o2"][row, c0])
         at = f"{who}, {p.name}"
         if bool(sim["phase_altered"][row, c0]):
-            out[f"{at}: the O2/N2O ratio limit altered the requested mix"] = None
+            add(f"{at}: the O2/N2O ratio limit altered the requested mix")
         if sub.agent == "sevoflurane" and fgf < s.sevoflurane_min_flow_l_min - 1e-12:
-            out[f"{at}: {fgf:.2f} L/min is under the set sevoflurane minimum of "
-                f"{s.sevoflurane_min_flow_l_min:g} L/min; follow local protocol and labelling"] = None
+            add(f"{at}: {fgf:.2f} L/min is under the set sevoflurane minimum of "
+                f"{s.sevoflurane_min_flow_l_min:g} L/min; follow local protocol and labelling")
         if fd_o2 < s.inspired_o2_floor - 1e-12:
-            out[f"{at}: fresh gas O2 {fd_o2 * 100:.0f} % is under the inspired O2 floor of "
-                f"{floor_pct:.0f} %; inspired O2 in a circle is lower still"] = None
+            add(f"{at}: fresh gas O2 {fd_o2 * 100:.0f} % is under the inspired O2 floor of "
+                f"{floor_pct:.0f} %; inspired O2 in a circle is lower still")
         elif math.isfinite(safe) and fd_o2 < safe - 1e-9:
-            out[f"{at}: at {fgf:.2f} L/min, fresh gas O2 {fd_o2 * 100:.0f} % is under the {safe * 100:.0f} % "
-                f"that keeps inspired O2 above {floor_pct:.0f} % at steady state"] = None
+            add(f"{at}: at {fgf:.2f} L/min, fresh gas O2 {fd_o2 * 100:.0f} % is under the {safe * 100:.0f} % "
+                f"that keeps inspired O2 above {floor_pct:.0f} % at steady state")
         elif not math.isfinite(safe):
-            out[f"{at}: fresh gas flow {fgf:.2f} L/min does not exceed the O2 consumption; no fresh gas "
-                f"mix keeps inspired O2 above {floor_pct:.0f} %"] = None
+            add(f"{at}: fresh gas flow {fgf:.2f} L/min does not exceed the O2 consumption; no fresh gas "
+                f"mix keeps inspired O2 above {floor_pct:.0f} %")
         if p.target_mac is not None:
             reach = [g2["sim"]["phase_time_to_target_min"][int(g2["offsets"][c]) + j, c]
                      for g2, c in ((groups[k], c) for k, c in where)
                      if g2["sim"]["phase_minutes"][int(g2["offsets"][c]) + j, c] > 0]
             if any(not math.isfinite(r) for r in reach):
-                out[f"{at}: the end-tidal target of {p.target_mac:g} MAC is not reached within the phase "
+                add(f"{at}: the end-tidal target of {p.target_mac:g} MAC is not reached within the phase "
                     f"at {fgf:.2f} L/min (vaporizer maximum {DEFAULT_REFERENCE.agents[sub.agent].vaporizer_max:g} "
-                    f"%); raise the flow or allow longer"] = None
+                    f"%); raise the flow or allow longer")
     worst = None
     for gk, c in where:
         tot = groups[gk]["tot"]
         fio2 = float(tot["min_inspired_o2_pct"][c])
         if fio2 < floor_pct and (worst is None or fio2 < worst[0]):
-            worst = (fio2, float(tot["min_inspired_o2_time_min"][c]), float(tot["duration_min"][c]))
+            worst = (fio2,)
         if float(tot["o2_shortfall_l"][c]) > 1e-6:
-            out[f"{who}: the circle runs out of O2 for the patient's consumption; O2 inflow must at "
-                f"least match consumption"] = None
+            add(f"{who}: the circle runs out of O2 for the patient's consumption; O2 inflow must at "
+                f"least match consumption")
         k = sub.stretch_index
         stretch_fgf = float(groups[gk]["sim"]["phase_fgf_l_min"][int(groups[gk]["offsets"][c]) + k, c])
         if (sub.agent == "sevoflurane" and float(tot["end_tidal_mac_hours"][c]) > 1.0
                 and stretch_fgf < s.sevoflurane_min_flow_long_l_min - 1e-12):
-            out[f"{who}: cases beyond 1 MAC-hour run sevoflurane at {stretch_fgf:.2f} L/min in "
+            add(f"{who}: cases beyond 1 MAC-hour run sevoflurane at {stretch_fgf:.2f} L/min in "
                 f"{plan.phases[k].name}, under the set minimum of {s.sevoflurane_min_flow_long_l_min:g} L/min; "
-                f"follow local protocol and labelling"] = None
+                f"follow local protocol and labelling")
     if worst is not None:
-        out[f"{who}: predicted inspired O2 falls to {worst[0]:.0f} % (at {worst[1]:.0f} min of a "
-            f"{worst[2]:.0f}-min case), under the floor of {floor_pct:.0f} %: hypoxic mixture; raise the "
-            f"O2 share or the flow"] = None
+        add(f"{who}: predicted inspired O2 falls to {worst[0]:.0f} %, under the floor of {floor_pct:.0f} %: "
+            f"hypoxic mixture; raise the O2 share or the flow")
 
 
 # --------------------------------------------------------------------------------------

@@ -65,8 +65,14 @@ with st.expander("Practice change and uncertainty", expanded=False, icon=":mater
     use_flow = c1.checkbox("Set maintenance flow", value=p.maintenance_flow_l_min is not None, key=f"dy_uf_{name}")
     flow = c1.number_input("Maintenance flow (L/min)", 0.1, 10.0, p.maintenance_flow_l_min or 2.0, 0.1,
                            key=f"dy_flow_{name}", disabled=not use_flow)
+    use_o2 = c1.checkbox("Set O2 share of that flow", value=p.maintenance_o2_share is not None, key=f"dy_uo_{name}",
+                         help="A low flow needs a richer O2 mix to keep inspired O2 above the floor.")
+    o2_pct = c1.number_input("O2 flowmeter share of maintenance flow (%)", 21.0, 100.0,
+                             float((p.maintenance_o2_share or 0.8) * 100), 5.0, key=f"dy_o2_{name}",
+                             disabled=not use_o2)
     dial_factor = c1.number_input("Dial factor in maintenance", 0.5, 3.0, p.dial_factor, 0.05, key=f"dy_df_{name}",
-                                  help="Multiplies the maintenance dial setting; a lower flow needs a higher dial.")
+                                  help="Multiplies the maintenance dial setting; a lower flow needs a higher dial. "
+                                       "Plans with an end-tidal target need none: the model finds the dial.")
     switch = c2.checkbox("Move desflurane cases to sevoflurane", value=p.switch_from == "desflurane",
                          key=f"dy_sw_{name}")
     adh = c2.slider("Adherence: low, likely, high (%)", 0, 100,
@@ -86,7 +92,8 @@ with st.expander("Practice change and uncertainty", expanded=False, icon=":mater
 low, high = adh[0] / 100, adh[1] / 100
 mode = min(max(mode / 100, low), high)
 practice = Practice(flow if use_flow else None, dial_factor, "desflurane" if switch else None,
-                    "sevoflurane" if switch else None, mode, low, high)
+                    "sevoflurane" if switch else None, mode, low, high,
+                    maintenance_o2_share=o2_pct / 100 if use_o2 else None)
 scenario = replace(yv.scenario_for_view(base, view, mix), practice=practice,
                    sampling=Sampling(int(draws), int(seed), float(spread), tuple(gwps)),
                    car_kg_per_km=float(car), car_source=car_source.strip() or base.car_source)

@@ -15,8 +15,8 @@ from model.plan import load_plan
 from model.reference import DEFAULT_REFERENCE
 from model.scenario import DAYS_PER_MONTH, Sampling, Scenario, load_scenario, parse_scenario_text
 from model.year import (NODE_Z, QUANTITIES, compare_years, compute_year, duration_nodes, headline_figures,
-                        interpolate_nodes, piecewise_linear_moments, stretch_minutes_moments, triangular_ppf,
-                        year_inputs)
+                        interpolate_nodes, piecewise_linear_moments, practised_plan, stretch_minutes_moments,
+                        triangular_ppf, year_inputs)
 
 ROOT = Path(__file__).resolve().parents[1]
 YEAR = ROOT / "demo_data" / "year"
@@ -335,9 +335,25 @@ def test_target_mode_case_type_of_the_demo_runs_through_the_circle_model():
     assert any("end-tidal target" in n for n in result.notes)
 
 
-def test_low_flow_practice_warns_of_hypoxic_inspired_o2():
+def test_low_flow_practice_warns_of_hypoxic_inspired_o2_unless_the_o2_share_rises():
     # The textbook hypoxic case (DESIGN.md 3.3): 0.5 L/min with about 50 % O2 while the
-    # patient consumes about 0.25 L/min O2; the year reports it from the circle model.
-    s = load_scenario(YEAR / "baseline_2l.toml").with_practice(maintenance_flow_l_min=0.5)
-    warnings = compute_year(s, draws=10).warnings
-    assert any("predicted inspired O2 falls to" in w for w in warnings)
+    # patient consumes about 0.25 L/min O2; the year reports it from the circle model. With
+    # 80 % of the flow as O2 the steady-state balance keeps inspired O2 above 30 %.
+    base = load_scenario(YEAR / "baseline_2l.toml")
+    lean = compute_year(base.with_practice(maintenance_flow_l_min=0.5), draws=10).warnings
+    assert any("changed practice, sevoflurane: predicted inspired O2 falls to" in w for w in lean)
+    rich = compute_year(base.with_practice(maintenance_flow_l_min=0.5, maintenance_o2_share=0.8), draws=10).warnings
+    assert not any("changed practice, sevoflurane: predicted inspired O2" in w for w in rich)
+    assert any("changed practice, sevoflurane, maintenance: 0.50 L/min is under" in w for w in rich)
+
+
+def test_o2_share_splits_the_practice_flow():
+    base = load_scenario(YEAR / "proposal_half_litre.toml")
+    assert base.practice.maintenance_o2_share == pytest.approx(0.8)
+    t = base.casemix.types[0]
+    plan, _ = practised_plan(t, base)
+    m = plan.phases[t.stretch_index]
+    assert (m.o2_l_min, m.air_l_min, m.n2o_l_min) == pytest.approx((0.4, 0.1, 0.0))
+    with pytest.raises(InputError, match="practice.maintenance_o2_share"):
+        parse_scenario_text('case_mix = "fernhollow_casemix.csv"\n[practice]\nmaintenance_o2_share = 1.5\n',
+                            "s.toml", YEAR)
