@@ -119,15 +119,28 @@ def wait_metric_change(pg, label: str, old: str) -> str:
 
 
 def edit_cell(pg, row: int, column: int, text: str) -> None:
-    """Type into the phases table: select the row's first cell, move right, type, Enter."""
+    """Type into the phases table: select the row's first cell, move right, open the cell's
+    editor, replace its text, Enter. Retries the selection if the editor did not open (the
+    grid may still be drawing on a loaded machine)."""
     grid = pg.locator('[data-testid="stDataFrame"]').first
-    grid.scroll_into_view_if_needed()
-    box = grid.bounding_box()
-    pg.mouse.click(box["x"] + 80, box["y"] + ROW_HEIGHT * (row + 1) + ROW_HEIGHT / 2)
-    for _ in range(column):
-        pg.keyboard.press("ArrowRight")
-    pg.keyboard.press("Enter")              # open the cell's editor with its current text
-    pg.wait_for_timeout(400)
+    grid.wait_for(state="visible")
+    editor = pg.locator("textarea.gdg-input, #portal textarea").last
+    for _attempt in range(4):
+        grid.scroll_into_view_if_needed()
+        box = grid.bounding_box()
+        pg.mouse.click(box["x"] + 80, box["y"] + ROW_HEIGHT * (row + 1) + ROW_HEIGHT / 2)
+        pg.wait_for_timeout(300)
+        for _ in range(column):
+            pg.keyboard.press("ArrowRight")
+        pg.keyboard.press("Enter")              # open the cell's editor with its current text
+        try:
+            editor.wait_for(state="visible", timeout=5000)
+            break
+        except Exception:
+            pg.keyboard.press("Escape")
+            pg.wait_for_timeout(1000)
+    else:
+        raise AssertionError("the phases table's cell editor did not open")
     pg.keyboard.press("ControlOrMeta+a")
     pg.keyboard.type(text, delay=20)
     pg.keyboard.press("Enter")
