@@ -888,6 +888,7 @@ def _by_type(inp: YearInputs, central_minutes_share: float) -> pd.DataFrame:
         "oxygen_l": year[:, _Q["oxygen_l"]],
         "air_l": year[:, _Q["air_l"]],
         "nitrous_oxide_l": year[:, _Q["nitrous_oxide_l"]],
+        "absorbent_kg": year[:, _Q["absorbent_g"]] / 1000.0,
         "co2e_t": co2e_kg / 1000.0,
         "cost_pro_rata": cost,
     })

@@ -29,6 +29,13 @@ def test_year_json_is_machine_readable(capsys):
     assert data["bands"]["cost_total"]["p5"] <= data["bands"]["cost_total"]["p95"]
     assert len(data["monthly"]) == 12
     assert data["car_factor_source"]
+    # The notes say what the year models (the circle model, uptake, metabolism, absorbent).
+    notes = " ".join(data["notes"])
+    for text in ("circle-system model", "end-tidal target", "metabolised share of the patient's uptake",
+                 "CO2 absorbent", "inspired O2", "interpolated"):
+        assert text in notes
+    assert "not modelled" not in notes and "not subtracted" not in notes
+    assert data["totals"]["emitted_kg_sevoflurane"] > 0
 
 
 def test_compare_json_gives_paired_difference(capsys):
