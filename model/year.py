@@ -396,13 +396,15 @@ def simulate_subplans(subplans: list[SubPlan], ref: Reference) -> dict:
     columns then go through :func:`model.case.simulation_totals`, as in
     :func:`model.case.compute_case`. Phases are aligned on the stretched phase: a plan with
     fewer phases before (after) it gets zero-minute phases in front (at the end) that copy
-    its first (last) phase's flows at dial 0, which leave the simulated case unchanged.
+    its first (last) phase's flows, in dial mode (the first phase's dial, or 0 when that phase
+    holds a target, as the simulation starts), which leave the simulated case unchanged.
 
     Returns
     -------
     dict
-        ``(group key, column index)`` -> the column's simulation facts used by the warnings:
-        a dict of numpy scalars/arrays (``sim``, ``totals``, ``offset``).
+        ``groups``: group key -> ``q`` (columns x QUANTITIES), ``sim`` and ``tot`` (the
+        simulation and its totals), ``offsets`` (padding in front of each column);
+        ``where``: (sub-plan index, node index, group key, column index) for every node.
     """
     groups: dict[tuple, dict] = {}
     where = []

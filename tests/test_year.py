@@ -357,3 +357,25 @@ def test_o2_share_splits_the_practice_flow():
     with pytest.raises(InputError, match="practice.maintenance_o2_share"):
         parse_scenario_text('case_mix = "fernhollow_casemix.csv"\n[practice]\nmaintenance_o2_share = 1.5\n',
                             "s.toml", YEAR)
+
+
+def test_plans_with_different_phase_layouts_share_a_call_without_changing_their_cases():
+    # A plan with an extra phase before maintenance is padded against the others in the
+    # agent's one simulate_cases call; each type still equals compute_case at its median.
+    plan = load_plan(PLANS / "lap_chole_low_flow.toml")
+    extra = replace(plan, phases=(replace(plan.phases[0], name="pre-oxygenation", minutes=3.0, o2_l_min=6.0,
+                                          air_l_min=0.0, dial_pct=0.0),) + plan.phases)
+    plans = {"a.toml": plan, "b.toml": extra}
+    mix = parse_casemix_text(HEADER + "A,100,90,0,1,0,0,0,a.toml\nB,50,90,0,1,0,0,0,b.toml\n", "mix",
+                             lambda name, where: plans[name])
+    year = compute_year(Scenario("layouts", mix, sampling=Sampling(draws=5))).totals
+    want = {"liquid_agent_ml": 0.0, "oxygen_l": 0.0, "absorbent_g": 0.0, "agent_emitted_g": 0.0}
+    for t in mix.types:
+        c = _case_at(t.plan, t.median_min, t.stretch_index)
+        for k in want:
+            want[k] += t.cases_per_year * c[k]
+    assert mix.types[1].stretch_index == 2
+    assert year["liquid_ml_sevoflurane"] == pytest.approx(want["liquid_agent_ml"], rel=1e-12)
+    assert year["oxygen_l"] == pytest.approx(want["oxygen_l"], rel=1e-12)
+    assert year["absorbent_kg"] * 1000 == pytest.approx(want["absorbent_g"], rel=1e-12)
+    assert year["emitted_kg_sevoflurane"] * 1000 == pytest.approx(want["agent_emitted_g"], rel=1e-4)
