@@ -223,7 +223,7 @@ class SubPlan:
 #: is simulated at ``median x exp(spread x z)`` for these ``z`` (a numerical choice, no
 #: source). Per-case totals between nodes are interpolated linearly in the stretched minutes
 #: and extrapolated linearly beyond the outer nodes; against direct simulation of the
-#: Fernhollow mix at random durations the error is under 0.5 % (tests/test_year.py).
+#: Fernhollow mix at random durations the error is under 0.6 % (tests/test_year.py checks 1 %).
 NODE_Z = (-2.5, -1.25, 0.0, 1.25, 2.5)
 
 
