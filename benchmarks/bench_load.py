@@ -8,7 +8,7 @@ and the response (Enter pressed until the new figure shows) per session: median,
 percentile and worst. Figures are reported, never asserted; tests/test_load.py runs a small
 version and checks that every session finishes without an error.
 
-    .venv/bin/python benchmarks/bench_load.py            # 20 sessions, all at once
+    .venv/bin/python benchmarks/bench_load.py            # 20 sessions, 5 at a time
     .venv/bin/python benchmarks/bench_load.py --sessions 40 --concurrency 10
 
 Only loopback addresses are contacted; the run is bounded in sessions and in time.
@@ -267,14 +267,14 @@ def _figures(values: list[float]) -> str:
 def main(argv=None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--sessions", type=int, default=20)
-    parser.add_argument("--concurrency", type=int, default=None, help="sessions at once (default: all)")
+    parser.add_argument("--concurrency", type=int, default=5, help="sessions at once (default: 5)")
     parser.add_argument("--timeout", type=float, default=60.0, help="bound on each step [s]")
     args = parser.parse_args(argv)
-    if not 1 <= args.sessions <= 200:
-        parser.error("--sessions must be 1-200 (the run stays bounded)")
+    if not 1 <= args.sessions <= 200 or not 1 <= args.concurrency <= 50:
+        parser.error("--sessions must be 1-200 and --concurrency 1-50 (the run stays bounded)")
     run = run_load(args.sessions, args.concurrency, args.timeout)
     ok = len(run.sessions) - len(run.failures)
-    print(f"sessions: {len(run.sessions)} ({args.concurrency or args.sessions} at once), "
+    print(f"sessions: {len(run.sessions)} ({min(args.concurrency, args.sessions)} at once), "
           f"finished without error: {ok}, wall time {run.wall_s:.1f} s, cores {os.cpu_count()}, "
           f"load average {os.getloadavg()[0]:.1f}")
     print(f"page load:       {_figures([s.load_s for s in run.sessions])}")
