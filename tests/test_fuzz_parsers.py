@@ -16,6 +16,7 @@ from hypothesis import HealthCheck, assume, given, settings
 from hypothesis import strategies as st
 
 from model import load_plan
+from model import purchases, records, scenario
 from model.casemix import CASEMIX_COLUMNS, CaseMix, parse_casemix_text
 from model.errors import InputError
 
@@ -150,7 +151,6 @@ def test_casemix_from_csv_like_text_gives_mix_or_input_error(text):
 
 # --- scenario files -------------------------------------------------------------------
 
-scenario = pytest.importorskip("model.scenario")
 SCENARIO_TEXT = (YEAR / "baseline_2l.toml").read_text()
 
 
@@ -176,7 +176,6 @@ def test_scenario_from_raw_bytes_gives_scenario_or_input_error(data, demo_mix):
 
 # --- case records ---------------------------------------------------------------------
 
-records = pytest.importorskip("model.records")
 RECORD_COLUMNS = sorted({alias for _, aliases in records.FIELDS.values() for alias in aliases})
 RECORD_TEXT = "\n".join((RECORDS / "fernhollow_birch_cases.csv").read_text().splitlines()[:40]) + "\n"
 
@@ -274,7 +273,6 @@ def test_damaged_parquet_records_give_report_or_input_error(data, scratch):
 
 # --- purchases ------------------------------------------------------------------------
 
-purchases = pytest.importorskip("model.purchases")
 PURCHASE_TEXT = (RECORDS / "fernhollow_purchases_2025.csv").read_text()
 
 
