@@ -12,7 +12,14 @@ class InputError(ValueError):
         self.field = field
         self.value = value
         self.allowed = allowed
-        shown = repr(value) if not isinstance(value, str) else f"'{value}'"
+        shown = repr(value) if not isinstance(value, str) else f"'{_one_line(value)}'"
         if len(shown) > 80:
             shown = shown[:77] + "..."
-        super().__init__(f"{field}: got {shown}; {allowed}")
+        super().__init__(_one_line(f"{field}: got {shown}; {allowed}"))
+
+
+def _one_line(text: str) -> str:
+    """Control characters (newlines, tabs, escapes) shown as their escape codes."""
+    if text.isprintable():
+        return text
+    return "".join(c if c.isprintable() else c.encode("unicode_escape").decode("ascii") for c in text)
