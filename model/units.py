@@ -66,41 +66,52 @@ def to_base(value, unit: str, field: str, default_unit: str | None = None) -> fl
     InputError
         The text is not a quantity, the number is not finite, or the dimension is wrong.
     """
-    ureg = registry()
     default_unit = default_unit or unit
-    if isinstance(value, bool):
+    if isinstance(value, bool) or not isinstance(value, (int, float, str)):
         raise InputError(field, value, f"expected a number in {default_unit} or a quantity such as '1 {unit}'")
+    try:
+        return _convert(value, unit, default_unit)
+    except _Refused as refusal:
+        raise InputError(field, value, str(refusal)) from None
+
+
+class _Refused(Exception):
+    """A value ``_convert`` cannot take; the message says what is allowed."""
+
+
+@functools.lru_cache(maxsize=4096)
+def _convert(value, unit: str, default_unit: str) -> float:
+    """``to_base`` without the field name, cached: the same text typed again is not re-parsed."""
+    ureg = registry()
     if isinstance(value, (int, float)):
         try:
             number = float(value)
         except OverflowError:  # an int beyond float range
             number = math.inf
         if not math.isfinite(number):
-            raise InputError(field, value, "expected a finite number")
+            raise _Refused("expected a finite number")
         if default_unit == unit:
             return number
         return float(ureg.Quantity(number, default_unit).to(unit).magnitude)
-    if not isinstance(value, str):
-        raise InputError(field, value, f"expected a number in {default_unit} or a quantity such as '1 {unit}'")
     text = value.strip()
     if not text or not safe_quantity_text(text):
-        raise InputError(field, value, f"expected a quantity such as '1 {unit}'")
+        raise _Refused(f"expected a quantity such as '1 {unit}'")
     try:
         quantity = ureg.Quantity(text)
         bare = isinstance(quantity, (int, float)) or quantity.unitless
         if bare:
             magnitude = float(getattr(quantity, "magnitude", quantity))
     except Exception:
-        raise InputError(field, value, f"expected a quantity such as '1 {unit}'") from None
+        raise _Refused(f"expected a quantity such as '1 {unit}'") from None
     if bare:
         # A bare number typed as text: read it in the default unit.
-        return to_base(magnitude, unit, field, default_unit)
+        return _convert(magnitude, unit, default_unit)
     try:
         number = float(quantity.to(unit).magnitude)
     except Exception:
-        raise InputError(field, value, f"expected a quantity convertible to {unit}") from None
+        raise _Refused(f"expected a quantity convertible to {unit}") from None
     if not math.isfinite(number):
-        raise InputError(field, value, "expected a finite number")
+        raise _Refused("expected a finite number")
     return number
 
 

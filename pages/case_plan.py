@@ -298,10 +298,10 @@ figs = dict(_figures(result_toml, ref_key, result, fate, agent.label))
 
 
 @st.cache_data(show_spinner=False, max_entries=128)
-def _sweep_cached(plan_toml: str, ref_key: str, _ref):
+def _sweep_cached(plan_toml: str, ref_key: str, _ref, _plan):
+    """The flow sweep of the plan (``plan_toml`` is the key; ``_plan`` is that plan, parsed)."""
     from model.sweep import flow_sweep
-    from model.plan import parse_plan_text
-    return flow_sweep(parse_plan_text(plan_toml, "plan"), _ref)
+    return flow_sweep(_plan, _ref)
 
 
 sweep_table = None
@@ -326,7 +326,7 @@ with tabs[2]:
     figs["sweep"] = None
     try:
         with st.spinner("Sweeping the maintenance flow..."):
-            sw = _sweep_cached(result_toml, ref_key, ref)
+            sw = _sweep_cached(result_toml, ref_key, ref, result.plan)
     except InputError as err:
         ui.show_input_error(err, "Flow sweep")
     else:
