@@ -19,6 +19,7 @@ import numpy as np
 import pandas as pd
 
 from .errors import InputError
+from .files import read_user_text
 from .plan import CasePlan, Patient, load_plan
 from .reference import VOLATILES
 from .units import check_range, to_base
@@ -272,19 +273,7 @@ def _load_plan_file(path: Path, name: str, where: str) -> CasePlan:
 def load_casemix(path) -> CaseMix:
     """Read a case-mix file (CSV); plan names are files relative to its folder."""
     p = Path(path)
-    try:
-        size = p.stat().st_size
-        if size > MAX_CASEMIX_BYTES:
-            raise InputError(str(p), f"{size} bytes", f"a case-mix file is at most {MAX_CASEMIX_BYTES} bytes")
-        text = p.read_bytes().decode("utf-8-sig")
-    except FileNotFoundError:
-        raise InputError(str(p), str(p), "the file does not exist") from None
-    except IsADirectoryError:
-        raise InputError(str(p), str(p), "expected a file, found a folder") from None
-    except UnicodeDecodeError:
-        raise InputError(str(p), "the file", "expected UTF-8 text (a CSV case-mix file)") from None
-    except OSError as exc:
-        raise InputError(str(p), str(p), f"cannot be read ({exc.strerror})") from None
+    text = read_user_text(p, "case-mix", MAX_CASEMIX_BYTES, "CSV", encoding="utf-8-sig")
     folder = p.parent
     return parse_casemix_text(text, str(p),
                               lambda name, where: _load_plan_file(folder / name, name, where))

@@ -19,7 +19,8 @@ import tomli_w
 
 from .errors import InputError
 from .freshgas import RATIO_BEHAVIOURS
-from .reference import DEFAULT_GWP, GWP_SOURCES, VOLATILES, normalise_agent_name, shown_path
+from .files import read_user_text
+from .reference import DEFAULT_GWP, GWP_SOURCES, VOLATILES, normalise_agent_name
 from .units import check_range, to_base
 from .circle import ABSORBENT_CAPACITY_L_PER_KG, CIRCLE_VOLUME_L
 from .uptake import DEFAULT_UPTAKE_MODEL, UPTAKE_MODELS
@@ -368,20 +369,7 @@ def toml_error(source: str, exc: Exception,
 def load_plan(path) -> CasePlan:
     """Read a plan file (TOML). Raises InputError naming the file and the field."""
     p = Path(path)
-    try:
-        size = p.stat().st_size
-        if size > MAX_PLAN_BYTES:
-            raise InputError(str(p), f"{size} bytes", f"a plan file is at most {MAX_PLAN_BYTES} bytes")
-        text = p.read_bytes().decode("utf-8")
-    except FileNotFoundError:
-        raise InputError("plan file", shown_path(p), "no such file; give the path of a TOML plan file") from None
-    except IsADirectoryError:
-        raise InputError("plan file", shown_path(p), "that is a folder; give the path of a TOML plan file") from None
-    except UnicodeDecodeError:
-        raise InputError("plan file", shown_path(p), "not UTF-8 text; a plan file is TOML text") from None
-    except OSError as exc:
-        raise InputError("plan file", shown_path(p), f"cannot be read ({exc.strerror}); "
-                         "give a readable TOML plan file") from None
+    text = read_user_text(p, "plan", MAX_PLAN_BYTES)
     return parse_plan_text(text, str(p))
 
 

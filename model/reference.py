@@ -12,6 +12,10 @@ from types import MappingProxyType
 from typing import Mapping
 
 from .errors import InputError
+from .files import read_user_text, shown_path
+
+#: Largest settings file read. [bytes]
+MAX_SETTINGS_BYTES = 1_000_000
 
 # Provenance labels. Every value in this module carries one of these as its ``basis``.
 PUBLISHED = "published"
@@ -454,12 +458,6 @@ def normalise_agent_name(name) -> str:
     return key.replace(" ", "_")
 
 
-def shown_path(path) -> str:
-    """A path short enough for a one-line message, keeping its end (the file name)."""
-    text = str(path)
-    return text if len(text) <= 76 else "..." + text[-73:]
-
-
 def load_settings(path: str | os.PathLike | None = None, base: Reference | None = None) -> Reference:
     """Reference data with the overrides of a user settings file (TOML) applied.
 
@@ -471,21 +469,15 @@ def load_settings(path: str | os.PathLike | None = None, base: Reference | None 
     if not path:
         return base
     p = Path(path)
+    text = read_user_text(p, "settings", MAX_SETTINGS_BYTES)
     try:
-        data = tomllib.loads(p.read_text(encoding="utf-8"))
-    except FileNotFoundError:
-        raise InputError("settings file", shown_path(p), "no such file; give the path of a TOML settings file") from None
-    except UnicodeDecodeError:
-        raise InputError("settings file", shown_path(p), "not UTF-8 text; a settings file is TOML text") from None
+        data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         from .plan import toml_error
         raise toml_error(f"settings file {p}", exc,
                          "the file is not valid TOML (see 'Settings file' in README.md)") from None
     except RecursionError:
         raise InputError("settings file", shown_path(p), "nested too deeply to be a settings file") from None
-    except OSError as exc:
-        raise InputError("settings file", shown_path(p), f"cannot be read ({exc.strerror}); "
-                         "give a readable TOML settings file") from None
     return base.with_overrides(data, str(p))
 
 

@@ -15,6 +15,7 @@ import pydantic
 
 from .casemix import CaseMix, load_casemix
 from .errors import InputError
+from .files import read_user_text
 from .plan import Share, _first_error, _quantity, _Strict
 from .reference import DEFAULT_GWP, GWP_SOURCES, VOLATILES, Reference, Sourced, normalise_agent_name
 
@@ -269,17 +270,5 @@ def parse_scenario_text(text: str, source: str = "scenario", base_dir: Path | No
 def load_scenario(path) -> Scenario:
     """Read a scenario file (TOML) and its case mix. Raises InputError naming file and field."""
     p = Path(path)
-    try:
-        size = p.stat().st_size
-        if size > MAX_SCENARIO_BYTES:
-            raise InputError(str(p), f"{size} bytes", f"a scenario file is at most {MAX_SCENARIO_BYTES} bytes")
-        text = p.read_bytes().decode("utf-8")
-    except FileNotFoundError:
-        raise InputError(str(p), str(p), "the file does not exist") from None
-    except IsADirectoryError:
-        raise InputError(str(p), str(p), "expected a file, found a folder") from None
-    except UnicodeDecodeError:
-        raise InputError(str(p), "the file", "expected UTF-8 text (a TOML scenario file)") from None
-    except OSError as exc:
-        raise InputError(str(p), str(p), f"cannot be read ({exc.strerror})") from None
+    text = read_user_text(p, "scenario", MAX_SCENARIO_BYTES)
     return parse_scenario_text(text, str(p), p.parent)
