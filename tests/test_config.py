@@ -29,7 +29,7 @@ def test_upload_limit_is_set_and_small(config):
     limit = config["server"]["maxUploadSize"]
     assert isinstance(limit, int) and not isinstance(limit, bool)
     # Streamlit's default is 200 MB; ours is deliberately smaller.
-    assert 1 <= limit <= 50
+    assert limit in range(1, 51)
 
 
 def test_usage_statistics_are_off(config):
