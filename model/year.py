@@ -928,6 +928,11 @@ def _notes(inp: YearInputs, scenario: Scenario) -> list[str]:
         notes.append(f"Practice change followed by {pr.adherence * 100:.0f} % of cases "
                      f"(sampled {pr.adherence_low * 100:.0f}-{pr.adherence_high * 100:.0f} %); "
                      f"the others keep the plan as written.")
+    sampled = scenario.sampling.gwp_sources
+    if sampled and set(sampled) != {scenario.gwp_source}:
+        notes.append(f"The expected column uses {scenario.gwp_source}; the P5-P95 bands also sample the GWP "
+                     f"sources {', '.join(sampled)} (the uncertainty of the GWP choice), so an expected "
+                     "CO2e can sit near one end of its band.")
     return notes
 
 
