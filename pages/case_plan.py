@@ -65,6 +65,9 @@ def _open_selected() -> None:
 
 
 names = store.names("plan")
+if "cp_pending_load" in ss:
+    # A plan imported further down the page: load it here, before the input widgets exist.
+    _load(*ss.pop("cp_pending_load"))
 if "cp_base" not in ss:
     if names:
         _load(store.load_plan(names[0]), f"saved plan '{names[0]}'")
@@ -432,8 +435,8 @@ with st.expander("Plan files and saved versions", icon=":material/description:")
             except InputError as err:
                 st.error(ui.md(f"Not imported, the store is unchanged. {err}"), icon=":material/error:")
             else:
-                _load(imported, f"imported file {up.name}")
-                st.success(ui.md(f"Imported '{imported.name}' as version {version}."))
+                ss["cp_pending_load"] = (imported, f"imported file {up.name}")
+                ss["cp_flash"] = ("success", f"Imported '{imported.name}' as version {version}.")
                 st.rerun()
     with f2:
         st.markdown("**Export this plan**")

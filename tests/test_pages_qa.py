@@ -1,0 +1,37 @@
+"""Regression tests for faults found in a QA pass of the dashboard pages (Streamlit AppTest)."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+from streamlit.testing.v1 import AppTest
+
+from model.store import STORE_ENV
+
+ROOT = Path(__file__).resolve().parents[1]
+TIMEOUT = 120
+
+
+@pytest.fixture(autouse=True)
+def isolated_store(tmp_path, monkeypatch):
+    path = tmp_path / "store.sqlite3"
+    monkeypatch.setenv(STORE_ENV, str(path))
+    return path
+
+
+def page(name: str) -> AppTest:
+    at = AppTest.from_file(str(ROOT / "pages" / name), default_timeout=TIMEOUT)
+    at.run()
+    assert not at.exception, [e.message for e in at.exception]
+    return at
+
+
+def test_importing_a_plan_file_opens_it_without_an_exception():
+    at = page("case_plan.py")
+    text = (ROOT / "demo_data" / "plans" / "lap_chole_low_flow.toml").read_text(encoding="utf-8")
+    text = text.replace("Laparoscopic cholecystectomy, low flow", "Imported QA plan")
+    at.get("file_uploader")[0].upload("qa.toml", text.encode()).run()
+    assert not at.exception, [e.message for e in at.exception]
+    assert at.text_input(key="cp_name").value == "Imported QA plan"
+    assert any("Imported" in s.value for s in at.success)
