@@ -65,6 +65,23 @@ AGENT_FIELDS: Mapping[str, tuple[str, str]] = MappingProxyType({
     "lifetime": ("yr", "atmospheric lifetime"),
 })
 
+# Field name -> (low, high, low included) of a user override: wide bounds that only keep out
+# values no agent or gas can have (zero would divide, a share above 1 is impossible);
+# common practice, no source.
+_AGENT_FIELD_RANGES: Mapping[str, tuple[float, float, bool]] = MappingProxyType({
+    "molar_mass": (0.0, 1000.0, False),
+    "liquid_density": (0.0, 5.0, False),
+    "density_temperature": (-273.15, 100.0, True),
+    "svp_20c": (0.0, 10000.0, False),
+    "boiling_point": (-273.15, 300.0, True),
+    "blood_gas": (0.0, 100.0, False),
+    "mac40": (0.0, 200.0, False),
+    "vaporizer_max": (0.0, 100.0, False),
+    "bottle_volume": (0.0, 10000.0, False),
+    "metabolised_fraction": (0.0, 1.0, True),
+    "lifetime": (0.0, 100000.0, False),
+})
+
 _MOLMASS = "computed from the formula with IUPAC standard atomic weights"
 
 
@@ -328,8 +345,11 @@ class Reference:
                 if fname not in AGENT_FIELDS:
                     raise InputError(where, fname, "allowed fields are " + ", ".join(AGENT_FIELDS))
                 number = _finite(raw, where)
-                if fname not in ("boiling_point", "density_temperature") and number < 0:
-                    raise InputError(where, raw, "must not be negative")
+                low, high, closed = _AGENT_FIELD_RANGES[fname]
+                if not (low <= number <= high if closed else low < number <= high):
+                    unit = AGENT_FIELDS[fname][0].replace("1", "").strip()
+                    raise InputError(where, raw, f"allowed range is {'[' if closed else '('}"
+                                                 f"{low:g}, {high:g}] {unit}".rstrip())
                 old = values.get(fname) or Sourced(None, AGENT_FIELDS[fname][0], "no default")
                 values[fname] = Sourced(number, old.unit, f"user override ({origin})", USER,
                                         old.default or old)
