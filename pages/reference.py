@@ -54,6 +54,11 @@ st.subheader("Your values")
 st.caption("Leave a value as it is to keep the default. Saving keeps every earlier set of values.")
 default = DEFAULT_REFERENCE
 prices_saved = saved.get("prices", {})
+FORM_KEYS = ("ref_bottle_", "ref_oxygen_", "ref_air_", "ref_nitrous_", "ref_absorbent_", "ref_gwp_", "ref_mac_")
+if ss.pop("ref_reset_form", False):
+    # Another set of values was put in use: show it in the form, not what was typed before.
+    for k in [k for k in ss if str(k).startswith(FORM_KEYS)]:
+        del ss[k]
 with st.form("ref_overrides"):
     tab_p, tab_g, tab_m = st.tabs(["Prices", "GWP values", "MAC at age 40"])
     with tab_p:
@@ -144,10 +149,15 @@ with st.expander(f"Earlier sets of values ({len(history)})", icon=":material/his
         pick = h1.selectbox("Version", [v.version for v in history], key="ref_restore_pick")
         if h2.button("Use this version again", icon=":material/restore:"):
             body = store.get("overrides", "dashboard", int(pick)).body
-            version = store.save_overrides(json.loads(body), note=f"restored version {pick}")
+            restored = json.loads(body)
+            version = store.save_overrides(restored, note=f"restored version {pick}")
+            ss["ref_reset_form"] = True
+            ss["gl_currency_pending"] = (restored.get("prices") or {}).get("currency") or default.prices.currency
             ss["ref_msg"] = f"Version {pick} is in use again (saved as version {version})."
             st.rerun()
         if h3.button("Go back to the built-in defaults", icon=":material/undo:"):
             version = store.save_overrides({}, note="back to built-in defaults")
+            ss["ref_reset_form"] = True
+            ss["gl_currency_pending"] = default.prices.currency
             ss["ref_msg"] = f"Built-in defaults in use (saved as version {version}; earlier values kept)."
             st.rerun()

@@ -35,3 +35,25 @@ def test_importing_a_plan_file_opens_it_without_an_exception():
     assert not at.exception, [e.message for e in at.exception]
     assert at.text_input(key="cp_name").value == "Imported QA plan"
     assert any("Imported" in s.value for s in at.success)
+
+
+def _click(at: AppTest, text: str) -> None:
+    next(b for b in at.button if text in b.label).click().run()
+    assert not at.exception, [e.message for e in at.exception]
+
+
+def test_reference_form_shows_the_values_in_use_after_defaults_and_restore():
+    at = page("reference.py")
+    at.number_input(key="ref_bottle_sevoflurane").set_value(200.0)
+    form_currency = next(t for t in at.text_input if t.label == "Currency label" and t.key != "gl_currency")
+    form_currency.input("EUR")
+    _click(at, "Save my values")
+    assert at.text_input(key="gl_currency").value == "EUR"
+    _click(at, "built-in defaults")
+    # The form must show the defaults now in use, or saving it again brings the old values back.
+    assert at.number_input(key="ref_bottle_sevoflurane").value != 200.0
+    assert at.text_input(key="gl_currency").value == "GBP"
+    at.selectbox(key="ref_restore_pick").select(1).run()
+    _click(at, "Use this version again")
+    assert at.number_input(key="ref_bottle_sevoflurane").value == 200.0
+    assert at.text_input(key="gl_currency").value == "EUR"
