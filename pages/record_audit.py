@@ -17,7 +17,6 @@ from model.freshgas import FLOW_BAND_NAMES
 from model.purchases import read_purchases, reconcile
 from model.records import DEFAULT_GAP_LIMIT_MIN
 from model.uploads import check_upload
-from ui.common import CO2E_UNITS
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "demo_data" / "records"
@@ -139,7 +138,7 @@ m[0].metric("Cases", f"{int(total['cases']):,}")
 m[1].metric("Rows used", f"{summary['rows_valid']:,}", help=f"{summary['rows_read']:,} rows read")
 m[2].metric("Rows set aside", f"{summary['rows_set_aside']:,}")
 m[3].metric("Liquid agent", f"{total['liquid_agent_ml']:,.0f} mL")
-m[4].metric(f"CO2e ({view.co2e_unit})", f"{total['co2e_total_kg'] * CO2E_UNITS[view.co2e_unit]:,.0f}",
+m[4].metric(f"CO2e ({view.co2e_unit})", view.co2e_number(total["co2e_total_kg"]),
             help=view.co2e(total["co2e_total_kg"]))
 m[5].metric("Cost", view.money(total["cost_total"]))
 st.caption(f"GWP source: {result.gwp_label}. Every delivered gram counts as emitted (no uptake model). "

@@ -57,3 +57,16 @@ def test_reference_form_shows_the_values_in_use_after_defaults_and_restore():
     _click(at, "Use this version again")
     assert at.number_input(key="ref_bottle_sevoflurane").value == 200.0
     assert at.text_input(key="gl_currency").value == "EUR"
+
+
+def test_record_audit_co2e_in_tonnes_keeps_its_decimals():
+    at = AppTest.from_file(str(ROOT / "pages" / "record_audit.py"), default_timeout=TIMEOUT)
+    at.run()
+    birch = next(o for o in at.multiselect(key="ra_demo").options if "Birch" in o)
+    at.multiselect(key="ra_demo").set_value([birch]).run()
+    at.selectbox(key="gl_co2e_unit").select("t CO2e").run()
+    assert not at.exception, [e.message for e in at.exception]
+    m = next(m for m in at.metric if m.label == "CO2e (t CO2e)")
+    # The metric must agree with its own help text (the same total, 1.18 t for the demo), not round to 1.
+    assert m.value == m.help.split()[0]
+    assert "." in m.value

@@ -51,8 +51,11 @@ class ViewSettings:
         return f"{self.co2e_number(kg)} {self.co2e_unit}"
 
     def co2e_number(self, kg: float) -> str:
-        """CO2e in the chosen unit, without the unit (two decimals under 100, else none)."""
+        """CO2e in the chosen unit, without the unit (three significant figures under 1, two
+        decimals under 100, else none), so a case shown in t CO2e does not round to 0.03."""
         v = kg * CO2E_UNITS[self.co2e_unit]
+        if 0 < abs(v) < 1:
+            return f"{v:.3g}"
         return f"{v:,.2f}" if abs(v) < 100 else f"{v:,.0f}"
 
     def money(self, amount: float) -> str:
