@@ -70,3 +70,12 @@ def test_record_audit_co2e_in_tonnes_keeps_its_decimals():
     # The metric must agree with its own help text (the same total, 1.18 t for the demo), not round to 1.
     assert m.value == m.help.split()[0]
     assert "." in m.value
+
+
+def test_case_emissions_in_tonnes_show_three_significant_figures():
+    at = page("case_plan.py")
+    kg = float(next(m.value for m in at.metric if m.label == "Emissions (kg CO2e)").replace(",", ""))
+    at.selectbox(key="gl_co2e_unit").select("t CO2e").run()
+    t = float(next(m.value for m in at.metric if m.label == "Emissions (t CO2e)"))
+    # 1 t = 1000 kg (SI); the shown value keeps three significant figures of the kg figure.
+    assert t == pytest.approx(kg / 1000, rel=5e-3)
