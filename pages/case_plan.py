@@ -337,8 +337,9 @@ with tabs[2]:
         figs["sweep"] = _sweep_figure(result_toml, ref_key, view.co2e_unit, sw, result.currency)
         st.plotly_chart(figs["sweep"], width="stretch", key="cp_fig_sweep")
         phase_name = plan.phases[sw.phase_index].name
-        best = [f"lowest cost at **{sw.cost_lowest_flow_l_min:g} L/min**" if sw.cost_lowest_flow_l_min else None,
-                f"lowest CO2e at **{sw.emission_lowest_flow_l_min:g} L/min**" if sw.emission_lowest_flow_l_min else None]
+        best = [f"lowest cost at **{view.flow(sw.cost_lowest_flow_l_min)}**" if sw.cost_lowest_flow_l_min else None,
+                f"lowest CO2e at **{view.flow(sw.emission_lowest_flow_l_min)}**" if sw.emission_lowest_flow_l_min
+                else None]
         st.markdown(f"Flow of the *{ui.md(phase_name)}* phase varied at the same end-tidal depth "
                     f"({sw.target_mac:.2f} x MAC): " + (", ".join(b for b in best if b) or
                                                         "no flow keeps inspired O2 above the floor") + ".")

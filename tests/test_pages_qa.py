@@ -79,3 +79,11 @@ def test_case_emissions_in_tonnes_show_three_significant_figures():
     t = float(next(m.value for m in at.metric if m.label == "Emissions (t CO2e)"))
     # 1 t = 1000 kg (SI); the shown value keeps three significant figures of the kg figure.
     assert t == pytest.approx(kg / 1000, rel=5e-3)
+
+
+def test_flow_sweep_best_flows_follow_the_sidebar_flow_unit():
+    at = page("case_plan.py")
+    at.selectbox(key="gl_flow_unit").select("mL/min").run()
+    assert not at.exception, [e.message for e in at.exception]
+    line = next(m.value for m in at.markdown if "lowest cost at" in m.value)
+    assert "mL/min" in line and "**0.5 L/min**" not in line
