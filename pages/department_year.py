@@ -147,7 +147,7 @@ with st.expander("Per month and per case type"):
 if result.warnings:
     with st.expander(f"Warnings ({len(result.warnings)})", icon=":material/warning:"):
         for w in result.warnings:
-            st.warning(w)
+            st.warning(ui.md(w))
 for note in result.notes:
     st.caption(note)
 

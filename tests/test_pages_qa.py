@@ -87,3 +87,19 @@ def test_flow_sweep_best_flows_follow_the_sidebar_flow_unit():
     assert not at.exception, [e.message for e in at.exception]
     line = next(m.value for m in at.markdown if "lowest cost at" in m.value)
     assert "mL/min" in line and "**0.5 L/min**" not in line
+
+
+def test_year_warnings_show_case_type_names_as_typed_not_as_markdown():
+    at = page("department_year.py")
+    name = at.selectbox(key="dy_scenario").value
+    key = at.data_editor[0].key
+    at.session_state[key] = {"edited_rows": {0: {"case_type": "Lap_chole *urgent*"}}, "added_rows": [],
+                             "deleted_rows": []}
+    at.checkbox(key=f"dy_uf_{name}").check()
+    at.run()
+    at.number_input(key=f"dy_flow_{name}").set_value(0.3).run()
+    assert not at.exception, [e.message for e in at.exception]
+    named = [w.value for w in at.warning if "urgent" in w.value]
+    assert named, "a 0.3 L/min maintenance flow should warn, naming the case type"
+    # Escaped for markdown: the asterisks show as typed instead of turning the name italic.
+    assert all("\\*urgent\\*" in w for w in named)
