@@ -68,6 +68,12 @@ names = store.names("plan")
 if "cp_pending_load" in ss:
     # A plan imported further down the page: load it here, before the input widgets exist.
     _load(*ss.pop("cp_pending_load"))
+    ss["cp_pick_pending"] = ss["cp_base"].name
+if "cp_pick_pending" in ss:
+    # After a save or an import, the picker shows the plan being edited and the note box empties.
+    ss["cp_open_name"] = ss.pop("cp_pick_pending")
+    ss["cp_open_version"] = "latest"
+    ss["cp_note"] = ""
 if "cp_base" not in ss:
     if names:
         _load(store.load_plan(names[0]), f"saved plan '{names[0]}'")
@@ -417,6 +423,7 @@ with d2:
         ss["cp_base"] = plan
         ss["cp_origin"] = f"saved plan '{plan.name}' version {version}"
         ss["cp_saved_msg"] = f"Saved '{plan.name}' as version {version}. Earlier versions are kept."
+        ss["cp_pick_pending"] = plan.name
         st.rerun()
     saved_msg = ss.pop("cp_saved_msg", None)
     if saved_msg:

@@ -103,3 +103,15 @@ def test_year_warnings_show_case_type_names_as_typed_not_as_markdown():
     assert named, "a 0.3 L/min maintenance flow should warn, naming the case type"
     # Escaped for markdown: the asterisks show as typed instead of turning the name italic.
     assert all("\\*urgent\\*" in w for w in named)
+
+
+def test_after_saving_under_a_new_name_the_picker_shows_that_plan_and_the_note_empties():
+    at = page("case_plan.py")
+    at.text_input(key="cp_name").input("QA renamed plan").run()
+    at.text_input(key="cp_note").input("first note").run()
+    next(b for b in at.button if b.label == "Save").click().run()
+    assert not at.exception, [e.message for e in at.exception]
+    # The picker and its version list name the plan being edited, so "Open" reopens it.
+    assert at.selectbox(key="cp_open_name").value == "QA renamed plan"
+    assert at.selectbox(key="cp_open_version").options == ["latest", "1"]
+    assert at.text_input(key="cp_note").value == ""
