@@ -280,7 +280,7 @@ def _where(loc) -> str:
     return "".join(parts)
 
 
-def _first_error(exc: pydantic.ValidationError, source: str) -> InputError:
+def _first_error(exc: pydantic.ValidationError, source: str, fmt: str = "plan") -> InputError:
     err = exc.errors(include_url=False)[0]
     loc = tuple(x for x in err["loc"] if not (isinstance(x, str) and x.startswith("function-")))
     where = _where(loc)
@@ -289,7 +289,7 @@ def _first_error(exc: pydantic.ValidationError, source: str) -> InputError:
     if isinstance(original, InputError):
         # The validator knew the field's own name; put it in its place in the path.
         base = where
-        if not loc or loc[-1] != original.field:
+        if not loc or original.field not in loc:
             base = f"{base}.{original.field}" if base else original.field
         return InputError(prefix + base, original.value, original.allowed)
     kind = err["type"]
@@ -297,7 +297,7 @@ def _first_error(exc: pydantic.ValidationError, source: str) -> InputError:
     if kind == "missing":
         return InputError(prefix + where, "nothing", "this field is required")
     if kind == "extra_forbidden":
-        return InputError(prefix + where, value, "unknown field (check its spelling in the README's plan format)")
+        return InputError(prefix + where, value, f"unknown field (check its spelling in the README's {fmt} format)")
     if kind == "too_short" and loc and loc[-1] == "phases":
         return InputError(prefix + where, "no phases", "a plan needs at least one [[phases]] table")
     return InputError(prefix + where, value, err["msg"].replace("Value error, ", ""))

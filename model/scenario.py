@@ -227,7 +227,7 @@ def scenario_from_dict(data: Mapping, source: str = "scenario", base_dir: Path |
     try:
         raw = _ScenarioIn.model_validate(data)
     except pydantic.ValidationError as exc:
-        raise _first_error(exc, source) from None
+        raise _first_error(exc, source, "scenario") from None
     if casemix is None:
         casemix = load_casemix((base_dir or Path(".")) / raw.case_mix)
     p = raw.practice

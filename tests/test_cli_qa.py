@@ -82,3 +82,30 @@ def test_settings_agent_override_in_range_is_used(tmp_path, capsys):
     assert status == 0
     totals = json.loads(out)["totals"]
     assert totals["bottles"] == pytest.approx(totals["liquid_agent_ml"] / 125)
+
+
+BASELINE = ROOT / "demo_data" / "year" / "baseline_2l.toml"
+
+
+def scenario_with(tmp_path, extra):
+    """The demo baseline scenario with `extra` TOML appended, its case mix beside it."""
+    text = BASELINE.read_text(encoding="utf-8").replace(
+        'case_mix = "fernhollow_casemix.csv"',
+        f'case_mix = "{(BASELINE.parent / "fernhollow_casemix.csv").as_posix()}"')
+    path = tmp_path / "scenario.toml"
+    path.write_text(text + "\n" + extra, encoding="utf-8")
+    return path
+
+
+def test_scenario_unknown_field_message_names_the_scenario_format(tmp_path, capsys):
+    path = scenario_with(tmp_path, "[practice]\nfoo = 1\n")
+    status, _, err = run(["year", path], capsys)
+    assert_one_line_error(status, err, "practice.foo", "scenario format")
+    assert "plan format" not in err
+
+
+def test_scenario_switch_agent_error_names_the_field_once(tmp_path, capsys):
+    path = scenario_with(tmp_path, '[practice]\nswitch_agent = { from = "desflurane", to = "xenon" }\n')
+    status, _, err = run(["year", path], capsys)
+    assert_one_line_error(status, err, "practice.switch_agent.to:", "'xenon'")
+    assert "to.switch_agent" not in err
