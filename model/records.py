@@ -487,7 +487,15 @@ def connect(memory_limit: str | None = None, threads: int | None = None):
     tmp = tempfile.mkdtemp(prefix="gas-ledger-duckdb-")
     con = duckdb.connect(config={"temp_directory": tmp, "preserve_insertion_order": True})
     if memory_limit:
-        con.execute(f"SET memory_limit = {_sql_str(memory_limit)}")
+        try:
+            con.execute(f"SET memory_limit = {_sql_str(memory_limit)}")
+        except duckdb.Error:
+            import shutil
+
+            con.close()
+            shutil.rmtree(tmp, ignore_errors=True)
+            raise InputError("--memory-limit", memory_limit,
+                             "a size with its unit, such as 3GB or 500MB") from None
     if threads:
         con.execute(f"SET threads = {int(threads)}")
     return con, tmp

@@ -109,3 +109,12 @@ def test_scenario_switch_agent_error_names_the_field_once(tmp_path, capsys):
     status, _, err = run(["year", path], capsys)
     assert_one_line_error(status, err, "practice.switch_agent.to:", "'xenon'")
     assert "to.switch_agent" not in err
+
+
+BIRCH = ROOT / "demo_data" / "records" / "fernhollow_birch_cases.csv"
+
+
+@pytest.mark.parametrize("size", ["abc", "0", "1e99GB"])
+def test_audit_bad_memory_limit_exits_2_naming_the_flag(size, capsys):
+    status, _, err = run(["audit", BIRCH, f"--memory-limit={size}"], capsys)
+    assert_one_line_error(status, err, "--memory-limit", repr(size))
