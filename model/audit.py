@@ -120,6 +120,8 @@ class AuditResult:
 
 
 def _clean(v):
+    if v is pd.NaT or v is pd.NA:
+        return None
     if isinstance(v, (np.floating, float)):
         v = float(v)
         return v if math.isfinite(v) else None

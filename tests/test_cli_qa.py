@@ -118,3 +118,18 @@ BIRCH = ROOT / "demo_data" / "records" / "fernhollow_birch_cases.csv"
 def test_audit_bad_memory_limit_exits_2_naming_the_flag(size, capsys):
     status, _, err = run(["audit", BIRCH, f"--memory-limit={size}"], capsys)
     assert_one_line_error(status, err, "--memory-limit", repr(size))
+
+
+def test_audit_json_of_elapsed_records_without_date_parses(tmp_path, capsys):
+    records = tmp_path / "r.csv"
+    records.write_text("case_id,elapsed,agent,o2,air,dial\n"
+                       "A,0,sevoflurane,1,1,2\nA,4,sevoflurane,1,1,2\nA,5,sevoflurane,1,1,2\n",
+                       encoding="utf-8")
+    status, out, err = run(["audit", records, "--json"], capsys)
+    assert status == 0, err
+    data = json.loads(out, parse_constant=lambda c: pytest.fail(f"{c} in JSON"))
+    assert data["cases"][0]["start"] is None
+    # Dion's formula, liquid mL = FGF x dial % x minutes / mL of vapour per mL of liquid;
+    # 2 L/min x 2 % x 5 min = 0.2 L of vapour, about 184 mL of vapour per mL of sevoflurane
+    # at 20 °C (common practice, no source) -> about 1.09 mL
+    assert data["total"]["liquid_agent_ml"] == pytest.approx(0.2 / 0.184, rel=0.02)
