@@ -82,14 +82,24 @@ def run_audit(files: tuple, purchases: tuple | None, settings: tuple, _ref, _pro
             p = Path(tmp) / f"{i:03d}-{Path(name).name}"
             p.write_bytes(data)
             paths.append(p)
-        result = audit_records(paths, reference=_ref, gwp_source=gwp, temperature_c=temp,
-                               gap_limit_min=gap, high_flow_l_min=high, high_flow_limit_min=limit,
-                               progress=_progress)
         recon = None
-        if purchases is not None:
-            p = Path(tmp) / Path(purchases[0]).name
-            p.write_bytes(purchases[1])
-            recon = reconcile(read_purchases(p, _ref), result.use_by_month(), _ref, gwp)
+        try:
+            result = audit_records(paths, reference=_ref, gwp_source=gwp, temperature_c=temp,
+                                   gap_limit_min=gap, high_flow_l_min=high, high_flow_limit_min=limit,
+                                   progress=_progress)
+            if purchases is not None:
+                p = Path(tmp) / Path(purchases[0]).name
+                p.write_bytes(purchases[1])
+                recon = reconcile(read_purchases(p, _ref), result.use_by_month(), _ref, gwp)
+        except InputError as err:
+            # Name the uploaded file, not its copy in the private temporary folder.
+            def shown(text):
+                if not isinstance(text, str):
+                    return text
+                for i, (name, _) in enumerate(files):
+                    text = text.replace(str(Path(tmp) / f"{i:03d}-{Path(name).name}"), Path(name).name)
+                return text.replace(tmp + "/", "")
+            raise InputError(shown(str(err.field)), shown(err.value), shown(err.allowed)) from None
     # File names inside the temporary folder mean nothing to the user: show the uploaded names.
     for i, (name, _) in enumerate(files):
         shown = Path(name).name

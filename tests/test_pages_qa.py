@@ -115,3 +115,13 @@ def test_after_saving_under_a_new_name_the_picker_shows_that_plan_and_the_note_e
     assert at.selectbox(key="cp_open_name").value == "QA renamed plan"
     assert at.selectbox(key="cp_open_version").options == ["latest", "1"]
     assert at.text_input(key="cp_note").value == ""
+
+
+def test_record_file_missing_columns_is_named_as_uploaded_not_by_its_temporary_copy():
+    at = page("record_audit.py")
+    at.radio(key="ra_source").set_value("Upload files").run()
+    at.get("file_uploader")[0].upload("theatre_export.csv", b"case_id,elapsed,agent\nA,0,sevo\n").run()
+    assert not at.exception, [e.message for e in at.exception]
+    message = " ".join(e.value for e in at.error)
+    assert "theatre\\_export\\.csv" in message and "missing required column" in message
+    assert "gas\\-ledger\\-audit" not in message and "/tmp" not in message
