@@ -274,6 +274,7 @@ def inspect_file(path) -> RecordFile:
     if not p.is_file():
         raise InputError(where, where, "the file does not exist" if not p.exists() else "expected a file")
     if fmt == "parquet":
+        import pyarrow as pa
         import pyarrow.parquet as pq
 
         try:
@@ -282,6 +283,16 @@ def inspect_file(path) -> RecordFile:
             raise InputError(where, "the file", f"not a readable Parquet file ({type(exc).__name__})") from None
         names = list(schema.names)
         columns, ignored = map_columns(names, {}, where)
+        # A duration column is read as its integer count of s, ms, us or ns: give elapsed
+        # its factor to minutes; any other field has no use for a duration.
+        for key, col in list(columns.items()):
+            ptype = schema.field(col.source).type
+            if pa.types.is_duration(ptype):
+                if key != "elapsed":
+                    raise InputError(f"{where}: column '{col.source}'", str(ptype),
+                                     "a duration fits only the elapsed column")
+                seconds = {"s": 1.0, "ms": 1e-3, "us": 1e-6, "ns": 1e-9}[ptype.unit]
+                columns[key] = Column(key, col.source, seconds / 60.0, ptype.unit)
         import duckdb
 
         described = duckdb.sql(f"DESCRIBE SELECT * FROM read_parquet({_sql_str(str(p))})").fetchall()

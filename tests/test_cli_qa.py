@@ -133,3 +133,21 @@ def test_audit_json_of_elapsed_records_without_date_parses(tmp_path, capsys):
     # 2 L/min x 2 % x 5 min = 0.2 L of vapour, about 184 mL of vapour per mL of sevoflurane
     # at 20 °C (common practice, no source) -> about 1.09 mL
     assert data["total"]["liquid_agent_ml"] == pytest.approx(0.2 / 0.184, rel=0.02)
+
+
+@pytest.mark.parametrize("unit, per_second", [("s", 1), ("ms", 10**3), ("us", 10**6), ("ns", 10**9)])
+def test_audit_parquet_elapsed_duration_is_read_in_its_unit(unit, per_second, tmp_path, capsys):
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    path = tmp_path / "r.parquet"
+    pq.write_table(pa.table({
+        "case_id": ["A", "A"], "agent": ["sevoflurane"] * 2,
+        "elapsed": pa.array([0, 240 * per_second], type=pa.duration(unit)),
+        "o2": [1.0, 1.0], "air": [1.0, 1.0], "dial": [2.0, 2.0]}), path)
+    status, out, err = run(["audit", path, "--json"], capsys)
+    assert status == 0, err
+    data = json.loads(out)
+    # 240 s between the samples is 4 min counted, no gap (arithmetic)
+    assert data["total"]["minutes"] == pytest.approx(4.0)
+    assert data["report"]["gaps"] == 0
