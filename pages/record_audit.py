@@ -13,6 +13,7 @@ import streamlit as st
 import ui
 from model import InputError
 from model.audit import DEFAULT_HIGH_FLOW_L_MIN, DEFAULT_HIGH_FLOW_LIMIT_MIN, audit_records
+from model.exports import html_report
 from model.freshgas import FLOW_BAND_NAMES
 from model.purchases import read_purchases, reconcile
 from model.records import DEFAULT_GAP_LIMIT_MIN
@@ -172,6 +173,7 @@ with st.expander(f"Checks: {summary['rows_set_aside']:,} row(s) set aside, {summ
         st.caption(note)
 
 cases = result.cases
+figs: list = []     # (heading, figure) for the HTML report
 tab_cases, tab_bands, tab_month, tab_recon = st.tabs(
     ["Per case", "Flow bands by theatre", "Monthly trend", "Purchases"])
 with tab_cases:
@@ -181,6 +183,7 @@ with tab_cases:
                      labels={"liquid_agent_ml": "liquid agent per case [mL]", "agent": "agent"},
                      title="Liquid agent per case: spread by agent")
         st.plotly_chart(fig, width="stretch", key="ra_hist")
+        figs.append(("Liquid agent per case", fig))
     st.dataframe(cases, hide_index=True, width="stretch", height=300)
 with tab_bands:
     bands = result.bands_by_theatre()
@@ -189,6 +192,7 @@ with tab_bands:
                  title="Time in each fresh gas flow band, by theatre")
     fig.update_yaxes(tickformat=".0%")
     st.plotly_chart(fig, width="stretch", key="ra_bands")
+    figs.append(("Flow bands by theatre", fig))
     by_theatre = result.by("theatre")
     st.dataframe(by_theatre, hide_index=True, width="stretch")
 with tab_month:
@@ -196,6 +200,7 @@ with tab_month:
     fig = px.line(by_month, x="month", y="co2e_total_kg", markers=True,
                   labels={"co2e_total_kg": "CO2e [kg]", "month": "month"}, title="CO2e by month")
     st.plotly_chart(fig, width="stretch", key="ra_month")
+    figs.append(("CO2e by month", fig))
     by_agent = result.by("agent")
     st.dataframe(by_month, hide_index=True, width="stretch")
     st.dataframe(by_agent, hide_index=True, width="stretch")
@@ -217,6 +222,7 @@ with tab_recon:
         fig = px.bar(long, x="item", y="amount", color="source", barmode="group", log_y=True,
                      title="Purchased and recorded, whole period", labels={"amount": "amount (log scale)"})
         st.plotly_chart(fig, width="stretch", key="ra_recon")
+        figs.append(("Purchased and recorded", fig))
         st.dataframe(recon, hide_index=True, width="stretch",
                      column_config={"unexplained_share": st.column_config.NumberColumn(format="percent")})
         st.caption("Months differ by stock held over; the 'all' row of each item is the fairer comparison.")
@@ -225,4 +231,21 @@ tables = {"Cases": cases, "By theatre": result.by("theatre"), "By month": result
           "By agent": result.by("agent"), "Set-aside rows": rep.issues, "Gaps": rep.gap_list}
 if recon is not None:
     tables["Purchases"] = recon
-ui.downloads("record audit", tables, None, key="ra_dl")
+inputs = {"files": ", ".join(rep.files), "purchases": purchases_file[0] if purchases_file else "none",
+          "GWP source": result.gwp_label, "room temperature": f"{view.temperature_c:g} °C",
+          "longest interval counted": f"{gap_limit:g} min", "high flow above": f"{high_flow:g} L/min",
+          "cases": f"{int(total['cases']):,}", "rows used": f"{summary['rows_valid']:,}",
+          "rows set aside": f"{summary['rows_set_aside']:,}", "liquid agent": f"{total['liquid_agent_ml']:,.0f} mL",
+          "CO2e": view.co2e(total["co2e_total_kg"]), "cost": view.money(total["cost_total"])}
+
+
+def _report() -> str:
+    shown = {"By theatre": tables["By theatre"], "By month": tables["By month"], "By agent": tables["By agent"]}
+    if recon is not None:
+        shown["Purchases"] = recon
+    return html_report("Record audit", inputs=inputs, tables=shown, figures=figs,
+                       cautions=[ui.CAUTION, "Every delivered gram counts as emitted (no uptake model)."],
+                       sources=pd.DataFrame(ref.table()))
+
+
+ui.downloads("record audit", tables, _report, key="ra_dl")

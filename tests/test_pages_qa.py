@@ -125,3 +125,9 @@ def test_record_file_missing_columns_is_named_as_uploaded_not_by_its_temporary_c
     message = " ".join(e.value for e in at.error)
     assert "theatre\\_export\\.csv" in message and "missing required column" in message
     assert "gas\\-ledger\\-audit" not in message and "/tmp" not in message
+
+
+def test_record_audit_offers_an_html_report_like_every_results_view():
+    at = page("record_audit.py")
+    labels = [d.proto.label for d in at.get("download_button")]
+    assert labels == ["CSV", "Excel", "HTML report"]
