@@ -13,6 +13,7 @@ part-full).
 from __future__ import annotations
 
 import re
+import warnings
 from pathlib import Path
 
 import numpy as np
@@ -71,8 +72,12 @@ def read_purchases(path, reference: Reference = DEFAULT_REFERENCE, temperature_c
     fmt = p.suffix.lower()
     try:
         if fmt == ".csv":
-            df = pd.read_csv(p, dtype=str, keep_default_na=False, comment="#", skip_blank_lines=True,
-                             encoding="utf-8-sig")
+            with warnings.catch_warnings():
+                # index_col=False: a line with more fields than the header is an error, not
+                # a silent shift of every column into the index.
+                warnings.simplefilter("error", pd.errors.ParserWarning)
+                df = pd.read_csv(p, dtype=str, keep_default_na=False, comment="#",
+                                 skip_blank_lines=True, encoding="utf-8-sig", index_col=False)
             first_line = _header_line(p)
             lines = _data_lines(p, first_line)
         elif fmt == ".parquet":
@@ -82,6 +87,9 @@ def read_purchases(path, reference: Reference = DEFAULT_REFERENCE, temperature_c
             raise InputError(where, p.suffix or "no extension", "a purchases file ends in .csv or .parquet")
     except UnicodeDecodeError:
         raise InputError(where, "the file", "expected UTF-8 text (CSV UTF-8)") from None
+    except pd.errors.ParserWarning:
+        raise InputError(where, "a line with more fields than the header",
+                         "one value per header column on every line") from None
     except (pd.errors.ParserError, pd.errors.EmptyDataError) as exc:
         raise InputError(where, "the file", f"not readable as CSV ({str(exc).splitlines()[0]})") from None
     label = "line" if fmt == ".csv" else "row"

@@ -151,3 +151,11 @@ def test_audit_parquet_elapsed_duration_is_read_in_its_unit(unit, per_second, tm
     # 240 s between the samples is 4 min counted, no gap (arithmetic)
     assert data["total"]["minutes"] == pytest.approx(4.0)
     assert data["report"]["gaps"] == 0
+
+
+def test_purchases_line_with_extra_fields_is_refused_not_shifted(tmp_path, capsys):
+    purchases = tmp_path / "p.csv"
+    purchases.write_text("month,item,quantity,unit,size\n2025-09,sevoflurane,9,bottle,,,\n",
+                         encoding="utf-8")
+    status, _, err = run(["audit", BIRCH, "--purchases", purchases], capsys)
+    assert_one_line_error(status, err, "p.csv", "more fields than the header")
