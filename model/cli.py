@@ -20,8 +20,8 @@ class _Parser(argparse.ArgumentParser):
 
 
 def _fmt(value, digits=2):
-    if value is None:
-        return "-"
+    if value is None or (isinstance(value, float) and value != value):
+        return "-"  # None or NaN: no figure (e.g. the mean flow of a case with no minutes)
     if isinstance(value, float):
         if value != 0 and abs(value) < 10 ** -digits:
             return f"{value:.2g}"  # small shares (e.g. 0.0002) would print as 0.00

@@ -159,3 +159,12 @@ def test_purchases_line_with_extra_fields_is_refused_not_shifted(tmp_path, capsy
                          encoding="utf-8")
     status, _, err = run(["audit", BIRCH, "--purchases", purchases], capsys)
     assert_one_line_error(status, err, "p.csv", "more fields than the header")
+
+
+def test_audit_table_of_a_single_sample_case_prints_no_nan(tmp_path, capsys):
+    records = tmp_path / "r.csv"
+    records.write_text("case_id,elapsed,agent,o2,air,dial\nA,0,sevoflurane,1,1,2\n", encoding="utf-8")
+    status, out, err = run(["audit", records], capsys)
+    assert status == 0, err
+    assert "Cases                      1" in out
+    assert re.search(r"\bnan\b", out, re.IGNORECASE) is None, out
