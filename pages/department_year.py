@@ -82,9 +82,12 @@ with st.expander("Practice change and uncertainty", expanded=False, icon=":mater
     draws = c3.number_input("Monte Carlo draws", 100, MAX_DRAWS, s.draws, 500, key=f"dy_draws_{name}")
     seed = c3.number_input("Seed", 0, 2**31 - 1, s.seed, 1, key=f"dy_seed_{name}")
     spread = c3.number_input("Price spread (SD of ln price)", 0.0, 1.0, s.price_spread, 0.05, key=f"dy_ps_{name}")
-    gwps = st.multiselect("GWP sources drawn in the bands (empty: the sidebar's source only)",
-                          [k for k in GWP_SOURCES if k != "user"], default=list(s.gwp_sources),
-                          format_func=lambda k: GWP_SOURCES[k].label, key=f"dy_gwps_{name}")
+    horizon = [k for k in GWP_SOURCES if k != "user" and GWP_SOURCES[k].horizon_years == view.gwp_horizon_years]
+    gwps = st.multiselect("GWP sources drawn in the bands (empty: the sidebar's source only)", horizon,
+                          default=[k for k in s.gwp_sources if k in horizon],
+                          format_func=lambda k: GWP_SOURCES[k].label,
+                          key=f"dy_gwps_{name}_{view.gwp_horizon_years}",
+                          help="Sources of the sidebar's GWP horizon")
     e1, e2 = st.columns([1, 3])
     car = e1.number_input("Car factor (kg CO2e/km)", 0.01, 2.0, base.car_kg_per_km, 0.01, key=f"dy_car_{name}")
     car_source = e2.text_input("Source of the car factor", base.car_source, key=f"dy_cars_{name}", max_chars=300)

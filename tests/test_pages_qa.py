@@ -131,3 +131,20 @@ def test_record_audit_offers_an_html_report_like_every_results_view():
     at = page("record_audit.py")
     labels = [d.proto.label for d in at.get("download_button")]
     assert labels == ["CSV", "Excel", "HTML report"]
+
+
+def _band(caption: str) -> tuple[float, float]:
+    low, high = caption.split(": ", 1)[1].split(" to ")
+    return float(low.replace(",", "")), float(high.replace(",", ""))
+
+
+def test_year_band_at_20_year_horizon_samples_only_20_year_gwp_values():
+    at = page("department_year.py")
+    at.radio(key="gl_horizon").set_value("20 years").run()
+    assert not at.exception, [e.message for e in at.exception]
+    expected = float(next(m.value for m in at.metric if m.label == "Emissions (t CO2e)").replace(",", ""))
+    low, high = _band([c.value for c in at.caption if c.value.startswith("P5-P95")][1])
+    # The expected CO2e and its band must use the same horizon: a GWP20 year is about 2.7 times
+    # its GWP100 year (IPCC AR6 WG1 Table 7.SM.7 ratios, from memory), so a band of 100-year
+    # draws would sit far below the expected value.
+    assert low <= expected * 1.02 and high >= expected * 0.98

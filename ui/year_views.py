@@ -15,7 +15,7 @@ import streamlit as st
 from model.casemix import CaseMix
 from model.exports import chart_text
 from model.plan import load_plan
-from model.reference import VOLATILES, Reference
+from model.reference import GWP_SOURCES, VOLATILES, Reference
 from model.scenario import MONTHS, Scenario, load_scenario
 from model.year import compare_years, compute_year
 
@@ -51,10 +51,17 @@ def plan_library() -> dict:
 
 
 def scenario_for_view(scenario: Scenario, view, mix: CaseMix | None = None) -> Scenario:
-    """The scenario with the sidebar's GWP source and currency label (and an edited mix)."""
+    """The scenario with the sidebar's GWP source and currency label (and an edited mix).
+
+    The bands sample only the scenario's GWP sources of the sidebar's horizon: a 20-year
+    expected CO2e never sits beside a band drawn from 100-year values.
+    """
     prices = dict(scenario.prices)
     prices["currency"] = view.currency
-    out = replace(scenario, gwp_source=view.gwp_source, prices=prices)
+    sources = tuple(k for k in scenario.sampling.gwp_sources
+                    if GWP_SOURCES[k].horizon_years == view.gwp_horizon_years)
+    out = replace(scenario, gwp_source=view.gwp_source, prices=prices,
+                  sampling=replace(scenario.sampling, gwp_sources=sources))
     return replace(out, casemix=mix) if mix is not None else out
 
 
