@@ -148,3 +148,11 @@ def test_year_band_at_20_year_horizon_samples_only_20_year_gwp_values():
     # its GWP100 year (IPCC AR6 WG1 Table 7.SM.7 ratios, from memory), so a band of 100-year
     # draws would sit far below the expected value.
     assert low <= expected * 1.02 and high >= expected * 0.98
+
+
+def test_year_comparison_warnings_are_escaped_like_every_other_message():
+    at = page("compare.py")
+    year = [w.value for w in at.warning if "Inguinal hernia repair" in w.value]
+    assert year, "the demo proposal's low maintenance flow should warn"
+    # Escaped for markdown (ui.md): punctuation carries its backslash, so names show as typed.
+    assert all("\\:" in w and ": " not in w.replace("\\: ", "") for w in year)

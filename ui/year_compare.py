@@ -58,7 +58,7 @@ def render(view) -> None:
     if warnings:
         with st.expander(f"Warnings ({len(warnings)})", icon=":material/warning:"):
             for w in warnings:
-                st.warning(w)
+                st.warning(ui.md(w))
     for note in dict.fromkeys(comp.notes + comp.proposal.notes):
         st.caption(note)
     tables = {"Year comparison": table, "Baseline per month": comp.baseline.monthly,
