@@ -137,6 +137,9 @@ edited = st.data_editor(
 table_slot = st.empty()
 
 
+_BARE_NUMBER = re.compile(r"[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?")
+
+
 def _raw_inputs() -> dict:
     base = plan_to_dict(ss["cp_base"])
     base["name"] = ss["cp_name"]
@@ -157,6 +160,8 @@ def _raw_inputs() -> dict:
             v = row.get(col)
             if v is not None and v == v and str(v).strip():
                 p[key] = str(v).strip()
+                if key in ("o2", "air", "n2o") and _BARE_NUMBER.fullmatch(p[key]):
+                    p[key] += " " + view.flow_unit      # a bare flow is in the unit the table shows
         setting = row.get("setting")
         if setting is not None and setting == setting and str(setting).strip():
             p["target" if row.get("control") == "target" else "dial"] = str(setting).strip()

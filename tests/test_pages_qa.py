@@ -156,3 +156,20 @@ def test_year_comparison_warnings_are_escaped_like_every_other_message():
     assert year, "the demo proposal's low maintenance flow should warn"
     # Escaped for markdown (ui.md): punctuation carries its backslash, so names show as typed.
     assert all("\\:" in w and ": " not in w.replace("\\: ", "") for w in year)
+
+
+def _edit_o2(at: AppTest, text: str) -> None:
+    key = at.data_editor[0].key
+    at.session_state[key] = {"edited_rows": {1: {"O2": text}}, "added_rows": [], "deleted_rows": []}
+    at.run()
+    assert not at.exception, [e.message for e in at.exception]
+
+
+def test_a_bare_flow_is_read_in_the_unit_the_phases_table_shows():
+    at = page("case_plan.py")
+    at.selectbox(key="gl_flow_unit").select("mL/min").run()
+    _edit_o2(at, "400 mL/min")
+    with_unit = next(m.value for m in at.metric if m.label == "Oxygen")
+    _edit_o2(at, "400")
+    assert not at.error, [e.value for e in at.error]
+    assert next(m.value for m in at.metric if m.label == "Oxygen") == with_unit
