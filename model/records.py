@@ -196,6 +196,8 @@ def _parse_units_line(line: str, where: str) -> dict[str, str]:
         if "=" not in part:
             raise InputError(where, part.strip(), "expected 'column=unit' pairs, e.g. '# units: o2=mL/min'")
         name, unit = (s.strip() for s in part.split("=", 1))
+        if name.lower() in out:
+            raise InputError(where, part.strip(), f"the unit of '{name}' is given twice; give it once")
         out[name.lower()] = unit
     return out
 

@@ -168,3 +168,11 @@ def test_audit_table_of_a_single_sample_case_prints_no_nan(tmp_path, capsys):
     assert status == 0, err
     assert "Cases                      1" in out
     assert re.search(r"\bnan\b", out, re.IGNORECASE) is None, out
+
+
+def test_audit_units_line_giving_a_column_twice_exits_2(tmp_path, capsys):
+    records = tmp_path / "r.csv"
+    records.write_text("# units: o2=mL/min, o2=L/min\ncase_id,elapsed,agent,o2,air,dial\n"
+                       "A,0,sevoflurane,1,1,2\nA,4,sevoflurane,1,1,2\n", encoding="utf-8")
+    status, _, err = run(["audit", records], capsys)
+    assert_one_line_error(status, err, "r.csv, line 1", "o2=L/min", "given twice")
