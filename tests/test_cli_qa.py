@@ -176,3 +176,11 @@ def test_audit_units_line_giving_a_column_twice_exits_2(tmp_path, capsys):
                        "A,0,sevoflurane,1,1,2\nA,4,sevoflurane,1,1,2\n", encoding="utf-8")
     status, _, err = run(["audit", records], capsys)
     assert_one_line_error(status, err, "r.csv, line 1", "o2=L/min", "given twice")
+
+
+def test_case_dial_above_a_lowered_vaporizer_maximum_exits_2(tmp_path, capsys):
+    settings = tmp_path / "s.toml"
+    settings.write_text("[agents.sevoflurane]\nvaporizer_max = 5\n", encoding="utf-8")
+    status, _, err = run(["--settings", settings, "case", LOW], capsys)
+    # the demo plan's induction dials 6 % sevoflurane
+    assert_one_line_error(status, err, "phases[1].dial", "'6 %'", "up to 5 %")
