@@ -124,6 +124,11 @@ def _collect() -> dict:
 if submitted:
     overrides = _collect()
     try:
+        if gwp_user and "nitrous_oxide" not in gwp_user:
+            # Every case's CO2e adds its N2O (none given is 0 L), so the source needs an N2O value.
+            raise InputError("GWP values, Nitrous oxide", "none",
+                             "User values need a value for nitrous oxide too (IPCC AR6 GWP100: "
+                             f"{default.gwp('nitrous_oxide', 'ar6_gwp100'):g})")
         default.with_overrides(overrides, "dashboard")     # check before saving
     except InputError as err:
         ui.show_input_error(err, "Not saved")

@@ -173,3 +173,16 @@ def test_a_bare_flow_is_read_in_the_unit_the_phases_table_shows():
     _edit_o2(at, "400")
     assert not at.error, [e.value for e in at.error]
     assert next(m.value for m in at.metric if m.label == "Oxygen") == with_unit
+
+
+def test_user_gwp_values_without_nitrous_oxide_are_refused_before_they_break_every_plan():
+    at = page("reference.py")
+    at.number_input(key="ref_gwp_sevoflurane").set_value(150.0)
+    _click(at, "Save my values")
+    assert any("nitrous oxide" in e.value for e in at.error)
+    assert not at.success
+    assert "User values" not in at.selectbox(key="gl_gwp").options     # nothing saved
+    at.number_input(key="ref_gwp_nitrous_oxide").set_value(273.0)
+    _click(at, "Save my values")
+    assert not at.error, [e.value for e in at.error]
+    assert "User values" in at.selectbox(key="gl_gwp").options
