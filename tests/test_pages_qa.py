@@ -186,3 +186,18 @@ def test_user_gwp_values_without_nitrous_oxide_are_refused_before_they_break_eve
     _click(at, "Save my values")
     assert not at.error, [e.value for e in at.error]
     assert "User values" in at.selectbox(key="gl_gwp").options
+
+
+def _per_case_liquid_ml(at: AppTest) -> float:
+    text = next(c.value for c in at.caption if c.value.startswith("Per case:"))
+    return float(text.split("CO2e, ")[1].split(" mL")[0].replace(",", ""))
+
+
+def test_year_follows_the_sidebar_room_temperature_like_the_case_plan():
+    at = page("department_year.py")
+    cool = _per_case_liquid_ml(at)
+    at.number_input(key="gl_temp").set_value(30.0).run()
+    assert not at.exception, [e.message for e in at.exception]
+    # Ideal gas (DESIGN.md 3.1): warmer liquid gives more vapour per mL, so less liquid for the
+    # same dial; the year must move with the sidebar's temperature as a single case does.
+    assert _per_case_liquid_ml(at) < cool

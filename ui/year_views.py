@@ -51,7 +51,8 @@ def plan_library() -> dict:
 
 
 def scenario_for_view(scenario: Scenario, view, mix: CaseMix | None = None) -> Scenario:
-    """The scenario with the sidebar's GWP source and currency label (and an edited mix).
+    """The scenario with the sidebar's GWP source, room temperature and currency label (and an
+    edited mix).
 
     The bands sample only the scenario's GWP sources of the sidebar's horizon: a 20-year
     expected CO2e never sits beside a band drawn from 100-year values.
@@ -60,9 +61,13 @@ def scenario_for_view(scenario: Scenario, view, mix: CaseMix | None = None) -> S
     prices["currency"] = view.currency
     sources = tuple(k for k in scenario.sampling.gwp_sources
                     if GWP_SOURCES[k].horizon_years == view.gwp_horizon_years)
-    out = replace(scenario, gwp_source=view.gwp_source, prices=prices,
-                  sampling=replace(scenario.sampling, gwp_sources=sources))
-    return replace(out, casemix=mix) if mix is not None else out
+    mix = mix if mix is not None else scenario.casemix
+    # Every case type's plan at the sidebar's room temperature, as on the Case plan page.
+    mix = replace(mix, types=tuple(
+        replace(t, plan=replace(t.plan, settings=replace(t.plan.settings, temperature_c=view.temperature_c)))
+        for t in mix.types))
+    return replace(scenario, gwp_source=view.gwp_source, prices=prices, casemix=mix,
+                   sampling=replace(scenario.sampling, gwp_sources=sources))
 
 
 def _key(*parts) -> str:
