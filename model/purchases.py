@@ -81,7 +81,11 @@ def read_purchases(path, reference: Reference = DEFAULT_REFERENCE, temperature_c
             first_line = _header_line(p)
             lines = _data_lines(p, first_line)
         elif fmt == ".parquet":
-            df = pd.read_parquet(p).astype(str)
+            df = pd.read_parquet(p)
+            for col in df.columns:  # a date-time month is read as its YYYY-MM
+                if pd.api.types.is_datetime64_any_dtype(df[col]):
+                    df[col] = df[col].dt.strftime("%Y-%m")
+            df = df.astype(object).where(df.notna(), "").astype(str)  # an empty cell is ""
             lines = np.arange(1, len(df) + 1)
         else:
             raise InputError(where, p.suffix or "no extension", "a purchases file ends in .csv or .parquet")

@@ -184,3 +184,18 @@ def test_case_dial_above_a_lowered_vaporizer_maximum_exits_2(tmp_path, capsys):
     status, _, err = run(["--settings", settings, "case", LOW], capsys)
     # the demo plan's induction dials 6 % sevoflurane
     assert_one_line_error(status, err, "phases[1].dial", "'6 %'", "up to 5 %")
+
+
+def test_purchases_parquet_with_empty_size_and_date_month_is_read(tmp_path, capsys):
+    import pandas as pd
+
+    path = tmp_path / "p.parquet"
+    pd.DataFrame({"month": pd.to_datetime(["2025-09-01", "2025-09-15"]),
+                  "item": ["sevoflurane", "nitrous_oxide"], "quantity": [9, 1],
+                  "unit": ["bottle", "cylinder"], "size": [None, "9000 L"]}).to_parquet(path)
+    status, out, err = run(["audit", BIRCH, "--purchases", path, "--json"], capsys)
+    assert status == 0, err
+    bought = {(r["item"], r["month"]): r["purchased"] for r in json.loads(out)["reconciliation"]}
+    # 9 bottles of the 250 mL reference bottle (common practice, no source) = 2250 mL
+    assert bought[("sevoflurane", "2025-09")] == pytest.approx(2250.0)
+    assert bought[("nitrous_oxide", "2025-09")] == pytest.approx(9000.0)
