@@ -199,3 +199,24 @@ def test_purchases_parquet_with_empty_size_and_date_month_is_read(tmp_path, caps
     # 9 bottles of the 250 mL reference bottle (common practice, no source) = 2250 mL
     assert bought[("sevoflurane", "2025-09")] == pytest.approx(2250.0)
     assert bought[("nitrous_oxide", "2025-09")] == pytest.approx(9000.0)
+
+
+def readme_blocks(language):
+    return re.findall(rf"```{language}\n(.*?)```", README.read_text(encoding="utf-8"), re.S)
+
+
+def test_readme_plan_settings_scenario_and_purchases_examples_run(tmp_path, capsys):
+    plan, settings, scenario = readme_blocks("toml")[:3]
+    (tmp_path / "plan.toml").write_text(plan, encoding="utf-8")
+    (tmp_path / "settings.toml").write_text(settings, encoding="utf-8")
+    casemix = (BASELINE.parent / "fernhollow_casemix.csv").as_posix()
+    (tmp_path / "scenario.toml").write_text(
+        scenario.replace('"fernhollow_casemix.csv"', f'"{casemix}"'), encoding="utf-8")
+    (tmp_path / "purchases.csv").write_text(readme_blocks("csv")[0], encoding="utf-8")
+    for argv in (["case", tmp_path / "plan.toml"],
+                 ["--settings", tmp_path / "settings.toml", "case", LOW],
+                 ["year", tmp_path / "scenario.toml", "--draws", "200"],
+                 ["audit", BIRCH, "--purchases", tmp_path / "purchases.csv"]):
+        status, out, err = run(argv, capsys)
+        assert status == 0, (argv, err)
+        assert out.strip()
