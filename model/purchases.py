@@ -68,7 +68,8 @@ def read_purchases(path, reference: Reference = DEFAULT_REFERENCE, temperature_c
     p = Path(path)
     where = str(p)
     if not p.is_file():
-        raise InputError(where, where, "the purchases file does not exist")
+        raise InputError(where, where, "that is a folder; give a purchases file (.csv or .parquet)"
+                         if p.is_dir() else "the purchases file does not exist")
     fmt = p.suffix.lower()
     try:
         if fmt == ".csv":

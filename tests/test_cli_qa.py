@@ -220,3 +220,9 @@ def test_readme_plan_settings_scenario_and_purchases_examples_run(tmp_path, caps
         status, out, err = run(argv, capsys)
         assert status == 0, (argv, err)
         assert out.strip()
+
+
+def test_purchases_folder_is_named_as_a_folder(tmp_path, capsys):
+    status, _, err = run(["audit", BIRCH, "--purchases", tmp_path], capsys)
+    assert_one_line_error(status, err, "that is a folder")
+    assert "does not exist" not in err
