@@ -548,10 +548,15 @@ def _assemble(scenario: Scenario, ref: Reference, subplans: list[SubPlan], cols,
     gwp_keys = (scenario.gwp_source, *scenario.sampling.gwp_sources)
     gwp = np.zeros((len(gwp_keys), len(VOLATILES) + 1))
     for s_i, src in enumerate(gwp_keys):
-        for a_i, a in enumerate(VOLATILES):
-            if a in used_agents:
-                gwp[s_i, a_i] = ref.gwp(a, src)
-        gwp[s_i, -1] = ref.gwp("nitrous_oxide", src)
+        try:
+            for a_i, a in enumerate(VOLATILES):
+                if a in used_agents:
+                    gwp[s_i, a_i] = ref.gwp(a, src)
+            gwp[s_i, -1] = ref.gwp("nitrous_oxide", src)
+        except InputError as err:  # name the scenario and its field
+            field = "gwp_source" if s_i == 0 else "uncertainty.gwp_sources"
+            raise InputError(f"{scenario.source}: {field}" if scenario.source else field,
+                             src, err.allowed) from None
     weights = np.asarray(scenario.month_weights, dtype=float)
     pr = scenario.practice
     return YearInputs(

@@ -226,3 +226,17 @@ def test_purchases_folder_is_named_as_a_folder(tmp_path, capsys):
     status, _, err = run(["audit", BIRCH, "--purchases", tmp_path], capsys)
     assert_one_line_error(status, err, "that is a folder")
     assert "does not exist" not in err
+
+
+def test_year_gwp_source_without_an_agent_value_names_the_scenario_field(tmp_path, capsys):
+    casemix = tmp_path / "mix.csv"
+    casemix.write_text(
+        "case_type,cases_per_year,median_duration,sevoflurane,halothane,plan\n"
+        f"Paediatric,10,45,0.5,0.5,{(BASELINE.parent / 'plans' / 'child_2l.toml').as_posix()}\n",
+        encoding="utf-8")
+    scenario = tmp_path / "s.toml"
+    scenario.write_text(f'name = "t"\ncase_mix = "{casemix.as_posix()}"\n'
+                        '[uncertainty]\ndraws = 50\ngwp_sources = ["ar6_gwp100", "sulbaek_andersen_2012"]\n',
+                        encoding="utf-8")
+    status, _, err = run(["year", scenario], capsys)
+    assert_one_line_error(status, err, "s.toml: uncertainty.gwp_sources", "sulbaek_andersen_2012", "halothane")
