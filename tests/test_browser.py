@@ -6,6 +6,7 @@ test-artifacts/ (ignored by git).
 
 from __future__ import annotations
 
+import contextlib
 import io
 import os
 import re
@@ -41,12 +42,12 @@ def store_path(tmp_path_factory):
     return tmp_path_factory.mktemp("browser-store") / "store.sqlite3"
 
 
-@pytest.fixture(scope="module")
-def app_url(tmp_path_factory, store_path):
-    store = store_path
+@contextlib.contextmanager
+def serve_app(log_dir: Path, store: Path):
+    """``streamlit run app.py`` on a free loopback port with its own store; yields its URL."""
     port = _free_port()
     env = dict(os.environ, GAS_LEDGER_STORE=str(store))
-    log = open(tmp_path_factory.mktemp("browser-log") / "streamlit.log", "w")
+    log = open(log_dir / "streamlit.log", "w")
     proc = subprocess.Popen([sys.executable, "-m", "streamlit", "run", "app.py", "--server.headless", "true",
                              "--server.port", str(port), "--server.address", "127.0.0.1"],
                             cwd=ROOT, env=env, stdout=log, stderr=subprocess.STDOUT)
@@ -70,6 +71,12 @@ def app_url(tmp_path_factory, store_path):
         except subprocess.TimeoutExpired:
             proc.kill()
         log.close()
+
+
+@pytest.fixture(scope="module")
+def app_url(tmp_path_factory, store_path):
+    with serve_app(tmp_path_factory.mktemp("browser-log"), store_path) as url:
+        yield url
 
 
 @pytest.fixture(scope="module")
@@ -268,3 +275,16 @@ def test_hostile_plan_name_is_shown_as_text_and_escaped_in_the_report(page, app_
     assert page.evaluate("() => window.__pwned === undefined")
     assert page.locator("img[src='x']").count() == 0
     assert all(u.startswith("file:") or u.startswith("data:") for u in requests), requests
+
+
+def test_a_direct_link_as_the_first_request_gets_the_app_navigation(page, tmp_path):
+    # A bookmark to a page, opened first after a server start, must still show the app's
+    # own sections and titles (not one entry per file in pages/, nor an "app" entry).
+    with serve_app(tmp_path, tmp_path / "store.sqlite3") as url:
+        page.goto(url + "/compare")
+        page.get_by_text("Against the baseline").first.wait_for()
+        wait_idle(page)
+        nav = page.locator('[data-testid="stSidebarNav"]')
+        assert nav.get_by_text("The department").count() == 1
+        assert nav.get_by_role("link", name="Department year").count() == 1
+        assert nav.get_by_role("link", name="app", exact=True).count() == 0

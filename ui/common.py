@@ -195,8 +195,25 @@ def view_settings() -> ViewSettings:
     return view
 
 
+def _leave_pages_folder_mode() -> None:
+    """Hand a page opened by a direct link over to app.py's navigation.
+
+    Until ``st.navigation`` has run once in a server process, Streamlit treats the
+    ``pages/`` folder beside the entry point as its older folder-based navigation: a
+    bookmark to ``/compare`` as the first request after a start would run that page alone,
+    without the app's sections, wide layout and shared sidebar, for every user. Clearing
+    the flag and rerunning lets app.py take over and open the same page.
+    """
+    from streamlit.runtime.pages_manager import PagesManager
+
+    if PagesManager.uses_pages_directory:
+        PagesManager.uses_pages_directory = False
+        st.rerun()
+
+
 def page_start(title: str, intro: str = "") -> ViewSettings:
     """Start a page: its title, a one-line intro, the settings sidebar and the caution."""
+    _leave_pages_folder_mode()
     view = view_settings()
     st.title(title)
     if intro:
