@@ -331,7 +331,8 @@ def case_results(raw: pd.DataFrame, reference: Reference, gwp_source: str, tempe
     c["nitrous_oxide_emitted_g"] = emitted_mass_g(c["nitrous_oxide_g"].to_numpy(), 0.0,
                                                   n2o.metabolised_fraction, 0.0)
     c["co2e_nitrous_oxide_kg"] = co2e_kg(c["nitrous_oxide_emitted_g"].to_numpy(),
-                                         reference.gwp("nitrous_oxide", gwp_source))
+                                         reference.gwp("nitrous_oxide", gwp_source,
+                                                       used=bool((c["nitrous_oxide_l"] > 0).any())))
     c["co2e_total_kg"] = c["co2e_agent_kg"] + c["co2e_nitrous_oxide_kg"]
     any_volatile = reference.volatile("sevoflurane")  # bottle size unused: no liquid passed
     gas = case_costs(np.zeros(n), c["oxygen_l"].to_numpy(dtype=float), c["air_l"].to_numpy(dtype=float),

@@ -392,7 +392,7 @@ def compute_case(plan: CasePlan, reference: Reference = DEFAULT_REFERENCE) -> Ca
                              f"{agent.vaporizer_max:g} % (reference values in use)")
     n2o_agent = reference.agents["nitrous_oxide"]
     gwp_agent = reference.gwp(agent.name, s.gwp_source)
-    gwp_n2o = reference.gwp("nitrous_oxide", s.gwp_source)
+    gwp_n2o = reference.gwp("nitrous_oxide", s.gwp_source, used=any(p.n2o_l_min > 0 for p in plan.phases))
     sim = simulate_plan(plan, reference, record=True)
     tot, ph = simulation_totals(sim, agent, reference.prices, gwp_agent=gwp_agent, gwp_n2o=gwp_n2o,
                                 capture_efficiency=s.capture_efficiency, temperature_c=s.temperature_c,

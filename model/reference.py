@@ -310,10 +310,16 @@ class Reference:
             raise InputError(field_name, name, "allowed volatile agents are " + ", ".join(VOLATILES))
         return agent
 
-    def gwp(self, agent: str, source: str = DEFAULT_GWP) -> float:
-        """GWP of ``agent`` under ``source``. [kg CO2e/kg]"""
+    def gwp(self, agent: str, source: str = DEFAULT_GWP, used: bool = True) -> float:
+        """GWP of ``agent`` under ``source``. [kg CO2e/kg]
+
+        With ``used`` False (nothing of the agent is emitted, e.g. a plan without N2O), a
+        source that has no value for it gives 0 instead of an error.
+        """
         src = self.gwp_source(source)
         value = src.values.get(agent)
+        if (value is None or value.value is None) and not used:
+            return 0.0
         if value is None or value.value is None:
             raise InputError("gwp_source", source,
                              f"{src.label} has no value for {agent}; choose another source "

@@ -132,7 +132,7 @@ def flow_sweep(plan: CasePlan, reference: Reference = DEFAULT_REFERENCE, flows_l
                         target_mac=tgt)
     totals, _ = simulation_totals(sim, agent, reference.prices,
                                   gwp_agent=reference.gwp(agent.name, s.gwp_source),
-                                  gwp_n2o=reference.gwp("nitrous_oxide", s.gwp_source),
+                                  gwp_n2o=reference.gwp("nitrous_oxide", s.gwp_source, used=bool(np.any(n2o > 0))),
                                   capture_efficiency=s.capture_efficiency, temperature_c=s.temperature_c,
                                   pressure_kpa=s.pressure_kpa, nitrous_oxide=reference.agents["nitrous_oxide"])
     fgf = sim["phase_fgf_l_min"][phase]

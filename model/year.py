@@ -541,6 +541,7 @@ def _assemble(scenario: Scenario, ref: Reference, subplans: list[SubPlan], cols,
     rate = np.where(has_var[None, :, None], cov / np.where(has_var, var, 1.0)[None, :, None], 0.0)
     fixed = e_f - rate * mean[None, :, None]
     used_agents = {sp.agent for sp in subplans}
+    uses_n2o = any(q.n2o_l_min > 0 for sp in subplans for q in sp.plan.phases)
     prices = ref.prices
     price_vec = np.array([prices.bottle.get(a, 0.0) for a in VOLATILES]
                          + [prices.oxygen_per_1000_l, prices.air_per_1000_l,
@@ -552,7 +553,7 @@ def _assemble(scenario: Scenario, ref: Reference, subplans: list[SubPlan], cols,
             for a_i, a in enumerate(VOLATILES):
                 if a in used_agents:
                     gwp[s_i, a_i] = ref.gwp(a, src)
-            gwp[s_i, -1] = ref.gwp("nitrous_oxide", src)
+            gwp[s_i, -1] = ref.gwp("nitrous_oxide", src, used=uses_n2o)
         except InputError as err:  # name the scenario and its field
             field = "gwp_source" if s_i == 0 else "uncertainty.gwp_sources"
             raise InputError(f"{scenario.source}: {field}" if scenario.source else field,

@@ -240,3 +240,26 @@ def test_year_gwp_source_without_an_agent_value_names_the_scenario_field(tmp_pat
                         encoding="utf-8")
     status, _, err = run(["year", scenario], capsys)
     assert_one_line_error(status, err, "s.toml: uncertainty.gwp_sources", "sulbaek_andersen_2012", "halothane")
+
+
+def test_user_gwp_without_n2o_serves_plans_that_use_no_n2o(tmp_path, capsys):
+    # A user GWP table without nitrous oxide is enough for a plan that gives no N2O; a plan
+    # that does give N2O is refused with one line naming what is missing.
+    settings = tmp_path / "settings.toml"
+    settings.write_text("[gwp.user]\nsevoflurane = 130.0\n", encoding="utf-8")
+    plan = tmp_path / "plan.toml"
+    plan.write_text(LOW.read_text(encoding="utf-8").replace('gwp_source = "ar6_gwp100"', 'gwp_source = "user"'),
+                    encoding="utf-8")
+    status, out, err = run(["--settings", settings, "case", plan, "--json"], capsys)
+    assert status == 0, err
+    t = json.loads(out)["totals"]
+    # CO2e = emitted mass x GWP (IPCC AR6 WG1 Ch. 7 definition of CO2-equivalent)
+    assert t["co2e_agent_kg"] == pytest.approx(t["agent_emitted_g"] / 1000.0 * 130.0, rel=1e-9)
+    assert t["co2e_nitrous_oxide_kg"] == 0.0
+    status, out, err = run(["--settings", settings, "sweep", plan, "--json"], capsys)
+    assert status == 0, err
+    with_n2o = tmp_path / "n2o.toml"
+    with_n2o.write_text(plan.read_text(encoding="utf-8").replace('air = "0.2 L/min"', 'n2o = "0.2 L/min"'),
+                        encoding="utf-8")
+    status, out, err = run(["--settings", settings, "case", with_n2o], capsys)
+    assert_one_line_error(status, err, "nitrous_oxide", "gwp.user")
