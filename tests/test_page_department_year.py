@@ -2,27 +2,11 @@
 
 from __future__ import annotations
 
-from pathlib import Path
-
-import pytest
 from streamlit.testing.v1 import AppTest
 
-from model.store import STORE_ENV
+from pagetest import ROOT, isolated_store, page  # noqa: F401  (isolated_store: autouse fixture)
 
-ROOT = Path(__file__).resolve().parents[1]
-TIMEOUT = 120
-
-
-@pytest.fixture(autouse=True)
-def isolated_store(tmp_path, monkeypatch):
-    monkeypatch.setenv(STORE_ENV, str(tmp_path / "store.sqlite3"))
-
-
-def _page(name: str) -> AppTest:
-    at = AppTest.from_file(str(ROOT / "pages" / name), default_timeout=TIMEOUT)
-    at.run()
-    assert not at.exception, [e.message for e in at.exception]
-    return at
+_page = page
 
 
 def _metric(at: AppTest, label: str) -> float:

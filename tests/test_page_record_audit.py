@@ -2,29 +2,17 @@
 
 from __future__ import annotations
 
-from pathlib import Path
-
-import pytest
 from streamlit.testing.v1 import AppTest
 
 from model.audit import audit_records
-from model.store import STORE_ENV
 
-ROOT = Path(__file__).resolve().parents[1]
+from pagetest import ROOT, isolated_store, page  # noqa: F401  (isolated_store: autouse fixture)
+
 DEMO = ROOT / "demo_data" / "records"
-TIMEOUT = 120
-
-
-@pytest.fixture(autouse=True)
-def isolated_store(tmp_path, monkeypatch):
-    monkeypatch.setenv(STORE_ENV, str(tmp_path / "store.sqlite3"))
 
 
 def _run() -> AppTest:
-    at = AppTest.from_file(str(ROOT / "pages" / "record_audit.py"), default_timeout=TIMEOUT)
-    at.run()
-    assert not at.exception, [e.message for e in at.exception]
-    return at
+    return page("record_audit.py")
 
 
 def _metric(at: AppTest, label: str) -> str:

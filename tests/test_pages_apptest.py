@@ -3,29 +3,13 @@
 from __future__ import annotations
 
 import re
-from pathlib import Path
 
 import pytest
 from streamlit.testing.v1 import AppTest
 
-from model.store import STORE_ENV, Store
+from model.store import Store
 
-ROOT = Path(__file__).resolve().parents[1]
-TIMEOUT = 120
-
-
-@pytest.fixture(autouse=True)
-def isolated_store(tmp_path, monkeypatch):
-    path = tmp_path / "store.sqlite3"
-    monkeypatch.setenv(STORE_ENV, str(path))
-    return path
-
-
-def page(name: str) -> AppTest:
-    at = AppTest.from_file(str(ROOT / "pages" / name), default_timeout=TIMEOUT)
-    at.run()
-    assert not at.exception, [e.message for e in at.exception]
-    return at
+from pagetest import ROOT, TIMEOUT, isolated_store, page  # noqa: F401  (isolated_store: autouse fixture)
 
 
 def metric(at: AppTest, label: str) -> float:
