@@ -160,6 +160,18 @@ from typing import Annotated  # noqa: E402  (kept beside its only use)
 Flow = Annotated[float, _quantity("L/min", 0.0, 20.0)]
 
 
+def _one_of(choices, noun: str):
+    """A text field that must be one of ``choices`` ("allowed <noun> are ...")."""
+    def check(value, info: pydantic.ValidationInfo):
+        if value not in choices:
+            raise InputError(info.field_name, value, f"allowed {noun} are " + ", ".join(choices))
+        return value
+    return pydantic.AfterValidator(check)
+
+
+GwpSourceName = Annotated[str, _one_of(GWP_SOURCES, "sources")]
+
+
 class _Strict(pydantic.BaseModel):
     model_config = pydantic.ConfigDict(extra="forbid", str_strip_whitespace=True)
 
@@ -197,38 +209,17 @@ class PhaseIn(_Strict):
 class SettingsIn(_Strict):
     room_temperature: Annotated[float, _quantity("degC", 0.0, 45.0)] = 20.0
     pressure: Annotated[float, _quantity("kPa", 50.0, 120.0)] = 101.325
-    gwp_source: str = DEFAULT_GWP
+    gwp_source: GwpSourceName = DEFAULT_GWP
     capture_efficiency: Annotated[float, Share] = 0.0
     min_o2_share: Annotated[float, Share] = 0.25
     n2o_cutoff_o2_flow: Annotated[float, _quantity("L/min", 0.0, 5.0)] = 0.2
-    ratio_limit: str = "cap_n2o"
+    ratio_limit: Annotated[str, _one_of(RATIO_BEHAVIOURS, "values")] = "cap_n2o"
     inspired_o2_floor: Annotated[float, Share] = 0.30
     sevoflurane_min_flow: Annotated[float, _quantity("L/min", 0.0, 20.0)] = 1.0
     sevoflurane_min_flow_long: Annotated[float, _quantity("L/min", 0.0, 20.0)] = 2.0
-    uptake_model: str = DEFAULT_UPTAKE_MODEL
+    uptake_model: Annotated[str, _one_of(UPTAKE_MODELS, "models")] = DEFAULT_UPTAKE_MODEL
     circle_volume: Annotated[float, _quantity("L", 0.5, 20.0)] = CIRCLE_VOLUME_L
     absorbent_capacity: Annotated[float, _quantity("L/kg", 10.0, 300.0)] = ABSORBENT_CAPACITY_L_PER_KG
-
-    @pydantic.field_validator("uptake_model")
-    @classmethod
-    def _known_uptake_model(cls, v):
-        if v not in UPTAKE_MODELS:
-            raise InputError("uptake_model", v, "allowed models are " + ", ".join(UPTAKE_MODELS))
-        return v
-
-    @pydantic.field_validator("gwp_source")
-    @classmethod
-    def _known_source(cls, v):
-        if v not in GWP_SOURCES:
-            raise InputError("gwp_source", v, "allowed sources are " + ", ".join(GWP_SOURCES))
-        return v
-
-    @pydantic.field_validator("ratio_limit")
-    @classmethod
-    def _known_behaviour(cls, v):
-        if v not in RATIO_BEHAVIOURS:
-            raise InputError("ratio_limit", v, "allowed values are " + ", ".join(RATIO_BEHAVIOURS))
-        return v
 
     @pydantic.field_validator("inspired_o2_floor")
     @classmethod

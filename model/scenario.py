@@ -16,7 +16,7 @@ import pydantic
 from .casemix import CaseMix, load_casemix
 from .errors import InputError
 from .files import read_user_text
-from .plan import Share, _first_error, _quantity, _Strict
+from .plan import GwpSourceName, Share, _first_error, _quantity, _Strict
 from .reference import DEFAULT_GWP, GWP_SOURCES, VOLATILES, Reference, Sourced, normalise_agent_name
 
 SCENARIO_FORMAT = "fresh-gas-ledger scenario 1"
@@ -181,19 +181,12 @@ class _ScenarioIn(_Strict):
     format: str = SCENARIO_FORMAT
     name: Annotated[str, pydantic.StringConstraints(min_length=1, max_length=120)] = "Unnamed scenario"
     case_mix: Annotated[str, pydantic.StringConstraints(min_length=1, max_length=500)]
-    gwp_source: str = DEFAULT_GWP
+    gwp_source: GwpSourceName = DEFAULT_GWP
     practice: _PracticeIn = _PracticeIn()
     prices: dict[str, Any] = {}
     uncertainty: _SamplingIn = _SamplingIn()
     equivalence: _EquivalenceIn = _EquivalenceIn()
     calendar: _CalendarIn = _CalendarIn()
-
-    @pydantic.field_validator("gwp_source")
-    @classmethod
-    def _source(cls, v):
-        if v not in GWP_SOURCES:
-            raise InputError("gwp_source", v, "allowed sources are " + ", ".join(GWP_SOURCES))
-        return v
 
     @pydantic.field_validator("format")
     @classmethod
