@@ -46,16 +46,18 @@ def cmd_audit(args) -> int:
         gap_limit_min=DEFAULT_GAP_LIMIT_MIN if args.gap_limit is None else args.gap_limit,
         high_flow_limit_min=DEFAULT_HIGH_FLOW_LIMIT_MIN if args.high_flow_limit is None else args.high_flow_limit,
         memory_limit=args.memory_limit)
-    recon = None
+    recon, purchase_notes = None, []
     if args.purchases:
-        from .purchases import read_purchases, reconcile
+        from .purchases import load_purchases, reconcile
 
-        purchases = read_purchases(args.purchases, reference)
-        recon = reconcile(purchases, result.use_by_month(), reference, result.gwp_source)
+        bought = load_purchases(args.purchases, reference)
+        purchase_notes = bought.messages
+        recon = reconcile(bought.table, result.use_by_month(), reference, result.gwp_source)
     if args.json:
         data = result.to_dict()
         if recon is not None:
             data["reconciliation"] = [{k: _num(v) for k, v in r.items()} for r in recon.to_dict("records")]
+            data["purchase_lines_set_aside"] = purchase_notes
         data["caution"] = CAUTION
         data["de_identification"] = DE_IDENTIFY
         print_json(data)
@@ -99,6 +101,12 @@ def cmd_audit(args) -> int:
                      "high_flow_cases"], out)
     if recon is not None:
         out.write("\nPurchases against recorded use (unexplained = purchased - recorded)\n")
+        if purchase_notes:
+            out.write(f"{len(purchase_notes)} purchase line(s) set aside; the others are used:\n")
+            for m in purchase_notes[: args.messages]:
+                out.write(f"  - {m}\n")
+            if len(purchase_notes) > args.messages:
+                out.write(f"  ... {len(purchase_notes) - args.messages} more (--messages N, or --json)\n")
         print_table(recon.to_dict("records"),
                     ["item", "month", "unit", "purchased", "recorded", "unexplained", "unexplained_share",
                      "unexplained_co2e_kg"], out)

@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import re
 import warnings
+from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
@@ -41,9 +42,45 @@ def _convert(value: float, unit: str, base: str):
         return None
 
 
+@dataclass
+class PurchasesFile:
+    """A purchases file as read: the usable lines, and the lines set aside with their reason."""
+
+    table: pd.DataFrame
+    #: One error per line set aside, naming the file, the line and the column.
+    set_aside: list[InputError] = field(default_factory=list)
+
+    @property
+    def messages(self) -> list[str]:
+        return [str(e) for e in self.set_aside]
+
+
 def read_purchases(path, reference: Reference = DEFAULT_REFERENCE, temperature_c: float = 20.0,
                    pressure_kpa: float = STANDARD_PRESSURE_KPA) -> pd.DataFrame:
-    """Read a purchases file.
+    """Read a purchases file, refusing it at its first bad line.
+
+    The strict form of :func:`load_purchases` (same parameters), for callers that must
+    not go on with a partial file.
+
+    Returns
+    -------
+    DataFrame
+        ``month``, ``item``, ``amount`` and ``unit``, as :attr:`PurchasesFile.table`.
+
+    Raises
+    ------
+    InputError
+        Naming the file, the line and the column of the first bad entry.
+    """
+    read = load_purchases(path, reference, temperature_c, pressure_kpa)
+    if read.set_aside:
+        raise read.set_aside[0]
+    return read.table
+
+
+def load_purchases(path, reference: Reference = DEFAULT_REFERENCE, temperature_c: float = 20.0,
+                   pressure_kpa: float = STANDARD_PRESSURE_KPA) -> PurchasesFile:
+    """Read a purchases file, setting bad lines aside and keeping every good one.
 
     Parameters
     ----------
@@ -56,14 +93,17 @@ def read_purchases(path, reference: Reference = DEFAULT_REFERENCE, temperature_c
 
     Returns
     -------
-    DataFrame
-        ``month``, ``item``, ``amount`` and ``unit`` ("mL" of liquid for volatile agents,
-        "L" of gas at room conditions for gases), one row per purchase line.
+    PurchasesFile
+        ``table``: ``month``, ``item``, ``amount`` and ``unit`` ("mL" of liquid for volatile
+        agents, "L" of gas at room conditions for gases), one row per usable purchase line;
+        ``set_aside``: one error per bad line (month, item, quantity, unit or size), naming
+        the file, the line and the column.
 
     Raises
     ------
     InputError
-        Naming the file, the line and the column of the first bad entry.
+        When the file as a whole cannot be read: missing, wrong format or encoding, a line
+        with more fields than the header, or a required column missing.
     """
     p = Path(path)
     where = str(p)
@@ -104,32 +144,42 @@ def read_purchases(path, reference: Reference = DEFAULT_REFERENCE, temperature_c
         raise InputError(f"{where}: columns", ", ".join(df.columns), "missing column(s): " + ", ".join(missing))
     if "size" not in df.columns:
         df["size"] = ""
-    out = []
+    out, set_aside = [], []
     for i, r in enumerate(df.itertuples(index=False)):
         at = f"{where}, {label} {int(lines[i]) if i < len(lines) else i + 1}"
-        month = str(r.month).strip()
-        if not _MONTH.match(month):
-            raise InputError(f"{at}: month", month, "expected a month as YYYY-MM, e.g. 2025-03")
-        key = normalise_agent_name(str(r.item))
-        if key not in reference.agents:
-            raise InputError(f"{at}: item", r.item, "allowed items are " + ", ".join(reference.agents))
-        agent = reference.agents[key]
         try:
-            qty = float(str(r.quantity).strip())
-        except ValueError:
-            raise InputError(f"{at}: quantity", r.quantity, "expected a number") from None
-        if not np.isfinite(qty) or qty < 0:
-            raise InputError(f"{at}: quantity", r.quantity, "expected a finite number, not negative")
-        unit = str(r.unit).strip()
-        size = str(r.size).strip() if r.size is not None else ""
-        if agent.kind == "volatile":
-            amount = _volatile_ml(qty, unit, size, agent, at)
-            base = "mL"
-        else:
-            amount = _gas_l(qty, unit, size, agent, at, temperature_c, pressure_kpa)
-            base = "L"
-        out.append((month, key, amount, base))
-    return pd.DataFrame(out, columns=["month", "item", "amount", "unit"])
+            out.append(_purchase_line(r, at, reference, temperature_c, pressure_kpa))
+        except InputError as err:
+            set_aside.append(err)
+    table = pd.DataFrame(out, columns=["month", "item", "amount", "unit"])
+    return PurchasesFile(table, set_aside)
+
+
+def _purchase_line(r, at: str, reference: Reference, temperature_c: float,
+                   pressure_kpa: float) -> tuple[str, str, float, str]:
+    """One purchase line as (month, item, amount, unit); InputError naming ``at`` if bad."""
+    month = str(r.month).strip()
+    if not _MONTH.match(month):
+        raise InputError(f"{at}: month", month, "expected a month as YYYY-MM, e.g. 2025-03")
+    key = normalise_agent_name(str(r.item))
+    if key not in reference.agents:
+        raise InputError(f"{at}: item", r.item, "allowed items are " + ", ".join(reference.agents))
+    agent = reference.agents[key]
+    try:
+        qty = float(str(r.quantity).strip())
+    except ValueError:
+        raise InputError(f"{at}: quantity", r.quantity, "expected a number") from None
+    if not np.isfinite(qty) or qty < 0:
+        raise InputError(f"{at}: quantity", r.quantity, "expected a finite number, not negative")
+    unit = str(r.unit).strip()
+    size = str(r.size).strip() if r.size is not None else ""
+    if agent.kind == "volatile":
+        amount = _volatile_ml(qty, unit, size, agent, at)
+        base = "mL"
+    else:
+        amount = _gas_l(qty, unit, size, agent, at, temperature_c, pressure_kpa)
+        base = "L"
+    return month, key, amount, base
 
 
 def _header_line(p: Path) -> int:

@@ -15,7 +15,7 @@ from model import InputError
 from model.audit import DEFAULT_HIGH_FLOW_L_MIN, DEFAULT_HIGH_FLOW_LIMIT_MIN, audit_records
 from model.exports import html_report
 from model.freshgas import FLOW_BAND_NAMES
-from model.purchases import read_purchases, reconcile
+from model.purchases import load_purchases, reconcile
 from model.records import DEFAULT_GAP_LIMIT_MIN
 from model.uploads import check_upload
 
@@ -75,15 +75,26 @@ if not files:
 
 
 def run_audit(files: tuple, purchases: tuple | None, settings: tuple, _ref, _progress):
-    """Audit the files (written to a private temporary folder) and reconcile with purchases."""
+    """Audit the files (written to a private temporary folder) and reconcile with purchases.
+
+    Returns (audit result, reconciliation or None, messages for purchase lines set aside).
+    """
     gap, high, limit, gwp, temp = settings
     with tempfile.TemporaryDirectory(prefix="gas-ledger-audit-") as tmp:
+        def shown(text):
+            """Name the uploaded file, not its copy in the private temporary folder."""
+            if not isinstance(text, str):
+                return text
+            for i, (name, _) in enumerate(files):
+                text = text.replace(str(Path(tmp) / f"{i:03d}-{Path(name).name}"), Path(name).name)
+            return text.replace(tmp + "/", "")
+
         paths = []
         for i, (name, data) in enumerate(files):
             p = Path(tmp) / f"{i:03d}-{Path(name).name}"
             p.write_bytes(data)
             paths.append(p)
-        recon = None
+        recon, purchase_notes = None, []
         try:
             result = audit_records(paths, reference=_ref, gwp_source=gwp, temperature_c=temp,
                                    gap_limit_min=gap, high_flow_l_min=high, high_flow_limit_min=limit,
@@ -91,27 +102,21 @@ def run_audit(files: tuple, purchases: tuple | None, settings: tuple, _ref, _pro
             if purchases is not None:
                 p = Path(tmp) / Path(purchases[0]).name
                 p.write_bytes(purchases[1])
-                recon = reconcile(read_purchases(p, _ref), result.use_by_month(), _ref, gwp)
+                bought = load_purchases(p, _ref)
+                purchase_notes = [shown(m) for m in bought.messages]
+                recon = reconcile(bought.table, result.use_by_month(), _ref, gwp)
         except InputError as err:
-            # Name the uploaded file, not its copy in the private temporary folder.
-            def shown(text):
-                if not isinstance(text, str):
-                    return text
-                for i, (name, _) in enumerate(files):
-                    text = text.replace(str(Path(tmp) / f"{i:03d}-{Path(name).name}"), Path(name).name)
-                return text.replace(tmp + "/", "")
             raise InputError(shown(str(err.field)), shown(err.value), shown(err.allowed)) from None
     # File names inside the temporary folder mean nothing to the user: show the uploaded names.
     for i, (name, _) in enumerate(files):
-        shown = Path(name).name
-        inner = str(Path(tmp) / f"{i:03d}-{shown}")
+        inner, outer = str(Path(tmp) / f"{i:03d}-{Path(name).name}"), Path(name).name
         for df in (result.report.issues, result.report.gap_list):
             for col in ("file", "message"):
                 if len(df):
-                    df[col] = df[col].str.replace(inner, shown, regex=False)
-        result.report.files[i] = shown
+                    df[col] = df[col].str.replace(inner, outer, regex=False)
+        result.report.files[i] = outer
     result.report.notes = [n.replace(tmp + "/", "") for n in result.report.notes]
-    return result, recon
+    return result, recon, purchase_notes
 
 
 digest = hashlib.sha256()
@@ -139,7 +144,7 @@ if cache_key not in cache:
     bar.empty()
     while len(cache) > 3:
         cache.pop(next(iter(cache)))
-result, recon = cache[cache_key]
+result, recon, purchase_notes = cache[cache_key]
 
 rep = result.report
 summary = rep.summary()
@@ -205,6 +210,11 @@ with tab_month:
     st.dataframe(by_month, hide_index=True, width="stretch")
     st.dataframe(by_agent, hide_index=True, width="stretch")
 with tab_recon:
+    if purchase_notes:
+        more = len(purchase_notes) - 20
+        st.warning(f"{len(purchase_notes)} purchase line(s) set aside; the others are used:\n\n"
+                   + "\n".join(f"- {ui.md(m)}" for m in purchase_notes[:20])
+                   + (f"\n- ... and {more} more" if more > 0 else ""), icon=":material/warning:")
     if recon is None:
         st.caption("Add a purchases file (format in the README, 'Purchases') to compare with what was bought.")
     else:

@@ -263,3 +263,20 @@ def test_user_gwp_without_n2o_serves_plans_that_use_no_n2o(tmp_path, capsys):
                         encoding="utf-8")
     status, out, err = run(["--settings", settings, "case", with_n2o], capsys)
     assert_one_line_error(status, err, "nitrous_oxide", "gwp.user")
+
+
+def test_audit_sets_a_bad_purchase_line_aside_and_reconciles_the_rest(tmp_path, capsys):
+    purchases = tmp_path / "p.csv"
+    purchases.write_text("month,item,quantity,unit,size\n2025-09,sevoflurane,9,bottle,\n"
+                         "2025-09,sevoflurane,nine,bottle,\n2025-09,isoflurane,1,bottle,\n", encoding="utf-8")
+    status, out, err = run(["audit", BIRCH, "--purchases", purchases], capsys)
+    assert status == 0, err
+    assert "1 purchase line(s) set aside" in out and f"{purchases}, line 3: quantity" in out
+    status, out, err = run(["audit", BIRCH, "--purchases", purchases, "--json"], capsys)
+    data = json.loads(out)
+    assert [m.split(": ")[0] for m in data["purchase_lines_set_aside"]] == [f"{purchases}, line 3"]
+    bought = {(r["item"], r["month"]): r["purchased"] for r in data["reconciliation"]}
+    # 9 bottles of the 250 mL reference bottle (common practice, no source) = 2250 mL; the
+    # line that says "nine" adds nothing, the isoflurane line after it is kept.
+    assert bought[("sevoflurane", "2025-09")] == pytest.approx(2250.0)
+    assert ("isoflurane", "2025-09") in bought

@@ -277,10 +277,14 @@ PURCHASE_TEXT = (RECORDS / "fernhollow_purchases_2025.csv").read_text()
 
 
 def _read_purchases(path):
-    result = _only_input_error(purchases.read_purchases, path)
-    if result is not None:
-        assert set(result.columns) >= {"month", "item", "amount", "unit"}
-        assert (result["amount"] >= 0).all()
+    read = _only_input_error(purchases.load_purchases, path)
+    if read is None:
+        return None
+    result = read.table
+    assert set(result.columns) >= {"month", "item", "amount", "unit"}
+    assert (result["amount"] >= 0).all()
+    # Each line set aside is named by its file and line.
+    assert all(m.startswith(f"{path}, ") and m.strip() for m in read.messages)
     return result
 
 
@@ -331,7 +335,8 @@ def test_found_power_in_a_record_unit_is_refused_without_evaluating_it(scratch):
 
 
 def test_found_power_in_a_purchase_unit_is_refused_without_evaluating_it(scratch):
-    data = b"month,item,quantity,unit,size\n2025-01,oxygen,2,cylinder,9**9**9 L\n"
-    assert _read_purchases(_write(scratch, "pow.csv", data)) is None
-    data = b"month,item,quantity,unit,size\n2025-01,oxygen,2,L**9**9,\n"
-    assert _read_purchases(_write(scratch, "pow2.csv", data)) is None
+    for name, line, column in (("pow.csv", b"2025-01,oxygen,2,cylinder,9**9**9 L", "size"),
+                               ("pow2.csv", b"2025-01,oxygen,2,L**9**9,", "unit")):
+        read = purchases.load_purchases(_write(scratch, name, b"month,item,quantity,unit,size\n" + line + b"\n"))
+        assert read.table.empty
+        assert len(read.messages) == 1 and f"line 2: {column}" in read.messages[0]

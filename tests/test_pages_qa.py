@@ -182,3 +182,20 @@ def test_year_follows_the_sidebar_room_temperature_like_the_case_plan():
     # Ideal gas (DESIGN.md 3.1): warmer liquid gives more vapour per mL, so less liquid for the
     # same dial; the year must move with the sidebar's temperature as a single case does.
     assert _per_case_liquid_ml(at) < cool
+
+
+def test_a_bad_purchase_line_is_shown_set_aside_and_the_rest_reconciled():
+    at = page("record_audit.py")
+    at.radio(key="ra_source").set_value("Upload files").run()
+    birch = (ROOT / "demo_data" / "records" / "fernhollow_birch_cases.csv").read_bytes()
+    at.get("file_uploader")[0].upload("birch.csv", birch).run()
+    at.get("file_uploader")[1].upload(
+        "bought.csv", b"month,item,quantity,unit,size\n2025-09,N2O,1,cylinder,\n2025-09,N2O,2,cylinder,9000 L\n").run()
+    assert not at.exception, [e.message for e in at.exception]
+    warning = " ".join(w.value for w in at.warning)
+    assert "1 purchase line(s) set aside" in warning
+    assert "bought\\.csv, line 2\\: size" in warning and "/tmp" not in warning
+    # The good line is reconciled: 2 cylinders of 9000 L (arithmetic).
+    recon = next(df.value for df in at.dataframe if "apparent_loss" in df.value.columns)
+    total = recon[(recon["item"] == "nitrous_oxide") & (recon["month"] == "all")]
+    assert float(total["purchased"].iloc[0]) == 18000.0

@@ -7,10 +7,12 @@ from pathlib import Path
 import globalwarmingpotentials as gwp_tables
 import pandas as pd
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from model.audit import audit_records
 from model.errors import InputError
-from model.purchases import purchase_emissions, read_purchases, reconcile
+from model.purchases import load_purchases, purchase_emissions, read_purchases, reconcile
 from model.reference import DEFAULT_REFERENCE
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -95,3 +97,60 @@ def test_bad_purchase_lines_name_file_line_and_column(tmp_path, line, field):
     with pytest.raises(InputError) as err:
         read_purchases(p)
     assert f"{p}, line 4: {field}" in str(err.value)
+
+
+@pytest.mark.parametrize("line, field", [
+    ("2025-13,sevoflurane,1,bottle,", "month"),
+    ("2025-01,xenon,1,bottle,", "item"),
+    ("2025-01,sevoflurane,two,bottle,", "quantity"),
+    ("2025-01,sevoflurane,1,furlong,", "unit"),
+    ("2025-01,nitrous_oxide,1,cylinder,", "size"),
+])
+def test_a_bad_purchase_line_is_set_aside_and_the_lines_around_it_are_kept(tmp_path, line, field):
+    p = _file(tmp_path, "month,item,quantity,unit,size\n2025-01,sevoflurane,1,bottle,\n"
+                        + line + "\n2025-02,isoflurane,2,bottle,\n")
+    read = load_purchases(p)
+    assert [str(e) for e in read.set_aside] == read.messages
+    assert len(read.set_aside) == 1 and f"{p}, line 3: {field}" in read.messages[0]
+    assert list(zip(read.table["month"], read.table["item"])) == [("2025-01", "sevoflurane"),
+                                                                  ("2025-02", "isoflurane")]
+    # The strict reader refuses the same file at that line.
+    with pytest.raises(InputError, match=f"line 3: {field}"):
+        read_purchases(p)
+
+
+def test_a_file_with_only_bad_lines_gives_an_empty_table_and_every_line_set_aside(tmp_path):
+    p = _file(tmp_path, "month,item,quantity,unit,size\n2025-1,sevoflurane,1,bottle,\nx,y,z,w,\n")
+    read = load_purchases(p)
+    assert read.table.empty and list(read.table.columns) == ["month", "item", "amount", "unit"]
+    assert [m.split(": ")[0].rsplit(", ", 1)[1] for m in read.messages] == ["line 2", "line 3"]
+    # Nothing usable was bought, so there is nothing to reconcile, and no error either.
+    r = reconcile(read.table, pd.DataFrame({"month": ["2025-01"], "item": ["sevoflurane"],
+                                            "recorded": [100.0], "unit": ["mL"]}))
+    assert r.empty and "unexplained_share" in r.columns
+
+
+# --- property: a bad line never costs a good one ------------------------------------------
+
+_GOOD = st.tuples(st.sampled_from(["2025-01", "2025-06", "2026-12"]),
+                  st.sampled_from(["sevoflurane", "desflurane", "isoflurane", "oxygen"]),
+                  st.integers(0, 50)).map(
+    lambda t: (f"{t[0]},{t[1]},{t[2]},{'bottle' if t[1] != 'oxygen' else 'L'},", True))
+_BAD = st.sampled_from([
+    "2025-00,sevoflurane,1,bottle,", "2025-01,krypton,1,bottle,", "2025-01,sevoflurane,-1,bottle,",
+    "2025-01,sevoflurane,lots,bottle,", "2025-01,desflurane,1,furlong,", "2025-01,oxygen,1,cylinder,",
+    "2025-01,oxygen,1,cylinder,big", "january,isoflurane,1,bottle,"]).map(lambda line: (line, False))
+
+
+@settings(max_examples=150, deadline=None)
+@given(lines=st.lists(st.one_of(_GOOD, _BAD), min_size=1, max_size=25))
+def test_every_good_purchase_line_is_kept_and_every_bad_one_named(tmp_path_factory, lines):
+    p = tmp_path_factory.mktemp("buy") / "p.csv"
+    p.write_text("month,item,quantity,unit,size\n" + "\n".join(text for text, _ in lines) + "\n",
+                 encoding="utf-8")
+    read = load_purchases(p)
+    good = [text.split(",")[:2] for text, ok in lines if ok]
+    assert read.table[["month", "item"]].values.tolist() == good
+    # line 1 is the header, so the k-th data line is line k + 2
+    bad_lines = [k + 2 for k, (_, ok) in enumerate(lines) if not ok]
+    assert [int(m.split(", line ")[1].split(":")[0]) for m in read.messages] == bad_lines
