@@ -46,9 +46,19 @@ WATCHED_METRIC = "Liquid agent"
 GRID_ROW_PX = 35
 #: Environment variable naming a folder for screenshots of failed sessions.
 SHOTS_ENV = "GAS_LEDGER_LOAD_SHOTS"
-#: Tries of the edit per session, and how long a try waits for the figure to change. [ms]
-EDIT_ATTEMPTS = 2
-EDIT_COMMIT_MS = 20_000
+#: Tries of the edit per session, and how long a try waits for the grid to show it. [ms]
+EDIT_ATTEMPTS = 4
+EDIT_COMMIT_MS = 10_000
+#: True once the watched figure no longer shows ``before`` (args: [metric label, before]).
+FIGURE_CHANGED = """([name, before]) => {
+    const m = [...document.querySelectorAll('[data-testid="stMetric"]')]
+        .find(e => e.innerText.includes(name));
+    const v = m && m.querySelector('[data-testid="stMetricValue"]');
+    return v && v.innerText.trim() !== before;
+}"""
+#: True once the grid's accessible copy holds the typed flow (arg: the flow text).
+CELL_HOLDS = """(flow) => [...document.querySelectorAll('[data-testid="stDataFrame"] td')]
+    .some(td => td.innerText.trim() === flow)"""
 
 
 @dataclass
@@ -156,10 +166,16 @@ async def _open_o2_cell(page, timeout_ms: int, attempts: int = 4):
     return editor
 
 
-async def _cell_changed(page, flow: str) -> bool:
-    """Whether the grid's accessible copy already holds the new flow (the edit was taken)."""
-    cells = await page.locator('[data-testid="stDataFrame"] td').all_inner_texts()
-    return any(flow == c.strip() for c in cells)
+async def _state(page) -> str:
+    """What the page shows, for the message of a session that failed."""
+    with contextlib.suppress(Exception):
+        return await page.evaluate("""() => {
+            const app = document.querySelector('[data-testid="stApp"]');
+            const cells = [...document.querySelectorAll('[data-testid="stDataFrame"] td')].map(t => t.innerText.trim());
+            const alerts = [...document.querySelectorAll('[data-testid="stAlertContainer"]')].map(a => a.innerText.trim().slice(0, 120));
+            return `script ${app && app.getAttribute('data-test-script-state')}; grid ${JSON.stringify(cells.slice(0, 24))}; alerts ${JSON.stringify(alerts)}`;
+        }""")
+    return "page state unreadable"
 
 
 async def _session(context, url: str, index: int, flow: str, timeout_ms: int) -> SessionResult:
@@ -175,34 +191,35 @@ async def _session(context, url: str, index: int, flow: str, timeout_ms: int) ->
         await value.wait_for(timeout=timeout_ms)
         result.load_s = time.perf_counter() - t0
         result.before = (await value.inner_text()).strip()
-        changed = """([name, before]) => {
-            const m = [...document.querySelectorAll('[data-testid="stMetric"]')]
-                .find(e => e.innerText.includes(name));
-            const v = m && m.querySelector('[data-testid="stMetricValue"]');
-            return v && v.innerText.trim() !== before;
-        }"""
         for attempt in range(EDIT_ATTEMPTS):
             editor = await _open_o2_cell(page, timeout_ms)
             await editor.fill(flow)
             t1 = time.perf_counter()
             await page.keyboard.press("Enter")
-            # A committed edit starts a rerun at once; under heavy load the grid now and then
-            # drops a keystroke, and a user would simply type the value again.
-            wait = timeout_ms if attempt == EDIT_ATTEMPTS - 1 else min(timeout_ms, EDIT_COMMIT_MS)
+            # Under heavy load the grid now and then drops a keystroke and the edit is not
+            # taken; the user sees the old value in the cell and types it again.
             try:
-                await page.wait_for_function(changed, arg=[WATCHED_METRIC, result.before], timeout=wait)
+                await page.wait_for_function(CELL_HOLDS, arg=flow, timeout=EDIT_COMMIT_MS)
                 break
             except Exception:  # noqa: BLE001
-                if attempt == EDIT_ATTEMPTS - 1 or await _cell_changed(page, flow):
-                    raise
+                if attempt == EDIT_ATTEMPTS - 1:
+                    raise RuntimeError(f"the grid did not take the edit in {EDIT_ATTEMPTS} tries "
+                                       f"({await _state(page)})") from None
                 result.retries += 1
+                await page.keyboard.press("Escape")
+        try:
+            await page.wait_for_function(FIGURE_CHANGED, arg=[WATCHED_METRIC, result.before], timeout=timeout_ms)
+        except Exception:  # noqa: BLE001
+            shown = (await value.inner_text()).strip()
+            raise RuntimeError(f"the edit was taken but {WATCHED_METRIC!r} still shows {shown!r} after "
+                               f"{timeout_ms / 1000:g} s ({await _state(page)})") from None
         result.response_s = time.perf_counter() - t1
         result.after = (await value.inner_text()).strip()
         for kind in ("stException", "stAlertContentError"):
             found = await page.locator(f'[data-testid="{kind}"]').all_inner_texts()
             result.errors.extend(f"{kind}: {text.strip()[:200]}" for text in found)
     except Exception as exc:  # noqa: BLE001  (every failure of a session is reported, not raised)
-        result.errors.append(f"{type(exc).__name__}: {str(exc).splitlines()[0][:300]}")
+        result.errors.append(f"{type(exc).__name__}: {str(exc).splitlines()[0][:700]}")
         if os.environ.get(SHOTS_ENV):
             with contextlib.suppress(Exception):
                 await page.screenshot(path=f"{os.environ[SHOTS_ENV]}/load-session-{index}.png",

@@ -323,7 +323,8 @@ class Reference:
         if value is None or value.value is None:
             raise InputError("gwp_source", source,
                              f"{src.label} has no value for {agent}; choose another source "
-                             f"or give a user value under [gwp.user] in the settings file")
+                             f"or give a user value (dashboard: Reference page, GWP values; "
+                             f"command line: [gwp.user] in the settings file)")
         return value.value
 
     def gwp_source(self, source: str) -> GwpSource:

@@ -80,7 +80,8 @@ with st.form("ref_overrides"):
         st.caption("Shipped prices are invented examples; put your own contract prices here.")
     with tab_g:
         st.caption("Values for the source \"User values\" (GWP100, kg CO2e per kg). Choose that source in "
-                   "the sidebar to use them. Leave empty to give none.")
+                   "the sidebar to use them. Leave empty to give none: under this source, a plan that "
+                   "uses an agent or N2O with no value is not worked out, and its message names the value.")
         user_saved = saved.get("gwp", {}).get("user", {})
         c = st.columns(5)
         gwp_user = {}
@@ -124,11 +125,6 @@ def _collect() -> dict:
 if submitted:
     overrides = _collect()
     try:
-        if gwp_user and "nitrous_oxide" not in gwp_user:
-            # Every case's CO2e adds its N2O (none given is 0 L), so the source needs an N2O value.
-            raise InputError("GWP values, Nitrous oxide", "none",
-                             "User values need a value for nitrous oxide too (IPCC AR6 GWP100: "
-                             f"{default.gwp('nitrous_oxide', 'ar6_gwp100'):g})")
         default.with_overrides(overrides, "dashboard")     # check before saving
     except InputError as err:
         ui.show_input_error(err, "Not saved")

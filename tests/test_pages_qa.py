@@ -5,6 +5,8 @@ from __future__ import annotations
 import pytest
 from streamlit.testing.v1 import AppTest
 
+from model.reference import DEFAULT_REFERENCE
+
 from pagetest import ROOT, TIMEOUT, isolated_store, page  # noqa: F401  (isolated_store: autouse fixture)
 
 
@@ -156,17 +158,28 @@ def test_a_bare_flow_is_read_in_the_unit_the_phases_table_shows():
     assert next(m.value for m in at.metric if m.label == "Oxygen") == with_unit
 
 
-def test_user_gwp_values_without_nitrous_oxide_are_refused_before_they_break_every_plan():
+def test_user_gwp_values_without_nitrous_oxide_serve_plans_without_it_and_name_it_for_plans_with_it():
     at = page("reference.py")
-    at.number_input(key="ref_gwp_sevoflurane").set_value(150.0)
-    _click(at, "Save my values")
-    assert any("nitrous oxide" in e.value for e in at.error)
-    assert not at.success
-    assert "User values" not in at.selectbox(key="gl_gwp").options     # nothing saved
-    at.number_input(key="ref_gwp_nitrous_oxide").set_value(273.0)
+    for agent in ("sevoflurane", "desflurane", "isoflurane", "halothane"):
+        at.number_input(key=f"ref_gwp_{agent}").set_value(150.0)
     _click(at, "Save my values")
     assert not at.error, [e.value for e in at.error]
     assert "User values" in at.selectbox(key="gl_gwp").options
+
+    plan = page("case_plan.py")
+    emissions = next(m for m in plan.metric if m.label.startswith("Emissions"))
+    ar6 = float(emissions.value.replace(",", ""))
+    plan.selectbox(key="gl_gwp").set_value("User values").run()
+    assert not plan.exception and not plan.error, [e.value for e in plan.error]
+    # The first demo plan gives sevoflurane and no N2O, so its CO2e scales with the agent's
+    # GWP alone: 150 against the AR6 value (proportionality of DESIGN.md 3.4's CO2e = mass x GWP).
+    user = float(next(m for m in plan.metric if m.label.startswith("Emissions")).value.replace(",", ""))
+    assert user == pytest.approx(ar6 * 150.0 / DEFAULT_REFERENCE.gwp("sevoflurane", "ar6_gwp100"), rel=0.01)
+    # A plan that gives N2O is not worked out under a source without an N2O value, and says why.
+    plan.selectbox(key="cp_open_name").set_value("Hip replacement, desflurane with N2O")
+    _click(plan, "Open")
+    message = " ".join(e.value for e in plan.error)
+    assert "User values has no value for nitrous\\_oxide" in message and "Reference page" in message
 
 
 def _per_case_liquid_ml(at: AppTest) -> float:
