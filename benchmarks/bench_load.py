@@ -96,10 +96,14 @@ def free_port() -> int:
 
 
 @contextlib.contextmanager
-def dashboard(store_path: Path, start_timeout_s: float = 90.0):
-    """Run the dashboard on a free loopback port; yields (url, log path). Stops it after."""
+def dashboard(store_path: Path, log: Path | None = None, start_timeout_s: float = 90.0):
+    """Run the dashboard on a free loopback port; yields (url, log path). Stops it after.
+
+    The app uses the store at ``store_path``; its output goes to ``log`` (default: a new
+    temporary file). Also used by tests/test_browser.py.
+    """
     port = free_port()
-    log = Path(tempfile.mkstemp(prefix="gas-ledger-load-", suffix=".log")[1])
+    log = log or Path(tempfile.mkstemp(prefix="gas-ledger-load-", suffix=".log")[1])
     env = dict(os.environ, **{STORE_ENV: str(store_path)})
     with open(log, "wb") as out:
         proc = subprocess.Popen(
