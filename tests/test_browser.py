@@ -7,14 +7,9 @@ test-artifacts/ (ignored by git).
 from __future__ import annotations
 
 import contextlib
-import io
-import os
 import re
-import socket
-import subprocess
 import sys
 import time
-import urllib.request
 from pathlib import Path
 
 import openpyxl
@@ -24,17 +19,11 @@ pytestmark = pytest.mark.browser
 
 ROOT = Path(__file__).resolve().parents[1]
 ARTIFACTS = ROOT / "test-artifacts"
-CHROMIUM = "/usr/bin/chromium"
-LAUNCH_ARGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
-               "--disable-background-networking", "--disable-component-update", "--disable-sync"]
+sys.path.insert(0, str(ROOT / "benchmarks"))
+from bench_load import CHROMIUM, dashboard  # noqa: E402  (the one way the tests start the app)
+from bench_load import CHROMIUM_ARGS as LAUNCH_ARGS  # noqa: E402
 ROW_HEIGHT = 35          # st.data_editor's default row and header height [px]
 WAIT_MS = 90_000
-
-
-def _free_port() -> int:
-    with socket.socket() as s:
-        s.bind(("127.0.0.1", 0))
-        return s.getsockname()[1]
 
 
 @pytest.fixture(scope="module")
@@ -45,32 +34,8 @@ def store_path(tmp_path_factory):
 @contextlib.contextmanager
 def serve_app(log_dir: Path, store: Path):
     """``streamlit run app.py`` on a free loopback port with its own store; yields its URL."""
-    port = _free_port()
-    env = dict(os.environ, GAS_LEDGER_STORE=str(store))
-    log = open(log_dir / "streamlit.log", "w")
-    proc = subprocess.Popen([sys.executable, "-m", "streamlit", "run", "app.py", "--server.headless", "true",
-                             "--server.port", str(port), "--server.address", "127.0.0.1"],
-                            cwd=ROOT, env=env, stdout=log, stderr=subprocess.STDOUT)
-    url = f"http://127.0.0.1:{port}"
-    try:
-        deadline = time.monotonic() + 90
-        while True:
-            try:
-                if urllib.request.urlopen(url + "/_stcore/health", timeout=2).read() == b"ok":
-                    break
-            except OSError:
-                pass
-            assert proc.poll() is None, "streamlit exited early; see its log"
-            assert time.monotonic() < deadline, "streamlit did not become healthy in 90 s"
-            time.sleep(0.3)
-        yield url
-    finally:
-        proc.terminate()
-        try:
-            proc.wait(timeout=20)
-        except subprocess.TimeoutExpired:
-            proc.kill()
-        log.close()
+    with dashboard(store, log_dir / "streamlit.log") as (url, _):
+        yield url.rstrip("/")
 
 
 @pytest.fixture(scope="module")
