@@ -266,17 +266,27 @@ def purchase_emissions(purchases: pd.DataFrame, reference: Reference = DEFAULT_R
     mass = np.zeros(len(g))
     co2e = np.zeros(len(g))
     for i, r in enumerate(g.itertuples(index=False)):
-        agent = reference.agents[r.item]
-        if agent.kind == "volatile":
-            grams = r.purchased * agent.liquid_density
-        else:
-            grams = float(gas_mass_g(r.purchased, agent.molar_mass, temperature_c, pressure_kpa))
+        grams = _mass_g(reference, r.item, r.purchased, temperature_c, pressure_kpa)
         mass[i] = grams / 1000.0
-        if r.item == "nitrous_oxide" or agent.kind == "volatile":
-            co2e[i] = float(co2e_kg(grams, reference.gwp(r.item, gwp_source)))
+        co2e[i] = _co2e_kg(reference, r.item, grams, gwp_source)
     g["mass_kg"] = mass
     g["co2e_kg"] = co2e
     return g[["month", "item", "purchased", "unit", "mass_kg", "co2e_kg"]]
+
+
+def _mass_g(reference: Reference, item: str, amount: float, temperature_c: float, pressure_kpa: float) -> float:
+    """Mass of ``amount`` of ``item`` [g]: liquid mL x density, or gas L by the ideal gas law."""
+    agent = reference.agents[item]
+    if agent.kind == "volatile":
+        return amount * agent.liquid_density
+    return float(gas_mass_g(amount, agent.molar_mass, temperature_c, pressure_kpa))
+
+
+def _co2e_kg(reference: Reference, item: str, grams: float, gwp_source: str) -> float:
+    """CO2e of ``grams`` of ``item`` emitted [kg]; oxygen and air have none."""
+    if item != "nitrous_oxide" and reference.agents[item].kind != "volatile":
+        return 0.0
+    return float(co2e_kg(grams, reference.gwp(item, gwp_source)))
 
 
 def reconcile(purchases: pd.DataFrame, use: pd.DataFrame, reference: Reference = DEFAULT_REFERENCE,
@@ -320,17 +330,9 @@ def reconcile(purchases: pd.DataFrame, use: pd.DataFrame, reference: Reference =
     with np.errstate(invalid="ignore", divide="ignore"):
         out["unexplained_share"] = np.where(out["purchased"] > 0, out["unexplained"] / out["purchased"].where(
             out["purchased"] > 0, 1), np.nan)
-    co2 = np.zeros(len(out))
-    for i, r in enumerate(out.itertuples(index=False)):
-        agent = reference.agents[r.item]
-        if agent.kind == "volatile":
-            grams = r.unexplained * agent.liquid_density
-        elif r.item == "nitrous_oxide":
-            grams = float(gas_mass_g(r.unexplained, agent.molar_mass, temperature_c, pressure_kpa))
-        else:
-            continue
-        co2[i] = float(co2e_kg(grams, reference.gwp(r.item, gwp_source)))
-    out["unexplained_co2e_kg"] = co2
+    out["unexplained_co2e_kg"] = [
+        _co2e_kg(reference, r.item, _mass_g(reference, r.item, r.unexplained, temperature_c, pressure_kpa),
+                 gwp_source) for r in out.itertuples(index=False)]
     out["apparent_loss"] = np.where(out["item"] == "nitrous_oxide", out["unexplained"], np.nan)
     out["_total"] = out["month"] == "all"
     out = out.sort_values(["item", "_total", "month"]).drop(columns="_total").reset_index(drop=True)
