@@ -11,10 +11,9 @@ import pandas as pd
 
 from .circle import simulate_cases
 from .emissions import co2e_kg, emitted_mass_g, gas_mass_g
-from .errors import InputError
 from .freshgas import apply_ratio_limit, delivered_fractions, flow_band
 from .mac import mac_multiple
-from .plan import CasePlan
+from .plan import CasePlan, check_dials
 from .reference import DEFAULT_REFERENCE, Reference
 from .vapour import liquid_used_ml
 
@@ -384,12 +383,7 @@ def compute_case(plan: CasePlan, reference: Reference = DEFAULT_REFERENCE) -> Ca
         reference = reference.with_overrides({"prices": plan.prices}, f"plan '{plan.name}'")
     s = plan.settings
     agent = reference.volatile(plan.agent)
-    for i, p in enumerate(plan.phases, start=1):
-        # The plan file is checked against the built-in maximum; a settings file may set a lower one.
-        if p.dial_pct is not None and p.dial_pct > agent.vaporizer_max:
-            raise InputError(f"plan '{plan.name}': phases[{i}].dial", f"{p.dial_pct:g} %",
-                             f"the {agent.label.lower()} vaporizer goes up to "
-                             f"{agent.vaporizer_max:g} % (reference values in use)")
+    check_dials(plan, reference, f"plan '{plan.name}'")
     n2o_agent = reference.agents["nitrous_oxide"]
     gwp_agent = reference.gwp(agent.name, s.gwp_source)
     gwp_n2o = reference.gwp("nitrous_oxide", s.gwp_source, used=any(p.n2o_l_min > 0 for p in plan.phases))

@@ -60,8 +60,9 @@ def cmd_case(args) -> int:
     from .case import compute_case
     from .plan import load_plan
 
-    plan = load_plan(args.plan)
-    result = compute_case(plan, _reference(args))
+    reference = _reference(args)
+    plan = load_plan(args.plan, reference)
+    result = compute_case(plan, reference)
     if args.json:
         print_json({**result.to_dict(), "caution": CAUTION})
         return 0

@@ -17,12 +17,13 @@ def cmd_sweep(args) -> int:
     from .plan import load_plan
     from .sweep import flow_sweep
 
-    plan = load_plan(args.plan)
+    reference = _reference(args)
+    plan = load_plan(args.plan, reference)
     flows = _flows(args.flows) if args.flows else None
     if args.phase is not None and not 1 <= args.phase <= len(plan.phases):
         raise InputError("--phase", args.phase, f"the plan has phases 1 to {len(plan.phases)}")
     phase = None if args.phase is None else args.phase - 1
-    result = flow_sweep(plan, _reference(args), flows, phase)
+    result = flow_sweep(plan, reference, flows, phase)
     if args.json:
         print_json({**result.to_dict(), "caution": CAUTION})
         return 0

@@ -294,8 +294,11 @@ def _first_error(exc: pydantic.ValidationError, source: str, fmt: str = "plan") 
     return InputError(prefix + where, value, err["msg"].replace("Value error, ", ""))
 
 
-def plan_from_dict(data: Mapping, source: str = "") -> CasePlan:
+def plan_from_dict(data: Mapping, source: str = "", reference=None) -> CasePlan:
     """Validate a plan given as a dict (as read from TOML) and convert its units.
+
+    With ``reference`` given (a :class:`model.reference.Reference`), dial settings are also
+    checked against its vaporizer maxima (:func:`check_dials`); without, only 0-100 %.
 
     Raises
     ------
@@ -307,19 +310,10 @@ def plan_from_dict(data: Mapping, source: str = "") -> CasePlan:
         raw = PlanIn.model_validate(data)
     except pydantic.ValidationError as exc:
         raise _first_error(exc, source) from None
-    from .reference import DEFAULT_REFERENCE
-
-    agent = DEFAULT_REFERENCE.agent(raw.agent)
-    phases = []
-    for i, p in enumerate(raw.phases, start=1):
-        if p.dial is not None and p.dial > agent.vaporizer_max:
-            prefix = f"{source}: " if source else ""
-            raise InputError(f"{prefix}phases[{i}].dial", f"{p.dial:g} %",
-                             f"the {agent.label.lower()} vaporizer goes up to {agent.vaporizer_max:g} %")
-        phases.append(Phase(p.name, p.duration, p.o2, p.air, p.n2o, p.dial, p.target))
+    phases = [Phase(p.name, p.duration, p.o2, p.air, p.n2o, p.dial, p.target) for p in raw.phases]
     s = raw.settings
     pt = raw.patient
-    return CasePlan(
+    plan = CasePlan(
         name=raw.name,
         agent=raw.agent,
         phases=tuple(phases),
@@ -330,10 +324,41 @@ def plan_from_dict(data: Mapping, source: str = "") -> CasePlan:
                           s.circle_volume, s.absorbent_capacity),
         prices=dict(raw.prices),
     )
+    if reference is not None:
+        check_dials(plan, reference, source)
+    return plan
 
 
-def parse_plan_text(text: str, source: str = "plan") -> CasePlan:
-    """Read a plan from TOML text. Raises InputError for malformed TOML or bad fields."""
+def check_dials(plan: CasePlan, reference, where: str = "") -> None:
+    """Check each phase's dial setting against the vaporizer maximum of the values in use.
+
+    A plan file is read without reference values (only 0-100 % is checked there); the
+    maximum is a property of the vaporizer, so a settings file may lower or raise it
+    (``[agents.<name>] vaporizer_max``). Called where a plan meets the values it is worked
+    out with: :func:`model.case.compute_case`, the year model, and readers given a
+    ``reference``.
+
+    Raises
+    ------
+    InputError
+        Naming ``where``, the phase (``phases[i].dial``, counted from 1), the setting and
+        the maximum.
+    """
+    agent = reference.volatile(plan.agent)
+    prefix = f"{where}: " if where else ""
+    for i, p in enumerate(plan.phases, start=1):
+        if p.dial_pct is not None and p.dial_pct > agent.vaporizer_max:
+            raise InputError(f"{prefix}phases[{i}].dial", f"{p.dial_pct:g} %",
+                             f"the {agent.label.lower()} vaporizer goes up to {agent.vaporizer_max:g} % "
+                             f"(reference values in use)")
+
+
+def parse_plan_text(text: str, source: str = "plan", reference=None) -> CasePlan:
+    """Read a plan from TOML text. Raises InputError for malformed TOML or bad fields.
+
+    With ``reference`` given, dial settings are also checked against its vaporizer
+    maxima (:func:`check_dials`).
+    """
     if len(text) > MAX_PLAN_BYTES:
         raise InputError(source, f"{len(text)} characters", f"a plan file is at most {MAX_PLAN_BYTES} bytes")
     try:
@@ -342,7 +367,7 @@ def parse_plan_text(text: str, source: str = "plan") -> CasePlan:
         raise toml_error(source, exc) from None
     except RecursionError:
         raise InputError(source, "the file", "nested too deeply to be a plan") from None
-    return plan_from_dict(data, source)
+    return plan_from_dict(data, source, reference)
 
 
 def toml_error(source: str, exc: Exception,
@@ -357,11 +382,15 @@ def toml_error(source: str, exc: Exception,
     return InputError(where, text.strip() or "malformed text", allowed)
 
 
-def load_plan(path) -> CasePlan:
-    """Read a plan file (TOML). Raises InputError naming the file and the field."""
+def load_plan(path, reference=None) -> CasePlan:
+    """Read a plan file (TOML). Raises InputError naming the file and the field.
+
+    With ``reference`` given, dial settings are also checked against its vaporizer
+    maxima (:func:`check_dials`).
+    """
     p = Path(path)
     text = read_user_text(p, "plan", MAX_PLAN_BYTES)
-    return parse_plan_text(text, str(p))
+    return parse_plan_text(text, str(p), reference)
 
 
 def _q(number: float, unit: str) -> str:

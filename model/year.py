@@ -41,7 +41,7 @@ from .case import simulation_totals
 from .casemix import CaseMix, CaseType
 from .circle import simulate_cases
 from .errors import InputError
-from .plan import CasePlan
+from .plan import CasePlan, check_dials
 from .reference import DEFAULT_REFERENCE, VOLATILES, Reference
 from .scenario import MONTHS, Scenario
 
@@ -340,6 +340,7 @@ def _subplans(scenario: Scenario, ref: Reference) -> list[SubPlan]:
     out = []
     changed = scenario.practice.changes_anything
     for i, t in enumerate(scenario.casemix.types):
+        check_dials(t.plan, ref, f"case type '{t.name}', plan '{t.plan.name}'")
         plan_agent = ref.volatile(t.plan.agent)
         nodes = duration_nodes(t.median_min, t.spread, t.fixed_min)
         variants = [(0, t.plan, dict(t.agent_shares))]
@@ -534,7 +535,7 @@ def _assemble(scenario: Scenario, ref: Reference, subplans: list[SubPlan], cols,
         ok = (v > 1e-12 * np.maximum(m * m, 1e-300)) & (x_var > 0)
         if ok.any():
             r2.append(float(np.min(c[ok] ** 2 / (v[ok] * x_var))))
-        _subplan_warnings(warnings, t, sub, where, groups)
+        _subplan_warnings(warnings, t, sub, where, groups, ref)
     if not changed:
         e_f[1], cov[1] = e_f[0], cov[0]
     has_var = var > 0
@@ -573,13 +574,13 @@ def _assemble(scenario: Scenario, ref: Reference, subplans: list[SubPlan], cols,
         variance_explained=float(np.clip(min(r2), 0.0, 1.0)))
 
 
-def _subplan_warnings(out: dict, ctype: CaseType, sub: SubPlan, where, groups) -> None:
+def _subplan_warnings(out: dict, ctype: CaseType, sub: SubPlan, where, groups, ref: Reference) -> None:
     """Cautions of a sub-plan from its simulation (the checks of :func:`model.case.case_warnings`)."""
     if not where:
         return
     plan, s = sub.plan, sub.plan.settings
     floor_pct = s.inspired_o2_floor * 100.0
-    label = DEFAULT_REFERENCE.agents[sub.agent].label.lower()
+    label = ref.agents[sub.agent].label.lower()
     # Keyed by the text without the type's name, so types with the same caution share a line.
     who = f"{'changed practice, ' if sub.variant else ''}{label}{' with N2O' if sub.with_n2o else ''}"
 
@@ -615,7 +616,7 @@ def _subplan_warnings(out: dict, ctype: CaseType, sub: SubPlan, where, groups) -
                      if g2["sim"]["phase_minutes"][int(g2["offsets"][c]) + j, c] > 0]
             if any(not math.isfinite(r) for r in reach):
                 add(f"{at}: the end-tidal target of {p.target_mac:g} MAC is not reached within the phase "
-                    f"at {fgf:.2f} L/min (vaporizer maximum {DEFAULT_REFERENCE.agents[sub.agent].vaporizer_max:g} "
+                    f"at {fgf:.2f} L/min (vaporizer maximum {ref.agents[sub.agent].vaporizer_max:g} "
                     f"%); raise the flow or allow longer")
     worst = None
     for gk, c in where:

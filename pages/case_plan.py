@@ -171,10 +171,14 @@ def _raw_inputs() -> dict:
 
 
 @st.cache_data(show_spinner=False, max_entries=256)
-def _build(raw_json: str) -> tuple[str, str, str]:
-    """("ok", plan TOML, "") or ("error", field, message) for the typed inputs."""
+def _build(raw_json: str, ref_key: str, _ref) -> tuple[str, str, str]:
+    """("ok", plan TOML, "") or ("error", field, message) for the typed inputs.
+
+    Dials are checked against the vaporizer maxima of the values in use (``_ref``, keyed
+    by ``ref_key``), so that error is shown by its cell too.
+    """
     try:
-        plan = plan_from_dict(json.loads(raw_json), "")
+        plan = plan_from_dict(json.loads(raw_json), "", _ref)
     except InputError as err:
         return "error", err.field, str(err)
     return "ok", plan_to_toml(plan), ""
@@ -202,7 +206,7 @@ def _place_error(field: str, message: str) -> None:
     (slot or table_slot).error(ui.md(message), icon=":material/error:")
 
 
-status, payload, message = _build(json.dumps(_raw_inputs(), sort_keys=True, default=str))
+status, payload, message = _build(json.dumps(_raw_inputs(), sort_keys=True, default=str), ref_key, ref)
 result = None
 if status == "ok":
     try:

@@ -4,10 +4,13 @@ from pathlib import Path
 
 import pytest
 
+from model.case import compute_case
 from model.errors import InputError
 from model.plan import (
     CasePlan, Phase, Settings, load_plan, parse_plan_text, plan_from_dict, plan_to_toml,
 )
+
+from model.reference import DEFAULT_REFERENCE
 
 DEMO = Path(__file__).resolve().parents[1] / "demo_data" / "plans"
 
@@ -144,6 +147,7 @@ BAD = {
                           ["o2/air/n2o", "35 L/min total", "30 L/min"]),
     "no flow": (dict(phase_o2=0, phase_air=0), ["o2/air/n2o", "some fresh gas flow"]),
     "dial above the vaporizer": (dict(phase_dial="9 %"), ["phases[1].dial", "9 %", "up to 8 %"]),
+    "dial above 100 %": (dict(phase_dial="120 %"), ["phases[1].dial", "120 %", "[0, 100] %"]),
     "desflurane dial above 18": (dict(agent="desflurane", phase_dial=19),
                                  ["phases[1].dial", "19 %", "up to 18 %"]),
     "negative dial": (dict(phase_dial=-1), ["phases[1].dial", "-1", "[0, 100] %"]),
@@ -177,7 +181,7 @@ BAD = {
 @pytest.mark.parametrize("changes, expected", BAD.values(), ids=BAD.keys())
 def test_bad_plan_gives_one_line_naming_field_value_and_allowed(changes, expected):
     with pytest.raises(InputError) as info:
-        plan_from_dict(plan_dict(**changes), "plan.toml")
+        plan_from_dict(plan_dict(**changes), "plan.toml", DEFAULT_REFERENCE)
     message = str(info.value)
     assert message.startswith("plan.toml: ")
     assert "\n" not in message
@@ -235,3 +239,17 @@ def test_plan_dataclasses_are_immutable():
     assert isinstance(plan, CasePlan)
     with pytest.raises(AttributeError):
         plan.agent = "desflurane"
+
+
+def test_the_vaporizer_maximum_is_that_of_the_values_in_use_so_a_settings_file_may_raise_it():
+    # A plan is read without reference values; its dials meet the maximum where it is worked out.
+    plan = plan_from_dict(plan_dict(phase_dial="9 %"), "plan.toml")
+    with pytest.raises(InputError, match=r"phases\[1\]\.dial: got '9 %'; the sevoflurane vaporizer goes up to 8 %"):
+        compute_case(plan)
+    # A 10 % vaporizer (a settings file's [agents.sevoflurane] vaporizer_max) takes it.
+    wide = DEFAULT_REFERENCE.with_overrides({"agents": {"sevoflurane": {"vaporizer_max": 10}}}, "local.toml")
+    assert plan_from_dict(plan_dict(phase_dial="9 %"), "plan.toml", wide).phases[0].dial_pct == 9.0
+    at_9 = compute_case(plan, wide).totals["liquid_agent_ml"]
+    at_2 = compute_case(plan_from_dict(plan_dict(), "plan.toml"), wide).totals["liquid_agent_ml"]
+    # Dion's formula (DESIGN.md 3.1) is linear in the dial: 4.5 times the dial, 4.5 times the liquid.
+    assert at_9 == pytest.approx(4.5 * at_2, rel=0.02)

@@ -379,3 +379,22 @@ def test_plans_with_different_phase_layouts_share_a_call_without_changing_their_
     assert year["oxygen_l"] == pytest.approx(want["oxygen_l"], rel=1e-12)
     assert year["absorbent_kg"] * 1000 == pytest.approx(want["absorbent_g"], rel=1e-12)
     assert year["emitted_kg_sevoflurane"] * 1000 == pytest.approx(want["agent_emitted_g"], rel=1e-4)
+
+
+def test_a_dial_above_the_vaporizer_maximum_in_use_names_the_case_type(tmp_path):
+    plan = tmp_path / "deep.toml"
+    plan.write_text((PLANS / "lap_chole_high_flow.toml").read_text(encoding="utf-8")
+                    .replace('dial = "2 %"', 'dial = "9 %"'), encoding="utf-8")
+    assert 'dial = "9 %"' in plan.read_text(encoding="utf-8")
+    mix = parse_casemix_text(HEADER + f"Deep,10,60,0,1,0,0,0,{plan}\n", "mix", lambda name, where: load_plan(name))
+    scenario = Scenario("deep", mix, sampling=Sampling(draws=5))
+    with pytest.raises(InputError, match=r"case type 'Deep'.*phases\[\d\]\.dial: got '9 %'.*up to 8 %"):
+        compute_year(scenario)
+    # With a 10 % vaporizer in the values in use, the same mix is worked out.
+    wide = DEFAULT_REFERENCE.with_overrides({"agents": {"sevoflurane": {"vaporizer_max": 10}}}, "local.toml")
+    t = mix.types[0]
+    fixed = sum(ph.minutes for j, ph in enumerate(t.plan.phases) if j != t.stretch_index)
+    case = compute_case(t.plan.with_phase(t.stretch_index, minutes=60 - fixed), wide).totals
+    # A year with fixed durations is each case x its count (as in the sum-of-types check above).
+    assert compute_year(scenario, wide).totals["liquid_ml_sevoflurane"] == pytest.approx(
+        10 * case["liquid_agent_ml"], rel=1e-6)
