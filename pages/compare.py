@@ -84,17 +84,20 @@ def _compare_plans() -> None:
 
     rows = []
     for label, key, unit in FIGURES:
+        # Emissions in the unit chosen in the sidebar, like the cards above.
+        factor, unit = (scale, view.co2e_unit) if unit == "kg CO2e" else (1.0, unit)
         row = {"figure": label, "unit": view.currency if unit == "currency" else unit}
         for name, res in results.items():
-            row[name] = float(res.totals[key])
+            row[name] = float(res.totals[key]) * factor
         for name, res in list(results.items())[1:]:
-            row[f"{name}: difference"] = float(res.totals[key] - bt[key])
+            row[f"{name}: difference"] = float(res.totals[key] - bt[key]) * factor
             row[f"{name}: difference %"] = _pct(float(res.totals[key]), float(bt[key]))
         rows.append(row)
     table = pd.DataFrame(rows)
     st.subheader("Side by side")
     st.dataframe(table, hide_index=True, width="stretch",
-                 column_config={c: st.column_config.NumberColumn(format="%.2f") for c in table.columns[2:]})
+                 # four significant figures: a case's emissions in t CO2e are small numbers
+                 column_config={c: st.column_config.NumberColumn(format="%.4g") for c in table.columns[2:]})
 
     cost_df = pd.DataFrame({"item": charts.cost_by_item(bt, base.currency)["item"]})
     co2e_df = pd.DataFrame({"source": ["Volatile agent", "Nitrous oxide"]})

@@ -130,6 +130,19 @@ def test_compare_renders_differences():
     assert "figure" in table.columns and any(c.endswith("difference %") for c in table.columns)
 
 
+def test_compare_table_shows_emissions_in_the_sidebar_unit():
+    at = page("compare.py")
+    kg = at.dataframe[0].value.set_index("figure")
+    at.selectbox(key="gl_co2e_unit").set_value("t CO2e").run()
+    assert not at.exception
+    t = at.dataframe[0].value.set_index("figure")
+    assert t.loc["CO2e, total", "unit"] == "t CO2e" and kg.loc["CO2e, total", "unit"] == "kg CO2e"
+    plan = [c for c in t.columns if c != "unit"][0]
+    # SI prefixes: 1 t = 1000 kg.
+    assert t.loc["CO2e, total", plan] * 1000 == pytest.approx(kg.loc["CO2e, total", plan])
+    assert t.loc["Liquid agent", plan] == kg.loc["Liquid agent", plan]
+
+
 def test_compare_higher_flow_plan_shows_more_liquid():
     at = page("compare.py")
     at.multiselect(key="cmp_plans").set_value(["Laparoscopic cholecystectomy, low flow",
