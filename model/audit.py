@@ -452,7 +452,6 @@ def _numpy_engine(recs: Records, high_flow_l_min: float):
         order = np.lexsort((row, fileno, code))
     code_s, t_s, ok_s = code[order], t[order], ok_a[order]
     # Running maximum of the earlier A-valid times of the same case, exactly, through ranks.
-    empty_cols = (np.zeros(0),) * 3
     time_rows: list = []
     valid_s = ok_s.copy()
     nxt_same = np.zeros(len(code_s), dtype=bool)

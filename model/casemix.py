@@ -20,7 +20,7 @@ import pandas as pd
 
 from .errors import InputError
 from .files import read_user_text
-from .plan import CasePlan, Patient, load_plan
+from .plan import CasePlan, load_plan
 from .reference import VOLATILES
 from .units import check_range, to_base
 
@@ -111,7 +111,8 @@ def _number(raw: str, where: str, unit: str, low: float, high: float, default=No
             raise InputError(where, "nothing", "this field is required")
         return default
     value = to_base(str(raw).strip(), unit, where)
-    return check_range(value, where, low, high, shown_unit if shown_unit is not None else unit, low_open)
+    return check_range(value, where, low, high, shown_unit if shown_unit is not None else unit, low_open,
+                       typed=raw)
 
 
 def _share(raw, where: str) -> float:
@@ -122,7 +123,7 @@ def _share(raw, where: str) -> float:
         value = to_base(text, "percent", where) / 100.0
     else:
         value = to_base(text, "dimensionless", where)
-    return check_range(value, where, 0.0, 1.0, "")
+    return check_range(value, where, 0.0, 1.0, "", typed=text)
 
 
 def _count(raw, where: str) -> int:

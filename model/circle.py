@@ -406,7 +406,6 @@ def simulate_cases(agent: Agent, minutes, o2_l_min, air_l_min=0.0, n2o_l_min=0.0
             a22 = v_l + a12 + np.concatenate([zeros[None], dt * a_tis])  # (3, n)
             dt_inflow = dt * inflow
             beta_fgf = dt * f
-            co2_step = co2_rate * dt
             for _ in range(n_steps):
                 vent = np.maximum(f * (1.0 + d_prev) - u_prev, 0.0)
                 a11 = v_c + dt * (vent + va)

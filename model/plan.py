@@ -131,7 +131,7 @@ def _quantity(unit: str, low: float, high: float, default_unit: str | None = Non
     def convert(value, info: pydantic.ValidationInfo):
         name = info.field_name
         number = to_base(value, unit, name, default_unit)
-        return check_range(number, name, low, high, shown_unit or unit, low_open)
+        return check_range(number, name, low, high, shown_unit or unit, low_open, typed=value)
     return pydantic.BeforeValidator(convert)
 
 
@@ -147,9 +147,19 @@ def _share(value, info: pydantic.ValidationInfo):
     return number
 
 
+def _share_above(low: float, open_: bool, allowed: str):
+    """A share (as :func:`_share`) that must also be above ``low`` (or at least, if not ``open_``)."""
+    def check(value, info: pydantic.ValidationInfo):
+        number = _share(value, info)
+        if number < low or (open_ and number <= low):
+            raise InputError(info.field_name, value, allowed)
+        return number
+    return pydantic.BeforeValidator(check)
+
+
 def _percent(value, info: pydantic.ValidationInfo):
     """A concentration typed as 2, "2 %" or "2%": stored in percent."""
-    return check_range(to_base(value, "percent", info.field_name), info.field_name, 0.0, 100.0, "%")
+    return check_range(to_base(value, "percent", info.field_name), info.field_name, 0.0, 100.0, "%", typed=value)
 
 
 Share = pydantic.BeforeValidator(_share)
@@ -211,29 +221,15 @@ class SettingsIn(_Strict):
     pressure: Annotated[float, _quantity("kPa", 50.0, 120.0)] = 101.325
     gwp_source: GwpSourceName = DEFAULT_GWP
     capture_efficiency: Annotated[float, Share] = 0.0
-    min_o2_share: Annotated[float, Share] = 0.25
+    min_o2_share: Annotated[float, _share_above(0.0, True, "must be above 0 (e.g. 0.25 or '25 %')")] = 0.25
     n2o_cutoff_o2_flow: Annotated[float, _quantity("L/min", 0.0, 5.0)] = 0.2
     ratio_limit: Annotated[str, _one_of(RATIO_BEHAVIOURS, "values")] = "cap_n2o"
-    inspired_o2_floor: Annotated[float, Share] = 0.30
+    inspired_o2_floor: Annotated[float, _share_above(0.21, False, "the floor is never below 0.21 (21 %)")] = 0.30
     sevoflurane_min_flow: Annotated[float, _quantity("L/min", 0.0, 20.0)] = 1.0
     sevoflurane_min_flow_long: Annotated[float, _quantity("L/min", 0.0, 20.0)] = 2.0
     uptake_model: Annotated[str, _one_of(UPTAKE_MODELS, "models")] = DEFAULT_UPTAKE_MODEL
     circle_volume: Annotated[float, _quantity("L", 0.5, 20.0)] = CIRCLE_VOLUME_L
     absorbent_capacity: Annotated[float, _quantity("L/kg", 10.0, 300.0)] = ABSORBENT_CAPACITY_L_PER_KG
-
-    @pydantic.field_validator("inspired_o2_floor")
-    @classmethod
-    def _floor(cls, v):
-        if v < 0.21:
-            raise InputError("inspired_o2_floor", v, "the floor is never below 0.21 (21 %)")
-        return v
-
-    @pydantic.field_validator("min_o2_share")
-    @classmethod
-    def _share_positive(cls, v):
-        if v <= 0:
-            raise InputError("min_o2_share", v, "must be above 0")
-        return v
 
 
 class PlanIn(_Strict):

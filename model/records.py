@@ -665,7 +665,6 @@ def read_records(paths, *, reference: Reference = DEFAULT_REFERENCE,
     dial_case = ("CASE agent_raw " + " ".join(f"WHEN {_sql_str(r)} THEN {d!r}" for r, _, d in amap)
                  + " END") if amap else "NULL::DOUBLE"
     a = AIR_O2_FRACTION  # US Standard Atmosphere 1976 (see model.reference)
-    allowed_agents = ", ".join(sorted(k for k, v in reference.agents.items() if v.kind == "volatile")) + ", none"
     con.execute(f"""
     CREATE OR REPLACE TEMP VIEW prepared AS
     WITH r AS (
@@ -708,7 +707,7 @@ def read_records(paths, *, reference: Reference = DEFAULT_REFERENCE,
       END AS problem_a
     FROM g
     """)
-    con.execute(f"""
+    con.execute("""
     CREATE OR REPLACE TEMP VIEW checked AS
     SELECT *, coalesce(problem_a,
         CASE WHEN t_min = prev_max THEN 'duplicate_time' WHEN t_min < prev_max THEN 'time_backwards' END) AS problem

@@ -116,11 +116,19 @@ def _convert(value, unit: str, default_unit: str) -> float:
 
 
 def check_range(number: float, field: str, low: float, high: float, unit: str,
-                low_open: bool = False) -> float:
-    """Return ``number`` if it lies in [low, high] (or (low, high]), else raise InputError."""
+                low_open: bool = False, typed=None) -> float:
+    """Return ``number`` if it lies in [low, high] (or (low, high]), else raise InputError.
+
+    ``typed`` is what the user wrote (e.g. ``"900000 mL/min"``); the message quotes it and
+    adds the converted value when the two differ, so the user finds their own entry.
+    """
     ok = (number > low if low_open else number >= low) and number <= high
     if not ok:
         bracket = "(" if low_open else "["
-        raise InputError(field, f"{number:g} {unit}".strip(),
-                         f"allowed range is {bracket}{low:g}, {high:g}] {unit}".rstrip())
+        converted = f"{number:g} {unit}".strip()
+        allowed = f"allowed range is {bracket}{low:g}, {high:g}] {unit}".rstrip()
+        shown = converted if typed is None else str(typed).strip()
+        if shown != converted:
+            allowed += f" (that is {converted})"
+        raise InputError(field, shown, allowed)
     return number
