@@ -24,6 +24,10 @@ FIGURES = [("Liquid agent", "liquid_agent_ml", "mL"), ("Bottles", "bottles", "bo
            ("CO2 absorbent", "absorbent_g", "g"), ("MAC-hours", "mac_hours", "MAC-h"), ("Duration", "duration_min", "min")]
 
 
+#: Earlier versions of each plan offered for comparison, besides its latest.
+EARLIER_VERSIONS = 9
+
+
 def _pct(new: float, old: float) -> float | None:
     return None if abs(old) < 1e-12 else (new - old) / old * 100.0
 
@@ -43,19 +47,27 @@ def _compare_plans() -> None:
     if len(names) < 2:
         st.info("Save at least two plans on the Case plan page to compare them.")
         return
-    chosen = st.multiselect("Plans to compare (the first is the baseline)", names, default=names[:2],
-                            key="cmp_plans", max_selections=8)
+    # Each plan's latest version by its name, and its earlier versions (the last few) by
+    # name and number, so a plan can be set against what it was before a change.
+    versions: dict[str, tuple[str, int | None]] = {name: (name, None) for name in names}
+    for name in names:
+        for v in store.history("plan", name)[1:EARLIER_VERSIONS + 1]:
+            versions.setdefault(f"{name} · version {v.version}", (name, v.version))
+    chosen = st.multiselect("Plans to compare (the first is the baseline)", list(versions), default=names[:2],
+                            key="cmp_plans", max_selections=8,
+                            help=f"A plan's name alone is its latest version; its {EARLIER_VERSIONS} versions "
+                                 "before that are listed by number.")
     if len(chosen) < 2:
         st.warning("Choose two or more plans.")
         return
     results = {}
     with st.spinner("Computing the plans..."):
-        for name in chosen:
+        for label in chosen:
             try:
-                plan = ui.apply_settings(store.load_plan(name), view)
-                results[name] = ui.compute_cached(plan_to_toml(plan), ref_key, ref)
+                plan = ui.apply_settings(store.load_plan(*versions[label]), view)
+                results[label] = ui.compute_cached(plan_to_toml(plan), ref_key, ref)
             except InputError as err:
-                ui.show_input_error(err, f"'{name}'")
+                ui.show_input_error(err, f"'{label}'")
     if len(results) < 2:
         return
     base_name, base = next(iter(results.items()))

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import re
+from dataclasses import replace
 
 import pytest
 from streamlit.testing.v1 import AppTest
@@ -141,6 +142,22 @@ def test_compare_table_shows_emissions_in_the_sidebar_unit():
     # SI prefixes: 1 t = 1000 kg.
     assert t.loc["CO2e, total", plan] * 1000 == pytest.approx(kg.loc["CO2e, total", plan])
     assert t.loc["Liquid agent", plan] == kg.loc["Liquid agent", plan]
+
+
+def test_compare_sets_a_plan_against_an_earlier_version_of_itself(isolated_store):
+    page("compare.py")                                  # the first page run seeds the demo plans
+    store = Store(isolated_store)
+    name = "Laparoscopic cholecystectomy, low flow"
+    plan = store.load_plan(name)
+    # The same plan with every phase at twice the O2 flow, saved as its next version.
+    doubled = replace(plan, phases=tuple(replace(p, o2_l_min=2 * p.o2_l_min) for p in plan.phases))
+    assert store.save_plan(doubled, note="double O2") == 2
+    at = page("compare.py")
+    assert f"{name} · version 1" in at.multiselect(key="cmp_plans").options
+    at.multiselect(key="cmp_plans").set_value([f"{name} · version 1", name]).run()
+    assert not at.exception and not at.error, [e.value for e in at.error]
+    # More fresh gas at the same dial vaporises more liquid (Dion's formula, DESIGN.md 3.1).
+    assert next(m.delta for m in at.metric if m.label == "Liquid agent").startswith("+")
 
 
 def test_compare_higher_flow_plan_shows_more_liquid():
