@@ -23,7 +23,7 @@ import pandas as pd
 from .emissions import co2e_kg, gas_mass_g
 from .errors import InputError
 from .reference import DEFAULT_GWP, DEFAULT_REFERENCE, STANDARD_PRESSURE_KPA, Reference, normalise_agent_name
-from .units import registry, safe_quantity_text
+from .units import one_number_and_unit, registry, safe_quantity_text
 from .vapour import molar_volume_l
 
 PURCHASE_COLUMNS = ("month", "item", "quantity", "unit", "size")
@@ -229,7 +229,8 @@ def _gas_l(qty, unit, size, agent, at, temperature_c, pressure_kpa) -> float:
 def _convert_text(text, base, where, example) -> float:
     ureg = registry()
     try:
-        if not safe_quantity_text(str(text)):  # pint would evaluate "9**9**9" for hours
+        # pint would evaluate "9**9**9" for hours, and arithmetic such as "2 * 4500 L"
+        if not safe_quantity_text(str(text)) or not one_number_and_unit(str(text)):
             raise ValueError(text)
         q = ureg.Quantity(text)
         value = float(q.to(base).magnitude) if not isinstance(q, (int, float)) else float(q)

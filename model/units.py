@@ -28,6 +28,22 @@ _POWER = re.compile(r"\*\*|\^")
 _SMALL_POWER = re.compile(r"(?:\*\*|\^)\s*[+-]?\d(?![\d.eE])(?!\s*(?:\*\*|\^))")
 
 
+_LEADING_NUMBER = re.compile(r"^\s*[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?")
+
+
+def one_number_and_unit(text: str) -> bool:
+    """Whether ``text`` is one number then a unit ("500 mL/min", "1e3 mL", "1.5 m**3", "30 %").
+
+    pint would also evaluate arithmetic ("1 L/min * 2", "2 L/min + 3 L/min"); a value is
+    one number, so a number anywhere in the unit, other than a small exponent, is refused.
+    """
+    m = _LEADING_NUMBER.match(text)
+    if not m:
+        return False
+    unit = _SMALL_POWER.sub("", text[m.end():])
+    return not any(ch.isdigit() for ch in unit) and "(" not in unit
+
+
 def safe_quantity_text(text: str) -> bool:
     """Whether pint may parse ``text`` (a quantity or a unit) without risk.
 
@@ -94,7 +110,7 @@ def _convert(value, unit: str, default_unit: str) -> float:
             return number
         return float(ureg.Quantity(number, default_unit).to(unit).magnitude)
     text = value.strip()
-    if not text or not safe_quantity_text(text):
+    if not text or not safe_quantity_text(text) or not one_number_and_unit(text):
         raise _Refused(f"expected a quantity such as '1 {unit}'")
     try:
         quantity = ureg.Quantity(text)
