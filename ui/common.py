@@ -171,7 +171,9 @@ def _sidebar() -> ViewSettings:
         temp = st.number_input("Room temperature (°C)", min_value=0.0, max_value=45.0, step=1.0,
                                key="gl_temp", help="Sets the vapour volume per mL of liquid (ideal gas).")
         flow_unit = st.selectbox("Flows shown in", FLOW_UNITS, key="gl_flow_unit")
-        co2e_unit = st.selectbox("Emissions shown in", list(CO2E_UNITS), key="gl_co2e_unit")
+        co2e_unit = st.selectbox("Emissions shown in", list(CO2E_UNITS), key="gl_co2e_unit",
+                                 help="For cases, plans and records. A department's year is always "
+                                      "in tonnes CO2e, the unit of annual reporting.")
         st.divider()
         st.caption(CAUTION)
         st.caption(f"Store: {md(default_path())}")
