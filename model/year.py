@@ -37,7 +37,7 @@ import numpy as np
 import pandas as pd
 from scipy.special import ndtr
 
-from .case import simulation_totals
+from .case import SLOW_TARGET_MIN, simulation_totals
 from .casemix import CaseMix, CaseType
 from .circle import simulate_cases
 from .errors import InputError
@@ -618,6 +618,10 @@ def _subplan_warnings(out: dict, ctype: CaseType, sub: SubPlan, where, groups, r
                 add(f"{at}: the end-tidal target of {p.target_mac:g} MAC is not reached within the phase "
                     f"at {fgf:.2f} L/min (vaporizer maximum {ref.agents[sub.agent].vaporizer_max:g} "
                     f"%); raise the flow or allow longer")
+            elif reach and max(reach) > SLOW_TARGET_MIN:
+                # The slow response of low flow, as for a single case (model.case.case_warnings).
+                add(f"{at}: end-tidal reaches the target of {p.target_mac:g} MAC only after "
+                    f"{max(reach):.0f} min at {fgf:.2f} L/min")
     worst = None
     for gk, c in where:
         tot = groups[gk]["tot"]

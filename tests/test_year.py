@@ -398,3 +398,23 @@ def test_a_dial_above_the_vaporizer_maximum_in_use_names_the_case_type(tmp_path)
     # A year with fixed durations is each case x its count (as in the sum-of-types check above).
     assert compute_year(scenario, wide).totals["liquid_ml_sevoflurane"] == pytest.approx(
         10 * case["liquid_agent_ml"], rel=1e-6)
+
+
+def test_a_slow_end_tidal_target_is_a_caution_of_the_year_as_of_the_case(tmp_path):
+    plan = load_plan(YEAR / "plans" / "adult_target_2l.toml")
+    # A light wash-in, then a deeper target at 0.5 L/min: the slow response of low flow.
+    slow = plan.with_phase(0, dial_pct=1.0).with_phase(1, o2_l_min=0.3, air_l_min=0.2, target_mac=1.2)
+    mix = parse_casemix_text(HEADER + "Slow,10,108,0,1,0,0,0,slow.toml\n", "mix", lambda name, where: slow)
+    # The case type's plan carries the mix's patient (default band), so compare with that case.
+    case_caution = [w for w in compute_case(mix.types[0].plan).warnings if "only after" in w]
+    assert case_caution, "the single case must show the slow target first"
+    year = compute_year(Scenario("slow", mix, sampling=Sampling(draws=5)))
+    year_caution = [w for w in year.warnings if "only after" in w]
+    assert len(year_caution) == 1 and "Slow" in year_caution[0] and "1.2 MAC" in year_caution[0]
+    # The same minutes as the case (same physics, same phase lengths: 8 + 90 + 10 = 108 min).
+    minutes = lambda text: text.split("only after ")[1].split(" min")[0]  # noqa: E731
+    assert minutes(year_caution[0]) == minutes(case_caution[0])
+    # A target reached at once gives no such caution.
+    assert not [w for w in compute_year(Scenario("fast", parse_casemix_text(
+        HEADER + "Fast,10,108,0,1,0,0,0,fast.toml\n", "mix", lambda name, where: plan),
+        sampling=Sampling(draws=5))).warnings if "only after" in w]
