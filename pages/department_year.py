@@ -111,8 +111,10 @@ t = result.totals
 rows = result.summary.set_index("key")
 cur = result.currency
 st.subheader("The year")
-st.caption(f"{t['cases']:,.0f} cases; {result.inputs.gwp_label}; {result.n_draws:,} draws (seed {result.seed}). "
-           "Expected values, with P5-P95 under each.")
+st.caption(f"{t['cases']:,.0f} cases; {result.n_draws:,} draws (seed {result.seed}). "
+           f"Expected values under {result.inputs.gwp_label}, with P5-P95 under each"
+           + (f" (the bands also draw the GWP sources {', '.join(ref.gwp_sources[g].label for g in gwps)}, "
+              "so a value can sit near one end of its band)" if len(gwps) > 1 else "") + ".")
 m = st.columns(5)
 for col, (label, key, value, digits) in zip(m, [
         (f"Cost ({cur})", "cost_total", f"{t['cost_total']:,.0f}", 0),
