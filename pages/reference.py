@@ -54,13 +54,14 @@ st.subheader("Your values")
 st.caption("Leave a value as it is to keep the default. Saving keeps every earlier set of values.")
 default = DEFAULT_REFERENCE
 prices_saved = saved.get("prices", {})
-FORM_KEYS = ("ref_bottle_", "ref_oxygen_", "ref_air_", "ref_nitrous_", "ref_absorbent_", "ref_gwp_", "ref_mac_")
+FORM_KEYS = ("ref_bottle_", "ref_oxygen_", "ref_air_", "ref_nitrous_", "ref_absorbent_", "ref_gwp_", "ref_mac_",
+             "ref_vapmax_")
 if ss.pop("ref_reset_form", False):
     # Another set of values was put in use: show it in the form, not what was typed before.
     for k in [k for k in ss if str(k).startswith(FORM_KEYS)]:
         del ss[k]
 with st.form("ref_overrides"):
-    tab_p, tab_g, tab_m = st.tabs(["Prices", "GWP values", "MAC at age 40"])
+    tab_p, tab_g, tab_m, tab_v = st.tabs(["Prices", "GWP values", "MAC at age 40", "Vaporizer maximum"])
     with tab_p:
         c = st.columns(5)
         currency = c[0].text_input("Currency label", value=prices_saved.get("currency", default.prices.currency),
@@ -97,6 +98,15 @@ with st.form("ref_overrides"):
         for i, a in enumerate(list(VOLATILES) + ["nitrous_oxide"]):
             mac[a] = c[i].number_input(default.agents[a].label, min_value=0.0, step=0.05,
                                        value=float(ref.agents[a].mac40), key=f"ref_mac_{a}", format="%.3g")
+    with tab_v:
+        st.caption("Highest dial setting of your vaporizers (%). Plan dials above it are refused, and "
+                   "targets are reached within it. Follow the workstation's instructions for use.")
+        c = st.columns(4)
+        vapmax = {}
+        for i, a in enumerate(VOLATILES):
+            vapmax[a] = c[i].number_input(default.agents[a].label, min_value=0.5, max_value=100.0, step=0.5,
+                                          value=float(ref.agents[a].vaporizer_max), key=f"ref_vapmax_{a}",
+                                          format="%.3g")
     note = st.text_input("Note for this set of values", placeholder="optional, e.g. 2026 contract prices")
     submitted = st.form_submit_button("Save my values", type="primary", icon=":material/save:")
 
@@ -117,6 +127,9 @@ def _collect() -> dict:
     if gwp_user:
         out["gwp"] = {"user": gwp_user}
     agents = {a: {"mac40": v} for a, v in mac.items() if abs(v - default.agents[a].mac40) > 1e-9}
+    for a, v in vapmax.items():
+        if abs(v - default.agents[a].vaporizer_max) > 1e-9:
+            agents.setdefault(a, {})["vaporizer_max"] = v
     if agents:
         out["agents"] = agents
     return out

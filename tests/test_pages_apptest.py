@@ -233,3 +233,24 @@ def test_sidebar_gwp_horizon_and_flow_unit_apply():
     assert not at.exception
     assert "mL/min" in at.data_editor[0].value["O2"].iloc[1]
     assert metric(at, "Liquid agent") == liquid      # the same plan, only shown differently
+
+
+def test_a_vaporizer_maximum_raised_on_the_reference_page_lets_a_plan_dial_above_the_default():
+    at = page("case_plan.py")
+    open_plan(at, "Laparoscopic cholecystectomy, high flow")
+    before = metric(at, "Liquid agent")
+    edit_phase(at, 1, setting="9 %")
+    assert any("up to 8 %" in e.value for e in at.error), [e.value for e in at.error]
+
+    ref = page("reference.py")
+    ref.number_input(key="ref_vapmax_sevoflurane").set_value(10.0)
+    next(b for b in ref.button if b.label == "Save my values").click()
+    ref.run()
+    assert not ref.exception and not ref.error, [e.value for e in ref.error]
+
+    at = page("case_plan.py")
+    open_plan(at, "Laparoscopic cholecystectomy, high flow")
+    edit_phase(at, 1, setting="9 %")
+    assert not at.error, [e.value for e in at.error]
+    # Dion's formula (DESIGN.md 3.1): at the same flow, 9 % instead of 2 % vaporises more liquid.
+    assert metric(at, "Liquid agent") > before
