@@ -241,6 +241,8 @@ tables = {"Cases": cases, "By theatre": result.by("theatre"), "By month": result
           "By agent": result.by("agent"), "Set-aside rows": rep.issues, "Gaps": rep.gap_list}
 if recon is not None:
     tables["Purchases"] = recon
+if purchase_notes:
+    tables["Purchase lines set aside"] = pd.DataFrame({"message": purchase_notes})
 inputs = {"files": ", ".join(rep.files), "purchases": purchases_file[0] if purchases_file else "none",
           "GWP source": result.gwp_label, "room temperature": f"{view.temperature_c:g} °C",
           "longest interval counted": f"{gap_limit:g} min", "high flow above": f"{high_flow:g} L/min",
