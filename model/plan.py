@@ -170,6 +170,14 @@ from typing import Annotated  # noqa: E402  (kept beside its only use)
 Flow = Annotated[float, _quantity("L/min", 0.0, 20.0)]
 
 
+def volatile_key(value: str, field: str) -> str:
+    """The reference key of a volatile agent typed as a name or short name ("Sevo" -> "sevoflurane")."""
+    key = normalise_agent_name(value)
+    if key not in VOLATILES:
+        raise InputError(field, value, "allowed agents are " + ", ".join(VOLATILES))
+    return key
+
+
 def _one_of(choices, noun: str):
     """A text field that must be one of ``choices`` ("allowed <noun> are ...")."""
     def check(value, info: pydantic.ValidationInfo):
@@ -244,10 +252,7 @@ class PlanIn(_Strict):
     @pydantic.field_validator("agent")
     @classmethod
     def _volatile(cls, v):
-        key = normalise_agent_name(v)
-        if key not in VOLATILES:
-            raise InputError("agent", v, "allowed agents are " + ", ".join(VOLATILES))
-        return key
+        return volatile_key(v, "agent")
 
     @pydantic.field_validator("format")
     @classmethod

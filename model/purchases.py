@@ -249,7 +249,7 @@ def purchase_emissions(purchases: pd.DataFrame, reference: Reference = DEFAULT_R
     Parameters
     ----------
     purchases : DataFrame
-        From :func:`read_purchases`.
+        From :func:`read_purchases`, or the ``table`` of :func:`load_purchases`.
 
     Returns
     -------
@@ -298,7 +298,7 @@ def reconcile(purchases: pd.DataFrame, use: pd.DataFrame, reference: Reference =
     Parameters
     ----------
     purchases : DataFrame
-        From :func:`read_purchases`.
+        From :func:`read_purchases`, or the ``table`` of :func:`load_purchases`.
     use : DataFrame
         ``month``, ``item``, ``recorded`` in the same units (mL liquid, L gas), e.g.
         :meth:`model.audit.AuditResult.use_by_month`, or modelled use in that form.

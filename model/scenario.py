@@ -16,8 +16,8 @@ import pydantic
 from .casemix import CaseMix, load_casemix
 from .errors import InputError
 from .files import read_user_text
-from .plan import GwpSourceName, Share, _first_error, _quantity, _Strict
-from .reference import DEFAULT_GWP, GWP_SOURCES, VOLATILES, Reference, Sourced, normalise_agent_name
+from .plan import GwpSourceName, Share, _first_error, _quantity, _Strict, volatile_key
+from .reference import DEFAULT_GWP, GWP_SOURCES, Reference, Sourced
 
 SCENARIO_FORMAT = "fresh-gas-ledger scenario 1"
 #: Largest scenario file read. [bytes]
@@ -117,10 +117,7 @@ class _SwitchIn(_Strict):
     @pydantic.field_validator("from_", "to")
     @classmethod
     def _volatile(cls, v):
-        key = normalise_agent_name(v)
-        if key not in VOLATILES:
-            raise InputError("switch_agent", v, "allowed agents are " + ", ".join(VOLATILES))
-        return key
+        return volatile_key(v, "switch_agent")
 
 
 class _PracticeIn(_Strict):
