@@ -178,6 +178,15 @@ def volatile_key(value: str, field: str) -> str:
     return key
 
 
+def format_of(expected: str):
+    """A file's ``format`` line, which must name the one version this program reads."""
+    def check(value, info: pydantic.ValidationInfo):
+        if value != expected:
+            raise InputError(info.field_name, value, f"this version reads '{expected}'")
+        return value
+    return pydantic.BeforeValidator(check)
+
+
 def _one_of(choices, noun: str):
     """A text field that must be one of ``choices`` ("allowed <noun> are ...")."""
     def check(value, info: pydantic.ValidationInfo):
@@ -241,7 +250,7 @@ class SettingsIn(_Strict):
 
 
 class PlanIn(_Strict):
-    format: str = PLAN_FORMAT
+    format: Annotated[str, format_of(PLAN_FORMAT)] = PLAN_FORMAT
     name: Annotated[str, pydantic.StringConstraints(min_length=1, max_length=120)] = "Unnamed plan"
     agent: str
     patient: PatientIn = PatientIn()
@@ -254,12 +263,6 @@ class PlanIn(_Strict):
     def _volatile(cls, v):
         return volatile_key(v, "agent")
 
-    @pydantic.field_validator("format")
-    @classmethod
-    def _format(cls, v):
-        if v != PLAN_FORMAT:
-            raise InputError("format", v, f"this version reads '{PLAN_FORMAT}'")
-        return v
 
 
 def _where(loc) -> str:

@@ -16,7 +16,7 @@ import pydantic
 from .casemix import CaseMix, load_casemix
 from .errors import InputError
 from .files import read_user_text
-from .plan import GwpSourceName, Share, _first_error, _quantity, _Strict, volatile_key
+from .plan import GwpSourceName, Share, _first_error, _quantity, _Strict, format_of, volatile_key
 from .reference import DEFAULT_GWP, GWP_SOURCES, Reference, Sourced
 
 SCENARIO_FORMAT = "fresh-gas-ledger scenario 1"
@@ -175,7 +175,7 @@ class _CalendarIn(_Strict):
 
 
 class _ScenarioIn(_Strict):
-    format: str = SCENARIO_FORMAT
+    format: Annotated[str, format_of(SCENARIO_FORMAT)] = SCENARIO_FORMAT
     name: Annotated[str, pydantic.StringConstraints(min_length=1, max_length=120)] = "Unnamed scenario"
     case_mix: Annotated[str, pydantic.StringConstraints(min_length=1, max_length=500)]
     gwp_source: GwpSourceName = DEFAULT_GWP
@@ -185,12 +185,6 @@ class _ScenarioIn(_Strict):
     equivalence: _EquivalenceIn = _EquivalenceIn()
     calendar: _CalendarIn = _CalendarIn()
 
-    @pydantic.field_validator("format")
-    @classmethod
-    def _format(cls, v):
-        if v != SCENARIO_FORMAT:
-            raise InputError("format", v, f"this version reads '{SCENARIO_FORMAT}'")
-        return v
 
 
 def scenario_from_dict(data: Mapping, source: str = "scenario", base_dir: Path | None = None,
