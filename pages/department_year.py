@@ -113,7 +113,7 @@ cur = result.currency
 st.subheader("The year")
 st.caption(f"{t['cases']:,.0f} cases; {result.n_draws:,} draws (seed {result.seed}). "
            f"Expected values under {result.inputs.gwp_label}, with P5-P95 under each"
-           + (f" (the bands also draw the GWP sources {', '.join(ref.gwp_sources[g].label for g in gwps)}, "
+           + (f" (the bands draw the GWP sources {', '.join(ref.gwp_sources[g].label for g in gwps)}, "
               "so a value can sit near one end of its band)" if len(gwps) > 1 else "") + ".")
 m = st.columns(5)
 for col, (label, key, value, digits) in zip(m, [
