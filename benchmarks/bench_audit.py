@@ -37,7 +37,7 @@ def _peak_mb() -> float:
 
 
 def measure_audit(files, memory_limit, repeats) -> dict:
-    from model.audit import audit_records
+    from model.audit.engine import audit_records
     from model.units import registry
 
     registry()  # the unit registry is built once per process; not part of the audit
@@ -98,7 +98,7 @@ def main(argv=None) -> int:
         print(json.dumps(res))
         return 0
 
-    from model.synth import write_many
+    from model.cli.synth import write_many
 
     out = Path("/tmp") / f"gas-ledger-bench-{args.rows}"
     free = shutil.disk_usage("/tmp").free

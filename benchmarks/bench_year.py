@@ -21,8 +21,11 @@ ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
 
 from model import year as year_module  # noqa: E402
-from model.scenario import Practice, Sampling, load_scenario  # noqa: E402
-from model.year import compare_years, compute_year, year_inputs  # noqa: E402
+from model.year.inputs import Practice, Sampling
+from model.io.scenario import load_scenario  # noqa: E402
+from model.year.compare import compare_years
+from model.year.result import compute_year
+from model.year.simulate import year_inputs  # noqa: E402
 
 TYPES = 30
 DRAWS = 10_000

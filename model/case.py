@@ -9,13 +9,13 @@ from types import SimpleNamespace
 import numpy as np
 import pandas as pd
 
-from .circle import simulate_cases
-from .emissions import co2e_kg, emitted_mass_g, gas_mass_g
-from .freshgas import apply_ratio_limit, delivered_fractions, flow_band
-from .mac import mac_multiple
-from .plan import CasePlan, check_dials
-from .reference import DEFAULT_REFERENCE, Reference
-from .vapour import liquid_used_ml
+from model.circle import simulate_cases
+from model.emissions import co2e_kg, emitted_mass_g, gas_mass_g
+from model.freshgas import apply_ratio_limit, delivered_fractions, flow_band
+from model.mac import mac_multiple
+from model.plan import CasePlan, check_dials
+from model.reference import DEFAULT_REFERENCE, Reference
+from model.vapour import liquid_used_ml
 
 
 def phase_consumption(minutes, o2_l_min, air_l_min, n2o_l_min, dial_pct, agent, *,

@@ -44,12 +44,13 @@ import math
 
 import numpy as np
 
-from .freshgas import apply_ratio_limit, delivered_fractions
-from .mac import mac_at_age
-from .patient import resolve_patient
-from .reference import AIR_O2_FRACTION, DEFAULT_REFERENCE, Agent
-from .uptake import DEFAULT_UPTAKE_MODEL, UPTAKE_MODELS, tissue_compartments
-from .vapour import vapour_per_ml_liquid
+from model.freshgas import apply_ratio_limit, delivered_fractions
+from model.mac import mac_at_age
+from model.patient import resolve_patient
+from model.reference import AIR_O2_FRACTION, Agent, DEFAULT_REFERENCE
+from model.uptake import DEFAULT_UPTAKE_MODEL, UPTAKE_MODELS, tissue_compartments
+from model.vapour import vapour_per_ml_liquid
+
 
 #: Gas volume of an adult circle system with its absorber canister. [L]
 #: Source: typical workstation circle systems hold about 3-7 L (from memory); 6 L taken.

@@ -4,8 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from .reference import STANDARD_PRESSURE_KPA
-from .vapour import molar_volume_l
+from model.reference import STANDARD_PRESSURE_KPA
+from model.vapour import molar_volume_l
 
 
 def gas_mass_g(volume_l, molar_mass_g_mol, temperature_c=20.0, pressure_kpa=STANDARD_PRESSURE_KPA):

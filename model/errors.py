@@ -1,5 +1,7 @@
 """The one error type the model raises for bad user input."""
 
+from __future__ import annotations
+
 
 class InputError(ValueError):
     """Bad user input: a field, a file or a flag.

@@ -2,9 +2,10 @@
 
 from __future__ import annotations
 
+import re
 from pathlib import Path
 
-from .errors import InputError
+from model.errors import InputError
 
 
 def shown_path(path) -> str:
@@ -50,3 +51,15 @@ def read_user_text(path, kind: str, max_bytes: int, fmt: str = "TOML", encoding:
         raise InputError(label, shown_path(p), f"not UTF-8 text; a {kind} file is {fmt} text") from None
     except OSError as exc:
         raise InputError(label, shown_path(p), f"cannot be read ({exc.strerror}); give a readable {fmt} {kind} file") from None
+
+
+def toml_error(source: str, exc: Exception,
+               allowed: str = "the file is not valid TOML (see the plan format in README.md)") -> InputError:
+    """One-line InputError for malformed TOML, naming the file, line and column."""
+    text = " ".join(str(exc).split())
+    match = re.search(r"\s*\(at line (\d+), column (\d+)\)", text)
+    where = source
+    if match:
+        where = f"{source} (line {match.group(1)}, column {match.group(2)})"
+        text = text[:match.start()] + text[match.end():]
+    return InputError(where, text.strip() or "malformed text", allowed)

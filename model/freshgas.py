@@ -4,7 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from .reference import AIR_O2_FRACTION
+from model.reference import AIR_O2_FRACTION
+
 
 RATIO_BEHAVIOURS = ("cap_n2o", "raise_o2")
 

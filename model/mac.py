@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
+
 #: Slope of log10(MAC) against age. [1/year]
 #: Source: Mapleson WW. Effect of age on MAC in humans: a meta-analysis.
 #: Br J Anaesth 1996;76:179-85.

@@ -6,6 +6,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+
 #: Brody's scaling as used by Lowe: VO2 = 10 x kg^0.75. [mL/min]
 #: Source: Lowe HJ, Ernst EA. The Quantitative Practice of Anesthesia: Use of Closed
 #: Circuit. Williams & Wilkins, 1981 (after Brody S, Bioenergetics and Growth, 1945).

@@ -11,8 +11,9 @@ from pathlib import Path
 from types import MappingProxyType
 from typing import Mapping
 
-from .errors import InputError
-from .files import read_user_text, shown_path
+from model.errors import InputError
+from model.files import read_user_text, shown_path
+
 
 #: Largest settings file read. [bytes]
 MAX_SETTINGS_BYTES = 1_000_000
@@ -500,7 +501,7 @@ def load_settings(path: str | os.PathLike | None = None, base: Reference | None 
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
-        from .plan import toml_error
+        from model.files import toml_error
         raise toml_error(f"settings file {p}", exc,
                          "the file is not valid TOML (see 'Settings file' in README.md)") from None
     except RecursionError:

@@ -26,8 +26,10 @@ from datetime import datetime, timezone
 from pathlib import Path
 from typing import Iterator
 
-from .errors import InputError
-from .plan import CasePlan, parse_plan_text, plan_to_toml
+from model.errors import InputError
+from model.io.plans import parse_plan_text, plan_to_toml
+from model.plan import CasePlan
+
 
 #: Environment variable naming the store file.
 STORE_ENV = "GAS_LEDGER_STORE"
@@ -401,4 +403,3 @@ def _migrate_1_to_2(con: sqlite3.Connection) -> None:
                     (ids[name], version, body, "migrated from schema 1", saved_at))
     # The old table stays (renamed), so nothing is lost even without the backup file.
     con.execute("ALTER TABLE plans RENAME TO plans_schema1")
-

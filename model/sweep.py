@@ -9,11 +9,12 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from .case import simulate_plan, simulation_totals
-from .errors import InputError
-from .freshgas import flow_band
-from .plan import CasePlan
-from .reference import DEFAULT_REFERENCE, Reference
+from model.case import simulate_plan, simulation_totals
+from model.errors import InputError
+from model.freshgas import flow_band
+from model.plan import CasePlan
+from model.reference import DEFAULT_REFERENCE, Reference
+
 
 #: Flows of the sweep, spanning Baker's bands from metabolic (0.25) to very high (> 4). [L/min]
 #: Source of the bands: Baker AB. Anaesth Intensive Care 1994;22:341-2.

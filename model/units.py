@@ -8,7 +8,7 @@ import re
 
 import pint
 
-from .errors import InputError
+from model.errors import InputError
 
 
 @functools.lru_cache(maxsize=1)

@@ -17,7 +17,8 @@ from types import MappingProxyType
 
 import numpy as np
 
-from .reference import FROM_MEMORY, Sourced
+from model.reference import FROM_MEMORY, Sourced
+
 
 UPTAKE_MODELS = ("compartment", "lowe")
 DEFAULT_UPTAKE_MODEL = "compartment"

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .reference import R_GAS, STANDARD_PRESSURE_KPA, Agent
+from model.reference import Agent, R_GAS, STANDARD_PRESSURE_KPA
 
 
 def molar_volume_l(temperature_c=20.0, pressure_kpa=STANDARD_PRESSURE_KPA):

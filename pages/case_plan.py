@@ -10,8 +10,9 @@ import streamlit as st
 
 import ui
 from model import InputError
-from model.exports import html_report
-from model.plan import CasePlan, plan_from_dict, plan_to_dict, plan_to_toml
+from model.io.exports import html_report
+from model.plan import CasePlan
+from model.io.plans import plan_from_dict, plan_to_dict, plan_to_toml
 from model.reference import VOLATILES
 from ui import charts
 
@@ -446,7 +447,7 @@ with st.expander("Plan files and saved versions", icon=":material/description:")
         if up is not None and ss.get("cp_upload_done") != up.file_id:
             ss["cp_upload_done"] = up.file_id
             try:
-                from model.uploads import check_upload
+                from model.io.uploads import check_upload
                 text = check_upload(up.name, up.getvalue(), "plan").text
                 imported, version = store.import_plan_text(text, up.name)
             except InputError as err:

@@ -7,8 +7,8 @@ import streamlit as st
 
 import ui
 from model import InputError
-from model.exports import html_report
-from model.plan import plan_to_toml
+from model.io.exports import html_report
+from model.io.plans import plan_to_toml
 from ui import charts
 
 view = ui.page_start("Compare", "Saved plans side by side. The first plan is the baseline; every "

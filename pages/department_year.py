@@ -9,11 +9,12 @@ import streamlit as st
 
 import ui
 from model import InputError
-from model.casemix import casemix_from_frame, casemix_to_frame
-from model.exports import html_report
+from model.io.casemix import casemix_from_frame, casemix_to_frame
+from model.io.exports import html_report
 from model.reference import GWP_SOURCES, VOLATILES
-from model.scenario import MAX_DRAWS, Practice, Sampling, load_scenario
-from model.year import nonzero_rows
+from model.year.inputs import MAX_DRAWS, Practice, Sampling
+from model.io.scenario import load_scenario
+from model.year.compare import nonzero_rows
 from ui import year_views as yv
 
 view = ui.page_start("Department year", "A department's case mix scaled to a year: bottles per month, "

@@ -12,12 +12,14 @@ import streamlit as st
 
 import ui
 from model import InputError
-from model.audit import DEFAULT_HIGH_FLOW_L_MIN, DEFAULT_HIGH_FLOW_LIMIT_MIN, audit_records
-from model.exports import html_report
+from model.audit.result import DEFAULT_HIGH_FLOW_L_MIN, DEFAULT_HIGH_FLOW_LIMIT_MIN
+from model.audit.engine import audit_records
+from model.io.exports import html_report
 from model.freshgas import FLOW_BAND_NAMES
-from model.purchases import load_purchases, reconcile
-from model.records import DEFAULT_GAP_LIMIT_MIN
-from model.uploads import check_upload
+from model.io.purchases import load_purchases
+from model.audit.reconcile import reconcile
+from model.io.record_files import DEFAULT_GAP_LIMIT_MIN
+from model.io.uploads import check_upload
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "demo_data" / "records"

@@ -9,7 +9,7 @@ import streamlit as st
 
 import ui
 from model import DEFAULT_REFERENCE, InputError
-from model.exports import html_report
+from model.io.exports import html_report
 from model.reference import VOLATILES
 
 view = ui.page_start("Reference", "Every value the model uses, where it comes from, and your own "

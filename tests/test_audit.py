@@ -10,12 +10,13 @@ import pandas as pd
 import pytest
 
 from model import compute_case
-from model.audit import ADDITIVE, BAND_COLUMNS, audit_records, summarise
+from model.audit.result import ADDITIVE, BAND_COLUMNS, summarise
+from model.audit.engine import audit_records
 from model.emissions import gas_mass_g
 from model.freshgas import FLOW_BAND_NAMES, flow_band
 from model.plan import CasePlan, Phase, Settings
 from model.reference import DEFAULT_REFERENCE
-from model.synth import generate, write
+from model.cli.synth import generate, write
 from model.vapour import liquid_used_series_ml, rule_of_thumb_ml_per_hour
 
 ROOT = Path(__file__).resolve().parents[1]

@@ -9,7 +9,8 @@ import pytest
 
 from model.case import case_costs, compute_case, phase_consumption
 from model.emissions import co2e_kg, emitted_mass_g, gas_mass_g
-from model.plan import CasePlan, Patient, Phase, Settings, load_plan
+from model.plan import CasePlan, Patient, Phase, Settings
+from model.io.plans import load_plan
 from model.reference import AGENTS, DEFAULT_REFERENCE, Prices, Reference
 
 DEMO = Path(__file__).resolve().parents[1] / "demo_data" / "plans"

@@ -5,10 +5,10 @@ from pathlib import Path
 import pandas as pd
 import pytest
 
-from model.casemix import (casemix_from_frame, casemix_to_csv, casemix_to_frame, load_casemix,
-                           parse_casemix_text, stretch_phase)
+from model.io.casemix import casemix_from_frame, casemix_to_csv, casemix_to_frame, load_casemix, parse_casemix_text
+from model.year.inputs import stretch_phase
 from model.errors import InputError
-from model.plan import load_plan
+from model.io.plans import load_plan
 
 YEAR = Path(__file__).resolve().parents[1] / "demo_data" / "year"
 HEADER = "case_type,cases_per_year,median_duration,duration_spread,sevoflurane,desflurane,n2o_share,plan\n"

@@ -9,10 +9,11 @@ import numpy as np
 import pytest
 
 from model import compute_case, load_plan
-from model.circle import (lowest_safe_fd_o2, rebreathed_share, simulate_cases, steady_state_fio2)
+from model.circle import lowest_safe_fd_o2, rebreathed_share, simulate_cases, steady_state_fio2
 from model.cli import main
 from model.mac import mac_at_age
-from model.plan import CasePlan, Patient, Phase, Settings, parse_plan_text
+from model.plan import CasePlan, Patient, Phase, Settings
+from model.io.plans import parse_plan_text
 from model.reference import AIR_O2_FRACTION, DEFAULT_REFERENCE, VOLATILES
 
 DEMO = Path(__file__).resolve().parents[1] / "demo_data" / "plans"

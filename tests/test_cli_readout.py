@@ -4,7 +4,7 @@ from pathlib import Path
 
 from model.case import compute_case
 from model.cli import main
-from model.plan import load_plan
+from model.io.plans import load_plan
 
 PLANS = Path(__file__).resolve().parents[1] / "demo_data" / "plans"
 

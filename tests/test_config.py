@@ -78,6 +78,6 @@ def test_streamlit_reads_every_setting_from_the_shipped_file(config):
 
 
 def test_upload_guard_uses_the_configured_limit(config):
-    from model.uploads import upload_limit_bytes
+    from model.io.uploads import upload_limit_bytes
 
     assert upload_limit_bytes() == config["server"]["maxUploadSize"] * 1024 * 1024

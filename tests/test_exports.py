@@ -14,7 +14,7 @@ import pytest
 from hypothesis import given, strategies as st
 
 from model import compute_case, load_plan
-from model.exports import (FORMULA_STARTS, chart_text, html_report, neutralise, to_csv, to_xlsx)
+from model.io.exports import FORMULA_STARTS, chart_text, html_report, neutralise, to_csv, to_xlsx
 
 DEMO = Path(__file__).resolve().parents[1] / "demo_data" / "plans"
 

@@ -16,8 +16,9 @@ from hypothesis import HealthCheck, assume, given, settings
 from hypothesis import strategies as st
 
 from model import load_plan
-from model import purchases, records, scenario
-from model.casemix import CASEMIX_COLUMNS, CaseMix, parse_casemix_text
+from model.io import purchases, record_files, records, scenario
+from model.io.casemix import CASEMIX_COLUMNS, parse_casemix_text
+from model.year.inputs import CaseMix
 from model.errors import InputError
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -156,7 +157,7 @@ SCENARIO_TEXT = (YEAR / "baseline_2l.toml").read_text()
 
 @pytest.fixture(scope="module")
 def demo_mix():
-    from model.casemix import load_casemix
+    from model.io.casemix import load_casemix
 
     return load_casemix(YEAR / "fernhollow_casemix.csv")
 
@@ -176,7 +177,7 @@ def test_scenario_from_raw_bytes_gives_scenario_or_input_error(data, demo_mix):
 
 # --- case records ---------------------------------------------------------------------
 
-RECORD_COLUMNS = sorted({alias for _, aliases in records.FIELDS.values() for alias in aliases})
+RECORD_COLUMNS = sorted({alias for _, aliases in record_files.FIELDS.values() for alias in aliases})
 RECORD_TEXT = "\n".join((RECORDS / "fernhollow_birch_cases.csv").read_text().splitlines()[:40]) + "\n"
 
 
@@ -222,7 +223,7 @@ def _column_names(draw):
                            max_size=4))
 def test_record_header_gives_columns_or_input_error(names, units_line):
     declared = {k: v for k, v in units_line}
-    result = _only_input_error(records.map_columns, names, declared, "fuzz.csv")
+    result = _only_input_error(record_files.map_columns, names, declared, "fuzz.csv")
     if result is not None:
         columns, ignored = result
         assert all(c.factor > 0 for c in columns.values() if c.factor)
@@ -231,7 +232,7 @@ def test_record_header_gives_columns_or_input_error(names, units_line):
 @FUZZ
 @given(line=st.text(max_size=80))
 def test_record_units_line_gives_units_or_input_error(line):
-    result = _only_input_error(records._parse_units_line, "# units: " + line, "fuzz.csv, line 1")
+    result = _only_input_error(record_files._parse_units_line, "# units: " + line, "fuzz.csv, line 1")
     assert result is None or isinstance(result, dict)
 
 
@@ -239,7 +240,7 @@ def test_record_units_line_gives_units_or_input_error(line):
 @given(data=st.binary(max_size=1500))
 def test_record_file_header_from_raw_bytes_gives_columns_or_input_error(data, scratch):
     path = _write(scratch, "inspect.csv", data)
-    _only_input_error(records.inspect_file, path)
+    _only_input_error(record_files.inspect_file, path)
 
 
 @DUCKDB
@@ -321,7 +322,7 @@ def test_purchase_units_and_sizes_give_rows_or_input_error(unit, size, item, qua
 
 
 def test_found_record_header_with_a_lone_carriage_return_is_an_input_error(scratch):
-    assert _only_input_error(records.inspect_file, _write(scratch, "cr.csv", b"\r\x01")) is None
+    assert _only_input_error(record_files.inspect_file, _write(scratch, "cr.csv", b"\r\x01")) is None
 
 
 def test_found_record_line_with_nul_before_carriage_return_is_an_input_error(scratch):
@@ -331,7 +332,7 @@ def test_found_record_line_with_nul_before_carriage_return_is_an_input_error(scr
 
 def test_found_power_in_a_record_unit_is_refused_without_evaluating_it(scratch):
     data = b"case_id,elapsed,agent,o2 [L/min**9**9**9],air,dial\nA,0,sevo,1,1,2\n"
-    assert _only_input_error(records.inspect_file, _write(scratch, "pow.csv", data)) is None
+    assert _only_input_error(record_files.inspect_file, _write(scratch, "pow.csv", data)) is None
 
 
 def test_found_power_in_a_purchase_unit_is_refused_without_evaluating_it(scratch):

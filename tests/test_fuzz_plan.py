@@ -16,7 +16,7 @@ from hypothesis import strategies as st
 
 from model import CasePlan, Reference, load_settings, parse_plan_text
 from model.errors import InputError
-from model.plan import plan_from_dict
+from model.io.plans import plan_from_dict
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO_PLAN = (ROOT / "demo_data" / "plans" / "lap_chole_low_flow.toml").read_text()

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from streamlit.testing.v1 import AppTest
 
-from model.audit import audit_records
+from model.audit.engine import audit_records
 
 from pagetest import ROOT, isolated_store, page  # noqa: F401  (isolated_store: autouse fixture)
 

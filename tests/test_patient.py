@@ -3,8 +3,7 @@
 import numpy as np
 import pytest
 
-from model.patient import (brody_cardiac_output_l_min, brody_vo2_ml_min, default_minute_ventilation_l_min,
-                           patient_values, resolve_patient)
+from model.patient import brody_cardiac_output_l_min, brody_vo2_ml_min, default_minute_ventilation_l_min, patient_values, resolve_patient
 from model.plan import Patient
 
 

@@ -6,9 +6,8 @@ import pytest
 
 from model.case import compute_case
 from model.errors import InputError
-from model.plan import (
-    CasePlan, Phase, Settings, load_plan, parse_plan_text, plan_from_dict, plan_to_toml,
-)
+from model.plan import CasePlan, Phase, Settings
+from model.io.plans import load_plan, parse_plan_text, plan_from_dict, plan_to_toml
 
 from model.reference import DEFAULT_REFERENCE
 

@@ -9,7 +9,8 @@ from hypothesis import strategies as st
 
 from model.case import compute_case, phase_consumption
 from model.freshgas import RATIO_BEHAVIOURS, apply_ratio_limit
-from model.plan import CasePlan, Patient, Phase, Settings, parse_plan_text, plan_to_toml
+from model.plan import CasePlan, Patient, Phase, Settings
+from model.io.plans import parse_plan_text, plan_to_toml
 from model.reference import AGENTS, GWP_SOURCES, VOLATILES
 from model.vapour import liquid_used_ml
 

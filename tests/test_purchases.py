@@ -10,9 +10,10 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from model.audit import audit_records
+from model.audit.engine import audit_records
 from model.errors import InputError
-from model.purchases import load_purchases, purchase_emissions, read_purchases, reconcile
+from model.io.purchases import load_purchases, read_purchases
+from model.audit.reconcile import purchase_emissions, reconcile
 from model.reference import DEFAULT_REFERENCE
 
 ROOT = Path(__file__).resolve().parents[1]

@@ -8,10 +8,11 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from model.audit import audit_records
+from model.audit.engine import audit_records
 from model.errors import InputError
 from model.freshgas import delivered_fractions
-from model.records import ISSUE_KINDS, inspect_file
+from model.io.record_report import ISSUE_KINDS
+from model.io.record_files import inspect_file
 
 HEADER = "case_id,elapsed,theatre,agent,o2,air,n2o,dial\n"
 

@@ -10,7 +10,7 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from model.audit import audit_records
+from model.audit.engine import audit_records
 
 HEADER = "case_id,elapsed,theatre,agent,o2,air,n2o,dial"
 AGENTS = ("sevoflurane", "desflurane", "isoflurane", "Sevo", "ISO")

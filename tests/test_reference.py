@@ -7,10 +7,7 @@ import pytest
 from molmass import Formula
 
 from model.errors import InputError
-from model.reference import (
-    AGENT_FIELDS, AGENTS, AIR_O2_FRACTION, COMMON_PRACTICE, DEFAULT_REFERENCE, FROM_MEMORY,
-    GWP_SOURCES, INVENTED, PUBLISHED, USER, VOLATILES, Reference, load_settings,
-)
+from model.reference import AGENT_FIELDS, AGENTS, AIR_O2_FRACTION, COMMON_PRACTICE, DEFAULT_REFERENCE, FROM_MEMORY, GWP_SOURCES, INVENTED, PUBLISHED, USER, VOLATILES, Reference, load_settings
 
 FORMULAS = {
     "sevoflurane": "C4H3F7O",

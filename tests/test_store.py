@@ -14,7 +14,7 @@ import pytest
 
 from model import load_plan
 from model.errors import InputError
-from model.plan import plan_to_toml
+from model.io.plans import plan_to_toml
 from model.store import SCHEMA_VERSION, STORE_ENV, Store, StoreError, create_schema_1, default_path
 
 ROOT = Path(__file__).resolve().parents[1]

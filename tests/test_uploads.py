@@ -15,10 +15,7 @@ from hypothesis import strategies as st
 
 from model import parse_plan_text
 from model.errors import InputError
-from model.uploads import (
-    KINDS, MAX_LINE_CHARS, MAX_PARQUET_COLUMNS, MAX_TOML_BYTES, MAX_TOML_DEPTH, UPLOAD_LIMIT_ENV,
-    check_upload, upload_limit_bytes, upload_limit_mb,
-)
+from model.io.uploads import KINDS, MAX_LINE_CHARS, MAX_PARQUET_COLUMNS, MAX_TOML_BYTES, MAX_TOML_DEPTH, UPLOAD_LIMIT_ENV, check_upload, upload_limit_bytes, upload_limit_mb
 
 ROOT = Path(__file__).resolve().parents[1]
 PLAN = (ROOT / "demo_data" / "plans" / "lap_chole_low_flow.toml").read_bytes()

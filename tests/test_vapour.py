@@ -6,10 +6,7 @@ import scipy.constants
 
 from model.reference import AGENTS
 from model.units import registry
-from model.vapour import (
-    liquid_from_vapour, liquid_used_ml, liquid_used_series_ml, molar_volume_l,
-    rule_of_thumb_ml_per_hour, vapour_per_ml_liquid,
-)
+from model.vapour import liquid_from_vapour, liquid_used_ml, liquid_used_series_ml, molar_volume_l, rule_of_thumb_ml_per_hour, vapour_per_ml_liquid
 
 SEVO, DES, ISO, HAL = (AGENTS[n] for n in ("sevoflurane", "desflurane", "isoflurane", "halothane"))
 

@@ -9,14 +9,17 @@ import pytest
 import scipy.stats
 
 from model.case import compute_case
-from model.casemix import parse_casemix_text
+from model.io.casemix import parse_casemix_text
 from model.errors import InputError
-from model.plan import load_plan
+from model.io.plans import load_plan
 from model.reference import DEFAULT_REFERENCE
-from model.scenario import DAYS_PER_MONTH, Sampling, Scenario, load_scenario, parse_scenario_text
-from model.year import (NODE_Z, QUANTITIES, compare_years, compute_year, duration_nodes, headline_figures,
-                        interpolate_nodes, piecewise_linear_moments, practised_plan, stretch_minutes_moments,
-                        triangular_ppf, year_inputs)
+from model.year.inputs import DAYS_PER_MONTH, Sampling, Scenario
+from model.io.scenario import load_scenario, parse_scenario_text
+from model.year.nodes import NODE_Z, duration_nodes, interpolate_nodes, piecewise_linear_moments, stretch_minutes_moments
+from model.year.simulate import QUANTITIES, practised_plan, year_inputs
+from model.year.compare import compare_years
+from model.year.result import compute_year, headline_figures
+from model.year.sampling import triangular_ppf
 
 ROOT = Path(__file__).resolve().parents[1]
 YEAR = ROOT / "demo_data" / "year"

@@ -7,8 +7,10 @@ import numpy as np
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from model.scenario import Sampling, load_scenario
-from model.year import compare_years, compute_year
+from model.year.inputs import Sampling
+from model.io.scenario import load_scenario
+from model.year.compare import compare_years
+from model.year.result import compute_year
 from model.reference import VOLATILES
 
 YEAR = Path(__file__).resolve().parents[1] / "demo_data" / "year"

@@ -1,6 +1,6 @@
 """Plotly figures for the dashboard pages and the HTML reports (presentation only).
 
-User text (plan and phase names) passes through :func:`model.exports.chart_text` before it
+User text (plan and phase names) passes through :func:`model.io.exports.chart_text` before it
 reaches a label, because plotly reads a few HTML tags in labels.
 """
 
@@ -12,7 +12,7 @@ import plotly.graph_objects as go
 import plotly.io as pio
 from plotly.subplots import make_subplots
 
-from model.exports import chart_text
+from model.io.exports import chart_text
 
 #: A calm palette of our own (colour-blind friendly order).
 PALETTE = ["#2f6f8f", "#e08a2e", "#5a9e6f", "#b5523b", "#7d6aa8", "#8a8a8a", "#c9a227"]

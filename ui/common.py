@@ -12,7 +12,7 @@ import pandas as pd
 import streamlit as st
 
 from model import DEFAULT_REFERENCE, InputError, Reference, compute_case, parse_plan_text
-from model.exports import to_csv, to_xlsx
+from model.io.exports import to_csv, to_xlsx
 from model.plan import CasePlan
 from model.store import Store, StoreError, default_path
 

@@ -7,9 +7,9 @@ import streamlit as st
 
 import ui
 from model import InputError
-from model.exports import html_report
-from model.scenario import load_scenario
-from model.year import nonzero_rows
+from model.io.exports import html_report
+from model.io.scenario import load_scenario
+from model.year.compare import nonzero_rows
 
 from . import year_views as yv
 

@@ -12,12 +12,14 @@ import pandas as pd
 import plotly.graph_objects as go
 import streamlit as st
 
-from model.casemix import CaseMix
-from model.exports import chart_text
-from model.plan import load_plan
+from model.year.inputs import CaseMix
+from model.io.exports import chart_text
+from model.io.plans import load_plan
 from model.reference import GWP_SOURCES, VOLATILES, Reference
-from model.scenario import MONTHS, Scenario, load_scenario
-from model.year import compare_years, compute_year
+from model.year.inputs import MONTHS, Scenario
+from model.io.scenario import load_scenario
+from model.year.compare import compare_years
+from model.year.result import compute_year
 
 from .charts import PALETTE, _style
 

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from .errors import InputError
+from model.errors import InputError
 
 
 def _flows(text):
@@ -13,9 +13,9 @@ def _flows(text):
 
 
 def cmd_sweep(args) -> int:
-    from .cli import CAUTION, _reference, print_json, print_table
-    from .plan import load_plan
-    from .sweep import flow_sweep
+    from model.cli.common import CAUTION, _reference, print_json, print_table
+    from model.io.plans import load_plan
+    from model.sweep import flow_sweep
 
     reference = _reference(args)
     plan = load_plan(args.plan, reference)

@@ -3,7 +3,7 @@
 A case-mix file is CSV in the project's own format (documented in README.md, "Case-mix and
 scenario files"): one row per case type, a header row naming the columns, lines starting
 with ``#`` ignored. Each row names a case plan file (the flow practice of that type, in the
-plan format of :mod:`model.plan`) relative to the case-mix file.
+plan format of :mod:`model.io.plans`) relative to the case-mix file.
 """
 
 from __future__ import annotations
@@ -11,18 +11,20 @@ from __future__ import annotations
 import csv
 import io
 import math
-from dataclasses import dataclass, field, replace
+from dataclasses import field, replace
 from pathlib import Path
 from typing import Callable, Mapping
 
-import numpy as np
 import pandas as pd
 
-from .errors import InputError
-from .files import read_user_text
-from .plan import CasePlan, load_plan
-from .reference import VOLATILES
-from .units import check_range, to_base
+from model.errors import InputError
+from model.files import read_user_text
+from model.io.plans import load_plan
+from model.plan import CasePlan
+from model.reference import VOLATILES
+from model.units import check_range, to_base
+from model.year.inputs import CaseMix, CaseType
+
 
 CASEMIX_COLUMNS = ("case_type", "cases_per_year", "median_duration", "duration_spread",
                    *VOLATILES, "n2o_share", "band", "weight", "age", "plan")
@@ -35,73 +37,6 @@ MAX_CASE_TYPES = 500
 MAX_CASES_PER_TYPE = 1_000_000
 #: Tolerance on the sum of agent shares. [1]
 SHARE_TOLERANCE = 0.005
-#: Name of the phase that stretches with case duration, when a plan has one.
-STRETCH_PHASE_NAME = "maintenance"
-
-
-@dataclass(frozen=True)
-class CaseType:
-    """One case type of a mix.
-
-    ``spread`` is the standard deviation of the natural log of the case duration (a
-    log-normal distribution around ``median_min``); 0 means every case lasts the median.
-    ``agent_shares`` maps each volatile agent to its share of the type's cases (sum 1).
-    """
-
-    name: str
-    cases_per_year: int
-    median_min: float
-    spread: float
-    agent_shares: Mapping[str, float]
-    n2o_share: float
-    plan: CasePlan
-    plan_name: str
-    band: str = "adult"
-    weight_kg: float = 70.0
-    age_years: float = 40.0
-
-    @property
-    def stretch_index(self) -> int:
-        """Index of the phase whose length follows the case duration (see :func:`stretch_phase`)."""
-        return stretch_phase(self.plan)
-
-    @property
-    def fixed_min(self) -> float:
-        """Minutes of the phases that keep their planned length. [min]"""
-        i = self.stretch_index
-        return float(sum(p.minutes for j, p in enumerate(self.plan.phases) if j != i))
-
-
-@dataclass(frozen=True)
-class CaseMix:
-    """The case types of a department, and the file they came from."""
-
-    types: tuple[CaseType, ...]
-    source: str = ""
-    #: Plans by the name used in the ``plan`` column.
-    plans: Mapping[str, CasePlan] = field(default_factory=dict)
-
-    @property
-    def cases_per_year(self) -> int:
-        return int(sum(t.cases_per_year for t in self.types))
-
-    def with_counts(self, factor: float) -> "CaseMix":
-        """A copy with every yearly count multiplied by ``factor`` (rounded to whole cases)."""
-        return replace(self, types=tuple(replace(t, cases_per_year=int(round(t.cases_per_year * factor)))
-                                         for t in self.types))
-
-
-def stretch_phase(plan: CasePlan) -> int:
-    """Index of the phase that takes up a case's duration beyond the other phases.
-
-    The phase named "maintenance" (any case), else the longest phase (the first of equals).
-    The other phases keep their planned minutes in every case (common practice, no source:
-    induction and emergence take about the same time whatever the operation).
-    """
-    for i, p in enumerate(plan.phases):
-        if p.name.strip().lower() == STRETCH_PHASE_NAME:
-            return i
-    return int(np.argmax([p.minutes for p in plan.phases]))
 
 
 def _number(raw: str, where: str, unit: str, low: float, high: float, default=None,

@@ -1,12 +1,12 @@
-"""The ``year`` and ``compare`` sub-commands of ``gas-ledger`` (registered by model.cli)."""
+"""The ``year`` and ``compare`` sub-commands of ``gas-ledger`` (registered by model.cli.main)."""
 
 from __future__ import annotations
 
 import sys
 
-from .cli import CAUTION, print_json, print_table
-from .errors import InputError
-from .scenario import MAX_DRAWS
+from model.cli.common import CAUTION, print_json, print_table
+from model.errors import InputError
+from model.year.inputs import MAX_DRAWS
 
 
 def _draws(value: str) -> int:
@@ -36,7 +36,7 @@ def _options(args):
 
 
 def _reference(args):
-    from .reference import load_settings
+    from model.reference import load_settings
     return load_settings(getattr(args, "settings", None))
 
 
@@ -51,8 +51,9 @@ def _num(value: float, unit: str) -> str:
 
 
 def cmd_year(args) -> int:
-    from .scenario import load_scenario
-    from .year import compute_year, nonzero_rows
+    from model.io.scenario import load_scenario
+    from model.year.result import compute_year
+    from model.year.compare import nonzero_rows
 
     draws, seed = _options(args)
     scenario = load_scenario(args.scenario)
@@ -84,8 +85,8 @@ def cmd_year(args) -> int:
 
 
 def cmd_compare(args) -> int:
-    from .scenario import load_scenario
-    from .year import compare_years, nonzero_rows
+    from model.io.scenario import load_scenario
+    from model.year.compare import compare_years, nonzero_rows
 
     draws, seed = _options(args)
     baseline = load_scenario(args.baseline)

@@ -20,11 +20,11 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from .emissions import co2e_kg, gas_mass_g
-from .errors import InputError
-from .reference import DEFAULT_GWP, DEFAULT_REFERENCE, STANDARD_PRESSURE_KPA, Reference, normalise_agent_name
-from .units import one_number_and_unit, registry, safe_quantity_text
-from .vapour import molar_volume_l
+from model.errors import InputError
+from model.reference import DEFAULT_REFERENCE, Reference, STANDARD_PRESSURE_KPA, normalise_agent_name
+from model.units import one_number_and_unit, registry, safe_quantity_text
+from model.vapour import molar_volume_l
+
 
 PURCHASE_COLUMNS = ("month", "item", "quantity", "unit", "size")
 GASES = ("nitrous_oxide", "oxygen", "air")
@@ -239,106 +239,6 @@ def _convert_text(text, base, where, example) -> float:
     if not np.isfinite(value) or value <= 0:
         raise InputError(where, text, f"expected {example}")
     return value
-
-
-def purchase_emissions(purchases: pd.DataFrame, reference: Reference = DEFAULT_REFERENCE,
-                       gwp_source: str = DEFAULT_GWP, temperature_c: float = 20.0,
-                       pressure_kpa: float = STANDARD_PRESSURE_KPA) -> pd.DataFrame:
-    """Purchase-based use and emissions per month and item.
-
-    Parameters
-    ----------
-    purchases : DataFrame
-        From :func:`read_purchases`, or the ``table`` of :func:`load_purchases`.
-
-    Returns
-    -------
-    DataFrame
-        ``month``, ``item``, ``purchased`` and ``unit`` (mL liquid or L gas), ``mass_kg``,
-        ``co2e_kg`` (all purchased counted as emitted; oxygen and air have none).
-
-    Notes
-    -----
-    Liquid mass = volume x density; gas mass by the ideal gas law
-    (:func:`model.emissions.gas_mass_g`); CO2e = mass x GWP (:func:`model.emissions.co2e_kg`).
-    """
-    g = purchases.groupby(["month", "item", "unit"], as_index=False)["amount"].sum()
-    g = g.rename(columns={"amount": "purchased"})
-    mass = np.zeros(len(g))
-    co2e = np.zeros(len(g))
-    for i, r in enumerate(g.itertuples(index=False)):
-        grams = _mass_g(reference, r.item, r.purchased, temperature_c, pressure_kpa)
-        mass[i] = grams / 1000.0
-        co2e[i] = _co2e_kg(reference, r.item, grams, gwp_source)
-    g["mass_kg"] = mass
-    g["co2e_kg"] = co2e
-    return g[["month", "item", "purchased", "unit", "mass_kg", "co2e_kg"]]
-
-
-def _mass_g(reference: Reference, item: str, amount: float, temperature_c: float, pressure_kpa: float) -> float:
-    """Mass of ``amount`` of ``item`` [g]: liquid mL x density, or gas L by the ideal gas law."""
-    agent = reference.agents[item]
-    if agent.kind == "volatile":
-        return amount * agent.liquid_density
-    return float(gas_mass_g(amount, agent.molar_mass, temperature_c, pressure_kpa))
-
-
-def _co2e_kg(reference: Reference, item: str, grams: float, gwp_source: str) -> float:
-    """CO2e of ``grams`` of ``item`` emitted [kg]; oxygen and air have none."""
-    if item != "nitrous_oxide" and reference.agents[item].kind != "volatile":
-        return 0.0
-    return float(co2e_kg(grams, reference.gwp(item, gwp_source)))
-
-
-def reconcile(purchases: pd.DataFrame, use: pd.DataFrame, reference: Reference = DEFAULT_REFERENCE,
-              gwp_source: str = DEFAULT_GWP, temperature_c: float = 20.0,
-              pressure_kpa: float = STANDARD_PRESSURE_KPA) -> pd.DataFrame:
-    """Purchased against recorded (or modelled) use, per item and month, with a total per item.
-
-    Parameters
-    ----------
-    purchases : DataFrame
-        From :func:`read_purchases`, or the ``table`` of :func:`load_purchases`.
-    use : DataFrame
-        ``month``, ``item``, ``recorded`` in the same units (mL liquid, L gas), e.g.
-        :meth:`model.audit.AuditResult.use_by_month`, or modelled use in that form.
-
-    Returns
-    -------
-    DataFrame
-        ``item``, ``month`` ("all" for the total row of each item), ``unit``, ``purchased``,
-        ``recorded``, ``unexplained`` (purchased - recorded), ``unexplained_share``
-        (of purchased; empty where nothing was bought), ``unexplained_co2e_kg`` and, for
-        nitrous oxide, ``apparent_loss`` (the same gap, named as such).
-
-    Notes
-    -----
-    Months differ by stock held over; the total row of each item is the fairer figure.
-    A negative unexplained amount means more was recorded than bought in that period.
-    """
-    pe = purchase_emissions(purchases, reference, gwp_source, temperature_c, pressure_kpa)
-    u = use.groupby(["month", "item"], as_index=False)["recorded"].sum() if len(use) else \
-        pd.DataFrame(columns=["month", "item", "recorded"])
-    items = set(pe["item"])
-    u = u[u["item"].isin(items)]
-    m = pe[["month", "item", "purchased"]].merge(u, on=["month", "item"], how="outer").fillna(
-        {"purchased": 0.0, "recorded": 0.0})
-    m["unit"] = ["mL" if reference.agents[i].kind == "volatile" else "L" for i in m["item"]]
-    tot = m.groupby(["item", "unit"], as_index=False)[["purchased", "recorded"]].sum()
-    tot["month"] = "all"
-    out = pd.concat([m, tot], ignore_index=True)
-    out["unexplained"] = out["purchased"] - out["recorded"]
-    with np.errstate(invalid="ignore", divide="ignore"):
-        out["unexplained_share"] = np.where(out["purchased"] > 0, out["unexplained"] / out["purchased"].where(
-            out["purchased"] > 0, 1), np.nan)
-    out["unexplained_co2e_kg"] = [
-        _co2e_kg(reference, r.item, _mass_g(reference, r.item, r.unexplained, temperature_c, pressure_kpa),
-                 gwp_source) for r in out.itertuples(index=False)]
-    out["apparent_loss"] = np.where(out["item"] == "nitrous_oxide", out["unexplained"], np.nan)
-    out["_total"] = out["month"] == "all"
-    out = out.sort_values(["item", "_total", "month"]).drop(columns="_total").reset_index(drop=True)
-    return out[["item", "month", "unit", "purchased", "recorded", "unexplained", "unexplained_share",
-                "unexplained_co2e_kg", "apparent_loss"]]
 
 
 def write_purchases(rows, path) -> Path:

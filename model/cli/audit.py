@@ -4,7 +4,8 @@ from __future__ import annotations
 
 import sys
 
-from .cli import CAUTION, print_json, print_table
+from model.cli.common import CAUTION, print_json, print_table
+
 
 DE_IDENTIFY = ("Records must be de-identified before they are audited or shared: no names, "
                "hospital numbers or dates of birth.")
@@ -33,10 +34,11 @@ def register(subparsers) -> None:
 
 
 def cmd_audit(args) -> int:
-    from .audit import DEFAULT_HIGH_FLOW_LIMIT_MIN, audit_records
-    from .errors import InputError
-    from .records import DEFAULT_GAP_LIMIT_MIN
-    from .reference import DEFAULT_GWP, load_settings
+    from model.audit.result import DEFAULT_HIGH_FLOW_LIMIT_MIN
+    from model.audit.engine import audit_records
+    from model.errors import InputError
+    from model.io.record_files import DEFAULT_GAP_LIMIT_MIN
+    from model.reference import DEFAULT_GWP, load_settings
 
     reference = load_settings(args.settings)
     if args.messages < 0:
@@ -48,7 +50,8 @@ def cmd_audit(args) -> int:
         memory_limit=args.memory_limit)
     recon, purchase_notes = None, []
     if args.purchases:
-        from .purchases import load_purchases, reconcile
+        from model.io.purchases import load_purchases
+        from model.audit.reconcile import reconcile
 
         bought = load_purchases(args.purchases, reference)
         purchase_notes = bought.messages

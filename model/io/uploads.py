@@ -20,7 +20,8 @@ from pathlib import Path, PurePath
 from types import MappingProxyType
 from typing import Mapping
 
-from .errors import InputError
+from model.errors import InputError
+
 
 #: The Streamlit configuration shipped with the project; its ``server.maxUploadSize`` [MB,
 #: counted as MiB by Streamlit] is the one upload limit of the app.

@@ -7,58 +7,13 @@ import json
 import math
 import sys
 
-from .errors import InputError
-
-EXIT_INPUT = 2
-
-
-class _Parser(argparse.ArgumentParser):
-    """argparse that reports a bad flag as one line with exit status 2."""
-
-    def error(self, message):
-        self.exit(EXIT_INPUT, f"gas-ledger: {message} (see 'gas-ledger --help')\n")
-
-
-def _fmt(value, digits=2):
-    if value is None or (isinstance(value, float) and value != value):
-        return "-"  # None or NaN: no figure (e.g. the mean flow of a case with no minutes)
-    if isinstance(value, float):
-        if value != 0 and abs(value) < 10 ** -digits:
-            return f"{value:.2g}"  # small shares (e.g. 0.0002) would print as 0.00
-        return f"{value:,.{digits}f}"
-    return str(value)
-
-
-def print_table(rows, columns, out=None):
-    """Print rows (dicts) as a plain aligned text table."""
-    out = out or sys.stdout  # looked up at call time, so redirected output is honoured
-    cells = [[_fmt(r.get(c)) for c in columns] for r in rows]
-    widths = [max([len(c)] + [len(row[i]) for row in cells]) for i, c in enumerate(columns)]
-    out.write("  ".join(c.ljust(w) for c, w in zip(columns, widths)).rstrip() + "\n")
-    out.write("  ".join("-" * w for w in widths) + "\n")
-    for row in cells:
-        out.write("  ".join(v.ljust(w) for v, w in zip(row, widths)).rstrip() + "\n")
-
-
-def print_json(data, out=None):
-    out = out or sys.stdout
-    json.dump(data, out, indent=2, ensure_ascii=False, allow_nan=False)
-    out.write("\n")
-
-
-CAUTION = ("Estimates for planning, budgeting and reporting, not a prescription. Flows, mixes and "
-           "dial settings follow local protocols, the workstation's instructions for use and "
-           "licensed practice, with inspired O2 and end-tidal agent monitored.")
-
-
-def _reference(args):
-    from .reference import load_settings
-    return load_settings(args.settings)
+from model.cli.common import CAUTION, EXIT_INPUT, _Parser, _reference, print_json, print_table
+from model.errors import InputError
 
 
 def cmd_case(args) -> int:
-    from .case import compute_case
-    from .plan import load_plan
+    from model.case import compute_case
+    from model.io.plans import load_plan
 
     reference = _reference(args)
     plan = load_plan(args.plan, reference)
@@ -149,19 +104,12 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 def _extra_commands():
-    """Sub-commands defined beside the model parts they run (each module has ``register``)."""
-    import importlib
+    """Sub-commands kept in modules of their own (each module has ``register``)."""
+    from model.cli.audit import register as audit
+    from model.cli.sweep import register as sweep
+    from model.cli.year import register as year
 
-    out = []
-    for name in ("model.physiology_cli", "model.year_cli", "model.audit_cli"):
-        try:
-            module = importlib.import_module(name)
-        except ModuleNotFoundError as exc:
-            if exc.name != name:
-                raise
-            continue
-        out.append(module.register)
-    return out
+    return [sweep, year, audit]
 
 
 def _command_names(parser) -> list[str]:

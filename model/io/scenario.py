@@ -1,109 +1,29 @@
 """Scenarios: a case mix, a change of practice, prices and the settings of the year's sampling.
 
 A scenario file is TOML in the project's own format (documented in README.md, "Case-mix and
-scenario files"). It names its case-mix file (CSV, :mod:`model.casemix`) relative to itself.
+scenario files"). It names its case-mix file (CSV, :mod:`model.io.casemix`) relative to itself.
 """
 
 from __future__ import annotations
 
 import tomllib
-from dataclasses import dataclass, field, replace
+from dataclasses import field
 from pathlib import Path
 from typing import Annotated, Any, Mapping
 
 import pydantic
 
-from .casemix import CaseMix, load_casemix
-from .errors import InputError
-from .files import read_user_text
-from .plan import GwpSourceName, Share, _first_error, _quantity, _Strict, format_of, volatile_key
-from .reference import DEFAULT_GWP, GWP_SOURCES, Reference, Sourced
+from model.errors import InputError
+from model.files import read_user_text
+from model.io.casemix import load_casemix
+from model.io.plans import GwpSourceName, Share, _Strict, _first_error, _quantity, format_of, volatile_key
+from model.reference import DEFAULT_GWP, GWP_SOURCES, Reference
+from model.year.inputs import CaseMix, DAYS_PER_MONTH, DEFAULT_CAR_FACTOR, MAX_DRAWS, Practice, Sampling, Scenario
+
 
 SCENARIO_FORMAT = "fresh-gas-ledger scenario 1"
 #: Largest scenario file read. [bytes]
 MAX_SCENARIO_BYTES = 200_000
-#: Most Monte Carlo draws one run may ask for (memory stays well under 1 GB).
-MAX_DRAWS = 200_000
-
-#: Emission of an average car per km driven. [kg CO2e/km]
-DEFAULT_CAR_FACTOR = Sourced(
-    0.17, "kg CO2e/km",
-    "UK Government GHG conversion factors for company reporting 2023, average car of "
-    "unknown fuel (about 0.17 kg CO2e/km), from memory", "from memory")
-
-#: Days per month of a 365-day year: the default share of the year's cases in each month.
-#: Common practice, no source (cases spread evenly over calendar days).
-DAYS_PER_MONTH = (31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31)
-MONTHS = ("Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct", "Nov", "Dec")
-
-
-@dataclass(frozen=True)
-class Practice:
-    """A change of practice and the share of cases that really follow it.
-
-    ``maintenance_flow_l_min`` sets the total fresh gas flow of each plan's stretched phase
-    (O2, air and N2O keep their proportions); ``maintenance_o2_share`` sets the share of that
-    phase's flow on the O2 flowmeter (the rest keeps the plan's air : N2O proportion, air if
-    the plan has neither), since a low flow needs a richer O2 mix to keep inspired O2 up;
-    ``dial_factor`` multiplies that phase's dial setting in "dial" mode (at a lower flow a
-    higher dial keeps the same end-tidal agent; a "target" phase needs no factor); ``switch_from``
-    -> ``switch_to`` moves one agent's share of cases to another. Cases that do not follow
-    the change keep the plan as written. Adherence is a triangular distribution with mode
-    ``adherence`` between ``adherence_low`` and ``adherence_high``.
-    """
-
-    maintenance_flow_l_min: float | None = None
-    dial_factor: float = 1.0
-    switch_from: str | None = None
-    switch_to: str | None = None
-    adherence: float = 1.0
-    adherence_low: float = 1.0
-    adherence_high: float = 1.0
-    maintenance_o2_share: float | None = None
-
-    @property
-    def changes_anything(self) -> bool:
-        return (self.maintenance_flow_l_min is not None or self.dial_factor != 1.0
-                or self.switch_from is not None or self.maintenance_o2_share is not None)
-
-
-@dataclass(frozen=True)
-class Sampling:
-    """Settings of the Monte Carlo sampling of a year."""
-
-    draws: int = 2000
-    seed: int = 20260101
-    #: Standard deviation of the natural log of every unit price (log-normal around the
-    #: given price, which is the median). [1] 0 = prices known.
-    price_spread: float = 0.0
-    #: GWP sources drawn with equal weight in each draw; empty = the scenario's source only.
-    gwp_sources: tuple[str, ...] = ()
-
-
-@dataclass(frozen=True)
-class Scenario:
-    """A case mix plus practice plus prices, with the settings of its year."""
-
-    name: str
-    casemix: CaseMix
-    practice: Practice = field(default_factory=Practice)
-    gwp_source: str = DEFAULT_GWP
-    #: Price overrides in the settings-file form (``currency``, ``bottle.<agent>``, ...).
-    prices: Mapping[str, Any] = field(default_factory=dict)
-    sampling: Sampling = field(default_factory=Sampling)
-    car_kg_per_km: float = DEFAULT_CAR_FACTOR.value
-    car_source: str = DEFAULT_CAR_FACTOR.source
-    month_weights: tuple[float, ...] = DAYS_PER_MONTH
-    source: str = ""
-
-    def reference(self, base: Reference) -> Reference:
-        """Reference data with this scenario's price overrides applied."""
-        if not self.prices:
-            return base
-        return base.with_overrides({"prices": dict(self.prices)}, f"scenario '{self.name}'")
-
-    def with_practice(self, **changes) -> "Scenario":
-        return replace(self, practice=replace(self.practice, **changes))
 
 
 # --------------------------------------------------------------------------------------

@@ -1,7 +1,7 @@
 """Seeded generator of invented case records for the demo and the benchmarks.
 
 Everything it writes is invented: the fictional Fernhollow General Hospital, its theatres,
-case mix and practice. Run ``python -m model.synth --rows N --out DIR`` (see ``--help``).
+case mix and practice. Run ``python -m model.cli.synth --rows N --out DIR`` (see ``--help``).
 """
 
 from __future__ import annotations
@@ -14,7 +14,8 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from .errors import InputError
+from model.errors import InputError
+
 
 #: Invented theatres of the fictional Fernhollow General Hospital.
 THEATRES = ("Alder", "Birch", "Cedar", "Hazel", "Rowan", "Willow", "Day Unit 1", "Day Unit 2")
@@ -173,8 +174,8 @@ def write_demo(out_dir, rows: int = 120_000, seed: int = 2025) -> list[Path]:
     flow with O2 share, flows in mL/min declared in a units line, and a few deliberate
     problems to show the checks) and ``fernhollow_purchases_2025.csv``.
     """
-    from .audit import audit_records
-    from .purchases import write_purchases
+    from model.audit.engine import audit_records
+    from model.io.purchases import write_purchases
 
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
@@ -223,7 +224,7 @@ def write_demo(out_dir, rows: int = 120_000, seed: int = 2025) -> list[Path]:
         if f is None or r.recorded <= 0:
             continue
         if r.item in ("sevoflurane", "desflurane", "isoflurane"):
-            from .reference import DEFAULT_REFERENCE
+            from model.reference import DEFAULT_REFERENCE
 
             bottle = DEFAULT_REFERENCE.agents[r.item].bottle_volume
             rows_out.append((r.month, r.item, int(math.ceil(r.recorded * f / bottle)), "bottle", ""))
@@ -237,7 +238,7 @@ def write_demo(out_dir, rows: int = 120_000, seed: int = 2025) -> list[Path]:
 
 
 def main(argv=None) -> int:
-    parser = argparse.ArgumentParser(prog="python -m model.synth",
+    parser = argparse.ArgumentParser(prog="python -m model.cli.synth",
                                      description="Write invented case records (Fernhollow General Hospital).")
     parser.add_argument("--rows", type=int, default=None, help="number of sample rows")
     parser.add_argument("--out", required=True, help="output folder")
@@ -257,7 +258,7 @@ def main(argv=None) -> int:
     try:
         paths = write_many(args.rows, args.out, args.seed, args.format, args.rows_per_file, args.year)
     except InputError as exc:
-        sys.stderr.write(f"model.synth: {exc}\n")
+        sys.stderr.write(f"gas-ledger demo data: {exc}\n")
         return 2
     print(f"wrote {args.rows:,} rows in {len(paths)} file(s) under {args.out}")
     return 0

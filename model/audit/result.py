@@ -1,0 +1,156 @@
+"""The result of a record audit (per-case table, totals, set-aside rows) and its aggregates."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+
+from model.freshgas import FLOW_BANDS, FLOW_BAND_NAMES
+from model.io.record_report import ReadReport
+
+
+#: Fresh gas flow above which a sample counts as high flow. [L/min]
+#: Source: Baker AB, Anaesth Intensive Care 1994;22:341-2 (high flow is above 2 L/min).
+DEFAULT_HIGH_FLOW_L_MIN = FLOW_BANDS[3][1]
+#: Longest run of high flow before a case is flagged. [min] Common practice, no source
+#: (induction and emergence at high flow rarely last longer than this).
+DEFAULT_HIGH_FLOW_LIMIT_MIN = 15.0
+
+ENGINES = ("auto", "memory", "sql")
+
+BAND_COLUMNS = tuple("band_" + n.replace(" ", "_") + "_min" for n in FLOW_BAND_NAMES)
+
+#: Columns of the case table that add up over cases.
+ADDITIVE = ("cases", "samples", "minutes", "gaps", "gap_min", "end_tidal_basis_min", "oxygen_l",
+            "air_l", "nitrous_oxide_l", "liquid_agent_ml", "bottles", "agent_mass_g",
+            "agent_emitted_g", "nitrous_oxide_g", "nitrous_oxide_emitted_g", "co2e_agent_kg",
+            "co2e_nitrous_oxide_kg", "co2e_total_kg", "cost_agent", "cost_oxygen", "cost_air",
+            "cost_nitrous_oxide", "cost_total", *BAND_COLUMNS, "high_flow_cases")
+
+
+@dataclass
+class AuditResult:
+    """The audit of a set of records: one row per case, the reading report, and settings."""
+
+    cases: pd.DataFrame
+    report: ReadReport
+    currency: str
+    gwp_source: str
+    gwp_label: str
+    settings: dict = field(default_factory=dict)
+
+    def by(self, key: str) -> pd.DataFrame:
+        """Sums by ``theatre``, ``month`` or ``agent`` (see :func:`summarise`)."""
+        return summarise(self.cases, key)
+
+    @property
+    def total(self) -> dict:
+        """Sums over the whole set."""
+        return summarise(self.cases, None).iloc[0].to_dict()
+
+    def bands_by_theatre(self) -> pd.DataFrame:
+        """Minutes in each flow band by theatre, long form (theatre, band, minutes, share)."""
+        t = self.by("theatre")[["theatre", *BAND_COLUMNS]]
+        long = t.melt(id_vars="theatre", value_vars=list(BAND_COLUMNS), var_name="band", value_name="minutes")
+        long["band"] = long["band"].map(dict(zip(BAND_COLUMNS, FLOW_BAND_NAMES)))
+        totals = long.groupby("theatre")["minutes"].transform("sum")
+        long["share"] = np.where(totals > 0, long["minutes"] / totals.where(totals > 0, 1), 0.0)
+        return long
+
+    def use_by_month(self) -> pd.DataFrame:
+        """Recorded use per month and item, for reconciling with purchases.
+
+        Returns
+        -------
+        DataFrame
+            ``month``, ``item`` (agent or gas name), ``recorded`` and ``unit`` (mL of liquid
+            for volatile agents, L of gas at room conditions for gases).
+        """
+        c = self.cases
+        rows = []
+        vol = c[c["agent"] != "none"].groupby(["month", "agent"], as_index=False)["liquid_agent_ml"].sum()
+        for r in vol.itertuples(index=False):
+            rows.append((r.month, r.agent, float(r.liquid_agent_ml), "mL"))
+        gases = c.groupby("month", as_index=False)[["nitrous_oxide_l", "oxygen_l", "air_l"]].sum()
+        for r in gases.itertuples(index=False):
+            rows.append((r.month, "nitrous_oxide", float(r.nitrous_oxide_l), "L"))
+            rows.append((r.month, "oxygen", float(r.oxygen_l), "L"))
+            rows.append((r.month, "air", float(r.air_l), "L"))
+        return pd.DataFrame(rows, columns=["month", "item", "recorded", "unit"])
+
+    def to_dict(self, max_cases: int = 1000) -> dict:
+        """Machine-readable form with stable keys (units in the key names)."""
+        def table(df):
+            out = []
+            for row in df.to_dict("records"):
+                out.append({k: _clean(v) for k, v in row.items()})
+            return out
+        issues = self.report.issues.head(max(len(self.report.issues), 0))
+        return {
+            "currency": self.currency,
+            "gwp_source": self.gwp_source,
+            "gwp_source_label": self.gwp_label,
+            "settings": dict(self.settings),
+            "report": self.report.summary(),
+            "messages": [m for m in issues["message"]],
+            "gaps": [m for m in self.report.gap_list["message"]],
+            "total": {k: _clean(v) for k, v in self.total.items()},
+            "by_theatre": table(self.by("theatre")),
+            "by_month": table(self.by("month")),
+            "by_agent": table(self.by("agent")),
+            "cases_shown": min(len(self.cases), max_cases),
+            "cases": table(self.cases.head(max_cases)),
+        }
+
+
+def _clean(v):
+    if v is pd.NaT or v is pd.NA:
+        return None
+    if isinstance(v, (np.floating, float)):
+        v = float(v)
+        return v if math.isfinite(v) else None
+    if isinstance(v, np.integer):
+        return int(v)
+    if isinstance(v, np.bool_):
+        return bool(v)
+    if isinstance(v, pd.Timestamp):
+        return v.isoformat()
+    return v
+
+
+def summarise(cases: pd.DataFrame, by: str | None) -> pd.DataFrame:
+    """Sums of the additive case columns, by ``theatre``, ``month``, ``agent`` or overall.
+
+    Parameters
+    ----------
+    cases : DataFrame
+        The case table of an :class:`AuditResult`.
+    by : {"theatre", "month", "agent"} or None
+        Grouping; None gives one row for the whole set.
+
+    Returns
+    -------
+    DataFrame
+        One row per group: the additive columns (``ADDITIVE``), plus the means
+        ``liquid_agent_ml_per_case``, ``co2e_kg_per_case`` and ``mean_fgf_l_min``.
+    """
+    if by not in (None, "theatre", "month", "agent"):
+        raise ValueError(f"by must be one of ('theatre', 'month', 'agent', None), got {by!r}")
+    cols = [c for c in ADDITIVE if c in cases.columns]
+    if by is None:
+        out = cases[cols].sum().to_frame().T
+        out.insert(0, "group", "all records")
+    else:
+        out = cases.groupby(by, as_index=False, sort=True)[cols].sum()
+    with np.errstate(invalid="ignore", divide="ignore"):
+        n = out["cases"].where(out["cases"] > 0)
+        out["liquid_agent_ml_per_case"] = out["liquid_agent_ml"] / n
+        out["co2e_kg_per_case"] = out["co2e_total_kg"] / n
+        m = out["minutes"].where(out["minutes"] > 0)
+        out["mean_fgf_l_min"] = (out["oxygen_l"] + out["air_l"] + out["nitrous_oxide_l"]) / m
+    for c in ("cases", "samples", "gaps", "high_flow_cases"):
+        out[c] = out[c].astype(np.int64)
+    return out.reset_index(drop=True)

@@ -1,0 +1,54 @@
+"""Output helpers shared by the sub-commands: tables, JSON, the caution, exit status."""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+
+
+EXIT_INPUT = 2
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse that reports a bad flag as one line with exit status 2."""
+
+    def error(self, message):
+        self.exit(EXIT_INPUT, f"gas-ledger: {message} (see 'gas-ledger --help')\n")
+
+
+def _fmt(value, digits=2):
+    if value is None or (isinstance(value, float) and value != value):
+        return "-"  # None or NaN: no figure (e.g. the mean flow of a case with no minutes)
+    if isinstance(value, float):
+        if value != 0 and abs(value) < 10 ** -digits:
+            return f"{value:.2g}"  # small shares (e.g. 0.0002) would print as 0.00
+        return f"{value:,.{digits}f}"
+    return str(value)
+
+
+def print_table(rows, columns, out=None):
+    """Print rows (dicts) as a plain aligned text table."""
+    out = out or sys.stdout  # looked up at call time, so redirected output is honoured
+    cells = [[_fmt(r.get(c)) for c in columns] for r in rows]
+    widths = [max([len(c)] + [len(row[i]) for row in cells]) for i, c in enumerate(columns)]
+    out.write("  ".join(c.ljust(w) for c, w in zip(columns, widths)).rstrip() + "\n")
+    out.write("  ".join("-" * w for w in widths) + "\n")
+    for row in cells:
+        out.write("  ".join(v.ljust(w) for v, w in zip(row, widths)).rstrip() + "\n")
+
+
+def print_json(data, out=None):
+    out = out or sys.stdout
+    json.dump(data, out, indent=2, ensure_ascii=False, allow_nan=False)
+    out.write("\n")
+
+
+CAUTION = ("Estimates for planning, budgeting and reporting, not a prescription. Flows, mixes and "
+           "dial settings follow local protocols, the workstation's instructions for use and "
+           "licensed practice, with inspired O2 and end-tidal agent monitored.")
+
+
+def _reference(args):
+    from model.reference import load_settings
+    return load_settings(args.settings)

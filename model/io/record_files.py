@@ -1,0 +1,294 @@
+"""Case record files: recognised columns and units, file inspection and path expansion."""
+
+from __future__ import annotations
+
+import os
+import re
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Iterable, Sequence
+
+from model.errors import InputError
+from model.units import registry, safe_quantity_text
+
+
+RECORD_FORMATS = ("csv", "parquet")
+
+#: Canonical fields: name -> (base unit or kind, accepted names (lower case, before any unit)).
+FIELDS = {
+    "case_id": ("text", ("case_id", "case", "case id", "caseid")),
+    "time": ("timestamp", ("time", "timestamp", "sample_time", "date_time", "datetime")),
+    "elapsed": ("min", ("elapsed", "elapsed_min", "minutes", "minute", "elapsed_time")),
+    "date": ("date", ("date", "case_date")),
+    "theatre": ("text", ("theatre", "theater", "location", "room", "theatre_id")),
+    "agent": ("text", ("agent", "volatile", "volatile_agent")),
+    "o2": ("L/min", ("o2", "oxygen", "o2_flow", "o2_l_min")),
+    "air": ("L/min", ("air", "air_flow", "air_l_min")),
+    "n2o": ("L/min", ("n2o", "nitrous_oxide", "n2o_flow", "n2o_l_min")),
+    "fgf": ("L/min", ("fgf", "total_flow", "fresh_gas_flow", "fgf_l_min")),
+    "o2_share": ("percent", ("o2_share", "o2_share_pct", "fd_o2", "fdo2")),
+    "n2o_share": ("percent", ("n2o_share", "n2o_share_pct", "fd_n2o")),
+    "dial": ("percent", ("dial", "dial_pct", "vaporizer", "dial_setting")),
+    "end_tidal": ("percent", ("end_tidal", "end_tidal_pct", "et_agent", "etagent")),
+}
+NUMBER_FIELDS = ("elapsed", "o2", "air", "n2o", "fgf", "o2_share", "n2o_share", "dial", "end_tidal")
+_ALIAS_TO_FIELD = {alias: name for name, (_, aliases) in FIELDS.items() for alias in aliases}
+
+#: Highest single flowmeter flow accepted. [L/min] Common practice, no source (the same
+#: limit as plan files; workstation flowmeters end at 10-15 L/min, the flush is not a flow).
+MAX_FLOW_L_MIN = 20.0
+#: Highest total fresh gas flow accepted. [L/min] Common practice, no source (as plan files).
+MAX_TOTAL_FLOW_L_MIN = 30.0
+#: Default longest interval between two samples of a case that is integrated. [min]
+#: Common practice, no source: minute-level exports rarely miss more than a few samples.
+DEFAULT_GAP_LIMIT_MIN = 5.0
+
+_UNITS_LINE = re.compile(r"^\s*#\s*units?\s*:\s*(.*)$", re.IGNORECASE)
+_NAME_UNIT = re.compile(r"^\s*(.*?)\s*[\[(]\s*(.+?)\s*[\])]\s*$")
+
+
+@dataclass(frozen=True)
+class Column:
+    """One source column mapped to a canonical field."""
+
+    field: str
+    source: str
+    #: Multiply the source number by this to get the base unit (1 for text and times).
+    factor: float = 1.0
+    #: The unit as declared ("" for the default unit).
+    unit: str = ""
+
+
+@dataclass
+class RecordFile:
+    """What a record file holds: its format, its columns and how each maps to a field."""
+
+    path: str
+    format: str
+    columns: dict[str, Column]
+    #: Source column names not recognised (ignored, named in the report).
+    ignored: list[str] = field(default_factory=list)
+    #: Lines before the header row (CSV only).
+    skip_lines: int = 0
+    #: duckdb type of each source column.
+    types: dict[str, str] = field(default_factory=dict)
+
+    @property
+    def flow_mode(self) -> str:
+        return "parts" if any(k in self.columns for k in ("o2", "air", "n2o")) else "total"
+
+    @property
+    def row_label(self) -> str:
+        return "line" if self.format == "csv" else "row"
+
+
+# --------------------------------------------------------------------------------------
+# Columns and units
+
+
+def _unit_factor(unit: str, base: str, where: str) -> float:
+    """Factor from ``unit`` to ``base`` through the package's pint registry."""
+    ureg = registry()
+    text = unit.strip()
+    if text in ("%", "pct", "percent"):
+        text = "percent"
+    if text.lower() in ("fraction", "1", "ratio"):
+        text = "dimensionless"
+    try:
+        if not safe_quantity_text(text):  # pint would evaluate "9**9**9" for hours
+            raise ValueError(text)
+        return float(ureg.Quantity(1.0, text).to(base).magnitude)
+    except Exception:
+        raise InputError(where, unit, f"expected a unit convertible to {base.replace('percent', '%')}") from None
+
+
+def _parse_units_line(line: str, where: str) -> dict[str, str]:
+    m = _UNITS_LINE.match(line)
+    if not m:
+        return {}
+    out = {}
+    for part in re.split(r"[;,]", m.group(1)):
+        if not part.strip():
+            continue
+        if "=" not in part:
+            raise InputError(where, part.strip(), "expected 'column=unit' pairs, e.g. '# units: o2=mL/min'")
+        name, unit = (s.strip() for s in part.split("=", 1))
+        if name.lower() in out:
+            raise InputError(where, part.strip(), f"the unit of '{name}' is given twice; give it once")
+        out[name.lower()] = unit
+    return out
+
+
+def map_columns(names: Sequence[str], declared: dict[str, str], where: str):
+    """Map source column names to canonical fields with unit factors.
+
+    Returns
+    -------
+    columns : dict[str, Column]
+    ignored : list[str]
+    """
+    columns: dict[str, Column] = {}
+    ignored = []
+    for src in names:
+        m = _NAME_UNIT.match(src)
+        name, unit = (m.group(1), m.group(2)) if m else (src.strip(), "")
+        key = name.lower().replace("-", "_")
+        key = _ALIAS_TO_FIELD.get(key, _ALIAS_TO_FIELD.get(key.replace(" ", "_")))
+        if key is None:
+            ignored.append(src)
+            continue
+        if key in columns:
+            raise InputError(f"{where}: column '{src}'", src,
+                             f"the field '{key}' already comes from column '{columns[key].source}'")
+        base = FIELDS[key][0]
+        unit = unit or declared.get(name.lower(), "") or declared.get(key, "")
+        factor = 1.0
+        if base in ("text", "timestamp", "date"):
+            if unit:
+                raise InputError(f"{where}: column '{src}'", unit, "this column takes no unit")
+        elif unit:
+            factor = _unit_factor(unit, base, f"{where}: unit of column '{src}'")
+        columns[key] = Column(key, src, factor, unit)
+    unknown_declared = [k for k in declared
+                        if k not in {c.source.lower() for c in columns.values()}
+                        and k not in columns and _NAME_UNIT.sub(r"\1", k) not in
+                        {(_NAME_UNIT.match(c.source).group(1) if _NAME_UNIT.match(c.source) else c.source).lower()
+                         for c in columns.values()}]
+    if unknown_declared:
+        raise InputError(f"{where}: units line", unknown_declared[0], "names no column of the file")
+    _require(columns, where)
+    return columns, ignored
+
+
+def _require(columns: dict[str, Column], where: str) -> None:
+    missing = []
+    if "case_id" not in columns:
+        missing.append("case_id")
+    if "time" not in columns and "elapsed" not in columns:
+        missing.append("time or elapsed")
+    if "agent" not in columns:
+        missing.append("agent")
+    has_parts = any(k in columns for k in ("o2", "air", "n2o"))
+    if not has_parts and not ("fgf" in columns and "o2_share" in columns):
+        missing.append("o2/air/n2o flows, or fgf with o2_share")
+    if missing:
+        raise InputError(f"{where}: columns", ", ".join(columns[k].source for k in columns) or "none",
+                         "missing required column(s): " + "; ".join(missing) + " (see README, 'Case records')")
+
+
+def inspect_file(path) -> RecordFile:
+    """Read the header of a record file and map its columns (no data rows are read).
+
+    Raises
+    ------
+    InputError
+        The file is missing or unreadable, is not CSV/Parquet, is UTF-16, declares an
+        unknown unit, or lacks a required column.
+    """
+    p = Path(path)
+    where = str(p)
+    fmt = p.suffix.lower().lstrip(".")
+    if fmt not in RECORD_FORMATS:
+        raise InputError(where, p.suffix or "no extension", "record files end in .csv or .parquet")
+    if not p.is_file():
+        raise InputError(where, where, "the file does not exist" if not p.exists() else "expected a file")
+    if fmt == "parquet":
+        import pyarrow as pa
+        import pyarrow.parquet as pq
+
+        try:
+            schema = pq.read_schema(p)
+        except Exception as exc:
+            raise InputError(where, "the file", f"not a readable Parquet file ({type(exc).__name__})") from None
+        names = list(schema.names)
+        columns, ignored = map_columns(names, {}, where)
+        # A duration column is read as its integer count of s, ms, us or ns: give elapsed
+        # its factor to minutes; any other field has no use for a duration.
+        for key, col in list(columns.items()):
+            ptype = schema.field(col.source).type
+            if pa.types.is_duration(ptype):
+                if key != "elapsed":
+                    raise InputError(f"{where}: column '{col.source}'", str(ptype),
+                                     "a duration fits only the elapsed column")
+                seconds = {"s": 1.0, "ms": 1e-3, "us": 1e-6, "ns": 1e-9}[ptype.unit]
+                columns[key] = Column(key, col.source, seconds / 60.0, ptype.unit)
+        import duckdb
+
+        described = duckdb.sql(f"DESCRIBE SELECT * FROM read_parquet({_sql_str(str(p))})").fetchall()
+        types = {r[0]: r[1] for r in described}
+        return RecordFile(where, fmt, columns, ignored, 0, types)
+    with open(p, "rb") as fh:
+        head = fh.read(65536)
+    if head.startswith((b"\xff\xfe", b"\xfe\xff")) or (len(head) > 1 and head[1:2] == b"\x00"):
+        raise InputError(where, "UTF-16 text", "save the file as UTF-8 text (CSV UTF-8)")
+    if head.startswith(b"\xef\xbb\xbf"):
+        head = head[3:]
+    lines = head.split(b"\n")
+    declared: dict[str, str] = {}
+    skip = 0
+    for raw in lines:
+        text = raw.decode("utf-8", errors="replace").rstrip("\r")
+        if text.lstrip().startswith("#"):
+            declared.update(_parse_units_line(text, f"{where}, line {skip + 1}"))
+            skip += 1
+            continue
+        if not text.strip():
+            skip += 1
+            continue
+        break
+    if skip >= len(lines) - 1 and len(head) == 65536:
+        raise InputError(where, "no header row", "expected a header row near the top of the file")
+    header_line = lines[skip].decode("utf-8", errors="replace").rstrip("\r") if skip < len(lines) else ""
+    if not header_line.strip():
+        raise InputError(where, "an empty file", "expected a header row with column names")
+    import csv
+
+    try:
+        names = next(csv.reader([header_line]))
+    except csv.Error as exc:
+        raise InputError(f"{where}, line {skip + 1}", "the header row", f"not readable as CSV ({exc})") from None
+    columns, ignored = map_columns(names, declared, where)
+    return RecordFile(where, fmt, columns, ignored, skip, {n: "VARCHAR" for n in names})
+
+
+def expand_paths(patterns: Iterable) -> list[str]:
+    """Files named by paths or glob patterns, in order, each once.
+
+    Raises
+    ------
+    InputError
+        A pattern matches nothing.
+    """
+    import glob
+
+    out: list[str] = []
+    for pat in patterns:
+        pat = str(pat)
+        if any(ch in pat for ch in "*?["):
+            found = sorted(glob.glob(pat, recursive=True))
+            if not found:
+                raise InputError("records", pat, "the pattern matches no file")
+        elif os.path.isdir(pat):
+            found = sorted(str(q) for q in Path(pat).iterdir() if q.suffix.lower() in (".csv", ".parquet"))
+            if not found:
+                raise InputError("records", pat, "the folder holds no .csv or .parquet file")
+        else:
+            found = [pat]
+        for f in found:
+            if f not in out:
+                out.append(f)
+    if not out:
+        raise InputError("records", "no files", "give at least one record file")
+    return out
+
+
+# --------------------------------------------------------------------------------------
+# SQL building
+
+
+def _sql_str(text: str) -> str:
+    return "'" + text.replace("'", "''") + "'"
+
+
+def _ident(name: str) -> str:
+    return '"' + name.replace('"', '""') + '"'
