@@ -11,7 +11,7 @@ from __future__ import annotations
 import csv
 import io
 import math
-from dataclasses import field, replace
+from dataclasses import replace
 from pathlib import Path
 from typing import Callable, Mapping
 

@@ -11,7 +11,7 @@ bare numbers are read in the documented default unit of each field.
 from __future__ import annotations
 
 import tomllib
-from dataclasses import asdict, field, replace
+from dataclasses import asdict
 from pathlib import Path
 from typing import Annotated
 from typing import Any, Mapping

@@ -34,7 +34,6 @@ from __future__ import annotations
 
 import os
 import tempfile
-from dataclasses import field
 from pathlib import Path
 from typing import Callable
 

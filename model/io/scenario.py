@@ -7,7 +7,6 @@ scenario files"). It names its case-mix file (CSV, :mod:`model.io.casemix`) rela
 from __future__ import annotations
 
 import tomllib
-from dataclasses import field
 from pathlib import Path
 from typing import Annotated, Any, Mapping
 

@@ -7,7 +7,6 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field, replace
 from typing import Any, Mapping
-from typing import Mapping
 
 import numpy as np
 
