@@ -11,25 +11,27 @@ from model.case import CaseResult, case_costs, compute_case, phase_consumption, 
 from model.circle import lowest_safe_fd_o2, rebreathed_share, simulate_cases, steady_state_fio2
 from model.emissions import co2e_kg, emitted_mass_g, gas_mass_g
 from model.errors import InputError
-from model.freshgas import apply_ratio_limit, delivered_fractions, flow_band
+from model.freshgas import FLOW_BAND_NAMES, apply_ratio_limit, delivered_fractions, flow_band
 from model.io.plans import load_plan, parse_plan_text, plan_to_toml
 from model.mac import mac_at_age, mac_multiple
 from model.patient import brody_cardiac_output_l_min, brody_vo2_ml_min
 from model.plan import CasePlan, Patient, Phase, Settings, check_dials
-from model.reference import AGENTS, DEFAULT_REFERENCE, GWP_SOURCES, Agent, GwpSource, Reference, Sourced, load_settings
+from model.reference import (AGENTS, DEFAULT_GWP, DEFAULT_REFERENCE, GWP_SOURCES, VOLATILES, Agent, GwpSource, Prices,
+                             Reference, Sourced, load_settings)
 from model.sweep import flow_sweep
 from model.units import to_base
 from model.uptake import lowe_cumulative_ml, lowe_uptake_rate_ml_min
-from model.vapour import (liquid_from_vapour, liquid_used_ml, liquid_used_series_ml, rule_of_thumb_ml_per_hour,
-                          vapour_per_ml_liquid)
+from model.vapour import (liquid_from_vapour, liquid_used_ml, liquid_used_series_ml, molar_volume_l,
+                          rule_of_thumb_ml_per_hour, vapour_per_ml_liquid)
 
 __all__ = [
-    "AGENTS", "Agent", "CasePlan", "CaseResult", "DEFAULT_REFERENCE", "GWP_SOURCES", "GwpSource", "InputError",
-    "Patient", "Phase", "Reference", "Settings", "Sourced", "apply_ratio_limit", "brody_cardiac_output_l_min",
-    "brody_vo2_ml_min", "case_costs", "check_dials", "co2e_kg", "compute_case", "delivered_fractions",
-    "emitted_mass_g", "flow_band", "flow_sweep", "gas_mass_g", "liquid_from_vapour", "liquid_used_ml",
-    "liquid_used_series_ml", "load_plan", "load_settings", "lowe_cumulative_ml", "lowe_uptake_rate_ml_min",
-    "lowest_safe_fd_o2", "mac_at_age", "mac_multiple", "parse_plan_text", "phase_consumption", "plan_to_toml",
-    "rebreathed_share", "rule_of_thumb_ml_per_hour", "simulate_cases", "simulation_totals", "steady_state_fio2",
-    "to_base", "vapour_per_ml_liquid",
+    "AGENTS", "Agent", "CasePlan", "CaseResult", "DEFAULT_GWP", "DEFAULT_REFERENCE", "FLOW_BAND_NAMES",
+    "GWP_SOURCES", "GwpSource", "InputError", "Patient", "Phase", "Prices", "Reference", "Settings",
+    "Sourced", "VOLATILES", "apply_ratio_limit", "brody_cardiac_output_l_min", "brody_vo2_ml_min",
+    "case_costs", "check_dials", "co2e_kg", "compute_case", "delivered_fractions", "emitted_mass_g",
+    "flow_band", "flow_sweep", "gas_mass_g", "liquid_from_vapour", "liquid_used_ml", "liquid_used_series_ml",
+    "load_plan", "load_settings", "lowe_cumulative_ml", "lowe_uptake_rate_ml_min", "lowest_safe_fd_o2",
+    "mac_at_age", "mac_multiple", "molar_volume_l", "parse_plan_text", "phase_consumption", "plan_to_toml",
+    "rebreathed_share", "rule_of_thumb_ml_per_hour", "simulate_cases", "simulation_totals",
+    "steady_state_fio2", "to_base", "vapour_per_ml_liquid",
 ]

@@ -15,7 +15,7 @@ Fresh gas enters the circuit at ``FGF`` (O2, air, N2O as delivered after the wor
 ratio limit) plus the vaporizer's vapour ``FGF x dial`` (Dion's convention, as in
 :func:`model.vapour.liquid_used_ml`). Excess gas leaves through the valve at the circuit's
 composition at ``max(FGF (1 + dial) - VO2 - N2O uptake - agent uptake, 0)``, the balance
-behind the textbook steady-state inspired O2 (DESIGN.md 3.3). CO2 into the absorber is
+behind the textbook steady-state inspired O2 (docs/methods.md, Inspired oxygen). CO2 into the absorber is
 ``VCO2 x max(1 - FGF / VE, 0)``, the rebreathed share of exhaled gas.
 
 Integration and bookkeeping
@@ -101,8 +101,8 @@ def steady_state_fio2(fgf_l_min, fd_o2, vo2_l_min, n2o_uptake_l_min=0.0, agent_u
 
     References
     ----------
-    .. [1] Textbook mass balance of the circle system; see DESIGN.md 3.3 (common
-       practice, no source).
+    .. [1] Textbook mass balance of the circle system; see docs/methods.md, Inspired
+       oxygen (common practice, no source).
     """
     fgf = np.asarray(fgf_l_min, dtype=float)
     vent = fgf - np.asarray(vo2_l_min, dtype=float) - n2o_uptake_l_min - agent_uptake_l_min
@@ -138,7 +138,7 @@ def lowest_safe_fd_o2(fgf_l_min, vo2_l_min, floor=0.30):
 
     References
     ----------
-    .. [1] Textbook mass balance of the circle system; see DESIGN.md 3.3.
+    .. [1] Textbook mass balance of the circle system; see docs/methods.md, Inspired oxygen.
     """
     fgf = np.asarray(fgf_l_min, dtype=float)
     vo2 = np.asarray(vo2_l_min, dtype=float)

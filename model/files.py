@@ -54,7 +54,7 @@ def read_user_text(path, kind: str, max_bytes: int, fmt: str = "TOML", encoding:
 
 
 def toml_error(source: str, exc: Exception,
-               allowed: str = "the file is not valid TOML (see the plan format in README.md)") -> InputError:
+               allowed: str = "the file is not valid TOML (see the plan format in docs/formats.md)") -> InputError:
     """One-line InputError for malformed TOML, naming the file, line and column."""
     text = " ".join(str(exc).split())
     match = re.search(r"\s*\(at line (\d+), column (\d+)\)", text)

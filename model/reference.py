@@ -116,10 +116,10 @@ def _agent(name, label, formula, kind, **values) -> Agent:
     return Agent(name, label, formula, kind, MappingProxyType(values))
 
 
-_LABEL_SEVO = "sevoflurane prescribing information (Ultane/Sevorane), from memory"
-_LABEL_DES = "desflurane prescribing information (Suprane), from memory"
-_LABEL_ISO = "isoflurane prescribing information (Forane), from memory"
-_LABEL_HAL = "halothane monograph (Fluothane), from memory"
+_LABEL_SEVO = "sevoflurane prescribing information, from memory"
+_LABEL_DES = "desflurane prescribing information, from memory"
+_LABEL_ISO = "isoflurane prescribing information, from memory"
+_LABEL_HAL = "halothane monograph, from memory"
 _YASUDA = "Yasuda N et al., Anesth Analg 1989;69:370-3 (blood/gas at 37 °C), from memory"
 _MAPLESON = "Mapleson WW, Br J Anaesth 1996;76:179-85 (MAC at 40 y), from memory"
 _AR6 = "IPCC AR6 WG1 Ch. 7 Supplementary Table 7.SM.7"
@@ -503,7 +503,7 @@ def load_settings(path: str | os.PathLike | None = None, base: Reference | None 
     except tomllib.TOMLDecodeError as exc:
         from model.files import toml_error
         raise toml_error(f"settings file {p}", exc,
-                         "the file is not valid TOML (see 'Settings file' in README.md)") from None
+                         "the file is not valid TOML (see 'Settings file' in docs/formats.md)") from None
     except RecursionError:
         raise InputError("settings file", shown_path(p), "nested too deeply to be a settings file") from None
     return base.with_overrides(data, str(p))

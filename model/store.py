@@ -403,3 +403,6 @@ def _migrate_1_to_2(con: sqlite3.Connection) -> None:
                     (ids[name], version, body, "migrated from schema 1", saved_at))
     # The old table stays (renamed), so nothing is lost even without the backup file.
     con.execute("ALTER TABLE plans RENAME TO plans_schema1")
+
+
+__all__ = ["KINDS", "SCHEMA_VERSION", "STORE_ENV", "Store", "StoreError", "Version", "default_path"]

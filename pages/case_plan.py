@@ -442,7 +442,7 @@ with d2:
 with st.expander("Plan files and saved versions", icon=":material/description:"):
     f1, f2 = st.columns(2)
     with f1:
-        st.markdown("**Import a plan file** (TOML, the format in the README)")
+        st.markdown("**Import a plan file** (TOML, the format in docs/formats.md)")
         up = st.file_uploader("Plan file", type=["toml"], key="cp_upload", label_visibility="collapsed")
         if up is not None and ss.get("cp_upload_done") != up.file_id:
             ss["cp_upload_done"] = up.file_id

@@ -46,7 +46,7 @@ if source.startswith("Demo"):
     if st.checkbox("Reconcile with the demo purchases", value=True, key="ra_demo_purchases"):
         purchases_file = (DEMO_PURCHASES.name, DEMO_PURCHASES.read_bytes())
 else:
-    uploads = st.file_uploader("Record files (.csv or .parquet; format in the README, 'Case records')",
+    uploads = st.file_uploader("Record files (.csv or .parquet; format in docs/formats.md, 'Case records')",
                                type=["csv", "parquet"], accept_multiple_files=True, key="ra_upload")
     up_p = st.file_uploader("Purchases file (optional; .csv or .parquet)", type=["csv", "parquet"],
                             key="ra_upload_purchases")
@@ -218,7 +218,7 @@ with tab_recon:
                    + "\n".join(f"- {ui.md(m)}" for m in purchase_notes[:20])
                    + (f"\n- ... and {more} more" if more > 0 else ""), icon=":material/warning:")
     if recon is None:
-        st.caption("Add a purchases file (format in the README, 'Purchases') to compare with what was bought.")
+        st.caption("Add a purchases file (format in docs/formats.md, 'Purchases') to compare with what was bought.")
     else:
         totals = recon[recon["month"] == "all"]
         n2o = totals[totals["item"] == "nitrous_oxide"]

@@ -26,7 +26,7 @@ def one_phase_plan(agent="sevoflurane", minutes=60.0, o2=1.0, air=1.0, n2o=0.0, 
 def test_low_flow_demo_case_hand_worked():
     result = compute_case(load_plan(DEMO / "lap_chole_low_flow.toml"))
     t = result.totals
-    # Worked by hand (Dion's formula at 20 °C, DESIGN.md 3.1):
+    # Worked by hand (Dion's formula at 20 °C, docs/methods.md, Dion's formula):
     #   vapour = 6000 mL/min * 6 % * 10 min + 500 mL/min * 3 % * 75 min + 0 = 3600 + 1125 = 4725 mL
     #   vapour per mL of sevoflurane = 1.52 / 200.05 * 24055 = 182.77
     #   liquid = 4725 / 182.77 = 25.852 mL; mass = 25.852 * 1.52 = 39.295 g

@@ -64,7 +64,7 @@ def test_agent_o2_and_n2o_are_conserved_over_mixed_cases(model):
     target = np.where(np.isnan(dial), rng.uniform(0, 2, (3, n)), np.nan)
     sim = simulate_cases(SEVO, minutes, o2, air, n2o, dial, target, weight_kg=rng.uniform(5, 120, n),
                          age_years=rng.uniform(1, 90, n), uptake_model=model)
-    # Source: conservation of mass (delivered = taken up + vented + change held), DESIGN.md 5
+    # Source: conservation of mass (delivered = taken up + vented + change held), docs/methods.md, The circle system
     for species, err in balance_errors(sim).items():
         assert err < 1e-6, species
 
@@ -108,26 +108,26 @@ def test_rebreathed_share_worked_points():
 # --- inspired O2 --------------------------------------------------------------------------
 
 def test_steady_state_fio2_at_worked_points():
-    # Source: DESIGN.md 3.3, textbook circle mass balance FiO2 = (FGF FdO2 - VO2)/(FGF - VO2 - VN2O - Vagent);
+    # Source: docs/methods.md, Inspired oxygen: textbook circle mass balance FiO2 = (FGF FdO2 - VO2)/(FGF - VO2 - VN2O - Vagent);
     # hand-worked: (1 x 0.5 - 0.25)/(1 - 0.25) = 1/3; (2 x 0.35 - 0.28)/(2 - 0.28) = 0.2442
     assert steady_state_fio2(1.0, 0.5, 0.25) == pytest.approx(1 / 3)
     assert steady_state_fio2(2.0, 0.35, 0.28) == pytest.approx(0.42 / 1.72)
     # with 0.1 L/min N2O uptake: (1 x 0.5 - 0.25)/(1 - 0.25 - 0.1) = 0.3846
     assert steady_state_fio2(1.0, 0.5, 0.25, 0.1) == pytest.approx(0.25 / 0.65)
-    # Source: DESIGN.md 3.3: at 0.5 L/min, 50 % O2, VO2 0.25 L/min the numerator is zero
+    # Source: docs/methods.md, Inspired oxygen: at 0.5 L/min, 50 % O2, VO2 0.25 L/min the numerator is zero
     assert steady_state_fio2(0.5, 0.5, 0.25) == 0.0
 
 
 def test_simulation_settles_on_the_steady_state_balance():
     o2, air = o2_air_for(0.5, 1.0)
     sim = simulate_cases(SEVO, [[600.0]], [[o2]], [[air]], 0.0, [[0.0]], vo2_ml_min=250.0, record=True)
-    # Source: DESIGN.md 3.3 steady-state balance, hand-worked 1/3 for 1 L/min, 50 % O2, VO2 0.25
+    # Source: docs/methods.md, Inspired oxygen: steady-state balance, hand-worked 1/3 for 1 L/min, 50 % O2, VO2 0.25
     assert sim["series"]["inspired_o2"][-1, 0] == pytest.approx(1 / 3, abs=0.002)
     assert sim["phase_steady_fio2"][0, 0] == pytest.approx(1 / 3, abs=1e-9)
 
 
 def test_lowest_safe_fd_o2_at_worked_points():
-    # Source: DESIGN.md 3.3 balance solved for FdO2: (VO2 + floor (FGF - VO2)) / FGF;
+    # Source: docs/methods.md, Inspired oxygen: the balance solved for FdO2: (VO2 + floor (FGF - VO2)) / FGF;
     # hand-worked (0.25 + 0.3 x 0.75) / 1 = 0.475
     assert lowest_safe_fd_o2(1.0, 0.25, 0.30) == pytest.approx(0.475)
     assert np.isnan(lowest_safe_fd_o2(0.2, 0.25, 0.30))
@@ -140,7 +140,7 @@ def test_the_hypoxic_case_is_flagged():
     o2, air = o2_air_for(0.5, 0.5)
     p = plan([Phase("maintenance", 60.0, o2, air, 0.0, dial_pct=2.0)], patient=Patient(70.0, 40.0, vo2_ml_min=250.0))
     r = compute_case(p)
-    # Source: DESIGN.md 3.3: 0.5 L/min, 50 % O2, VO2 0.25 L/min becomes hypoxic
+    # Source: docs/methods.md, Inspired oxygen: 0.5 L/min, 50 % O2, VO2 0.25 L/min becomes hypoxic
     assert r.totals["inspired_o2_below_floor"] is True
     assert r.totals["min_inspired_o2_pct"] < 21.0
     assert any("hypoxic" in w for w in r.warnings)
@@ -159,9 +159,9 @@ def test_o2_consumption_beyond_supply_is_reported_not_made_negative():
 def test_n2o_accumulates_at_low_flow_and_lowers_inspired_o2():
     low = compute_case(plan([Phase("m", 90.0, 0.3, 0.0, 0.7, dial_pct=1.0)])).timecourse
     high = compute_case(plan([Phase("m", 90.0, 1.8, 0.0, 4.2, dial_pct=1.0)])).timecourse
-    # Source: DESIGN.md 3.3 (N2O accumulates in the circle at low flow; hypoxic mixture risk)
+    # Source: docs/methods.md, Inspired oxygen (N2O accumulates in the circle at low flow; hypoxic mixture risk)
     assert low["inspired_o2_pct"].iloc[-1] < high["inspired_o2_pct"].iloc[-1] - 2.0
-    # Source: DESIGN.md 3.3 balance, hand-worked (6 x 0.3 - 0.242) / (6 - 0.242) = 27.1 % (N2O uptake
+    # Source: docs/methods.md, Inspired oxygen: the balance, hand-worked (6 x 0.3 - 0.242) / (6 - 0.242) = 27.1 % (N2O uptake
     # late in the case raises it slightly)
     assert high["inspired_o2_pct"].iloc[-1] == pytest.approx(27.1, abs=1.0)
 
@@ -249,7 +249,7 @@ def test_absorbent_from_the_rebreathed_co2_at_a_worked_point():
              patient=Patient(70.0, 40.0, vo2_ml_min=250.0, minute_ventilation_l_min=6.0),
              absorbent_capacity_l_per_kg=150.0)
     t = compute_case(p).totals
-    # Source: DESIGN.md 3.3: CO2 absorbed = VCO2 x rebreathed share; hand-worked
+    # Source: docs/methods.md, Absorbent: CO2 absorbed = VCO2 x rebreathed share; hand-worked
     # 0.2 L/min x (1 - 0.5/6) x 60 min = 11.0 L; at 150 L/kg (10-20 L per 100 g, from memory) 73.3 g
     assert t["co2_absorbed_l"] == pytest.approx(11.0, rel=1e-9)
     assert t["absorbent_g"] == pytest.approx(73.33, abs=0.01)
@@ -259,7 +259,7 @@ def test_absorbent_from_the_rebreathed_co2_at_a_worked_point():
 def test_emissions_subtract_the_metabolised_share_of_uptake():
     r = compute_case(load_plan(DEMO / "lap_chole_low_flow.toml"))
     t = r.totals
-    # Source: DESIGN.md 3.4 (emitted = delivered - metabolised share of uptake); sevoflurane 3 %, from memory
+    # Source: docs/methods.md, Emitted mass (emitted = delivered - metabolised share of uptake); sevoflurane 3 %, from memory
     assert t["agent_metabolised_g"] == pytest.approx(SEVO.metabolised_fraction * t["agent_gross_uptake_g"], rel=1e-6)
     assert t["agent_emitted_g"] == pytest.approx(t["agent_mass_g"] - t["agent_metabolised_g"], rel=1e-9)
     assert 0 < t["agent_uptake_g"] <= t["agent_gross_uptake_g"] < t["agent_mass_g"]

@@ -183,7 +183,8 @@ def test_reference_shows_override_and_keeps_default(capsys, tmp_path):
     by_key = {(r["item"], r["field"]): r for r in rows}
     mac = by_key[("Sevoflurane", "MAC at age 40 in O2")]
     assert mac["value"] == 1.95 and mac["default"] == 2.1 and "local.toml" in mac["source"]
-    assert "Ultane" in mac["default_source"]
+    # The built-in value keeps its source (cited by substance and document type, no trade name).
+    assert "sevoflurane prescribing information" in mac["default_source"]
     des = by_key[("Desflurane", "GWP, IPCC AR6 GWP100")]
     assert des["value"] == 2000 and des["default"] == 2590
     o2 = by_key[("Oxygen", "price per 1000 L")]

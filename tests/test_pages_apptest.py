@@ -156,7 +156,7 @@ def test_compare_sets_a_plan_against_an_earlier_version_of_itself(isolated_store
     assert f"{name} · version 1" in at.multiselect(key="cmp_plans").options
     at.multiselect(key="cmp_plans").set_value([f"{name} · version 1", name]).run()
     assert not at.exception and not at.error, [e.value for e in at.error]
-    # More fresh gas at the same dial vaporises more liquid (Dion's formula, DESIGN.md 3.1).
+    # More fresh gas at the same dial vaporises more liquid (Dion's formula, docs/methods.md).
     assert next(m.delta for m in at.metric if m.label == "Liquid agent").startswith("+")
 
 
@@ -252,5 +252,5 @@ def test_a_vaporizer_maximum_raised_on_the_reference_page_lets_a_plan_dial_above
     open_plan(at, "Laparoscopic cholecystectomy, high flow")
     edit_phase(at, 1, setting="9 %")
     assert not at.error, [e.value for e in at.error]
-    # Dion's formula (DESIGN.md 3.1): at the same flow, 9 % instead of 2 % vaporises more liquid.
+    # Dion's formula (docs/methods.md): at the same flow, 9 % instead of 2 % vaporises more liquid.
     assert metric(at, "Liquid agent") > before

@@ -172,7 +172,7 @@ def test_user_gwp_values_without_nitrous_oxide_serve_plans_without_it_and_name_i
     plan.selectbox(key="gl_gwp").set_value("User values").run()
     assert not plan.exception and not plan.error, [e.value for e in plan.error]
     # The first demo plan gives sevoflurane and no N2O, so its CO2e scales with the agent's
-    # GWP alone: 150 against the AR6 value (proportionality of DESIGN.md 3.4's CO2e = mass x GWP).
+    # GWP alone: 150 against the AR6 value (proportionality of CO2e = mass x GWP, docs/methods.md, CO2-equivalent).
     user = float(next(m for m in plan.metric if m.label.startswith("Emissions")).value.replace(",", ""))
     assert user == pytest.approx(ar6 * 150.0 / DEFAULT_REFERENCE.gwp("sevoflurane", "ar6_gwp100"), rel=0.01)
     # A plan that gives N2O is not worked out under a source without an N2O value, and says why.
@@ -192,7 +192,7 @@ def test_year_follows_the_sidebar_room_temperature_like_the_case_plan():
     cool = _per_case_liquid_ml(at)
     at.number_input(key="gl_temp").set_value(30.0).run()
     assert not at.exception, [e.message for e in at.exception]
-    # Ideal gas (DESIGN.md 3.1): warmer liquid gives more vapour per mL, so less liquid for the
+    # Ideal gas (docs/methods.md, Vapour from liquid): warmer liquid gives more vapour per mL, so less liquid for the
     # same dial; the year must move with the sidebar's temperature as a single case does.
     assert _per_case_liquid_ml(at) < cool
 

@@ -251,5 +251,5 @@ def test_the_vaporizer_maximum_is_that_of_the_values_in_use_so_a_settings_file_m
     assert plan_from_dict(plan_dict(phase_dial="9 %"), "plan.toml", wide).phases[0].dial_pct == 9.0
     at_9 = compute_case(plan, wide).totals["liquid_agent_ml"]
     at_2 = compute_case(plan_from_dict(plan_dict(), "plan.toml"), wide).totals["liquid_agent_ml"]
-    # Dion's formula (DESIGN.md 3.1) is linear in the dial: 4.5 times the dial, 4.5 times the liquid.
+    # Dion's formula (docs/methods.md) is linear in the dial: 4.5 times the dial, 4.5 times the liquid.
     assert at_9 == pytest.approx(4.5 * at_2, rel=0.02)

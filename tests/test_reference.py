@@ -66,9 +66,9 @@ def test_gwp_horizons_order_as_published():
         assert DEFAULT_REFERENCE.gwp(agent, "ar6_gwp20") > DEFAULT_REFERENCE.gwp(agent, "ar6_gwp100")
 
 
-# Textbook values the design notes list (DESIGN.md section 4), from memory, with a tolerance
+# Textbook values (docs/methods.md, Reference values), from memory, with a tolerance
 # that catches a typo or a wrong unit but not the spread between handbooks.
-DESIGN_TABLE = {
+TEXTBOOK_TABLE = {
     "sevoflurane": dict(liquid_density=1.52, svp_20c=21, blood_gas=0.65, mac40=2.05, vaporizer_max=8),
     "desflurane": dict(liquid_density=1.465, svp_20c=89, blood_gas=0.45, mac40=6.0, vaporizer_max=18),
     "isoflurane": dict(liquid_density=1.496, svp_20c=32, blood_gas=1.4, mac40=1.15, vaporizer_max=5),
@@ -76,10 +76,10 @@ DESIGN_TABLE = {
 }
 
 
-@pytest.mark.parametrize("agent", DESIGN_TABLE)
+@pytest.mark.parametrize("agent", TEXTBOOK_TABLE)
 def test_agent_values_match_textbook_table(agent):
-    for fname, expected in DESIGN_TABLE[agent].items():
-        # Source: textbook values (DESIGN.md section 4), from memory.
+    for fname, expected in TEXTBOOK_TABLE[agent].items():
+        # Source: textbook values (docs/methods.md, Reference values), from memory.
         assert getattr(AGENTS[agent], fname) == pytest.approx(expected, rel=0.05), fname
 
 

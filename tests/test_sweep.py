@@ -30,7 +30,7 @@ def test_sweep_spans_metabolic_to_very_high_flow(sweep):
 def test_liquid_agent_rises_and_absorbent_falls_with_flow(sweep):
     t = sweep.table
     assert t["target_held"].all()
-    # Source: DESIGN.md 3.3: lower flow saves agent but spends absorbent
+    # Source: docs/methods.md, Absorbent: lower flow saves agent but spends absorbent
     assert np.all(np.diff(t["liquid_agent_ml"]) > 0)
     assert np.all(np.diff(t["absorbent_g"]) <= 1e-9)
 

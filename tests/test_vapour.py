@@ -17,8 +17,8 @@ def test_molar_volume_at_0c_matches_codata():
     assert molar_volume_l(0.0, 101.325) == pytest.approx(expected * 1000.0, rel=1e-9)
 
 
-def test_molar_volume_at_20c_matches_design_notes_and_pint():
-    # Source: DESIGN.md 3.1 (24.055 L/mol at 20 °C, 101.325 kPa).
+def test_molar_volume_at_20c_matches_textbook_and_pint():
+    # Source: textbook value, docs/methods.md, Vapour from liquid (24.055 L/mol at 20 °C, 101.325 kPa).
     assert molar_volume_l(20.0) == pytest.approx(24.055, abs=1e-3)
     # Source: pint's own constants (molar_gas_constant) as an independent ideal-gas check.
     ureg = registry()
@@ -27,8 +27,8 @@ def test_molar_volume_at_20c_matches_design_notes_and_pint():
 
 
 @pytest.mark.parametrize("agent, expected", [(SEVO, 183), (DES, 210), (ISO, 195), (HAL, 227)])
-def test_vapour_per_ml_at_20c_matches_design_notes(agent, expected):
-    # Source: DESIGN.md 3.1 (about 183, 210, 195 and 227 mL vapour per mL liquid at 20 °C).
+def test_vapour_per_ml_at_20c_matches_textbook(agent, expected):
+    # Source: textbook values, from memory, docs/methods.md, Vapour from liquid (about 183, 210, 195 and 227 mL vapour per mL liquid at 20 °C).
     assert vapour_per_ml_liquid(agent, 20.0) == pytest.approx(expected, rel=0.005)
 
 
@@ -69,7 +69,7 @@ def test_dion_desflurane_hand_worked():
 
 def test_dion_isoflurane_hand_worked_at_20c():
     # Source: Dion's formula generalised with the molar volume at 20 °C (24.055 L/mol,
-    # DESIGN.md 3.1). Worked by hand for 3 L/min, 1.5 %, 90 min:
+    # docs/methods.md, Dion's formula). Worked by hand for 3 L/min, 1.5 %, 90 min:
     #   vapour = 3000 mL/min * 0.015 * 90 min = 4050 mL;
     #   vapour per mL = 1.496 / 184.49 * 24055 = 195.06;  4050 / 195.06 = 20.763 mL.
     assert liquid_used_ml(3.0, 1.5, 90.0, ISO, 20.0) == pytest.approx(20.763, rel=1e-3)

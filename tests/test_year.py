@@ -141,8 +141,8 @@ def test_emissions_match_ipcc_ar6_gwp100_in_globalwarmingpotentials():
                                               + t["co2e_nitrous_oxide_t"])
     ref = DEFAULT_REFERENCE.agents
     # Emitted is delivered less the metabolised share of uptake: desflurane about 0.02 %,
-    # isoflurane about 0.2 % of uptake (from memory, DESIGN.md 3.4), so nearly all that
-    # is delivered; N2O volume to mass at 24.055 L/mol (20 degC, DESIGN.md 3.1), 44.013 g/mol.
+    # isoflurane about 0.2 % of uptake (from memory, docs/methods.md, Emitted mass), so nearly all that
+    # is delivered; N2O volume to mass at 24.055 L/mol (20 degC, docs/methods.md, Vapour from liquid), 44.013 g/mol.
     des_g = t["liquid_ml_desflurane"] * ref["desflurane"].liquid_density
     iso_g = t["liquid_ml_isoflurane"] * ref["isoflurane"].liquid_density
     n2o_g = t["nitrous_oxide_l"] / 24.055 * 44.013
@@ -339,7 +339,7 @@ def test_target_mode_case_type_of_the_demo_runs_through_the_circle_model():
 
 
 def test_low_flow_practice_warns_of_hypoxic_inspired_o2_unless_the_o2_share_rises():
-    # The textbook hypoxic case (DESIGN.md 3.3): 0.5 L/min with about 50 % O2 while the
+    # The textbook hypoxic case (docs/methods.md, Inspired oxygen): 0.5 L/min with about 50 % O2 while the
     # patient consumes about 0.25 L/min O2; the year reports it from the circle model. With
     # 80 % of the flow as O2 the steady-state balance keeps inspired O2 above 30 %.
     base = load_scenario(YEAR / "baseline_2l.toml")

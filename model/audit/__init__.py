@@ -3,7 +3,7 @@ reconciliation with purchases."""
 
 
 from model.audit.engine import audit_records
-from model.audit.result import AuditResult, summarise
+from model.audit.result import DEFAULT_HIGH_FLOW_L_MIN, DEFAULT_HIGH_FLOW_LIMIT_MIN, AuditResult, summarise
 from model.audit.reconcile import purchase_emissions, reconcile
 
-__all__ = ["AuditResult", "audit_records", "purchase_emissions", "reconcile", "summarise"]
+__all__ = ["AuditResult", "DEFAULT_HIGH_FLOW_LIMIT_MIN", "DEFAULT_HIGH_FLOW_L_MIN", "audit_records", "purchase_emissions", "reconcile", "summarise"]

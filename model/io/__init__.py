@@ -9,10 +9,10 @@ from model.io.plans import load_plan, parse_plan_text, plan_from_dict, plan_to_d
 from model.io.casemix import casemix_from_frame, casemix_to_csv, casemix_to_frame, load_casemix, parse_casemix_text
 from model.io.scenario import load_scenario, parse_scenario_text, scenario_from_dict
 from model.io.records import read_records
-from model.io.record_files import expand_paths, inspect_file
+from model.io.record_files import DEFAULT_GAP_LIMIT_MIN, expand_paths, inspect_file
 from model.io.record_report import ReadReport, Records
 from model.io.purchases import load_purchases, read_purchases, write_purchases
 from model.io.uploads import Upload, check_upload
 from model.io.exports import chart_text, html_report, to_csv, to_xlsx
 
-__all__ = ["ReadReport", "Records", "Upload", "casemix_from_frame", "casemix_to_csv", "casemix_to_frame", "chart_text", "check_upload", "expand_paths", "html_report", "inspect_file", "load_casemix", "load_plan", "load_purchases", "load_scenario", "parse_casemix_text", "parse_plan_text", "parse_scenario_text", "plan_from_dict", "plan_to_dict", "plan_to_toml", "read_purchases", "read_records", "scenario_from_dict", "to_csv", "to_xlsx", "write_purchases"]
+__all__ = ["DEFAULT_GAP_LIMIT_MIN", "ReadReport", "Records", "Upload", "casemix_from_frame", "casemix_to_csv", "casemix_to_frame", "chart_text", "check_upload", "expand_paths", "html_report", "inspect_file", "load_casemix", "load_plan", "load_purchases", "load_scenario", "parse_casemix_text", "parse_plan_text", "parse_scenario_text", "plan_from_dict", "plan_to_dict", "plan_to_toml", "read_purchases", "read_records", "scenario_from_dict", "to_csv", "to_xlsx", "write_purchases"]

@@ -1,6 +1,6 @@
 """A department's case mix: case types with yearly counts, durations, agents and flow practice.
 
-A case-mix file is CSV in the project's own format (documented in README.md, "Case-mix and
+A case-mix file is CSV in the project's own format (documented in docs/formats.md, "Case-mix and
 scenario files"): one row per case type, a header row naming the columns, lines starting
 with ``#`` ignored. Each row names a case plan file (the flow practice of that type, in the
 plan format of :mod:`model.io.plans`) relative to the case-mix file.

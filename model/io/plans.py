@@ -2,7 +2,7 @@
 
 The dataclasses a plan is read into live in :mod:`model.plan`.
 
-A plan file is TOML in the project's own format (documented in README.md, "Plan files"):
+A plan file is TOML in the project's own format (documented in docs/formats.md, "Plan files"):
 top-level ``name`` and ``agent``, tables ``[patient]``, ``[settings]`` and ``[prices]``,
 and one ``[[phases]]`` table per phase. Numbers may carry units as text ("500 mL/min");
 bare numbers are read in the documented default unit of each field.
@@ -202,7 +202,7 @@ def _first_error(exc: pydantic.ValidationError, source: str, fmt: str = "plan") 
     if kind == "missing":
         return InputError(prefix + where, "nothing", "this field is required")
     if kind == "extra_forbidden":
-        return InputError(prefix + where, value, f"unknown field (check its spelling in the README's {fmt} format)")
+        return InputError(prefix + where, value, f"unknown field (check its spelling in docs/formats.md, the {fmt} format)")
     if kind == "too_short" and loc and loc[-1] == "phases":
         return InputError(prefix + where, "no phases", "a plan needs at least one [[phases]] table")
     return InputError(prefix + where, value, err["msg"].replace("Value error, ", ""))

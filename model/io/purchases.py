@@ -1,6 +1,6 @@
 """Purchases of agents and gases: the purchases file, purchase-based emissions, reconciliation.
 
-A purchases file (CSV or Parquet, documented in README.md, "Purchases") has one row per
+A purchases file (CSV or Parquet, documented in docs/formats.md, "Purchases") has one row per
 purchase: ``month`` (YYYY-MM), ``item`` (an agent or gas), ``quantity``, ``unit`` and, for
 bottles and cylinders, ``size``. Volatile agents are counted as liquid [mL], gases as gas
 volume at room conditions [L]. Purchase-based emissions count everything bought as emitted

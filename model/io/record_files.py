@@ -173,7 +173,7 @@ def _require(columns: dict[str, Column], where: str) -> None:
         missing.append("o2/air/n2o flows, or fgf with o2_share")
     if missing:
         raise InputError(f"{where}: columns", ", ".join(columns[k].source for k in columns) or "none",
-                         "missing required column(s): " + "; ".join(missing) + " (see README, 'Case records')")
+                         "missing required column(s): " + "; ".join(missing) + " (see docs/formats.md, 'Case records')")
 
 
 def inspect_file(path) -> RecordFile:

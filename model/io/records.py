@@ -1,7 +1,7 @@
 """Case records: the project's own long-form sample format, read and checked with duckdb.
 
 A record file holds one row per sample of a case (CSV or Parquet; the format is documented
-in README.md, "Case records"). Columns are recognised by name; a unit is declared in the
+in docs/formats.md, "Case records"). Columns are recognised by name; a unit is declared in the
 column name (``o2 [mL/min]``) or, in CSV, in a leading header line (``# units: o2=mL/min``)
 and converted with pint once per column. Every row passes the checks below; a row that
 fails one is set aside with a row-numbered message, every other row is used. All checks

@@ -1,6 +1,6 @@
 """Scenarios: a case mix, a change of practice, prices and the settings of the year's sampling.
 
-A scenario file is TOML in the project's own format (documented in README.md, "Case-mix and
+A scenario file is TOML in the project's own format (documented in docs/formats.md, "Case-mix and
 scenario files"). It names its case-mix file (CSV, :mod:`model.io.casemix`) relative to itself.
 """
 

@@ -28,9 +28,9 @@ use the same draws for both scenarios, so their difference has its own band.
 """
 
 
-from model.year.inputs import CaseMix, CaseType, MONTHS, Practice, Sampling, Scenario, stretch_phase
+from model.year.inputs import MAX_DRAWS, MONTHS, CaseMix, CaseType, Practice, Sampling, Scenario, stretch_phase
 from model.year.result import YearResult, compute_year, headline_figures
 from model.year.compare import Comparison, compare_years, nonzero_rows
 from model.year.simulate import YearInputs, year_inputs
 
-__all__ = ["CaseMix", "CaseType", "Comparison", "MONTHS", "Practice", "Sampling", "Scenario", "YearInputs", "YearResult", "compare_years", "compute_year", "headline_figures", "nonzero_rows", "stretch_phase", "year_inputs"]
+__all__ = ["CaseMix", "CaseType", "Comparison", "MAX_DRAWS", "MONTHS", "Practice", "Sampling", "Scenario", "YearInputs", "YearResult", "compare_years", "compute_year", "headline_figures", "nonzero_rows", "stretch_phase", "year_inputs"]

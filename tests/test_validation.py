@@ -1,0 +1,48 @@
+"""The model beside published values (tests/validation_cases.py), and the page that shows them."""
+
+import importlib.util
+from pathlib import Path
+
+import pytest
+
+from validation_cases import CHECKS, matches
+
+ROOT = Path(__file__).resolve().parents[1]
+
+
+@pytest.mark.parametrize("check", CHECKS, ids=[c.id for c in CHECKS])
+def test_model_matches_published_value(check):
+    value, expected = check.model_value(), check.published_value()
+    # Source: named by each check (check.source), shown beside it on docs/validation.md.
+    assert matches(check, value, expected), (check.quantity, value, expected, check.source)
+
+
+def test_check_ids_are_unique_and_each_names_its_source_and_section():
+    ids = [c.id for c in CHECKS]
+    assert len(ids) == len(set(ids))
+    methods = (ROOT / "docs" / "methods.md").read_text(encoding="utf-8")
+    for c in CHECKS:
+        assert c.source.strip() and c.quantity.strip(), c.id
+        assert isinstance(c.published_value(), tuple) or c.rel is not None or c.abs is not None, c.id
+        assert "{#" + c.methods + "}" in methods, (c.id, c.methods)
+
+
+def test_a_wrong_model_value_fails_its_check():
+    # The comparison can fail: a value outside the tolerance is refused.
+    check = next(c for c in CHECKS if c.id == "brody-vo2-70kg")
+    assert matches(check, 242.4, 242.0) and not matches(check, 243.0, 242.0)
+    bands = next(c for c in CHECKS if c.id == "flow-bands-baker")
+    assert not matches(bands, ("low",) * 6, bands.published_value())
+
+
+def _page_module():
+    spec = importlib.util.spec_from_file_location("validation_page", ROOT / "scripts" / "validation_page.py")
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    return module
+
+
+def test_validation_page_is_current():
+    page = _page_module().render()
+    current = (ROOT / "docs" / "validation.md").read_text(encoding="utf-8")
+    assert current == page, "docs/validation.md is stale: run `python scripts/validation_page.py`"
