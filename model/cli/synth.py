@@ -185,7 +185,8 @@ DEMO_PURCHASE_FACTORS = {"sevoflurane": 1.08, "desflurane": 1.05, "isoflurane": 
 #: Invented size of the demo's N2O cylinders. [L of gas at room conditions]
 DEMO_N2O_CYLINDER_L = 9000.0
 #: Invented: the leaking N2O manifold and pipework were mended at the end of June 2026; from
-#: July purchases exceed recorded use only by cylinders returned part-full.
+#: July purchases exceed recorded use only by what is left in cylinders returned. In 2026 the
+#: new, metered manifold is supplied by mass (kg), so the monthly figures are not whole cylinders.
 DEMO_N2O_FIXED_FROM = "2026-07"
 DEMO_N2O_FACTOR_FIXED = 1.15
 #: Invented sites of the demo hospital's theatres (the site file written with the demo).
@@ -253,7 +254,7 @@ def write_demo(out_dir, rows: int = 120_000, seed: int = 2025) -> list[Path]:
     # The second year, with its change of practice (own seed; the first year is untouched).
     df26 = generate(rows, seed + 1001, year=2026, agent_mix=AGENT_MIX_2026, low_flow_share=LOW_FLOW_2026)
     path26 = write(df26, out / "fernhollow_2026.parquet")
-    purchases26 = write_purchases(_demo_purchases(audit_records([path26]).use_by_month()),
+    purchases26 = write_purchases(_demo_purchases(audit_records([path26]).use_by_month(), n2o_by_mass=True),
                                   out / "fernhollow_purchases_2026.csv")
     sites = out / "fernhollow_sites.csv"
     with open(sites, "w", encoding="utf-8", newline="") as fh:
@@ -263,8 +264,9 @@ def write_demo(out_dir, rows: int = 120_000, seed: int = 2025) -> list[Path]:
     return [main_path, birch, purchases, path26, purchases26, sites]
 
 
-def _demo_purchases(use: pd.DataFrame) -> list[tuple]:
-    """Purchase lines of the demo: recorded use times invented factors, in whole bottles/cylinders."""
+def _demo_purchases(use: pd.DataFrame, n2o_by_mass: bool = False) -> list[tuple]:
+    """Purchase lines of the demo: recorded use times invented factors, in whole bottles and
+    cylinders (N2O in kg when ``n2o_by_mass``)."""
     rows_out = []
     for r in use.itertuples(index=False):
         f = DEMO_PURCHASE_FACTORS.get(r.item)
@@ -277,6 +279,12 @@ def _demo_purchases(use: pd.DataFrame) -> list[tuple]:
 
             bottle = DEFAULT_REFERENCE.agents[r.item].bottle_volume
             rows_out.append((r.month, r.item, int(math.ceil(r.recorded * f / bottle)), "bottle", ""))
+        elif r.item == "nitrous_oxide" and n2o_by_mass:
+            from model.emissions import gas_mass_g
+            from model.reference import DEFAULT_REFERENCE
+
+            kg = float(gas_mass_g(r.recorded * f, DEFAULT_REFERENCE.agents["nitrous_oxide"].molar_mass)) / 1000.0
+            rows_out.append((r.month, r.item, f"{kg:.2f}", "kg", ""))
         elif r.item == "nitrous_oxide":
             rows_out.append((r.month, r.item, int(math.ceil(r.recorded * f / DEMO_N2O_CYLINDER_L)),
                              "cylinder", f"{DEMO_N2O_CYLINDER_L:g} L"))

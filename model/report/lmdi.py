@@ -32,7 +32,7 @@ FACTORS = ("activity", "agent mix", "intensity", "N2O use", "GWP source")
 #: Ways to handle a term that is zero in one period (Ang & Liu 2007).
 ZERO_HANDLING = ("analytical", "small_value")
 #: The small positive number of the "small value" strategy (Ang & Liu 2007 suggest 1e-10 to
-#: 1e-20 and show the result converges to the analytical limits as it shrinks).
+#: 1e-20; the result converges to the analytical limits as it shrinks, slowly).
 SMALL_VALUE = 1e-20
 
 
@@ -101,12 +101,16 @@ def lmdi_additive(v0, v1, x0, x1) -> np.ndarray:
     x1 = np.asarray(x1, dtype=float)
     out = np.zeros(x0.shape)
     w = logmean(v1, v0)
-    pos = (v0 > 0) & (v1 > 0)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        out[:, pos] = w[pos] * np.log(x1[:, pos] / x0[:, pos])
+    ok0 = np.all((x0 > 0) & np.isfinite(x0), axis=0)
+    ok1 = np.all((x1 > 0) & np.isfinite(x1), axis=0)
+    pos = (v0 > 0) & (v1 > 0) & ok0 & ok1
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        # ln x1 - ln x0 rather than ln(x1 / x0): the ratio of two tiny factors can overflow.
+        out[:, pos] = w[pos] * (np.log(x1[:, pos]) - np.log(x0[:, pos]))
     for i in np.flatnonzero(~pos & ((v0 > 0) | (v1 > 0))):
-        zero_side = x0[:, i] if v0[i] == 0 else x1[:, i]
-        hits = np.flatnonzero((zero_side == 0) | ~np.isfinite(zero_side))
+        bad = lambda x: (x == 0) | ~np.isfinite(x)  # noqa: E731
+        zero_side = x0[:, i] if v0[i] == 0 else x1[:, i] if v1[i] == 0 else None
+        hits = np.flatnonzero(bad(zero_side)) if zero_side is not None else np.flatnonzero(bad(x0[:, i]) | bad(x1[:, i]))
         k = int(hits[0]) if len(hits) else 0
         out[k, i] = v1[i] - v0[i]
     return out
@@ -206,7 +210,8 @@ class Decomposition:
         return float(self.by_factor.set_index("factor").loc[factor, "contribution_kg"])
 
 
-def decompose(baseline: PeriodMix, period: PeriodMix, zero_handling: str = "analytical") -> Decomposition:
+def decompose(baseline: PeriodMix, period: PeriodMix, zero_handling: str = "analytical",
+              small_value: float = SMALL_VALUE) -> Decomposition:
     """Split the change in CO2e from ``baseline`` to ``period`` into its factors (additive LMDI-I).
 
     Parameters
@@ -214,8 +219,12 @@ def decompose(baseline: PeriodMix, period: PeriodMix, zero_handling: str = "anal
     baseline, period : PeriodMix
     zero_handling : {"analytical", "small_value"}
         "analytical": the limits of Ang and Liu 2007 (default); "small_value": every zero in
-        the data replaced by ``SMALL_VALUE`` first (Ang and Liu 2007's other strategy, which
-        converges to the same figures).
+        the data (hours, kg) replaced by ``small_value`` first, Ang and Liu 2007's other
+        strategy. It converges to the analytical limits, but only as 1 / ln(1 / small_value):
+        with 1e-20 an agent dropped entirely still leaves a few per cent of its change on
+        the intensity factor, which is why the analytical limits are the default.
+    small_value : float
+        The small positive number of the "small value" strategy.
 
     Returns
     -------
@@ -231,7 +240,7 @@ def decompose(baseline: PeriodMix, period: PeriodMix, zero_handling: str = "anal
         raise ValueError(f"zero_handling must be one of {ZERO_HANDLING}, got {zero_handling!r}")
     agents = sorted(set(baseline.agent_kg) | set(period.agent_kg) | set(baseline.agent_hours)
                     | set(period.agent_hours))
-    small = SMALL_VALUE if zero_handling == "small_value" else None
+    small = float(small_value) if zero_handling == "small_value" else None
     v0, x0 = _factors(baseline, agents, small)
     v1, x1 = _factors(period, agents, small)
     if small is not None:
