@@ -22,7 +22,7 @@ from model.report.lmdi import FACTORS
 from ui.common import sources_table
 from ui.report_charts import (band_figure, by_agent_figure, monthly_figure, target_figure, use_purchase_figure,
                               waterfall_figure)
-from ui.report_views import period_input, target_input
+from ui.report_views import period_input, shown, target_input
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "demo_data" / "records"
@@ -211,8 +211,7 @@ with tabs[0]:
         fig = waterfall_figure(br.co2e_t, parts, pr.co2e_t, br.period.text, pr.period.text)
         st.plotly_chart(fig, width="stretch", key="er_waterfall")
         figs.append(("What drove the change", fig))
-        for factor, sentence in report.sentences():
-            st.markdown(f"- **{ui.md(factor)}**: {ui.md(sentence.split(': ', 1)[1])}")
+        st.markdown("\n".join(f"- {ui.md(sentence)}" for _, sentence in report.sentences()))
         st.dataframe(report.decomposition_table(), hide_index=True, width="stretch",
                      column_config={"t_co2e": st.column_config.NumberColumn("t CO2e", format="%+.2f")})
         st.caption("Additive LMDI-I (Ang 2005): the parts add exactly to the total change. An agent used in one "
@@ -221,16 +220,16 @@ with tabs[1]:
     fig = by_agent_figure(pr.by_agent)
     st.plotly_chart(fig, width="stretch", key="er_agents")
     figs.append(("Emissions by agent", fig))
-    st.dataframe(report.figures_table(), hide_index=True, width="stretch")
-    st.dataframe(pr.by_agent, hide_index=True, width="stretch",
+    st.dataframe(shown(report.figures_table()), hide_index=True, width="stretch")
+    st.dataframe(shown(pr.by_agent), hide_index=True, width="stretch",
                  column_config={"share": st.column_config.NumberColumn(format="percent")})
 with tabs[2]:
     fig = monthly_figure(pr.by_month, br.by_month if br is not None else None, pr.period.text,
                          br.period.text if br is not None else "")
     st.plotly_chart(fig, width="stretch", key="er_months")
     figs.append(("Emissions by month", fig))
-    st.dataframe(pr.by_month, hide_index=True, width="stretch")
-    st.dataframe(pr.by_site, hide_index=True, width="stretch")
+    st.dataframe(shown(pr.by_month), hide_index=True, width="stretch")
+    st.dataframe(shown(pr.by_site), hide_index=True, width="stretch")
 with tabs[3]:
     fig = band_figure(pr.figures["band_share"], br.figures["band_share"] if br is not None else None,
                       pr.period.text, br.period.text if br is not None else "")
@@ -243,7 +242,7 @@ with tabs[4]:
         fig = use_purchase_figure(pr.use_vs_purchase)
         st.plotly_chart(fig, width="stretch", key="er_purchases")
         figs.append(("Use-based and purchase-based", fig))
-        st.dataframe(pr.use_vs_purchase, hide_index=True, width="stretch",
+        st.dataframe(shown(pr.use_vs_purchase), hide_index=True, width="stretch",
                      column_config={"gap_share": st.column_config.NumberColumn(format="percent")})
         st.caption("Gap = purchased - used: stock held over, wastage, use not recorded and, for piped N2O, "
                    "losses from manifolds and pipework.")

@@ -26,8 +26,9 @@ def waterfall_figure(baseline_t: float, parts_t: dict, period_t: float, baseline
                             totals=dict(marker=dict(color=_TOTAL)), connector=dict(line=dict(color="#9aa8b0")),
                             hovertemplate="%{x}: %{text}<extra></extra>"))
     fig.update_yaxes(title_text="t CO2e", rangemode="tozero")
-    fig.update_layout(showlegend=False)
-    return _style(fig, "What drove the change (additive LMDI-I)", 380)
+    fig = _style(fig, "What drove the change (additive LMDI-I)", 380)
+    fig.update_layout(showlegend=False, margin=dict(t=50), height=410)
+    return fig
 
 
 def by_agent_figure(by_agent: pd.DataFrame) -> go.Figure:
@@ -89,7 +90,7 @@ def target_figure(years: np.ndarray, path_t: np.ndarray, points: list[tuple[floa
                                  marker=dict(size=12, color=PALETTE[[5, 0][min(i, 1)]]),
                                  hovertemplate=chart_text(label) + ": %{y:,.1f} t a year<extra></extra>"))
     fig.update_yaxes(title_text="t CO2e a year", rangemode="tozero")
-    fig.update_xaxes(title_text="year")
+    fig.update_xaxes(title_text="year (points at the middle of each period)", dtick=1, tickformat="d")
     return _style(fig, "Against the target path", 320)
 
 

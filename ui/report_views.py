@@ -53,3 +53,17 @@ def target_input(key: str, default_year: int) -> str | None:
         y = c[2].number_input("By the year", 1990, 2200, default_year + 4, key=f"{key}_by")
         return f"{t:g} t by {int(y)}"
     return None
+
+
+def shown(df):
+    """A table for the screen: shares in per cent (figures table), other numbers to two decimals."""
+    import pandas as pd
+
+    out = df.copy()
+    if "unit" in out.columns:
+        share = out["unit"] == "share"
+        for col in out.columns[2:]:
+            out[col] = pd.to_numeric(out[col], errors="coerce").astype(float)
+            out.loc[share, col] = out.loc[share, col] * 100.0
+        out.loc[share, "unit"] = "%"
+    return out.round(2)

@@ -430,9 +430,9 @@ def driver_sentences(d: Decomposition, base: dict, now: dict, base_src: str, now
 
     moved = [a for a in sorted(agents, key=lambda a: -abs(inten.get(a, 0.0)))[:2] if abs(inten.get(a, 0.0)) > 0]
     bits = "; ".join(f"{a} from {gph(base, a):,.1f} to {gph(now, a):,.1f} g of agent per hour" for a in moved)
-    out.append(("intensity", "Intensity within each agent (fresh gas flow and dial practice"
-                             f"; time-weighted fresh gas flow {base['fgf_l_min']:.2f} to {now['fgf_l_min']:.2f} L/min)"
-                             + (f": {bits}" if bits else "") + f". This {t(d.contribution('intensity'))}."))
+    out.append(("intensity", f"Intensity within each agent (fresh gas flow and dial practice): time-weighted fresh "
+                             f"gas flow went from {base['fgf_l_min']:.2f} to {now['fgf_l_min']:.2f} L/min"
+                             + (f"; {bits}" if bits else "") + f". This {t(d.contribution('intensity'))}."))
     n0 = base["n2o_kg"] / h0 * 1000 if h0 > 0 else float("nan")
     n1 = now["n2o_kg"] / h1 * 1000 if h1 > 0 else float("nan")
     out.append(("N2O use", f"N2O use: {n0:,.0f} to {n1:,.0f} g of nitrous oxide per anaesthetic hour; this "
