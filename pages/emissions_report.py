@@ -77,7 +77,7 @@ def _digest(items) -> str:
 
 @st.cache_data(show_spinner="Auditing the records...", max_entries=4)
 def audited(digest: str, ref_key: str, temperature_c: float, _files, _ref):
-    """The audit's case table and reading summary (files written to a private temporary folder)."""
+    """The audit's case table, reading summary and absorbent note (files in a private temporary folder)."""
     with tempfile.TemporaryDirectory(prefix="gas-ledger-report-") as tmp:
         paths = []
         for i, (name, data) in enumerate(_files):
@@ -87,8 +87,8 @@ def audited(digest: str, ref_key: str, temperature_c: float, _files, _ref):
         try:
             result = audit_records(paths, reference=_ref, temperature_c=temperature_c)
         except InputError as err:
-            return None, str(err).replace(tmp + "/", "")
-    return result.cases, result.report.summary()
+            return None, str(err).replace(tmp + "/", ""), ""
+    return result.cases, result.report.summary(), result.absorbent_note()
 
 
 @st.cache_data(show_spinner=False, max_entries=8)
@@ -109,7 +109,7 @@ def purchases_table(digest: str, ref_key: str, _files, _ref):
     return (pd.concat(tables, ignore_index=True) if tables else None), notes
 
 
-cases, summary = audited(_digest(files), ui.reference_key(view), float(view.temperature_c), tuple(files), ref)
+cases, summary, absorbent_note = audited(_digest(files), ui.reference_key(view), float(view.temperature_c), tuple(files), ref)
 if cases is None:
     ui.show_input_error(InputError("records", "the files", summary))
     st.stop()
@@ -164,7 +164,7 @@ except InputError as err:
 try:
     report = build_report(cases, period, baseline, reference=ref, gwp_source=view.gwp_source,
                           baseline_gwp_source=baseline_gwp, purchases=purchases, sites=sites,
-                          chosen_sites=tuple(chosen_sites), target=target)
+                          chosen_sites=tuple(chosen_sites), target=target, absorbent_note=absorbent_note)
 except InputError as err:
     ui.show_input_error(err)
     st.stop()

@@ -236,9 +236,11 @@ def test_use_based_figures_equal_the_record_audit_for_the_same_rows(gwp):
     assert f["co2e_n2o_t"][gwp] * 1000 == pytest.approx(expected["co2e_nitrous_oxide_kg"], rel=1e-12)
     assert f["hours"] * 60 == pytest.approx(expected["minutes"], rel=1e-12)
     assert f["cases"] == expected["cases"]
-    assert f["cost"] == pytest.approx(expected["cost_total"], rel=1e-12)
+    assert f["cost"] == pytest.approx(expected["cost_total"] + expected["cost_absorbent"], rel=1e-12)
+    assert f["absorbent_kg"] * 1000 == pytest.approx(expected["absorbent_g"], rel=1e-12)
     gas = expected["oxygen_l"] + expected["air_l"] + expected["nitrous_oxide_l"]
     assert f["fgf_l_min"] == pytest.approx(gas / expected["minutes"], rel=1e-12)
+    assert f["fgf_l_min"] == pytest.approx(expected["time_weighted_fgf_l_min"], rel=1e-12)
     assert sum(f["band_share"].values()) == pytest.approx(1.0)
 
 

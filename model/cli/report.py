@@ -68,7 +68,7 @@ def cmd_report(args) -> int:
         purchases = pd.concat([r.table for r in read], ignore_index=True)
     report = build_report(result.cases, period, baseline, reference=reference, gwp_source=gwp,
                           baseline_gwp_source=args.baseline_gwp, purchases=purchases, sites=sites,
-                          chosen_sites=tuple(args.site), target=target)
+                          chosen_sites=tuple(args.site), target=target, absorbent_note=result.absorbent_note())
     report.cautions.append(CAUTION)
     if purchase_notes:
         report.cautions.append(f"{len(purchase_notes)} purchase line(s) set aside (see gas-ledger audit --purchases); "

@@ -15,7 +15,7 @@ import numpy as np
 import pandas as pd
 
 from model.audit.reconcile import purchase_emissions
-from model.audit.result import BAND_COLUMNS
+from model.audit.result import BAND_COLUMNS, time_weighted_fgf
 from model.errors import InputError
 from model.freshgas import FLOW_BAND_NAMES
 from model.reference import DEFAULT_GWP, DEFAULT_REFERENCE, Reference, STANDARD_PRESSURE_KPA
@@ -123,7 +123,8 @@ def use_figures(cases: pd.DataFrame, reference: Reference, gwp_sources) -> dict:
         ``cases`` (distinct case ids), ``hours`` [h], ``co2e_t`` {source: t CO2e},
         ``co2e_agent_t``, ``co2e_n2o_t`` {source: t}, ``kg_per_case``, ``kg_per_hour``
         (chosen source) [kg CO2e], ``n2o_l_per_case`` [L], ``n2o_kg_co2e_per_case``,
-        ``fgf_l_min`` (time-weighted fresh gas flow: total gas / counted minutes) [L/min],
+        ``fgf_l_min`` (time-weighted fresh gas flow, the audit's
+        :func:`model.audit.result.time_weighted_fgf` of the summed cases) [L/min],
         ``band_share`` {band: share of counted minutes}, ``cost``, ``absorbent_kg`` (None
         when the audit gives none), ``agent_kg`` / ``agent_hours`` by agent, ``n2o_kg``.
     """
@@ -142,7 +143,7 @@ def use_figures(cases: pd.DataFrame, reference: Reference, gwp_sources) -> dict:
     chosen = gwp_sources[0]
     band_min = {name: float(cases[col].sum()) for name, col in zip(FLOW_BAND_NAMES, BAND_COLUMNS)}
     band_total = sum(band_min.values())
-    gas_l = float(cases[["oxygen_l", "air_l", "nitrous_oxide_l"]].sum().sum())
+    sums = cases[["oxygen_l", "air_l", "nitrous_oxide_l", "minutes"]].sum().to_frame().T
     absorbent = float(cases["absorbent_g"].sum()) / 1000.0 if "absorbent_g" in cases.columns else None
 
     def per(x, n):
@@ -153,7 +154,7 @@ def use_figures(cases: pd.DataFrame, reference: Reference, gwp_sources) -> dict:
         "kg_per_case": per(co2e[chosen] * 1000.0, n_cases), "kg_per_hour": per(co2e[chosen] * 1000.0, hours),
         "n2o_l_per_case": per(float(cases["nitrous_oxide_l"].sum()), n_cases),
         "n2o_kg_co2e_per_case": per(co2e_n2o[chosen] * 1000.0, n_cases),
-        "fgf_l_min": per(gas_l, minutes),
+        "fgf_l_min": float(time_weighted_fgf(sums)[0]),
         "band_share": {b: per(m, band_total) for b, m in band_min.items()},
         "cost": float(cases["cost_total"].sum()) + (float(cases["cost_absorbent"].sum())
                                                     if "cost_absorbent" in cases.columns else 0.0),

@@ -81,6 +81,8 @@ class EmissionsReport:
     chosen_sites: tuple = ()
     problems: list[InputError] = field(default_factory=list)
     cautions: list[str] = field(default_factory=list)
+    #: What the audit's absorbent figures are (``AuditResult.absorbent_note()``), for the method.
+    absorbent_note: str = ""
 
     @property
     def gwp_label(self) -> str:
@@ -195,6 +197,8 @@ class EmissionsReport:
                      "N2O use (kg N2O per anaesthetic hour) and GWP source. The parts add exactly to the total change. "
                      "An agent used in one period only is handled by the analytical limits of Ang B.W. and Liu N. "
                      "(Energy Policy 2007;35:238-46): its whole change goes to the agent mix.")
+        if self.absorbent_note and self.period.figures["absorbent_kg"] is not None:
+            lines.append("CO2 absorbent (in the cost, not in CO2e): " + self.absorbent_note)
         lines.append("Targets compare annual rates (a period's total x 12 / its length in months); a yearly "
                      "reduction is compounded from the baseline's midpoint, a tonnage by a year is a straight "
                      "path from the baseline to that year's middle.")
@@ -316,7 +320,7 @@ def build_report(cases: pd.DataFrame, period: Period, baseline: Period | None = 
                  reference: Reference = DEFAULT_REFERENCE, gwp_source: str = DEFAULT_GWP,
                  baseline_gwp_source: str | None = None, purchases: pd.DataFrame | None = None,
                  sites: dict | None = None, chosen_sites=(), target: Target | None = None,
-                 title: str = "Anaesthetic emissions report") -> EmissionsReport:
+                 title: str = "Anaesthetic emissions report", absorbent_note: str = "") -> EmissionsReport:
     """The emissions report of ``period`` against ``baseline`` and ``target``.
 
     Parameters
@@ -336,6 +340,8 @@ def build_report(cases: pd.DataFrame, period: Period, baseline: Period | None = 
     chosen_sites : sequence of str
         Sites reported (default all).
     target : Target, optional
+    absorbent_note : str
+        What the audit's absorbent figures assume (:meth:`model.audit.result.AuditResult.absorbent_note`).
 
     Returns
     -------
@@ -361,7 +367,7 @@ def build_report(cases: pd.DataFrame, period: Period, baseline: Period | None = 
             sites, chosen_sites = None, ()
     pr = period_report(cases, period, reference, gwp_source, sites, chosen_sites, purchases, "period")
     rep = EmissionsReport(title, reference, pr, sites=sites, chosen_sites=tuple(chosen_sites or ()),
-                          problems=problems, cautions=cautions)
+                          problems=problems, cautions=cautions, absorbent_note=absorbent_note)
     if sites is not None and (pr.cases["site"] == UNASSIGNED).any():
         left = sorted(set(pr.cases.loc[pr.cases["site"] == UNASSIGNED, "theatre"]))
         cautions.append(f"Theatres the site file does not name are reported as '{UNASSIGNED}': " + ", ".join(left) + ".")
