@@ -23,10 +23,19 @@ from model.io.uploads import check_upload
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "demo_data" / "records"
-DEMO_RECORDS = {"A year of all theatres (Parquet)": DEMO / "fernhollow_2025.parquet",
+DEMO_RECORDS = {"2025, all theatres (Parquet)": DEMO / "fernhollow_2025.parquet",
+                "2026, all theatres, after a change of practice (Parquet)": DEMO / "fernhollow_2026.parquet",
                 "About 30 Birch cases, other layout, with deliberate problems (CSV)":
                     DEMO / "fernhollow_birch_cases.csv"}
-DEMO_PURCHASES = DEMO / "fernhollow_purchases_2025.csv"
+DEMO_PURCHASES = [DEMO / "fernhollow_purchases_2025.csv", DEMO / "fernhollow_purchases_2026.csv"]
+
+
+def _demo_purchases() -> tuple[str, bytes]:
+    """The demo's two purchases files as one (the second's header and comments left out)."""
+    first, *rest = (p.read_text(encoding="utf-8") for p in DEMO_PURCHASES)
+    lines = [line for text in rest for line in text.splitlines(keepends=True)
+             if line.strip() and not line.startswith("#") and not line.lower().startswith("month,")]
+    return "fernhollow_purchases_2025-2026.csv", (first + "".join(lines)).encode("utf-8")
 
 view = ui.page_start("Record audit", "What case records say was used and emitted, case by case, by "
                      "theatre and month, and how that compares with what was bought.")
@@ -44,7 +53,7 @@ if source.startswith("Demo"):
     chosen = st.multiselect("Demo files", list(DEMO_RECORDS), default=list(DEMO_RECORDS), key="ra_demo")
     files = [(DEMO_RECORDS[c].name, DEMO_RECORDS[c].read_bytes()) for c in chosen]
     if st.checkbox("Reconcile with the demo purchases", value=True, key="ra_demo_purchases"):
-        purchases_file = (DEMO_PURCHASES.name, DEMO_PURCHASES.read_bytes())
+        purchases_file = _demo_purchases()
 else:
     uploads = st.file_uploader("Record files (.csv or .parquet; format in the README, 'Case records')",
                                type=["csv", "parquet"], accept_multiple_files=True, key="ra_upload")
