@@ -123,6 +123,15 @@ def click_button(pg, text: str) -> None:
     pg.locator('button[data-testid^="stBaseButton"]').filter(has_text=re.compile(re.escape(text) + "$")).first.click()
 
 
+def download_html_report(pg, folder: Path) -> tuple[Path, str]:
+    """Click the page's "HTML report" download; the saved file and its text."""
+    with pg.expect_download() as dl:
+        click_button(pg, "HTML report")
+    path = folder / "report.html"
+    dl.value.save_as(path)
+    return path, path.read_text(encoding="utf-8")
+
+
 def open_app(pg, url: str) -> None:
     pg.goto(url)
     pg.get_by_text("What this case uses").wait_for()
@@ -216,11 +225,7 @@ def test_emissions_report_html_carries_the_headline_figure(page, app_url, tmp_pa
     wait_idle(page)
     figure = metric_text(page, "Use-based, IPCC AR6 GWP100")          # e.g. "23.7 t CO2e"
     assert figure.endswith("t CO2e")
-    with page.expect_download() as dl:
-        click_button(page, "HTML report")
-    path = tmp_path / "report.html"
-    dl.value.save_as(path)
-    doc = path.read_text(encoding="utf-8")
+    path, doc = download_html_report(page, tmp_path)
     headline = doc.split("id='headline'>", 1)[1].split("</p>", 1)[0]
     assert f": {figure} (IPCC AR6 GWP100" in headline and "down" in headline
     assert "Method statement" in doc and "Ang B.W." in doc and "Estimates support planning" in doc
@@ -249,11 +254,7 @@ def test_hostile_plan_name_is_shown_as_text_and_escaped_in_the_report(page, app_
     assert page.locator("main img[src='x']").count() == 0
     assert page.locator("a[href^='javascript']").count() == 0
     assert page.evaluate("() => window.__pwned === undefined")
-    with page.expect_download() as dl:
-        click_button(page, "HTML report")
-    path = tmp_path / "report.html"
-    dl.value.save_as(path)
-    doc = path.read_text(encoding="utf-8")
+    path, doc = download_html_report(page, tmp_path)
     assert "&lt;img src=x" in doc and "<img src=x" not in doc
     # Open the report itself: the name is text, nothing runs, nothing is fetched.
     requests = []

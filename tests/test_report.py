@@ -387,3 +387,20 @@ def test_cli_report_bad_input_exits_2_with_one_line(capsys):
     code, out, err = _cli([YEARS[1], "--period", "2026", "--baseline", "2019"], capsys)
     assert code == 2 and err.count("\n") == 1 and "baseline: got '2019'" in err
     assert "Scope 1 anaesthetic emissions, calendar year 2026" in out
+
+
+def test_report_documents_escape_user_text_and_neutralise_formula_cells(demo, tmp_path):
+    import openpyxl
+
+    from model.report.document import report_html, report_xlsx
+
+    hostile = {"Alder": "<b>Main</b>", "Birch": "=HYPERLINK(\"x\")"}
+    r = build_report(demo.cases, parse_period("2026Q1"), parse_period("2025Q1"), sites=hostile)
+    doc = report_html(r)
+    assert "&lt;b&gt;Main&lt;/b&gt;" in doc and "<b>Main</b>" not in doc
+    assert doc.index("id='headline'") < doc.index("<h2>Figures</h2>") < doc.index("<h2>Method statement</h2>")
+    path = tmp_path / "r.xlsx"
+    path.write_bytes(report_xlsx(r))
+    ws = openpyxl.load_workbook(path)["By site"]
+    # OWASP "CSV injection" advice (common practice): a formula from a user file stays text.
+    assert "'=HYPERLINK(\"x\")" in [c.value for c in ws["A"]]

@@ -56,14 +56,5 @@ def target_input(key: str, default_year: int) -> str | None:
 
 
 def shown(df):
-    """A table for the screen: shares in per cent (figures table), other numbers to two decimals."""
-    import pandas as pd
-
-    out = df.copy()
-    if "unit" in out.columns:
-        share = out["unit"] == "share"
-        for col in out.columns[2:]:
-            out[col] = pd.to_numeric(out[col], errors="coerce").astype(float)
-            out.loc[share, col] = out.loc[share, col] * 100.0
-        out.loc[share, "unit"] = "%"
-    return out.round(2)
+    """A table for the screen: numbers to two decimals."""
+    return df.round(2)

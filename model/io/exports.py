@@ -174,7 +174,7 @@ def html_report(title: str, *, inputs: Mapping[str, object] | None = None,
                 warnings: Sequence[str] = (), cautions: Sequence[str] = (),
                 sources: pd.DataFrame | None = None, generated_by: str = "Fresh Gas Ledger",
                 headline: str = "", summary: Sequence[str] = (),
-                sections: Mapping[str, Sequence[str]] | None = None) -> str:
+                sections: Mapping[str, Sequence[str]] | None = None, figures_first: bool = False) -> str:
     """A self-contained HTML report: inputs, tables, charts, warnings, cautions, sources.
 
     Parameters
@@ -195,6 +195,8 @@ def html_report(title: str, *, inputs: Mapping[str, object] | None = None,
         A headline shown in a box under the title, and paragraphs under it (escaped).
     sections : mapping of str to sequence of str, optional
         Text sections (heading: paragraphs) after the charts, e.g. a method statement.
+    figures_first : bool
+        Charts before the tables (after the inputs) rather than after them.
 
     Returns
     -------
@@ -218,17 +220,20 @@ def html_report(title: str, *, inputs: Mapping[str, object] | None = None,
     if inputs:
         parts.append("<h2>Inputs</h2>")
         parts.append(_table_html(pd.DataFrame({"input": list(inputs), "value": [str(v) for v in inputs.values()]})))
+    table_parts = []
     for heading, df in (tables or {}).items():
-        parts.append(f"<h2>{e(str(heading))}</h2>")
-        parts.append(_table_html(df))
+        table_parts.append(f"<h2>{e(str(heading))}</h2>")
+        table_parts.append(_table_html(df))
+    figure_parts = []
     first = True
     for heading, fig in figures:
         if fig is None:
             continue
-        parts.append(f"<h2>{e(str(heading))}</h2>")
-        parts.append(fig.to_html(full_html=False, include_plotlyjs=True if first else False,
-                                 config={"displaylogo": False, "responsive": True}))
+        figure_parts.append(f"<h2>{e(str(heading))}</h2>")
+        figure_parts.append(fig.to_html(full_html=False, include_plotlyjs=True if first else False,
+                                        config={"displaylogo": False, "responsive": True}))
         first = False
+    parts.extend(figure_parts + table_parts if figures_first else table_parts + figure_parts)
     for heading, paragraphs in (sections or {}).items():
         parts.append(f"<h2>{e(str(heading))}</h2>")
         parts.append("<ul>" + "".join(f"<li>{e(str(p))}</li>" for p in paragraphs) + "</ul>")

@@ -48,7 +48,7 @@ def report_html(report: EmissionsReport, figures: Iterable[tuple[str, object]] =
     return html_report(report.title, inputs=report_inputs(report), tables=report.tables(), figures=figures,
                        warnings=warnings, cautions=list(dict.fromkeys([*cautions, *report.cautions])),
                        sources=sources, headline=report.headline(), summary=summary,
-                       sections={"Method statement": report.method_statement()})
+                       sections={"Method statement": report.method_statement()}, figures_first=True)
 
 
 def report_xlsx(report: EmissionsReport, cautions: Iterable[str] = ()) -> bytes:

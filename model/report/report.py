@@ -147,7 +147,7 @@ class EmissionsReport:
         add("N2O CO2e per case", "kg CO2e", lambda pr: pr.figures["n2o_kg_co2e_per_case"])
         add("Time-weighted fresh gas flow", "L/min", lambda pr: pr.figures["fgf_l_min"])
         for band in self.period.figures["band_share"]:
-            add(f"Share of anaesthetic time at {band} flow", "share", lambda pr, b=band: pr.figures["band_share"][b])
+            add(f"Share of anaesthetic time at {band} flow", "%", lambda pr, b=band: 100.0 * pr.figures["band_share"][b])
         add("CO2 absorbent", "kg", lambda pr: pr.figures["absorbent_kg"])
         add("Cost (agents and gases" + (", absorbent)" if self.period.figures["absorbent_kg"] is not None else ")"),
             self.reference.prices.currency, lambda pr: pr.figures["cost"])
