@@ -164,7 +164,9 @@ except InputError as err:
 try:
     report = build_report(cases, period, baseline, reference=ref, gwp_source=view.gwp_source,
                           baseline_gwp_source=baseline_gwp, purchases=purchases, sites=sites,
-                          chosen_sites=tuple(chosen_sites), target=target, absorbent_note=absorbent_note)
+                          chosen_sites=tuple(chosen_sites), target=target, absorbent_note=absorbent_note,
+                          fields={"period": "Reporting period", "baseline": "Baseline period", "target": "Target",
+                                  "site": "Sites reported"})
 except InputError as err:
     ui.show_input_error(err)
     st.stop()

@@ -40,7 +40,7 @@ def test_a_later_baseline_year_changes_the_comparison_and_an_unknown_year_is_one
     at.number_input(key="er_baseline_year").set_value(2019).run()
     assert not at.exception
     errors = [e.value.replace("\\", "") for e in at.error]       # shown through ui.md (escaped)
-    assert len(errors) == 1 and "baseline: got '2019'" in errors[0] and "2025-01-01" in errors[0]
+    assert len(errors) == 1 and "Baseline period: got '2019'" in errors[0] and "2025-01-01" in errors[0]
     # Nothing computed is lost: the period's figures stay.
     assert _metric(at, "Use-based, IPCC AR6 GWP100") == f"{expected.period.co2e_t:,.1f} t CO2e"
 

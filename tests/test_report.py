@@ -385,7 +385,7 @@ def test_cli_report_bad_input_exits_2_with_one_line(capsys):
     assert code == 2 and err.count("\n") == 1 and "--period" in err and "FY2026-04" in err
     # A baseline outside the records: the period's report is printed, then one line.
     code, out, err = _cli([YEARS[1], "--period", "2026", "--baseline", "2019"], capsys)
-    assert code == 2 and err.count("\n") == 1 and "baseline: got '2019'" in err
+    assert code == 2 and err.count("\n") == 1 and "--baseline: got '2019'" in err
     assert "Scope 1 anaesthetic emissions, calendar year 2026" in out
 
 

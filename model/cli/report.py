@@ -53,9 +53,9 @@ def cmd_report(args) -> int:
     baseline = parse_period(args.baseline, "--baseline") if args.baseline else None
     target = parse_target(args.target, "--target") if args.target else None
     gwp = args.gwp or DEFAULT_GWP
-    reference.gwp_source(gwp)
-    if args.baseline_gwp:
-        reference.gwp_source(args.baseline_gwp)
+    for flag, key in (("--gwp", gwp), ("--baseline-gwp", args.baseline_gwp)):
+        if key is not None and key not in reference.gwp_sources:
+            raise InputError(flag, key, "allowed sources are " + ", ".join(reference.gwp_sources))
     sites = read_sites(args.sites) if args.sites else None
     for flag, path in (("--xlsx", args.xlsx), ("--html", args.html)):
         if path and not Path(path).parent.is_dir():
@@ -68,7 +68,9 @@ def cmd_report(args) -> int:
         purchases = pd.concat([r.table for r in read], ignore_index=True)
     report = build_report(result.cases, period, baseline, reference=reference, gwp_source=gwp,
                           baseline_gwp_source=args.baseline_gwp, purchases=purchases, sites=sites,
-                          chosen_sites=tuple(args.site), target=target, absorbent_note=result.absorbent_note())
+                          chosen_sites=tuple(args.site), target=target, absorbent_note=result.absorbent_note(),
+                          fields={"period": "--period", "baseline": "--baseline", "target": "--target",
+                                  "site": "--site"})
     report.cautions.append(CAUTION)
     if purchase_notes:
         report.cautions.append(f"{len(purchase_notes)} purchase line(s) set aside (see gas-ledger audit --purchases); "

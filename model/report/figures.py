@@ -75,7 +75,7 @@ def assign_sites(theatres, sites: dict[str, str] | None, where: str = "site file
 
 
 def cases_in(cases: pd.DataFrame, period: Period, sites: dict[str, str] | None = None,
-             chosen_sites=None, where: str = "period") -> pd.DataFrame:
+             chosen_sites=None, where: str = "period", site_field: str = "site") -> pd.DataFrame:
     """The audit's cases that start inside ``period``, with a ``site`` column, restricted to ``chosen_sites``.
 
     Raises
@@ -91,7 +91,7 @@ def cases_in(cases: pd.DataFrame, period: Period, sites: dict[str, str] | None =
     if chosen_sites:
         unknown = sorted(set(chosen_sites) - set(c["site"]))
         if unknown:
-            raise InputError("site", ", ".join(unknown), "allowed sites are " + ", ".join(sorted(set(c["site"]))))
+            raise InputError(site_field, ", ".join(unknown), "allowed sites are " + ", ".join(sorted(set(c["site"]))))
         c = c[c["site"].isin(list(chosen_sites))]
     inside = c[period.contains(c["start"])]
     if not len(inside):

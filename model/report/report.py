@@ -303,10 +303,10 @@ def _name(term: str) -> str:
 
 def period_report(cases: pd.DataFrame, period: Period, reference: Reference, gwp_source: str,
                   sites=None, chosen_sites=None, purchases: pd.DataFrame | None = None,
-                  where: str = "period") -> PeriodReport:
+                  where: str = "period", site_field: str = "site") -> PeriodReport:
     """Figures of one period (see :class:`PeriodReport`). Raises InputError when no case starts in it."""
     sources = gwp_sources_shown(gwp_source, reference)
-    c = cases_in(cases, period, sites, chosen_sites, where)
+    c = cases_in(cases, period, sites, chosen_sites, where, site_field)
     f = use_figures(c, reference, sources)
     pr = PeriodReport(period, gwp_source, sources, c, f, by_agent_table(c, reference, sources),
                       grouped_table(c, "month", reference, gwp_source), grouped_table(c, "site", reference, gwp_source))
@@ -320,7 +320,8 @@ def build_report(cases: pd.DataFrame, period: Period, baseline: Period | None = 
                  reference: Reference = DEFAULT_REFERENCE, gwp_source: str = DEFAULT_GWP,
                  baseline_gwp_source: str | None = None, purchases: pd.DataFrame | None = None,
                  sites: dict | None = None, chosen_sites=(), target: Target | None = None,
-                 title: str = "Anaesthetic emissions report", absorbent_note: str = "") -> EmissionsReport:
+                 title: str = "Anaesthetic emissions report", absorbent_note: str = "",
+                 fields: dict | None = None) -> EmissionsReport:
     """The emissions report of ``period`` against ``baseline`` and ``target``.
 
     Parameters
@@ -342,6 +343,9 @@ def build_report(cases: pd.DataFrame, period: Period, baseline: Period | None = 
     target : Target, optional
     absorbent_note : str
         What the audit's absorbent figures assume (:meth:`model.audit.result.AuditResult.absorbent_note`).
+    fields : dict, optional
+        Names of the inputs in messages, by "period", "baseline", "target" and "site" (e.g.
+        the command line's "--period"); default those words.
 
     Returns
     -------
@@ -354,6 +358,7 @@ def build_report(cases: pd.DataFrame, period: Period, baseline: Period | None = 
     InputError
         When no case starts in the period, or ``chosen_sites`` names an unknown site.
     """
+    name = {"period": "period", "baseline": "baseline", "target": "target", "site": "site", **(fields or {})}
     problems: list[InputError] = []
     cautions: list[str] = []
     if sites is not None:
@@ -365,7 +370,8 @@ def build_report(cases: pd.DataFrame, period: Period, baseline: Period | None = 
             problems.append(err)
             cautions.append("The site file could not be used (see 'not worked out'); each theatre is shown as its own site.")
             sites, chosen_sites = None, ()
-    pr = period_report(cases, period, reference, gwp_source, sites, chosen_sites, purchases, "period")
+    pr = period_report(cases, period, reference, gwp_source, sites, chosen_sites, purchases, name["period"],
+                       name["site"])
     rep = EmissionsReport(title, reference, pr, sites=sites, chosen_sites=tuple(chosen_sites or ()),
                           problems=problems, cautions=cautions, absorbent_note=absorbent_note)
     if sites is not None and (pr.cases["site"] == UNASSIGNED).any():
@@ -380,7 +386,8 @@ def build_report(cases: pd.DataFrame, period: Period, baseline: Period | None = 
     if baseline is not None:
         bsrc = baseline_gwp_source or gwp_source
         try:
-            rep.baseline = period_report(cases, baseline, reference, bsrc, sites, chosen_sites, purchases, "baseline")
+            rep.baseline = period_report(cases, baseline, reference, bsrc, sites, chosen_sites, purchases,
+                                         name["baseline"], name["site"])
         except InputError as err:
             problems.append(err)
         if rep.baseline is not None:
@@ -396,11 +403,11 @@ def build_report(cases: pd.DataFrame, period: Period, baseline: Period | None = 
             if target is not None:
                 try:
                     rep.target = target_status(target, baseline, rep.baseline.co2e_t * 1000.0, period,
-                                               pr.co2e_t * 1000.0)
+                                               pr.co2e_t * 1000.0, name["target"])
                 except InputError as err:
                     problems.append(err)
     elif target is not None:
-        problems.append(InputError("target", target.text, "a target needs a baseline period to start from"))
+        problems.append(InputError(name["target"], target.text, "a target needs a baseline period to start from"))
     if pr.figures["absorbent_kg"] is None:
         cautions.append("CO2 absorbent is not in these audit results; the cost covers agents and gases only.")
     return rep

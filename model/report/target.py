@@ -82,7 +82,8 @@ def annual_rate_t(total_kg: float, period: Period) -> float:
     return float(total_kg) / 1000.0 * 12.0 / period.months
 
 
-def target_path_t(target: Target, baseline: Period, baseline_t_per_year: float, at_years) -> np.ndarray:
+def target_path_t(target: Target, baseline: Period, baseline_t_per_year: float, at_years,
+                  where: str = "target") -> np.ndarray:
     """The target path: annual emissions the target allows at decimal years ``at_years``. [t CO2e/year]
 
     Parameters
@@ -108,7 +109,7 @@ def target_path_t(target: Target, baseline: Period, baseline_t_per_year: float, 
         return b * (1.0 + target.rate) ** (t - t0)
     t_end = target.year + 0.5
     if t_end <= t0:
-        raise InputError("target", target.text, f"the target year must come after the baseline ({baseline.label})")
+        raise InputError(where, target.text, f"the target year must come after the baseline ({baseline.label})")
     frac = np.clip((t - t0) / (t_end - t0), 0.0, 1.0)
     return b + (target.tonnes - b) * frac
 
@@ -139,8 +140,8 @@ class TargetStatus:
 
 
 def target_status(target: Target, baseline: Period, baseline_kg: float, period: Period,
-                  period_kg: float) -> TargetStatus:
+                  period_kg: float, where: str = "target") -> TargetStatus:
     """Compare a period with the target path (annual rates, at the period's midpoint)."""
     b = annual_rate_t(baseline_kg, baseline)
-    allowed = float(target_path_t(target, baseline, b, period.midpoint_years))
+    allowed = float(target_path_t(target, baseline, b, period.midpoint_years, where))
     return TargetStatus(target, allowed, annual_rate_t(period_kg, period))
