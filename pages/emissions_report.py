@@ -3,10 +3,10 @@
 from __future__ import annotations
 
 import hashlib
+from dataclasses import replace
 import tempfile
 from pathlib import Path
 
-import numpy as np
 import pandas as pd
 import streamlit as st
 
@@ -16,12 +16,10 @@ from model.audit.engine import audit_records
 from model.io.purchases import load_purchases
 from model.io.sites import parse_sites
 from model.io.uploads import check_upload
-from model.report import build_report, parse_period, parse_target, target_path_t
+from model.report import build_report, parse_period, parse_target
 from model.report.document import report_html
-from model.report.lmdi import FACTORS
 from ui.common import sources_table
-from ui.report_charts import (band_figure, by_agent_figure, monthly_figure, target_figure, use_purchase_figure,
-                              waterfall_figure)
+from ui.report_charts import report_figures
 from ui.report_views import period_input, shown, target_input
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -161,19 +159,32 @@ try:
     target = parse_target(target_text, "Target") if target_text and baseline is not None else None
 except InputError as err:
     problems.append(err)
+
+
+@st.cache_resource(show_spinner=False, max_entries=16)
+def cached_report(key: str, _cases, _period, _baseline, _ref, _gwp, _baseline_gwp, _purchases, _sites, _chosen,
+                  _target, _absorbent_note):
+    """``build_report`` keyed by text naming every input (the result is never changed after)."""
+    return build_report(_cases, _period, _baseline, reference=_ref, gwp_source=_gwp,
+                        baseline_gwp_source=_baseline_gwp, purchases=_purchases, sites=_sites,
+                        chosen_sites=_chosen, target=_target, absorbent_note=_absorbent_note,
+                        fields={"period": "Reporting period", "baseline": "Baseline period", "target": "Target",
+                                "site": "Sites reported"})
+
+
+report_key = "|".join(map(str, (_digest(files), _digest(purchase_files), sites_file and _digest([sites_file]),
+                                ui.reference_key(view), view.temperature_c, period.text, baseline and baseline.text,
+                                target and target.text, view.gwp_source, baseline_gwp, sorted(chosen_sites))))
 try:
-    report = build_report(cases, period, baseline, reference=ref, gwp_source=view.gwp_source,
-                          baseline_gwp_source=baseline_gwp, purchases=purchases, sites=sites,
-                          chosen_sites=tuple(chosen_sites), target=target, absorbent_note=absorbent_note,
-                          fields={"period": "Reporting period", "baseline": "Baseline period", "target": "Target",
-                                  "site": "Sites reported"})
+    report = cached_report(report_key, cases, period, baseline, ref, view.gwp_source, baseline_gwp, purchases, sites,
+                           tuple(chosen_sites), target, absorbent_note)
 except InputError as err:
     ui.show_input_error(err)
     st.stop()
-report.problems[:0] = problems
-if purchase_notes:
-    report.cautions.append(f"{len(purchase_notes)} purchase line(s) set aside; the others are used: "
-                           + "; ".join(purchase_notes[:5]) + (" ..." if len(purchase_notes) > 5 else ""))
+extra = ([f"{len(purchase_notes)} purchase line(s) set aside; the others are used: "
+          + "; ".join(purchase_notes[:5]) + (" ..." if len(purchase_notes) > 5 else "")] if purchase_notes else [])
+# A copy with this run's messages: the cached report itself is never changed.
+report = replace(report, problems=problems + report.problems, cautions=report.cautions + extra)
 
 # ---- headline ---------------------------------------------------------------------------
 pr, br, d = report.period, report.baseline, report.decomposition
@@ -202,48 +213,49 @@ if report.target is not None:
     (st.success if report.target.on_track else st.warning)(ui.md(report.target.sentence()))
 
 # ---- figures ----------------------------------------------------------------------------
-figs: list = []
+
+
+@st.cache_resource(show_spinner=False, max_entries=16)
+def cached_figures(key: str, _report) -> dict:
+    """The report's charts, built once per set of inputs (cached figures are never changed)."""
+    return report_figures(_report)
+
+
+charts = cached_figures(report_key, report)
+
+
+def _chart(heading: str, key: str) -> None:
+    st.plotly_chart(charts[heading], width="stretch", key=key)
+
+
 tabs = st.tabs(["What drove the change", "Figures", "By month and site", "Flow bands", "Use and purchases",
                 "Target path", "Method and cautions"])
 with tabs[0]:
     if d is None:
         st.caption("Choose a baseline period with cases in the records to see what drove the change.")
     else:
-        parts = {f: d.contribution(f) / 1000.0 for f in FACTORS}
-        fig = waterfall_figure(br.co2e_t, parts, pr.co2e_t, br.period.text, pr.period.text)
-        st.plotly_chart(fig, width="stretch", key="er_waterfall")
-        figs.append(("What drove the change", fig))
+        _chart("What drove the change", "er_waterfall")
         st.markdown("\n".join(f"- {ui.md(sentence)}" for _, sentence in report.sentences()))
         st.dataframe(report.decomposition_table(), hide_index=True, width="stretch",
                      column_config={"t_co2e": st.column_config.NumberColumn("t CO2e", format="%+.2f")})
         st.caption("Additive LMDI-I (Ang 2005): the parts add exactly to the total change. An agent used in one "
                    "period only: analytical limits of Ang and Liu 2007 (its whole change is agent mix).")
 with tabs[1]:
-    fig = by_agent_figure(pr.by_agent)
-    st.plotly_chart(fig, width="stretch", key="er_agents")
-    figs.append(("Emissions by agent", fig))
+    _chart("Emissions by agent", "er_agents")
     st.dataframe(shown(report.figures_table()), hide_index=True, width="stretch")
     st.dataframe(shown(pr.by_agent), hide_index=True, width="stretch",
                  column_config={"share": st.column_config.NumberColumn(format="percent")})
 with tabs[2]:
-    fig = monthly_figure(pr.by_month, br.by_month if br is not None else None, pr.period.text,
-                         br.period.text if br is not None else "")
-    st.plotly_chart(fig, width="stretch", key="er_months")
-    figs.append(("Emissions by month", fig))
+    _chart("Emissions by month", "er_months")
     st.dataframe(shown(pr.by_month), hide_index=True, width="stretch")
     st.dataframe(shown(pr.by_site), hide_index=True, width="stretch")
 with tabs[3]:
-    fig = band_figure(pr.figures["band_share"], br.figures["band_share"] if br is not None else None,
-                      pr.period.text, br.period.text if br is not None else "")
-    st.plotly_chart(fig, width="stretch", key="er_bands")
-    figs.append(("Time in each flow band", fig))
+    _chart("Time in each flow band", "er_bands")
 with tabs[4]:
     if pr.use_vs_purchase is None:
         st.caption("Add purchases files to set purchase-based figures beside the use-based ones.")
     else:
-        fig = use_purchase_figure(pr.use_vs_purchase)
-        st.plotly_chart(fig, width="stretch", key="er_purchases")
-        figs.append(("Use-based and purchase-based", fig))
+        _chart("Use-based and purchase-based", "er_purchases")
         st.dataframe(shown(pr.use_vs_purchase), hide_index=True, width="stretch",
                      column_config={"gap_share": st.column_config.NumberColumn(format="percent")})
         st.caption("Gap = purchased - used: stock held over, wastage, use not recorded and, for piped N2O, "
@@ -252,16 +264,7 @@ with tabs[5]:
     if report.target is None:
         st.caption("Choose a baseline and a target to see the target path.")
     else:
-        t0 = br.period.midpoint_years
-        t1 = max(pr.period.midpoint_years, report.target.target.year + 0.5 if report.target.target.kind == "level"
-                 else pr.period.midpoint_years + 2)
-        years = np.linspace(t0, t1, 60)
-        path = target_path_t(report.target.target, br.period, br.annual_t, years)
-        fig = target_figure(years, path, [(t0, br.annual_t, f"baseline {br.period.text}"),
-                                          (pr.period.midpoint_years, pr.annual_t, f"period {pr.period.text}")],
-                            report.target.target.label)
-        st.plotly_chart(fig, width="stretch", key="er_target_fig")
-        figs.append(("Against the target path", fig))
+        _chart("Against the target path", "er_target_fig")
 with tabs[6]:
     st.markdown("**Method statement**")
     st.markdown("\n".join(f"- {ui.md(line)}" for line in report.method_statement()))
@@ -270,7 +273,7 @@ with tabs[6]:
 
 
 def _html() -> str:
-    return report_html(report, figs, cautions=[ui.CAUTION], sources=sources_table(ui.reference_key(view), ref))
+    return report_html(report, list(charts.items()), cautions=[ui.CAUTION], sources=sources_table(ui.reference_key(view), ref))
 
 
 ui.downloads(f"emissions report {pr.period.text}", report.tables(), _html, key="er_dl",

@@ -106,5 +106,32 @@ def use_purchase_figure(table: pd.DataFrame) -> go.Figure:
     return _style(fig, "Use-based and purchase-based, by item", 320)
 
 
-__all__ = ["FACTORS", "band_figure", "by_agent_figure", "monthly_figure", "target_figure", "use_purchase_figure",
-           "waterfall_figure"]
+
+
+def report_figures(report) -> dict:
+    """Every chart of an :class:`model.report.EmissionsReport`, by heading (those that apply)."""
+    from model.report import target_path_t
+
+    pr, br, d = report.period, report.baseline, report.decomposition
+    out = {}
+    if d is not None:
+        out["What drove the change"] = waterfall_figure(
+            br.co2e_t, {f: d.contribution(f) / 1000.0 for f in FACTORS}, pr.co2e_t, br.period.text, pr.period.text)
+    out["Emissions by agent"] = by_agent_figure(pr.by_agent)
+    out["Emissions by month"] = monthly_figure(pr.by_month, br.by_month if br is not None else None, pr.period.text,
+                                               br.period.text if br is not None else "")
+    out["Time in each flow band"] = band_figure(pr.figures["band_share"],
+                                                br.figures["band_share"] if br is not None else None,
+                                                pr.period.text, br.period.text if br is not None else "")
+    if pr.use_vs_purchase is not None:
+        out["Use-based and purchase-based"] = use_purchase_figure(pr.use_vs_purchase)
+    if report.target is not None:
+        t = report.target.target
+        t0 = br.period.midpoint_years
+        t1 = max(pr.period.midpoint_years, t.year + 0.5 if t.kind == "level" else pr.period.midpoint_years + 2)
+        years = np.linspace(t0, t1, 60)
+        out["Against the target path"] = target_figure(
+            years, target_path_t(t, br.period, br.annual_t, years),
+            [(t0, br.annual_t, f"baseline {br.period.text}"),
+             (pr.period.midpoint_years, pr.annual_t, f"period {pr.period.text}")], t.label)
+    return out

@@ -18,7 +18,7 @@ from model.audit.reconcile import purchase_emissions
 from model.audit.result import BAND_COLUMNS, time_weighted_fgf
 from model.errors import InputError
 from model.freshgas import FLOW_BAND_NAMES
-from model.reference import DEFAULT_GWP, DEFAULT_REFERENCE, Reference, STANDARD_PRESSURE_KPA
+from model.reference import DEFAULT_REFERENCE, Reference, STANDARD_PRESSURE_KPA
 from model.report.lmdi import PeriodMix
 from model.report.periods import Period, month_shares
 
