@@ -60,10 +60,7 @@ class Period:
     @property
     def months(self) -> float:
         """Length in months: whole months counted exactly, a partial month by its share of days. [month]"""
-        total = 0.0
-        for m, share in month_shares(self).items():
-            total += share
-        return total
+        return float(sum(month_shares(self).values()))
 
     @property
     def midpoint_years(self) -> float:

@@ -15,7 +15,7 @@ import pandas as pd
 
 from model.errors import InputError
 from model.reference import DEFAULT_GWP, DEFAULT_REFERENCE, Reference
-from model.report.figures import (PurchaseFigures, UNASSIGNED, by_agent_table, cases_in, grouped_table,
+from model.report.figures import (PurchaseFigures, UNASSIGNED, assign_sites, by_agent_table, cases_in, grouped_table,
                                   gwp_sources_shown, period_mix, purchase_figures, use_against_purchases,
                                   use_figures)
 from model.report.lmdi import FACTORS, Decomposition, decompose
@@ -363,8 +363,6 @@ def build_report(cases: pd.DataFrame, period: Period, baseline: Period | None = 
     cautions: list[str] = []
     if sites is not None:
         try:
-            from model.report.figures import assign_sites
-
             assign_sites(cases["theatre"], sites)
         except InputError as err:
             problems.append(err)
