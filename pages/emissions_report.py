@@ -127,7 +127,11 @@ st.caption(f"{summary['rows_valid']:,} rows used from {len(files)} file(s), {sum
            "(the Record audit page lists them). Cases from "
            + (f"{starts.min():%Y-%m-%d} to {starts.max():%Y-%m-%d}." if len(starts) else "no dated case."))
 
+# The headline and key figures are drawn here, above the choices that make them, so that on a
+# laptop screen they are seen first.
+head = st.container()
 with st.container(border=True):
+    st.markdown("**Period, baseline and target**")
     period_text = period_input("Reporting period", "er_period", last_year)
     use_baseline = st.checkbox("Compare with a baseline period", value=True, key="er_use_baseline")
     baseline_text = period_input("Baseline period", "er_baseline", last_year - 1) if use_baseline else None
@@ -188,29 +192,32 @@ report = replace(report, problems=problems + report.problems, cautions=report.ca
 
 # ---- headline ---------------------------------------------------------------------------
 pr, br, d = report.period, report.baseline, report.decomposition
-st.markdown(f"#### {ui.md(report.headline())}")
-for p in report.problems:
-    ui.show_input_error(p, "Not worked out")
-m = st.columns(4) + st.columns(4)
-delta = None if br is None else f"{pr.co2e_t - br.co2e_t:+,.1f} t on the baseline"
-m[0].metric(f"Use-based, {report.gwp_label}", f"{pr.co2e_t:,.1f} t CO2e", delta, delta_color="inverse")
-ar5 = pr.figures["co2e_t"].get("ar5_gwp100")
-if ar5 is not None and pr.gwp_source != "ar5_gwp100":
-    m[1].metric("Use-based, IPCC AR5 GWP100", f"{ar5:,.1f} t CO2e")
-else:
-    m[1].metric("Use-based, IPCC AR6 GWP100", f"{pr.figures['co2e_t']['ar6_gwp100']:,.1f} t CO2e")
-if pr.purchases is not None:
-    m[2].metric(f"Purchase-based, {report.gwp_label}",
-                f"{pr.purchases.co2e_t(f't CO2e ({report.gwp_label})'):,.1f} t CO2e")
-else:
-    m[2].metric("Purchase-based", "no purchases")
-m[3].metric("Cases / anaesthetic hours", f"{pr.figures['cases']:,} / {pr.figures['hours']:,.0f} h")
-m[4].metric("CO2e per case", f"{pr.figures['kg_per_case']:,.1f} kg")
-m[5].metric("CO2e per anaesthetic hour", f"{pr.figures['kg_per_hour']:,.1f} kg")
-m[6].metric("Time-weighted fresh gas flow", view.flow(pr.figures["fgf_l_min"]))
-m[7].metric("N2O per case", f"{pr.figures['n2o_l_per_case']:,.0f} L")
-if report.target is not None:
-    (st.success if report.target.on_track else st.warning)(ui.md(report.target.sentence()))
+with head:
+    st.markdown(f"#### {ui.md(report.headline())}")
+    for p in report.problems:
+        ui.show_input_error(p, "Not worked out")
+    m = st.columns(4) + st.columns(5)
+    delta = None if br is None else f"{pr.co2e_t - br.co2e_t:+,.1f} t on the baseline"
+    m[0].metric(f"Use-based, {report.gwp_label}", f"{pr.co2e_t:,.1f} t CO2e", delta, delta_color="inverse")
+    ar5 = pr.figures["co2e_t"].get("ar5_gwp100")
+    if ar5 is not None and pr.gwp_source != "ar5_gwp100":
+        m[1].metric("Use-based, IPCC AR5 GWP100", f"{ar5:,.1f} t CO2e")
+    else:
+        m[1].metric("Use-based, IPCC AR6 GWP100", f"{pr.figures['co2e_t']['ar6_gwp100']:,.1f} t CO2e")
+    if pr.purchases is not None:
+        m[2].metric("Purchase-based", f"{pr.purchases.co2e_t(f't CO2e ({report.gwp_label})'):,.1f} t CO2e",
+                    help=f"Everything bought in the period's months, {report.gwp_label}")
+    else:
+        m[2].metric("Purchase-based", "no purchases")
+    m[3].metric("Fresh gas flow", view.flow(pr.figures["fgf_l_min"]), help="time-weighted over the anaesthetic time")
+    m[4].metric("Cases", f"{pr.figures['cases']:,}")
+    m[5].metric("Anaesthetic hours", f"{pr.figures['hours']:,.0f} h")
+    m[6].metric("CO2e per case", f"{pr.figures['kg_per_case']:,.1f} kg")
+    m[7].metric("CO2e per hour", f"{pr.figures['kg_per_hour']:,.1f} kg", help="per anaesthetic hour")
+    m[8].metric("N2O per case", f"{pr.figures['n2o_l_per_case']:,.0f} L")
+    if report.target is not None:
+        (st.success if report.target.on_track else st.warning)(ui.md(report.target.sentence()))
+
 
 # ---- figures ----------------------------------------------------------------------------
 

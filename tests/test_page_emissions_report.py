@@ -31,7 +31,8 @@ def test_demo_report_renders_with_headline_change_and_target(expected):
     assert any("calendar year 2026" in m.value and "down" in m.value for m in at.markdown)
     assert len(at.success) == 1 and "on track" in at.success[0].value
     assert len(at.get("plotly_chart")) >= 5
-    assert "Purchase-based, IPCC AR6 GWP100" in [m.label for m in at.metric]
+    assert "Purchase-based" in [m.label for m in at.metric]
+    assert _metric(at, "Cases") == f"{expected.period.figures['cases']:,}"
     assert not at.error
 
 

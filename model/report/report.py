@@ -415,6 +415,8 @@ def driver_sentences(d: Decomposition, base: dict, now: dict, base_src: str, now
                      reference: Reference) -> list[tuple[str, str]]:
     """A plain sentence for each part of the change (t CO2e, with the figures behind it)."""
     def t(kg):
+        if abs(kg) < 50.0:
+            return "changes it by less than 0.1 t CO2e"
         return f"{'adds' if kg >= 0 else 'removes'} {abs(kg) / 1000:,.1f} t CO2e"
 
     def pct(a, b):
