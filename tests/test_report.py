@@ -286,6 +286,7 @@ def test_demo_second_year_shows_the_change_of_practice(demo, demo_purchases):
     share = lambda rep: rep.period.use_vs_purchase.set_index("item").loc["nitrous_oxide", "gap_share"]  # noqa: E731
     assert gap > 0 and share(second_half) < share(first_half) / 2     # pipework mended from July
     assert r.target.on_track
+    assert f1["absorbent_kg"] > 0 and "CO2 absorbent" in set(r.figures_table()["figure"])
     assert "down" in r.headline() and "t CO2e" in r.headline()
     assert [f for f, _ in r.sentences()] == list(FACTORS)
 
@@ -387,6 +388,14 @@ def test_cli_report_bad_input_exits_2_with_one_line(capsys):
     code, out, err = _cli([YEARS[1], "--period", "2026", "--baseline", "2019"], capsys)
     assert code == 2 and err.count("\n") == 1 and "--baseline: got '2019'" in err
     assert "Scope 1 anaesthetic emissions, calendar year 2026" in out
+
+
+def test_cli_report_site_file_naming_an_unknown_theatre_is_one_line_after_the_report(tmp_path, capsys):
+    sites = tmp_path / "sites.csv"
+    sites.write_text("# misspelt\ntheatre,site\nAlder,Main\nAldre,Main\n", encoding="utf-8")
+    code, out, err = _cli([YEARS[1], "--period", "2026Q1", "--sites", sites], capsys)
+    assert code == 2 and err.count("\n") == 1 and "Aldre" in err and "Birch" in err
+    assert "calendar year" not in err and "2026 quarter 1" in out
 
 
 def test_report_documents_escape_user_text_and_neutralise_formula_cells(demo, tmp_path):
