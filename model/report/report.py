@@ -303,9 +303,10 @@ def _name(term: str) -> str:
 
 def period_report(cases: pd.DataFrame, period: Period, reference: Reference, gwp_source: str,
                   sites=None, chosen_sites=None, purchases: pd.DataFrame | None = None,
-                  where: str = "period", site_field: str = "site") -> PeriodReport:
-    """Figures of one period (see :class:`PeriodReport`). Raises InputError when no case starts in it."""
-    sources = gwp_sources_shown(gwp_source, reference)
+                  where: str = "period", site_field: str = "site", also=()) -> PeriodReport:
+    """Figures of one period (see :class:`PeriodReport`), under ``gwp_source`` first, AR5 and AR6 GWP100
+    and the sources ``also``. Raises InputError when no case starts in it."""
+    sources = tuple(dict.fromkeys((*gwp_sources_shown(gwp_source, reference), *also)))
     c = cases_in(cases, period, sites, chosen_sites, where, site_field)
     f = use_figures(c, reference, sources)
     pr = PeriodReport(period, gwp_source, sources, c, f, by_agent_table(c, reference, sources),
@@ -385,10 +386,14 @@ def build_report(cases: pd.DataFrame, period: Period, baseline: Period | None = 
         bsrc = baseline_gwp_source or gwp_source
         try:
             rep.baseline = period_report(cases, baseline, reference, bsrc, sites, chosen_sites, purchases,
-                                         name["baseline"], name["site"])
+                                         name["baseline"], name["site"], also=pr.gwp_sources)
         except InputError as err:
             problems.append(err)
         if rep.baseline is not None:
+            if bsrc != gwp_source:
+                cautions.append(f"The baseline is worked out under {reference.gwp_source(bsrc).label} and the period "
+                                f"under {reference.gwp_source(gwp_source).label}: the change, the headline and the "
+                                "target comparison include the change of source (its part is shown on its own).")
             if baseline.overlaps(period):
                 cautions.append(f"The baseline ({baseline.label}) overlaps the period ({period.label}): cases in "
                                 "both are counted in each.")
