@@ -65,3 +65,14 @@ def test_financial_year_and_quarter_widgets_make_our_period_syntax():
     at.number_input(key="er_period_year").set_value(2025).run()
     assert not at.exception
     assert any("financial year April 2025 to March 2026" in m.value for m in at.markdown)
+
+
+def test_upload_without_files_asks_for_records_and_no_baseline_hides_the_change():
+    at = page("emissions_report.py")
+    at.checkbox(key="er_use_baseline").uncheck().run()
+    assert not at.exception
+    assert any("Choose a baseline period" in c.value for c in at.caption)
+    assert not at.success and not at.error
+    at.radio(key="er_source").set_value("Upload files").run()
+    assert not at.exception
+    assert any("Upload record files" in i.value for i in at.info)
