@@ -25,7 +25,8 @@ sections = {
     "One case": [_page("case_plan.py", "Case plan", ":material/stethoscope:", default=True),
                  _page("compare.py", "Compare", ":material/compare_arrows:")],
     "The department": [_page("department_year.py", "Department year", ":material/calendar_month:"),
-                       _page("record_audit.py", "Record audit", ":material/fact_check:")],
+                       _page("record_audit.py", "Record audit", ":material/fact_check:"),
+                       _page("emissions_report.py", "Emissions report", ":material/summarize:")],
     "Data": [_page("reference.py", "Reference", ":material/menu_book:")],
 }
 sections = {name: [p for p in pages if p is not None] for name, pages in sections.items()}

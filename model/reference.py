@@ -288,6 +288,19 @@ class Prices:
                 "nitrous_oxide": self.nitrous_oxide_per_1000_l}[gas]
 
 
+#: Fields of the settings file's ``[absorbent]`` table: what the record audit assumes for
+#: the patient and the absorbent, since records carry neither. Field -> (unit, description,
+#: lowest, highest). A field left out takes the case plans' default (see
+#: ``model.audit.absorbent``: a 70 kg adult, VCO2 by Brody's scaling, minute ventilation
+#: from the alveolar ventilation equation at normocapnia, the plans' absorbent capacity).
+ABSORBENT_FIELDS: Mapping[str, tuple[str, str, float, float]] = MappingProxyType({
+    "weight_kg": ("kg", "patient weight for VCO2 (Brody's scaling)", 1.0, 300.0),
+    "vco2_ml_min": ("mL/min", "CO2 production", 10.0, 2000.0),
+    "minute_ventilation_l_min": ("L/min", "minute ventilation", 0.5, 40.0),
+    "capacity_l_per_kg": ("L/kg", "CO2 taken up per kg of absorbent", 10.0, 400.0),
+})
+
+
 @dataclass(frozen=True)
 class Reference:
     """Everything the model reads from reference data; overrides make a new Reference."""
@@ -297,6 +310,9 @@ class Reference:
     prices: Prices = field(default_factory=Prices)
     #: Where overrides came from (file paths or "dashboard"), for reports.
     override_origins: tuple[str, ...] = ()
+    #: User values of the record audit's absorbent estimate (``ABSORBENT_FIELDS``); a field
+    #: not here takes the case plans' default.
+    absorbent: Mapping[str, Sourced] = field(default_factory=lambda: MappingProxyType({}))
 
     def agent(self, name: str, field_name: str = "agent") -> Agent:
         """Look up an agent by name (case-insensitive; "N2O" and "nitrous oxide" accepted)."""
@@ -336,14 +352,15 @@ class Reference:
     def with_overrides(self, overrides: Mapping, origin: str) -> "Reference":
         """Return a new Reference with user overrides applied; see ``load_settings``.
 
-        ``overrides`` has optional tables ``agents.<agent>.<field>``, ``gwp.<source>.<agent>``
-        and ``prices`` (``currency``, ``bottle.<agent>``, ``oxygen_per_1000_l``, ...). Every
-        replaced value keeps its default beside it, so the reference table can show both.
+        ``overrides`` has optional tables ``agents.<agent>.<field>``, ``gwp.<source>.<agent>``,
+        ``prices`` (``currency``, ``bottle.<agent>``, ``oxygen_per_1000_l``, ...) and
+        ``absorbent`` (``ABSORBENT_FIELDS``). Every replaced value keeps its default beside
+        it, so the reference table can show both.
         """
-        allowed_top = {"agents", "gwp", "prices"}
+        allowed_top = ("agents", "gwp", "prices", "absorbent")
         for key in overrides:
             if key not in allowed_top:
-                raise InputError(f"{origin}: [{key}]", key, "allowed tables are agents, gwp, prices")
+                raise InputError(f"{origin}: [{key}]", key, "allowed tables are " + ", ".join(allowed_top))
         agents = dict(self.agents)
         for name, fields in _table(overrides.get("agents", {}), f"{origin}: [agents]").items():
             agent = self.agent(name, f"{origin}: [agents.{name}]")
@@ -398,8 +415,18 @@ class Reference:
                     allowed = [f.name for f in dataclasses.fields(Prices) if f.name != "basis"]
                     raise InputError(where, key, "allowed price fields are " + ", ".join(allowed))
             prices = replace(prices, **changes)
+        absorbent = dict(self.absorbent)
+        for fname, raw in _table(overrides.get("absorbent", {}), f"{origin}: [absorbent]").items():
+            where = f"{origin}: absorbent.{fname}"
+            if fname not in ABSORBENT_FIELDS:
+                raise InputError(where, fname, "allowed fields are " + ", ".join(ABSORBENT_FIELDS))
+            unit, _, low, high = ABSORBENT_FIELDS[fname]
+            number = _finite(raw, where)
+            if not low <= number <= high:
+                raise InputError(where, raw, f"allowed range is [{low:g}, {high:g}] {unit}")
+            absorbent[fname] = Sourced(number, unit, f"user override ({origin})", USER)
         return Reference(MappingProxyType(agents), MappingProxyType(sources), prices,
-                         self.override_origins + (origin,))
+                         self.override_origins + (origin,), MappingProxyType(absorbent))
 
     def table(self):
         """The reference table as rows of dicts: item, field, value, unit, source, basis, default.
@@ -434,6 +461,10 @@ class Reference:
         rows.append(dict(item="CO2 absorbent", field="price per kg", value=p.absorbent_per_kg,
                          unit=f"{p.currency}/kg", source=p.basis, basis=_price_basis(p),
                          **_price_default(p.absorbent_per_kg, base_prices.absorbent_per_kg)))
+        for fname, v in self.absorbent.items():
+            rows.append(dict(item="CO2 absorbent, record audit", field=ABSORBENT_FIELDS[fname][1],
+                             value=v.value, unit=v.unit, source=v.source, basis=v.basis,
+                             default=None, default_source="the case plans' default patient"))
         return rows
 
 

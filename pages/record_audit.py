@@ -12,21 +12,30 @@ import streamlit as st
 
 import ui
 from model import InputError
-from model.audit.result import DEFAULT_HIGH_FLOW_L_MIN, DEFAULT_HIGH_FLOW_LIMIT_MIN
+from model.audit.result import BAND_COLUMNS, DEFAULT_HIGH_FLOW_L_MIN, DEFAULT_HIGH_FLOW_LIMIT_MIN
 from model.audit.engine import audit_records
 from model.io.exports import html_report
 from model.freshgas import FLOW_BAND_NAMES
 from model.io.purchases import load_purchases
-from model.audit.reconcile import reconcile
+from model.audit.reconcile import cost_view, reconcile
 from model.io.record_files import DEFAULT_GAP_LIMIT_MIN
 from model.io.uploads import check_upload
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "demo_data" / "records"
-DEMO_RECORDS = {"A year of all theatres (Parquet)": DEMO / "fernhollow_2025.parquet",
+DEMO_RECORDS = {"2025, all theatres (Parquet)": DEMO / "fernhollow_2025.parquet",
+                "2026, all theatres, after a change of practice (Parquet)": DEMO / "fernhollow_2026.parquet",
                 "About 30 Birch cases, other layout, with deliberate problems (CSV)":
                     DEMO / "fernhollow_birch_cases.csv"}
-DEMO_PURCHASES = DEMO / "fernhollow_purchases_2025.csv"
+DEMO_PURCHASES = [DEMO / "fernhollow_purchases_2025.csv", DEMO / "fernhollow_purchases_2026.csv"]
+
+
+def _demo_purchases() -> tuple[str, bytes]:
+    """The demo's two purchases files as one (the second's header and comments left out)."""
+    first, *rest = (p.read_text(encoding="utf-8") for p in DEMO_PURCHASES)
+    lines = [line for text in rest for line in text.splitlines(keepends=True)
+             if line.strip() and not line.startswith("#") and not line.lower().startswith("month,")]
+    return "fernhollow_purchases_2025-2026.csv", (first + "".join(lines)).encode("utf-8")
 
 view = ui.page_start("Record audit", "What case records say was used and emitted, case by case, by "
                      "theatre and month, and how that compares with what was bought.")
@@ -44,7 +53,7 @@ if source.startswith("Demo"):
     chosen = st.multiselect("Demo files", list(DEMO_RECORDS), default=list(DEMO_RECORDS), key="ra_demo")
     files = [(DEMO_RECORDS[c].name, DEMO_RECORDS[c].read_bytes()) for c in chosen]
     if st.checkbox("Reconcile with the demo purchases", value=True, key="ra_demo_purchases"):
-        purchases_file = (DEMO_PURCHASES.name, DEMO_PURCHASES.read_bytes())
+        purchases_file = _demo_purchases()
 else:
     uploads = st.file_uploader("Record files (.csv or .parquet; format in docs/formats.md, 'Case records')",
                                type=["csv", "parquet"], accept_multiple_files=True, key="ra_upload")
@@ -79,7 +88,7 @@ if not files:
 def run_audit(files: tuple, purchases: tuple | None, settings: tuple, _ref, _progress):
     """Audit the files (written to a private temporary folder) and reconcile with purchases.
 
-    Returns (audit result, reconciliation or None, messages for purchase lines set aside).
+    Returns (audit result, reconciliation or None, messages for purchase lines set aside, cost by item).
     """
     gap, high, limit, gwp, temp = settings
     with tempfile.TemporaryDirectory(prefix="gas-ledger-audit-") as tmp:
@@ -96,7 +105,7 @@ def run_audit(files: tuple, purchases: tuple | None, settings: tuple, _ref, _pro
             p = Path(tmp) / f"{i:03d}-{Path(name).name}"
             p.write_bytes(data)
             paths.append(p)
-        recon, purchase_notes = None, []
+        recon, purchase_notes, bought_table = None, [], None
         try:
             result = audit_records(paths, reference=_ref, gwp_source=gwp, temperature_c=temp,
                                    gap_limit_min=gap, high_flow_l_min=high, high_flow_limit_min=limit,
@@ -107,6 +116,7 @@ def run_audit(files: tuple, purchases: tuple | None, settings: tuple, _ref, _pro
                 bought = load_purchases(p, _ref)
                 purchase_notes = [shown(m) for m in bought.messages]
                 recon = reconcile(bought.table, result.use_by_month(), _ref, gwp)
+                bought_table = bought.table
         except InputError as err:
             raise InputError(shown(str(err.field)), shown(err.value), shown(err.allowed)) from None
     # File names inside the temporary folder mean nothing to the user: show the uploaded names.
@@ -118,7 +128,7 @@ def run_audit(files: tuple, purchases: tuple | None, settings: tuple, _ref, _pro
                     df[col] = df[col].str.replace(inner, outer, regex=False)
         result.report.files[i] = outer
     result.report.notes = [n.replace(tmp + "/", "") for n in result.report.notes]
-    return result, recon, purchase_notes
+    return result, recon, purchase_notes, cost_view(bought_table, result, _ref)
 
 
 digest = hashlib.sha256()
@@ -146,7 +156,7 @@ if cache_key not in cache:
     bar.empty()
     while len(cache) > 3:
         cache.pop(next(iter(cache)))
-result, recon, purchase_notes = cache[cache_key]
+result, recon, purchase_notes, costs = cache[cache_key]
 
 rep = result.report
 summary = rep.summary()
@@ -160,7 +170,10 @@ m[4].metric(f"CO2e ({view.co2e_unit})", view.co2e_number(total["co2e_total_kg"])
             help=view.co2e(total["co2e_total_kg"]))
 m[5].metric("Cost", view.money(total["cost_total"]))
 st.caption(f"GWP source: {result.gwp_label}. Every delivered gram counts as emitted (no uptake model). "
-           f"{int(total['high_flow_cases']):,} case(s) ran {high_limit:g} min or more above {high_flow:g} L/min.")
+           f"{int(total['high_flow_cases']):,} case(s) ran {high_limit:g} min or more above {high_flow:g} L/min. "
+           f"Time-weighted fresh gas flow {total['time_weighted_fgf_l_min']:,.2f} L/min. "
+           f"CO2 absorbent, estimated: {total['absorbent_g'] / 1000:,.1f} kg, {view.money(total['cost_absorbent'])} "
+           f"(not in the cost above).", help="Absorbent: " + result.absorbent_note())
 
 with st.expander(f"Checks: {summary['rows_set_aside']:,} row(s) set aside, {summary['gaps']:,} gap(s)",
                  expanded=summary["rows_set_aside"] > 0 or summary["gaps"] > 0):
@@ -202,6 +215,10 @@ with tab_bands:
     figs.append(("Flow bands by theatre", fig))
     by_theatre = result.by("theatre")
     st.dataframe(by_theatre, hide_index=True, width="stretch")
+    st.caption("By theatre and month: the time-weighted fresh gas flow (each flow weighted by the minutes it "
+               "held) beside the minutes in each flow band.")
+    st.dataframe(result.by("theatre_month")[["theatre", "month", "cases", "time_weighted_fgf_l_min",
+                                             *BAND_COLUMNS]], hide_index=True, width="stretch")
 with tab_month:
     by_month = result.by("month")
     fig = px.line(by_month, x="month", y="co2e_total_kg", markers=True,
@@ -217,6 +234,9 @@ with tab_recon:
         st.warning(f"{len(purchase_notes)} purchase line(s) set aside; the others are used:\n\n"
                    + "\n".join(f"- {ui.md(m)}" for m in purchase_notes[:20])
                    + (f"\n- ... and {more} more" if more > 0 else ""), icon=":material/warning:")
+    st.dataframe(costs, hide_index=True, width="stretch")
+    st.caption(f"Cost by item over the whole period, purchases priced with the same prices. The absorbent row "
+               f"is {result.absorbent_note()}")
     if recon is None:
         st.caption("Add a purchases file (format in docs/formats.md, 'Purchases') to compare with what was bought.")
     else:
@@ -240,7 +260,8 @@ with tab_recon:
         st.caption("Months differ by stock held over; the 'all' row of each item is the fairer comparison.")
 
 tables = {"Cases": cases, "By theatre": result.by("theatre"), "By month": result.by("month"),
-          "By agent": result.by("agent"), "Set-aside rows": rep.issues, "Gaps": rep.gap_list}
+          "By agent": result.by("agent"), "By theatre and month": result.by("theatre_month"),
+          "Cost by item": costs, "Set-aside rows": rep.issues, "Gaps": rep.gap_list}
 if recon is not None:
     tables["Purchases"] = recon
 if purchase_notes:

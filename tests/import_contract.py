@@ -1,7 +1,8 @@
 """The import contract of the ``model`` package: layers that import only downwards, no cycles.
 
 Layers, lowest first (DEVELOPERS.md, "Layout"): shared base (errors, units, file reading),
-reference data, physics and accounting, file formats, the record audit, the store, the
+reference data, physics and accounting, file formats, the record audit, the emissions report
+(reads audit results), the store, the
 command line. A module may import its own layer or a lower one; the package root
 (``model/__init__.py``, the public API) sits above them all and no module imports it.
 Every import statement counts, including those inside functions.
@@ -21,6 +22,7 @@ LAYERS = (
                  "model.year")),
     ("formats", ("model.io",)),
     ("audit", ("model.audit",)),
+    ("report", ("model.report",)),
     ("store", ("model.store",)),
     ("command line", ("model.cli", "model.__main__")),
 )

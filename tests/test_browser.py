@@ -123,6 +123,15 @@ def click_button(pg, text: str) -> None:
     pg.locator('button[data-testid^="stBaseButton"]').filter(has_text=re.compile(re.escape(text) + "$")).first.click()
 
 
+def download_html_report(pg, folder: Path) -> tuple[Path, str]:
+    """Click the page's "HTML report" download; the saved file and its text."""
+    with pg.expect_download() as dl:
+        click_button(pg, "HTML report")
+    path = folder / "report.html"
+    dl.value.save_as(path)
+    return path, path.read_text(encoding="utf-8")
+
+
 def open_app(pg, url: str) -> None:
     pg.goto(url)
     pg.get_by_text("What this case uses").wait_for()
@@ -194,6 +203,7 @@ def test_invalid_entry_shows_message_not_traceback(page, app_url):
     ("Reference", "reference", "Your values"),
     ("Department year", "department_year", "Bottles bought per month"),
     ("Record audit", "record_audit", "Rows set aside"),
+    ("Emissions report", "emissions_report", "What drove the change"),
 ])
 def test_every_page_renders_and_is_captured(page, app_url, title, slug, marker):
     ARTIFACTS.mkdir(exist_ok=True)
@@ -206,6 +216,24 @@ def test_every_page_renders_and_is_captured(page, app_url, title, slug, marker):
     page.wait_for_timeout(800)          # let plotly finish drawing
     assert page.locator('[data-testid="stException"]').count() == 0
     page.screenshot(path=str(ARTIFACTS / f"page_{slug}.png"))
+
+
+def test_emissions_report_html_carries_the_headline_figure(page, app_url, tmp_path):
+    open_app(page, app_url)
+    page.get_by_role("link", name="Emissions report").first.click()
+    page.get_by_text("What drove the change").first.wait_for()
+    wait_idle(page)
+    figure = metric_text(page, "Use-based, IPCC AR6 GWP100")          # e.g. "23.7 t CO2e"
+    assert figure.endswith("t CO2e")
+    path, doc = download_html_report(page, tmp_path)
+    headline = doc.split("id='headline'>", 1)[1].split("</p>", 1)[0]
+    assert f": {figure} (IPCC AR6 GWP100" in headline and "down" in headline
+    assert "Method statement" in doc and "Ang B.W." in doc and "Estimates support planning" in doc
+    # The report opens offline: its charts are drawn from the inlined plotly (the waterfall among them).
+    page.goto(path.as_uri())
+    page.locator(".js-plotly-plot").first.wait_for()
+    assert page.locator(".js-plotly-plot").count() >= 5
+    assert page.get_by_text("What drove the change (additive LMDI-I)").count() >= 1
 
 
 HOSTILE_NAME = "<img src=x onerror=\"window.__pwned=1\">[link](javascript:window.__pwned=2)"
@@ -226,11 +254,7 @@ def test_hostile_plan_name_is_shown_as_text_and_escaped_in_the_report(page, app_
     assert page.locator("main img[src='x']").count() == 0
     assert page.locator("a[href^='javascript']").count() == 0
     assert page.evaluate("() => window.__pwned === undefined")
-    with page.expect_download() as dl:
-        click_button(page, "HTML report")
-    path = tmp_path / "report.html"
-    dl.value.save_as(path)
-    doc = path.read_text(encoding="utf-8")
+    path, doc = download_html_report(page, tmp_path)
     assert "&lt;img src=x" in doc and "<img src=x" not in doc
     # Open the report itself: the name is text, nothing runs, nothing is fetched.
     requests = []

@@ -325,9 +325,10 @@ def test_found_record_header_with_a_lone_carriage_return_is_an_input_error(scrat
     assert _only_input_error(record_files.inspect_file, _write(scratch, "cr.csv", b"\r\x01")) is None
 
 
-def test_found_record_line_with_nul_before_carriage_return_is_an_input_error(scratch):
-    data = b"case_id,elapsed,agent,o2,air,dial\n\x00\r"
-    assert _read_records(_write(scratch, "nul.csv", data)) is None
+def test_found_record_line_with_nul_before_carriage_return_is_set_aside_alone(scratch):
+    data = b"case_id,elapsed,agent,o2,air,dial\n\x00\rA,0,sevo,1,1,2\nA,1,sevo,1,1,2\n"
+    report = _read_records(_write(scratch, "nul.csv", data))
+    assert report.issues[["row", "kind"]].values.tolist() == [[2, "unreadable"]]
 
 
 def test_found_power_in_a_record_unit_is_refused_without_evaluating_it(scratch):

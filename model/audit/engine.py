@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import math
 
+from model.audit.absorbent import absorbent_assumptions
 from model.audit.cases import case_results
 from model.audit.memory import IN_MEMORY_ROWS, _numpy_engine
 from model.audit.result import AuditResult, BAND_COLUMNS, DEFAULT_HIGH_FLOW_LIMIT_MIN, DEFAULT_HIGH_FLOW_L_MIN, ENGINES
@@ -24,10 +25,11 @@ from model.io.records import read_records
 from model.reference import DEFAULT_GWP, DEFAULT_REFERENCE, Reference, STANDARD_PRESSURE_KPA
 
 
-def _case_sql(high_flow_l_min: float) -> str:
+def _case_sql(high_flow_l_min: float, minute_ventilation_l_min: float) -> str:
     bands = ", ".join(f"coalesce(sum(dt_min) FILTER (WHERE band = '{name}'), 0) AS {col}"
                       for name, col in zip(FLOW_BAND_NAMES, BAND_COLUMNS))
     hi = repr(float(high_flow_l_min))
+    ve = repr(float(minute_ventilation_l_min))
     return f"""
     WITH r AS (
       SELECT *, fgf > {hi} AS high,
@@ -50,6 +52,7 @@ def _case_sql(high_flow_l_min: float) -> str:
       sum(air * dt_min) AS air_l,
       sum(n2o * dt_min) AS nitrous_oxide_l,
       sum(fgf * dose_pct * dt_min) AS vapour_integral,
+      sum(greatest(least(1 - fgf / {ve}, 1), 0) * dt_min) AS rebreathed_min,
       {bands},
       coalesce(max(CASE WHEN high THEN t_min + dt_min - run_start END), 0) AS longest_high_flow_min
     FROM r GROUP BY case_id, agent
@@ -96,7 +99,9 @@ def audit_records(records, *, reference: Reference = DEFAULT_REFERENCE, gwp_sour
         (counted), ``gaps``, ``gap_min`` (not counted), ``oxygen_l``, ``air_l``,
         ``nitrous_oxide_l`` [L], ``liquid_agent_ml`` [mL], ``bottles``, ``agent_mass_g``,
         ``agent_emitted_g``, ``nitrous_oxide_g`` [g], ``co2e_*_kg``, ``cost_*``, minutes in
-        each flow band (``band_*_min``), ``longest_high_flow_min``, ``high_flow_flag``.
+        each flow band (``band_*_min``), ``time_weighted_fgf_l_min`` (sum FGF x dt over the
+        counted minutes) [L/min], ``longest_high_flow_min``, ``high_flow_flag``, and the
+        absorbent estimate ``co2_absorbed_l`` [L], ``absorbent_g`` [g], ``cost_absorbent``.
 
     Notes
     -----
@@ -108,6 +113,12 @@ def audit_records(records, *, reference: Reference = DEFAULT_REFERENCE, gwp_sour
     minutes on that basis are reported in ``end_tidal_basis_min``. Recorded flows are taken
     as delivered: the workstation's O2/N2O ratio limit is not applied again. Every
     delivered gram counts as emitted (no uptake model), less the capture efficiency.
+
+    CO2 absorbent is an estimate (records carry no patient): each sample sends
+    ``VCO2 x rebreathed_share(FGF, VE)`` into the absorber, the case plans' formula
+    (:func:`model.circle.rebreathed_share`), with VCO2, minute ventilation and absorbent
+    capacity from :func:`model.audit.absorbent.absorbent_assumptions` (the case plans'
+    default adult unless the settings file's ``[absorbent]`` table gives them).
 
     References
     ----------
@@ -144,10 +155,12 @@ def _audit(records, reference, gwp_source, temperature_c, pressure_kpa, capture_
     if engine == "auto":
         n_rows = records.con.sql("SELECT count(*) FROM raw").fetchall()[0][0]
         engine = "memory" if n_rows <= IN_MEMORY_ROWS else "sql"
+    absorbent = absorbent_assumptions(reference)
+    ve = absorbent.minute_ventilation_l_min
     if engine == "memory":
-        raw, counts, time_rows, gap_rows = _numpy_engine(records, high_flow_l_min)
+        raw, counts, time_rows, gap_rows = _numpy_engine(records, high_flow_l_min, ve)
     else:
-        raw = records.con.sql(_case_sql(high_flow_l_min)).df()
+        raw = records.con.sql(_case_sql(high_flow_l_min, ve)).df()
         step(0.8, "Counting set-aside rows")
         # Row checks need no window: count them from ``prepared``. The time checks set aside
         # the rest of the rows that passed them; only when there are some is the window
@@ -166,10 +179,11 @@ def _audit(records, reference, gwp_source, temperature_c, pressure_kpa, capture_
                   float(raw["gap_min"].sum()) if len(raw) else 0.0, time_rows, gap_rows)
     step(0.9, "Costs and emissions")
     cases = case_results(raw, reference, gwp_source, temperature_c, pressure_kpa, capture_efficiency,
-                         high_flow_limit_min)
+                         high_flow_limit_min, absorbent)
     step(1.0, "Done")
     settings = {"gap_limit_min": records.gap_limit_min, "high_flow_l_min": float(high_flow_l_min),
                 "high_flow_limit_min": float(high_flow_limit_min), "temperature_c": float(temperature_c),
-                "pressure_kpa": float(pressure_kpa), "capture_efficiency": float(capture_efficiency)}
+                "pressure_kpa": float(pressure_kpa), "capture_efficiency": float(capture_efficiency),
+                "absorbent_estimate": absorbent.as_dict()}
     return AuditResult(cases, records.report, reference.prices.currency, gwp_source,
                        reference.gwp_source(gwp_source).label, settings)

@@ -6,6 +6,7 @@ import numpy as np
 import pandas as pd
 
 from model.audit.result import BAND_COLUMNS
+from model.circle import rebreathed_share
 from model.freshgas import FLOW_BANDS
 from model.io.record_report import Records
 
@@ -31,7 +32,7 @@ def _float(table, name) -> np.ndarray:
     return np.asarray(_column(table, name).to_numpy(zero_copy_only=False), dtype=float)
 
 
-def _numpy_engine(recs: Records, high_flow_l_min: float):
+def _numpy_engine(recs: Records, high_flow_l_min: float, minute_ventilation_l_min: float):
     """Time checks, integration and per-case sums in numpy.
 
     Returns
@@ -192,6 +193,7 @@ def _numpy_engine(recs: Records, high_flow_l_min: float):
         "air_l": gsum(air * dt),
         "nitrous_oxide_l": gsum(n2o * dt),
         "vapour_integral": gsum(fgf * dose * dt),
+        "rebreathed_min": gsum(rebreathed_share(fgf, minute_ventilation_l_min) * dt),
         **{col: band_min[:, k] for k, col in enumerate(BAND_COLUMNS)},
         "longest_high_flow_min": longest,
     })

@@ -107,3 +107,58 @@ def reconcile(purchases: pd.DataFrame, use: pd.DataFrame, reference: Reference =
     out = out.sort_values(["item", "_total", "month"]).drop(columns="_total").reset_index(drop=True)
     return out[["item", "month", "unit", "purchased", "recorded", "unexplained", "unexplained_share",
                 "unexplained_co2e_kg", "apparent_loss"]]
+
+
+#: Item name of the absorbent estimate in :func:`cost_view` (records carry no absorbent).
+ABSORBENT_ITEM = "absorbent (estimate)"
+_GAS_COST = {"oxygen": "cost_oxygen", "air": "cost_air", "nitrous_oxide": "cost_nitrous_oxide"}
+
+
+def cost_view(purchases: pd.DataFrame | None, result, reference: Reference = DEFAULT_REFERENCE) -> pd.DataFrame:
+    """What was bought and what the records show used, in money, per item over the whole period.
+
+    Parameters
+    ----------
+    purchases : DataFrame or None
+        From :func:`model.io.purchases.read_purchases` (``item``, ``unit`` mL or L,
+        ``amount``); None when no purchases file is given.
+    result : AuditResult
+        The record audit (its per-case costs).
+    reference : Reference
+        Prices: bottles (purchased liquid is priced pro rata by the bottle volume, as the
+        audit prices recorded liquid), gases per 1000 L, absorbent per kg.
+
+    Returns
+    -------
+    DataFrame
+        ``item``, ``purchased_cost`` (empty where nothing of the item was bought),
+        ``recorded_cost``, ``unexplained_cost`` (purchased - recorded) and ``basis``. The
+        absorbent row (``ABSORBENT_ITEM``) is the record audit's estimate; it has no
+        purchase figure since the purchases file lists agents and gases only.
+    """
+    prices = reference.prices
+    c = result.cases
+    recorded = {}
+    for agent, cost in c[c["agent"] != "none"].groupby("agent")["cost_agent"].sum().items():
+        recorded[agent] = float(cost)
+    for gas, col in _GAS_COST.items():
+        recorded[gas] = float(c[col].sum())
+    bought = {}
+    if purchases is not None and len(purchases):
+        for item, amount in purchases.groupby("item")["amount"].sum().items():
+            agent = reference.agents[item]
+            if agent.kind == "volatile":
+                bought[item] = float(amount) / agent.bottle_volume * prices.bottle.get(item, 0.0)
+            else:
+                bought[item] = float(amount) / 1000.0 * prices.gas_per_1000_l(item)
+    rows = []
+    for item in sorted(set(recorded) | set(bought)):
+        if not recorded.get(item) and item not in bought:
+            continue
+        p = bought.get(item, np.nan)
+        rows.append((item, p, recorded.get(item, 0.0), "recorded flows and dial settings"))
+    rows.append((ABSORBENT_ITEM, np.nan, float(c["cost_absorbent"].sum()) if "cost_absorbent" in c else 0.0,
+                 "estimate from the recorded fresh gas flow (assumed patient)"))
+    out = pd.DataFrame(rows, columns=["item", "purchased_cost", "recorded_cost", "basis"])
+    out.insert(3, "unexplained_cost", out["purchased_cost"] - out["recorded_cost"])
+    return out

@@ -28,7 +28,10 @@ ADDITIVE = ("cases", "samples", "minutes", "gaps", "gap_min", "end_tidal_basis_m
             "air_l", "nitrous_oxide_l", "liquid_agent_ml", "bottles", "agent_mass_g",
             "agent_emitted_g", "nitrous_oxide_g", "nitrous_oxide_emitted_g", "co2e_agent_kg",
             "co2e_nitrous_oxide_kg", "co2e_total_kg", "cost_agent", "cost_oxygen", "cost_air",
-            "cost_nitrous_oxide", "cost_total", *BAND_COLUMNS, "high_flow_cases")
+            "cost_nitrous_oxide", "cost_total", *BAND_COLUMNS, "high_flow_cases",
+            "co2_absorbed_l", "absorbent_g", "cost_absorbent")
+#: Groupings of :func:`summarise` (None: the whole set); "theatre_month" groups by both.
+GROUPINGS = ("theatre", "month", "agent", "theatre_month")
 
 
 @dataclass
@@ -43,13 +46,23 @@ class AuditResult:
     settings: dict = field(default_factory=dict)
 
     def by(self, key: str) -> pd.DataFrame:
-        """Sums by ``theatre``, ``month`` or ``agent`` (see :func:`summarise`)."""
+        """Sums by ``theatre``, ``month``, ``agent`` or ``theatre_month`` (see :func:`summarise`)."""
         return summarise(self.cases, key)
 
     @property
     def total(self) -> dict:
         """Sums over the whole set."""
         return summarise(self.cases, None).iloc[0].to_dict()
+
+    def absorbent_note(self) -> str:
+        """What the absorbent figures are: an estimate, and the values it assumes."""
+        a = self.settings.get("absorbent_estimate")
+        if not a:
+            return "not estimated"
+        return (f"an estimate for an assumed patient (records carry none): VCO2 {a['vco2_ml_min']:.0f} mL/min, "
+                f"minute ventilation {a['minute_ventilation_l_min']:.1f} L/min, {a['capacity_l_per_kg']:g} L CO2 "
+                f"per kg absorbent; CO2 absorbed = VCO2 x (1 - FGF / minute ventilation) while the fresh gas "
+                f"flow is below minute ventilation. Set these in the settings file's [absorbent] table.")
 
     def bands_by_theatre(self) -> pd.DataFrame:
         """Minutes in each flow band by theatre, long form (theatre, band, minutes, share)."""
@@ -101,6 +114,7 @@ class AuditResult:
             "by_theatre": table(self.by("theatre")),
             "by_month": table(self.by("month")),
             "by_agent": table(self.by("agent")),
+            "by_theatre_month": table(self.by("theatre_month")),
             "cases_shown": min(len(self.cases), max_cases),
             "cases": table(self.cases.head(max_cases)),
         }
@@ -128,29 +142,53 @@ def summarise(cases: pd.DataFrame, by: str | None) -> pd.DataFrame:
     ----------
     cases : DataFrame
         The case table of an :class:`AuditResult`.
-    by : {"theatre", "month", "agent"} or None
-        Grouping; None gives one row for the whole set.
+    by : {"theatre", "month", "agent", "theatre_month"} or None
+        Grouping; "theatre_month" gives one row per theatre and month (the figures a
+        department tracks for low-flow practice); None gives one row for the whole set.
 
     Returns
     -------
     DataFrame
         One row per group: the additive columns (``ADDITIVE``), plus the means
-        ``liquid_agent_ml_per_case``, ``co2e_kg_per_case`` and ``mean_fgf_l_min``.
+        ``liquid_agent_ml_per_case``, ``co2e_kg_per_case`` and the time-weighted fresh gas
+        flow ``time_weighted_fgf_l_min`` (also as ``mean_fgf_l_min``, its earlier name):
+        the group's gas volume over its counted minutes [L/min].
     """
-    if by not in (None, "theatre", "month", "agent"):
-        raise ValueError(f"by must be one of ('theatre', 'month', 'agent', None), got {by!r}")
+    if by is not None and by not in GROUPINGS:
+        raise ValueError(f"by must be one of {GROUPINGS + (None,)}, got {by!r}")
     cols = [c for c in ADDITIVE if c in cases.columns]
     if by is None:
         out = cases[cols].sum().to_frame().T
         out.insert(0, "group", "all records")
     else:
-        out = cases.groupby(by, as_index=False, sort=True)[cols].sum()
+        keys = ["theatre", "month"] if by == "theatre_month" else [by]
+        out = cases.groupby(keys, as_index=False, sort=True)[cols].sum()
     with np.errstate(invalid="ignore", divide="ignore"):
         n = out["cases"].where(out["cases"] > 0)
         out["liquid_agent_ml_per_case"] = out["liquid_agent_ml"] / n
         out["co2e_kg_per_case"] = out["co2e_total_kg"] / n
-        m = out["minutes"].where(out["minutes"] > 0)
-        out["mean_fgf_l_min"] = (out["oxygen_l"] + out["air_l"] + out["nitrous_oxide_l"]) / m
+        out["time_weighted_fgf_l_min"] = time_weighted_fgf(out)
+        out["mean_fgf_l_min"] = out["time_weighted_fgf_l_min"]
     for c in ("cases", "samples", "gaps", "high_flow_cases"):
         out[c] = out[c].astype(np.int64)
     return out.reset_index(drop=True)
+
+
+def time_weighted_fgf(table: pd.DataFrame) -> np.ndarray:
+    """Time-weighted fresh gas flow of each row of a case table or its sums.
+
+    Parameters
+    ----------
+    table : DataFrame
+        With ``oxygen_l``, ``air_l``, ``nitrous_oxide_l`` [L] and ``minutes`` [min].
+
+    Returns
+    -------
+    ndarray
+        ``(O2 + air + N2O) / minutes`` [L/min], which is ``sum(FGF_i dt_i) / sum(dt_i)`` over
+        the counted samples; NaN where no minute is counted.
+    """
+    m = table["minutes"].to_numpy(dtype=float)
+    gas = (table["oxygen_l"] + table["air_l"] + table["nitrous_oxide_l"]).to_numpy(dtype=float)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return np.where(m > 0, gas / np.where(m > 0, m, 1.0), np.nan)

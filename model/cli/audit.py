@@ -34,7 +34,7 @@ def register(subparsers) -> None:
 
 
 def cmd_audit(args) -> int:
-    from model.audit.result import DEFAULT_HIGH_FLOW_LIMIT_MIN
+    from model.audit.result import BAND_COLUMNS, DEFAULT_HIGH_FLOW_LIMIT_MIN
     from model.audit.engine import audit_records
     from model.errors import InputError
     from model.io.record_files import DEFAULT_GAP_LIMIT_MIN
@@ -56,8 +56,12 @@ def cmd_audit(args) -> int:
         bought = load_purchases(args.purchases, reference)
         purchase_notes = bought.messages
         recon = reconcile(bought.table, result.use_by_month(), reference, result.gwp_source)
+    from model.audit.reconcile import cost_view
+
+    costs = cost_view(bought.table if recon is not None else None, result, reference)
     if args.json:
         data = result.to_dict()
+        data["cost_view"] = [{k: _num(v) for k, v in r.items()} for r in costs.to_dict("records")]
         if recon is not None:
             data["reconciliation"] = [{k: _num(v) for k, v in r.items()} for r in recon.to_dict("records")]
             data["purchase_lines_set_aside"] = purchase_notes
@@ -91,6 +95,9 @@ def cmd_audit(args) -> int:
             (f"CO2e ({result.gwp_label})", f"{t['co2e_total_kg']:,.1f} kg (agent {t['co2e_agent_kg']:,.1f}, "
                                            f"N2O {t['co2e_nitrous_oxide_kg']:,.1f})"),
             ("Cost", f"{t['cost_total']:,.2f} {cur}"),
+            ("CO2 absorbent (estimate)", f"{t['absorbent_g'] / 1000:,.1f} kg, {t['cost_absorbent']:,.2f} {cur} "
+                                         f"(not in the cost above)"),
+            ("Time-weighted FGF", f"{t['time_weighted_fgf_l_min']:,.2f} L/min"),
             ("Cases with long high flow", f"{int(t['high_flow_cases']):,} (run of "
                                           f"{result.settings['high_flow_limit_min']:g} min or more above "
                                           f"{result.settings['high_flow_l_min']:g} L/min)")]
@@ -102,6 +109,10 @@ def cmd_audit(args) -> int:
         print_table(result.by(key).to_dict("records"),
                     [key, "cases", "liquid_agent_ml", "co2e_total_kg", "cost_total", "mean_fgf_l_min",
                      "high_flow_cases"], out)
+    out.write("\nBy theatre and month: time-weighted fresh gas flow and minutes in each flow band (Baker 1994)\n")
+    print_table(result.by("theatre_month").to_dict("records"),
+                ["theatre", "month", "cases", "time_weighted_fgf_l_min", *BAND_COLUMNS], out)
+    out.write(f"\nCO2 absorbent: {result.absorbent_note()}\n")
     if recon is not None:
         out.write("\nPurchases against recorded use (unexplained = purchased - recorded)\n")
         if purchase_notes:
@@ -118,6 +129,8 @@ def cmd_audit(args) -> int:
             r = loss.iloc[0]
             share = "" if r["unexplained_share"] != r["unexplained_share"] else f" ({r['unexplained_share']:.0%} of purchases)"
             out.write(f"N2O apparent loss: {r['apparent_loss']:,.0f} L{share}\n")
+    out.write(f"\nCost by item, whole period ({cur}; purchases priced with the same prices)\n")
+    print_table(costs.to_dict("records"), ["item", "purchased_cost", "recorded_cost", "unexplained_cost", "basis"], out)
     out.write("\n" + DE_IDENTIFY + "\n" + CAUTION + "\n")
     return 0
 

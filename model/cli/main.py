@@ -105,10 +105,11 @@ def build_parser() -> argparse.ArgumentParser:
 def _extra_commands():
     """Sub-commands kept in modules of their own (each module has ``register``)."""
     from model.cli.audit import register as audit
+    from model.cli.report import register as report
     from model.cli.sweep import register as sweep
     from model.cli.year import register as year
 
-    return [sweep, year, audit]
+    return [sweep, year, audit, report]
 
 
 def _command_names(parser) -> list[str]:
@@ -118,9 +119,29 @@ def _command_names(parser) -> list[str]:
     return []
 
 
+#: Options whose value may start with "-" (a reduction target such as "-5%/year"), which
+#: argparse would otherwise take for an option of its own.
+_DASH_VALUES = ("--target",)
+
+
+def _join_dash_values(argv):
+    """``--target -5%/year`` as ``--target=-5%/year``, so argparse reads the value."""
+    argv = list(sys.argv[1:] if argv is None else argv)
+    out, i = [], 0
+    while i < len(argv):
+        a = str(argv[i])
+        if a in _DASH_VALUES and i + 1 < len(argv) and str(argv[i + 1]).startswith("-"):
+            out.append(f"{a}={argv[i + 1]}")
+            i += 2
+            continue
+        out.append(argv[i])
+        i += 1
+    return out
+
+
 def main(argv=None) -> int:
     parser = build_parser()
-    args = parser.parse_args(argv)
+    args = parser.parse_args(_join_dash_values(argv))
     if not getattr(args, "func", None):
         parser.print_help()
         sys.stderr.write("gas-ledger: no command given; choose one of "

@@ -31,7 +31,14 @@ COLUMNS = ("case_id", "time", "theatre", "agent", "o2 [L/min]", "air [L/min]", "
            "dial [%]", "end_tidal [%]")
 
 
-def generate(rows: int, seed: int = 2025, year: int = 2025, first_case: int = 0) -> pd.DataFrame:
+#: Invented change of practice in the demo's second year (2026): less desflurane (its cases
+#: mostly moved to sevoflurane), and more low-flow cases in the theatres that took part.
+AGENT_MIX_2026 = {"sevoflurane": 0.82, "desflurane": 0.03, "isoflurane": 0.09, "none": 0.06}
+LOW_FLOW_2026 = {"Alder": 0.9, "Cedar": 0.9, "Day Unit 1": 0.85, "Willow": 0.8}
+
+
+def generate(rows: int, seed: int = 2025, year: int = 2025, first_case: int = 0, agent_mix=None,
+             low_flow_share=None) -> pd.DataFrame:
     """Invented minute-level records of about ``rows`` samples (whole cases, trimmed to ``rows``).
 
     Parameters
@@ -44,6 +51,12 @@ def generate(rows: int, seed: int = 2025, year: int = 2025, first_case: int = 0)
         Calendar year of the case dates.
     first_case : int
         Number of the first case (for writing many parts with distinct case ids).
+    agent_mix : dict, optional
+        Share of cases per agent (default ``AGENT_MIX``).
+    low_flow_share : float or dict, optional
+        Share of cases run at low flow, overall or per theatre (theatres not named keep
+        ``LOW_FLOW_SHARE``). The random draws are the same whatever these are, so the
+        defaults give the same records as before they existed.
 
     Returns
     -------
@@ -61,11 +74,18 @@ def generate(rows: int, seed: int = 2025, year: int = 2025, first_case: int = 0)
     dur = dur[:n_cases]
     dur[-1] -= int(dur.sum() - rows)
     dur = np.maximum(dur, 1)
-    names = np.array(list(AGENT_MIX))
-    agent = rng.choice(len(names), n_cases, p=np.array(list(AGENT_MIX.values())))
-    low = rng.random(n_cases) < LOW_FLOW_SHARE
+    mix = AGENT_MIX if agent_mix is None else {a: float(agent_mix.get(a, 0.0)) for a in AGENT_MIX}
+    names = np.array(list(mix))
+    p = np.array(list(mix.values()))
+    agent = rng.choice(len(names), n_cases, p=p if agent_mix is None else p / p.sum())
+    low_draw = rng.random(n_cases)
     uses_n2o = rng.random(n_cases) < N2O_SHARE
     theatre = rng.integers(0, len(THEATRES), n_cases)
+    if isinstance(low_flow_share, dict):
+        share = np.array([float(low_flow_share.get(t, LOW_FLOW_SHARE)) for t in THEATRES])[theatre]
+    else:
+        share = LOW_FLOW_SHARE if low_flow_share is None else float(low_flow_share)
+    low = low_draw < share
     day = rng.integers(0, 365 if year % 4 else 366, n_cases)
     start = (np.datetime64(f"{year}-01-01T08:00") + day.astype("timedelta64[D]")
              + rng.integers(0, 9 * 60, n_cases).astype("timedelta64[m]"))
@@ -164,6 +184,15 @@ DEMO_PURCHASE_FACTORS = {"sevoflurane": 1.08, "desflurane": 1.05, "isoflurane": 
                          "nitrous_oxide": 2.4, "oxygen": 1.3}
 #: Invented size of the demo's N2O cylinders. [L of gas at room conditions]
 DEMO_N2O_CYLINDER_L = 9000.0
+#: Invented: the leaking N2O manifold and pipework were mended at the end of June 2026; from
+#: July purchases exceed recorded use only by what is left in cylinders returned. In 2026 the
+#: new, metered manifold is supplied by mass (kg), so the monthly figures are not whole cylinders.
+DEMO_N2O_FIXED_FROM = "2026-07"
+DEMO_N2O_FACTOR_FIXED = 1.15
+#: Invented sites of the demo hospital's theatres (the site file written with the demo).
+DEMO_SITES = {"Alder": "Main theatres", "Birch": "Main theatres", "Cedar": "Main theatres",
+              "Hazel": "Main theatres", "Rowan": "East wing", "Willow": "East wing",
+              "Day Unit 1": "Day surgery unit", "Day Unit 2": "Day surgery unit"}
 
 
 def write_demo(out_dir, rows: int = 120_000, seed: int = 2025) -> list[Path]:
@@ -172,7 +201,10 @@ def write_demo(out_dir, rows: int = 120_000, seed: int = 2025) -> list[Path]:
     Files: ``fernhollow_2025.parquet`` (a year of minute-level records, sampled lightly),
     ``fernhollow_birch_cases.csv`` (one theatre in the other layout: elapsed minutes, total
     flow with O2 share, flows in mL/min declared in a units line, and a few deliberate
-    problems to show the checks) and ``fernhollow_purchases_2025.csv``.
+    problems to show the checks), ``fernhollow_purchases_2025.csv``, and the second year
+    with its change of practice: ``fernhollow_2026.parquet`` (less desflurane, lower flow in
+    four theatres), ``fernhollow_purchases_2026.csv`` (the N2O pipework mended from July),
+    and ``fernhollow_sites.csv`` (theatres by site).
     """
     from model.audit.engine import audit_records
     from model.io.purchases import write_purchases
@@ -217,10 +249,29 @@ def write_demo(out_dir, rows: int = 120_000, seed: int = 2025) -> list[Path]:
         fh.write("# units: total_flow=mL/min, elapsed=min, o2_share=%, n2o_share=%, dial=%\n")
         csv.to_csv(fh, index=False)
     # Purchases: recorded use of the year times invented factors, in whole bottles/cylinders.
-    use = audit_records([main_path]).use_by_month()
+    purchases = write_purchases(_demo_purchases(audit_records([main_path]).use_by_month()),
+                                out / "fernhollow_purchases_2025.csv")
+    # The second year, with its change of practice (own seed; the first year is untouched).
+    df26 = generate(rows, seed + 1001, year=2026, agent_mix=AGENT_MIX_2026, low_flow_share=LOW_FLOW_2026)
+    path26 = write(df26, out / "fernhollow_2026.parquet")
+    purchases26 = write_purchases(_demo_purchases(audit_records([path26]).use_by_month(), n2o_by_mass=True),
+                                  out / "fernhollow_purchases_2026.csv")
+    sites = out / "fernhollow_sites.csv"
+    with open(sites, "w", encoding="utf-8", newline="") as fh:
+        fh.write("# Fernhollow General Hospital (invented): the site of each theatre\n")
+        fh.write("theatre,site\n")
+        fh.writelines(f"{t},{s}\n" for t, s in DEMO_SITES.items())
+    return [main_path, birch, purchases, path26, purchases26, sites]
+
+
+def _demo_purchases(use: pd.DataFrame, n2o_by_mass: bool = False) -> list[tuple]:
+    """Purchase lines of the demo: recorded use times invented factors, in whole bottles and
+    cylinders (N2O in kg when ``n2o_by_mass``)."""
     rows_out = []
     for r in use.itertuples(index=False):
         f = DEMO_PURCHASE_FACTORS.get(r.item)
+        if r.item == "nitrous_oxide" and r.month >= DEMO_N2O_FIXED_FROM:
+            f = DEMO_N2O_FACTOR_FIXED
         if f is None or r.recorded <= 0:
             continue
         if r.item in ("sevoflurane", "desflurane", "isoflurane"):
@@ -228,13 +279,18 @@ def write_demo(out_dir, rows: int = 120_000, seed: int = 2025) -> list[Path]:
 
             bottle = DEFAULT_REFERENCE.agents[r.item].bottle_volume
             rows_out.append((r.month, r.item, int(math.ceil(r.recorded * f / bottle)), "bottle", ""))
+        elif r.item == "nitrous_oxide" and n2o_by_mass:
+            from model.emissions import gas_mass_g
+            from model.reference import DEFAULT_REFERENCE
+
+            kg = float(gas_mass_g(r.recorded * f, DEFAULT_REFERENCE.agents["nitrous_oxide"].molar_mass)) / 1000.0
+            rows_out.append((r.month, r.item, f"{kg:.2f}", "kg", ""))
         elif r.item == "nitrous_oxide":
             rows_out.append((r.month, r.item, int(math.ceil(r.recorded * f / DEMO_N2O_CYLINDER_L)),
                              "cylinder", f"{DEMO_N2O_CYLINDER_L:g} L"))
         else:
             rows_out.append((r.month, r.item, round(r.recorded * f / 1000.0, 1), "m**3", ""))
-    purchases = write_purchases(rows_out, out / "fernhollow_purchases_2025.csv")
-    return [main_path, birch, purchases]
+    return rows_out
 
 
 def main(argv=None) -> int:

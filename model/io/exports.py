@@ -140,6 +140,8 @@ padding-bottom:.2rem}.meta{color:#546e7a;font-size:.9rem}
 table{border-collapse:collapse;font-size:.85rem;margin:.5rem 0}th,td{border:1px solid #cfd8dc;
 padding:.25rem .5rem;text-align:left}th{background:#eef3f5}td.num{text-align:right}
 .caution{background:#fff8e1;border-left:4px solid #f0a500;padding:.6rem 1rem;margin:1rem 0}
+.headline{font-size:1.15rem;font-weight:600;background:#eef3f5;border-left:4px solid #2f6f8f;
+padding:.6rem 1rem}
 .warning{background:#fdecea;border-left:4px solid #c62828;padding:.4rem 1rem;margin:.3rem 0}
 """
 
@@ -170,7 +172,9 @@ def html_report(title: str, *, inputs: Mapping[str, object] | None = None,
                 tables: Mapping[str, pd.DataFrame] | None = None,
                 figures: Iterable[tuple[str, object]] = (),
                 warnings: Sequence[str] = (), cautions: Sequence[str] = (),
-                sources: pd.DataFrame | None = None, generated_by: str = "Fresh Gas Ledger") -> str:
+                sources: pd.DataFrame | None = None, generated_by: str = "Fresh Gas Ledger",
+                headline: str = "", summary: Sequence[str] = (),
+                sections: Mapping[str, Sequence[str]] | None = None, figures_first: bool = False) -> str:
     """A self-contained HTML report: inputs, tables, charts, warnings, cautions, sources.
 
     Parameters
@@ -187,6 +191,12 @@ def html_report(title: str, *, inputs: Mapping[str, object] | None = None,
         Model warnings for these inputs, and the standing cautions.
     sources : DataFrame, optional
         The reference values used, with their sources.
+    headline, summary : str, sequence of str
+        A headline shown in a box under the title, and paragraphs under it (escaped).
+    sections : mapping of str to sequence of str, optional
+        Text sections (heading: paragraphs) after the charts, e.g. a method statement.
+    figures_first : bool
+        Charts before the tables (after the inputs) rather than after them.
 
     Returns
     -------
@@ -199,6 +209,9 @@ def html_report(title: str, *, inputs: Mapping[str, object] | None = None,
              f"<title>{e(str(title))}</title><style>{_CSS}</style></head><body>",
              f"<h1>{e(str(title))}</h1>",
              f"<p class='meta'>{e(generated_by)}, {datetime.now(timezone.utc):%Y-%m-%d %H:%M} UTC</p>"]
+    if headline:
+        parts.append(f"<p class='headline' id='headline'>{e(str(headline))}</p>")
+    parts.extend(f"<p>{e(str(p))}</p>" for p in summary)
     for c in cautions:
         parts.append(f"<div class='caution'>{e(str(c))}</div>")
     if warnings:
@@ -207,17 +220,23 @@ def html_report(title: str, *, inputs: Mapping[str, object] | None = None,
     if inputs:
         parts.append("<h2>Inputs</h2>")
         parts.append(_table_html(pd.DataFrame({"input": list(inputs), "value": [str(v) for v in inputs.values()]})))
+    table_parts = []
     for heading, df in (tables or {}).items():
-        parts.append(f"<h2>{e(str(heading))}</h2>")
-        parts.append(_table_html(df))
+        table_parts.append(f"<h2>{e(str(heading))}</h2>")
+        table_parts.append(_table_html(df))
+    figure_parts = []
     first = True
     for heading, fig in figures:
         if fig is None:
             continue
-        parts.append(f"<h2>{e(str(heading))}</h2>")
-        parts.append(fig.to_html(full_html=False, include_plotlyjs=True if first else False,
-                                 config={"displaylogo": False, "responsive": True}))
+        figure_parts.append(f"<h2>{e(str(heading))}</h2>")
+        figure_parts.append(fig.to_html(full_html=False, include_plotlyjs=True if first else False,
+                                        config={"displaylogo": False, "responsive": True}))
         first = False
+    parts.extend(figure_parts + table_parts if figures_first else table_parts + figure_parts)
+    for heading, paragraphs in (sections or {}).items():
+        parts.append(f"<h2>{e(str(heading))}</h2>")
+        parts.append("<ul>" + "".join(f"<li>{e(str(p))}</li>" for p in paragraphs) + "</ul>")
     if sources is not None and len(sources):
         parts.append("<h2>Reference values and their sources</h2>")
         parts.append(_table_html(sources))

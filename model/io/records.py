@@ -12,8 +12,9 @@ Row-level problems (``ISSUE_KINDS``), in the order they are checked:
 
 =================  ================================================================
 encoding           the CSV line is not valid UTF-8
-field_count        the CSV line has more or fewer fields than the header
-unreadable         the CSV line cannot be parsed (e.g. an unclosed quote)
+field_count        the CSV line has more or fewer fields than the header (trailing
+                   empty fields count)
+unreadable         the CSV line cannot be parsed (an unclosed quote, a lone CR, a NUL)
 text_in_number     a number column holds text
 bad_time           the time cell is not a date-time
 missing_value      case id, time, agent, every flow, or the dial/end-tidal of a
@@ -42,6 +43,7 @@ import pandas as pd
 
 from model.errors import InputError
 from model.freshgas import FLOW_BANDS
+from model.io.csv_lines import split_csv_lines
 from model.io.record_files import DEFAULT_GAP_LIMIT_MIN, MAX_FLOW_L_MIN, MAX_TOTAL_FLOW_L_MIN, NUMBER_FIELDS, RecordFile, _ident, _sql_str, expand_paths, inspect_file
 from model.io.record_report import DEFAULT_MAX_MESSAGES, ReadReport, Records
 from model.reference import AIR_O2_FRACTION, DEFAULT_REFERENCE, Reference, normalise_agent_name
@@ -156,63 +158,97 @@ def connect(memory_limit: str | None = None, threads: int | None = None):
     return con, tmp
 
 
-def _csv_table(con, rf: RecordFile, index: int, report: ReadReport):
-    """Read a CSV file as text columns with its line numbers; bad lines go to the report."""
+def _csv_table(con, rf: RecordFile, index: int, report: ReadReport, folder: str):
+    """Read a CSV file line by line as text columns with its line numbers; bad lines go to the report.
+
+    The file is cut into lines first (:func:`model.io.csv_lines.split_csv_lines`): a line
+    with an unclosed quote, a lone CR, a NUL byte or the wrong number of fields is set
+    aside on its own; the other lines, each one complete record, are read by duckdb, which
+    sets aside what it still cannot read (invalid UTF-8, a stray quote inside a field).
+    Line numbers are those of the file.
+    """
+    import duckdb
     import pyarrow as pa
 
+    try:
+        lines = split_csv_lines(np.fromfile(rf.path, dtype=np.uint8))
+    except OSError as exc:
+        raise InputError(rf.path, "the file", f"cannot be read ({exc.strerror or type(exc).__name__})") from None
+    header = rf.skip_lines  # index of the header line
+    n_fields = len(rf.types)
+    if header >= len(lines) or lines.broken[header]:
+        what = lines.problem(header) if header < len(lines) else "missing"
+        raise InputError(f"{rf.path}, line {header + 1}", "the header row", f"not readable as CSV ({what})")
+    data = np.arange(len(lines)) > header
+    data &= ~lines.blank
+    broken = data & lines.broken
+    wrong = data & ~lines.broken & (lines.fields != n_fields)
+    keep = data & ~broken & ~wrong
+    rej_rows = []
+    for i in np.flatnonzero(broken | wrong):
+        line = int(lines.number[i])
+        if broken[i]:
+            kind, msg = "unreadable", f"cannot be read as CSV: {lines.problem(i)}"
+        else:
+            kind, msg = "field_count", f"expected {n_fields} fields as in the header, found {int(lines.fields[i])}"
+        rej_rows.append((rf.path, line, kind, None, None, f"{rf.path}: line {line}: {msg}"))
+    # The header and the lines kept, in a file of their own: its line k + 1 is kept line k.
+    kept_numbers = lines.number[keep]
+    longest = int((lines.ends - lines.starts).max()) if len(lines) else 0
+    clean = os.path.join(folder, f"lines_{index}.csv")
+    head_keep = np.zeros(len(lines), dtype=bool)
+    head_keep[header] = True
+    with open(clean, "wb") as fh:
+        fh.write(lines.keep_bytes(head_keep | keep))
+    del lines
     rej = f"rejects_{index}"
-    columns = "{" + ", ".join(f"{_sql_str(n)}: 'VARCHAR'" for n in rf.types) + "}"
     scan = f"rejects_scan_{index}"
-    import duckdb
-
+    columns = "{" + ", ".join(f"{_sql_str(n)}: 'VARCHAR'" for n in rf.types) + "}"
     try:
         rel = con.sql(
-            f"SELECT * FROM read_csv({_sql_str(rf.path)}, all_varchar=true, header=true, "
-            f"skip={rf.skip_lines}, delim=',', quote='\"', escape='\"', auto_detect=false, "
-            f"columns={columns}, "
+            f"SELECT * FROM read_csv({_sql_str(clean)}, all_varchar=true, header=true, "
+            f"delim=',', quote='\"', escape='\"', auto_detect=false, new_line='\\n', "
+            f"columns={columns}, max_line_size={max(longest + 16, 2_097_152)}, "
             f"store_rejects=true, rejects_table={_sql_str(rej)}, rejects_scan={_sql_str(scan)}, "
             f"strict_mode=true, null_padding=false)")
         table = rel.arrow()
-    except duckdb.Error as exc:  # junk its rejects table cannot hold (e.g. a lone NUL before CR)
+        if hasattr(table, "read_all"):
+            table = table.read_all()
+        rejects = con.sql(f"SELECT line, min(error_type) AS error_type FROM {rej} "
+                          f"GROUP BY line ORDER BY line").fetchall()
+    except duckdb.Error as exc:
         first = (str(exc).strip().splitlines() or [type(exc).__name__])[0]
         raise InputError(rf.path, "the file", f"not readable as CSV ({first})") from None
-    if hasattr(table, "read_all"):
-        table = table.read_all()
-    rejects = con.sql(f"SELECT line, min(error_type) AS error_type, any_value(csv_line) AS csv_line "
-                      f"FROM {rej} GROUP BY line ORDER BY line").fetchall()
-    # Line numbers of accepted rows: the non-blank lines after the header, less rejected lines.
-    data = np.fromfile(rf.path, dtype=np.uint8)
-    bom = 3 if data[:3].tobytes() == b"\xef\xbb\xbf" else 0
-    nl = np.flatnonzero(data == 10)
-    starts = np.concatenate(([bom], nl + 1))
-    ends = np.concatenate((nl, [len(data)]))
-    cr = (ends > starts) & (data[np.maximum(ends - 1, 0)] == 13)
-    lengths = ends - starts - cr
-    line_no = np.arange(1, len(starts) + 1)
-    header_line = rf.skip_lines + 1
-    candidate = line_no[(lengths > 0) & (line_no > header_line)]
-    rejected = np.array([r[0] for r in rejects], dtype=np.int64)
-    candidate = candidate[~np.isin(candidate, rejected)]
-    if len(candidate) == table.num_rows:
-        rows = candidate
-    else:  # a quoted field spans lines: number records instead
-        rows = np.arange(1, table.num_rows + 1) + header_line
-        report.notes.append(f"{rf.path}: a quoted field spans lines; numbers shown are record numbers "
-                            f"plus {header_line}, not line numbers")
+    finally:
+        try:
+            os.remove(clean)
+        except OSError:
+            pass
+    # duckdb numbers the lines of the clean file, its header line 1.
+    rejected = np.array([r[0] for r in rejects], dtype=np.int64) - 2
+    accepted = np.ones(len(kept_numbers), dtype=bool)
+    accepted[rejected[(rejected >= 0) & (rejected < len(kept_numbers))]] = False
+    rows = kept_numbers[accepted]
+    if len(rows) != table.num_rows:  # never expected: each clean line is one record
+        raise InputError(rf.path, "the file", f"not readable as CSV ({table.num_rows} records in "
+                         f"{len(rows)} lines); save it again as CSV UTF-8")
     table = table.append_column("_row", pa.array(rows, type=pa.int64()))
-    kinds = {"INVALID ENCODING": "encoding", "TOO MANY COLUMNS": "field_count",
-             "MISSING COLUMNS": "field_count"}
-    rej_rows = []
-    for line, err, text in rejects:
+    kinds = {"INVALID ENCODING": "encoding", "INVALID UNICODE": "encoding",
+             "TOO MANY COLUMNS": "field_count", "MISSING COLUMNS": "field_count"}
+    for line, err in rejects:
+        k = int(line) - 2
+        if not 0 <= k < len(kept_numbers):
+            continue
+        number = int(kept_numbers[k])
         kind = kinds.get(err, "unreadable")
         if kind == "encoding":
             msg = "not valid UTF-8 text; save the file as UTF-8 (CSV UTF-8)"
         elif kind == "field_count":
-            found = (text or "").count(",") + 1 if text else 0
-            msg = f"expected {len(rf.types)} fields as in the header, found {found}"
+            msg = f"expected {n_fields} fields as in the header"
         else:
             msg = f"cannot be read as CSV ({err.lower()})"
-        rej_rows.append((rf.path, int(line), kind, None, None, f"{rf.path}: line {int(line)}: {msg}"))
+        rej_rows.append((rf.path, number, kind, None, None, f"{rf.path}: line {number}: {msg}"))
+    rej_rows.sort(key=lambda r: r[1])
     con.execute(f"DROP TABLE IF EXISTS {rej}; DROP TABLE IF EXISTS {scan}")
     return table, rej_rows
 
@@ -283,7 +319,7 @@ def read_records(paths, *, reference: Reference = DEFAULT_REFERENCE,
         if s.format != "csv":
             continue
         step(0.05 + 0.25 * i / max(len(specs), 1), f"Reading {Path(s.path).name}")
-        table, rows = _csv_table(con, s, i, report)
+        table, rows = _csv_table(con, s, i, report, tmp)
         rej_rows.extend(rows)
         name = f"csv_{i}"
         con.register(name, table)

@@ -37,6 +37,7 @@ KINDS: Mapping[str, tuple[str, ...]] = MappingProxyType({
     "settings": ("toml",),
     "scenario": ("toml",),
     "casemix": ("csv", "toml"),
+    "sites": ("csv",),
     "records": ("csv", "parquet"),
     "purchases": ("csv", "parquet"),
 })

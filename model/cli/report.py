@@ -1,0 +1,127 @@
+"""The ``gas-ledger report`` sub-command: the emissions report of a period against a baseline and a target."""
+
+from __future__ import annotations
+
+import sys
+
+from model.cli.common import CAUTION, print_json, print_table
+
+
+def register(subparsers) -> None:
+    """Add ``report`` to the ``gas-ledger`` command line."""
+    p = subparsers.add_parser(
+        "report", help="emissions report: a period against a baseline and a target, what drove the change",
+        description="Scope 1 anaesthetic emissions of a reporting period from case records (use-based) and "
+                    "purchases (purchase-based), with intensity, a baseline, a target and an LMDI "
+                    "decomposition of the change. Periods: 2026 (calendar year), FY2026-04 (financial year "
+                    "starting April 2026), 2026Q2, 2026-03, 2026-01-01..2026-06-30.")
+    p.add_argument("files", nargs="+", metavar="RECORDS", help="record files or globs (.csv, .parquet)")
+    p.add_argument("--period", required=True, help="reporting period, e.g. 2026, FY2026-04, 2026Q2")
+    p.add_argument("--baseline", default=None, help="period to compare with, e.g. 2025")
+    p.add_argument("--target", default=None, help="reduction target: '-5%%/year' or '120 t by 2030'")
+    p.add_argument("--purchases", action="append", default=[], metavar="FILE",
+                   help="purchases file (.csv or .parquet); give it again for more files")
+    p.add_argument("--sites", default=None, metavar="FILE", help="site file: CSV theatre,site")
+    p.add_argument("--site", action="append", default=[], metavar="NAME",
+                   help="report only this site (repeat for more); default every site")
+    p.add_argument("--gwp", "--gwp-source", dest="gwp", default=None,
+                   help="GWP source of the headline (default ar6_gwp100); AR5 and AR6 GWP100 are always shown")
+    p.add_argument("--baseline-gwp", default=None, help="GWP source of the baseline (default: as --gwp)")
+    p.add_argument("--json", action="store_true", help="machine-readable output")
+    p.add_argument("--xlsx", default=None, metavar="FILE", help="also write the report's tables as an Excel workbook")
+    p.add_argument("--html", default=None, metavar="FILE",
+                   help="also write the report as a self-contained HTML file (tables and text; the dashboard's "
+                        "Emissions report page adds the charts)")
+    p.set_defaults(func=cmd_report)
+
+
+def cmd_report(args) -> int:
+    from pathlib import Path
+
+    import pandas as pd
+
+    from model.audit.engine import audit_records
+    from model.errors import InputError
+    from model.io.purchases import load_purchases
+    from model.io.sites import read_sites
+    from model.reference import DEFAULT_GWP, load_settings
+    from model.report import build_report, parse_period, parse_target
+
+    reference = load_settings(args.settings)
+    # Every flag is read before the records are: a typing error costs nothing.
+    period = parse_period(args.period, "--period")
+    baseline = parse_period(args.baseline, "--baseline") if args.baseline else None
+    target = parse_target(args.target, "--target") if args.target else None
+    gwp = args.gwp or DEFAULT_GWP
+    for flag, key in (("--gwp", gwp), ("--baseline-gwp", args.baseline_gwp)):
+        if key is not None and key not in reference.gwp_sources:
+            raise InputError(flag, key, "allowed sources are " + ", ".join(reference.gwp_sources))
+    sites = read_sites(args.sites) if args.sites else None
+    for flag, path in (("--xlsx", args.xlsx), ("--html", args.html)):
+        if path and not Path(path).parent.is_dir():
+            raise InputError(flag, path, "the folder to write into does not exist")
+    result = audit_records(args.files, reference=reference, gwp_source=gwp)
+    purchases, purchase_notes = None, []
+    if args.purchases:
+        read = [load_purchases(f, reference) for f in args.purchases]
+        purchase_notes = [m for r in read for m in r.messages]
+        purchases = pd.concat([r.table for r in read], ignore_index=True)
+    report = build_report(result.cases, period, baseline, reference=reference, gwp_source=gwp,
+                          baseline_gwp_source=args.baseline_gwp, purchases=purchases, sites=sites,
+                          chosen_sites=tuple(args.site), target=target, absorbent_note=result.absorbent_note(),
+                          fields={"period": "--period", "baseline": "--baseline", "target": "--target",
+                                  "site": "--site"})
+    report.cautions.append(CAUTION)
+    if purchase_notes:
+        report.cautions.append(f"{len(purchase_notes)} purchase line(s) set aside (see gas-ledger audit --purchases); "
+                               "the others are used.")
+    if args.xlsx:
+        from model.report.document import report_xlsx
+
+        Path(args.xlsx).write_bytes(report_xlsx(report))
+    if args.html:
+        from model.report.document import report_html
+
+        Path(args.html).write_text(report_html(report), encoding="utf-8")
+    if args.json:
+        data = report.to_dict()
+        data["records"] = result.report.summary()
+        data["purchase_lines_set_aside"] = purchase_notes
+        print_json(data)
+    else:
+        _print(report, result, sys.stdout)
+    if report.problems:
+        # What could be worked out is printed above; the first problem is the one-line error.
+        raise report.problems[0]
+    return 0
+
+
+def _print(report, result, out) -> None:
+    s = result.report.summary()
+    out.write(f"Records: {len(s['files'])} file(s), {s['rows_valid']:,} rows used, {s['rows_set_aside']:,} set aside "
+              f"(gas-ledger audit lists them)\n\n")
+    out.write(report.headline() + "\n\n")
+    table = report.figures_table()
+    print_table(table.to_dict("records"), list(table.columns), out)
+    out.write("\nBy agent (use-based)\n")
+    print_table(report.period.by_agent.to_dict("records"), list(report.period.by_agent.columns), out)
+    out.write("\nBy site\n")
+    print_table(report.period.by_site.to_dict("records"), list(report.period.by_site.columns), out)
+    if report.period.use_vs_purchase is not None:
+        out.write("\nUse-based against purchase-based (gap = purchased - used)\n")
+        t = report.period.use_vs_purchase
+        print_table(t.to_dict("records"), list(t.columns), out)
+    if report.decomposition is not None:
+        out.write(f"\nWhat drove the change from {report.baseline.period.label} (additive LMDI-I, t CO2e)\n")
+        t = report.decomposition_table()
+        print_table(t.to_dict("records"), list(t.columns), out)
+        for _, sentence in report.sentences():
+            out.write(f"  - {sentence}\n")
+    if report.target is not None:
+        out.write("\n" + report.target.sentence() + "\n")
+    out.write("\nMethod\n")
+    for line in report.method_statement():
+        out.write(f"  - {line}\n")
+    out.write("\nCautions\n")
+    for line in report.cautions:
+        out.write(f"  - {line}\n")

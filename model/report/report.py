@@ -1,0 +1,465 @@
+"""The emissions report: a period's figures, against a baseline and a target, with what drove the change.
+
+:func:`build_report` gathers everything the dashboard page, the command line and the
+exports show; each part it cannot work out (no baseline, a baseline without cases, no
+purchases) is left empty with its reason in ``problems``, and the rest stands.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass, field
+
+import pandas as pd
+
+from model.errors import InputError
+from model.reference import DEFAULT_GWP, DEFAULT_REFERENCE, Reference
+from model.report.figures import (PurchaseFigures, UNASSIGNED, assign_sites, by_agent_table, cases_in, grouped_table,
+                                  gwp_sources_shown, period_mix, purchase_figures, use_against_purchases,
+                                  use_figures)
+from model.report.lmdi import FACTORS, Decomposition, decompose
+from model.report.periods import Period
+from model.report.target import Target, TargetStatus, annual_rate_t, target_status
+
+#: What the report counts and what it leaves out (method statement; common practice of
+#: scope 1 reporting in the GHG Protocol's sense, no further source).
+COUNTED = (
+    "Scope 1 emissions of inhaled anaesthetics: the volatile agents and nitrous oxide released to the "
+    "atmosphere from the department's theatres.",
+    "Use-based figures come from the case records: liquid agent by Dion's formula (Can J Anaesth 1992;"
+    "39:633-4) over the recorded fresh gas flows and dial settings (end-tidal where no dial is recorded, a "
+    "lower bound), nitrous oxide from its recorded flow by the ideal gas law. Every delivered gram counts as "
+    "emitted, less any capture efficiency set: records carry no patient, so metabolism (a few per cent of the "
+    "agent taken up for sevoflurane, much less for desflurane and isoflurane) is not subtracted, which "
+    "slightly overstates emissions.",
+    "Purchase-based figures count everything bought in the period's months as emitted (liquid mass from "
+    "volume and density, gas mass by the ideal gas law). The gap to use-based figures is stock held over, "
+    "wastage, use not recorded and, for piped nitrous oxide, losses from manifolds and pipework.",
+    "Not counted: scope 2 and 3 emissions (manufacture, transport and disposal of agents and absorbent, "
+    "energy of scavenging and ventilation), intravenous anaesthesia, nitrous oxide used outside theatres "
+    "(maternity, emergency department) unless it is in the records or purchases given.",
+)
+
+
+@dataclass
+class PeriodReport:
+    """Use-based (and purchase-based) figures of one period."""
+
+    period: Period
+    gwp_source: str
+    gwp_sources: tuple
+    cases: pd.DataFrame
+    figures: dict
+    by_agent: pd.DataFrame
+    by_month: pd.DataFrame
+    by_site: pd.DataFrame
+    purchases: PurchaseFigures | None = None
+    use_vs_purchase: pd.DataFrame | None = None
+
+    @property
+    def co2e_t(self) -> float:
+        """Use-based CO2e under the chosen source. [t]"""
+        return float(self.figures["co2e_t"][self.gwp_source])
+
+    @property
+    def annual_t(self) -> float:
+        return annual_rate_t(self.co2e_t * 1000.0, self.period)
+
+
+@dataclass
+class EmissionsReport:
+    """Everything the report shows. See :func:`build_report`."""
+
+    title: str
+    reference: Reference
+    period: PeriodReport
+    baseline: PeriodReport | None = None
+    decomposition: Decomposition | None = None
+    target: TargetStatus | None = None
+    sites: dict | None = None
+    chosen_sites: tuple = ()
+    problems: list[InputError] = field(default_factory=list)
+    cautions: list[str] = field(default_factory=list)
+    #: What the audit's absorbent figures are (``AuditResult.absorbent_note()``), for the method.
+    absorbent_note: str = ""
+
+    @property
+    def gwp_label(self) -> str:
+        return self.reference.gwp_source(self.period.gwp_source).label
+
+    def headline(self) -> str:
+        """One sentence: the period's tonnes, against the baseline and the target."""
+        p = self.period
+        text = (f"Scope 1 anaesthetic emissions, {p.period.label}: {p.co2e_t:,.1f} t CO2e ({self.gwp_label}, "
+                f"use-based, from {p.figures['cases']:,} cases)")
+        if self.baseline is not None:
+            b = self.baseline
+            if p.period.months == b.period.months or abs(p.period.months - b.period.months) < 1e-9:
+                change = p.co2e_t / b.co2e_t - 1.0 if b.co2e_t > 0 else float("nan")
+                word = "down" if change < 0 else "up"
+                text += f", {word} {abs(change):.0%} on {b.period.label} ({b.co2e_t:,.1f} t)"
+            else:
+                change = p.annual_t / b.annual_t - 1.0 if b.annual_t > 0 else float("nan")
+                word = "down" if change < 0 else "up"
+                text += (f", {p.annual_t:,.1f} t a year: {word} {abs(change):.0%} on {b.period.label} "
+                         f"({b.annual_t:,.1f} t a year)")
+        if self.target is not None:
+            text += "; " + ("on track" if self.target.on_track else "not on track") + f" for {self.target.target.label}"
+        return text + "."
+
+    def sentences(self) -> list[tuple[str, str]]:
+        """(factor, sentence) for each part of the change."""
+        if self.decomposition is None or self.baseline is None:
+            return []
+        return driver_sentences(self.decomposition, self.baseline.figures, self.period.figures,
+                                self.baseline.gwp_source, self.period.gwp_source, self.reference)
+
+    def figures_table(self) -> pd.DataFrame:
+        """The period's key figures (and the baseline's, when there is one), one row each."""
+        cols = [("period", self.period)] + ([("baseline", self.baseline)] if self.baseline else [])
+        rows = []
+
+        def add(name, unit, fn):
+            row = {"figure": name, "unit": unit}
+            for label, pr in cols:
+                try:
+                    v = fn(pr)
+                except (KeyError, TypeError):
+                    v = None
+                row[f"{label}: {pr.period.text}"] = v
+            rows.append(row)
+
+        for s in self.period.gwp_sources:
+            lab = self.reference.gwp_source(s).label
+            add(f"CO2e, use-based ({lab})", "t CO2e", lambda pr, s=s: pr.figures["co2e_t"][s])
+        add("of which volatile agents", "t CO2e", lambda pr: pr.figures["co2e_agent_t"][pr.gwp_source])
+        add("of which nitrous oxide", "t CO2e", lambda pr: pr.figures["co2e_n2o_t"][pr.gwp_source])
+        if self.period.purchases is not None:
+            lab = f"t CO2e ({self.gwp_label})"
+            add(f"CO2e, purchase-based ({self.gwp_label})", "t CO2e",
+                lambda pr: pr.purchases.co2e_t(lab) if pr.purchases is not None else None)
+        add("Cases", "cases", lambda pr: pr.figures["cases"])
+        add("Anaesthetic hours", "h", lambda pr: pr.figures["hours"])
+        add("CO2e per case", "kg CO2e", lambda pr: pr.figures["kg_per_case"])
+        add("CO2e per anaesthetic hour", "kg CO2e/h", lambda pr: pr.figures["kg_per_hour"])
+        add("N2O per case", "L", lambda pr: pr.figures["n2o_l_per_case"])
+        add("N2O CO2e per case", "kg CO2e", lambda pr: pr.figures["n2o_kg_co2e_per_case"])
+        add("Time-weighted fresh gas flow", "L/min", lambda pr: pr.figures["fgf_l_min"])
+        for band in self.period.figures["band_share"]:
+            add(f"Share of anaesthetic time at {band} flow", "%", lambda pr, b=band: 100.0 * pr.figures["band_share"][b])
+        add("CO2 absorbent", "kg", lambda pr: pr.figures["absorbent_kg"])
+        add("Cost (agents and gases" + (", absorbent)" if self.period.figures["absorbent_kg"] is not None else ")"),
+            self.reference.prices.currency, lambda pr: pr.figures["cost"])
+        return pd.DataFrame(rows)
+
+    def decomposition_table(self) -> pd.DataFrame:
+        """The parts of the change by factor, in t CO2e, with each agent's share of the part."""
+        d = self.decomposition
+        if d is None:
+            return pd.DataFrame(columns=["factor", "t_co2e", "detail"])
+        rows = []
+        for f in FACTORS:
+            part = d.detail[(d.detail["factor"] == f) & (d.detail["contribution_kg"].abs() > 1e-9)]
+            detail = ", ".join(f"{_name(t)} {v / 1000:+,.2f} t" for t, v in zip(part["term"], part["contribution_kg"]))
+            rows.append({"factor": f, "t_co2e": d.contribution(f) / 1000.0, "detail": detail})
+        rows.append({"factor": "total change", "t_co2e": d.change_kg / 1000.0, "detail": ""})
+        return pd.DataFrame(rows)
+
+    def method_statement(self) -> list[str]:
+        """What is counted and how, with the source of every factor used."""
+        ref = self.reference
+        lines = list(COUNTED)
+        src = ref.gwp_source(self.period.gwp_source)
+        lines.append(f"GWP source used for the headline: {src.label} ({src.horizon_years}-year horizon; "
+                     f"{src.citation}). Shown beside it: " + ", ".join(
+                         ref.gwp_source(s).label for s in self.period.gwp_sources[1:]) + ".")
+        if self.baseline is not None and self.baseline.gwp_source != self.period.gwp_source:
+            lines.append(f"The baseline is worked out under {ref.gwp_source(self.baseline.gwp_source).label}; the "
+                         "change of source is its own part of the decomposition.")
+        for s in self.period.gwp_sources:
+            g = ref.gwp_sources[s]
+            vals = "; ".join(f"{_name(a)} {v.value:g} ({v.source})" for a, v in g.values.items()
+                             if v.value is not None and a in ("sevoflurane", "desflurane", "isoflurane", "halothane",
+                                                               "nitrous_oxide"))
+            lines.append(f"{g.label}, kg CO2e per kg: {vals}.")
+        for a in ("sevoflurane", "desflurane", "isoflurane", "nitrous_oxide"):
+            ag = ref.agents[a]
+            parts = []
+            for key, name in (("molar_mass", "molar mass"), ("liquid_density", "liquid density")):
+                v = ag.values.get(key)
+                if v is not None and v.value is not None:
+                    parts.append(f"{name} {v.value:g} {v.unit} ({_no_trade_name(v.source)})")
+            lines.append(f"{ag.label}: " + "; ".join(parts) + ".")
+        lines.append("What drove the change: additive LMDI-I decomposition (Ang B.W., Energy Policy 2005;33:867-71) "
+                     "of the change in CO2e into activity (anaesthetic hours), agent mix (share of hours per agent), "
+                     "intensity within an agent (kg of agent emitted per hour of that agent: flow and dial practice), "
+                     "N2O use (kg N2O per anaesthetic hour) and GWP source. The parts add exactly to the total change. "
+                     "An agent used in one period only is handled by the analytical limits of Ang B.W. and Liu N. "
+                     "(Energy Policy 2007;35:238-46): its whole change goes to the agent mix.")
+        if self.absorbent_note and self.period.figures["absorbent_kg"] is not None:
+            lines.append("CO2 absorbent (in the cost, not in CO2e): " + self.absorbent_note)
+        lines.append("Targets compare annual rates (a period's total x 12 / its length in months); a yearly "
+                     "reduction is compounded from the baseline's midpoint, a tonnage by a year is a straight "
+                     "path from the baseline to that year's middle.")
+        lines.append("Cases are counted in a period by their start (first sample, or the case date); purchases by "
+                     "their month, a month partly inside a date range by its share of days.")
+        return lines
+
+    def tables(self) -> dict[str, pd.DataFrame]:
+        """Every table of the report, by sheet name (for xlsx and the page)."""
+        t = {"Figures": self.figures_table(), "By agent": self.period.by_agent, "By month": self.period.by_month,
+             "By site": self.period.by_site}
+        if self.baseline is not None:
+            t["Baseline by agent"] = self.baseline.by_agent
+        if self.decomposition is not None:
+            t["What drove the change"] = self.decomposition_table()
+        if self.period.use_vs_purchase is not None:
+            t["Use and purchases"] = self.period.use_vs_purchase
+            t["Purchases by item"] = self.period.purchases.by_item
+        if self.sites:
+            t["Sites"] = pd.DataFrame(sorted(self.sites.items()), columns=["theatre", "site"])
+        return t
+
+    def notes(self) -> list[str]:
+        """Headline, sentences, method statement, cautions and problems as lines (xlsx notes sheet)."""
+        out = [self.title, self.headline()]
+        out += [s for _, s in self.sentences()]
+        if self.target is not None:
+            out.append(self.target.sentence())
+        out += ["Method: " + m for m in self.method_statement()]
+        out += ["Caution: " + c for c in self.cautions]
+        out += ["Not worked out: " + str(p) for p in self.problems]
+        return out
+
+    def to_dict(self) -> dict:
+        """Machine-readable form (stable keys, units in the names)."""
+        def table(df):
+            return [{k: _clean(v) for k, v in r.items()} for r in df.to_dict("records")]
+
+        def per(pr: PeriodReport | None):
+            if pr is None:
+                return None
+            f = pr.figures
+            return {"period": pr.period.text, "label": pr.period.label, "start": pr.period.start.isoformat(),
+                    "last_day": pr.period.last_day.isoformat(), "gwp_source": pr.gwp_source,
+                    "cases": f["cases"], "anaesthetic_hours": f["hours"],
+                    "t_co2e": {s: _clean(v) for s, v in f["co2e_t"].items()},
+                    "t_co2e_agents": {s: _clean(v) for s, v in f["co2e_agent_t"].items()},
+                    "t_co2e_nitrous_oxide": {s: _clean(v) for s, v in f["co2e_n2o_t"].items()},
+                    "t_co2e_per_year": _clean(pr.annual_t),
+                    "kg_co2e_per_case": _clean(f["kg_per_case"]), "kg_co2e_per_hour": _clean(f["kg_per_hour"]),
+                    "n2o_l_per_case": _clean(f["n2o_l_per_case"]),
+                    "n2o_kg_co2e_per_case": _clean(f["n2o_kg_co2e_per_case"]),
+                    "time_weighted_fgf_l_min": _clean(f["fgf_l_min"]),
+                    "flow_band_share_of_time": {b: _clean(v) for b, v in f["band_share"].items()},
+                    "absorbent_kg": _clean(f["absorbent_kg"]), "cost": _clean(f["cost"]),
+                    "by_agent": table(pr.by_agent), "by_month": table(pr.by_month), "by_site": table(pr.by_site),
+                    "purchase_based": None if pr.purchases is None else table(pr.purchases.by_item),
+                    "use_and_purchases": None if pr.use_vs_purchase is None else table(pr.use_vs_purchase)}
+
+        d = self.decomposition
+        return {
+            "title": self.title, "headline": self.headline(), "gwp_source": self.period.gwp_source,
+            "gwp_source_label": self.gwp_label, "currency": self.reference.prices.currency,
+            "sites": self.sites, "chosen_sites": list(self.chosen_sites),
+            "period": per(self.period), "baseline": per(self.baseline),
+            "change": None if d is None else {
+                "t_co2e": d.change_kg / 1000.0, "zero_handling": d.zero_handling,
+                "by_factor_t_co2e": {f: d.contribution(f) / 1000.0 for f in FACTORS},
+                "detail": table(d.detail), "sentences": [s for _, s in self.sentences()]},
+            "target": None if self.target is None else {
+                "target": self.target.target.text, "label": self.target.target.label,
+                "allowed_t_per_year": self.target.allowed_t_per_year,
+                "actual_t_per_year": self.target.actual_t_per_year, "on_track": self.target.on_track,
+                "sentence": self.target.sentence()},
+            "method": self.method_statement(), "cautions": list(self.cautions),
+            "not_worked_out": [str(p) for p in self.problems],
+        }
+
+
+def _clean(v):
+    if v is None:
+        return None
+    if hasattr(v, "item"):
+        v = v.item()
+    if isinstance(v, float) and not math.isfinite(v):
+        return None
+    return v
+
+
+_NAMES = {"nitrous_oxide": "N2O"}
+_TRADE = re.compile(r"(prescribing information) \([A-Z][\w-]*(?:/[A-Z][\w-]*)*\)")
+
+
+def _no_trade_name(source: str) -> str:
+    """A source cited by substance and document type only (a product name in brackets dropped)."""
+    return _TRADE.sub(r"\1", str(source))
+
+
+def _name(term: str) -> str:
+    return _NAMES.get(term, term)
+
+
+def period_report(cases: pd.DataFrame, period: Period, reference: Reference, gwp_source: str,
+                  sites=None, chosen_sites=None, purchases: pd.DataFrame | None = None,
+                  where: str = "period", site_field: str = "site", also=()) -> PeriodReport:
+    """Figures of one period (see :class:`PeriodReport`), under ``gwp_source`` first, AR5 and AR6 GWP100
+    and the sources ``also``. Raises InputError when no case starts in it."""
+    sources = tuple(dict.fromkeys((*gwp_sources_shown(gwp_source, reference), *also)))
+    c = cases_in(cases, period, sites, chosen_sites, where, site_field)
+    f = use_figures(c, reference, sources)
+    pr = PeriodReport(period, gwp_source, sources, c, f, by_agent_table(c, reference, sources),
+                      grouped_table(c, "month", reference, gwp_source), grouped_table(c, "site", reference, gwp_source))
+    if purchases is not None:
+        pr.purchases = purchase_figures(purchases, period, reference, sources)
+        pr.use_vs_purchase = use_against_purchases(c, pr.purchases, reference, gwp_source)
+    return pr
+
+
+def build_report(cases: pd.DataFrame, period: Period, baseline: Period | None = None, *,
+                 reference: Reference = DEFAULT_REFERENCE, gwp_source: str = DEFAULT_GWP,
+                 baseline_gwp_source: str | None = None, purchases: pd.DataFrame | None = None,
+                 sites: dict | None = None, chosen_sites=(), target: Target | None = None,
+                 title: str = "Anaesthetic emissions report", absorbent_note: str = "",
+                 fields: dict | None = None) -> EmissionsReport:
+    """The emissions report of ``period`` against ``baseline`` and ``target``.
+
+    Parameters
+    ----------
+    cases : DataFrame
+        The case table of a record audit (:attr:`model.audit.result.AuditResult.cases`) that
+        covers both periods.
+    period, baseline : Period
+        The reporting period and the period compared with (optional).
+    reference : Reference
+    gwp_source, baseline_gwp_source : str
+        GWP source of the period (headline) and of the baseline (default: the same).
+    purchases : DataFrame, optional
+        Purchases table(s) (``month``, ``item``, ``amount``, ``unit``) for purchase-based figures.
+    sites : dict, optional
+        Theatre -> site (:func:`model.io.sites.read_sites`); without it each theatre is a site.
+    chosen_sites : sequence of str
+        Sites reported (default all).
+    target : Target, optional
+    absorbent_note : str
+        What the audit's absorbent figures assume (:meth:`model.audit.result.AuditResult.absorbent_note`).
+    fields : dict, optional
+        Names of the inputs in messages, by "period", "baseline", "target" and "site" (e.g.
+        the command line's "--period"); default those words.
+
+    Returns
+    -------
+    EmissionsReport
+        A baseline that has no cases (or a site file naming unknown theatres) is reported in
+        ``problems`` and the rest is worked out; no case in ``period`` at all raises.
+
+    Raises
+    ------
+    InputError
+        When no case starts in the period, or ``chosen_sites`` names an unknown site.
+    """
+    name = {"period": "period", "baseline": "baseline", "target": "target", "site": "site", **(fields or {})}
+    problems: list[InputError] = []
+    cautions: list[str] = []
+    if sites is not None:
+        try:
+            assign_sites(cases["theatre"], sites)
+        except InputError as err:
+            problems.append(err)
+            cautions.append("The site file could not be used (see 'not worked out'); each theatre is shown as its own site.")
+            sites, chosen_sites = None, ()
+    pr = period_report(cases, period, reference, gwp_source, sites, chosen_sites, purchases, name["period"],
+                       name["site"])
+    rep = EmissionsReport(title, reference, pr, sites=sites, chosen_sites=tuple(chosen_sites or ()),
+                          problems=problems, cautions=cautions, absorbent_note=absorbent_note)
+    if sites is not None and (pr.cases["site"] == UNASSIGNED).any():
+        left = sorted(set(pr.cases.loc[pr.cases["site"] == UNASSIGNED, "theatre"]))
+        cautions.append(f"Theatres the site file does not name are reported as '{UNASSIGNED}': " + ", ".join(left) + ".")
+    if purchases is not None and chosen_sites:
+        cautions.append("Purchases are not split by site: the purchase-based figures are those of the whole "
+                        "purchases file, while use-based figures are of the chosen sites only.")
+    if pr.purchases is not None and pr.purchases.months_missing:
+        cautions.append("No purchase line in: " + ", ".join(pr.purchases.months_missing)
+                        + " (purchase-based figures count nothing for those months).")
+    if baseline is not None:
+        bsrc = baseline_gwp_source or gwp_source
+        try:
+            rep.baseline = period_report(cases, baseline, reference, bsrc, sites, chosen_sites, purchases,
+                                         name["baseline"], name["site"], also=pr.gwp_sources)
+        except InputError as err:
+            problems.append(err)
+        if rep.baseline is not None:
+            if bsrc != gwp_source:
+                cautions.append(f"The baseline is worked out under {reference.gwp_source(bsrc).label} and the period "
+                                f"under {reference.gwp_source(gwp_source).label}: the change, the headline and the "
+                                "target comparison include the change of source (its part is shown on its own).")
+            if baseline.overlaps(period):
+                cautions.append(f"The baseline ({baseline.label}) overlaps the period ({period.label}): cases in "
+                                "both are counted in each.")
+            if abs(baseline.months - period.months) > 1e-9:
+                cautions.append(f"The period ({period.months:g} months) and the baseline ({baseline.months:g} months) "
+                                "differ in length: totals and the activity part of the change reflect that; the "
+                                "comparison with the target uses annual rates.")
+            rep.decomposition = decompose(period_mix(rep.baseline.figures, reference, bsrc),
+                                          period_mix(pr.figures, reference, gwp_source))
+            if target is not None:
+                try:
+                    rep.target = target_status(target, baseline, rep.baseline.co2e_t * 1000.0, period,
+                                               pr.co2e_t * 1000.0, name["target"])
+                except InputError as err:
+                    problems.append(err)
+    elif target is not None:
+        problems.append(InputError(name["target"], target.text, "a target needs a baseline period to start from"))
+    if pr.figures["absorbent_kg"] is None:
+        cautions.append("CO2 absorbent is not in these audit results; the cost covers agents and gases only.")
+    return rep
+
+
+def driver_sentences(d: Decomposition, base: dict, now: dict, base_src: str, now_src: str,
+                     reference: Reference) -> list[tuple[str, str]]:
+    """A plain sentence for each part of the change (t CO2e, with the figures behind it)."""
+    def t(kg):
+        if abs(kg) < 50.0:
+            return "changes it by less than 0.1 t CO2e"
+        return f"{'adds' if kg >= 0 else 'removes'} {abs(kg) / 1000:,.1f} t CO2e"
+
+    def pct(a, b):
+        return f"{(b / a - 1):+.0%}" if a > 0 else "new"
+
+    out = []
+    h0, h1 = base["hours"], now["hours"]
+    out.append(("activity", f"Activity: anaesthetic hours went from {h0:,.0f} to {h1:,.0f} ({pct(h0, h1)}); at the "
+                            f"baseline's agent mix and practice this {t(d.contribution('activity'))}."))
+    agents = sorted(set(base["agent_hours"]) | set(now["agent_hours"]))
+
+    def share(f, a):
+        return f["agent_hours"].get(a, 0.0) / f["hours"] if f["hours"] > 0 else 0.0
+
+    mix = d.detail[d.detail["factor"] == "agent mix"].set_index("term")["contribution_kg"]
+    moved = sorted(agents, key=lambda a: -abs(mix.get(a, 0.0)))[:2]
+    bits = "; ".join(f"{a} from {share(base, a):.0%} to {share(now, a):.0%} of hours" for a in moved)
+    out.append(("agent mix", f"Agent mix: {bits}. The change of mix {t(d.contribution('agent mix'))}."))
+    inten = d.detail[d.detail["factor"] == "intensity"].set_index("term")["contribution_kg"]
+
+    def gph(f, a):
+        hrs = f["agent_hours"].get(a, 0.0)
+        return f["agent_kg"].get(a, 0.0) * 1000.0 / hrs if hrs > 0 else float("nan")
+
+    moved = [a for a in sorted(agents, key=lambda a: -abs(inten.get(a, 0.0)))[:2] if abs(inten.get(a, 0.0)) > 0]
+    bits = "; ".join(f"{a} from {gph(base, a):,.1f} to {gph(now, a):,.1f} g of agent per hour" for a in moved)
+    out.append(("intensity", f"Intensity within each agent (fresh gas flow and dial practice): time-weighted fresh "
+                             f"gas flow went from {base['fgf_l_min']:.2f} to {now['fgf_l_min']:.2f} L/min"
+                             + (f"; {bits}" if bits else "") + f". This {t(d.contribution('intensity'))}."))
+    n0 = base["n2o_kg"] / h0 * 1000 if h0 > 0 else float("nan")
+    n1 = now["n2o_kg"] / h1 * 1000 if h1 > 0 else float("nan")
+    out.append(("N2O use", f"N2O use: {n0:,.0f} to {n1:,.0f} g of nitrous oxide per anaesthetic hour; this "
+                           f"{t(d.contribution('N2O use'))}."))
+    if base_src == now_src:
+        out.append(("GWP source", f"GWP source: the same for both ({reference.gwp_source(now_src).label}), no part "
+                                  "of the change."))
+    else:
+        out.append(("GWP source", f"GWP source: {reference.gwp_source(base_src).label} for the baseline, "
+                                  f"{reference.gwp_source(now_src).label} for the period; the change of source "
+                                  f"{t(d.contribution('GWP source'))}."))
+    return out

@@ -1,0 +1,287 @@
+"""Emissions report: a period's scope 1 anaesthetic emissions against a baseline and a target, and what drove the change."""
+
+from __future__ import annotations
+
+import hashlib
+from dataclasses import replace
+import tempfile
+from pathlib import Path
+
+import pandas as pd
+import streamlit as st
+
+import ui
+from model import InputError
+from model.audit.engine import audit_records
+from model.io.purchases import load_purchases
+from model.io.sites import parse_sites
+from model.io.uploads import check_upload
+from model.report import build_report, parse_period, parse_target
+from model.report.document import report_html
+from ui.common import sources_table
+from ui.report_charts import report_figures
+from ui.report_views import period_input, shown, target_input
+
+ROOT = Path(__file__).resolve().parents[1]
+DEMO = ROOT / "demo_data" / "records"
+DEMO_RECORDS = [DEMO / "fernhollow_2025.parquet", DEMO / "fernhollow_2026.parquet"]
+DEMO_PURCHASES = [DEMO / "fernhollow_purchases_2025.csv", DEMO / "fernhollow_purchases_2026.csv"]
+DEMO_SITES = DEMO / "fernhollow_sites.csv"
+
+view = ui.page_start("Emissions report", "Scope 1 anaesthetic emissions for a reporting period, against a "
+                     "baseline and a target, with what drove the change: for a sustainability report or a board.")
+ref = ui.reference(view)
+
+source = st.radio("Records", ["Demo records (Fernhollow General Hospital, invented, 2025 and 2026)", "Upload files"],
+                  key="er_source", horizontal=True)
+files: list[tuple[str, bytes]] = []
+purchase_files: list[tuple[str, bytes]] = []
+sites_file: tuple[str, bytes] | None = None
+if source.startswith("Demo"):
+    files = [(p.name, p.read_bytes()) for p in DEMO_RECORDS]
+    c1, c2 = st.columns(2)
+    if c1.checkbox("Add the demo purchases (purchase-based figures)", value=True, key="er_demo_purchases"):
+        purchase_files = [(p.name, p.read_bytes()) for p in DEMO_PURCHASES]
+    if c2.checkbox("Group theatres into sites (demo site file)", value=True, key="er_demo_sites"):
+        sites_file = (DEMO_SITES.name, DEMO_SITES.read_bytes())
+else:
+    c1, c2, c3 = st.columns(3)
+    ups = c1.file_uploader("Record files covering both periods (.csv, .parquet)", type=["csv", "parquet"],
+                           accept_multiple_files=True, key="er_upload")
+    ups_p = c2.file_uploader("Purchases files (optional)", type=["csv", "parquet"], accept_multiple_files=True,
+                             key="er_upload_purchases")
+    up_s = c3.file_uploader("Site file, theatre,site (optional)", type=["csv"], key="er_upload_sites")
+    try:
+        files = [(ok.name, ok.data) for ok in (check_upload(u.name, u.getvalue(), "records") for u in ups or [])]
+        purchase_files = [(ok.name, ok.data) for ok in
+                          (check_upload(u.name, u.getvalue(), "purchases") for u in ups_p or [])]
+        if up_s is not None:
+            ok = check_upload(up_s.name, up_s.getvalue(), "sites")
+            sites_file = (ok.name, ok.data)
+    except InputError as err:
+        ui.show_input_error(err)
+        st.stop()
+if not files:
+    st.info("Upload record files (format in the README, 'Case records') to build the report.")
+    st.stop()
+
+
+def _digest(items) -> str:
+    h = hashlib.sha256()
+    for name, data in items:
+        h.update(name.encode() + b"\0" + hashlib.sha256(data).digest())
+    return h.hexdigest()
+
+
+@st.cache_data(show_spinner="Auditing the records...", max_entries=4)
+def audited(digest: str, ref_key: str, temperature_c: float, _files, _ref):
+    """The audit's case table, reading summary and absorbent note (files in a private temporary folder)."""
+    with tempfile.TemporaryDirectory(prefix="gas-ledger-report-") as tmp:
+        paths = []
+        for i, (name, data) in enumerate(_files):
+            p = Path(tmp) / f"{i:03d}-{Path(name).name}"
+            p.write_bytes(data)
+            paths.append(p)
+        try:
+            result = audit_records(paths, reference=_ref, temperature_c=temperature_c)
+        except InputError as err:
+            return None, str(err).replace(tmp + "/", ""), ""
+    return result.cases, result.report.summary(), result.absorbent_note()
+
+
+@st.cache_data(show_spinner=False, max_entries=8)
+def purchases_table(digest: str, ref_key: str, _files, _ref):
+    """The purchases files' usable lines (one table) and the messages of lines set aside."""
+    tables, notes = [], []
+    with tempfile.TemporaryDirectory(prefix="gas-ledger-report-") as tmp:
+        for name, data in _files:
+            p = Path(tmp) / Path(name).name
+            p.write_bytes(data)
+            try:
+                read = load_purchases(p, _ref)
+            except InputError as err:
+                notes.append(str(err).replace(tmp + "/", ""))
+                continue
+            tables.append(read.table)
+            notes += [m.replace(tmp + "/", "") for m in read.messages]
+    return (pd.concat(tables, ignore_index=True) if tables else None), notes
+
+
+cases, summary, absorbent_note = audited(_digest(files), ui.reference_key(view), float(view.temperature_c), tuple(files), ref)
+if cases is None:
+    ui.show_input_error(InputError("records", "the files", summary))
+    st.stop()
+purchases, purchase_notes = (purchases_table(_digest(purchase_files), ui.reference_key(view), tuple(purchase_files),
+                                             ref) if purchase_files else (None, []))
+sites = None
+if sites_file is not None:
+    try:
+        sites = parse_sites(sites_file[1].decode("utf-8-sig"), sites_file[0])
+    except (InputError, UnicodeDecodeError) as err:
+        ui.show_input_error(err if isinstance(err, InputError) else
+                            InputError(sites_file[0], "the file", "not UTF-8 text"), "Site file (not used)")
+
+starts = pd.to_datetime(cases["start"], errors="coerce").dropna()
+last_year = int(starts.max().year) if len(starts) else 2026
+st.caption(f"{summary['rows_valid']:,} rows used from {len(files)} file(s), {summary['rows_set_aside']:,} set aside "
+           "(the Record audit page lists them). Cases from "
+           + (f"{starts.min():%Y-%m-%d} to {starts.max():%Y-%m-%d}." if len(starts) else "no dated case."))
+
+# The headline and key figures are drawn here, above the choices that make them, so that on a
+# laptop screen they are seen first.
+head = st.container()
+with st.container(border=True):
+    st.markdown("**Period, baseline and target**")
+    period_text = period_input("Reporting period", "er_period", last_year)
+    use_baseline = st.checkbox("Compare with a baseline period", value=True, key="er_use_baseline")
+    baseline_text = period_input("Baseline period", "er_baseline", last_year - 1) if use_baseline else None
+    target_text = target_input("er_target", last_year) if use_baseline else None
+    c1, c2 = st.columns(2)
+    gwp_keys = [k for k in ref.gwp_sources if k != "user" or ref.gwp_sources[k].values]
+    baseline_gwp = c1.selectbox("GWP source of the baseline", gwp_keys, index=gwp_keys.index(view.gwp_source)
+                                if view.gwp_source in gwp_keys else 0, key="er_baseline_gwp",
+                                format_func=lambda k: ref.gwp_sources[k].label,
+                                help="Normally the same as the sidebar's. A different one shows the change of "
+                                     "source as its own part of the change.") if use_baseline else None
+    site_names = sorted(set(sites.values())) if sites else []
+    chosen_sites = c2.multiselect("Sites reported (none chosen: all)", site_names, key="er_sites") if sites else []
+
+if period_text is None:
+    st.info("Choose the last day of the date range.")
+    st.stop()
+try:
+    period = parse_period(period_text, "Reporting period")
+except InputError as err:
+    ui.show_input_error(err)
+    st.stop()
+baseline, target, problems = None, None, []
+try:
+    baseline = parse_period(baseline_text, "Baseline period") if baseline_text else None
+except InputError as err:
+    problems.append(err)
+try:
+    target = parse_target(target_text, "Target") if target_text and baseline is not None else None
+except InputError as err:
+    problems.append(err)
+
+
+@st.cache_resource(show_spinner=False, max_entries=16)
+def cached_report(key: str, _cases, _period, _baseline, _ref, _gwp, _baseline_gwp, _purchases, _sites, _chosen,
+                  _target, _absorbent_note):
+    """``build_report`` keyed by text naming every input (the result is never changed after)."""
+    return build_report(_cases, _period, _baseline, reference=_ref, gwp_source=_gwp,
+                        baseline_gwp_source=_baseline_gwp, purchases=_purchases, sites=_sites,
+                        chosen_sites=_chosen, target=_target, absorbent_note=_absorbent_note,
+                        fields={"period": "Reporting period", "baseline": "Baseline period", "target": "Target",
+                                "site": "Sites reported"})
+
+
+report_key = "|".join(map(str, (_digest(files), _digest(purchase_files), sites_file and _digest([sites_file]),
+                                ui.reference_key(view), view.temperature_c, period.text, baseline and baseline.text,
+                                target and target.text, view.gwp_source, baseline_gwp, sorted(chosen_sites))))
+try:
+    report = cached_report(report_key, cases, period, baseline, ref, view.gwp_source, baseline_gwp, purchases, sites,
+                           tuple(chosen_sites), target, absorbent_note)
+except InputError as err:
+    ui.show_input_error(err)
+    st.stop()
+extra = ([f"{len(purchase_notes)} purchase line(s) set aside; the others are used: "
+          + "; ".join(purchase_notes[:5]) + (" ..." if len(purchase_notes) > 5 else "")] if purchase_notes else [])
+# A copy with this run's messages: the cached report itself is never changed.
+report = replace(report, problems=problems + report.problems, cautions=report.cautions + extra)
+
+# ---- headline ---------------------------------------------------------------------------
+pr, br, d = report.period, report.baseline, report.decomposition
+with head:
+    st.markdown(f"#### {ui.md(report.headline())}")
+    for p in report.problems:
+        ui.show_input_error(p, "Not worked out")
+    m = st.columns(4) + st.columns(5)
+    delta = None if br is None else f"{pr.co2e_t - br.co2e_t:+,.1f} t on the baseline"
+    m[0].metric(f"Use-based, {report.gwp_label}", f"{pr.co2e_t:,.1f} t CO2e", delta, delta_color="inverse")
+    ar5 = pr.figures["co2e_t"].get("ar5_gwp100")
+    if ar5 is not None and pr.gwp_source != "ar5_gwp100":
+        m[1].metric("Use-based, IPCC AR5 GWP100", f"{ar5:,.1f} t CO2e")
+    else:
+        m[1].metric("Use-based, IPCC AR6 GWP100", f"{pr.figures['co2e_t']['ar6_gwp100']:,.1f} t CO2e")
+    if pr.purchases is not None:
+        m[2].metric("Purchase-based", f"{pr.purchases.co2e_t(f't CO2e ({report.gwp_label})'):,.1f} t CO2e",
+                    help=f"Everything bought in the period's months, {report.gwp_label}")
+    else:
+        m[2].metric("Purchase-based", "no purchases")
+    m[3].metric("Fresh gas flow", view.flow(pr.figures["fgf_l_min"]), help="time-weighted over the anaesthetic time")
+    m[4].metric("Cases", f"{pr.figures['cases']:,}")
+    m[5].metric("Anaesthetic hours", f"{pr.figures['hours']:,.0f} h")
+    m[6].metric("CO2e per case", f"{pr.figures['kg_per_case']:,.1f} kg")
+    m[7].metric("CO2e per hour", f"{pr.figures['kg_per_hour']:,.1f} kg", help="per anaesthetic hour")
+    m[8].metric("N2O per case", f"{pr.figures['n2o_l_per_case']:,.0f} L")
+    if report.target is not None:
+        (st.success if report.target.on_track else st.warning)(ui.md(report.target.sentence()))
+
+
+# ---- figures ----------------------------------------------------------------------------
+
+
+@st.cache_resource(show_spinner=False, max_entries=16)
+def cached_figures(key: str, _report) -> dict:
+    """The report's charts, built once per set of inputs (cached figures are never changed)."""
+    return report_figures(_report)
+
+
+charts = cached_figures(report_key, report)
+
+
+def _chart(heading: str, key: str) -> None:
+    st.plotly_chart(charts[heading], width="stretch", key=key)
+
+
+tabs = st.tabs(["What drove the change", "Figures", "By month and site", "Flow bands", "Use and purchases",
+                "Target path", "Method and cautions"])
+with tabs[0]:
+    if d is None:
+        st.caption("Choose a baseline period with cases in the records to see what drove the change.")
+    else:
+        _chart("What drove the change", "er_waterfall")
+        st.markdown("\n".join(f"- {ui.md(sentence)}" for _, sentence in report.sentences()))
+        st.dataframe(report.decomposition_table(), hide_index=True, width="stretch",
+                     column_config={"t_co2e": st.column_config.NumberColumn("t CO2e", format="%+.2f")})
+        st.caption("Additive LMDI-I (Ang 2005): the parts add exactly to the total change. An agent used in one "
+                   "period only: analytical limits of Ang and Liu 2007 (its whole change is agent mix).")
+with tabs[1]:
+    _chart("Emissions by agent", "er_agents")
+    st.dataframe(shown(report.figures_table()), hide_index=True, width="stretch")
+    st.dataframe(shown(pr.by_agent), hide_index=True, width="stretch",
+                 column_config={"share": st.column_config.NumberColumn(format="percent")})
+with tabs[2]:
+    _chart("Emissions by month", "er_months")
+    st.dataframe(shown(pr.by_month), hide_index=True, width="stretch")
+    st.dataframe(shown(pr.by_site), hide_index=True, width="stretch")
+with tabs[3]:
+    _chart("Time in each flow band", "er_bands")
+with tabs[4]:
+    if pr.use_vs_purchase is None:
+        st.caption("Add purchases files to set purchase-based figures beside the use-based ones.")
+    else:
+        _chart("Use-based and purchase-based", "er_purchases")
+        st.dataframe(shown(pr.use_vs_purchase), hide_index=True, width="stretch",
+                     column_config={"gap_share": st.column_config.NumberColumn(format="percent")})
+        st.caption("Gap = purchased - used: stock held over, wastage, use not recorded and, for piped N2O, "
+                   "losses from manifolds and pipework.")
+with tabs[5]:
+    if report.target is None:
+        st.caption("Choose a baseline and a target to see the target path.")
+    else:
+        _chart("Against the target path", "er_target_fig")
+with tabs[6]:
+    st.markdown("**Method statement**")
+    st.markdown("\n".join(f"- {ui.md(line)}" for line in report.method_statement()))
+    st.markdown("**Cautions**")
+    st.markdown("\n".join(f"- {ui.md(line)}" for line in [ui.CAUTION, *report.cautions]))
+
+
+def _html() -> str:
+    return report_html(report, list(charts.items()), cautions=[ui.CAUTION], sources=sources_table(ui.reference_key(view), ref))
+
+
+ui.downloads(f"emissions report {pr.period.text}", report.tables(), _html, key="er_dl",
+             notes=tuple(report.notes()))

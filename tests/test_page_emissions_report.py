@@ -1,0 +1,78 @@
+"""AppTest of the Emissions report page."""
+
+from __future__ import annotations
+
+import pytest
+from streamlit.testing.v1 import AppTest
+
+from model.audit.engine import audit_records
+from model.report import build_report, parse_period
+
+from pagetest import ROOT, isolated_store, page  # noqa: F401  (isolated_store: autouse fixture)
+
+DEMO = ROOT / "demo_data" / "records"
+
+
+def _metric(at: AppTest, label: str) -> str:
+    return next(m.value for m in at.metric if m.label == label)
+
+
+@pytest.fixture(scope="module")
+def expected():
+    cases = audit_records([DEMO / "fernhollow_2025.parquet", DEMO / "fernhollow_2026.parquet"]).cases
+    return build_report(cases, parse_period("2026"), parse_period("2025"))
+
+
+def test_demo_report_renders_with_headline_change_and_target(expected):
+    at = page("emissions_report.py")
+    assert at.title[0].value == "Emissions report"
+    # The page's headline figure equals the model's for the same demo files and periods.
+    assert _metric(at, "Use-based, IPCC AR6 GWP100") == f"{expected.period.co2e_t:,.1f} t CO2e"
+    assert any("calendar year 2026" in m.value and "down" in m.value for m in at.markdown)
+    assert len(at.success) == 1 and "on track" in at.success[0].value
+    assert len(at.get("plotly_chart")) >= 5
+    assert "Purchase-based" in [m.label for m in at.metric]
+    assert _metric(at, "Cases") == f"{expected.period.figures['cases']:,}"
+    assert not at.error
+
+
+def test_a_later_baseline_year_changes_the_comparison_and_an_unknown_year_is_one_message(expected):
+    at = page("emissions_report.py")
+    at.number_input(key="er_baseline_year").set_value(2019).run()
+    assert not at.exception
+    errors = [e.value.replace("\\", "") for e in at.error]       # shown through ui.md (escaped)
+    assert len(errors) == 1 and "Baseline period: got '2019'" in errors[0] and "2025-01-01" in errors[0]
+    # Nothing computed is lost: the period's figures stay.
+    assert _metric(at, "Use-based, IPCC AR6 GWP100") == f"{expected.period.co2e_t:,.1f} t CO2e"
+
+
+def test_a_period_written_wrong_is_one_message():
+    at = page("emissions_report.py")
+    at.selectbox(key="er_period_kind").set_value("As written").run()
+    at.text_input(key="er_period_text").set_value("2026H1").run()
+    assert not at.exception
+    shown = [e.value.replace("\\", "") for e in at.error]
+    assert len(shown) == 1 and shown[0].startswith("Reporting period: got '2026H1'") and "FY2026-04" in shown[0]
+
+
+def test_financial_year_and_quarter_widgets_make_our_period_syntax():
+    at = page("emissions_report.py")
+    at.selectbox(key="er_period_kind").set_value("Quarter").run()
+    at.selectbox(key="er_period_q").set_value(2).run()
+    assert not at.exception
+    assert any("2026 quarter 2" in m.value for m in at.markdown)
+    at.selectbox(key="er_period_kind").set_value("Financial year").run()
+    at.number_input(key="er_period_year").set_value(2025).run()
+    assert not at.exception
+    assert any("financial year April 2025 to March 2026" in m.value for m in at.markdown)
+
+
+def test_upload_without_files_asks_for_records_and_no_baseline_hides_the_change():
+    at = page("emissions_report.py")
+    at.checkbox(key="er_use_baseline").uncheck().run()
+    assert not at.exception
+    assert any("Choose a baseline period" in c.value for c in at.caption)
+    assert not at.success and not at.error
+    at.radio(key="er_source").set_value("Upload files").run()
+    assert not at.exception
+    assert any("Upload record files" in i.value for i in at.info)

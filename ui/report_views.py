@@ -1,0 +1,60 @@
+"""Widgets of the Emissions report page: a reporting period, a target (each returns our own syntax)."""
+
+from __future__ import annotations
+
+from datetime import date
+
+import streamlit as st
+
+from model.report.periods import PERIOD_FORMS
+
+PERIOD_KINDS = ("Calendar year", "Financial year", "Quarter", "Date range", "As written")
+MONTHS = ("January", "February", "March", "April", "May", "June", "July", "August", "September", "October",
+          "November", "December")
+TARGET_KINDS = ("No target", "A yearly reduction", "A tonnage by a year")
+
+
+def period_input(label: str, key: str, default_year: int, default_kind: str = "Calendar year") -> str | None:
+    """Widgets for one reporting period; returns it in our syntax (e.g. "FY2026-04"), or None while a
+    date range is half chosen."""
+    c = st.columns([1.3, 1, 1])
+    kind = c[0].selectbox(label, PERIOD_KINDS, index=PERIOD_KINDS.index(default_kind), key=f"{key}_kind")
+    if kind == "As written":
+        return c[1].text_input("Period", value=str(default_year), key=f"{key}_text",
+                               help="One of: " + "; ".join(PERIOD_FORMS))
+    if kind == "Date range":
+        chosen = c[1].date_input("First and last day", value=(date(default_year, 1, 1), date(default_year, 6, 30)),
+                                 key=f"{key}_range", format="YYYY-MM-DD")
+        if not isinstance(chosen, (tuple, list)) or len(chosen) < 2:
+            return None
+        return f"{chosen[0].isoformat()}..{chosen[1].isoformat()}"
+    year = int(c[1].number_input("Year" if kind != "Financial year" else "Starting in", 1990, 2100, default_year,
+                                 key=f"{key}_year"))
+    if kind == "Calendar year":
+        return f"{year}"
+    if kind == "Quarter":
+        q = c[2].selectbox("Quarter", (1, 2, 3, 4), key=f"{key}_q", format_func=lambda n: f"Q{n}")
+        return f"{year}Q{q}"
+    month = c[2].selectbox("First month", range(1, 13), index=3, key=f"{key}_month",
+                           format_func=lambda m: MONTHS[m - 1])
+    return f"FY{year}-{month:02d}"
+
+
+def target_input(key: str, default_year: int) -> str | None:
+    """Widgets for a reduction target; returns it in our syntax ("-5%/year", "120 t by 2030") or None."""
+    c = st.columns([1.3, 1, 1])
+    kind = c[0].selectbox("Target", TARGET_KINDS, index=1, key=f"{key}_kind")
+    if kind == TARGET_KINDS[1]:
+        pct = c[1].number_input("Reduction a year [%]", 0.0, 99.0, 5.0, 0.5, key=f"{key}_pct",
+                                help="Compounded from the baseline: each year this much less than the year before.")
+        return f"-{pct:g}%/year"
+    if kind == TARGET_KINDS[2]:
+        t = c[1].number_input("Tonnes CO2e a year", 0.0, 1e6, 40.0, 1.0, key=f"{key}_t")
+        y = c[2].number_input("By the year", 1990, 2200, default_year + 4, key=f"{key}_by")
+        return f"{t:g} t by {int(y)}"
+    return None
+
+
+def shown(df):
+    """A table for the screen: numbers to two decimals."""
+    return df.round(2)
