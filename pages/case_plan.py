@@ -9,6 +9,7 @@ import pandas as pd
 import streamlit as st
 
 import ui
+import ui.state
 from model import InputError
 from model.io.exports import html_report
 from model.plan import CasePlan
@@ -122,8 +123,9 @@ with st.expander("Safety limits and scavenging", icon=":material/tune:"):
                   "capture_efficiency": b3.empty()})
 
 st.markdown("**Phases** — one row per phase; add or delete rows at the table's edge.")
+editor_key = f"cp_phases_{ss['cp_rev']}"
 edited = st.data_editor(
-    ss["cp_editor_df"], key=f"cp_phases_{ss['cp_rev']}", num_rows="dynamic", hide_index=True,
+    ui.state.editor_base(editor_key, ss["cp_editor_df"]), key=editor_key, num_rows="dynamic", hide_index=True,
     width="stretch",
     column_config={
         "phase": st.column_config.TextColumn("phase", required=True, max_chars=80),
@@ -135,6 +137,7 @@ edited = st.data_editor(
                                                     help="dial: vaporizer setting; target: end-tidal MAC multiple"),
         "setting": st.column_config.TextColumn("dial % or target", help="e.g. 2.5 % (dial) or 1.0 (x MAC)"),
     })
+ui.state.remember_editor(editor_key, edited, family="cp_phases_")
 table_slot = st.empty()
 
 

@@ -8,6 +8,7 @@ import pandas as pd
 import streamlit as st
 
 import ui
+import ui.state
 from model import InputError
 from model.io.casemix import casemix_from_frame, casemix_to_frame
 from model.io.exports import html_report
@@ -41,8 +42,10 @@ st.caption("Edit counts, durations, agent shares and each type's plan (its flow 
            "minutes; spread is the SD of ln(duration); shares as fractions.")
 share_cols = {a: st.column_config.NumberColumn(a, min_value=0.0, max_value=1.0, step=0.05, format="%.2f")
               for a in VOLATILES}
+mix_key = f"dy_mix_{name}"
 edited = st.data_editor(
-    casemix_to_frame(base.casemix), key=f"dy_mix_{name}", num_rows="dynamic", hide_index=True, width="stretch",
+    ui.state.editor_base(mix_key, casemix_to_frame(base.casemix)), key=mix_key, num_rows="dynamic",
+    hide_index=True, width="stretch",
     column_config={
         "case_type": st.column_config.TextColumn("case type", required=True),
         "cases_per_year": st.column_config.NumberColumn("cases / year", min_value=0, step=10, format="%d"),
@@ -54,6 +57,7 @@ edited = st.data_editor(
         "age": st.column_config.NumberColumn("age", min_value=0.0, max_value=120.0),
         "plan": st.column_config.SelectboxColumn("plan", options=sorted(library), required=True),
     })
+ui.state.remember_editor(mix_key, edited)
 try:
     mix = casemix_from_frame(edited, library, "case mix table")
 except InputError as err:
