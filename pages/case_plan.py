@@ -137,6 +137,41 @@ edited = st.data_editor(
                                                     help="dial: vaporizer setting; target: end-tidal MAC multiple"),
         "setting": st.column_config.TextColumn("dial % or target", help="e.g. 2.5 % (dial) or 1.0 (x MAC)"),
     })
+
+
+def _control_switches(before: pd.DataFrame | None, after: pd.DataFrame) -> list[int]:
+    """Rows whose control changed in this run while their setting stayed as typed for the other one."""
+    if before is None:
+        return []
+    rows = []
+    for i in range(min(len(before), len(after))):
+        was, now = before["control"].iloc[i], after["control"].iloc[i]
+        setting = after["setting"].iloc[i]
+        if was != now and was in CONTROL_LABELS and setting == before["setting"].iloc[i] \
+                and setting is not None and setting == setting and str(setting).strip():
+            rows.append(i)
+    return rows
+
+
+switched = _control_switches(ui.state.last_edited(editor_key), edited)
+if switched:
+    # A dial setting left in a target row would be read as a MAC multiple ("2 %" as 2 x MAC),
+    # a target left in a dial row as a dial %: clear it, and say so.
+    frame = edited.copy()
+    notes = []
+    for i in switched:
+        old = str(frame.at[frame.index[i], "setting"]).strip()
+        if frame["control"].iloc[i] == "target":
+            notes.append(f"row {i + 1}: the control is now an end-tidal target, so the dial setting '{old}' "
+                         "was cleared; type the target as a MAC multiple (e.g. 1.0)")
+        else:
+            notes.append(f"row {i + 1}: the control is now the vaporizer dial, so the target '{old}' was "
+                         "cleared; type the dial setting in % (e.g. 2 %)")
+        frame.at[frame.index[i], "setting"] = None
+    ss["cp_editor_df"] = frame.reset_index(drop=True)
+    ss["cp_rev"] += 1
+    ss["cp_flash"] = ("warning", "Phases table, " + "; ".join(notes) + ".")
+    st.rerun()
 ui.state.remember_editor(editor_key, edited, family="cp_phases_")
 table_slot = st.empty()
 

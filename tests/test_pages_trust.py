@@ -95,3 +95,30 @@ def test_department_year_and_reference_inputs_survive_a_visit_to_another_page():
     assert metric_value(at, "Cost") == cost
     go(at, "reference.py")
     assert at.text_input(key="ref_search").value == "density"
+
+
+def edit_phase(at: AppTest, row: int, **cells) -> AppTest:
+    key = next(d.key for d in at.data_editor if d.key.startswith("cp_phases_"))
+    at.session_state[key] = {"edited_rows": {row: cells}, "added_rows": [], "deleted_rows": []}
+    return run(at)
+
+
+def test_switching_a_phase_to_a_target_clears_the_dial_setting_and_says_so():
+    """Defect 3: dial -> end-tidal target never reads the leftover "2 %" as 2 x MAC."""
+    at = page("case_plan.py")
+    at.selectbox(key="cp_open_name").select("Laparoscopic cholecystectomy, high flow")
+    run(at)
+    click(at, "Open")
+    assert at.data_editor[0].value["setting"].iloc[1].endswith("%")
+    edit_phase(at, 1, control="target")
+    table = at.data_editor[0].value
+    assert table["control"].iloc[1] == "target"
+    assert table["setting"].iloc[1] is None or str(table["setting"].iloc[1]) in ("", "None", "nan")
+    shown = " ".join(w.value for w in at.warning).replace("\\", "")
+    assert "row 2: the control is now an end-tidal target" in shown and "cleared" in shown
+    # The setting typed for the target is a MAC multiple; a percent there is refused by its cell.
+    edit_phase(at, 1, setting="2 %")
+    assert any("row 2, dial % or target" in e.value and "MAC multiple" in e.value for e in at.error), \
+        [e.value for e in at.error]
+    edit_phase(at, 1, setting="1.0")
+    assert not at.error, [e.value for e in at.error]

@@ -57,6 +57,11 @@ def editor_base(key: str, frame):
     return ss.get(_BASE, {}).get(key, frame)
 
 
+def last_edited(key: str):
+    """The editor's table as it was at the end of the previous run (None before the first)."""
+    return st.session_state.get(_KEPT, {}).get(key)
+
+
 def remember_editor(key: str, edited, family: str | None = None) -> None:
     """Keep the editor's table as edited in this run (``family``: a key prefix whose other
     editors are forgotten, e.g. earlier revisions of the same table)."""
