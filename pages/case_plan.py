@@ -4,11 +4,13 @@ from __future__ import annotations
 
 import json
 import re
+from dataclasses import replace
 
 import pandas as pd
 import streamlit as st
 
 import ui
+import ui.provenance
 import ui.state
 from model import InputError
 from model.io.exports import html_report
@@ -190,6 +192,8 @@ def _raw_inputs() -> dict:
     base["settings"]["capture_efficiency"] = ss["cp_capture"]
     base["settings"]["gwp_source"] = view.gwp_source
     base["settings"]["room_temperature"] = f"{view.temperature_c:g} degC"
+    if not ss.get("cp_own_prices"):
+        base.pop("prices", None)     # the prices in use on every page, unless the plan's own are chosen
     phases = []
     for row in edited.to_dict("records"):
         if all(v is None or (isinstance(v, str) and not v.strip()) or v != v for v in row.values()):
@@ -277,7 +281,10 @@ def _baseline_totals(base_toml: str, ref_key: str, _ref) -> dict:
     return ui.compute_cached(base_toml, ref_key, _ref).totals
 
 
-base_toml = plan_to_toml(ui.apply_settings(ss["cp_base"], view))
+own_items = ui.provenance.price_items(ss["cp_base"].prices)
+own = (f"the plan '{ss['cp_base'].name}'", ss["cp_base"].prices) if own_items and ss.get("cp_own_prices") else None
+base_toml = plan_to_toml(replace(ui.apply_settings(ss["cp_base"], view),
+                                 prices=ss["cp_base"].prices if own else {}))
 try:
     b = _baseline_totals(base_toml, ref_key, ref)
 except InputError:
@@ -291,6 +298,11 @@ def _delta(key, fmt, scale=1.0):
 
 
 st.subheader("What this case uses")
+if own_items:
+    st.checkbox("Use the plan's own prices", key="cp_own_prices",
+                help="Off: the prices in use on every page (your Reference values over the built-in examples). "
+                     f"On: the prices written in the plan for {', '.join(own_items)}.")
+ui.provenance.show(view, ref, own)
 agent = ref.volatile(plan.agent)
 co2e_scale = ui.common.CO2E_UNITS[view.co2e_unit]
 m = st.columns(6)
@@ -467,7 +479,8 @@ with d2:
     s1, s2 = st.columns([3, 1], vertical_alignment="bottom")
     note = s1.text_input("Note for this version", key="cp_note", placeholder="optional, e.g. after theatre meeting")
     if s2.button("Save", type="primary", icon=":material/save:", width="stretch", disabled=status != "ok"):
-        version = store.save_plan(plan, note)
+        # The plan's own prices are kept with it whether or not they were used here.
+        version = store.save_plan(replace(plan, prices=dict(ss["cp_base"].prices)), note)
         ss["cp_base"] = plan
         ss["cp_origin"] = f"saved plan '{plan.name}' version {version}"
         ss["cp_saved_msg"] = f"Saved '{plan.name}' as version {version}. Earlier versions are kept."

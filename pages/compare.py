@@ -2,10 +2,13 @@
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import pandas as pd
 import streamlit as st
 
 import ui
+import ui.provenance
 from model import InputError
 from model.io.exports import html_report
 from model.io.plans import plan_to_toml
@@ -64,7 +67,8 @@ def _compare_plans() -> None:
     with st.spinner("Computing the plans..."):
         for label in chosen:
             try:
-                plan = ui.apply_settings(store.load_plan(*versions[label]), view)
+                # The prices in use on every page, not a plan file's own (ui/provenance.py).
+                plan = replace(ui.apply_settings(store.load_plan(*versions[label]), view), prices={})
                 results[label] = ui.compute_cached(plan_to_toml(plan), ref_key, ref)
             except InputError as err:
                 ui.show_input_error(err, f"'{label}'")
@@ -75,6 +79,7 @@ def _compare_plans() -> None:
     scale = ui.common.CO2E_UNITS[view.co2e_unit]
 
     st.subheader("Against the baseline")
+    ui.provenance.show(view, ref)
     st.caption(f"Baseline: **{ui.md(base_name)}** ({ref.agents[base.plan.agent].label}, "
                f"{bt['duration_min']:.0f} min). Green is less used, emitted or spent.")
     for name, res in list(results.items())[1:]:

@@ -8,6 +8,7 @@ import pandas as pd
 import streamlit as st
 
 import ui
+import ui.provenance
 import ui.state
 from model import InputError
 from model.io.casemix import casemix_from_frame, casemix_to_frame
@@ -36,6 +37,13 @@ except InputError as err:
     ui.show_input_error(err)
     st.stop()
 library = {**yv.plan_library(), **base.casemix.plans}
+own_items = ui.provenance.price_items(base.prices)
+own_prices = bool(own_items) and st.checkbox(
+    "Use the scenario's own prices", key=f"dy_own_prices_{name}",
+    help="Off: the prices in use on every page (your Reference values over the built-in examples). "
+         f"On: the prices written in the scenario for {', '.join(own_items)}.")
+own = (f"the scenario '{base.name}'", base.prices) if own_prices else None
+ui.provenance.show(view, ref, own)
 
 st.subheader("Case mix")
 st.caption("Edit counts, durations, agent shares and each type's plan (its flow practice). Durations in "
@@ -102,7 +110,7 @@ mode = min(max(mode / 100, low), high)
 practice = Practice(flow if use_flow else None, dial_factor, "desflurane" if switch else None,
                     "sevoflurane" if switch else None, mode, low, high,
                     maintenance_o2_share=o2_pct / 100 if use_o2 else None)
-scenario = replace(yv.scenario_for_view(base, view, mix), practice=practice,
+scenario = replace(yv.scenario_for_view(base, view, mix, own_prices), practice=practice,
                    sampling=Sampling(int(draws), int(seed), float(spread), tuple(gwps)),
                    car_kg_per_km=float(car), car_source=car_source.strip() or base.car_source)
 try:

@@ -11,6 +11,7 @@ import plotly.express as px
 import streamlit as st
 
 import ui
+import ui.provenance
 from model import InputError
 from model.audit.result import DEFAULT_HIGH_FLOW_L_MIN, DEFAULT_HIGH_FLOW_LIMIT_MIN
 from model.audit.engine import audit_records
@@ -161,6 +162,8 @@ m[4].metric(f"CO2e ({view.co2e_unit})", view.co2e_number(total["co2e_total_kg"])
 m[5].metric("Cost", view.money(total["cost_total"]))
 st.caption(f"GWP source: {result.gwp_label}. Every delivered gram counts as emitted (no uptake model). "
            f"{int(total['high_flow_cases']):,} case(s) ran {high_limit:g} min or more above {high_flow:g} L/min.")
+
+ui.provenance.show(view, ref)
 
 with st.expander(f"Checks: {summary['rows_set_aside']:,} row(s) set aside, {summary['gaps']:,} gap(s)",
                  expanded=summary["rows_set_aside"] > 0 or summary["gaps"] > 0):

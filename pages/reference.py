@@ -8,6 +8,7 @@ import pandas as pd
 import streamlit as st
 
 import ui
+import ui.provenance
 from model import DEFAULT_REFERENCE, InputError
 from model.io.exports import html_report
 from model.reference import VOLATILES
@@ -51,6 +52,7 @@ ui.downloads("reference values", {"Reference": table}, _report, key="ref_dl")
 # ---- the user's values ---------------------------------------------------------------
 
 st.subheader("Your values")
+ui.provenance.show(view, ref)
 st.caption("Leave a value as it is to keep the default. Saving keeps every earlier set of values.")
 default = DEFAULT_REFERENCE
 prices_saved = saved.get("prices", {})

@@ -122,3 +122,36 @@ def test_switching_a_phase_to_a_target_clears_the_dial_setting_and_says_so():
         [e.value for e in at.error]
     edit_phase(at, 1, setting="1.0")
     assert not at.error, [e.value for e in at.error]
+
+
+def _number(text: str) -> float:
+    return float(text.split()[0].replace(",", ""))
+
+
+def test_prices_saved_on_the_reference_page_reach_the_department_year(isolated_store):
+    """Defect 2: the Reference page's prices apply to the year; a scenario's own only when chosen."""
+    before = page("department_year.py")
+    cost = _number(metric_value(before, "Cost"))
+    Store(isolated_store).save_overrides({"prices": {"bottle": {"sevoflurane": 480.0}}}, note="test")
+    at = page("department_year.py")
+    # Four times the invented bottle price (120 -> 480) for sevoflurane, the demo mix's main agent.
+    assert _number(metric_value(at, "Cost")) > 1.5 * cost
+    line = next(c.value for c in at.caption if "Prices in use" in c.value).replace("\\", "")
+    assert "your values from the Reference page (version 1" in line and "sevoflurane bottle" in line
+    assert "GWP values:" in line and "IPCC AR6 GWP100" in line
+    # The scenario file's own prices (invented: 118 per sevoflurane bottle) only when chosen.
+    name = at.selectbox(key="dy_scenario").value
+    at.checkbox(key=f"dy_own_prices_{name}").check()
+    run(at)
+    assert _number(metric_value(at, "Cost")) < 1.1 * cost
+    line = next(c.value for c in at.caption if "Prices in use" in c.value).replace("\\", "")
+    assert "own prices for" in line and "chosen on this page" in line
+
+
+@pytest.mark.parametrize("page_file", ["case_plan.py", "compare.py", "department_year.py", "record_audit.py",
+                                       "reference.py"])
+def test_every_page_says_which_prices_and_gwp_values_are_in_use(page_file):
+    """Defect 2: every page shows which prices and GWP values are in use and where they come from."""
+    at = page(page_file)
+    line = next((c.value for c in at.caption if "Prices in use" in c.value), "").replace("\\", "")
+    assert "built-in invented example prices" in line and "chosen in the sidebar" in line, line

@@ -6,6 +6,7 @@ import pandas as pd
 import streamlit as st
 
 import ui
+import ui.provenance
 from model import InputError
 from model.io.exports import html_report
 from model.io.scenario import load_scenario
@@ -31,9 +32,13 @@ def render(view) -> None:
     c1, c2 = st.columns(2)
     b_name = c1.selectbox("Baseline year", names, index=0, key="yc_base")
     p_name = c2.selectbox("Proposal", names, index=min(1, len(names) - 1), key="yc_prop")
+    own_prices = st.checkbox("Use each scenario's own prices", key="yc_own_prices",
+                             help="Off: the prices in use on every page (your Reference values over the "
+                                  "built-in examples) for both years. On: each scenario's [prices].")
+    ui.provenance.show(view, ref, ("each scenario", None) if own_prices else None)
     try:
-        baseline = yv.scenario_for_view(load_scenario(files[b_name]), view)
-        proposal = yv.scenario_for_view(load_scenario(files[p_name]), view)
+        baseline = yv.scenario_for_view(load_scenario(files[b_name]), view, own_prices=own_prices)
+        proposal = yv.scenario_for_view(load_scenario(files[p_name]), view, own_prices=own_prices)
         with st.spinner("Sampling both years..."):
             comp = yv.run_compare(baseline, proposal, ref, ref_key)
     except InputError as err:
