@@ -10,6 +10,7 @@ import pandas as pd
 import streamlit as st
 
 import ui
+import ui.cautions
 import ui.provenance
 import ui.state
 from model import InputError
@@ -303,6 +304,7 @@ if own_items:
                 help="Off: the prices in use on every page (your Reference values over the built-in examples). "
                      f"On: the prices written in the plan for {', '.join(own_items)}.")
 ui.provenance.show(view, ref, own)
+unsafe = ui.cautions.unsafe_banner(result.warnings, "this plan")
 agent = ref.volatile(plan.agent)
 co2e_scale = ui.common.CO2E_UNITS[view.co2e_unit]
 m = st.columns(6)
@@ -335,10 +337,7 @@ g[4].metric("Agent emitted", f"{t['agent_emitted_g']:.1f} g")
 g[5].metric("Duration", f"{t['duration_min']:.0f} min")
 
 if result.warnings:
-    with st.container(border=True):
-        st.markdown("**Check before use**")
-        for w in result.warnings:
-            st.warning(ui.md(w), icon=":material/warning:")
+    ui.cautions.show_other_warnings(result.warnings, key="cp_warn")
 else:
     st.success("No warnings for this plan at the chosen limits.", icon=":material/check_circle:")
 
@@ -360,7 +359,7 @@ def _figures(plan_toml: str, ref_key: str, _result, _fate, _label) -> dict:
 def _sweep_figure(plan_toml: str, ref_key: str, co2e_unit: str, _sw, _currency):
     return charts.sweep_figure(_sw.table, "fgf_l_min", "cost_total", "co2e_total_kg", _sw.cost_lowest_flow_l_min,
                                _sw.emission_lowest_flow_l_min, _currency, ui.common.CO2E_UNITS[co2e_unit],
-                               co2e_unit, feasible=_sw.table.get("feasible"))
+                               co2e_unit, feasible=_sw.table.get("feasible"), unsafe=~_sw.table["o2_safe"])
 
 
 figs = dict(_figures(result_toml, ref_key, result, fate, agent.label))
@@ -410,8 +409,13 @@ with tabs[2]:
                     f"({sw.target_mac:.2f} x MAC): " + (", ".join(b for b in best if b) or
                                                         "no flow keeps inspired O2 above the floor") + ".")
         st.caption(f"Only flows that keep predicted inspired O2 above {sw.inspired_o2_floor_pct:.0f} % and hold "
-                   "the depth count as candidates (hollow markers do not). A lower flow also needs closer "
-                   "monitoring and follows local protocol.")
+                   "the depth count as candidates (hollow markers do not; crosses are unsafe: hypoxic mixture "
+                   "or O2 running out). A lower flow also needs closer monitoring and follows local protocol.")
+        n_unsafe = int((~sw.table["o2_safe"]).sum())
+        if n_unsafe:
+            st.markdown(f":red[**{ui.cautions.UNSAFE}** at {n_unsafe} of the {len(sw.table)} flows swept] "
+                        "(crosses; 'safety' column of the sweep table): their cost and CO2e are not savings "
+                        "to aim for.")
         with st.expander("Sweep table"):
             st.dataframe(sweep_table, hide_index=True, width="stretch")
 with tabs[3]:
@@ -441,7 +445,7 @@ LABELS = [("Liquid agent", "liquid_agent_ml", "mL"), ("Bottles", "bottles", "bot
           ("Duration", "duration_min", "min"), ("Lowest fresh gas O2", "min_fd_o2_pct", "%")]
 summary = pd.DataFrame({"plan": plan.name, "figure": [x[0] for x in LABELS],
                         "value": [float(t[x[1]]) for x in LABELS], "unit": [x[2] for x in LABELS]})
-inputs = {"plan": plan.name, "agent": agent.label, "patient weight": f"{plan.patient.weight_kg:g} kg",
+inputs = {"plan": plan.name, "safety": ui.cautions.safety_text(result.warnings), "agent": agent.label, "patient weight": f"{plan.patient.weight_kg:g} kg",
           "patient age": f"{plan.patient.age_years:g} years", "GWP source": result.gwp_label,
           "room temperature": f"{plan.settings.temperature_c:g} °C", "currency": result.currency,
           "inspired O2 floor": f"{plan.settings.inspired_o2_floor:.0%}",
@@ -453,7 +457,8 @@ inputs.update({f"phase {i}: {p.name}": f"{p.minutes:g} min; O2 {p.o2_l_min:g}, a
 sources = ui.common.sources_table(ref_key, ref)
 tables = {"Summary": summary, "Phases": result.phases.assign(plan=plan.name),
           "Cost by item": charts.cost_by_item(t, result.currency), "Where the agent went": fate,
-          "Inputs": pd.DataFrame({"input": list(inputs), "value": list(inputs.values())}), "Sources": sources}
+          "Inputs": pd.DataFrame({"input": list(inputs), "value": list(inputs.values())}),
+          "Warnings": ui.cautions.warnings_table(result.warnings), "Sources": sources}
 if tc is not None:
     tables["Time course"] = tc
 if sweep_table is not None:
@@ -461,12 +466,12 @@ if sweep_table is not None:
 
 
 def _report() -> str:
-    return html_report(f"Case plan: {plan.name}", inputs=inputs,
+    return html_report(("UNSAFE PRACTICE. " if unsafe else "") + f"Case plan: {plan.name}", inputs=inputs,
                        tables={"Summary": summary[["figure", "value", "unit"]],
                                "Phases": shown},
                        figures=[("Time course", figs["time"]), ("Where the agent went", figs["fate"]),
                                 ("Flow sweep", figs.get("sweep")), ("Cost by item", figs["cost"])],
-                       warnings=result.warnings, cautions=[ui.CAUTION], sources=sources)
+                       warnings=ui.cautions.report_lines(result.warnings), cautions=[ui.CAUTION], sources=sources)
 
 
 st.divider()

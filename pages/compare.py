@@ -8,8 +8,10 @@ import pandas as pd
 import streamlit as st
 
 import ui
+import ui.cautions
 import ui.provenance
 from model import InputError
+from model.case import Caution, is_unsafe, severity_of
 from model.io.exports import html_report
 from model.io.plans import plan_to_toml
 from ui import charts
@@ -80,12 +82,17 @@ def _compare_plans() -> None:
 
     st.subheader("Against the baseline")
     ui.provenance.show(view, ref)
+    unsafe = [name for name, res in results.items() if is_unsafe(res.warnings)]
+    if unsafe:
+        ui.cautions.unsafe_banner([Caution(f"{name}: {w}", severity_of(w)) for name, res in results.items()
+                                   for w in res.warnings], ", ".join(f"'{n}'" for n in unsafe))
     st.caption(f"Baseline: **{ui.md(base_name)}** ({ref.agents[base.plan.agent].label}, "
                f"{bt['duration_min']:.0f} min). Green is less used, emitted or spent.")
     for name, res in list(results.items())[1:]:
         t = res.totals
         with st.container(border=True):
-            st.markdown(f"**{ui.md(name)}** — {ref.agents[res.plan.agent].label}, {t['duration_min']:.0f} min")
+            flag = f" — :red[**{ui.cautions.UNSAFE}**]" if is_unsafe(res.warnings) else ""
+            st.markdown(f"**{ui.md(name)}** — {ref.agents[res.plan.agent].label}, {t['duration_min']:.0f} min{flag}")
             c = st.columns(5)
             c[0].metric("Liquid agent", f"{t['liquid_agent_ml']:.1f} mL",
                         _delta_text(t["liquid_agent_ml"], bt["liquid_agent_ml"], "mL"), delta_color="inverse")
@@ -111,10 +118,12 @@ def _compare_plans() -> None:
             row[f"{name}: difference %"] = _pct(float(res.totals[key]), float(bt[key]))
         rows.append(row)
     table = pd.DataFrame(rows)
+    if unsafe:
+        table["safety"] = f"{ui.cautions.UNSAFE}: " + ", ".join(unsafe)
     st.subheader("Side by side")
     st.dataframe(table, hide_index=True, width="stretch",
                  # four significant figures: a case's emissions in t CO2e are small numbers
-                 column_config={c: st.column_config.NumberColumn(format="%.4g") for c in table.columns[2:]})
+                 column_config={c: st.column_config.NumberColumn(format="%.4g") for c in table.columns[2:] if c != "safety"})
 
     cost_df = pd.DataFrame({"item": charts.cost_by_item(bt, base.currency)["item"]})
     co2e_df = pd.DataFrame({"source": ["Volatile agent", "Nitrous oxide"]})
@@ -136,23 +145,22 @@ def _compare_plans() -> None:
     g2.plotly_chart(figs[1][1], width="stretch", key="cmp_fig_co2e")
     st.plotly_chart(figs[2][1], width="stretch", key="cmp_fig_use")
 
-    warnings = [f"{name}: {w}" for name, res in results.items() for w in res.warnings]
-    if warnings:
-        with st.expander(f"Warnings ({len(warnings)})", icon=":material/warning:"):
-            for w in warnings:
-                st.warning(ui.md(w))
+    warnings = [Caution(f"{name}: {w}", severity_of(w)) for name, res in results.items() for w in res.warnings]
+    ui.cautions.show_other_warnings(warnings, key="cmp_warn")
 
     sources = pd.DataFrame(ref.table())
     tables = {"Comparison": table, "Cost by item": cost_df, "Emissions by source": co2e_df}
     for name, res in results.items():
         tables[f"Phases {name}"] = res.phases.assign(plan=name)
+    tables["Warnings"] = ui.cautions.warnings_table(warnings)
     tables["Sources"] = sources
-    inputs = {"baseline": base_name, "compared": ", ".join(list(results)[1:]), "GWP source": base.gwp_label,
+    inputs = {"baseline": base_name, "safety": "; ".join(f"{n}: {ui.cautions.safety_text(r.warnings)}"
+                                                         for n, r in results.items()), "compared": ", ".join(list(results)[1:]), "GWP source": base.gwp_label,
               "room temperature": f"{view.temperature_c:g} °C", "currency": view.currency}
 
     def _report() -> str:
-        return html_report("Plan comparison", inputs=inputs, tables={"Side by side": table}, figures=figs,
-                           warnings=warnings, cautions=[ui.CAUTION], sources=sources)
+        return html_report(("UNSAFE PRACTICE. " if unsafe else "") + "Plan comparison", inputs=inputs,
+                           tables={"Side by side": table}, figures=figs, warnings=ui.cautions.report_lines(warnings), cautions=[ui.CAUTION], sources=sources)
 
     st.divider()
     st.markdown("**Download this comparison**")

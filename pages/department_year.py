@@ -8,6 +8,7 @@ import pandas as pd
 import streamlit as st
 
 import ui
+import ui.cautions
 import ui.provenance
 import ui.state
 from model import InputError
@@ -124,6 +125,7 @@ t = result.totals
 rows = result.summary.set_index("key")
 cur = result.currency
 st.subheader("The year")
+unsafe = ui.cautions.unsafe_banner(result.warnings, "the practice of this year")
 st.caption(f"{t['cases']:,.0f} cases; {result.n_draws:,} draws (seed {result.seed}). "
            f"Expected values under {result.inputs.gwp_label}, with P5-P95 under each"
            + (f" (the bands draw the GWP sources {', '.join(ref.gwp_sources[g].label for g in gwps)}, "
@@ -154,6 +156,8 @@ g4.plotly_chart(figs[4][1], width="stretch", key="dy_fig_fan_cost")
 st.plotly_chart(figs[2][1], width="stretch", key="dy_fig_source")
 
 summary = nonzero_rows(result.summary).drop(columns=["key"])
+if unsafe:
+    summary.insert(0, "safety", ui.cautions.UNSAFE)     # also in the CSV, which carries no inputs
 st.subheader("Headline figures")
 st.dataframe(summary, hide_index=True, width="stretch",
              column_config={c: st.column_config.NumberColumn(format="%.2f")
@@ -162,25 +166,24 @@ with st.expander("Per month and per case type"):
     st.dataframe(result.monthly, hide_index=True, width="stretch")
     st.dataframe(result.by_type, hide_index=True, width="stretch")
 
-if result.warnings:
-    with st.expander(f"Warnings ({len(result.warnings)})", icon=":material/warning:"):
-        for w in result.warnings:
-            st.warning(ui.md(w))
+ui.cautions.show_other_warnings(result.warnings, key="dy_warn")
 for note in result.notes:
     st.caption(note)
 
 tables = {"Headline figures": summary, "Per month": result.monthly, "Per case type": result.by_type,
-          "Case mix": casemix_to_frame(mix), "Sources": pd.DataFrame(ref.table())}
-inputs = {"scenario": scenario.name, "cases per year": f"{t['cases']:,.0f}", "GWP source": result.inputs.gwp_label,
+          "Case mix": casemix_to_frame(mix), "Warnings": ui.cautions.warnings_table(result.warnings),
+          "Sources": pd.DataFrame(ref.table())}
+inputs = {"scenario": scenario.name, "safety": ui.cautions.safety_text(result.warnings), "cases per year": f"{t['cases']:,.0f}", "GWP source": result.inputs.gwp_label,
           "draws": result.n_draws, "seed": result.seed, "car factor": f"{scenario.car_kg_per_km:g} kg CO2e/km "
           f"({scenario.car_source})", "currency": cur}
 
 
 def _report() -> str:
-    return html_report(f"Department year: {scenario.name}", inputs=inputs,
+    return html_report(("UNSAFE PRACTICE. " if unsafe else "") + f"Department year: {scenario.name}", inputs=inputs,
                        tables={"Headline figures": summary, "Per month": result.monthly,
                                "Per case type": result.by_type},
-                       figures=figs, warnings=result.warnings, cautions=[ui.CAUTION, *result.notes],
+                       figures=figs, warnings=ui.cautions.report_lines(result.warnings),
+                       cautions=[ui.CAUTION, *result.notes],
                        sources=tables["Sources"])
 
 

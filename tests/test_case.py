@@ -185,3 +185,19 @@ def test_phase_consumption_vectorises_over_many_rows():
     assert c["liquid_ml"].shape == (n,)
     one = phase_consumption(t[:1], o2[:1], air[:1], 0.0, dial[:1], SEVO)
     assert c["liquid_ml"][0] == pytest.approx(one["liquid_ml"][0])
+
+
+def test_warnings_are_ranked_hazard_first_with_a_severity_each():
+    """Issue 12 defect 4: a hypoxic mixture and O2 running out come before labelling notes."""
+    from model.case import SEVERITIES, is_unsafe, severity_of
+    plan = load_plan(DEMO / "lap_chole_low_flow.toml")
+    # 0.5 L/min maintenance at 50 % O2: the textbook steady-state FiO2 mass balance
+    # (FGF x FdO2 - VO2) / (FGF - VO2 - ...) has a numerator near zero at VO2 ~ 0.25 L/min.
+    phases = tuple(replace(p, o2_l_min=0.25, air_l_min=0.25, n2o_l_min=0.0) if p.name == "maintenance" else p
+                   for p in plan.phases)
+    result = compute_case(replace(plan, phases=phases))
+    severities = [severity_of(w) for w in result.warnings]
+    assert severities and severities[0] == "hazard" and "labelling" in severities
+    assert severities == sorted(severities, key=SEVERITIES.index)
+    assert is_unsafe(result.warnings) and result.to_dict()["unsafe"] is True
+    assert result.to_dict()["warnings_by_severity"][0]["severity"] == "hazard"

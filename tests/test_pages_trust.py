@@ -37,6 +37,13 @@ def click(at: AppTest, text: str) -> AppTest:
     return run(at)
 
 
+def walk(node):
+    """Every element under ``node`` in page order (AppTest's tree, depth first)."""
+    for child in getattr(node, "children", {}).values():
+        yield child
+        yield from walk(child)
+
+
 def metric_value(at: AppTest, label: str) -> str:
     return next(m.value for m in at.metric if m.label == label or m.label.startswith(label + " ("))
 
@@ -155,3 +162,32 @@ def test_every_page_says_which_prices_and_gwp_values_are_in_use(page_file):
     at = page(page_file)
     line = next((c.value for c in at.caption if "Prices in use" in c.value), "").replace("\\", "")
     assert "built-in invented example prices" in line and "chosen in the sidebar" in line, line
+
+
+def _year_at_half_litre(at: AppTest) -> str:
+    name = at.selectbox(key="dy_scenario").value
+    at.checkbox(key=f"dy_uf_{name}").check()
+    run(at)
+    at.number_input(key=f"dy_flow_{name}").set_value(0.5)
+    return name
+
+
+def test_an_unsafe_year_practice_is_marked_unsafe_next_to_its_headline():
+    """Defect 4: a 0.5 L/min maintenance practice (its mix unchanged) predicts a hypoxic mixture; the
+    hazard shows first, in its own style, next to the headline, and the figures are marked unsafe."""
+    at = page("department_year.py")
+    _year_at_half_litre(at)
+    run(at)
+    hazards = [e.value for e in at.error]
+    # DESIGN-independent check, textbook mass balance: at 0.5 L/min with a 50 % O2 fresh gas and
+    # VO2 ~0.25 L/min the inspired O2 steady state falls towards zero (common practice, no source).
+    assert hazards and "UNSAFE PRACTICE" in hazards[0] and "hypoxic mixture" in hazards[0]
+    # Hazards are not left among the ordinary cautions or the labelling notes.
+    cautions = [w.value for w in at.warning]
+    assert not any("hypoxic mixture" in w for w in cautions)
+    assert any("sevoflurane minimum" in w for w in cautions)        # labelling notes after
+    # The banner comes before the headline figures on the page.
+    order = [type(e).__name__ for e in walk(at.main) if type(e).__name__ in ("Error", "Metric")]
+    assert order.index("Error") < order.index("Metric")
+    headline = next(d.value for d in at.dataframe if "p50" in d.value.columns)
+    assert (headline["safety"] == "UNSAFE PRACTICE").all()

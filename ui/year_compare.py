@@ -6,6 +6,7 @@ import pandas as pd
 import streamlit as st
 
 import ui
+import ui.cautions
 import ui.provenance
 from model import InputError
 from model.io.exports import html_report
@@ -45,6 +46,9 @@ def render(view) -> None:
         ui.show_input_error(err)
         return
     rows = comp.summary.set_index("key")
+    unsafe = [n for n, r in (("the baseline", comp.baseline), ("the proposal", comp.proposal)) if r.unsafe]
+    if unsafe:
+        ui.cautions.unsafe_banner(comp.warnings, " and ".join(unsafe) + "'s practice")
     cols = st.columns(len(HEADLINES))
     for col, (key, label) in zip(cols, HEADLINES):
         r = rows.loc[key]
@@ -56,24 +60,27 @@ def render(view) -> None:
                                               ("absorbent_kg", "absorbent")])
     st.plotly_chart(fig, width="stretch", key="yc_fig")
     table = nonzero_rows(comp.summary, ("baseline", "proposal", "p5", "p95")).drop(columns=["key"])
+    if unsafe:
+        table.insert(0, "safety", f"{ui.cautions.UNSAFE} ({' and '.join(unsafe)})")
     st.dataframe(table, hide_index=True, width="stretch",
                  column_config={c: st.column_config.NumberColumn(format="%.2f")
                                 for c in ("baseline", "proposal", "difference", "p5", "p50", "p95")})
-    warnings = list(dict.fromkeys(comp.baseline.warnings + comp.proposal.warnings))
-    if warnings:
-        with st.expander(f"Warnings ({len(warnings)})", icon=":material/warning:"):
-            for w in warnings:
-                st.warning(ui.md(w))
+    warnings = comp.warnings
+    ui.cautions.show_other_warnings(warnings, key="yc_warn")
     for note in dict.fromkeys(comp.notes + comp.proposal.notes):
         st.caption(note)
     tables = {"Year comparison": table, "Baseline per month": comp.baseline.monthly,
-              "Proposal per month": comp.proposal.monthly, "Sources": pd.DataFrame(ref.table())}
-    inputs = {"baseline": baseline.name, "proposal": proposal.name, "GWP source": comp.baseline.inputs.gwp_label,
+              "Proposal per month": comp.proposal.monthly, "Warnings": ui.cautions.warnings_table(warnings),
+              "Sources": pd.DataFrame(ref.table())}
+    inputs = {"baseline": baseline.name, "proposal": proposal.name,
+              "safety of the baseline": ui.cautions.safety_text(comp.baseline.warnings),
+              "safety of the proposal": ui.cautions.safety_text(comp.proposal.warnings), "GWP source": comp.baseline.inputs.gwp_label,
               "paired draws": comp.baseline.n_draws, "seed": comp.baseline.seed}
 
     def _report() -> str:
-        return html_report("Year comparison", inputs=inputs, tables={"Paired difference": table},
-                           figures=[("Change per year", fig)], warnings=warnings,
+        return html_report(("UNSAFE PRACTICE. " if unsafe else "") + "Year comparison", inputs=inputs,
+                           tables={"Paired difference": table},
+                           figures=[("Change per year", fig)], warnings=ui.cautions.report_lines(warnings),
                            cautions=[ui.CAUTION, *comp.proposal.notes], sources=tables["Sources"])
 
     ui.downloads("year comparison", tables, _report, key="yc_dl")
