@@ -25,6 +25,7 @@ view = ui.page_start("Department year", "A department's case mix scaled to a yea
                      "adherence, prices and GWP source.")
 ref = ui.reference(view)
 ref_key = ui.reference_key(view)
+ss = st.session_state
 
 files = yv.scenario_files()
 if not files:
@@ -67,11 +68,16 @@ edited = st.data_editor(
         "plan": st.column_config.SelectboxColumn("plan", options=sorted(library), required=True),
     })
 ui.state.remember_editor(mix_key, edited)
+mix_slot = st.empty()
+last_key = f"dy_last_{name}"           # (scenario, result, mix) of the last valid year
+stale = False
 try:
-    mix = casemix_from_frame(edited, library, "case mix table")
+    mix = casemix_from_frame(edited, library, "Case mix table")
 except InputError as err:
-    ui.show_input_error(err)
-    st.stop()
+    # Shown by the table; the practice panel, the last valid figures and downloads stay.
+    mix_slot.error(ui.md(str(err)), icon=":material/error:")
+    mix = ss[last_key][2] if last_key in ss else base.casemix
+    stale = True
 
 with st.expander("Practice change and uncertainty", expanded=False, icon=":material/tune:"):
     p = base.practice
@@ -119,7 +125,16 @@ try:
         result = yv.run_year(scenario, ref, ref_key)
 except InputError as err:
     ui.show_input_error(err)
-    st.stop()
+    if last_key not in ss:
+        st.stop()
+    scenario, result, mix = ss[last_key]
+    stale = True
+else:
+    if not stale:
+        ss[last_key] = (scenario, result, mix)
+if stale:
+    st.warning("The figures below are the last valid result; correct the entry above to update them.",
+               icon=":material/history:")
 
 t = result.totals
 rows = result.summary.set_index("key")

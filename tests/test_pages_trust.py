@@ -191,3 +191,22 @@ def test_an_unsafe_year_practice_is_marked_unsafe_next_to_its_headline():
     assert order.index("Error") < order.index("Metric")
     headline = next(d.value for d in at.dataframe if "p50" in d.value.columns)
     assert (headline["safety"] == "UNSAFE PRACTICE").all()
+
+
+def test_a_case_mix_error_keeps_the_last_year_and_shows_the_error_by_the_table():
+    """Defect 10: a bad case-mix cell leaves results, practice panel and downloads in place."""
+    at = page("department_year.py")
+    name = at.selectbox(key="dy_scenario").value
+    cost = metric_value(at, "Cost")
+    key = next(d.key for d in at.data_editor if d.key.startswith("dy_mix_"))
+    at.session_state[key] = {"edited_rows": {0: {"median_duration": 5}}, "added_rows": [], "deleted_rows": []}
+    run(at)
+    assert any("row 1, median_duration" in e.value.replace("\\", "") for e in at.error)
+    assert metric_value(at, "Cost") == cost
+    assert any("last valid result" in w.value for w in at.warning)
+    assert at.number_input(key=f"dy_flow_{name}") is not None
+    assert [d.proto.label for d in at.get("download_button")][:3] == ["CSV", "Excel", "HTML report"]
+    # The error sits by the table: between the case-mix editor and the headline figures.
+    # (AppTest shows the editor as a Dataframe element; it is the first table on the page.)
+    order = [type(e).__name__ for e in walk(at.main) if type(e).__name__ in ("Dataframe", "Error", "Metric")]
+    assert order.index("Dataframe") < order.index("Error") < order.index("Metric")
