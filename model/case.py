@@ -427,7 +427,7 @@ def compute_case(plan: CasePlan, reference: Reference = DEFAULT_REFERENCE) -> Ca
     time. Emitted agent is delivered agent less the metabolised share of the patient's
     uptake, less the capture efficiency. ``mac_hours`` counts the (mean) dial setting and
     the delivered N2O fraction against the age-adjusted MAC; ``end_tidal_mac_hours`` counts
-    the simulated end-tidal concentrations.
+    the simulated end-tidal concentrations (per phase in ``phases["end_tidal_mac_hours"]``).
 
     References
     ----------
@@ -491,10 +491,26 @@ def compute_case(plan: CasePlan, reference: Reference = DEFAULT_REFERENCE) -> Ca
     totals["inspired_o2_floor_pct"] = s.inspired_o2_floor * 100.0
     totals["inspired_o2_below_floor"] = bool(totals["min_inspired_o2_pct"] < s.inspired_o2_floor * 100.0)
     timecourse = _timecourse(sim["series"], [p.name for p in plan.phases], minutes)
+    phases["end_tidal_mac_hours"] = _phase_end_tidal_mac_hours(timecourse, minutes)
     warnings = case_warnings(plan, phases, agent, totals, timecourse)
     totals["sevoflurane_low_flow_caution"] = any("sevoflurane at" in w for w in warnings)
     return CaseResult(plan, phases, totals, reference.prices.currency, s.gwp_source,
                       reference.gwp_source(s.gwp_source).label, warnings, timecourse, s.uptake_model)
+
+
+def _phase_end_tidal_mac_hours(tc: pd.DataFrame, minutes) -> np.ndarray:
+    """End-tidal MAC-hours of each phase: the time course's end-tidal MAC multiple integrated
+    (trapezoid rule on the minute grid) over the phase. [MAC-h]
+
+    The dial-based ``mac_hours`` counts the vaporizer setting; at low flow the end-tidal level
+    lies well under the dial, so a comparison of practices uses these.
+    """
+    t = tc["time_min"].to_numpy()
+    et = tc["end_tidal_mac"].to_numpy()
+    cumulative = np.concatenate([[0.0], np.cumsum(np.diff(t) * 0.5 * (et[1:] + et[:-1]))])
+    ends = np.cumsum(np.asarray(minutes, dtype=float))
+    at_ends = np.interp(np.concatenate([[0.0], ends]), t, cumulative)
+    return np.diff(at_ends) / 60.0
 
 
 def _timecourse(series, names, minutes) -> pd.DataFrame:

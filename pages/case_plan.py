@@ -317,7 +317,11 @@ m[2].metric(f"Emissions ({view.co2e_unit})", view.co2e_number(t["co2e_total_kg"]
             help=f"{result.gwp_label}; agent and N2O released")
 m[3].metric(f"Cost ({result.currency})", f"{t['cost_total']:,.2f}", _delta("cost_total", lambda d: f"{d:+,.2f}"),
             delta_color="inverse", help="Agent pro rata by volume, gases, absorbent")
-m[4].metric("MAC-hours", f"{t['mac_hours']:.2f}", _delta("mac_hours", lambda d: f"{d:+.2f}"), delta_color="off")
+m[4].metric("MAC-hours, end-tidal", f"{t['end_tidal_mac_hours']:.2f}",
+            _delta("end_tidal_mac_hours", lambda d: f"{d:+.2f}"), delta_color="off",
+            help="End-tidal MAC multiple over time (the depth the patient reaches; what a lower flow "
+                 "changes). The dial-based figure counts the vaporizer setting instead.")
+m[4].caption(f"Dial-based: {t['mac_hours']:.2f} MAC-h")
 tc = result.timecourse
 if "min_inspired_o2_pct" in t:
     safe = t.get("lowest_safe_fd_o2_pct")
@@ -425,7 +429,8 @@ with tabs[3]:
         f"fresh gas ({view.flow_unit})": ph["fgf_l_min"] * (1000 if view.flow_unit == "mL/min" else 1),
         "flow band": ph["flow_band"], "fresh gas O2 %": ph["fd_o2_pct"].round(0), "dial %": ph["dial_pct"],
         "liquid (mL)": ph["liquid_agent_ml"].round(1), f"CO2e ({view.co2e_unit})": (ph["co2e_kg"] * co2e_scale).round(3),
-        f"cost ({result.currency})": ph["cost_total"].round(2), "MAC-hours": ph["mac_hours"].round(2),
+        f"cost ({result.currency})": ph["cost_total"].round(2), "MAC-hours, dial-based": ph["mac_hours"].round(2),
+        "MAC-hours, end-tidal": ph["end_tidal_mac_hours"].round(2),
         "mix altered": ph["flows_altered"]})
     st.dataframe(shown, hide_index=True, width="stretch")
 with tabs[4]:
@@ -441,7 +446,8 @@ LABELS = [("Liquid agent", "liquid_agent_ml", "mL"), ("Bottles", "bottles", "bot
           ("Oxygen", "oxygen_l", "L"), ("Medical air", "air_l", "L"), ("Nitrous oxide", "nitrous_oxide_l", "L"),
           ("CO2 absorbent", "absorbent_g", "g"), ("CO2e, agent", "co2e_agent_kg", "kg CO2e"),
           ("CO2e, nitrous oxide", "co2e_nitrous_oxide_kg", "kg CO2e"), ("CO2e, total", "co2e_total_kg", "kg CO2e"),
-          ("Cost, total", "cost_total", result.currency), ("MAC-hours", "mac_hours", "MAC-h"),
+          ("Cost, total", "cost_total", result.currency), ("MAC-hours, end-tidal", "end_tidal_mac_hours", "MAC-h"),
+          ("MAC-hours, dial-based", "mac_hours", "MAC-h"),
           ("Duration", "duration_min", "min"), ("Lowest fresh gas O2", "min_fd_o2_pct", "%")]
 summary = pd.DataFrame({"plan": plan.name, "figure": [x[0] for x in LABELS],
                         "value": [float(t[x[1]]) for x in LABELS], "unit": [x[2] for x in LABELS]})

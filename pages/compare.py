@@ -26,7 +26,8 @@ FIGURES = [("Liquid agent", "liquid_agent_ml", "mL"), ("Bottles", "bottles", "bo
            ("CO2e, total", "co2e_total_kg", "kg CO2e"), ("CO2e, agent", "co2e_agent_kg", "kg CO2e"),
            ("CO2e, nitrous oxide", "co2e_nitrous_oxide_kg", "kg CO2e"), ("Cost, total", "cost_total", "currency"),
            ("Oxygen", "oxygen_l", "L"), ("Medical air", "air_l", "L"), ("Nitrous oxide", "nitrous_oxide_l", "L"),
-           ("CO2 absorbent", "absorbent_g", "g"), ("MAC-hours", "mac_hours", "MAC-h"), ("Duration", "duration_min", "min")]
+           ("CO2 absorbent", "absorbent_g", "g"), ("MAC-hours, end-tidal", "end_tidal_mac_hours", "MAC-h"),
+           ("MAC-hours, dial-based", "mac_hours", "MAC-h"), ("Duration", "duration_min", "min")]
 
 
 #: Earlier versions of each plan offered for comparison, besides its latest.
@@ -103,8 +104,11 @@ def _compare_plans() -> None:
                         _delta_text(t["cost_total"], bt["cost_total"], "", 2), delta_color="inverse")
             c[3].metric("Bottles", f"{t['bottles']:.2f}", _delta_text(t["bottles"], bt["bottles"], "", 2),
                         delta_color="inverse")
-            c[4].metric("MAC-hours", f"{t['mac_hours']:.2f}", _delta_text(t["mac_hours"], bt["mac_hours"], "", 2),
-                        delta_color="off")
+            # End-tidal: lowering the flow changes the depth reached, not the dial (which it raises).
+            c[4].metric("MAC-hours, end-tidal", f"{t['end_tidal_mac_hours']:.2f}",
+                        _delta_text(t["end_tidal_mac_hours"], bt["end_tidal_mac_hours"], "", 2), delta_color="off",
+                        help="End-tidal MAC multiple over time, the depth reached")
+            c[4].caption(f"Dial-based: {t['mac_hours']:.2f} MAC-h")
 
     rows = []
     for label, key, unit in FIGURES:

@@ -201,3 +201,16 @@ def test_warnings_are_ranked_hazard_first_with_a_severity_each():
     assert severities == sorted(severities, key=SEVERITIES.index)
     assert is_unsafe(result.warnings) and result.to_dict()["unsafe"] is True
     assert result.to_dict()["warnings_by_severity"][0]["severity"] == "hazard"
+
+
+def test_end_tidal_mac_hours_per_phase_add_up_and_lie_under_the_dial_based_figure():
+    """Issue 12 defect 8: both MAC-hours are reported; the end-tidal ones per phase too."""
+    result = compute_case(load_plan(DEMO / "lap_chole_high_flow.toml"))
+    t, ph = result.totals, result.phases
+    # The phases' end-tidal MAC-hours add up to the case's (the same integral over the minute
+    # grid against the simulation's own steps; arithmetic).
+    assert ph["end_tidal_mac_hours"].sum() == pytest.approx(t["end_tidal_mac_hours"], rel=0.02)
+    # Published FA/FI wash-in curves (Eger, Anesthetic Uptake and Action, 1974): alveolar agent
+    # stays under inspired while the patient takes it up, so end-tidal MAC-hours are under the
+    # dial-based ones at a dial held through the case.
+    assert 0 < t["end_tidal_mac_hours"] < t["mac_hours"]

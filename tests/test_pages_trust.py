@@ -210,3 +210,24 @@ def test_a_case_mix_error_keeps_the_last_year_and_shows_the_error_by_the_table()
     # (AppTest shows the editor as a Dataframe element; it is the first table on the page.)
     order = [type(e).__name__ for e in walk(at.main) if type(e).__name__ in ("Dataframe", "Error", "Metric")]
     assert order.index("Dataframe") < order.index("Error") < order.index("Metric")
+
+
+def test_both_mac_hours_are_shown_and_comparisons_use_the_end_tidal_ones():
+    """Defect 8: dial-based and end-tidal MAC-hours, labelled; Compare's cards use end-tidal."""
+    from model import compute_case
+    from model.io.plans import load_plan
+    at = page("case_plan.py")
+    assert metric_value(at, "MAC-hours, end-tidal")
+    assert any(c.value.startswith("Dial-based:") for c in at.caption)
+    phases = next(d.value for d in at.dataframe if "MAC-hours, end-tidal" in d.value.columns)
+    assert "MAC-hours, dial-based" in phases.columns
+    cmp = page("compare.py")
+    cmp.multiselect(key="cmp_plans").set_value(["Laparoscopic cholecystectomy, high flow",
+                                               "Laparoscopic cholecystectomy, low flow"])
+    run(cmp)
+    low = compute_case(load_plan(ROOT / "demo_data" / "plans" / "lap_chole_low_flow.toml")).totals
+    card = next(m for m in cmp.metric if m.label.startswith("MAC-hours"))
+    assert card.label == "MAC-hours, end-tidal"
+    assert float(card.value) == pytest.approx(low["end_tidal_mac_hours"], abs=0.01)
+    table = cmp.dataframe[0].value.set_index("figure")
+    assert {"MAC-hours, end-tidal", "MAC-hours, dial-based"} <= set(table.index)

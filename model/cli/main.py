@@ -28,7 +28,7 @@ def cmd_case(args) -> int:
     print()
     print_table(result.phases.to_dict("records"),
                 ["phase", "duration_min", "fgf_l_min", "flow_band", "dial_pct", "liquid_agent_ml",
-                 "co2e_kg", "mac_hours"])
+                 "co2e_kg", "mac_hours", "end_tidal_mac_hours"])
     print()
     rows = [
         ("Liquid agent", f"{t['liquid_agent_ml']:.1f} mL ({t['bottles']:.2f} bottles)"),
@@ -45,7 +45,8 @@ def cmd_case(args) -> int:
         ("Cost", f"{t['cost_total']:.2f} {cur} (agent {t['cost_agent']:.2f}, gases "
                  f"{t['cost_oxygen'] + t['cost_air'] + t['cost_nitrous_oxide']:.2f}, "
                  f"absorbent {t['cost_absorbent']:.2f})"),
-        ("MAC-hours", f"{t['mac_hours']:.2f}"),
+        ("MAC-hours, end-tidal", f"{t['end_tidal_mac_hours']:.2f}"),
+        ("MAC-hours, dial-based", f"{t['mac_hours']:.2f}"),
     ]
     safe = t.get("lowest_safe_fd_o2_pct")
     if safe is not None and math.isfinite(safe):
