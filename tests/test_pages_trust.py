@@ -231,3 +231,20 @@ def test_both_mac_hours_are_shown_and_comparisons_use_the_end_tidal_ones():
     assert float(card.value) == pytest.approx(low["end_tidal_mac_hours"], abs=0.01)
     table = cmp.dataframe[0].value.set_index("figure")
     assert {"MAC-hours, end-tidal", "MAC-hours, dial-based"} <= set(table.index)
+
+
+def test_a_few_records_against_a_year_of_purchases_report_coverage_not_a_loss():
+    """Defect 13: the Birch cases alone against the hospital's purchases: coverage, no N2O loss figure."""
+    at = page("record_audit.py")
+    birch = next(o for o in at.multiselect(key="ra_demo").options if "Birch" in o)
+    at.multiselect(key="ra_demo").set_value([birch])
+    run(at)
+    shown = " ".join(w.value for w in at.warning).replace("\\", "")
+    assert "1 theatre(s) (Birch)" in shown and "not losses" in shown
+    assert next(m.value for m in at.metric if m.label == "N2O apparent loss") == "not estimated"
+    coverage = next(d.value for d in at.dataframe if "has_records" in d.value.columns)
+    assert not coverage["has_records"].all() and coverage["theatres"].max() == 1
+    # All demo records together cover the year: the N2O gap is shown as a loss again.
+    at.multiselect(key="ra_demo").set_value(at.multiselect(key="ra_demo").options)
+    run(at)
+    assert next(m.value for m in at.metric if m.label == "N2O apparent loss").endswith(" L")
