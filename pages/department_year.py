@@ -11,12 +11,12 @@ import ui
 import ui.cautions
 import ui.provenance
 import ui.state
+import ui.year_store
 from model import InputError
-from model.io.casemix import casemix_from_frame, casemix_to_frame
+from model.io.casemix import casemix_from_frame, casemix_to_csv, casemix_to_frame
 from model.io.exports import html_report
 from model.reference import GWP_SOURCES, VOLATILES
 from model.year.inputs import MAX_DRAWS, Practice, Sampling
-from model.io.scenario import load_scenario
 from model.year.compare import nonzero_rows
 from ui import year_views as yv
 
@@ -27,14 +27,31 @@ ref = ui.reference(view)
 ref_key = ui.reference_key(view)
 ss = st.session_state
 
-files = yv.scenario_files()
-if not files:
-    st.error("No scenario files found in demo_data/year.")
+store = ui.get_store()
+if "dy_pick_pending" in ss:          # after a save or an upload: show the year just saved
+    ss["dy_scenario"] = ss.pop("dy_pick_pending")
+    ss["dy_version"] = "latest"
+    ss["dy_save_note"] = ""
+choices = ui.year_store.choices(store)
+if not choices:
+    st.error("No scenario files found in demo_data/year and none saved.")
     st.stop()
-name = st.selectbox("Scenario", list(files), key="dy_scenario",
-                    help="Scenario files (TOML) in demo_data/year; each names its case-mix file (CSV).")
+if ss.get("dy_scenario") not in choices:
+    ss.pop("dy_scenario", None)
+c1, c2 = st.columns([4, 1], vertical_alignment="bottom")
+picked = c1.selectbox("Scenario", list(choices), key="dy_scenario",
+                     help="The demo scenario files (TOML, in demo_data/year; each names its case-mix CSV) and "
+                          f"the years you saved (marked '{ui.year_store.SAVED.strip()}').")
+choice = choices[picked]
+versions = ["latest"] + ([str(v.version) for v in store.history("scenario", choice.name)]
+                         if choice.kind == "saved" else [])
+if ss.get("dy_version") not in versions:
+    ss["dy_version"] = "latest"
+version = c2.selectbox("Version", versions, key="dy_version", disabled=choice.kind != "saved")
+# Widget keys carry the scenario (and the version opened), so each keeps its own inputs.
+name = picked if version == "latest" else f"{picked} v{version}"
 try:
-    base = load_scenario(files[name])
+    base = ui.year_store.load(store, choice, None if version == "latest" else int(version))
 except InputError as err:
     ui.show_input_error(err)
     st.stop()
@@ -185,12 +202,12 @@ ui.cautions.show_other_warnings(result.warnings, key="dy_warn")
 for note in result.notes:
     st.caption(note)
 
-tables = {"Headline figures": summary, "Per month": result.monthly, "Per case type": result.by_type,
-          "Case mix": casemix_to_frame(mix), "Warnings": ui.cautions.warnings_table(result.warnings),
-          "Sources": pd.DataFrame(ref.table())}
 inputs = {"scenario": scenario.name, "safety": ui.cautions.safety_text(result.warnings), "cases per year": f"{t['cases']:,.0f}", "GWP source": result.inputs.gwp_label,
           "draws": result.n_draws, "seed": result.seed, "car factor": f"{scenario.car_kg_per_km:g} kg CO2e/km "
           f"({scenario.car_source})", "currency": cur}
+tables = {"Headline figures": summary, "Per month": result.monthly, "Per case type": result.by_type,
+          "Case mix": casemix_to_frame(mix), "Warnings": ui.cautions.warnings_table(result.warnings),
+          "Sources": pd.DataFrame(ref.table())}
 
 
 def _report() -> str:
@@ -205,3 +222,66 @@ def _report() -> str:
 st.divider()
 st.markdown("**Download this year**")
 ui.downloads(f"year {scenario.name}", tables, _report, key="dy_dl", notes=tuple(result.notes))
+
+
+# ---- keeping the year: save, versions, files -----------------------------------------
+
+st.divider()
+k1, k2 = st.columns([3, 2])
+with k1:
+    st.markdown("**Save this year** (scenario and case mix, as on this page; a new version each time)")
+    s1, s2, s3 = st.columns([2, 2, 1], vertical_alignment="bottom")
+    ss.setdefault(f"dy_save_name_{name}", choice.name if choice.kind == "saved" else base.name)
+    save_name = s1.text_input("Save as", key=f"dy_save_name_{name}", max_chars=120)
+    save_note = s2.text_input("Note for this version", key="dy_save_note", placeholder="optional")
+    if s3.button("Save", type="primary", icon=":material/save:", width="stretch", key="dy_save_btn",
+                 disabled=stale):
+        try:
+            # The scenario's own prices are kept with it whether or not they were used here.
+            saved_v, mix_v = ui.year_store.save(store, replace(scenario, prices=dict(base.prices)), mix,
+                                                save_name, save_note)
+        except InputError as err:
+            ui.show_input_error(err, "Not saved")
+        else:
+            ss["dy_flash"] = f"Saved '{save_name.strip()}' as version {saved_v} (case mix version {mix_v}). " \
+                             "Earlier versions are kept."
+            ss["dy_pick_pending"] = f"{save_name.strip()}{ui.year_store.SAVED}"
+            st.rerun()
+    flash = ss.pop("dy_flash", None)
+    if flash:
+        st.success(ui.md(flash), icon=":material/check_circle:")
+    if choice.kind == "saved":
+        hist = store.history("scenario", choice.name)
+        st.dataframe(pd.DataFrame({"version": [v.version for v in hist],
+                                   "saved (UTC)": [v.saved_at[:19] for v in hist],
+                                   "note": [v.note for v in hist]}), hide_index=True, width="stretch")
+with k2:
+    st.markdown("**Files**")
+    slug = ui.common._slug(scenario.name)
+    f1, f2 = st.columns(2)
+    f1.download_button("Scenario (TOML)", data=ui.year_store.scenario_file(
+                           replace(scenario, prices=dict(base.prices)), f"{slug}-casemix.csv"),
+                       file_name=f"{slug}.toml", mime="application/toml", key="dy_dl_scenario",
+                       on_click="ignore", icon=":material/download:",
+                       help="The scenario as run on this page; keep its case-mix file beside it")
+    f2.download_button("Case mix (CSV)", data=casemix_to_csv(mix), file_name=f"{slug}-casemix.csv",
+                       mime="text/csv", key="dy_dl_casemix", on_click="ignore", icon=":material/download:")
+    with st.expander("Upload a scenario or a case mix", icon=":material/upload:"):
+        up_s = st.file_uploader("Scenario (TOML)", type=["toml"], key="dy_upload_scenario")
+        up_m = st.file_uploader("Its case mix (CSV)", type=["csv"], key="dy_upload_casemix",
+                                help="Its plan column names plans of the dashboard: "
+                                     + ", ".join(sorted(yv.plan_library())))
+        if st.button("Save the uploaded files", icon=":material/upload:", key="dy_upload_btn",
+                     disabled=up_s is None and up_m is None):
+            try:
+                saved_name, text = ui.year_store.import_files(
+                    store, (up_s.name, up_s.getvalue()) if up_s is not None else None,
+                    (up_m.name, up_m.getvalue()) if up_m is not None else None, yv.plan_library())
+            except InputError as err:
+                st.error(ui.md(f"Not saved, the store is unchanged. {err}"), icon=":material/error:")
+            else:
+                ss["dy_flash"] = text
+                if saved_name is not None:
+                    ss["dy_pick_pending"] = saved_name + ui.year_store.SAVED
+                st.rerun()
+

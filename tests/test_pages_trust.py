@@ -248,3 +248,79 @@ def test_a_few_records_against_a_year_of_purchases_report_coverage_not_a_loss():
     at.multiselect(key="ra_demo").set_value(at.multiselect(key="ra_demo").options)
     run(at)
     assert next(m.value for m in at.metric if m.label == "N2O apparent loss").endswith(" L")
+
+
+def test_a_year_is_saved_versioned_and_opened_again(isolated_store):
+    """Defect 12: case mix and scenario saved in the store (new version each save), opened again."""
+    at = page("department_year.py")
+    name = _year_at_half_litre(at)
+    at.number_input(key=f"dy_flow_{name}").set_value(0.8)
+    run(at)
+    cost = metric_value(at, "Cost")
+    at.text_input(key=f"dy_save_name_{name}").input("Fernhollow trial")
+    run(at)
+    click(at, "Save")
+    assert any("Saved 'Fernhollow trial' as version 1" in s.value.replace("\\", "") for s in at.success)
+    store = Store(isolated_store)
+    assert store.names("scenario") == ["Fernhollow trial"] and store.names("casemix") == ["Fernhollow trial"]
+    saved = "Fernhollow trial · saved"
+    assert at.selectbox(key="dy_scenario").value == saved
+    assert at.number_input(key=f"dy_flow_{saved}").value == 0.8
+    assert metric_value(at, "Cost") == cost
+    # A second save is version 2; version 1 opens as it was.
+    at.number_input(key=f"dy_flow_{saved}").set_value(1.2)
+    run(at)
+    click(at, "Save")
+    assert [v.version for v in store.history("scenario", "Fernhollow trial")] == [2, 1]
+    at.selectbox(key="dy_version").select("1")
+    run(at)
+    assert at.number_input(key=f"dy_flow_{saved} v1").value == 0.8
+    assert metric_value(at, "Cost") == cost
+
+
+def test_scenario_and_case_mix_files_upload_into_the_store(isolated_store):
+    """Defect 12: a scenario file and its case mix uploaded together are saved and opened."""
+    at = page("department_year.py")
+    year = ROOT / "demo_data" / "year"
+    text = (year / "proposal_half_litre.toml").read_text(encoding="utf-8").replace(
+        'name = "Fernhollow proposal: 0.5 L/min maintenance"', 'name = "Uploaded proposal"')
+    at.get("file_uploader")[0].upload("uploaded.toml", text.encode())
+    at.get("file_uploader")[1].upload("fernhollow_casemix.csv", (year / "fernhollow_casemix.csv").read_bytes())
+    run(at)
+    click(at, "Save the uploaded files")
+    assert at.selectbox(key="dy_scenario").value == "Uploaded proposal · saved"
+    assert Store(isolated_store).names("casemix") == ["Uploaded proposal"]
+    # A bad case-mix file is refused whole: the store is unchanged.
+    before = Store(isolated_store).count_versions()
+    at.get("file_uploader")[1].upload("bad.csv", b"case_type,cases_per_year\nA,1\n")
+    run(at)
+    click(at, "Save the uploaded files")
+    assert any("Not saved, the store is unchanged" in e.value for e in at.error)
+    assert Store(isolated_store).count_versions() == before
+
+
+def test_compare_takes_saved_years_and_several_proposals_against_a_chosen_baseline(isolated_store):
+    """Defect 12: Compare's year tab offers saved years; any number of proposals, chosen baseline."""
+    at = page("department_year.py")
+    name = _year_at_half_litre(at)
+    run(at)
+    at.text_input(key=f"dy_save_name_{name}").input("Unsafe half litre")
+    run(at)
+    click(at, "Save")
+    cmp = page("compare.py")
+    options = cmp.selectbox(key="yc_base").options
+    assert "Unsafe half litre · saved" in options
+    cmp.selectbox(key="yc_base").select("Fernhollow proposal: 0.5 L/min maintenance")
+    run(cmp)
+    cmp.multiselect(key="yc_props").set_value(["Fernhollow baseline: 2 L/min maintenance", "Unsafe half litre · saved"])
+    run(cmp)
+    assert len([m for m in cmp.metric if m.label == "Change in cost"]) == 2
+    table = next(d.value for d in cmp.dataframe if "year compared" in d.value.columns)
+    assert set(table["year compared"]) == {"Fernhollow baseline: 2 L/min maintenance", "Unsafe half litre · saved"}
+    # Defect 4 as well: the unsafe proposal (0.5 L/min at the plans' own O2 share) is marked.
+    assert any("UNSAFE PRACTICE" in e.value for e in cmp.error)
+    unsafe_rows = table[table["year compared"] == "Unsafe half litre · saved"]
+    assert (unsafe_rows["safety"] == "UNSAFE PRACTICE").all()
+    # The demo baseline at 2 L/min shows the 2 L/min year costing more than the 0.5 L/min proposal.
+    base_rows = table[(table["year compared"] == "Fernhollow baseline: 2 L/min maintenance")]
+    assert float(base_rows[base_rows["figure"].str.startswith("Cost")]["difference"].iloc[0]) > 0

@@ -85,3 +85,4 @@ def in_use(view: ViewSettings, ref: Reference, own: tuple[str, Mapping] | None =
 def show(view: ViewSettings, ref: Reference, own: tuple[str, Mapping] | None = None) -> None:
     """One caption on the page: the prices and GWP values in use and where they come from."""
     st.caption(f":material/sell: **Prices in use:** {md(prices_text(own))}. **GWP values:** {md(gwp_text(view, ref))}.")
+
