@@ -455,7 +455,7 @@ inputs = {"plan": plan.name, "safety": ui.cautions.safety_text(result.warnings),
           "patient age": f"{plan.patient.age_years:g} years", "GWP source": result.gwp_label,
           "room temperature": f"{plan.settings.temperature_c:g} °C", "currency": result.currency,
           "inspired O2 floor": f"{plan.settings.inspired_o2_floor:.0%}",
-          "overrides": ", ".join(ref.override_origins) or "none"}
+          "overrides": ", ".join(ref.override_origins) or "none", **ui.provenance.in_use(view, ref, own)}
 inputs.update({f"phase {i}: {p.name}": f"{p.minutes:g} min; O2 {p.o2_l_min:g}, air {p.air_l_min:g}, "
                f"N2O {p.n2o_l_min:g} L/min; " + (f"dial {p.dial_pct:g} %" if p.dial_pct is not None
                                                  else f"target {p.target_mac:g} x MAC")

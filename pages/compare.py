@@ -160,7 +160,7 @@ def _compare_plans() -> None:
     tables["Sources"] = sources
     inputs = {"baseline": base_name, "safety": "; ".join(f"{n}: {ui.cautions.safety_text(r.warnings)}"
                                                          for n, r in results.items()), "compared": ", ".join(list(results)[1:]), "GWP source": base.gwp_label,
-              "room temperature": f"{view.temperature_c:g} °C", "currency": view.currency}
+              "room temperature": f"{view.temperature_c:g} °C", **ui.provenance.in_use(view, ref)}
 
     def _report() -> str:
         return html_report(("UNSAFE PRACTICE. " if unsafe else "") + "Plan comparison", inputs=inputs,

@@ -202,16 +202,30 @@ ui.cautions.show_other_warnings(result.warnings, key="dy_warn")
 for note in result.notes:
     st.caption(note)
 
-inputs = {"scenario": scenario.name, "safety": ui.cautions.safety_text(result.warnings), "cases per year": f"{t['cases']:,.0f}", "GWP source": result.inputs.gwp_label,
-          "draws": result.n_draws, "seed": result.seed, "car factor": f"{scenario.car_kg_per_km:g} kg CO2e/km "
-          f"({scenario.car_source})", "currency": cur}
-tables = {"Headline figures": summary, "Per month": result.monthly, "Per case type": result.by_type,
+edits = ui.provenance.year_edits(base, scenario, mix)
+title = f"Department year: {scenario.name}" + (" (edited on this page)" if edits else "")
+inputs = {"scenario": scenario.name + (f" ({', '.join(edits)} edited on this page, not as saved)" if edits else ""),
+          "opened from": (f"saved scenario '{choice.name}', " + (f"version {version}" if version != "latest"
+                          else "latest version")) if choice.kind == "saved" else f"demo file {choice.path.name}",
+          "safety": ui.cautions.safety_text(result.warnings),
+          **ui.provenance.practice_rows(scenario.practice),
+          "case mix": f"{len(mix.types)} case types, {t['cases']:,.0f} cases per year (table 'Case mix')",
+          **ui.provenance.in_use(view, ref, own),
+          "GWP source": result.inputs.gwp_label,
+          "GWP sources drawn in the bands": ", ".join(ref.gwp_sources[g].label for g in scenario.sampling.gwp_sources)
+          or "the GWP source only",
+          "draws": result.n_draws, "seed": result.seed, "price spread (SD of ln price)": f"{scenario.sampling.price_spread:g}",
+          "car factor": f"{scenario.car_kg_per_km:g} kg CO2e/km ({scenario.car_source})"}
+tables = {"Headline figures": summary, "Inputs": pd.DataFrame({"input": list(inputs), "value": [str(v) for v in inputs.values()]}),
+          "Per month": result.monthly, "Per case type": result.by_type,
           "Case mix": casemix_to_frame(mix), "Warnings": ui.cautions.warnings_table(result.warnings),
           "Sources": pd.DataFrame(ref.table())}
+with st.expander("What produced these figures", icon=":material/info:"):
+    st.dataframe(tables["Inputs"], hide_index=True, width="stretch")
 
 
 def _report() -> str:
-    return html_report(("UNSAFE PRACTICE. " if unsafe else "") + f"Department year: {scenario.name}", inputs=inputs,
+    return html_report(("UNSAFE PRACTICE. " if unsafe else "") + title, inputs=inputs,
                        tables={"Headline figures": summary, "Per month": result.monthly,
                                "Per case type": result.by_type},
                        figures=figs, warnings=ui.cautions.report_lines(result.warnings),

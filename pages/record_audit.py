@@ -269,7 +269,8 @@ inputs = {"files": ", ".join(rep.files), "purchases": purchases_file[0] if purch
           "longest interval counted": f"{gap_limit:g} min", "high flow above": f"{high_flow:g} L/min",
           "cases": f"{int(total['cases']):,}", "rows used": f"{summary['rows_valid']:,}",
           "rows set aside": f"{summary['rows_set_aside']:,}", "liquid agent": f"{total['liquid_agent_ml']:,.0f} mL",
-          "CO2e": view.co2e(total["co2e_total_kg"]), "cost": view.money(total["cost_total"])}
+          "CO2e": view.co2e(total["co2e_total_kg"]), "cost": view.money(total["cost_total"]),
+          **ui.provenance.in_use(view, ref)}
 
 
 def _report() -> str:

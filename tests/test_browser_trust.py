@@ -92,3 +92,33 @@ def test_going_back_to_the_defaults_empties_the_form(laptop, app_url, store_path
     pg.get_by_text("every page now uses them").wait_for()
     wait_idle(pg)
     assert "bottle" not in Store(store_path).load_overrides().get("prices", {})
+
+
+def test_year_workbook_records_the_practice_set_on_the_page(laptop, app_url, tmp_path):  # noqa: F811
+    """Defect 6: after a change of practice on the page, the Excel workbook's Inputs sheet carries it
+    (not the scenario file's), with the prices, GWP values and the program's version."""
+    import importlib.metadata
+
+    import openpyxl
+
+    pg = laptop
+    open_app(pg, app_url)
+    go(pg, "Department year", "Bottles bought per month")
+    pg.get_by_text("Practice change and uncertainty").first.click()
+    pg.get_by_text("Set maintenance flow").first.click()
+    wait_idle(pg)
+    flow = field(pg, "Maintenance flow (L/min)")
+    flow.fill("0.8")
+    flow.press("Enter")
+    wait_idle(pg)
+    shot(pg, "department_year_practice")
+    with pg.expect_download() as dl:
+        pg.locator('[data-testid="stDownloadButton"]').filter(has_text=re.compile("Excel$")).first.click()
+    path = tmp_path / "year.xlsx"
+    dl.value.save_as(path)
+    ws = openpyxl.load_workbook(path)["Inputs"]
+    rows = {r[0]: r[1] for r in ws.iter_rows(values_only=True) if r and r[0]}
+    assert rows["maintenance flow"] == "0.8 L/min"
+    assert "practice edited on this page" in rows["scenario"]
+    assert rows["program"] == "fresh-gas-ledger " + importlib.metadata.version("fresh-gas-ledger")
+    assert "prices in use" in rows and "GWP values" in rows

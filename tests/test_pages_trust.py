@@ -250,6 +250,35 @@ def test_a_few_records_against_a_year_of_purchases_report_coverage_not_a_loss():
     assert next(m.value for m in at.metric if m.label == "N2O apparent loss").endswith(" L")
 
 
+def _inputs(at: AppTest) -> dict:
+    table = next(d.value for d in at.dataframe if list(d.value.columns) == ["input", "value"])
+    return dict(zip(table["input"], table["value"]))
+
+
+def test_year_exports_record_the_practice_mix_prices_and_version_that_produced_them():
+    """Defect 6: after a change of practice on the page, the export's inputs (the 'Inputs' sheet and
+    the report's inputs, shown on the page as 'What produced these figures') say so."""
+    import importlib.metadata
+
+    at = page("department_year.py")
+    name = _year_at_half_litre(at)
+    at.number_input(key=f"dy_flow_{name}").set_value(0.8)
+    run(at)
+    key = next(d.key for d in at.data_editor if d.key.startswith("dy_mix_"))
+    at.session_state[key] = {"edited_rows": {0: {"cases_per_year": 999}}, "added_rows": [], "deleted_rows": []}
+    run(at)
+    rows = _inputs(at)
+    assert rows["maintenance flow"] == "0.8 L/min"
+    assert "practice, case mix edited on this page" in rows["scenario"]
+    assert rows["program"] == "fresh-gas-ledger " + importlib.metadata.version("fresh-gas-ledger")
+    assert "built-in invented example prices" in rows["prices in use"]
+    assert "IPCC AR6 GWP100" in rows["GWP values"]
+    from model.io.casemix import load_casemix
+    demo = load_casemix(ROOT / "demo_data" / "year" / "fernhollow_casemix.csv")
+    cases = sum(t.cases_per_year for t in demo.types) - demo.types[0].cases_per_year + 999
+    assert rows["case mix"].startswith(f"{len(demo.types)} case types, {cases:,} cases per year")
+
+
 def test_a_year_is_saved_versioned_and_opened_again(isolated_store):
     """Defect 12: case mix and scenario saved in the store (new version each save), opened again."""
     at = page("department_year.py")

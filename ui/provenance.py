@@ -13,6 +13,7 @@ from typing import Mapping
 
 import streamlit as st
 
+from model.io.casemix import casemix_to_csv
 from model.reference import Reference
 
 from .common import ViewSettings, get_store, md
@@ -86,3 +87,32 @@ def show(view: ViewSettings, ref: Reference, own: tuple[str, Mapping] | None = N
     """One caption on the page: the prices and GWP values in use and where they come from."""
     st.caption(f":material/sell: **Prices in use:** {md(prices_text(own))}. **GWP values:** {md(gwp_text(view, ref))}.")
 
+
+def practice_rows(practice) -> dict:
+    """The practice a year ran under, as export rows (field -> plain text)."""
+    p = practice
+    rows = {"maintenance flow": f"{p.maintenance_flow_l_min:g} L/min" if p.maintenance_flow_l_min is not None
+            else "as each plan gives it",
+            "maintenance O2 share": f"{p.maintenance_o2_share:.0%} on the O2 flowmeter"
+            if p.maintenance_o2_share is not None else "as each plan gives it",
+            "dial factor in maintenance": f"{p.dial_factor:g}",
+            "agent switch": f"{p.switch_from} -> {p.switch_to}" if p.switch_from else "none"}
+    if p.changes_anything:
+        rows["adherence (low, likely, high)"] = (f"{p.adherence_low:.0%}, {p.adherence:.0%}, "
+                                                 f"{p.adherence_high:.0%}")
+    return rows
+
+
+def year_edits(base, scenario, mix) -> list[str]:
+    """What the page changed from the scenario as opened: "practice", "case mix", "sampling", ..."""
+    out = []
+    if scenario.practice != base.practice:
+        out.append("practice")
+    if casemix_to_csv(mix) != casemix_to_csv(base.casemix):
+        out.append("case mix")
+    if (scenario.sampling.draws, scenario.sampling.seed, scenario.sampling.price_spread) != \
+            (base.sampling.draws, base.sampling.seed, base.sampling.price_spread):
+        out.append("sampling")
+    if (scenario.car_kg_per_km, scenario.car_source) != (base.car_kg_per_km, base.car_source):
+        out.append("car factor")
+    return out

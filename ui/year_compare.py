@@ -107,10 +107,13 @@ def render(view) -> None:
     for i, (p_name, comp) in enumerate(comps.items(), start=1):
         inputs[f"proposal {i}"] = comp.proposal.scenario.name
         inputs[f"safety of proposal {i}"] = ui.cautions.safety_text(comp.proposal.warnings)
-    inputs["currency"] = first.baseline.currency
+        inputs.update({f"proposal {i}, {k}": v for k, v in ui.provenance.practice_rows(
+            comp.proposal.scenario.practice).items()})
+    inputs.update(ui.provenance.in_use(view, ref, ("each scenario", None) if own_prices else None))
     inputs.update({"GWP source": first.baseline.inputs.gwp_label, "paired draws": first.baseline.n_draws,
                    "seed": first.baseline.seed})
-    tables = {"Year comparison": table, "Baseline per month": first.baseline.monthly, **tables,
+    tables = {"Year comparison": table, "Inputs": pd.DataFrame({"input": list(inputs), "value": [str(v) for v in inputs.values()]}),
+              "Baseline per month": first.baseline.monthly, **tables,
               "Warnings": ui.cautions.warnings_table(warnings), "Sources": pd.DataFrame(ref.table())}
 
     def _report() -> str:
