@@ -317,7 +317,7 @@ m[2].metric(f"Emissions ({view.co2e_unit})", view.co2e_number(t["co2e_total_kg"]
             help=f"{result.gwp_label}; agent and N2O released")
 m[3].metric(f"Cost ({result.currency})", f"{t['cost_total']:,.2f}", _delta("cost_total", lambda d: f"{d:+,.2f}"),
             delta_color="inverse", help="Agent pro rata by volume, gases, absorbent")
-m[4].metric("MAC-hours, end-tidal", f"{t['end_tidal_mac_hours']:.2f}",
+m[4].metric("End-tidal MAC-h", f"{t['end_tidal_mac_hours']:.2f}",
             _delta("end_tidal_mac_hours", lambda d: f"{d:+.2f}"), delta_color="off",
             help="End-tidal MAC multiple over time (the depth the patient reaches; what a lower flow "
                  "changes). The dial-based figure counts the vaporizer setting instead.")

@@ -105,7 +105,7 @@ def _compare_plans() -> None:
             c[3].metric("Bottles", f"{t['bottles']:.2f}", _delta_text(t["bottles"], bt["bottles"], "", 2),
                         delta_color="inverse")
             # End-tidal: lowering the flow changes the depth reached, not the dial (which it raises).
-            c[4].metric("MAC-hours, end-tidal", f"{t['end_tidal_mac_hours']:.2f}",
+            c[4].metric("End-tidal MAC-h", f"{t['end_tidal_mac_hours']:.2f}",
                         _delta_text(t["end_tidal_mac_hours"], bt["end_tidal_mac_hours"], "", 2), delta_color="off",
                         help="End-tidal MAC multiple over time, the depth reached")
             c[4].caption(f"Dial-based: {t['mac_hours']:.2f} MAC-h")

@@ -15,6 +15,10 @@ from .common import md
 
 #: Shown with the figures of a plan, a year or a comparison whose practice is unsafe as written.
 UNSAFE = "UNSAFE PRACTICE"
+#: Hazards listed in the red box; the rest follow in an expander under it.
+BANNER_LINES = 3
+#: A list of cautions longer than this starts folded.
+OPEN_UP_TO = 4
 _HEADINGS = {"hazard": "Unsafe as planned", "caution": "Check before use", "labelling": "Labelling and local protocol"}
 
 
@@ -43,10 +47,15 @@ def unsafe_banner(warnings, what: str = "this plan") -> bool:
     hazards = [(t, s) for sev, t, s in grouped(warnings) if sev == "hazard"]
     if not hazards:
         return False
-    lines = "\n".join(f"- {md(_line(t, s))}" for t, s in hazards)
+    lines = "\n".join(f"- {md(_line(t, s))}" for t, s in hazards[:BANNER_LINES])
+    more = len(hazards) - BANNER_LINES
     st.error(f"**{UNSAFE}: {md(what)} is unsafe as written.** Its figures (and any saving they show) assume "
-             f"a practice the model predicts to be hypoxic or to run out of O2:\n\n{lines}",
-             icon=":material/dangerous:")
+             f"a practice the model predicts to be hypoxic or to run out of O2:\n\n{lines}"
+             + (f"\n\n... and {more} more below." if more > 0 else ""), icon=":material/dangerous:")
+    if more > 0:
+        with st.expander(f"All {len(hazards)} hazards", icon=":material/dangerous:"):
+            for t, s in hazards:
+                st.error(md(_line(t, s)))
     return True
 
 
@@ -57,7 +66,8 @@ def show_other_warnings(warnings, key: str) -> None:
         items = [(t, s) for sev, t, s in rest if sev == severity]
         if not items:
             continue
-        with st.expander(f"{_HEADINGS[severity]} ({len(items)})", expanded=severity == "caution",
+        with st.expander(f"{_HEADINGS[severity]} ({len(items)})",
+                         expanded=severity == "caution" and len(items) <= OPEN_UP_TO,
                          icon=":material/warning:" if severity == "caution" else ":material/menu_book:"):
             icon = ":material/warning:" if severity == "caution" else ":material/menu_book:"
             for t, s in items:
