@@ -13,8 +13,8 @@ import pytest
 from model.reference import DEFAULT_REFERENCE
 from model.store import Store
 
-from test_browser import (ARTIFACTS, WAIT_MS, app_url, browser, click_button, choose, metric_text,  # noqa: F401
-                          open_app, store_path, wait_idle)
+from test_browser import (ARTIFACTS, WAIT_MS, app_url, browser, click_button, metric_text,  # noqa: F401
+                          open_app, open_saved_plan, store_path, wait_idle)
 
 pytestmark = pytest.mark.browser
 
@@ -48,11 +48,7 @@ def field(pg, label: str):
 def test_case_plan_inputs_survive_a_visit_to_compare(laptop, app_url):  # noqa: F811
     """Defect 1: Case plan -> open a saved plan -> Compare -> back: name, weight, age kept, Save enabled."""
     pg = laptop
-    open_app(pg, app_url)
-    choose(pg, "Open a saved plan", "Laparoscopic cholecystectomy, high flow")
-    click_button(pg, "Open")
-    pg.get_by_text("Editing: saved plan 'Laparoscopic cholecystectomy, high flow'").wait_for()
-    wait_idle(pg)
+    open_saved_plan(pg, app_url, "Laparoscopic cholecystectomy, high flow")
     weight = field(pg, "Patient weight")
     weight.fill("91 kg")
     weight.press("Enter")
