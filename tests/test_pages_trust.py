@@ -152,7 +152,7 @@ def test_prices_saved_on_the_reference_page_reach_the_department_year(isolated_s
     run(at)
     assert _number(metric_value(at, "Cost")) < 1.1 * cost
     line = next(c.value for c in at.caption if "Prices in use" in c.value).replace("\\", "")
-    assert "own prices for" in line and "chosen on this page" in line
+    assert "the own prices of the scenario" in line and "chosen on this page" in line
 
 
 @pytest.mark.parametrize("page_file", ["case_plan.py", "compare.py", "department_year.py", "record_audit.py",
@@ -353,3 +353,27 @@ def test_compare_takes_saved_years_and_several_proposals_against_a_chosen_baseli
     # The demo baseline at 2 L/min shows the 2 L/min year costing more than the 0.5 L/min proposal.
     base_rows = table[(table["year compared"] == "Fernhollow baseline: 2 L/min maintenance")]
     assert float(base_rows[base_rows["figure"].str.startswith("Cost")]["difference"].iloc[0]) > 0
+
+
+def test_a_plan_files_own_prices_apply_only_when_chosen_and_are_kept_when_saved(isolated_store):
+    """Defect 2: on Case plan, a plan's own [prices] apply only when ticked; saving keeps them."""
+    from dataclasses import replace
+
+    from model.io.plans import load_plan
+    page("case_plan.py")                                  # the first run seeds the demo plans
+    store = Store(isolated_store)
+    plan = load_plan(ROOT / "demo_data" / "plans" / "lap_chole_high_flow.toml")
+    store.save_plan(replace(plan, name="Priced plan", prices={"bottle": {"sevoflurane": 1200.0}}))
+    at = page("case_plan.py")                             # the most recent plan opens first
+    assert at.text_input(key="cp_name").value == "Priced plan"
+    cost = _number(metric_value(at, "Cost"))
+    at.checkbox(key="cp_own_prices").check()
+    run(at)
+    # Ten times the invented sevoflurane bottle price (120 -> 1200) raises the case's cost.
+    assert _number(metric_value(at, "Cost")) > 2 * cost
+    line = next(c.value for c in at.caption if "Prices in use" in c.value).replace("\\", "")
+    assert "the own prices of the plan 'Priced plan' for sevoflurane bottle" in line
+    at.checkbox(key="cp_own_prices").uncheck()
+    run(at)
+    click(at, "Save")
+    assert store.load_plan("Priced plan").prices == {"bottle": {"sevoflurane": 1200.0}}

@@ -60,9 +60,9 @@ def prices_text(own: tuple[str, Mapping] | None = None) -> str:
     mine = price_items(saved.get("prices") or {})
     parts = []
     if own is not None and own[1] is None:
-        parts.append(f"{own[0]}'s own prices where it gives them (chosen on this page)")
+        parts.append(f"the own prices of {own[0]} where it gives them (chosen on this page)")
     elif own is not None and price_items(own[1]):
-        parts.append(f"{own[0]}'s own prices for {', '.join(price_items(own[1]))} (chosen on this page)")
+        parts.append(f"the own prices of {own[0]} for {', '.join(price_items(own[1]))} (chosen on this page)")
     if mine:
         parts.append(f"your values from the Reference page ({version}) for {', '.join(mine)}")
     parts.append("built-in invented example prices" + (" for the rest" if parts else ""))
