@@ -341,7 +341,7 @@ g[4].metric("Agent emitted", f"{t['agent_emitted_g']:.1f} g")
 g[5].metric("Duration", f"{t['duration_min']:.0f} min")
 
 if result.warnings:
-    ui.cautions.show_other_warnings(result.warnings, key="cp_warn")
+    ui.cautions.show_other_warnings(result.warnings)
 else:
     st.success("No warnings for this plan at the chosen limits.", icon=":material/check_circle:")
 

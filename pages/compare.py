@@ -150,7 +150,7 @@ def _compare_plans() -> None:
     st.plotly_chart(figs[2][1], width="stretch", key="cmp_fig_use")
 
     warnings = [Caution(f"{name}: {w}", severity_of(w)) for name, res in results.items() for w in res.warnings]
-    ui.cautions.show_other_warnings(warnings, key="cmp_warn")
+    ui.cautions.show_other_warnings(warnings)
 
     sources = pd.DataFrame(ref.table())
     tables = {"Comparison": table, "Cost by item": cost_df, "Emissions by source": co2e_df}

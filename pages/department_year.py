@@ -198,7 +198,7 @@ with st.expander("Per month and per case type"):
     st.dataframe(result.monthly, hide_index=True, width="stretch")
     st.dataframe(result.by_type, hide_index=True, width="stretch")
 
-ui.cautions.show_other_warnings(result.warnings, key="dy_warn")
+ui.cautions.show_other_warnings(result.warnings)
 for note in result.notes:
     st.caption(note)
 

@@ -59,7 +59,7 @@ def unsafe_banner(warnings, what: str = "this plan") -> bool:
     return True
 
 
-def show_other_warnings(warnings, key: str) -> None:
+def show_other_warnings(warnings) -> None:
     """Cautions, then labelling notes (hazards are in :func:`unsafe_banner`), repeats grouped."""
     rest = [(sev, t, s) for sev, t, s in grouped(warnings) if sev != "hazard"]
     for severity in ("caution", "labelling"):

@@ -98,7 +98,7 @@ def render(view) -> None:
                  column_config={c: st.column_config.NumberColumn(format="%.2f")
                                 for c in ("baseline", "proposal", "difference", "p5", "p50", "p95")
                                 if c in table.columns})
-    ui.cautions.show_other_warnings(warnings, key="yc_warn")
+    ui.cautions.show_other_warnings(warnings)
     notes = list(dict.fromkeys(n for c in comps.values() for n in c.notes + c.proposal.notes))
     for note in notes:
         st.caption(note)
