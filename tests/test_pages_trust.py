@@ -179,8 +179,8 @@ def test_an_unsafe_year_practice_is_marked_unsafe_next_to_its_headline():
     _year_at_half_litre(at)
     run(at)
     hazards = [e.value for e in at.error]
-    # Textbook steady-state mass balance of inspired O2 in a circle: at 0.5 L/min with a 50 % O2 fresh gas and
-    # VO2 ~0.25 L/min the inspired O2 steady state falls towards zero (common practice, no source).
+    # Textbook steady-state mass balance of inspired O2 in a circle (common practice, no source):
+    # at 0.5 L/min with a 50 % O2 fresh gas and VO2 ~0.25 L/min, inspired O2 falls towards zero.
     assert hazards and "UNSAFE PRACTICE" in hazards[0] and "hypoxic mixture" in hazards[0]
     # Hazards are not left among the ordinary cautions or the labelling notes.
     cautions = [w.value for w in at.warning]
