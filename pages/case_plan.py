@@ -451,7 +451,8 @@ LABELS = [("Liquid agent", "liquid_agent_ml", "mL"), ("Bottles", "bottles", "bot
           ("Duration", "duration_min", "min"), ("Lowest fresh gas O2", "min_fd_o2_pct", "%")]
 summary = pd.DataFrame({"plan": plan.name, "figure": [x[0] for x in LABELS],
                         "value": [float(t[x[1]]) for x in LABELS], "unit": [x[2] for x in LABELS]})
-inputs = {"plan": plan.name, "safety": ui.cautions.safety_text(result.warnings), "agent": agent.label, "patient weight": f"{plan.patient.weight_kg:g} kg",
+inputs = {"plan": plan.name, "safety": ui.cautions.safety_text(result.warnings), "agent": agent.label,
+          "patient weight": f"{plan.patient.weight_kg:g} kg",
           "patient age": f"{plan.patient.age_years:g} years", "GWP source": result.gwp_label,
           "room temperature": f"{plan.settings.temperature_c:g} °C", "currency": result.currency,
           "inspired O2 floor": f"{plan.settings.inspired_o2_floor:.0%}",

@@ -127,7 +127,8 @@ def _compare_plans() -> None:
     st.subheader("Side by side")
     st.dataframe(table, hide_index=True, width="stretch",
                  # four significant figures: a case's emissions in t CO2e are small numbers
-                 column_config={c: st.column_config.NumberColumn(format="%.4g") for c in table.columns[2:] if c != "safety"})
+                 column_config={c: st.column_config.NumberColumn(format="%.4g")
+                                for c in table.columns[2:] if c != "safety"})
 
     cost_df = pd.DataFrame({"item": charts.cost_by_item(bt, base.currency)["item"]})
     co2e_df = pd.DataFrame({"source": ["Volatile agent", "Nitrous oxide"]})
@@ -158,13 +159,15 @@ def _compare_plans() -> None:
         tables[f"Phases {name}"] = res.phases.assign(plan=name)
     tables["Warnings"] = ui.cautions.warnings_table(warnings)
     tables["Sources"] = sources
-    inputs = {"baseline": base_name, "safety": "; ".join(f"{n}: {ui.cautions.safety_text(r.warnings)}"
-                                                         for n, r in results.items()), "compared": ", ".join(list(results)[1:]), "GWP source": base.gwp_label,
+    inputs = {"baseline": base_name,
+              "safety": "; ".join(f"{n}: {ui.cautions.safety_text(r.warnings)}" for n, r in results.items()),
+              "compared": ", ".join(list(results)[1:]), "GWP source": base.gwp_label,
               "room temperature": f"{view.temperature_c:g} °C", **ui.provenance.in_use(view, ref)}
 
     def _report() -> str:
         return html_report(("UNSAFE PRACTICE. " if unsafe else "") + "Plan comparison", inputs=inputs,
-                           tables={"Side by side": table}, figures=figs, warnings=ui.cautions.report_lines(warnings), cautions=[ui.CAUTION], sources=sources)
+                           tables={"Side by side": table}, figures=figs, warnings=ui.cautions.report_lines(warnings),
+                           cautions=[ui.CAUTION], sources=sources)
 
     st.divider()
     st.markdown("**Download this comparison**")

@@ -214,9 +214,10 @@ inputs = {"scenario": scenario.name + (f" ({', '.join(edits)} edited on this pag
           "GWP source": result.inputs.gwp_label,
           "GWP sources drawn in the bands": ", ".join(ref.gwp_sources[g].label for g in scenario.sampling.gwp_sources)
           or "the GWP source only",
-          "draws": result.n_draws, "seed": result.seed, "price spread (SD of ln price)": f"{scenario.sampling.price_spread:g}",
+          "draws": result.n_draws, "seed": result.seed,
+          "price spread (SD of ln price)": f"{scenario.sampling.price_spread:g}",
           "car factor": f"{scenario.car_kg_per_km:g} kg CO2e/km ({scenario.car_source})"}
-tables = {"Headline figures": summary, "Inputs": pd.DataFrame({"input": list(inputs), "value": [str(v) for v in inputs.values()]}),
+tables = {"Headline figures": summary, "Inputs": ui.provenance.inputs_table(inputs),
           "Per month": result.monthly, "Per case type": result.by_type,
           "Case mix": casemix_to_frame(mix), "Warnings": ui.cautions.warnings_table(result.warnings),
           "Sources": pd.DataFrame(ref.table())}

@@ -56,7 +56,8 @@ ui.provenance.show(view, ref)
 st.caption("Leave a value as it is to keep the default. Saving keeps every earlier set of values.")
 default = DEFAULT_REFERENCE
 prices_saved = saved.get("prices", {})
-FORM_KEYS = ("ref_currency", "ref_bottle_", "ref_oxygen_", "ref_air_", "ref_nitrous_", "ref_absorbent_", "ref_gwp_", "ref_mac_",
+FORM_KEYS = ("ref_currency",
+             "ref_bottle_", "ref_oxygen_", "ref_air_", "ref_nitrous_", "ref_absorbent_", "ref_gwp_", "ref_mac_",
              "ref_vapmax_")
 
 

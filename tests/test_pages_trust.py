@@ -341,7 +341,8 @@ def test_compare_takes_saved_years_and_several_proposals_against_a_chosen_baseli
     assert "Unsafe half litre · saved" in options
     cmp.selectbox(key="yc_base").select("Fernhollow proposal: 0.5 L/min maintenance")
     run(cmp)
-    cmp.multiselect(key="yc_props").set_value(["Fernhollow baseline: 2 L/min maintenance", "Unsafe half litre · saved"])
+    cmp.multiselect(key="yc_props").set_value(["Fernhollow baseline: 2 L/min maintenance",
+                                               "Unsafe half litre · saved"])
     run(cmp)
     assert len([m for m in cmp.metric if m.label == "Change in cost"]) == 2
     table = next(d.value for d in cmp.dataframe if "year compared" in d.value.columns)

@@ -11,6 +11,7 @@ from __future__ import annotations
 import importlib.metadata
 from typing import Mapping
 
+import pandas as pd
 import streamlit as st
 
 from model.io.casemix import casemix_to_csv
@@ -81,6 +82,11 @@ def in_use(view: ViewSettings, ref: Reference, own: tuple[str, Mapping] | None =
     """The rows every export carries: prices and GWP values in use with their origin, the program."""
     return {"prices in use": prices_text(own), "GWP values": gwp_text(view, ref),
             "currency": ref.prices.currency, "program": f"fresh-gas-ledger {program_version()}"}
+
+
+def inputs_table(inputs: dict) -> pd.DataFrame:
+    """An export's inputs as a two-column table (every value as text)."""
+    return pd.DataFrame({"input": list(inputs), "value": [str(v) for v in inputs.values()]})
 
 
 def show(view: ViewSettings, ref: Reference, own: tuple[str, Mapping] | None = None) -> None:

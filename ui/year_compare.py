@@ -112,7 +112,7 @@ def render(view) -> None:
     inputs.update(ui.provenance.in_use(view, ref, ("each scenario", None) if own_prices else None))
     inputs.update({"GWP source": first.baseline.inputs.gwp_label, "paired draws": first.baseline.n_draws,
                    "seed": first.baseline.seed})
-    tables = {"Year comparison": table, "Inputs": pd.DataFrame({"input": list(inputs), "value": [str(v) for v in inputs.values()]}),
+    tables = {"Year comparison": table, "Inputs": ui.provenance.inputs_table(inputs),
               "Baseline per month": first.baseline.monthly, **tables,
               "Warnings": ui.cautions.warnings_table(warnings), "Sources": pd.DataFrame(ref.table())}
 
