@@ -10,6 +10,7 @@ from pathlib import Path
 import streamlit as st
 
 import ui.common
+import ui.state
 
 HERE = Path(__file__).resolve().parent
 
@@ -30,6 +31,7 @@ sections = {
     "Data": [_page("reference.py", "Reference", ":material/menu_book:")],
 }
 sections = {name: [p for p in pages if p is not None] for name, pages in sections.items()}
+ui.state.keep_page_inputs()      # every page's inputs survive a visit to another page
 navigation = st.navigation({name: pages for name, pages in sections.items() if pages})
 
 with st.sidebar:

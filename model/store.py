@@ -4,7 +4,8 @@ Where: the file named by the environment variable ``GAS_LEDGER_STORE``; without 
 ``~/.gas-ledger/store.sqlite3``. The file is created on first use.
 
 What: named *items* of a few kinds (``plan``: a case plan as TOML in the plan file format;
-``scenario``: a year scenario, text owned by the year model; ``overrides``: reference
+``scenario``: a year scenario, text owned by the year model (scenario TOML); ``casemix``:
+a case mix as CSV in the case-mix file format; ``overrides``: reference
 overrides as JSON in the form of :meth:`model.reference.Reference.with_overrides`). Saving an
 item adds a new version; earlier versions stay readable. Deleting an item only hides it
 (``restore`` brings it back). Nothing is overwritten or removed.
@@ -36,7 +37,7 @@ STORE_ENV = "GAS_LEDGER_STORE"
 #: Schema version this program writes. 1: plans only (table ``plans``); 2: items and versions.
 SCHEMA_VERSION = 2
 #: Kinds of item the store keeps.
-KINDS = ("plan", "scenario", "overrides")
+KINDS = ("plan", "scenario", "casemix", "overrides")
 #: How long a writer waits for another writer's transaction. [ms]
 BUSY_TIMEOUT_MS = 60_000
 #: Largest body stored for one version. [characters] (plan files are at most 1 MB)

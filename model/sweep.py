@@ -87,7 +87,8 @@ def flow_sweep(plan: CasePlan, reference: Reference = DEFAULT_REFERENCE, flows_l
         ``cost_agent``, ``cost_gases``, ``cost_absorbent``, ``cost_total``,
         ``co2e_total_kg``, ``mean_dial_pct``, ``min_inspired_o2_pct``,
         ``lowest_safe_fd_o2_pct``, ``fd_o2_pct``, ``o2_safe``, ``target_held``,
-        ``sevoflurane_caution``, ``feasible`` (O2 safe and target held).
+        ``sevoflurane_caution``, ``feasible`` (O2 safe and target held), ``safety`` ("ok", or
+        "UNSAFE: ..." where O2 is not safe: the point is marked as such wherever it is shown).
 
     Notes
     -----
@@ -161,6 +162,8 @@ def flow_sweep(plan: CasePlan, reference: Reference = DEFAULT_REFERENCE, flows_l
         "lowest_safe_fd_o2_pct": sim["phase_lowest_safe_fd_o2"][phase] * 100.0,
         "fd_o2_pct": sim["phase_fd_o2"][phase] * 100.0,
         "o2_safe": o2_safe,
+        # A hazard as in model.case.case_warnings: hypoxic mixture predicted or O2 running out.
+        "safety": np.where(o2_safe, "ok", "UNSAFE: hypoxic mixture or O2 runs out"),
         "target_held": held,
         "sevoflurane_caution": sevo,
         "feasible": o2_safe & held,

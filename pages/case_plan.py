@@ -4,11 +4,15 @@ from __future__ import annotations
 
 import json
 import re
+from dataclasses import replace
 
 import pandas as pd
 import streamlit as st
 
 import ui
+import ui.cautions
+import ui.provenance
+import ui.state
 from model import InputError
 from model.io.exports import html_report
 from model.plan import CasePlan
@@ -122,8 +126,9 @@ with st.expander("Safety limits and scavenging", icon=":material/tune:"):
                   "capture_efficiency": b3.empty()})
 
 st.markdown("**Phases** — one row per phase; add or delete rows at the table's edge.")
+editor_key = f"cp_phases_{ss['cp_rev']}"
 edited = st.data_editor(
-    ss["cp_editor_df"], key=f"cp_phases_{ss['cp_rev']}", num_rows="dynamic", hide_index=True,
+    ui.state.editor_base(editor_key, ss["cp_editor_df"]), key=editor_key, num_rows="dynamic", hide_index=True,
     width="stretch",
     column_config={
         "phase": st.column_config.TextColumn("phase", required=True, max_chars=80),
@@ -135,6 +140,42 @@ edited = st.data_editor(
                                                     help="dial: vaporizer setting; target: end-tidal MAC multiple"),
         "setting": st.column_config.TextColumn("dial % or target", help="e.g. 2.5 % (dial) or 1.0 (x MAC)"),
     })
+
+
+def _control_switches(before: pd.DataFrame | None, after: pd.DataFrame) -> list[int]:
+    """Rows whose control changed in this run while their setting stayed as typed for the other one."""
+    if before is None:
+        return []
+    rows = []
+    for i in range(min(len(before), len(after))):
+        was, now = before["control"].iloc[i], after["control"].iloc[i]
+        setting = after["setting"].iloc[i]
+        if was != now and was in CONTROL_LABELS and setting == before["setting"].iloc[i] \
+                and setting is not None and setting == setting and str(setting).strip():
+            rows.append(i)
+    return rows
+
+
+switched = _control_switches(ui.state.last_edited(editor_key), edited)
+if switched:
+    # A dial setting left in a target row would be read as a MAC multiple ("2 %" as 2 x MAC),
+    # a target left in a dial row as a dial %: clear it, and say so.
+    frame = edited.copy()
+    notes = []
+    for i in switched:
+        old = str(frame.at[frame.index[i], "setting"]).strip()
+        if frame["control"].iloc[i] == "target":
+            notes.append(f"row {i + 1}: the control is now an end-tidal target, so the dial setting '{old}' "
+                         "was cleared; type the target as a MAC multiple (e.g. 1.0)")
+        else:
+            notes.append(f"row {i + 1}: the control is now the vaporizer dial, so the target '{old}' was "
+                         "cleared; type the dial setting in % (e.g. 2 %)")
+        frame.at[frame.index[i], "setting"] = None
+    ss["cp_editor_df"] = frame.reset_index(drop=True)
+    ss["cp_rev"] += 1
+    ss["cp_flash"] = ("warning", "Phases table, " + "; ".join(notes) + ".")
+    st.rerun()
+ui.state.remember_editor(editor_key, edited, family="cp_phases_")
 table_slot = st.empty()
 
 
@@ -152,6 +193,8 @@ def _raw_inputs() -> dict:
     base["settings"]["capture_efficiency"] = ss["cp_capture"]
     base["settings"]["gwp_source"] = view.gwp_source
     base["settings"]["room_temperature"] = f"{view.temperature_c:g} degC"
+    if not ss.get("cp_own_prices"):
+        base.pop("prices", None)     # the prices in use on every page, unless the plan's own are chosen
     phases = []
     for row in edited.to_dict("records"):
         if all(v is None or (isinstance(v, str) and not v.strip()) or v != v for v in row.values()):
@@ -239,7 +282,10 @@ def _baseline_totals(base_toml: str, ref_key: str, _ref) -> dict:
     return ui.compute_cached(base_toml, ref_key, _ref).totals
 
 
-base_toml = plan_to_toml(ui.apply_settings(ss["cp_base"], view))
+own_items = ui.provenance.price_items(ss["cp_base"].prices)
+own = (f"the plan '{ss['cp_base'].name}'", ss["cp_base"].prices) if own_items and ss.get("cp_own_prices") else None
+base_toml = plan_to_toml(replace(ui.apply_settings(ss["cp_base"], view),
+                                 prices=ss["cp_base"].prices if own else {}))
 try:
     b = _baseline_totals(base_toml, ref_key, ref)
 except InputError:
@@ -253,6 +299,12 @@ def _delta(key, fmt, scale=1.0):
 
 
 st.subheader("What this case uses")
+if own_items:
+    st.checkbox("Use the plan's own prices", key="cp_own_prices",
+                help="Off: the prices in use on every page (your Reference values over the built-in examples). "
+                     f"On: the prices written in the plan for {', '.join(own_items)}.")
+ui.provenance.show(view, ref, own)
+unsafe = ui.cautions.unsafe_banner(result.warnings, "this plan")
 agent = ref.volatile(plan.agent)
 co2e_scale = ui.common.CO2E_UNITS[view.co2e_unit]
 m = st.columns(6)
@@ -265,7 +317,11 @@ m[2].metric(f"Emissions ({view.co2e_unit})", view.co2e_number(t["co2e_total_kg"]
             help=f"{result.gwp_label}; agent and N2O released")
 m[3].metric(f"Cost ({result.currency})", f"{t['cost_total']:,.2f}", _delta("cost_total", lambda d: f"{d:+,.2f}"),
             delta_color="inverse", help="Agent pro rata by volume, gases, absorbent")
-m[4].metric("MAC-hours", f"{t['mac_hours']:.2f}", _delta("mac_hours", lambda d: f"{d:+.2f}"), delta_color="off")
+m[4].metric("End-tidal MAC-h", f"{t['end_tidal_mac_hours']:.2f}",
+            _delta("end_tidal_mac_hours", lambda d: f"{d:+.2f}"), delta_color="off",
+            help="End-tidal MAC multiple over time (the depth the patient reaches; what a lower flow "
+                 "changes). The dial-based figure counts the vaporizer setting instead.")
+m[4].caption(f"Dial-based: {t['mac_hours']:.2f} MAC-h")
 tc = result.timecourse
 if "min_inspired_o2_pct" in t:
     safe = t.get("lowest_safe_fd_o2_pct")
@@ -285,10 +341,7 @@ g[4].metric("Agent emitted", f"{t['agent_emitted_g']:.1f} g")
 g[5].metric("Duration", f"{t['duration_min']:.0f} min")
 
 if result.warnings:
-    with st.container(border=True):
-        st.markdown("**Check before use**")
-        for w in result.warnings:
-            st.warning(ui.md(w), icon=":material/warning:")
+    ui.cautions.show_other_warnings(result.warnings)
 else:
     st.success("No warnings for this plan at the chosen limits.", icon=":material/check_circle:")
 
@@ -310,7 +363,7 @@ def _figures(plan_toml: str, ref_key: str, _result, _fate, _label) -> dict:
 def _sweep_figure(plan_toml: str, ref_key: str, co2e_unit: str, _sw, _currency):
     return charts.sweep_figure(_sw.table, "fgf_l_min", "cost_total", "co2e_total_kg", _sw.cost_lowest_flow_l_min,
                                _sw.emission_lowest_flow_l_min, _currency, ui.common.CO2E_UNITS[co2e_unit],
-                               co2e_unit, feasible=_sw.table.get("feasible"))
+                               co2e_unit, feasible=_sw.table.get("feasible"), unsafe=~_sw.table["o2_safe"])
 
 
 figs = dict(_figures(result_toml, ref_key, result, fate, agent.label))
@@ -360,8 +413,13 @@ with tabs[2]:
                     f"({sw.target_mac:.2f} x MAC): " + (", ".join(b for b in best if b) or
                                                         "no flow keeps inspired O2 above the floor") + ".")
         st.caption(f"Only flows that keep predicted inspired O2 above {sw.inspired_o2_floor_pct:.0f} % and hold "
-                   "the depth count as candidates (hollow markers do not). A lower flow also needs closer "
-                   "monitoring and follows local protocol.")
+                   "the depth count as candidates (hollow markers do not; crosses are unsafe: hypoxic mixture "
+                   "or O2 running out). A lower flow also needs closer monitoring and follows local protocol.")
+        n_unsafe = int((~sw.table["o2_safe"]).sum())
+        if n_unsafe:
+            st.markdown(f":red[**{ui.cautions.UNSAFE}** at {n_unsafe} of the {len(sw.table)} flows swept] "
+                        "(crosses; 'safety' column of the sweep table): their cost and CO2e are not savings "
+                        "to aim for.")
         with st.expander("Sweep table"):
             st.dataframe(sweep_table, hide_index=True, width="stretch")
 with tabs[3]:
@@ -371,7 +429,8 @@ with tabs[3]:
         f"fresh gas ({view.flow_unit})": ph["fgf_l_min"] * (1000 if view.flow_unit == "mL/min" else 1),
         "flow band": ph["flow_band"], "fresh gas O2 %": ph["fd_o2_pct"].round(0), "dial %": ph["dial_pct"],
         "liquid (mL)": ph["liquid_agent_ml"].round(1), f"CO2e ({view.co2e_unit})": (ph["co2e_kg"] * co2e_scale).round(3),
-        f"cost ({result.currency})": ph["cost_total"].round(2), "MAC-hours": ph["mac_hours"].round(2),
+        f"cost ({result.currency})": ph["cost_total"].round(2), "MAC-hours, dial-based": ph["mac_hours"].round(2),
+        "MAC-hours, end-tidal": ph["end_tidal_mac_hours"].round(2),
         "mix altered": ph["flows_altered"]})
     st.dataframe(shown, hide_index=True, width="stretch")
 with tabs[4]:
@@ -387,15 +446,17 @@ LABELS = [("Liquid agent", "liquid_agent_ml", "mL"), ("Bottles", "bottles", "bot
           ("Oxygen", "oxygen_l", "L"), ("Medical air", "air_l", "L"), ("Nitrous oxide", "nitrous_oxide_l", "L"),
           ("CO2 absorbent", "absorbent_g", "g"), ("CO2e, agent", "co2e_agent_kg", "kg CO2e"),
           ("CO2e, nitrous oxide", "co2e_nitrous_oxide_kg", "kg CO2e"), ("CO2e, total", "co2e_total_kg", "kg CO2e"),
-          ("Cost, total", "cost_total", result.currency), ("MAC-hours", "mac_hours", "MAC-h"),
+          ("Cost, total", "cost_total", result.currency), ("MAC-hours, end-tidal", "end_tidal_mac_hours", "MAC-h"),
+          ("MAC-hours, dial-based", "mac_hours", "MAC-h"),
           ("Duration", "duration_min", "min"), ("Lowest fresh gas O2", "min_fd_o2_pct", "%")]
 summary = pd.DataFrame({"plan": plan.name, "figure": [x[0] for x in LABELS],
                         "value": [float(t[x[1]]) for x in LABELS], "unit": [x[2] for x in LABELS]})
-inputs = {"plan": plan.name, "agent": agent.label, "patient weight": f"{plan.patient.weight_kg:g} kg",
+inputs = {"plan": plan.name, "safety": ui.cautions.safety_text(result.warnings), "agent": agent.label,
+          "patient weight": f"{plan.patient.weight_kg:g} kg",
           "patient age": f"{plan.patient.age_years:g} years", "GWP source": result.gwp_label,
           "room temperature": f"{plan.settings.temperature_c:g} °C", "currency": result.currency,
           "inspired O2 floor": f"{plan.settings.inspired_o2_floor:.0%}",
-          "overrides": ", ".join(ref.override_origins) or "none"}
+          "overrides": ", ".join(ref.override_origins) or "none", **ui.provenance.in_use(view, ref, own)}
 inputs.update({f"phase {i}: {p.name}": f"{p.minutes:g} min; O2 {p.o2_l_min:g}, air {p.air_l_min:g}, "
                f"N2O {p.n2o_l_min:g} L/min; " + (f"dial {p.dial_pct:g} %" if p.dial_pct is not None
                                                  else f"target {p.target_mac:g} x MAC")
@@ -403,7 +464,8 @@ inputs.update({f"phase {i}: {p.name}": f"{p.minutes:g} min; O2 {p.o2_l_min:g}, a
 sources = ui.common.sources_table(ref_key, ref)
 tables = {"Summary": summary, "Phases": result.phases.assign(plan=plan.name),
           "Cost by item": charts.cost_by_item(t, result.currency), "Where the agent went": fate,
-          "Inputs": pd.DataFrame({"input": list(inputs), "value": list(inputs.values())}), "Sources": sources}
+          "Inputs": pd.DataFrame({"input": list(inputs), "value": list(inputs.values())}),
+          "Warnings": ui.cautions.warnings_table(result.warnings), "Sources": sources}
 if tc is not None:
     tables["Time course"] = tc
 if sweep_table is not None:
@@ -411,12 +473,12 @@ if sweep_table is not None:
 
 
 def _report() -> str:
-    return html_report(f"Case plan: {plan.name}", inputs=inputs,
+    return html_report(("UNSAFE PRACTICE. " if unsafe else "") + f"Case plan: {plan.name}", inputs=inputs,
                        tables={"Summary": summary[["figure", "value", "unit"]],
                                "Phases": shown},
                        figures=[("Time course", figs["time"]), ("Where the agent went", figs["fate"]),
                                 ("Flow sweep", figs.get("sweep")), ("Cost by item", figs["cost"])],
-                       warnings=result.warnings, cautions=[ui.CAUTION], sources=sources)
+                       warnings=ui.cautions.report_lines(result.warnings), cautions=[ui.CAUTION], sources=sources)
 
 
 st.divider()
@@ -429,7 +491,8 @@ with d2:
     s1, s2 = st.columns([3, 1], vertical_alignment="bottom")
     note = s1.text_input("Note for this version", key="cp_note", placeholder="optional, e.g. after theatre meeting")
     if s2.button("Save", type="primary", icon=":material/save:", width="stretch", disabled=status != "ok"):
-        version = store.save_plan(plan, note)
+        # The plan's own prices are kept with it whether or not they were used here.
+        version = store.save_plan(replace(plan, prices=dict(ss["cp_base"].prices)), note)
         ss["cp_base"] = plan
         ss["cp_origin"] = f"saved plan '{plan.name}' version {version}"
         ss["cp_saved_msg"] = f"Saved '{plan.name}' as version {version}. Earlier versions are kept."

@@ -2,11 +2,16 @@
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import pandas as pd
 import streamlit as st
 
 import ui
+import ui.cautions
+import ui.provenance
 from model import InputError
+from model.case import Caution, is_unsafe, severity_of
 from model.io.exports import html_report
 from model.io.plans import plan_to_toml
 from ui import charts
@@ -21,7 +26,8 @@ FIGURES = [("Liquid agent", "liquid_agent_ml", "mL"), ("Bottles", "bottles", "bo
            ("CO2e, total", "co2e_total_kg", "kg CO2e"), ("CO2e, agent", "co2e_agent_kg", "kg CO2e"),
            ("CO2e, nitrous oxide", "co2e_nitrous_oxide_kg", "kg CO2e"), ("Cost, total", "cost_total", "currency"),
            ("Oxygen", "oxygen_l", "L"), ("Medical air", "air_l", "L"), ("Nitrous oxide", "nitrous_oxide_l", "L"),
-           ("CO2 absorbent", "absorbent_g", "g"), ("MAC-hours", "mac_hours", "MAC-h"), ("Duration", "duration_min", "min")]
+           ("CO2 absorbent", "absorbent_g", "g"), ("MAC-hours, end-tidal", "end_tidal_mac_hours", "MAC-h"),
+           ("MAC-hours, dial-based", "mac_hours", "MAC-h"), ("Duration", "duration_min", "min")]
 
 
 #: Earlier versions of each plan offered for comparison, besides its latest.
@@ -64,7 +70,8 @@ def _compare_plans() -> None:
     with st.spinner("Computing the plans..."):
         for label in chosen:
             try:
-                plan = ui.apply_settings(store.load_plan(*versions[label]), view)
+                # The prices in use on every page, not a plan file's own (ui/provenance.py).
+                plan = replace(ui.apply_settings(store.load_plan(*versions[label]), view), prices={})
                 results[label] = ui.compute_cached(plan_to_toml(plan), ref_key, ref)
             except InputError as err:
                 ui.show_input_error(err, f"'{label}'")
@@ -75,12 +82,18 @@ def _compare_plans() -> None:
     scale = ui.common.CO2E_UNITS[view.co2e_unit]
 
     st.subheader("Against the baseline")
+    ui.provenance.show(view, ref)
+    unsafe = [name for name, res in results.items() if is_unsafe(res.warnings)]
+    if unsafe:
+        ui.cautions.unsafe_banner([Caution(f"{name}: {w}", severity_of(w)) for name, res in results.items()
+                                   for w in res.warnings], ", ".join(f"'{n}'" for n in unsafe))
     st.caption(f"Baseline: **{ui.md(base_name)}** ({ref.agents[base.plan.agent].label}, "
                f"{bt['duration_min']:.0f} min). Green is less used, emitted or spent.")
     for name, res in list(results.items())[1:]:
         t = res.totals
         with st.container(border=True):
-            st.markdown(f"**{ui.md(name)}** — {ref.agents[res.plan.agent].label}, {t['duration_min']:.0f} min")
+            flag = f" — :red[**{ui.cautions.UNSAFE}**]" if is_unsafe(res.warnings) else ""
+            st.markdown(f"**{ui.md(name)}** — {ref.agents[res.plan.agent].label}, {t['duration_min']:.0f} min{flag}")
             c = st.columns(5)
             c[0].metric("Liquid agent", f"{t['liquid_agent_ml']:.1f} mL",
                         _delta_text(t["liquid_agent_ml"], bt["liquid_agent_ml"], "mL"), delta_color="inverse")
@@ -91,8 +104,11 @@ def _compare_plans() -> None:
                         _delta_text(t["cost_total"], bt["cost_total"], "", 2), delta_color="inverse")
             c[3].metric("Bottles", f"{t['bottles']:.2f}", _delta_text(t["bottles"], bt["bottles"], "", 2),
                         delta_color="inverse")
-            c[4].metric("MAC-hours", f"{t['mac_hours']:.2f}", _delta_text(t["mac_hours"], bt["mac_hours"], "", 2),
-                        delta_color="off")
+            # End-tidal: lowering the flow changes the depth reached, not the dial (which it raises).
+            c[4].metric("End-tidal MAC-h", f"{t['end_tidal_mac_hours']:.2f}",
+                        _delta_text(t["end_tidal_mac_hours"], bt["end_tidal_mac_hours"], "", 2), delta_color="off",
+                        help="End-tidal MAC multiple over time, the depth reached")
+            c[4].caption(f"Dial-based: {t['mac_hours']:.2f} MAC-h")
 
     rows = []
     for label, key, unit in FIGURES:
@@ -106,10 +122,13 @@ def _compare_plans() -> None:
             row[f"{name}: difference %"] = _pct(float(res.totals[key]), float(bt[key]))
         rows.append(row)
     table = pd.DataFrame(rows)
+    if unsafe:
+        table["safety"] = f"{ui.cautions.UNSAFE}: " + ", ".join(unsafe)
     st.subheader("Side by side")
     st.dataframe(table, hide_index=True, width="stretch",
                  # four significant figures: a case's emissions in t CO2e are small numbers
-                 column_config={c: st.column_config.NumberColumn(format="%.4g") for c in table.columns[2:]})
+                 column_config={c: st.column_config.NumberColumn(format="%.4g")
+                                for c in table.columns[2:] if c != "safety"})
 
     cost_df = pd.DataFrame({"item": charts.cost_by_item(bt, base.currency)["item"]})
     co2e_df = pd.DataFrame({"source": ["Volatile agent", "Nitrous oxide"]})
@@ -131,23 +150,24 @@ def _compare_plans() -> None:
     g2.plotly_chart(figs[1][1], width="stretch", key="cmp_fig_co2e")
     st.plotly_chart(figs[2][1], width="stretch", key="cmp_fig_use")
 
-    warnings = [f"{name}: {w}" for name, res in results.items() for w in res.warnings]
-    if warnings:
-        with st.expander(f"Warnings ({len(warnings)})", icon=":material/warning:"):
-            for w in warnings:
-                st.warning(ui.md(w))
+    warnings = [Caution(f"{name}: {w}", severity_of(w)) for name, res in results.items() for w in res.warnings]
+    ui.cautions.show_other_warnings(warnings)
 
     sources = pd.DataFrame(ref.table())
     tables = {"Comparison": table, "Cost by item": cost_df, "Emissions by source": co2e_df}
     for name, res in results.items():
         tables[f"Phases {name}"] = res.phases.assign(plan=name)
+    tables["Warnings"] = ui.cautions.warnings_table(warnings)
     tables["Sources"] = sources
-    inputs = {"baseline": base_name, "compared": ", ".join(list(results)[1:]), "GWP source": base.gwp_label,
-              "room temperature": f"{view.temperature_c:g} °C", "currency": view.currency}
+    inputs = {"baseline": base_name,
+              "safety": "; ".join(f"{n}: {ui.cautions.safety_text(r.warnings)}" for n, r in results.items()),
+              "compared": ", ".join(list(results)[1:]), "GWP source": base.gwp_label,
+              "room temperature": f"{view.temperature_c:g} °C", **ui.provenance.in_use(view, ref)}
 
     def _report() -> str:
-        return html_report("Plan comparison", inputs=inputs, tables={"Side by side": table}, figures=figs,
-                           warnings=warnings, cautions=[ui.CAUTION], sources=sources)
+        return html_report(("UNSAFE PRACTICE. " if unsafe else "") + "Plan comparison", inputs=inputs,
+                           tables={"Side by side": table}, figures=figs, warnings=ui.cautions.report_lines(warnings),
+                           cautions=[ui.CAUTION], sources=sources)
 
     st.divider()
     st.markdown("**Download this comparison**")

@@ -8,12 +8,15 @@ import pandas as pd
 import streamlit as st
 
 import ui
+import ui.cautions
+import ui.provenance
+import ui.state
+import ui.year_store
 from model import InputError
-from model.io.casemix import casemix_from_frame, casemix_to_frame
+from model.io.casemix import casemix_from_frame, casemix_to_csv, casemix_to_frame
 from model.io.exports import html_report
 from model.reference import GWP_SOURCES, VOLATILES
 from model.year.inputs import MAX_DRAWS, Practice, Sampling
-from model.io.scenario import load_scenario
 from model.year.compare import nonzero_rows
 from ui import year_views as yv
 
@@ -22,27 +25,54 @@ view = ui.page_start("Department year", "A department's case mix scaled to a yea
                      "adherence, prices and GWP source.")
 ref = ui.reference(view)
 ref_key = ui.reference_key(view)
+ss = st.session_state
 
-files = yv.scenario_files()
-if not files:
-    st.error("No scenario files found in demo_data/year.")
+store = ui.get_store()
+if "dy_pick_pending" in ss:          # after a save or an upload: show the year just saved
+    ss["dy_scenario"] = ss.pop("dy_pick_pending")
+    ss["dy_version"] = "latest"
+    ss["dy_save_note"] = ""
+choices = ui.year_store.choices(store)
+if not choices:
+    st.error("No scenario files found in demo_data/year and none saved.")
     st.stop()
-name = st.selectbox("Scenario", list(files), key="dy_scenario",
-                    help="Scenario files (TOML) in demo_data/year; each names its case-mix file (CSV).")
+if ss.get("dy_scenario") not in choices:
+    ss.pop("dy_scenario", None)
+c1, c2 = st.columns([4, 1], vertical_alignment="bottom")
+picked = c1.selectbox("Scenario", list(choices), key="dy_scenario",
+                     help="The demo scenario files (TOML, in demo_data/year; each names its case-mix CSV) and "
+                          f"the years you saved (marked '{ui.year_store.SAVED.strip()}').")
+choice = choices[picked]
+versions = ["latest"] + ([str(v.version) for v in store.history("scenario", choice.name)]
+                         if choice.kind == "saved" else [])
+if ss.get("dy_version") not in versions:
+    ss["dy_version"] = "latest"
+version = c2.selectbox("Version", versions, key="dy_version", disabled=choice.kind != "saved")
+# Widget keys carry the scenario (and the version opened), so each keeps its own inputs.
+name = picked if version == "latest" else f"{picked} v{version}"
 try:
-    base = load_scenario(files[name])
+    base = ui.year_store.load(store, choice, None if version == "latest" else int(version))
 except InputError as err:
     ui.show_input_error(err)
     st.stop()
 library = {**yv.plan_library(), **base.casemix.plans}
+own_items = ui.provenance.price_items(base.prices)
+own_prices = bool(own_items) and st.checkbox(
+    "Use the scenario's own prices", key=f"dy_own_prices_{name}",
+    help="Off: the prices in use on every page (your Reference values over the built-in examples). "
+         f"On: the prices written in the scenario for {', '.join(own_items)}.")
+own = (f"the scenario '{base.name}'", base.prices) if own_prices else None
+ui.provenance.show(view, ref, own)
 
 st.subheader("Case mix")
 st.caption("Edit counts, durations, agent shares and each type's plan (its flow practice). Durations in "
            "minutes; spread is the SD of ln(duration); shares as fractions.")
 share_cols = {a: st.column_config.NumberColumn(a, min_value=0.0, max_value=1.0, step=0.05, format="%.2f")
               for a in VOLATILES}
+mix_key = f"dy_mix_{name}"
 edited = st.data_editor(
-    casemix_to_frame(base.casemix), key=f"dy_mix_{name}", num_rows="dynamic", hide_index=True, width="stretch",
+    ui.state.editor_base(mix_key, casemix_to_frame(base.casemix)), key=mix_key, num_rows="dynamic",
+    hide_index=True, width="stretch",
     column_config={
         "case_type": st.column_config.TextColumn("case type", required=True),
         "cases_per_year": st.column_config.NumberColumn("cases / year", min_value=0, step=10, format="%d"),
@@ -54,11 +84,17 @@ edited = st.data_editor(
         "age": st.column_config.NumberColumn("age", min_value=0.0, max_value=120.0),
         "plan": st.column_config.SelectboxColumn("plan", options=sorted(library), required=True),
     })
+ui.state.remember_editor(mix_key, edited)
+mix_slot = st.empty()
+last_key = f"dy_last_{name}"           # (scenario, result, mix) of the last valid year
+stale = False
 try:
-    mix = casemix_from_frame(edited, library, "case mix table")
+    mix = casemix_from_frame(edited, library, "Case mix table")
 except InputError as err:
-    ui.show_input_error(err)
-    st.stop()
+    # Shown by the table; the practice panel, the last valid figures and downloads stay.
+    mix_slot.error(ui.md(str(err)), icon=":material/error:")
+    mix = ss[last_key][2] if last_key in ss else base.casemix
+    stale = True
 
 with st.expander("Practice change and uncertainty", expanded=False, icon=":material/tune:"):
     p = base.practice
@@ -98,7 +134,7 @@ mode = min(max(mode / 100, low), high)
 practice = Practice(flow if use_flow else None, dial_factor, "desflurane" if switch else None,
                     "sevoflurane" if switch else None, mode, low, high,
                     maintenance_o2_share=o2_pct / 100 if use_o2 else None)
-scenario = replace(yv.scenario_for_view(base, view, mix), practice=practice,
+scenario = replace(yv.scenario_for_view(base, view, mix, own_prices), practice=practice,
                    sampling=Sampling(int(draws), int(seed), float(spread), tuple(gwps)),
                    car_kg_per_km=float(car), car_source=car_source.strip() or base.car_source)
 try:
@@ -106,12 +142,22 @@ try:
         result = yv.run_year(scenario, ref, ref_key)
 except InputError as err:
     ui.show_input_error(err)
-    st.stop()
+    if last_key not in ss:
+        st.stop()
+    scenario, result, mix = ss[last_key]
+    stale = True
+else:
+    if not stale:
+        ss[last_key] = (scenario, result, mix)
+if stale:
+    st.warning("The figures below are the last valid result; correct the entry above to update them.",
+               icon=":material/history:")
 
 t = result.totals
 rows = result.summary.set_index("key")
 cur = result.currency
 st.subheader("The year")
+unsafe = ui.cautions.unsafe_banner(result.warnings, "the practice of this year")
 st.caption(f"{t['cases']:,.0f} cases; {result.n_draws:,} draws (seed {result.seed}). "
            f"Expected values under {result.inputs.gwp_label}, with P5-P95 under each"
            + (f" (the bands draw the GWP sources {', '.join(ref.gwp_sources[g].label for g in gwps)}, "
@@ -142,6 +188,8 @@ g4.plotly_chart(figs[4][1], width="stretch", key="dy_fig_fan_cost")
 st.plotly_chart(figs[2][1], width="stretch", key="dy_fig_source")
 
 summary = nonzero_rows(result.summary).drop(columns=["key"])
+if unsafe:
+    summary.insert(0, "safety", ui.cautions.UNSAFE)     # also in the CSV, which carries no inputs
 st.subheader("Headline figures")
 st.dataframe(summary, hide_index=True, width="stretch",
              column_config={c: st.column_config.NumberColumn(format="%.2f")
@@ -150,28 +198,105 @@ with st.expander("Per month and per case type"):
     st.dataframe(result.monthly, hide_index=True, width="stretch")
     st.dataframe(result.by_type, hide_index=True, width="stretch")
 
-if result.warnings:
-    with st.expander(f"Warnings ({len(result.warnings)})", icon=":material/warning:"):
-        for w in result.warnings:
-            st.warning(ui.md(w))
+ui.cautions.show_other_warnings(result.warnings)
 for note in result.notes:
     st.caption(note)
 
-tables = {"Headline figures": summary, "Per month": result.monthly, "Per case type": result.by_type,
-          "Case mix": casemix_to_frame(mix), "Sources": pd.DataFrame(ref.table())}
-inputs = {"scenario": scenario.name, "cases per year": f"{t['cases']:,.0f}", "GWP source": result.inputs.gwp_label,
-          "draws": result.n_draws, "seed": result.seed, "car factor": f"{scenario.car_kg_per_km:g} kg CO2e/km "
-          f"({scenario.car_source})", "currency": cur}
+edits = ui.provenance.year_edits(base, scenario, mix)
+title = f"Department year: {scenario.name}" + (" (edited on this page)" if edits else "")
+inputs = {"scenario": scenario.name + (f" ({', '.join(edits)} edited on this page, not as saved)" if edits else ""),
+          "opened from": (f"saved scenario '{choice.name}', " + (f"version {version}" if version != "latest"
+                          else "latest version")) if choice.kind == "saved" else f"demo file {choice.path.name}",
+          "safety": ui.cautions.safety_text(result.warnings),
+          **ui.provenance.practice_rows(scenario.practice),
+          "case mix": f"{len(mix.types)} case types, {t['cases']:,.0f} cases per year (table 'Case mix')",
+          **ui.provenance.in_use(view, ref, own),
+          "GWP source": result.inputs.gwp_label,
+          "GWP sources drawn in the bands": ", ".join(ref.gwp_sources[g].label for g in scenario.sampling.gwp_sources)
+          or "the GWP source only",
+          "draws": result.n_draws, "seed": result.seed,
+          "price spread (SD of ln price)": f"{scenario.sampling.price_spread:g}",
+          "car factor": f"{scenario.car_kg_per_km:g} kg CO2e/km ({scenario.car_source})"}
+tables = {"Headline figures": summary, "Inputs": ui.provenance.inputs_table(inputs),
+          "Per month": result.monthly, "Per case type": result.by_type,
+          "Case mix": casemix_to_frame(mix), "Warnings": ui.cautions.warnings_table(result.warnings),
+          "Sources": pd.DataFrame(ref.table())}
+with st.expander("What produced these figures", icon=":material/info:"):
+    st.dataframe(tables["Inputs"], hide_index=True, width="stretch")
 
 
 def _report() -> str:
-    return html_report(f"Department year: {scenario.name}", inputs=inputs,
+    return html_report(("UNSAFE PRACTICE. " if unsafe else "") + title, inputs=inputs,
                        tables={"Headline figures": summary, "Per month": result.monthly,
                                "Per case type": result.by_type},
-                       figures=figs, warnings=result.warnings, cautions=[ui.CAUTION, *result.notes],
+                       figures=figs, warnings=ui.cautions.report_lines(result.warnings),
+                       cautions=[ui.CAUTION, *result.notes],
                        sources=tables["Sources"])
 
 
 st.divider()
 st.markdown("**Download this year**")
 ui.downloads(f"year {scenario.name}", tables, _report, key="dy_dl", notes=tuple(result.notes))
+
+
+# ---- keeping the year: save, versions, files -----------------------------------------
+
+st.divider()
+k1, k2 = st.columns([3, 2])
+with k1:
+    st.markdown("**Save this year** (scenario and case mix, as on this page; a new version each time)")
+    s1, s2, s3 = st.columns([2, 2, 1], vertical_alignment="bottom")
+    ss.setdefault(f"dy_save_name_{name}", choice.name if choice.kind == "saved" else base.name)
+    save_name = s1.text_input("Save as", key=f"dy_save_name_{name}", max_chars=120)
+    save_note = s2.text_input("Note for this version", key="dy_save_note", placeholder="optional")
+    if s3.button("Save", type="primary", icon=":material/save:", width="stretch", key="dy_save_btn",
+                 disabled=stale):
+        try:
+            # The scenario's own prices are kept with it whether or not they were used here.
+            saved_v, mix_v = ui.year_store.save(store, replace(scenario, prices=dict(base.prices)), mix,
+                                                save_name, save_note)
+        except InputError as err:
+            ui.show_input_error(err, "Not saved")
+        else:
+            ss["dy_flash"] = f"Saved '{save_name.strip()}' as version {saved_v} (case mix version {mix_v}). " \
+                             "Earlier versions are kept."
+            ss["dy_pick_pending"] = f"{save_name.strip()}{ui.year_store.SAVED}"
+            st.rerun()
+    flash = ss.pop("dy_flash", None)
+    if flash:
+        st.success(ui.md(flash), icon=":material/check_circle:")
+    if choice.kind == "saved":
+        hist = store.history("scenario", choice.name)
+        st.dataframe(pd.DataFrame({"version": [v.version for v in hist],
+                                   "saved (UTC)": [v.saved_at[:19] for v in hist],
+                                   "note": [v.note for v in hist]}), hide_index=True, width="stretch")
+with k2:
+    st.markdown("**Files**")
+    slug = ui.common._slug(scenario.name)
+    f1, f2 = st.columns(2)
+    f1.download_button("Scenario (TOML)", data=ui.year_store.scenario_file(
+                           replace(scenario, prices=dict(base.prices)), f"{slug}-casemix.csv"),
+                       file_name=f"{slug}.toml", mime="application/toml", key="dy_dl_scenario",
+                       on_click="ignore", icon=":material/download:",
+                       help="The scenario as run on this page; keep its case-mix file beside it")
+    f2.download_button("Case mix (CSV)", data=casemix_to_csv(mix), file_name=f"{slug}-casemix.csv",
+                       mime="text/csv", key="dy_dl_casemix", on_click="ignore", icon=":material/download:")
+    with st.expander("Upload a scenario or a case mix", icon=":material/upload:"):
+        up_s = st.file_uploader("Scenario (TOML)", type=["toml"], key="dy_upload_scenario")
+        up_m = st.file_uploader("Its case mix (CSV)", type=["csv"], key="dy_upload_casemix",
+                                help="Its plan column names plans of the dashboard: "
+                                     + ", ".join(sorted(yv.plan_library())))
+        if st.button("Save the uploaded files", icon=":material/upload:", key="dy_upload_btn",
+                     disabled=up_s is None and up_m is None):
+            try:
+                saved_name, text = ui.year_store.import_files(
+                    store, (up_s.name, up_s.getvalue()) if up_s is not None else None,
+                    (up_m.name, up_m.getvalue()) if up_m is not None else None, yv.plan_library())
+            except InputError as err:
+                st.error(ui.md(f"Not saved, the store is unchanged. {err}"), icon=":material/error:")
+            else:
+                ss["dy_flash"] = text
+                if saved_name is not None:
+                    ss["dy_pick_pending"] = saved_name + ui.year_store.SAVED
+                st.rerun()
+

@@ -11,13 +11,14 @@ import plotly.express as px
 import streamlit as st
 
 import ui
+import ui.provenance
 from model import InputError
 from model.audit.result import BAND_COLUMNS, DEFAULT_HIGH_FLOW_L_MIN, DEFAULT_HIGH_FLOW_LIMIT_MIN
 from model.audit.engine import audit_records
 from model.io.exports import html_report
 from model.freshgas import FLOW_BAND_NAMES
 from model.io.purchases import load_purchases
-from model.audit.reconcile import cost_view, reconcile
+from model.audit.reconcile import cost_view, reconcile, record_coverage
 from model.io.record_files import DEFAULT_GAP_LIMIT_MIN
 from model.io.uploads import check_upload
 
@@ -175,6 +176,8 @@ st.caption(f"GWP source: {result.gwp_label}. Every delivered gram counts as emit
            f"CO2 absorbent, estimated: {total['absorbent_g'] / 1000:,.1f} kg, {view.money(total['cost_absorbent'])} "
            f"(not in the cost above).", help="Absorbent: " + result.absorbent_note())
 
+ui.provenance.show(view, ref)
+
 with st.expander(f"Checks: {summary['rows_set_aside']:,} row(s) set aside, {summary['gaps']:,} gap(s)",
                  expanded=summary["rows_set_aside"] > 0 or summary["gaps"] > 0):
     kinds = pd.DataFrame([(k, v) for k, v in summary["set_aside_by_kind"].items() if v],
@@ -241,13 +244,25 @@ with tab_recon:
         st.caption("Add a purchases file (format in docs/formats.md, 'Purchases') to compare with what was bought.")
     else:
         totals = recon[recon["month"] == "all"]
+        coverage = record_coverage(cases, recon, ref)
         n2o = totals[totals["item"] == "nitrous_oxide"]
-        if len(n2o):
+        if coverage["partial"]:
+            # A few cases against a hospital's purchases: say what the records cover, and no loss.
+            st.warning(ui.md(coverage["message"]), icon=":material/rule:")
+            if len(n2o):
+                st.metric("N2O apparent loss", "not estimated", delta_color="off",
+                          help="The records cover only part of what the purchases serve; the gap between "
+                               "them is mostly use that is not in these records.")
+        elif len(n2o):
+            st.caption(ui.md(coverage["message"]))
             r = n2o.iloc[0]
             share = "" if pd.isna(r["unexplained_share"]) else f"{r['unexplained_share']:.0%} of purchases"
             st.metric("N2O apparent loss", f"{r['apparent_loss']:,.0f} L", share, delta_color="off",
                       help="Purchased minus recorded N2O: losses in pipes and manifolds, part-full cylinders "
                            "returned, and use not in the records.")
+        with st.expander("Coverage by month and theatre", expanded=coverage["partial"]):
+            st.dataframe(coverage["by_month"], hide_index=True, width="stretch",
+                         column_config={"bought": "purchases", "has_records": "case records"})
         long = totals.melt(id_vars=["item", "unit"], value_vars=["purchased", "recorded"], var_name="source",
                            value_name="amount")
         long["item"] = long["item"] + " [" + long["unit"] + "]"
@@ -256,7 +271,9 @@ with tab_recon:
         st.plotly_chart(fig, width="stretch", key="ra_recon")
         figs.append(("Purchased and recorded", fig))
         st.dataframe(recon, hide_index=True, width="stretch",
-                     column_config={"unexplained_share": st.column_config.NumberColumn(format="percent")})
+                     column_config={"unexplained_share": st.column_config.NumberColumn(format="percent"),
+                                    "unexplained_share_with_records": st.column_config.NumberColumn(
+                                        "unexplained share, months with records", format="percent")})
         st.caption("Months differ by stock held over; the 'all' row of each item is the fairer comparison.")
 
 tables = {"Cases": cases, "By theatre": result.by("theatre"), "By month": result.by("month"),
@@ -264,14 +281,17 @@ tables = {"Cases": cases, "By theatre": result.by("theatre"), "By month": result
           "Cost by item": costs, "Set-aside rows": rep.issues, "Gaps": rep.gap_list}
 if recon is not None:
     tables["Purchases"] = recon
+    tables["Record coverage"] = coverage["by_month"]
 if purchase_notes:
     tables["Purchase lines set aside"] = pd.DataFrame({"message": purchase_notes})
 inputs = {"files": ", ".join(rep.files), "purchases": purchases_file[0] if purchases_file else "none",
+          "record coverage": coverage["message"] if recon is not None else "no purchases to compare",
           "GWP source": result.gwp_label, "room temperature": f"{view.temperature_c:g} °C",
           "longest interval counted": f"{gap_limit:g} min", "high flow above": f"{high_flow:g} L/min",
           "cases": f"{int(total['cases']):,}", "rows used": f"{summary['rows_valid']:,}",
           "rows set aside": f"{summary['rows_set_aside']:,}", "liquid agent": f"{total['liquid_agent_ml']:,.0f} mL",
-          "CO2e": view.co2e(total["co2e_total_kg"]), "cost": view.money(total["cost_total"])}
+          "CO2e": view.co2e(total["co2e_total_kg"]), "cost": view.money(total["cost_total"]),
+          **ui.provenance.in_use(view, ref)}
 
 
 def _report() -> str:

@@ -8,6 +8,7 @@ import pandas as pd
 import streamlit as st
 
 import ui
+import ui.provenance
 from model import DEFAULT_REFERENCE, InputError
 from model.io.exports import html_report
 from model.reference import VOLATILES
@@ -51,21 +52,43 @@ ui.downloads("reference values", {"Reference": table}, _report, key="ref_dl")
 # ---- the user's values ---------------------------------------------------------------
 
 st.subheader("Your values")
+ui.provenance.show(view, ref)
 st.caption("Leave a value as it is to keep the default. Saving keeps every earlier set of values.")
 default = DEFAULT_REFERENCE
 prices_saved = saved.get("prices", {})
-FORM_KEYS = ("ref_bottle_", "ref_oxygen_", "ref_air_", "ref_nitrous_", "ref_absorbent_", "ref_gwp_", "ref_mac_",
+FORM_KEYS = ("ref_currency",
+             "ref_bottle_", "ref_oxygen_", "ref_air_", "ref_nitrous_", "ref_absorbent_", "ref_gwp_", "ref_mac_",
              "ref_vapmax_")
+
+
+def _values_in_use() -> dict:
+    """Each form field's key and the value in use now (saved values over the defaults)."""
+    values = {"ref_currency": prices_saved.get("currency", default.prices.currency)}
+    gwp_saved = saved.get("gwp", {}).get("user", {})
+    for a in VOLATILES:
+        values[f"ref_bottle_{a}"] = float(ref.prices.bottle.get(a, 0.0))
+        values[f"ref_vapmax_{a}"] = float(ref.agents[a].vaporizer_max)
+    for k in ("oxygen_per_1000_l", "air_per_1000_l", "nitrous_oxide_per_1000_l", "absorbent_per_kg"):
+        values[f"ref_{k}"] = float(getattr(ref.prices, k))
+    for a in list(VOLATILES) + ["nitrous_oxide"]:
+        values[f"ref_gwp_{a}"] = gwp_saved.get(a)
+        values[f"ref_mac_{a}"] = float(ref.agents[a].mac40)
+    return values
+
+
 if ss.pop("ref_reset_form", False):
     # Another set of values was put in use: show it in the form, not what was typed before.
+    # Each field is given its value (not just forgotten): the browser keeps showing a
+    # forgotten field's old entry, and saving the form would bring it back.
     for k in [k for k in ss if str(k).startswith(FORM_KEYS)]:
         del ss[k]
+    ss.update(_values_in_use())
 with st.form("ref_overrides"):
     tab_p, tab_g, tab_m, tab_v = st.tabs(["Prices", "GWP values", "MAC at age 40", "Vaporizer maximum"])
     with tab_p:
         c = st.columns(5)
         currency = c[0].text_input("Currency label", value=prices_saved.get("currency", default.prices.currency),
-                                   max_chars=12)
+                                   max_chars=12, key="ref_currency")
         bottle = {}
         for i, a in enumerate(VOLATILES):
             bottle[a] = c[i + 1].number_input(

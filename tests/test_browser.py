@@ -144,13 +144,18 @@ def choose(pg, label: str, option: str) -> None:
     wait_idle(pg)
 
 
+def open_saved_plan(pg, url: str, name: str) -> None:
+    """Open the app and, on the Case plan page, open the saved plan ``name``."""
+    open_app(pg, url)
+    choose(pg, "Open a saved plan", name)
+    click_button(pg, "Open")
+    pg.get_by_text(f"Editing: saved plan '{name}'").wait_for()
+    wait_idle(pg)
+
+
 def test_plan_lower_flow_save_reload_and_download(page, app_url, tmp_path):
     ARTIFACTS.mkdir(exist_ok=True)
-    open_app(page, app_url)
-    choose(page, "Open a saved plan", "Laparoscopic cholecystectomy, high flow")
-    click_button(page, "Open")
-    page.get_by_text("Editing: saved plan 'Laparoscopic cholecystectomy, high flow'").wait_for()
-    wait_idle(page)
+    open_saved_plan(page, app_url, "Laparoscopic cholecystectomy, high flow")
     before_text = metric_text(page, "Liquid agent")
     before = metric_number(page, "Liquid agent")
 

@@ -185,3 +185,32 @@ def test_phase_consumption_vectorises_over_many_rows():
     assert c["liquid_ml"].shape == (n,)
     one = phase_consumption(t[:1], o2[:1], air[:1], 0.0, dial[:1], SEVO)
     assert c["liquid_ml"][0] == pytest.approx(one["liquid_ml"][0])
+
+
+def test_warnings_are_ranked_hazard_first_with_a_severity_each():
+    """Issue 12 defect 4: a hypoxic mixture and O2 running out come before labelling notes."""
+    from model.case import SEVERITIES, is_unsafe, severity_of
+    plan = load_plan(DEMO / "lap_chole_low_flow.toml")
+    # 0.5 L/min maintenance at 50 % O2: the textbook steady-state FiO2 mass balance
+    # (FGF x FdO2 - VO2) / (FGF - VO2 - ...) has a numerator near zero at VO2 ~ 0.25 L/min.
+    phases = tuple(replace(p, o2_l_min=0.25, air_l_min=0.25, n2o_l_min=0.0) if p.name == "maintenance" else p
+                   for p in plan.phases)
+    result = compute_case(replace(plan, phases=phases))
+    severities = [severity_of(w) for w in result.warnings]
+    assert severities and severities[0] == "hazard" and "labelling" in severities
+    assert severities == sorted(severities, key=SEVERITIES.index)
+    assert is_unsafe(result.warnings) and result.to_dict()["unsafe"] is True
+    assert result.to_dict()["warnings_by_severity"][0]["severity"] == "hazard"
+
+
+def test_end_tidal_mac_hours_per_phase_add_up_and_lie_under_the_dial_based_figure():
+    """Issue 12 defect 8: both MAC-hours are reported; the end-tidal ones per phase too."""
+    result = compute_case(load_plan(DEMO / "lap_chole_high_flow.toml"))
+    t, ph = result.totals, result.phases
+    # The phases' end-tidal MAC-hours add up to the case's (the same integral over the minute
+    # grid against the simulation's own steps; arithmetic).
+    assert ph["end_tidal_mac_hours"].sum() == pytest.approx(t["end_tidal_mac_hours"], rel=0.02)
+    # Published FA/FI wash-in curves (Eger, Anesthetic Uptake and Action, 1974): alveolar agent
+    # stays under inspired while the patient takes it up, so end-tidal MAC-hours are under the
+    # dial-based ones at a dial held through the case.
+    assert 0 < t["end_tidal_mac_hours"] < t["mac_hours"]

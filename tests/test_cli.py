@@ -231,6 +231,14 @@ def test_bad_plan_exits_2_with_one_line(changes, parts, capsys, tmp_path):
     assert_one_clear_line(status, out, err, [str(plan)] + parts)
 
 
+def test_a_target_in_percent_exits_2_naming_the_field(capsys, tmp_path):
+    """Issue 12 defect 3: ``target = "2 %"`` is refused as on the Case plan page, not read as 2 x MAC."""
+    plan = write_plan(tmp_path)
+    plan.write_text(plan.read_text().replace('dial = "2 %"', 'target = "2 %"'), encoding="utf-8")
+    status, out, err = run(["case", plan], capsys)
+    assert_one_clear_line(status, out, err, [str(plan), "phases[1].target", "2 %", "MAC multiple"])
+
+
 def test_missing_field_exits_2(capsys, tmp_path):
     plan = write_plan(tmp_path)
     plan.write_text(plan.read_text().replace('duration = "60 min"\n', ""), encoding="utf-8")

@@ -112,6 +112,13 @@ def test_defaults_fill_optional_fields():
 def test_phase_can_hold_an_end_tidal_target_instead_of_a_dial():
     plan = plan_from_dict(plan_dict(phase_dial=None, phase_target=1.2))
     assert plan.phases[0].mode == "target" and plan.phases[0].target_mac == 1.2
+
+
+@pytest.mark.parametrize("typed", ["1.2", "1.2 MAC", "1.2 x MAC", "1.2 mac"])
+def test_a_target_may_be_typed_as_a_mac_multiple_with_or_without_its_name(typed):
+    """Issue 12 defect 3: the MAC multiple is read as typed; only a percent is refused."""
+    plan = plan_from_dict(plan_dict(phase_dial=None, phase_target=typed))
+    assert plan.phases[0].target_mac == 1.2
     assert plan.phases[0].dial_pct is None
 
 
@@ -169,6 +176,9 @@ BAD = {
     "zero duration": (dict(phase_duration=0), ["phases[1].duration", "0 min", "(0, 1440] min"]),
     "both dial and target": (dict(phase_target=1.0), ["phases[1]", "dial/target", "exactly one"]),
     "neither dial nor target": (dict(phase_dial=None), ["phases[1]", "dial/target", "exactly one"]),
+    # Issue 12 defect 3: a target in % is a dial setting, never read as a MAC multiple.
+    "target in percent": (dict(phase_dial=None, phase_target="2 %"),
+                          ["phases[1].target", "2 %", "MAC multiple", "not a percent"]),
     "unknown field": (dict(phase_colour="red"), ["phases[1].colour", "red", "unknown field"]),
     "unknown top-level table": (dict(extras={"a": 1}), ["extras", "unknown field"]),
     "unknown GWP source": (dict(settings_gwp_source="ar7"), ["settings.gwp_source", "ar7", "ar6_gwp100"]),

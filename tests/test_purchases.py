@@ -155,3 +155,27 @@ def test_every_good_purchase_line_is_kept_and_every_bad_one_named(tmp_path_facto
     # line 1 is the header, so the k-th data line is line k + 2
     bad_lines = [k + 2 for k, (_, ok) in enumerate(lines) if not ok]
     assert [int(m.split(", line ")[1].split(":")[0]) for m in read.messages] == bad_lines
+
+
+def test_records_of_a_few_cases_are_flagged_as_partial_not_reported_as_losses():
+    """Issue 12 defect 13: 30-odd Birch cases against a hospital's year of purchases."""
+    from model.audit.reconcile import record_coverage
+    birch = audit_records([DEMO / "fernhollow_birch_cases.csv"])
+    bought = read_purchases(DEMO / "fernhollow_purchases_2025.csv")
+    r = reconcile(bought, birch.use_by_month())
+    months = set(birch.cases["month"])
+    # Months without records are flagged, and the totals over the months with records leave them out.
+    monthly = r[r["month"] != "all"]
+    assert (monthly["has_records"] == monthly["month"].isin(months)).all()
+    sevo = r[(r["item"] == "sevoflurane") & (r["month"] == "all")].iloc[0]
+    assert sevo["purchased_with_records"] == monthly[(monthly["item"] == "sevoflurane")
+                                                     & monthly["has_records"]]["purchased"].sum()
+    assert not sevo["has_records"] and sevo["purchased_with_records"] < sevo["purchased"]
+    cov = record_coverage(birch.cases, r)
+    assert cov["partial"] and cov["theatres"] == ["Birch"] and cov["cases"] == len(birch.cases)
+    assert cov["months_with_records"] == len(months & set(monthly["month"])) < cov["months_bought"]
+    assert "not losses" in cov["message"]
+    # The whole demo year of all theatres accounts for most of what was bought: not partial.
+    full = audit_records([DEMO / "fernhollow_2025.parquet"])
+    cov_full = record_coverage(full.cases, reconcile(bought, full.use_by_month()))
+    assert not cov_full["partial"] and cov_full["volatile_recorded_share"] > 0.5

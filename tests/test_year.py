@@ -421,3 +421,18 @@ def test_a_slow_end_tidal_target_is_a_caution_of_the_year_as_of_the_case(tmp_pat
     assert not [w for w in compute_year(Scenario("fast", parse_casemix_text(
         HEADER + "Fast,10,108,0,1,0,0,0,fast.toml\n", "mix", lambda name, where: plan),
         sampling=Sampling(draws=5))).warnings if "only after" in w]
+
+
+def test_a_scenario_written_out_reads_back_the_same():
+    """Issue 12 defects 6 and 12: exports and the store keep a scenario exactly as run."""
+    from dataclasses import replace as _replace
+
+    from model.io.scenario import load_scenario, parse_scenario_text, scenario_to_toml
+    demo = Path(__file__).resolve().parents[1] / "demo_data" / "year"
+    base = load_scenario(demo / "proposal_half_litre.toml")
+    edited = base.with_practice(maintenance_flow_l_min=0.8, dial_factor=1.25)
+    edited = _replace(edited, sampling=_replace(edited.sampling, seed=7))
+    again = parse_scenario_text(scenario_to_toml(edited, "fernhollow_casemix.csv"), "again", demo)
+    assert again.practice == edited.practice and again.sampling == edited.sampling
+    assert dict(again.prices) == dict(edited.prices) and again.name == edited.name
+    assert again.month_weights == edited.month_weights and again.car_kg_per_km == edited.car_kg_per_km

@@ -132,14 +132,16 @@ def timecourse_figure(tc: pd.DataFrame | None, o2_floor_pct: float | None = None
 
 def sweep_figure(sweep: pd.DataFrame, flow_col: str, cost_col: str, co2e_col: str,
                  best_cost: float | None, best_co2e: float | None, currency: str,
-                 co2e_scale: float = 1.0, co2e_unit: str = "kg CO2e", feasible=None) -> go.Figure:
+                 co2e_scale: float = 1.0, co2e_unit: str = "kg CO2e", feasible=None, unsafe=None) -> go.Figure:
     """Cost and CO2e against the varied phase's fresh gas flow, side by side, lowest of each marked.
 
     Points that are not candidates (``feasible`` False: inspired O2 under the floor or the
-    depth not held) are drawn as hollow markers.
+    depth not held) are drawn as hollow markers; unsafe points (``unsafe`` True: hypoxic
+    mixture or O2 running out) as crosses.
     """
     ok = np.ones(len(sweep), bool) if feasible is None else np.asarray(feasible, bool)
-    symbols = np.where(ok, "circle", "circle-open")
+    bad = np.zeros(len(sweep), bool) if unsafe is None else np.asarray(unsafe, bool)
+    symbols = np.where(bad, "x", np.where(ok, "circle", "circle-open"))
     cur = chart_text(currency)
     fig = make_subplots(rows=1, cols=2, horizontal_spacing=0.1, figure=_fig(),
                         subplot_titles=[f"Cost of the case ({cur})", f"Emissions of the case ({co2e_unit})"])

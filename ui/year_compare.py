@@ -1,4 +1,5 @@
-"""The "Year scenarios" tab of the Compare page: a baseline year against a proposal, paired."""
+"""The "Year scenarios" tab of the Compare page: a chosen baseline year against any number of
+proposals (demo files or years saved in the store), each paired with the baseline."""
 
 from __future__ import annotations
 
@@ -6,69 +7,119 @@ import pandas as pd
 import streamlit as st
 
 import ui
+import ui.cautions
+import ui.provenance
+import ui.year_store
 from model import InputError
+from model.case import by_severity
 from model.io.exports import html_report
-from model.io.scenario import load_scenario
 from model.year.compare import nonzero_rows
 
 from . import year_views as yv
 
 HEADLINES = [("cost_total", "cost"), ("bottles_total", "bottles"), ("co2e_total_t", "t CO2e"),
              ("absorbent_kg", "absorbent (kg)")]
+#: Most proposals compared at once (each is a paired run of two years).
+MAX_PROPOSALS = 6
 
 
 def render(view) -> None:
     """Draw the year comparison: choices, paired differences with bands, chart, downloads."""
+    ss = st.session_state
     ref = ui.reference(view)
     ref_key = ui.reference_key(view)
-    files = yv.scenario_files()
-    names = list(files)
+    store = ui.get_store()
+    choices = ui.year_store.choices(store)
+    names = list(choices)
     if len(names) < 2:
-        st.info("Add at least two scenario files to demo_data/year to compare years.")
+        st.info("Save a second year on the Department year page (or add a scenario file to demo_data/year) "
+                "to compare years.")
         return
-    st.caption("Both years use the same random draws (durations, adherence, prices, GWP source), so the "
-               "band of the difference is its own, not two bands set side by side. Negative = the proposal saves.")
-    c1, c2 = st.columns(2)
-    b_name = c1.selectbox("Baseline year", names, index=0, key="yc_base")
-    p_name = c2.selectbox("Proposal", names, index=min(1, len(names) - 1), key="yc_prop")
+    st.caption("Each proposal uses the same random draws as the baseline (durations, adherence, prices, GWP "
+               "source), so the band of each difference is its own, not two bands set side by side. "
+               "Negative = the proposal saves.")
+    if ss.get("yc_base") not in names:
+        ss.pop("yc_base", None)
+    c1, c2 = st.columns([1, 2])
+    b_name = c1.selectbox("Baseline year", names, index=0, key="yc_base",
+                          help="Demo scenario files and the years saved on the Department year page")
+    others = [n for n in names if n != b_name]
+    ss["yc_props"] = [n for n in ss.get("yc_props", others[:1]) if n in others]
+    p_names = c2.multiselect("Proposals, each against the baseline", others, key="yc_props",
+                             max_selections=MAX_PROPOSALS)
+    own_prices = st.checkbox("Use each scenario's own prices", key="yc_own_prices",
+                             help="Off: the prices in use on every page (your Reference values over the "
+                                  "built-in examples) for every year. On: each scenario's [prices].")
+    ui.provenance.show(view, ref, ("each scenario", None) if own_prices else None)
+    if not p_names:
+        st.info("Choose one or more proposals to set against the baseline.")
+        return
     try:
-        baseline = yv.scenario_for_view(load_scenario(files[b_name]), view)
-        proposal = yv.scenario_for_view(load_scenario(files[p_name]), view)
-        with st.spinner("Sampling both years..."):
-            comp = yv.run_compare(baseline, proposal, ref, ref_key)
+        def scenario(name):
+            return yv.scenario_for_view(ui.year_store.load(store, choices[name]), view, own_prices=own_prices)
+
+        baseline = scenario(b_name)
+        with st.spinner("Sampling the years..."):
+            comps = {n: yv.run_compare(baseline, scenario(n), ref, ref_key) for n in p_names}
     except InputError as err:
         ui.show_input_error(err)
         return
-    rows = comp.summary.set_index("key")
-    cols = st.columns(len(HEADLINES))
-    for col, (key, label) in zip(cols, HEADLINES):
-        r = rows.loc[key]
-        unit = f" {comp.baseline.currency}" if key == "cost_total" else ""
-        col.metric(f"Change in {label}", f"{r['difference']:+,.1f}{unit}")
-        col.caption(f"P5-P95: {r['p5']:+,.1f} to {r['p95']:+,.1f}")
-    fig = yv.difference_figure(comp.summary, [("cost_total", f"cost ({comp.baseline.currency})"),
-                                              ("bottles_total", "bottles"), ("co2e_total_t", "t CO2e"),
-                                              ("absorbent_kg", "absorbent")])
-    st.plotly_chart(fig, width="stretch", key="yc_fig")
-    table = nonzero_rows(comp.summary, ("baseline", "proposal", "p5", "p95")).drop(columns=["key"])
+
+    first = next(iter(comps.values()))
+    warnings = by_severity([w for c in comps.values() for w in c.warnings])
+    unsafe_names = ([b_name] if first.baseline.unsafe else []) + [n for n, c in comps.items() if c.proposal.unsafe]
+    if unsafe_names:
+        ui.cautions.unsafe_banner(warnings, " and ".join(f"'{n}'" for n in unsafe_names))
+    labels = [("cost_total", f"cost ({first.baseline.currency})"), ("bottles_total", "bottles"),
+              ("co2e_total_t", "t CO2e"), ("absorbent_kg", "absorbent")]
+    tables, figs, rows_all = {}, [], []
+    for i, (p_name, comp) in enumerate(comps.items()):
+        rows = comp.summary.set_index("key")
+        with st.container(border=True):
+            flag = f" — :red[**{ui.cautions.UNSAFE}**]" if comp.proposal.unsafe else ""
+            st.markdown(f"**{ui.md(p_name)}** against **{ui.md(b_name)}**{flag}")
+            cols = st.columns(len(HEADLINES))
+            for col, (key, label) in zip(cols, HEADLINES):
+                r = rows.loc[key]
+                unit = f" {comp.baseline.currency}" if key == "cost_total" else ""
+                col.metric(f"Change in {label}", f"{r['difference']:+,.1f}{unit}")
+                col.caption(f"P5-P95: {r['p5']:+,.1f} to {r['p95']:+,.1f}")
+            fig = yv.difference_figure(comp.summary, labels)
+            st.plotly_chart(fig, width="stretch", key=f"yc_fig_{i}")
+            figs.append((f"Change per year: {p_name}", fig))
+        table = nonzero_rows(comp.summary, ("baseline", "proposal", "p5", "p95")).drop(columns=["key"])
+        table.insert(0, "year compared", p_name)
+        if comp.proposal.unsafe or comp.baseline.unsafe:
+            table.insert(1, "safety", ui.cautions.UNSAFE)
+        rows_all.append(table)
+        tables[f"Proposal {i + 1} per month"] = comp.proposal.monthly
+    table = pd.concat(rows_all, ignore_index=True)
     st.dataframe(table, hide_index=True, width="stretch",
                  column_config={c: st.column_config.NumberColumn(format="%.2f")
-                                for c in ("baseline", "proposal", "difference", "p5", "p50", "p95")})
-    warnings = list(dict.fromkeys(comp.baseline.warnings + comp.proposal.warnings))
-    if warnings:
-        with st.expander(f"Warnings ({len(warnings)})", icon=":material/warning:"):
-            for w in warnings:
-                st.warning(ui.md(w))
-    for note in dict.fromkeys(comp.notes + comp.proposal.notes):
+                                for c in ("baseline", "proposal", "difference", "p5", "p50", "p95")
+                                if c in table.columns})
+    ui.cautions.show_other_warnings(warnings)
+    notes = list(dict.fromkeys(n for c in comps.values() for n in c.notes + c.proposal.notes))
+    for note in notes:
         st.caption(note)
-    tables = {"Year comparison": table, "Baseline per month": comp.baseline.monthly,
-              "Proposal per month": comp.proposal.monthly, "Sources": pd.DataFrame(ref.table())}
-    inputs = {"baseline": baseline.name, "proposal": proposal.name, "GWP source": comp.baseline.inputs.gwp_label,
-              "paired draws": comp.baseline.n_draws, "seed": comp.baseline.seed}
+    inputs = {"baseline": baseline.name,
+              "safety of the baseline": ui.cautions.safety_text(first.baseline.warnings)}
+    for i, (p_name, comp) in enumerate(comps.items(), start=1):
+        inputs[f"proposal {i}"] = comp.proposal.scenario.name
+        inputs[f"safety of proposal {i}"] = ui.cautions.safety_text(comp.proposal.warnings)
+        inputs.update({f"proposal {i}, {k}": v for k, v in ui.provenance.practice_rows(
+            comp.proposal.scenario.practice).items()})
+    inputs.update(ui.provenance.in_use(view, ref, ("each scenario", None) if own_prices else None))
+    inputs.update({"GWP source": first.baseline.inputs.gwp_label, "paired draws": first.baseline.n_draws,
+                   "seed": first.baseline.seed})
+    tables = {"Year comparison": table, "Inputs": ui.provenance.inputs_table(inputs),
+              "Baseline per month": first.baseline.monthly, **tables,
+              "Warnings": ui.cautions.warnings_table(warnings), "Sources": pd.DataFrame(ref.table())}
 
     def _report() -> str:
-        return html_report("Year comparison", inputs=inputs, tables={"Paired difference": table},
-                           figures=[("Change per year", fig)], warnings=warnings,
-                           cautions=[ui.CAUTION, *comp.proposal.notes], sources=tables["Sources"])
+        return html_report(("UNSAFE PRACTICE. " if unsafe_names else "") + "Year comparison", inputs=inputs,
+                           tables={"Paired difference": table}, figures=figs,
+                           warnings=ui.cautions.report_lines(warnings),
+                           cautions=[ui.CAUTION, *notes], sources=tables["Sources"])
 
     ui.downloads("year comparison", tables, _report, key="yc_dl")

@@ -52,14 +52,17 @@ def plan_library() -> dict:
     return lib
 
 
-def scenario_for_view(scenario: Scenario, view, mix: CaseMix | None = None) -> Scenario:
+def scenario_for_view(scenario: Scenario, view, mix: CaseMix | None = None, own_prices: bool = False) -> Scenario:
     """The scenario with the sidebar's GWP source, room temperature and currency label (and an
     edited mix).
 
-    The bands sample only the scenario's GWP sources of the sidebar's horizon: a 20-year
-    expected CO2e never sits beside a band drawn from 100-year values.
+    Prices: the values in use on every page (the Reference page's saved values over the
+    defaults, given to the year as its ``Reference``); the scenario's own ``[prices]`` only
+    with ``own_prices`` (the user chose them on the page). The bands sample only the
+    scenario's GWP sources of the sidebar's horizon: a 20-year expected CO2e never sits
+    beside a band drawn from 100-year values.
     """
-    prices = dict(scenario.prices)
+    prices = dict(scenario.prices) if own_prices else {}
     prices["currency"] = view.currency
     sources = tuple(k for k in scenario.sampling.gwp_sources
                     if GWP_SOURCES[k].horizon_years == view.gwp_horizon_years)

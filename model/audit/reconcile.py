@@ -60,7 +60,7 @@ def _co2e_kg(reference: Reference, item: str, grams: float, gwp_source: str) -> 
 
 def reconcile(purchases: pd.DataFrame, use: pd.DataFrame, reference: Reference = DEFAULT_REFERENCE,
               gwp_source: str = DEFAULT_GWP, temperature_c: float = 20.0,
-              pressure_kpa: float = STANDARD_PRESSURE_KPA) -> pd.DataFrame:
+              pressure_kpa: float = STANDARD_PRESSURE_KPA, months_with_records=None) -> pd.DataFrame:
     """Purchased against recorded (or modelled) use, per item and month, with a total per item.
 
     Parameters
@@ -71,13 +71,19 @@ def reconcile(purchases: pd.DataFrame, use: pd.DataFrame, reference: Reference =
         ``month``, ``item``, ``recorded`` in the same units (mL liquid, L gas), e.g.
         :meth:`model.audit.result.AuditResult.use_by_month`, or modelled use in that form.
 
+    months_with_records : iterable of str, optional
+        Months ("YYYY-MM") the records cover; default: the months of ``use``.
+
     Returns
     -------
     DataFrame
         ``item``, ``month`` ("all" for the total row of each item), ``unit``, ``purchased``,
         ``recorded``, ``unexplained`` (purchased - recorded), ``unexplained_share``
         (of purchased; empty where nothing was bought), ``unexplained_co2e_kg`` and, for
-        nitrous oxide, ``apparent_loss`` (the same gap, named as such).
+        nitrous oxide, ``apparent_loss`` (the same gap, named as such); ``has_records``
+        (the month has case records; on the total row, every month bought in has), and on
+        the total rows ``purchased_with_records``, ``recorded_with_records`` and
+        ``unexplained_share_with_records``: the same over the months that have records only.
 
     Notes
     -----
@@ -103,10 +109,27 @@ def reconcile(purchases: pd.DataFrame, use: pd.DataFrame, reference: Reference =
         _co2e_kg(reference, r.item, _mass_g(reference, r.item, r.unexplained, temperature_c, pressure_kpa),
                  gwp_source) for r in out.itertuples(index=False)]
     out["apparent_loss"] = np.where(out["item"] == "nitrous_oxide", out["unexplained"], np.nan)
+    if months_with_records is None:
+        months_with_records = use["month"] if len(use) else ()
+    covered = set(months_with_records)
+    monthly = out["month"] != "all"
+    out["has_records"] = out["month"].isin(covered)
+    within = out[monthly & out["has_records"]].groupby("item")[["purchased", "recorded"]].sum()
+    every = out[monthly].groupby("item")["has_records"].all()
+    total = ~monthly
+    out.loc[total, "has_records"] = out.loc[total, "item"].map(every).fillna(False).astype(bool).to_numpy()
+    out["purchased_with_records"] = np.where(total, out["item"].map(within["purchased"]).fillna(0.0), np.nan)
+    out["recorded_with_records"] = np.where(total, out["item"].map(within["recorded"]).fillna(0.0), np.nan)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        out["unexplained_share_with_records"] = np.where(
+            total & (out["purchased_with_records"] > 0),
+            1.0 - out["recorded_with_records"] / out["purchased_with_records"].where(
+                out["purchased_with_records"] > 0, 1), np.nan)
     out["_total"] = out["month"] == "all"
     out = out.sort_values(["item", "_total", "month"]).drop(columns="_total").reset_index(drop=True)
     return out[["item", "month", "unit", "purchased", "recorded", "unexplained", "unexplained_share",
-                "unexplained_co2e_kg", "apparent_loss"]]
+                "unexplained_co2e_kg", "apparent_loss", "has_records", "purchased_with_records",
+                "recorded_with_records", "unexplained_share_with_records"]]
 
 
 #: Item name of the absorbent estimate in :func:`cost_view` (records carry no absorbent).
@@ -162,3 +185,62 @@ def cost_view(purchases: pd.DataFrame | None, result, reference: Reference = DEF
     out = pd.DataFrame(rows, columns=["item", "purchased_cost", "recorded_cost", "basis"])
     out.insert(3, "unexplained_cost", out["purchased_cost"] - out["recorded_cost"])
     return out
+
+
+#: Below this share of the volatile agent bought in the months with records, the records are
+#: taken to cover only part of what the purchases serve (some theatres or days): bottles are
+#: bought for theatre use, and wastage of opened bottles is well under half. Common practice,
+#: no source.
+PARTIAL_RECORDS_SHARE = 0.5
+
+
+def record_coverage(cases: pd.DataFrame, recon: pd.DataFrame, reference: Reference = DEFAULT_REFERENCE) -> dict:
+    """What part of the purchases the case records can explain: coverage by month and theatre.
+
+    Parameters
+    ----------
+    cases : DataFrame
+        Per-case audit table (``month``, ``theatre``), e.g. ``AuditResult.cases``.
+    recon : DataFrame
+        From :func:`reconcile`.
+
+    Returns
+    -------
+    dict
+        ``by_month`` (DataFrame: ``month``, ``cases``, ``theatres``, ``bought`` (the month
+        has purchases), ``has_records``), ``months_bought``, ``months_with_records``,
+        ``cases``, ``theatres`` (names), ``volatile_recorded_share`` (recorded of bought
+        volatile liquid in the months with records; NaN where none was bought), ``partial``
+        (records cover only part: months bought without records, or that share under
+        :data:`PARTIAL_RECORDS_SHARE`) and ``message`` (one plain sentence).
+    """
+    per_case = cases.groupby("month").agg(cases=("month", "size"),
+                                          theatres=("theatre", lambda x: int(x.nunique())))
+    bought_months = sorted(set(recon.loc[(recon["month"] != "all") & (recon["purchased"] > 0), "month"]))
+    months = sorted(set(bought_months) | set(per_case.index))
+    by_month = pd.DataFrame({"month": months})
+    by_month["cases"] = by_month["month"].map(per_case["cases"]).fillna(0).astype(int)
+    by_month["theatres"] = by_month["month"].map(per_case["theatres"]).fillna(0).astype(int)
+    by_month["bought"] = by_month["month"].isin(bought_months)
+    by_month["has_records"] = by_month["cases"] > 0
+    totals = recon[recon["month"] == "all"]
+    volatile = totals[[reference.agents[i].kind == "volatile" for i in totals["item"]]]
+    bought = float(volatile["purchased_with_records"].sum())
+    share = float(volatile["recorded_with_records"].sum()) / bought if bought > 0 else float("nan")
+    missing = [m for m in bought_months if m not in set(per_case.index)]
+    theatres = sorted(str(t) for t in cases["theatre"].dropna().unique())
+    partial = bool(missing) or (share == share and share < PARTIAL_RECORDS_SHARE)
+    n_with = sum(1 for m in bought_months if m not in missing)
+    message = (f"The records hold {len(cases):,} case(s) in {len(theatres)} theatre(s) "
+               f"({', '.join(theatres[:8])}{', ...' if len(theatres) > 8 else ''}) over {n_with} of the "
+               f"{len(bought_months)} month(s) with purchases")
+    if share == share:
+        message += f"; in those months they account for {share:.0%} of the volatile agent bought"
+    if partial:
+        message += (". They cover only part of what the purchases serve, so the unexplained amounts "
+                    "and the N2O gap are not losses: compare only months and theatres the records cover fully.")
+    else:
+        message += "."
+    return {"by_month": by_month, "months_bought": len(bought_months), "months_with_records": n_with,
+            "cases": int(len(cases)), "theatres": theatres, "volatile_recorded_share": share,
+            "partial": partial, "message": message}

@@ -7,6 +7,7 @@ import math
 import sys
 
 from model.cli.common import CAUTION, EXIT_INPUT, _Parser, _reference, print_json, print_table
+from model.case import severity_of
 from model.errors import InputError
 
 
@@ -26,7 +27,7 @@ def cmd_case(args) -> int:
     print()
     print_table(result.phases.to_dict("records"),
                 ["phase", "duration_min", "fgf_l_min", "flow_band", "dial_pct", "liquid_agent_ml",
-                 "co2e_kg", "mac_hours"])
+                 "co2e_kg", "mac_hours", "end_tidal_mac_hours"])
     print()
     rows = [
         ("Liquid agent", f"{t['liquid_agent_ml']:.1f} mL ({t['bottles']:.2f} bottles)"),
@@ -43,7 +44,8 @@ def cmd_case(args) -> int:
         ("Cost", f"{t['cost_total']:.2f} {cur} (agent {t['cost_agent']:.2f}, gases "
                  f"{t['cost_oxygen'] + t['cost_air'] + t['cost_nitrous_oxide']:.2f}, "
                  f"absorbent {t['cost_absorbent']:.2f})"),
-        ("MAC-hours", f"{t['mac_hours']:.2f}"),
+        ("MAC-hours, end-tidal", f"{t['end_tidal_mac_hours']:.2f}"),
+        ("MAC-hours, dial-based", f"{t['mac_hours']:.2f}"),
     ]
     safe = t.get("lowest_safe_fd_o2_pct")
     if safe is not None and math.isfinite(safe):
@@ -56,8 +58,8 @@ def cmd_case(args) -> int:
     if result.warnings:
         print()
         print("Warnings:")
-        for w in result.warnings:
-            print(f"  - {w}")
+        for w in result.warnings:       # most severe first (model.case.SEVERITIES)
+            print(f"  - {severity_of(w).upper()}: {w}")
     print()
     print(CAUTION)
     return 0

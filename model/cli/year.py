@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import sys
 
+from model.case import by_severity, severity_of
 from model.cli.common import CAUTION, print_json, print_table
 from model.errors import InputError
 from model.year.inputs import MAX_DRAWS
@@ -114,8 +115,8 @@ def _tail(warnings, notes):
     if warnings:
         print()
         print("Warnings:")
-        for w in warnings:
-            print(f"  - {w}")
+        for w in by_severity(warnings):
+            print(f"  - {severity_of(w).upper()}: {w}")
     if notes:
         print()
         print("Notes:")

@@ -10,6 +10,7 @@ bare numbers are read in the documented default unit of each field.
 
 from __future__ import annotations
 
+import re
 import tomllib
 from dataclasses import asdict
 from pathlib import Path
@@ -74,6 +75,27 @@ def _percent(value, info: pydantic.ValidationInfo):
     return check_range(to_base(value, "percent", info.field_name), info.field_name, 0.0, 100.0, "%", typed=value)
 
 
+_MAC_SUFFIX = re.compile(r"^(?P<number>.*?)\s*(?:x\s*)?MAC$", re.IGNORECASE)
+
+
+def _mac_target(value, info: pydantic.ValidationInfo):
+    """An end-tidal target typed as 1.0, "1.0", "1.2 MAC" or "1.2 x MAC": a MAC multiple.
+
+    A percent ("2 %") is refused: it is a vaporizer dial setting, and read as a bare number
+    it would ask for 2 x MAC.
+    """
+    name = info.field_name
+    typed = value
+    if isinstance(value, str):
+        m = _MAC_SUFFIX.match(value.strip())
+        value = m.group("number") if m else value
+        if "%" in value or "percent" in value.lower():
+            raise InputError(name, typed, "an end-tidal target is a MAC multiple such as 1.0 or '1.2 MAC', "
+                                          "not a percent; a setting in % is a vaporizer dial (give dial instead)")
+    number = to_base(value, "dimensionless", name)
+    return check_range(number, name, 0.0, 3.0, "MAC", typed=typed)
+
+
 Share = pydantic.BeforeValidator(_share)
 Percent = pydantic.BeforeValidator(_percent)
 
@@ -128,7 +150,7 @@ class PhaseIn(_Strict):
     air: Flow = 0.0
     n2o: Flow = 0.0
     dial: Annotated[float | None, Percent] = None
-    target: Annotated[float | None, _quantity("dimensionless", 0.0, 3.0, shown_unit="MAC")] = None
+    target: Annotated[float | None, pydantic.BeforeValidator(_mac_target)] = None
 
     @pydantic.model_validator(mode="after")
     def _one_control(self):

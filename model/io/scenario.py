@@ -11,6 +11,7 @@ from pathlib import Path
 from typing import Annotated, Any, Mapping
 
 import pydantic
+import tomli_w
 
 from model.errors import InputError
 from model.files import read_user_text
@@ -175,3 +176,46 @@ def load_scenario(path) -> Scenario:
     p = Path(path)
     text = read_user_text(p, "scenario", MAX_SCENARIO_BYTES)
     return parse_scenario_text(text, str(p), p.parent)
+
+
+def scenario_to_dict(scenario: Scenario, case_mix: str) -> dict:
+    """The scenario in its file form (the inverse of :func:`scenario_from_dict`).
+
+    Parameters
+    ----------
+    scenario : Scenario
+        As run (practice, prices, sampling and calendar included).
+    case_mix : str
+        What the ``case_mix`` field names: a file relative to the scenario, or the name of
+        a case mix saved in the store.
+    """
+    p = scenario.practice
+    practice: dict = {}
+    if p.maintenance_flow_l_min is not None:
+        practice["maintenance_flow"] = f"{p.maintenance_flow_l_min:g} L/min"
+    if p.maintenance_o2_share is not None:
+        practice["maintenance_o2_share"] = float(p.maintenance_o2_share)
+    if p.dial_factor != 1.0:
+        practice["dial_factor"] = float(p.dial_factor)
+    if p.switch_from is not None:
+        practice["switch_agent"] = {"from": p.switch_from, "to": p.switch_to}
+    if practice or (p.adherence, p.adherence_low, p.adherence_high) != (1.0, 1.0, 1.0):
+        practice.update(adherence=float(p.adherence), adherence_low=float(p.adherence_low),
+                        adherence_high=float(p.adherence_high))
+    s = scenario.sampling
+    out = {"format": SCENARIO_FORMAT, "name": scenario.name, "case_mix": case_mix,
+           "gwp_source": scenario.gwp_source}
+    if practice:
+        out["practice"] = practice
+    if scenario.prices:
+        out["prices"] = {k: (dict(v) if isinstance(v, Mapping) else v) for k, v in scenario.prices.items()}
+    out["uncertainty"] = {"draws": int(s.draws), "seed": int(s.seed), "price_spread": float(s.price_spread),
+                          "gwp_sources": list(s.gwp_sources)}
+    out["equivalence"] = {"car_kg_co2e_per_km": float(scenario.car_kg_per_km), "car_source": scenario.car_source}
+    out["calendar"] = {"month_weights": [float(w) for w in scenario.month_weights]}
+    return out
+
+
+def scenario_to_toml(scenario: Scenario, case_mix: str) -> str:
+    """The scenario as TOML text in the scenario file format (see :func:`scenario_to_dict`)."""
+    return tomli_w.dumps(scenario_to_dict(scenario, case_mix))

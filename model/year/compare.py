@@ -6,6 +6,7 @@ from dataclasses import dataclass, field, replace
 
 import pandas as pd
 
+from model.case import by_severity, warnings_as_records
 from model.errors import InputError
 from model.reference import DEFAULT_REFERENCE, Reference, VOLATILES
 from model.year.inputs import Scenario
@@ -26,6 +27,16 @@ class Comparison:
     difference: dict        # key -> (D,) proposal - baseline per draw
     notes: list[str] = field(default_factory=list)
 
+    @property
+    def unsafe(self) -> bool:
+        """Whether either year's practice is unsafe as written (a ``"hazard"`` warning)."""
+        return self.baseline.unsafe or self.proposal.unsafe
+
+    @property
+    def warnings(self) -> list[str]:
+        """Both years' warnings, each once, most severe first."""
+        return by_severity(self.baseline.warnings + self.proposal.warnings)
+
     def to_dict(self) -> dict:
         return {
             "baseline": self.baseline.scenario.name,
@@ -39,7 +50,10 @@ class Comparison:
                            for r in self.summary.to_dict("records")},
             "baseline_totals": _clean(self.baseline.totals),
             "proposal_totals": _clean(self.proposal.totals),
-            "warnings": list(dict.fromkeys(self.baseline.warnings + self.proposal.warnings)),
+            "warnings": list(self.warnings),
+            "warnings_by_severity": warnings_as_records(self.warnings),
+            "baseline_unsafe": self.baseline.unsafe,
+            "proposal_unsafe": self.proposal.unsafe,
             "notes": list(self.notes),
             "caution": CAUTION,
         }

@@ -8,6 +8,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
+from model.case import is_unsafe, warnings_as_records
 from model.errors import InputError
 from model.reference import DEFAULT_REFERENCE, Reference, VOLATILES
 from model.year.inputs import MONTHS, Scenario
@@ -68,6 +69,12 @@ class YearResult:
     def warnings(self) -> list[str]:
         return self.inputs.warnings
 
+    @property
+    def unsafe(self) -> bool:
+        """Whether the practice of this year is unsafe as written: some of its cases are
+        predicted a hypoxic mixture or run the circle out of O2 (a ``"hazard"`` warning)."""
+        return is_unsafe(self.warnings)
+
     def to_dict(self) -> dict:
         """Machine-readable form with stable keys (units in the key names or columns)."""
         return {
@@ -87,6 +94,8 @@ class YearResult:
             "monthly": [_clean(r) for r in self.monthly.to_dict("records")],
             "by_type": [_clean(r) for r in self.by_type.to_dict("records")],
             "warnings": list(self.warnings),
+            "warnings_by_severity": warnings_as_records(self.warnings),
+            "unsafe": self.unsafe,
             "notes": list(self.notes),
             "caution": CAUTION,
         }

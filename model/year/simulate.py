@@ -8,7 +8,7 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from model.case import SLOW_TARGET_MIN, simulation_totals
+from model.case import SLOW_TARGET_MIN, Caution, by_severity, simulation_totals
 from model.circle import simulate_cases
 from model.errors import InputError
 from model.plan import CasePlan, check_dials
@@ -359,7 +359,8 @@ def _assemble(scenario: Scenario, ref: Reference, subplans: list[SubPlan], cols,
         adherence=(pr.adherence_low, pr.adherence, pr.adherence_high) if changed else (1.0, 1.0, 1.0),
         month_weights=weights / weights.sum(), car_kg_per_km=scenario.car_kg_per_km,
         currency=prices.currency, gwp_label=ref.gwp_source(scenario.gwp_source).label,
-        warnings=[f"{', '.join(names)}: {text}" for text, names in warnings.items()], subplans=subplans,
+        warnings=by_severity(Caution(f"{', '.join(names)}: {text}", text.severity)
+                             for text, names in warnings.items()), subplans=subplans,
         variance_explained=float(np.clip(min(r2), 0.0, 1.0)))
 
 
@@ -373,8 +374,8 @@ def _subplan_warnings(out: dict, ctype: CaseType, sub: SubPlan, where, groups, r
     # Keyed by the text without the type's name, so types with the same caution share a line.
     who = f"{'changed practice, ' if sub.variant else ''}{label}{' with N2O' if sub.with_n2o else ''}"
 
-    def add(text):
-        out.setdefault(text, {})[ctype.name] = None
+    def add(text, severity="caution"):
+        out.setdefault(Caution(text, severity), {})[ctype.name] = None
 
     gkey, c0 = where[-1]
     g = groups[gkey]
@@ -389,16 +390,16 @@ def _subplan_warnings(out: dict, ctype: CaseType, sub: SubPlan, where, groups, r
             add(f"{at}: the O2/N2O ratio limit altered the requested mix")
         if sub.agent == "sevoflurane" and fgf < s.sevoflurane_min_flow_l_min - 1e-12:
             add(f"{at}: {fgf:.2f} L/min is under the set sevoflurane minimum of "
-                f"{s.sevoflurane_min_flow_l_min:g} L/min; follow local protocol and labelling")
+                f"{s.sevoflurane_min_flow_l_min:g} L/min; follow local protocol and labelling", "labelling")
         if fd_o2 < s.inspired_o2_floor - 1e-12:
             add(f"{at}: fresh gas O2 {fd_o2 * 100:.0f} % is under the inspired O2 floor of "
-                f"{floor_pct:.0f} %; inspired O2 in a circle is lower still")
+                f"{floor_pct:.0f} %; inspired O2 in a circle is lower still", "hazard")
         elif math.isfinite(safe) and fd_o2 < safe - 1e-9:
             add(f"{at}: at {fgf:.2f} L/min, fresh gas O2 {fd_o2 * 100:.0f} % is under the {safe * 100:.0f} % "
                 f"that keeps inspired O2 above {floor_pct:.0f} % at steady state")
         elif not math.isfinite(safe):
             add(f"{at}: fresh gas flow {fgf:.2f} L/min does not exceed the O2 consumption; no fresh gas "
-                f"mix keeps inspired O2 above {floor_pct:.0f} %")
+                f"mix keeps inspired O2 above {floor_pct:.0f} %", "hazard")
         if p.target_mac is not None:
             reach = [g2["sim"]["phase_time_to_target_min"][int(g2["offsets"][c]) + j, c]
                      for g2, c in ((groups[k], c) for k, c in where)
@@ -419,14 +420,14 @@ def _subplan_warnings(out: dict, ctype: CaseType, sub: SubPlan, where, groups, r
             worst = (fio2,)
         if float(tot["o2_shortfall_l"][c]) > 1e-6:
             add(f"{who}: the circle runs out of O2 for the patient's consumption; O2 inflow must at "
-                f"least match consumption")
+                f"least match consumption", "hazard")
         k = sub.stretch_index
         stretch_fgf = float(groups[gk]["sim"]["phase_fgf_l_min"][int(groups[gk]["offsets"][c]) + k, c])
         if (sub.agent == "sevoflurane" and float(tot["end_tidal_mac_hours"][c]) > 1.0
                 and stretch_fgf < s.sevoflurane_min_flow_long_l_min - 1e-12):
             add(f"{who}: cases beyond 1 MAC-hour run sevoflurane at {stretch_fgf:.2f} L/min in "
                 f"{plan.phases[k].name}, under the set minimum of {s.sevoflurane_min_flow_long_l_min:g} L/min; "
-                f"follow local protocol and labelling")
+                f"follow local protocol and labelling", "labelling")
     if worst is not None:
         add(f"{who}: predicted inspired O2 falls to {worst[0]:.0f} %, under the floor of {floor_pct:.0f} %: "
-            f"hypoxic mixture; raise the O2 share or the flow")
+            f"hypoxic mixture; raise the O2 share or the flow", "hazard")

@@ -1,0 +1,93 @@
+"""Warnings on the pages, most severe first: hazards (hypoxic mixture, O2 running out) in their
+own style next to the headline figures, then cautions, then labelling notes; repeats grouped.
+
+The severity of each warning comes from the model (:class:`model.case.Caution`).
+"""
+
+from __future__ import annotations
+
+import pandas as pd
+import streamlit as st
+
+from model.case import by_severity, is_unsafe, severity_of
+
+from .common import md
+
+#: Shown with the figures of a plan, a year or a comparison whose practice is unsafe as written.
+UNSAFE = "UNSAFE PRACTICE"
+#: Hazards listed in the red box; the rest follow in an expander under it.
+BANNER_LINES = 3
+#: A list of cautions longer than this starts folded.
+OPEN_UP_TO = 4
+_HEADINGS = {"hazard": "Unsafe as planned", "caution": "Check before use", "labelling": "Labelling and local protocol"}
+
+
+def grouped(warnings) -> list[tuple[str, str, list[str]]]:
+    """(severity, text, subjects) per distinct text, most severe first.
+
+    A warning "subject: text" (a phase, or the case types of a year) that repeats the text of
+    another of the same severity is listed once with both subjects.
+    """
+    out: dict[tuple[str, str], list[str]] = {}
+    for w in by_severity(warnings):
+        subject, sep, rest = str(w).partition(": ")
+        key = (severity_of(w), rest if sep else str(w))
+        out.setdefault(key, [])
+        if sep:
+            out[key].append(subject)
+    return [(sev, text, subjects) for (sev, text), subjects in out.items()]
+
+
+def _line(text: str, subjects: list[str]) -> str:
+    return (f"{'; '.join(subjects)}: " if subjects else "") + text
+
+
+def unsafe_banner(warnings, what: str = "this plan") -> bool:
+    """The hazards in one red box (next to the headline figures); returns whether there are any."""
+    hazards = [(t, s) for sev, t, s in grouped(warnings) if sev == "hazard"]
+    if not hazards:
+        return False
+    lines = "\n".join(f"- {md(_line(t, s))}" for t, s in hazards[:BANNER_LINES])
+    more = len(hazards) - BANNER_LINES
+    st.error(f"**{UNSAFE}: {md(what)} is unsafe as written.** Its figures (and any saving they show) assume "
+             f"a practice the model predicts to be hypoxic or to run out of O2:\n\n{lines}"
+             + (f"\n\n... and {more} more below." if more > 0 else ""), icon=":material/dangerous:")
+    if more > 0:
+        with st.expander(f"All {len(hazards)} hazards", icon=":material/dangerous:"):
+            for t, s in hazards:
+                st.error(md(_line(t, s)))
+    return True
+
+
+def show_other_warnings(warnings) -> None:
+    """Cautions, then labelling notes (hazards are in :func:`unsafe_banner`), repeats grouped."""
+    rest = [(sev, t, s) for sev, t, s in grouped(warnings) if sev != "hazard"]
+    for severity in ("caution", "labelling"):
+        items = [(t, s) for sev, t, s in rest if sev == severity]
+        if not items:
+            continue
+        with st.expander(f"{_HEADINGS[severity]} ({len(items)})",
+                         expanded=severity == "caution" and len(items) <= OPEN_UP_TO,
+                         icon=":material/warning:" if severity == "caution" else ":material/menu_book:"):
+            icon = ":material/warning:" if severity == "caution" else ":material/menu_book:"
+            for t, s in items:
+                st.warning(md(_line(t, s)), icon=icon)
+
+
+def warnings_table(warnings) -> pd.DataFrame:
+    """The warnings as a table for downloads: severity, text, applies to."""
+    rows = [{"severity": sev, "warning": t, "applies to": "; ".join(s)} for sev, t, s in grouped(warnings)]
+    return pd.DataFrame(rows, columns=["severity", "warning", "applies to"])
+
+
+def report_lines(warnings) -> list[str]:
+    """The warnings for an HTML report, most severe first, each with its severity."""
+    return [f"{sev.upper()}: {_line(t, s)}" for sev, t, s in grouped(warnings)]
+
+
+def safety_text(warnings) -> str:
+    """One line for an export's inputs: unsafe (and why, in short) or no hazard predicted."""
+    if not is_unsafe(warnings):
+        return "no hypoxic mixture or O2 shortfall predicted"
+    n = sum(1 for sev, _, _ in grouped(warnings) if sev == "hazard")
+    return f"{UNSAFE}: {n} hazard(s) predicted (hypoxic mixture or O2 running out); see the warnings"

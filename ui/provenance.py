@@ -1,0 +1,124 @@
+"""Which prices and GWP values a page uses and where they come from, for the page and its exports.
+
+The prices rule of the dashboard: your saved values (Reference page) apply on every page,
+over the built-in invented example prices. A plan's or a scenario's own ``[prices]`` table
+is used only where you choose it (a switch beside the plan or scenario), and then only for
+the items it names.
+"""
+
+from __future__ import annotations
+
+import importlib.metadata
+from typing import Mapping
+
+import pandas as pd
+import streamlit as st
+
+from model.io.casemix import casemix_to_csv
+from model.reference import Reference
+
+from .common import ViewSettings, get_store, md
+
+_PRICE_NAMES = {"oxygen_per_1000_l": "oxygen", "air_per_1000_l": "medical air",
+                "nitrous_oxide_per_1000_l": "nitrous oxide", "absorbent_per_kg": "CO2 absorbent"}
+
+
+def program_version() -> str:
+    """The installed version of fresh-gas-ledger (its package metadata)."""
+    try:
+        return importlib.metadata.version("fresh-gas-ledger")
+    except importlib.metadata.PackageNotFoundError:
+        return "unknown (run from a source folder that is not installed)"
+
+
+def price_items(prices: Mapping) -> list[str]:
+    """Plain names of the items a price table sets ("sevoflurane bottle", "oxygen", ...)."""
+    out = [f"{a} bottle" for a in (prices.get("bottle") or {})]
+    out += [name for key, name in _PRICE_NAMES.items() if key in prices]
+    return out
+
+
+def _saved_version() -> tuple[dict, str]:
+    """The saved values in use and "version N, saved <UTC time>" ("" when none were saved)."""
+    store = get_store()
+    history = store.history("overrides", "dashboard")
+    if not history:
+        return {}, ""
+    try:
+        saved = store.load_overrides()
+    except Exception:  # an unreadable set: ui.common.reference() says so and uses the defaults
+        saved = {}
+    return saved, f"version {history[0].version}, saved {history[0].saved_at[:16].replace('T', ' ')} UTC"
+
+
+def prices_text(own: tuple[str, Mapping] | None = None) -> str:
+    """Where the prices in use come from, in one sentence.
+
+    ``own``: (what, price table) when the user chose a file's own prices, e.g.
+    ``("the scenario 'Fernhollow baseline'", scenario.prices)``.
+    """
+    saved, version = _saved_version()
+    mine = price_items(saved.get("prices") or {})
+    parts = []
+    if own is not None and own[1] is None:
+        parts.append(f"the own prices of {own[0]} where it gives them (chosen on this page)")
+    elif own is not None and price_items(own[1]):
+        parts.append(f"the own prices of {own[0]} for {', '.join(price_items(own[1]))} (chosen on this page)")
+    if mine:
+        parts.append(f"your values from the Reference page ({version}) for {', '.join(mine)}")
+    parts.append("built-in invented example prices" + (" for the rest" if parts else ""))
+    return "; ".join(parts)
+
+
+def gwp_text(view: ViewSettings, ref: Reference) -> str:
+    """Which GWP values are in use and where they come from."""
+    label = ref.gwp_sources[view.gwp_source].label
+    if view.gwp_source == "user":
+        return f"{label} (your values from the Reference page), chosen in the sidebar"
+    return f"{label}, chosen in the sidebar"
+
+
+def in_use(view: ViewSettings, ref: Reference, own: tuple[str, Mapping] | None = None) -> dict:
+    """The rows every export carries: prices and GWP values in use with their origin, the program."""
+    return {"prices in use": prices_text(own), "GWP values": gwp_text(view, ref),
+            "currency": ref.prices.currency, "program": f"fresh-gas-ledger {program_version()}"}
+
+
+def inputs_table(inputs: dict) -> pd.DataFrame:
+    """An export's inputs as a two-column table (every value as text)."""
+    return pd.DataFrame({"input": list(inputs), "value": [str(v) for v in inputs.values()]})
+
+
+def show(view: ViewSettings, ref: Reference, own: tuple[str, Mapping] | None = None) -> None:
+    """One caption on the page: the prices and GWP values in use and where they come from."""
+    st.caption(f":material/sell: **Prices in use:** {md(prices_text(own))}. **GWP values:** {md(gwp_text(view, ref))}.")
+
+
+def practice_rows(practice) -> dict:
+    """The practice a year ran under, as export rows (field -> plain text)."""
+    p = practice
+    rows = {"maintenance flow": f"{p.maintenance_flow_l_min:g} L/min" if p.maintenance_flow_l_min is not None
+            else "as each plan gives it",
+            "maintenance O2 share": f"{p.maintenance_o2_share:.0%} on the O2 flowmeter"
+            if p.maintenance_o2_share is not None else "as each plan gives it",
+            "dial factor in maintenance": f"{p.dial_factor:g}",
+            "agent switch": f"{p.switch_from} -> {p.switch_to}" if p.switch_from else "none"}
+    if p.changes_anything:
+        rows["adherence (low, likely, high)"] = (f"{p.adherence_low:.0%}, {p.adherence:.0%}, "
+                                                 f"{p.adherence_high:.0%}")
+    return rows
+
+
+def year_edits(base, scenario, mix) -> list[str]:
+    """What the page changed from the scenario as opened: "practice", "case mix", "sampling", ..."""
+    out = []
+    if scenario.practice != base.practice:
+        out.append("practice")
+    if casemix_to_csv(mix) != casemix_to_csv(base.casemix):
+        out.append("case mix")
+    if (scenario.sampling.draws, scenario.sampling.seed, scenario.sampling.price_spread) != \
+            (base.sampling.draws, base.sampling.seed, base.sampling.price_spread):
+        out.append("sampling")
+    if (scenario.car_kg_per_km, scenario.car_source) != (base.car_kg_per_km, base.car_source):
+        out.append("car factor")
+    return out
