@@ -77,6 +77,13 @@ class Records:
     gap_limit_min: float
     reference: Reference = DEFAULT_REFERENCE
     _tmpdir: object = None
+    #: The ``prepared`` query of each file on its own (same columns and checks), for
+    #: engines that work file by file.
+    file_sql: list = field(default_factory=list)
+    #: Rows of each file (Parquet: from its footer; CSV: lines read, set-aside ones included).
+    file_rows: list = field(default_factory=list)
+    #: Agent text as read (trimmed) -> (reference agent name or "none", vaporizer maximum [%]).
+    agent_map: dict = field(default_factory=dict)
 
     def close(self) -> None:
         """Close the duckdb connection and remove its spill folder."""

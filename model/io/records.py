@@ -131,6 +131,17 @@ def _raw_select(rf: RecordFile, fileno: int, source_sql: str) -> str:
     return f"SELECT {', '.join(parts)} FROM {source_sql}"
 
 
+#: Stands for the source of the ``prepared`` query until it is given (all files, or one).
+_SOURCE = "/*@records source@*/"
+
+
+def _parquet_rows(path: str) -> int:
+    """Rows of a Parquet file, from its footer (no data read)."""
+    import pyarrow.parquet as pq
+
+    return int(pq.ParquetFile(path).metadata.num_rows)
+
+
 def _band_sql(expr: str) -> str:
     """SQL CASE giving the flow band name of ``expr`` [L/min], from ``model.freshgas.FLOW_BANDS``."""
     whens = " ".join(f"WHEN {expr} <= {upper!r} THEN {_sql_str(name)}"
@@ -154,9 +165,20 @@ def connect(memory_limit: str | None = None, threads: int | None = None):
             shutil.rmtree(tmp, ignore_errors=True)
             raise InputError("--memory-limit", memory_limit,
                              "a size with its unit, such as 3GB or 500MB") from None
-    if threads:
-        con.execute(f"SET threads = {int(threads)}")
+    # Threads from the machine: the cores this process may run on.
+    con.execute(f"SET threads = {int(threads) if threads else _cores()}")
+    # duckdb counts a query's progress (read by the audit's progress line) without drawing its own bar.
+    con.execute("SET enable_progress_bar = true")
+    con.execute("SET enable_progress_bar_print = false")
     return con, tmp
+
+
+def _cores() -> int:
+    """Cores this process may run on."""
+    try:
+        return max(len(os.sched_getaffinity(0)), 1)
+    except AttributeError:  # not on Linux
+        return max(os.cpu_count() or 1, 1)
 
 
 def _csv_table(con, rf: RecordFile, index: int, report: ReadReport, folder: str):
@@ -302,6 +324,9 @@ def read_records(paths, *, reference: Reference = DEFAULT_REFERENCE,
         if s.ignored:
             report.notes.append(f"{s.path}: ignored column(s) {', '.join(s.ignored)}")
     selects = []
+    #: The raw SELECT of each file on its own, and its number of rows, for per-file work.
+    file_selects: dict[int, str] = {}
+    file_rows: dict[int, int] = {}
     rej_rows: list = []
     # Parquet files with identical columns and types read as one scan.
     groups: dict = {}
@@ -316,6 +341,11 @@ def read_records(paths, *, reference: Reference = DEFAULT_REFERENCE,
                f"file_row_number + 1 AS _row FROM read_parquet({names}, filename=true, file_row_number=true))")
         fileno_map = "CASE _grp " + " ".join(f"WHEN {j} THEN {i}" for j, i in enumerate(idx)) + " END"
         selects.append(_raw_select(s, -1, f"(SELECT *, {fileno_map} AS _fileno FROM {src})"))
+        for i in idx:
+            one = (f"(SELECT *, file_row_number + 1 AS _row FROM "
+                   f"read_parquet({_sql_str(specs[i].path)}, file_row_number=true))")
+            file_selects[i] = _raw_select(specs[i], i, one)
+            file_rows[i] = _parquet_rows(specs[i].path)
     for i, s in enumerate(specs):
         if s.format != "csv":
             continue
@@ -325,6 +355,8 @@ def read_records(paths, *, reference: Reference = DEFAULT_REFERENCE,
         name = f"csv_{i}"
         con.register(name, table)
         selects.append(_raw_select(s, i, name))
+        file_selects[i] = _raw_select(s, i, name)
+        file_rows[i] = table.num_rows + len(rows)
     # The CSV files are read (in file order, for their line numbers); every later query
     # orders what it needs by file and row, so duckdb may stream in any order.
     con.execute("SET preserve_insertion_order = false")
@@ -344,15 +376,14 @@ def read_records(paths, *, reference: Reference = DEFAULT_REFERENCE,
     dial_case = ("CASE agent_raw " + " ".join(f"WHEN {_sql_str(r)} THEN {d!r}" for r, _, d in amap)
                  + " END") if amap else "NULL::DOUBLE"
     a = AIR_O2_FRACTION  # US Standard Atmosphere 1976 (see model.reference)
-    con.execute(f"""
-    CREATE OR REPLACE TEMP VIEW prepared AS
+    prepared = f"""
     WITH r AS (
-      SELECT raw.*, {agent_case} AS agent, {dial_case} AS max_dial,
+      SELECT src.*, {agent_case} AS agent, {dial_case} AS max_dial,
         coalesce(epoch_ms(ts) / 60000.0, elapsed) AS t_min,
         CASE WHEN has_ts = 1 THEN CAST(date_trunc('month', ts) AS DATE)
              ELSE CAST(date_trunc('month', day) AS DATE) END AS month,
         CASE WHEN has_ts = 1 THEN ts ELSE day END AS start_hint
-      FROM raw
+      FROM {_SOURCE} AS src
     ), f AS (
       SELECT *,
         CASE WHEN parts_mode = 1 THEN coalesce(n2o, 0)
@@ -385,7 +416,8 @@ def read_records(paths, *, reference: Reference = DEFAULT_REFERENCE,
              OR (parts_mode = 0 AND (air_f < -1e-9 OR o2_f < -1e-9)) THEN 'absurd_setting'
       END AS problem_a
     FROM g
-    """)
+    """
+    con.execute("CREATE OR REPLACE TEMP VIEW prepared AS " + prepared.replace(_SOURCE, "raw"))
     con.execute("""
     CREATE OR REPLACE TEMP VIEW checked AS
     SELECT *, coalesce(problem_a,
@@ -414,8 +446,12 @@ def read_records(paths, *, reference: Reference = DEFAULT_REFERENCE,
     FROM v
     """)
     recs = Records(con, specs, report, gl, reference, tmp)
+    recs.file_sql = [prepared.replace(_SOURCE, f"({file_selects[i]})") for i in range(len(specs))]
+    recs.file_rows = [int(file_rows[i]) for i in range(len(specs))]
     recs.report.issues = pd.DataFrame(rej_rows, columns=["file", "row", "kind", "column", "value", "message"])
     recs._rejected = len(rej_rows)
     recs._max_messages = max_messages
+    #: Agent text as read (trimmed) -> (reference agent or "none", vaporizer maximum [%]).
+    recs.agent_map = {r: (k, d) for r, k, d in amap}
     step(0.4, "Records ready")
     return recs
