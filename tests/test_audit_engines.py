@@ -98,3 +98,32 @@ def test_progress_tells_files_and_rows_done(tmp_path, engine):
     if engine == "files":
         assert any("File 2 of 3: 2,000 of 6,000 rows" in t for _, t in seen)
     assert any("6,000 of 6,000 rows" in t for _, t in seen)
+
+
+def test_cli_progress_line_goes_to_a_terminal_only(tmp_path, capsys, monkeypatch):
+    import io
+    import json
+    import sys
+
+    from model.cli import main
+    from model.cli.audit import ProgressLine
+
+    files = write_many(4000, tmp_path, seed=6, rows_per_file=2000)
+    assert main(["audit", *map(str, files), "--json"]) == 0
+    captured = capsys.readouterr()
+    assert json.loads(captured.out)["report"]["rows_read"] == 4000 and captured.err == ""
+
+    class Terminal(io.StringIO):
+        def isatty(self):
+            return True
+
+    term = Terminal()
+    monkeypatch.setattr(sys, "stderr", term)
+    assert main(["audit", *map(str, files)]) == 0
+    text = term.getvalue()
+    assert "File 2 of 2: 2,000 of 4,000 rows done" in text and text.endswith("\r")
+    assert "File" not in capsys.readouterr().out
+    line = ProgressLine(io.StringIO())
+    line(0.5, "half")
+    line.clear()
+    assert line.stream.getvalue().endswith("\r")
