@@ -127,3 +127,14 @@ def test_cli_progress_line_goes_to_a_terminal_only(tmp_path, capsys, monkeypatch
     line(0.5, "half")
     line.clear()
     assert line.stream.getvalue().endswith("\r")
+
+
+def test_sub_second_times_give_the_same_months_and_minutes_either_way(tmp_path):
+    t0 = pd.Timestamp("2025-01-31 23:58:59.999")
+    df = pd.DataFrame({"case_id": "M", "time": [t0 + pd.Timedelta(seconds=37.5 * k) for k in range(8)],
+                       "agent": "sevoflurane", "o2": 1.0, "dial": 2.0})
+    p = tmp_path / "s.parquet"
+    df.to_parquet(p)
+    a, b = audit_records([p], engine="files"), audit_records([p], engine="sql")
+    _same(a, b)
+    assert a.cases["month"].tolist() == ["2025-01"]

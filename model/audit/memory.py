@@ -136,7 +136,9 @@ def read_parquet_file(recs: Records, index: int):
     for f in numbers:
         col = table[c[f].source]
         x = col.to_numpy() if col.null_count == 0 else col.cast(pa.float64()).to_numpy(zero_copy_only=False)
-        x = x.astype(np.float64, copy=False) * float(c[f].factor)
+        x = x.astype(np.float64, copy=False)
+        if float(c[f].factor) != 1.0:  # x * 1.0 is x: skip the pass
+            x = x * float(c[f].factor)
         if col.null_count == 0:
             ok &= np.isfinite(x)
         else:
@@ -168,8 +170,11 @@ def read_parquet_file(recs: Records, index: int):
         if n and ticks.min() < 0:
             return None, case_texts
         t_min = (ticks // 1000) / 60000.0
-        month = pa.array(us.astype("datetime64[M]").astype("datetime64[D]"), pa.date32())
         start = pa.array(us, pa.timestamp("us"))
+        # The engine takes the month of a case's first sample only, as "%Y-%m" text: the
+        # time itself gives the same text as the SQL's month (date_trunc) without a
+        # calendar conversion of every row.
+        month = start
     else:
         t_min = values["elapsed"]
         ok &= ~np.isnan(t_min)
@@ -361,7 +366,7 @@ def _numpy_engine(recs: Records, high_flow_l_min: float, minute_ventilation_l_mi
     else:
         theatre = _column(table, "theatre").take(vfirst).fill_null("unknown").to_pylist()
     month = _column(table, "month").take(vfirst)
-    month = pc.strftime(pc.cast(month, "timestamp[s]"), "%Y-%m").fill_null("unknown").to_pylist()
+    month = pc.strftime(pc.cast(month, "timestamp[s]", safe=False), "%Y-%m").fill_null("unknown").to_pylist()
     # The first valid sample of a group is its earliest (valid samples rise in time).
     start = pd.to_datetime(pd.Series(_column(table, "start_hint").take(vfirst).to_pandas())).to_numpy()
     raw = pd.DataFrame({
