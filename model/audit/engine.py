@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import math
 import threading
+from concurrent.futures import ThreadPoolExecutor
 
 import pandas as pd
 
@@ -183,6 +184,11 @@ def _watched(con, work, step, low: float, high: float, total_rows: int):
     return out["value"]
 
 
+def _read_file(records: Records, i: int):
+    """A Parquet file's columns read with pyarrow (see ``read_parquet_file``); (None, None) for CSV."""
+    return read_parquet_file(records, i) if records.files[i].format == "parquet" else (None, None)
+
+
 def _files_engine(records: Records, high_flow_l_min: float, minute_ventilation_l_min: float, step):
     """The in-memory engine run on each file in turn, when no case spans two files.
 
@@ -201,18 +207,25 @@ def _files_engine(records: Records, high_flow_l_min: float, minute_ventilation_l
     # Each file's rows come in file order, so the engine finds them grouped by case and skips its sort.
     records.con.execute("SET preserve_insertion_order = true")
     try:
-        for i, sql in enumerate(records.file_sql):
-            step(0.45 + 0.45 * done / total, f"File {i + 1} of {n_files}: {done:,} of {total:,} rows done")
-            table, texts = read_parquet_file(records, i) if records.files[i].format == "parquet" else (None, None)
-            raw, c, t, g = _numpy_engine(records, high_flow_l_min, minute_ventilation_l_min,
-                                         sql if table is None else table, texts)
-            raw["_file"] = i
-            parts.append(raw)
-            for k, v in c.items():
-                counts[k] = counts.get(k, 0) + int(v)
-            time_rows += t
-            gap_rows += g
-            done += records.file_rows[i]
+        # While one file is integrated, the next is read (pyarrow and numpy release the
+        # GIL, so the two use both cores); at most two files are in memory at once.
+        with ThreadPoolExecutor(max_workers=1, thread_name_prefix="gas-ledger-read") as reader:
+            ahead = reader.submit(_read_file, records, 0)
+            for i, sql in enumerate(records.file_sql):
+                step(0.45 + 0.45 * done / total, f"File {i + 1} of {n_files}: {done:,} of {total:,} rows done")
+                table, texts = ahead.result()
+                if i + 1 < n_files:
+                    ahead = reader.submit(_read_file, records, i + 1)
+                raw, c, t, g = _numpy_engine(records, high_flow_l_min, minute_ventilation_l_min,
+                                             sql if table is None else table, texts)
+                del table, texts
+                raw["_file"] = i
+                parts.append(raw)
+                for k, v in c.items():
+                    counts[k] = counts.get(k, 0) + int(v)
+                time_rows += t
+                gap_rows += g
+                done += records.file_rows[i]
     finally:
         records.con.execute("SET preserve_insertion_order = false")
     step(0.9, f"{n_files} of {n_files} file(s): {done:,} of {total:,} rows done")

@@ -254,18 +254,20 @@ def _numpy_engine(recs: Records, high_flow_l_min: float, minute_ventilation_l_mi
     # order (case codes number cases by first appearance), and then no sort is needed.
     if n and fileno.max() < (1 << 8) and row.max() < (1 << 35) and code.max() < (1 << 20):
         key = (code << 43) | (fileno << 35) | row
-        order = np.arange(n) if bool(np.all(key[1:] > key[:-1])) else np.argsort(key, kind="stable")
+        in_key_order = bool(np.all(key[1:] > key[:-1]))
+        del key
+        order = np.arange(n) if in_key_order else np.argsort((code << 43) | (fileno << 35) | row, kind="stable")
     else:
         order = np.lexsort((row, fileno, code))
-    code_s, t_s, ok_s = code[order], t[order], ok_a[order]
+        in_key_order = False
+    # Already in order (the usual case): the sorted views are the columns themselves.
+    code_s, t_s, ok_s = (code, t, ok_a) if in_key_order else (code[order], t[order], ok_a[order])
     # Running maximum of the earlier A-valid times of the same case, exactly, through ranks.
     time_rows: list = []
-    valid_s = ok_s.copy()
-    nxt_same = np.zeros(len(code_s), dtype=bool)
-    if len(code_s):
-        nxt_same[:-1] = code_s[1:] == code_s[:-1]
-    t_ok = t_s[ok_s]
-    c_ok = code_s[ok_s]
+    valid_s = ok_s
+    all_ok = bool(ok_s.all())
+    t_ok = t_s if all_ok else t_s[ok_s]
+    c_ok = code_s if all_ok else code_s[ok_s]
     monotonic = bool(np.all((np.diff(t_ok) > 0) | (c_ok[1:] != c_ok[:-1]))) if len(t_ok) > 1 else True
     if ok_s.any() and not monotonic:
         _, rank = np.unique(np.where(ok_s, t_s, -np.inf), return_inverse=True)
@@ -287,9 +289,9 @@ def _numpy_engine(recs: Records, high_flow_l_min: float, minute_ventilation_l_mi
                 j = order[i]
                 time_rows.append((int(fileno[j]), int(row[j]), "duplicate_time" if dup[i] else "time_backwards",
                                   case_names[int(code_s[i])].as_py(), float(t_s[i]), float(sorted_t[prev_rank[i]])))
-    vidx = order[valid_s]
-    cv = code[vidx]
-    tv = t[vidx]
+    all_valid = bool(valid_s.all())
+    vidx = order if in_key_order and all_valid else order[valid_s]
+    cv, tv = (code, t) if in_key_order and all_valid else (code[vidx], t[vidx])
     m = len(vidx)
     same_next = np.zeros(m, dtype=bool)
     dt_raw = np.full(m, np.nan)
@@ -305,7 +307,7 @@ def _numpy_engine(recs: Records, high_flow_l_min: float, minute_ventilation_l_mi
     gap_rows = [(int(fileno[vidx[i]]), int(row[vidx[i]]), case_names[int(cv[i])].as_py(), float(tv[i]),
                  float(dt_raw[i])) for i in gap_at]
 
-    identity = m == n and bool(np.all(vidx == np.arange(n)))
+    identity = (in_key_order and all_valid) or (m == n and bool(np.all(vidx == np.arange(n))))
 
     def take(name):
         values = _float(table, name)
