@@ -135,6 +135,38 @@ def _raw_select(rf: RecordFile, fileno: int, source_sql: str) -> str:
 _SOURCE = "/*@records source@*/"
 
 
+def _distinct_agents(con, specs, file_selects) -> list:
+    """The distinct agent texts as the checks read them (``agent_raw``: trimmed, empty is missing).
+
+    A Parquet file with a text agent column gives them from its dictionary pages with
+    pyarrow (no text per row); any other file from its SQL.
+    """
+    import pyarrow as pa
+    import pyarrow.compute as pc
+    import pyarrow.parquet as pq
+
+    found: set = set()
+    by_sql = []
+    for i, s in enumerate(specs):
+        src = s.columns["agent"].source
+        t = pq.read_schema(s.path).field(src).type if s.format == "parquet" else None
+        t = t.value_type if t is not None and pa.types.is_dictionary(t) else t
+        if t is None or not (pa.types.is_string(t) or pa.types.is_large_string(t)):
+            by_sql.append(file_selects[i])
+            continue
+        col = pq.read_table(s.path, columns=[src], read_dictionary=[src])[src]
+        for chunk in col.chunks:
+            values = pc.utf8_trim(chunk.dictionary.cast(pa.string()), characters=" ")
+            # Only values some row uses (a dictionary may hold others).
+            used = pc.unique(chunk.indices.drop_null())
+            found.update(v for v in values.take(used).to_pylist() if v)
+    if by_sql:
+        union = " UNION ALL ".join(f"SELECT agent_raw FROM ({q})" for q in by_sql)
+        found.update(r[0] for r in con.sql(f"SELECT DISTINCT agent_raw FROM ({union}) "
+                                            "WHERE agent_raw IS NOT NULL").fetchall())
+    return sorted(found)
+
+
 def _parquet_rows(path: str) -> int:
     """Rows of a Parquet file, from its footer (no data read)."""
     import pyarrow.parquet as pq
@@ -363,7 +395,7 @@ def read_records(paths, *, reference: Reference = DEFAULT_REFERENCE,
     con.execute("CREATE OR REPLACE TEMP VIEW raw AS " + " UNION ALL BY NAME ".join(selects))
     # Agent names: normalise the few distinct values in Python with the reference's rules.
     step(0.35, "Checking agents")
-    distinct = [r[0] for r in con.sql("SELECT DISTINCT agent_raw FROM raw WHERE agent_raw IS NOT NULL").fetchall()]
+    distinct = _distinct_agents(con, specs, file_selects)
     amap = []
     for raw in distinct:
         key = normalise_agent_name(raw)
