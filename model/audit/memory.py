@@ -240,7 +240,8 @@ def _numpy_engine(recs: Records, high_flow_l_min: float, minute_ventilation_l_mi
     row = _column(table, "_row").to_numpy(zero_copy_only=False).astype(np.int64)
     if texts:
         # Parquet rows are numbered from 1 in file order: row - 1 is the row's place in the file.
-        in_order = n == len(texts["case_id"].codes) and bool(np.all(row == np.arange(1, n + 1)))
+        in_order = n == len(texts["case_id"].codes) and (
+            not isinstance(source, str) or bool(np.all(row == np.arange(1, n + 1))))
         pos = slice(None) if in_order else row - 1
         code = texts["case_id"].codes[pos]
         case_names = texts["case_id"].values
@@ -323,8 +324,14 @@ def _numpy_engine(recs: Records, high_flow_l_min: float, minute_ventilation_l_mi
     agent_code = agent_dict.indices.fill_null(0).to_numpy(zero_copy_only=False).astype(np.int64)
     agent_code = agent_code if identity else agent_code[vidx]
     agent_names = np.array(agent_dict.dictionary.to_pylist(), dtype=object)
-    is_none = agent_names[agent_code] == "none" if m else np.zeros(0, dtype=bool)
-    dose = np.where(is_none, 0.0, np.where(from_et, take("end_tidal"), np.where(from_et, 0.0, dial_raw)))
+    # "none" compared once as a name, then as its code (no text per row).
+    none_codes = np.flatnonzero(agent_names == "none")
+    is_none = (agent_code == none_codes[0]) if len(none_codes) and m else np.zeros(m, dtype=bool)
+    # Dose: the dial, else the end-tidal concentration, 0 without an agent (passes skipped
+    # when no sample needs them).
+    dose = np.where(from_et, take("end_tidal"), dial_raw) if from_et.any() else dial_raw
+    if is_none.any():
+        dose = np.where(is_none, 0.0, dose)
     from_et = from_et & ~is_none
     # High-flow runs: a run ends at a sample below the threshold or before a gap.
     high = fgf > high_flow_l_min
