@@ -122,7 +122,8 @@ def cmd_audit(args) -> int:
             ("Cost", f"{t['cost_total']:,.2f} {cur}"),
             ("CO2 absorbent (estimate)", f"{t['absorbent_g'] / 1000:,.1f} kg, {t['cost_absorbent']:,.2f} {cur} "
                                          f"(not in the cost above)"),
-            ("Time-weighted FGF", f"{t['time_weighted_fgf_l_min']:,.2f} L/min"),
+            ("Time-weighted FGF", "no minute counted" if t['time_weighted_fgf_l_min'] != t['time_weighted_fgf_l_min']
+                                  else f"{t['time_weighted_fgf_l_min']:,.2f} L/min"),
             ("Cases with long high flow", f"{int(t['high_flow_cases']):,} (run of "
                                           f"{result.settings['high_flow_limit_min']:g} min or more above "
                                           f"{result.settings['high_flow_l_min']:g} L/min)")]
