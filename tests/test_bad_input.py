@@ -84,3 +84,43 @@ def test_crlf_line_endings_read_like_lf(tmp_path):
     r = audit_records([crlf], threads=1)
     assert r.report.rows_valid == 30 and r.report.rows_set_aside == 0
     assert _totals(crlf) == pytest.approx(_totals(lf), rel=1e-12)
+
+
+# --- 4. Parquet columns of the wrong type are refused by name ------------------------------
+
+
+def _parquet_table(n: int = 2000):
+    import numpy as np
+    import pyarrow as pa
+
+    t = np.arange(n) % 100
+    return {"case_id": pa.array([f"C{i // 100}" for i in range(n)]),
+            "elapsed": pa.array(t.astype(float)), "agent": pa.array(["sevoflurane"] * n),
+            "o2": pa.array(np.full(n, 1.0)), "dial": pa.array(np.full(n, 2.0))}
+
+
+@pytest.mark.parametrize("column, arrow_type", [
+    ("o2", "list<double>"), ("elapsed", "list<double>"), ("dial", "large_list<double>"),
+    ("o2", "struct"), ("case_id", "list<string>"), ("agent", "map"),
+])
+def test_parquet_column_of_a_nested_type_is_refused_naming_it(tmp_path, column, arrow_type):
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    cols = _parquet_table(4)
+    values = cols[column].to_pylist()
+    if arrow_type == "list<double>":
+        cols[column] = pa.array([[v] for v in values], type=pa.list_(pa.float64()))
+    elif arrow_type == "large_list<double>":
+        cols[column] = pa.array([[v] for v in values], type=pa.large_list(pa.float64()))
+    elif arrow_type == "list<string>":
+        cols[column] = pa.array([[v] for v in values], type=pa.list_(pa.string()))
+    elif arrow_type == "struct":
+        cols[column] = pa.array([{"v": v} for v in values])
+    else:
+        cols[column] = pa.array([[("k", str(v))] for v in values], type=pa.map_(pa.string(), pa.string()))
+    path = tmp_path / "nested.parquet"
+    pq.write_table(pa.table(cols), path)
+    with pytest.raises(InputError) as err:
+        audit_records([path], threads=1)
+    assert f"column '{column}'" in str(err.value) and str(path) in str(err.value)

@@ -214,8 +214,13 @@ def inspect_file(path) -> RecordFile:
                 columns[key] = Column(key, col.source, seconds / 60.0, ptype.unit)
         import duckdb
 
-        described = duckdb.sql(f"DESCRIBE SELECT * FROM read_parquet({_sql_str(str(p))})").fetchall()
+        try:
+            described = duckdb.sql(f"DESCRIBE SELECT * FROM read_parquet({_sql_str(str(p))})").fetchall()
+        except duckdb.Error as exc:
+            raise InputError(where, "the file", f"not a readable Parquet file ({type(exc).__name__})") from None
         types = {r[0]: r[1] for r in described}
+        for key, col in columns.items():
+            check_column_type(key, types.get(col.source, "VARCHAR"), f"{where}: column '{col.source}'")
         return RecordFile(where, fmt, columns, ignored, 0, types)
     with open(p, "rb") as fh:
         head = fh.read(65536)
@@ -249,6 +254,46 @@ def inspect_file(path) -> RecordFile:
         raise InputError(f"{where}, line {skip + 1}", "the header row", f"not readable as CSV ({exc})") from None
     columns, ignored = map_columns(names, declared, where)
     return RecordFile(where, fmt, columns, ignored, skip, {n: "VARCHAR" for n in names})
+
+
+#: duckdb types read as numbers as they are (exact names; DECIMAL(p,s) too).
+NUMERIC_TYPES = frozenset({"DOUBLE", "FLOAT", "REAL", "INTEGER", "BIGINT", "SMALLINT", "TINYINT",
+                           "HUGEINT", "UHUGEINT", "UBIGINT", "UINTEGER", "USMALLINT", "UTINYINT"})
+#: duckdb types read as date-times as they are.
+TIME_TYPES = frozenset({"TIMESTAMP", "TIMESTAMP WITH TIME ZONE", "TIMESTAMP_S", "TIMESTAMP_MS",
+                        "TIMESTAMP_NS", "DATE"})
+#: Scalar duckdb types read as text (and checked row by row, as CSV cells are).
+TEXT_TYPES = frozenset({"VARCHAR", "BOOLEAN", "UUID", "TIME", "INTERVAL", "BLOB"})
+_DECIMAL = re.compile(r"^DECIMAL\(\d+,\s*\d+\)$")
+
+
+def is_numeric_type(duck_type: str) -> bool:
+    """Whether a duckdb column type is a plain number (exactly: ``DOUBLE[]`` is a list, not a number)."""
+    t = duck_type.strip().upper()
+    return t in NUMERIC_TYPES or bool(_DECIMAL.match(t))
+
+
+def is_time_type(duck_type: str) -> bool:
+    """Whether a duckdb column type is a date-time or a date (exactly)."""
+    return duck_type.strip().upper() in TIME_TYPES
+
+
+def check_column_type(field_name: str, duck_type: str, where: str) -> None:
+    """Refuse a column whose type cannot hold its field: lists, structs, maps, durations elsewhere.
+
+    Raises
+    ------
+    InputError
+        Naming the column and its type.
+    """
+    t = duck_type.strip().upper()
+    if is_numeric_type(t) or is_time_type(t) or t in TEXT_TYPES:
+        return
+    kind = FIELDS[field_name][0]
+    wanted = {"text": "text", "timestamp": "a date-time or text", "date": "a date or text"}.get(
+        kind, f"numbers or text (in {kind.replace('percent', '%')})")
+    raise InputError(where, duck_type, f"a column of type {duck_type} cannot hold '{field_name}'; "
+                     f"expected one value per row: {wanted}")
 
 
 def expand_paths(patterns: Iterable) -> list[str]:
