@@ -124,3 +124,35 @@ def test_parquet_column_of_a_nested_type_is_refused_naming_it(tmp_path, column, 
     with pytest.raises(InputError) as err:
         audit_records([path], threads=1)
     assert f"column '{column}'" in str(err.value) and str(path) in str(err.value)
+
+
+# --- 5. damaged Parquet data pages give one message naming the file -----------------------
+
+
+@pytest.mark.parametrize("compression", ["snappy", "zstd", "none"])
+def test_damaged_parquet_pages_give_one_message_naming_the_file(tmp_path, compression):
+    import random
+
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    good_path = tmp_path / "good.parquet"
+    pq.write_table(pa.table(_parquet_table()), good_path, compression=compression, row_group_size=500)
+    good = good_path.read_bytes()
+    footer = int.from_bytes(good[-8:-4], "little")
+    data_end = len(good) - 8 - footer
+    rng = random.Random(15)  # fixed damage: the same bytes every run
+    failures = 0
+    for k in range(25):
+        pos = rng.randrange(4, data_end - 8)
+        damaged = bytearray(good)
+        damaged[pos:pos + 8] = bytes(rng.randrange(256) for _ in range(8))
+        path = tmp_path / f"damaged_{k}.parquet"
+        path.write_bytes(bytes(damaged))
+        # Read alongside a sound file: the message must name the damaged one.
+        try:
+            audit_records([good_path, path], threads=1)
+        except InputError as exc:
+            failures += 1
+            assert str(path) in str(exc) and "\n" not in str(exc)
+    assert failures > 0  # the damage did reach the readers

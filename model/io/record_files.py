@@ -4,11 +4,13 @@ from __future__ import annotations
 
 import os
 import re
+from contextlib import contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Iterable, Sequence
 
 from model.errors import InputError
+from model.files import shown_path
 from model.units import registry, safe_quantity_text
 
 
@@ -294,6 +296,56 @@ def check_column_type(field_name: str, duck_type: str, where: str) -> None:
         kind, f"numbers or text (in {kind.replace('percent', '%')})")
     raise InputError(where, duck_type, f"a column of type {duck_type} cannot hold '{field_name}'; "
                      f"expected one value per row: {wanted}")
+
+
+@contextmanager
+def file_failures(files: Sequence[RecordFile]):
+    """Turn any failure of the readers under this block into one InputError naming the file.
+
+    duckdb, pyarrow and the operating system raise many types for a damaged file (a page
+    overwritten behind an intact footer gives "Out of buffer", a decompression failure, a
+    Thrift protocol error, a conversion error). Whatever they raise becomes one line naming
+    the file; when several files are read and the message names none, each Parquet file is
+    scanned on its own to find the one that fails.
+    """
+    import duckdb
+    import pyarrow as pa
+
+    try:
+        yield
+    except InputError:
+        raise
+    except (duckdb.Error, pa.ArrowException, OSError, RuntimeError) as exc:
+        raise failure_of(files, exc) from None
+
+
+def failure_of(files: Sequence[RecordFile], exc: BaseException) -> InputError:
+    """One InputError naming the file a reader failure came from (see :func:`file_failures`)."""
+    first = (str(exc).strip().splitlines() or [""])[0][:200] or type(exc).__name__
+    named = [f for f in files if f.path in str(exc)]
+    if not named and len(files) == 1:
+        named = list(files)
+    if not named:
+        named = [f for f in files if f.format == "parquet" and not _scans(f)]
+    if not named:
+        return InputError("records", ", ".join(shown_path(f.path) for f in files)[:200],
+                          f"the files cannot be read to the end ({type(exc).__name__}: {first})")
+    f = named[0]
+    what = "a damaged Parquet file" if f.format == "parquet" else "a file that cannot be read to the end"
+    return InputError(f.path, "the file", f"{what} ({type(exc).__name__}: {first}); "
+                      "export it again or leave it out")
+
+
+def _scans(rf: RecordFile) -> bool:
+    """Whether every mapped column of a Parquet file decodes (a full scan; used only after a failure)."""
+    import duckdb
+
+    cols = ", ".join(_ident(c.source) for c in rf.columns.values()) or "*"
+    try:
+        duckdb.sql(f"SELECT max(hash({cols})) FROM read_parquet({_sql_str(rf.path)})").fetchall()
+        return True
+    except Exception:  # noqa: BLE001  (any failure means this file is the damaged one)
+        return False
 
 
 def expand_paths(patterns: Iterable) -> list[str]:

@@ -45,7 +45,7 @@ import pandas as pd
 from model.errors import InputError
 from model.freshgas import FLOW_BANDS
 from model.io.csv_lines import split_csv_lines
-from model.io.record_files import DEFAULT_GAP_LIMIT_MIN, is_numeric_type, is_time_type, MAX_FLOW_L_MIN, MAX_TOTAL_FLOW_L_MIN, NUMBER_FIELDS, RecordFile, _ident, _sql_str, expand_paths, inspect_file
+from model.io.record_files import DEFAULT_GAP_LIMIT_MIN, is_numeric_type, is_time_type, MAX_FLOW_L_MIN, MAX_TOTAL_FLOW_L_MIN, NUMBER_FIELDS, RecordFile, _ident, _sql_str, expand_paths, file_failures, inspect_file
 from model.io.record_report import DEFAULT_MAX_MESSAGES, ReadReport, Records
 from model.reference import AIR_O2_FRACTION, DEFAULT_REFERENCE, Reference, normalise_agent_name
 
@@ -287,7 +287,15 @@ def read_records(paths, *, reference: Reference = DEFAULT_REFERENCE,
     step(0.0, f"Reading the headers of {len(files)} file(s)")
     specs = [inspect_file(f) for f in files]
     con, tmp = connect(memory_limit, threads)
-    report, rej_rows, gl = _build_views(con, tmp, specs, reference, gap_limit_min, step)
+    try:
+        with file_failures(specs):
+            report, rej_rows, gl = _build_views(con, tmp, specs, reference, gap_limit_min, step)
+    except BaseException:
+        import shutil
+
+        con.close()
+        shutil.rmtree(tmp, ignore_errors=True)
+        raise
     recs = Records(con, specs, report, gl, reference, tmp)
     recs.report.issues = pd.DataFrame(rej_rows, columns=["file", "row", "kind", "column", "value", "message"])
     recs._rejected = len(rej_rows)
