@@ -209,3 +209,14 @@ def test_hash_inside_a_purchase_cell_is_text_not_a_comment(tmp_path):
     assert len(read.messages) == 1 and f"{path}, line 2: size" in read.messages[0]
     path, read = _purchases(tmp_path, "q.csv", ['2025-01,sevoflurane,4,bottle,"250 mL"', "#2025-01,oxygen,9,L,"])
     assert read.table["amount"].tolist() == [1000.0] and not read.messages
+
+
+@pytest.mark.parametrize("line, column", [
+    ("\uff12\uff10\uff12\uff15-04,oxygen,1,L,", "month"),     # full-width digits
+    ("2025-0\u0664,oxygen,1,L,", "month"),                     # an Arabic-Indic digit
+    ("2025-04,oxygen,\uff11,L,", "quantity"),
+])
+def test_non_ascii_digits_in_purchases_are_set_aside(tmp_path, line, column):
+    path, read = _purchases(tmp_path, "p.csv", [line, "2025-04,oxygen,1,L,"])
+    assert len(read.messages) == 1 and f"{path}, line 2: {column}" in read.messages[0]
+    assert read.table["amount"].tolist() == [1.0]

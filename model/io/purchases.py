@@ -30,7 +30,8 @@ from model.vapour import molar_volume_l
 
 PURCHASE_COLUMNS = ("month", "item", "quantity", "unit", "size")
 GASES = ("nitrous_oxide", "oxygen", "air")
-_MONTH = re.compile(r"^\d{4}-(0[1-9]|1[0-2])$")
+_NUMBER = re.compile(r"^[+-]?([0-9]+\.?[0-9]*|\.[0-9]+)([eE][+-]?[0-9]+)?$")
+_MONTH = re.compile(r"^[0-9]{4}-(0[1-9]|1[0-2])$")  # ASCII digits only
 
 
 def _convert(value: float, unit: str, base: str):
@@ -215,10 +216,10 @@ def _purchase_line(r, at: str, reference: Reference, temperature_c: float,
     if key not in reference.agents:
         raise InputError(f"{at}: item", r.item, "allowed items are " + ", ".join(reference.agents))
     agent = reference.agents[key]
-    try:
-        qty = float(str(r.quantity).strip())
-    except ValueError:
-        raise InputError(f"{at}: quantity", r.quantity, "expected a number") from None
+    text = str(r.quantity).strip()
+    if not _NUMBER.match(text):  # float() would read full-width digits and "1_0"
+        raise InputError(f"{at}: quantity", r.quantity, "expected a number (digits 0-9)")
+    qty = float(text)
     if not np.isfinite(qty) or qty < 0:
         raise InputError(f"{at}: quantity", r.quantity, "expected a finite number, not negative")
     unit = str(r.unit).strip()
