@@ -390,10 +390,10 @@ class Reference:
                     bottle = dict(prices.bottle)
                     for aname, braw in _table(raw, where).items():
                         agent = self.volatile(aname, f"{where}.{aname}")
-                        bottle[agent.name] = _non_negative(braw, f"{where}.{aname}")
+                        bottle[agent.name] = _price(braw, f"{where}.{aname}")
                     changes["bottle"] = MappingProxyType(bottle)
                 elif key in {f.name for f in dataclasses.fields(Prices)} - {"currency", "bottle", "basis"}:
-                    changes[key] = _non_negative(raw, where)
+                    changes[key] = _price(raw, where)
                 else:
                     allowed = [f.name for f in dataclasses.fields(Prices) if f.name != "basis"]
                     raise InputError(where, key, "allowed price fields are " + ", ".join(allowed))
@@ -469,6 +469,19 @@ def _non_negative(raw, where) -> float:
     number = _finite(raw, where)
     if number < 0:
         raise InputError(where, raw, "must not be negative")
+    return number
+
+
+#: Highest unit price accepted (per bottle, per 1000 L, per kg), in any currency. Common
+#: practice, no source: room for currencies of many digits, small enough that a year's
+#: cost stays a finite number.
+MAX_PRICE = 1e9
+
+
+def _price(raw, where) -> float:
+    number = _non_negative(raw, where)
+    if number > MAX_PRICE:
+        raise InputError(where, raw, f"a unit price is at most {MAX_PRICE:g}")
     return number
 
 

@@ -220,3 +220,48 @@ def test_non_ascii_digits_in_purchases_are_set_aside(tmp_path, line, column):
     path, read = _purchases(tmp_path, "p.csv", [line, "2025-04,oxygen,1,L,"])
     assert len(read.messages) == 1 and f"{path}, line 2: {column}" in read.messages[0]
     assert read.table["amount"].tolist() == [1.0]
+
+
+# --- 3. huge and tiny numbers never reach the output as inf --------------------------------
+
+
+def _cli(argv, capsys):
+    from model.cli import main
+
+    try:
+        status = main([str(a) for a in argv])
+    except SystemExit as exc:
+        status = exc.code
+    out, err = capsys.readouterr()
+    return status, out, err
+
+
+@pytest.mark.parametrize("quantity", ["1e306", "1e-320", "1e10", "1e308"])
+def test_huge_and_tiny_purchase_quantities_give_finite_json(tmp_path, capsys, quantity):
+    import json
+
+    p = _write(tmp_path / "p.csv", f"month,item,quantity,unit,size\n2025-09,sevoflurane,{quantity},bottle,\n".encode())
+    status, out, err = _cli(["audit", BIRCH, "--purchases", p, "--json"], capsys)
+    assert status == 0, err
+    assert "Infinity" not in out and "NaN" not in out
+    data = json.loads(out)  # strict JSON
+    if float(quantity) > 1e9:
+        assert len(data["purchase_lines_set_aside"]) == 1
+        assert "quantity" in data["purchase_lines_set_aside"][0]
+
+
+def test_prices_and_month_weights_have_upper_bounds(tmp_path):
+    from model.reference import MAX_PRICE, Reference
+
+    with pytest.raises(InputError, match="at most"):
+        Reference().with_overrides({"prices": {"oxygen_per_1000_l": MAX_PRICE * 10}}, "settings")
+    with pytest.raises(InputError, match="at most"):
+        Reference().with_overrides({"prices": {"bottle": {"sevoflurane": 1e308}}}, "settings")
+    assert Reference().with_overrides({"prices": {"oxygen_per_1000_l": MAX_PRICE}}, "s").prices.oxygen_per_1000_l == MAX_PRICE
+    from model.io.scenario import parse_scenario_text
+
+    text = (ROOT / "demo_data" / "year" / "baseline_2l.toml").read_text()
+    assert "[calendar]" not in text
+    text += "\n[calendar]\nmonth_weights = [1e308, 1e308, 1, 1, 1, 1, 1, 1, 1, 1, 1, 1]\n"
+    with pytest.raises(InputError, match="month_weights"):
+        parse_scenario_text(text, "s.toml", ROOT / "demo_data" / "year")

@@ -30,6 +30,13 @@ from model.vapour import molar_volume_l
 
 PURCHASE_COLUMNS = ("month", "item", "quantity", "unit", "size")
 GASES = ("nitrous_oxide", "oxygen", "air")
+#: Largest quantity on one purchase line, in its unit (bottles, cylinders, mL, kg, ...).
+#: Common practice, no source: far above what a hospital buys in a month, small enough that
+#: every sum and CO2e figure stays a finite number.
+MAX_QUANTITY = 1e9
+#: Largest amount on one purchase line once converted. [mL of liquid or L of gas] Common
+#: practice, no source (a hospital's yearly oxygen is some 1e8 L).
+MAX_AMOUNT = 1e12
 _NUMBER = re.compile(r"^[+-]?([0-9]+\.?[0-9]*|\.[0-9]+)([eE][+-]?[0-9]+)?$")
 _MONTH = re.compile(r"^[0-9]{4}-(0[1-9]|1[0-2])$")  # ASCII digits only
 
@@ -220,8 +227,8 @@ def _purchase_line(r, at: str, reference: Reference, temperature_c: float,
     if not _NUMBER.match(text):  # float() would read full-width digits and "1_0"
         raise InputError(f"{at}: quantity", r.quantity, "expected a number (digits 0-9)")
     qty = float(text)
-    if not np.isfinite(qty) or qty < 0:
-        raise InputError(f"{at}: quantity", r.quantity, "expected a finite number, not negative")
+    if not np.isfinite(qty) or qty < 0 or qty > MAX_QUANTITY:
+        raise InputError(f"{at}: quantity", r.quantity, f"expected a number from 0 to {MAX_QUANTITY:g}")
     unit = str(r.unit).strip()
     size = str(r.size).strip() if r.size is not None else ""
     if agent.kind == "volatile":
@@ -230,6 +237,9 @@ def _purchase_line(r, at: str, reference: Reference, temperature_c: float,
     else:
         amount = _gas_l(qty, unit, size, agent, at, temperature_c, pressure_kpa)
         base = "L"
+    if not np.isfinite(amount) or amount > MAX_AMOUNT:
+        raise InputError(f"{at}: quantity", r.quantity, f"{amount:g} {base} on one line; at most "
+                         f"{MAX_AMOUNT:g} {base} (check the quantity, unit and size)")
     return month, key, amount, base
 
 

@@ -6,6 +6,8 @@ scenario files"). It names its case-mix file (CSV, :mod:`model.io.casemix`) rela
 
 from __future__ import annotations
 
+import math
+
 import tomllib
 from dataclasses import field
 from pathlib import Path
@@ -24,6 +26,9 @@ from model.year.inputs import CaseMix, DAYS_PER_MONTH, DEFAULT_CAR_FACTOR, MAX_D
 SCENARIO_FORMAT = "fresh-gas-ledger scenario 1"
 #: Largest scenario file read. [bytes]
 MAX_SCENARIO_BYTES = 200_000
+#: Largest month weight (weights are relative: days per month, cases per month). Common
+#: practice, no source; bounded so that their sum stays finite.
+MAX_MONTH_WEIGHT = 1e6
 
 
 # --------------------------------------------------------------------------------------
@@ -89,8 +94,8 @@ class _CalendarIn(_Strict):
     @pydantic.field_validator("month_weights")
     @classmethod
     def _positive(cls, v):
-        if any(w < 0 for w in v) or sum(v) <= 0:
-            raise InputError("month_weights", v, "twelve non-negative numbers, not all zero")
+        if any(not math.isfinite(w) or w < 0 or w > MAX_MONTH_WEIGHT for w in v) or sum(v) <= 0:
+            raise InputError("month_weights", v, f"twelve numbers from 0 to {MAX_MONTH_WEIGHT:g}, not all zero")
         return v
 
 
