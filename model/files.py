@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import re
+import tomllib
 from pathlib import Path
 
 from model.errors import InputError
@@ -63,3 +64,61 @@ def toml_error(source: str, exc: Exception,
         where = f"{source} (line {match.group(1)}, column {match.group(2)})"
         text = text[:match.start()] + text[match.end():]
     return InputError(where, text.strip() or "malformed text", allowed)
+
+
+#: Deepest nesting of tables and arrays in a TOML file (the documented formats need 4).
+MAX_TOML_DEPTH = 8
+
+
+def parse_toml(text: str, source: str, kind: str,
+               allowed: str = "the file is not valid TOML (see the plan format in README.md)") -> dict:
+    """Parse a user's TOML text, refusing nesting deeper than :data:`MAX_TOML_DEPTH`.
+
+    The one TOML guard of the project: the upload check (pages) and the file readers
+    (command line) both call it, so a file refused on one is refused on the other.
+
+    Parameters
+    ----------
+    text : str
+        The TOML text.
+    source : str
+        Where it comes from (file name), for messages.
+    kind : str
+        What the file is ("plan", "scenario"), for messages.
+    allowed : str
+        What to say when the text is not valid TOML.
+
+    Raises
+    ------
+    InputError
+        Not valid TOML (naming line and column), or nested too deeply.
+    """
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise toml_error(source, exc, allowed) from None
+    except RecursionError:
+        raise InputError(source, "nesting too deep",
+                         f"tables and arrays nest at most {MAX_TOML_DEPTH} deep in a {kind} file") from None
+    depth = toml_depth(data)
+    if depth > MAX_TOML_DEPTH:
+        raise InputError(source, f"nesting {depth} deep",
+                         f"tables and arrays nest at most {MAX_TOML_DEPTH} deep in a {kind} file")
+    return data
+
+
+def toml_depth(value, stop: int = MAX_TOML_DEPTH) -> int:
+    """Nesting depth of tables and arrays (a flat table is 1), without recursion.
+
+    Counting stops a level past ``stop``.
+    """
+    deepest = 0
+    stack = [(value, 1)]
+    while stack:
+        item, level = stack.pop()
+        if isinstance(item, (dict, list)):
+            deepest = max(deepest, level)
+            if deepest > stop:
+                break
+            stack.extend((v, level + 1) for v in (item.values() if isinstance(item, dict) else item))
+    return deepest

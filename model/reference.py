@@ -5,14 +5,13 @@ from __future__ import annotations
 import dataclasses
 import math
 import os
-import tomllib
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 from types import MappingProxyType
 from typing import Mapping
 
 from model.errors import InputError
-from model.files import read_user_text, shown_path
+from model.files import parse_toml, read_user_text
 
 
 #: Largest settings file read. [bytes]
@@ -511,14 +510,8 @@ def load_settings(path: str | os.PathLike | None = None, base: Reference | None 
         return base
     p = Path(path)
     text = read_user_text(p, "settings", MAX_SETTINGS_BYTES)
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        from model.files import toml_error
-        raise toml_error(f"settings file {p}", exc,
-                         "the file is not valid TOML (see 'Settings file' in README.md)") from None
-    except RecursionError:
-        raise InputError("settings file", shown_path(p), "nested too deeply to be a settings file") from None
+    data = parse_toml(text, f"settings file {p}", "settings",
+                      "the file is not valid TOML (see 'Settings file' in README.md)")
     return base.with_overrides(data, str(p))
 
 

@@ -8,7 +8,6 @@ from __future__ import annotations
 
 import math
 
-import tomllib
 from dataclasses import field
 from pathlib import Path
 from typing import Annotated, Any, Mapping
@@ -16,7 +15,7 @@ from typing import Annotated, Any, Mapping
 import pydantic
 
 from model.errors import InputError
-from model.files import read_user_text
+from model.files import parse_toml, read_user_text
 from model.io.casemix import load_casemix
 from model.io.plans import GwpSourceName, Share, _Strict, _first_error, _quantity, format_of, volatile_key
 from model.reference import DEFAULT_GWP, GWP_SOURCES, Reference
@@ -167,12 +166,7 @@ def parse_scenario_text(text: str, source: str = "scenario", base_dir: Path | No
     """Read a scenario from TOML text. Raises InputError for malformed TOML or bad fields."""
     if len(text) > MAX_SCENARIO_BYTES:
         raise InputError(source, f"{len(text)} characters", f"a scenario file is at most {MAX_SCENARIO_BYTES} bytes")
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(source, "the file", f"not valid TOML ({exc})") from None
-    except RecursionError:
-        raise InputError(source, "the file", "nested too deeply to be a scenario") from None
+    data = parse_toml(text, source, "scenario", "not valid TOML (see 'Case-mix and scenario files' in README.md)")
     return scenario_from_dict(data, source, base_dir, casemix)
 
 
