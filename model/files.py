@@ -66,7 +66,8 @@ def toml_error(source: str, exc: Exception,
     return InputError(where, text.strip() or "malformed text", allowed)
 
 
-#: Deepest nesting of tables and arrays in a TOML file (the documented formats need 4).
+#: Deepest nesting of tables and arrays in a TOML file below the document itself (the
+#: documented formats need 2: ``[[phases]]`` is an array of tables).
 MAX_TOML_DEPTH = 8
 
 
@@ -108,12 +109,13 @@ def parse_toml(text: str, source: str, kind: str,
 
 
 def toml_depth(value, stop: int = MAX_TOML_DEPTH) -> int:
-    """Nesting depth of tables and arrays (a flat table is 1), without recursion.
+    """Nesting depth of tables and arrays below the document, without recursion.
 
-    Counting stops a level past ``stop``.
+    The document itself is level 0: ``a = 1`` is 0 deep, ``[t]`` or ``a = [1]`` 1 deep,
+    ``a = [[1]]`` 2 deep. Counting stops a level past ``stop``.
     """
     deepest = 0
-    stack = [(value, 1)]
+    stack = [(v, 1) for v in value.values()] if isinstance(value, dict) else [(value, 0)]
     while stack:
         item, level = stack.pop()
         if isinstance(item, (dict, list)):

@@ -320,3 +320,35 @@ def test_input_error_shows_a_deeply_nested_value_briefly():
         inner = inner["b"]
     message = str(InputError("field", value, "allowed"))
     assert len(message) < 200
+
+
+# --- 10. the upload limits mean what the README says ---------------------------------------
+
+
+def test_line_limit_does_not_count_the_cr_of_crlf():
+    from model.io.uploads import MAX_LINE_CHARS, check_upload
+
+    line = "FGH-1," + "x" * (MAX_LINE_CHARS - 6)
+    assert len(line) == MAX_LINE_CHARS
+    for ending in ("\n", "\r\n", ""):
+        data = ("case_id,note" + ending + line + ending).encode() if ending else ("case_id,note\n" + line).encode()
+        assert check_upload("r.csv", data, "records").text
+    for ending in ("\n", "\r\n"):
+        with pytest.raises(InputError, match=f"{MAX_LINE_CHARS + 1} characters"):
+            check_upload("r.csv", ("case_id,note" + ending + line + "x" + ending).encode(), "records")
+
+
+def test_depth_limit_counts_levels_below_the_document():
+    from model.files import MAX_TOML_DEPTH
+    from model.io.uploads import check_upload
+
+    def nested_array(levels):
+        return ("a = " + "[" * levels + "1" + "]" * levels + "\n").encode()
+
+    def nested_tables(levels):
+        return ("[" + ".".join(["t"] * levels) + "]\nx = 1\n").encode()
+
+    for build in (nested_array, nested_tables):
+        assert check_upload("s.toml", build(MAX_TOML_DEPTH), "settings")
+        with pytest.raises(InputError, match="nest"):
+            check_upload("s.toml", build(MAX_TOML_DEPTH + 1), "settings")

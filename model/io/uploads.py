@@ -78,7 +78,8 @@ _PARQUET_MAGIC = b"PAR1"
 # Control characters refused in text: all but tab, line feed, form feed, carriage return.
 _CONTROL = re.compile("[\x00-\x08\x0b\x0e-\x1f\x7f]")
 _CONTROL_OR_BREAK = re.compile("[\x00-\x1f\x7f\x85\u2028\u2029]")
-_LONG_LINE = re.compile("^[^\n]{%d}" % (MAX_LINE_CHARS + 1), re.MULTILINE)
+# A line longer than the limit, its line break (LF or CR LF) not counted.
+_LONG_LINE = re.compile("^[^\n]{%d}(?!\r?(?:\n|\\Z))" % MAX_LINE_CHARS, re.MULTILINE)
 
 
 @dataclass(frozen=True)
@@ -242,6 +243,8 @@ def _check_lines(text: str, where: str) -> None:
         start = text.rfind("\n", 0, found.start()) + 1
         end = text.find("\n", start)
         length = (len(text) if end < 0 else end) - start
+        if text[start:start + length].endswith("\r"):
+            length -= 1  # the CR of a CR LF line break
         raise InputError(f"{where}, line {text.count(chr(10), 0, start) + 1}", f"{length} characters",
                          f"a line is at most {MAX_LINE_CHARS:,} characters")
 
