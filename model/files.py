@@ -15,6 +15,34 @@ def shown_path(path) -> str:
     return text if len(text) <= 76 else "..." + text[-73:]
 
 
+def path_kind(path, field: str) -> str:
+    """What a user's path names: ``"file"``, ``"folder"``, ``"missing"`` or ``"other"``.
+
+    Parameters
+    ----------
+    path : str or PathLike
+        The path as given (typed, or read from a file).
+    field : str
+        Where the path comes from, for the message.
+
+    Raises
+    ------
+    InputError
+        The path cannot be looked up at all: a name too long, a NUL character, no
+        permission to the folder, a loop of links (any operating-system error).
+    """
+    try:
+        p = Path(path)
+        if p.is_file():
+            return "file"
+        if p.is_dir():
+            return "folder"
+        return "missing" if not p.exists() and not p.is_symlink() else "other"
+    except (OSError, ValueError) as exc:  # ValueError: an embedded NUL
+        why = getattr(exc, "strerror", None) or str(exc) or type(exc).__name__
+        raise InputError(field, shown_path(path), f"cannot be looked up ({why}); give the path of a file") from None
+
+
 def read_user_text(path, kind: str, max_bytes: int, fmt: str = "TOML", encoding: str = "utf-8") -> str:
     """The text of a user's file (plan, settings, case mix, scenario).
 
@@ -52,6 +80,8 @@ def read_user_text(path, kind: str, max_bytes: int, fmt: str = "TOML", encoding:
         raise InputError(label, shown_path(p), f"not UTF-8 text; a {kind} file is {fmt} text") from None
     except OSError as exc:
         raise InputError(label, shown_path(p), f"cannot be read ({exc.strerror}); give a readable {fmt} {kind} file") from None
+    except ValueError:  # a NUL character in the path (UnicodeDecodeError is caught above)
+        raise InputError(label, shown_path(p), f"the path holds a NUL character; give the path of a {fmt} {kind} file") from None
 
 
 def toml_error(source: str, exc: Exception,

@@ -352,3 +352,38 @@ def test_depth_limit_counts_levels_below_the_document():
         assert check_upload("s.toml", build(MAX_TOML_DEPTH), "settings")
         with pytest.raises(InputError, match="nest"):
             check_upload("s.toml", build(MAX_TOML_DEPTH + 1), "settings")
+
+
+# --- 7. a file-system error on a named file is a clear message -----------------------------
+
+
+@pytest.mark.parametrize("plan_cell", ["p" * 300 + ".toml", "plans/" + "q" * 300 + ".toml",
+                                       "plans/a\x00b.toml", "/proc/self/mem/x.toml"])
+def test_case_mix_naming_an_impossible_plan_path_exits_2(tmp_path, capsys, plan_cell):
+    import csv
+    import io
+    import shutil
+
+    year = ROOT / "demo_data" / "year"
+    shutil.copytree(year, tmp_path / "year")
+    mix = tmp_path / "year" / "fernhollow_casemix.csv"
+    rows = list(csv.reader(io.StringIO(mix.read_text(encoding="utf-8"))))
+    header = next(i for i, r in enumerate(rows) if r and not r[0].startswith("#"))
+    col = rows[header].index("plan")
+    rows[header + 1][col] = plan_cell
+    out = io.StringIO()
+    csv.writer(out, lineterminator="\n").writerows(rows)
+    mix.write_text(out.getvalue(), encoding="utf-8")
+    status, _, err = _cli(["year", tmp_path / "year" / "baseline_2l.toml"], capsys)
+    assert status == 2 and err.count("\n") == 1 and "plan" in err
+
+
+@pytest.mark.parametrize("args", [
+    ["audit", "r" * 300 + ".csv"],
+    ["audit", BIRCH, "--purchases", "p" * 300 + ".csv"],
+    ["case", "c" * 300 + ".toml"],
+    ["year", "y" * 300 + ".toml"],
+])
+def test_over_long_file_names_on_the_command_line_exit_2(capsys, args):
+    status, _, err = _cli(args, capsys)
+    assert status == 2 and err.count("\n") == 1

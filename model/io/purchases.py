@@ -22,6 +22,7 @@ import numpy as np
 import pandas as pd
 
 from model.errors import InputError
+from model.files import path_kind, shown_path
 from model.io.csv_lines import split_csv_lines
 from model.reference import DEFAULT_REFERENCE, Reference, STANDARD_PRESSURE_KPA, normalise_agent_name
 from model.units import one_number_and_unit, registry, safe_quantity_text
@@ -119,9 +120,10 @@ def load_purchases(path, reference: Reference = DEFAULT_REFERENCE, temperature_c
     """
     p = Path(path)
     where = str(p)
-    if not p.is_file():
-        raise InputError(where, where, "that is a folder; give a purchases file (.csv or .parquet)"
-                         if p.is_dir() else "the purchases file does not exist")
+    found = path_kind(p, "purchases file")
+    if found != "file":
+        raise InputError(where, shown_path(p), "that is a folder; give a purchases file (.csv or .parquet)"
+                         if found == "folder" else "the purchases file does not exist")
     fmt = p.suffix.lower()
     if fmt == ".csv":
         rows, set_aside = _csv_rows(p, where)

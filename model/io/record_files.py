@@ -10,7 +10,7 @@ from pathlib import Path
 from typing import Iterable, Sequence
 
 from model.errors import InputError
-from model.files import shown_path
+from model.files import path_kind, shown_path
 from model.units import registry, safe_quantity_text
 
 
@@ -192,8 +192,9 @@ def inspect_file(path) -> RecordFile:
     fmt = p.suffix.lower().lstrip(".")
     if fmt not in RECORD_FORMATS:
         raise InputError(where, p.suffix or "no extension", "record files end in .csv or .parquet")
-    if not p.is_file():
-        raise InputError(where, where, "the file does not exist" if not p.exists() else "expected a file")
+    found = path_kind(p, "record file")
+    if found != "file":
+        raise InputError(where, shown_path(p), "the file does not exist" if found == "missing" else "expected a file")
     if fmt == "parquet":
         import pyarrow as pa
         import pyarrow.parquet as pq
