@@ -405,7 +405,7 @@ def check_store_file(path: str | os.PathLike) -> int:
     ------
     StoreError
         One line, for anything that is not a valid store of ours: not an SQLite file,
-        damaged, names that are not UTF-8, a ``meta`` table of another layout, no schema
+        damaged (SQLite's ``quick_check`` of every page), names that are not UTF-8, a ``meta`` table of another layout, no schema
         version, or a table or column of its version missing. The file is opened
         read-only and left byte for byte as it was.
     """
@@ -453,6 +453,10 @@ def check_store_file(path: str | os.PathLike) -> int:
                 what = f"table '{table}'" if table not in columns else \
                     f"column(s) {', '.join(sorted(missing))} of table '{table}'"
                 raise refuse(f"is a damaged store (schema {version} without its {what})")
+        if version <= SCHEMA_VERSION:  # pages and indexes sound (reads every page once)
+            found = text(con.execute("PRAGMA quick_check(1)").fetchone()[0])
+            if found != "ok":
+                raise refuse(f"is a damaged store ({found[:120]})")
         return version
     except sqlite3.Error as exc:
         raise refuse(f"is not a Fresh Gas Ledger store ({exc})") from None
