@@ -1,31 +1,24 @@
-"""Fuzzing the line-level classes of bad input of issue 15: no traceback, no good line lost.
+"""Fuzzing the line-level classes of bad input (issue 15): no traceback, no good line lost.
 
-Classes: unclosed quotes, lone carriage returns, trailing and missing fields, NUL bytes and
-bytes that are not UTF-8 in line-oriented files (records, purchases); huge and tiny numbers;
-list, struct, map and other Parquet column types; damaged Parquet pages; deep TOML; long
-and impossible file names; foreign and damaged SQLite stores.
+Classes: unclosed quotes, lone carriage returns, trailing, extra and missing fields, NUL
+bytes and bytes that are not UTF-8, CR LF line endings and comment lines in record and
+purchase CSV files; huge and tiny numbers in purchases, records and case mixes.
 
-Invariants: each reader returns its result or raises ``InputError`` (the store: its
-``StoreError``, leaving the file as it was). For line-oriented files every good line is
-used: the totals equal those of the same file without its bad lines, and each bad line is
-set aside under its own line number. Examples are derandomized in CI (CI=true), as in the
-other fuzz files; the slow readers (duckdb, SQLite) get fewer examples than the fast ones.
+Invariants: each reader returns its result or raises ``InputError``; every good line is
+used (totals equal those of the same file without its bad lines) and each bad line is set
+aside under its own line number. The file-level classes are in ``test_fuzz_bad_files.py``.
 """
 
 from __future__ import annotations
 
 import csv
-import hashlib
 import io
 import math
-import os
-import sqlite3
-import tempfile
 from pathlib import Path
 
 import numpy as np
 import pytest
-from hypothesis import HealthCheck, given, settings
+from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from model.audit.engine import audit_records
@@ -33,22 +26,9 @@ from model.errors import InputError
 from model.io import purchases
 from model.io.csv_lines import split_csv_lines
 
+from fuzzing import FUZZ, SLOW, scratch  # noqa: F401  (scratch: fixture)
+
 ROOT = Path(__file__).resolve().parents[1]
-
-FUZZ = settings(max_examples=1000, deadline=None, derandomize=bool(os.environ.get("CI")),
-                suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large,
-                                       HealthCheck.filter_too_much, HealthCheck.function_scoped_fixture])
-SLOW = settings(FUZZ, max_examples=80)
-
-
-@pytest.fixture(scope="module")
-def scratch(tmp_path_factory):
-    """A folder for fuzz files; duckdb's spill folders go there too."""
-    folder = tmp_path_factory.mktemp("fuzz_bad")
-    old = tempfile.tempdir
-    tempfile.tempdir = str(folder)
-    yield folder
-    tempfile.tempdir = old
 
 
 # --- bad lines of a line-oriented CSV file ----------------------------------------------
