@@ -369,8 +369,8 @@ class Reference:
                 where = f"{origin}: gwp.{skey}.{aname}"
                 agent = self.agent(aname, where)
                 number = _finite(raw, where)
-                if number < 0:
-                    raise InputError(where, raw, "must not be negative")
+                if not 0 <= number <= MAX_GWP:
+                    raise InputError(where, raw, f"expected a GWP from 0 to {MAX_GWP:g}")
                 old = values.get(agent.name) or Sourced(None, "kg CO2e/kg", "no default")
                 values[agent.name] = Sourced(number, "kg CO2e/kg", f"user override ({origin})",
                                              USER, old.default or old)
@@ -471,6 +471,9 @@ def _non_negative(raw, where) -> float:
     return number
 
 
+#: Highest GWP a user may give. [kg CO2e/kg] Common practice, no source: above every
+#: published value (the highest, of SF6, is some 25,000), small enough that CO2e stays finite.
+MAX_GWP = 1e6
 #: Highest unit price accepted (per bottle, per 1000 L, per kg), in any currency. Common
 #: practice, no source: room for currencies of many digits, small enough that a year's
 #: cost stays a finite number.

@@ -258,6 +258,8 @@ def test_prices_and_month_weights_have_upper_bounds(tmp_path):
     with pytest.raises(InputError, match="at most"):
         Reference().with_overrides({"prices": {"bottle": {"sevoflurane": 1e308}}}, "settings")
     assert Reference().with_overrides({"prices": {"oxygen_per_1000_l": MAX_PRICE}}, "s").prices.oxygen_per_1000_l == MAX_PRICE
+    with pytest.raises(InputError, match="GWP"):
+        Reference().with_overrides({"gwp": {"user": {"sevoflurane": 1e308}}}, "settings")
     from model.io.scenario import parse_scenario_text
 
     text = (ROOT / "demo_data" / "year" / "baseline_2l.toml").read_text()
