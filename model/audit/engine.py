@@ -143,12 +143,14 @@ def audit_records(records, *, reference: Reference = DEFAULT_REFERENCE, gwp_sour
         records = read_records(records, reference=reference, gap_limit_min=gap_limit_min,
                                memory_limit=memory_limit, threads=threads, progress=progress, **kwargs)
         try:
-            return _audit(records, reference, gwp_source, temperature_c, pressure_kpa, capture_efficiency,
-                          high_flow_l_min, high_flow_limit_min, engine, step)
+            with records.guard():
+                return _audit(records, reference, gwp_source, temperature_c, pressure_kpa, capture_efficiency,
+                              high_flow_l_min, high_flow_limit_min, engine, step)
         finally:
             records.close()
-    return _audit(records, reference, gwp_source, temperature_c, pressure_kpa, capture_efficiency,
-                  high_flow_l_min, high_flow_limit_min, engine, step)
+    with records.guard():
+        return _audit(records, reference, gwp_source, temperature_c, pressure_kpa, capture_efficiency,
+                      high_flow_l_min, high_flow_limit_min, engine, step)
 
 
 def _watched(con, work, step, low: float, high: float, total_rows: int):

@@ -6,7 +6,7 @@ from dataclasses import dataclass, field
 
 import pandas as pd
 
-from model.io.record_files import DEFAULT_GAP_LIMIT_MIN, MAX_FLOW_L_MIN, MAX_TOTAL_FLOW_L_MIN, RecordFile
+from model.io.record_files import DEFAULT_GAP_LIMIT_MIN, MAX_FLOW_L_MIN, MAX_TOTAL_FLOW_L_MIN, RecordFile, file_failures
 from model.reference import DEFAULT_REFERENCE, Reference
 
 
@@ -84,6 +84,14 @@ class Records:
     file_rows: list = field(default_factory=list)
     #: Agent text as read (trimmed) -> (reference agent name or "none", vaporizer maximum [%]).
     agent_map: dict = field(default_factory=dict)
+
+    def guard(self):
+        """A block in which any failure reading the files becomes one InputError naming the file.
+
+        Queries of the views read the files lazily (a damaged Parquet page fails only when
+        it is decoded): run them inside ``with records.guard():``.
+        """
+        return file_failures(self.files)
 
     def close(self) -> None:
         """Close the duckdb connection and remove its spill folder."""

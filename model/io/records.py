@@ -45,18 +45,9 @@ import pandas as pd
 from model.errors import InputError
 from model.freshgas import FLOW_BANDS
 from model.io.csv_lines import split_csv_lines
-from model.io.record_files import DEFAULT_GAP_LIMIT_MIN, MAX_FLOW_L_MIN, MAX_TOTAL_FLOW_L_MIN, NUMBER_FIELDS, RecordFile, _ident, _sql_str, expand_paths, inspect_file
+from model.io.record_files import DEFAULT_GAP_LIMIT_MIN, is_numeric_type, is_time_type, MAX_FLOW_L_MIN, MAX_TOTAL_FLOW_L_MIN, NUMBER_FIELDS, RecordFile, _ident, _sql_str, expand_paths, file_failures, inspect_file
 from model.io.record_report import DEFAULT_MAX_MESSAGES, ReadReport, Records
 from model.reference import AIR_O2_FRACTION, DEFAULT_REFERENCE, Reference, normalise_agent_name
-
-
-_NUMERIC_TYPES = ("DOUBLE", "FLOAT", "REAL", "INTEGER", "BIGINT", "SMALLINT", "TINYINT", "HUGEINT",
-                  "UBIGINT", "UINTEGER", "USMALLINT", "UTINYINT", "DECIMAL")
-
-
-def _is_numeric(duck_type: str) -> bool:
-    t = duck_type.upper()
-    return any(t.startswith(n) for n in _NUMERIC_TYPES)
 
 
 def _raw_select(rf: RecordFile, fileno: int, source_sql: str) -> str:
@@ -80,7 +71,7 @@ def _raw_select(rf: RecordFile, fileno: int, source_sql: str) -> str:
             continue
         col = _ident(c[f].source)
         factor = repr(float(c[f].factor))
-        if _is_numeric(rf.types.get(c[f].source, "VARCHAR")):
+        if is_numeric_type(rf.types.get(c[f].source, "VARCHAR")):
             parts.append(f"CAST({col} AS DOUBLE) * {factor} AS {f}")
         else:
             s = f"NULLIF(trim(CAST({col} AS VARCHAR)), '')"
@@ -106,8 +97,7 @@ def _raw_select(rf: RecordFile, fileno: int, source_sql: str) -> str:
     # Time: a date-time column wins over elapsed minutes.
     if "time" in c:
         col = _ident(c["time"].source)
-        ttype = rf.types.get(c["time"].source, "VARCHAR").upper()
-        if ttype.startswith("TIMESTAMP") or ttype == "DATE":
+        if is_time_type(rf.types.get(c["time"].source, "VARCHAR")):
             ts = f"CAST({col} AS TIMESTAMP)"
             parts.append(f"{ts} AS ts")
             parts.append("NULL::VARCHAR AS bad_time")
@@ -351,6 +341,28 @@ def read_records(paths, *, reference: Reference = DEFAULT_REFERENCE,
     step(0.0, f"Reading the headers of {len(files)} file(s)")
     specs = [inspect_file(f) for f in files]
     con, tmp = connect(memory_limit, threads)
+    try:
+        with file_failures(specs):
+            report, rej_rows, gl, per_file = _build_views(con, tmp, specs, reference, gap_limit_min, step)
+    except BaseException:
+        import shutil
+
+        con.close()
+        shutil.rmtree(tmp, ignore_errors=True)
+        raise
+    recs = Records(con, specs, report, gl, reference, tmp)
+    #: Each file's ``prepared`` query and row count, and the agent names as read.
+    recs.file_sql, recs.file_rows, recs.agent_map = (per_file["file_sql"], per_file["file_rows"],
+                                                     per_file["agent_map"])
+    recs.report.issues = pd.DataFrame(rej_rows, columns=["file", "row", "kind", "column", "value", "message"])
+    recs._rejected = len(rej_rows)
+    recs._max_messages = max_messages
+    step(0.4, "Records ready")
+    return recs
+
+
+def _build_views(con, tmp, specs, reference, gap_limit_min, step):
+    """Read the CSV files and create the ``raw``, ``prepared``, ``checked`` and ``valid`` views."""
     report = ReadReport(files=[s.path for s in specs], gap_limit_min=float(gap_limit_min))
     for s in specs:
         if s.ignored:
@@ -477,13 +489,9 @@ def read_records(paths, *, reference: Reference = DEFAULT_REFERENCE,
       {_band_sql('fgf')} AS band
     FROM v
     """)
-    recs = Records(con, specs, report, gl, reference, tmp)
-    recs.file_sql = [prepared.replace(_SOURCE, f"({file_selects[i]})") for i in range(len(specs))]
-    recs.file_rows = [int(file_rows[i]) for i in range(len(specs))]
-    recs.report.issues = pd.DataFrame(rej_rows, columns=["file", "row", "kind", "column", "value", "message"])
-    recs._rejected = len(rej_rows)
-    recs._max_messages = max_messages
-    #: Agent text as read (trimmed) -> (reference agent or "none", vaporizer maximum [%]).
-    recs.agent_map = {r: (k, d) for r, k, d in amap}
-    step(0.4, "Records ready")
-    return recs
+    per_file = {
+        "file_sql": [prepared.replace(_SOURCE, f"({file_selects[i]})") for i in range(len(specs))],
+        "file_rows": [int(file_rows[i]) for i in range(len(specs))],
+        "agent_map": {r: (k, d) for r, k, d in amap},
+    }
+    return report, rej_rows, gl, per_file
