@@ -72,6 +72,8 @@ def read_user_text(path, kind: str, max_bytes: int, fmt: str = "TOML", encoding:
         if size > max_bytes:
             raise InputError(label, shown_path(p), f"{size} bytes; a {kind} file is at most {max_bytes} bytes")
         return p.read_bytes().decode(encoding)
+    except InputError:
+        raise  # (a ValueError too: not to be taken for a NUL in the path below)
     except FileNotFoundError:
         raise InputError(label, shown_path(p), f"no such file (it does not exist); give the path of a {fmt} {kind} file") from None
     except IsADirectoryError:

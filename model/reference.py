@@ -386,8 +386,10 @@ class Reference:
                 where = f"{origin}: gwp.{skey}.{aname}"
                 agent = self.agent(aname, where)
                 number = _finite(raw, where)
-                if not 0 <= number <= MAX_GWP:
-                    raise InputError(where, raw, f"expected a GWP from 0 to {MAX_GWP:g}")
+                if number < 0:
+                    raise InputError(where, raw, "must not be negative")
+                if number > MAX_GWP:
+                    raise InputError(where, raw, f"a GWP is at most {MAX_GWP:g}")
                 old = values.get(agent.name) or Sourced(None, "kg CO2e/kg", "no default")
                 values[agent.name] = Sourced(number, "kg CO2e/kg", f"user override ({origin})",
                                              USER, old.default or old)
