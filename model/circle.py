@@ -20,7 +20,9 @@ behind the textbook steady-state inspired O2 (docs/methods.md, Inspired oxygen).
 
 Integration and bookkeeping
 ---------------------------
-Each phase is cut into equal steps of at most ``step_min`` (0.25 min by default). A step
+Each phase is cut into steps (:func:`step_schedule`): 0.25 min over its first 10 minutes,
+then 1 min steps growing to 5 % of the time into the phase, so a day-long phase takes some
+hundred steps rather than fifteen hundred. A step
 is a backward-Euler (implicit) step of the linear system: unconditionally stable, never
 negative, and exact at steady state. The tissue compartments are eliminated in closed form,
 leaving a 2 x 2 system (circuit, lungs) per species and case, solved explicitly with numpy
@@ -65,6 +67,13 @@ ABSORBENT_CAPACITY_L_PER_KG = 150.0
 STEP_MIN = 0.25
 FINE_MIN = 10.0
 COARSE_STEP_MIN = 1.0
+#: Past ``FINE_MIN``, a step is at most this share of the time into the phase (and at least
+#: ``COARSE_STEP_MIN``): 1 min steps up to 20 min, 3 min at an hour, 72 min at a day, so a
+#: phase of any length takes some hundred steps (a day's phase 88 coarse steps instead of
+#: 1,430). Late in a phase only the slow tissues still move, on time scales of hours. A
+#: numerical choice, no source: tests/test_circle.py checks the demo plans and day-long
+#: phases against a uniform fine step.
+STEP_GROWTH = 0.05
 #: End-tidal agent within this share of its target counts as reached. [1]
 #: Common practice, no source.
 TARGET_TOLERANCE = 0.05
@@ -169,6 +178,56 @@ def rebreathed_share(fgf_l_min, minute_ventilation_l_min):
     fgf = np.asarray(fgf_l_min, dtype=float)
     ve = np.asarray(minute_ventilation_l_min, dtype=float)
     return np.clip(1.0 - fgf / ve, 0.0, 1.0)
+
+
+def step_schedule(minutes, step_min=STEP_MIN, fine_min=FINE_MIN, coarse_step_min=COARSE_STEP_MIN,
+                  growth=STEP_GROWTH) -> tuple:
+    """Integration steps of one phase for many cases: ``((dt, n), ...)``.
+
+    Parameters
+    ----------
+    minutes : float or array_like
+        The phase's duration in each case. [min]
+    step_min, fine_min : float
+        Step over the first ``fine_min`` minutes. [min]
+    coarse_step_min : float
+        Shortest step after them. [min]
+    growth : float
+        After them a step is at most ``growth`` x the time into the phase. [1]
+
+    Returns
+    -------
+    tuple of (ndarray, int)
+        Segments of ``n`` steps of length ``dt`` (one per case, shape of ``minutes``). Cases
+        share the step count (that of the longest); each case scales the steps to its own
+        duration, so every case's steps keep within both bounds.
+    """
+    minutes = np.asarray(minutes, dtype=float)
+    longest = float(np.max(minutes)) if minutes.size else 0.0
+    if longest <= 0:
+        return ()
+    fine_part = np.minimum(minutes, fine_min)
+    n_fine = max(1, int(math.ceil(min(longest, fine_min) / step_min - 1e-9)))
+    segments = [(fine_part / n_fine, n_fine)]
+    coarse = longest - fine_min
+    if coarse > 1e-9:
+        # The longest case's coarse steps; runs of equal steps stay one segment.
+        t, sizes = fine_min, []
+        while t < longest - 1e-9:
+            dt = min(max(coarse_step_min, growth * t), longest - t)
+            sizes.append(dt)
+            t += dt
+        if len(sizes) > 1 and sizes[-1] < 0.5 * sizes[-2]:  # no sliver at the end
+            sizes[-2] += sizes.pop()
+        share = (minutes - fine_part) / coarse
+        run = 1
+        for k, dt in enumerate(sizes):
+            if k + 1 < len(sizes) and abs(sizes[k + 1] - dt) <= 1e-12 * dt:
+                run += 1
+                continue
+            segments.append((dt * share, run))
+            run = 1
+    return tuple(segments)
 
 
 def _as_phase_array(value, shape, name):
@@ -352,19 +411,7 @@ def simulate_cases(agent: Agent, minutes, o2_l_min, air_l_min=0.0, n2o_l_min=0.0
     # Step schedule per phase: fine steps over the first ``fine_min`` minutes (wash-in,
     # the fast lung and vessel-rich dynamics), coarse steps after. Cases share the step
     # count; each case scales its own steps to its phase duration.
-    schedule = []
-    for i in range(n_phases):
-        longest = float(np.max(minutes[i]))
-        if longest <= 0:
-            schedule.append(())
-            continue
-        fine_part = np.minimum(minutes[i], fine_min)
-        n_fine = max(1, int(math.ceil(min(longest, fine_min) / step_min - 1e-9)))
-        segments = [(fine_part / n_fine, n_fine)]
-        if longest > fine_min + 1e-9:
-            n_coarse = int(math.ceil((longest - fine_min) / coarse_step_min - 1e-9))
-            segments.append(((minutes[i] - fine_part) / n_coarse, n_coarse))
-        schedule.append(tuple(segments))
+    schedule = [step_schedule(minutes[i], step_min, fine_min, coarse_step_min) for i in range(n_phases)]
     total_steps = sum(n for segs in schedule for _, n in segs)
     series = None
     if record:

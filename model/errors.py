@@ -2,6 +2,14 @@
 
 from __future__ import annotations
 
+import reprlib
+
+# A value shown in a message is cut short, however deep or long (a nested table of a
+# thousand levels would otherwise exhaust the recursion limit in repr).
+_REPR = reprlib.Repr()
+_REPR.maxlevel, _REPR.maxdict, _REPR.maxlist, _REPR.maxtuple, _REPR.maxset = 3, 4, 4, 4, 4
+_REPR.maxstring = _REPR.maxother = 60
+
 
 class InputError(ValueError):
     """Bad user input: a field, a file or a flag.
@@ -14,7 +22,7 @@ class InputError(ValueError):
         self.field = field
         self.value = value
         self.allowed = allowed
-        shown = repr(value) if not isinstance(value, str) else f"'{_one_line(value)}'"
+        shown = _REPR.repr(value) if not isinstance(value, str) else f"'{_one_line(value)}'"
         if len(shown) > 80:
             shown = shown[:77] + "..."
         super().__init__(_one_line(f"{field}: got {shown}; {allowed}"))

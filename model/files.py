@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import re
+import tomllib
 from pathlib import Path
 
 from model.errors import InputError
@@ -12,6 +13,34 @@ def shown_path(path) -> str:
     """A path short enough for a one-line message, keeping its end (the file name)."""
     text = str(path)
     return text if len(text) <= 76 else "..." + text[-73:]
+
+
+def path_kind(path, field: str) -> str:
+    """What a user's path names: ``"file"``, ``"folder"``, ``"missing"`` or ``"other"``.
+
+    Parameters
+    ----------
+    path : str or PathLike
+        The path as given (typed, or read from a file).
+    field : str
+        Where the path comes from, for the message.
+
+    Raises
+    ------
+    InputError
+        The path cannot be looked up at all: a name too long, a NUL character, no
+        permission to the folder, a loop of links (any operating-system error).
+    """
+    try:
+        p = Path(path)
+        if p.is_file():
+            return "file"
+        if p.is_dir():
+            return "folder"
+        return "missing" if not p.exists() and not p.is_symlink() else "other"
+    except (OSError, ValueError) as exc:  # ValueError: an embedded NUL
+        why = getattr(exc, "strerror", None) or str(exc) or type(exc).__name__
+        raise InputError(field, shown_path(path), f"cannot be looked up ({why}); give the path of a file") from None
 
 
 def read_user_text(path, kind: str, max_bytes: int, fmt: str = "TOML", encoding: str = "utf-8") -> str:
@@ -43,6 +72,8 @@ def read_user_text(path, kind: str, max_bytes: int, fmt: str = "TOML", encoding:
         if size > max_bytes:
             raise InputError(label, shown_path(p), f"{size} bytes; a {kind} file is at most {max_bytes} bytes")
         return p.read_bytes().decode(encoding)
+    except InputError:
+        raise  # (a ValueError too: not to be taken for a NUL in the path below)
     except FileNotFoundError:
         raise InputError(label, shown_path(p), f"no such file (it does not exist); give the path of a {fmt} {kind} file") from None
     except IsADirectoryError:
@@ -51,6 +82,8 @@ def read_user_text(path, kind: str, max_bytes: int, fmt: str = "TOML", encoding:
         raise InputError(label, shown_path(p), f"not UTF-8 text; a {kind} file is {fmt} text") from None
     except OSError as exc:
         raise InputError(label, shown_path(p), f"cannot be read ({exc.strerror}); give a readable {fmt} {kind} file") from None
+    except ValueError:  # a NUL character in the path (UnicodeDecodeError is caught above)
+        raise InputError(label, shown_path(p), f"the path holds a NUL character; give the path of a {fmt} {kind} file") from None
 
 
 def toml_error(source: str, exc: Exception,
@@ -63,3 +96,63 @@ def toml_error(source: str, exc: Exception,
         where = f"{source} (line {match.group(1)}, column {match.group(2)})"
         text = text[:match.start()] + text[match.end():]
     return InputError(where, text.strip() or "malformed text", allowed)
+
+
+#: Deepest nesting of tables and arrays in a TOML file below the document itself (the
+#: documented formats need 2: ``[[phases]]`` is an array of tables).
+MAX_TOML_DEPTH = 8
+
+
+def parse_toml(text: str, source: str, kind: str,
+               allowed: str = "the file is not valid TOML (see the plan format in README.md)") -> dict:
+    """Parse a user's TOML text, refusing nesting deeper than :data:`MAX_TOML_DEPTH`.
+
+    The one TOML guard of the project: the upload check (pages) and the file readers
+    (command line) both call it, so a file refused on one is refused on the other.
+
+    Parameters
+    ----------
+    text : str
+        The TOML text.
+    source : str
+        Where it comes from (file name), for messages.
+    kind : str
+        What the file is ("plan", "scenario"), for messages.
+    allowed : str
+        What to say when the text is not valid TOML.
+
+    Raises
+    ------
+    InputError
+        Not valid TOML (naming line and column), or nested too deeply.
+    """
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise toml_error(source, exc, allowed) from None
+    except RecursionError:
+        raise InputError(source, "nesting too deep",
+                         f"tables and arrays nest at most {MAX_TOML_DEPTH} deep in a {kind} file") from None
+    depth = toml_depth(data)
+    if depth > MAX_TOML_DEPTH:
+        raise InputError(source, f"nesting {depth} deep",
+                         f"tables and arrays nest at most {MAX_TOML_DEPTH} deep in a {kind} file")
+    return data
+
+
+def toml_depth(value, stop: int = MAX_TOML_DEPTH) -> int:
+    """Nesting depth of tables and arrays below the document, without recursion.
+
+    The document itself is level 0: ``a = 1`` is 0 deep, ``[t]`` or ``a = [1]`` 1 deep,
+    ``a = [[1]]`` 2 deep. Counting stops a level past ``stop``.
+    """
+    deepest = 0
+    stack = [(v, 1) for v in value.values()] if isinstance(value, dict) else [(value, 0)]
+    while stack:
+        item, level = stack.pop()
+        if isinstance(item, (dict, list)):
+            deepest = max(deepest, level)
+            if deepest > stop:
+                break
+            stack.extend((v, level + 1) for v in (item.values() if isinstance(item, dict) else item))
+    return deepest

@@ -5,14 +5,13 @@ from __future__ import annotations
 import dataclasses
 import math
 import os
-import tomllib
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 from types import MappingProxyType
 from typing import Mapping
 
 from model.errors import InputError
-from model.files import read_user_text, shown_path
+from model.files import parse_toml, read_user_text
 
 
 #: Largest settings file read. [bytes]
@@ -389,6 +388,8 @@ class Reference:
                 number = _finite(raw, where)
                 if number < 0:
                     raise InputError(where, raw, "must not be negative")
+                if number > MAX_GWP:
+                    raise InputError(where, raw, f"a GWP is at most {MAX_GWP:g}")
                 old = values.get(agent.name) or Sourced(None, "kg CO2e/kg", "no default")
                 values[agent.name] = Sourced(number, "kg CO2e/kg", f"user override ({origin})",
                                              USER, old.default or old)
@@ -407,10 +408,10 @@ class Reference:
                     bottle = dict(prices.bottle)
                     for aname, braw in _table(raw, where).items():
                         agent = self.volatile(aname, f"{where}.{aname}")
-                        bottle[agent.name] = _non_negative(braw, f"{where}.{aname}")
+                        bottle[agent.name] = _price(braw, f"{where}.{aname}")
                     changes["bottle"] = MappingProxyType(bottle)
                 elif key in {f.name for f in dataclasses.fields(Prices)} - {"currency", "bottle", "basis"}:
-                    changes[key] = _non_negative(raw, where)
+                    changes[key] = _price(raw, where)
                 else:
                     allowed = [f.name for f in dataclasses.fields(Prices) if f.name != "basis"]
                     raise InputError(where, key, "allowed price fields are " + ", ".join(allowed))
@@ -503,6 +504,22 @@ def _non_negative(raw, where) -> float:
     return number
 
 
+#: Highest GWP a user may give. [kg CO2e/kg] Common practice, no source: above every
+#: published value (the highest, of SF6, is some 25,000), small enough that CO2e stays finite.
+MAX_GWP = 1e6
+#: Highest unit price accepted (per bottle, per 1000 L, per kg), in any currency. Common
+#: practice, no source: room for currencies of many digits, small enough that a year's
+#: cost stays a finite number.
+MAX_PRICE = 1e9
+
+
+def _price(raw, where) -> float:
+    number = _non_negative(raw, where)
+    if number > MAX_PRICE:
+        raise InputError(where, raw, f"a unit price is at most {MAX_PRICE:g}")
+    return number
+
+
 _ALIASES = {"n2o": "nitrous_oxide", "nitrous oxide": "nitrous_oxide", "nitrous": "nitrous_oxide",
             "o2": "oxygen", "sevo": "sevoflurane", "des": "desflurane", "iso": "isoflurane",
             "medical air": "air"}
@@ -529,14 +546,8 @@ def load_settings(path: str | os.PathLike | None = None, base: Reference | None 
         return base
     p = Path(path)
     text = read_user_text(p, "settings", MAX_SETTINGS_BYTES)
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        from model.files import toml_error
-        raise toml_error(f"settings file {p}", exc,
-                         "the file is not valid TOML (see 'Settings file' in docs/formats.md)") from None
-    except RecursionError:
-        raise InputError("settings file", shown_path(p), "nested too deeply to be a settings file") from None
+    data = parse_toml(text, f"settings file {p}", "settings",
+                      "the file is not valid TOML (see 'Settings file' in docs/formats.md)")
     return base.with_overrides(data, str(p))
 
 

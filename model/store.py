@@ -171,8 +171,7 @@ class Store:
             return _read_schema_version(con, self.path)
 
     def _open_and_migrate(self) -> None:
-        with self._connection(setup=False) as con:
-            found = _read_schema_version(con, self.path)
+        found = check_store_file(self.path)  # read-only: a foreign file stays as it was
         if found > SCHEMA_VERSION:
             raise StoreError("store file", str(self.path),
                              f"was written by a newer Fresh Gas Ledger (schema {found}; this version "
@@ -197,19 +196,32 @@ class Store:
             con.execute("INSERT OR IGNORE INTO meta (key, value) VALUES ('created_at', ?)", (_now(),))
 
     def _backup(self, suffix: str) -> Path:
-        """Copy the store to a file beside it (kept; the way back from a migration)."""
-        target = self.path.with_name(self.path.name + suffix)
-        n = 1
-        while target.exists():
-            target = self.path.with_name(f"{self.path.name}{suffix}.{n}")
-            n += 1
-        with self._connection() as src:
-            dst = sqlite3.connect(target)
-            try:
-                src.backup(dst)
-            finally:
-                dst.close()
-        return target
+        """Copy the store to a file beside it (kept; the way back from a migration).
+
+        The copy is written under a temporary name and given its name only when complete,
+        so a migration killed while copying never leaves an empty or partial backup under a
+        backup's name; an existing backup is never replaced.
+        """
+        partial = self.path.with_name(f"{self.path.name}{suffix}.incomplete-{os.getpid()}")
+        partial.unlink(missing_ok=True)
+        n = 0
+        try:
+            with self._connection() as src:
+                _copy_database(src, partial)
+            while True:
+                target = self.path.with_name(self.path.name + suffix + (f".{n}" if n else ""))
+                try:
+                    os.link(partial, target)  # fails if the name is taken: nothing replaced
+                    return target
+                except FileExistsError:
+                    n += 1
+                except OSError:  # no hard links on this file system
+                    if not target.exists():
+                        os.replace(partial, target)
+                        return target
+                    n += 1
+        finally:
+            partial.unlink(missing_ok=True)
 
     # ---- generic items ---------------------------------------------------------------
 
@@ -355,6 +367,102 @@ class Store:
         except ValueError:
             raise StoreError("store file", str(self.path), f"overrides '{name}' are not valid JSON") from None
         return data if isinstance(data, dict) else {}
+
+
+def _copy_database(src: sqlite3.Connection, target: Path) -> None:
+    """Copy an open database to a new file, flushed to disk."""
+    dst = sqlite3.connect(target)
+    try:
+        src.backup(dst)
+    finally:
+        dst.close()
+    with open(target, "rb+") as fh:
+        os.fsync(fh.fileno())
+
+
+#: Tables and columns each schema version must have (a file lacking one is not ours).
+_REQUIRED = {
+    1: {"meta": {"key", "value"}, "plans": {"name", "version", "toml", "saved_at"}},
+    2: {"meta": {"key", "value"}, "items": {"id", "kind", "name", "created_at", "hidden_at"},
+        "versions": {"id", "item_id", "version", "body", "note", "saved_at"}},
+}
+
+
+def check_store_file(path: str | os.PathLike) -> int:
+    """Check, read-only, that a file is a store of ours before anything else opens it.
+
+    Parameters
+    ----------
+    path : str or PathLike
+        The store file.
+
+    Returns
+    -------
+    int
+        0 for a file that does not exist yet, is empty or holds no table (a new store);
+        else its schema version (a newer one than this program's is returned as found).
+
+    Raises
+    ------
+    StoreError
+        One line, for anything that is not a valid store of ours: not an SQLite file,
+        damaged (SQLite's ``quick_check`` of every page), names that are not UTF-8, a ``meta`` table of another layout, no schema
+        version, or a table or column of its version missing. The file is opened
+        read-only and left byte for byte as it was.
+    """
+    p = Path(path)
+
+    def refuse(why: str) -> StoreError:
+        return StoreError("store file", str(p), f"{why}; set {STORE_ENV} to another file or move this one aside")
+
+    try:
+        if not p.exists() or p.stat().st_size == 0:
+            return 0
+        from urllib.parse import quote
+
+        con = sqlite3.connect(f"file:{quote(str(p.resolve()))}?mode=ro", uri=True,
+                              timeout=BUSY_TIMEOUT_MS / 1000, isolation_level=None)
+    except (OSError, ValueError, sqlite3.Error) as exc:
+        raise refuse(f"cannot be opened ({exc})") from None
+    con.text_factory = bytes  # names and values that are not UTF-8 must not raise
+
+    def text(value) -> str:
+        return value.decode("utf-8", errors="replace") if isinstance(value, bytes) else str(value)
+
+    try:
+        tables = {text(r[0]) for r in con.execute("SELECT name FROM sqlite_master WHERE type = 'table'")}
+        if not tables:
+            return 0
+        if "meta" not in tables:
+            raise refuse(f"is an SQLite file of another program (tables: {', '.join(sorted(tables)[:5])})")
+        columns = {t: {text(r[1]) for r in con.execute(f'PRAGMA table_info("{t}")')}
+                   for t in tables if t.isidentifier()}
+        if not {"key", "value"} <= columns.get("meta", set()):
+            raise refuse("is not a Fresh Gas Ledger store (its meta table has another layout)")
+        row = con.execute("SELECT value FROM meta WHERE key = 'schema_version'").fetchone()
+        if row is None:
+            raise refuse("is not a Fresh Gas Ledger store (no schema version)")
+        try:
+            version = int(text(row[0]))
+        except ValueError:
+            raise refuse(f"has an unreadable schema version {text(row[0])[:20]!r}") from None
+        if version < 1:
+            raise refuse(f"has an unreadable schema version {version}")
+        for table, needed in _REQUIRED.get(version, {}).items():
+            missing = needed - columns.get(table, set())
+            if missing:
+                what = f"table '{table}'" if table not in columns else \
+                    f"column(s) {', '.join(sorted(missing))} of table '{table}'"
+                raise refuse(f"is a damaged store (schema {version} without its {what})")
+        if version <= SCHEMA_VERSION:  # pages and indexes sound (reads every page once)
+            found = text(con.execute("PRAGMA quick_check(1)").fetchone()[0])
+            if found != "ok":
+                raise refuse(f"is a damaged store ({found[:120]})")
+        return version
+    except sqlite3.Error as exc:
+        raise refuse(f"is not a Fresh Gas Ledger store ({exc})") from None
+    finally:
+        con.close()
 
 
 def _read_schema_version(con: sqlite3.Connection, path: Path) -> int:

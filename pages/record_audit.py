@@ -172,7 +172,8 @@ m[4].metric(f"CO2e ({view.co2e_unit})", view.co2e_number(total["co2e_total_kg"])
 m[5].metric("Cost", view.money(total["cost_total"]))
 st.caption(f"GWP source: {result.gwp_label}. Every delivered gram counts as emitted (no uptake model). "
            f"{int(total['high_flow_cases']):,} case(s) ran {high_limit:g} min or more above {high_flow:g} L/min. "
-           f"Time-weighted fresh gas flow {total['time_weighted_fgf_l_min']:,.2f} L/min. "
+           + ("" if pd.isna(total["time_weighted_fgf_l_min"]) else
+              f"Time-weighted fresh gas flow {total['time_weighted_fgf_l_min']:,.2f} L/min. ") +
            f"CO2 absorbent, estimated: {total['absorbent_g'] / 1000:,.1f} kg, {view.money(total['cost_absorbent'])} "
            f"(not in the cost above).", help="Absorbent: " + result.absorbent_note())
 

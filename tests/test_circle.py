@@ -352,6 +352,31 @@ def test_step_schedule_error_is_under_one_percent():
             assert coarse[key][0] == pytest.approx(fine[key][0], rel=0.01), (name, key)
 
 
+def test_growing_steps_keep_day_long_phases_within_one_percent():
+    # Reference: the same system integrated with a uniform 0.1 min step (a numerical check,
+    # no outside source). Steps past the first minutes grow with the time into the phase.
+    for name in ("sevoflurane", "isoflurane"):
+        agent = DEFAULT_REFERENCE.volatile(name)
+        args = (agent, [[10, 10], [1440, 300]], [[2, 2], [0.3, 1.0]], [[4, 4], [0.2, 1.0]], 0.0,
+                [[np.nan, np.nan], [np.nan, 2.0]], [[1.0, 1.0], [1.0, np.nan]])
+        coarse = simulate_cases(*args)
+        fine = simulate_cases(*args, step_min=0.1, fine_min=1e9)
+        for key in ("liquid_ml", "agent_uptake_l", "min_inspired_o2", "absorbent_g"):
+            assert coarse[key] == pytest.approx(fine[key], rel=0.01), (name, key)
+
+
+def test_step_count_grows_slowly_with_phase_length():
+    from model.circle import step_schedule
+
+    def steps(minutes):
+        return sum(n for _, n in step_schedule(minutes))
+
+    # 40 fine steps, then 1 min steps to 20 min, then 5 % of the time into the phase.
+    assert steps(60.0) < 80 and steps(24 * 60) < 140 and steps(150 * 24 * 60.0) < 260
+    sched = step_schedule(np.array([24 * 60.0, 90.0, 5.0]))
+    assert sum(dt * n for dt, n in sched) == pytest.approx([24 * 60.0, 90.0, 5.0], rel=1e-12)
+
+
 def test_zero_duration_phases_are_skipped_per_case():
     sim = simulate_cases(SEVO, [[10.0, 10.0], [0.0, 30.0]], 2.0, 2.0, 0.0, 2.0)
     assert sim["phase_liquid_ml"][1, 0] == 0.0 and sim["phase_liquid_ml"][1, 1] > 0

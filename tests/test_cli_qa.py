@@ -156,12 +156,18 @@ def test_audit_parquet_elapsed_duration_is_read_in_its_unit(unit, per_second, tm
     assert data["report"]["gaps"] == 0
 
 
-def test_purchases_line_with_extra_fields_is_refused_not_shifted(tmp_path, capsys):
+def test_purchases_line_with_extra_fields_is_set_aside_not_shifted(tmp_path, capsys):
+    # Issue 15: the line is set aside alone (it once refused the whole file).
     purchases = tmp_path / "p.csv"
-    purchases.write_text("month,item,quantity,unit,size\n2025-09,sevoflurane,9,bottle,,,\n",
-                         encoding="utf-8")
-    status, _, err = run(["audit", BIRCH, "--purchases", purchases], capsys)
-    assert_one_line_error(status, err, "p.csv", "more fields than the header")
+    purchases.write_text("month,item,quantity,unit,size\n2025-09,sevoflurane,9,bottle,,,\n"
+                         "2025-09,desflurane,2,bottle,\n", encoding="utf-8")
+    status, out, err = run(["audit", BIRCH, "--purchases", purchases, "--json"], capsys)
+    assert status == 0, err
+    data = json.loads(out)
+    assert len(data["purchase_lines_set_aside"]) == 1
+    assert "line 2" in data["purchase_lines_set_aside"][0] and "7 fields" in data["purchase_lines_set_aside"][0]
+    bought = {r["item"] for r in data["reconciliation"] if r["purchased"]}
+    assert bought == {"desflurane"}
 
 
 def test_audit_table_of_a_single_sample_case_prints_no_nan(tmp_path, capsys):

@@ -8,7 +8,6 @@ examples than the header and unit parsing in front of it, which is fuzzed in tho
 """
 
 import os
-import tempfile
 from pathlib import Path
 
 import pytest
@@ -20,6 +19,8 @@ from model.io import purchases, record_files, records, scenario
 from model.io.casemix import CASEMIX_COLUMNS, parse_casemix_text
 from model.year.inputs import CaseMix
 from model.errors import InputError
+
+from fuzzing import scratch  # noqa: F401  (a fixture)
 
 ROOT = Path(__file__).resolve().parents[1]
 YEAR = ROOT / "demo_data" / "year"
@@ -179,16 +180,6 @@ def test_scenario_from_raw_bytes_gives_scenario_or_input_error(data, demo_mix):
 
 RECORD_COLUMNS = sorted({alias for _, aliases in record_files.FIELDS.values() for alias in aliases})
 RECORD_TEXT = "\n".join((RECORDS / "fernhollow_birch_cases.csv").read_text().splitlines()[:40]) + "\n"
-
-
-@pytest.fixture(scope="module")
-def scratch(tmp_path_factory):
-    """A folder for fuzz files; duckdb's spill folders go there too, not to /tmp."""
-    folder = tmp_path_factory.mktemp("fuzz")
-    old = tempfile.tempdir
-    tempfile.tempdir = str(folder)
-    yield folder
-    tempfile.tempdir = old
 
 
 def _write(folder: Path, name: str, data: bytes) -> Path:

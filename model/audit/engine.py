@@ -12,10 +12,14 @@ The integration over samples runs in duckdb SQL; the per-case sums then go throu
 from __future__ import annotations
 
 import math
+import threading
+from concurrent.futures import ThreadPoolExecutor
+
+import pandas as pd
 
 from model.audit.absorbent import absorbent_assumptions
 from model.audit.cases import case_results
-from model.audit.memory import IN_MEMORY_ROWS, _numpy_engine
+from model.audit.memory import IN_MEMORY_ROWS, _numpy_engine, read_parquet_file
 from model.audit.result import AuditResult, BAND_COLUMNS, DEFAULT_HIGH_FLOW_LIMIT_MIN, DEFAULT_HIGH_FLOW_L_MIN, ENGINES
 from model.errors import InputError
 from model.freshgas import FLOW_BAND_NAMES
@@ -139,12 +143,102 @@ def audit_records(records, *, reference: Reference = DEFAULT_REFERENCE, gwp_sour
         records = read_records(records, reference=reference, gap_limit_min=gap_limit_min,
                                memory_limit=memory_limit, threads=threads, progress=progress, **kwargs)
         try:
-            return _audit(records, reference, gwp_source, temperature_c, pressure_kpa, capture_efficiency,
-                          high_flow_l_min, high_flow_limit_min, engine, step)
+            with records.guard():
+                return _audit(records, reference, gwp_source, temperature_c, pressure_kpa, capture_efficiency,
+                              high_flow_l_min, high_flow_limit_min, engine, step)
         finally:
             records.close()
-    return _audit(records, reference, gwp_source, temperature_c, pressure_kpa, capture_efficiency,
-                  high_flow_l_min, high_flow_limit_min, engine, step)
+    with records.guard():
+        return _audit(records, reference, gwp_source, temperature_c, pressure_kpa, capture_efficiency,
+                      high_flow_l_min, high_flow_limit_min, engine, step)
+
+
+def _watched(con, work, step, low: float, high: float, total_rows: int):
+    """Run ``work`` (duckdb queries on ``con``) in a worker thread while telling ``step``
+    the share of the current query that duckdb reports done, as rows out of ``total_rows``.
+
+    The caller's thread only watches, so a progress callback that must run there (a page's
+    progress bar) can. Exceptions of ``work`` are raised here.
+    """
+    out: dict = {}
+
+    def run():
+        try:
+            out["value"] = work()
+        except BaseException as exc:  # handed to the caller's thread below
+            out["error"] = exc
+
+    worker = threading.Thread(target=run, name="gas-ledger-audit", daemon=True)
+    worker.start()
+    last = low
+    while True:
+        worker.join(0.5)
+        if not worker.is_alive():
+            break
+        done = con.query_progress()
+        fraction = low + (high - low) * done / 100.0 if done >= 0 else last
+        if fraction > last:
+            last = fraction
+            rows = int(total_rows * (fraction - low) / (high - low))
+            step(fraction, f"About {rows:,} of {total_rows:,} rows done")
+    if "error" in out:
+        raise out["error"]
+    return out["value"]
+
+
+def _read_file(records: Records, i: int):
+    """A Parquet file's columns read with pyarrow (see ``read_parquet_file``); (None, None) for CSV."""
+    return read_parquet_file(records, i) if records.files[i].format == "parquet" else (None, None)
+
+
+def _files_engine(records: Records, high_flow_l_min: float, minute_ventilation_l_min: float, step):
+    """The in-memory engine run on each file in turn, when no case spans two files.
+
+    Returns
+    -------
+    tuple or None
+        As :func:`model.audit.memory._numpy_engine` for the whole set, or None when a case
+        has samples in more than one file (its time checks and integration then need the
+        files together).
+    """
+    total = max(sum(records.file_rows), 1)
+    n_files = len(records.file_sql)
+    parts, time_rows, gap_rows = [], [], []
+    counts: dict = {}
+    done = 0
+    # Each file's rows come in file order, so the engine finds them grouped by case and skips its sort.
+    records.con.execute("SET preserve_insertion_order = true")
+    try:
+        # While one file is integrated, the next is read (pyarrow and numpy release the
+        # GIL, so the two use both cores); at most two files are in memory at once.
+        with ThreadPoolExecutor(max_workers=1, thread_name_prefix="gas-ledger-read") as reader:
+            ahead = reader.submit(_read_file, records, 0)
+            for i, sql in enumerate(records.file_sql):
+                step(0.45 + 0.45 * done / total, f"File {i + 1} of {n_files}: {done:,} of {total:,} rows done")
+                table, texts = ahead.result()
+                if i + 1 < n_files:
+                    ahead = reader.submit(_read_file, records, i + 1)
+                raw, c, t, g = _numpy_engine(records, high_flow_l_min, minute_ventilation_l_min,
+                                             sql if table is None else table, texts)
+                del table, texts
+                raw["_file"] = i
+                parts.append(raw)
+                for k, v in c.items():
+                    counts[k] = counts.get(k, 0) + int(v)
+                time_rows += t
+                gap_rows += g
+                done += records.file_rows[i]
+    finally:
+        records.con.execute("SET preserve_insertion_order = false")
+    step(0.9, f"{n_files} of {n_files} file(s): {done:,} of {total:,} rows done")
+    raw = pd.concat(parts, ignore_index=True) if len(parts) > 1 else parts[0]
+    if len(parts) > 1:
+        # A case in two files would need the files together: check none is.
+        per_file = raw[["case_id", "_file"]].drop_duplicates()
+        if per_file["case_id"].duplicated().any():
+            return None
+    limit = records._max_messages
+    return raw.drop(columns="_file"), counts, time_rows[:limit], gap_rows[:limit]
 
 
 def _audit(records, reference, gwp_source, temperature_c, pressure_kpa, capture_efficiency,
@@ -152,15 +246,26 @@ def _audit(records, reference, gwp_source, temperature_c, pressure_kpa, capture_
     step(0.45, "Integrating the samples of each case")
     if engine not in ENGINES:
         raise InputError("engine", engine, "allowed engines are " + ", ".join(ENGINES))
+    n_rows = sum(records.file_rows)
     if engine == "auto":
-        n_rows = records.con.sql("SELECT count(*) FROM raw").fetchall()[0][0]
-        engine = "memory" if n_rows <= IN_MEMORY_ROWS else "sql"
+        # File by file while each file fits in memory; one pass over every file otherwise.
+        engine = "files" if max(records.file_rows, default=0) <= IN_MEMORY_ROWS else "sql"
     absorbent = absorbent_assumptions(reference)
     ve = absorbent.minute_ventilation_l_min
-    if engine == "memory":
-        raw, counts, time_rows, gap_rows = _numpy_engine(records, high_flow_l_min, ve)
+    result = None
+    if engine == "files":
+        result = _files_engine(records, high_flow_l_min, ve, step)
+        if result is None:  # a case spans files: the whole set at once
+            engine = "memory" if n_rows <= IN_MEMORY_ROWS else "sql"
+            step(0.45, f"A case spans files: auditing all {n_rows:,} rows at once")
+    if result is not None:
+        raw, counts, time_rows, gap_rows = result
+    elif engine == "memory":
+        raw, counts, time_rows, gap_rows = _watched(
+            records.con, lambda: _numpy_engine(records, high_flow_l_min, ve), step, 0.45, 0.9, n_rows)
     else:
-        raw = records.con.sql(_case_sql(high_flow_l_min, ve)).df()
+        raw = _watched(records.con, lambda: records.con.sql(_case_sql(high_flow_l_min, ve)).df(),
+                       step, 0.45, 0.8, n_rows)
         step(0.8, "Counting set-aside rows")
         # Row checks need no window: count them from ``prepared``. The time checks set aside
         # the rest of the rows that passed them; only when there are some is the window
@@ -180,7 +285,7 @@ def _audit(records, reference, gwp_source, temperature_c, pressure_kpa, capture_
     step(0.9, "Costs and emissions")
     cases = case_results(raw, reference, gwp_source, temperature_c, pressure_kpa, capture_efficiency,
                          high_flow_limit_min, absorbent)
-    step(1.0, "Done")
+    step(1.0, f"Done: {n_rows:,} of {n_rows:,} rows in {len(records.files)} file(s)")
     settings = {"gap_limit_min": records.gap_limit_min, "high_flow_l_min": float(high_flow_l_min),
                 "high_flow_limit_min": float(high_flow_limit_min), "temperature_c": float(temperature_c),
                 "pressure_kpa": float(pressure_kpa), "capture_efficiency": float(capture_efficiency),

@@ -8,6 +8,7 @@ import pandas as pd
 from model.audit.result import BAND_COLUMNS
 from model.circle import rebreathed_share
 from model.freshgas import FLOW_BANDS
+from model.io.record_files import RecordFile
 from model.io.record_report import Records
 
 
@@ -32,8 +33,177 @@ def _float(table, name) -> np.ndarray:
     return np.asarray(_column(table, name).to_numpy(zero_copy_only=False), dtype=float)
 
 
-def _numpy_engine(recs: Records, high_flow_l_min: float, minute_ventilation_l_min: float):
+def _first_in_file_order(idx, fileno, row, limit):
+    """The first ``limit`` of the positions ``idx``, in file and row order (as the SQL engine lists them)."""
+    if len(idx) > 1:
+        idx = idx[np.lexsort((row[idx], fileno[idx]))]
+    return idx[:limit]
+
+
+class _Texts:
+    """A text column as codes (one per row, in file order) into its distinct values."""
+
+    def __init__(self, codes: np.ndarray, values):
+        self.codes = codes
+        self.values = values
+
+
+def _text_codes(col) -> _Texts:
+    """Codes of a text column (pyarrow, plain or dictionary) into its values as the SQL reads
+    them (``NULLIF(trim(x), '')``: spaces trimmed, empty is missing), worked out once per
+    distinct value; a missing value has the code ``len(values)``."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    arr = col.combine_chunks() if isinstance(col, pa.ChunkedArray) else col
+    if not pa.types.is_dictionary(arr.type):
+        arr = pc.dictionary_encode(arr)
+    values = pc.utf8_trim(arr.dictionary.cast(pa.string()), characters=" ")
+    values = pc.if_else(pc.equal(values, ""), pa.scalar(None, pa.string()), values)
+    recoded = pc.dictionary_encode(values)
+    names = recoded.dictionary
+    remap = np.append(recoded.indices.fill_null(len(names)).to_numpy(zero_copy_only=False).astype(np.int64),
+                      len(names))
+    idx = arr.indices.fill_null(-1).to_numpy(zero_copy_only=False).astype(np.int64)
+    return _Texts(remap[idx], names)  # index -1 (missing) takes the last entry: missing
+
+
+def _is_text(t) -> bool:
+    import pyarrow as pa
+
+    t = t.value_type if pa.types.is_dictionary(t) else t
+    return pa.types.is_string(t) or pa.types.is_large_string(t)
+
+
+def read_parquet_file(recs: Records, index: int):
+    """Read one Parquet file of a record set with pyarrow, each column once.
+
+    Returns
+    -------
+    table : pyarrow.Table or None
+        The columns the engine takes from the ``prepared`` query (``problem_a`` all
+        empty), when every row passes checks at least as strict as the SQL row checks;
+        None when some row may not (the SQL checks then run on the file, and say which).
+    texts : dict or None
+        Case id and theatre as codes (:class:`_Texts`); None when a text column is not
+        text in the file (the SQL's text form is then used row by row).
+
+    Notes
+    -----
+    The fast checks only ever refuse more than the SQL checks (``model.io.records``): a
+    row they accept has no row-level problem there. Values are computed as in the SQL
+    (each number ``CAST(x AS DOUBLE) * factor``, times as whole milliseconds since 1970 /
+    60000), so the results are the same to the last bit.
+    """
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    from model.io.record_files import MAX_FLOW_L_MIN, MAX_TOTAL_FLOW_L_MIN, NUMBER_FIELDS
+
+    rf = recs.files[index]
+    c = rf.columns
+    schema = pq.read_schema(rf.path)
+    text_fields = [f for f in ("case_id", "theatre", "agent") if f in c]
+    if not all(_is_text(schema.field(c[f].source).type) for f in text_fields):
+        return None, None
+    numbers = [f for f in NUMBER_FIELDS if f in c]
+    ttype = schema.field(c["time"].source).type if "time" in c else None
+    fast = (rf.flow_mode == "parts" and "date" not in c
+            and all(pa.types.is_integer(schema.field(c[f].source).type)
+                    or pa.types.is_floating(schema.field(c[f].source).type) for f in numbers)
+            and (ttype is None or (pa.types.is_timestamp(ttype) and ttype.tz is None)))
+    sources = [c[f].source for f in text_fields] + ([c["time"].source] if fast and ttype is not None else []) \
+        + ([c[f].source for f in numbers] if fast else [])
+    table = pq.read_table(rf.path, columns=sources, read_dictionary=[c[f].source for f in text_fields])
+    texts = {f: _text_codes(table[c[f].source]) for f in text_fields}
+    if "theatre" not in texts:
+        texts["theatre"] = _Texts(np.zeros(table.num_rows, dtype=np.int64), pa.array([], pa.string()))
+    case_texts = {k: texts[k] for k in ("case_id", "theatre")}
+    if not fast:
+        return None, case_texts
+    n = table.num_rows
+    ok = texts["case_id"].codes < len(texts["case_id"].values)
+    # Agents: each distinct text looked up once, as the SQL's CASE does.
+    agent_names = [recs.agent_map.get(v) for v in texts["agent"].values.to_pylist()] + [None]
+    known = np.array([a is not None for a in agent_names])
+    canon = sorted({a[0] for a in agent_names if a is not None})
+    canon_code = np.array([canon.index(a[0]) if a else 0 for a in agent_names], dtype=np.int32)
+    max_dial = np.array([a[1] if a else 0.0 for a in agent_names])
+    volatile = np.array([a is not None and a[0] != "none" for a in agent_names])
+    acode = texts["agent"].codes
+    ok &= known[acode]
+    values = {}
+    for f in numbers:
+        col = table[c[f].source]
+        x = col.to_numpy() if col.null_count == 0 else col.cast(pa.float64()).to_numpy(zero_copy_only=False)
+        x = x.astype(np.float64, copy=False)
+        if float(c[f].factor) != 1.0:  # x * 1.0 is x: skip the pass
+            x = x * float(c[f].factor)
+        if col.null_count == 0:
+            ok &= np.isfinite(x)
+        else:
+            valid = col.is_valid().to_numpy(zero_copy_only=False)
+            ok &= ~valid | np.isfinite(x)
+            x = np.where(valid, x, np.nan)
+        values[f] = x
+    flows = [values[f] for f in ("o2", "air", "n2o") if f in values]
+    present = np.zeros(n, dtype=bool)
+    total = np.zeros(n)
+    for x in flows:
+        known_x = ~np.isnan(x)
+        present |= known_x
+        x0 = np.where(known_x, x, 0.0)
+        ok &= (x0 >= 0) & (x0 <= MAX_FLOW_L_MIN)
+        total += x0
+    ok &= present & (total <= MAX_TOTAL_FLOW_L_MIN)
+    dial = values.get("dial", np.full(n, np.nan))
+    et = values.get("end_tidal", np.full(n, np.nan))
+    md = max_dial[acode]
+    ok &= ~(volatile[acode] & np.isnan(dial) & np.isnan(et))
+    ok &= ~((dial < 0) | (dial > md) | (et < 0) | (et > md))
+    if ttype is not None:
+        tcol = table[c["time"].source]
+        if tcol.null_count:
+            return None, case_texts
+        us = tcol.cast(pa.timestamp("us")).to_numpy().astype("datetime64[us]")  # duckdb TIMESTAMP: microseconds
+        ticks = us.astype(np.int64)
+        if n and ticks.min() < 0:
+            return None, case_texts
+        t_min = (ticks // 1000) / 60000.0
+        start = pa.array(us, pa.timestamp("us"))
+        # The engine takes the month of a case's first sample only, as "%Y-%m" text: the
+        # time itself gives the same text as the SQL's month (date_trunc) without a
+        # calendar conversion of every row.
+        month = start
+    else:
+        t_min = values["elapsed"]
+        ok &= ~np.isnan(t_min)
+        month = pa.nulls(n, pa.date32())
+        start = pa.nulls(n, pa.timestamp("us"))
+    if not bool(ok.all()):
+        return None, case_texts
+    zeros = np.zeros(n)
+    flow = {f: np.maximum(np.where(np.isnan(values[f]), 0.0, values[f]), 0.0) if f in values else zeros
+            for f in ("o2", "air", "n2o")}
+    out = pa.table({
+        "_fileno": pa.array(np.full(n, index, dtype=np.int32)),
+        "_row": pa.array(np.arange(1, n + 1, dtype=np.int64)),
+        "agent": pa.DictionaryArray.from_arrays(pa.array(canon_code[acode]), pa.array(canon, pa.string())),
+        "t_min": pa.array(t_min), "month": month, "start_hint": start,
+        "o2": pa.array(flow["o2"]), "air": pa.array(flow["air"]), "n2o": pa.array(flow["n2o"]),
+        "dial": pa.array(dial), "end_tidal": pa.array(et), "problem_a": pa.nulls(n, pa.string()),
+    })
+    return out, case_texts
+
+
+def _numpy_engine(recs: Records, high_flow_l_min: float, minute_ventilation_l_min: float,
+                  source: str = "SELECT * FROM prepared", texts: dict | None = None):
     """Time checks, integration and per-case sums in numpy.
+
+    ``source`` is the SQL query of the checked rows to work on (the view ``prepared`` of
+    every file, or the ``prepared`` query of one file, ``Records.file_sql``), or those
+    columns already read by :func:`read_parquet_file`. ``texts`` (from the same) gives the
+    case ids and theatres of that one file as codes, so no text travels per row.
 
     Returns
     -------
@@ -49,12 +219,16 @@ def _numpy_engine(recs: Records, high_flow_l_min: float, minute_ventilation_l_mi
     import pyarrow.compute as pc
 
     con = recs.con
-    rel = con.sql("""SELECT _fileno, _row, case_id, theatre, agent, t_min, month, start_hint,
-        greatest(o2, 0) AS o2, greatest(air, 0) AS air, greatest(n2o, 0) AS n2o, dial, end_tidal, problem_a
-        FROM prepared""")
-    table = rel.arrow()
-    if hasattr(table, "read_all"):
-        table = table.read_all()
+    if isinstance(source, str):
+        text_cols = "" if texts else "case_id, theatre, "
+        rel = con.sql(f"""SELECT _fileno, _row, {text_cols}agent, t_min, month, start_hint,
+            greatest(o2, 0) AS o2, greatest(air, 0) AS air, greatest(n2o, 0) AS n2o, dial, end_tidal, problem_a
+            FROM ({source})""")
+        table = rel.arrow()
+        if hasattr(table, "read_all"):
+            table = table.read_all()
+    else:  # the columns already read (``read_parquet_file``)
+        table = source
     n = table.num_rows
     problem_a = _column(table, "problem_a")
     counts = {}
@@ -62,28 +236,39 @@ def _numpy_engine(recs: Records, high_flow_l_min: float, minute_ventilation_l_mi
         vc = pc.value_counts(problem_a.drop_null())
         counts = {v["values"].as_py(): v["counts"].as_py() for v in vc}
     ok_a = problem_a.is_null().to_numpy(zero_copy_only=False)
-    case_codes = pc.dictionary_encode(_column(table, "case_id").fill_null(""))
-    code = case_codes.indices.to_numpy(zero_copy_only=False).astype(np.int64)
-    case_names = case_codes.dictionary
     fileno = _column(table, "_fileno").to_numpy(zero_copy_only=False).astype(np.int64)
     row = _column(table, "_row").to_numpy(zero_copy_only=False).astype(np.int64)
+    if texts:
+        # Parquet rows are numbered from 1 in file order: row - 1 is the row's place in the file.
+        in_order = n == len(texts["case_id"].codes) and (
+            not isinstance(source, str) or bool(np.all(row == np.arange(1, n + 1))))
+        pos = slice(None) if in_order else row - 1
+        code = texts["case_id"].codes[pos]
+        case_names = texts["case_id"].values
+        theatre_code = texts["theatre"].codes[pos]
+    else:
+        case_codes = pc.dictionary_encode(_column(table, "case_id").fill_null(""))
+        code = case_codes.indices.to_numpy(zero_copy_only=False).astype(np.int64)
+        case_names = case_codes.dictionary
     t = _float(table, "t_min")
     # One sort key: case, then file, then row. Records usually come grouped by case in file
     # order (case codes number cases by first appearance), and then no sort is needed.
     if n and fileno.max() < (1 << 8) and row.max() < (1 << 35) and code.max() < (1 << 20):
         key = (code << 43) | (fileno << 35) | row
-        order = np.arange(n) if bool(np.all(key[1:] > key[:-1])) else np.argsort(key, kind="stable")
+        in_key_order = bool(np.all(key[1:] > key[:-1]))
+        del key
+        order = np.arange(n) if in_key_order else np.argsort((code << 43) | (fileno << 35) | row, kind="stable")
     else:
         order = np.lexsort((row, fileno, code))
-    code_s, t_s, ok_s = code[order], t[order], ok_a[order]
+        in_key_order = False
+    # Already in order (the usual case): the sorted views are the columns themselves.
+    code_s, t_s, ok_s = (code, t, ok_a) if in_key_order else (code[order], t[order], ok_a[order])
     # Running maximum of the earlier A-valid times of the same case, exactly, through ranks.
     time_rows: list = []
-    valid_s = ok_s.copy()
-    nxt_same = np.zeros(len(code_s), dtype=bool)
-    if len(code_s):
-        nxt_same[:-1] = code_s[1:] == code_s[:-1]
-    t_ok = t_s[ok_s]
-    c_ok = code_s[ok_s]
+    valid_s = ok_s
+    all_ok = bool(ok_s.all())
+    t_ok = t_s if all_ok else t_s[ok_s]
+    c_ok = code_s if all_ok else code_s[ok_s]
     monotonic = bool(np.all((np.diff(t_ok) > 0) | (c_ok[1:] != c_ok[:-1]))) if len(t_ok) > 1 else True
     if ok_s.any() and not monotonic:
         _, rank = np.unique(np.where(ok_s, t_s, -np.inf), return_inverse=True)
@@ -100,29 +285,34 @@ def _numpy_engine(recs: Records, high_flow_l_min: float, minute_ventilation_l_mi
             # Time of the earlier maximum, for the message.
             prev_rank = np.where(has_prev, (prev - code_s * (1 << 32)) - 1, 0)
             sorted_t = np.unique(np.where(ok_s, t_s, -np.inf))
-            bad = np.flatnonzero(dup | back)[: recs._max_messages]
+            bad = _first_in_file_order(np.flatnonzero(dup | back), fileno[order], row[order], recs._max_messages)
             for i in bad:
                 j = order[i]
                 time_rows.append((int(fileno[j]), int(row[j]), "duplicate_time" if dup[i] else "time_backwards",
                                   case_names[int(code_s[i])].as_py(), float(t_s[i]), float(sorted_t[prev_rank[i]])))
-    vidx = order[valid_s]
-    cv = code[vidx]
-    tv = t[vidx]
+    all_valid = bool(valid_s.all())
+    vidx = order if in_key_order and all_valid else order[valid_s]
+    cv, tv = (code, t) if in_key_order and all_valid else (code[vidx], t[vidx])
     m = len(vidx)
     same_next = np.zeros(m, dtype=bool)
     dt_raw = np.full(m, np.nan)
     if m:
         same_next[:-1] = cv[1:] == cv[:-1]
         dt_raw[:-1] = np.where(same_next[:-1], np.diff(tv), np.nan)
-    gap = np.nan_to_num(dt_raw, nan=0.0) > recs.gap_limit_min
-    dt = np.where(gap, 0.0, np.nan_to_num(dt_raw, nan=0.0))
+    dt0 = np.where(np.isnan(dt_raw), 0.0, dt_raw)
+    gap = dt0 > recs.gap_limit_min
+    dt = np.where(gap, 0.0, dt0)
+    gap_at = np.flatnonzero(gap)
+    if len(gap_at):
+        gap_at = _first_in_file_order(gap_at, fileno[vidx], row[vidx], recs._max_messages)
     gap_rows = [(int(fileno[vidx[i]]), int(row[vidx[i]]), case_names[int(cv[i])].as_py(), float(tv[i]),
-                 float(dt_raw[i])) for i in np.flatnonzero(gap)[: recs._max_messages]]
+                 float(dt_raw[i])) for i in gap_at]
 
-    identity = m == n and bool(np.all(vidx == np.arange(n)))
+    identity = (in_key_order and all_valid) or (m == n and bool(np.all(vidx == np.arange(n))))
 
     def take(name):
-        values = np.nan_to_num(_float(table, name), nan=0.0)
+        values = _float(table, name)
+        values = np.where(np.isnan(values), 0.0, values)
         return values if identity else values[vidx]
 
     o2, air, n2o = take("o2"), take("air"), take("n2o")
@@ -134,8 +324,14 @@ def _numpy_engine(recs: Records, high_flow_l_min: float, minute_ventilation_l_mi
     agent_code = agent_dict.indices.fill_null(0).to_numpy(zero_copy_only=False).astype(np.int64)
     agent_code = agent_code if identity else agent_code[vidx]
     agent_names = np.array(agent_dict.dictionary.to_pylist(), dtype=object)
-    is_none = agent_names[agent_code] == "none" if m else np.zeros(0, dtype=bool)
-    dose = np.where(is_none, 0.0, np.where(from_et, take("end_tidal"), np.nan_to_num(dial_raw, nan=0.0)))
+    # "none" compared once as a name, then as its code (no text per row).
+    none_codes = np.flatnonzero(agent_names == "none")
+    is_none = (agent_code == none_codes[0]) if len(none_codes) and m else np.zeros(m, dtype=bool)
+    # Dose: the dial, else the end-tidal concentration, 0 without an agent (passes skipped
+    # when no sample needs them).
+    dose = np.where(from_et, take("end_tidal"), dial_raw) if from_et.any() else dial_raw
+    if is_none.any():
+        dose = np.where(is_none, 0.0, dose)
     from_et = from_et & ~is_none
     # High-flow runs: a run ends at a sample below the threshold or before a gap.
     high = fgf > high_flow_l_min
@@ -173,9 +369,13 @@ def _numpy_engine(recs: Records, high_flow_l_min: float, minute_ventilation_l_mi
     band_min = np.bincount(inv * len(FLOW_BANDS) + band, weights=dt,
                            minlength=g * len(FLOW_BANDS)).reshape(g, len(FLOW_BANDS))
     vfirst = vidx[first]
-    theatre = _column(table, "theatre").take(vfirst).fill_null("unknown").to_pylist()
+    if texts:
+        names = texts["theatre"].values.to_pylist() + [None]
+        theatre = [names[k] if names[k] is not None else "unknown" for k in theatre_code[vfirst]]
+    else:
+        theatre = _column(table, "theatre").take(vfirst).fill_null("unknown").to_pylist()
     month = _column(table, "month").take(vfirst)
-    month = pc.strftime(pc.cast(month, "timestamp[s]"), "%Y-%m").fill_null("unknown").to_pylist()
+    month = pc.strftime(pc.cast(month, "timestamp[s]", safe=False), "%Y-%m").fill_null("unknown").to_pylist()
     # The first valid sample of a group is its earliest (valid samples rise in time).
     start = pd.to_datetime(pd.Series(_column(table, "start_hint").take(vfirst).to_pandas())).to_numpy()
     raw = pd.DataFrame({

@@ -79,11 +79,12 @@ def reconcile(purchases: pd.DataFrame, use: pd.DataFrame, reference: Reference =
     DataFrame
         ``item``, ``month`` ("all" for the total row of each item), ``unit``, ``purchased``,
         ``recorded``, ``unexplained`` (purchased - recorded), ``unexplained_share``
-        (of purchased; empty where nothing was bought), ``unexplained_co2e_kg`` and, for
-        nitrous oxide, ``apparent_loss`` (the same gap, named as such); ``has_records``
-        (the month has case records; on the total row, every month bought in has), and on
-        the total rows ``purchased_with_records``, ``recorded_with_records`` and
-        ``unexplained_share_with_records``: the same over the months that have records only.
+        (of purchased; empty where nothing was bought or the share is not a finite
+        number), ``unexplained_co2e_kg`` and, for nitrous oxide, ``apparent_loss`` (the same
+        gap, named as such); ``has_records`` (the month has case records; on the total row,
+        every month bought in has), and on the total rows ``purchased_with_records``,
+        ``recorded_with_records`` and ``unexplained_share_with_records``: the same over the
+        months that have records only.
 
     Notes
     -----
@@ -102,9 +103,10 @@ def reconcile(purchases: pd.DataFrame, use: pd.DataFrame, reference: Reference =
     tot["month"] = "all"
     out = pd.concat([m, tot], ignore_index=True)
     out["unexplained"] = out["purchased"] - out["recorded"]
-    with np.errstate(invalid="ignore", divide="ignore"):
-        out["unexplained_share"] = np.where(out["purchased"] > 0, out["unexplained"] / out["purchased"].where(
-            out["purchased"] > 0, 1), np.nan)
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        share = (out["unexplained"] / out["purchased"].where(out["purchased"] > 0, 1)).astype(float)
+    # A share over a vanishing purchase (1e-320 bottles) overflows: left empty, as where nothing was bought.
+    out["unexplained_share"] = np.where((out["purchased"] > 0) & np.isfinite(share), share, np.nan)
     out["unexplained_co2e_kg"] = [
         _co2e_kg(reference, r.item, _mass_g(reference, r.item, r.unexplained, temperature_c, pressure_kpa),
                  gwp_source) for r in out.itertuples(index=False)]

@@ -19,7 +19,7 @@ DEFAULT_HIGH_FLOW_L_MIN = FLOW_BANDS[3][1]
 #: (induction and emergence at high flow rarely last longer than this).
 DEFAULT_HIGH_FLOW_LIMIT_MIN = 15.0
 
-ENGINES = ("auto", "memory", "sql")
+ENGINES = ("auto", "files", "memory", "sql")
 
 BAND_COLUMNS = tuple("band_" + n.replace(" ", "_") + "_min" for n in FLOW_BAND_NAMES)
 

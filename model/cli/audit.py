@@ -11,6 +11,26 @@ DE_IDENTIFY = ("Records must be de-identified before they are audited or shared:
                "hospital numbers or dates of birth.")
 
 
+class ProgressLine:
+    """One line on a terminal, rewritten in place: share done, then the step (files and rows done)."""
+
+    def __init__(self, stream):
+        self.stream = stream
+        self.width = 0
+
+    def __call__(self, fraction: float, text: str) -> None:
+        line = f"audit {min(max(fraction, 0.0), 1.0):4.0%}  {text}"[:120]
+        self.stream.write("\r" + line.ljust(self.width))
+        self.stream.flush()
+        self.width = len(line)
+
+    def clear(self) -> None:
+        if self.width:
+            self.stream.write("\r" + " " * self.width + "\r")
+            self.stream.flush()
+            self.width = 0
+
+
 def register(subparsers) -> None:
     """Add ``audit`` to the ``gas-ledger`` command line."""
     p = subparsers.add_parser(
@@ -43,11 +63,16 @@ def cmd_audit(args) -> int:
     reference = load_settings(args.settings)
     if args.messages < 0:
         raise InputError("--messages", args.messages, "expected 0 or more")
-    result = audit_records(
-        args.files, reference=reference, gwp_source=args.gwp_source or DEFAULT_GWP,
-        gap_limit_min=DEFAULT_GAP_LIMIT_MIN if args.gap_limit is None else args.gap_limit,
-        high_flow_limit_min=DEFAULT_HIGH_FLOW_LIMIT_MIN if args.high_flow_limit is None else args.high_flow_limit,
-        memory_limit=args.memory_limit)
+    progress = ProgressLine(sys.stderr) if not args.json and sys.stderr.isatty() else None
+    try:
+        result = audit_records(
+            args.files, reference=reference, gwp_source=args.gwp_source or DEFAULT_GWP,
+            gap_limit_min=DEFAULT_GAP_LIMIT_MIN if args.gap_limit is None else args.gap_limit,
+            high_flow_limit_min=DEFAULT_HIGH_FLOW_LIMIT_MIN if args.high_flow_limit is None else args.high_flow_limit,
+            memory_limit=args.memory_limit, progress=progress)
+    finally:
+        if progress is not None:
+            progress.clear()
     recon, purchase_notes = None, []
     if args.purchases:
         from model.io.purchases import load_purchases
@@ -97,7 +122,8 @@ def cmd_audit(args) -> int:
             ("Cost", f"{t['cost_total']:,.2f} {cur}"),
             ("CO2 absorbent (estimate)", f"{t['absorbent_g'] / 1000:,.1f} kg, {t['cost_absorbent']:,.2f} {cur} "
                                          f"(not in the cost above)"),
-            ("Time-weighted FGF", f"{t['time_weighted_fgf_l_min']:,.2f} L/min"),
+            ("Time-weighted FGF", "no minute counted" if t['time_weighted_fgf_l_min'] != t['time_weighted_fgf_l_min']
+                                  else f"{t['time_weighted_fgf_l_min']:,.2f} L/min"),
             ("Cases with long high flow", f"{int(t['high_flow_cases']):,} (run of "
                                           f"{result.settings['high_flow_limit_min']:g} min or more above "
                                           f"{result.settings['high_flow_l_min']:g} L/min)")]

@@ -18,7 +18,7 @@ from typing import Callable, Mapping
 import pandas as pd
 
 from model.errors import InputError
-from model.files import read_user_text
+from model.files import path_kind, read_user_text, shown_path
 from model.io.plans import load_plan
 from model.plan import CasePlan
 from model.reference import VOLATILES
@@ -201,8 +201,8 @@ def parse_casemix_text(text: str, source: str = "case mix",
 
 
 def _load_plan_file(path: Path, name: str, where: str) -> CasePlan:
-    if not path.is_file():
-        raise InputError(where, name, f"no plan file at {path}")
+    if path_kind(path, where) != "file":
+        raise InputError(where, name, f"no plan file at {shown_path(path)}")
     return load_plan(path)
 
 

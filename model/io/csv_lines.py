@@ -67,7 +67,7 @@ class CsvLines:
         if self.cr[i]:
             return "holds a carriage return (CR) not followed by a line feed; lines end in LF or CR LF"
         if self.quote[i]:
-            return "a quote is opened and never closed on this line"
+            return "an odd number of quotes (\") on this line: a quote never closed, or a stray one"
         return None
 
     def text(self, i: int) -> str:

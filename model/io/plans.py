@@ -11,7 +11,6 @@ bare numbers are read in the documented default unit of each field.
 from __future__ import annotations
 
 import re
-import tomllib
 from dataclasses import asdict
 from pathlib import Path
 from typing import Annotated
@@ -22,7 +21,7 @@ import tomli_w
 
 from model.circle import ABSORBENT_CAPACITY_L_PER_KG, CIRCLE_VOLUME_L
 from model.errors import InputError
-from model.files import read_user_text, toml_error
+from model.files import parse_toml, read_user_text
 from model.freshgas import RATIO_BEHAVIOURS
 from model.plan import CasePlan, Patient, Phase, Settings, check_dials
 from model.reference import DEFAULT_GWP, GWP_SOURCES, VOLATILES, normalise_agent_name
@@ -273,13 +272,7 @@ def parse_plan_text(text: str, source: str = "plan", reference=None) -> CasePlan
     """
     if len(text) > MAX_PLAN_BYTES:
         raise InputError(source, f"{len(text)} characters", f"a plan file is at most {MAX_PLAN_BYTES} bytes")
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise toml_error(source, exc) from None
-    except RecursionError:
-        raise InputError(source, "the file", "nested too deeply to be a plan") from None
-    return plan_from_dict(data, source, reference)
+    return plan_from_dict(parse_toml(text, source, "plan"), source, reference)
 
 
 def load_plan(path, reference=None) -> CasePlan:

@@ -12,15 +12,18 @@ part-full).
 
 from __future__ import annotations
 
+import csv
 import re
-import warnings
 from dataclasses import dataclass, field
 from pathlib import Path
+from types import SimpleNamespace
 
 import numpy as np
 import pandas as pd
 
 from model.errors import InputError
+from model.files import path_kind, shown_path
+from model.io.csv_lines import split_csv_lines
 from model.reference import DEFAULT_REFERENCE, Reference, STANDARD_PRESSURE_KPA, normalise_agent_name
 from model.units import one_number_and_unit, registry, safe_quantity_text
 from model.vapour import molar_volume_l
@@ -28,7 +31,15 @@ from model.vapour import molar_volume_l
 
 PURCHASE_COLUMNS = ("month", "item", "quantity", "unit", "size")
 GASES = ("nitrous_oxide", "oxygen", "air")
-_MONTH = re.compile(r"^\d{4}-(0[1-9]|1[0-2])$")
+#: Largest quantity on one purchase line, in its unit (bottles, cylinders, mL, kg, ...).
+#: Common practice, no source: far above what a hospital buys in a month, small enough that
+#: every sum and CO2e figure stays a finite number.
+MAX_QUANTITY = 1e9
+#: Largest amount on one purchase line once converted. [mL of liquid or L of gas] Common
+#: practice, no source (a hospital's yearly oxygen is some 1e8 L).
+MAX_AMOUNT = 1e12
+_NUMBER = re.compile(r"^[+-]?([0-9]+\.?[0-9]*|\.[0-9]+)([eE][+-]?[0-9]+)?$")
+_MONTH = re.compile(r"^[0-9]{4}-(0[1-9]|1[0-2])$")  # ASCII digits only
 
 
 def _convert(value: float, unit: str, base: str):
@@ -85,7 +96,8 @@ def load_purchases(path, reference: Reference = DEFAULT_REFERENCE, temperature_c
     Parameters
     ----------
     path : path
-        CSV (UTF-8, lines starting with ``#`` are comments) or Parquet.
+        CSV (UTF-8; a line whose first character other than a space or tab is ``#`` is
+        a comment) or Parquet.
     reference : Reference
         Agent data (bottle volumes, densities, molar masses).
     temperature_c, pressure_kpa : float
@@ -102,59 +114,107 @@ def load_purchases(path, reference: Reference = DEFAULT_REFERENCE, temperature_c
     Raises
     ------
     InputError
-        When the file as a whole cannot be read: missing, wrong format or encoding, a line
-        with more fields than the header, or a required column missing.
+        When the file as a whole cannot be read: missing, wrong format, UTF-16, no
+        readable header row, or a required column missing. A line that cannot be read (an
+        unclosed quote, a lone CR, the wrong number of fields, not UTF-8) is set aside.
     """
     p = Path(path)
     where = str(p)
-    if not p.is_file():
-        raise InputError(where, where, "that is a folder; give a purchases file (.csv or .parquet)"
-                         if p.is_dir() else "the purchases file does not exist")
+    found = path_kind(p, "purchases file")
+    if found != "file":
+        raise InputError(where, shown_path(p), "that is a folder; give a purchases file (.csv or .parquet)"
+                         if found == "folder" else "the purchases file does not exist")
     fmt = p.suffix.lower()
-    try:
-        if fmt == ".csv":
-            with warnings.catch_warnings():
-                # index_col=False: a line with more fields than the header is an error, not
-                # a silent shift of every column into the index.
-                warnings.simplefilter("error", pd.errors.ParserWarning)
-                df = pd.read_csv(p, dtype=str, keep_default_na=False, comment="#",
-                                 skip_blank_lines=True, encoding="utf-8-sig", index_col=False)
-            first_line = _header_line(p)
-            lines = _data_lines(p, first_line)
-        elif fmt == ".parquet":
+    if fmt == ".csv":
+        rows, set_aside = _csv_rows(p, where)
+        label = "line"
+    elif fmt == ".parquet":
+        try:
             df = pd.read_parquet(p)
-            for col in df.columns:  # a date-time month is read as its YYYY-MM
-                if pd.api.types.is_datetime64_any_dtype(df[col]):
-                    df[col] = df[col].dt.strftime("%Y-%m")
-            df = df.astype(object).where(df.notna(), "").astype(str)  # an empty cell is ""
-            lines = np.arange(1, len(df) + 1)
-        else:
-            raise InputError(where, p.suffix or "no extension", "a purchases file ends in .csv or .parquet")
-    except UnicodeDecodeError:
-        raise InputError(where, "the file", "expected UTF-8 text (CSV UTF-8)") from None
-    except pd.errors.ParserWarning:
-        raise InputError(where, "a line with more fields than the header",
-                         "one value per header column on every line") from None
-    except (pd.errors.ParserError, pd.errors.EmptyDataError) as exc:
-        raise InputError(where, "the file", f"not readable as CSV ({str(exc).splitlines()[0]})") from None
-    label = "line" if fmt == ".csv" else "row"
-    df.columns = [c.strip().lower() for c in df.columns]
-    missing = [c for c in ("month", "item", "quantity", "unit") if c not in df.columns]
-    if missing:
-        raise InputError(f"{where}: columns", ", ".join(df.columns), "missing column(s): " + ", ".join(missing))
-    if "size" not in df.columns:
-        df["size"] = ""
-    out, set_aside = [], []
-    for i, r in enumerate(df.itertuples(index=False)):
-        at = f"{where}, {label} {int(lines[i]) if i < len(lines) else i + 1}"
+        except Exception as exc:  # noqa: BLE001  (pyarrow raises many types for a damaged file)
+            raise InputError(where, "the file", f"not a readable Parquet file ({type(exc).__name__})") from None
+        for col in df.columns:  # a date-time month is read as its YYYY-MM
+            if pd.api.types.is_datetime64_any_dtype(df[col]):
+                df[col] = df[col].dt.strftime("%Y-%m")
+        df = df.astype(object).where(df.notna(), "").astype(str)  # an empty cell is ""
+        df.columns = [str(c).strip().lower() for c in df.columns]
+        _require_columns(list(df.columns), where)
+        rows = [(i, dict(zip(df.columns, r))) for i, r in enumerate(df.itertuples(index=False, name=None), start=1)]
+        set_aside = []
+        label = "row"
+    else:
+        raise InputError(where, p.suffix or "no extension", "a purchases file ends in .csv or .parquet")
+    out = []
+    for number, record in rows:
+        at = f"{where}, {label} {number}"
+        r = SimpleNamespace(**{c: record.get(c, "") for c in PURCHASE_COLUMNS})
         try:
             out.append(_purchase_line(r, at, reference, temperature_c, pressure_kpa))
         except InputError as err:
-            set_aside.append(err)
+            set_aside.append((number, err))
+    set_aside.sort(key=lambda pair: pair[0])
     table = pd.DataFrame(out, columns=["month", "item", "amount", "unit"])
-    return PurchasesFile(table, set_aside)
+    return PurchasesFile(table, [err for _, err in set_aside])
 
 
+def _require_columns(columns: list[str], where: str) -> None:
+    missing = [c for c in ("month", "item", "quantity", "unit") if c not in columns]
+    if missing:
+        raise InputError(f"{where}: columns", ", ".join(columns), "missing column(s): " + ", ".join(missing))
+
+
+def _csv_rows(p: Path, where: str):
+    """The data lines of a purchases CSV as (line number, {column: text}); bad lines set aside.
+
+    The file is cut into lines before its fields are read (:mod:`model.io.csv_lines`), so a
+    broken line (an unclosed quote, a lone CR, the wrong number of fields, not UTF-8) is set
+    aside alone and every other line keeps its number. A comment is a line whose first
+    character other than a space or tab is ``#``; a ``#`` inside a line is text.
+    """
+    try:
+        data = p.read_bytes()
+    except OSError as exc:
+        raise InputError(where, "the file", f"cannot be read ({exc.strerror or type(exc).__name__})") from None
+    if data.startswith((b"\xff\xfe", b"\xfe\xff")):
+        raise InputError(where, "UTF-16 text", "expected UTF-8 text (CSV UTF-8)")
+    lines = split_csv_lines(data)
+    content = np.flatnonzero(~lines.blank & ~lines.comment)
+    if not len(content):
+        raise InputError(where, "the file", "not readable as CSV (no header row)")
+    head = content[0]
+    header = _csv_fields(lines, head)
+    if isinstance(header, str):
+        raise InputError(f"{where}, line {int(lines.number[head])}", "the header row", f"not readable as CSV ({header})")
+    columns = [c.strip().lower() for c in header]
+    _require_columns(columns, where)
+    rows, set_aside = [], []
+    for i in content[1:]:
+        number = int(lines.number[i])
+        fields = _csv_fields(lines, i)
+        if isinstance(fields, str):
+            set_aside.append((number, InputError(f"{where}, line {number}", lines.text(i), fields)))
+        elif len(fields) != len(columns):
+            set_aside.append((number, InputError(
+                f"{where}, line {number}", f"{len(fields)} fields",
+                f"expected {len(columns)} as in the header ({', '.join(columns)}); an extra comma adds a field")))
+        else:
+            rows.append((number, dict(zip(columns, fields))))
+    return rows, set_aside
+
+
+def _csv_fields(lines, i: int) -> list[str] | str:
+    """The fields of line ``i`` (index), or what makes it unreadable."""
+    problem = lines.problem(i)
+    if problem:
+        return problem
+    try:
+        text = lines.data[lines.starts[i]:lines.ends[i]].tobytes().decode("utf-8")
+    except UnicodeDecodeError:
+        return "not UTF-8 text; save the file as CSV UTF-8"
+    try:
+        return next(csv.reader([text], strict=True))
+    except (csv.Error, StopIteration) as exc:
+        return f"not readable as CSV ({exc})"
 def _purchase_line(r, at: str, reference: Reference, temperature_c: float,
                    pressure_kpa: float) -> tuple[str, str, float, str]:
     """One purchase line as (month, item, amount, unit); InputError naming ``at`` if bad."""
@@ -165,12 +225,12 @@ def _purchase_line(r, at: str, reference: Reference, temperature_c: float,
     if key not in reference.agents:
         raise InputError(f"{at}: item", r.item, "allowed items are " + ", ".join(reference.agents))
     agent = reference.agents[key]
-    try:
-        qty = float(str(r.quantity).strip())
-    except ValueError:
-        raise InputError(f"{at}: quantity", r.quantity, "expected a number") from None
-    if not np.isfinite(qty) or qty < 0:
-        raise InputError(f"{at}: quantity", r.quantity, "expected a finite number, not negative")
+    text = str(r.quantity).strip()
+    if not _NUMBER.match(text):  # float() would read full-width digits and "1_0"
+        raise InputError(f"{at}: quantity", r.quantity, "expected a number (digits 0-9)")
+    qty = float(text)
+    if not np.isfinite(qty) or qty < 0 or qty > MAX_QUANTITY:
+        raise InputError(f"{at}: quantity", r.quantity, f"expected a number from 0 to {MAX_QUANTITY:g}")
     unit = str(r.unit).strip()
     size = str(r.size).strip() if r.size is not None else ""
     if agent.kind == "volatile":
@@ -179,21 +239,10 @@ def _purchase_line(r, at: str, reference: Reference, temperature_c: float,
     else:
         amount = _gas_l(qty, unit, size, agent, at, temperature_c, pressure_kpa)
         base = "L"
+    if not np.isfinite(amount) or amount > MAX_AMOUNT:
+        raise InputError(f"{at}: quantity", r.quantity, f"{amount:g} {base} on one line; at most "
+                         f"{MAX_AMOUNT:g} {base} (check the quantity, unit and size)")
     return month, key, amount, base
-
-
-def _header_line(p: Path) -> int:
-    with open(p, encoding="utf-8-sig") as fh:
-        for n, line in enumerate(fh, start=1):
-            if line.strip() and not line.lstrip().startswith("#"):
-                return n
-    return 1
-
-
-def _data_lines(p: Path, header: int) -> np.ndarray:
-    with open(p, encoding="utf-8-sig") as fh:
-        return np.array([n for n, line in enumerate(fh, start=1)
-                         if n > header and line.strip() and not line.lstrip().startswith("#")])
 
 
 def _volatile_ml(qty, unit, size, agent, at) -> float:

@@ -4,11 +4,13 @@ from __future__ import annotations
 
 import os
 import re
+from contextlib import contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Iterable, Sequence
 
 from model.errors import InputError
+from model.files import path_kind, shown_path
 from model.units import registry, safe_quantity_text
 
 
@@ -190,8 +192,9 @@ def inspect_file(path) -> RecordFile:
     fmt = p.suffix.lower().lstrip(".")
     if fmt not in RECORD_FORMATS:
         raise InputError(where, p.suffix or "no extension", "record files end in .csv or .parquet")
-    if not p.is_file():
-        raise InputError(where, where, "the file does not exist" if not p.exists() else "expected a file")
+    found = path_kind(p, "record file")
+    if found != "file":
+        raise InputError(where, shown_path(p), "the file does not exist" if found == "missing" else "expected a file")
     if fmt == "parquet":
         import pyarrow as pa
         import pyarrow.parquet as pq
@@ -214,8 +217,13 @@ def inspect_file(path) -> RecordFile:
                 columns[key] = Column(key, col.source, seconds / 60.0, ptype.unit)
         import duckdb
 
-        described = duckdb.sql(f"DESCRIBE SELECT * FROM read_parquet({_sql_str(str(p))})").fetchall()
+        try:
+            described = duckdb.sql(f"DESCRIBE SELECT * FROM read_parquet({_sql_str(str(p))})").fetchall()
+        except duckdb.Error as exc:
+            raise InputError(where, "the file", f"not a readable Parquet file ({type(exc).__name__})") from None
         types = {r[0]: r[1] for r in described}
+        for key, col in columns.items():
+            check_column_type(key, types.get(col.source, "VARCHAR"), f"{where}: column '{col.source}'")
         return RecordFile(where, fmt, columns, ignored, 0, types)
     with open(p, "rb") as fh:
         head = fh.read(65536)
@@ -249,6 +257,96 @@ def inspect_file(path) -> RecordFile:
         raise InputError(f"{where}, line {skip + 1}", "the header row", f"not readable as CSV ({exc})") from None
     columns, ignored = map_columns(names, declared, where)
     return RecordFile(where, fmt, columns, ignored, skip, {n: "VARCHAR" for n in names})
+
+
+#: duckdb types read as numbers as they are (exact names; DECIMAL(p,s) too).
+NUMERIC_TYPES = frozenset({"DOUBLE", "FLOAT", "REAL", "INTEGER", "BIGINT", "SMALLINT", "TINYINT",
+                           "HUGEINT", "UHUGEINT", "UBIGINT", "UINTEGER", "USMALLINT", "UTINYINT"})
+#: duckdb types read as date-times as they are.
+TIME_TYPES = frozenset({"TIMESTAMP", "TIMESTAMP WITH TIME ZONE", "TIMESTAMP_S", "TIMESTAMP_MS",
+                        "TIMESTAMP_NS", "DATE"})
+#: Scalar duckdb types read as text (and checked row by row, as CSV cells are).
+TEXT_TYPES = frozenset({"VARCHAR", "BOOLEAN", "UUID", "TIME", "INTERVAL", "BLOB"})
+_DECIMAL = re.compile(r"^DECIMAL\(\d+,\s*\d+\)$")
+
+
+def is_numeric_type(duck_type: str) -> bool:
+    """Whether a duckdb column type is a plain number (exactly: ``DOUBLE[]`` is a list, not a number)."""
+    t = duck_type.strip().upper()
+    return t in NUMERIC_TYPES or bool(_DECIMAL.match(t))
+
+
+def is_time_type(duck_type: str) -> bool:
+    """Whether a duckdb column type is a date-time or a date (exactly)."""
+    return duck_type.strip().upper() in TIME_TYPES
+
+
+def check_column_type(field_name: str, duck_type: str, where: str) -> None:
+    """Refuse a column whose type cannot hold its field: lists, structs, maps, durations elsewhere.
+
+    Raises
+    ------
+    InputError
+        Naming the column and its type.
+    """
+    t = duck_type.strip().upper()
+    if is_numeric_type(t) or is_time_type(t) or t in TEXT_TYPES:
+        return
+    kind = FIELDS[field_name][0]
+    wanted = {"text": "text", "timestamp": "a date-time or text", "date": "a date or text"}.get(
+        kind, f"numbers or text (in {kind.replace('percent', '%')})")
+    raise InputError(where, duck_type, f"a column of type {duck_type} cannot hold '{field_name}'; "
+                     f"expected one value per row: {wanted}")
+
+
+@contextmanager
+def file_failures(files: Sequence[RecordFile]):
+    """Turn any failure of the readers under this block into one InputError naming the file.
+
+    duckdb, pyarrow and the operating system raise many types for a damaged file (a page
+    overwritten behind an intact footer gives "Out of buffer", a decompression failure, a
+    Thrift protocol error, a conversion error). Whatever they raise becomes one line naming
+    the file; when several files are read and the message names none, each Parquet file is
+    scanned on its own to find the one that fails.
+    """
+    import duckdb
+    import pyarrow as pa
+
+    try:
+        yield
+    except InputError:
+        raise
+    except (duckdb.Error, pa.ArrowException, OSError, RuntimeError) as exc:
+        raise failure_of(files, exc) from None
+
+
+def failure_of(files: Sequence[RecordFile], exc: BaseException) -> InputError:
+    """One InputError naming the file a reader failure came from (see :func:`file_failures`)."""
+    first = (str(exc).strip().splitlines() or [""])[0][:200] or type(exc).__name__
+    named = [f for f in files if f.path in str(exc)]
+    if not named and len(files) == 1:
+        named = list(files)
+    if not named:
+        named = [f for f in files if f.format == "parquet" and not _scans(f)]
+    if not named:
+        return InputError("records", ", ".join(shown_path(f.path) for f in files)[:200],
+                          f"the files cannot be read to the end ({type(exc).__name__}: {first})")
+    f = named[0]
+    what = "a damaged Parquet file" if f.format == "parquet" else "a file that cannot be read to the end"
+    return InputError(f.path, "the file", f"{what} ({type(exc).__name__}: {first}); "
+                      "export it again or leave it out")
+
+
+def _scans(rf: RecordFile) -> bool:
+    """Whether every mapped column of a Parquet file decodes (a full scan; used only after a failure)."""
+    import duckdb
+
+    cols = ", ".join(_ident(c.source) for c in rf.columns.values()) or "*"
+    try:
+        duckdb.sql(f"SELECT max(hash({cols})) FROM read_parquet({_sql_str(rf.path)})").fetchall()
+        return True
+    except Exception:  # noqa: BLE001  (any failure means this file is the damaged one)
+        return False
 
 
 def expand_paths(patterns: Iterable) -> list[str]:

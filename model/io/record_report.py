@@ -6,7 +6,7 @@ from dataclasses import dataclass, field
 
 import pandas as pd
 
-from model.io.record_files import DEFAULT_GAP_LIMIT_MIN, MAX_FLOW_L_MIN, MAX_TOTAL_FLOW_L_MIN, RecordFile
+from model.io.record_files import DEFAULT_GAP_LIMIT_MIN, MAX_FLOW_L_MIN, MAX_TOTAL_FLOW_L_MIN, RecordFile, file_failures
 from model.reference import DEFAULT_REFERENCE, Reference
 
 
@@ -77,6 +77,21 @@ class Records:
     gap_limit_min: float
     reference: Reference = DEFAULT_REFERENCE
     _tmpdir: object = None
+    #: The ``prepared`` query of each file on its own (same columns and checks), for
+    #: engines that work file by file.
+    file_sql: list = field(default_factory=list)
+    #: Rows of each file (Parquet: from its footer; CSV: lines read, set-aside ones included).
+    file_rows: list = field(default_factory=list)
+    #: Agent text as read (trimmed) -> (reference agent name or "none", vaporizer maximum [%]).
+    agent_map: dict = field(default_factory=dict)
+
+    def guard(self):
+        """A block in which any failure reading the files becomes one InputError naming the file.
+
+        Queries of the views read the files lazily (a damaged Parquet page fails only when
+        it is decoded): run them inside ``with records.guard():``.
+        """
+        return file_failures(self.files)
 
     def close(self) -> None:
         """Close the duckdb connection and remove its spill folder."""

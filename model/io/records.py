@@ -44,18 +44,9 @@ import pandas as pd
 from model.errors import InputError
 from model.freshgas import FLOW_BANDS
 from model.io.csv_lines import split_csv_lines
-from model.io.record_files import DEFAULT_GAP_LIMIT_MIN, MAX_FLOW_L_MIN, MAX_TOTAL_FLOW_L_MIN, NUMBER_FIELDS, RecordFile, _ident, _sql_str, expand_paths, inspect_file
+from model.io.record_files import DEFAULT_GAP_LIMIT_MIN, is_numeric_type, is_time_type, MAX_FLOW_L_MIN, MAX_TOTAL_FLOW_L_MIN, NUMBER_FIELDS, RecordFile, _ident, _sql_str, expand_paths, file_failures, inspect_file
 from model.io.record_report import DEFAULT_MAX_MESSAGES, ReadReport, Records
 from model.reference import AIR_O2_FRACTION, DEFAULT_REFERENCE, Reference, normalise_agent_name
-
-
-_NUMERIC_TYPES = ("DOUBLE", "FLOAT", "REAL", "INTEGER", "BIGINT", "SMALLINT", "TINYINT", "HUGEINT",
-                  "UBIGINT", "UINTEGER", "USMALLINT", "UTINYINT", "DECIMAL")
-
-
-def _is_numeric(duck_type: str) -> bool:
-    t = duck_type.upper()
-    return any(t.startswith(n) for n in _NUMERIC_TYPES)
 
 
 def _raw_select(rf: RecordFile, fileno: int, source_sql: str) -> str:
@@ -79,7 +70,7 @@ def _raw_select(rf: RecordFile, fileno: int, source_sql: str) -> str:
             continue
         col = _ident(c[f].source)
         factor = repr(float(c[f].factor))
-        if _is_numeric(rf.types.get(c[f].source, "VARCHAR")):
+        if is_numeric_type(rf.types.get(c[f].source, "VARCHAR")):
             parts.append(f"CAST({col} AS DOUBLE) * {factor} AS {f}")
         else:
             s = f"NULLIF(trim(CAST({col} AS VARCHAR)), '')"
@@ -105,8 +96,7 @@ def _raw_select(rf: RecordFile, fileno: int, source_sql: str) -> str:
     # Time: a date-time column wins over elapsed minutes.
     if "time" in c:
         col = _ident(c["time"].source)
-        ttype = rf.types.get(c["time"].source, "VARCHAR").upper()
-        if ttype.startswith("TIMESTAMP") or ttype == "DATE":
+        if is_time_type(rf.types.get(c["time"].source, "VARCHAR")):
             ts = f"CAST({col} AS TIMESTAMP)"
             parts.append(f"{ts} AS ts")
             parts.append("NULL::VARCHAR AS bad_time")
@@ -128,6 +118,49 @@ def _raw_select(rf: RecordFile, fileno: int, source_sql: str) -> str:
     parts.append(f"{1 if rf.flow_mode == 'parts' else 0} AS parts_mode")
     parts.append(f"{1 if 'time' in c else 0} AS has_ts")
     return f"SELECT {', '.join(parts)} FROM {source_sql}"
+
+
+#: Stands for the source of the ``prepared`` query until it is given (all files, or one).
+_SOURCE = "/*@records source@*/"
+
+
+def _distinct_agents(con, specs, file_selects) -> list:
+    """The distinct agent texts as the checks read them (``agent_raw``: trimmed, empty is missing).
+
+    A Parquet file with a text agent column gives them from its dictionary pages with
+    pyarrow (no text per row); any other file from its SQL.
+    """
+    import pyarrow as pa
+    import pyarrow.compute as pc
+    import pyarrow.parquet as pq
+
+    found: set = set()
+    by_sql = []
+    for i, s in enumerate(specs):
+        src = s.columns["agent"].source
+        t = pq.read_schema(s.path).field(src).type if s.format == "parquet" else None
+        t = t.value_type if t is not None and pa.types.is_dictionary(t) else t
+        if t is None or not (pa.types.is_string(t) or pa.types.is_large_string(t)):
+            by_sql.append(file_selects[i])
+            continue
+        col = pq.read_table(s.path, columns=[src], read_dictionary=[src])[src]
+        for chunk in col.chunks:
+            values = pc.utf8_trim(chunk.dictionary.cast(pa.string()), characters=" ")
+            # Only values some row uses (a dictionary may hold others).
+            used = pc.unique(chunk.indices.drop_null())
+            found.update(v for v in values.take(used).to_pylist() if v)
+    if by_sql:
+        union = " UNION ALL ".join(f"SELECT agent_raw FROM ({q})" for q in by_sql)
+        found.update(r[0] for r in con.sql(f"SELECT DISTINCT agent_raw FROM ({union}) "
+                                            "WHERE agent_raw IS NOT NULL").fetchall())
+    return sorted(found)
+
+
+def _parquet_rows(path: str) -> int:
+    """Rows of a Parquet file, from its footer (no data read)."""
+    import pyarrow.parquet as pq
+
+    return int(pq.ParquetFile(path).metadata.num_rows)
 
 
 def _band_sql(expr: str) -> str:
@@ -153,9 +186,20 @@ def connect(memory_limit: str | None = None, threads: int | None = None):
             shutil.rmtree(tmp, ignore_errors=True)
             raise InputError("--memory-limit", memory_limit,
                              "a size with its unit, such as 3GB or 500MB") from None
-    if threads:
-        con.execute(f"SET threads = {int(threads)}")
+    # Threads from the machine: the cores this process may run on.
+    con.execute(f"SET threads = {int(threads) if threads else _cores()}")
+    # duckdb counts a query's progress (read by the audit's progress line) without drawing its own bar.
+    con.execute("SET enable_progress_bar = true")
+    con.execute("SET enable_progress_bar_print = false")
     return con, tmp
+
+
+def _cores() -> int:
+    """Cores this process may run on."""
+    try:
+        return max(len(os.sched_getaffinity(0)), 1)
+    except AttributeError:  # not on Linux
+        return max(os.cpu_count() or 1, 1)
 
 
 def _csv_table(con, rf: RecordFile, index: int, report: ReadReport, folder: str):
@@ -296,11 +340,36 @@ def read_records(paths, *, reference: Reference = DEFAULT_REFERENCE,
     step(0.0, f"Reading the headers of {len(files)} file(s)")
     specs = [inspect_file(f) for f in files]
     con, tmp = connect(memory_limit, threads)
+    try:
+        with file_failures(specs):
+            report, rej_rows, gl, per_file = _build_views(con, tmp, specs, reference, gap_limit_min, step)
+    except BaseException:
+        import shutil
+
+        con.close()
+        shutil.rmtree(tmp, ignore_errors=True)
+        raise
+    recs = Records(con, specs, report, gl, reference, tmp)
+    #: Each file's ``prepared`` query and row count, and the agent names as read.
+    recs.file_sql, recs.file_rows, recs.agent_map = (per_file["file_sql"], per_file["file_rows"],
+                                                     per_file["agent_map"])
+    recs.report.issues = pd.DataFrame(rej_rows, columns=["file", "row", "kind", "column", "value", "message"])
+    recs._rejected = len(rej_rows)
+    recs._max_messages = max_messages
+    step(0.4, "Records ready")
+    return recs
+
+
+def _build_views(con, tmp, specs, reference, gap_limit_min, step):
+    """Read the CSV files and create the ``raw``, ``prepared``, ``checked`` and ``valid`` views."""
     report = ReadReport(files=[s.path for s in specs], gap_limit_min=float(gap_limit_min))
     for s in specs:
         if s.ignored:
             report.notes.append(f"{s.path}: ignored column(s) {', '.join(s.ignored)}")
     selects = []
+    #: The raw SELECT of each file on its own, and its number of rows, for per-file work.
+    file_selects: dict[int, str] = {}
+    file_rows: dict[int, int] = {}
     rej_rows: list = []
     # Parquet files with identical columns and types read as one scan.
     groups: dict = {}
@@ -315,6 +384,11 @@ def read_records(paths, *, reference: Reference = DEFAULT_REFERENCE,
                f"file_row_number + 1 AS _row FROM read_parquet({names}, filename=true, file_row_number=true))")
         fileno_map = "CASE _grp " + " ".join(f"WHEN {j} THEN {i}" for j, i in enumerate(idx)) + " END"
         selects.append(_raw_select(s, -1, f"(SELECT *, {fileno_map} AS _fileno FROM {src})"))
+        for i in idx:
+            one = (f"(SELECT *, file_row_number + 1 AS _row FROM "
+                   f"read_parquet({_sql_str(specs[i].path)}, file_row_number=true))")
+            file_selects[i] = _raw_select(specs[i], i, one)
+            file_rows[i] = _parquet_rows(specs[i].path)
     for i, s in enumerate(specs):
         if s.format != "csv":
             continue
@@ -324,13 +398,15 @@ def read_records(paths, *, reference: Reference = DEFAULT_REFERENCE,
         name = f"csv_{i}"
         con.register(name, table)
         selects.append(_raw_select(s, i, name))
+        file_selects[i] = _raw_select(s, i, name)
+        file_rows[i] = table.num_rows + len(rows)
     # The CSV files are read (in file order, for their line numbers); every later query
     # orders what it needs by file and row, so duckdb may stream in any order.
     con.execute("SET preserve_insertion_order = false")
     con.execute("CREATE OR REPLACE TEMP VIEW raw AS " + " UNION ALL BY NAME ".join(selects))
     # Agent names: normalise the few distinct values in Python with the reference's rules.
     step(0.35, "Checking agents")
-    distinct = [r[0] for r in con.sql("SELECT DISTINCT agent_raw FROM raw WHERE agent_raw IS NOT NULL").fetchall()]
+    distinct = _distinct_agents(con, specs, file_selects)
     amap = []
     for raw in distinct:
         key = normalise_agent_name(raw)
@@ -343,15 +419,14 @@ def read_records(paths, *, reference: Reference = DEFAULT_REFERENCE,
     dial_case = ("CASE agent_raw " + " ".join(f"WHEN {_sql_str(r)} THEN {d!r}" for r, _, d in amap)
                  + " END") if amap else "NULL::DOUBLE"
     a = AIR_O2_FRACTION  # US Standard Atmosphere 1976 (see model.reference)
-    con.execute(f"""
-    CREATE OR REPLACE TEMP VIEW prepared AS
+    prepared = f"""
     WITH r AS (
-      SELECT raw.*, {agent_case} AS agent, {dial_case} AS max_dial,
+      SELECT src.*, {agent_case} AS agent, {dial_case} AS max_dial,
         coalesce(epoch_ms(ts) / 60000.0, elapsed) AS t_min,
         CASE WHEN has_ts = 1 THEN CAST(date_trunc('month', ts) AS DATE)
              ELSE CAST(date_trunc('month', day) AS DATE) END AS month,
         CASE WHEN has_ts = 1 THEN ts ELSE day END AS start_hint
-      FROM raw
+      FROM {_SOURCE} AS src
     ), f AS (
       SELECT *,
         CASE WHEN parts_mode = 1 THEN coalesce(n2o, 0)
@@ -384,7 +459,8 @@ def read_records(paths, *, reference: Reference = DEFAULT_REFERENCE,
              OR (parts_mode = 0 AND (air_f < -1e-9 OR o2_f < -1e-9)) THEN 'absurd_setting'
       END AS problem_a
     FROM g
-    """)
+    """
+    con.execute("CREATE OR REPLACE TEMP VIEW prepared AS " + prepared.replace(_SOURCE, "raw"))
     con.execute("""
     CREATE OR REPLACE TEMP VIEW checked AS
     SELECT *, coalesce(problem_a,
@@ -412,9 +488,9 @@ def read_records(paths, *, reference: Reference = DEFAULT_REFERENCE,
       {_band_sql('fgf')} AS band
     FROM v
     """)
-    recs = Records(con, specs, report, gl, reference, tmp)
-    recs.report.issues = pd.DataFrame(rej_rows, columns=["file", "row", "kind", "column", "value", "message"])
-    recs._rejected = len(rej_rows)
-    recs._max_messages = max_messages
-    step(0.4, "Records ready")
-    return recs
+    per_file = {
+        "file_sql": [prepared.replace(_SOURCE, f"({file_selects[i]})") for i in range(len(specs))],
+        "file_rows": [int(file_rows[i]) for i in range(len(specs))],
+        "agent_map": {r: (k, d) for r, k, d in amap},
+    }
+    return report, rej_rows, gl, per_file

@@ -6,7 +6,7 @@ scenario files"). It names its case-mix file (CSV, :mod:`model.io.casemix`) rela
 
 from __future__ import annotations
 
-import tomllib
+import math
 from pathlib import Path
 from typing import Annotated, Any, Mapping
 
@@ -14,7 +14,7 @@ import pydantic
 import tomli_w
 
 from model.errors import InputError
-from model.files import read_user_text
+from model.files import parse_toml, read_user_text
 from model.io.casemix import load_casemix
 from model.io.plans import GwpSourceName, Share, _Strict, _first_error, _quantity, format_of, volatile_key
 from model.reference import DEFAULT_GWP, GWP_SOURCES, Reference
@@ -24,6 +24,9 @@ from model.year.inputs import CaseMix, DAYS_PER_MONTH, DEFAULT_CAR_FACTOR, MAX_D
 SCENARIO_FORMAT = "fresh-gas-ledger scenario 1"
 #: Largest scenario file read. [bytes]
 MAX_SCENARIO_BYTES = 200_000
+#: Largest month weight (weights are relative: days per month, cases per month). Common
+#: practice, no source; bounded so that their sum stays finite.
+MAX_MONTH_WEIGHT = 1e6
 
 
 # --------------------------------------------------------------------------------------
@@ -89,8 +92,8 @@ class _CalendarIn(_Strict):
     @pydantic.field_validator("month_weights")
     @classmethod
     def _positive(cls, v):
-        if any(w < 0 for w in v) or sum(v) <= 0:
-            raise InputError("month_weights", v, "twelve non-negative numbers, not all zero")
+        if any(not math.isfinite(w) or w < 0 or w > MAX_MONTH_WEIGHT for w in v) or sum(v) <= 0:
+            raise InputError("month_weights", v, f"twelve numbers from 0 to {MAX_MONTH_WEIGHT:g}, not all zero")
         return v
 
 
@@ -162,12 +165,7 @@ def parse_scenario_text(text: str, source: str = "scenario", base_dir: Path | No
     """Read a scenario from TOML text. Raises InputError for malformed TOML or bad fields."""
     if len(text) > MAX_SCENARIO_BYTES:
         raise InputError(source, f"{len(text)} characters", f"a scenario file is at most {MAX_SCENARIO_BYTES} bytes")
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(source, "the file", f"not valid TOML ({exc})") from None
-    except RecursionError:
-        raise InputError(source, "the file", "nested too deeply to be a scenario") from None
+    data = parse_toml(text, source, "scenario", "not valid TOML (see 'Case-mix and scenario files' in README.md)")
     return scenario_from_dict(data, source, base_dir, casemix)
 
 

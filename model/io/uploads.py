@@ -21,6 +21,7 @@ from types import MappingProxyType
 from typing import Mapping
 
 from model.errors import InputError
+from model.files import MAX_TOML_DEPTH, parse_toml  # noqa: F401  (MAX_TOML_DEPTH: part of this module's API)
 
 
 #: The Streamlit configuration shipped with the project; its ``server.maxUploadSize`` [MB,
@@ -47,8 +48,6 @@ _TEXT_FORMATS = ("csv", "toml")
 MAX_TOML_BYTES = 1_000_000
 #: Longest line in a text upload. [characters]
 MAX_LINE_CHARS = 10_000
-#: Deepest nesting of tables and arrays in a TOML upload (the documented formats need 4).
-MAX_TOML_DEPTH = 8
 #: Most rows and columns in a Parquet upload (its data may be compressed far below its size).
 MAX_PARQUET_ROWS = 5_000_000
 MAX_PARQUET_COLUMNS = 200
@@ -80,7 +79,8 @@ _PARQUET_MAGIC = b"PAR1"
 # Control characters refused in text: all but tab, line feed, form feed, carriage return.
 _CONTROL = re.compile("[\x00-\x08\x0b\x0e-\x1f\x7f]")
 _CONTROL_OR_BREAK = re.compile("[\x00-\x1f\x7f\x85\u2028\u2029]")
-_LONG_LINE = re.compile("^[^\n]{%d}" % (MAX_LINE_CHARS + 1), re.MULTILINE)
+# A line longer than the limit, its line break (LF or CR LF) not counted.
+_LONG_LINE = re.compile("^[^\n]{%d}(?!\r?(?:\n|\\Z))" % MAX_LINE_CHARS, re.MULTILINE)
 
 
 @dataclass(frozen=True)
@@ -244,37 +244,14 @@ def _check_lines(text: str, where: str) -> None:
         start = text.rfind("\n", 0, found.start()) + 1
         end = text.find("\n", start)
         length = (len(text) if end < 0 else end) - start
+        if text[start:start + length].endswith("\r"):
+            length -= 1  # the CR of a CR LF line break
         raise InputError(f"{where}, line {text.count(chr(10), 0, start) + 1}", f"{length} characters",
                          f"a line is at most {MAX_LINE_CHARS:,} characters")
 
 
 def _check_toml(text: str, where: str) -> None:
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(where, "the file", f"not valid TOML ({exc})") from None
-    except RecursionError:
-        raise InputError(where, "nesting too deep", f"tables and arrays nest at most {MAX_TOML_DEPTH} deep") from None
-    depth = _depth(data)
-    if depth > MAX_TOML_DEPTH:
-        raise InputError(where, f"nesting {depth} deep", f"tables and arrays nest at most {MAX_TOML_DEPTH} deep")
-
-
-def _depth(value) -> int:
-    """Nesting depth of dicts and lists (a flat table is 1), without recursion."""
-    deepest = 0
-    stack = [(value, 1)]
-    while stack:
-        item, level = stack.pop()
-        if isinstance(item, dict):
-            deepest = max(deepest, level)
-            stack.extend((v, level + 1) for v in item.values())
-        elif isinstance(item, list):
-            deepest = max(deepest, level)
-            stack.extend((v, level + 1) for v in item)
-        if deepest > MAX_TOML_DEPTH:
-            break
-    return deepest
+    parse_toml(text, where, "TOML", "not valid TOML")
 
 
 def _check_parquet(data: bytes, where: str) -> None:
