@@ -131,7 +131,7 @@ st.caption(f"Per case: {result.per_case['cost_total']:,.2f} {cur}, {result.per_c
 figs = [("Bottles bought per month", yv.monthly_bottles_figure(result.monthly)),
         ("Cost per month", yv.monthly_cost_figure(result.monthly, cur)),
         ("CO2e by source", yv.co2e_by_source_figure(t)),
-        ("Cumulative CO2e", yv.fan_figure(result.fan, "cumulative t CO2e", "t CO2e", yv.PALETTE[3])),
+        ("Cumulative CO2e", yv.fan_figure(result.fan, "cumulative t CO2e", "t CO2e", yv.CO2E_COLOUR)),
         ("Cumulative cost", yv.fan_figure(result.fan, "cumulative cost", cur))]
 g1, g2 = st.columns(2)
 g1.plotly_chart(figs[0][1], width="stretch", key="dy_fig_bottles")

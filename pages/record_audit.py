@@ -7,7 +7,6 @@ import tempfile
 from pathlib import Path
 
 import pandas as pd
-import plotly.express as px
 import streamlit as st
 
 import ui
@@ -15,11 +14,11 @@ from model import InputError
 from model.audit.result import DEFAULT_HIGH_FLOW_L_MIN, DEFAULT_HIGH_FLOW_LIMIT_MIN
 from model.audit.engine import audit_records
 from model.io.exports import html_report
-from model.freshgas import FLOW_BAND_NAMES
 from model.io.purchases import load_purchases
 from model.audit.reconcile import reconcile
 from model.io.record_files import DEFAULT_GAP_LIMIT_MIN
 from model.io.uploads import check_upload
+from ui import charts
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "demo_data" / "records"
@@ -184,28 +183,21 @@ figs: list = []     # (heading, figure) for the HTML report
 tab_cases, tab_bands, tab_month, tab_recon = st.tabs(
     ["Per case", "Flow bands by theatre", "Monthly trend", "Purchases"])
 with tab_cases:
-    volatile = cases[cases["agent"] != "none"]
-    if len(volatile):
-        fig = px.box(volatile, x="agent", y="liquid_agent_ml", color="agent", points="outliers",
-                     labels={"liquid_agent_ml": "liquid agent per case [mL]", "agent": "agent"},
-                     title="Liquid agent per case: spread by agent")
+    fig = charts.agent_spread_figure(cases)
+    if fig is not None:
         st.plotly_chart(fig, width="stretch", key="ra_hist")
         figs.append(("Liquid agent per case", fig))
     st.dataframe(cases, hide_index=True, width="stretch", height=300)
 with tab_bands:
     bands = result.bands_by_theatre()
-    fig = px.bar(bands, x="theatre", y="share", color="band", category_orders={"band": list(FLOW_BAND_NAMES)},
-                 labels={"share": "share of counted minutes", "band": "flow band (Baker 1994)"},
-                 title="Time in each fresh gas flow band, by theatre")
-    fig.update_yaxes(tickformat=".0%")
+    fig = charts.flow_bands_figure(bands)
     st.plotly_chart(fig, width="stretch", key="ra_bands")
     figs.append(("Flow bands by theatre", fig))
     by_theatre = result.by("theatre")
     st.dataframe(by_theatre, hide_index=True, width="stretch")
 with tab_month:
     by_month = result.by("month")
-    fig = px.line(by_month, x="month", y="co2e_total_kg", markers=True,
-                  labels={"co2e_total_kg": "CO2e [kg]", "month": "month"}, title="CO2e by month")
+    fig = charts.monthly_co2e_figure(by_month, ui.common.CO2E_UNITS[view.co2e_unit], view.co2e_unit)
     st.plotly_chart(fig, width="stretch", key="ra_month")
     figs.append(("CO2e by month", fig))
     by_agent = result.by("agent")
@@ -231,8 +223,7 @@ with tab_recon:
         long = totals.melt(id_vars=["item", "unit"], value_vars=["purchased", "recorded"], var_name="source",
                            value_name="amount")
         long["item"] = long["item"] + " [" + long["unit"] + "]"
-        fig = px.bar(long, x="item", y="amount", color="source", barmode="group", log_y=True,
-                     title="Purchased and recorded, whole period", labels={"amount": "amount (log scale)"})
+        fig = charts.purchased_recorded_figure(long)
         st.plotly_chart(fig, width="stretch", key="ra_recon")
         figs.append(("Purchased and recorded", fig))
         st.dataframe(recon, hide_index=True, width="stretch",
