@@ -19,6 +19,7 @@ from model.audit.reconcile import reconcile
 from model.io.record_files import DEFAULT_GAP_LIMIT_MIN
 from model.io.uploads import check_upload
 from ui import charts
+from ui.format import plain_paths
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "demo_data" / "records"
@@ -82,19 +83,18 @@ def run_audit(files: tuple, purchases: tuple | None, settings: tuple, _ref, _pro
     """
     gap, high, limit, gwp, temp = settings
     with tempfile.TemporaryDirectory(prefix="gas-ledger-audit-") as tmp:
+        known: dict[str, str] = {}     # copy in the temporary folder -> the name the user knows
+
         def shown(text):
             """Name the uploaded file, not its copy in the private temporary folder."""
-            if not isinstance(text, str):
-                return text
-            for i, (name, _) in enumerate(files):
-                text = text.replace(str(Path(tmp) / f"{i:03d}-{Path(name).name}"), Path(name).name)
-            return text.replace(tmp + "/", "")
+            return plain_paths(text, known)
 
         paths = []
         for i, (name, data) in enumerate(files):
             p = Path(tmp) / f"{i:03d}-{Path(name).name}"
             p.write_bytes(data)
             paths.append(p)
+            known[str(p)] = Path(name).name
         recon, purchase_notes = None, []
         try:
             result = audit_records(paths, reference=_ref, gwp_source=gwp, temperature_c=temp,
@@ -103,20 +103,19 @@ def run_audit(files: tuple, purchases: tuple | None, settings: tuple, _ref, _pro
             if purchases is not None:
                 p = Path(tmp) / Path(purchases[0]).name
                 p.write_bytes(purchases[1])
+                known[str(p)] = p.name
                 bought = load_purchases(p, _ref)
                 purchase_notes = [shown(m) for m in bought.messages]
                 recon = reconcile(bought.table, result.use_by_month(), _ref, gwp)
         except InputError as err:
             raise InputError(shown(str(err.field)), shown(err.value), shown(err.allowed)) from None
     # File names inside the temporary folder mean nothing to the user: show the uploaded names.
-    for i, (name, _) in enumerate(files):
-        inner, outer = str(Path(tmp) / f"{i:03d}-{Path(name).name}"), Path(name).name
-        for df in (result.report.issues, result.report.gap_list):
-            for col in ("file", "message"):
-                if len(df):
-                    df[col] = df[col].str.replace(inner, outer, regex=False)
-        result.report.files[i] = outer
-    result.report.notes = [n.replace(tmp + "/", "") for n in result.report.notes]
+    for df in (result.report.issues, result.report.gap_list):
+        for col in ("file", "message"):
+            if len(df):
+                df[col] = df[col].map(shown)
+    result.report.files[:] = [Path(name).name for name, _ in files]
+    result.report.notes = [shown(n) for n in result.report.notes]
     return result, recon, purchase_notes
 
 

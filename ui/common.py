@@ -16,6 +16,8 @@ from model.io.exports import to_csv, to_xlsx
 from model.plan import CasePlan
 from model.store import Store, StoreError, default_path
 
+from .format import plain_paths
+
 ROOT = Path(__file__).resolve().parents[1]
 DEMO_PLANS = ROOT / "demo_data" / "plans"
 
@@ -83,7 +85,8 @@ def get_store() -> Store:
     try:
         return _store_at(str(default_path()))
     except StoreError as err:
-        st.error(md(str(err)), icon=":material/error:")
+        path = default_path()
+        st.error(md(plain_paths(str(err), {str(path): path.name})), icon=":material/error:")
         st.stop()
 
 
@@ -176,7 +179,7 @@ def _sidebar() -> ViewSettings:
                                       "in tonnes CO2e, the unit of annual reporting.")
         st.divider()
         st.caption(CAUTION)
-        st.caption(f"Store: {md(default_path())}")
+        st.caption(f"Your work is saved in the store file {md(default_path().name)} on the server.")
     return ViewSettings(currency.strip(), source, years, float(temp), flow_unit, co2e_unit)
 
 
@@ -239,7 +242,7 @@ def md(text) -> str:
 def show_input_error(err: Exception, where: str = "") -> None:
     """One clear line for a bad entry (never a traceback); user text in it is escaped."""
     prefix = f"{where}: " if where else ""
-    st.error(md(prefix + str(err)), icon=":material/error:")
+    st.error(md(plain_paths(prefix + str(err))), icon=":material/error:")
 
 
 # ---- downloads -----------------------------------------------------------------------
