@@ -15,6 +15,7 @@ from model.plan import CasePlan
 from model.io.plans import plan_from_dict, plan_to_dict, plan_to_toml
 from model.reference import VOLATILES
 from ui import charts
+from ui import format as fmt
 
 view = ui.page_start("Case plan", "Build one case phase by phase. Figures update as you type; "
                      "numbers may carry units (\"500 mL/min\", \"1.5 h\").")
@@ -335,8 +336,8 @@ with tabs[0]:
 with tabs[1]:
     c1, c2 = st.columns([3, 2])
     c1.plotly_chart(figs["fate"], width="stretch", key="cp_fig_fate")
-    c2.dataframe(fate.assign(agent_g=fate["agent_g"].round(1)), hide_index=True,
-                 column_config={"where": "where it went", "agent_g": "agent (g)"})
+    with c2:
+        fmt.table(fate, width="content")
     if "agent_vented_g" not in t and t.get("agent_uptake_g", 0.0) == 0.0:
         c2.caption("No uptake model ran for this plan: all delivered agent counts as vented (an upper bound).")
     if plan.settings.capture_efficiency > 0:
@@ -363,7 +364,7 @@ with tabs[2]:
                    "the depth count as candidates (hollow markers do not). A lower flow also needs closer "
                    "monitoring and follows local protocol.")
         with st.expander("Sweep table"):
-            st.dataframe(sweep_table, hide_index=True, width="stretch")
+            fmt.table(sweep_table, result.currency)
 with tabs[3]:
     ph = result.phases
     shown = pd.DataFrame({
@@ -373,11 +374,12 @@ with tabs[3]:
         "liquid (mL)": ph["liquid_agent_ml"].round(1), f"CO2e ({view.co2e_unit})": (ph["co2e_kg"] * co2e_scale).round(3),
         f"cost ({result.currency})": ph["cost_total"].round(2), "MAC-hours": ph["mac_hours"].round(2),
         "mix altered": ph["flows_altered"]})
-    st.dataframe(shown, hide_index=True, width="stretch")
+    fmt.table(shown)
 with tabs[4]:
     c1, c2 = st.columns([3, 2])
     c1.plotly_chart(figs["cost"], width="stretch", key="cp_fig_cost")
-    c2.dataframe(charts.cost_by_item(t, result.currency), hide_index=True)
+    with c2:
+        fmt.table(charts.cost_by_item(t, result.currency), width="content")
 
 
 # ---- downloads, saving, plan files ---------------------------------------------------
@@ -416,7 +418,8 @@ def _report() -> str:
                                "Phases": shown},
                        figures=[("Time course", figs["time"]), ("Where the agent went", figs["fate"]),
                                 ("Flow sweep", figs.get("sweep")), ("Cost by item", figs["cost"])],
-                       warnings=result.warnings, cautions=[ui.CAUTION], sources=sources)
+                       warnings=result.warnings, cautions=[ui.CAUTION], sources=sources,
+                       currency=result.currency)
 
 
 st.divider()

@@ -10,6 +10,7 @@ from model import InputError
 from model.io.exports import html_report
 from model.io.plans import plan_to_toml
 from ui import charts
+from ui import format as fmt
 
 view = ui.page_start("Compare", "Saved plans side by side. The first plan is the baseline; every "
                      "other plan shows its difference from it, in units and in per cent.")
@@ -107,9 +108,9 @@ def _compare_plans() -> None:
         rows.append(row)
     table = pd.DataFrame(rows)
     st.subheader("Side by side")
-    st.dataframe(table, hide_index=True, width="stretch",
-                 # four significant figures: a case's emissions in t CO2e are small numbers
-                 column_config={c: st.column_config.NumberColumn(format="%.4g") for c in table.columns[2:]})
+    # Figures to four significant figures: a case's emissions in t CO2e are small numbers.
+    fmt.table(table, view.currency, config={c: st.column_config.NumberColumn(format="%.4g")
+                                            for c in table.columns[2:]})
 
     cost_df = pd.DataFrame({"item": charts.cost_by_item(bt, base.currency)["item"]})
     co2e_df = pd.DataFrame({"source": ["Volatile agent", "Nitrous oxide"]})
@@ -147,7 +148,7 @@ def _compare_plans() -> None:
 
     def _report() -> str:
         return html_report("Plan comparison", inputs=inputs, tables={"Side by side": table}, figures=figs,
-                           warnings=warnings, cautions=[ui.CAUTION], sources=sources)
+                           warnings=warnings, cautions=[ui.CAUTION], sources=sources, currency=view.currency)
 
     st.divider()
     st.markdown("**Download this comparison**")

@@ -15,6 +15,7 @@ from model.reference import GWP_SOURCES, VOLATILES
 from model.year.inputs import MAX_DRAWS, Practice, Sampling
 from model.io.scenario import load_scenario
 from model.year.compare import nonzero_rows
+from ui import format as fmt
 from ui import year_views as yv
 
 view = ui.page_start("Department year", "A department's case mix scaled to a year: bottles per month, "
@@ -143,12 +144,10 @@ st.plotly_chart(figs[2][1], width="stretch", key="dy_fig_source")
 
 summary = nonzero_rows(result.summary).drop(columns=["key"])
 st.subheader("Headline figures")
-st.dataframe(summary, hide_index=True, width="stretch",
-             column_config={c: st.column_config.NumberColumn(format="%.2f")
-                            for c in ("deterministic", "p5", "p50", "p95")})
+fmt.table(summary, cur)
 with st.expander("Per month and per case type"):
-    st.dataframe(result.monthly, hide_index=True, width="stretch")
-    st.dataframe(result.by_type, hide_index=True, width="stretch")
+    fmt.table(result.monthly, cur)
+    fmt.table(result.by_type, cur)
 
 if result.warnings:
     with st.expander(f"Warnings ({len(result.warnings)})", icon=":material/warning:"):
@@ -169,7 +168,7 @@ def _report() -> str:
                        tables={"Headline figures": summary, "Per month": result.monthly,
                                "Per case type": result.by_type},
                        figures=figs, warnings=result.warnings, cautions=[ui.CAUTION, *result.notes],
-                       sources=tables["Sources"])
+                       sources=tables["Sources"], currency=cur)
 
 
 st.divider()

@@ -19,6 +19,7 @@ from model.audit.reconcile import reconcile
 from model.io.record_files import DEFAULT_GAP_LIMIT_MIN
 from model.io.uploads import check_upload
 from ui import charts
+from ui import format as fmt
 from ui.format import plain_paths
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -162,18 +163,18 @@ st.caption(f"GWP source: {result.gwp_label}. Every delivered gram counts as emit
 
 with st.expander(f"Checks: {summary['rows_set_aside']:,} row(s) set aside, {summary['gaps']:,} gap(s)",
                  expanded=summary["rows_set_aside"] > 0 or summary["gaps"] > 0):
-    kinds = pd.DataFrame([(k, v) for k, v in summary["set_aside_by_kind"].items() if v],
+    kinds = pd.DataFrame([(fmt.problem_words(k), v) for k, v in summary["set_aside_by_kind"].items() if v],
                          columns=["problem", "rows set aside"])
     if len(kinds):
-        st.dataframe(kinds, hide_index=True)
-        st.dataframe(rep.issues[["file", "row", "kind", "column", "value", "message"]], hide_index=True,
-                     width="stretch", height=min(35 * (len(rep.issues) + 1) + 3, 300))
+        fmt.table(kinds, width="content")
+        fmt.table(fmt.issue_messages(rep.issues[["file", "row", "kind", "column", "value", "message"]]),
+                  height=min(35 * (len(rep.issues) + 1) + 3, 300))
     else:
         st.caption("Every row passed the checks.")
     if summary["gaps"]:
         st.caption(f"Gaps over {summary['gap_limit_min']:g} min are not filled: "
                    f"{summary['gap_minutes_not_counted']:,.0f} min are left out of the sums.")
-        st.dataframe(rep.gap_list[["file", "row", "case_id", "minutes"]], hide_index=True, width="stretch")
+        fmt.table(rep.gap_list[["file", "row", "case_id", "minutes"]])
     for note in summary["notes"]:
         st.caption(note)
 
@@ -186,22 +187,22 @@ with tab_cases:
     if fig is not None:
         st.plotly_chart(fig, width="stretch", key="ra_hist")
         figs.append(("Liquid agent per case", fig))
-    st.dataframe(cases, hide_index=True, width="stretch", height=300)
+    fmt.table(cases, view.currency, height=300)
 with tab_bands:
     bands = result.bands_by_theatre()
     fig = charts.flow_bands_figure(bands)
     st.plotly_chart(fig, width="stretch", key="ra_bands")
     figs.append(("Flow bands by theatre", fig))
     by_theatre = result.by("theatre")
-    st.dataframe(by_theatre, hide_index=True, width="stretch")
+    fmt.table(by_theatre, view.currency)
 with tab_month:
     by_month = result.by("month")
     fig = charts.monthly_co2e_figure(by_month, ui.common.CO2E_UNITS[view.co2e_unit], view.co2e_unit)
     st.plotly_chart(fig, width="stretch", key="ra_month")
     figs.append(("CO2e by month", fig))
     by_agent = result.by("agent")
-    st.dataframe(by_month, hide_index=True, width="stretch")
-    st.dataframe(by_agent, hide_index=True, width="stretch")
+    fmt.table(by_month, view.currency)
+    fmt.table(by_agent, view.currency)
 with tab_recon:
     if purchase_notes:
         more = len(purchase_notes) - 20
@@ -221,12 +222,11 @@ with tab_recon:
                            "returned, and use not in the records.")
         long = totals.melt(id_vars=["item", "unit"], value_vars=["purchased", "recorded"], var_name="source",
                            value_name="amount")
-        long["item"] = long["item"] + " [" + long["unit"] + "]"
+        long["item"] = long["item"].str.replace("_", " ") + " (" + long["unit"] + ")"
         fig = charts.purchased_recorded_figure(long)
         st.plotly_chart(fig, width="stretch", key="ra_recon")
         figs.append(("Purchased and recorded", fig))
-        st.dataframe(recon, hide_index=True, width="stretch",
-                     column_config={"unexplained_share": st.column_config.NumberColumn(format="percent")})
+        fmt.table(recon, view.currency)
         st.caption("Months differ by stock held over; the 'all' row of each item is the fairer comparison.")
 
 tables = {"Cases": cases, "By theatre": result.by("theatre"), "By month": result.by("month"),
@@ -249,7 +249,7 @@ def _report() -> str:
         shown["Purchases"] = recon
     return html_report("Record audit", inputs=inputs, tables=shown, figures=figs,
                        cautions=[ui.CAUTION, "Every delivered gram counts as emitted (no uptake model)."],
-                       sources=pd.DataFrame(ref.table()))
+                       sources=pd.DataFrame(ref.table()), currency=view.currency)
 
 
 ui.downloads("record audit", tables, _report, key="ra_dl")

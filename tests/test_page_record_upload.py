@@ -33,7 +33,7 @@ def test_one_line_not_in_utf8_is_set_aside_on_the_page_as_on_the_command_line(tm
     assert not at.error, [e.value for e in at.error]
     assert _metric(at, "Rows set aside") == f"{cli.report.rows_set_aside:,}"
     assert _metric(at, "Rows used") == f"{cli.report.summary()['rows_valid']:,}"
-    shown = " ".join(str(v) for df in at.dataframe for col in ("message", "file") if col in df.value
-                     for v in df.value[col])
-    assert "theatre_export.csv: line 4" in shown, shown
+    issues = next(df.value for df in at.dataframe if "message" in df.value.columns)
+    assert issues[["file", "line or row", "problem"]].values.tolist() == [["theatre_export.csv", 4, "not UTF-8 text"]]
+    shown = " ".join(str(v) for v in issues.values.ravel())
     assert "/tmp" not in shown and "gas-ledger-audit" not in shown

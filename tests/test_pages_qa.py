@@ -209,6 +209,6 @@ def test_a_bad_purchase_line_is_shown_set_aside_and_the_rest_reconciled():
     assert "1 purchase line(s) set aside" in warning
     assert "bought\\.csv, line 2\\: size" in warning and "/tmp" not in warning
     # The good line is reconciled: 2 cylinders of 9000 L (arithmetic).
-    recon = next(df.value for df in at.dataframe if "apparent_loss" in df.value.columns)
-    total = recon[(recon["item"] == "nitrous_oxide") & (recon["month"] == "all")]
+    recon = next(df.value for df in at.dataframe if "apparent loss" in df.value.columns)
+    total = recon[(recon["item"] == "nitrous oxide") & (recon["month"] == "all")]
     assert float(total["purchased"].iloc[0]) == 18000.0

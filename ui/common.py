@@ -16,7 +16,7 @@ from model.io.exports import to_csv, to_xlsx
 from model.plan import CasePlan
 from model.store import Store, StoreError, default_path
 
-from .format import plain_paths
+from .format import plain_paths, readable_frame
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO_PLANS = ROOT / "demo_data" / "plans"
@@ -252,12 +252,19 @@ def _slug(name: str) -> str:
     return (s or "export")[:60]
 
 
+def _currency() -> str:
+    """The sidebar's currency label (for headings of cost columns)."""
+    return st.session_state.get("_gl_view", ViewSettings()).currency
+
+
 def downloads(name: str, tables: Mapping[str, pd.DataFrame], report: Callable[[], str] | None,
               key: str, notes: tuple[str, ...] = ()) -> None:
     """The row of downloads under a results view: CSV (first table), Excel (all), HTML report.
 
-    The Excel workbook and HTML report are built only when asked for.
+    The Excel workbook and HTML report are built only when asked for. Tables are written for
+    people (``ui.format.readable_frame``: headings in words with units, figures rounded).
     """
+    tables = {k: readable_frame(v, _currency()) for k, v in tables.items()}
     slug = _slug(name)
     first_name, first = next(iter(tables.items()))
     c1, c2, c3, _ = st.columns([1, 1, 1.5, 1])

@@ -11,6 +11,7 @@ from model.io.exports import html_report
 from model.io.scenario import load_scenario
 from model.year.compare import nonzero_rows
 
+from . import format as fmt
 from . import year_views as yv
 
 HEADLINES = [("cost_total", "cost"), ("bottles_total", "bottles"), ("co2e_total_t", "t CO2e"),
@@ -51,9 +52,7 @@ def render(view) -> None:
                                               ("absorbent_kg", "absorbent")])
     st.plotly_chart(fig, width="stretch", key="yc_fig")
     table = nonzero_rows(comp.summary, ("baseline", "proposal", "p5", "p95")).drop(columns=["key"])
-    st.dataframe(table, hide_index=True, width="stretch",
-                 column_config={c: st.column_config.NumberColumn(format="%.2f")
-                                for c in ("baseline", "proposal", "difference", "p5", "p50", "p95")})
+    fmt.table(table, comp.baseline.currency)
     warnings = list(dict.fromkeys(comp.baseline.warnings + comp.proposal.warnings))
     if warnings:
         with st.expander(f"Warnings ({len(warnings)})", icon=":material/warning:"):
@@ -69,6 +68,7 @@ def render(view) -> None:
     def _report() -> str:
         return html_report("Year comparison", inputs=inputs, tables={"Paired difference": table},
                            figures=[("Change per year", fig)], warnings=warnings,
-                           cautions=[ui.CAUTION, *comp.proposal.notes], sources=tables["Sources"])
+                           cautions=[ui.CAUTION, *comp.proposal.notes], sources=tables["Sources"],
+                           currency=comp.baseline.currency)
 
     ui.downloads("year comparison", tables, _report, key="yc_dl")

@@ -19,6 +19,8 @@ from typing import Iterable, Mapping, Sequence
 import numpy as np
 import pandas as pd
 
+from model.io.readable import column_label, is_money, number_text, readable_frame
+
 
 #: Characters that make a spreadsheet read a cell as a formula.
 FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
@@ -144,20 +146,18 @@ padding:.25rem .5rem;text-align:left}th{background:#eef3f5}td.num{text-align:rig
 """
 
 
-def _table_html(df: pd.DataFrame, digits: int = 3) -> str:
-    head = "".join(f"<th>{html.escape(str(c))}</th>" for c in df.columns)
+def _table_html(df: pd.DataFrame) -> str:
+    """A table as HTML: headings in words with units, figures as :func:`number_text` shows them."""
+    head = "".join(f"<th>{html.escape(column_label(c))}</th>" for c in df.columns)
+    money = [is_money(c) for c in df.columns]
     rows = []
     for row in df.itertuples(index=False, name=None):
         cells = []
-        for v in row:
+        for v, m in zip(row, money):
             if isinstance(v, (bool, np.bool_)):
                 cells.append(f"<td>{'yes' if v else 'no'}</td>")
-            elif isinstance(v, (int, np.integer)):
-                cells.append(f"<td class='num'>{int(v):,}</td>")
-            elif isinstance(v, (float, np.floating)):
-                shown = "" if not math.isfinite(float(v)) else f"{float(v):,.{digits}g}" if abs(float(v)) < 1 \
-                    else f"{float(v):,.2f}"
-                cells.append(f"<td class='num'>{shown}</td>")
+            elif isinstance(v, (int, np.integer, float, np.floating)):
+                cells.append(f"<td class='num'>{number_text(v, m)}</td>")
             elif v is None:
                 cells.append("<td></td>")
             else:
@@ -170,7 +170,8 @@ def html_report(title: str, *, inputs: Mapping[str, object] | None = None,
                 tables: Mapping[str, pd.DataFrame] | None = None,
                 figures: Iterable[tuple[str, object]] = (),
                 warnings: Sequence[str] = (), cautions: Sequence[str] = (),
-                sources: pd.DataFrame | None = None, generated_by: str = "Fresh Gas Ledger") -> str:
+                sources: pd.DataFrame | None = None, generated_by: str = "Fresh Gas Ledger",
+                currency: str = "") -> str:
     """A self-contained HTML report: inputs, tables, charts, warnings, cautions, sources.
 
     Parameters
@@ -187,6 +188,11 @@ def html_report(title: str, *, inputs: Mapping[str, object] | None = None,
         Model warnings for these inputs, and the standing cautions.
     sources : DataFrame, optional
         The reference values used, with their sources.
+    currency : str
+        Currency label for the headings of cost columns.
+
+    Tables are shown for people (``model.io.readable.readable_frame``: headings in words with
+    units, figures to sensible significant figures).
 
     Returns
     -------
@@ -209,7 +215,7 @@ def html_report(title: str, *, inputs: Mapping[str, object] | None = None,
         parts.append(_table_html(pd.DataFrame({"input": list(inputs), "value": [str(v) for v in inputs.values()]})))
     for heading, df in (tables or {}).items():
         parts.append(f"<h2>{e(str(heading))}</h2>")
-        parts.append(_table_html(df))
+        parts.append(_table_html(readable_frame(df, currency)))
     first = True
     for heading, fig in figures:
         if fig is None:

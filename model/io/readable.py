@@ -81,7 +81,7 @@ for _band in ("metabolic", "minimal", "low", "medium", "high", "very_high"):
 COLUMN_LABELS: Mapping[str, str] = _LABELS
 
 #: Columns of money (two decimals) and of whole counts.
-_MONEY = re.compile(r"^cost(_|$)")
+_MONEY = re.compile(r"^cost(_|,| \(|$)", re.IGNORECASE)
 _PERCENT_SHARES = ("unexplained_share",)
 
 #: Problem kinds of the records check (``model.io.record_report.ISSUE_KINDS``) in words.
@@ -174,7 +174,9 @@ def number_text(value, money: bool = False) -> str:
     text = f"{v:,.{d}f}"
     if not money and "." in text:
         text = text.rstrip("0").rstrip(".")
-    return "0" if text in ("-0", "") else text
+    if text.startswith("-") and not text.strip("-0.,"):
+        text = text[1:]          # no "-0" or "-0.00"
+    return text or "0"
 
 
 def is_money(column) -> bool:
@@ -184,11 +186,17 @@ def is_money(column) -> bool:
 def readable_frame(df: pd.DataFrame, currency: str = "", *, rename: bool = True) -> pd.DataFrame:
     """A copy of a result table for people: headings in words with units, figures rounded
     (numbers stay numbers), whole-number float columns as integers, problem kinds and GWP
-    sources in words, shares as per cent.
+    sources in words, shares as per cent. Values of a table with a ``source`` column (the
+    reference values) are kept exact.
     """
     out = df.copy()
+    # A table of sourced values (the reference table) shows each value exactly as its source
+    # gives it: only results are rounded.
+    exact = {"value", "default", "default (before your value)"} if "source" in out.columns else set()
     for col in out.columns:
         s = out[col]
+        if str(col) in exact:
+            continue
         if str(col) in _PERCENT_SHARES and pd.api.types.is_numeric_dtype(s):
             s = s * 100.0
         if pd.api.types.is_bool_dtype(s):
@@ -207,6 +215,8 @@ def readable_frame(df: pd.DataFrame, currency: str = "", *, rename: bool = True)
             s = s.map(gwp_label)
         elif str(col) == "unit":
             s = s.map(lambda u: "°C" if u == "degC" else u)
+        elif str(col) in ("item", "agent") and (pd.api.types.is_object_dtype(s) or pd.api.types.is_string_dtype(s)):
+            s = s.map(lambda v: v.replace("_", " ") if isinstance(v, str) and re.fullmatch(r"[a-z_]+", v) else v)
         out[col] = s
     if rename:
         out.columns = [column_label(c, currency) for c in out.columns]
