@@ -139,15 +139,39 @@ body{font-family:system-ui,-apple-system,'Segoe UI',sans-serif;margin:2rem auto;
 color:#1d2a33;line-height:1.45;padding:0 1rem}
 h1{font-size:1.6rem;margin-bottom:.2rem}h2{font-size:1.2rem;margin-top:2rem;border-bottom:1px solid #cfd8dc;
 padding-bottom:.2rem}.meta{color:#546e7a;font-size:.9rem}
-table{border-collapse:collapse;font-size:.85rem;margin:.5rem 0}th,td{border:1px solid #cfd8dc;
-padding:.25rem .5rem;text-align:left}th{background:#eef3f5}td.num{text-align:right}
+.table-wrap{max-width:100%;overflow-x:auto;margin:.5rem 0}
+table{border-collapse:collapse;font-size:.8rem}th,td{border:1px solid #cfd8dc;
+padding:.2rem .4rem;text-align:left;vertical-align:top;overflow-wrap:break-word;hyphens:auto}
+th{background:#eef3f5;font-weight:600}td.num{text-align:right;
+white-space:nowrap;font-variant-numeric:tabular-nums}
+.figure{max-width:100%;overflow:hidden;break-inside:avoid}
+@media print{body{margin:0;max-width:none}.table-wrap{overflow:visible}table{font-size:7pt}
+h2{break-after:avoid}}
 .caution{background:#fff8e1;border-left:4px solid #f0a500;padding:.6rem 1rem;margin:1rem 0}
 .warning{background:#fdecea;border-left:4px solid #c62828;padding:.4rem 1rem;margin:.3rem 0}
 """
 
 
+#: Most columns of one report table; a wider table is shown in parts that repeat its first
+#: column, so every part fits A4 width (a page never scrolls sideways, nothing is cut on print).
+MAX_REPORT_COLUMNS = 8
+
+
 def _table_html(df: pd.DataFrame) -> str:
-    """A table as HTML: headings in words with units, figures as :func:`number_text` shows them."""
+    """A table as HTML: headings in words with units, figures as :func:`number_text` shows them.
+
+    Tables wider than ``MAX_REPORT_COLUMNS`` are split into parts that repeat the first column.
+    """
+    if len(df.columns) > MAX_REPORT_COLUMNS:
+        first, rest = df.columns[:1], list(df.columns[1:])
+        step = MAX_REPORT_COLUMNS - 1
+        n = -(-len(rest) // step)
+        step = -(-len(rest) // n)          # parts of even width
+        return "".join(_table_part(df[list(first) + rest[i:i + step]]) for i in range(0, len(rest), step))
+    return _table_part(df)
+
+
+def _table_part(df: pd.DataFrame) -> str:
     head = "".join(f"<th>{html.escape(column_label(c))}</th>" for c in df.columns)
     money = [is_money(c) for c in df.columns]
     rows = []
@@ -163,7 +187,23 @@ def _table_html(df: pd.DataFrame) -> str:
             else:
                 cells.append(f"<td>{html.escape(str(v))}</td>")
         rows.append("<tr>" + "".join(cells) + "</tr>")
-    return f"<table><thead><tr>{head}</tr></thead><tbody>{''.join(rows)}</tbody></table>"
+    # On a screen narrower than the table, it scrolls inside its own box, never the page.
+    return (f"<div class='table-wrap'><table><thead><tr>{head}</tr></thead>"
+            f"<tbody>{''.join(rows)}</tbody></table></div>")
+
+
+def _report_figure(fig):
+    """A copy of a figure for a report: it takes the report's width (never a fixed one), and
+    every axis makes room for its tick labels and title (plotly's automargin), so labels are
+    never cut at the figure's edge on A4 or on a screen. The page's own figure is left as it is.
+    """
+    import plotly.graph_objects as go
+
+    out = go.Figure(fig)
+    out.update_layout(width=None, autosize=True)
+    out.update_xaxes(automargin=True)
+    out.update_yaxes(automargin=True)
+    return out
 
 
 def html_report(title: str, *, inputs: Mapping[str, object] | None = None,
@@ -221,8 +261,9 @@ def html_report(title: str, *, inputs: Mapping[str, object] | None = None,
         if fig is None:
             continue
         parts.append(f"<h2>{e(str(heading))}</h2>")
-        parts.append(fig.to_html(full_html=False, include_plotlyjs=True if first else False,
-                                 config={"displaylogo": False, "responsive": True}))
+        parts.append("<div class='figure'>" + _report_figure(fig).to_html(
+            full_html=False, include_plotlyjs=True if first else False, default_width="100%",
+            config={"displaylogo": False, "responsive": True}) + "</div>")
         first = False
     if sources is not None and len(sources):
         parts.append("<h2>Reference values and their sources</h2>")
