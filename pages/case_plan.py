@@ -89,7 +89,11 @@ elif ss.get("cp_editor_unit") != view.flow_unit:
     ss["cp_editor_unit"] = view.flow_unit
     ss["cp_rev"] += 1
 
-with st.container(border=True):
+# Laptop first: the inputs on the left, the headline results beside them on the right, so
+# they stay in view while the plan is edited (a 1366 x 768 screen shows both).
+inputs_col, headline_col = st.columns([3, 2], gap="small")
+headline = headline_col.container(border=True)
+with inputs_col.container(border=True):
     c1, c2, c3 = st.columns([3, 1, 1], vertical_alignment="bottom")
     c1.selectbox("Open a saved plan", names, key="cp_open_name",
                  index=names.index(ss["cp_base"].name) if ss["cp_base"].name in names else 0)
@@ -99,21 +103,21 @@ with st.container(border=True):
     st.caption(f"Editing: {ui.md(ss['cp_origin'])}")
 flash = ss.pop("cp_flash", None)
 if flash:
-    getattr(st, flash[0])(ui.md(flash[1]))
+    getattr(inputs_col, flash[0])(ui.md(flash[1]))
 
 
 # ---- the inputs ----------------------------------------------------------------------
 
-st.subheader("Inputs")
+inputs_col.subheader("Inputs")
 field_errors: dict[str, str] = {}
-a1, a2, a3, a4 = st.columns([3, 1.3, 1, 1])
+a1, a2, a3, a4 = inputs_col.columns([3, 1.3, 1, 1])
 a1.text_input("Plan name", key="cp_name", max_chars=120)
 a2.selectbox("Agent", VOLATILES, key="cp_agent", format_func=lambda k: ref.agents[k].label)
 a3.text_input("Patient weight", key="cp_weight", help="e.g. 78 kg or 172 lb")
 a4.text_input("Patient age", key="cp_age", help="in years, e.g. 52 year")
 slots = {"name": a1.empty(), "agent": a2.empty(), "weight": a3.empty(), "age": a4.empty()}
 
-with st.expander("Safety limits and scavenging", icon=":material/tune:"):
+with inputs_col.expander("Safety limits and scavenging", icon=":material/tune:"):
     b1, b2, b3 = st.columns(3)
     b1.text_input("Warn under inspired O2", key="cp_floor", help="Never below 21 %")
     b2.text_input("Lowest sevoflurane flow", key="cp_sevo_min",
@@ -122,21 +126,23 @@ with st.expander("Safety limits and scavenging", icon=":material/tune:"):
     slots.update({"inspired_o2_floor": b1.empty(), "sevoflurane_min_flow": b2.empty(),
                   "capture_efficiency": b3.empty()})
 
-st.markdown("**Phases** — one row per phase; add or delete rows at the table's edge.")
-edited = st.data_editor(
+inputs_col.markdown("**Phases** — one row per phase; add or delete rows at the table's edge.")
+edited = inputs_col.data_editor(
     ss["cp_editor_df"], key=f"cp_phases_{ss['cp_rev']}", num_rows="dynamic", hide_index=True,
     width="stretch",
     column_config={
         "phase": st.column_config.TextColumn("phase", required=True, max_chars=80),
-        "duration": st.column_config.TextColumn("duration", help="e.g. 75 min or 1.25 h", required=True),
-        "O2": st.column_config.TextColumn("O2 flow", help="e.g. 0.5 L/min or 500 mL/min"),
-        "air": st.column_config.TextColumn("air flow"),
-        "N2O": st.column_config.TextColumn("N2O flow"),
+        "duration": st.column_config.TextColumn("duration", help="e.g. 75 min or 1.25 h", required=True,
+                                                width="small"),
+        "O2": st.column_config.TextColumn("O2 flow", help="e.g. 0.5 L/min or 500 mL/min", width="small"),
+        "air": st.column_config.TextColumn("air flow", width="small"),
+        "N2O": st.column_config.TextColumn("N2O flow", width="small"),
         "control": st.column_config.SelectboxColumn("control", options=list(CONTROL_LABELS), required=True,
+                                                    width="small",
                                                     help="dial: vaporizer setting; target: end-tidal MAC multiple"),
         "setting": st.column_config.TextColumn("dial % or target", help="e.g. 2.5 % (dial) or 1.0 (x MAC)"),
     })
-table_slot = st.empty()
+table_slot = inputs_col.empty()
 
 
 _BARE_NUMBER = re.compile(r"[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?")
@@ -221,8 +227,8 @@ else:
     _place_error(payload, message)
 
 if result is None:
-    st.warning("The figures below are the last valid result; correct the entry above to update them.",
-               icon=":material/history:")
+    headline.warning("These figures are the last valid result; correct the entry on the left to update them.",
+                     icon=":material/history:")
     try:
         result = ui.compute_cached(ss["cp_last_toml"], ref_key, ref)
     except InputError as err:   # e.g. the GWP source has no value for this agent
@@ -253,10 +259,10 @@ def _delta(key, fmt, scale=1.0):
     return fmt((t[key] - b[key]) * scale)
 
 
-st.subheader("What this case uses")
+headline.subheader("What this case uses")
 agent = ref.volatile(plan.agent)
 co2e_scale = ui.common.CO2E_UNITS[view.co2e_unit]
-m = st.columns(6)
+m = [cell for _ in range(3) for cell in headline.columns(2)]     # two figures a row, three rows
 m[0].metric("Liquid agent", f"{t['liquid_agent_ml']:.1f} mL", _delta("liquid_agent_ml", lambda d: f"{d:+.1f} mL"),
             delta_color="inverse", help="Change shown against the plan as opened")
 m[1].metric("Bottles", f"{t['bottles']:.2f}", _delta("bottles", lambda d: f"{d:+.2f}"), delta_color="inverse",
@@ -286,6 +292,8 @@ g[4].metric("Agent emitted", f"{t['agent_emitted_g']:.1f} g")
 g[5].metric("Duration", f"{t['duration_min']:.0f} min")
 
 if result.warnings:
+    headline.warning(f"{len(result.warnings)} warning(s): see \"Check before use\" below the inputs.",
+                     icon=":material/warning:")
     with st.container(border=True):
         st.markdown("**Check before use**")
         for w in result.warnings:

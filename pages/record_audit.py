@@ -28,6 +28,11 @@ DEMO_RECORDS = {"A year of all theatres (Parquet)": DEMO / "fernhollow_2025.parq
                 "About 30 Birch cases, other layout, with deliberate problems (CSV)":
                     DEMO / "fernhollow_birch_cases.csv"}
 DEMO_PURCHASES = DEMO / "fernhollow_purchases_2025.csv"
+#: Columns shown first in the wide audit tables (the rest follow, a scroll away).
+CASE_COLUMNS_FIRST = ("case_id", "agent", "theatre", "month", "minutes", "mean_fgf_l_min", "liquid_agent_ml",
+                      "co2e_total_kg", "cost_total", "high_flow_flag")
+SUM_COLUMNS_FIRST = ("theatre", "month", "agent", "cases", "mean_fgf_l_min", "liquid_agent_ml", "co2e_total_kg",
+                     "cost_total", "high_flow_cases")
 
 view = ui.page_start("Record audit", "What case records say was used and emitted, case by case, by "
                      "theatre and month, and how that compares with what was bought.")
@@ -187,22 +192,22 @@ with tab_cases:
     if fig is not None:
         st.plotly_chart(fig, width="stretch", key="ra_hist")
         figs.append(("Liquid agent per case", fig))
-    fmt.table(cases, view.currency, height=300)
+    fmt.table(cases, view.currency, height=300, first=CASE_COLUMNS_FIRST)
 with tab_bands:
     bands = result.bands_by_theatre()
     fig = charts.flow_bands_figure(bands)
     st.plotly_chart(fig, width="stretch", key="ra_bands")
     figs.append(("Flow bands by theatre", fig))
     by_theatre = result.by("theatre")
-    fmt.table(by_theatre, view.currency)
+    fmt.table(by_theatre, view.currency, first=SUM_COLUMNS_FIRST)
 with tab_month:
     by_month = result.by("month")
     fig = charts.monthly_co2e_figure(by_month, ui.common.CO2E_UNITS[view.co2e_unit], view.co2e_unit)
     st.plotly_chart(fig, width="stretch", key="ra_month")
     figs.append(("CO2e by month", fig))
     by_agent = result.by("agent")
-    fmt.table(by_month, view.currency)
-    fmt.table(by_agent, view.currency)
+    fmt.table(by_month, view.currency, first=SUM_COLUMNS_FIRST)
+    fmt.table(by_agent, view.currency, first=SUM_COLUMNS_FIRST)
 with tab_recon:
     if purchase_notes:
         more = len(purchase_notes) - 20

@@ -146,3 +146,29 @@ def test_every_report_is_legible_at_a4_laptop_and_desktop_width(browser, reports
             assert pg.locator(".js-plotly-plot").count() > 0, slug
         context.close()
     assert not problems, problems
+
+
+def test_case_plan_first_laptop_screen_shows_the_headline_results_beside_the_inputs(browser, app_url):
+    """Defect 16: at 1366 x 768 the first screen of Case plan showed no results. The headline
+    figures must be on the first screen, beside the phases table, and every column of the
+    phases table must be in view without scrolling sideways."""
+    context = browser.new_context(viewport={"width": 1366, "height": 768})
+    pg = context.new_page()
+    pg.set_default_timeout(WAIT_MS)
+    _open(pg, app_url, "Case plan", "What this case uses")
+    pg.screenshot(path=str(ARTIFACTS / "case_plan_first_screen_1366x768.png"))
+    for label in ("Liquid agent", "Emissions", "Cost"):
+        box = pg.locator('[data-testid="stMetric"]').filter(has_text=label).first.bounding_box()
+        assert box and box["y"] >= 0 and box["y"] + box["height"] <= 768, (label, box)
+    # While the phases table is being edited (scrolled into view), the figures stay beside it.
+    grid = pg.locator('[data-testid="stDataFrame"]').first
+    grid.scroll_into_view_if_needed()
+    g = grid.bounding_box()
+    liquid = pg.locator('[data-testid="stMetric"]').filter(has_text="Liquid agent").first.bounding_box()
+    assert liquid["x"] > g["x"] + g["width"] - 1, (liquid, g)     # to the right of the table
+    headers = pg.evaluate("""() => [...document.querySelectorAll('[data-testid="stDataFrame"]')][0]
+        .querySelectorAll('[role="columnheader"]').length""")
+    assert headers >= 7, headers
+    last = pg.locator('[data-testid="stDataFrame"]').first.locator('[role="columnheader"]').last.bounding_box()
+    assert last is None or last["x"] + last["width"] <= g["x"] + g["width"] + 1, (last, g)
+    context.close()

@@ -27,6 +27,8 @@ ROOT = Path(__file__).resolve().parents[1]
 #: Text columns that hold sentences: shown wide so a message is not cut at the table's edge.
 _WIDE_TEXT = ("message", "source", "note", "values", "default_source")
 _LEADING_PLACE = re.compile(r"^.*?: (line|row) \d+: ")
+#: Tables with more columns than this keep their first column in view while scrolled sideways.
+PIN_AFTER_COLUMNS = 7
 
 
 def column_config(df: pd.DataFrame) -> dict:
@@ -47,16 +49,28 @@ def column_config(df: pd.DataFrame) -> dict:
             config[col] = st.column_config.NumberColumn(format="%.3g" if small else "localized")
         elif any(w in name.lower() for w in _WIDE_TEXT):
             config[col] = st.column_config.TextColumn(width="large")
+    if len(df.columns) > PIN_AFTER_COLUMNS:
+        # A wide table on a laptop: the first column (what each row is) stays in view.
+        first = df.columns[0]
+        if first in config:
+            config[first]["pinned"] = True
+        else:
+            config[first] = st.column_config.Column(pinned=True)
     return config
 
 
 def table(df: pd.DataFrame, currency: str = "", *, key: str | None = None, config: Mapping | None = None,
-          **kwargs) -> None:
+          first: tuple[str, ...] = (), **kwargs) -> None:
     """Show a result table for people (``st.dataframe`` of :func:`readable_frame`).
 
-    ``config`` adds or replaces column settings (by readable heading); other keyword
-    arguments go to ``st.dataframe`` (``height``, ``width``...). The index is hidden.
+    ``first`` names columns (by their machine names) to show first, so the figures that
+    matter are in view on a laptop before any sideways scrolling; a wide table keeps its
+    first column pinned. ``config`` adds or replaces column settings (by readable heading);
+    other keyword arguments go to ``st.dataframe`` (``height``, ``width``...). The index is hidden.
     """
+    if first:
+        lead = [c for c in first if c in df.columns]
+        df = df[lead + [c for c in df.columns if c not in lead]]
     shown = readable_frame(df, currency)
     cc = column_config(shown)
     cc.update(config or {})
