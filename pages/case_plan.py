@@ -309,10 +309,14 @@ result_toml = ss["cp_last_toml"]
 
 
 @st.cache_resource(show_spinner=False, max_entries=64)
-def _figures(plan_toml: str, ref_key: str, _result, _fate, _label) -> dict:
-    """The page's figures for one result (kept, not rebuilt, while the inputs stay the same)."""
-    return {"time": charts.timecourse_figure(_result.timecourse, _result.plan.settings.inspired_o2_floor * 100),
-            "fate": charts.fate_figure(_fate, _label), "cost": charts.cost_figure(_result.totals, _result.currency)}
+def _figure(kind: str, plan_toml: str, ref_key: str, _result, _fate, _label):
+    """One of the page's figures for one result, built when first shown (its tab opened, or a
+    report asked for), then kept while the inputs stay the same."""
+    if kind == "time":
+        return charts.timecourse_figure(_result.timecourse, _result.plan.settings.inspired_o2_floor * 100)
+    if kind == "fate":
+        return charts.fate_figure(_fate, _label)
+    return charts.cost_figure(_result.totals, _result.currency)
 
 
 @st.cache_resource(show_spinner=False, max_entries=64)
@@ -322,9 +326,6 @@ def _sweep_figure(plan_toml: str, ref_key: str, co2e_unit: str, _sw, _currency):
                                co2e_unit, feasible=_sw.table.get("feasible"))
 
 
-figs = dict(_figures(result_toml, ref_key, result, fate, agent.label))
-
-
 @st.cache_data(show_spinner=False, max_entries=128)
 def _sweep_cached(plan_toml: str, ref_key: str, _ref, _plan):
     """The flow sweep of the plan (``plan_toml`` is the key; ``_plan`` is that plan, parsed)."""
@@ -332,62 +333,93 @@ def _sweep_cached(plan_toml: str, ref_key: str, _ref, _plan):
     return flow_sweep(_plan, _ref)
 
 
-sweep_table = None
-tabs = st.tabs(["Time course", "Where the agent went", "Flow sweep", "Phases", "Cost by item"])
-with tabs[0]:
-    if figs["time"] is not None:
-        st.plotly_chart(figs["time"], width="stretch", key="cp_fig_time")
-    else:
-        st.info("The minute-by-minute time course (dial, inspired and end-tidal agent, inspired O2, "
-                "cumulative liquid) appears here when the patient and circle model runs for this plan.",
-                icon=":material/schedule:")
-with tabs[1]:
-    c1, c2 = st.columns([3, 2])
-    c1.plotly_chart(figs["fate"], width="stretch", key="cp_fig_fate")
-    with c2:
-        fmt.table(fate, width="content")
-    if "agent_vented_g" not in t and t.get("agent_uptake_g", 0.0) == 0.0:
-        c2.caption("No uptake model ran for this plan: all delivered agent counts as vented (an upper bound).")
-    if plan.settings.capture_efficiency > 0:
-        c2.caption(f"{plan.settings.capture_efficiency:.0%} of the vented agent is captured before release.")
-with tabs[2]:
-    figs["sweep"] = None
+def _sweep():
+    """The flow sweep (None when it cannot be worked out: see ``_sweep_error``)."""
     try:
-        with st.spinner("Sweeping the maintenance flow..."):
-            sw = _sweep_cached(result_toml, ref_key, ref, result.plan)
-    except InputError as err:
-        ui.show_input_error(err, "Flow sweep")
-    else:
-        sweep_table = sw.table
-        figs["sweep"] = _sweep_figure(result_toml, ref_key, view.co2e_unit, sw, result.currency)
-        st.plotly_chart(figs["sweep"], width="stretch", key="cp_fig_sweep")
-        phase_name = plan.phases[sw.phase_index].name
-        best = [f"lowest cost at **{view.flow(sw.cost_lowest_flow_l_min)}**" if sw.cost_lowest_flow_l_min else None,
-                f"lowest CO2e at **{view.flow(sw.emission_lowest_flow_l_min)}**" if sw.emission_lowest_flow_l_min
-                else None]
-        st.markdown(f"Flow of the *{ui.md(phase_name)}* phase varied at the same end-tidal depth "
-                    f"({sw.target_mac:.2f} x MAC): " + (", ".join(b for b in best if b) or
-                                                        "no flow keeps inspired O2 above the floor") + ".")
-        st.caption(f"Only flows that keep predicted inspired O2 above {sw.inspired_o2_floor_pct:.0f} % and hold "
-                   "the depth count as candidates (hollow markers do not). A lower flow also needs closer "
-                   "monitoring and follows local protocol.")
-        with st.expander("Sweep table"):
-            fmt.table(sweep_table, result.currency)
-with tabs[3]:
-    ph = result.phases
-    shown = pd.DataFrame({
-        "phase": ph["phase"], "minutes": ph["duration_min"],
-        f"fresh gas ({view.flow_unit})": ph["fgf_l_min"] * (1000 if view.flow_unit == "mL/min" else 1),
-        "flow band": ph["flow_band"], "fresh gas O2 %": ph["fd_o2_pct"].round(0), "dial %": ph["dial_pct"],
-        "liquid (mL)": ph["liquid_agent_ml"].round(1), f"CO2e ({view.co2e_unit})": (ph["co2e_kg"] * co2e_scale).round(3),
-        f"cost ({result.currency})": ph["cost_total"].round(2), "MAC-hours": ph["mac_hours"].round(2),
-        "mix altered": ph["flows_altered"]})
-    fmt.table(shown)
-with tabs[4]:
-    c1, c2 = st.columns([3, 2])
-    c1.plotly_chart(figs["cost"], width="stretch", key="cp_fig_cost")
-    with c2:
-        fmt.table(charts.cost_by_item(t, result.currency), width="content")
+        return _sweep_cached(result_toml, ref_key, ref, result.plan)
+    except InputError:
+        return None
+
+
+class _Figures(dict):
+    """The page's figures by name, each built on first use: a rerun builds only the figure of
+    the open tab; a report builds the rest when it is downloaded."""
+
+    def __missing__(self, kind):
+        if kind == "sweep":
+            sw = _sweep()
+            fig = None if sw is None else _sweep_figure(result_toml, ref_key, view.co2e_unit, sw, result.currency)
+        else:
+            fig = _figure(kind, result_toml, ref_key, result, fate, agent.label)
+        self[kind] = fig
+        return fig
+
+
+figs = _Figures()
+ph = result.phases
+shown = pd.DataFrame({
+    "phase": ph["phase"], "minutes": ph["duration_min"],
+    f"fresh gas ({view.flow_unit})": ph["fgf_l_min"] * (1000 if view.flow_unit == "mL/min" else 1),
+    "flow band": ph["flow_band"], "fresh gas O2 %": ph["fd_o2_pct"].round(0), "dial %": ph["dial_pct"],
+    "liquid (mL)": ph["liquid_agent_ml"].round(1), f"CO2e ({view.co2e_unit})": (ph["co2e_kg"] * co2e_scale).round(3),
+    f"cost ({result.currency})": ph["cost_total"].round(2), "MAC-hours": ph["mac_hours"].round(2),
+    "mix altered": ph["flows_altered"]})
+
+# Only the open tab runs (on_change="rerun"): the flow sweep, its figure and the other
+# figures are worked out when their tab is opened, which keeps a rerun after an edit quick.
+# The phases table opens first: it answers "what does each phase use" while editing, and a
+# page without a chart on it loads seconds sooner (the browser loads plotly only for a chart).
+TABS = ("Phases", "Time course", "Where the agent went", "Flow sweep", "Cost by item")
+tab = dict(zip(TABS, st.tabs(TABS, key="cp_tab", on_change="rerun")))
+with tab["Time course"]:
+    if tab["Time course"].open:
+        if figs["time"] is not None:
+            st.plotly_chart(figs["time"], width="stretch", key="cp_fig_time")
+        else:
+            st.info("The minute-by-minute time course (dial, inspired and end-tidal agent, inspired O2, "
+                    "cumulative liquid) appears here when the patient and circle model runs for this plan.",
+                    icon=":material/schedule:")
+with tab["Where the agent went"]:
+    if tab["Where the agent went"].open:
+        c1, c2 = st.columns([3, 2])
+        c1.plotly_chart(figs["fate"], width="stretch", key="cp_fig_fate")
+        with c2:
+            fmt.table(fate, width="content")
+        if "agent_vented_g" not in t and t.get("agent_uptake_g", 0.0) == 0.0:
+            c2.caption("No uptake model ran for this plan: all delivered agent counts as vented (an upper bound).")
+        if plan.settings.capture_efficiency > 0:
+            c2.caption(f"{plan.settings.capture_efficiency:.0%} of the vented agent is captured before release.")
+with tab["Flow sweep"]:
+    if tab["Flow sweep"].open:
+        try:
+            with st.spinner("Sweeping the maintenance flow..."):
+                sw = _sweep_cached(result_toml, ref_key, ref, result.plan)
+        except InputError as err:
+            ui.show_input_error(err, "Flow sweep")
+        else:
+            st.plotly_chart(figs["sweep"], width="stretch", key="cp_fig_sweep")
+            phase_name = plan.phases[sw.phase_index].name
+            best = [f"lowest cost at **{view.flow(sw.cost_lowest_flow_l_min)}**" if sw.cost_lowest_flow_l_min
+                    else None,
+                    f"lowest CO2e at **{view.flow(sw.emission_lowest_flow_l_min)}**" if sw.emission_lowest_flow_l_min
+                    else None]
+            st.markdown(f"Flow of the *{ui.md(phase_name)}* phase varied at the same end-tidal depth "
+                        f"({sw.target_mac:.2f} x MAC): " + (", ".join(b for b in best if b) or
+                                                            "no flow keeps inspired O2 above the floor") + ".")
+            st.caption(f"Only flows that keep predicted inspired O2 above {sw.inspired_o2_floor_pct:.0f} % and "
+                       "hold the depth count as candidates (hollow markers do not). A lower flow also needs closer "
+                       "monitoring and follows local protocol.")
+            with st.expander("Sweep table"):
+                fmt.table(sw.table, result.currency)
+with tab["Phases"]:
+    if tab["Phases"].open is not False:
+        fmt.table(shown)
+with tab["Cost by item"]:
+    if tab["Cost by item"].open:
+        c1, c2 = st.columns([3, 2])
+        c1.plotly_chart(figs["cost"], width="stretch", key="cp_fig_cost")
+        with c2:
+            fmt.table(charts.cost_by_item(t, result.currency), width="content")
 
 
 # ---- downloads, saving, plan files ---------------------------------------------------
@@ -416,8 +448,8 @@ tables = {"Summary": summary, "Phases": result.phases.assign(plan=plan.name),
           "Inputs": pd.DataFrame({"input": list(inputs), "value": list(inputs.values())}), "Sources": sources}
 if tc is not None:
     tables["Time course"] = tc
-if sweep_table is not None:
-    tables["Flow sweep"] = sweep_table
+# Built when the workbook is downloaded (the sweep runs then if its tab was never opened).
+tables["Flow sweep"] = lambda: (lambda sw: None if sw is None else sw.table)(_sweep())
 
 
 def _report() -> str:
@@ -425,7 +457,7 @@ def _report() -> str:
                        tables={"Summary": summary[["figure", "value", "unit"]],
                                "Phases": shown},
                        figures=[("Time course", figs["time"]), ("Where the agent went", figs["fate"]),
-                                ("Flow sweep", figs.get("sweep")), ("Cost by item", figs["cost"])],
+                                ("Flow sweep", figs["sweep"]), ("Cost by item", figs["cost"])],
                        warnings=result.warnings, cautions=[ui.CAUTION], sources=sources,
                        currency=result.currency)
 

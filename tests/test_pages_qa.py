@@ -66,6 +66,7 @@ def test_case_emissions_in_tonnes_show_three_significant_figures():
 
 def test_flow_sweep_best_flows_follow_the_sidebar_flow_unit():
     at = page("case_plan.py")
+    at.session_state["cp_tab"] = "Flow sweep"          # the sweep runs only in its open tab
     at.selectbox(key="gl_flow_unit").select("mL/min").run()
     assert not at.exception, [e.message for e in at.exception]
     line = next(m.value for m in at.markdown if "lowest cost at" in m.value)

@@ -39,15 +39,19 @@ def _fig(*data) -> go.Figure:
     return go.Figure(data=list(data), layout=dict(template=TEMPLATE))
 
 
-def _style(fig: go.Figure, title: str = "", height: int = 360, legend_right: bool = False) -> go.Figure:
-    """House style: title top left, legend under the title (or at the right), quiet grid."""
+def _style_layout(title: str = "", height: int = 360, legend_right: bool = False) -> dict:
+    """The house layout: title top left, legend under the title (or at the right), quiet grid."""
     legend = (dict(orientation="v", yanchor="top", y=1.0, x=1.02, xanchor="left") if legend_right
               else dict(orientation="h", yanchor="bottom", y=1.02, x=0, xanchor="left"))
     top = 20 if not title else (60 if legend_right else 95)
-    fig.update_layout(title=dict(text=title, x=0.0, xanchor="left", y=0.985, yref="container", yanchor="top",
-                                 font=dict(size=15)) if title else None,
-                      template=TEMPLATE, height=height + top - 20,
-                      margin=dict(l=10, r=10, t=top, b=10), legend=legend)
+    return dict(title=dict(text=title, x=0.0, xanchor="left", y=0.985, yref="container", yanchor="top",
+                           font=dict(size=15)) if title else None,
+                template=TEMPLATE, height=height + top - 20, margin=dict(l=10, r=10, t=top, b=10), legend=legend)
+
+
+def _style(fig: go.Figure, title: str = "", height: int = 360, legend_right: bool = False) -> go.Figure:
+    """House style (``_style_layout``) applied to a figure."""
+    fig.update_layout(**_style_layout(title, height, legend_right))
     return fig
 
 
@@ -111,7 +115,9 @@ def timecourse_figure(tc: pd.DataFrame | None, o2_floor_pct: float | None = None
     """The case's time course: dial, inspired and end-tidal agent, inspired O2, cumulative liquid.
 
     Reads the columns of ``CaseResult.timecourse`` (``time_min``, ``dial_pct``, ...); panels
-    whose columns are missing are left out.
+    whose columns are missing are left out. The panels share the time axis. The figure is
+    built in one go (data and layout as plain dicts, validated once): plotly's subplot and
+    line helpers cost more than the rest of a Case plan rerun.
     """
     if tc is None or len(tc) == 0 or "time_min" not in tc.columns:
         return None
@@ -119,21 +125,33 @@ def timecourse_figure(tc: pd.DataFrame | None, o2_floor_pct: float | None = None
     panels = [p for p in panels if p[1]]
     if not panels:
         return None
-    fig = make_subplots(rows=len(panels), cols=1, shared_xaxes=True, vertical_spacing=0.08,
-                        subplot_titles=[p[0] for p in panels], figure=_fig())
+    n, gap = len(panels), 0.08
+    h = (1 - gap * (n - 1)) / n
+    layout = _style_layout("Time course", 200 * n + 40, legend_right=True)
+    data, annotations, shapes = [], [], []
     colours = iter(PALETTE * 3)
-    for row, (_, cols) in enumerate(panels, start=1):
+    x = tc["time_min"].to_numpy()
+    for row, (title, cols) in enumerate(panels, start=1):
+        ax = "" if row == 1 else str(row)
+        top = 1 - (row - 1) * (h + gap)
+        layout[f"yaxis{ax}"] = dict(domain=[top - h, top], anchor=f"x{ax}")
+        layout[f"xaxis{ax}"] = dict(domain=[0, 1], anchor=f"y{ax}", showticklabels=row == n,
+                                    **({"matches": "x"} if row > 1 else {}))
+        annotations.append(dict(text=title, x=0.5, xref="paper", xanchor="center", y=top, yref="paper",
+                                yanchor="bottom", showarrow=False, font=dict(size=14)))
         for c, label in cols:
-            fig.add_trace(go.Scatter(x=tc["time_min"], y=tc[c], mode="lines", name=label,
-                                     line=dict(width=2, color=next(colours),
-                                               shape="hv" if c == "dial_pct" else "linear",
-                                               dash="dot" if c == "dial_pct" else None)),
-                          row=row, col=1)
+            data.append(dict(type="scatter", x=x, y=tc[c].to_numpy(), mode="lines", name=label,
+                             xaxis=f"x{ax}", yaxis=f"y{ax}",
+                             line=dict(width=2, color=next(colours), shape="hv" if c == "dial_pct" else "linear",
+                                       dash="dot" if c == "dial_pct" else None)))
         if o2_floor_pct is not None and any(c == "inspired_o2_pct" for c, _ in cols):
-            fig.add_hline(y=o2_floor_pct, line=dict(color=DANGER, dash="dash", width=1), row=row, col=1,
-                          annotation_text=f"floor {o2_floor_pct:.0f} %", annotation_position="bottom right")
-    fig.update_xaxes(title_text="minutes from start", row=len(panels), col=1)
-    return _style(fig, "Time course", 200 * len(panels) + 40, legend_right=True)
+            shapes.append(dict(type="line", xref=f"x{ax} domain", x0=0, x1=1, yref=f"y{ax}", y0=o2_floor_pct,
+                               y1=o2_floor_pct, line=dict(color=DANGER, dash="dash", width=1)))
+            annotations.append(dict(text=f"floor {o2_floor_pct:.0f} %", xref=f"x{ax} domain", x=1, xanchor="right",
+                                    yref=f"y{ax}", y=o2_floor_pct, yanchor="top", showarrow=False))
+    layout[f"xaxis{'' if n == 1 else n}"]["title"] = dict(text="minutes from start")
+    layout.update(annotations=annotations, shapes=shapes)
+    return go.Figure(data=data, layout=layout)
 
 
 def sweep_figure(sweep: pd.DataFrame, flow_col: str, cost_col: str, co2e_col: str,

@@ -257,21 +257,33 @@ def _currency() -> str:
     return st.session_state.get("_gl_view", ViewSettings()).currency
 
 
-def downloads(name: str, tables: Mapping[str, pd.DataFrame], report: Callable[[], str] | None,
-              key: str, notes: tuple[str, ...] = ()) -> None:
+def downloads(name: str, tables: Mapping[str, pd.DataFrame | Callable[[], pd.DataFrame | None]],
+              report: Callable[[], str] | None, key: str, notes: tuple[str, ...] = ()) -> None:
     """The row of downloads under a results view: CSV (first table), Excel (all), HTML report.
 
-    The Excel workbook and HTML report are built only when asked for. Tables are written for
-    people (``ui.format.readable_frame``: headings in words with units, figures rounded).
+    Every file is built only when asked for (deferred download data), so a rerun pays nothing
+    for them. A table may be given as a function returning it (or None to leave it out), for
+    tables worked out only for the download. Tables are written for people
+    (``ui.format.readable_frame``: headings in words with units, figures rounded).
     """
-    tables = {k: readable_frame(v, _currency()) for k, v in tables.items()}
+    currency = _currency()
+
+    def ready() -> dict[str, pd.DataFrame]:
+        out = {}
+        for k, v in tables.items():
+            df = v() if callable(v) else v
+            if df is not None:
+                out[k] = readable_frame(df, currency)
+        return out
+
     slug = _slug(name)
     first_name, first = next(iter(tables.items()))
     c1, c2, c3, _ = st.columns([1, 1, 1.5, 1])
-    c1.download_button("CSV", data=to_csv(first), file_name=f"{slug}-{_slug(first_name)}.csv",
+    c1.download_button("CSV", data=lambda: to_csv(readable_frame(first() if callable(first) else first, currency)),
+                       file_name=f"{slug}-{_slug(first_name)}.csv",
                        mime="text/csv", key=f"{key}_csv", on_click="ignore",
                        icon=":material/download:", help=f"The '{first_name}' table as CSV")
-    c2.download_button("Excel", data=lambda: to_xlsx(tables, notes=(CAUTION,) + tuple(notes)),
+    c2.download_button("Excel", data=lambda: to_xlsx(ready(), notes=(CAUTION,) + tuple(notes)),
                        file_name=f"{slug}.xlsx", key=f"{key}_xlsx", on_click="ignore",
                        mime="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
                        icon=":material/download:", help="Every table, one sheet each")
@@ -279,4 +291,3 @@ def downloads(name: str, tables: Mapping[str, pd.DataFrame], report: Callable[[]
         c3.download_button("HTML report", data=report, file_name=f"{slug}.html", mime="text/html",
                            key=f"{key}_html", on_click="ignore", icon=":material/download:",
                            help="Self-contained report: inputs, results, charts, sources, cautions")
-

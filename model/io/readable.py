@@ -160,6 +160,21 @@ def round_figure(value, money: bool = False):
     return round(v, decimals(v, money)) + 0.0     # + 0.0: no "-0.0"
 
 
+def round_figures(values, money: bool = False) -> np.ndarray:
+    """:func:`round_figure` over an array at once (NaN and infinities kept)."""
+    v = np.asarray(values, dtype=float)
+    if money:
+        return np.round(v, 2) + 0.0
+    a = np.abs(v)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        mag = np.floor(np.log10(np.where(a > 0, a, 1.0)))
+    d = np.where(a >= 1000, 0, np.where(a >= 1, np.maximum(0, 3 - mag), np.minimum(2 - mag, 12)))
+    d = np.where(np.isfinite(v) & (a > 0), d, 0).astype(int)
+    scale = 10.0 ** d
+    out = np.round(v * scale) / scale
+    return np.where(np.isfinite(v), out, v) + 0.0
+
+
 def number_text(value, money: bool = False) -> str:
     """A figure as text with thousands separators: ``3080.0`` -> "3,080",
     ``23.799988848217595`` -> "23.8", ``5.999999999999997`` -> "6", money with two decimals."""
@@ -207,8 +222,8 @@ def readable_frame(df: pd.DataFrame, currency: str = "", *, rename: bool = True)
                     and finite.abs().max() < 2 ** 53:
                 s = s.round().astype("int64")
             else:
-                money = is_money(col)
-                s = s.map(lambda v: round_figure(v, money))
+                s = pd.Series(round_figures(s.to_numpy(dtype=float, na_value=np.nan), is_money(col)),
+                              index=s.index, name=s.name)
         elif str(col) == "kind":
             s = s.map(problem_words)
         elif str(col) in ("gwp_source", "gwp"):
