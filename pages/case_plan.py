@@ -91,7 +91,7 @@ elif ss.get("cp_editor_unit") != view.flow_unit:
 
 # Laptop first: the inputs on the left, the headline results beside them on the right, so
 # they stay in view while the plan is edited (a 1366 x 768 screen shows both).
-inputs_col, headline_col = st.columns([3, 2], gap="small")
+inputs_col, headline_col = st.columns([7, 3], gap="small")
 headline = headline_col.container(border=True)
 with inputs_col.container(border=True):
     c1, c2, c3 = st.columns([3, 1, 1], vertical_alignment="bottom")
@@ -131,7 +131,7 @@ edited = inputs_col.data_editor(
     ss["cp_editor_df"], key=f"cp_phases_{ss['cp_rev']}", num_rows="dynamic", hide_index=True,
     width="stretch",
     column_config={
-        "phase": st.column_config.TextColumn("phase", required=True, max_chars=80),
+        "phase": st.column_config.TextColumn("phase", required=True, max_chars=80, width=100),
         "duration": st.column_config.TextColumn("duration", help="e.g. 75 min or 1.25 h", required=True,
                                                 width="small"),
         "O2": st.column_config.TextColumn("O2 flow", help="e.g. 0.5 L/min or 500 mL/min", width="small"),
@@ -140,7 +140,8 @@ edited = inputs_col.data_editor(
         "control": st.column_config.SelectboxColumn("control", options=list(CONTROL_LABELS), required=True,
                                                     width="small",
                                                     help="dial: vaporizer setting; target: end-tidal MAC multiple"),
-        "setting": st.column_config.TextColumn("dial % or target", help="e.g. 2.5 % (dial) or 1.0 (x MAC)"),
+        "setting": st.column_config.TextColumn("dial % or target", help="e.g. 2.5 % (dial) or 1.0 (x MAC)",
+                                               width=110),
     })
 table_slot = inputs_col.empty()
 
@@ -259,10 +260,10 @@ def _delta(key, fmt, scale=1.0):
     return fmt((t[key] - b[key]) * scale)
 
 
-headline.subheader("What this case uses")
+headline.markdown("##### What this case uses")
 agent = ref.volatile(plan.agent)
 co2e_scale = ui.common.CO2E_UNITS[view.co2e_unit]
-m = [cell for _ in range(3) for cell in headline.columns(2)]     # two figures a row, three rows
+m = [headline] * 6          # one figure a row: labels stay whole in a narrow column
 m[0].metric("Liquid agent", f"{t['liquid_agent_ml']:.1f} mL", _delta("liquid_agent_ml", lambda d: f"{d:+.1f} mL"),
             delta_color="inverse", help="Change shown against the plan as opened")
 m[1].metric("Bottles", f"{t['bottles']:.2f}", _delta("bottles", lambda d: f"{d:+.2f}"), delta_color="inverse",

@@ -36,3 +36,11 @@ def test_case_plan_headline_results_are_drawn_before_the_phases_table_beside_it(
     assert [m.label for m in right.get("metric")][:1] == ["Liquid agent"]
     assert len(left.get("arrow_data_frame") or left.dataframe) == 1     # the phases table
     assert not left.get("metric")
+
+
+def test_record_problems_show_their_message_before_the_columns_that_may_be_wide():
+    """Defect 16 (and 7): a set-aside row's message sits beside its line and problem, not past
+    a wide value column where a laptop screen cuts it off."""
+    at = page("record_audit.py")
+    issues = next(df.value for df in at.dataframe if "message" in df.value.columns)
+    assert list(issues.columns[:3]) == ["line or row", "problem", "message"]

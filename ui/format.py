@@ -80,12 +80,14 @@ def table(df: pd.DataFrame, currency: str = "", *, key: str | None = None, confi
 
 
 def issue_messages(issues: pd.DataFrame) -> pd.DataFrame:
-    """Set-aside rows for the page: line, problem in words, column, value, and the message
-    without the file and line it starts with (they have columns of their own)."""
+    """Set-aside rows for the page: line, problem, the message (without the file and line it
+    starts with: they have columns of their own), then column, value and file, so the message
+    is in view at the left rather than cut off at the table's right edge."""
     out = issues.copy()
     if "message" in out:
         out["message"] = out["message"].astype(str).str.replace(_LEADING_PLACE, "", regex=True)
-    return out
+    lead = [c for c in ("row", "kind", "message", "column", "value", "file") if c in out.columns]
+    return out[lead + [c for c in out.columns if c not in lead]]
 
 
 def _temp_roots() -> list[str]:
