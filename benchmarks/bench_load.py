@@ -96,21 +96,24 @@ def free_port() -> int:
 
 
 @contextlib.contextmanager
-def dashboard(store_path: Path, log: Path | None = None, start_timeout_s: float = 90.0):
+def dashboard(store_path: Path, log: Path | None = None, start_timeout_s: float = 90.0,
+              app_root: Path | None = None):
     """Run the dashboard on a free loopback port; yields (url, log path). Stops it after.
 
     The app uses the store at ``store_path``; its output goes to ``log`` (default: a new
-    temporary file). Also used by tests/test_browser.py.
+    temporary file). ``app_root`` runs another checkout's app (benchmarks compare with main).
+    Also used by tests/test_browser.py.
     """
+    app_root = Path(app_root or ROOT)
     port = free_port()
     log = log or Path(tempfile.mkstemp(prefix="gas-ledger-load-", suffix=".log")[1])
     env = dict(os.environ, **{STORE_ENV: str(store_path)})
     with open(log, "wb") as out:
         proc = subprocess.Popen(
-            [sys.executable, "-m", "streamlit", "run", str(ROOT / "app.py"),
+            [sys.executable, "-m", "streamlit", "run", str(app_root / "app.py"),
              "--server.port", str(port), "--server.address", "127.0.0.1", "--server.headless", "true",
              "--browser.gatherUsageStats", "false"],
-            cwd=ROOT, env=env, stdout=out, stderr=subprocess.STDOUT)
+            cwd=app_root, env=env, stdout=out, stderr=subprocess.STDOUT)
     url = f"http://127.0.0.1:{port}/"
     try:
         deadline = time.monotonic() + start_timeout_s

@@ -12,8 +12,20 @@ run changes one widget and calls ``AppTest.run()``; the wall time of that call i
 - "seen value": the flow toggles between two values already computed, so the model calls
   hit ``st.cache_data`` and only the page itself is timed.
 
+- "target mode": the same new-value edit with the maintenance phase held at an end-tidal
+  target (1.0 x MAC), so the model finds the dial.
+
 Prints wall-time medians and 90th percentiles with their ratio to the 300 ms goal, and the
-median CPU time of the process per rerun (steadier than wall time on a shared, loaded machine).
+median CPU time of the process per rerun (steadier than wall time on a shared, loaded machine),
+with the load average at the start and the end.
+
+``--cold`` also measures a cold start: a new Python process running the page once in AppTest
+(imports, store seeding, the first model run; wall and CPU), and ``streamlit run app.py`` on a
+loopback port with a new store, opened in headless chromium until the "Liquid agent" figure
+shows (first page load after the server started, then a second session on the warm server).
+
+``--root DIR`` runs the same measurements on another checkout (e.g. an export of main), for a
+relative figure taken at the same load.
 """
 
 from __future__ import annotations
@@ -21,6 +33,7 @@ from __future__ import annotations
 import argparse
 import os
 import statistics
+import subprocess
 import sys
 import tempfile
 import time
@@ -30,23 +43,74 @@ ROOT = Path(__file__).resolve().parents[1]
 GOAL_MS = 300.0
 
 
+def _load() -> float:
+    return os.getloadavg()[0] if hasattr(os, "getloadavg") else float("nan")
+
+
+def cold_apptest(root: Path) -> tuple[float, float]:
+    """Wall and CPU seconds of a new process that runs the case plan page once (AppTest)."""
+    code = ("import os, sys, time, tempfile\n"
+            "t0, c0 = time.perf_counter(), time.process_time()\n"
+            "os.environ['GAS_LEDGER_STORE'] = tempfile.mkdtemp() + '/s.sqlite3'\n"
+            f"sys.path.insert(0, {str(root)!r})\n"
+            "from streamlit.testing.v1 import AppTest\n"
+            f"at = AppTest.from_file({str(root / 'pages' / 'case_plan.py')!r}, default_timeout=120)\n"
+            "at.run()\n"
+            "assert not at.exception\n"
+            "print(time.perf_counter() - t0, time.process_time() - c0)\n")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True, cwd=root)
+    wall, cpu = out.stdout.split()[-2:]
+    return float(wall), float(cpu)
+
+
+def cold_browser(root: Path) -> tuple[float, float]:
+    """Seconds from opening the app until "Liquid agent" shows: first session after the
+    server started (cold), and a second session (warm server)."""
+    sys.path.insert(0, str(ROOT / "benchmarks"))
+    from bench_load import CHROMIUM, CHROMIUM_ARGS, dashboard
+    from playwright.sync_api import sync_playwright
+
+    tmp = Path(tempfile.mkdtemp(prefix="gl-cold-"))
+    times = []
+    with dashboard(tmp / "store.sqlite3", tmp / "streamlit.log", app_root=root) as (url, _):
+        with sync_playwright() as p:
+            browser = p.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_ARGS)
+            for _ in range(2):
+                context = browser.new_context(viewport={"width": 1366, "height": 768})
+                page = context.new_page()
+                t0 = time.perf_counter()
+                page.goto(url, timeout=120_000)
+                page.locator('[data-testid="stMetric"]').filter(has_text="Liquid agent").first.wait_for(
+                    timeout=120_000)
+                times.append(time.perf_counter() - t0)
+                context.close()
+            browser.close()
+    return times[0], times[1]
+
+
 def main(argv=None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--runs", type=int, default=30)
+    ap.add_argument("--cold", action="store_true", help="also measure a cold start (AppTest and browser)")
+    ap.add_argument("--root", type=Path, default=ROOT, help="project checkout to measure (default: this one)")
     args = ap.parse_args(argv)
+    root = args.root.resolve()
     tmp = tempfile.mkdtemp(prefix="gl-bench-")
     os.environ["GAS_LEDGER_STORE"] = str(Path(tmp) / "store.sqlite3")
-    sys.path.insert(0, str(ROOT))
+    sys.path.insert(0, str(root))
     from streamlit.testing.v1 import AppTest
 
-    at = AppTest.from_file(str(ROOT / "pages" / "case_plan.py"), default_timeout=120)
+    load_start = _load()
+    at = AppTest.from_file(str(root / "pages" / "case_plan.py"), default_timeout=120)
     at.run()
     at.run()
     assert not at.exception, at.exception
     key = at.data_editor[0].key
+    extra: dict = {}
 
     def timed(o2: str) -> tuple[float, float]:
-        at.session_state[key] = {"edited_rows": {1: {"O2": o2}}, "added_rows": [], "deleted_rows": []}
+        rows = {1: {"O2": o2, **extra}}
+        at.session_state[key] = {"edited_rows": rows, "added_rows": [], "deleted_rows": []}
         t0, c0 = time.perf_counter(), time.process_time()
         at.run()
         ms, cpu_ms = (time.perf_counter() - t0) * 1000, (time.process_time() - c0) * 1000
@@ -57,6 +121,9 @@ def main(argv=None) -> int:
     timed("0.6 L/min")
     new = [timed(f"{0.30 + 0.01 * i:.2f} L/min") for i in range(args.runs)]
     seen = [timed("0.4 L/min" if i % 2 else "0.6 L/min") for i in range(args.runs)]
+    extra.update({"control": "target", "setting": "1.0"})
+    timed("0.9 L/min")
+    target = [timed(f"{0.50 + 0.01 * i:.2f} L/min") for i in range(args.runs)]
 
     def report(name, runs):
         xs = sorted(r[0] for r in runs)
@@ -66,11 +133,21 @@ def main(argv=None) -> int:
         print(f"{name:<44} wall median {med:7.1f} ms  p90 {p90:7.1f} ms  median/goal {med / GOAL_MS:5.2f}"
               f"   CPU median {cpu:6.1f} ms (CPU/goal {cpu / GOAL_MS:4.2f})")
 
-    load = os.getloadavg()[0] if hasattr(os, "getloadavg") else float("nan")
-    print(f"Case plan page rerun after one widget change (AppTest, {args.runs} runs each, "
-          f"{os.cpu_count()} CPUs, load average {load:.1f}, goal {GOAL_MS:.0f} ms)")
-    report("new value (model runs: case + flow sweep)", new)
+    print(f"Case plan page rerun after one widget change ({root}; AppTest, {args.runs} runs each, "
+          f"{os.cpu_count()} CPUs, load average {load_start:.1f} at the start, {_load():.1f} at the end, "
+          f"goal {GOAL_MS:.0f} ms)")
+    report("new value (the model runs)", new)
     report("seen value (model results from the cache)", seen)
+    report("target mode, new value", target)
+    if args.cold:
+        load = _load()
+        wall, cpu = cold_apptest(root)
+        print(f"cold start, new process, first page run (AppTest): wall {wall:.2f} s, CPU {cpu:.2f} s "
+              f"(load average {load:.1f})")
+        load = _load()
+        first, second = cold_browser(root)
+        print(f"cold start, browser until 'Liquid agent' shows: first session after server start {first:.2f} s, "
+              f"second session {second:.2f} s (load average {load:.1f} before, {_load():.1f} after)")
     return 0
 
 

@@ -19,6 +19,7 @@ from model.plan import CasePlan
 from model.io.plans import plan_from_dict, plan_to_dict, plan_to_toml
 from model.reference import VOLATILES
 from ui import charts
+from ui import format as fmt
 
 view = ui.page_start("Case plan", "Build one case phase by phase. Figures update as you type; "
                      "numbers may carry units (\"500 mL/min\", \"1.5 h\").")
@@ -92,7 +93,11 @@ elif ss.get("cp_editor_unit") != view.flow_unit:
     ss["cp_editor_unit"] = view.flow_unit
     ss["cp_rev"] += 1
 
-with st.container(border=True):
+# Laptop first: the inputs on the left, the headline results beside them on the right, so
+# they stay in view while the plan is edited (a 1366 x 768 screen shows both).
+inputs_col, headline_col = st.columns([7, 3], gap="small")
+headline = headline_col.container(border=True)
+with inputs_col.container(border=True):
     c1, c2, c3 = st.columns([3, 1, 1], vertical_alignment="bottom")
     c1.selectbox("Open a saved plan", names, key="cp_open_name",
                  index=names.index(ss["cp_base"].name) if ss["cp_base"].name in names else 0)
@@ -102,21 +107,21 @@ with st.container(border=True):
     st.caption(f"Editing: {ui.md(ss['cp_origin'])}")
 flash = ss.pop("cp_flash", None)
 if flash:
-    getattr(st, flash[0])(ui.md(flash[1]))
+    getattr(inputs_col, flash[0])(ui.md(flash[1]))
 
 
 # ---- the inputs ----------------------------------------------------------------------
 
-st.subheader("Inputs")
+inputs_col.subheader("Inputs")
 field_errors: dict[str, str] = {}
-a1, a2, a3, a4 = st.columns([3, 1.3, 1, 1])
+a1, a2, a3, a4 = inputs_col.columns([3, 1.3, 1, 1])
 a1.text_input("Plan name", key="cp_name", max_chars=120)
 a2.selectbox("Agent", VOLATILES, key="cp_agent", format_func=lambda k: ref.agents[k].label)
 a3.text_input("Patient weight", key="cp_weight", help="e.g. 78 kg or 172 lb")
 a4.text_input("Patient age", key="cp_age", help="in years, e.g. 52 year")
 slots = {"name": a1.empty(), "agent": a2.empty(), "weight": a3.empty(), "age": a4.empty()}
 
-with st.expander("Safety limits and scavenging", icon=":material/tune:"):
+with inputs_col.expander("Safety limits and scavenging", icon=":material/tune:"):
     b1, b2, b3 = st.columns(3)
     b1.text_input("Warn under inspired O2", key="cp_floor", help="Never below 21 %")
     b2.text_input("Lowest sevoflurane flow", key="cp_sevo_min",
@@ -125,20 +130,23 @@ with st.expander("Safety limits and scavenging", icon=":material/tune:"):
     slots.update({"inspired_o2_floor": b1.empty(), "sevoflurane_min_flow": b2.empty(),
                   "capture_efficiency": b3.empty()})
 
-st.markdown("**Phases** — one row per phase; add or delete rows at the table's edge.")
+inputs_col.markdown("**Phases** — one row per phase; add or delete rows at the table's edge.")
 editor_key = f"cp_phases_{ss['cp_rev']}"
-edited = st.data_editor(
+edited = inputs_col.data_editor(
     ui.state.editor_base(editor_key, ss["cp_editor_df"]), key=editor_key, num_rows="dynamic", hide_index=True,
     width="stretch",
     column_config={
-        "phase": st.column_config.TextColumn("phase", required=True, max_chars=80),
-        "duration": st.column_config.TextColumn("duration", help="e.g. 75 min or 1.25 h", required=True),
-        "O2": st.column_config.TextColumn("O2 flow", help="e.g. 0.5 L/min or 500 mL/min"),
-        "air": st.column_config.TextColumn("air flow"),
-        "N2O": st.column_config.TextColumn("N2O flow"),
+        "phase": st.column_config.TextColumn("phase", required=True, max_chars=80, width=100),
+        "duration": st.column_config.TextColumn("duration", help="e.g. 75 min or 1.25 h", required=True,
+                                                width="small"),
+        "O2": st.column_config.TextColumn("O2 flow", help="e.g. 0.5 L/min or 500 mL/min", width="small"),
+        "air": st.column_config.TextColumn("air flow", width="small"),
+        "N2O": st.column_config.TextColumn("N2O flow", width="small"),
         "control": st.column_config.SelectboxColumn("control", options=list(CONTROL_LABELS), required=True,
+                                                    width="small",
                                                     help="dial: vaporizer setting; target: end-tidal MAC multiple"),
-        "setting": st.column_config.TextColumn("dial % or target", help="e.g. 2.5 % (dial) or 1.0 (x MAC)"),
+        "setting": st.column_config.TextColumn("dial % or target", help="e.g. 2.5 % (dial) or 1.0 (x MAC)",
+                                               width=110),
     })
 
 
@@ -176,7 +184,7 @@ if switched:
     ss["cp_flash"] = ("warning", "Phases table, " + "; ".join(notes) + ".")
     st.rerun()
 ui.state.remember_editor(editor_key, edited, family="cp_phases_")
-table_slot = st.empty()
+table_slot = inputs_col.empty()
 
 
 _BARE_NUMBER = re.compile(r"[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?")
@@ -263,8 +271,8 @@ else:
     _place_error(payload, message)
 
 if result is None:
-    st.warning("The figures below are the last valid result; correct the entry above to update them.",
-               icon=":material/history:")
+    headline.warning("These figures are the last valid result; correct the entry on the left to update them.",
+                     icon=":material/history:")
     try:
         result = ui.compute_cached(ss["cp_last_toml"], ref_key, ref)
     except InputError as err:   # e.g. the GWP source has no value for this agent
@@ -298,16 +306,17 @@ def _delta(key, fmt, scale=1.0):
     return fmt((t[key] - b[key]) * scale)
 
 
-st.subheader("What this case uses")
+headline.markdown("##### What this case uses")
 if own_items:
-    st.checkbox("Use the plan's own prices", key="cp_own_prices",
-                help="Off: the prices in use on every page (your Reference values over the built-in examples). "
-                     f"On: the prices written in the plan for {', '.join(own_items)}.")
+    headline.checkbox("Use the plan's own prices", key="cp_own_prices",
+                      help="Off: the prices in use on every page (your Reference values over the built-in examples). "
+                           f"On: the prices written in the plan for {', '.join(own_items)}.")
+with headline:
+    unsafe = ui.cautions.unsafe_banner(result.warnings, "this plan")
 ui.provenance.show(view, ref, own)
-unsafe = ui.cautions.unsafe_banner(result.warnings, "this plan")
 agent = ref.volatile(plan.agent)
 co2e_scale = ui.common.CO2E_UNITS[view.co2e_unit]
-m = st.columns(6)
+m = [headline] * 6          # one figure a row: labels stay whole in a narrow column
 m[0].metric("Liquid agent", f"{t['liquid_agent_ml']:.1f} mL", _delta("liquid_agent_ml", lambda d: f"{d:+.1f} mL"),
             delta_color="inverse", help="Change shown against the plan as opened")
 m[1].metric("Bottles", f"{t['bottles']:.2f}", _delta("bottles", lambda d: f"{d:+.2f}"), delta_color="inverse",
@@ -341,7 +350,11 @@ g[4].metric("Agent emitted", f"{t['agent_emitted_g']:.1f} g")
 g[5].metric("Duration", f"{t['duration_min']:.0f} min")
 
 if result.warnings:
-    ui.cautions.show_other_warnings(result.warnings)
+    headline.warning(f"{len(result.warnings)} warning(s): see \"Check before use\" below the inputs.",
+                     icon=":material/warning:")
+    with st.container(border=True):
+        st.markdown("**Check before use**")
+        ui.cautions.show_other_warnings(result.warnings)
 else:
     st.success("No warnings for this plan at the chosen limits.", icon=":material/check_circle:")
 
@@ -353,10 +366,14 @@ result_toml = ss["cp_last_toml"]
 
 
 @st.cache_resource(show_spinner=False, max_entries=64)
-def _figures(plan_toml: str, ref_key: str, _result, _fate, _label) -> dict:
-    """The page's figures for one result (kept, not rebuilt, while the inputs stay the same)."""
-    return {"time": charts.timecourse_figure(_result.timecourse, _result.plan.settings.inspired_o2_floor * 100),
-            "fate": charts.fate_figure(_fate, _label), "cost": charts.cost_figure(_result.totals, _result.currency)}
+def _figure(kind: str, plan_toml: str, ref_key: str, _result, _fate, _label):
+    """One of the page's figures for one result, built when first shown (its tab opened, or a
+    report asked for), then kept while the inputs stay the same."""
+    if kind == "time":
+        return charts.timecourse_figure(_result.timecourse, _result.plan.settings.inspired_o2_floor * 100)
+    if kind == "fate":
+        return charts.fate_figure(_fate, _label)
+    return charts.cost_figure(_result.totals, _result.currency)
 
 
 @st.cache_resource(show_spinner=False, max_entries=64)
@@ -366,9 +383,6 @@ def _sweep_figure(plan_toml: str, ref_key: str, co2e_unit: str, _sw, _currency):
                                co2e_unit, feasible=_sw.table.get("feasible"), unsafe=~_sw.table["o2_safe"])
 
 
-figs = dict(_figures(result_toml, ref_key, result, fate, agent.label))
-
-
 @st.cache_data(show_spinner=False, max_entries=128)
 def _sweep_cached(plan_toml: str, ref_key: str, _ref, _plan):
     """The flow sweep of the plan (``plan_toml`` is the key; ``_plan`` is that plan, parsed)."""
@@ -376,67 +390,100 @@ def _sweep_cached(plan_toml: str, ref_key: str, _ref, _plan):
     return flow_sweep(_plan, _ref)
 
 
-sweep_table = None
-tabs = st.tabs(["Time course", "Where the agent went", "Flow sweep", "Phases", "Cost by item"])
-with tabs[0]:
-    if figs["time"] is not None:
-        st.plotly_chart(figs["time"], width="stretch", key="cp_fig_time")
-    else:
-        st.info("The minute-by-minute time course (dial, inspired and end-tidal agent, inspired O2, "
-                "cumulative liquid) appears here when the patient and circle model runs for this plan.",
-                icon=":material/schedule:")
-with tabs[1]:
-    c1, c2 = st.columns([3, 2])
-    c1.plotly_chart(figs["fate"], width="stretch", key="cp_fig_fate")
-    c2.dataframe(fate.assign(agent_g=fate["agent_g"].round(1)), hide_index=True,
-                 column_config={"where": "where it went", "agent_g": "agent (g)"})
-    if "agent_vented_g" not in t and t.get("agent_uptake_g", 0.0) == 0.0:
-        c2.caption("No uptake model ran for this plan: all delivered agent counts as vented (an upper bound).")
-    if plan.settings.capture_efficiency > 0:
-        c2.caption(f"{plan.settings.capture_efficiency:.0%} of the vented agent is captured before release.")
-with tabs[2]:
-    figs["sweep"] = None
+def _sweep():
+    """The flow sweep (None when it cannot be worked out: see ``_sweep_error``)."""
     try:
-        with st.spinner("Sweeping the maintenance flow..."):
-            sw = _sweep_cached(result_toml, ref_key, ref, result.plan)
-    except InputError as err:
-        ui.show_input_error(err, "Flow sweep")
-    else:
-        sweep_table = sw.table
-        figs["sweep"] = _sweep_figure(result_toml, ref_key, view.co2e_unit, sw, result.currency)
-        st.plotly_chart(figs["sweep"], width="stretch", key="cp_fig_sweep")
-        phase_name = plan.phases[sw.phase_index].name
-        best = [f"lowest cost at **{view.flow(sw.cost_lowest_flow_l_min)}**" if sw.cost_lowest_flow_l_min else None,
-                f"lowest CO2e at **{view.flow(sw.emission_lowest_flow_l_min)}**" if sw.emission_lowest_flow_l_min
-                else None]
-        st.markdown(f"Flow of the *{ui.md(phase_name)}* phase varied at the same end-tidal depth "
-                    f"({sw.target_mac:.2f} x MAC): " + (", ".join(b for b in best if b) or
-                                                        "no flow keeps inspired O2 above the floor") + ".")
-        st.caption(f"Only flows that keep predicted inspired O2 above {sw.inspired_o2_floor_pct:.0f} % and hold "
-                   "the depth count as candidates (hollow markers do not; crosses are unsafe: hypoxic mixture "
-                   "or O2 running out). A lower flow also needs closer monitoring and follows local protocol.")
-        n_unsafe = int((~sw.table["o2_safe"]).sum())
-        if n_unsafe:
-            st.markdown(f":red[**{ui.cautions.UNSAFE}** at {n_unsafe} of the {len(sw.table)} flows swept] "
-                        "(crosses; 'safety' column of the sweep table): their cost and CO2e are not savings "
-                        "to aim for.")
-        with st.expander("Sweep table"):
-            st.dataframe(sweep_table, hide_index=True, width="stretch")
-with tabs[3]:
-    ph = result.phases
-    shown = pd.DataFrame({
-        "phase": ph["phase"], "minutes": ph["duration_min"],
-        f"fresh gas ({view.flow_unit})": ph["fgf_l_min"] * (1000 if view.flow_unit == "mL/min" else 1),
-        "flow band": ph["flow_band"], "fresh gas O2 %": ph["fd_o2_pct"].round(0), "dial %": ph["dial_pct"],
-        "liquid (mL)": ph["liquid_agent_ml"].round(1), f"CO2e ({view.co2e_unit})": (ph["co2e_kg"] * co2e_scale).round(3),
-        f"cost ({result.currency})": ph["cost_total"].round(2), "MAC-hours, dial-based": ph["mac_hours"].round(2),
-        "MAC-hours, end-tidal": ph["end_tidal_mac_hours"].round(2),
-        "mix altered": ph["flows_altered"]})
-    st.dataframe(shown, hide_index=True, width="stretch")
-with tabs[4]:
-    c1, c2 = st.columns([3, 2])
-    c1.plotly_chart(figs["cost"], width="stretch", key="cp_fig_cost")
-    c2.dataframe(charts.cost_by_item(t, result.currency), hide_index=True)
+        return _sweep_cached(result_toml, ref_key, ref, result.plan)
+    except InputError:
+        return None
+
+
+class _Figures(dict):
+    """The page's figures by name, each built on first use: a rerun builds only the figure of
+    the open tab; a report builds the rest when it is downloaded."""
+
+    def __missing__(self, kind):
+        if kind == "sweep":
+            sw = _sweep()
+            fig = None if sw is None else _sweep_figure(result_toml, ref_key, view.co2e_unit, sw, result.currency)
+        else:
+            fig = _figure(kind, result_toml, ref_key, result, fate, agent.label)
+        self[kind] = fig
+        return fig
+
+
+figs = _Figures()
+ph = result.phases
+shown = pd.DataFrame({
+    "phase": ph["phase"], "minutes": ph["duration_min"],
+    f"fresh gas ({view.flow_unit})": ph["fgf_l_min"] * (1000 if view.flow_unit == "mL/min" else 1),
+    "flow band": ph["flow_band"], "fresh gas O2 %": ph["fd_o2_pct"].round(0), "dial %": ph["dial_pct"],
+    "liquid (mL)": ph["liquid_agent_ml"].round(1), f"CO2e ({view.co2e_unit})": (ph["co2e_kg"] * co2e_scale).round(3),
+    f"cost ({result.currency})": ph["cost_total"].round(2), "MAC-hours, dial-based": ph["mac_hours"].round(2),
+    "MAC-hours, end-tidal": ph["end_tidal_mac_hours"].round(2),
+    "mix altered": ph["flows_altered"]})
+
+# Only the open tab runs (on_change="rerun"): the flow sweep, its figure and the other
+# figures are worked out when their tab is opened, which keeps a rerun after an edit quick.
+# The phases table opens first: it answers "what does each phase use" while editing, and a
+# page without a chart on it loads seconds sooner (the browser loads plotly only for a chart).
+TABS = ("Phases", "Time course", "Where the agent went", "Flow sweep", "Cost by item")
+tab = dict(zip(TABS, st.tabs(TABS, key="cp_tab", on_change="rerun")))
+with tab["Time course"]:
+    if tab["Time course"].open:
+        if figs["time"] is not None:
+            st.plotly_chart(figs["time"], width="stretch", key="cp_fig_time")
+        else:
+            st.info("The minute-by-minute time course (dial, inspired and end-tidal agent, inspired O2, "
+                    "cumulative liquid) appears here when the patient and circle model runs for this plan.",
+                    icon=":material/schedule:")
+with tab["Where the agent went"]:
+    if tab["Where the agent went"].open:
+        c1, c2 = st.columns([3, 2])
+        c1.plotly_chart(figs["fate"], width="stretch", key="cp_fig_fate")
+        with c2:
+            fmt.table(fate, width="content")
+        if "agent_vented_g" not in t and t.get("agent_uptake_g", 0.0) == 0.0:
+            c2.caption("No uptake model ran for this plan: all delivered agent counts as vented (an upper bound).")
+        if plan.settings.capture_efficiency > 0:
+            c2.caption(f"{plan.settings.capture_efficiency:.0%} of the vented agent is captured before release.")
+with tab["Flow sweep"]:
+    if tab["Flow sweep"].open:
+        try:
+            with st.spinner("Sweeping the maintenance flow..."):
+                sw = _sweep_cached(result_toml, ref_key, ref, result.plan)
+        except InputError as err:
+            ui.show_input_error(err, "Flow sweep")
+        else:
+            st.plotly_chart(figs["sweep"], width="stretch", key="cp_fig_sweep")
+            phase_name = plan.phases[sw.phase_index].name
+            best = [f"lowest cost at **{view.flow(sw.cost_lowest_flow_l_min)}**" if sw.cost_lowest_flow_l_min
+                    else None,
+                    f"lowest CO2e at **{view.flow(sw.emission_lowest_flow_l_min)}**" if sw.emission_lowest_flow_l_min
+                    else None]
+            st.markdown(f"Flow of the *{ui.md(phase_name)}* phase varied at the same end-tidal depth "
+                        f"({sw.target_mac:.2f} x MAC): " + (", ".join(b for b in best if b) or
+                                                            "no flow keeps inspired O2 above the floor") + ".")
+            st.caption(f"Only flows that keep predicted inspired O2 above {sw.inspired_o2_floor_pct:.0f} % and "
+                       "hold the depth count as candidates (hollow markers do not; crosses are unsafe: hypoxic "
+                       "mixture or O2 running out). A lower flow also needs closer monitoring and follows local "
+                       "protocol.")
+            n_unsafe = int((~sw.table["o2_safe"]).sum())
+            if n_unsafe:
+                st.markdown(f":red[**{ui.cautions.UNSAFE}** at {n_unsafe} of the {len(sw.table)} flows swept] "
+                            "(crosses; 'safety' column of the sweep table): their cost and CO2e are not savings "
+                            "to aim for.")
+            with st.expander("Sweep table"):
+                fmt.table(sw.table, result.currency)
+with tab["Phases"]:
+    if tab["Phases"].open is not False:
+        fmt.table(shown)
+with tab["Cost by item"]:
+    if tab["Cost by item"].open:
+        c1, c2 = st.columns([3, 2])
+        c1.plotly_chart(figs["cost"], width="stretch", key="cp_fig_cost")
+        with c2:
+            fmt.table(charts.cost_by_item(t, result.currency), width="content")
 
 
 # ---- downloads, saving, plan files ---------------------------------------------------
@@ -468,8 +515,8 @@ tables = {"Summary": summary, "Phases": result.phases.assign(plan=plan.name),
           "Warnings": ui.cautions.warnings_table(result.warnings), "Sources": sources}
 if tc is not None:
     tables["Time course"] = tc
-if sweep_table is not None:
-    tables["Flow sweep"] = sweep_table
+# Built when the workbook is downloaded (the sweep runs then if its tab was never opened).
+tables["Flow sweep"] = lambda: (lambda sw: None if sw is None else sw.table)(_sweep())
 
 
 def _report() -> str:
@@ -477,8 +524,9 @@ def _report() -> str:
                        tables={"Summary": summary[["figure", "value", "unit"]],
                                "Phases": shown},
                        figures=[("Time course", figs["time"]), ("Where the agent went", figs["fate"]),
-                                ("Flow sweep", figs.get("sweep")), ("Cost by item", figs["cost"])],
-                       warnings=ui.cautions.report_lines(result.warnings), cautions=[ui.CAUTION], sources=sources)
+                                ("Flow sweep", figs["sweep"]), ("Cost by item", figs["cost"])],
+                       warnings=ui.cautions.report_lines(result.warnings), cautions=[ui.CAUTION], sources=sources,
+                       currency=result.currency)
 
 
 st.divider()

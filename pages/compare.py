@@ -15,6 +15,7 @@ from model.case import Caution, is_unsafe, severity_of
 from model.io.exports import html_report
 from model.io.plans import plan_to_toml
 from ui import charts
+from ui import format as fmt
 
 view = ui.page_start("Compare", "Saved plans side by side. The first plan is the baseline; every "
                      "other plan shows its difference from it, in units and in per cent.")
@@ -125,10 +126,9 @@ def _compare_plans() -> None:
     if unsafe:
         table["safety"] = f"{ui.cautions.UNSAFE}: " + ", ".join(unsafe)
     st.subheader("Side by side")
-    st.dataframe(table, hide_index=True, width="stretch",
-                 # four significant figures: a case's emissions in t CO2e are small numbers
-                 column_config={c: st.column_config.NumberColumn(format="%.4g")
-                                for c in table.columns[2:] if c != "safety"})
+    # Figures to four significant figures: a case's emissions in t CO2e are small numbers.
+    fmt.table(table, view.currency, config={c: st.column_config.NumberColumn(format="%.4g")
+                                            for c in table.columns[2:] if c != "safety"})
 
     cost_df = pd.DataFrame({"item": charts.cost_by_item(bt, base.currency)["item"]})
     co2e_df = pd.DataFrame({"source": ["Volatile agent", "Nitrous oxide"]})
@@ -167,7 +167,7 @@ def _compare_plans() -> None:
     def _report() -> str:
         return html_report(("UNSAFE PRACTICE. " if unsafe else "") + "Plan comparison", inputs=inputs,
                            tables={"Side by side": table}, figures=figs, warnings=ui.cautions.report_lines(warnings),
-                           cautions=[ui.CAUTION], sources=sources)
+                           cautions=[ui.CAUTION], sources=sources, currency=view.currency)
 
     st.divider()
     st.markdown("**Download this comparison**")

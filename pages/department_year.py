@@ -18,6 +18,7 @@ from model.io.exports import html_report
 from model.reference import GWP_SOURCES, VOLATILES
 from model.year.inputs import MAX_DRAWS, Practice, Sampling
 from model.year.compare import nonzero_rows
+from ui import format as fmt
 from ui import year_views as yv
 
 view = ui.page_start("Department year", "A department's case mix scaled to a year: bottles per month, "
@@ -177,7 +178,7 @@ st.caption(f"Per case: {result.per_case['cost_total']:,.2f} {cur}, {result.per_c
 figs = [("Bottles bought per month", yv.monthly_bottles_figure(result.monthly)),
         ("Cost per month", yv.monthly_cost_figure(result.monthly, cur)),
         ("CO2e by source", yv.co2e_by_source_figure(t)),
-        ("Cumulative CO2e", yv.fan_figure(result.fan, "cumulative t CO2e", "t CO2e", yv.PALETTE[3])),
+        ("Cumulative CO2e", yv.fan_figure(result.fan, "cumulative t CO2e", "t CO2e", yv.CO2E_COLOUR)),
         ("Cumulative cost", yv.fan_figure(result.fan, "cumulative cost", cur))]
 g1, g2 = st.columns(2)
 g1.plotly_chart(figs[0][1], width="stretch", key="dy_fig_bottles")
@@ -191,12 +192,10 @@ summary = nonzero_rows(result.summary).drop(columns=["key"])
 if unsafe:
     summary.insert(0, "safety", ui.cautions.UNSAFE)     # also in the CSV, which carries no inputs
 st.subheader("Headline figures")
-st.dataframe(summary, hide_index=True, width="stretch",
-             column_config={c: st.column_config.NumberColumn(format="%.2f")
-                            for c in ("deterministic", "p5", "p50", "p95")})
+fmt.table(summary, cur)
 with st.expander("Per month and per case type"):
-    st.dataframe(result.monthly, hide_index=True, width="stretch")
-    st.dataframe(result.by_type, hide_index=True, width="stretch")
+    fmt.table(result.monthly, cur)
+    fmt.table(result.by_type, cur)
 
 ui.cautions.show_other_warnings(result.warnings)
 for note in result.notes:
@@ -231,7 +230,7 @@ def _report() -> str:
                                "Per case type": result.by_type},
                        figures=figs, warnings=ui.cautions.report_lines(result.warnings),
                        cautions=[ui.CAUTION, *result.notes],
-                       sources=tables["Sources"])
+                       sources=tables["Sources"], currency=cur)
 
 
 st.divider()

@@ -7,7 +7,6 @@ import tempfile
 from pathlib import Path
 
 import pandas as pd
-import plotly.express as px
 import streamlit as st
 
 import ui
@@ -16,11 +15,13 @@ from model import InputError
 from model.audit.result import BAND_COLUMNS, DEFAULT_HIGH_FLOW_L_MIN, DEFAULT_HIGH_FLOW_LIMIT_MIN
 from model.audit.engine import audit_records
 from model.io.exports import html_report
-from model.freshgas import FLOW_BAND_NAMES
 from model.io.purchases import load_purchases
 from model.audit.reconcile import cost_view, reconcile, record_coverage
 from model.io.record_files import DEFAULT_GAP_LIMIT_MIN
 from model.io.uploads import check_upload
+from ui import charts
+from ui import format as fmt
+from ui.format import plain_paths
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "demo_data" / "records"
@@ -37,6 +38,11 @@ def _demo_purchases() -> tuple[str, bytes]:
     lines = [line for text in rest for line in text.splitlines(keepends=True)
              if line.strip() and not line.startswith("#") and not line.lower().startswith("month,")]
     return "fernhollow_purchases_2025-2026.csv", (first + "".join(lines)).encode("utf-8")
+#: Columns shown first in the wide audit tables (the rest follow, a scroll away).
+CASE_COLUMNS_FIRST = ("case_id", "agent", "theatre", "month", "minutes", "mean_fgf_l_min", "liquid_agent_ml",
+                      "co2e_total_kg", "cost_total", "high_flow_flag")
+SUM_COLUMNS_FIRST = ("theatre", "month", "agent", "cases", "mean_fgf_l_min", "liquid_agent_ml", "co2e_total_kg",
+                     "cost_total", "high_flow_cases")
 
 view = ui.page_start("Record audit", "What case records say was used and emitted, case by case, by "
                      "theatre and month, and how that compares with what was bought.")
@@ -93,19 +99,18 @@ def run_audit(files: tuple, purchases: tuple | None, settings: tuple, _ref, _pro
     """
     gap, high, limit, gwp, temp = settings
     with tempfile.TemporaryDirectory(prefix="gas-ledger-audit-") as tmp:
+        known: dict[str, str] = {}     # copy in the temporary folder -> the name the user knows
+
         def shown(text):
             """Name the uploaded file, not its copy in the private temporary folder."""
-            if not isinstance(text, str):
-                return text
-            for i, (name, _) in enumerate(files):
-                text = text.replace(str(Path(tmp) / f"{i:03d}-{Path(name).name}"), Path(name).name)
-            return text.replace(tmp + "/", "")
+            return plain_paths(text, known)
 
         paths = []
         for i, (name, data) in enumerate(files):
             p = Path(tmp) / f"{i:03d}-{Path(name).name}"
             p.write_bytes(data)
             paths.append(p)
+            known[str(p)] = Path(name).name
         recon, purchase_notes, bought_table = None, [], None
         try:
             result = audit_records(paths, reference=_ref, gwp_source=gwp, temperature_c=temp,
@@ -114,6 +119,7 @@ def run_audit(files: tuple, purchases: tuple | None, settings: tuple, _ref, _pro
             if purchases is not None:
                 p = Path(tmp) / Path(purchases[0]).name
                 p.write_bytes(purchases[1])
+                known[str(p)] = p.name
                 bought = load_purchases(p, _ref)
                 purchase_notes = [shown(m) for m in bought.messages]
                 recon = reconcile(bought.table, result.use_by_month(), _ref, gwp)
@@ -121,14 +127,12 @@ def run_audit(files: tuple, purchases: tuple | None, settings: tuple, _ref, _pro
         except InputError as err:
             raise InputError(shown(str(err.field)), shown(err.value), shown(err.allowed)) from None
     # File names inside the temporary folder mean nothing to the user: show the uploaded names.
-    for i, (name, _) in enumerate(files):
-        inner, outer = str(Path(tmp) / f"{i:03d}-{Path(name).name}"), Path(name).name
-        for df in (result.report.issues, result.report.gap_list):
-            for col in ("file", "message"):
-                if len(df):
-                    df[col] = df[col].str.replace(inner, outer, regex=False)
-        result.report.files[i] = outer
-    result.report.notes = [n.replace(tmp + "/", "") for n in result.report.notes]
+    for df in (result.report.issues, result.report.gap_list):
+        for col in ("file", "message"):
+            if len(df):
+                df[col] = df[col].map(shown)
+    result.report.files[:] = [Path(name).name for name, _ in files]
+    result.report.notes = [shown(n) for n in result.report.notes]
     return result, recon, purchase_notes, cost_view(bought_table, result, _ref)
 
 
@@ -181,18 +185,18 @@ ui.provenance.show(view, ref)
 
 with st.expander(f"Checks: {summary['rows_set_aside']:,} row(s) set aside, {summary['gaps']:,} gap(s)",
                  expanded=summary["rows_set_aside"] > 0 or summary["gaps"] > 0):
-    kinds = pd.DataFrame([(k, v) for k, v in summary["set_aside_by_kind"].items() if v],
+    kinds = pd.DataFrame([(fmt.problem_words(k), v) for k, v in summary["set_aside_by_kind"].items() if v],
                          columns=["problem", "rows set aside"])
     if len(kinds):
-        st.dataframe(kinds, hide_index=True)
-        st.dataframe(rep.issues[["file", "row", "kind", "column", "value", "message"]], hide_index=True,
-                     width="stretch", height=min(35 * (len(rep.issues) + 1) + 3, 300))
+        fmt.table(kinds, width="content")
+        fmt.table(fmt.issue_messages(rep.issues[["file", "row", "kind", "column", "value", "message"]]),
+                  height=min(35 * (len(rep.issues) + 1) + 3, 300))
     else:
         st.caption("Every row passed the checks.")
     if summary["gaps"]:
         st.caption(f"Gaps over {summary['gap_limit_min']:g} min are not filled: "
                    f"{summary['gap_minutes_not_counted']:,.0f} min are left out of the sums.")
-        st.dataframe(rep.gap_list[["file", "row", "case_id", "minutes"]], hide_index=True, width="stretch")
+        fmt.table(rep.gap_list[["file", "row", "case_id", "minutes"]])
     for note in summary["notes"]:
         st.caption(note)
 
@@ -201,37 +205,30 @@ figs: list = []     # (heading, figure) for the HTML report
 tab_cases, tab_bands, tab_month, tab_recon = st.tabs(
     ["Per case", "Flow bands by theatre", "Monthly trend", "Purchases"])
 with tab_cases:
-    volatile = cases[cases["agent"] != "none"]
-    if len(volatile):
-        fig = px.box(volatile, x="agent", y="liquid_agent_ml", color="agent", points="outliers",
-                     labels={"liquid_agent_ml": "liquid agent per case [mL]", "agent": "agent"},
-                     title="Liquid agent per case: spread by agent")
+    fig = charts.agent_spread_figure(cases)
+    if fig is not None:
         st.plotly_chart(fig, width="stretch", key="ra_hist")
         figs.append(("Liquid agent per case", fig))
-    st.dataframe(cases, hide_index=True, width="stretch", height=300)
+    fmt.table(cases, view.currency, height=300, first=CASE_COLUMNS_FIRST)
 with tab_bands:
     bands = result.bands_by_theatre()
-    fig = px.bar(bands, x="theatre", y="share", color="band", category_orders={"band": list(FLOW_BAND_NAMES)},
-                 labels={"share": "share of counted minutes", "band": "flow band (Baker 1994)"},
-                 title="Time in each fresh gas flow band, by theatre")
-    fig.update_yaxes(tickformat=".0%")
+    fig = charts.flow_bands_figure(bands)
     st.plotly_chart(fig, width="stretch", key="ra_bands")
     figs.append(("Flow bands by theatre", fig))
     by_theatre = result.by("theatre")
-    st.dataframe(by_theatre, hide_index=True, width="stretch")
+    fmt.table(by_theatre, view.currency, first=SUM_COLUMNS_FIRST)
     st.caption("By theatre and month: the time-weighted fresh gas flow (each flow weighted by the minutes it "
                "held) beside the minutes in each flow band.")
-    st.dataframe(result.by("theatre_month")[["theatre", "month", "cases", "time_weighted_fgf_l_min",
-                                             *BAND_COLUMNS]], hide_index=True, width="stretch")
+    fmt.table(result.by("theatre_month")[["theatre", "month", "cases", "time_weighted_fgf_l_min", *BAND_COLUMNS]],
+              view.currency)
 with tab_month:
     by_month = result.by("month")
-    fig = px.line(by_month, x="month", y="co2e_total_kg", markers=True,
-                  labels={"co2e_total_kg": "CO2e [kg]", "month": "month"}, title="CO2e by month")
+    fig = charts.monthly_co2e_figure(by_month, ui.common.CO2E_UNITS[view.co2e_unit], view.co2e_unit)
     st.plotly_chart(fig, width="stretch", key="ra_month")
     figs.append(("CO2e by month", fig))
     by_agent = result.by("agent")
-    st.dataframe(by_month, hide_index=True, width="stretch")
-    st.dataframe(by_agent, hide_index=True, width="stretch")
+    fmt.table(by_month, view.currency, first=SUM_COLUMNS_FIRST)
+    fmt.table(by_agent, view.currency, first=SUM_COLUMNS_FIRST)
 with tab_recon:
     if purchase_notes:
         more = len(purchase_notes) - 20
@@ -266,15 +263,11 @@ with tab_recon:
                          column_config={"bought": "purchases", "has_records": "case records"})
         long = totals.melt(id_vars=["item", "unit"], value_vars=["purchased", "recorded"], var_name="source",
                            value_name="amount")
-        long["item"] = long["item"] + " [" + long["unit"] + "]"
-        fig = px.bar(long, x="item", y="amount", color="source", barmode="group", log_y=True,
-                     title="Purchased and recorded, whole period", labels={"amount": "amount (log scale)"})
+        long["item"] = long["item"].str.replace("_", " ") + " (" + long["unit"] + ")"
+        fig = charts.purchased_recorded_figure(long)
         st.plotly_chart(fig, width="stretch", key="ra_recon")
         figs.append(("Purchased and recorded", fig))
-        st.dataframe(recon, hide_index=True, width="stretch",
-                     column_config={"unexplained_share": st.column_config.NumberColumn(format="percent"),
-                                    "unexplained_share_with_records": st.column_config.NumberColumn(
-                                        "unexplained share, months with records", format="percent")})
+        fmt.table(recon, view.currency)
         st.caption("Months differ by stock held over; the 'all' row of each item is the fairer comparison.")
 
 tables = {"Cases": cases, "By theatre": result.by("theatre"), "By month": result.by("month"),
@@ -301,7 +294,7 @@ def _report() -> str:
         shown["Purchases"] = recon
     return html_report("Record audit", inputs=inputs, tables=shown, figures=figs,
                        cautions=[ui.CAUTION, "Every delivered gram counts as emitted (no uptake model)."],
-                       sources=pd.DataFrame(ref.table()))
+                       sources=pd.DataFrame(ref.table()), currency=view.currency)
 
 
 ui.downloads("record audit", tables, _report, key="ra_dl")

@@ -23,7 +23,8 @@ ss = st.session_state
 # ---- the table -----------------------------------------------------------------------
 
 table = pd.DataFrame(ref.table())
-table = table.rename(columns={"default": "default (before your value)"})
+table = table.rename(columns={"default": "default (before your value)", "default_source": "source of the default"})
+table["unit"] = table["unit"].replace({"degC": "°C"})
 f1, f2 = st.columns([2, 3])
 items = f1.multiselect("Items", sorted(table["item"].unique()), key="ref_items", placeholder="all items")
 search = f2.text_input("Search fields and sources", key="ref_search", placeholder="e.g. GWP, density, Yasuda")

@@ -20,8 +20,9 @@ pytestmark = pytest.mark.browser
 ROOT = Path(__file__).resolve().parents[1]
 ARTIFACTS = ROOT / "test-artifacts"
 sys.path.insert(0, str(ROOT / "benchmarks"))
-from bench_load import CHROMIUM, dashboard  # noqa: E402  (the one way the tests start the app)
-from bench_load import CHROMIUM_ARGS as LAUNCH_ARGS  # noqa: E402
+from bench_load import dashboard  # noqa: E402  (the one way the tests start the app)
+sys.path.insert(0, str(ROOT / "tests"))
+from browsertest import browser  # noqa: E402,F401  (module fixture: one chromium per file)
 ROW_HEIGHT = 35          # st.data_editor's default row and header height [px]
 WAIT_MS = 90_000
 
@@ -42,17 +43,6 @@ def serve_app(log_dir: Path, store: Path):
 def app_url(tmp_path_factory, store_path):
     with serve_app(tmp_path_factory.mktemp("browser-log"), store_path) as url:
         yield url
-
-
-@pytest.fixture(scope="module")
-def browser():
-    if not Path(CHROMIUM).exists():
-        pytest.fail(f"{CHROMIUM} is missing: install Debian's chromium (scripts/test.sh does it as root)")
-    from playwright.sync_api import sync_playwright
-    with sync_playwright() as p:
-        b = p.chromium.launch(executable_path=CHROMIUM, args=LAUNCH_ARGS)
-        yield b
-        b.close()
 
 
 @pytest.fixture

@@ -81,3 +81,41 @@ def test_upload_guard_uses_the_configured_limit(config):
     from model.io.uploads import upload_limit_bytes
 
     assert upload_limit_bytes() == config["server"]["maxUploadSize"] * 1024 * 1024
+
+
+def _luminance(hex_colour: str) -> float:
+    # Source: W3C, Web Content Accessibility Guidelines 2.1, definition of relative luminance.
+    h = hex_colour.lstrip("#")
+    lin = [(c / 12.92 if c <= 0.04045 else ((c + 0.055) / 1.055) ** 2.4)
+           for c in (int(h[i:i + 2], 16) / 255 for i in (0, 2, 4))]
+    return 0.2126 * lin[0] + 0.7152 * lin[1] + 0.0722 * lin[2]
+
+
+def _hue(hex_colour: str) -> float:
+    import colorsys
+    h = hex_colour.lstrip("#")
+    r, g, b = (int(h[i:i + 2], 16) / 255 for i in (0, 2, 4))
+    return colorsys.rgb_to_hls(r, g, b)[0] * 360
+
+
+def test_theme_is_calm_and_our_own_with_red_kept_for_danger(config):
+    """Defect 17 of issue 12: the stock red primary colour made buttons read as danger."""
+    from ui.palette import DANGER, PALETTE, PRIMARY, TEXT
+
+    theme = config["theme"]
+    assert theme["base"] == "light"
+    # The accent is the house colour, the same in the charts (ui/palette.py).
+    assert theme["primaryColor"].lower() == PRIMARY.lower()
+    assert theme["textColor"].lower() == TEXT.lower()
+    assert [c.lower() for c in theme["chartCategoricalColors"]] == [c.lower() for c in PALETTE]
+    # Not red: hue away from red (0/360 degrees) by more than 60 degrees (common practice, no source).
+    hue = _hue(theme["primaryColor"])
+    assert 60 < hue < 300, hue
+    # Streamlit's stock accent (#c53948, its light-theme default) is gone, and red stays for danger.
+    assert theme["primaryColor"].lower() != "#c53948"
+    assert _hue(DANGER) < 15 or _hue(DANGER) > 345
+    assert "redColor" not in theme
+    # White text on a primary button stays readable: WCAG 2.1 AA asks for a contrast ratio of
+    # at least 4.5:1 for normal text.
+    assert (1.05) / (_luminance(theme["primaryColor"]) + 0.05) >= 4.5
+    assert (_luminance(theme["backgroundColor"]) + 0.05) / (_luminance(theme["textColor"]) + 0.05) >= 7

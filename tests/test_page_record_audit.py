@@ -29,8 +29,12 @@ def test_demo_audit_shows_cases_checks_and_reconciliation():
     assert int(_metric(at, "Cases").replace(",", "")) == int(expected.total["cases"])
     assert int(_metric(at, "Rows set aside").replace(",", "")) == expected.report.rows_set_aside > 0
     # Row-numbered messages of the deliberate problems are shown, with the uploaded file name.
-    messages = " ".join(str(v) for df in at.dataframe for v in df.value.get("message", []))
-    assert "fernhollow_birch_cases.csv: line" in messages
+    issues = next(df.value for df in at.dataframe if "message" in df.value.columns)
+    assert set(issues["file"]) == {"fernhollow_birch_cases.csv"}
+    assert (issues["line or row"] > 1).all()
+    # Problems in words, and the message in full beside them.
+    assert "text in a number column" in set(issues["problem"])
+    assert any("expected a number" in m for m in issues["message"])
     assert "N2O apparent loss" in [m.label for m in at.metric]
     assert len(at.get("plotly_chart")) >= 4
 

@@ -186,8 +186,19 @@ def test_utf16_is_refused_with_advice():
 
 
 def test_windows_1252_text_is_refused_with_its_line():
-    data = "case_id,name\nFGH-1,Caf\u00e9\n".encode("cp1252")
-    _refused("r.csv", data, "records", "line 2", "0xe9", "UTF-8")
+    data = "case_type,cases_per_year\nCaf\u00e9,10\n".encode("cp1252")
+    _refused("m.csv", data, "casemix", "line 2", "0xe9", "UTF-8")
+
+
+def test_a_records_csv_line_not_in_utf8_is_left_to_the_reader():
+    """Defect 11 of issue 12: one bad line must not refuse a whole record file; the records
+    reader sets that line aside (README, "Case records"), on the page as on the command line."""
+    data = "case_id,name\nFGH-1,Caf\u00e9\nFGH-2,ok\n".encode("cp1252")
+    up = check_upload("r.csv", data, "records")
+    assert up.data == data
+    assert up.text.splitlines()[2] == "FGH-2,ok"
+    # Other checks still apply to record files: binary content is refused whole.
+    _refused("r.csv", b"case_id\nFGH\x00\n", "records", "line 2", "NUL")
 
 
 def test_huge_line_is_refused_with_its_line():

@@ -14,16 +14,22 @@ from plotly.subplots import make_subplots
 
 from model.io.exports import chart_text
 
-#: A calm palette of our own (colour-blind friendly order).
-PALETTE = ["#2f6f8f", "#e08a2e", "#5a9e6f", "#b5523b", "#7d6aa8", "#8a8a8a", "#c9a227"]
-FONT = dict(family="system-ui, -apple-system, Segoe UI, sans-serif", size=13, color="#1d2a33")
-_GRID = "#e3e9ec"
+from .palette import (AGENT_COLOURS, AXIS, CO2E_COLOUR, COST_COLOUR, DANGER, FLOW_BAND_COLOURS, GRID, PALETTE,
+                      TEXT, agent_colour)
+
+FONT = dict(family="system-ui, -apple-system, Segoe UI, sans-serif", size=13, color=TEXT)
+_GRID = GRID
 # A small template of our own: cheaper to apply than the built-in ones (plotly copies the
 # whole template into every figure) and the house look in one place.
 pio.templates["fresh_gas_ledger"] = go.layout.Template(layout=dict(
-    font=FONT, colorway=PALETTE, paper_bgcolor="white", plot_bgcolor="white",
-    xaxis=dict(gridcolor=_GRID, linecolor="#9aa8b0", zerolinecolor=_GRID, ticks="outside", tickcolor="#9aa8b0"),
-    yaxis=dict(gridcolor=_GRID, linecolor="#9aa8b0", zerolinecolor=_GRID),
+    font=FONT, colorway=list(PALETTE), paper_bgcolor="white", plot_bgcolor="white",
+    # automargin: the margins grow to hold tick labels and axis titles, so no label is cut
+    # at the figure's edge (in the dashboard and in the HTML reports alike).
+    xaxis=dict(gridcolor=_GRID, linecolor=AXIS, zerolinecolor=_GRID, ticks="outside", tickcolor=AXIS,
+               automargin=True, title=dict(standoff=8)),
+    # Thousands separated on value axes ("2,000", never "2k"); no value axis here is a date.
+    yaxis=dict(gridcolor=_GRID, linecolor=AXIS, zerolinecolor=_GRID, automargin=True, title=dict(standoff=8),
+               tickformat=","),
     hoverlabel=dict(font=dict(family=FONT["family"]))))
 TEMPLATE = "fresh_gas_ledger"
 
@@ -33,15 +39,19 @@ def _fig(*data) -> go.Figure:
     return go.Figure(data=list(data), layout=dict(template=TEMPLATE))
 
 
-def _style(fig: go.Figure, title: str = "", height: int = 360, legend_right: bool = False) -> go.Figure:
-    """House style: title top left, legend under the title (or at the right), quiet grid."""
+def _style_layout(title: str = "", height: int = 360, legend_right: bool = False) -> dict:
+    """The house layout: title top left, legend under the title (or at the right), quiet grid."""
     legend = (dict(orientation="v", yanchor="top", y=1.0, x=1.02, xanchor="left") if legend_right
               else dict(orientation="h", yanchor="bottom", y=1.02, x=0, xanchor="left"))
     top = 20 if not title else (60 if legend_right else 95)
-    fig.update_layout(title=dict(text=title, x=0.0, xanchor="left", y=0.985, yref="container", yanchor="top",
-                                 font=dict(size=15)) if title else None,
-                      template=TEMPLATE, height=height + top - 20,
-                      margin=dict(l=10, r=10, t=top, b=10), legend=legend)
+    return dict(title=dict(text=title, x=0.0, xanchor="left", y=0.985, yref="container", yanchor="top",
+                           font=dict(size=15)) if title else None,
+                template=TEMPLATE, height=height + top - 20, margin=dict(l=10, r=10, t=top, b=10), legend=legend)
+
+
+def _style(fig: go.Figure, title: str = "", height: int = 360, legend_right: bool = False) -> go.Figure:
+    """House style (``_style_layout``) applied to a figure."""
+    fig.update_layout(**_style_layout(title, height, legend_right))
     return fig
 
 
@@ -55,7 +65,7 @@ def cost_by_item(totals: dict, currency: str) -> pd.DataFrame:
 def cost_figure(totals: dict, currency: str) -> go.Figure:
     df = cost_by_item(totals, currency)
     col = df.columns[1]
-    fig = _fig(go.Bar(x=df[col], y=df["item"], orientation="h", marker_color=PALETTE[0],
+    fig = _fig(go.Bar(x=df[col], y=df["item"], orientation="h", marker_color=COST_COLOUR,
                            text=[f"{v:,.2f}" for v in df[col]], textposition="auto",
                            hovertemplate="%{y}: %{x:,.2f} " + chart_text(currency) + "<extra></extra>"))
     fig.update_yaxes(autorange="reversed")
@@ -105,7 +115,9 @@ def timecourse_figure(tc: pd.DataFrame | None, o2_floor_pct: float | None = None
     """The case's time course: dial, inspired and end-tidal agent, inspired O2, cumulative liquid.
 
     Reads the columns of ``CaseResult.timecourse`` (``time_min``, ``dial_pct``, ...); panels
-    whose columns are missing are left out.
+    whose columns are missing are left out. The panels share the time axis. The figure is
+    built in one go (data and layout as plain dicts, validated once): plotly's subplot and
+    line helpers cost more than the rest of a Case plan rerun.
     """
     if tc is None or len(tc) == 0 or "time_min" not in tc.columns:
         return None
@@ -113,21 +125,33 @@ def timecourse_figure(tc: pd.DataFrame | None, o2_floor_pct: float | None = None
     panels = [p for p in panels if p[1]]
     if not panels:
         return None
-    fig = make_subplots(rows=len(panels), cols=1, shared_xaxes=True, vertical_spacing=0.08,
-                        subplot_titles=[p[0] for p in panels], figure=_fig())
+    n, gap = len(panels), 0.08
+    h = (1 - gap * (n - 1)) / n
+    layout = _style_layout("Time course", 200 * n + 40, legend_right=True)
+    data, annotations, shapes = [], [], []
     colours = iter(PALETTE * 3)
-    for row, (_, cols) in enumerate(panels, start=1):
+    x = tc["time_min"].to_numpy()
+    for row, (title, cols) in enumerate(panels, start=1):
+        ax = "" if row == 1 else str(row)
+        top = 1 - (row - 1) * (h + gap)
+        layout[f"yaxis{ax}"] = dict(domain=[top - h, top], anchor=f"x{ax}")
+        layout[f"xaxis{ax}"] = dict(domain=[0, 1], anchor=f"y{ax}", showticklabels=row == n,
+                                    **({"matches": "x"} if row > 1 else {}))
+        annotations.append(dict(text=title, x=0.5, xref="paper", xanchor="center", y=top, yref="paper",
+                                yanchor="bottom", showarrow=False, font=dict(size=14)))
         for c, label in cols:
-            fig.add_trace(go.Scatter(x=tc["time_min"], y=tc[c], mode="lines", name=label,
-                                     line=dict(width=2, color=next(colours),
-                                               shape="hv" if c == "dial_pct" else "linear",
-                                               dash="dot" if c == "dial_pct" else None)),
-                          row=row, col=1)
+            data.append(dict(type="scatter", x=x, y=tc[c].to_numpy(), mode="lines", name=label,
+                             xaxis=f"x{ax}", yaxis=f"y{ax}",
+                             line=dict(width=2, color=next(colours), shape="hv" if c == "dial_pct" else "linear",
+                                       dash="dot" if c == "dial_pct" else None)))
         if o2_floor_pct is not None and any(c == "inspired_o2_pct" for c, _ in cols):
-            fig.add_hline(y=o2_floor_pct, line=dict(color="#c62828", dash="dash", width=1), row=row, col=1,
-                          annotation_text=f"floor {o2_floor_pct:.0f} %", annotation_position="bottom right")
-    fig.update_xaxes(title_text="minutes from start", row=len(panels), col=1)
-    return _style(fig, "Time course", 200 * len(panels) + 40, legend_right=True)
+            shapes.append(dict(type="line", xref=f"x{ax} domain", x0=0, x1=1, yref=f"y{ax}", y0=o2_floor_pct,
+                               y1=o2_floor_pct, line=dict(color=DANGER, dash="dash", width=1)))
+            annotations.append(dict(text=f"floor {o2_floor_pct:.0f} %", xref=f"x{ax} domain", x=1, xanchor="right",
+                                    yref=f"y{ax}", y=o2_floor_pct, yanchor="top", showarrow=False))
+    layout[f"xaxis{'' if n == 1 else n}"]["title"] = dict(text="minutes from start")
+    layout.update(annotations=annotations, shapes=shapes)
+    return go.Figure(data=data, layout=layout)
 
 
 def sweep_figure(sweep: pd.DataFrame, flow_col: str, cost_col: str, co2e_col: str,
@@ -145,8 +169,8 @@ def sweep_figure(sweep: pd.DataFrame, flow_col: str, cost_col: str, co2e_col: st
     cur = chart_text(currency)
     fig = make_subplots(rows=1, cols=2, horizontal_spacing=0.1, figure=_fig(),
                         subplot_titles=[f"Cost of the case ({cur})", f"Emissions of the case ({co2e_unit})"])
-    panels = ((1, sweep[cost_col], PALETTE[0], best_cost, "lowest cost", "%{y:,.2f} " + cur),
-              (2, sweep[co2e_col] * co2e_scale, PALETTE[3], best_co2e, "lowest CO2e", "%{y:,.2f} " + co2e_unit))
+    panels = ((1, sweep[cost_col], COST_COLOUR, best_cost, "lowest cost", "%{y:,.2f} " + cur),
+              (2, sweep[co2e_col] * co2e_scale, CO2E_COLOUR, best_co2e, "lowest CO2e", "%{y:,.2f} " + co2e_unit))
     for col, y, colour, best, label, fmt in panels:
         fig.add_trace(go.Scatter(x=sweep[flow_col], y=y, mode="lines+markers", name=label.split()[1],
                                  marker=dict(symbol=symbols, size=9, color=colour, line=dict(width=2, color=colour)),
@@ -171,3 +195,57 @@ def grouped_bars(df: pd.DataFrame, category: str, value_cols: list[str], title: 
     if yaxis:
         fig.update_yaxes(title_text=yaxis)
     return _style(fig, title, 360)
+
+
+# ---- record audit ----------------------------------------------------------------------
+
+def agent_spread_figure(cases: pd.DataFrame) -> go.Figure | None:
+    """Liquid agent per case, one box per agent in the agent's house colour."""
+    volatile = cases[cases["agent"] != "none"]
+    if not len(volatile):
+        return None
+    fig = _fig()
+    for agent in sorted(volatile["agent"].unique()):
+        y = volatile.loc[volatile["agent"] == agent, "liquid_agent_ml"]
+        fig.add_trace(go.Box(y=y, name=chart_text(str(agent).capitalize()), marker_color=agent_colour(agent),
+                             boxpoints="outliers", showlegend=False,
+                             hovertemplate="%{y:,.1f} mL<extra>" + chart_text(agent) + "</extra>"))
+    fig.update_yaxes(title_text="liquid agent per case (mL)", tickformat=",")
+    return _style(fig, "Liquid agent per case: spread by agent", 360)
+
+
+def flow_bands_figure(bands: pd.DataFrame) -> go.Figure:
+    """Share of counted minutes in each flow band by theatre, stacked lowest flow first, on
+    the one ordered flow-band scale (``ui.palette.FLOW_BAND_COLOURS``)."""
+    fig = _fig()
+    for band, colour in FLOW_BAND_COLOURS.items():
+        d = bands[bands["band"] == band]
+        fig.add_trace(go.Bar(x=d["theatre"].map(chart_text), y=d["share"], name=band, marker_color=colour,
+                             marker_line=dict(color="white", width=0.5),
+                             hovertemplate="%{x}: %{y:.0%} " + band + "<extra></extra>"))
+    fig.update_layout(barmode="stack", legend_title_text="flow band (Baker 1994)", legend_traceorder="normal")
+    fig.update_yaxes(title_text="share of counted minutes", tickformat=".0%")
+    fig.update_xaxes(title_text="theatre", type="category")
+    return _style(fig, "Time in each fresh gas flow band, by theatre", 380, legend_right=True)
+
+
+def monthly_co2e_figure(by_month: pd.DataFrame, scale: float = 1.0, unit: str = "kg CO2e") -> go.Figure:
+    """CO2e of the recorded cases by month."""
+    fig = _fig(go.Scatter(x=by_month["month"], y=by_month["co2e_total_kg"] * scale, mode="lines+markers",
+                          line=dict(color=CO2E_COLOUR, width=2.5), marker=dict(size=7),
+                          hovertemplate="%{x}: %{y:,.2f} " + chart_text(unit) + "<extra></extra>"))
+    fig.update_yaxes(title_text=chart_text(unit), rangemode="tozero")
+    fig.update_xaxes(title_text="month", type="category")
+    return _style(fig, "CO2e by month", 340)
+
+
+def purchased_recorded_figure(long: pd.DataFrame) -> go.Figure:
+    """Purchased against recorded amounts per item (log scale: items differ by orders of magnitude)."""
+    fig = _fig()
+    for i, (source, colour) in enumerate((("purchased", COST_COLOUR), ("recorded", PALETTE[7]))):
+        d = long[long["source"] == source]
+        fig.add_trace(go.Bar(x=d["item"], y=d["amount"], name=source, marker_color=colour,
+                             hovertemplate="%{x}: %{y:,.0f}<extra>" + source + "</extra>"))
+    fig.update_layout(barmode="group")
+    fig.update_yaxes(title_text="amount (log scale)", type="log")
+    return _style(fig, "Purchased and recorded, whole period", 380)

@@ -16,6 +16,8 @@ from model.io.exports import to_csv, to_xlsx
 from model.plan import CasePlan
 from model.store import Store, StoreError, default_path
 
+from .format import plain_paths, readable_frame
+
 ROOT = Path(__file__).resolve().parents[1]
 DEMO_PLANS = ROOT / "demo_data" / "plans"
 
@@ -83,7 +85,8 @@ def get_store() -> Store:
     try:
         return _store_at(str(default_path()))
     except StoreError as err:
-        st.error(md(str(err)), icon=":material/error:")
+        path = default_path()
+        st.error(md(plain_paths(str(err), {str(path): path.name})), icon=":material/error:")
         st.stop()
 
 
@@ -176,7 +179,7 @@ def _sidebar() -> ViewSettings:
                                       "in tonnes CO2e, the unit of annual reporting.")
         st.divider()
         st.caption(CAUTION)
-        st.caption(f"Store: {md(default_path())}")
+        st.caption(f"Your work is saved in the store file {md(default_path().name)} on the server.")
     return ViewSettings(currency.strip(), source, years, float(temp), flow_unit, co2e_unit)
 
 
@@ -239,7 +242,7 @@ def md(text) -> str:
 def show_input_error(err: Exception, where: str = "") -> None:
     """One clear line for a bad entry (never a traceback); user text in it is escaped."""
     prefix = f"{where}: " if where else ""
-    st.error(md(prefix + str(err)), icon=":material/error:")
+    st.error(md(plain_paths(prefix + str(err))), icon=":material/error:")
 
 
 # ---- downloads -----------------------------------------------------------------------
@@ -249,19 +252,38 @@ def _slug(name: str) -> str:
     return (s or "export")[:60]
 
 
-def downloads(name: str, tables: Mapping[str, pd.DataFrame], report: Callable[[], str] | None,
-              key: str, notes: tuple[str, ...] = ()) -> None:
+def _currency() -> str:
+    """The sidebar's currency label (for headings of cost columns)."""
+    return st.session_state.get("_gl_view", ViewSettings()).currency
+
+
+def downloads(name: str, tables: Mapping[str, pd.DataFrame | Callable[[], pd.DataFrame | None]],
+              report: Callable[[], str] | None, key: str, notes: tuple[str, ...] = ()) -> None:
     """The row of downloads under a results view: CSV (first table), Excel (all), HTML report.
 
-    The Excel workbook and HTML report are built only when asked for.
+    Every file is built only when asked for (deferred download data), so a rerun pays nothing
+    for them. A table may be given as a function returning it (or None to leave it out), for
+    tables worked out only for the download. Tables are written for people
+    (``ui.format.readable_frame``: headings in words with units, figures rounded).
     """
+    currency = _currency()
+
+    def ready() -> dict[str, pd.DataFrame]:
+        out = {}
+        for k, v in tables.items():
+            df = v() if callable(v) else v
+            if df is not None:
+                out[k] = readable_frame(df, currency)
+        return out
+
     slug = _slug(name)
     first_name, first = next(iter(tables.items()))
     c1, c2, c3, _ = st.columns([1, 1, 1.5, 1])
-    c1.download_button("CSV", data=to_csv(first), file_name=f"{slug}-{_slug(first_name)}.csv",
+    c1.download_button("CSV", data=lambda: to_csv(readable_frame(first() if callable(first) else first, currency)),
+                       file_name=f"{slug}-{_slug(first_name)}.csv",
                        mime="text/csv", key=f"{key}_csv", on_click="ignore",
                        icon=":material/download:", help=f"The '{first_name}' table as CSV")
-    c2.download_button("Excel", data=lambda: to_xlsx(tables, notes=(CAUTION,) + tuple(notes)),
+    c2.download_button("Excel", data=lambda: to_xlsx(ready(), notes=(CAUTION,) + tuple(notes)),
                        file_name=f"{slug}.xlsx", key=f"{key}_xlsx", on_click="ignore",
                        mime="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
                        icon=":material/download:", help="Every table, one sheet each")
@@ -269,4 +291,3 @@ def downloads(name: str, tables: Mapping[str, pd.DataFrame], report: Callable[[]
         c3.download_button("HTML report", data=report, file_name=f"{slug}.html", mime="text/html",
                            key=f"{key}_html", on_click="ignore", icon=":material/download:",
                            help="Self-contained report: inputs, results, charts, sources, cautions")
-

@@ -15,6 +15,7 @@ from model.case import by_severity
 from model.io.exports import html_report
 from model.year.compare import nonzero_rows
 
+from . import format as fmt
 from . import year_views as yv
 
 HEADLINES = [("cost_total", "cost"), ("bottles_total", "bottles"), ("co2e_total_t", "t CO2e"),
@@ -94,10 +95,7 @@ def render(view) -> None:
         rows_all.append(table)
         tables[f"Proposal {i + 1} per month"] = comp.proposal.monthly
     table = pd.concat(rows_all, ignore_index=True)
-    st.dataframe(table, hide_index=True, width="stretch",
-                 column_config={c: st.column_config.NumberColumn(format="%.2f")
-                                for c in ("baseline", "proposal", "difference", "p5", "p50", "p95")
-                                if c in table.columns})
+    fmt.table(table, first.baseline.currency)
     ui.cautions.show_other_warnings(warnings)
     notes = list(dict.fromkeys(n for c in comps.values() for n in c.notes + c.proposal.notes))
     for note in notes:
@@ -120,6 +118,7 @@ def render(view) -> None:
         return html_report(("UNSAFE PRACTICE. " if unsafe_names else "") + "Year comparison", inputs=inputs,
                            tables={"Paired difference": table}, figures=figs,
                            warnings=ui.cautions.report_lines(warnings),
-                           cautions=[ui.CAUTION, *notes], sources=tables["Sources"])
+                           cautions=[ui.CAUTION, *notes], sources=tables["Sources"],
+                           currency=first.baseline.currency)
 
     ui.downloads("year comparison", tables, _report, key="yc_dl")

@@ -22,10 +22,10 @@ from model.year.compare import compare_years
 from model.year.result import compute_year
 
 from .charts import PALETTE, _style
+from .palette import AGENT_COLOURS, CO2E_COLOUR, COST_COLOUR, LESS_COLOUR, MORE_COLOUR, TEXT, rgba
 
 ROOT = Path(__file__).resolve().parents[1]
 YEAR_DIR = ROOT / "demo_data" / "year"
-AGENT_COLOURS = dict(zip(VOLATILES, (PALETTE[0], PALETTE[1], PALETTE[2], PALETTE[4])))
 
 
 def scenario_files() -> dict[str, Path]:
@@ -116,7 +116,7 @@ def monthly_bottles_figure(monthly: pd.DataFrame) -> go.Figure:
 
 
 def monthly_cost_figure(monthly: pd.DataFrame, currency: str) -> go.Figure:
-    fig = go.Figure(go.Bar(x=monthly["month"], y=monthly["cost_total"], marker_color=PALETTE[0],
+    fig = go.Figure(go.Bar(x=monthly["month"], y=monthly["cost_total"], marker_color=COST_COLOUR,
                            hovertemplate="%{x}: %{y:,.0f} " + chart_text(currency) + "<extra></extra>"))
     fig.update_yaxes(title_text=chart_text(currency))
     return _style(fig, "Cost per month", 340)
@@ -133,7 +133,7 @@ def co2e_by_source_figure(totals: dict) -> go.Figure:
             colours.append(AGENT_COLOURS[a])
     labels.append("Nitrous oxide")
     values.append(totals.get("co2e_nitrous_oxide_t", 0.0))
-    colours.append(PALETTE[3])
+    colours.append(AGENT_COLOURS["nitrous_oxide"])
     fig = go.Figure(go.Bar(x=values, y=labels, orientation="h", marker_color=colours,
                            text=[f"{v:,.1f} t" for v in values], textposition="auto",
                            hovertemplate="%{y}: %{x:,.2f} t CO2e<extra></extra>"))
@@ -142,13 +142,13 @@ def co2e_by_source_figure(totals: dict) -> go.Figure:
     return _style(fig, "CO2e by source", 300)
 
 
-def fan_figure(fan: pd.DataFrame, figure: str, unit: str, colour: str = PALETTE[0]) -> go.Figure:
+def fan_figure(fan: pd.DataFrame, figure: str, unit: str, colour: str = COST_COLOUR) -> go.Figure:
     """Cumulative figure through the year: P50 line inside its P5-P95 band."""
     d = fan[fan["figure"] == figure]
     x = list(d["month"])
     fig = go.Figure()
     fig.add_trace(go.Scatter(x=x + x[::-1], y=list(d["p95"]) + list(d["p5"])[::-1], fill="toself",
-                             fillcolor="rgba(47,111,143,0.18)" if colour == PALETTE[0] else "rgba(181,82,59,0.18)",
+                             fillcolor=rgba(colour, 0.18),
                              line=dict(width=0), name="P5-P95", hoverinfo="skip"))
     fig.add_trace(go.Scatter(x=x, y=d["p50"], mode="lines+markers", line=dict(color=colour, width=2.5),
                              name="P50", hovertemplate="%{x}: %{y:,.1f} " + chart_text(unit) + "<extra>P50</extra>"))
@@ -167,9 +167,9 @@ def difference_figure(summary: pd.DataFrame, keys: list[tuple[str, str]]) -> go.
     p50 = [rows.loc[k, "p50"] / b * 100 for (k, _), b in zip(keys, base)]
     lo = [(rows.loc[k, "p50"] - rows.loc[k, "p5"]) / b * 100 for (k, _), b in zip(keys, base)]
     hi = [(rows.loc[k, "p95"] - rows.loc[k, "p50"]) / b * 100 for (k, _), b in zip(keys, base)]
-    colours = [PALETTE[2] if v <= 0 else PALETTE[3] for v in p50]
+    colours = [LESS_COLOUR if v <= 0 else MORE_COLOUR for v in p50]
     fig = go.Figure(go.Bar(x=labels, y=p50, marker_color=colours,
-                           error_y=dict(type="data", symmetric=False, array=hi, arrayminus=lo, color="#1d2a33"),
+                           error_y=dict(type="data", symmetric=False, array=hi, arrayminus=lo, color=TEXT),
                            hovertemplate="%{x}: %{y:+.1f} %<extra>P50</extra>"))
     fig.add_hline(y=0, line=dict(color="#546e7a", width=1))
     fig.update_yaxes(title_text="% of the baseline year")

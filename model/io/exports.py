@@ -19,6 +19,8 @@ from typing import Iterable, Mapping, Sequence
 import numpy as np
 import pandas as pd
 
+from model.io.readable import column_label, is_money, number_text, readable_frame
+
 
 #: Characters that make a spreadsheet read a cell as a formula.
 FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
@@ -137,8 +139,14 @@ body{font-family:system-ui,-apple-system,'Segoe UI',sans-serif;margin:2rem auto;
 color:#1d2a33;line-height:1.45;padding:0 1rem}
 h1{font-size:1.6rem;margin-bottom:.2rem}h2{font-size:1.2rem;margin-top:2rem;border-bottom:1px solid #cfd8dc;
 padding-bottom:.2rem}.meta{color:#546e7a;font-size:.9rem}
-table{border-collapse:collapse;font-size:.85rem;margin:.5rem 0}th,td{border:1px solid #cfd8dc;
-padding:.25rem .5rem;text-align:left}th{background:#eef3f5}td.num{text-align:right}
+.table-wrap{max-width:100%;overflow-x:auto;margin:.5rem 0}
+table{border-collapse:collapse;font-size:.8rem}th,td{border:1px solid #cfd8dc;
+padding:.2rem .4rem;text-align:left;vertical-align:top;overflow-wrap:break-word;hyphens:auto}
+th{background:#eef3f5;font-weight:600}td.num{text-align:right;
+white-space:nowrap;font-variant-numeric:tabular-nums}
+.figure{max-width:100%;overflow:hidden;break-inside:avoid}
+@media print{body{margin:0;max-width:none}.table-wrap{overflow:visible}table{font-size:7pt}
+h2{break-after:avoid}}
 .caution{background:#fff8e1;border-left:4px solid #f0a500;padding:.6rem 1rem;margin:1rem 0}
 .headline{font-size:1.15rem;font-weight:600;background:#eef3f5;border-left:4px solid #2f6f8f;
 padding:.6rem 1rem}
@@ -146,26 +154,58 @@ padding:.6rem 1rem}
 """
 
 
-def _table_html(df: pd.DataFrame, digits: int = 3) -> str:
-    head = "".join(f"<th>{html.escape(str(c))}</th>" for c in df.columns)
+#: Most columns of one report table; a wider table is shown in parts that repeat its first
+#: column, so every part fits A4 width (a page never scrolls sideways, nothing is cut on print).
+MAX_REPORT_COLUMNS = 8
+
+
+def _table_html(df: pd.DataFrame) -> str:
+    """A table as HTML: headings in words with units, figures as :func:`number_text` shows them.
+
+    Tables wider than ``MAX_REPORT_COLUMNS`` are split into parts that repeat the first column.
+    """
+    if len(df.columns) > MAX_REPORT_COLUMNS:
+        first, rest = df.columns[:1], list(df.columns[1:])
+        step = MAX_REPORT_COLUMNS - 1
+        n = -(-len(rest) // step)
+        step = -(-len(rest) // n)          # parts of even width
+        return "".join(_table_part(df[list(first) + rest[i:i + step]]) for i in range(0, len(rest), step))
+    return _table_part(df)
+
+
+def _table_part(df: pd.DataFrame) -> str:
+    head = "".join(f"<th>{html.escape(column_label(c))}</th>" for c in df.columns)
+    money = [is_money(c) for c in df.columns]
     rows = []
     for row in df.itertuples(index=False, name=None):
         cells = []
-        for v in row:
+        for v, m in zip(row, money):
             if isinstance(v, (bool, np.bool_)):
                 cells.append(f"<td>{'yes' if v else 'no'}</td>")
-            elif isinstance(v, (int, np.integer)):
-                cells.append(f"<td class='num'>{int(v):,}</td>")
-            elif isinstance(v, (float, np.floating)):
-                shown = "" if not math.isfinite(float(v)) else f"{float(v):,.{digits}g}" if abs(float(v)) < 1 \
-                    else f"{float(v):,.2f}"
-                cells.append(f"<td class='num'>{shown}</td>")
+            elif isinstance(v, (int, np.integer, float, np.floating)):
+                cells.append(f"<td class='num'>{number_text(v, m)}</td>")
             elif v is None:
                 cells.append("<td></td>")
             else:
                 cells.append(f"<td>{html.escape(str(v))}</td>")
         rows.append("<tr>" + "".join(cells) + "</tr>")
-    return f"<table><thead><tr>{head}</tr></thead><tbody>{''.join(rows)}</tbody></table>"
+    # On a screen narrower than the table, it scrolls inside its own box, never the page.
+    return (f"<div class='table-wrap'><table><thead><tr>{head}</tr></thead>"
+            f"<tbody>{''.join(rows)}</tbody></table></div>")
+
+
+def _report_figure(fig):
+    """A copy of a figure for a report: it takes the report's width (never a fixed one), and
+    every axis makes room for its tick labels and title (plotly's automargin), so labels are
+    never cut at the figure's edge on A4 or on a screen. The page's own figure is left as it is.
+    """
+    import plotly.graph_objects as go
+
+    out = go.Figure(fig)
+    out.update_layout(width=None, autosize=True)
+    out.update_xaxes(automargin=True)
+    out.update_yaxes(automargin=True)
+    return out
 
 
 def html_report(title: str, *, inputs: Mapping[str, object] | None = None,
@@ -174,7 +214,8 @@ def html_report(title: str, *, inputs: Mapping[str, object] | None = None,
                 warnings: Sequence[str] = (), cautions: Sequence[str] = (),
                 sources: pd.DataFrame | None = None, generated_by: str = "Fresh Gas Ledger",
                 headline: str = "", summary: Sequence[str] = (),
-                sections: Mapping[str, Sequence[str]] | None = None, figures_first: bool = False) -> str:
+                sections: Mapping[str, Sequence[str]] | None = None, figures_first: bool = False,
+                currency: str = "") -> str:
     """A self-contained HTML report: inputs, tables, charts, warnings, cautions, sources.
 
     Parameters
@@ -197,6 +238,11 @@ def html_report(title: str, *, inputs: Mapping[str, object] | None = None,
         Text sections (heading: paragraphs) after the charts, e.g. a method statement.
     figures_first : bool
         Charts before the tables (after the inputs) rather than after them.
+    currency : str
+        Currency label for the headings of cost columns.
+
+    Tables are shown for people (``model.io.readable.readable_frame``: headings in words with
+    units, figures to sensible significant figures).
 
     Returns
     -------
@@ -223,15 +269,16 @@ def html_report(title: str, *, inputs: Mapping[str, object] | None = None,
     table_parts = []
     for heading, df in (tables or {}).items():
         table_parts.append(f"<h2>{e(str(heading))}</h2>")
-        table_parts.append(_table_html(df))
+        table_parts.append(_table_html(readable_frame(df, currency)))
     figure_parts = []
     first = True
     for heading, fig in figures:
         if fig is None:
             continue
         figure_parts.append(f"<h2>{e(str(heading))}</h2>")
-        figure_parts.append(fig.to_html(full_html=False, include_plotlyjs=True if first else False,
-                                        config={"displaylogo": False, "responsive": True}))
+        figure_parts.append("<div class='figure'>" + _report_figure(fig).to_html(
+            full_html=False, include_plotlyjs=True if first else False, default_width="100%",
+            config={"displaylogo": False, "responsive": True}) + "</div>")
         first = False
     parts.extend(figure_parts + table_parts if figures_first else table_parts + figure_parts)
     for heading, paragraphs in (sections or {}).items():

@@ -3,7 +3,8 @@
 ``check_upload(name, data, kind)`` accepts only the documented formats of each kind of file,
 checks the size against the app's configured upload limit and sniffs the content: archives,
 office documents, images, executables and other binary junk, NUL bytes or control characters
-in text, text not in UTF-8, over-long lines and deeply nested TOML are refused with one
+in text, text not in UTF-8 (except a records CSV's lines, which its reader sets aside one by
+one, as on the command line), over-long lines and deeply nested TOML are refused with one
 ``InputError`` line naming the file. It returns the bytes and, for text formats, the decoded
 text, so the caller hands the same text to its parser.
 """
@@ -43,6 +44,10 @@ KINDS: Mapping[str, tuple[str, ...]] = MappingProxyType({
     "purchases": ("csv", "parquet"),
 })
 _TEXT_FORMATS = ("csv", "toml")
+#: Kinds read line by line whose reader sets a line that is not UTF-8 aside and uses the rest
+#: (``model.io.records.read_records``, as on the command line): the guard leaves such a line
+#: to it rather than refusing the whole file.
+LINE_BY_LINE_KINDS = ("records",)
 
 #: Largest TOML file (plans, settings, scenarios, case mixes). [bytes] Same as plan files.
 MAX_TOML_BYTES = 1_000_000
@@ -95,6 +100,7 @@ class Upload:
     format: str
     data: bytes
     #: The decoded UTF-8 text (byte-order mark removed) for toml and csv; None for parquet.
+    #: For records CSV, a byte that is not UTF-8 shows as U+FFFD: give ``data`` to the reader.
     text: str | None
 
 
@@ -193,7 +199,7 @@ def check_upload(name: str, data: bytes, kind: str) -> Upload:
         return Upload(shown, kind, fmt, data, None)
     if data.startswith(_PARQUET_MAGIC):
         raise InputError(where, "a Parquet file", f"expected {fmt.upper()} text; name a Parquet file '.parquet'")
-    text = _decode_text(data, where)
+    text = _decode_text(data, where, lenient=kind in LINE_BY_LINE_KINDS and fmt == "csv")
     _check_lines(text, where)
     if fmt == "toml":
         _check_toml(text, where)
@@ -215,7 +221,9 @@ def _sniff(data: bytes) -> str | None:
     return None
 
 
-def _decode_text(data: bytes, where: str) -> str:
+def _decode_text(data: bytes, where: str, lenient: bool = False) -> str:
+    """The text of an upload; with ``lenient``, bytes that are not UTF-8 become U+FFFD and
+    the file's reader (which reads the bytes themselves) names and sets aside their lines."""
     if data.startswith((b"\xff\xfe", b"\xfe\xff")):
         raise InputError(where, "UTF-16 text", "save the file as UTF-8 text")
     nul = data.find(b"\x00")
@@ -224,7 +232,7 @@ def _decode_text(data: bytes, where: str) -> str:
         raise InputError(f"{where}, line {line}", "a NUL byte",
                          "expected plain text; the file looks binary or is not UTF-8")
     try:
-        text = data.decode("utf-8-sig")
+        text = data.decode("utf-8-sig", errors="replace" if lenient else "strict")
     except UnicodeDecodeError as exc:
         line = data.count(b"\n", 0, exc.start) + 1
         raise InputError(f"{where}, line {line}", f"byte 0x{data[exc.start]:02x}",

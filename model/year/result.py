@@ -10,7 +10,7 @@ import pandas as pd
 
 from model.case import is_unsafe, warnings_as_records
 from model.errors import InputError
-from model.reference import DEFAULT_REFERENCE, Reference, VOLATILES
+from model.reference import DEFAULT_REFERENCE, GWP_SOURCES, Reference, VOLATILES
 from model.year.inputs import MONTHS, Scenario
 from model.year.nodes import NODE_Z
 from model.year.sampling import Draws, _central, _percentiles, _sampled, make_draws
@@ -198,8 +198,10 @@ def _notes(inp: YearInputs, scenario: Scenario) -> list[str]:
                      f"the others keep the plan as written.")
     sampled = scenario.sampling.gwp_sources
     if sampled and set(sampled) != {scenario.gwp_source}:
-        notes.append(f"The expected column uses {scenario.gwp_source}; the P5-P95 bands also sample the GWP "
-                     f"sources {', '.join(sampled)} (the uncertainty of the GWP choice), so an expected "
+        def label(k):
+            return GWP_SOURCES[k].label if k in GWP_SOURCES else k
+        notes.append(f"The expected column uses {label(scenario.gwp_source)}; the P5-P95 bands also sample the "
+                     f"GWP sources {', '.join(map(label, sampled))} (the uncertainty of the GWP choice), so an expected "
                      "CO2e can sit near one end of its band.")
     return notes
 
