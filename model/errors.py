@@ -24,7 +24,8 @@ class InputError(ValueError):
         self.allowed = allowed
         shown = _REPR.repr(value) if not isinstance(value, str) else f"'{_one_line(value)}'"
         if len(shown) > 80:
-            shown = shown[:77] + "..."
+            # Keep both ends: a long file path stays recognisable by its file name.
+            shown = shown[:38] + "..." + shown[-39:]
         super().__init__(_one_line(f"{field}: got {shown}; {allowed}"))
 
 

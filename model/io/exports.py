@@ -239,10 +239,9 @@ def html_report(title: str, *, inputs: Mapping[str, object] | None = None,
     figures_first : bool
         Charts before the tables (after the inputs) rather than after them.
     currency : str
-        Currency label for the headings of cost columns.
-
-    Tables are shown for people (``model.io.readable.readable_frame``: headings in words with
-    units, figures to sensible significant figures).
+        Currency label for the headings of cost columns. Tables are shown for people
+        (``model.io.readable.readable_frame``: headings in words with units, figures to
+        sensible significant figures).
 
     Returns
     -------

@@ -33,7 +33,7 @@ _LABELS: dict[str, str] = {
     "cost_total": "cost, total ({cur})", "cost_agent": "cost, agent ({cur})", "cost_gases": "cost, gases ({cur})",
     "cost_absorbent": "cost, absorbent ({cur})", "cost_oxygen": "cost, oxygen ({cur})",
     "cost_air": "cost, medical air ({cur})", "cost_nitrous_oxide": "cost, nitrous oxide ({cur})",
-    "cost_pro_rata": "cost, pro rata ({cur})", "mac_multiple": "MAC multiple", "mac_hours": "MAC-hours",
+    "cost_pro_rata": "cost, pro rata ({cur})", "mac_multiple": "MAC multiple", "mac_hours": "MAC-hours, dial-based",
     "flows_altered": "mix altered by the ratio limit", "agent_uptake_g": "agent taken up (g)",
     "agent_vented_g": "agent vented (g)", "agent_emitted_g": "agent emitted (g)",
     "end_tidal_agent_pct": "end-tidal agent (%)", "inspired_agent_pct": "inspired agent (%)",
@@ -67,7 +67,13 @@ _LABELS: dict[str, str] = {
     "value": "value", "message": "message", "file": "file",
     "purchased": "purchased", "recorded": "recorded", "unexplained": "unexplained",
     "unexplained_share": "unexplained share (%)", "unexplained_co2e_kg": "CO2e unexplained (kg)",
-    "apparent_loss": "apparent loss",
+    "apparent_loss": "apparent loss", "has_records": "month has records",
+    "purchased_with_records": "purchased, months with records",
+    "recorded_with_records": "recorded, months with records",
+    "unexplained_share_with_records": "unexplained share, months with records (%)",
+    "purchased_cost": "purchased cost", "recorded_cost": "recorded cost", "unexplained_cost": "unexplained cost",
+    "time_weighted_fgf_l_min": "time-weighted fresh gas flow (L/min)", "safety": "safety",
+    "cost_absorbent": "cost, CO2 absorbent (estimate)", "end_tidal_mac_hours": "MAC-hours, end-tidal",
     # reference
     "basis": "basis", "source": "source", "default": "default (before your value)", "default_source": "source of the default",
 }
@@ -82,7 +88,7 @@ COLUMN_LABELS: Mapping[str, str] = _LABELS
 
 #: Columns of money (two decimals) and of whole counts.
 _MONEY = re.compile(r"^cost(_|,| \(|$)", re.IGNORECASE)
-_PERCENT_SHARES = ("unexplained_share",)
+_PERCENT_SHARES = ("unexplained_share", "unexplained_share_with_records")
 
 #: Problem kinds of the records check (``model.io.record_report.ISSUE_KINDS``) in words.
 PROBLEM_WORDS: Mapping[str, str] = {
