@@ -235,7 +235,7 @@ with tab_recon:
         st.warning(f"{len(purchase_notes)} purchase line(s) set aside; the others are used:\n\n"
                    + "\n".join(f"- {ui.md(m)}" for m in purchase_notes[:20])
                    + (f"\n- ... and {more} more" if more > 0 else ""), icon=":material/warning:")
-    st.dataframe(costs, hide_index=True, width="stretch")
+    fmt.table(costs, view.currency)
     st.caption(f"Cost by item over the whole period, purchases priced with the same prices. The absorbent row "
                f"is {result.absorbent_note()}")
     if recon is None:
