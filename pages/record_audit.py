@@ -259,8 +259,7 @@ with tab_recon:
                       help="Purchased minus recorded N2O: losses in pipes and manifolds, part-full cylinders "
                            "returned, and use not in the records.")
         with st.expander("Coverage by month and theatre", expanded=coverage["partial"]):
-            st.dataframe(coverage["by_month"], hide_index=True, width="stretch",
-                         column_config={"bought": "purchases", "has_records": "case records"})
+            fmt.table(coverage["by_month"].rename(columns={"bought": "purchases", "has_records": "case records"}))
         long = totals.melt(id_vars=["item", "unit"], value_vars=["purchased", "recorded"], var_name="source",
                            value_name="amount")
         long["item"] = long["item"].str.replace("_", " ") + " (" + long["unit"] + ")"
