@@ -153,7 +153,7 @@ def _extra_commands():
     import importlib
 
     out = []
-    for name in ("model.physiology_cli", "model.year_cli", "model.audit_cli"):
+    for name in ("model.physiology_cli", "model.year_cli", "model.audit_cli", "model.store_cli"):
         try:
             module = importlib.import_module(name)
         except ModuleNotFoundError as exc:
