@@ -184,7 +184,7 @@ with st.expander(f"Change log ({len(changes)} changed values)", icon=":material/
                                    "to": [_shown(c.path, c.new) for c in changes],
                                    "version": [c.version for c in changes],
                                    "note": [c.note for c in changes]}),
-                     hide_index=True, width="stretch", key="ref_changelog")
+                     hide_index=True, width="stretch")
 
 with st.expander(f"Earlier sets of values ({len(history)})", icon=":material/history:"):
     if not history:
