@@ -21,7 +21,7 @@ from model.store import Store, StoreError, default_location
 ROOT = Path(__file__).resolve().parents[1]
 DEMO_PLANS = ROOT / "demo_data" / "plans"
 
-#: The standing caution (DESIGN.md section 6), shown on every page and in every report.
+#: The standing caution (README, top), shown on every page and in every report.
 CAUTION = (
     "Estimates support planning, budgeting and reporting; they are not a prescription. "
     "Flows, mixes and dial settings for a patient follow local protocols, the workstation's "
