@@ -232,8 +232,10 @@ class _SQLite:
     def backup(self, con, found: int) -> Path:
         """Copy the store beside itself (kept; the way back from a migration).
 
-        Runs inside the migration's write transaction, so the copy is the state being
-        migrated; written to a temporary name in the same folder, then renamed.
+        Runs while the migration's write transaction holds the file, so the copy is the
+        state being migrated; read through a second connection (SQLite's backup from the
+        writing connection itself would wait forever), written to a temporary name in the
+        same folder, then renamed.
         """
         suffix = f".schema{found}.bak"
         target = self.path.with_name(self.path.name + suffix)
@@ -244,11 +246,12 @@ class _SQLite:
         fd, tmp = tempfile.mkstemp(prefix=target.name + ".", suffix=".tmp", dir=self.path.parent)
         os.close(fd)
         try:
-            dst = sqlite3.connect(tmp)
-            try:
-                con.backup(dst)
-            finally:
-                dst.close()
+            with self.read() as src:
+                dst = sqlite3.connect(tmp)
+                try:
+                    src.backup(dst)
+                finally:
+                    dst.close()
             os.replace(tmp, target)
         except BaseException:
             with _ignored(OSError):
@@ -383,7 +386,11 @@ class Store:
             self._db = _Postgres(str(location).strip())
         else:
             self._db = _SQLite(Path(location).expanduser())
-        self._open_and_migrate()
+        try:
+            self._open_and_migrate()
+        except BaseException:
+            self._db.close()        # a refused store keeps no connections open
+            raise
 
     @property
     def path(self) -> Path | None:
