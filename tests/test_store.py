@@ -325,7 +325,7 @@ def test_copy_keeps_every_version_with_its_number_time_author_and_note(tmp_path,
         else:
             target_at = stack.enter_context(postgres_database())
         target = open_store(target_at)
-        assert source.copy_into(target) == source.count_versions() == 6
+        assert source.copy_into(target) == source.count_versions() == 5
         for kind in ("plan", "scenario", "overrides"):
             assert target.names(kind) == source.names(kind)
             assert target.names(kind, include_hidden=True) == source.names(kind, include_hidden=True)
@@ -334,9 +334,9 @@ def test_copy_keeps_every_version_with_its_number_time_author_and_note(tmp_path,
         assert "hidden one" not in target.names("scenario")
         assert target.integrity() == "ok"
         # A store that already holds versions is refused and left as it was.
-        with pytest.raises(InputError, match="already holds 6 saved versions"):
+        with pytest.raises(InputError, match="already holds 5 saved versions"):
             source.copy_into(target)
-        assert target.count_versions() == 6
+        assert target.count_versions() == 5
         target.close()
 
 
@@ -351,16 +351,16 @@ def test_command_line_copies_sqlite_into_postgres_and_saves_as_the_command_line(
         done = subprocess.run([PY, "-m", "model", "store", "copy", str(source_path), url],
                               capture_output=True, text=True, cwd=ROOT, timeout=120)
         assert done.returncode == 0, done.stderr
-        assert "Copied 7 versions" in done.stdout
+        assert "Copied 6 versions" in done.stdout
         target = open_store(url)
         saved = target.history("plan", load_plan(plan_file).name)[0]
         assert saved.note == "from the shell" and saved.author.startswith("command line")
-        assert target.count_versions() == 7
+        assert target.count_versions() == 6
         # Copying again into the same database: one line, exit status 2, nothing changed.
         again = subprocess.run([PY, "-m", "model", "store", "copy", str(source_path), url],
                                capture_output=True, text=True, cwd=ROOT, timeout=120)
         assert again.returncode == 2 and again.stderr.count("\n") == 1 and "already holds" in again.stderr
-        assert target.count_versions() == 7
+        assert target.count_versions() == 6
         target.close()
 
 
