@@ -87,3 +87,17 @@ def default_value(reference: Reference, path: str):
     except (KeyError, AttributeError):
         return None
     return None
+
+
+def shown(reference: Reference, path: str, value) -> str:
+    """A value of the change log as text; None (the default) shown as the built-in value."""
+    if value is None:
+        built_in = default_value(reference, path)
+        return "none (built-in default)" if built_in is None else f"{_text(built_in)} (built-in default)"
+    return _text(value)
+
+
+def _text(value) -> str:
+    if isinstance(value, (int, float)) and not isinstance(value, bool):
+        return f"{value:g}"
+    return str(value)

@@ -10,7 +10,8 @@ import streamlit as st
 import ui
 from model import DEFAULT_REFERENCE, InputError
 from model.access import author_label
-from model.changelog import default_value, reference_changes
+from model.changelog import reference_changes
+from model.changelog import shown as change_text
 from model.exports import html_report
 from model.reference import VOLATILES
 
@@ -163,13 +164,6 @@ msg = ss.pop("ref_msg", None)
 if msg:
     st.success(msg, icon=":material/check_circle:")
 
-def _shown(path: str, value) -> str:
-    if value is None:
-        built_in = default_value(default, path)
-        return "none (built-in default)" if built_in is None else f"{built_in:g} (built-in default)"
-    return f"{value:g}" if isinstance(value, (int, float)) and not isinstance(value, bool) else str(value)
-
-
 changes = reference_changes(history)
 with st.expander(f"Change log ({len(changes)} changed values)", icon=":material/manage_history:"):
     st.caption("Who changed which value, from what to what, and when. Every set of values stays "
@@ -180,8 +174,8 @@ with st.expander(f"Change log ({len(changes)} changed values)", icon=":material/
         st.dataframe(pd.DataFrame({"saved (UTC)": [c.saved_at[:19] for c in changes],
                                    "by": [author_label(c.author) for c in changes],
                                    "value": [c.path for c in changes],
-                                   "from": [_shown(c.path, c.old) for c in changes],
-                                   "to": [_shown(c.path, c.new) for c in changes],
+                                   "from": [change_text(default, c.path, c.old) for c in changes],
+                                   "to": [change_text(default, c.path, c.new) for c in changes],
                                    "version": [c.version for c in changes],
                                    "note": [c.note for c in changes]}),
                      hide_index=True, width="stretch")

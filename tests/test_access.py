@@ -9,7 +9,7 @@ from streamlit.testing.v1.errors import AppTestError
 
 from model.access import (NO_ONE, AccessConfig, User, access_config, command_line_author, is_editor,
                           may_edit_reference, may_save, user_from_header, user_from_sign_in)
-from model.changelog import default_value, reference_changes
+from model.changelog import default_value, reference_changes, shown
 from model.errors import InputError
 from model.reference import DEFAULT_REFERENCE
 from model.store import Store
@@ -104,6 +104,10 @@ def test_change_log_lists_each_value_from_what_to_what(isolated_store):
                     (1, "a", "prices.oxygen_per_1000_l", None, 3.0)]
     assert default_value(DEFAULT_REFERENCE, "agents.sevoflurane.mac40") == DEFAULT_REFERENCE.agents["sevoflurane"].mac40
     assert default_value(DEFAULT_REFERENCE, "gwp.user.sevoflurane") is None
+    # The currency label is text, not a number.
+    assert shown(DEFAULT_REFERENCE, "prices.currency", None) == f"{DEFAULT_REFERENCE.prices.currency} (built-in default)"
+    assert shown(DEFAULT_REFERENCE, "prices.currency", "EUR") == "EUR"
+    assert shown(DEFAULT_REFERENCE, "gwp.user.sevoflurane", None) == "none (built-in default)"
 
 
 # ---- the pages ---------------------------------------------------------------------------
