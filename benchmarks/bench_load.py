@@ -96,13 +96,14 @@ def free_port() -> int:
 
 
 @contextlib.contextmanager
-def dashboard(store_path: Path, log: Path | None = None, start_timeout_s: float = 90.0,
-              app_root: Path | None = None):
+def dashboard(store_path: Path | str, log: Path | None = None, start_timeout_s: float = 90.0,
+              app_root: Path | None = None, extra_args: tuple[str, ...] = ()):
     """Run the dashboard on a free loopback port; yields (url, log path). Stops it after.
 
-    The app uses the store at ``store_path``; its output goes to ``log`` (default: a new
-    temporary file). ``app_root`` runs another checkout's app (benchmarks compare with main).
-    Also used by tests/test_browser.py.
+    The app uses the store at ``store_path`` (a file, or a PostgreSQL URL); its output goes
+    to ``log`` (default: a new temporary file); ``app_root`` runs another checkout's app
+    (benchmarks compare with main); ``extra_args`` are more ``streamlit run`` options (e.g.
+    ``--secrets.files``). Also used by tests/test_browser.py.
     """
     app_root = Path(app_root or ROOT)
     port = free_port()
@@ -112,7 +113,7 @@ def dashboard(store_path: Path, log: Path | None = None, start_timeout_s: float 
         proc = subprocess.Popen(
             [sys.executable, "-m", "streamlit", "run", str(app_root / "app.py"),
              "--server.port", str(port), "--server.address", "127.0.0.1", "--server.headless", "true",
-             "--browser.gatherUsageStats", "false"],
+             "--browser.gatherUsageStats", "false", *extra_args],
             cwd=app_root, env=env, stdout=out, stderr=subprocess.STDOUT)
     url = f"http://127.0.0.1:{port}/"
     try:

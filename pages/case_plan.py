@@ -14,6 +14,7 @@ import ui.cautions
 import ui.provenance
 import ui.state
 from model import InputError
+from model.access import author_label
 from model.io.exports import html_report
 from model.plan import CasePlan
 from model.io.plans import plan_from_dict, plan_to_dict, plan_to_toml
@@ -538,14 +539,18 @@ with d2:
     st.markdown("**Save this plan**")
     s1, s2 = st.columns([3, 1], vertical_alignment="bottom")
     note = s1.text_input("Note for this version", key="cp_note", placeholder="optional, e.g. after theatre meeting")
-    if s2.button("Save", type="primary", icon=":material/save:", width="stretch", disabled=status != "ok"):
+    may_save = ui.save_permission()
+    if s2.button("Save", type="primary", icon=":material/save:", width="stretch",
+                 disabled=status != "ok" or not may_save.allowed) and may_save.allowed:
         # The plan's own prices are kept with it whether or not they were used here.
-        version = store.save_plan(replace(plan, prices=dict(ss["cp_base"].prices)), note)
+        version = store.save_plan(replace(plan, prices=dict(ss["cp_base"].prices)), note, author=ui.author())
         ss["cp_base"] = plan
         ss["cp_origin"] = f"saved plan '{plan.name}' version {version}"
         ss["cp_saved_msg"] = f"Saved '{plan.name}' as version {version}. Earlier versions are kept."
         ss["cp_pick_pending"] = plan.name
         st.rerun()
+    if not may_save.allowed:
+        st.caption(ui.md(may_save.reason))
     saved_msg = ss.pop("cp_saved_msg", None)
     if saved_msg:
         st.success(ui.md(saved_msg), icon=":material/check_circle:")
@@ -554,13 +559,14 @@ with st.expander("Plan files and saved versions", icon=":material/description:")
     f1, f2 = st.columns(2)
     with f1:
         st.markdown("**Import a plan file** (TOML, the format in docs/formats.md)")
-        up = st.file_uploader("Plan file", type=["toml"], key="cp_upload", label_visibility="collapsed")
-        if up is not None and ss.get("cp_upload_done") != up.file_id:
+        up = st.file_uploader("Plan file", type=["toml"], key="cp_upload", label_visibility="collapsed",
+                              disabled=not may_save.allowed)
+        if up is not None and may_save.allowed and ss.get("cp_upload_done") != up.file_id:
             ss["cp_upload_done"] = up.file_id
             try:
                 from model.io.uploads import check_upload
                 text = check_upload(up.name, up.getvalue(), "plan").text
-                imported, version = store.import_plan_text(text, up.name)
+                imported, version = store.import_plan_text(text, up.name, author=ui.author())
             except InputError as err:
                 st.error(ui.md(f"Not imported, the store is unchanged. {err}"), icon=":material/error:")
             else:
@@ -575,4 +581,5 @@ with st.expander("Plan files and saved versions", icon=":material/description:")
     if hist:
         st.markdown(f"**Saved versions of '{ui.md(plan.name)}'**")
         st.dataframe(pd.DataFrame({"version": [v.version for v in hist], "saved (UTC)": [v.saved_at[:19] for v in hist],
+                                   "by": [author_label(v.author) for v in hist],
                                    "note": [v.note for v in hist]}), hide_index=True, width="stretch")

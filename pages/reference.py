@@ -10,6 +10,9 @@ import streamlit as st
 import ui
 import ui.provenance
 from model import DEFAULT_REFERENCE, InputError
+from model.access import author_label
+from model.changelog import reference_changes
+from model.changelog import shown as change_text
 from model.io.exports import html_report
 from model.reference import VOLATILES
 
@@ -18,6 +21,9 @@ view = ui.page_start("Reference", "Every value the model uses, where it comes fr
 store = ui.get_store()
 ref = ui.reference(view)
 saved = store.load_overrides()
+history = store.history("overrides", "dashboard")
+permission = ui.reference_permission()
+locked = not permission.allowed
 ss = st.session_state
 
 # ---- the table -----------------------------------------------------------------------
@@ -54,7 +60,12 @@ ui.downloads("reference values", {"Reference": table}, _report, key="ref_dl")
 
 st.subheader("Your values")
 ui.provenance.show(view, ref)
+if history:
+    st.caption(f"In use: version {history[0].version}, saved {history[0].saved_at[:19]} UTC by "
+               f"{ui.md(author_label(history[0].author))}.")
 st.caption("Leave a value as it is to keep the default. Saving keeps every earlier set of values.")
+if locked:
+    st.info(ui.md(permission.reason), icon=":material/lock:")
 default = DEFAULT_REFERENCE
 prices_saved = saved.get("prices", {})
 FORM_KEYS = ("ref_currency",
@@ -89,19 +100,19 @@ with st.form("ref_overrides"):
     with tab_p:
         c = st.columns(5)
         currency = c[0].text_input("Currency label", value=prices_saved.get("currency", default.prices.currency),
-                                   max_chars=12, key="ref_currency")
+                                   max_chars=12, key="ref_currency", disabled=locked)
         bottle = {}
         for i, a in enumerate(VOLATILES):
             bottle[a] = c[i + 1].number_input(
                 f"{default.agents[a].label} per bottle", min_value=0.0, step=1.0,
-                value=float(ref.prices.bottle.get(a, 0.0)), key=f"ref_bottle_{a}")
+                value=float(ref.prices.bottle.get(a, 0.0)), key=f"ref_bottle_{a}", disabled=locked)
         c = st.columns(4)
         gases = {}
         for i, (k, label) in enumerate([("oxygen_per_1000_l", "Oxygen per 1000 L"), ("air_per_1000_l", "Medical air per 1000 L"),
                                         ("nitrous_oxide_per_1000_l", "Nitrous oxide per 1000 L"),
                                         ("absorbent_per_kg", "CO2 absorbent per kg")]):
             gases[k] = c[i].number_input(label, min_value=0.0, step=0.5, value=float(getattr(ref.prices, k)),
-                                         key=f"ref_{k}")
+                                         key=f"ref_{k}", disabled=locked)
         st.caption("Shipped prices are invented examples; put your own contract prices here.")
     with tab_g:
         st.caption("Values for the source \"User values\" (GWP100, kg CO2e per kg). Choose that source in "
@@ -112,7 +123,7 @@ with st.form("ref_overrides"):
         gwp_user = {}
         for i, a in enumerate(list(VOLATILES) + ["nitrous_oxide"]):
             v = c[i].number_input(default.agents[a].label, min_value=0.0, step=1.0, value=user_saved.get(a),
-                                  key=f"ref_gwp_{a}", placeholder="none")
+                                  key=f"ref_gwp_{a}", placeholder="none", disabled=locked)
             if v is not None:
                 gwp_user[a] = float(v)
     with tab_m:
@@ -121,7 +132,7 @@ with st.form("ref_overrides"):
         mac = {}
         for i, a in enumerate(list(VOLATILES) + ["nitrous_oxide"]):
             mac[a] = c[i].number_input(default.agents[a].label, min_value=0.0, step=0.05,
-                                       value=float(ref.agents[a].mac40), key=f"ref_mac_{a}", format="%.3g")
+                                       value=float(ref.agents[a].mac40), key=f"ref_mac_{a}", format="%.3g", disabled=locked)
     with tab_v:
         st.caption("Highest dial setting of your vaporizers (%). Plan dials above it are refused, and "
                    "targets are reached within it. Follow the workstation's instructions for use.")
@@ -130,9 +141,10 @@ with st.form("ref_overrides"):
         for i, a in enumerate(VOLATILES):
             vapmax[a] = c[i].number_input(default.agents[a].label, min_value=0.5, max_value=100.0, step=0.5,
                                           value=float(ref.agents[a].vaporizer_max), key=f"ref_vapmax_{a}",
-                                          format="%.3g")
-    note = st.text_input("Note for this set of values", placeholder="optional, e.g. 2026 contract prices")
-    submitted = st.form_submit_button("Save my values", type="primary", icon=":material/save:")
+                                          format="%.3g", disabled=locked)
+    note = st.text_input("Note for this set of values", placeholder="optional, e.g. 2026 contract prices",
+                         disabled=locked)
+    submitted = st.form_submit_button("Save my values", type="primary", icon=":material/save:", disabled=locked)
 
 
 def _collect() -> dict:
@@ -159,14 +171,16 @@ def _collect() -> dict:
     return out
 
 
-if submitted:
+if submitted and locked:       # the button is disabled; refuse here too
+    st.warning(ui.md(f"Not saved. {permission.reason}"), icon=":material/lock:")
+elif submitted:
     overrides = _collect()
     try:
         default.with_overrides(overrides, "dashboard")     # check before saving
     except InputError as err:
         ui.show_input_error(err, "Not saved")
     else:
-        version = store.save_overrides(overrides, note=note)
+        version = store.save_overrides(overrides, note=note, author=ui.author())
         ss["gl_currency_pending"] = currency.strip()
         ss["ref_msg"] = f"Saved your values as version {version}; every page now uses them."
         st.rerun()
@@ -174,27 +188,45 @@ msg = ss.pop("ref_msg", None)
 if msg:
     st.success(msg, icon=":material/check_circle:")
 
-history = store.history("overrides", "dashboard")
+changes = reference_changes(history)
+with st.expander(f"Change log ({len(changes)} changed values)", icon=":material/manage_history:"):
+    st.caption("Who changed which value, from what to what, and when. Every set of values stays "
+               "saved; an editor can put an earlier one back in use below.")
+    if not changes:
+        st.caption("No value changed yet: the built-in defaults apply.")
+    else:
+        st.dataframe(pd.DataFrame({"saved (UTC)": [c.saved_at[:19] for c in changes],
+                                   "by": [author_label(c.author) for c in changes],
+                                   "value": [c.path for c in changes],
+                                   "from": [change_text(default, c.path, c.old) for c in changes],
+                                   "to": [change_text(default, c.path, c.new) for c in changes],
+                                   "version": [c.version for c in changes],
+                                   "note": [c.note for c in changes]}),
+                     hide_index=True, width="stretch")
+
 with st.expander(f"Earlier sets of values ({len(history)})", icon=":material/history:"):
     if not history:
         st.caption("None saved yet: the built-in defaults apply.")
     else:
         st.dataframe(pd.DataFrame({"version": [v.version for v in history],
                                    "saved (UTC)": [v.saved_at[:19] for v in history],
+                                   "by": [author_label(v.author) for v in history],
                                    "note": [v.note for v in history],
                                    "values": [v.body for v in history]}), hide_index=True, width="stretch")
+        if locked:
+            st.caption(ui.md(permission.reason))
         h1, h2, h3 = st.columns([1, 1, 2], vertical_alignment="bottom")
         pick = h1.selectbox("Version", [v.version for v in history], key="ref_restore_pick")
-        if h2.button("Use this version again", icon=":material/restore:"):
+        if h2.button("Use this version again", icon=":material/restore:", disabled=locked) and not locked:
             body = store.get("overrides", "dashboard", int(pick)).body
             restored = json.loads(body)
-            version = store.save_overrides(restored, note=f"restored version {pick}")
+            version = store.save_overrides(restored, note=f"restored version {pick}", author=ui.author())
             ss["ref_reset_form"] = True
             ss["gl_currency_pending"] = (restored.get("prices") or {}).get("currency") or default.prices.currency
             ss["ref_msg"] = f"Version {pick} is in use again (saved as version {version})."
             st.rerun()
-        if h3.button("Go back to the built-in defaults", icon=":material/undo:"):
-            version = store.save_overrides({}, note="back to built-in defaults")
+        if h3.button("Go back to the built-in defaults", icon=":material/undo:", disabled=locked) and not locked:
+            version = store.save_overrides({}, note="back to built-in defaults", author=ui.author())
             ss["ref_reset_form"] = True
             ss["gl_currency_pending"] = default.prices.currency
             ss["ref_msg"] = f"Built-in defaults in use (saved as version {version}; earlier values kept)."

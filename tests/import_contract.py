@@ -23,7 +23,7 @@ LAYERS = (
     ("formats", ("model.io",)),
     ("audit", ("model.audit",)),
     ("report", ("model.report",)),
-    ("store", ("model.store",)),
+    ("store", ("model.store", "model.access", "model.changelog")),
     ("command line", ("model.cli", "model.__main__")),
 )
 FORBIDDEN = ("streamlit", "ui", "pages")

@@ -272,3 +272,94 @@ def test_a_direct_link_as_the_first_request_gets_the_app_navigation(page, tmp_pa
         assert nav.get_by_text("The department").count() == 1
         assert nav.get_by_role("link", name="Department year").count() == 1
         assert nav.get_by_role("link", name="app", exact=True).count() == 0
+
+
+# ---- a shared department server: identity by header, two app processes on PostgreSQL ----
+
+EDITOR = "lead@fernhollow.example"
+
+
+def _sidebar_text(pg) -> str:
+    return pg.locator('[data-testid="stSidebar"]').inner_text()
+
+
+def _open_reference(pg, url: str) -> None:
+    pg.goto(url + "/reference")
+    pg.get_by_text("Your values").first.wait_for()
+    wait_idle(pg)
+
+
+def test_a_forged_identity_header_is_ignored_where_header_sign_in_is_not_configured(browser, app_url):
+    # The module's app has no sign-in configured: a header naming an editor changes nothing.
+    context = browser.new_context(viewport={"width": 1400, "height": 1000},
+                                  extra_http_headers={"X-Remote-User": EDITOR, "X-Forwarded-User": EDITOR})
+    pg = context.new_page()
+    pg.set_default_timeout(WAIT_MS)
+    try:
+        _open_reference(pg, app_url)
+        sidebar = _sidebar_text(pg)
+        assert "Not signed in" in sidebar and EDITOR not in sidebar
+        assert "This server has no sign-in" in sidebar
+    finally:
+        context.close()
+
+
+def test_the_configured_header_signs_the_user_in_and_only_editors_may_change_values(browser, tmp_path):
+    secrets = tmp_path / "secrets.toml"
+    secrets.write_text('[gas_ledger]\nsign_in = "header"\nidentity_header = "X-Remote-User"\n'
+                       f'editors = ["{EDITOR}"]\n', encoding="utf-8")
+    with dashboard(tmp_path / "store.sqlite3", tmp_path / "streamlit.log",
+                   extra_args=("--secrets.files", str(secrets))) as (url, _):
+        url = url.rstrip("/")
+        seen = {}
+        for who, headers in [("editor", {"X-Remote-User": EDITOR}),
+                             ("other", {"X-Remote-User": "anaesthetist@fernhollow.example"}),
+                             ("nobody", {})]:
+            context = browser.new_context(viewport={"width": 1400, "height": 1000}, extra_http_headers=headers)
+            pg = context.new_page()
+            pg.set_default_timeout(WAIT_MS)
+            try:
+                _open_reference(pg, url)
+                save = pg.locator('button[data-testid^="stBaseButton"]').filter(has_text="Save my values").first
+                seen[who] = (_sidebar_text(pg), save.is_disabled())
+            finally:
+                context.close()
+    assert f"Signed in as {EDITOR} (editor" in seen["editor"][0] and not seen["editor"][1]
+    assert "Signed in as anaesthetist@fernhollow.example (may save plans)" in seen["other"][0]
+    assert seen["other"][1]
+    assert "Not signed in" in seen["nobody"][0] and seen["nobody"][1]
+
+
+def test_two_app_processes_on_one_postgres_store_see_each_others_saves(browser, tmp_path):
+    from storetest import postgres_database
+
+    name = "Shared between two servers"
+    with postgres_database("gl_browser") as db, \
+            dashboard(db, tmp_path / "first.log") as (first, _), \
+            dashboard(db, tmp_path / "second.log") as (second, _):
+        pages = []
+        for _url in (first, second):
+            context = browser.new_context(viewport={"width": 1400, "height": 1000})
+            pg = context.new_page()
+            pg.set_default_timeout(WAIT_MS)
+            pages.append((context, pg))
+        try:
+            one, two = pages[0][1], pages[1][1]
+            open_app(two, second.rstrip("/"))
+            open_app(one, first.rstrip("/"))
+            box = one.get_by_label("Plan name")
+            box.fill(name)
+            box.press("Enter")
+            wait_idle(one)
+            click_button(one, "Save")
+            one.get_by_text(f"Saved '{name}' as version 1").wait_for()
+            # The other process, after a reload, lists it first (the most recently saved).
+            two.reload()
+            two.get_by_text("What this case uses").wait_for()
+            wait_idle(two)
+            two.locator('[data-testid="stSelectbox"]').filter(has_text="Open a saved plan").first.click()
+            two.get_by_role("option", name=name, exact=True).wait_for()
+            two.screenshot(path=str(ARTIFACTS / "shared_postgres_second_process.png"))
+        finally:
+            for context, _ in pages:
+                context.close()

@@ -11,10 +11,15 @@ API for page authors (see DEVELOPERS.md, "Dashboard pages"):
 - ``md(text)``: user text escaped for markdown (every st.markdown/caption/message with user text).
 - ``show_input_error(err)``: one line for a :class:`model.errors.InputError`.
 - ``downloads(name, tables, report_html, key)``: the CSV / Excel / HTML download row.
+- ``current_user()``, ``author()``: who is signed in (``model.access.User``) and the author a
+  save records; ``reference_permission()``, ``save_permission()``: ``model.access.Permission``
+  (``allowed``, ``reason``) for changing reference values and for saving.
 """
 
-from .common import (CAUTION, CAUTION_SHORT, ViewSettings, apply_settings, compute_cached, downloads, get_store,
-                     md, page_start, reference, reference_key, show_input_error, view_settings)
+from .common import (CAUTION, CAUTION_SHORT, ViewSettings, apply_settings, author, compute_cached, current_user,
+                     downloads, get_store, md, page_start, reference, reference_key, reference_permission,
+                     save_permission, show_input_error, view_settings)
 
-__all__ = ["CAUTION", "CAUTION_SHORT", "ViewSettings", "apply_settings", "compute_cached", "downloads", "get_store",
-           "md", "page_start", "reference", "reference_key", "show_input_error", "view_settings"]
+__all__ = ["CAUTION", "CAUTION_SHORT", "ViewSettings", "apply_settings", "author", "compute_cached", "current_user",
+           "downloads", "get_store", "md", "page_start", "reference", "reference_key", "reference_permission",
+           "save_permission", "show_input_error", "view_settings"]

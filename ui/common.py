@@ -12,9 +12,11 @@ import pandas as pd
 import streamlit as st
 
 from model import DEFAULT_REFERENCE, InputError, Reference, compute_case, parse_plan_text
+from model.access import (CONFIG_PLACE, NO_ONE, AccessConfig, Permission, User, access_config, is_editor,
+                          may_edit_reference, may_save, user_from_header, user_from_sign_in)
 from model.io.exports import to_csv, to_xlsx
 from model.plan import CasePlan
-from model.store import Store, StoreError, default_path
+from model.store import Store, StoreError, default_location, is_postgres_url
 
 from .format import plain_paths, readable_frame
 
@@ -67,26 +69,29 @@ class ViewSettings:
 # ---- store and reference -------------------------------------------------------------
 
 @st.cache_resource(show_spinner=False)
-def _store_at(path: str) -> Store:
-    store = Store(path)
+def _store_at(location: str) -> Store:
+    store = Store(location)
     if store.count_versions() == 0:
         # A new store starts with the demo plans, so the dashboard is usable at once.
         for f in sorted(DEMO_PLANS.glob("*.toml")):
-            store.import_plan_text(f.read_text(encoding="utf-8"), f.name, "demo plan (invented)")
+            store.import_plan_text(f.read_text(encoding="utf-8"), f.name, "demo plan (invented)",
+                                   author="demo data (invented)")
     return store
 
 
 def get_store() -> Store:
-    """The store named by ``GAS_LEDGER_STORE`` (or the default file), seeded with the demo.
+    """The store named by ``GAS_LEDGER_STORE`` (a file or a PostgreSQL URL; else the default
+    file), seeded with the demo. One per server process, shared by its sessions.
 
-    A store file that cannot be used (foreign, or from a newer program) stops the page
-    with its one-line message.
+    A store that cannot be used (foreign, unreachable, or from a newer program) stops the
+    page with its one-line message.
     """
     try:
-        return _store_at(str(default_path()))
+        return _store_at(default_location())
     except StoreError as err:
-        path = default_path()
-        st.error(md(plain_paths(str(err), {str(path): path.name})), icon=":material/error:")
+        where = default_location()
+        known = {} if is_postgres_url(where) else {where: Path(where).name}
+        st.error(md(plain_paths(str(err), known)), icon=":material/error:")
         st.stop()
 
 
@@ -142,6 +147,93 @@ def compute_cached(plan_toml: str, ref_key: str, _ref: Reference):
     return compute_case(parse_plan_text(plan_toml, "plan"), _ref)
 
 
+# ---- who is signed in, and what they may change ----------------------------------------
+
+#: Used when the sign-in configuration is wrong: no one is signed in, nothing can be changed.
+_FAIL_CLOSED = AccessConfig(sign_in="streamlit")
+
+
+def _access() -> tuple[AccessConfig, str]:
+    """The sign-in configuration and, when it is wrong, its one-line message."""
+    from streamlit.errors import StreamlitSecretNotFoundError
+
+    try:
+        raw = st.secrets.get("gas_ledger")
+    except (FileNotFoundError, StreamlitSecretNotFoundError):
+        return AccessConfig(), ""          # no secrets file at all: sign-in off
+    except Exception as exc:               # noqa: BLE001 - a secrets file that does not parse
+        return _FAIL_CLOSED, f".streamlit/secrets.toml cannot be read ({type(exc).__name__})"
+    if raw is None:
+        return AccessConfig(), ""
+    try:
+        data = {k: (list(v) if isinstance(v, (list, tuple)) else v) for k, v in dict(raw).items()}
+        return access_config(data), ""
+    except (InputError, TypeError, ValueError) as err:
+        return _FAIL_CLOSED, str(err)
+
+
+def access_settings() -> AccessConfig:
+    """The sign-in configuration (:data:`model.access.CONFIG_PLACE`); sign-in off when absent."""
+    return _access()[0]
+
+
+def current_user() -> User:
+    """Who is signed in: Streamlit's sign-in (``st.user``) or the trusted proxy's header, only
+    as configured; with sign-in off no one (a header sent anyway is ignored)."""
+    config, problem = _access()
+    if problem:
+        return NO_ONE
+    if config.sign_in == "header":
+        return user_from_header(config, st.context.headers.get_all(config.identity_header))
+    if config.sign_in == "streamlit":
+        return user_from_sign_in(config, st.user.to_dict())
+    return NO_ONE
+
+
+def author() -> str:
+    """What a save records as its author ("" when no one is signed in)."""
+    return current_user().label
+
+
+def reference_permission() -> Permission:
+    """May this user change the reference values (and restore an earlier set)?"""
+    return may_edit_reference(access_settings(), current_user())
+
+
+def save_permission() -> Permission:
+    """May this user save plans and scenarios?"""
+    return may_save(access_settings(), current_user())
+
+
+def _who_box() -> None:
+    """The sidebar's line on who is signed in, with sign-in and sign-out in streamlit mode."""
+    config, problem = _access()
+    if problem:
+        st.error(md(f"Sign-in is misconfigured ({CONFIG_PLACE}): {problem}. Nothing can be changed "
+                    "until it is fixed."), icon=":material/lock:")
+        return
+    user = current_user()
+    if not user.signed_in:
+        st.caption("Not signed in." + ("" if config.enabled else " (This server has no sign-in: "
+                                       "anyone who can open it may change every value.)"))
+        if config.sign_in == "streamlit" and st.button("Sign in", icon=":material/login:", key="gl_sign_in"):
+            _sign_in(config)
+        return
+    role = "editor of the reference values" if is_editor(config, user) else "may save plans"
+    st.caption(f"Signed in as {md(user.label)} ({role}).")
+    if config.sign_in == "streamlit" and st.button("Sign out", icon=":material/logout:", key="gl_sign_out"):
+        st.logout()
+
+
+def _sign_in(config: AccessConfig) -> None:
+    from streamlit.errors import StreamlitAuthError
+
+    try:
+        st.login(config.provider) if config.provider else st.login()
+    except StreamlitAuthError as err:
+        st.error(md(f"Sign-in is not set up: {err}"), icon=":material/error:")
+
+
 # ---- sidebar and page header ---------------------------------------------------------
 
 def _sidebar() -> ViewSettings:
@@ -178,8 +270,11 @@ def _sidebar() -> ViewSettings:
                                  help="For cases, plans and records. A department's year is always "
                                       "in tonnes CO2e, the unit of annual reporting.")
         st.divider()
+        _who_box()
         st.caption(CAUTION)
-        st.caption(f"Your work is saved in the store file {md(default_path().name)} on the server.")
+        where = default_location()
+        where = "a shared PostgreSQL database" if is_postgres_url(where) else f"the store file {Path(where).name}"
+        st.caption(f"Your work is saved in {md(where)} on the server.")
     return ViewSettings(currency.strip(), source, years, float(temp), flow_unit, co2e_unit)
 
 

@@ -1,0 +1,204 @@
+"""Who the user is and what they may change: the sign-in configuration, users and permissions.
+
+Pure logic, no streamlit: the dashboard (``ui/``) reads the configuration and the request,
+and asks here. Sign-in is off by default; with it off, everyone may do everything, as on a
+laptop for one person. With it on, the configuration names the *editors*, who alone may
+change the reference values (prices, GWP, MAC, vaporizer maxima) and put an earlier set back
+in use; every signed-in user may save plans and scenarios.
+
+The configuration is a table of the project's own (``[gas_ledger]`` in
+``.streamlit/secrets.toml``, beside Streamlit's own ``[auth]`` for sign-in)::
+
+    [gas_ledger]
+    sign_in = "header"                  # off (default) | streamlit | header
+    identity_header = "X-Remote-User"   # header mode: the header the proxy sets
+    editors = ["sustainability.lead@fernhollow.example", "pharmacy@fernhollow.example"]
+    provider = ""                       # streamlit mode: a named provider of [auth], if several
+"""
+
+from __future__ import annotations
+
+import getpass
+import re
+from dataclasses import dataclass
+from typing import Mapping, Sequence
+
+from model.errors import InputError
+
+#: How the dashboard knows who the user is.
+SIGN_IN_MODES = ("off", "streamlit", "header")
+#: Where the configuration lives, for messages.
+CONFIG_PLACE = "[gas_ledger] in .streamlit/secrets.toml"
+#: Shown where an author would be when no one was signed in.
+NOT_SIGNED_IN = "not signed in"
+#: The author the command line writes when it saves (with the OS user when known).
+COMMAND_LINE = "command line"
+_HEADER_NAME = re.compile(r"[A-Za-z0-9][A-Za-z0-9-]{0,63}")
+#: Longest identity accepted from a header or a sign-in claim. [characters]
+MAX_IDENTITY_CHARS = 200
+
+
+@dataclass(frozen=True)
+class AccessConfig:
+    """The sign-in configuration. The default (``sign_in = "off"``) is no identity at all."""
+
+    sign_in: str = "off"
+    identity_header: str = ""
+    editors: frozenset[str] = frozenset()
+    provider: str = ""
+
+    @property
+    def enabled(self) -> bool:
+        return self.sign_in != "off"
+
+
+@dataclass(frozen=True)
+class User:
+    """Who is using the dashboard. ``id`` is what the editors list is matched against (the
+    e-mail of a Streamlit sign-in, the header's value); empty when no one is signed in."""
+
+    id: str = ""
+    name: str = ""
+    via: str = ""
+
+    @property
+    def signed_in(self) -> bool:
+        return bool(self.id)
+
+    @property
+    def label(self) -> str:
+        """How the user is shown and recorded as author."""
+        if not self.signed_in:
+            return ""
+        return self.id if not self.name or self.name == self.id else f"{self.name} <{self.id}>"
+
+
+NO_ONE = User()
+
+
+@dataclass(frozen=True)
+class Permission:
+    """Whether an action is allowed, and the reason shown when it is not."""
+
+    allowed: bool
+    reason: str = ""
+
+
+def access_config(data: Mapping | None, where: str = CONFIG_PLACE) -> AccessConfig:
+    """Read the sign-in configuration; an absent or empty table means sign-in off.
+
+    Raises
+    ------
+    InputError
+        A value is wrong: the message names the key and what is allowed.
+    """
+    if data is None:
+        return AccessConfig()
+    if not isinstance(data, Mapping):
+        raise InputError(where, type(data).__name__, "expected a table of settings")
+    known = {"sign_in", "identity_header", "editors", "provider"}
+    unknown = sorted(set(data) - known)
+    if unknown:
+        raise InputError(f"{where}, {unknown[0]}", unknown[0], "allowed keys are " + ", ".join(sorted(known)))
+    mode = data.get("sign_in", "off")
+    if mode not in SIGN_IN_MODES:
+        raise InputError(f"{where}, sign_in", mode, "allowed: " + ", ".join(SIGN_IN_MODES))
+    header = data.get("identity_header", "")
+    if not isinstance(header, str) or (header and not _HEADER_NAME.fullmatch(header)):
+        raise InputError(f"{where}, identity_header", header, "expected a header name of letters, digits and -")
+    if mode == "header" and not header:
+        raise InputError(f"{where}, identity_header", "", 'sign_in = "header" needs the header the proxy sets, '
+                         'e.g. identity_header = "X-Remote-User"')
+    editors = data.get("editors", [])
+    if not isinstance(editors, (list, tuple)) or not all(isinstance(e, str) and e.strip() for e in editors):
+        raise InputError(f"{where}, editors", editors, "expected a list of user names or e-mail addresses")
+    provider = data.get("provider", "")
+    if not isinstance(provider, str):
+        raise InputError(f"{where}, provider", provider, "expected the name of a provider in [auth]")
+    return AccessConfig(mode, header if mode == "header" else "",
+                        frozenset(_identity_key(e) for e in editors), provider.strip())
+
+
+def _identity_key(text: str) -> str:
+    """Identities compare without case and surrounding spaces (e-mail addresses, user names)."""
+    return text.strip().casefold()
+
+
+def _clean_identity(value) -> str | None:
+    if not isinstance(value, str):
+        return None
+    value = value.strip()
+    if not value or len(value) > MAX_IDENTITY_CHARS or not value.isprintable():
+        return None
+    return value
+
+
+def user_from_header(config: AccessConfig, values: Sequence[str]) -> User:
+    """The user a trusted proxy named in its header, or no one.
+
+    Only honoured in header mode: otherwise a header of that (or any) name, forged by a
+    browser, is ignored. ``values`` are every value of the configured header in the request;
+    a header sent more than once is refused (a proxy that appends rather than replaces it
+    would let a browser's own value through), as is an empty, overlong or unprintable one.
+    """
+    if config.sign_in != "header" or len(values) != 1:
+        return NO_ONE
+    value = _clean_identity(values[0])
+    if value is None:
+        return NO_ONE
+    return User(value, value, f"header {config.identity_header}")
+
+
+def user_from_sign_in(config: AccessConfig, claims: Mapping) -> User:
+    """The user of Streamlit's OpenID Connect sign-in (``st.user``), or no one.
+
+    Only honoured in streamlit mode, and only when ``is_logged_in`` is true. The e-mail
+    address identifies the user (else the provider's subject, ``sub``).
+    """
+    if config.sign_in != "streamlit" or claims.get("is_logged_in") is not True:
+        return NO_ONE
+    ident = _clean_identity(claims.get("email")) or _clean_identity(claims.get("sub"))
+    if ident is None:
+        return NO_ONE
+    name = _clean_identity(claims.get("name")) or ident
+    return User(ident, name, "sign-in")
+
+
+def is_editor(config: AccessConfig, user: User) -> bool:
+    """True when the signed-in user is on the editors list."""
+    return user.signed_in and _identity_key(user.id) in config.editors
+
+
+def may_edit_reference(config: AccessConfig, user: User) -> Permission:
+    """May the user change the reference values or put an earlier set back in use?"""
+    if not config.enabled:
+        return Permission(True)
+    if not user.signed_in:
+        return Permission(False, "Sign in to change the reference values; until then they are shown read-only.")
+    if not is_editor(config, user):
+        return Permission(False, f"Only the department's editors change the reference values that everyone's "
+                                 f"figures are worked out with; {user.label} is not on the list. Ask an editor "
+                                 f"or the server's administrator.")
+    return Permission(True)
+
+
+def may_save(config: AccessConfig, user: User) -> Permission:
+    """May the user save plans and scenarios? Everyone signed in may (everyone when sign-in is off)."""
+    if config.enabled and not user.signed_in:
+        return Permission(False, "Sign in to save: every saved version records who saved it.")
+    return Permission(True)
+
+
+def author_label(author: str) -> str:
+    """A stored author as shown in version lists and the change log."""
+    return author or NOT_SIGNED_IN
+
+
+def command_line_author() -> str:
+    """The author the command line records: "command line (OS user)", or "command line"."""
+    try:
+        who = getpass.getuser()
+    except (KeyError, OSError, ImportError):
+        who = ""
+    who = _clean_identity(who)
+    return f"{COMMAND_LINE} ({who})" if who else COMMAND_LINE

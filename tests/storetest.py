@@ -1,0 +1,81 @@
+"""Shared parts of the store tests: the same tests run on SQLite and on PostgreSQL.
+
+``store_location`` is parametrised over both databases: an SQLite file in the test's
+temporary folder, or a new empty PostgreSQL database made for the test (dropped after) on
+the server named by ``GAS_LEDGER_TEST_POSTGRES``. Without that variable the PostgreSQL
+cases are skipped with the reason, except in CI (``CI=true``), where they fail: CI must run
+them (.ci/run starts a throwaway server with scripts/test_postgres.sh).
+"""
+
+from __future__ import annotations
+
+import contextlib
+import os
+import uuid
+from urllib.parse import urlsplit, urlunsplit
+
+import pytest
+
+from model.store import Store
+
+#: Environment variable with the URL of a PostgreSQL user who may create databases.
+PG_ENV = "GAS_LEDGER_TEST_POSTGRES"
+BACKENDS = ("sqlite", "postgresql")
+
+
+def postgres_admin_url() -> str:
+    """The test server's URL; skips (or, in CI, fails) when none is given."""
+    url = os.environ.get(PG_ENV, "").strip()
+    if url:
+        return url
+    if os.environ.get("CI", "").strip().lower() == "true":
+        pytest.fail(f"{PG_ENV} is not set: in CI the PostgreSQL store tests must run "
+                    "(.ci/run starts a server with scripts/test_postgres.sh)")
+    pytest.skip(f"no PostgreSQL server: set {PG_ENV} to the URL of a user who may create databases "
+                "(eval \"$(scripts/test_postgres.sh start DIR)\" starts a throwaway one)")
+
+
+@contextlib.contextmanager
+def postgres_database(prefix: str = "gl_test"):
+    """A new empty database on the test server; yields its URL and drops it afterwards."""
+    import psycopg
+
+    admin = postgres_admin_url()
+    name = f"{prefix}_{uuid.uuid4().hex[:12]}"
+    try:
+        with psycopg.connect(admin, autocommit=True, connect_timeout=15) as con:
+            con.execute(f'CREATE DATABASE "{name}"')
+    except psycopg.OperationalError as exc:
+        pytest.fail(f"the PostgreSQL test server at {PG_ENV} cannot be used: {exc}")
+    parts = urlsplit(admin)
+    url = urlunsplit(parts._replace(path="/" + name))
+    try:
+        yield url
+    finally:
+        with psycopg.connect(admin, autocommit=True, connect_timeout=15) as con:
+            con.execute(f'DROP DATABASE IF EXISTS "{name}" WITH (FORCE)')
+
+
+@pytest.fixture(params=BACKENDS)
+def store_location(request, tmp_path):
+    """Where a test's store lives: an SQLite file, or a PostgreSQL URL."""
+    if request.param == "sqlite":
+        yield str(tmp_path / "store.sqlite3")
+    else:
+        with postgres_database() as url:
+            yield url
+
+
+@pytest.fixture
+def open_store():
+    """``open_store(location)`` opens a Store and closes it when the test ends."""
+    opened: list[Store] = []
+
+    def _open(location):
+        s = Store(location)
+        opened.append(s)
+        return s
+
+    yield _open
+    for s in opened:
+        s.close()
