@@ -1,7 +1,7 @@
 """Benchmark: auditing case records, a hospital's year (2 million rows) and a health system's
 (200 million rows across Parquet files, out of core).
 
-Writes invented minute-level records with ``model.synth`` under /tmp (never in the project),
+Writes invented minute-level records with ``model.cli.synth`` under /tmp (never in the project),
 then, each in a fresh process so the peak memory (maximum resident size) is its own:
 
 - ``audit``: ``model.audit.audit_records`` on the files: reading, every row check, the
