@@ -218,7 +218,8 @@ def step_schedule(minutes, step_min=STEP_MIN, fine_min=FINE_MIN, coarse_step_min
             sizes.append(dt)
             t += dt
         if len(sizes) > 1 and sizes[-1] < 0.5 * sizes[-2]:  # no sliver at the end
-            sizes[-2] += sizes.pop()
+            sliver = sizes.pop()  # (``sizes[-2] += sizes.pop()`` would add it one step too early)
+            sizes[-1] += sliver
         share = (minutes - fine_part) / coarse
         run = 1
         for k, dt in enumerate(sizes):
