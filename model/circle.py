@@ -218,7 +218,8 @@ def step_schedule(minutes, step_min=STEP_MIN, fine_min=FINE_MIN, coarse_step_min
             sizes.append(dt)
             t += dt
         if len(sizes) > 1 and sizes[-1] < 0.5 * sizes[-2]:  # no sliver at the end
-            sizes[-2] += sizes.pop()
+            sliver = sizes.pop()  # (``sizes[-2] += sizes.pop()`` would add it one step too early)
+            sizes[-1] += sliver
         share = (minutes - fine_part) / coarse
         run = 1
         for k, dt in enumerate(sizes):
@@ -437,7 +438,10 @@ def simulate_cases(agent: Agent, minutes, o2_l_min, air_l_min=0.0, n2o_l_min=0.0
         tmode, dial_i, tgt_i = target_mode[i], np.nan_to_num(dial[i]), target[i]
         any_target = bool(tmode.any())
         co2_rate = vco2 * rebreathed_share(f, ve)
-        start_deliv, start_up, start_vent = delivered[2].copy(), uptake[2].copy(), vented[2].copy()
+        start_up, start_vent = uptake[2].copy(), vented[2].copy()
+        # The phase's own sum: as a difference of running totals, a phase at 1e-9 L/min after
+        # one at 1 L/min would lose its mean dial to cancellation (relative error 1e-8).
+        ph_deliv_ag = np.zeros(n_cases)
         start_gross = gross.copy()
         ph_min_o2 = np.full(n_cases, np.inf)
         t_reach = np.full(n_cases, np.nan)
@@ -485,6 +489,7 @@ def simulate_cases(agent: Agent, minutes, o2_l_min, air_l_min=0.0, n2o_l_min=0.0
                 p += h * (fa_new[1:, None, :] - p)
                 delivered[:2] += dt_inflow[:2]
                 delivered[2] += deliv_ag
+                ph_deliv_ag += deliv_ag
                 uptake[0] += s_o2 * dt
                 uptake[1:] += up_rate * dt
                 gross += np.maximum(up_rate, 0.0) * dt
@@ -522,7 +527,6 @@ def simulate_cases(agent: Agent, minutes, o2_l_min, air_l_min=0.0, n2o_l_min=0.0
                     series["phase_index"][row] = i
         co2_total += co2_rate * minutes[i]
         elapsed += minutes[i]
-        ph_deliv_ag = delivered[2] - start_deliv
         f_safe = np.where(f > 0, f, 1.0)
         active = minutes[i] > 0
         put = {

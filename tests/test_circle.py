@@ -377,6 +377,18 @@ def test_step_count_grows_slowly_with_phase_length():
     assert sum(dt * n for dt, n in sched) == pytest.approx([24 * 60.0, 90.0, 5.0], rel=1e-12)
 
 
+@pytest.mark.parametrize("minutes", [11.25, 18.75, 30.0, 61.3, 333.0, 24 * 60.0 + 7.0])
+def test_steps_of_a_phase_add_up_to_its_duration(minutes):
+    # Arithmetic, no outside source: the steps of a phase cover it exactly, whatever the
+    # last (merged) step, so amounts per minute integrate over the phase's own duration.
+    from model.circle import step_schedule
+
+    cases = np.array([minutes, 0.5 * minutes, 4.0])
+    sched = step_schedule(cases)
+    assert sum(dt * n for dt, n in sched) == pytest.approx(cases, rel=1e-12)
+    assert all(np.all(dt >= 0) for dt, _ in sched)
+
+
 def test_zero_duration_phases_are_skipped_per_case():
     sim = simulate_cases(SEVO, [[10.0, 10.0], [0.0, 30.0]], 2.0, 2.0, 0.0, 2.0)
     assert sim["phase_liquid_ml"][1, 0] == 0.0 and sim["phase_liquid_ml"][1, 1] > 0

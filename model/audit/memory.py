@@ -8,7 +8,7 @@ import pandas as pd
 from model.audit.result import BAND_COLUMNS
 from model.circle import rebreathed_share
 from model.freshgas import FLOW_BANDS
-from model.io.record_files import RecordFile
+from model.io.record_files import RecordFile, file_failures
 from model.io.record_report import Records
 
 
@@ -58,6 +58,7 @@ def _text_codes(col) -> _Texts:
     arr = col.combine_chunks() if isinstance(col, pa.ChunkedArray) else col
     if not pa.types.is_dictionary(arr.type):
         arr = pc.dictionary_encode(arr)
+    arr.dictionary.validate(full=True)  # text that is not UTF-8 fails here (ArrowInvalid), not later
     values = pc.utf8_trim(arr.dictionary.cast(pa.string()), characters=" ")
     values = pc.if_else(pc.equal(values, ""), pa.scalar(None, pa.string()), values)
     recoded = pc.dictionary_encode(values)
@@ -88,6 +89,14 @@ def read_parquet_file(recs: Records, index: int):
         Case id and theatre as codes (:class:`_Texts`); None when a text column is not
         text in the file (the SQL's text form is then used row by row).
 
+    Raises
+    ------
+    InputError
+        The file cannot be read to the end (a damaged page, text that is not UTF-8): one
+        message naming this file, as the readers name it
+        (:func:`model.io.record_files.file_failures`). pyarrow checks more than duckdb (a
+        gzip page's length, say), so the failure is told here, where the file is known.
+
     Notes
     -----
     The fast checks only ever refuse more than the SQL checks (``model.io.records``): a
@@ -95,6 +104,12 @@ def read_parquet_file(recs: Records, index: int):
     (each number ``CAST(x AS DOUBLE) * factor``, times as whole milliseconds since 1970 /
     60000), so the results are the same to the last bit.
     """
+    with file_failures([recs.files[index]]):
+        return _read_parquet_file(recs, index)
+
+
+def _read_parquet_file(recs: Records, index: int):
+    """:func:`read_parquet_file` without the naming of failures."""
     import pyarrow as pa
     import pyarrow.parquet as pq
 

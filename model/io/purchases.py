@@ -38,6 +38,11 @@ MAX_QUANTITY = 1e9
 #: Largest amount on one purchase line once converted. [mL of liquid or L of gas] Common
 #: practice, no source (a hospital's yearly oxygen is some 1e8 L).
 MAX_AMOUNT = 1e12
+#: Smallest amount on one purchase line that is not zero, once converted. [mL of liquid or
+#: L of gas] Common practice, no source: a microlitre is far below anything bought, and
+#: large enough that a share of it (the reconciliation's unexplained share) stays finite;
+#: 1e-320 bottles would be a subnormal number whose reciprocal overflows to infinity.
+MIN_AMOUNT = 1e-6
 _NUMBER = re.compile(r"^[+-]?([0-9]+\.?[0-9]*|\.[0-9]+)([eE][+-]?[0-9]+)?$")
 _MONTH = re.compile(r"^[0-9]{4}-(0[1-9]|1[0-2])$")  # ASCII digits only
 
@@ -242,6 +247,9 @@ def _purchase_line(r, at: str, reference: Reference, temperature_c: float,
     if not np.isfinite(amount) or amount > MAX_AMOUNT:
         raise InputError(f"{at}: quantity", r.quantity, f"{amount:g} {base} on one line; at most "
                          f"{MAX_AMOUNT:g} {base} (check the quantity, unit and size)")
+    if 0 < amount < MIN_AMOUNT:
+        raise InputError(f"{at}: quantity", r.quantity, f"{amount:g} {base} on one line; 0 or at least "
+                         f"{MIN_AMOUNT:g} {base} (check the quantity, unit and size)")
     return month, key, amount, base
 
 

@@ -305,7 +305,7 @@ def file_failures(files: Sequence[RecordFile]):
 
     duckdb, pyarrow and the operating system raise many types for a damaged file (a page
     overwritten behind an intact footer gives "Out of buffer", a decompression failure, a
-    Thrift protocol error, a conversion error). Whatever they raise becomes one line naming
+    Thrift protocol error, a conversion error, text that is not UTF-8). Whatever they raise becomes one line naming
     the file; when several files are read and the message names none, each Parquet file is
     scanned on its own to find the one that fails.
     """
@@ -316,7 +316,7 @@ def file_failures(files: Sequence[RecordFile]):
         yield
     except InputError:
         raise
-    except (duckdb.Error, pa.ArrowException, OSError, RuntimeError) as exc:
+    except (duckdb.Error, pa.ArrowException, OSError, RuntimeError, UnicodeDecodeError) as exc:
         raise failure_of(files, exc) from None
 
 

@@ -143,12 +143,14 @@ def _distinct_agents(con, specs, file_selects) -> list:
         if t is None or not (pa.types.is_string(t) or pa.types.is_large_string(t)):
             by_sql.append(file_selects[i])
             continue
-        col = pq.read_table(s.path, columns=[src], read_dictionary=[src])[src]
-        for chunk in col.chunks:
-            values = pc.utf8_trim(chunk.dictionary.cast(pa.string()), characters=" ")
-            # Only values some row uses (a dictionary may hold others).
-            used = pc.unique(chunk.indices.drop_null())
-            found.update(v for v in values.take(used).to_pylist() if v)
+        with file_failures([s]):  # a damaged page or text not UTF-8: this file, named
+            col = pq.read_table(s.path, columns=[src], read_dictionary=[src])[src]
+            for chunk in col.chunks:
+                chunk.dictionary.validate(full=True)
+                values = pc.utf8_trim(chunk.dictionary.cast(pa.string()), characters=" ")
+                # Only values some row uses (a dictionary may hold others).
+                used = pc.unique(chunk.indices.drop_null())
+                found.update(v for v in values.take(used).to_pylist() if v)
     if by_sql:
         union = " UNION ALL ".join(f"SELECT agent_raw FROM ({q})" for q in by_sql)
         found.update(r[0] for r in con.sql(f"SELECT DISTINCT agent_raw FROM ({union}) "
