@@ -250,11 +250,7 @@ class _SQLite:
         os.close(fd)
         try:
             with self.read() as src:
-                dst = sqlite3.connect(tmp)
-                try:
-                    src.backup(dst)
-                finally:
-                    dst.close()
+                _copy_database(src, Path(tmp))
             os.replace(tmp, target)
         except BaseException:
             with _ignored(OSError):
@@ -673,6 +669,17 @@ class Store:
                 con.execute("INSERT INTO versions (item_id, version, body, note, saved_at, author) "
                             "VALUES (?, ?, ?, ?, ?, ?)", (ids[item_id], version, body, note, saved_at, author))
         return len(versions)
+
+
+def _copy_database(src: sqlite3.Connection, target: Path) -> None:
+    """Copy an open database to a new file, flushed to disk."""
+    dst = sqlite3.connect(target)
+    try:
+        src.backup(dst)
+    finally:
+        dst.close()
+    with open(target, "rb+") as fh:
+        os.fsync(fh.fileno())
 
 
 #: Tables and columns each schema version must have (a file lacking one is not ours).

@@ -8,6 +8,7 @@ import pandas as pd
 import streamlit as st
 
 import ui
+from model.access import author_label
 import ui.cautions
 import ui.provenance
 import ui.state
@@ -248,12 +249,15 @@ with k1:
     ss.setdefault(f"dy_save_name_{name}", choice.name if choice.kind == "saved" else base.name)
     save_name = s1.text_input("Save as", key=f"dy_save_name_{name}", max_chars=120)
     save_note = s2.text_input("Note for this version", key="dy_save_note", placeholder="optional")
+    may_save = ui.save_permission()
+    if not may_save.allowed:
+        st.caption(ui.md(may_save.reason))
     if s3.button("Save", type="primary", icon=":material/save:", width="stretch", key="dy_save_btn",
-                 disabled=stale):
+                 disabled=stale or not may_save.allowed) and may_save.allowed:
         try:
             # The scenario's own prices are kept with it whether or not they were used here.
             saved_v, mix_v = ui.year_store.save(store, replace(scenario, prices=dict(base.prices)), mix,
-                                                save_name, save_note)
+                                                save_name, save_note, author=ui.author())
         except InputError as err:
             ui.show_input_error(err, "Not saved")
         else:
@@ -268,6 +272,7 @@ with k1:
         hist = store.history("scenario", choice.name)
         st.dataframe(pd.DataFrame({"version": [v.version for v in hist],
                                    "saved (UTC)": [v.saved_at[:19] for v in hist],
+                                   "by": [author_label(v.author) for v in hist],
                                    "note": [v.note for v in hist]}), hide_index=True, width="stretch")
 with k2:
     st.markdown("**Files**")
@@ -286,11 +291,12 @@ with k2:
                                 help="Its plan column names plans of the dashboard: "
                                      + ", ".join(sorted(yv.plan_library())))
         if st.button("Save the uploaded files", icon=":material/upload:", key="dy_upload_btn",
-                     disabled=up_s is None and up_m is None):
+                     disabled=(up_s is None and up_m is None) or not may_save.allowed) and may_save.allowed:
             try:
                 saved_name, text = ui.year_store.import_files(
                     store, (up_s.name, up_s.getvalue()) if up_s is not None else None,
-                    (up_m.name, up_m.getvalue()) if up_m is not None else None, yv.plan_library())
+                    (up_m.name, up_m.getvalue()) if up_m is not None else None, yv.plan_library(),
+                    author=ui.author())
             except InputError as err:
                 st.error(ui.md(f"Not saved, the store is unchanged. {err}"), icon=":material/error:")
             else:

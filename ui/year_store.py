@@ -83,7 +83,8 @@ def load(store: Store, choice: Choice, version: int | None = None,
     return parse_scenario_text(body, where, casemix=load_mix(store, mix_field, library))
 
 
-def save(store: Store, scenario: Scenario, mix: CaseMix, name: str, note: str = "") -> tuple[int, int]:
+def save(store: Store, scenario: Scenario, mix: CaseMix, name: str, note: str = "",
+         author: str = "") -> tuple[int, int]:
     """Save the case mix and the scenario under ``name`` (a new version of each).
 
     Returns (scenario version, case-mix version). The scenario is saved as given (practice,
@@ -92,9 +93,9 @@ def save(store: Store, scenario: Scenario, mix: CaseMix, name: str, note: str = 
     name = name.strip()
     if not name:
         raise InputError("name", "empty", "give the year a name to save it under")
-    mix_version = store.save("casemix", name, casemix_to_csv(mix), note)
+    mix_version = store.save("casemix", name, casemix_to_csv(mix), note, author=author)
     text = scenario_to_toml(replace(scenario, name=name), mix_ref(name, mix_version))
-    return store.save("scenario", name, text, note), mix_version
+    return store.save("scenario", name, text, note, author=author), mix_version
 
 
 def scenario_file(scenario: Scenario, mix_file: str) -> str:
@@ -103,7 +104,7 @@ def scenario_file(scenario: Scenario, mix_file: str) -> str:
 
 
 def import_files(store: Store, scenario_upload: tuple[str, bytes] | None, mix_upload: tuple[str, bytes] | None,
-                 library: Mapping[str, CasePlan]) -> tuple[str | None, str]:
+                 library: Mapping[str, CasePlan], author: str = "") -> tuple[str | None, str]:
     """Check uploaded files and save them in the store.
 
     Returns (the saved scenario's name or None, a line saying what was saved).
@@ -137,10 +138,10 @@ def import_files(store: Store, scenario_upload: tuple[str, bytes] | None, mix_up
                                  "upload its case-mix file (CSV) with it, or save that case mix first")
         scenario = parse_scenario_text(up.text, up.name, casemix=mix)
     if scenario is not None:
-        version, _ = save(store, scenario, mix, scenario.name, f"uploaded {scenario_upload[0]}")
+        version, _ = save(store, scenario, mix, scenario.name, f"uploaded {scenario_upload[0]}", author=author)
         return scenario.name, f"Saved scenario '{scenario.name}' as version {version}, with its case mix."
     if mix is not None:
-        version = store.save("casemix", mix_name, casemix_to_csv(mix), f"uploaded {mix_upload[0]}")
+        version = store.save("casemix", mix_name, casemix_to_csv(mix), f"uploaded {mix_upload[0]}", author=author)
         return None, (f"Saved case mix '{mix_name}' as version {version}; a scenario file naming "
                       f"case_mix = \"{mix_name}\" can now be uploaded.")
     return None, ""
