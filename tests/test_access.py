@@ -189,3 +189,17 @@ def test_a_wrong_configuration_locks_changes_with_one_message(isolated_store):
     at = _page("reference.py", EDITOR, {"sign_in": "kerberos", "editors": [EDITOR]})
     assert at.number_input(key="ref_bottle_sevoflurane").disabled
     assert any("misconfigured" in e.value and "kerberos" in e.value for e in at.sidebar.error)
+
+
+def test_a_signed_out_user_cannot_save_a_year_and_a_signed_in_one_is_its_author(isolated_store):
+    """Everyone signed in may save scenarios; with sign-in on, no one else (issue: a shared server)."""
+    out = _page("department_year.py", None)
+    assert out.button(key="dy_save_btn").disabled
+    assert any("Sign in to save" in c.value for c in out.caption)
+    at = _page("department_year.py", ANAESTHETIST)
+    next(t for t in at.text_input if t.label == "Save as").set_value("Fernhollow year, signed").run()
+    at.button(key="dy_save_btn").click().run()
+    assert not at.exception, [e.message for e in at.exception]
+    store = Store(isolated_store)
+    assert store.get("scenario", "Fernhollow year, signed").author == ANAESTHETIST
+    assert store.get("casemix", "Fernhollow year, signed").author == ANAESTHETIST
