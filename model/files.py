@@ -104,7 +104,7 @@ MAX_TOML_DEPTH = 8
 
 
 def parse_toml(text: str, source: str, kind: str,
-               allowed: str = "the file is not valid TOML (see the plan format in README.md)") -> dict:
+               allowed: str = "the file is not valid TOML (see the plan format in docs/formats.md)") -> dict:
     """Parse a user's TOML text, refusing nesting deeper than :data:`MAX_TOML_DEPTH`.
 
     The one TOML guard of the project: the upload check (pages) and the file readers

@@ -62,7 +62,7 @@ else:
         ui.show_input_error(err)
         st.stop()
 if not files:
-    st.info("Upload record files (format in the README, 'Case records') to build the report.")
+    st.info("Upload record files (format in docs/formats.md, 'Case records') to build the report.")
     st.stop()
 
 

@@ -73,7 +73,7 @@ _LABELS: dict[str, str] = {
     "unexplained_share_with_records": "unexplained share, months with records (%)",
     "purchased_cost": "purchased cost", "recorded_cost": "recorded cost", "unexplained_cost": "unexplained cost",
     "time_weighted_fgf_l_min": "time-weighted fresh gas flow (L/min)", "safety": "safety",
-    "cost_absorbent": "cost, CO2 absorbent (estimate)", "end_tidal_mac_hours": "MAC-hours, end-tidal",
+    "end_tidal_mac_hours": "MAC-hours, end-tidal",
     # reference
     "basis": "basis", "source": "source", "default": "default (before your value)", "default_source": "source of the default",
 }

@@ -165,7 +165,7 @@ def parse_scenario_text(text: str, source: str = "scenario", base_dir: Path | No
     """Read a scenario from TOML text. Raises InputError for malformed TOML or bad fields."""
     if len(text) > MAX_SCENARIO_BYTES:
         raise InputError(source, f"{len(text)} characters", f"a scenario file is at most {MAX_SCENARIO_BYTES} bytes")
-    data = parse_toml(text, source, "scenario", "not valid TOML (see 'Case-mix and scenario files' in README.md)")
+    data = parse_toml(text, source, "scenario", "not valid TOML (see 'Case-mix and scenario files' in docs/formats.md)")
     return scenario_from_dict(data, source, base_dir, casemix)
 
 
