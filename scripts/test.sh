@@ -1,5 +1,8 @@
 #!/usr/bin/env bash
 # Run the whole test suite (sets up .venv, and Debian's chromium for the browser tests).
+# With no arguments: every test but the browser ones on both cores, then the browser tests
+# one at a time (they start servers and chromium of their own and time what a user waits
+# for, so they run alone). With arguments: pytest with those arguments, as given.
 set -euo pipefail
 cd "$(dirname "$0")/.."
 scripts/setup.sh
@@ -13,4 +16,10 @@ if [ ! -x /usr/bin/chromium ]; then
          "apt-get install chromium) or the browser tests will fail." >&2
   fi
 fi
-exec .venv/bin/python -m pytest "$@"
+if [ $# -gt 0 ]; then
+  exec .venv/bin/python -m pytest "$@"
+fi
+status=0
+.venv/bin/python -m pytest -m "not browser" -n 2 || status=$?
+.venv/bin/python -m pytest -m browser || status=$?
+exit $status
