@@ -15,7 +15,6 @@ from model import InputError
 from model.audit.engine import audit_records
 from model.io.purchases import load_purchases
 from model.io.sites import parse_sites
-from model.io.uploads import check_upload
 from model.report import build_report, parse_period, parse_target
 from model.report.document import report_html
 from ui.common import sources_table
@@ -51,16 +50,9 @@ else:
     ups_p = c2.file_uploader("Purchases files (optional)", type=["csv", "parquet"], accept_multiple_files=True,
                              key="er_upload_purchases")
     up_s = c3.file_uploader("Site file, theatre,site (optional)", type=["csv"], key="er_upload_sites")
-    try:
-        files = [(ok.name, ok.data) for ok in (check_upload(u.name, u.getvalue(), "records") for u in ups or [])]
-        purchase_files = [(ok.name, ok.data) for ok in
-                          (check_upload(u.name, u.getvalue(), "purchases") for u in ups_p or [])]
-        if up_s is not None:
-            ok = check_upload(up_s.name, up_s.getvalue(), "sites")
-            sites_file = (ok.name, ok.data)
-    except InputError as err:
-        ui.show_input_error(err)
-        st.stop()
+    files = ui.checked_uploads(ups, "records")
+    purchase_files = ui.checked_uploads(ups_p, "purchases")
+    sites_file = next(iter(ui.checked_uploads(up_s, "sites")), None)
 if not files:
     st.info("Upload record files (format in docs/formats.md, 'Case records') to build the report.")
     st.stop()

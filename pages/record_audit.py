@@ -18,7 +18,6 @@ from model.io.exports import html_report
 from model.io.purchases import load_purchases
 from model.audit.reconcile import cost_view, reconcile, record_coverage
 from model.io.record_files import DEFAULT_GAP_LIMIT_MIN
-from model.io.uploads import check_upload
 from ui import charts
 from ui import format as fmt
 from ui.format import plain_paths
@@ -66,16 +65,8 @@ else:
                                type=["csv", "parquet"], accept_multiple_files=True, key="ra_upload")
     up_p = st.file_uploader("Purchases file (optional; .csv or .parquet)", type=["csv", "parquet"],
                             key="ra_upload_purchases")
-    try:
-        for u in uploads or []:
-            ok = check_upload(u.name, u.getvalue(), "records")
-            files.append((ok.name, ok.data))
-        if up_p is not None:
-            ok = check_upload(up_p.name, up_p.getvalue(), "purchases")
-            purchases_file = (ok.name, ok.data)
-    except InputError as err:
-        ui.show_input_error(err)
-        st.stop()
+    files = ui.checked_uploads(uploads, "records")
+    purchases_file = next(iter(ui.checked_uploads(up_p, "purchases")), None)
 
 with st.expander("Audit settings"):
     c1, c2, c3 = st.columns(3)

@@ -16,10 +16,11 @@ API for page authors (see DEVELOPERS.md, "Dashboard pages"):
   (``allowed``, ``reason``) for changing reference values and for saving.
 """
 
-from .common import (CAUTION, CAUTION_SHORT, ViewSettings, apply_settings, author, compute_cached, current_user,
+from .common import (CAUTION, CAUTION_SHORT, ViewSettings, apply_settings, author, checked_uploads, compute_cached,
+                     current_user,
                      downloads, get_store, md, page_start, reference, reference_key, reference_permission,
                      save_permission, show_input_error, view_settings)
 
-__all__ = ["CAUTION", "CAUTION_SHORT", "ViewSettings", "apply_settings", "author", "compute_cached", "current_user",
+__all__ = ["CAUTION", "CAUTION_SHORT", "ViewSettings", "apply_settings", "author", "checked_uploads", "compute_cached", "current_user",
            "downloads", "get_store", "md", "page_start", "reference", "reference_key", "reference_permission",
            "save_permission", "show_input_error", "view_settings"]

@@ -15,6 +15,7 @@ from model import DEFAULT_REFERENCE, InputError, Reference, compute_case, parse_
 from model.access import (CONFIG_PLACE, NO_ONE, AccessConfig, Permission, User, access_config, is_editor,
                           may_edit_reference, may_save, user_from_header, user_from_sign_in)
 from model.io.exports import to_csv, to_xlsx
+from model.io.uploads import check_upload
 from model.plan import CasePlan
 from model.store import Store, StoreError, default_location, is_postgres_url
 
@@ -332,6 +333,22 @@ def md(text) -> str:
     ``<img src=x>`` or ``[a](javascript:...)`` shows as typed and never becomes markup.
     """
     return _MD_SPECIAL.sub(r"\\\1", str(text)).replace("\n", " ").replace("\r", " ")
+
+
+def checked_uploads(uploaded, kind: str) -> list[tuple[str, bytes]]:
+    """``(name, bytes)`` of each uploaded file (one uploader value, a list of them, or None)
+    after the upload guard (:func:`model.io.uploads.check_upload` for ``kind``); a file it
+    refuses stops the page with its one-line message."""
+    items = uploaded if isinstance(uploaded, list) else [] if uploaded is None else [uploaded]
+    out = []
+    try:
+        for u in items:
+            ok = check_upload(u.name, u.getvalue(), kind)
+            out.append((ok.name, ok.data))
+    except InputError as err:
+        show_input_error(err)
+        st.stop()
+    return out
 
 
 def show_input_error(err: Exception, where: str = "") -> None:
