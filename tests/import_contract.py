@@ -2,8 +2,8 @@
 
 Layers, lowest first (DEVELOPERS.md, "Layout"): shared base (errors, units, file reading),
 reference data, physics and accounting, file formats, the record audit, the emissions report
-(reads audit results), the store, the
-command line. A module may import its own layer or a lower one; the package root
+(reads audit results), the charts (colours, plotly template, the report's figures), the
+store, the command line. A module may import its own layer or a lower one; the package root
 (``model/__init__.py``, the public API) sits above them all and no module imports it.
 Every import statement counts, including those inside functions.
 """
@@ -23,6 +23,7 @@ LAYERS = (
     ("formats", ("model.io",)),
     ("audit", ("model.audit",)),
     ("report", ("model.report",)),
+    ("charts", ("model.charts",)),
     ("store", ("model.store", "model.access", "model.changelog")),
     ("command line", ("model.cli", "model.__main__")),
 )

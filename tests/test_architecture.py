@@ -44,3 +44,26 @@ def test_contract_reports_user_interface_imports_and_the_root(tmp_path):
 def test_contract_reports_a_module_outside_every_layer(tmp_path):
     root = _package(tmp_path, {"__init__.py": "", "stray.py": ""})
     assert check(root) == ["model/stray.py: module model.stray belongs to no layer"]
+
+
+def test_charts_sit_above_the_report_and_below_the_command_line(tmp_path):
+    from import_contract import layer_of
+
+    assert layer_of("model.report.document") < layer_of("model.charts.report") < layer_of("model.cli.report")
+    # The report layer may not reach up to the charts (its HTML gets figures handed in).
+    root = _package(tmp_path, {"__init__.py": "", "report/__init__.py": "",
+                               "report/document.py": "from model.charts.report import report_figures\n",
+                               "charts/__init__.py": "", "charts/report.py": "report_figures = 1\n"})
+    assert check(root) == ["model/report/document.py:1: model.report.document (report) imports "
+                           "model.charts.report (charts), a higher layer"]
+
+
+def test_the_chart_layer_loads_without_streamlit_or_ui():
+    import subprocess
+    import sys
+
+    code = ("import sys, model.charts, model.charts.report; "
+            "print(sorted(m for m in sys.modules if m.split('.')[0] in ('streamlit', 'ui', 'pages')))")
+    proc = subprocess.run([sys.executable, "-c", code], cwd=MODEL.parent, capture_output=True, text=True, timeout=120)
+    assert proc.returncode == 0, proc.stderr
+    assert proc.stdout.strip() == "[]"

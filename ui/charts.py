@@ -1,4 +1,5 @@
-"""Plotly figures for the dashboard pages and the HTML reports (presentation only).
+"""Plotly figures for the dashboard pages and their HTML reports (presentation only), on the
+house template of :mod:`model.charts.theme`.
 
 User text (plan and phase names) passes through :func:`model.io.exports.chart_text` before it
 reaches a label, because plotly reads a few HTML tags in labels.
@@ -9,50 +10,15 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 import plotly.graph_objects as go
-import plotly.io as pio
 from plotly.subplots import make_subplots
 
+from model.charts.palette import CO2E_COLOUR, COST_COLOUR, DANGER, FLOW_BAND_COLOURS, PALETTE, agent_colour
+# The house template and layout helpers live in model.charts.theme (shared with the report
+# figures and the command line's HTML report); the short names stay for the page figures.
+from model.charts.theme import house_layout as _style_layout
+from model.charts.theme import house_style as _style
+from model.charts.theme import new_figure as _fig
 from model.io.exports import chart_text
-
-from .palette import (AGENT_COLOURS, AXIS, CO2E_COLOUR, COST_COLOUR, DANGER, FLOW_BAND_COLOURS, GRID, PALETTE,
-                      TEXT, agent_colour)
-
-FONT = dict(family="system-ui, -apple-system, Segoe UI, sans-serif", size=13, color=TEXT)
-_GRID = GRID
-# A small template of our own: cheaper to apply than the built-in ones (plotly copies the
-# whole template into every figure) and the house look in one place.
-pio.templates["fresh_gas_ledger"] = go.layout.Template(layout=dict(
-    font=FONT, colorway=list(PALETTE), paper_bgcolor="white", plot_bgcolor="white",
-    # automargin: the margins grow to hold tick labels and axis titles, so no label is cut
-    # at the figure's edge (in the dashboard and in the HTML reports alike).
-    xaxis=dict(gridcolor=_GRID, linecolor=AXIS, zerolinecolor=_GRID, ticks="outside", tickcolor=AXIS,
-               automargin=True, title=dict(standoff=8)),
-    # Thousands separated on value axes ("2,000", never "2k"); no value axis here is a date.
-    yaxis=dict(gridcolor=_GRID, linecolor=AXIS, zerolinecolor=_GRID, automargin=True, title=dict(standoff=8),
-               tickformat=","),
-    hoverlabel=dict(font=dict(family=FONT["family"]))))
-TEMPLATE = "fresh_gas_ledger"
-
-
-def _fig(*data) -> go.Figure:
-    """A new figure on the house template (so plotly's default template is never copied)."""
-    return go.Figure(data=list(data), layout=dict(template=TEMPLATE))
-
-
-def _style_layout(title: str = "", height: int = 360, legend_right: bool = False) -> dict:
-    """The house layout: title top left, legend under the title (or at the right), quiet grid."""
-    legend = (dict(orientation="v", yanchor="top", y=1.0, x=1.02, xanchor="left") if legend_right
-              else dict(orientation="h", yanchor="bottom", y=1.02, x=0, xanchor="left"))
-    top = 20 if not title else (60 if legend_right else 95)
-    return dict(title=dict(text=title, x=0.0, xanchor="left", y=0.985, yref="container", yanchor="top",
-                           font=dict(size=15)) if title else None,
-                template=TEMPLATE, height=height + top - 20, margin=dict(l=10, r=10, t=top, b=10), legend=legend)
-
-
-def _style(fig: go.Figure, title: str = "", height: int = 360, legend_right: bool = False) -> go.Figure:
-    """House style (``_style_layout``) applied to a figure."""
-    fig.update_layout(**_style_layout(title, height, legend_right))
-    return fig
 
 
 def cost_by_item(totals: dict, currency: str) -> pd.DataFrame:
@@ -216,7 +182,7 @@ def agent_spread_figure(cases: pd.DataFrame) -> go.Figure | None:
 
 def flow_bands_figure(bands: pd.DataFrame) -> go.Figure:
     """Share of counted minutes in each flow band by theatre, stacked lowest flow first, on
-    the one ordered flow-band scale (``ui.palette.FLOW_BAND_COLOURS``)."""
+    the one ordered flow-band scale (``model.charts.palette.FLOW_BAND_COLOURS``)."""
     fig = _fig()
     for band, colour in FLOW_BAND_COLOURS.items():
         d = bands[bands["band"] == band]
