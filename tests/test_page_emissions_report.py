@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import json
+
 import pytest
 from streamlit.testing.v1 import AppTest
 
@@ -76,3 +78,30 @@ def test_upload_without_files_asks_for_records_and_no_baseline_hides_the_change(
     at.radio(key="er_source").set_value("Upload files").run()
     assert not at.exception
     assert any("Upload record files" in i.value for i in at.info)
+
+
+def test_the_command_line_html_has_the_charts_the_page_draws(tmp_path, capsys):
+    """One set of figure builders: the page's and ``gas-ledger report --html``'s are the same
+    functions, and for the page's default choices (demo records, purchases and sites, 2026
+    against 2025, -5 %/year) the HTML file holds one chart for each chart on the page, with
+    the same titles."""
+    import model.charts.report
+    import ui.report_charts
+    from model.cli import main
+
+    assert ui.report_charts.report_figures is model.charts.report.report_figures
+    at = page("emissions_report.py")
+    titles = [json.loads(c.proto.spec)["layout"]["title"]["text"] for c in at.get("plotly_chart")]
+    assert len(titles) >= 5 and "What drove the change (additive LMDI-I)" in titles
+    out = tmp_path / "r.html"
+    code = main(["report", str(DEMO / "fernhollow_2025.parquet"), str(DEMO / "fernhollow_2026.parquet"),
+                 "--purchases", str(DEMO / "fernhollow_purchases_2025.csv"),
+                 "--purchases", str(DEMO / "fernhollow_purchases_2026.csv"), "--sites",
+                 str(DEMO / "fernhollow_sites.csv"), "--period", "2026", "--baseline", "2025",
+                 "--target", "-5%/year", "--html", str(out)])
+    capsys.readouterr()
+    assert code == 0
+    html = out.read_text(encoding="utf-8")
+    assert html.count('class="plotly-graph-div"') == len(titles)
+    for title in titles:
+        assert json.dumps(title)[1:-1] in html, title

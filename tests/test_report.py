@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 import math
+import re
 from datetime import date
 from pathlib import Path
 
@@ -379,6 +380,37 @@ def test_cli_report_json_and_files(tmp_path, capsys):
     import openpyxl
     wb = openpyxl.load_workbook(tmp_path / "r.xlsx")
     assert {"Figures", "By agent", "What drove the change", "Notes"} <= set(wb.sheetnames)
+
+
+def test_cli_report_html_carries_the_report_charts(tmp_path, capsys, monkeypatch):
+    """``--html`` writes the charts of the Emissions report page's download, from the same builders
+    (model.charts.report, which the page reads through ui.report_charts), into a file that opens offline."""
+    import model.charts.report as report_charts
+
+    made = []
+
+    def recording(report):
+        made.append(report_charts.report_figures.__wrapped__(report))
+        return made[-1]
+
+    recording.__wrapped__ = report_charts.report_figures
+    monkeypatch.setattr(report_charts, "report_figures", recording)
+    code, out, err = _cli([*YEARS, "--purchases", PURCHASES[0], "--purchases", PURCHASES[1], "--period", "2026",
+                           "--baseline", "2025", "--target", "-5%/year", "--sites", DEMO / "fernhollow_sites.csv",
+                           "--html", tmp_path / "r.html"], capsys)
+    assert code == 0, err
+    html = (tmp_path / "r.html").read_text(encoding="utf-8")
+    assert len(made) == 1
+    figures = made[0]
+    # Baseline, purchases and target given: every chart of the report applies.
+    assert list(figures) == ["What drove the change", "Emissions by agent", "Emissions by month",
+                             "Time in each flow band", "Use-based and purchase-based", "Against the target path"]
+    assert html.count('class="plotly-graph-div"') == len(figures)
+    for heading, fig in figures.items():
+        assert f"<h2>{heading}</h2>" in html and fig.layout.title.text in html
+    assert "What drove the change (additive LMDI-I)" in html
+    # Self-contained: plotly.js inlined once, no script fetched from elsewhere.
+    assert html.count("plotly.js v") == 1 and not re.search(r"<script[^>]*\ssrc=", html)
 
 
 def test_cli_report_bad_input_exits_2_with_one_line(capsys):

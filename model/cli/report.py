@@ -30,8 +30,8 @@ def register(subparsers) -> None:
     p.add_argument("--json", action="store_true", help="machine-readable output")
     p.add_argument("--xlsx", default=None, metavar="FILE", help="also write the report's tables as an Excel workbook")
     p.add_argument("--html", default=None, metavar="FILE",
-                   help="also write the report as a self-contained HTML file (tables and text; the dashboard's "
-                        "Emissions report page adds the charts)")
+                   help="also write the report as a self-contained HTML file: charts, tables and text, as the "
+                        "dashboard's Emissions report page downloads it (opens offline)")
     p.set_defaults(func=cmd_report)
 
 
@@ -80,9 +80,11 @@ def cmd_report(args) -> int:
 
         Path(args.xlsx).write_bytes(report_xlsx(report))
     if args.html:
+        # The page's figure builders (plotly is imported only when an HTML file is asked for).
+        from model.charts.report import report_figures
         from model.report.document import report_html
 
-        Path(args.html).write_text(report_html(report), encoding="utf-8")
+        Path(args.html).write_text(report_html(report, list(report_figures(report).items())), encoding="utf-8")
     if args.json:
         data = report.to_dict()
         data["records"] = result.report.summary()

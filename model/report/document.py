@@ -35,7 +35,8 @@ def report_html(report: EmissionsReport, figures: Iterable[tuple[str, object]] =
     ----------
     report : EmissionsReport
     figures : iterable of (heading, plotly Figure)
-        Charts (the dashboard adds them; the command line gives none).
+        Charts: the Emissions report page and ``gas-ledger report --html`` both give
+        ``model.charts.report.report_figures(report).items()`` (this layer draws none itself).
     cautions : iterable of str
         Standing cautions shown first (the report's own cautions follow).
     sources : DataFrame, optional
