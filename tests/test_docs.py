@@ -13,7 +13,7 @@ import pytest
 ROOT = Path(__file__).resolve().parents[1]
 DOCS = ROOT / "docs"
 API_PAGES = {"model": "model.md", "model.io": "io.md", "model.year": "year.md", "model.audit": "audit.md",
-             "model.report": "report.md",
+             "model.report": "report.md", "model.charts": "charts.md",
              "model.store": "store.md", "model.cli": "cli.md"}
 
 
