@@ -23,6 +23,10 @@ from model.io.record_report import Records
 IN_MEMORY_ROWS = 20_000_000
 
 
+#: Number fields checked by the compiled row checks (the rest in numpy).
+_CORE_NUMBERS = ("o2", "air", "n2o", "dial", "end_tidal")
+
+
 def _column(table, name):
     col = table[name]
     return col.combine_chunks() if hasattr(col, "combine_chunks") else col
@@ -137,7 +141,9 @@ def _read_parquet_file(recs: Records, index: int):
     if not fast:
         return None, case_texts
     n = table.num_rows
-    ok = texts["case_id"].codes < len(texts["case_id"].values)
+    # Row checks: the case id and agent, flows, dial and end-tidal in one compiled pass
+    # (``rows_pass`` below); numpy only for what is rare (nulls, other number columns).
+    ok = np.True_
     # Agents: each distinct text looked up once, as the SQL's CASE does.
     agent_names = [recs.agent_map.get(v) for v in texts["agent"].values.to_pylist()] + [None]
     known = np.array([a is not None for a in agent_names])
@@ -146,36 +152,33 @@ def _read_parquet_file(recs: Records, index: int):
     max_dial = np.array([a[1] if a else 0.0 for a in agent_names])
     volatile = np.array([a is not None and a[0] != "none" for a in agent_names])
     acode = texts["agent"].codes
-    ok &= known[acode]
-    values = {}
+    values, nan_missing = {}, {}
     for f in numbers:
         col = table[c[f].source]
         x = col.to_numpy() if col.null_count == 0 else col.cast(pa.float64()).to_numpy(zero_copy_only=False)
         x = x.astype(np.float64, copy=False)
         if float(c[f].factor) != 1.0:  # x * 1.0 is x: skip the pass
             x = x * float(c[f].factor)
-        if col.null_count == 0:
-            ok &= np.isfinite(x)
-        else:
+        nan_missing[f] = col.null_count > 0
+        if col.null_count:
             valid = col.is_valid().to_numpy(zero_copy_only=False)
             ok &= ~valid | np.isfinite(x)
             x = np.where(valid, x, np.nan)
+        elif f not in _CORE_NUMBERS:
+            ok &= np.isfinite(x)
         values[f] = x
-    flows = [values[f] for f in ("o2", "air", "n2o") if f in values]
-    present = np.zeros(n, dtype=bool)
-    total = np.zeros(n)
-    for x in flows:
-        known_x = ~np.isnan(x)
-        present |= known_x
-        x0 = np.where(known_x, x, 0.0)
-        ok &= (x0 >= 0) & (x0 <= MAX_FLOW_L_MIN)
-        total += x0
-    ok &= present & (total <= MAX_TOTAL_FLOW_L_MIN)
+    # The flows, dial and end-tidal checked in one compiled pass (model.audit.kernel.rows_pass).
+    flow_fields = ("o2", "air", "n2o")
+    from model.audit.kernel import rows_pass
+
+    ok_all = bool(ok.all()) and rows_pass(
+        texts["case_id"].codes, len(texts["case_id"].values), acode, known, volatile, max_dial,
+        tuple(values.get(f) for f in flow_fields), values.get("dial"), values.get("end_tidal"),
+        np.array([nan_missing.get(f, True) for f in flow_fields] + [nan_missing.get("dial", True),
+                                                          nan_missing.get("end_tidal", True)]),
+        max_flow_l_min=MAX_FLOW_L_MIN, max_total_flow_l_min=MAX_TOTAL_FLOW_L_MIN)
     dial = values.get("dial", np.full(n, np.nan))
     et = values.get("end_tidal", np.full(n, np.nan))
-    md = max_dial[acode]
-    ok &= ~(volatile[acode] & np.isnan(dial) & np.isnan(et))
-    ok &= ~((dial < 0) | (dial > md) | (et < 0) | (et > md))
     if ttype is not None:
         tcol = table[c["time"].source]
         if tcol.null_count:
@@ -195,11 +198,12 @@ def _read_parquet_file(recs: Records, index: int):
         ok &= ~np.isnan(t_min)
         month = pa.nulls(n, pa.date32())
         start = pa.nulls(n, pa.timestamp("us"))
-    if not bool(ok.all()):
+    if not (ok_all and bool(ok.all())):
         return None, case_texts
+    # Flows as read: every row passed the checks, so none is negative; a missing flow (NaN)
+    # counts as none in both paths of the engine.
     zeros = np.zeros(n)
-    flow = {f: np.maximum(np.where(np.isnan(values[f]), 0.0, values[f]), 0.0) if f in values else zeros
-            for f in ("o2", "air", "n2o")}
+    flow = {f: values.get(f, zeros) for f in ("o2", "air", "n2o")}
     out = pa.table({
         "_fileno": pa.array(np.full(n, index, dtype=np.int32)),
         "_row": pa.array(np.arange(1, n + 1, dtype=np.int64)),
@@ -266,6 +270,13 @@ def _numpy_engine(recs: Records, high_flow_l_min: float, minute_ventilation_l_mi
         code = case_codes.indices.to_numpy(zero_copy_only=False).astype(np.int64)
         case_names = case_codes.dictionary
     t = _float(table, "t_min")
+    if n and not isinstance(source, str) and texts and in_order and bool(ok_a.all()):
+        # Rows of one file, each valid: one compiled pass when they come grouped by case in time order.
+        fast = _compiled_pass(recs, table, texts, code, t, case_names, theatre_code, high_flow_l_min,
+                              minute_ventilation_l_min)
+        if fast is not None:
+            raw, time_rows, gap_rows = fast
+            return raw, counts, time_rows, gap_rows
     # One sort key: case, then file, then row. Records usually come grouped by case in file
     # order (case codes number cases by first appearance), and then no sort is needed.
     if n and fileno.max() < (1 << 8) and row.max() < (1 << 35) and code.max() < (1 << 20):
@@ -335,13 +346,10 @@ def _numpy_engine(recs: Records, high_flow_l_min: float, minute_ventilation_l_mi
     dial_raw = _float(table, "dial")
     dial_raw = dial_raw if identity else dial_raw[vidx]
     from_et = np.isnan(dial_raw)
-    agent_dict = pc.dictionary_encode(_column(table, "agent"))
-    agent_code = agent_dict.indices.fill_null(0).to_numpy(zero_copy_only=False).astype(np.int64)
+    agent_code, agent_names, none_code = _agent_codes(table)
     agent_code = agent_code if identity else agent_code[vidx]
-    agent_names = np.array(agent_dict.dictionary.to_pylist(), dtype=object)
     # "none" compared once as a name, then as its code (no text per row).
-    none_codes = np.flatnonzero(agent_names == "none")
-    is_none = (agent_code == none_codes[0]) if len(none_codes) and m else np.zeros(m, dtype=bool)
+    is_none = (agent_code == none_code) if none_code >= 0 and m else np.zeros(m, dtype=bool)
     # Dose: the dial, else the end-tidal concentration, 0 without an agent (passes skipped
     # when no sample needs them).
     dose = np.where(from_et, take("end_tidal"), dial_raw) if from_et.any() else dial_raw
@@ -384,21 +392,8 @@ def _numpy_engine(recs: Records, high_flow_l_min: float, minute_ventilation_l_mi
     band_min = np.bincount(inv * len(FLOW_BANDS) + band, weights=dt,
                            minlength=g * len(FLOW_BANDS)).reshape(g, len(FLOW_BANDS))
     vfirst = vidx[first]
-    if texts:
-        names = texts["theatre"].values.to_pylist() + [None]
-        theatre = [names[k] if names[k] is not None else "unknown" for k in theatre_code[vfirst]]
-    else:
-        theatre = _column(table, "theatre").take(vfirst).fill_null("unknown").to_pylist()
-    month = _column(table, "month").take(vfirst)
-    month = pc.strftime(pc.cast(month, "timestamp[s]", safe=False), "%Y-%m").fill_null("unknown").to_pylist()
-    # The first valid sample of a group is its earliest (valid samples rise in time).
-    start = pd.to_datetime(pd.Series(_column(table, "start_hint").take(vfirst).to_pandas())).to_numpy()
-    raw = pd.DataFrame({
-        "case_id": np.array(case_names.to_pylist(), dtype=object)[uniq // n_agents] if g else [],
-        "agent": agent_names[uniq % n_agents] if g else [],
-        "theatre": theatre,
-        "month": month,
-        "start": start,
+    case_of_group = np.array(case_names.to_pylist(), dtype=object)[uniq // n_agents] if g else []
+    sums = {
         "samples": np.bincount(inv, minlength=g).astype(np.int64),
         "minutes": gsum(dt),
         "gaps": np.bincount(inv, weights=gap, minlength=g).astype(np.int64),
@@ -411,5 +406,70 @@ def _numpy_engine(recs: Records, high_flow_l_min: float, minute_ventilation_l_mi
         "rebreathed_min": gsum(rebreathed_share(fgf, minute_ventilation_l_min) * dt),
         **{col: band_min[:, k] for k, col in enumerate(BAND_COLUMNS)},
         "longest_high_flow_min": longest,
-    })
+    }
+    raw = _case_frame(table, texts, theatre_code if texts else None, vfirst, case_of_group,
+                      agent_names[uniq % n_agents] if g else [], sums)
     return raw, counts, time_rows, gap_rows
+
+
+def _case_frame(table, texts, theatre_code, vfirst, case_of_group, agent_of_group, sums) -> pd.DataFrame:
+    """The per-case table of either path: names and start of each group's first row, then its sums."""
+    import pyarrow.compute as pc
+
+    if texts:
+        names = texts["theatre"].values.to_pylist() + [None]
+        theatre = [names[k] if names[k] is not None else "unknown" for k in theatre_code[vfirst]]
+    else:
+        theatre = _column(table, "theatre").take(vfirst).fill_null("unknown").to_pylist()
+    month = _column(table, "month").take(vfirst)
+    month = pc.strftime(pc.cast(month, "timestamp[s]", safe=False), "%Y-%m").fill_null("unknown").to_pylist()
+    # The first valid sample of a group is its earliest (valid samples rise in time).
+    start = pd.to_datetime(pd.Series(_column(table, "start_hint").take(vfirst).to_pandas())).to_numpy()
+    return pd.DataFrame({"case_id": case_of_group, "agent": agent_of_group, "theatre": theatre, "month": month,
+                         "start": start, **sums})
+
+
+def _agent_codes(table):
+    """Agent codes of each row, their names, and the code of "none" (-1 when absent)."""
+    import pyarrow.compute as pc
+
+    agent_dict = pc.dictionary_encode(_column(table, "agent"))
+    agent_code = agent_dict.indices.fill_null(0).to_numpy(zero_copy_only=False).astype(np.int64)
+    agent_names = np.array(agent_dict.dictionary.to_pylist(), dtype=object)
+    none_codes = np.flatnonzero(agent_names == "none")
+    return agent_code, agent_names, int(none_codes[0]) if len(none_codes) else -1
+
+
+def _compiled_pass(recs, table, texts, code, t, case_names, theatre_code, high_flow_l_min,
+                   minute_ventilation_l_min):
+    """The samples of one file integrated by :func:`model.audit.kernel.case_sums`.
+
+    Returns ``(raw, time_rows, gap_rows)`` as :func:`_numpy_engine`, or None when the
+    samples are not grouped by case in rising time (the numpy path then sorts and checks
+    them).
+    """
+    from model.audit.kernel import SUM_COLUMNS, case_sums
+
+    agent_code, agent_names, none_code = _agent_codes(table)
+    n_agents = max(len(agent_names), 1)
+    edges = np.array([upper for _, upper in FLOW_BANDS[:-1]])
+    out = case_sums(code, agent_code, t, _float(table, "o2"), _float(table, "air"), _float(table, "n2o"),
+                    _float(table, "dial"), _float(table, "end_tidal"), n_agents=n_agents, none_code=none_code,
+                    gap_limit_min=recs.gap_limit_min, high_flow_l_min=high_flow_l_min,
+                    minute_ventilation_l_min=minute_ventilation_l_min, band_edges_l_min=edges)
+    if out is None:
+        return None
+    first, samples, gaps, sums, band_min, gap = out
+    fileno = _column(table, "_fileno").to_numpy(zero_copy_only=False).astype(np.int64)
+    row = _column(table, "_row").to_numpy(zero_copy_only=False).astype(np.int64)
+    gap_at = _first_in_file_order(np.flatnonzero(gap), fileno, row, recs._max_messages)
+    gap_rows = [(int(fileno[i]), int(row[i]), case_names[int(code[i])].as_py(), float(t[i]), float(t[i + 1] - t[i]))
+                for i in gap_at]
+    columns = {"samples": samples, "minutes": sums[:, 0], "gaps": gaps,
+               **{name: sums[:, k] for k, name in enumerate(SUM_COLUMNS) if k},
+               **{col: band_min[:, k] for k, col in enumerate(BAND_COLUMNS)}}
+    order = ["samples", "minutes", "gaps", "gap_min", "end_tidal_basis_min", "oxygen_l", "air_l",
+             "nitrous_oxide_l", "vapour_integral", "rebreathed_min", *BAND_COLUMNS, "longest_high_flow_min"]
+    raw = _case_frame(table, texts, theatre_code, first, np.array(case_names.to_pylist(), dtype=object)[code[first]],
+                      agent_names[agent_code[first]], {k: columns[k] for k in order})
+    return raw, [], gap_rows
