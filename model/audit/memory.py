@@ -32,6 +32,11 @@ def _column(table, name):
     return col.combine_chunks() if hasattr(col, "combine_chunks") else col
 
 
+def _ints(table, name) -> np.ndarray:
+    """An integer column as int64 (no copy when it is one)."""
+    return np.asarray(_column(table, name).to_numpy(zero_copy_only=False), dtype=np.int64)
+
+
 def _float(table, name) -> np.ndarray:
     """A numeric column as float64 with NaN for nulls."""
     return np.asarray(_column(table, name).to_numpy(zero_copy_only=False), dtype=float)
@@ -254,14 +259,15 @@ def _numpy_engine(recs: Records, high_flow_l_min: float, minute_ventilation_l_mi
     if problem_a.null_count < n:
         vc = pc.value_counts(problem_a.drop_null())
         counts = {v["values"].as_py(): v["counts"].as_py() for v in vc}
-    ok_a = problem_a.is_null().to_numpy(zero_copy_only=False)
-    fileno = _column(table, "_fileno").to_numpy(zero_copy_only=False).astype(np.int64)
-    row = _column(table, "_row").to_numpy(zero_copy_only=False).astype(np.int64)
+    row = None
     if texts:
         # Parquet rows are numbered from 1 in file order: row - 1 is the row's place in the file.
-        in_order = n == len(texts["case_id"].codes) and (
-            not isinstance(source, str) or bool(np.all(row == np.arange(1, n + 1))))
-        pos = slice(None) if in_order else row - 1
+        if isinstance(source, str):
+            row = _ints(table, "_row")
+            in_order = n == len(texts["case_id"].codes) and bool(np.all(row == np.arange(1, n + 1)))
+        else:
+            in_order = n == len(texts["case_id"].codes)
+        pos = slice(None) if in_order else (row if row is not None else _ints(table, "_row")) - 1
         code = texts["case_id"].codes[pos]
         case_names = texts["case_id"].values
         theatre_code = texts["theatre"].codes[pos]
@@ -270,13 +276,16 @@ def _numpy_engine(recs: Records, high_flow_l_min: float, minute_ventilation_l_mi
         code = case_codes.indices.to_numpy(zero_copy_only=False).astype(np.int64)
         case_names = case_codes.dictionary
     t = _float(table, "t_min")
-    if n and not isinstance(source, str) and texts and in_order and bool(ok_a.all()):
+    if n and not isinstance(source, str) and texts and in_order and problem_a.null_count == n:
         # Rows of one file, each valid: one compiled pass when they come grouped by case in time order.
         fast = _compiled_pass(recs, table, texts, code, t, case_names, theatre_code, high_flow_l_min,
                               minute_ventilation_l_min)
         if fast is not None:
             raw, time_rows, gap_rows = fast
             return raw, counts, time_rows, gap_rows
+    ok_a = problem_a.is_null().to_numpy(zero_copy_only=False)
+    fileno = _ints(table, "_fileno")
+    row = row if row is not None else _ints(table, "_row")
     # One sort key: case, then file, then row. Records usually come grouped by case in file
     # order (case codes number cases by first appearance), and then no sort is needed.
     if n and fileno.max() < (1 << 8) and row.max() < (1 << 35) and code.max() < (1 << 20):
@@ -460,11 +469,13 @@ def _compiled_pass(recs, table, texts, code, t, case_names, theatre_code, high_f
     if out is None:
         return None
     first, samples, gaps, sums, band_min, gap = out
-    fileno = _column(table, "_fileno").to_numpy(zero_copy_only=False).astype(np.int64)
-    row = _column(table, "_row").to_numpy(zero_copy_only=False).astype(np.int64)
-    gap_at = _first_in_file_order(np.flatnonzero(gap), fileno, row, recs._max_messages)
-    gap_rows = [(int(fileno[i]), int(row[i]), case_names[int(code[i])].as_py(), float(t[i]), float(t[i + 1] - t[i]))
-                for i in gap_at]
+    # File and row of the first gaps, for their messages (only the gaps' rows are looked up).
+    at = np.flatnonzero(gap)
+    fileno = np.asarray(_column(table, "_fileno").take(at).to_numpy(zero_copy_only=False), dtype=np.int64)
+    row = np.asarray(_column(table, "_row").take(at).to_numpy(zero_copy_only=False), dtype=np.int64)
+    keep = _first_in_file_order(np.arange(len(at)), fileno, row, recs._max_messages)
+    gap_rows = [(int(fileno[k]), int(row[k]), case_names[int(code[i])].as_py(), float(t[i]), float(t[i + 1] - t[i]))
+                for k, i in zip(keep, at[keep])]
     columns = {"samples": samples, "minutes": sums[:, 0], "gaps": gaps,
                **{name: sums[:, k] for k, name in enumerate(SUM_COLUMNS) if k},
                **{col: band_min[:, k] for k, col in enumerate(BAND_COLUMNS)}}
