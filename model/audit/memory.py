@@ -188,16 +188,18 @@ def _read_parquet_file(recs: Records, index: int):
         tcol = table[c["time"].source]
         if tcol.null_count:
             return None, case_texts
-        us = tcol.cast(pa.timestamp("us")).to_numpy().astype("datetime64[us]")  # duckdb TIMESTAMP: microseconds
-        ticks = us.astype(np.int64)
-        if n and ticks.min() < 0:
+        tcol = tcol.combine_chunks() if isinstance(tcol, pa.ChunkedArray) else tcol
+        if tcol.type.unit == "ms":  # whole milliseconds already: no conversion pass
+            ms = tcol.to_numpy().view(np.int64)
+        else:  # duckdb TIMESTAMP: microseconds, then whole milliseconds
+            ms = tcol.cast(pa.timestamp("us")).to_numpy().view(np.int64) // 1000
+        if n and ms.min() < 0:
             return None, case_texts
-        t_min = (ticks // 1000) / 60000.0
-        start = pa.array(us, pa.timestamp("us"))
-        # The engine takes the month of a case's first sample only, as "%Y-%m" text: the
-        # time itself gives the same text as the SQL's month (date_trunc) without a
-        # calendar conversion of every row.
-        month = start
+        t_min = ms / 60000.0
+        # Start and month are taken from a case's first sample only (``_case_frame``), in
+        # the file's own time type: the time itself gives the same "%Y-%m" text as the
+        # SQL's month (date_trunc) without a calendar conversion of every row.
+        start = month = tcol
     else:
         t_min = values["elapsed"]
         ok &= ~np.isnan(t_min)
@@ -423,6 +425,7 @@ def _numpy_engine(recs: Records, high_flow_l_min: float, minute_ventilation_l_mi
 
 def _case_frame(table, texts, theatre_code, vfirst, case_of_group, agent_of_group, sums) -> pd.DataFrame:
     """The per-case table of either path: names and start of each group's first row, then its sums."""
+    import pyarrow as pa
     import pyarrow.compute as pc
 
     if texts:
@@ -433,7 +436,10 @@ def _case_frame(table, texts, theatre_code, vfirst, case_of_group, agent_of_grou
     month = _column(table, "month").take(vfirst)
     month = pc.strftime(pc.cast(month, "timestamp[s]", safe=False), "%Y-%m").fill_null("unknown").to_pylist()
     # The first valid sample of a group is its earliest (valid samples rise in time).
-    start = pd.to_datetime(pd.Series(_column(table, "start_hint").take(vfirst).to_pandas())).to_numpy()
+    start = _column(table, "start_hint").take(vfirst)
+    if pa.types.is_timestamp(start.type):  # the SQL's TIMESTAMP: microseconds
+        start = start.cast(pa.timestamp("us"))
+    start = pd.to_datetime(pd.Series(start.to_pandas())).to_numpy()
     return pd.DataFrame({"case_id": case_of_group, "agent": agent_of_group, "theatre": theatre, "month": month,
                          "start": start, **sums})
 
