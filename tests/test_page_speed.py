@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import json
 import os
+import re
 import subprocess
 import sys
 import textwrap
@@ -91,3 +92,39 @@ def test_the_first_run_of_the_dashboard_loads_only_what_the_case_plan_page_uses(
                          timeout=300)
     assert out.returncode == 0, out.stderr[-3000:]
     assert json.loads(out.stdout.splitlines()[-1]) == []
+
+
+
+def test_the_warm_start_leaves_the_first_page_nothing_to_import(isolated_store):
+    """``serve.py``'s warm-up (run here as its background thread runs it at server start)
+    imports every module the first page uses and builds the unit registry: the first run
+    of ``app.py`` after it imports no module of ours and no package not loaded yet. The
+    page it warms is the one ``app.py`` opens first."""
+    code = textwrap.dedent(f"""
+        import json, sys
+        sys.path.insert(0, {str(ROOT)!r})
+        from streamlit.testing.v1 import AppTest
+        import serve
+        serve.warm_up()
+        from model.units import registry
+        built = registry.cache_info().currsize
+        before = set(sys.modules)
+        at = AppTest.from_file({str(ROOT / "app.py")!r}, default_timeout=120)
+        at.run()
+        assert not at.exception, [e.message for e in at.exception]
+        assert any(m.label == "Liquid agent" for m in at.metric), "the Case plan page did not show"
+        new = set(sys.modules) - before
+        ours = sorted(m for m in new if m.split(".")[0] in ("model", "ui", "pages"))
+        packages = sorted({{m.split(".")[0] for m in new}} - {{m.split(".")[0] for m in before}})
+        print(json.dumps([built, ours, packages, str(serve.app.script_path), [str(p) for p in serve.FIRST_PAGE]]))
+    """)
+    env = dict(os.environ, PYTHONPATH=str(ROOT), **{STORE_ENV: str(isolated_store)})
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, cwd=ROOT, env=env,
+                         timeout=300)
+    assert out.returncode == 0, out.stderr[-3000:]
+    built, ours, packages, served, first_page = json.loads(out.stdout.splitlines()[-1])
+    assert built == 1, "the unit registry was not built"
+    assert ours == [] and packages == []
+    assert served == str(ROOT / "app.py")
+    default = re.findall(r'_page\("([^"]+)"[^)]*default=True\)', (ROOT / "app.py").read_text(encoding="utf-8"))
+    assert first_page == [str(ROOT / "app.py")] + [str(ROOT / "pages" / name) for name in default]
