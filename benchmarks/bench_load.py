@@ -1,6 +1,6 @@
 """Benchmark: simulated users planning a case in the dashboard at the same time.
 
-Starts ``streamlit run app.py`` on a free localhost port with a store of its own (a
+Starts ``streamlit run serve.py`` (the dashboard with its warm start) on a free localhost port with a store of its own (a
 temporary file named by ``GAS_LEDGER_STORE``), then drives N browser sessions (Playwright
 contexts in one headless Debian chromium) that each open the app on the case-plan page and
 change the O2 flow of the maintenance phase to a value of their own. Prints the page load
@@ -97,21 +97,25 @@ def free_port() -> int:
 
 @contextlib.contextmanager
 def dashboard(store_path: Path | str, log: Path | None = None, start_timeout_s: float = 90.0,
-              app_root: Path | None = None, extra_args: tuple[str, ...] = ()):
+              app_root: Path | None = None, extra_args: tuple[str, ...] = (), entry: str = "serve.py"):
     """Run the dashboard on a free loopback port; yields (url, log path). Stops it after.
 
     The app uses the store at ``store_path`` (a file, or a PostgreSQL URL); its output goes
     to ``log`` (default: a new temporary file); ``app_root`` runs another checkout's app
     (benchmarks compare with main); ``extra_args`` are more ``streamlit run`` options (e.g.
-    ``--secrets.files``). Also used by tests/test_browser.py.
+    ``--secrets.files``); ``entry`` is the file run: ``serve.py``, the dashboard with its warm
+    start as users start it (a checkout without it runs ``app.py``), or ``app.py``. Also used
+    by tests/test_browser.py.
     """
     app_root = Path(app_root or ROOT)
+    if not (app_root / entry).exists():
+        entry = "app.py"
     port = free_port()
     log = log or Path(tempfile.mkstemp(prefix="gas-ledger-load-", suffix=".log")[1])
     env = dict(os.environ, **{STORE_ENV: str(store_path)})
     with open(log, "wb") as out:
         proc = subprocess.Popen(
-            [sys.executable, "-m", "streamlit", "run", str(app_root / "app.py"),
+            [sys.executable, "-m", "streamlit", "run", str(app_root / entry),
              "--server.port", str(port), "--server.address", "127.0.0.1", "--server.headless", "true",
              "--browser.gatherUsageStats", "false", *extra_args],
             cwd=app_root, env=env, stdout=out, stderr=subprocess.STDOUT)

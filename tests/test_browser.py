@@ -1,4 +1,4 @@
-"""Real-browser tests: Debian's chromium (Playwright) against `streamlit run app.py` on localhost.
+"""Real-browser tests: Debian's chromium (Playwright) against `streamlit run serve.py` on localhost.
 
 The app runs with its own store in a temporary folder. Screenshots of every page go to
 test-artifacts/ (ignored by git).
@@ -34,7 +34,8 @@ def store_path(tmp_path_factory):
 
 @contextlib.contextmanager
 def serve_app(log_dir: Path, store: Path):
-    """``streamlit run app.py`` on a free loopback port with its own store; yields its URL."""
+    """``streamlit run serve.py`` (app.py with its warm start) on a free loopback port with its own
+    store; yields its URL."""
     with dashboard(store, log_dir / "streamlit.log") as (url, _):
         yield url.rstrip("/")
 

@@ -1,6 +1,6 @@
 """The dashboard under load: 20 simulated users each plan a case, and none sees an error.
 
-Runs ``benchmarks/bench_load.py``'s driver: ``streamlit run app.py`` on a free loopback port
+Runs ``benchmarks/bench_load.py``'s driver: ``streamlit run serve.py`` on a free loopback port
 with a store of its own (``GAS_LEDGER_STORE`` names a temporary file), one headless Debian
 chromium, 20 sessions, 5 at a time, each opening the case-plan page and changing the
 maintenance O2 flow to a value of its own. Bounded in count and time; response times are
