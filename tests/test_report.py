@@ -346,6 +346,10 @@ def test_purchase_based_by_site_adds_up_to_the_whole_and_each_site_is_its_own_li
     left_out = r.period.purchases.co2e_t(AR6) - east["purchase_based_t_co2e"]
     assert len(scope) == 1 and f"{left_out:,.1f} t CO2e" in scope[0]
     assert not any("for all sites" in c for c in one.cautions)
+    from model.report.document import report_inputs
+
+    assert report_inputs(one)["purchase-based figures cover"] == "the chosen sites' purchases"
+    assert report_inputs(r)["basis"].endswith(", by site") and "purchase-based figures cover" not in report_inputs(r)
     # The use-against-purchases table by item is of East wing's purchases too.
     assert one.period.use_vs_purchase["purchase_t_co2e"].sum() == pytest.approx(east["purchase_based_t_co2e"],
                                                                                  rel=1e-12)
@@ -381,6 +385,9 @@ def test_purchases_without_a_site_column_give_the_figures_they_gave_before(demo,
     assert one.period.purchases.co2e_t(AR6) == pytest.approx(r0.period.purchases.co2e_t(AR6), rel=1e-12)
     assert any("purchase-based figures are for all sites" in c for c in one.cautions)
     assert one.period.purchase_scope in one.cautions
+    from model.report.document import report_inputs
+
+    assert report_inputs(one)["purchase-based figures cover"] == "all sites (the purchases name no site)"
 
 
 def test_sites_only_the_purchases_name_and_purchases_without_a_site_are_shown_as_such(demo):
