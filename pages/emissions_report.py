@@ -19,7 +19,7 @@ from model.report import build_report, parse_period, parse_target
 from model.report.document import report_html
 from ui.common import sources_table
 from ui.report_charts import report_figures
-from ui.report_views import period_input, shown, target_input
+from ui.report_views import period_input, shown, sites_against_purchases, target_input
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "demo_data" / "records"
@@ -259,6 +259,7 @@ with tabs[4]:
                      column_config={"gap_share": st.column_config.NumberColumn(format="percent")})
         st.caption("Gap = purchased - used: stock held over, wastage, use not recorded and, for piped N2O, "
                    "losses from manifolds and pipework.")
+        sites_against_purchases(report)
 with tabs[5]:
     if report.target is None:
         st.caption("Choose a baseline and a target to see the target path.")

@@ -275,13 +275,17 @@ def _read_purchases(path):
     result = read.table
     assert set(result.columns) >= {"month", "item", "amount", "unit"}
     assert (result["amount"] >= 0).all()
+    if purchases.SITE_COLUMN in result.columns:     # the optional site: a short printable name or blank
+        sites = result[purchases.SITE_COLUMN]
+        assert all(isinstance(v, str) and v == v.strip() and v.isprintable()
+                   and len(v) <= purchases.MAX_SITE_CHARS for v in sites)
     # Each line set aside is named by its file and line.
     assert all(m.startswith(f"{path}, ") and m.strip() for m in read.messages)
     return result
 
 
 @STRUCTURED
-@given(text=_table(list(purchases.PURCHASE_COLUMNS)))
+@given(text=_table([*purchases.PURCHASE_COLUMNS, purchases.SITE_COLUMN]))
 def test_purchase_table_with_wrong_cells_gives_rows_or_input_error(text, scratch):
     _read_purchases(_write(scratch, "table.csv", text.encode()))
 

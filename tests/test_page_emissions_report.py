@@ -105,3 +105,51 @@ def test_the_command_line_html_has_the_charts_the_page_draws(tmp_path, capsys):
     assert html.count('class="plotly-graph-div"') == len(titles)
     for title in titles:
         assert json.dumps(title)[1:-1] in html, title
+
+
+@pytest.fixture(scope="module")
+def expected_by_site():
+    """The model's report for the page's default choices: demo records, purchases and sites, 2026 against 2025."""
+    import pandas as pd
+
+    from model.io.purchases import load_purchases
+    from model.io.sites import read_sites
+
+    cases = audit_records([DEMO / "fernhollow_2025.parquet", DEMO / "fernhollow_2026.parquet"]).cases
+    bought = pd.concat([load_purchases(DEMO / f"fernhollow_purchases_{y}.csv").table for y in (2025, 2026)],
+                       ignore_index=True)
+    sites = read_sites(DEMO / "fernhollow_sites.csv")
+    return lambda chosen=(): build_report(cases, parse_period("2026"), parse_period("2025"), purchases=bought,
+                                          sites=sites, chosen_sites=chosen)
+
+
+def _site_table(at: AppTest):
+    found = [d for d in at.dataframe if "purchase_based_t_co2e" in d.value.columns]
+    assert len(found) == 1
+    return found[0]
+
+
+def test_the_demo_report_sets_use_and_purchases_side_by_side_by_site(expected_by_site):
+    at = page("emissions_report.py")
+    element = _site_table(at)
+    got = element.value.set_index("site")
+    want = expected_by_site().period.use_vs_purchase_by_site.set_index("site")
+    # The demo's three sites, and the oxygen bought for the whole hospital shown as bought for no site.
+    assert list(got.index) == list(want.index) == ["Day surgery unit", "East wing", "Main theatres", "no site"]
+    for col in ("use_based_t_co2e", "purchase_based_t_co2e", "gap_t_co2e"):
+        assert got[col].tolist() == pytest.approx(want[col].round(2).tolist(), abs=1e-9), col
+    assert got.loc["no site", "note"] == "purchases with no site"
+    # Each column is labelled with its basis and the GWP source.
+    config = element.proto.columns
+    assert "Use-based t CO2e (IPCC AR6 GWP100)" in config and "Purchase-based t CO2e (IPCC AR6 GWP100)" in config
+    assert any("Totals over the rows" in c.value for c in at.caption)
+    # One site chosen: its purchases only, and the page says so.
+    at.multiselect(key="er_sites").set_value(["East wing"]).run()
+    assert not at.exception
+    one = _site_table(at).value.set_index("site")
+    assert list(one.index) == ["East wing"]
+    assert one.loc["East wing", "purchase_based_t_co2e"] == pytest.approx(
+        round(want.loc["East wing", "purchase_based_t_co2e"], 2), abs=1e-9)
+    assert _metric(at, "Purchase-based") == (
+        f"{expected_by_site(('East wing',)).period.purchases.co2e_t('t CO2e (IPCC AR6 GWP100)'):,.1f} t CO2e")
+    assert any("chosen sites' purchases only (East wing)" in c.value.replace("\\", "") for c in at.caption)

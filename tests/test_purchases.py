@@ -179,3 +179,73 @@ def test_records_of_a_few_cases_are_flagged_as_partial_not_reported_as_losses():
     full = audit_records([DEMO / "fernhollow_2025.parquet"])
     cov_full = record_coverage(full.cases, reconcile(bought, full.use_by_month()))
     assert not cov_full["partial"] and cov_full["volatile_recorded_share"] > 0.5
+
+
+# --- the optional site column --------------------------------------------------------------
+
+def test_a_site_column_is_read_beside_the_amounts_and_a_blank_site_is_no_site(tmp_path):
+    p = _file(tmp_path, "site,month,item,quantity,unit,size\n"
+                        "  Main theatres ,2025-01,sevoflurane,2,bottle,\n"
+                        ",2025-01,sevoflurane,1,bottle,\n"
+                        "East wing,2025-02,nitrous_oxide,1,cylinder,9000 L\n")
+    read = load_purchases(p)
+    assert not read.set_aside
+    assert list(read.table.columns) == ["month", "item", "amount", "unit", "site"]
+    assert read.table["site"].tolist() == ["Main theatres", "", "East wing"]
+    # The amounts are those of the same lines without the column (site order in the header is free).
+    bare = _file(tmp_path, "month,item,quantity,unit,size\n2025-01,sevoflurane,2,bottle,\n"
+                           "2025-01,sevoflurane,1,bottle,\n2025-02,nitrous_oxide,1,cylinder,9000 L\n", "bare.csv")
+    without = load_purchases(bare).table
+    assert list(without.columns) == ["month", "item", "amount", "unit"]
+    pd.testing.assert_frame_equal(read.table.drop(columns="site"), without)
+
+
+def test_a_parquet_purchases_file_reads_its_site_column(tmp_path):
+    p = tmp_path / "p.parquet"
+    pd.DataFrame({"month": ["2025-01", "2025-02", "2025-03"], "item": ["sevoflurane"] * 3, "quantity": [1, 2, 3],
+                  "unit": ["bottle"] * 3, "site": ["East wing", None, "unassigned"]}).to_parquet(p)
+    read = load_purchases(p)
+    assert read.table["site"].tolist() == ["East wing", ""]
+    assert len(read.messages) == 1 and read.messages[0].startswith(f"{p}, row 3: site: got 'unassigned'")
+
+
+@pytest.mark.parametrize("site, problem", [
+    ('"Main\ttheatres"', "without tabs or control characters"),
+    ("Main\x07theatres", "without tabs or control characters"),
+    ("x" * 101, "at most 100 characters"),
+    ("Unassigned", "leave the site blank"),
+    (" no site ", "leave the site blank"),
+])
+def test_a_bad_site_is_set_aside_with_a_message_naming_file_line_and_column(tmp_path, site, problem):
+    p = _file(tmp_path, "month,item,quantity,unit,size,site\n2025-01,sevoflurane,1,bottle,,Main\n"
+                        f"2025-01,sevoflurane,1,bottle,,{site}\n2025-02,isoflurane,2,bottle,,\n")
+    read = load_purchases(p)
+    assert len(read.messages) == 1, read.messages
+    assert read.messages[0].startswith(f"{p}, line 3: site: got '") and problem in read.messages[0]
+    assert "\t" not in read.messages[0] and "\x07" not in read.messages[0]
+    # The lines around it are kept, with their sites.
+    assert read.table[["month", "site"]].values.tolist() == [["2025-01", "Main"], ["2025-02", ""]]
+    # A site of exactly 100 characters is a name like any other.
+    ok = _file(tmp_path, "month,item,quantity,unit,size,site\n2025-01,sevoflurane,1,bottle,," + "x" * 100 + "\n",
+               "ok.csv")
+    assert load_purchases(ok).table["site"].tolist() == ["x" * 100]
+
+
+def test_the_documented_purchases_examples_read_without_a_line_set_aside(tmp_path):
+    text = (ROOT / "docs" / "formats.md").read_text(encoding="utf-8").split("## Purchases", 1)[1].split("\n## ", 1)[0]
+    blocks = [b.split("```", 1)[0] for b in text.split("```csv\n")[1:]]
+    assert len(blocks) == 2 and blocks[1].startswith("month,item,quantity,unit,size,site\n")
+    for i, block in enumerate(blocks):
+        read = load_purchases(_file(tmp_path, block, f"example{i}.csv"))
+        assert not read.messages and len(read.table) == block.count("\n") - 1
+    assert read.table["site"].tolist() == ["Main theatres", "Day surgery unit", "Main theatres", ""]
+
+
+def test_written_purchases_with_sites_read_back_the_same(tmp_path):
+    from model.io.purchases import write_purchases
+
+    rows = [("2025-01", "sevoflurane", 3, "bottle", "", "East wing"), ("2025-01", "oxygen", 2.5, "m**3", "", "")]
+    p = write_purchases(rows, tmp_path / "w.csv", with_site=True)
+    assert p.read_text(encoding="utf-8").splitlines()[1] == "month,item,quantity,unit,size,site"
+    table = read_purchases(p)
+    assert table["site"].tolist() == ["East wing", ""] and table["amount"].tolist()[1] == pytest.approx(2500.0)  # SI: 1 m**3 = 1000 L

@@ -22,6 +22,7 @@ from model.io.purchases import load_purchases
 from model.io.sites import parse_sites, read_sites
 from model.report import (FACTORS, PeriodMix, build_report, decompose, lmdi_additive, logmean, month_shares,
                           parse_period, parse_target, target_path_t)
+from model.reference import DEFAULT_REFERENCE
 from model.report.figures import assign_sites
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -292,6 +293,167 @@ def test_demo_second_year_shows_the_change_of_practice(demo, demo_purchases):
     assert [f for f, _ in r.sentences()] == list(FACTORS)
 
 
+# ---- sites and purchases ------------------------------------------------------------------
+
+SITES = DEMO / "fernhollow_sites.csv"
+AR6 = "t CO2e (IPCC AR6 GWP100)"
+_ITEM_UNITS = {"sevoflurane": "mL", "desflurane": "mL", "isoflurane": "mL", "nitrous_oxide": "L", "oxygen": "L"}
+
+
+def test_the_demo_purchases_name_the_sites_of_the_demo_site_file(demo_purchases):
+    assert set(demo_purchases["site"]) == set(read_sites(SITES).values()) | {""}
+    # Oxygen comes from the invented hospital's bulk supply: the only item bought for no site.
+    assert set(demo_purchases.loc[demo_purchases["site"] == "", "item"]) == {"oxygen"}
+
+
+def test_purchase_based_by_site_adds_up_to_the_whole_and_each_site_is_its_own_lines(demo, demo_purchases):
+    from model.reference import DEFAULT_REFERENCE
+    from model.report.figures import purchase_figures
+
+    sites = read_sites(SITES)
+    r = build_report(demo.cases, parse_period("2026"), parse_period("2025"), purchases=demo_purchases, sites=sites)
+    bare = demo_purchases.drop(columns="site")
+    for pr, year in ((r.period, "2026"), (r.baseline, "2025")):
+        t = pr.use_vs_purchase_by_site.set_index("site")
+        assert list(t.index) == ["Day surgery unit", "East wing", "Main theatres", "no site"]
+        # The totals over the sites are the whole-set totals; the purchase-based whole is the audit
+        # layer's purchase_emissions over the year's months (checked against GWP tables in test_purchases).
+        assert t["use_based_t_co2e"].sum() == pytest.approx(pr.co2e_t, rel=1e-12)
+        pe = purchase_emissions(bare)
+        whole = pe.loc[pe["month"].str.startswith(year), "co2e_kg"].sum() / 1000.0
+        assert t["purchase_based_t_co2e"].sum() == pytest.approx(whole, rel=1e-12)
+        assert pr.purchases.co2e_t(AR6) == pytest.approx(whole, rel=1e-12)
+        assert pr.purchases.by_site[AR6].sum() == pytest.approx(whole, rel=1e-12)
+        use = pr.by_site.set_index("site")["t_co2e"]
+        for site in sorted(set(sites.values())):
+            own = bare[demo_purchases["site"] == site]
+            expected = purchase_figures(own, pr.period, DEFAULT_REFERENCE, pr.gwp_sources).co2e_t(AR6)
+            assert expected > 0 and t.loc[site, "purchase_based_t_co2e"] == pytest.approx(expected, rel=1e-12)
+            assert t.loc[site, "use_based_t_co2e"] == pytest.approx(use[site], rel=1e-12)
+            assert t.loc[site, "gap_t_co2e"] == pytest.approx(expected - use[site], rel=1e-12)
+            assert t.loc[site, "gap_share"] == pytest.approx((expected - use[site]) / expected, rel=1e-12)
+            assert t.loc[site, "note"] == ""
+        # The oxygen bought for no site is shown as such (no CO2e, not dropped).
+        assert t.loc["no site", "note"] == "purchases with no site"
+        assert t.loc["no site", "purchase_based_t_co2e"] == 0 and t.loc["no site", "use_based_t_co2e"] == 0
+    # Choosing a site: its purchases only, equal to its row of the whole report.
+    one = build_report(demo.cases, parse_period("2026"), purchases=demo_purchases, sites=sites,
+                       chosen_sites=["East wing"])
+    east = r.period.use_vs_purchase_by_site.set_index("site").loc["East wing"]
+    assert one.period.purchases.co2e_t(AR6) == pytest.approx(east["purchase_based_t_co2e"], rel=1e-12)
+    assert one.period.use_vs_purchase_by_site["site"].tolist() == ["East wing"]
+    scope = [c for c in one.cautions if "chosen sites' purchases only" in c]
+    left_out = r.period.purchases.co2e_t(AR6) - east["purchase_based_t_co2e"]
+    assert len(scope) == 1 and f"{left_out:,.1f} t CO2e" in scope[0]
+    assert not any("for all sites" in c for c in one.cautions)
+    from model.report.document import report_inputs
+
+    assert report_inputs(one)["purchase-based figures cover"] == "the chosen sites' purchases"
+    assert report_inputs(r)["basis"].endswith(", by site") and "purchase-based figures cover" not in report_inputs(r)
+    # The use-against-purchases table by item is of East wing's purchases too.
+    assert one.period.use_vs_purchase["purchase_t_co2e"].sum() == pytest.approx(east["purchase_based_t_co2e"],
+                                                                                 rel=1e-12)
+
+
+def test_purchases_without_a_site_column_give_the_figures_they_gave_before(demo, demo_purchases, tmp_path):
+    bare_files = []
+    for path in PURCHASES:   # the demo files with their site column (the last) taken out
+        lines = path.read_text(encoding="utf-8").splitlines()
+        out = tmp_path / path.name
+        out.write_text("\n".join(l if l.startswith("#") else l.rsplit(",", 1)[0] for l in lines) + "\n",
+                       encoding="utf-8")
+        bare_files.append(out)
+    bare = pd.concat([load_purchases(p).table for p in bare_files], ignore_index=True)
+    assert list(bare.columns) == ["month", "item", "amount", "unit"]
+    sites = read_sites(SITES)
+    r0 = build_report(demo.cases, parse_period("2026"), parse_period("2025"), purchases=bare, sites=sites)
+    r1 = build_report(demo.cases, parse_period("2026"), parse_period("2025"), purchases=demo_purchases, sites=sites)
+    for a, b in ((r0.period, r1.period), (r0.baseline, r1.baseline)):
+        assert a.purchases.by_site is None and a.use_vs_purchase_by_site is None
+        pd.testing.assert_frame_equal(a.purchases.by_item, b.purchases.by_item, rtol=1e-12)
+        pd.testing.assert_frame_equal(a.use_vs_purchase, b.use_vs_purchase, rtol=1e-12)
+    # Against the audit layer directly (the path the figures took before sites existed).
+    pe = purchase_emissions(bare)
+    got = r0.period.purchases.by_item.set_index("item")["mass_kg"]
+    assert got.to_dict() == pytest.approx(pe[pe["month"].str.startswith("2026")].groupby("item")["mass_kg"]
+                                          .sum().to_dict(), rel=1e-12)
+    assert "Use and purchases by site" not in r0.tables() and "Use and purchases by site" in r1.tables()
+    d = r0.to_dict()["period"]
+    assert d["use_and_purchases_by_site"] is None and d["purchase_based_by_site"] is None
+    # A site chosen: the purchase-based figures stay those of all sites, and the report says so plainly.
+    one = build_report(demo.cases, parse_period("2026"), purchases=bare, sites=sites, chosen_sites=["East wing"])
+    assert one.period.purchases.co2e_t(AR6) == pytest.approx(r0.period.purchases.co2e_t(AR6), rel=1e-12)
+    assert any("purchase-based figures are for all sites" in c for c in one.cautions)
+    assert one.period.purchase_scope in one.cautions
+    from model.report.document import report_inputs
+
+    assert report_inputs(one)["purchase-based figures cover"] == "all sites (the purchases name no site)"
+
+
+def test_sites_only_the_purchases_name_and_purchases_without_a_site_are_shown_as_such(demo):
+    from model.reference import DEFAULT_REFERENCE
+    from model.report.figures import SITE_NOTES
+
+    d = DEFAULT_REFERENCE.agents["desflurane"]
+    bought = pd.DataFrame([("2026-03", "desflurane", d.bottle_volume, "mL", "East wing"),
+                           ("2026-03", "nitrous_oxide", 546.5, "L", " east WING "),     # the same site
+                           ("2026-03", "sevoflurane", 500.0, "mL", "Nowhere"),
+                           ("2026-03", "isoflurane", 250.0, "mL", ""),
+                           ("2026-04", "isoflurane", 250.0, "mL", None)],             # outside the period
+                          columns=["month", "item", "amount", "unit", "site"])
+    r = build_report(demo.cases, parse_period("2026-03"), purchases=bought, sites=read_sites(SITES))
+    t = r.period.use_vs_purchase_by_site.set_index("site")
+    assert list(t.index) == ["Day surgery unit", "East wing", "Main theatres", "Nowhere", "no site"]
+    assert t.loc["Nowhere", "note"] == SITE_NOTES["purchases only"] and t.loc["no site", "note"] == SITE_NOTES["no site"]
+    # Source: globalwarmingpotentials (PyPI), IPCC AR6 GWP100 of HFE-236ea2 (desflurane) and N2O; 546.5 L of N2O
+    # at 20 degC and 101.325 kPa is 1 kg (ideal gas law, CODATA 2018 R; as in test_purchases).
+    east = (d.bottle_volume * d.liquid_density / 1000 * gwp_tables.data["AR6GWP100"]["HFE236ea2"]
+            + gwp_tables.data["AR6GWP100"]["N2O"]) / 1000.0
+    assert t.loc["East wing", "purchase_based_t_co2e"] == pytest.approx(east, rel=1e-3)
+    assert t.loc["Nowhere", "use_based_t_co2e"] == 0 and t.loc["Nowhere", "gap_share"] == 1.0
+    assert math.isnan(t.loc["Day surgery unit", "gap_share"])          # nothing bought: no share
+    assert t["purchase_based_t_co2e"].sum() == pytest.approx(r.period.purchases.co2e_t(AR6), rel=1e-12)
+    assert t["use_based_t_co2e"].sum() == pytest.approx(r.period.co2e_t, rel=1e-12)
+    assert any("Nowhere" in c and "misspelling" in c for c in r.cautions)
+    assert any("Purchases with no site" in c for c in r.cautions)
+
+
+_PURCHASE_LINE = st.tuples(st.sampled_from(["2025-12", "2026-01", "2026-02", "2026-03"]),
+                           st.sampled_from(sorted(_ITEM_UNITS)),
+                           st.floats(0, 1e5, allow_nan=False),
+                           st.sampled_from(["Alder", "alder ", "Birch", "Elsewhere", "ELSEWHERE", "", None]))
+
+
+@settings(max_examples=150, deadline=None)
+@given(lines=st.lists(_PURCHASE_LINE, max_size=30),
+       period=st.sampled_from(["2026-01", "2026Q1", "2026-01-10..2026-02-03", "2025"]))
+def test_purchase_based_by_site_sums_to_the_whole_for_any_purchases(lines, period):
+    from model.reference import DEFAULT_REFERENCE
+    from model.report.figures import NO_SITE, match_purchase_sites, purchase_figures, sites_against_purchases
+
+    ref, sources = DEFAULT_REFERENCE, ("ar6_gwp100", "ar5_gwp100")
+    table = pd.DataFrame([(m, i, a, _ITEM_UNITS[i], s) for m, i, a, s in lines],
+                         columns=["month", "item", "amount", "unit", "site"])
+    p = parse_period(period)
+    table["site"] = match_purchase_sites(table["site"], ["Alder", "Birch"]) if len(table) else []
+    by = purchase_figures(table, p, ref, sources, by_site=True)
+    whole = purchase_figures(table.drop(columns="site"), p, ref, sources)
+    assert whole.by_site is None
+    for label in (AR6, "t CO2e (IPCC AR5 GWP100)"):
+        assert by.by_site[label].sum() == pytest.approx(whole.co2e_t(label), rel=1e-9, abs=1e-12)
+        for site, value in zip(by.by_site["site"], by.by_site[label]):
+            own = purchase_figures(table[table["site"] == site].drop(columns="site"), p, ref, sources)
+            assert value == pytest.approx(own.co2e_t(label), rel=1e-12, abs=1e-15)
+    # Spellings of a known site ignoring case and spaces are that site; of an unknown one, one site.
+    assert set(by.by_site["site"]) <= {"Alder", "Birch", "Elsewhere", "ELSEWHERE", NO_SITE}
+    assert not {"Elsewhere", "ELSEWHERE"} <= set(by.by_site["site"])
+    use = pd.DataFrame({"site": ["Alder", "Birch"], "t_co2e": [1.5, 0.0]})
+    side = sites_against_purchases(use, by, ref, "ar6_gwp100", ["Alder", "Birch"])
+    assert side["use_based_t_co2e"].sum() == pytest.approx(1.5)
+    assert side["purchase_based_t_co2e"].sum() == pytest.approx(whole.co2e_t(AR6), rel=1e-9, abs=1e-12)
+    assert (side["gap_t_co2e"] == side["purchase_based_t_co2e"] - side["use_based_t_co2e"]).all()
+
+
 # ---- target ------------------------------------------------------------------------------
 
 def test_target_paths():
@@ -380,6 +542,46 @@ def test_cli_report_json_and_files(tmp_path, capsys):
     import openpyxl
     wb = openpyxl.load_workbook(tmp_path / "r.xlsx")
     assert {"Figures", "By agent", "What drove the change", "Notes"} <= set(wb.sheetnames)
+
+
+def test_cli_report_json_html_and_xlsx_carry_use_and_purchases_by_site(tmp_path, capsys):
+    bad = tmp_path / "bad_site.csv"      # one line with a tab in its site: set aside, the other used
+    bad.write_text('month,item,quantity,unit,size,site\n2026-05,sevoflurane,1,bottle,,"East\twing"\n'
+                   "2026-05,sevoflurane,2,bottle,,East wing\n", encoding="utf-8")
+    args = [*YEARS, "--purchases", PURCHASES[0], "--purchases", PURCHASES[1], "--purchases", bad,
+            "--period", "2026", "--baseline", "2025", "--sites", SITES]
+    code, out, err = _cli([*args, "--json", "--html", tmp_path / "r.html", "--xlsx", tmp_path / "r.xlsx"], capsys)
+    assert code == 0, err
+    data = json.loads(out)
+    rows = {r["site"]: r for r in data["period"]["use_and_purchases_by_site"]}
+    assert list(rows) == ["Day surgery unit", "East wing", "Main theatres", "no site"]
+    assert set(rows["East wing"]) == {"site", "note", "use_based_t_co2e", "purchase_based_t_co2e", "gap_t_co2e",
+                                      "gap_share"}
+    assert sum(r["use_based_t_co2e"] for r in rows.values()) == pytest.approx(data["period"]["t_co2e"]["ar6_gwp100"],
+                                                                             rel=1e-9)
+    bought = sum(r[AR6] for r in data["period"]["purchase_based"])
+    assert sum(r["purchase_based_t_co2e"] for r in rows.values()) == pytest.approx(bought, rel=1e-9)
+    assert {r["site"] for r in data["period"]["purchase_based_by_site"]} == set(rows)
+    assert data["baseline"]["use_and_purchases_by_site"] is not None and data["period"]["purchase_scope"] is None
+    assert len(data["purchase_lines_set_aside"]) == 1
+    assert data["purchase_lines_set_aside"][0].startswith(f"{bad}, line 2: site: got 'East\\twing'")
+    # The two good bottles count for East wing: its row is the demo's plus them.
+    code, out, err = _cli([*args[:6], *args[8:], "--json"], capsys)
+    plain = {r["site"]: r for r in json.loads(out)["period"]["use_and_purchases_by_site"]}
+    sevo = DEFAULT_REFERENCE.agents["sevoflurane"]
+    two = 2 * sevo.bottle_volume * sevo.liquid_density / 1e6 * DEFAULT_REFERENCE.gwp("sevoflurane", "ar6_gwp100")
+    assert rows["East wing"]["purchase_based_t_co2e"] == pytest.approx(
+        plain["East wing"]["purchase_based_t_co2e"] + two, rel=1e-9)
+    html = (tmp_path / "r.html").read_text(encoding="utf-8")
+    assert "<h2>Use and purchases by site</h2>" in html and "purchases with no site" in html
+    import openpyxl
+    ws = openpyxl.load_workbook(tmp_path / "r.xlsx")["Use and purchases by site"]
+    assert [c.value for c in ws[1]] == ["site", "note", "use_based_t_co2e", "purchase_based_t_co2e", "gap_t_co2e",
+                                        "gap_share"]
+    # The text output prints the table; one site chosen, its purchases only and a caution that says so.
+    code, out, err = _cli([*args, "--site", "East wing"], capsys)
+    assert code == 0, err
+    assert "Use-based against purchase-based by site" in out and "chosen sites' purchases only (East wing)" in out
 
 
 def test_cli_report_html_carries_the_report_charts(tmp_path, capsys, monkeypatch):

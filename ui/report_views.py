@@ -1,4 +1,5 @@
-"""Widgets of the Emissions report page: a reporting period, a target (each returns our own syntax)."""
+"""Widgets of the Emissions report page: a reporting period, a target (each returns our own syntax), and
+the use-based against purchase-based table by site."""
 
 from __future__ import annotations
 
@@ -7,6 +8,8 @@ from datetime import date
 import streamlit as st
 
 from model.report.periods import PERIOD_FORMS
+
+from .common import md
 
 PERIOD_KINDS = ("Calendar year", "Financial year", "Quarter", "Date range", "As written")
 MONTHS = ("January", "February", "March", "April", "May", "June", "July", "August", "September", "October",
@@ -58,3 +61,30 @@ def target_input(key: str, default_year: int) -> str | None:
 def shown(df):
     """A table for the screen: numbers to two decimals."""
     return df.round(2)
+
+
+def sites_against_purchases(report) -> None:
+    """The period's use-based and purchase-based CO2e side by side by site, with the gap, each
+    labelled; or, when the purchases name no site, a plain note that purchase-based figures
+    are for all sites together."""
+    pr = report.period
+    table = pr.use_vs_purchase_by_site
+    st.markdown("**By site: use-based and purchase-based**")
+    if table is None:
+        st.caption("The purchases name no site, so purchase-based figures are for all sites together and "
+                   "cannot be set beside each site's use. Add a site column to the purchases files "
+                   "(docs/formats.md, 'Purchases') to compare site by site.")
+        return
+    lab = report.gwp_label
+    st.dataframe(shown(table), hide_index=True, width="stretch", key="er_sites_vs_purchases", column_config={
+        "site": "Site", "note": "Note",
+        "use_based_t_co2e": st.column_config.NumberColumn(f"Use-based t CO2e ({lab})", format="%.2f"),
+        "purchase_based_t_co2e": st.column_config.NumberColumn(f"Purchase-based t CO2e ({lab})", format="%.2f"),
+        "gap_t_co2e": st.column_config.NumberColumn("Gap t CO2e (purchase-based - use-based)", format="%+.2f"),
+        "gap_share": st.column_config.NumberColumn("Gap, share of purchase-based", format="percent")})
+    st.caption(md(f"Totals over the rows: use-based {table['use_based_t_co2e'].sum():,.2f} t CO2e, purchase-based "
+                  f"{table['purchase_based_t_co2e'].sum():,.2f} t CO2e, the figures of the whole report. "
+                  "Rows noted 'named in purchases only' are sites the site file and the records do not hold; "
+                  "'no site' is purchases that name none."))
+    if pr.purchase_scope:
+        st.caption(md(pr.purchase_scope))

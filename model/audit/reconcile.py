@@ -11,26 +11,31 @@ from model.reference import DEFAULT_GWP, DEFAULT_REFERENCE, Reference, STANDARD_
 
 def purchase_emissions(purchases: pd.DataFrame, reference: Reference = DEFAULT_REFERENCE,
                        gwp_source: str = DEFAULT_GWP, temperature_c: float = 20.0,
-                       pressure_kpa: float = STANDARD_PRESSURE_KPA) -> pd.DataFrame:
+                       pressure_kpa: float = STANDARD_PRESSURE_KPA, keys=()) -> pd.DataFrame:
     """Purchase-based use and emissions per month and item.
 
     Parameters
     ----------
     purchases : DataFrame
         From :func:`read_purchases`, or the ``table`` of :func:`load_purchases`.
+    keys : sequence of str
+        Further columns to keep apart (e.g. ``("site",)``); each appears in the result after
+        the others. A row whose key is missing (NaN) is left out, so give every row a value.
 
     Returns
     -------
     DataFrame
         ``month``, ``item``, ``purchased`` and ``unit`` (mL liquid or L gas), ``mass_kg``,
-        ``co2e_kg`` (all purchased counted as emitted; oxygen and air have none).
+        ``co2e_kg`` (all purchased counted as emitted; oxygen and air have none), then
+        ``keys``.
 
     Notes
     -----
     Liquid mass = volume x density; gas mass by the ideal gas law
     (:func:`model.emissions.gas_mass_g`); CO2e = mass x GWP (:func:`model.emissions.co2e_kg`).
     """
-    g = purchases.groupby(["month", "item", "unit"], as_index=False)["amount"].sum()
+    keys = list(keys)
+    g = purchases.groupby(["month", "item", "unit", *keys], as_index=False)["amount"].sum()
     g = g.rename(columns={"amount": "purchased"})
     mass = np.zeros(len(g))
     co2e = np.zeros(len(g))
@@ -40,7 +45,7 @@ def purchase_emissions(purchases: pd.DataFrame, reference: Reference = DEFAULT_R
         co2e[i] = _co2e_kg(reference, r.item, grams, gwp_source)
     g["mass_kg"] = mass
     g["co2e_kg"] = co2e
-    return g[["month", "item", "purchased", "unit", "mass_kg", "co2e_kg"]]
+    return g[["month", "item", "purchased", "unit", "mass_kg", "co2e_kg", *keys]]
 
 
 def _mass_g(reference: Reference, item: str, amount: float, temperature_c: float, pressure_kpa: float) -> float:

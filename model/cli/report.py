@@ -20,7 +20,8 @@ def register(subparsers) -> None:
     p.add_argument("--baseline", default=None, help="period to compare with, e.g. 2025")
     p.add_argument("--target", default=None, help="reduction target: '-5%%/year' or '120 t by 2030'")
     p.add_argument("--purchases", action="append", default=[], metavar="FILE",
-                   help="purchases file (.csv or .parquet); give it again for more files")
+                   help="purchases file (.csv or .parquet), optionally with a site column; give it again for "
+                        "more files")
     p.add_argument("--sites", default=None, metavar="FILE", help="site file: CSV theatre,site")
     p.add_argument("--site", action="append", default=[], metavar="NAME",
                    help="report only this site (repeat for more); default every site")
@@ -113,6 +114,13 @@ def _print(report, result, out) -> None:
         out.write("\nUse-based against purchase-based (gap = purchased - used)\n")
         t = report.period.use_vs_purchase
         print_table(t.to_dict("records"), list(t.columns), out)
+    if report.period.use_vs_purchase_by_site is not None:
+        out.write(f"\nUse-based against purchase-based by site (t CO2e, {report.gwp_label}; gap = purchase-based - "
+                  "use-based)\n")
+        t = report.period.use_vs_purchase_by_site
+        print_table(t.to_dict("records"), list(t.columns), out)
+    elif report.period.purchases is not None:
+        out.write("\nThe purchases name no site: purchase-based figures are for all sites together.\n")
     if report.decomposition is not None:
         out.write(f"\nWhat drove the change from {report.baseline.period.label} (additive LMDI-I, t CO2e)\n")
         t = report.decomposition_table()

@@ -204,7 +204,8 @@ def write_demo(out_dir, rows: int = 120_000, seed: int = 2025) -> list[Path]:
     problems to show the checks), ``fernhollow_purchases_2025.csv``, and the second year
     with its change of practice: ``fernhollow_2026.parquet`` (less desflurane, lower flow in
     four theatres), ``fernhollow_purchases_2026.csv`` (the N2O pipework mended from July),
-    and ``fernhollow_sites.csv`` (theatres by site).
+    and ``fernhollow_sites.csv`` (theatres by site). The purchases name the site each line was
+    bought for (``DEMO_SITES``; oxygen, from the hospital's bulk supply, names none).
     """
     from model.audit.engine import audit_records
     from model.io.purchases import write_purchases
@@ -249,13 +250,16 @@ def write_demo(out_dir, rows: int = 120_000, seed: int = 2025) -> list[Path]:
         fh.write("# units: total_flow=mL/min, elapsed=min, o2_share=%, n2o_share=%, dial=%\n")
         csv.to_csv(fh, index=False)
     # Purchases: recorded use of the year times invented factors, in whole bottles/cylinders.
-    purchases = write_purchases(_demo_purchases(audit_records([main_path]).use_by_month()),
-                                out / "fernhollow_purchases_2025.csv")
+    year25 = audit_records([main_path])
+    purchases = write_purchases(_demo_purchases_by_site(_demo_purchases(year25.use_by_month()), year25.cases),
+                                out / "fernhollow_purchases_2025.csv", with_site=True)
     # The second year, with its change of practice (own seed; the first year is untouched).
     df26 = generate(rows, seed + 1001, year=2026, agent_mix=AGENT_MIX_2026, low_flow_share=LOW_FLOW_2026)
     path26 = write(df26, out / "fernhollow_2026.parquet")
-    purchases26 = write_purchases(_demo_purchases(audit_records([path26]).use_by_month(), n2o_by_mass=True),
-                                  out / "fernhollow_purchases_2026.csv")
+    year26 = audit_records([path26])
+    purchases26 = write_purchases(_demo_purchases_by_site(_demo_purchases(year26.use_by_month(), n2o_by_mass=True),
+                                                          year26.cases),
+                                  out / "fernhollow_purchases_2026.csv", with_site=True)
     sites = out / "fernhollow_sites.csv"
     with open(sites, "w", encoding="utf-8", newline="") as fh:
         fh.write("# Fernhollow General Hospital (invented): the site of each theatre\n")
@@ -291,6 +295,46 @@ def _demo_purchases(use: pd.DataFrame, n2o_by_mass: bool = False) -> list[tuple]
         else:
             rows_out.append((r.month, r.item, round(r.recorded * f / 1000.0, 1), "m**3", ""))
     return rows_out
+
+
+def _largest_remainder(total: int, weights) -> np.ndarray:
+    """``total`` whole units shared in proportion to ``weights`` (Hare's largest remainder): the
+    parts are whole numbers that add up to ``total``; equal weights share from the first."""
+    w = np.asarray(weights, dtype=float)
+    if total <= 0 or w.sum() <= 0:
+        return np.zeros(len(w), dtype=np.int64)
+    exact = total * w / w.sum()
+    parts = np.floor(exact).astype(np.int64)
+    left = int(total - parts.sum())
+    order = np.argsort(-(exact - parts), kind="stable")
+    parts[order[:left]] += 1
+    return parts
+
+
+def _demo_purchases_by_site(lines: list[tuple], cases: pd.DataFrame) -> list[tuple]:
+    """The demo's purchase lines bought by site: each month's line of an agent or N2O shared
+    among the sites (``DEMO_SITES``) by their recorded use of it that month, in whole bottles
+    and cylinders (N2O by mass in 0.01 kg), so the hospital's totals are those of ``lines``.
+    Oxygen comes from the hospital's bulk supply and names no site (invented)."""
+    names = list(dict.fromkeys(DEMO_SITES.values()))
+    c = cases.assign(site=cases["theatre"].astype(str).map(DEMO_SITES))
+    volatile = c[c["agent"] != "none"].groupby(["month", "agent", "site"])["liquid_agent_ml"].sum()
+    n2o = c.groupby(["month", "site"])["nitrous_oxide_l"].sum()
+    out = []
+    for month, item, qty, unit, size in lines:
+        if item == "oxygen":
+            out.append((month, item, qty, unit, size, ""))
+            continue
+        if item == "nitrous_oxide":
+            weights = [float(n2o.get((month, s), 0.0)) for s in names]
+        else:
+            weights = [float(volatile.get((month, item, s), 0.0)) for s in names]
+        by_mass = unit == "kg"
+        total = int(round(float(qty) * 100)) if by_mass else int(qty)
+        for site, part in zip(names, _largest_remainder(total, weights)):
+            if part > 0:
+                out.append((month, item, f"{part / 100:.2f}" if by_mass else int(part), unit, size, site))
+    return out
 
 
 def main(argv=None) -> int:

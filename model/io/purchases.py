@@ -1,8 +1,9 @@
 """Purchases of agents and gases: the purchases file, purchase-based emissions, reconciliation.
 
 A purchases file (CSV or Parquet, documented in docs/formats.md, "Purchases") has one row per
-purchase: ``month`` (YYYY-MM), ``item`` (an agent or gas), ``quantity``, ``unit`` and, for
-bottles and cylinders, ``size``. Volatile agents are counted as liquid [mL], gases as gas
+purchase: ``month`` (YYYY-MM), ``item`` (an agent or gas), ``quantity``, ``unit``, for
+bottles and cylinders ``size``, and optionally ``site`` (the site bought for; blank: not
+assigned to a site). Volatile agents are counted as liquid [mL], gases as gas
 volume at room conditions [L]. Purchase-based emissions count everything bought as emitted
 (the usual purchase-based method); reconciliation sets purchases against recorded (or
 modelled) use per item and month and reports the share nothing recorded explains. For
@@ -30,6 +31,14 @@ from model.vapour import molar_volume_l
 
 
 PURCHASE_COLUMNS = ("month", "item", "quantity", "unit", "size")
+#: The optional column naming the site (hospital, unit) a purchase was bought for.
+SITE_COLUMN = "site"
+#: Site names the emissions report keeps for itself: theatres a site file does not name
+#: (``model.report.figures.UNASSIGNED``) and purchases without a site (``NO_SITE``).
+RESERVED_SITES = ("unassigned", "no site")
+#: Longest site name on a purchase line. [characters] Common practice, no source: a site is
+#: a short name ("Main theatres"); a long text is a column mixed up.
+MAX_SITE_CHARS = 100
 GASES = ("nitrous_oxide", "oxygen", "air")
 #: Largest quantity on one purchase line, in its unit (bottles, cylinders, mL, kg, ...).
 #: Common practice, no source: far above what a hospital buys in a month, small enough that
@@ -81,7 +90,8 @@ def read_purchases(path, reference: Reference = DEFAULT_REFERENCE, temperature_c
     Returns
     -------
     DataFrame
-        ``month``, ``item``, ``amount`` and ``unit``, as :attr:`PurchasesFile.table`.
+        ``month``, ``item``, ``amount``, ``unit`` and (when the file has the column) ``site``,
+        as :attr:`PurchasesFile.table`.
 
     Raises
     ------
@@ -112,9 +122,11 @@ def load_purchases(path, reference: Reference = DEFAULT_REFERENCE, temperature_c
     -------
     PurchasesFile
         ``table``: ``month``, ``item``, ``amount`` and ``unit`` ("mL" of liquid for volatile
-        agents, "L" of gas at room conditions for gases), one row per usable purchase line;
-        ``set_aside``: one error per bad line (month, item, quantity, unit or size), naming
-        the file, the line and the column.
+        agents, "L" of gas at room conditions for gases), and ``site`` when the file has a
+        ``site`` column ("" where the line names none; without the column the table is as
+        it was before sites existed), one row per usable purchase line; ``set_aside``: one
+        error per bad line (month, item, quantity, unit, size or site), naming the file, the
+        line and the column.
 
     Raises
     ------
@@ -131,7 +143,7 @@ def load_purchases(path, reference: Reference = DEFAULT_REFERENCE, temperature_c
                          if found == "folder" else "the purchases file does not exist")
     fmt = p.suffix.lower()
     if fmt == ".csv":
-        rows, set_aside = _csv_rows(p, where)
+        rows, set_aside, columns = _csv_rows(p, where)
         label = "line"
     elif fmt == ".parquet":
         try:
@@ -144,21 +156,24 @@ def load_purchases(path, reference: Reference = DEFAULT_REFERENCE, temperature_c
         df = df.astype(object).where(df.notna(), "").astype(str)  # an empty cell is ""
         df.columns = [str(c).strip().lower() for c in df.columns]
         _require_columns(list(df.columns), where)
+        columns = list(df.columns)
         rows = [(i, dict(zip(df.columns, r))) for i, r in enumerate(df.itertuples(index=False, name=None), start=1)]
         set_aside = []
         label = "row"
     else:
         raise InputError(where, p.suffix or "no extension", "a purchases file ends in .csv or .parquet")
+    with_site = SITE_COLUMN in columns
     out = []
     for number, record in rows:
         at = f"{where}, {label} {number}"
-        r = SimpleNamespace(**{c: record.get(c, "") for c in PURCHASE_COLUMNS})
+        r = SimpleNamespace(**{c: record.get(c, "") for c in (*PURCHASE_COLUMNS, SITE_COLUMN)})
         try:
-            out.append(_purchase_line(r, at, reference, temperature_c, pressure_kpa))
+            line = _purchase_line(r, at, reference, temperature_c, pressure_kpa)
+            out.append((*line, _site(r.site, at)) if with_site else line)
         except InputError as err:
             set_aside.append((number, err))
     set_aside.sort(key=lambda pair: pair[0])
-    table = pd.DataFrame(out, columns=["month", "item", "amount", "unit"])
+    table = pd.DataFrame(out, columns=["month", "item", "amount", "unit", *((SITE_COLUMN,) if with_site else ())])
     return PurchasesFile(table, [err for _, err in set_aside])
 
 
@@ -204,7 +219,7 @@ def _csv_rows(p: Path, where: str):
                 f"expected {len(columns)} as in the header ({', '.join(columns)}); an extra comma adds a field")))
         else:
             rows.append((number, dict(zip(columns, fields))))
-    return rows, set_aside
+    return rows, set_aside, columns
 
 
 def _csv_fields(lines, i: int) -> list[str] | str:
@@ -220,6 +235,24 @@ def _csv_fields(lines, i: int) -> list[str] | str:
         return next(csv.reader([text], strict=True))
     except (csv.Error, StopIteration) as exc:
         return f"not readable as CSV ({exc})"
+
+
+def _site(text, at: str) -> str:
+    """The site named on a purchase line ("" when blank); InputError naming ``at`` if bad."""
+    site = str(text if text is not None else "").strip()
+    if not site:
+        return ""
+    if not site.isprintable():
+        raise InputError(f"{at}: site", site, "expected a site name without tabs or control characters")
+    if len(site) > MAX_SITE_CHARS:
+        raise InputError(f"{at}: site", site, f"expected a site name of at most {MAX_SITE_CHARS} characters")
+    if site.casefold() in RESERVED_SITES:
+        raise InputError(f"{at}: site", site, "the report keeps this name for itself ('unassigned': theatres the "
+                         "site file does not name; 'no site': purchases without one); leave the site blank for a "
+                         "purchase not bought for one site")
+    return site
+
+
 def _purchase_line(r, at: str, reference: Reference, temperature_c: float,
                    pressure_kpa: float) -> tuple[str, str, float, str]:
     """One purchase line as (month, item, amount, unit); InputError naming ``at`` if bad."""
@@ -298,11 +331,16 @@ def _convert_text(text, base, where, example) -> float:
     return value
 
 
-def write_purchases(rows, path) -> Path:
-    """Write purchase rows (dicts or tuples of ``PURCHASE_COLUMNS``) as a CSV purchases file."""
+def write_purchases(rows, path, with_site: bool = False) -> Path:
+    """Write purchase rows as a CSV purchases file.
+
+    Rows are tuples of ``PURCHASE_COLUMNS`` (and the site last, when ``with_site``) or dicts
+    with those keys; ``with_site`` writes the optional ``site`` column (blank: no site).
+    """
     p = Path(path)
-    df = pd.DataFrame(rows, columns=list(PURCHASE_COLUMNS))
+    columns = [*PURCHASE_COLUMNS, *((SITE_COLUMN,) if with_site else ())]
+    df = pd.DataFrame(rows, columns=columns)
     with open(p, "w", encoding="utf-8", newline="") as fh:
-        fh.write("# Purchases file (fresh-gas-ledger purchases 1): month, item, quantity, unit, size\n")
+        fh.write("# Purchases file (fresh-gas-ledger purchases 1): " + ", ".join(columns) + "\n")
         df.to_csv(fh, index=False)
     return p

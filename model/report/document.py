@@ -21,7 +21,11 @@ def report_inputs(report: EmissionsReport) -> dict:
            "target": r.target.target.label if r.target is not None else "none",
            "sites": ", ".join(r.chosen_sites) if r.chosen_sites else "all",
            "basis": "use-based (case records)" + (", purchase-based (purchases)" if r.period.purchases is not None
-                                                 else "")}
+                                                 else "")
+                    + (", by site" if r.period.use_vs_purchase_by_site is not None else "")}
+    if r.period.purchases is not None and r.chosen_sites:
+        out["purchase-based figures cover"] = ("the chosen sites' purchases" if r.period.use_vs_purchase_by_site
+                                               is not None else "all sites (the purchases name no site)")
     if r.baseline is not None and r.baseline.gwp_source != r.period.gwp_source:
         out["GWP source (baseline)"] = r.reference.gwp_source(r.baseline.gwp_source).label
     return out

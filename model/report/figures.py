@@ -4,7 +4,8 @@ Use-based figures come from the audit's case table (:class:`model.audit.result.A
 cases are cut by their start, theatres grouped into sites, and CO2e worked out again from
 the emitted masses under each GWP source shown (CO2e is linear in mass, so under the
 audit's own source the figures equal the audit's). Purchase-based figures come from the
-purchases table through :func:`model.audit.reconcile.purchase_emissions`, month by month.
+purchases table through :func:`model.audit.reconcile.purchase_emissions`, month by month, and
+by site when the purchases name sites (the purchases file's optional ``site`` column).
 """
 
 from __future__ import annotations
@@ -18,6 +19,7 @@ from model.audit.reconcile import purchase_emissions
 from model.audit.result import BAND_COLUMNS, time_weighted_fgf
 from model.errors import InputError
 from model.freshgas import FLOW_BAND_NAMES
+from model.io.purchases import SITE_COLUMN
 from model.reference import DEFAULT_REFERENCE, Reference, STANDARD_PRESSURE_KPA
 from model.report.lmdi import PeriodMix
 from model.report.periods import Period, month_shares
@@ -26,6 +28,15 @@ from model.report.periods import Period, month_shares
 SIDE_BY_SIDE = ("ar5_gwp100", "ar6_gwp100")
 #: Site of a theatre the site file does not name.
 UNASSIGNED = "unassigned"
+#: Site of a purchase line that names none (a blank ``site``).
+NO_SITE = "no site"
+#: What each kind of row of :func:`sites_against_purchases` is (its ``note``).
+SITE_NOTES = {
+    "known": "",
+    "unassigned": "theatres the site file does not name",
+    "purchases only": "named in purchases only: not a site of the site file or the records",
+    "no site": "purchases with no site",
+}
 #: Columns of the audit's case table the report reads.
 NEEDED = ("case_id", "agent", "theatre", "start", "month", "minutes", "oxygen_l", "air_l", "nitrous_oxide_l",
           "agent_mass_g", "agent_emitted_g", "nitrous_oxide_g", "nitrous_oxide_emitted_g", "cost_total",
@@ -226,18 +237,60 @@ class PurchaseFigures:
         ``month``, ``share`` (of the month inside the period), ``t_co2e`` (chosen source).
     months_missing : list of str
         Months of the period with no purchase line at all.
+    by_site : DataFrame or None
+        When the purchases name sites: ``site`` (``NO_SITE`` for lines naming none) and one
+        ``t CO2e (<label>)`` column per source; its rows add up to ``by_item``'s. None when
+        no purchase line names a site.
     """
 
     by_item: pd.DataFrame
     by_month: pd.DataFrame
     months_missing: list = field(default_factory=list)
+    by_site: pd.DataFrame | None = None
 
     def co2e_t(self, label: str) -> float:
         return float(self.by_item[label].sum()) if len(self.by_item) else 0.0
 
 
+def _site_text(values) -> pd.Series:
+    """Site names as text, a missing or blank one as ""."""
+    return pd.Series(values, dtype=object).fillna("").astype(str).str.strip()
+
+
+def purchases_name_sites(purchases: pd.DataFrame | None) -> bool:
+    """Whether any purchase line names a site (a non-blank ``site``)."""
+    return (purchases is not None and SITE_COLUMN in purchases.columns
+            and bool((_site_text(purchases[SITE_COLUMN]) != "").any()))
+
+
+def match_purchase_sites(names, known) -> np.ndarray:
+    """The report's site of each purchase line (vectorised).
+
+    Parameters
+    ----------
+    names : array_like of str
+        The purchases' ``site`` column (blank or missing: no site).
+    known : iterable of str
+        The report's sites (:func:`assign_sites` of the records' theatres).
+
+    Returns
+    -------
+    ndarray of str
+        A name matching a known site ignoring case and surrounding spaces is given that
+        site's spelling; a blank one is ``NO_SITE``; any other keeps the first spelling the
+        purchases give it (so "East Wing" and "east wing" are one site).
+    """
+    text = _site_text(names)
+    spelling = {k.strip().casefold(): k for k in known}
+    for name in pd.unique(text):
+        spelling.setdefault(name.casefold(), name)
+    spelling[""] = NO_SITE
+    return text.str.casefold().map(spelling).to_numpy(dtype=object)
+
+
 def purchase_figures(purchases: pd.DataFrame, period: Period, reference: Reference, gwp_sources,
-                     temperature_c: float = 20.0, pressure_kpa: float = STANDARD_PRESSURE_KPA) -> PurchaseFigures:
+                     temperature_c: float = 20.0, pressure_kpa: float = STANDARD_PRESSURE_KPA,
+                     by_site: bool | None = None) -> PurchaseFigures:
     """Purchase-based emissions of a period: everything bought in its months counted as emitted.
 
     Parameters
@@ -247,6 +300,9 @@ def purchase_figures(purchases: pd.DataFrame, period: Period, reference: Referen
     period : Period
         Months wholly inside count fully; a month partly inside (a date range) counts by its
         share of days (:func:`model.report.periods.month_shares`).
+    by_site : bool, optional
+        Give :attr:`PurchaseFigures.by_site`; default: when the purchases name a site
+        (:func:`purchases_name_sites`). A line without a site is counted under ``NO_SITE``.
 
     Returns
     -------
@@ -254,10 +310,17 @@ def purchase_figures(purchases: pd.DataFrame, period: Period, reference: Referen
     """
     shares = month_shares(period)
     labels = {s: f"t CO2e ({reference.gwp_source(s).label})" for s in gwp_sources}
+    if by_site is None:
+        by_site = purchases_name_sites(purchases)
+    keys = (SITE_COLUMN,) if by_site else ()
+    if by_site:
+        site = _site_text(purchases[SITE_COLUMN]) if SITE_COLUMN in purchases.columns else \
+            pd.Series("", index=purchases.index, dtype=object)
+        purchases = purchases.assign(**{SITE_COLUMN: site.where(site != "", NO_SITE).to_numpy(dtype=object)})
     frames = []
     for s in gwp_sources:
-        pe = purchase_emissions(purchases, reference, s, temperature_c, pressure_kpa) if len(purchases) else \
-            pd.DataFrame(columns=["month", "item", "purchased", "unit", "mass_kg", "co2e_kg"])
+        pe = purchase_emissions(purchases, reference, s, temperature_c, pressure_kpa, keys) if len(purchases) else \
+            pd.DataFrame(columns=["month", "item", "purchased", "unit", "mass_kg", "co2e_kg", *keys])
         pe = pe[pe["month"].isin(list(shares))].copy()
         pe["share"] = pe["month"].map(shares).astype(float)
         pe[labels[s]] = pe["co2e_kg"] * pe["share"] / 1000.0
@@ -271,7 +334,57 @@ def purchase_figures(purchases: pd.DataFrame, period: Period, reference: Referen
     by_item = by_item[["item", "purchased", "unit", "mass_kg", *labels.values()]]
     by_month = base.groupby("month", as_index=False).agg(share=("share", "first"), t_co2e=(labels[gwp_sources[0]], "sum"))
     missing = [m for m in shares if m not in set(base["month"])]
-    return PurchaseFigures(by_item.reset_index(drop=True), by_month, missing)
+    sites = None
+    if by_site:
+        sites = base.groupby(SITE_COLUMN, as_index=False)[list(labels.values())].sum()
+        sites = sites[[SITE_COLUMN, *labels.values()]].astype({c: float for c in labels.values()})
+    return PurchaseFigures(by_item.reset_index(drop=True), by_month, missing, sites)
+
+
+def sites_against_purchases(use_by_site: pd.DataFrame, bought: PurchaseFigures, reference: Reference,
+                            gwp_source: str, known=()) -> pd.DataFrame:
+    """Use-based and purchase-based CO2e side by side, one row per site, with the gap.
+
+    Parameters
+    ----------
+    use_by_site : DataFrame
+        :func:`grouped_table` by ``site`` (its ``t_co2e`` under ``gwp_source``).
+    bought : PurchaseFigures
+        With ``by_site`` (its sites matched to the report's by :func:`match_purchase_sites`).
+    known : iterable of str
+        The report's sites (from the site file and the records' theatres).
+
+    Returns
+    -------
+    DataFrame
+        ``site``, ``note`` (``SITE_NOTES``: "" for a site of the report; theatres the site
+        file does not name; a site named in purchases only; purchases with no site),
+        ``use_based_t_co2e``, ``purchase_based_t_co2e``, ``gap_t_co2e`` (purchase-based -
+        use-based) and ``gap_share`` (of purchase-based; empty where nothing was bought), in
+        t CO2e under ``gwp_source``. Sites of the report first (by name), then
+        ``UNASSIGNED``, the sites named in purchases only and ``NO_SITE``. Each column adds
+        up to the period's whole-set figure.
+    """
+    label = f"t CO2e ({reference.gwp_source(gwp_source).label})"
+    use = dict(zip(use_by_site["site"], use_by_site["t_co2e"].astype(float))) if len(use_by_site) else {}
+    bs = bought.by_site
+    buy = dict(zip(bs[SITE_COLUMN], bs[label].astype(float))) if bs is not None and len(bs) else {}
+    known = set(known) | set(use)
+
+    def kind(site):
+        if site in known:
+            return "unassigned" if site == UNASSIGNED else "known"
+        return "no site" if site == NO_SITE else "purchases only"
+
+    order = {"known": 0, "unassigned": 1, "purchases only": 2, "no site": 3}
+    rows = sorted(set(use) | set(buy), key=lambda s: (order[kind(s)], s.casefold(), s))
+    u = np.array([use.get(s, 0.0) for s in rows], dtype=float)
+    p = np.array([buy.get(s, 0.0) for s in rows], dtype=float)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        share = np.where(p > 0, (p - u) / np.where(p > 0, p, 1.0), np.nan)
+    return pd.DataFrame({"site": pd.Series(rows, dtype=object), "note": [SITE_NOTES[kind(s)] for s in rows],
+                         "use_based_t_co2e": u, "purchase_based_t_co2e": p, "gap_t_co2e": p - u,
+                         "gap_share": share})
 
 
 def use_against_purchases(cases: pd.DataFrame, bought: PurchaseFigures, reference: Reference,

@@ -15,9 +15,10 @@ import pandas as pd
 
 from model.errors import InputError
 from model.reference import DEFAULT_GWP, DEFAULT_REFERENCE, Reference
-from model.report.figures import (PurchaseFigures, UNASSIGNED, assign_sites, by_agent_table, cases_in, grouped_table,
-                                  gwp_sources_shown, period_mix, purchase_figures, use_against_purchases,
-                                  use_figures)
+from model.report.figures import (NO_SITE, PurchaseFigures, SITE_NOTES, UNASSIGNED, assign_sites, by_agent_table,
+                                  cases_in, grouped_table, gwp_sources_shown, match_purchase_sites, period_mix,
+                                  purchase_figures, purchases_name_sites, sites_against_purchases,
+                                  use_against_purchases, use_figures)
 from model.report.lmdi import FACTORS, Decomposition, decompose
 from model.report.periods import Period
 from model.report.target import Target, TargetStatus, annual_rate_t, target_status
@@ -35,7 +36,9 @@ COUNTED = (
     "slightly overstates emissions.",
     "Purchase-based figures count everything bought in the period's months as emitted (liquid mass from "
     "volume and density, gas mass by the ideal gas law). The gap to use-based figures is stock held over, "
-    "wastage, use not recorded and, for piped nitrous oxide, losses from manifolds and pipework.",
+    "wastage, use not recorded and, for piped nitrous oxide, losses from manifolds and pipework. When the "
+    "purchases name the site each was bought for, a site's purchase-based figure is its own purchases; "
+    "purchases with no site are counted on their own.",
     "Not counted: scope 2 and 3 emissions (manufacture, transport and disposal of agents and absorbent, "
     "energy of scavenging and ventilation), intravenous anaesthesia, nitrous oxide used outside theatres "
     "(maternity, emergency department) unless it is in the records or purchases given.",
@@ -56,6 +59,11 @@ class PeriodReport:
     by_site: pd.DataFrame
     purchases: PurchaseFigures | None = None
     use_vs_purchase: pd.DataFrame | None = None
+    #: Use-based and purchase-based side by side by site
+    #: (:func:`model.report.figures.sites_against_purchases`); None unless the purchases name sites.
+    use_vs_purchase_by_site: pd.DataFrame | None = None
+    #: What the purchase-based figures cover when sites are chosen (a caution; "" when all sites).
+    purchase_scope: str = ""
 
     @property
     def co2e_t(self) -> float:
@@ -217,6 +225,9 @@ class EmissionsReport:
         if self.period.use_vs_purchase is not None:
             t["Use and purchases"] = self.period.use_vs_purchase
             t["Purchases by item"] = self.period.purchases.by_item
+        if self.period.use_vs_purchase_by_site is not None:
+            t["Use and purchases by site"] = self.period.use_vs_purchase_by_site
+            t["Purchases by site"] = self.period.purchases.by_site
         if self.sites:
             t["Sites"] = pd.DataFrame(sorted(self.sites.items()), columns=["theatre", "site"])
         return t
@@ -256,7 +267,12 @@ class EmissionsReport:
                     "absorbent_kg": _clean(f["absorbent_kg"]), "cost": _clean(f["cost"]),
                     "by_agent": table(pr.by_agent), "by_month": table(pr.by_month), "by_site": table(pr.by_site),
                     "purchase_based": None if pr.purchases is None else table(pr.purchases.by_item),
-                    "use_and_purchases": None if pr.use_vs_purchase is None else table(pr.use_vs_purchase)}
+                    "use_and_purchases": None if pr.use_vs_purchase is None else table(pr.use_vs_purchase),
+                    "purchase_based_by_site": (None if pr.purchases is None or pr.purchases.by_site is None
+                                               else table(pr.purchases.by_site)),
+                    "use_and_purchases_by_site": (None if pr.use_vs_purchase_by_site is None
+                                                  else table(pr.use_vs_purchase_by_site)),
+                    "purchase_scope": pr.purchase_scope or None}
 
         d = self.decomposition
         return {
@@ -312,9 +328,37 @@ def period_report(cases: pd.DataFrame, period: Period, reference: Reference, gwp
     pr = PeriodReport(period, gwp_source, sources, c, f, by_agent_table(c, reference, sources),
                       grouped_table(c, "month", reference, gwp_source), grouped_table(c, "site", reference, gwp_source))
     if purchases is not None:
-        pr.purchases = purchase_figures(purchases, period, reference, sources)
+        named = purchases_name_sites(purchases)
+        bought = purchases
+        if named:
+            known = sorted(set(assign_sites(cases["theatre"], sites)))
+            bought = purchases.assign(site=match_purchase_sites(purchases["site"], known))
+            if chosen_sites:
+                bought = bought[bought["site"].isin(list(chosen_sites))]
+        pr.purchases = purchase_figures(bought, period, reference, sources, by_site=named)
         pr.use_vs_purchase = use_against_purchases(c, pr.purchases, reference, gwp_source)
+        if named:
+            pr.use_vs_purchase_by_site = sites_against_purchases(pr.by_site, pr.purchases, reference, gwp_source,
+                                                                 known)
+        if chosen_sites:
+            pr.purchase_scope = _purchase_scope(purchases, named, bought, period, reference, gwp_source,
+                                                tuple(chosen_sites))
     return pr
+
+
+def _purchase_scope(purchases, named: bool, bought, period: Period, reference: Reference, gwp_source: str,
+                    chosen: tuple) -> str:
+    """A sentence saying what the purchase-based figures cover when only some sites are reported."""
+    names = ", ".join(chosen)
+    if not named:
+        return (f"The purchases name no site, so the purchase-based figures are for all sites (every purchase in "
+                f"the files), while the use-based figures are of the chosen sites only ({names}): the gap between "
+                "them is not those sites' gap.")
+    label = f"t CO2e ({reference.gwp_source(gwp_source).label})"
+    whole = purchase_figures(purchases, period, reference, (gwp_source,), by_site=False).co2e_t(label)
+    mine = purchase_figures(bought, period, reference, (gwp_source,), by_site=False).co2e_t(label)
+    return (f"Purchase-based figures are of the chosen sites' purchases only ({names}); "
+            f"{whole - mine:,.1f} t CO2e bought in the period for other sites or with no site is left out.")
 
 
 def build_report(cases: pd.DataFrame, period: Period, baseline: Period | None = None, *,
@@ -376,9 +420,20 @@ def build_report(cases: pd.DataFrame, period: Period, baseline: Period | None = 
     if sites is not None and (pr.cases["site"] == UNASSIGNED).any():
         left = sorted(set(pr.cases.loc[pr.cases["site"] == UNASSIGNED, "theatre"]))
         cautions.append(f"Theatres the site file does not name are reported as '{UNASSIGNED}': " + ", ".join(left) + ".")
-    if purchases is not None and chosen_sites:
-        cautions.append("Purchases are not split by site: the purchase-based figures are those of the whole "
-                        "purchases file, while use-based figures are of the chosen sites only.")
+    if pr.purchase_scope:
+        cautions.append(pr.purchase_scope)
+    table = pr.use_vs_purchase_by_site
+    if table is not None:
+        odd = table.loc[table["note"] == SITE_NOTES["purchases only"], "site"].tolist()
+        if odd:
+            cautions.append("Purchases name sites that are neither in the site file nor theatres of the records "
+                            "(a misspelling?): " + ", ".join(odd) + "; they are shown on their own rows of "
+                            "'Use and purchases by site'.")
+        none = table.loc[table["note"] == SITE_NOTES["no site"], "purchase_based_t_co2e"]
+        if len(none):
+            cautions.append(f"Purchases with no site ({float(none.sum()):,.1f} t CO2e) are shown as '{NO_SITE}' in "
+                            "'Use and purchases by site': they count in the whole-set purchase-based figures but "
+                            "belong to no site.")
     if pr.purchases is not None and pr.purchases.months_missing:
         cautions.append("No purchase line in: " + ", ".join(pr.purchases.months_missing)
                         + " (purchase-based figures count nothing for those months).")
