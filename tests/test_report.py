@@ -502,7 +502,9 @@ def test_site_file_format():
     out = assign_sites(["Alder", "Day Unit 1", "Birch"], sites)
     assert list(out) == ["Main theatres", "Day unit", "unassigned"]
     for bad, where in (("site,theatre\nA,B\n", "line 1"), ("theatre,site\nA\n", "line 2"),
-                       ("theatre,site\nA,X\na,Y\n", "line 3"), ("theatre,site\n,X\n", "line 2"), ("# only\n", "s.csv")):
+                       ("theatre,site\nA,X\na,Y\n", "line 3"), ("theatre,site\n,X\n", "line 2"), ("# only\n", "s.csv"),
+                       # The report's own rows' names (common practice, no source: ours).
+                       ("theatre,site\nA,X\nB, No Site\n", "line 3"), ("theatre,site\nA,Unassigned\n", "line 2")):
         with pytest.raises(InputError, match=where):
             parse_sites(bad, "s.csv")
 

@@ -25,6 +25,7 @@ import pandas as pd
 from model.errors import InputError
 from model.files import path_kind, shown_path
 from model.io.csv_lines import split_csv_lines
+from model.io.sites import RESERVED_SITES
 from model.reference import DEFAULT_REFERENCE, Reference, STANDARD_PRESSURE_KPA, normalise_agent_name
 from model.units import one_number_and_unit, registry, safe_quantity_text
 from model.vapour import molar_volume_l
@@ -35,7 +36,6 @@ PURCHASE_COLUMNS = ("month", "item", "quantity", "unit", "size")
 SITE_COLUMN = "site"
 #: Site names the emissions report keeps for itself: theatres a site file does not name
 #: (``model.report.figures.UNASSIGNED``) and purchases without a site (``NO_SITE``).
-RESERVED_SITES = ("unassigned", "no site")
 #: Longest site name on a purchase line. [characters] Common practice, no source: a site is
 #: a short name ("Main theatres"); a long text is a column mixed up.
 MAX_SITE_CHARS = 100

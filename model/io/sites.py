@@ -21,6 +21,10 @@ from model.errors import InputError
 from model.files import read_user_text
 
 SITE_COLUMNS = ("theatre", "site")
+#: Site names the report keeps for itself: "unassigned" (theatres the site file does not
+#: name) and "no site" (purchases without a site); neither a site file nor a purchases
+#: file may use them.
+RESERVED_SITES = ("unassigned", "no site")
 #: Largest site file read. [bytes] (a site file has one short line per theatre)
 MAX_SITE_FILE_BYTES = 1_000_000
 
@@ -44,7 +48,8 @@ def parse_sites(text: str, where: str = "site file") -> dict[str, str]:
     ------
     InputError
         Naming the file and line: a missing header, a line without both fields, an empty
-        name, or a theatre given twice with different sites.
+        name, a site named as the report's own rows (``RESERVED_SITES``), or a theatre given
+        twice with different sites.
     """
     lines = [(n, line) for n, line in enumerate(str(text).splitlines(), start=1)
              if line.strip() and not line.lstrip().startswith("#")]
@@ -63,6 +68,10 @@ def parse_sites(text: str, where: str = "site file") -> dict[str, str]:
         theatre, site = (f.strip() for f in fields)
         if not theatre or not site:
             raise InputError(f"{where}, line {n}", line.strip(), "a theatre and a site, neither empty")
+        if site.casefold() in RESERVED_SITES:
+            raise InputError(f"{where}, line {n}", site, "the report keeps this name for itself ('unassigned': "
+                             "theatres the site file does not name; 'no site': purchases without one); "
+                             "choose another site name")
         key = theatre.casefold()
         if key in seen and seen[key][1] != site:
             raise InputError(f"{where}, line {n}", theatre,
