@@ -132,16 +132,31 @@ def _scan(code, agent, t, o2, air, n2o, dial, et, n_agents, none_code, gap_limit
     sums = np.zeros((groups, 9))
     band_min = np.zeros((groups, nb))
     gap = np.zeros(n, np.bool_)
+    ne = len(edges)
+    # Sums of the current group, kept in locals and written when the group ends; each is
+    # summed from 0.0 row by row, as numpy.bincount sums.
+    bands = np.zeros(nb)
     g = -1
-    longest = 0.0
+    count = n_gaps = 0
+    s_dt = s_gap = s_et = s_o2 = s_air = s_n2o = s_vap = s_reb = longest = 0.0
     cs = 0.0  # running sum of high-flow time over every row (as numpy's cumsum)
     run_base = 0.0
     prev_end = True  # the row before ends a run (or there is none)
+    prev_key = -1
     for i in range(n):
-        if i == 0 or code[i] * n_agents + agent[i] != code[i - 1] * n_agents + agent[i - 1]:
+        key = code[i] * n_agents + agent[i]
+        if i == 0 or key != prev_key:
+            if g >= 0:
+                samples[g], gaps[g] = count, n_gaps
+                sums[g, 0], sums[g, 1], sums[g, 2], sums[g, 3], sums[g, 4] = s_dt, s_gap, s_et, s_o2, s_air
+                sums[g, 5], sums[g, 6], sums[g, 7], sums[g, 8] = s_n2o, s_vap, s_reb, longest
+                band_min[g, :] = bands
             g += 1
             first[g] = i
-            longest = 0.0
+            count = n_gaps = 0
+            s_dt = s_gap = s_et = s_o2 = s_air = s_n2o = s_vap = s_reb = 0.0
+            bands[:] = 0.0
+        prev_key = key
         same_next = i + 1 < n and code[i + 1] == code[i]
         dt_raw = t[i + 1] - t[i] if same_next else np.nan
         dt0 = 0.0 if np.isnan(dt_raw) else dt_raw
@@ -169,31 +184,33 @@ def _scan(code, agent, t, o2, air, n2o, dial, et, n_agents, none_code, gap_limit
         # A run starts after a row that is not high, ends before a gap, or is the case's last.
         prev_end = (not same_next) or (not high) or is_gap
         lng = run_len if high else 0.0
-        if i == first[g]:
-            longest = lng
-        elif lng > longest:
+        if count == 0 or lng > longest:
             longest = lng
         b = 0
-        while b < len(edges) and edges[b] < fgf:
+        while b < ne and edges[b] < fgf:
             b += 1
         reb = 1.0 - fgf / ve
         if reb < 0.0:
             reb = 0.0
         elif reb > 1.0:
             reb = 1.0
-        samples[g] += 1
+        count += 1
         if is_gap:
-            gaps[g] += 1
-        sums[g, 0] += dt
-        sums[g, 1] += dt_raw if is_gap else 0.0
-        sums[g, 2] += dt if from_et else 0.0
-        sums[g, 3] += x_o2 * dt
-        sums[g, 4] += x_air * dt
-        sums[g, 5] += x_n2o * dt
-        sums[g, 6] += fgf * dose * dt
-        sums[g, 7] += reb * dt
-        sums[g, 8] = longest
-        band_min[g, b] += dt
+            n_gaps += 1
+        s_dt += dt
+        s_gap += dt_raw if is_gap else 0.0
+        s_et += dt if from_et else 0.0
+        s_o2 += x_o2 * dt
+        s_air += x_air * dt
+        s_n2o += x_n2o * dt
+        s_vap += fgf * dose * dt
+        s_reb += reb * dt
+        bands[b] += dt
+    if g >= 0:
+        samples[g], gaps[g] = count, n_gaps
+        sums[g, 0], sums[g, 1], sums[g, 2], sums[g, 3], sums[g, 4] = s_dt, s_gap, s_et, s_o2, s_air
+        sums[g, 5], sums[g, 6], sums[g, 7], sums[g, 8] = s_n2o, s_vap, s_reb, longest
+        band_min[g, :] = bands
     return groups, first, samples, gaps, sums, band_min, gap
 
 

@@ -74,7 +74,10 @@ def _text_codes(col) -> _Texts:
     names = recoded.dictionary
     remap = np.append(recoded.indices.fill_null(len(names)).to_numpy(zero_copy_only=False).astype(np.int64),
                       len(names))
-    idx = arr.indices.fill_null(-1).to_numpy(zero_copy_only=False).astype(np.int64)
+    indices = arr.indices if arr.null_count == 0 else arr.indices.fill_null(-1)
+    idx = np.asarray(indices.to_numpy(zero_copy_only=False), dtype=np.int64)
+    if arr.null_count == 0 and np.array_equal(remap[:-1], np.arange(len(remap) - 1)):
+        return _Texts(idx, names)  # each value already trimmed, distinct and present: codes as read
     return _Texts(remap[idx], names)  # index -1 (missing) takes the last entry: missing
 
 
@@ -423,6 +426,19 @@ def _numpy_engine(recs: Records, high_flow_l_min: float, minute_ventilation_l_mi
     return raw, counts, time_rows, gap_rows
 
 
+def _month_text(month) -> list:
+    """"%Y-%m" text of each date or time ("unknown" when missing), each distinct month
+    formatted once (a year's cases fall in a few months)."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    secs = pc.cast(month, "timestamp[s]", safe=False)
+    months = secs.to_numpy(zero_copy_only=False).astype("datetime64[M]")
+    uniq, inv = np.unique(months, return_inverse=True)
+    text = pc.strftime(pa.array(uniq.astype("datetime64[s]"), pa.timestamp("s")), "%Y-%m").fill_null("unknown")
+    return np.array(text.to_pylist(), dtype=object)[inv.reshape(-1)].tolist()
+
+
 def _case_frame(table, texts, theatre_code, vfirst, case_of_group, agent_of_group, sums) -> pd.DataFrame:
     """The per-case table of either path: names and start of each group's first row, then its sums."""
     import pyarrow as pa
@@ -433,8 +449,7 @@ def _case_frame(table, texts, theatre_code, vfirst, case_of_group, agent_of_grou
         theatre = [names[k] if names[k] is not None else "unknown" for k in theatre_code[vfirst]]
     else:
         theatre = _column(table, "theatre").take(vfirst).fill_null("unknown").to_pylist()
-    month = _column(table, "month").take(vfirst)
-    month = pc.strftime(pc.cast(month, "timestamp[s]", safe=False), "%Y-%m").fill_null("unknown").to_pylist()
+    month = _month_text(_column(table, "month").take(vfirst))
     # The first valid sample of a group is its earliest (valid samples rise in time).
     start = _column(table, "start_hint").take(vfirst)
     if pa.types.is_timestamp(start.type):  # the SQL's TIMESTAMP: microseconds
