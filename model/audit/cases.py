@@ -38,25 +38,27 @@ def case_results(raw: pd.DataFrame, reference: Reference, gwp_source: str, tempe
     c.insert(2, "cases", np.ones(n, dtype=np.int64))
     n2o = reference.agents["nitrous_oxide"]
     prices = reference.prices
-    for col in ("liquid_agent_ml", "bottles", "agent_mass_g", "agent_emitted_g", "co2e_agent_kg",
-                "cost_agent"):
-        c[col] = 0.0
+    # Each agent's cases worked out together in numpy, the columns set once.
+    cols = {col: np.zeros(n) for col in ("liquid_agent_ml", "bottles", "agent_mass_g", "agent_emitted_g",
+                                         "co2e_agent_kg", "cost_agent")}
     agents = c["agent"].to_numpy()
+    vapour = c["vapour_integral"].to_numpy(dtype=float)
     for name in pd.unique(agents):
         if name == "none":
             continue
         mask = agents == name
         agent = reference.volatile(name)
-        s = c.loc[mask, "vapour_integral"].to_numpy(dtype=float)
-        liquid = liquid_used_ml(s, 1.0, 1.0, agent, temperature_c, pressure_kpa)
+        liquid = liquid_used_ml(vapour[mask], 1.0, 1.0, agent, temperature_c, pressure_kpa)
         grams = liquid * agent.liquid_density
         emitted = emitted_mass_g(grams, 0.0, agent.metabolised_fraction, capture_efficiency)
-        c.loc[mask, "liquid_agent_ml"] = liquid
-        c.loc[mask, "bottles"] = liquid / agent.bottle_volume
-        c.loc[mask, "agent_mass_g"] = grams
-        c.loc[mask, "agent_emitted_g"] = emitted
-        c.loc[mask, "co2e_agent_kg"] = co2e_kg(emitted, reference.gwp(agent.name, gwp_source))
-        c.loc[mask, "cost_agent"] = case_costs(liquid, 0.0, 0.0, 0.0, 0.0, agent, prices)["agent"]
+        cols["liquid_agent_ml"][mask] = liquid
+        cols["bottles"][mask] = liquid / agent.bottle_volume
+        cols["agent_mass_g"][mask] = grams
+        cols["agent_emitted_g"][mask] = emitted
+        cols["co2e_agent_kg"][mask] = co2e_kg(emitted, reference.gwp(agent.name, gwp_source))
+        cols["cost_agent"][mask] = case_costs(liquid, 0.0, 0.0, 0.0, 0.0, agent, prices)["agent"]
+    for col, values in cols.items():
+        c[col] = values
     c["nitrous_oxide_g"] = gas_mass_g(c["nitrous_oxide_l"].to_numpy(dtype=float), n2o.molar_mass,
                                       temperature_c, pressure_kpa)
     c["nitrous_oxide_emitted_g"] = emitted_mass_g(c["nitrous_oxide_g"].to_numpy(), 0.0,
