@@ -145,3 +145,43 @@ def test_a_clean_file_takes_the_fast_reading(tmp_path):
         assert memory.read_parquet_file(recs, 0)[0] is not None
     finally:
         recs.close()
+
+
+def test_a_clean_parquet_audit_never_opens_duckdb(tmp_path, monkeypatch):
+    # The compiled path needs no SQL: duckdb's connection (and its views) open only when a
+    # query needs them, e.g. for a file with a bad row.
+    import model.io.records as records
+
+    opened = []
+    real = records.connect
+    monkeypatch.setattr(records, "connect", lambda *a, **k: opened.append(1) or real(*a, **k))
+    clean = write(generate(1500, seed=6), tmp_path / "clean.parquet")
+    result = audit_records([clean], engine="files", memory_limit="2GB")
+    assert opened == [] and result.report.rows_read == 1500
+    df = generate(1500, seed=6).astype({"agent": str})
+    df.loc[7, "agent"] = "argon"
+    messy = write(df, tmp_path / "messy.parquet")
+    result = audit_records([messy], engine="files")
+    assert opened == [1] and result.report.set_aside["unknown_agent"] == 1
+
+
+@pytest.mark.parametrize("size", ["3GB", "3 gb", "1.5GB", "500MB", "3GiB", "100KB", "1TB", "1000B", "3G", "2M",
+                                  "80%", "3 bytes"])
+def test_memory_limits_kept_for_later_are_ones_duckdb_takes(size):
+    # Reference: duckdb itself (its SET memory_limit parser); a size our check lets wait
+    # must not fail when the connection opens later.
+    import duckdb
+
+    from model.io.records import _plain_size
+
+    assert _plain_size(size)
+    duckdb.connect().execute(f"SET memory_limit = '{size}'")
+
+
+def test_a_memory_limit_duckdb_refuses_is_told_at_once(tmp_path):
+    from model.errors import InputError
+
+    path = write(generate(300, seed=1), tmp_path / "r.parquet")
+    for bad in ("lots", "3", "3 parsecs"):
+        with pytest.raises(InputError, match="memory-limit"):
+            audit_records([path], memory_limit=bad)

@@ -34,6 +34,7 @@ filled: the interval is left out of every sum, and the rows on both sides are ke
 from __future__ import annotations
 
 import os
+import re
 import tempfile
 from pathlib import Path
 from typing import Callable
@@ -196,6 +197,66 @@ def connect(memory_limit: str | None = None, threads: int | None = None):
     return con, tmp
 
 
+_SIZE = re.compile(r"^\s*[0-9]+(\.[0-9]+)?\s*(b|bytes|kb|mb|gb|tb|kib|mib|gib|tib|k|m|g|t|%)\s*$", re.IGNORECASE)
+
+
+def _plain_size(memory_limit) -> bool:
+    """True when there is no memory limit or it is a size duckdb surely takes ("3GB",
+    "500 MB", "80%"); any other text is handed to duckdb at once, which says if it is wrong."""
+    return memory_limit is None or bool(_SIZE.match(str(memory_limit)))
+
+
+class LazyConnection:
+    """A duckdb connection (:func:`connect`) opened on first use.
+
+    Until then, settings and views (``SET ...``, ``CREATE ...`` statements run with
+    ``execute``) are kept in order and run when the connection opens; any other use opens
+    it. Opening runs them inside :func:`model.io.record_files.file_failures`, so a file
+    duckdb cannot read is named as when the views are made at once.
+    """
+
+    def __init__(self, memory_limit, threads, specs):
+        self._args = (memory_limit, threads)
+        self._specs = specs
+        self._con = None
+        self._tmp = None
+        self._pending: list[str] = []
+
+    @property
+    def opened(self) -> bool:
+        return self._con is not None
+
+    def _open(self):
+        if self._con is None:
+            con, self._tmp = connect(*self._args)
+            self._con = con
+            with file_failures(self._specs):
+                for sql in self._pending:
+                    con.execute(sql)
+            self._pending = []
+        return self._con
+
+    def execute(self, sql, *args):
+        words = sql.split(None, 1)
+        if self._con is None and not args and words and words[0].upper() in ("SET", "CREATE"):
+            self._pending.append(sql)
+            return self
+        return self._open().execute(sql, *args)
+
+    def __getattr__(self, name):
+        return getattr(self._open(), name)
+
+    def close(self) -> None:
+        import shutil
+
+        try:
+            if self._con is not None:
+                self._con.close()
+        finally:
+            if self._tmp:
+                shutil.rmtree(self._tmp, ignore_errors=True)
+
+
 def _cores() -> int:
     """Cores this process may run on."""
     try:
@@ -341,7 +402,12 @@ def read_records(paths, *, reference: Reference = DEFAULT_REFERENCE,
     files = expand_paths(paths if not isinstance(paths, (str, os.PathLike)) else [paths])
     step(0.0, f"Reading the headers of {len(files)} file(s)")
     specs = [inspect_file(f) for f in files]
-    con, tmp = connect(memory_limit, threads)
+    if all(s.format == "parquet" for s in specs) and _plain_size(memory_limit):
+        # Parquet only: duckdb opens when a query first needs it (the compiled path of a
+        # clean file never does); its settings and views are kept until then.
+        con, tmp = LazyConnection(memory_limit, threads, specs), None
+    else:
+        con, tmp = connect(memory_limit, threads)
     try:
         with file_failures(specs):
             report, rej_rows, gl, per_file = _build_views(con, tmp, specs, reference, gap_limit_min, step)
@@ -349,7 +415,8 @@ def read_records(paths, *, reference: Reference = DEFAULT_REFERENCE,
         import shutil
 
         con.close()
-        shutil.rmtree(tmp, ignore_errors=True)
+        if tmp:
+            shutil.rmtree(tmp, ignore_errors=True)
         raise
     recs = Records(con, specs, report, gl, reference, tmp)
     #: Each file's ``prepared`` query and row count, and the agent names as read.
