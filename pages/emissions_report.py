@@ -255,8 +255,7 @@ with tabs[4]:
         st.caption("Add purchases files to set purchase-based figures beside the use-based ones.")
     else:
         _chart("Use-based and purchase-based", "er_purchases")
-        st.dataframe(shown(pr.use_vs_purchase), hide_index=True, width="stretch",
-                     column_config={"gap_share": st.column_config.NumberColumn(format="percent")})
+        st.dataframe(shown(pr.use_vs_purchase), hide_index=True, width="stretch")
         st.caption("Gap = purchased - used: stock held over, wastage, use not recorded and, for piped N2O, "
                    "losses from manifolds and pipework.")
         sites_against_purchases(report)

@@ -10,6 +10,7 @@ import streamlit as st
 from model.report.periods import PERIOD_FORMS
 
 from .common import md
+from .format import readable_frame
 
 PERIOD_KINDS = ("Calendar year", "Financial year", "Quarter", "Date range", "As written")
 MONTHS = ("January", "February", "March", "April", "May", "June", "July", "August", "September", "October",
@@ -59,8 +60,8 @@ def target_input(key: str, default_year: int) -> str | None:
 
 
 def shown(df):
-    """A table for the screen: numbers to two decimals."""
-    return df.round(2)
+    """A table for the screen: headings in words with units, figures rounded (``ui.format.readable_frame``)."""
+    return readable_frame(df)
 
 
 def sites_against_purchases(report) -> None:
@@ -76,13 +77,14 @@ def sites_against_purchases(report) -> None:
                    "(docs/formats.md, 'Purchases') to compare site by site.")
         return
     lab = report.gwp_label
-    st.dataframe(shown(table), hide_index=True, width="stretch", key="er_sites_vs_purchases", column_config={
+    st.dataframe(table, hide_index=True, width="stretch", key="er_sites_vs_purchases", column_config={
         "site": "Site", "note": "Note",
-        "use_based_t_co2e": st.column_config.NumberColumn(f"Use-based t CO2e ({lab})", format="%.2f"),
-        "purchase_based_t_co2e": st.column_config.NumberColumn(f"Purchase-based t CO2e ({lab})", format="%.2f"),
-        "gap_t_co2e": st.column_config.NumberColumn("Gap t CO2e (purchase-based - use-based)", format="%+.2f"),
-        "gap_share": st.column_config.NumberColumn("Gap, share of purchase-based", format="percent")})
-    st.caption(md(f"Totals over the rows: use-based {table['use_based_t_co2e'].sum():,.2f} t CO2e, purchase-based "
+        "use_based_t_co2e": st.column_config.NumberColumn("Use-based t CO2e", format="%.2f"),
+        "purchase_based_t_co2e": st.column_config.NumberColumn("Purchase-based t CO2e", format="%.2f"),
+        "gap_t_co2e": st.column_config.NumberColumn("Gap t CO2e", format="%+.2f"),
+        "gap_share": st.column_config.NumberColumn("Gap share", format="percent")})
+    st.caption(md(f"CO2e at {lab}; gap = purchase-based - use-based, its share of purchase-based. "
+                  f"Totals over the rows: use-based {table['use_based_t_co2e'].sum():,.2f} t CO2e, purchase-based "
                   f"{table['purchase_based_t_co2e'].sum():,.2f} t CO2e, the figures of the whole report. "
                   "Rows noted 'named in purchases only' are sites the site file and the records do not hold; "
                   "'no site' is purchases that name none."))

@@ -76,6 +76,12 @@ _LABELS: dict[str, str] = {
     "end_tidal_mac_hours": "MAC-hours, end-tidal",
     # reference
     "basis": "basis", "source": "source", "default": "default (before your value)", "default_source": "source of the default",
+    # emissions report: by month and site, use against purchases
+    "t_co2e_agent": "volatile agents (t CO2e)", "t_co2e_n2o": "nitrous oxide (t CO2e)", "t_co2e": "total (t CO2e)",
+    "kg_co2e_per_case": "per case (kg CO2e)", "kg_co2e_per_hour": "per anaesthetic hour (kg CO2e)",
+    "emitted_kg": "emitted (kg)", "use_kg": "used (kg)", "purchase_kg": "purchased (kg)", "gap_kg": "gap (kg)",
+    "gap_share": "gap, share of purchased (%)", "use_t_co2e": "use-based (t CO2e)",
+    "purchase_t_co2e": "purchase-based (t CO2e)", "gap_t_co2e": "gap (t CO2e)",
 }
 for _a in VOLATILES:
     _name = AGENTS[_a].label
@@ -88,7 +94,7 @@ COLUMN_LABELS: Mapping[str, str] = _LABELS
 
 #: Columns of money (two decimals) and of whole counts.
 _MONEY = re.compile(r"^cost(_|,| \(|$)", re.IGNORECASE)
-_PERCENT_SHARES = ("unexplained_share", "unexplained_share_with_records")
+_PERCENT_SHARES = ("unexplained_share", "unexplained_share_with_records", "gap_share")
 
 #: Problem kinds of the records check (``model.io.record_report.ISSUE_KINDS``) in words.
 PROBLEM_WORDS: Mapping[str, str] = {
