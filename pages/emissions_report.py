@@ -242,8 +242,7 @@ with tabs[0]:
 with tabs[1]:
     _chart("Emissions by agent", "er_agents")
     st.dataframe(shown(report.figures_table()), hide_index=True, width="stretch")
-    st.dataframe(shown(pr.by_agent), hide_index=True, width="stretch",
-                 column_config={"share": st.column_config.NumberColumn(format="percent")})
+    st.dataframe(shown(pr.by_agent), hide_index=True, width="stretch")
 with tabs[2]:
     _chart("Emissions by month", "er_months")
     st.dataframe(shown(pr.by_month), hide_index=True, width="stretch")

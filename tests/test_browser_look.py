@@ -32,7 +32,9 @@ A4_PX = 794
 #: (page title in the navigation, file slug, text shown once the page has its results)
 PAGES = (("Case plan", "case_plan", "What this case uses"), ("Compare", "compare", "Against the baseline"),
          ("Department year", "department_year", "Bottles bought per month"),
-         ("Record audit", "record_audit", "Rows set aside"), ("Reference", "reference", "Your values"))
+         ("Record audit", "record_audit", "Rows set aside"),
+         ("Emissions report", "emissions_report", "Scope 1 anaesthetic emissions"),
+         ("Reference", "reference", "Your values"))
 
 #: Tick labels outside their figure's svg, and tick labels that overlap an axis title.
 TICKS_OUTSIDE = """() => {

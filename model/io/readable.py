@@ -82,6 +82,8 @@ _LABELS: dict[str, str] = {
     "emitted_kg": "emitted (kg)", "use_kg": "used (kg)", "purchase_kg": "purchased (kg)", "gap_kg": "gap (kg)",
     "gap_share": "gap, share of purchased (%)", "use_t_co2e": "use-based (t CO2e)",
     "purchase_t_co2e": "purchase-based (t CO2e)", "gap_t_co2e": "gap (t CO2e)",
+    "use_based_t_co2e": "use-based (t CO2e)", "purchase_based_t_co2e": "purchase-based (t CO2e)",
+    "co2e_share": "share of CO2e (%)", "hours": "anaesthetic hours (h)",
 }
 for _a in VOLATILES:
     _name = AGENTS[_a].label
@@ -94,7 +96,7 @@ COLUMN_LABELS: Mapping[str, str] = _LABELS
 
 #: Columns of money (two decimals) and of whole counts.
 _MONEY = re.compile(r"^cost(_|,| \(|$)", re.IGNORECASE)
-_PERCENT_SHARES = ("unexplained_share", "unexplained_share_with_records", "gap_share")
+_PERCENT_SHARES = ("unexplained_share", "unexplained_share_with_records", "gap_share", "co2e_share")
 
 #: Problem kinds of the records check (``model.io.record_report.ISSUE_KINDS``) in words.
 PROBLEM_WORDS: Mapping[str, str] = {

@@ -181,7 +181,7 @@ def by_agent_table(cases: pd.DataFrame, reference: Reference, gwp_sources) -> pd
     -------
     DataFrame
         ``item``, ``cases``, ``hours`` [h], ``emitted_kg`` [kg], one ``t CO2e (<label>)``
-        column per source and ``share`` (of the chosen source's total).
+        column per source and ``co2e_share`` (of the chosen source's total).
     """
     rows = []
     volatile = cases[cases["agent"] != "none"]
@@ -196,7 +196,7 @@ def by_agent_table(cases: pd.DataFrame, reference: Reference, gwp_sources) -> pd
                  **{s: kg * _gwp(reference, "nitrous_oxide", s, kg > 0) / 1000.0 for s in gwp_sources}})
     df = pd.DataFrame(rows)
     total = df[gwp_sources[0]].sum()
-    df["share"] = df[gwp_sources[0]] / total if total > 0 else 0.0
+    df["co2e_share"] = df[gwp_sources[0]] / total if total > 0 else 0.0
     return df.rename(columns={s: f"t CO2e ({reference.gwp_source(s).label})" for s in gwp_sources})
 
 
