@@ -100,8 +100,9 @@ inputs_col, headline_col = st.columns([7, 3], gap="small")
 headline = headline_col.container(border=True)
 with inputs_col.container(border=True):
     c1, c2, c3 = st.columns([3, 1, 1], vertical_alignment="bottom")
-    c1.selectbox("Open a saved plan", names, key="cp_open_name",
-                 index=names.index(ss["cp_base"].name) if ss["cp_base"].name in names else 0)
+    if names and ss.get("cp_open_name") not in names:  # the default: the plan being edited, else the first
+        ss["cp_open_name"] = ss["cp_base"].name if ss["cp_base"].name in names else names[0]
+    c1.selectbox("Open a saved plan", names, key="cp_open_name")
     history = store.history("plan", ss["cp_open_name"]) if ss.get("cp_open_name") in names else []
     c2.selectbox("Version", ["latest"] + [str(v.version) for v in history], key="cp_open_version")
     c3.button("Open", on_click=_open_selected, icon=":material/folder_open:", width="stretch")
