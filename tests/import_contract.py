@@ -15,7 +15,7 @@ import graphlib
 from pathlib import Path
 
 LAYERS = (
-    ("base", ("model.errors", "model.units", "model.files")),
+    ("base", ("model.errors", "model.units", "model.files", "model.lazy")),
     ("reference", ("model.reference",)),
     ("physics", ("model.vapour", "model.freshgas", "model.mac", "model.patient", "model.uptake",
                  "model.circle", "model.emissions", "model.plan", "model.case", "model.sweep",

@@ -8,8 +8,9 @@ Importing it imports plotly.
 
 from __future__ import annotations
 
-import importlib
 from typing import TYPE_CHECKING
+
+from model.lazy import lazy_exports
 
 # Each public name and the module it lives in, imported on first use (PEP 562): the
 # dashboard's first page needs the colours and template, not the report's figures (which
@@ -29,18 +30,7 @@ __all__ = ["AGENT_COLOURS", "AXIS", "CO2E_COLOUR", "COST_COLOUR", "DANGER", "FLO
            "new_figure", "report_figures", "rgba", "target_figure", "use_purchase_figure", "waterfall_figure"]
 
 
-def __getattr__(name: str):
-    """Import a public name's module on first use (PEP 562) and keep the name here."""
-    module = _HOME.get(name)
-    if module is None:
-        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
-    value = getattr(importlib.import_module(module), name)
-    globals()[name] = value
-    return value
-
-
-def __dir__() -> list[str]:
-    return sorted(set(globals()) | set(__all__))
+__getattr__, __dir__ = lazy_exports(__name__, _HOME, globals(), __all__)
 
 
 if TYPE_CHECKING:   # what static tools read (type checkers, the API pages); at run time __getattr__ imports

@@ -6,8 +6,9 @@ and what is allowed; a file of many rows sets each bad row aside and uses the re
 
 from __future__ import annotations
 
-import importlib
 from typing import TYPE_CHECKING
+
+from model.lazy import lazy_exports
 
 # Each public name and the module it lives in. A module is imported when one of its names is
 # first used (PEP 562), not with the package: reading a plan does not load the record
@@ -34,18 +35,7 @@ __all__ = [
 ]
 
 
-def __getattr__(name: str):
-    """Import a public name's module on first use (PEP 562) and keep the name here."""
-    module = _HOME.get(name)
-    if module is None:
-        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
-    value = getattr(importlib.import_module(module), name)
-    globals()[name] = value
-    return value
-
-
-def __dir__() -> list[str]:
-    return sorted(set(globals()) | set(__all__))
+__getattr__, __dir__ = lazy_exports(__name__, _HOME, globals(), __all__)
 
 
 if TYPE_CHECKING:   # what static tools read (type checkers, the API pages); at run time __getattr__ imports
