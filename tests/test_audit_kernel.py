@@ -150,11 +150,11 @@ def test_a_clean_file_takes_the_fast_reading(tmp_path):
 def test_a_clean_parquet_audit_never_opens_duckdb(tmp_path, monkeypatch):
     # The compiled path needs no SQL: duckdb's connection (and its views) open only when a
     # query needs them, e.g. for a file with a bad row.
-    import model.io.records as records
+    import model.io.duckdb_connection as duck
 
     opened = []
-    real = records.connect
-    monkeypatch.setattr(records, "connect", lambda *a, **k: opened.append(1) or real(*a, **k))
+    real = duck.connect
+    monkeypatch.setattr(duck, "connect", lambda *a, **k: opened.append(1) or real(*a, **k))
     clean = write(generate(1500, seed=6), tmp_path / "clean.parquet")
     result = audit_records([clean], engine="files", memory_limit="2GB")
     assert opened == [] and result.report.rows_read == 1500
@@ -172,9 +172,9 @@ def test_memory_limits_kept_for_later_are_ones_duckdb_takes(size):
     # must not fail when the connection opens later.
     import duckdb
 
-    from model.io.records import _plain_size
+    from model.io.duckdb_connection import plain_size
 
-    assert _plain_size(size)
+    assert plain_size(size)
     duckdb.connect().execute(f"SET memory_limit = '{size}'")
 
 

@@ -8,7 +8,7 @@ import pandas as pd
 from model.audit.result import BAND_COLUMNS
 from model.circle import rebreathed_share
 from model.freshgas import FLOW_BANDS
-from model.io.record_files import RecordFile, file_failures
+from model.io.record_files import file_failures
 from model.io.record_report import Records
 
 
@@ -442,7 +442,6 @@ def _month_text(month) -> list:
 def _case_frame(table, texts, theatre_code, vfirst, case_of_group, agent_of_group, sums) -> pd.DataFrame:
     """The per-case table of either path: names and start of each group's first row, then its sums."""
     import pyarrow as pa
-    import pyarrow.compute as pc
 
     if texts:
         names = texts["theatre"].values.to_pylist() + [None]

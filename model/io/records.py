@@ -34,8 +34,6 @@ filled: the interval is left out of every sum, and the rows on both sides are ke
 from __future__ import annotations
 
 import os
-import re
-import tempfile
 from pathlib import Path
 from typing import Callable
 
@@ -46,6 +44,7 @@ from model.errors import InputError
 from model.freshgas import FLOW_BANDS
 from model.io.csv_lines import split_csv_lines
 from model.io.record_files import DEFAULT_GAP_LIMIT_MIN, is_numeric_type, is_time_type, MAX_FLOW_L_MIN, MAX_TOTAL_FLOW_L_MIN, NUMBER_FIELDS, RecordFile, _ident, _sql_str, expand_paths, file_failures, inspect_file
+from model.io.duckdb_connection import LazyConnection, connect, plain_size
 from model.io.record_report import DEFAULT_MAX_MESSAGES, ReadReport, Records
 from model.reference import AIR_O2_FRACTION, DEFAULT_REFERENCE, Reference, normalise_agent_name
 
@@ -171,98 +170,6 @@ def _band_sql(expr: str) -> str:
     whens = " ".join(f"WHEN {expr} <= {upper!r} THEN {_sql_str(name)}"
                      for name, upper in FLOW_BANDS[:-1])
     return f"CASE {whens} ELSE {_sql_str(FLOW_BANDS[-1][0])} END"
-
-
-def connect(memory_limit: str | None = None, threads: int | None = None):
-    """A duckdb connection with bounded memory that spills to a temporary folder."""
-    import duckdb
-
-    tmp = tempfile.mkdtemp(prefix="gas-ledger-duckdb-")
-    con = duckdb.connect(config={"temp_directory": tmp, "preserve_insertion_order": True})
-    if memory_limit:
-        try:
-            con.execute(f"SET memory_limit = {_sql_str(memory_limit)}")
-        except duckdb.Error:
-            import shutil
-
-            con.close()
-            shutil.rmtree(tmp, ignore_errors=True)
-            raise InputError("--memory-limit", memory_limit,
-                             "a size with its unit, such as 3GB or 500MB") from None
-    # Threads from the machine: the cores this process may run on.
-    con.execute(f"SET threads = {int(threads) if threads else _cores()}")
-    # duckdb counts a query's progress (read by the audit's progress line) without drawing its own bar.
-    con.execute("SET enable_progress_bar = true")
-    con.execute("SET enable_progress_bar_print = false")
-    return con, tmp
-
-
-_SIZE = re.compile(r"^\s*[0-9]+(\.[0-9]+)?\s*(b|bytes|kb|mb|gb|tb|kib|mib|gib|tib|k|m|g|t|%)\s*$", re.IGNORECASE)
-
-
-def _plain_size(memory_limit) -> bool:
-    """True when there is no memory limit or it is a size duckdb surely takes ("3GB",
-    "500 MB", "80%"); any other text is handed to duckdb at once, which says if it is wrong."""
-    return memory_limit is None or bool(_SIZE.match(str(memory_limit)))
-
-
-class LazyConnection:
-    """A duckdb connection (:func:`connect`) opened on first use.
-
-    Until then, settings and views (``SET ...``, ``CREATE ...`` statements run with
-    ``execute``) are kept in order and run when the connection opens; any other use opens
-    it. Opening runs them inside :func:`model.io.record_files.file_failures`, so a file
-    duckdb cannot read is named as when the views are made at once.
-    """
-
-    def __init__(self, memory_limit, threads, specs):
-        self._args = (memory_limit, threads)
-        self._specs = specs
-        self._con = None
-        self._tmp = None
-        self._pending: list[str] = []
-
-    @property
-    def opened(self) -> bool:
-        return self._con is not None
-
-    def _open(self):
-        if self._con is None:
-            con, self._tmp = connect(*self._args)
-            self._con = con
-            with file_failures(self._specs):
-                for sql in self._pending:
-                    con.execute(sql)
-            self._pending = []
-        return self._con
-
-    def execute(self, sql, *args):
-        words = sql.split(None, 1)
-        if self._con is None and not args and words and words[0].upper() in ("SET", "CREATE"):
-            self._pending.append(sql)
-            return self
-        return self._open().execute(sql, *args)
-
-    def __getattr__(self, name):
-        return getattr(self._open(), name)
-
-    def close(self) -> None:
-        import shutil
-
-        try:
-            if self._con is not None:
-                self._con.close()
-        finally:
-            if self._tmp:
-                shutil.rmtree(self._tmp, ignore_errors=True)
-
-
-def _cores() -> int:
-    """Cores this process may run on."""
-    try:
-        return max(len(os.sched_getaffinity(0)), 1)
-    except AttributeError:  # not on Linux
-        return max(os.cpu_count() or 1, 1)
 
 
 def _csv_table(con, rf: RecordFile, index: int, report: ReadReport, folder: str):
@@ -402,7 +309,7 @@ def read_records(paths, *, reference: Reference = DEFAULT_REFERENCE,
     files = expand_paths(paths if not isinstance(paths, (str, os.PathLike)) else [paths])
     step(0.0, f"Reading the headers of {len(files)} file(s)")
     specs = [inspect_file(f) for f in files]
-    if all(s.format == "parquet" for s in specs) and _plain_size(memory_limit):
+    if all(s.format == "parquet" for s in specs) and plain_size(memory_limit):
         # Parquet only: duckdb opens when a query first needs it (the compiled path of a
         # clean file never does); its settings and views are kept until then.
         con, tmp = LazyConnection(memory_limit, threads, specs), None
