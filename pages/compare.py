@@ -11,7 +11,7 @@ import ui
 import ui.cautions
 import ui.provenance
 from model import InputError
-from model.case import Caution, is_unsafe, severity_of
+from model.cautions import Caution, is_unsafe, severity_of
 from model.io.exports import html_report
 from model.io.plans import plan_to_toml
 from ui import charts

@@ -18,7 +18,7 @@ LAYERS = (
     ("base", ("model.errors", "model.units", "model.files", "model.lazy")),
     ("reference", ("model.reference",)),
     ("physics", ("model.vapour", "model.freshgas", "model.mac", "model.patient", "model.uptake",
-                 "model.circle", "model.emissions", "model.plan", "model.case", "model.sweep",
+                 "model.circle", "model.emissions", "model.plan", "model.cautions", "model.case", "model.sweep",
                  "model.year")),
     ("formats", ("model.io",)),
     ("audit", ("model.audit",)),

@@ -189,7 +189,7 @@ def test_phase_consumption_vectorises_over_many_rows():
 
 def test_warnings_are_ranked_hazard_first_with_a_severity_each():
     """Issue 12 defect 4: a hypoxic mixture and O2 running out come before labelling notes."""
-    from model.case import SEVERITIES, is_unsafe, severity_of
+    from model.cautions import SEVERITIES, is_unsafe, severity_of
     plan = load_plan(DEMO / "lap_chole_low_flow.toml")
     # 0.5 L/min maintenance at 50 % O2: the textbook steady-state FiO2 mass balance
     # (FGF x FdO2 - VO2) / (FGF - VO2 - ...) has a numerator near zero at VO2 ~ 0.25 L/min.

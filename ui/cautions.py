@@ -1,7 +1,7 @@
 """Warnings on the pages, most severe first: hazards (hypoxic mixture, O2 running out) in their
 own style next to the headline figures, then cautions, then labelling notes; repeats grouped.
 
-The severity of each warning comes from the model (:class:`model.case.Caution`).
+The severity of each warning comes from the model (:class:`model.cautions.Caution`).
 """
 
 from __future__ import annotations
@@ -9,7 +9,7 @@ from __future__ import annotations
 import pandas as pd
 import streamlit as st
 
-from model.case import by_severity, is_unsafe, severity_of
+from model.cautions import by_severity, is_unsafe, severity_of
 
 from .common import md
 

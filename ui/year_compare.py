@@ -11,7 +11,7 @@ import ui.cautions
 import ui.provenance
 import ui.year_store
 from model import InputError
-from model.case import by_severity
+from model.cautions import by_severity
 from model.io.exports import html_report
 from model.year.compare import nonzero_rows
 

@@ -7,7 +7,7 @@ import math
 import sys
 
 from model.cli.common import CAUTION, EXIT_INPUT, _Parser, _reference, print_json, print_table
-from model.case import severity_of
+from model.cautions import severity_of
 from model.errors import InputError
 
 
@@ -58,7 +58,7 @@ def cmd_case(args) -> int:
     if result.warnings:
         print()
         print("Warnings:")
-        for w in result.warnings:       # most severe first (model.case.SEVERITIES)
+        for w in result.warnings:       # most severe first (model.cautions.SEVERITIES)
             print(f"  - {severity_of(w).upper()}: {w}")
     print()
     print(CAUTION)

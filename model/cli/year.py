@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import sys
 
-from model.case import by_severity, severity_of
+from model.cautions import by_severity, severity_of
 from model.cli.common import CAUTION, print_json, print_table
 from model.errors import InputError
 from model.year.inputs import MAX_DRAWS

@@ -6,7 +6,7 @@ from dataclasses import dataclass, field, replace
 
 import pandas as pd
 
-from model.case import by_severity, warnings_as_records
+from model.cautions import by_severity, warnings_as_records
 from model.errors import InputError
 from model.reference import DEFAULT_REFERENCE, Reference, VOLATILES
 from model.year.inputs import Scenario

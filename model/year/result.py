@@ -8,7 +8,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from model.case import is_unsafe, warnings_as_records
+from model.cautions import is_unsafe, warnings_as_records
 from model.errors import InputError
 from model.reference import DEFAULT_REFERENCE, GWP_SOURCES, Reference, VOLATILES
 from model.year.inputs import MONTHS, Scenario

@@ -8,7 +8,8 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from model.case import SLOW_TARGET_MIN, Caution, by_severity, simulation_totals
+from model.case import simulation_totals
+from model.cautions import SLOW_TARGET_MIN, Caution, by_severity
 from model.circle import simulate_cases
 from model.errors import InputError
 from model.plan import CasePlan, check_dials
@@ -365,7 +366,7 @@ def _assemble(scenario: Scenario, ref: Reference, subplans: list[SubPlan], cols,
 
 
 def _subplan_warnings(out: dict, ctype: CaseType, sub: SubPlan, where, groups, ref: Reference) -> None:
-    """Cautions of a sub-plan from its simulation (the checks of :func:`model.case.case_warnings`)."""
+    """Cautions of a sub-plan from its simulation (the checks of :func:`model.cautions.case_warnings`)."""
     if not where:
         return
     plan, s = sub.plan, sub.plan.settings
@@ -409,7 +410,7 @@ def _subplan_warnings(out: dict, ctype: CaseType, sub: SubPlan, where, groups, r
                     f"at {fgf:.2f} L/min (vaporizer maximum {ref.agents[sub.agent].vaporizer_max:g} "
                     f"%); raise the flow or allow longer")
             elif reach and max(reach) > SLOW_TARGET_MIN:
-                # The slow response of low flow, as for a single case (model.case.case_warnings).
+                # The slow response of low flow, as for a single case (model.cautions.case_warnings).
                 add(f"{at}: end-tidal reaches the target of {p.target_mac:g} MAC only after "
                     f"{max(reach):.0f} min at {fgf:.2f} L/min")
     worst = None
