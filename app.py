@@ -23,15 +23,19 @@ def _page(file: str, title: str, icon: str, default: bool = False):
 
 
 sections = {
-    "One case": [_page("case_plan.py", "Case plan", ":material/stethoscope:", default=True),
-                 _page("compare.py", "Compare", ":material/compare_arrows:")],
-    "The department": [_page("department_year.py", "Department year", ":material/calendar_month:"),
-                       _page("record_audit.py", "Record audit", ":material/fact_check:"),
-                       _page("emissions_report.py", "Emissions report", ":material/summarize:")],
+    "One case": [
+        _page("case_plan.py", "Case plan", ":material/stethoscope:", default=True),
+        _page("compare.py", "Compare", ":material/compare_arrows:"),
+    ],
+    "The department": [
+        _page("department_year.py", "Department year", ":material/calendar_month:"),
+        _page("record_audit.py", "Record audit", ":material/fact_check:"),
+        _page("emissions_report.py", "Emissions report", ":material/summarize:"),
+    ],
     "Data": [_page("reference.py", "Reference", ":material/menu_book:")],
 }
 sections = {name: [p for p in pages if p is not None] for name, pages in sections.items()}
-ui.state.keep_page_inputs()      # every page's inputs survive a visit to another page
+ui.state.keep_page_inputs()  # every page's inputs survive a visit to another page
 navigation = st.navigation({name: pages for name, pages in sections.items() if pages})
 
 with st.sidebar:

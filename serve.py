@@ -31,7 +31,8 @@ FIRST_PAGE = (HERE / "app.py", HERE / "pages" / "case_plan.py")
 
 def script_imports(path: Path) -> list[tuple[str, tuple[str, ...]]]:
     """``(module, names)`` of each top-level import statement of a script, in order
-    (``names`` empty for ``import module``; ``from __future__`` left out)."""
+    (``names`` empty for ``import module``; ``from __future__`` left out).
+    """
     out = []
     for node in ast.parse(path.read_text(encoding="utf-8")).body:
         if isinstance(node, ast.Import):
@@ -49,7 +50,8 @@ def warm_up(scripts=FIRST_PAGE) -> float:
             # As the import statement does: loads a submodule named in ``names`` ("from ui
             # import charts") and a name the model packages load on first use.
             __import__(module, fromlist=names)
-    from model.units import registry
+    from model.base.units import registry
+
     registry()
     return time.thread_time() - start
 
@@ -57,9 +59,12 @@ def warm_up(scripts=FIRST_PAGE) -> float:
 def _warm_up_logged() -> None:
     try:
         seconds = warm_up()
-    except Exception as exc:   # noqa: BLE001 - only a head start; a page reports a real error itself
-        print(f"gas-ledger: warm-up stopped ({type(exc).__name__}: {exc}); pages load as usual",
-              file=sys.stderr, flush=True)
+    except Exception as exc:  # noqa: BLE001 - only a head start; a page reports a real error itself
+        print(
+            f"gas-ledger: warm-up stopped ({type(exc).__name__}: {exc}); pages load as usual",
+            file=sys.stderr,
+            flush=True,
+        )
     else:
         print(f"gas-ledger: the first page's modules are loaded ({seconds:.1f} s CPU)", file=sys.stderr, flush=True)
 

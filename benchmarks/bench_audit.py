@@ -44,7 +44,7 @@ def _peak_mb() -> float:
 
 def measure_audit(files, memory_limit, repeats, engine="auto") -> dict:
     from model.audit.engine import audit_records
-    from model.units import registry
+    from model.base.units import registry
 
     registry()  # the unit registry is built once per process; not part of the audit
     times, cpu = [], []
@@ -53,8 +53,15 @@ def measure_audit(files, memory_limit, repeats, engine="auto") -> dict:
         r = audit_records(files, memory_limit=memory_limit, threads=None, engine=engine)
         times.append(time.perf_counter() - t)
         cpu.append(time.process_time() - c)
-    return {"seconds": min(times), "all_seconds": times, "cpu_seconds": min(cpu), "rows": r.report.rows_read,
-            "cases": int(r.total["cases"]), "peak_mb": _peak_mb(), "load": os.getloadavg()[0]}
+    return {
+        "seconds": min(times),
+        "all_seconds": times,
+        "cpu_seconds": min(cpu),
+        "rows": r.report.rows_read,
+        "cases": int(r.total["cases"]),
+        "peak_mb": _peak_mb(),
+        "load": os.getloadavg()[0],
+    }
 
 
 TEXT_COLUMNS = ["case_id", "theatre", "agent"]
@@ -88,13 +95,30 @@ def measure_numpy(files, repeats, all_columns=True) -> dict:
             del tb, tm, fgf, dial, dt
         times.append(time.perf_counter() - t)
         cpu.append(time.process_time() - c)
-    return {"seconds": min(times), "all_seconds": times, "cpu_seconds": min(cpu), "rows": rows, "check": total,
-            "peak_mb": _peak_mb(), "load": os.getloadavg()[0]}
+    return {
+        "seconds": min(times),
+        "all_seconds": times,
+        "cpu_seconds": min(cpu),
+        "rows": rows,
+        "check": total,
+        "peak_mb": _peak_mb(),
+        "load": os.getloadavg()[0],
+    }
 
 
 def _child(kind, files, memory_limit, repeats, engine="auto") -> dict:
-    cmd = [sys.executable, __file__, "--child", kind, "--repeats", str(repeats), "--engine", engine,
-           "--files", *map(str, files)]
+    cmd = [
+        sys.executable,
+        __file__,
+        "--child",
+        kind,
+        "--repeats",
+        str(repeats),
+        "--engine",
+        engine,
+        "--files",
+        *map(str, files),
+    ]
     if memory_limit:
         cmd += ["--memory-limit", memory_limit]
     out = subprocess.run(cmd, check=True, capture_output=True, text=True).stdout
@@ -108,15 +132,22 @@ def main(argv=None) -> int:
     ap.add_argument("--memory-limit", default="3GB", help="duckdb memory limit (default 3GB)")
     ap.add_argument("--repeats", type=int, default=None, help="runs of each (default 3 under 20M rows, else 1)")
     ap.add_argument("--keep", action="store_true", help="keep the generated data")
-    ap.add_argument("--engine", default="auto", choices=("auto", "files", "memory", "sql"),
-                    help="audit engine (default auto: file by file)")
+    ap.add_argument(
+        "--engine",
+        default="auto",
+        choices=("auto", "files", "memory", "sql"),
+        help="audit engine (default auto: file by file)",
+    )
     ap.add_argument("--child", choices=("audit", "numpy", "numpy-5"), help=argparse.SUPPRESS)
     ap.add_argument("--files", nargs="*", help=argparse.SUPPRESS)
     args = ap.parse_args(argv)
     repeats = args.repeats or (3 if args.rows <= 20_000_000 else 1)
     if args.child:
-        res = (measure_audit(args.files, args.memory_limit, repeats, args.engine) if args.child == "audit"
-               else measure_numpy(args.files, repeats, all_columns=args.child == "numpy"))
+        res = (
+            measure_audit(args.files, args.memory_limit, repeats, args.engine)
+            if args.child == "audit"
+            else measure_numpy(args.files, repeats, all_columns=args.child == "numpy")
+        )
         print(json.dumps(res))
         return 0
 
@@ -135,8 +166,10 @@ def main(argv=None) -> int:
         files = write_many(args.rows, out, seed=2025, rows_per_file=args.rows_per_file)
     gen = time.perf_counter() - t
     size = sum(f.stat().st_size for f in files)
-    print(f"data: {args.rows:,} rows in {len(files)} Parquet file(s), {size / 1e6:,.0f} MB, "
-          f"written in {gen:.1f} s under {out}")
+    print(
+        f"data: {args.rows:,} rows in {len(files)} Parquet file(s), {size / 1e6:,.0f} MB, "
+        f"written in {gen:.1f} s under {out}"
+    )
     try:
         print(f"load average before: {', '.join(f'{x:.1f}' for x in os.getloadavg())}")
         bare = _child("numpy", files, None, repeats)
@@ -145,17 +178,27 @@ def main(argv=None) -> int:
     finally:
         if not args.keep:
             shutil.rmtree(out, ignore_errors=True)
-    print(f"bare numpy pass, the audit's 9 columns: {bare['seconds']:8.2f} s (CPU {bare['cpu_seconds']:.2f} s)   "
-          f"peak {bare['peak_mb']:8,.0f} MB   load average {bare['load']:.1f}")
-    print(f"bare numpy pass, 5 columns (earlier figures): {bare5['seconds']:8.2f} s "
-          f"(CPU {bare5['cpu_seconds']:.2f} s)   load average {bare5['load']:.1f}")
-    print(f"audit ({args.engine}) : {audit['seconds']:8.2f} s (CPU {audit['cpu_seconds']:.2f} s)   "
-          f"peak {audit['peak_mb']:8,.0f} MB   load average {audit['load']:.1f}   "
-          f"({audit['rows']:,} rows, {audit['cases']:,} cases; runs {', '.join(f'{s:.2f}' for s in audit['all_seconds'])} s)")
-    print(f"ratio audit / bare pass over the same 9 columns: {audit['seconds'] / bare['seconds']:.1f} (wall), "
-          f"{audit['cpu_seconds'] / bare['cpu_seconds']:.1f} (CPU)")
-    print(f"ratio audit / bare pass over 5 columns: {audit['seconds'] / bare5['seconds']:.1f} (wall), "
-          f"{audit['cpu_seconds'] / bare5['cpu_seconds']:.1f} (CPU)")
+    print(
+        f"bare numpy pass, the audit's 9 columns: {bare['seconds']:8.2f} s (CPU {bare['cpu_seconds']:.2f} s)   "
+        f"peak {bare['peak_mb']:8,.0f} MB   load average {bare['load']:.1f}"
+    )
+    print(
+        f"bare numpy pass, 5 columns (earlier figures): {bare5['seconds']:8.2f} s "
+        f"(CPU {bare5['cpu_seconds']:.2f} s)   load average {bare5['load']:.1f}"
+    )
+    print(
+        f"audit ({args.engine}) : {audit['seconds']:8.2f} s (CPU {audit['cpu_seconds']:.2f} s)   "
+        f"peak {audit['peak_mb']:8,.0f} MB   load average {audit['load']:.1f}   "
+        f"({audit['rows']:,} rows, {audit['cases']:,} cases; runs {', '.join(f'{s:.2f}' for s in audit['all_seconds'])} s)"
+    )
+    print(
+        f"ratio audit / bare pass over the same 9 columns: {audit['seconds'] / bare['seconds']:.1f} (wall), "
+        f"{audit['cpu_seconds'] / bare['cpu_seconds']:.1f} (CPU)"
+    )
+    print(
+        f"ratio audit / bare pass over 5 columns: {audit['seconds'] / bare5['seconds']:.1f} (wall), "
+        f"{audit['cpu_seconds'] / bare5['cpu_seconds']:.1f} (CPU)"
+    )
     print(f"rows per second (audit): {audit['rows'] / audit['seconds']:,.0f}")
     return 0
 

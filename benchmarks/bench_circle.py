@@ -42,8 +42,16 @@ def make_cases(n, seed=3):
     air = np.stack([np.full(n, 3.0), maint * 0.4, np.zeros(n)])
     dial = np.stack([np.full(n, 6.0), np.full(n, np.nan), np.zeros(n)])
     target = np.stack([np.full(n, np.nan), np.full(n, 1.0), np.full(n, np.nan)])
-    return dict(minutes=minutes, o2_l_min=o2, air_l_min=air, n2o_l_min=0.0, dial_pct=dial, target_mac=target,
-                weight_kg=rng.uniform(40.0, 120.0, n), age_years=rng.uniform(18.0, 90.0, n))
+    return dict(
+        minutes=minutes,
+        o2_l_min=o2,
+        air_l_min=air,
+        n2o_l_min=0.0,
+        dial_pct=dial,
+        target_mac=target,
+        weight_kg=rng.uniform(40.0, 120.0, n),
+        age_years=rng.uniform(18.0, 90.0, n),
+    )
 
 
 def run_vectorised(agent, cases):
@@ -55,8 +63,10 @@ def run_vectorised(agent, cases):
 def run_loop(agent, cases, k):
     out = []
     for i in range(k):
-        one = {key: (v[:, i:i + 1] if np.ndim(v) == 2 else (v[i:i + 1] if np.ndim(v) == 1 else v))
-               for key, v in cases.items()}
+        one = {
+            key: (v[:, i : i + 1] if np.ndim(v) == 2 else (v[i : i + 1] if np.ndim(v) == 1 else v))
+            for key, v in cases.items()
+        }
         out.append(simulate_cases(agent, **one)["liquid_ml"][0])
     return np.array(out)
 
@@ -82,13 +92,18 @@ def main(argv):
     agree = np.max(np.abs(looped - sim["liquid_ml"][:k]) / sim["liquid_ml"][:k])
     vec = statistics.median(times)
     print(f"cases: {n:,} two-hour cases, sevoflurane, maintenance in target mode")
-    print(f"vectorised: median {vec:.3f} s, best {min(times):.3f} s  (goal {GOAL_S:.0f} s: "
-          f"{vec / GOAL_S:.2f} x the goal)")
-    print(f"per-case loop: {loop_per_case * 1000:.1f} ms per case over {k} cases; "
-          f"{loop_per_case * n:.1f} s projected for {n:,}; ratio {loop_per_case * n / vec:.0f}x")
+    print(
+        f"vectorised: median {vec:.3f} s, best {min(times):.3f} s  (goal {GOAL_S:.0f} s: {vec / GOAL_S:.2f} x the goal)"
+    )
+    print(
+        f"per-case loop: {loop_per_case * 1000:.1f} ms per case over {k} cases; "
+        f"{loop_per_case * n:.1f} s projected for {n:,}; ratio {loop_per_case * n / vec:.0f}x"
+    )
     print(f"agreement loop vs vectorised (liquid agent): {agree:.1e} relative")
-    print(f"peak traced memory: {peak / 2**20:.0f} MiB; process max RSS "
-          f"{resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024:.0f} MiB (goal under 1 GB)")
+    print(
+        f"peak traced memory: {peak / 2**20:.0f} MiB; process max RSS "
+        f"{resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024:.0f} MiB (goal under 1 GB)"
+    )
 
 
 if __name__ == "__main__":

@@ -15,11 +15,9 @@ temporary folder and deleted afterwards.
 from __future__ import annotations
 
 import argparse
-import math
 import sys
 import tempfile
 import time
-from dataclasses import replace
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -45,13 +43,15 @@ def largest_plan(folder: Path) -> Path:
     minutes = MAX_PHASE_MIN
     phases = "".join(
         f'[[phases]]\nname = "phase {i + 1}"\nduration = "{minutes:g} min"\n'
-        f'o2 = "{0.5 + (i % 3) * 0.5:g} L/min"\nair = "0.5 L/min"\n'
-        + ('dial = "2 %"\n' if i % 2 else "target = 1.0\n")
-        for i in range(MAX_PHASES))
+        f'o2 = "{0.5 + (i % 3) * 0.5:g} L/min"\nair = "0.5 L/min"\n' + ('dial = "2 %"\n' if i % 2 else "target = 1.0\n")
+        for i in range(MAX_PHASES)
+    )
     path = folder / "largest.toml"
-    path.write_text('format = "fresh-gas-ledger plan 1"\nname = "Largest valid plan"\n'
-                    'agent = "sevoflurane"\n[patient]\nweight = "70 kg"\nage = "40 year"\n' + phases,
-                    encoding="utf-8")
+    path.write_text(
+        'format = "fresh-gas-ledger plan 1"\nname = "Largest valid plan"\n'
+        'agent = "sevoflurane"\n[patient]\nweight = "70 kg"\nage = "40 year"\n' + phases,
+        encoding="utf-8",
+    )
     return path
 
 
@@ -61,13 +61,18 @@ def casemix_at_limits(folder: Path, types: int, spread: float) -> Path:
     (folder / "plans" / "p.toml").write_text(DEMO_PLAN.read_text(encoding="utf-8"), encoding="utf-8")
     rows = ["case_type,cases_per_year,median_duration,duration_spread,sevoflurane,desflurane,plan"]
     for i in range(types):
-        rows.append(f"type {i},{100 + i},{1440 - 0.5 * i:g},{spread:g},{0.5 + 0.5 * (i % 2):g},"
-                    f"{0.5 - 0.5 * (i % 2):g},plans/p.toml")
+        rows.append(
+            f"type {i},{100 + i},{1440 - 0.5 * i:g},{spread:g},{0.5 + 0.5 * (i % 2):g},"
+            f"{0.5 - 0.5 * (i % 2):g},plans/p.toml"
+        )
     mix = folder / f"mix_{types}_{spread:g}.csv"
     mix.write_text("\n".join(rows) + "\n", encoding="utf-8")
     scen = folder / f"scenario_{types}_{spread:g}.toml"
-    scen.write_text(f'format = "fresh-gas-ledger scenario 1"\nname = "limits"\ncase_mix = "{mix.name}"\n'
-                    "[uncertainty]\ndraws = 2000\nseed = 1\n", encoding="utf-8")
+    scen.write_text(
+        f'format = "fresh-gas-ledger scenario 1"\nname = "limits"\ncase_mix = "{mix.name}"\n'
+        "[uncertainty]\ndraws = 2000\nseed = 1\n",
+        encoding="utf-8",
+    )
     return scen
 
 
@@ -92,9 +97,11 @@ def main():
         folder = Path(tmp)
         plan = load_plan(largest_plan(folder))
         longest = max(p.minutes for p in plan.phases)
-        print(f"largest plan: {len(plan.phases)} phases of {longest:g} min "
-              f"({sum(p.minutes for p in plan.phases):g} min in all); "
-              f"steps per phase {steps_of_phase(longest)}")
+        print(
+            f"largest plan: {len(plan.phases)} phases of {longest:g} min "
+            f"({sum(p.minutes for p in plan.phases):g} min in all); "
+            f"steps per phase {steps_of_phase(longest)}"
+        )
         timed("case (largest valid plan)", lambda: compute_case(plan))
         timed("sweep (largest valid plan)", lambda: flow_sweep(plan))
         for spread in (0.0, 2.0):

@@ -36,8 +36,16 @@ sys.path.insert(0, str(ROOT))
 from model.store import STORE_ENV  # noqa: E402
 
 CHROMIUM = "/usr/bin/chromium"
-CHROMIUM_ARGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
-                 "--disable-background-networking", "--disable-component-update", "--disable-sync"]
+CHROMIUM_ARGS = [
+    "--headless",
+    "--no-sandbox",
+    "--disable-gpu",
+    "--disable-quic",
+    "--no-first-run",
+    "--disable-background-networking",
+    "--disable-component-update",
+    "--disable-sync",
+]
 #: Text the case-plan page shows once its figures are drawn.
 READY_TEXT = "What this case uses"
 #: The figure each session watches for its change.
@@ -96,8 +104,14 @@ def free_port() -> int:
 
 
 @contextlib.contextmanager
-def dashboard(store_path: Path | str, log: Path | None = None, start_timeout_s: float = 90.0,
-              app_root: Path | None = None, extra_args: tuple[str, ...] = (), entry: str = "serve.py"):
+def dashboard(
+    store_path: Path | str,
+    log: Path | None = None,
+    start_timeout_s: float = 90.0,
+    app_root: Path | None = None,
+    extra_args: tuple[str, ...] = (),
+    entry: str = "serve.py",
+):
     """Run the dashboard on a free loopback port; yields (url, log path). Stops it after.
 
     The app uses the store at ``store_path`` (a file, or a PostgreSQL URL); its output goes
@@ -115,10 +129,27 @@ def dashboard(store_path: Path | str, log: Path | None = None, start_timeout_s: 
     env = dict(os.environ, **{STORE_ENV: str(store_path)})
     with open(log, "wb") as out:
         proc = subprocess.Popen(
-            [sys.executable, "-m", "streamlit", "run", str(app_root / entry),
-             "--server.port", str(port), "--server.address", "127.0.0.1", "--server.headless", "true",
-             "--browser.gatherUsageStats", "false", *extra_args],
-            cwd=app_root, env=env, stdout=out, stderr=subprocess.STDOUT)
+            [
+                sys.executable,
+                "-m",
+                "streamlit",
+                "run",
+                str(app_root / entry),
+                "--server.port",
+                str(port),
+                "--server.address",
+                "127.0.0.1",
+                "--server.headless",
+                "true",
+                "--browser.gatherUsageStats",
+                "false",
+                *extra_args,
+            ],
+            cwd=app_root,
+            env=env,
+            stdout=out,
+            stderr=subprocess.STDOUT,
+        )
     url = f"http://127.0.0.1:{port}/"
     try:
         deadline = time.monotonic() + start_timeout_s
@@ -144,8 +175,7 @@ def dashboard(store_path: Path | str, log: Path | None = None, start_timeout_s: 
 
 async def _idle(page, timeout_ms: int) -> None:
     """Wait until the app's script has finished its run (Streamlit marks it on the app root)."""
-    await page.locator('[data-testid="stApp"][data-test-script-state="notRunning"]').wait_for(
-        timeout=timeout_ms)
+    await page.locator('[data-testid="stApp"][data-test-script-state="notRunning"]').wait_for(timeout=timeout_ms)
 
 
 async def _open_o2_cell(page, timeout_ms: int, attempts: int = 4):
@@ -198,8 +228,11 @@ async def _session(context, url: str, index: int, flow: str, timeout_ms: int) ->
         t0 = time.perf_counter()
         await page.goto(url, timeout=timeout_ms)
         await page.get_by_text(READY_TEXT).wait_for(timeout=timeout_ms)
-        value = (page.locator('[data-testid="stMetric"]').filter(has_text=WATCHED_METRIC)
-                 .locator('[data-testid="stMetricValue"]'))
+        value = (
+            page.locator('[data-testid="stMetric"]')
+            .filter(has_text=WATCHED_METRIC)
+            .locator('[data-testid="stMetricValue"]')
+        )
         await value.wait_for(timeout=timeout_ms)
         result.load_s = time.perf_counter() - t0
         result.before = (await value.inner_text()).strip()
@@ -215,16 +248,19 @@ async def _session(context, url: str, index: int, flow: str, timeout_ms: int) ->
                 break
             except Exception:  # noqa: BLE001
                 if attempt == EDIT_ATTEMPTS - 1:
-                    raise RuntimeError(f"the grid did not take the edit in {EDIT_ATTEMPTS} tries "
-                                       f"({await _state(page)})") from None
+                    raise RuntimeError(
+                        f"the grid did not take the edit in {EDIT_ATTEMPTS} tries ({await _state(page)})"
+                    ) from None
                 result.retries += 1
                 await page.keyboard.press("Escape")
         try:
             await page.wait_for_function(FIGURE_CHANGED, arg=[WATCHED_METRIC, result.before], timeout=timeout_ms)
         except Exception:  # noqa: BLE001
             shown = (await value.inner_text()).strip()
-            raise RuntimeError(f"the edit was taken but {WATCHED_METRIC!r} still shows {shown!r} after "
-                               f"{timeout_ms / 1000:g} s ({await _state(page)})") from None
+            raise RuntimeError(
+                f"the edit was taken but {WATCHED_METRIC!r} still shows {shown!r} after "
+                f"{timeout_ms / 1000:g} s ({await _state(page)})"
+            ) from None
         result.response_s = time.perf_counter() - t1
         result.after = (await value.inner_text()).strip()
         for kind in ("stException", "stAlertContentError"):
@@ -234,15 +270,13 @@ async def _session(context, url: str, index: int, flow: str, timeout_ms: int) ->
         result.errors.append(f"{type(exc).__name__}: {str(exc).splitlines()[0][:700]}")
         if os.environ.get(SHOTS_ENV):
             with contextlib.suppress(Exception):
-                await page.screenshot(path=f"{os.environ[SHOTS_ENV]}/load-session-{index}.png",
-                                      full_page=True)
+                await page.screenshot(path=f"{os.environ[SHOTS_ENV]}/load-session-{index}.png", full_page=True)
     finally:
         await page.close()
     return result
 
 
-async def _drive(url: str, sessions: int, concurrency: int, timeout_ms: int,
-                 warmup: bool) -> list[SessionResult]:
+async def _drive(url: str, sessions: int, concurrency: int, timeout_ms: int, warmup: bool) -> list[SessionResult]:
     from playwright.async_api import async_playwright
 
     gate = asyncio.Semaphore(concurrency)
@@ -252,6 +286,7 @@ async def _drive(url: str, sessions: int, concurrency: int, timeout_ms: int,
         # websocket); sharing one browser context only shares the cache of static files.
         context = await browser.new_context(viewport={"width": 1400, "height": 1000})
         try:
+
             async def one(i):
                 async with gate:
                     # Flows of 0.50, 0.55, ... L/min: each session asks for a figure of its own.
@@ -266,8 +301,13 @@ async def _drive(url: str, sessions: int, concurrency: int, timeout_ms: int,
             await browser.close()
 
 
-def run_load(sessions: int = 20, concurrency: int | None = None, timeout_s: float = 60.0,
-             store_path: Path | None = None, warmup: bool = True) -> LoadRun:
+def run_load(
+    sessions: int = 20,
+    concurrency: int | None = None,
+    timeout_s: float = 60.0,
+    store_path: Path | None = None,
+    warmup: bool = True,
+) -> LoadRun:
     """Start the dashboard, run ``sessions`` simulated users, stop it; return what happened.
 
     ``timeout_s`` bounds each step of a session (page load, response); the whole run is
@@ -303,9 +343,11 @@ def main(argv=None) -> int:
         parser.error("--sessions must be 1-200 and --concurrency 1-50 (the run stays bounded)")
     run = run_load(args.sessions, args.concurrency, args.timeout)
     ok = len(run.sessions) - len(run.failures)
-    print(f"sessions: {len(run.sessions)} ({min(args.concurrency, args.sessions)} at once), "
-          f"finished without error: {ok}, wall time {run.wall_s:.1f} s, cores {os.cpu_count()}, "
-          f"load average {os.getloadavg()[0]:.1f}")
+    print(
+        f"sessions: {len(run.sessions)} ({min(args.concurrency, args.sessions)} at once), "
+        f"finished without error: {ok}, wall time {run.wall_s:.1f} s, cores {os.cpu_count()}, "
+        f"load average {os.getloadavg()[0]:.1f}"
+    )
     print(f"page load:       {_figures([s.load_s for s in run.sessions])}")
     print(f"response (flow): {_figures([s.response_s for s in run.sessions])}")
     print(f"edits typed again: {sum(s.retries for s in run.sessions)}")

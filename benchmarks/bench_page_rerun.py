@@ -53,15 +53,17 @@ def _load() -> float:
 
 def cold_apptest(root: Path) -> tuple[float, float]:
     """Wall and CPU seconds of a new process that runs the case plan page once (AppTest)."""
-    code = ("import os, sys, time, tempfile\n"
-            "t0, c0 = time.perf_counter(), time.process_time()\n"
-            "os.environ['GAS_LEDGER_STORE'] = tempfile.mkdtemp() + '/s.sqlite3'\n"
-            f"sys.path.insert(0, {str(root)!r})\n"
-            "from streamlit.testing.v1 import AppTest\n"
-            f"at = AppTest.from_file({str(root / 'pages' / 'case_plan.py')!r}, default_timeout=120)\n"
-            "at.run()\n"
-            "assert not at.exception\n"
-            "print(time.perf_counter() - t0, time.process_time() - c0)\n")
+    code = (
+        "import os, sys, time, tempfile\n"
+        "t0, c0 = time.perf_counter(), time.process_time()\n"
+        "os.environ['GAS_LEDGER_STORE'] = tempfile.mkdtemp() + '/s.sqlite3'\n"
+        f"sys.path.insert(0, {str(root)!r})\n"
+        "from streamlit.testing.v1 import AppTest\n"
+        f"at = AppTest.from_file({str(root / 'pages' / 'case_plan.py')!r}, default_timeout=120)\n"
+        "at.run()\n"
+        "assert not at.exception\n"
+        "print(time.perf_counter() - t0, time.process_time() - c0)\n"
+    )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True, cwd=root)
     wall, cpu = out.stdout.split()[-2:]
     return float(wall), float(cpu)
@@ -70,7 +72,8 @@ def cold_apptest(root: Path) -> tuple[float, float]:
 def cold_browser(root: Path, entry: str = "serve.py") -> tuple[float, float, float]:
     """Seconds from starting ``streamlit run <entry>`` until the server answered, and from
     opening the app until "Liquid agent" shows: the first session after the server started
-    (cold), and a second session (warm server)."""
+    (cold), and a second session (warm server).
+    """
     sys.path.insert(0, str(ROOT / "benchmarks"))
     from bench_load import CHROMIUM, CHROMIUM_ARGS, dashboard
     from playwright.sync_api import sync_playwright
@@ -87,8 +90,7 @@ def cold_browser(root: Path, entry: str = "serve.py") -> tuple[float, float, flo
                 page = context.new_page()
                 t0 = time.perf_counter()
                 page.goto(url, timeout=120_000)
-                page.locator('[data-testid="stMetric"]').filter(has_text="Liquid agent").first.wait_for(
-                    timeout=120_000)
+                page.locator('[data-testid="stMetric"]').filter(has_text="Liquid agent").first.wait_for(timeout=120_000)
                 times.append(time.perf_counter() - t0)
                 context.close()
             browser.close()
@@ -137,28 +139,36 @@ def main(argv=None) -> int:
         cpu = statistics.median(r[1] for r in runs)
         med = statistics.median(xs)
         p90 = xs[int(0.9 * (len(xs) - 1))]
-        print(f"{name:<44} wall median {med:7.1f} ms  p90 {p90:7.1f} ms  median/goal {med / GOAL_MS:5.2f}"
-              f"   CPU median {cpu:6.1f} ms (CPU/goal {cpu / GOAL_MS:4.2f})")
+        print(
+            f"{name:<44} wall median {med:7.1f} ms  p90 {p90:7.1f} ms  median/goal {med / GOAL_MS:5.2f}"
+            f"   CPU median {cpu:6.1f} ms (CPU/goal {cpu / GOAL_MS:4.2f})"
+        )
 
-    print(f"Case plan page rerun after one widget change ({root}; AppTest, {args.runs} runs each, "
-          f"{os.cpu_count()} CPUs, load average {load_start:.1f} at the start, {_load():.1f} at the end, "
-          f"goal {GOAL_MS:.0f} ms)")
+    print(
+        f"Case plan page rerun after one widget change ({root}; AppTest, {args.runs} runs each, "
+        f"{os.cpu_count()} CPUs, load average {load_start:.1f} at the start, {_load():.1f} at the end, "
+        f"goal {GOAL_MS:.0f} ms)"
+    )
     report("new value (the model runs)", new)
     report("seen value (model results from the cache)", seen)
     report("target mode, new value", target)
     if args.cold:
         load = _load()
         wall, cpu = cold_apptest(root)
-        print(f"cold start, new process, first page run (AppTest): wall {wall:.2f} s, CPU {cpu:.2f} s "
-              f"(load average {load:.1f})")
+        print(
+            f"cold start, new process, first page run (AppTest): wall {wall:.2f} s, CPU {cpu:.2f} s "
+            f"(load average {load:.1f})"
+        )
         for entry in ("serve.py", "app.py"):
             if not (root / entry).exists():
                 continue
             load = _load()
             started, first, second = cold_browser(root, entry)
-            print(f"cold start, streamlit run {entry}, browser until 'Liquid agent' shows: first session after "
-                  f"server start {first:.2f} s, second session {second:.2f} s (server answered {started:.1f} s "
-                  f"after the command; load average {load:.1f} before, {_load():.1f} after)")
+            print(
+                f"cold start, streamlit run {entry}, browser until 'Liquid agent' shows: first session after "
+                f"server start {first:.2f} s, second session {second:.2f} s (server answered {started:.1f} s "
+                f"after the command; load average {load:.1f} before, {_load():.1f} after)"
+            )
     return 0
 
 

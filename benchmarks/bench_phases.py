@@ -61,9 +61,9 @@ def plain_loop(rows, agent, prices, gwp_agent, gwp_n2o, capture):
     m_n2o = DEFAULT_REFERENCE.agents["nitrous_oxide"].molar_mass
     bottle_price = prices.bottle.get(agent.name, 0.0) / agent.bottle_volume
     liquid_out, co2e_out, cost_out = [], [], []
-    for t, o2, air, n2o_req, dial in zip(rows["minutes"].tolist(), rows["o2"].tolist(),
-                                         rows["air"].tolist(), rows["n2o"].tolist(),
-                                         rows["dial"].tolist()):
+    for t, o2, air, n2o_req, dial in zip(
+        rows["minutes"].tolist(), rows["o2"].tolist(), rows["air"].tolist(), rows["n2o"].tolist(), rows["dial"].tolist()
+    ):
         n2o = min(n2o_req, o2 * ratio)
         if o2 < cutoff:
             n2o = 0.0
@@ -76,8 +76,12 @@ def plain_loop(rows, agent, prices, gwp_agent, gwp_n2o, capture):
         n2o_g = n2o_l / vm_l * m_n2o
         emitted = agent_g * (1.0 - capture)
         co2e = emitted / 1000.0 * gwp_agent + n2o_g / 1000.0 * gwp_n2o
-        cost = (liquid * bottle_price + o2 * t / 1000.0 * prices.oxygen_per_1000_l
-                + air * t / 1000.0 * prices.air_per_1000_l + n2o_l / 1000.0 * prices.nitrous_oxide_per_1000_l)
+        cost = (
+            liquid * bottle_price
+            + o2 * t / 1000.0 * prices.oxygen_per_1000_l
+            + air * t / 1000.0 * prices.air_per_1000_l
+            + n2o_l / 1000.0 * prices.nitrous_oxide_per_1000_l
+        )
         liquid_out.append(liquid)
         co2e_out.append(co2e)
         cost_out.append(cost)
@@ -99,14 +103,15 @@ def main(argv):
     rows = make_rows(n)
     agent = DEFAULT_REFERENCE.agents["sevoflurane"]
     prices = DEFAULT_REFERENCE.prices
-    args = (rows, agent, prices, DEFAULT_REFERENCE.gwp("sevoflurane"),
-            DEFAULT_REFERENCE.gwp("nitrous_oxide"), 0.0)
+    args = (rows, agent, prices, DEFAULT_REFERENCE.gwp("sevoflurane"), DEFAULT_REFERENCE.gwp("nitrous_oxide"), 0.0)
 
     # The two paths must agree before their speeds mean anything.
     v_liquid, v_co2e, v_cost = vectorised(*args)
     p_liquid, p_co2e, p_cost = plain_loop(*args)
-    worst = max(float(np.max(np.abs(np.asarray(p) - v) / np.maximum(np.abs(v), 1e-12)))
-                for p, v in ((p_liquid, v_liquid), (p_co2e, v_co2e), (p_cost, v_cost)))
+    worst = max(
+        float(np.max(np.abs(np.asarray(p) - v) / np.maximum(np.abs(v), 1e-12)))
+        for p, v in ((p_liquid, v_liquid), (p_co2e, v_co2e), (p_cost, v_cost))
+    )
 
     vec_median, vec_best = median_time(lambda: vectorised(*args), runs)
     loop_median, loop_best = median_time(lambda: plain_loop(*args), max(3, runs // 2))
@@ -117,8 +122,10 @@ def main(argv):
     print(f"speed-up, loop / vectorised: {loop_median / vec_median:.1f} x")
     print(f"vectorised vs goal {GOAL_S:g} s:     {vec_median / GOAL_S:.3f} of the goal")
     print(f"rows per second, vectorised: {n / vec_median:,.0f}")
-    print(f"largest relative difference between the two paths: {worst:.1e}"
-          + ("" if math.isfinite(worst) else " (check!)"))
+    print(
+        f"largest relative difference between the two paths: {worst:.1e}"
+        + ("" if math.isfinite(worst) else " (check!)")
+    )
 
 
 if __name__ == "__main__":

@@ -21,9 +21,9 @@ ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
 
 from model import year as year_module  # noqa: E402
-from model.year.inputs import Practice, Sampling
 from model.io.scenario import load_scenario  # noqa: E402
 from model.year.compare import compare_years
+from model.year.inputs import Practice, Sampling
 from model.year.result import compute_year
 from model.year.simulate import year_inputs  # noqa: E402
 
@@ -36,13 +36,22 @@ def thirty_type_scenario():
     base = load_scenario(ROOT / "demo_data" / "year" / "proposal_half_litre.toml")
     src = base.casemix.types
     # Every type distinct (its own median duration), so no two share a simulation.
-    types = tuple(replace(src[i % len(src)], name=f"{src[i % len(src)].name} #{i + 1}",
-                          cases_per_year=50 + 37 * i,
-                          median_min=src[i % len(src)].median_min * (1.0 + 0.05 * (i // len(src))))
-                  for i in range(TYPES))
-    return replace(base, casemix=replace(base.casemix, types=types),
-                   sampling=Sampling(draws=DRAWS, seed=1, price_spread=0.1,
-                                     gwp_sources=("ar6_gwp100", "ar5_gwp100", "sulbaek_andersen_2012")))
+    types = tuple(
+        replace(
+            src[i % len(src)],
+            name=f"{src[i % len(src)].name} #{i + 1}",
+            cases_per_year=50 + 37 * i,
+            median_min=src[i % len(src)].median_min * (1.0 + 0.05 * (i // len(src))),
+        )
+        for i in range(TYPES)
+    )
+    return replace(
+        base,
+        casemix=replace(base.casemix, types=types),
+        sampling=Sampling(
+            draws=DRAWS, seed=1, price_spread=0.1, gwp_sources=("ar6_gwp100", "ar5_gwp100", "sulbaek_andersen_2012")
+        ),
+    )
 
 
 def best_of(fn, runs=5, cold=True):
@@ -76,15 +85,21 @@ def main():
     _, peak_pair = tracemalloc.get_traced_memory()
     tracemalloc.stop()
     rss_mb = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
-    print(f"case mix: {TYPES} types, {DRAWS:,} draws per type; {n_sub} sub-plans simulated at {n_nodes} "
-          f"(plan, duration) nodes")
+    print(
+        f"case mix: {TYPES} types, {DRAWS:,} draws per type; {n_sub} sub-plans simulated at {n_nodes} "
+        f"(plan, duration) nodes"
+    )
     print(f"simulation and per-type sums:       {rates_best * 1000:7.1f} ms")
-    print(f"one year with bands (cold):         {year_best * 1000:7.1f} ms best, {year_median * 1000:.1f} ms median"
-          f"  -> {year_best / GOAL_S:.2f} x the 1 s goal")
+    print(
+        f"one year with bands (cold):         {year_best * 1000:7.1f} ms best, {year_median * 1000:.1f} ms median"
+        f"  -> {year_best / GOAL_S:.2f} x the 1 s goal"
+    )
     print(f"same year again (simulations cached): {warm_best * 1000:5.1f} ms best, {warm_median * 1000:.1f} ms median")
     print(f"paired comparison (two years):      {pair_best * 1000:7.1f} ms best, {pair_median * 1000:.1f} ms median")
-    print(f"peak traced memory: year {peak_year / 2**20:.0f} MiB, comparison {peak_pair / 2**20:.0f} MiB; "
-          f"process max RSS {rss_mb:.0f} MiB")
+    print(
+        f"peak traced memory: year {peak_year / 2**20:.0f} MiB, comparison {peak_pair / 2**20:.0f} MiB; "
+        f"process max RSS {rss_mb:.0f} MiB"
+    )
 
 
 if __name__ == "__main__":

@@ -18,9 +18,20 @@ from model.reference import DEFAULT_REFERENCE, Reference
 from model.vapour import liquid_used_ml
 
 
-def phase_consumption(minutes, o2_l_min, air_l_min, n2o_l_min, dial_pct, agent, *,
-                      temperature_c=20.0, pressure_kpa=101.325, min_o2_share=0.25,
-                      min_o2_flow_l_min=0.2, ratio_behaviour="cap_n2o"):
+def phase_consumption(
+    minutes,
+    o2_l_min,
+    air_l_min,
+    n2o_l_min,
+    dial_pct,
+    agent,
+    *,
+    temperature_c=20.0,
+    pressure_kpa=101.325,
+    min_o2_share=0.25,
+    min_o2_flow_l_min=0.2,
+    ratio_behaviour="cap_n2o",
+):
     """Consumption of many phase rows at once, vectorised.
 
     Parameters
@@ -56,18 +67,25 @@ def phase_consumption(minutes, o2_l_min, air_l_min, n2o_l_min, dial_pct, agent, 
     """
     t = np.asarray(minutes, dtype=float)
     air = np.asarray(air_l_min, dtype=float)
-    o2, n2o, altered = apply_ratio_limit(o2_l_min, n2o_l_min, min_o2_share, min_o2_flow_l_min,
-                                         ratio_behaviour)
+    o2, n2o, altered = apply_ratio_limit(o2_l_min, n2o_l_min, min_o2_share, min_o2_flow_l_min, ratio_behaviour)
     fgf, fd_o2, fd_n2o = delivered_fractions(o2, air, n2o)
     liquid = liquid_used_ml(fgf, dial_pct, t, agent, temperature_c, pressure_kpa)
     n2o_l = n2o * t
     return {
-        "o2_l_min": o2, "n2o_l_min": n2o, "altered": altered, "fgf_l_min": fgf,
-        "fd_o2": fd_o2, "fd_n2o": fd_n2o, "liquid_ml": liquid,
+        "o2_l_min": o2,
+        "n2o_l_min": n2o,
+        "altered": altered,
+        "fgf_l_min": fgf,
+        "fd_o2": fd_o2,
+        "fd_n2o": fd_n2o,
+        "liquid_ml": liquid,
         "agent_g": liquid * agent.liquid_density,
-        "oxygen_l": o2 * t, "air_l": air * t, "nitrous_oxide_l": n2o_l,
-        "nitrous_oxide_g": gas_mass_g(n2o_l, DEFAULT_REFERENCE.agents["nitrous_oxide"].molar_mass,
-                                      temperature_c, pressure_kpa),
+        "oxygen_l": o2 * t,
+        "air_l": air * t,
+        "nitrous_oxide_l": n2o_l,
+        "nitrous_oxide_g": gas_mass_g(
+            n2o_l, DEFAULT_REFERENCE.agents["nitrous_oxide"].molar_mass, temperature_c, pressure_kpa
+        ),
     }
 
 
@@ -109,8 +127,18 @@ def case_costs(liquid_ml, oxygen_l, air_l, nitrous_oxide_l, absorbent_g, agent, 
     return costs
 
 
-def simulation_totals(sim, agent, prices, *, gwp_agent, gwp_n2o, capture_efficiency=0.0,
-                      temperature_c=20.0, pressure_kpa=101.325, nitrous_oxide=None):
+def simulation_totals(
+    sim,
+    agent,
+    prices,
+    *,
+    gwp_agent,
+    gwp_n2o,
+    capture_efficiency=0.0,
+    temperature_c=20.0,
+    pressure_kpa=101.325,
+    nitrous_oxide=None,
+):
     """Consumption, emissions and cost of many simulated cases, vectorised.
 
     Parameters
@@ -165,20 +193,29 @@ def simulation_totals(sim, agent, prices, *, gwp_agent, gwp_n2o, capture_efficie
     n2o_g = grams(n2o_l, m_n2o)
     # Metabolism acts on the case's gross uptake; it is shared out over the phases in
     # proportion to the agent delivered in each (so no phase shows negative emissions).
-    agent_emitted = _emitted_by_phase(agent_g, grams(sim["agent_gross_uptake_l"], m_ag),
-                                      agent.metabolised_fraction, capture_efficiency)
-    n2o_emitted = _emitted_by_phase(n2o_g, grams(sim["nitrous_oxide_gross_uptake_l"], m_n2o),
-                                    n2o_agent.metabolised_fraction, 0.0)
+    agent_emitted = _emitted_by_phase(
+        agent_g, grams(sim["agent_gross_uptake_l"], m_ag), agent.metabolised_fraction, capture_efficiency
+    )
+    n2o_emitted = _emitted_by_phase(
+        n2o_g, grams(sim["nitrous_oxide_gross_uptake_l"], m_n2o), n2o_agent.metabolised_fraction, 0.0
+    )
     absorbent_g = sim["phase_co2_absorbed_l"] / sim["absorbent_capacity_l_per_kg"] * 1000.0
     costs = case_costs(liquid, oxygen_l, air_l, n2o_l, absorbent_g, agent, prices)
     mean_dial = np.nan_to_num(sim["phase_mean_dial_pct"])
     mac_mult = mac_multiple(mean_dial, sim["mac_agent_pct"], sim["phase_fd_n2o"] * 100.0, sim["mac_n2o_pct"])
     mac_mult = np.where(minutes > 0, mac_mult, 0.0)
     phases = {
-        "liquid_agent_ml": liquid, "agent_mass_g": agent_g, "oxygen_l": oxygen_l, "air_l": air_l,
-        "nitrous_oxide_l": n2o_l, "agent_emitted_g": agent_emitted, "nitrous_oxide_emitted_g": n2o_emitted,
+        "liquid_agent_ml": liquid,
+        "agent_mass_g": agent_g,
+        "oxygen_l": oxygen_l,
+        "air_l": air_l,
+        "nitrous_oxide_l": n2o_l,
+        "agent_emitted_g": agent_emitted,
+        "nitrous_oxide_emitted_g": n2o_emitted,
         "co2e_kg": co2e_kg(agent_emitted, gwp_agent) + co2e_kg(n2o_emitted, gwp_n2o),
-        "absorbent_g": absorbent_g, "cost_total": costs["total"], "mac_multiple": mac_mult,
+        "absorbent_g": absorbent_g,
+        "cost_total": costs["total"],
+        "mac_multiple": mac_mult,
         "agent_uptake_g": grams(sim["phase_agent_uptake_l"], m_ag),
         "agent_vented_g": grams(sim["phase_agent_vented_l"], m_ag),
     }
@@ -198,8 +235,9 @@ def simulation_totals(sim, agent, prices, *, gwp_agent, gwp_n2o, capture_efficie
     n_target = np.sum(sim["phase_target_mode"] & (minutes > 0), axis=0)
     not_reached = np.sum(sim["phase_target_mode"] & (minutes > 0) & np.isnan(sim["phase_time_to_target_min"]), axis=0)
     with np.errstate(all="ignore"):
-        slowest = np.where(n_target - not_reached > 0, np.nanmax(np.where(np.isnan(target_time), -np.inf, target_time),
-                                                                  axis=0), np.nan)
+        slowest = np.where(
+            n_target - not_reached > 0, np.nanmax(np.where(np.isnan(target_time), -np.inf, target_time), axis=0), np.nan
+        )
     totals = {
         "duration_min": minutes.sum(axis=0),
         "liquid_agent_ml": liquid_total,
@@ -221,8 +259,10 @@ def simulation_totals(sim, agent, prices, *, gwp_agent, gwp_n2o, capture_efficie
         # Low-flow physics (circle simulation).
         "agent_delivered_vapour_l": sim["agent_delivered_l"],
         "agent_gross_uptake_g": grams(sim["agent_gross_uptake_l"], m_ag),
-        "agent_metabolised_g": agent_g.sum(axis=0) - emitted_mass_g(
-            agent_g.sum(axis=0), grams(sim["agent_gross_uptake_l"], m_ag), agent.metabolised_fraction, 0.0),
+        "agent_metabolised_g": agent_g.sum(axis=0)
+        - emitted_mass_g(
+            agent_g.sum(axis=0), grams(sim["agent_gross_uptake_l"], m_ag), agent.metabolised_fraction, 0.0
+        ),
         "agent_vented_g": grams(sim["agent_vented_l"], m_ag),
         "agent_held_in_circle_g": grams(sim["agent_held_end_l"] - sim["agent_held_start_l"], m_ag),
         "oxygen_delivered_l": sim["oxygen_delivered_l"],
@@ -275,12 +315,21 @@ def simulate_plan(plan: CasePlan, reference: Reference = DEFAULT_REFERENCE, *, r
         n2o_l_min=col([p.n2o_l_min for p in plan.phases]),
         dial_pct=col([np.nan if p.dial_pct is None else p.dial_pct for p in plan.phases]),
         target_mac=col([np.nan if p.target_mac is None else p.target_mac for p in plan.phases]),
-        weight_kg=pt.weight_kg, age_years=pt.age_years, cardiac_output_l_min=pt.cardiac_output_l_min,
-        vo2_ml_min=pt.vo2_ml_min, minute_ventilation_l_min=pt.minute_ventilation_l_min,
-        uptake_model=s.uptake_model, circle_volume_l=s.circle_volume_l,
-        absorbent_capacity_l_per_kg=s.absorbent_capacity_l_per_kg, temperature_c=s.temperature_c,
-        pressure_kpa=s.pressure_kpa, min_o2_share=s.min_o2_share, min_o2_flow_l_min=s.min_o2_flow_l_min,
-        ratio_behaviour=s.ratio_behaviour, inspired_o2_floor=s.inspired_o2_floor, record=record,
+        weight_kg=pt.weight_kg,
+        age_years=pt.age_years,
+        cardiac_output_l_min=pt.cardiac_output_l_min,
+        vo2_ml_min=pt.vo2_ml_min,
+        minute_ventilation_l_min=pt.minute_ventilation_l_min,
+        uptake_model=s.uptake_model,
+        circle_volume_l=s.circle_volume_l,
+        absorbent_capacity_l_per_kg=s.absorbent_capacity_l_per_kg,
+        temperature_c=s.temperature_c,
+        pressure_kpa=s.pressure_kpa,
+        min_o2_share=s.min_o2_share,
+        min_o2_flow_l_min=s.min_o2_flow_l_min,
+        ratio_behaviour=s.ratio_behaviour,
+        inspired_o2_floor=s.inspired_o2_floor,
+        record=record,
         nitrous_oxide=reference.agents["nitrous_oxide"],
     )
     kwargs.update(changes)
@@ -305,6 +354,7 @@ class CaseResult:
 
     def to_dict(self) -> dict:
         """Machine-readable form with stable keys (units in the key names)."""
+
         def clean(v):
             if isinstance(v, (np.floating, float)):
                 v = float(v)
@@ -314,6 +364,7 @@ class CaseResult:
             if isinstance(v, np.bool_):
                 return bool(v)
             return v
+
         phases = [{k: clean(v) for k, v in row.items()} for row in self.phases.to_dict("records")]
         out = {
             "plan": self.plan.name,
@@ -329,8 +380,7 @@ class CaseResult:
             "unsafe": is_unsafe(self.warnings),
         }
         if self.timecourse is not None:
-            out["timecourse"] = [{k: clean(v) for k, v in row.items()}
-                                 for row in self.timecourse.to_dict("records")]
+            out["timecourse"] = [{k: clean(v) for k, v in row.items()} for row in self.timecourse.to_dict("records")]
         return out
 
 
@@ -385,50 +435,60 @@ def compute_case(plan: CasePlan, reference: Reference = DEFAULT_REFERENCE) -> Ca
     gwp_agent = reference.gwp(agent.name, s.gwp_source)
     gwp_n2o = reference.gwp("nitrous_oxide", s.gwp_source, used=any(p.n2o_l_min > 0 for p in plan.phases))
     sim = simulate_plan(plan, reference, record=True)
-    tot, ph = simulation_totals(sim, agent, reference.prices, gwp_agent=gwp_agent, gwp_n2o=gwp_n2o,
-                                capture_efficiency=s.capture_efficiency, temperature_c=s.temperature_c,
-                                pressure_kpa=s.pressure_kpa, nitrous_oxide=n2o_agent)
+    tot, ph = simulation_totals(
+        sim,
+        agent,
+        reference.prices,
+        gwp_agent=gwp_agent,
+        gwp_n2o=gwp_n2o,
+        capture_efficiency=s.capture_efficiency,
+        temperature_c=s.temperature_c,
+        pressure_kpa=s.pressure_kpa,
+        nitrous_oxide=n2o_agent,
+    )
     minutes = sim["phase_minutes"][:, 0]
     first = lambda a: np.asarray(a)[:, 0]  # noqa: E731
     target_mode = first(sim["phase_target_mode"])
-    phases = pd.DataFrame({
-        "phase": [p.name for p in plan.phases],
-        "duration_min": minutes,
-        "mode": np.where(target_mode, "target", "dial"),
-        "o2_l_min": first(sim["phase_o2_l_min"]),
-        "air_l_min": first(sim["phase_air_l_min"]),
-        "n2o_l_min": first(sim["phase_n2o_l_min"]),
-        "fgf_l_min": first(sim["phase_fgf_l_min"]),
-        "flow_band": flow_band(first(sim["phase_fgf_l_min"])),
-        "fd_o2_pct": first(sim["phase_fd_o2"]) * 100.0,
-        "fd_n2o_pct": first(sim["phase_fd_n2o"]) * 100.0,
-        "dial_pct": first(sim["phase_mean_dial_pct"]),
-        "target_mac": first(sim["phase_target_mac"]),
-        "liquid_agent_ml": first(ph["liquid_agent_ml"]),
-        "agent_mass_g": first(ph["agent_mass_g"]),
-        "oxygen_l": first(ph["oxygen_l"]),
-        "air_l": first(ph["air_l"]),
-        "nitrous_oxide_l": first(ph["nitrous_oxide_l"]),
-        "co2e_kg": first(ph["co2e_kg"]),
-        "cost_total": first(ph["cost_total"]),
-        "mac_multiple": first(ph["mac_multiple"]),
-        "mac_hours": first(ph["mac_multiple"]) * minutes / 60.0,
-        "flows_altered": first(sim["phase_altered"]),
-        "agent_uptake_g": first(ph["agent_uptake_g"]),
-        "agent_vented_g": first(ph["agent_vented_g"]),
-        "agent_emitted_g": first(ph["agent_emitted_g"]),
-        "end_tidal_agent_pct": first(sim["phase_end_tidal_agent"]) * 100.0,
-        "inspired_agent_pct": first(sim["phase_inspired_agent"]) * 100.0,
-        "end_tidal_mac": first(sim["phase_end_tidal_mac"]),
-        "time_to_target_min": first(sim["phase_time_to_target_min"]),
-        "time_at_max_below_target_min": first(sim["phase_time_at_max_below_target_min"]),
-        "min_inspired_o2_pct": first(sim["phase_min_inspired_o2"]) * 100.0,
-        "steady_inspired_o2_pct": first(sim["phase_steady_fio2"]) * 100.0,
-        "lowest_safe_fd_o2_pct": first(sim["phase_lowest_safe_fd_o2"]) * 100.0,
-        "rebreathed_pct": first(sim["phase_rebreathed_share"]) * 100.0,
-        "co2_absorbed_l": first(sim["phase_co2_absorbed_l"]),
-        "absorbent_g": first(ph["absorbent_g"]),
-    })
+    phases = pd.DataFrame(
+        {
+            "phase": [p.name for p in plan.phases],
+            "duration_min": minutes,
+            "mode": np.where(target_mode, "target", "dial"),
+            "o2_l_min": first(sim["phase_o2_l_min"]),
+            "air_l_min": first(sim["phase_air_l_min"]),
+            "n2o_l_min": first(sim["phase_n2o_l_min"]),
+            "fgf_l_min": first(sim["phase_fgf_l_min"]),
+            "flow_band": flow_band(first(sim["phase_fgf_l_min"])),
+            "fd_o2_pct": first(sim["phase_fd_o2"]) * 100.0,
+            "fd_n2o_pct": first(sim["phase_fd_n2o"]) * 100.0,
+            "dial_pct": first(sim["phase_mean_dial_pct"]),
+            "target_mac": first(sim["phase_target_mac"]),
+            "liquid_agent_ml": first(ph["liquid_agent_ml"]),
+            "agent_mass_g": first(ph["agent_mass_g"]),
+            "oxygen_l": first(ph["oxygen_l"]),
+            "air_l": first(ph["air_l"]),
+            "nitrous_oxide_l": first(ph["nitrous_oxide_l"]),
+            "co2e_kg": first(ph["co2e_kg"]),
+            "cost_total": first(ph["cost_total"]),
+            "mac_multiple": first(ph["mac_multiple"]),
+            "mac_hours": first(ph["mac_multiple"]) * minutes / 60.0,
+            "flows_altered": first(sim["phase_altered"]),
+            "agent_uptake_g": first(ph["agent_uptake_g"]),
+            "agent_vented_g": first(ph["agent_vented_g"]),
+            "agent_emitted_g": first(ph["agent_emitted_g"]),
+            "end_tidal_agent_pct": first(sim["phase_end_tidal_agent"]) * 100.0,
+            "inspired_agent_pct": first(sim["phase_inspired_agent"]) * 100.0,
+            "end_tidal_mac": first(sim["phase_end_tidal_mac"]),
+            "time_to_target_min": first(sim["phase_time_to_target_min"]),
+            "time_at_max_below_target_min": first(sim["phase_time_at_max_below_target_min"]),
+            "min_inspired_o2_pct": first(sim["phase_min_inspired_o2"]) * 100.0,
+            "steady_inspired_o2_pct": first(sim["phase_steady_fio2"]) * 100.0,
+            "lowest_safe_fd_o2_pct": first(sim["phase_lowest_safe_fd_o2"]) * 100.0,
+            "rebreathed_pct": first(sim["phase_rebreathed_share"]) * 100.0,
+            "co2_absorbed_l": first(sim["phase_co2_absorbed_l"]),
+            "absorbent_g": first(ph["absorbent_g"]),
+        }
+    )
     totals = {k: float(np.asarray(v)[0]) for k, v in tot.items()}
     totals["inspired_o2_floor_pct"] = s.inspired_o2_floor * 100.0
     totals["inspired_o2_below_floor"] = bool(totals["min_inspired_o2_pct"] < s.inspired_o2_floor * 100.0)
@@ -436,8 +496,17 @@ def compute_case(plan: CasePlan, reference: Reference = DEFAULT_REFERENCE) -> Ca
     phases["end_tidal_mac_hours"] = _phase_end_tidal_mac_hours(timecourse, minutes)
     warnings = case_warnings(plan, phases, agent, totals, timecourse)
     totals["sevoflurane_low_flow_caution"] = any("sevoflurane at" in w for w in warnings)
-    return CaseResult(plan, phases, totals, reference.prices.currency, s.gwp_source,
-                      reference.gwp_source(s.gwp_source).label, warnings, timecourse, s.uptake_model)
+    return CaseResult(
+        plan,
+        phases,
+        totals,
+        reference.prices.currency,
+        s.gwp_source,
+        reference.gwp_source(s.gwp_source).label,
+        warnings,
+        timecourse,
+        s.uptake_model,
+    )
 
 
 def _phase_end_tidal_mac_hours(tc: pd.DataFrame, minutes) -> np.ndarray:
@@ -468,20 +537,22 @@ def _timecourse(series, names, minutes) -> pd.DataFrame:
         return np.interp(grid, t, series[key][:, 0]) * scale
 
     phase_index = series["phase_index"][idx, 0].astype(int)
-    return pd.DataFrame({
-        "time_min": grid,
-        "phase": [names[i] for i in phase_index],
-        "dial_pct": series["dial_pct"][idx, 0],
-        "inspired_agent_pct": at("inspired_agent", 100.0),
-        "end_tidal_agent_pct": at("end_tidal_agent", 100.0),
-        "end_tidal_mac": at("end_tidal_mac"),
-        "inspired_o2_pct": at("inspired_o2", 100.0),
-        "end_tidal_o2_pct": at("end_tidal_o2", 100.0),
-        "inspired_n2o_pct": at("inspired_n2o", 100.0),
-        "end_tidal_n2o_pct": at("end_tidal_n2o", 100.0),
-        "agent_uptake_ml_min": at("agent_uptake_l_min", 1000.0),
-        "agent_vented_ml_min": at("agent_vented_l_min", 1000.0),
-        "liquid_agent_cumulative_ml": at("liquid_ml"),
-        "co2_absorbed_cumulative_l": at("co2_absorbed_l"),
-        "absorbent_used_cumulative_g": at("absorbent_g"),
-    })
+    return pd.DataFrame(
+        {
+            "time_min": grid,
+            "phase": [names[i] for i in phase_index],
+            "dial_pct": series["dial_pct"][idx, 0],
+            "inspired_agent_pct": at("inspired_agent", 100.0),
+            "end_tidal_agent_pct": at("end_tidal_agent", 100.0),
+            "end_tidal_mac": at("end_tidal_mac"),
+            "inspired_o2_pct": at("inspired_o2", 100.0),
+            "end_tidal_o2_pct": at("end_tidal_o2", 100.0),
+            "inspired_n2o_pct": at("inspired_n2o", 100.0),
+            "end_tidal_n2o_pct": at("end_tidal_n2o", 100.0),
+            "agent_uptake_ml_min": at("agent_uptake_l_min", 1000.0),
+            "agent_vented_ml_min": at("agent_vented_l_min", 1000.0),
+            "liquid_agent_cumulative_ml": at("liquid_ml"),
+            "co2_absorbed_cumulative_l": at("co2_absorbed_l"),
+            "absorbent_used_cumulative_g": at("absorbent_g"),
+        }
+    )

@@ -49,10 +49,9 @@ import numpy as np
 from model.freshgas import apply_ratio_limit, delivered_fractions
 from model.mac import mac_at_age
 from model.patient import resolve_patient
-from model.reference import AIR_O2_FRACTION, Agent, DEFAULT_REFERENCE
+from model.reference import AIR_O2_FRACTION, DEFAULT_REFERENCE, Agent
 from model.uptake import DEFAULT_UPTAKE_MODEL, UPTAKE_MODELS, tissue_compartments
 from model.vapour import vapour_per_ml_liquid
-
 
 #: Gas volume of an adult circle system with its absorber canister. [L]
 #: Source: typical workstation circle systems hold about 3-7 L (from memory); 6 L taken.
@@ -79,8 +78,14 @@ STEP_GROWTH = 0.05
 TARGET_TOLERANCE = 0.05
 SPECIES = ("oxygen", "nitrous_oxide", "agent")
 #: Per-phase amounts: 0 (not NaN) where a case skips the phase.
-_PHASE_AMOUNTS = ("phase_liquid_ml", "phase_agent_uptake_l", "phase_agent_vented_l", "phase_agent_gross_uptake_l",
-                  "phase_nitrous_oxide_gross_uptake_l", "phase_co2_absorbed_l")
+_PHASE_AMOUNTS = (
+    "phase_liquid_ml",
+    "phase_agent_uptake_l",
+    "phase_agent_vented_l",
+    "phase_agent_gross_uptake_l",
+    "phase_nitrous_oxide_gross_uptake_l",
+    "phase_co2_absorbed_l",
+)
 
 
 def steady_state_fio2(fgf_l_min, fd_o2, vo2_l_min, n2o_uptake_l_min=0.0, agent_uptake_l_min=0.0):
@@ -180,8 +185,9 @@ def rebreathed_share(fgf_l_min, minute_ventilation_l_min):
     return np.clip(1.0 - fgf / ve, 0.0, 1.0)
 
 
-def step_schedule(minutes, step_min=STEP_MIN, fine_min=FINE_MIN, coarse_step_min=COARSE_STEP_MIN,
-                  growth=STEP_GROWTH) -> tuple:
+def step_schedule(
+    minutes, step_min=STEP_MIN, fine_min=FINE_MIN, coarse_step_min=COARSE_STEP_MIN, growth=STEP_GROWTH
+) -> tuple:
     """Integration steps of one phase for many cases: ``((dt, n), ...)``.
 
     Parameters
@@ -234,20 +240,42 @@ def step_schedule(minutes, step_min=STEP_MIN, fine_min=FINE_MIN, coarse_step_min
 def _as_phase_array(value, shape, name):
     arr = np.asarray(value, dtype=float)
     try:
-        return np.broadcast_to(arr.reshape(arr.shape + (1,) * (2 - arr.ndim)) if arr.ndim < 2 else arr,
-                               shape).astype(float)
+        return np.broadcast_to(arr.reshape(arr.shape + (1,) * (2 - arr.ndim)) if arr.ndim < 2 else arr, shape).astype(
+            float
+        )
     except ValueError:
         raise ValueError(f"{name} must broadcast to (n_phases, n_cases) = {shape}, got {arr.shape}") from None
 
 
-def simulate_cases(agent: Agent, minutes, o2_l_min, air_l_min=0.0, n2o_l_min=0.0, dial_pct=None,
-                   target_mac=None, *, weight_kg=70.0, age_years=40.0, cardiac_output_l_min=None,
-                   vo2_ml_min=None, minute_ventilation_l_min=None, uptake_model=DEFAULT_UPTAKE_MODEL,
-                   circle_volume_l=CIRCLE_VOLUME_L, absorbent_capacity_l_per_kg=ABSORBENT_CAPACITY_L_PER_KG,
-                   temperature_c=20.0, pressure_kpa=101.325, min_o2_share=0.25, min_o2_flow_l_min=0.2,
-                   ratio_behaviour="cap_n2o", inspired_o2_floor=0.30, step_min=STEP_MIN,
-                   fine_min=FINE_MIN, coarse_step_min=COARSE_STEP_MIN, record=False,
-                   nitrous_oxide: Agent | None = None):
+def simulate_cases(
+    agent: Agent,
+    minutes,
+    o2_l_min,
+    air_l_min=0.0,
+    n2o_l_min=0.0,
+    dial_pct=None,
+    target_mac=None,
+    *,
+    weight_kg=70.0,
+    age_years=40.0,
+    cardiac_output_l_min=None,
+    vo2_ml_min=None,
+    minute_ventilation_l_min=None,
+    uptake_model=DEFAULT_UPTAKE_MODEL,
+    circle_volume_l=CIRCLE_VOLUME_L,
+    absorbent_capacity_l_per_kg=ABSORBENT_CAPACITY_L_PER_KG,
+    temperature_c=20.0,
+    pressure_kpa=101.325,
+    min_o2_share=0.25,
+    min_o2_flow_l_min=0.2,
+    ratio_behaviour="cap_n2o",
+    inspired_o2_floor=0.30,
+    step_min=STEP_MIN,
+    fine_min=FINE_MIN,
+    coarse_step_min=COARSE_STEP_MIN,
+    record=False,
+    nitrous_oxide: Agent | None = None,
+):
     """Simulate many cases of one agent through the circle system at once.
 
     This is the vectorised entry point (the year model calls it with thousands of sampled
@@ -346,8 +374,7 @@ def simulate_cases(agent: Agent, minutes, o2_l_min, air_l_min=0.0, n2o_l_min=0.0
     for x in (minutes, o2_l_min, air_l_min, n2o_l_min, dial_pct, target_mac):
         if x is not None and np.ndim(x) == 2:
             n_cases = max(n_cases, np.shape(x)[1])
-    for x in (weight_kg, age_years, cardiac_output_l_min, vo2_ml_min, minute_ventilation_l_min,
-              circle_volume_l):
+    for x in (weight_kg, age_years, cardiac_output_l_min, vo2_ml_min, minute_ventilation_l_min, circle_volume_l):
         if x is not None and np.ndim(x) == 1:
             n_cases = max(n_cases, np.shape(x)[0])
     n_phases = minutes.shape[0]
@@ -402,12 +429,25 @@ def simulate_cases(agent: Agent, minutes, o2_l_min, air_l_min=0.0, n2o_l_min=0.0
     min_fio2_t = np.zeros(n_cases)
     et_mac_min = np.zeros(n_cases)  # end-tidal MAC x minutes
 
-    ph = {key: np.full(shape, 0.0 if key in _PHASE_AMOUNTS else np.nan) for key in (
-        "phase_liquid_ml", "phase_mean_dial_pct", "phase_agent_uptake_l", "phase_agent_vented_l",
-        "phase_agent_gross_uptake_l", "phase_nitrous_oxide_gross_uptake_l",
-        "phase_co2_absorbed_l", "phase_min_inspired_o2", "phase_end_tidal_agent", "phase_inspired_agent",
-        "phase_end_tidal_mac", "phase_target_fraction", "phase_time_to_target_min",
-        "phase_time_at_max_below_target_min")}
+    ph = {
+        key: np.full(shape, 0.0 if key in _PHASE_AMOUNTS else np.nan)
+        for key in (
+            "phase_liquid_ml",
+            "phase_mean_dial_pct",
+            "phase_agent_uptake_l",
+            "phase_agent_vented_l",
+            "phase_agent_gross_uptake_l",
+            "phase_nitrous_oxide_gross_uptake_l",
+            "phase_co2_absorbed_l",
+            "phase_min_inspired_o2",
+            "phase_end_tidal_agent",
+            "phase_inspired_agent",
+            "phase_end_tidal_mac",
+            "phase_target_fraction",
+            "phase_time_to_target_min",
+            "phase_time_at_max_below_target_min",
+        )
+    }
 
     # Step schedule per phase: fine steps over the first ``fine_min`` minutes (wash-in,
     # the fast lung and vessel-rich dynamics), coarse steps after. Cases share the step
@@ -416,10 +456,26 @@ def simulate_cases(agent: Agent, minutes, o2_l_min, air_l_min=0.0, n2o_l_min=0.0
     total_steps = sum(n for segs in schedule for _, n in segs)
     series = None
     if record:
-        series = {key: np.zeros((total_steps + 1, n_cases)) for key in (
-            "time_min", "dial_pct", "inspired_agent", "end_tidal_agent", "inspired_o2", "end_tidal_o2",
-            "inspired_n2o", "end_tidal_n2o", "agent_uptake_l_min", "agent_vented_l_min", "liquid_ml",
-            "co2_absorbed_l", "absorbent_g", "end_tidal_mac", "phase_index")}
+        series = {
+            key: np.zeros((total_steps + 1, n_cases))
+            for key in (
+                "time_min",
+                "dial_pct",
+                "inspired_agent",
+                "end_tidal_agent",
+                "inspired_o2",
+                "end_tidal_o2",
+                "inspired_n2o",
+                "end_tidal_n2o",
+                "agent_uptake_l_min",
+                "agent_vented_l_min",
+                "liquid_ml",
+                "co2_absorbed_l",
+                "absorbent_g",
+                "end_tidal_mac",
+                "phase_index",
+            )
+        }
         series["inspired_o2"][0] = fc[0]
         series["end_tidal_o2"][0] = fa[0]
         series["inspired_n2o"][0] = fc[1]
@@ -450,9 +506,9 @@ def simulate_cases(agent: Agent, minutes, o2_l_min, air_l_min=0.0, n2o_l_min=0.0
         t_frac = np.full(n_cases, np.nan)
         for dt, n_steps in schedule[i]:
             denom = C + G * dt
-            g_eff = G * C / denom                     # (2, k, n)
+            g_eff = G * C / denom  # (2, k, n)
             h = G * dt / denom
-            a_tis = g_eff.sum(axis=1)                 # (2, n)
+            a_tis = g_eff.sum(axis=1)  # (2, n)
             a12 = dt * va
             a12sq = a12 * a12
             a22 = v_l + a12 + np.concatenate([zeros[None], dt * a_tis])  # (3, n)
@@ -485,7 +541,7 @@ def simulate_cases(agent: Agent, minutes, o2_l_min, air_l_min=0.0, n2o_l_min=0.0
                 fa_new[2] += (a12 / det[2]) * deliv_ag
                 fc_new[2] += (a22[2] / det[2]) * deliv_ag
                 # Bookkeeping from the same fluxes that moved the state.
-                up_rate = a_tis * fa_new[1:] - b        # (2, n) [L/min]
+                up_rate = a_tis * fa_new[1:] - b  # (2, n) [L/min]
                 p += h * (fa_new[1:, None, :] - p)
                 delivered[:2] += dt_inflow[:2]
                 delivered[2] += deliv_ag
@@ -531,7 +587,9 @@ def simulate_cases(agent: Agent, minutes, o2_l_min, air_l_min=0.0, n2o_l_min=0.0
         active = minutes[i] > 0
         put = {
             "phase_liquid_ml": ph_deliv_ag / vapour_per_ml,
-            "phase_mean_dial_pct": np.where(active, ph_deliv_ag / (f_safe * np.maximum(minutes[i], 1e-300)) * 100.0, np.nan),
+            "phase_mean_dial_pct": np.where(
+                active, ph_deliv_ag / (f_safe * np.maximum(minutes[i], 1e-300)) * 100.0, np.nan
+            ),
             "phase_agent_uptake_l": uptake[2] - start_up,
             "phase_agent_vented_l": vented[2] - start_vent,
             "phase_agent_gross_uptake_l": gross[1] - start_gross[1],
@@ -563,8 +621,12 @@ def simulate_cases(agent: Agent, minutes, o2_l_min, air_l_min=0.0, n2o_l_min=0.0
         "min_inspired_o2_time_min": min_fio2_t,
         "o2_shortfall_l": np.maximum(vo2 * elapsed - uptake[0], 0.0),
         "end_tidal_mac_hours": et_mac_min / 60.0,
-        "vo2_l_min": vo2, "vco2_l_min": vco2, "minute_ventilation_l_min": ve,
-        "cardiac_output_l_min": q, "mac_agent_pct": mac_agent * 100.0, "mac_n2o_pct": mac_n2o * 100.0,
+        "vo2_l_min": vo2,
+        "vco2_l_min": vco2,
+        "minute_ventilation_l_min": ve,
+        "cardiac_output_l_min": q,
+        "mac_agent_pct": mac_agent * 100.0,
+        "mac_n2o_pct": mac_n2o * 100.0,
     }
     for j, s in enumerate(SPECIES):
         out[f"{s}_delivered_l"] = delivered[j]
@@ -574,17 +636,27 @@ def simulate_cases(agent: Agent, minutes, o2_l_min, air_l_min=0.0, n2o_l_min=0.0
         out[f"{s}_held_end_l"] = held_end[j]
         out[f"{s}_tissue_end_l"] = tissue_end[j]
     out.update(ph)
-    out.update({
-        "phase_fgf_l_min": fgf, "phase_o2_l_min": o2, "phase_n2o_l_min": n2o, "phase_air_l_min": air,
-        "phase_altered": altered, "phase_fd_o2": fd_o2, "phase_fd_n2o": fd_n2o,
-        "phase_rebreathed_share": rebreathed_share(fgf, ve[None, :]),
-        "phase_lowest_safe_fd_o2": lowest_safe_fd_o2(fgf, vo2[None, :], inspired_o2_floor),
-        "phase_steady_fio2": steady_state_fio2(fgf, fd_o2, vo2[None, :]),
-        "phase_target_mode": target_mode,
-        "phase_minutes": minutes, "phase_dial_pct": dial * 100.0, "phase_target_mac": target,
-        "absorbent_capacity_l_per_kg": np.full(n_cases, float(absorbent_capacity_l_per_kg)),
-        "circle_volume_l": v_c, "frc_l": v_l,
-    })
+    out.update(
+        {
+            "phase_fgf_l_min": fgf,
+            "phase_o2_l_min": o2,
+            "phase_n2o_l_min": n2o,
+            "phase_air_l_min": air,
+            "phase_altered": altered,
+            "phase_fd_o2": fd_o2,
+            "phase_fd_n2o": fd_n2o,
+            "phase_rebreathed_share": rebreathed_share(fgf, ve[None, :]),
+            "phase_lowest_safe_fd_o2": lowest_safe_fd_o2(fgf, vo2[None, :], inspired_o2_floor),
+            "phase_steady_fio2": steady_state_fio2(fgf, fd_o2, vo2[None, :]),
+            "phase_target_mode": target_mode,
+            "phase_minutes": minutes,
+            "phase_dial_pct": dial * 100.0,
+            "phase_target_mac": target,
+            "absorbent_capacity_l_per_kg": np.full(n_cases, float(absorbent_capacity_l_per_kg)),
+            "circle_volume_l": v_c,
+            "frc_l": v_l,
+        }
+    )
     if series is not None:
         series["dial_pct"][0] = series["dial_pct"][1] if total_steps else 0.0
         series["absorbent_g"] = series["co2_absorbed_l"] / absorbent_capacity_l_per_kg * 1000.0

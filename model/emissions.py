@@ -67,8 +67,9 @@ def emitted_mass_g(delivered_g, uptake_g=0.0, metabolised_fraction=0.0, capture_
        delivered agent, metabolism neglected except for a small share).
     """
     delivered = np.asarray(delivered_g, dtype=float)
-    metabolised = np.minimum(np.asarray(metabolised_fraction, dtype=float) * np.asarray(uptake_g, dtype=float),
-                             delivered)
+    metabolised = np.minimum(
+        np.asarray(metabolised_fraction, dtype=float) * np.asarray(uptake_g, dtype=float), delivered
+    )
     return (delivered - metabolised) * (1.0 - np.asarray(capture_efficiency, dtype=float))
 
 

@@ -6,7 +6,6 @@ import numpy as np
 
 from model.reference import AIR_O2_FRACTION
 
-
 RATIO_BEHAVIOURS = ("cap_n2o", "raise_o2")
 
 #: Flow bands by total fresh gas flow, upper bound inclusive. [L/min]
@@ -57,8 +56,7 @@ def delivered_fractions(o2_l_min, air_l_min, n2o_l_min):
     return fgf, fd_o2, fd_n2o
 
 
-def apply_ratio_limit(o2_l_min, n2o_l_min, min_o2_share=0.25, min_o2_flow_l_min=0.2,
-                      behaviour="cap_n2o"):
+def apply_ratio_limit(o2_l_min, n2o_l_min, min_o2_share=0.25, min_o2_flow_l_min=0.2, behaviour="cap_n2o"):
     """Flows a workstation delivers when it guards against a hypoxic O2/N2O mix.
 
     Parameters

@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import numpy as np
 
-
 #: Slope of log10(MAC) against age. [1/year]
 #: Source: Mapleson WW. Effect of age on MAC in humans: a meta-analysis.
 #: Br J Anaesth 1996;76:179-85.
@@ -64,5 +63,6 @@ def mac_multiple(agent_pct, agent_mac_pct, n2o_pct=0.0, n2o_mac_pct=104.0):
     .. [1] Mapleson WW, Br J Anaesth 1996;76:179-85 (additivity of MAC fractions, as used
        there for N2O mixtures).
     """
-    return (np.asarray(agent_pct, dtype=float) / np.asarray(agent_mac_pct, dtype=float)
-            + np.asarray(n2o_pct, dtype=float) / np.asarray(n2o_mac_pct, dtype=float))
+    return np.asarray(agent_pct, dtype=float) / np.asarray(agent_mac_pct, dtype=float) + np.asarray(
+        n2o_pct, dtype=float
+    ) / np.asarray(n2o_mac_pct, dtype=float)

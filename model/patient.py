@@ -6,7 +6,6 @@ from dataclasses import dataclass
 
 import numpy as np
 
-
 #: Brody's scaling as used by Lowe: VO2 = 10 x kg^0.75. [mL/min]
 #: Source: Lowe HJ, Ernst EA. The Quantitative Practice of Anesthesia: Use of Closed
 #: Circuit. Williams & Wilkins, 1981 (after Brody S, Bioenergetics and Growth, 1945).
@@ -92,8 +91,7 @@ def brody_cardiac_output_l_min(weight_kg):
     return BRODY_Q_DL_MIN * np.asarray(weight_kg, dtype=float) ** BRODY_EXPONENT / 10.0
 
 
-def default_minute_ventilation_l_min(vco2_l_min, paco2_mmhg=NORMOCAPNIA_MMHG,
-                                     dead_space_share=DEAD_SPACE_SHARE):
+def default_minute_ventilation_l_min(vco2_l_min, paco2_mmhg=NORMOCAPNIA_MMHG, dead_space_share=DEAD_SPACE_SHARE):
     """Minute ventilation that keeps a patient normocapnic.
 
     Parameters
@@ -123,8 +121,9 @@ def default_minute_ventilation_l_min(vco2_l_min, paco2_mmhg=NORMOCAPNIA_MMHG,
     return va / (1.0 - dead_space_share)
 
 
-def resolve_patient(weight_kg=70.0, age_years=40.0, cardiac_output_l_min=None, vo2_ml_min=None,
-                    minute_ventilation_l_min=None) -> PatientValues:
+def resolve_patient(
+    weight_kg=70.0, age_years=40.0, cardiac_output_l_min=None, vo2_ml_min=None, minute_ventilation_l_min=None
+) -> PatientValues:
     """Fill a patient's missing physiology by Brody's scaling (vectorised).
 
     Parameters
@@ -162,5 +161,10 @@ def resolve_patient(weight_kg=70.0, age_years=40.0, cardiac_output_l_min=None, v
 
 def patient_values(patient) -> PatientValues:
     """Resolve a :class:`model.plan.Patient` (its None fields take Brody's defaults)."""
-    return resolve_patient(patient.weight_kg, patient.age_years, patient.cardiac_output_l_min,
-                           patient.vo2_ml_min, patient.minute_ventilation_l_min)
+    return resolve_patient(
+        patient.weight_kg,
+        patient.age_years,
+        patient.cardiac_output_l_min,
+        patient.vo2_ml_min,
+        patient.minute_ventilation_l_min,
+    )

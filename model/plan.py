@@ -6,14 +6,14 @@ These dataclasses are what the physics works on; reading and writing plan files 
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass, field, replace
-from typing import Any, Mapping
+from typing import Any
 
+from model.base.errors import InputError
 from model.circle import ABSORBENT_CAPACITY_L_PER_KG, CIRCLE_VOLUME_L
-from model.errors import InputError
 from model.reference import DEFAULT_GWP
 from model.uptake import DEFAULT_UPTAKE_MODEL
-
 
 CONTROL_MODES = ("dial", "target")
 
@@ -102,7 +102,7 @@ class CasePlan:
     def minutes(self) -> float:
         return float(sum(p.minutes for p in self.phases))
 
-    def with_phase(self, index: int, **changes) -> "CasePlan":
+    def with_phase(self, index: int, **changes) -> CasePlan:
         """A copy with one phase changed (e.g. ``with_phase(1, o2_l_min=0.5)``)."""
         phases = list(self.phases)
         phases[index] = replace(phases[index], **changes)
@@ -128,6 +128,8 @@ def check_dials(plan: CasePlan, reference, where: str = "") -> None:
     prefix = f"{where}: " if where else ""
     for i, p in enumerate(plan.phases, start=1):
         if p.dial_pct is not None and p.dial_pct > agent.vaporizer_max:
-            raise InputError(f"{prefix}phases[{i}].dial", f"{p.dial_pct:g} %",
-                             f"the {agent.label.lower()} vaporizer goes up to {agent.vaporizer_max:g} % "
-                             f"(reference values in use)")
+            raise InputError(
+                f"{prefix}phases[{i}].dial",
+                f"{p.dial_pct:g} %",
+                f"the {agent.label.lower()} vaporizer goes up to {agent.vaporizer_max:g} % (reference values in use)",
+            )

@@ -5,14 +5,13 @@ from __future__ import annotations
 import dataclasses
 import math
 import os
+from collections.abc import Mapping
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 from types import MappingProxyType
-from typing import Mapping
 
-from model.errors import InputError
-from model.files import parse_toml, read_user_text
-
+from model.base.errors import InputError
+from model.base.files import parse_toml, read_user_text
 
 #: Largest settings file read. [bytes]
 MAX_SETTINGS_BYTES = 1_000_000
@@ -43,7 +42,7 @@ class Sourced:
     source: str
     basis: str = PUBLISHED
     #: What the value was before a user override (None if never overridden).
-    default: "Sourced | None" = None
+    default: Sourced | None = None
 
 
 def _s(value, unit, source, basis=FROM_MEMORY):
@@ -51,36 +50,40 @@ def _s(value, unit, source, basis=FROM_MEMORY):
 
 
 # Field name -> (unit, description); the order is the order of the reference table.
-AGENT_FIELDS: Mapping[str, tuple[str, str]] = MappingProxyType({
-    "molar_mass": ("g/mol", "molar mass"),
-    "liquid_density": ("g/mL", "liquid density"),
-    "density_temperature": ("degC", "temperature of the liquid density"),
-    "svp_20c": ("kPa", "saturated vapour pressure at 20 °C"),
-    "boiling_point": ("degC", "boiling point at 101.325 kPa"),
-    "blood_gas": ("1", "blood/gas partition coefficient at 37 °C"),
-    "mac40": ("%", "MAC at age 40 in O2"),
-    "vaporizer_max": ("%", "highest vaporizer dial setting"),
-    "bottle_volume": ("mL", "bottle volume"),
-    "metabolised_fraction": ("1", "share of the agent taken up that is metabolised"),
-    "lifetime": ("yr", "atmospheric lifetime"),
-})
+AGENT_FIELDS: Mapping[str, tuple[str, str]] = MappingProxyType(
+    {
+        "molar_mass": ("g/mol", "molar mass"),
+        "liquid_density": ("g/mL", "liquid density"),
+        "density_temperature": ("degC", "temperature of the liquid density"),
+        "svp_20c": ("kPa", "saturated vapour pressure at 20 °C"),
+        "boiling_point": ("degC", "boiling point at 101.325 kPa"),
+        "blood_gas": ("1", "blood/gas partition coefficient at 37 °C"),
+        "mac40": ("%", "MAC at age 40 in O2"),
+        "vaporizer_max": ("%", "highest vaporizer dial setting"),
+        "bottle_volume": ("mL", "bottle volume"),
+        "metabolised_fraction": ("1", "share of the agent taken up that is metabolised"),
+        "lifetime": ("yr", "atmospheric lifetime"),
+    }
+)
 
 # Field name -> (low, high, low included) of a user override: wide bounds that only keep out
 # values no agent or gas can have (zero would divide, a share above 1 is impossible);
 # common practice, no source.
-_AGENT_FIELD_RANGES: Mapping[str, tuple[float, float, bool]] = MappingProxyType({
-    "molar_mass": (0.0, 1000.0, False),
-    "liquid_density": (0.0, 5.0, False),
-    "density_temperature": (-273.15, 100.0, True),
-    "svp_20c": (0.0, 10000.0, False),
-    "boiling_point": (-273.15, 300.0, True),
-    "blood_gas": (0.0, 100.0, False),
-    "mac40": (0.0, 200.0, False),
-    "vaporizer_max": (0.0, 100.0, False),
-    "bottle_volume": (0.0, 10000.0, False),
-    "metabolised_fraction": (0.0, 1.0, True),
-    "lifetime": (0.0, 100000.0, False),
-})
+_AGENT_FIELD_RANGES: Mapping[str, tuple[float, float, bool]] = MappingProxyType(
+    {
+        "molar_mass": (0.0, 1000.0, False),
+        "liquid_density": (0.0, 5.0, False),
+        "density_temperature": (-273.15, 100.0, True),
+        "svp_20c": (0.0, 10000.0, False),
+        "boiling_point": (-273.15, 300.0, True),
+        "blood_gas": (0.0, 100.0, False),
+        "mac40": (0.0, 200.0, False),
+        "vaporizer_max": (0.0, 100.0, False),
+        "bottle_volume": (0.0, 10000.0, False),
+        "metabolised_fraction": (0.0, 1.0, True),
+        "lifetime": (0.0, 100000.0, False),
+    }
+)
 
 _MOLMASS = "computed from the formula with IUPAC standard atomic weights"
 
@@ -126,82 +129,105 @@ _VAPORIZER = "common vaporizer design (maximum dial mark)"
 _BOTTLE = "common bottle size"
 _METAB = "textbook range of in vivo metabolism, from memory"
 
-AGENTS: Mapping[str, Agent] = MappingProxyType({
-    "sevoflurane": _agent(
-        "sevoflurane", "Sevoflurane", "C4H3F7O", "volatile",
-        molar_mass=_s(200.05, "g/mol", _MOLMASS, PUBLISHED),
-        liquid_density=_s(1.52, "g/mL", _LABEL_SEVO + " (1.520-1.525 at 20 °C)"),
-        density_temperature=_s(20.0, "degC", _LABEL_SEVO),
-        svp_20c=_s(20.9, "kPa", _LABEL_SEVO + " (157 mmHg at 20 °C)"),
-        boiling_point=_s(58.6, "degC", _LABEL_SEVO),
-        blood_gas=_s(0.65, "1", _YASUDA),
-        mac40=_s(2.1, "%", _LABEL_SEVO + " (age 40, in O2)"),
-        vaporizer_max=_s(8.0, "%", _VAPORIZER, COMMON_PRACTICE),
-        bottle_volume=_s(250.0, "mL", _BOTTLE, COMMON_PRACTICE),
-        metabolised_fraction=_s(0.03, "1", _METAB + " (2-5 %)"),
-        lifetime=_s(1.9, "yr", _AR6 + ", from memory"),
-    ),
-    "desflurane": _agent(
-        "desflurane", "Desflurane", "C3H2F6O", "volatile",
-        molar_mass=_s(168.04, "g/mol", _MOLMASS, PUBLISHED),
-        liquid_density=_s(1.465, "g/mL", _LABEL_DES + " (1.465 at 20 °C)"),
-        density_temperature=_s(20.0, "degC", _LABEL_DES),
-        svp_20c=_s(89.2, "kPa", _LABEL_DES + " (669 mmHg at 20 °C)"),
-        boiling_point=_s(22.8, "degC", _LABEL_DES),
-        blood_gas=_s(0.45, "1", _YASUDA),
-        mac40=_s(6.0, "%", _LABEL_DES + " (ages 31-65, in O2)"),
-        vaporizer_max=_s(18.0, "%", _VAPORIZER, COMMON_PRACTICE),
-        bottle_volume=_s(240.0, "mL", _BOTTLE, COMMON_PRACTICE),
-        metabolised_fraction=_s(0.0002, "1", _METAB + " (0.02 %)"),
-        lifetime=_s(10.8, "yr", _AR6 + ", from memory"),
-    ),
-    "isoflurane": _agent(
-        "isoflurane", "Isoflurane", "C3H2ClF5O", "volatile",
-        molar_mass=_s(184.49, "g/mol", _MOLMASS, PUBLISHED),
-        liquid_density=_s(1.496, "g/mL", _LABEL_ISO + " (specific gravity 1.496)"),
-        density_temperature=_s(20.0, "degC", _LABEL_ISO),
-        svp_20c=_s(31.7, "kPa", _LABEL_ISO + " (238 mmHg at 20 °C)"),
-        boiling_point=_s(48.5, "degC", _LABEL_ISO),
-        blood_gas=_s(1.4, "1", _YASUDA),
-        mac40=_s(1.15, "%", _LABEL_ISO + " (about age 44, in O2)"),
-        vaporizer_max=_s(5.0, "%", _VAPORIZER, COMMON_PRACTICE),
-        bottle_volume=_s(250.0, "mL", _BOTTLE, COMMON_PRACTICE),
-        metabolised_fraction=_s(0.002, "1", _METAB + " (0.2 %)"),
-        lifetime=_s(3.5, "yr", _AR6 + ", from memory"),
-    ),
-    "halothane": _agent(
-        "halothane", "Halothane", "C2HBrClF3", "volatile",
-        molar_mass=_s(197.38, "g/mol", _MOLMASS, PUBLISHED),
-        liquid_density=_s(1.86, "g/mL", _LABEL_HAL + " (1.86 at 20 °C)"),
-        density_temperature=_s(20.0, "degC", _LABEL_HAL),
-        svp_20c=_s(32.4, "kPa", _LABEL_HAL + " (243 mmHg at 20 °C)"),
-        boiling_point=_s(50.2, "degC", _LABEL_HAL),
-        blood_gas=_s(2.4, "1", _YASUDA + " (2.3-2.5)"),
-        mac40=_s(0.75, "%", _MAPLESON),
-        vaporizer_max=_s(5.0, "%", _VAPORIZER, COMMON_PRACTICE),
-        bottle_volume=_s(250.0, "mL", _BOTTLE, COMMON_PRACTICE),
-        metabolised_fraction=_s(0.20, "1", _METAB + " (about 20 %)"),
-        lifetime=_s(1.0, "yr", _AR6 + ", from memory"),
-    ),
-    "nitrous_oxide": _agent(
-        "nitrous_oxide", "Nitrous oxide", "N2O", "gas",
-        molar_mass=_s(44.013, "g/mol", _MOLMASS, PUBLISHED),
-        boiling_point=_s(-88.5, "degC", "CRC Handbook of Chemistry and Physics, from memory"),
-        blood_gas=_s(0.47, "1", "Eger EI, Anesthetic Uptake and Action, 1974, from memory"),
-        mac40=_s(104.0, "%", _MAPLESON),
-        metabolised_fraction=_s(0.00004, "1", "textbook value (0.004 %), from memory"),
-        lifetime=_s(109.0, "yr", _AR6 + ", from memory"),
-    ),
-    "oxygen": _agent(
-        "oxygen", "Oxygen", "O2", "gas",
-        molar_mass=_s(31.998, "g/mol", _MOLMASS, PUBLISHED),
-        boiling_point=_s(-183.0, "degC", "CRC Handbook of Chemistry and Physics, from memory"),
-    ),
-    "air": _agent(
-        "air", "Medical air", "", "gas",
-        molar_mass=_s(28.965, "g/mol", "US Standard Atmosphere 1976 (dry air), from memory"),
-    ),
-})
+AGENTS: Mapping[str, Agent] = MappingProxyType(
+    {
+        "sevoflurane": _agent(
+            "sevoflurane",
+            "Sevoflurane",
+            "C4H3F7O",
+            "volatile",
+            molar_mass=_s(200.05, "g/mol", _MOLMASS, PUBLISHED),
+            liquid_density=_s(1.52, "g/mL", _LABEL_SEVO + " (1.520-1.525 at 20 °C)"),
+            density_temperature=_s(20.0, "degC", _LABEL_SEVO),
+            svp_20c=_s(20.9, "kPa", _LABEL_SEVO + " (157 mmHg at 20 °C)"),
+            boiling_point=_s(58.6, "degC", _LABEL_SEVO),
+            blood_gas=_s(0.65, "1", _YASUDA),
+            mac40=_s(2.1, "%", _LABEL_SEVO + " (age 40, in O2)"),
+            vaporizer_max=_s(8.0, "%", _VAPORIZER, COMMON_PRACTICE),
+            bottle_volume=_s(250.0, "mL", _BOTTLE, COMMON_PRACTICE),
+            metabolised_fraction=_s(0.03, "1", _METAB + " (2-5 %)"),
+            lifetime=_s(1.9, "yr", _AR6 + ", from memory"),
+        ),
+        "desflurane": _agent(
+            "desflurane",
+            "Desflurane",
+            "C3H2F6O",
+            "volatile",
+            molar_mass=_s(168.04, "g/mol", _MOLMASS, PUBLISHED),
+            liquid_density=_s(1.465, "g/mL", _LABEL_DES + " (1.465 at 20 °C)"),
+            density_temperature=_s(20.0, "degC", _LABEL_DES),
+            svp_20c=_s(89.2, "kPa", _LABEL_DES + " (669 mmHg at 20 °C)"),
+            boiling_point=_s(22.8, "degC", _LABEL_DES),
+            blood_gas=_s(0.45, "1", _YASUDA),
+            mac40=_s(6.0, "%", _LABEL_DES + " (ages 31-65, in O2)"),
+            vaporizer_max=_s(18.0, "%", _VAPORIZER, COMMON_PRACTICE),
+            bottle_volume=_s(240.0, "mL", _BOTTLE, COMMON_PRACTICE),
+            metabolised_fraction=_s(0.0002, "1", _METAB + " (0.02 %)"),
+            lifetime=_s(10.8, "yr", _AR6 + ", from memory"),
+        ),
+        "isoflurane": _agent(
+            "isoflurane",
+            "Isoflurane",
+            "C3H2ClF5O",
+            "volatile",
+            molar_mass=_s(184.49, "g/mol", _MOLMASS, PUBLISHED),
+            liquid_density=_s(1.496, "g/mL", _LABEL_ISO + " (specific gravity 1.496)"),
+            density_temperature=_s(20.0, "degC", _LABEL_ISO),
+            svp_20c=_s(31.7, "kPa", _LABEL_ISO + " (238 mmHg at 20 °C)"),
+            boiling_point=_s(48.5, "degC", _LABEL_ISO),
+            blood_gas=_s(1.4, "1", _YASUDA),
+            mac40=_s(1.15, "%", _LABEL_ISO + " (about age 44, in O2)"),
+            vaporizer_max=_s(5.0, "%", _VAPORIZER, COMMON_PRACTICE),
+            bottle_volume=_s(250.0, "mL", _BOTTLE, COMMON_PRACTICE),
+            metabolised_fraction=_s(0.002, "1", _METAB + " (0.2 %)"),
+            lifetime=_s(3.5, "yr", _AR6 + ", from memory"),
+        ),
+        "halothane": _agent(
+            "halothane",
+            "Halothane",
+            "C2HBrClF3",
+            "volatile",
+            molar_mass=_s(197.38, "g/mol", _MOLMASS, PUBLISHED),
+            liquid_density=_s(1.86, "g/mL", _LABEL_HAL + " (1.86 at 20 °C)"),
+            density_temperature=_s(20.0, "degC", _LABEL_HAL),
+            svp_20c=_s(32.4, "kPa", _LABEL_HAL + " (243 mmHg at 20 °C)"),
+            boiling_point=_s(50.2, "degC", _LABEL_HAL),
+            blood_gas=_s(2.4, "1", _YASUDA + " (2.3-2.5)"),
+            mac40=_s(0.75, "%", _MAPLESON),
+            vaporizer_max=_s(5.0, "%", _VAPORIZER, COMMON_PRACTICE),
+            bottle_volume=_s(250.0, "mL", _BOTTLE, COMMON_PRACTICE),
+            metabolised_fraction=_s(0.20, "1", _METAB + " (about 20 %)"),
+            lifetime=_s(1.0, "yr", _AR6 + ", from memory"),
+        ),
+        "nitrous_oxide": _agent(
+            "nitrous_oxide",
+            "Nitrous oxide",
+            "N2O",
+            "gas",
+            molar_mass=_s(44.013, "g/mol", _MOLMASS, PUBLISHED),
+            boiling_point=_s(-88.5, "degC", "CRC Handbook of Chemistry and Physics, from memory"),
+            blood_gas=_s(0.47, "1", "Eger EI, Anesthetic Uptake and Action, 1974, from memory"),
+            mac40=_s(104.0, "%", _MAPLESON),
+            metabolised_fraction=_s(0.00004, "1", "textbook value (0.004 %), from memory"),
+            lifetime=_s(109.0, "yr", _AR6 + ", from memory"),
+        ),
+        "oxygen": _agent(
+            "oxygen",
+            "Oxygen",
+            "O2",
+            "gas",
+            molar_mass=_s(31.998, "g/mol", _MOLMASS, PUBLISHED),
+            boiling_point=_s(-183.0, "degC", "CRC Handbook of Chemistry and Physics, from memory"),
+        ),
+        "air": _agent(
+            "air",
+            "Medical air",
+            "",
+            "gas",
+            molar_mass=_s(28.965, "g/mol", "US Standard Atmosphere 1976 (dry air), from memory"),
+        ),
+    }
+)
 
 VOLATILES = tuple(name for name, a in AGENTS.items() if a.kind == "volatile")
 
@@ -225,43 +251,73 @@ _AR6_NOTE = "IPCC AR6 WG1 (2021), Ch. 7 Suppl. Table 7.SM.7"
 _AR5_NOTE = "IPCC AR5 WG1 (2013), Ch. 8 Appendix 8.A, Table 8.A.1"
 _SA2012 = "Sulbaek Andersen MP et al., Anesth Analg 2012;114:1081-5"
 
-GWP_SOURCES: Mapping[str, GwpSource] = MappingProxyType({
-    "ar6_gwp100": GwpSource("ar6_gwp100", "IPCC AR6 GWP100", 100, _AR6_NOTE, MappingProxyType({
-        "nitrous_oxide": _gwp(273.0, _AR6_NOTE),
-        "desflurane": _gwp(2590.0, _AR6_NOTE + " (HFE-236ea2)"),
-        "isoflurane": _gwp(539.0, _AR6_NOTE + " (HCFE-235da2)"),
-        "sevoflurane": _gwp(195.0, _AR6_NOTE + " (HFE-347mmz1), from memory", FROM_MEMORY),
-        "halothane": _gwp(50.8, _AR6_NOTE + " (halothane), from memory", FROM_MEMORY),
-    })),
-    "ar6_gwp20": GwpSource("ar6_gwp20", "IPCC AR6 GWP20", 20, _AR6_NOTE, MappingProxyType({
-        "nitrous_oxide": _gwp(273.0, _AR6_NOTE),
-        "desflurane": _gwp(7020.0, _AR6_NOTE + " (HFE-236ea2)"),
-        "isoflurane": _gwp(1930.0, _AR6_NOTE + " (HCFE-235da2)"),
-        "sevoflurane": _gwp(702.0, _AR6_NOTE + " (HFE-347mmz1), from memory", FROM_MEMORY),
-        "halothane": _gwp(185.0, _AR6_NOTE + " (halothane), from memory", FROM_MEMORY),
-    })),
-    "ar5_gwp100": GwpSource("ar5_gwp100", "IPCC AR5 GWP100", 100, _AR5_NOTE, MappingProxyType({
-        "nitrous_oxide": _gwp(265.0, _AR5_NOTE),
-        "desflurane": _gwp(1790.0, _AR5_NOTE + " (HFE-236ea2)"),
-        "isoflurane": _gwp(491.0, _AR5_NOTE + " (HCFE-235da2)"),
-        "sevoflurane": _gwp(216.0, _AR5_NOTE + " (HFE-347mmz1), from memory", FROM_MEMORY),
-        "halothane": _gwp(41.0, _AR5_NOTE + " (halothane), from memory", FROM_MEMORY),
-    })),
-    "sulbaek_andersen_2012": GwpSource(
-        "sulbaek_andersen_2012", "Sulbaek Andersen et al. 2012 GWP100", 100, _SA2012,
-        MappingProxyType({
-            "nitrous_oxide": _gwp(298.0, _SA2012 + " (IPCC AR4 value used there), from memory", FROM_MEMORY),
-            "desflurane": _gwp(2540.0, _SA2012 + ", from memory", FROM_MEMORY),
-            "isoflurane": _gwp(510.0, _SA2012 + ", from memory", FROM_MEMORY),
-            "sevoflurane": _gwp(130.0, _SA2012 + ", from memory", FROM_MEMORY),
-            # The paper may list halothane too; its value is not carried here because it
-            # could not be confirmed from memory. Give a user value under [gwp.user].
-            "halothane": _gwp(None, _SA2012 + ": halothane value not carried (unconfirmed)",
-                              FROM_MEMORY),
-        })),
-    "user": GwpSource("user", "User values", 100, "values from the user's settings file",
-                      MappingProxyType({})),
-})
+GWP_SOURCES: Mapping[str, GwpSource] = MappingProxyType(
+    {
+        "ar6_gwp100": GwpSource(
+            "ar6_gwp100",
+            "IPCC AR6 GWP100",
+            100,
+            _AR6_NOTE,
+            MappingProxyType(
+                {
+                    "nitrous_oxide": _gwp(273.0, _AR6_NOTE),
+                    "desflurane": _gwp(2590.0, _AR6_NOTE + " (HFE-236ea2)"),
+                    "isoflurane": _gwp(539.0, _AR6_NOTE + " (HCFE-235da2)"),
+                    "sevoflurane": _gwp(195.0, _AR6_NOTE + " (HFE-347mmz1), from memory", FROM_MEMORY),
+                    "halothane": _gwp(50.8, _AR6_NOTE + " (halothane), from memory", FROM_MEMORY),
+                }
+            ),
+        ),
+        "ar6_gwp20": GwpSource(
+            "ar6_gwp20",
+            "IPCC AR6 GWP20",
+            20,
+            _AR6_NOTE,
+            MappingProxyType(
+                {
+                    "nitrous_oxide": _gwp(273.0, _AR6_NOTE),
+                    "desflurane": _gwp(7020.0, _AR6_NOTE + " (HFE-236ea2)"),
+                    "isoflurane": _gwp(1930.0, _AR6_NOTE + " (HCFE-235da2)"),
+                    "sevoflurane": _gwp(702.0, _AR6_NOTE + " (HFE-347mmz1), from memory", FROM_MEMORY),
+                    "halothane": _gwp(185.0, _AR6_NOTE + " (halothane), from memory", FROM_MEMORY),
+                }
+            ),
+        ),
+        "ar5_gwp100": GwpSource(
+            "ar5_gwp100",
+            "IPCC AR5 GWP100",
+            100,
+            _AR5_NOTE,
+            MappingProxyType(
+                {
+                    "nitrous_oxide": _gwp(265.0, _AR5_NOTE),
+                    "desflurane": _gwp(1790.0, _AR5_NOTE + " (HFE-236ea2)"),
+                    "isoflurane": _gwp(491.0, _AR5_NOTE + " (HCFE-235da2)"),
+                    "sevoflurane": _gwp(216.0, _AR5_NOTE + " (HFE-347mmz1), from memory", FROM_MEMORY),
+                    "halothane": _gwp(41.0, _AR5_NOTE + " (halothane), from memory", FROM_MEMORY),
+                }
+            ),
+        ),
+        "sulbaek_andersen_2012": GwpSource(
+            "sulbaek_andersen_2012",
+            "Sulbaek Andersen et al. 2012 GWP100",
+            100,
+            _SA2012,
+            MappingProxyType(
+                {
+                    "nitrous_oxide": _gwp(298.0, _SA2012 + " (IPCC AR4 value used there), from memory", FROM_MEMORY),
+                    "desflurane": _gwp(2540.0, _SA2012 + ", from memory", FROM_MEMORY),
+                    "isoflurane": _gwp(510.0, _SA2012 + ", from memory", FROM_MEMORY),
+                    "sevoflurane": _gwp(130.0, _SA2012 + ", from memory", FROM_MEMORY),
+                    # The paper may list halothane too; its value is not carried here because it
+                    # could not be confirmed from memory. Give a user value under [gwp.user].
+                    "halothane": _gwp(None, _SA2012 + ": halothane value not carried (unconfirmed)", FROM_MEMORY),
+                }
+            ),
+        ),
+        "user": GwpSource("user", "User values", 100, "values from the user's settings file", MappingProxyType({})),
+    }
+)
 DEFAULT_GWP = "ar6_gwp100"
 
 
@@ -271,8 +327,11 @@ class Prices:
 
     currency: str = "GBP"
     #: Price of one bottle per volatile agent. [currency/bottle]
-    bottle: Mapping[str, float] = field(default_factory=lambda: MappingProxyType({
-        "sevoflurane": 120.0, "desflurane": 75.0, "isoflurane": 20.0, "halothane": 30.0}))
+    bottle: Mapping[str, float] = field(
+        default_factory=lambda: MappingProxyType(
+            {"sevoflurane": 120.0, "desflurane": 75.0, "isoflurane": 20.0, "halothane": 30.0}
+        )
+    )
     #: Gas prices. [currency per 1000 L at room conditions]
     oxygen_per_1000_l: float = 3.0
     air_per_1000_l: float = 2.0
@@ -283,8 +342,11 @@ class Prices:
     basis: str = INVENTED
 
     def gas_per_1000_l(self, gas: str) -> float:
-        return {"oxygen": self.oxygen_per_1000_l, "air": self.air_per_1000_l,
-                "nitrous_oxide": self.nitrous_oxide_per_1000_l}[gas]
+        return {
+            "oxygen": self.oxygen_per_1000_l,
+            "air": self.air_per_1000_l,
+            "nitrous_oxide": self.nitrous_oxide_per_1000_l,
+        }[gas]
 
 
 #: Fields of the settings file's ``[absorbent]`` table: what the record audit assumes for
@@ -292,12 +354,14 @@ class Prices:
 #: lowest, highest). A field left out takes the case plans' default (see
 #: ``model.audit.absorbent``: a 70 kg adult, VCO2 by Brody's scaling, minute ventilation
 #: from the alveolar ventilation equation at normocapnia, the plans' absorbent capacity).
-ABSORBENT_FIELDS: Mapping[str, tuple[str, str, float, float]] = MappingProxyType({
-    "weight_kg": ("kg", "patient weight for VCO2 (Brody's scaling)", 1.0, 300.0),
-    "vco2_ml_min": ("mL/min", "CO2 production", 10.0, 2000.0),
-    "minute_ventilation_l_min": ("L/min", "minute ventilation", 0.5, 40.0),
-    "capacity_l_per_kg": ("L/kg", "CO2 taken up per kg of absorbent", 10.0, 400.0),
-})
+ABSORBENT_FIELDS: Mapping[str, tuple[str, str, float, float]] = MappingProxyType(
+    {
+        "weight_kg": ("kg", "patient weight for VCO2 (Brody's scaling)", 1.0, 300.0),
+        "vco2_ml_min": ("mL/min", "CO2 production", 10.0, 2000.0),
+        "minute_ventilation_l_min": ("L/min", "minute ventilation", 0.5, 40.0),
+        "capacity_l_per_kg": ("L/kg", "CO2 taken up per kg of absorbent", 10.0, 400.0),
+    }
+)
 
 
 @dataclass(frozen=True)
@@ -337,10 +401,13 @@ class Reference:
         if (value is None or value.value is None) and not used:
             return 0.0
         if value is None or value.value is None:
-            raise InputError("gwp_source", source,
-                             f"{src.label} has no value for {agent}; choose another source "
-                             f"or give a user value (dashboard: Reference page, GWP values; "
-                             f"command line: [gwp.user] in the settings file)")
+            raise InputError(
+                "gwp_source",
+                source,
+                f"{src.label} has no value for {agent}; choose another source "
+                f"or give a user value (dashboard: Reference page, GWP values; "
+                f"command line: [gwp.user] in the settings file)",
+            )
         return value.value
 
     def gwp_source(self, source: str) -> GwpSource:
@@ -348,7 +415,7 @@ class Reference:
             raise InputError("gwp_source", source, "allowed sources are " + ", ".join(self.gwp_sources))
         return self.gwp_sources[source]
 
-    def with_overrides(self, overrides: Mapping, origin: str) -> "Reference":
+    def with_overrides(self, overrides: Mapping, origin: str) -> Reference:
         """Return a new Reference with user overrides applied; see ``load_settings``.
 
         ``overrides`` has optional tables ``agents.<agent>.<field>``, ``gwp.<source>.<agent>``,
@@ -372,11 +439,11 @@ class Reference:
                 low, high, closed = _AGENT_FIELD_RANGES[fname]
                 if not (low <= number <= high if closed else low < number <= high):
                     unit = AGENT_FIELDS[fname][0].replace("1", "").strip()
-                    raise InputError(where, raw, f"allowed range is {'[' if closed else '('}"
-                                                 f"{low:g}, {high:g}] {unit}".rstrip())
+                    raise InputError(
+                        where, raw, f"allowed range is {'[' if closed else '('}{low:g}, {high:g}] {unit}".rstrip()
+                    )
                 old = values.get(fname) or Sourced(None, AGENT_FIELDS[fname][0], "no default")
-                values[fname] = Sourced(number, old.unit, f"user override ({origin})", USER,
-                                        old.default or old)
+                values[fname] = Sourced(number, old.unit, f"user override ({origin})", USER, old.default or old)
             agents[agent.name] = replace(agent, values=MappingProxyType(values))
         sources = dict(self.gwp_sources)
         for skey, table in _table(overrides.get("gwp", {}), f"{origin}: [gwp]").items():
@@ -391,8 +458,9 @@ class Reference:
                 if number > MAX_GWP:
                     raise InputError(where, raw, f"a GWP is at most {MAX_GWP:g}")
                 old = values.get(agent.name) or Sourced(None, "kg CO2e/kg", "no default")
-                values[agent.name] = Sourced(number, "kg CO2e/kg", f"user override ({origin})",
-                                             USER, old.default or old)
+                values[agent.name] = Sourced(
+                    number, "kg CO2e/kg", f"user override ({origin})", USER, old.default or old
+                )
             sources[skey] = replace(src, values=MappingProxyType(values))
         prices = self.prices
         ptable = _table(overrides.get("prices", {}), f"{origin}: [prices]")
@@ -426,8 +494,13 @@ class Reference:
             if not low <= number <= high:
                 raise InputError(where, raw, f"allowed range is [{low:g}, {high:g}] {unit}")
             absorbent[fname] = Sourced(number, unit, f"user override ({origin})", USER)
-        return Reference(MappingProxyType(agents), MappingProxyType(sources), prices,
-                         self.override_origins + (origin,), MappingProxyType(absorbent))
+        return Reference(
+            MappingProxyType(agents),
+            MappingProxyType(sources),
+            prices,
+            self.override_origins + (origin,),
+            MappingProxyType(absorbent),
+        )
 
     def table(self):
         """The reference table as rows of dicts: item, field, value, unit, source, basis, default.
@@ -442,30 +515,83 @@ class Reference:
                 v = agent.values.get(fname)
                 if v is None:
                     continue
-                rows.append(dict(item=agent.label, field=description, value=v.value, unit=unit,
-                                 source=v.source, basis=v.basis, **_default_of(v)))
+                rows.append(
+                    dict(
+                        item=agent.label,
+                        field=description,
+                        value=v.value,
+                        unit=unit,
+                        source=v.source,
+                        basis=v.basis,
+                        **_default_of(v),
+                    )
+                )
         for src in self.gwp_sources.values():
             for aname, v in src.values.items():
-                rows.append(dict(item=self.agents[aname].label, field=f"GWP, {src.label}",
-                                 value=v.value, unit=v.unit, source=v.source, basis=v.basis,
-                                 **_default_of(v)))
+                rows.append(
+                    dict(
+                        item=self.agents[aname].label,
+                        field=f"GWP, {src.label}",
+                        value=v.value,
+                        unit=v.unit,
+                        source=v.source,
+                        basis=v.basis,
+                        **_default_of(v),
+                    )
+                )
         p = self.prices
         for aname, price in p.bottle.items():
-            rows.append(dict(item=self.agents[aname].label, field="price per bottle", value=price,
-                             unit=f"{p.currency}/bottle", source=p.basis, basis=_price_basis(p),
-                             **_price_default(price, base_prices.bottle.get(aname))))
-        for key, label in (("oxygen_per_1000_l", "Oxygen"), ("air_per_1000_l", "Medical air"),
-                           ("nitrous_oxide_per_1000_l", "Nitrous oxide")):
-            rows.append(dict(item=label, field="price per 1000 L", value=getattr(p, key),
-                             unit=f"{p.currency}/1000 L", source=p.basis, basis=_price_basis(p),
-                             **_price_default(getattr(p, key), getattr(base_prices, key))))
-        rows.append(dict(item="CO2 absorbent", field="price per kg", value=p.absorbent_per_kg,
-                         unit=f"{p.currency}/kg", source=p.basis, basis=_price_basis(p),
-                         **_price_default(p.absorbent_per_kg, base_prices.absorbent_per_kg)))
+            rows.append(
+                dict(
+                    item=self.agents[aname].label,
+                    field="price per bottle",
+                    value=price,
+                    unit=f"{p.currency}/bottle",
+                    source=p.basis,
+                    basis=_price_basis(p),
+                    **_price_default(price, base_prices.bottle.get(aname)),
+                )
+            )
+        for key, label in (
+            ("oxygen_per_1000_l", "Oxygen"),
+            ("air_per_1000_l", "Medical air"),
+            ("nitrous_oxide_per_1000_l", "Nitrous oxide"),
+        ):
+            rows.append(
+                dict(
+                    item=label,
+                    field="price per 1000 L",
+                    value=getattr(p, key),
+                    unit=f"{p.currency}/1000 L",
+                    source=p.basis,
+                    basis=_price_basis(p),
+                    **_price_default(getattr(p, key), getattr(base_prices, key)),
+                )
+            )
+        rows.append(
+            dict(
+                item="CO2 absorbent",
+                field="price per kg",
+                value=p.absorbent_per_kg,
+                unit=f"{p.currency}/kg",
+                source=p.basis,
+                basis=_price_basis(p),
+                **_price_default(p.absorbent_per_kg, base_prices.absorbent_per_kg),
+            )
+        )
         for fname, v in self.absorbent.items():
-            rows.append(dict(item="CO2 absorbent, record audit", field=ABSORBENT_FIELDS[fname][1],
-                             value=v.value, unit=v.unit, source=v.source, basis=v.basis,
-                             default=None, default_source="the case plans' default patient"))
+            rows.append(
+                dict(
+                    item="CO2 absorbent, record audit",
+                    field=ABSORBENT_FIELDS[fname][1],
+                    value=v.value,
+                    unit=v.unit,
+                    source=v.source,
+                    basis=v.basis,
+                    default=None,
+                    default_source="the case plans' default patient",
+                )
+            )
         return rows
 
 
@@ -520,9 +646,16 @@ def _price(raw, where) -> float:
     return number
 
 
-_ALIASES = {"n2o": "nitrous_oxide", "nitrous oxide": "nitrous_oxide", "nitrous": "nitrous_oxide",
-            "o2": "oxygen", "sevo": "sevoflurane", "des": "desflurane", "iso": "isoflurane",
-            "medical air": "air"}
+_ALIASES = {
+    "n2o": "nitrous_oxide",
+    "nitrous oxide": "nitrous_oxide",
+    "nitrous": "nitrous_oxide",
+    "o2": "oxygen",
+    "sevo": "sevoflurane",
+    "des": "desflurane",
+    "iso": "isoflurane",
+    "medical air": "air",
+}
 
 
 def normalise_agent_name(name) -> str:
@@ -546,8 +679,9 @@ def load_settings(path: str | os.PathLike | None = None, base: Reference | None 
         return base
     p = Path(path)
     text = read_user_text(p, "settings", MAX_SETTINGS_BYTES)
-    data = parse_toml(text, f"settings file {p}", "settings",
-                      "the file is not valid TOML (see 'Settings file' in docs/formats.md)")
+    data = parse_toml(
+        text, f"settings file {p}", "settings", "the file is not valid TOML (see 'Settings file' in docs/formats.md)"
+    )
     return base.with_overrides(data, str(p))
 
 

@@ -1,6 +1,7 @@
 """The flow sweep: what one case plan consumes, costs and emits as its maintenance fresh gas
 flow runs from metabolic to very high flow, with the cost-lowest and emission-lowest flows
-that keep inspired O2 above the floor."""
+that keep inspired O2 above the floor.
+"""
 
 from __future__ import annotations
 
@@ -9,12 +10,11 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
+from model.base.errors import InputError
 from model.case import simulate_plan, simulation_totals
-from model.errors import InputError
 from model.freshgas import flow_band
 from model.plan import CasePlan
 from model.reference import DEFAULT_REFERENCE, Reference
-
 
 #: Flows of the sweep, spanning Baker's bands from metabolic (0.25) to very high (> 4). [L/min]
 #: Source of the bands: Baker AB. Anaesth Intensive Care 1994;22:341-2.
@@ -39,6 +39,7 @@ class SweepResult:
 
     def to_dict(self) -> dict:
         """Machine-readable form with stable keys (units in the key names)."""
+
         def clean(v):
             if isinstance(v, (np.floating, float)):
                 v = float(v)
@@ -48,6 +49,7 @@ class SweepResult:
             if isinstance(v, np.integer):
                 return int(v)
             return v
+
         return {
             "plan": self.plan.name,
             "agent": self.plan.agent,
@@ -62,8 +64,9 @@ class SweepResult:
         }
 
 
-def flow_sweep(plan: CasePlan, reference: Reference = DEFAULT_REFERENCE, flows_l_min=None,
-               phase: int | None = None) -> SweepResult:
+def flow_sweep(
+    plan: CasePlan, reference: Reference = DEFAULT_REFERENCE, flows_l_min=None, phase: int | None = None
+) -> SweepResult:
     """Consumption, cost and CO2e of a plan as functions of one phase's fresh gas flow.
 
     Parameters
@@ -106,8 +109,7 @@ def flow_sweep(plan: CasePlan, reference: Reference = DEFAULT_REFERENCE, flows_l
     if not 0 <= phase < n_phases:
         raise InputError("phase", phase + 1, f"the plan has phases 1 to {n_phases}")
     flows = np.asarray(DEFAULT_SWEEP_FLOWS if flows_l_min is None else flows_l_min, dtype=float)
-    if flows.ndim != 1 or flows.size == 0 or not np.all(np.isfinite(flows)) or np.any(flows <= 0) \
-            or np.any(flows > 30):
+    if flows.ndim != 1 or flows.size == 0 or not np.all(np.isfinite(flows)) or np.any(flows <= 0) or np.any(flows > 30):
         raise InputError("flows", [float(x) for x in np.atleast_1d(flows)], "give one or more flows in (0, 30] L/min")
     s = plan.settings
     agent = reference.volatile(plan.agent)
@@ -125,49 +127,59 @@ def flow_sweep(plan: CasePlan, reference: Reference = DEFAULT_REFERENCE, flows_l
 
     fgf0 = p.fgf_l_min
     o2, air, n2o = table("o2_l_min"), table("air_l_min"), table("n2o_l_min")
-    o2[phase], air[phase], n2o[phase] = (flows * p.o2_l_min / fgf0, flows * p.air_l_min / fgf0,
-                                         flows * p.n2o_l_min / fgf0)
+    o2[phase], air[phase], n2o[phase] = (
+        flows * p.o2_l_min / fgf0,
+        flows * p.air_l_min / fgf0,
+        flows * p.n2o_l_min / fgf0,
+    )
     dial = np.array([[np.nan if q.dial_pct is None else q.dial_pct] for q in plan.phases]).repeat(n, axis=1)
     tgt = np.array([[np.nan if q.target_mac is None else q.target_mac] for q in plan.phases]).repeat(n, axis=1)
     dial[phase], tgt[phase] = np.nan, target
-    sim = simulate_plan(plan, reference, o2_l_min=o2, air_l_min=air, n2o_l_min=n2o, dial_pct=dial,
-                        target_mac=tgt)
-    totals, _ = simulation_totals(sim, agent, reference.prices,
-                                  gwp_agent=reference.gwp(agent.name, s.gwp_source),
-                                  gwp_n2o=reference.gwp("nitrous_oxide", s.gwp_source, used=bool(np.any(n2o > 0))),
-                                  capture_efficiency=s.capture_efficiency, temperature_c=s.temperature_c,
-                                  pressure_kpa=s.pressure_kpa, nitrous_oxide=reference.agents["nitrous_oxide"])
+    sim = simulate_plan(plan, reference, o2_l_min=o2, air_l_min=air, n2o_l_min=n2o, dial_pct=dial, target_mac=tgt)
+    totals, _ = simulation_totals(
+        sim,
+        agent,
+        reference.prices,
+        gwp_agent=reference.gwp(agent.name, s.gwp_source),
+        gwp_n2o=reference.gwp("nitrous_oxide", s.gwp_source, used=bool(np.any(n2o > 0))),
+        capture_efficiency=s.capture_efficiency,
+        temperature_c=s.temperature_c,
+        pressure_kpa=s.pressure_kpa,
+        nitrous_oxide=reference.agents["nitrous_oxide"],
+    )
     fgf = sim["phase_fgf_l_min"][phase]
     min_o2 = sim["phase_min_inspired_o2"][phase]
     o2_safe = (min_o2 >= s.inspired_o2_floor) & (totals["o2_shortfall_l"] <= 1e-6)
     held = sim["phase_time_at_max_below_target_min"][phase] <= TARGET_HELD_SHARE * p.minutes
     sevo = (agent.name == "sevoflurane") & (fgf < s.sevoflurane_min_flow_l_min)
-    df = pd.DataFrame({
-        "requested_fgf_l_min": flows,
-        "fgf_l_min": fgf,
-        "flow_band": flow_band(fgf),
-        "liquid_agent_ml": totals["liquid_agent_ml"],
-        "agent_mass_g": totals["agent_mass_g"],
-        "oxygen_l": totals["oxygen_l"],
-        "air_l": totals["air_l"],
-        "nitrous_oxide_l": totals["nitrous_oxide_l"],
-        "absorbent_g": totals["absorbent_g"],
-        "cost_agent": totals["cost_agent"],
-        "cost_gases": totals["cost_oxygen"] + totals["cost_air"] + totals["cost_nitrous_oxide"],
-        "cost_absorbent": totals["cost_absorbent"],
-        "cost_total": totals["cost_total"],
-        "co2e_total_kg": totals["co2e_total_kg"],
-        "mean_dial_pct": sim["phase_mean_dial_pct"][phase],
-        "min_inspired_o2_pct": min_o2 * 100.0,
-        "lowest_safe_fd_o2_pct": sim["phase_lowest_safe_fd_o2"][phase] * 100.0,
-        "fd_o2_pct": sim["phase_fd_o2"][phase] * 100.0,
-        "o2_safe": o2_safe,
-        # A hazard as in model.cautions.case_warnings: hypoxic mixture predicted or O2 running out.
-        "safety": np.where(o2_safe, "ok", "UNSAFE: hypoxic mixture or O2 runs out"),
-        "target_held": held,
-        "sevoflurane_caution": sevo,
-        "feasible": o2_safe & held,
-    })
+    df = pd.DataFrame(
+        {
+            "requested_fgf_l_min": flows,
+            "fgf_l_min": fgf,
+            "flow_band": flow_band(fgf),
+            "liquid_agent_ml": totals["liquid_agent_ml"],
+            "agent_mass_g": totals["agent_mass_g"],
+            "oxygen_l": totals["oxygen_l"],
+            "air_l": totals["air_l"],
+            "nitrous_oxide_l": totals["nitrous_oxide_l"],
+            "absorbent_g": totals["absorbent_g"],
+            "cost_agent": totals["cost_agent"],
+            "cost_gases": totals["cost_oxygen"] + totals["cost_air"] + totals["cost_nitrous_oxide"],
+            "cost_absorbent": totals["cost_absorbent"],
+            "cost_total": totals["cost_total"],
+            "co2e_total_kg": totals["co2e_total_kg"],
+            "mean_dial_pct": sim["phase_mean_dial_pct"][phase],
+            "min_inspired_o2_pct": min_o2 * 100.0,
+            "lowest_safe_fd_o2_pct": sim["phase_lowest_safe_fd_o2"][phase] * 100.0,
+            "fd_o2_pct": sim["phase_fd_o2"][phase] * 100.0,
+            "o2_safe": o2_safe,
+            # A hazard as in model.cautions.case_warnings: hypoxic mixture predicted or O2 running out.
+            "safety": np.where(o2_safe, "ok", "UNSAFE: hypoxic mixture or O2 runs out"),
+            "target_held": held,
+            "sevoflurane_caution": sevo,
+            "feasible": o2_safe & held,
+        }
+    )
 
     def best(column):
         ok = df[df["feasible"]]
@@ -175,5 +187,13 @@ def flow_sweep(plan: CasePlan, reference: Reference = DEFAULT_REFERENCE, flows_l
             return None
         return float(ok.loc[ok[column].idxmin(), "fgf_l_min"])
 
-    return SweepResult(plan, phase, target, df, best("cost_total"), best("co2e_total_kg"),
-                       reference.prices.currency, s.inspired_o2_floor * 100.0)
+    return SweepResult(
+        plan,
+        phase,
+        target,
+        df,
+        best("cost_total"),
+        best("co2e_total_kg"),
+        reference.prices.currency,
+        s.inspired_o2_floor * 100.0,
+    )

@@ -19,57 +19,75 @@ import numpy as np
 
 from model.reference import FROM_MEMORY, Sourced
 
-
 UPTAKE_MODELS = ("compartment", "lowe")
 DEFAULT_UPTAKE_MODEL = "compartment"
 
 _EGER = "Eger EI II, Anesthetic Uptake and Action, 1974 (tissue groups of a 70 kg man), from memory"
-_YASUDA_TISSUE = ("Yasuda N, Targ AG, Eger EI II. Solubility of I-653, sevoflurane, isoflurane "
-                  "and halothane in human tissues. Anesth Analg 1989;69:370-3, from memory")
+_YASUDA_TISSUE = (
+    "Yasuda N, Targ AG, Eger EI II. Solubility of I-653, sevoflurane, isoflurane "
+    "and halothane in human tissues. Anesth Analg 1989;69:370-3, from memory"
+)
 _N2O_TISSUE = "Eger EI II, Anesthetic Uptake and Action, 1974 (N2O tissue/blood), from memory"
 
 #: Tissue groups: share of body weight (volume per kg, L/kg, from a 70 kg man) and share
 #: of cardiac output. The vessel-poor group (bone, ligament; ~1.5 % of flow) is folded
 #: into fat and muscle, as the group takes up little in a case's hours.
 TISSUE_GROUPS = ("vessel_rich", "muscle", "fat")
-TISSUE_VOLUME_L_PER_KG = MappingProxyType({
-    "vessel_rich": Sourced(6.0 / 70.0, "L/kg", _EGER + " (6 L)", FROM_MEMORY),
-    "muscle": Sourced(33.0 / 70.0, "L/kg", _EGER + " (33 L, muscle and skin)", FROM_MEMORY),
-    "fat": Sourced(14.5 / 70.0, "L/kg", _EGER + " (14.5 L)", FROM_MEMORY),
-})
-TISSUE_FLOW_SHARE = MappingProxyType({
-    "vessel_rich": Sourced(0.75, "1", _EGER + " (75 % of cardiac output)", FROM_MEMORY),
-    "muscle": Sourced(0.19, "1", _EGER + " (19 %)", FROM_MEMORY),
-    "fat": Sourced(0.06, "1", _EGER + " (6 %, with the vessel-poor group)", FROM_MEMORY),
-})
+TISSUE_VOLUME_L_PER_KG = MappingProxyType(
+    {
+        "vessel_rich": Sourced(6.0 / 70.0, "L/kg", _EGER + " (6 L)", FROM_MEMORY),
+        "muscle": Sourced(33.0 / 70.0, "L/kg", _EGER + " (33 L, muscle and skin)", FROM_MEMORY),
+        "fat": Sourced(14.5 / 70.0, "L/kg", _EGER + " (14.5 L)", FROM_MEMORY),
+    }
+)
+TISSUE_FLOW_SHARE = MappingProxyType(
+    {
+        "vessel_rich": Sourced(0.75, "1", _EGER + " (75 % of cardiac output)", FROM_MEMORY),
+        "muscle": Sourced(0.19, "1", _EGER + " (19 %)", FROM_MEMORY),
+        "fat": Sourced(0.06, "1", _EGER + " (6 %, with the vessel-poor group)", FROM_MEMORY),
+    }
+)
 #: Tissue/blood partition coefficients (vessel-rich group taken as brain). [1]
-TISSUE_BLOOD = MappingProxyType({
-    "desflurane": {"vessel_rich": Sourced(1.3, "1", _YASUDA_TISSUE, FROM_MEMORY),
-                   "muscle": Sourced(2.0, "1", _YASUDA_TISSUE, FROM_MEMORY),
-                   "fat": Sourced(27.0, "1", _YASUDA_TISSUE, FROM_MEMORY)},
-    "sevoflurane": {"vessel_rich": Sourced(1.7, "1", _YASUDA_TISSUE, FROM_MEMORY),
-                    "muscle": Sourced(3.1, "1", _YASUDA_TISSUE, FROM_MEMORY),
-                    "fat": Sourced(48.0, "1", _YASUDA_TISSUE, FROM_MEMORY)},
-    "isoflurane": {"vessel_rich": Sourced(1.6, "1", _YASUDA_TISSUE, FROM_MEMORY),
-                   "muscle": Sourced(2.9, "1", _YASUDA_TISSUE, FROM_MEMORY),
-                   "fat": Sourced(45.0, "1", _YASUDA_TISSUE, FROM_MEMORY)},
-    "halothane": {"vessel_rich": Sourced(1.9, "1", _YASUDA_TISSUE, FROM_MEMORY),
-                  "muscle": Sourced(3.4, "1", _YASUDA_TISSUE, FROM_MEMORY),
-                  "fat": Sourced(51.0, "1", _YASUDA_TISSUE, FROM_MEMORY)},
-    "nitrous_oxide": {"vessel_rich": Sourced(1.1, "1", _N2O_TISSUE, FROM_MEMORY),
-                      "muscle": Sourced(1.2, "1", _N2O_TISSUE, FROM_MEMORY),
-                      "fat": Sourced(2.3, "1", _N2O_TISSUE, FROM_MEMORY)},
-})
+TISSUE_BLOOD = MappingProxyType(
+    {
+        "desflurane": {
+            "vessel_rich": Sourced(1.3, "1", _YASUDA_TISSUE, FROM_MEMORY),
+            "muscle": Sourced(2.0, "1", _YASUDA_TISSUE, FROM_MEMORY),
+            "fat": Sourced(27.0, "1", _YASUDA_TISSUE, FROM_MEMORY),
+        },
+        "sevoflurane": {
+            "vessel_rich": Sourced(1.7, "1", _YASUDA_TISSUE, FROM_MEMORY),
+            "muscle": Sourced(3.1, "1", _YASUDA_TISSUE, FROM_MEMORY),
+            "fat": Sourced(48.0, "1", _YASUDA_TISSUE, FROM_MEMORY),
+        },
+        "isoflurane": {
+            "vessel_rich": Sourced(1.6, "1", _YASUDA_TISSUE, FROM_MEMORY),
+            "muscle": Sourced(2.9, "1", _YASUDA_TISSUE, FROM_MEMORY),
+            "fat": Sourced(45.0, "1", _YASUDA_TISSUE, FROM_MEMORY),
+        },
+        "halothane": {
+            "vessel_rich": Sourced(1.9, "1", _YASUDA_TISSUE, FROM_MEMORY),
+            "muscle": Sourced(3.4, "1", _YASUDA_TISSUE, FROM_MEMORY),
+            "fat": Sourced(51.0, "1", _YASUDA_TISSUE, FROM_MEMORY),
+        },
+        "nitrous_oxide": {
+            "vessel_rich": Sourced(1.1, "1", _N2O_TISSUE, FROM_MEMORY),
+            "muscle": Sourced(1.2, "1", _N2O_TISSUE, FROM_MEMORY),
+            "fat": Sourced(2.3, "1", _N2O_TISSUE, FROM_MEMORY),
+        },
+    }
+)
 
 #: N2O uptake of an adult breathing N2O: about 1000 t^-0.5 mL/min. [L/min at t = 1 min]
 #: Source: Severinghaus JW. The rate of uptake of nitrous oxide in man. J Clin Invest
 #: 1954;33:1183-9, from memory.
-SEVERINGHAUS_N2O_L_MIN = Sourced(1.0, "L/min", "Severinghaus JW, J Clin Invest 1954;33:1183-9, from memory",
-                                 FROM_MEMORY)
+SEVERINGHAUS_N2O_L_MIN = Sourced(
+    1.0, "L/min", "Severinghaus JW, J Clin Invest 1954;33:1183-9, from memory", FROM_MEMORY
+)
 #: End-tidal N2O fraction at which Severinghaus' figure holds. [1]  From memory (about 75 %).
 SEVERINGHAUS_N2O_FRACTION = 0.75
 #: Cardiac output of the 70 kg adult of that figure, by Brody's scaling. [L/min]
-_Q70 = 0.2 * 70.0 ** 0.75
+_Q70 = 0.2 * 70.0**0.75
 
 #: Time constants of the exponential sum standing in for Lowe's t^-0.5 kernel. [min]
 #: Chosen here (a numerical device, no source): 1/64 to 4096 min in steps of 4.
@@ -167,8 +185,12 @@ def lowe_priming_ml(alveolar_pct, circuit_volume_l, frc_l):
     .. [1] Lowe HJ, Ernst EA. The Quantitative Practice of Anesthesia: Use of Closed
        Circuit. 1981.
     """
-    return (np.asarray(circuit_volume_l, dtype=float) + np.asarray(frc_l, dtype=float)) * 1000.0 \
-        * np.asarray(alveolar_pct, dtype=float) / 100.0
+    return (
+        (np.asarray(circuit_volume_l, dtype=float) + np.asarray(frc_l, dtype=float))
+        * 1000.0
+        * np.asarray(alveolar_pct, dtype=float)
+        / 100.0
+    )
 
 
 def tissue_compartments(model, species, blood_gas, weight_kg, cardiac_output_l_min):
@@ -263,11 +285,22 @@ def tissue_table():
             rows.append(dict(item=g, field=label, value=v.value, unit=v.unit, source=v.source, basis=v.basis))
         for species, t in TISSUE_BLOOD.items():
             v = t[g]
-            rows.append(dict(item=g, field=f"tissue/blood {species}", value=v.value, unit=v.unit,
-                             source=v.source, basis=v.basis))
+            rows.append(
+                dict(
+                    item=g, field=f"tissue/blood {species}", value=v.value, unit=v.unit, source=v.source, basis=v.basis
+                )
+            )
     return rows
 
 
-__all__ = ["DEFAULT_UPTAKE_MODEL", "TISSUE_GROUPS", "UPTAKE_MODELS", "constant_alveolar_uptake_l",
-           "lowe_cumulative_ml", "lowe_priming_ml", "lowe_uptake_rate_ml_min", "tissue_compartments",
-           "tissue_table"]
+__all__ = [
+    "DEFAULT_UPTAKE_MODEL",
+    "TISSUE_GROUPS",
+    "UPTAKE_MODELS",
+    "constant_alveolar_uptake_l",
+    "lowe_cumulative_ml",
+    "lowe_priming_ml",
+    "lowe_uptake_rate_ml_min",
+    "tissue_compartments",
+    "tissue_table",
+]

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from model.reference import Agent, R_GAS, STANDARD_PRESSURE_KPA
+from model.reference import R_GAS, STANDARD_PRESSURE_KPA, Agent
 
 
 def molar_volume_l(temperature_c=20.0, pressure_kpa=STANDARD_PRESSURE_KPA):
@@ -87,8 +87,7 @@ def liquid_from_vapour(vapour_ml, agent: Agent, temperature_c=20.0, pressure_kpa
     return np.asarray(vapour_ml, dtype=float) / vapour_per_ml_liquid(agent, temperature_c, pressure_kpa)
 
 
-def liquid_used_ml(fgf_l_min, dial_pct, minutes, agent: Agent, temperature_c=20.0,
-                   pressure_kpa=STANDARD_PRESSURE_KPA):
+def liquid_used_ml(fgf_l_min, dial_pct, minutes, agent: Agent, temperature_c=20.0, pressure_kpa=STANDARD_PRESSURE_KPA):
     """Liquid agent used by a vaporizer over a period at constant settings (Dion's formula).
 
     Parameters
@@ -128,8 +127,9 @@ def liquid_used_ml(fgf_l_min, dial_pct, minutes, agent: Agent, temperature_c=20.
     return vapour_ml / vapour_per_ml_liquid(agent, temperature_c, pressure_kpa)
 
 
-def liquid_used_series_ml(elapsed_min, fgf_l_min, dial_pct, agent: Agent, temperature_c=20.0,
-                          pressure_kpa=STANDARD_PRESSURE_KPA):
+def liquid_used_series_ml(
+    elapsed_min, fgf_l_min, dial_pct, agent: Agent, temperature_c=20.0, pressure_kpa=STANDARD_PRESSURE_KPA
+):
     """Liquid agent used over a sampled time series (each sample holds until the next).
 
     Parameters

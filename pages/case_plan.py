@@ -14,16 +14,18 @@ import ui.cautions
 import ui.provenance
 import ui.state
 from model import InputError
-from model.access import author_label
-from model.io.exports import html_report
-from model.plan import CasePlan
 from model.io.plans import plan_from_dict, plan_to_dict, plan_to_toml
+from model.plan import CasePlan
+from model.present import case_charts as charts
+from model.present.exports import html_report
 from model.reference import VOLATILES
-from ui import charts
-from ui import format as fmt
+from model.store.access import author_label
+from ui import tables as fmt
 
-view = ui.page_start("Case plan", "Build one case phase by phase. Figures update as you type; "
-                     "numbers may carry units (\"500 mL/min\", \"1.5 h\").")
+view = ui.page_start(
+    "Case plan",
+    'Build one case phase by phase. Figures update as you type; numbers may carry units ("500 mL/min", "1.5 h").',
+)
 store = ui.get_store()
 ref = ui.reference(view)
 ref_key = ui.reference_key(view)
@@ -35,12 +37,21 @@ CONTROL_LABELS = {"dial": "vaporizer dial (%)", "target": "end-tidal target (x M
 
 # ---- loading a plan into the widgets ---------------------------------------------------
 
+
 def _editor_frame(plan: CasePlan) -> pd.DataFrame:
     rows = []
     for p in plan.phases:
-        rows.append({"phase": p.name, "duration": f"{p.minutes:g} min", "O2": view.flow(p.o2_l_min),
-                     "air": view.flow(p.air_l_min), "N2O": view.flow(p.n2o_l_min), "control": p.mode,
-                     "setting": f"{p.dial_pct:g} %" if p.dial_pct is not None else f"{p.target_mac:g}"})
+        rows.append(
+            {
+                "phase": p.name,
+                "duration": f"{p.minutes:g} min",
+                "O2": view.flow(p.o2_l_min),
+                "air": view.flow(p.air_l_min),
+                "N2O": view.flow(p.n2o_l_min),
+                "control": p.mode,
+                "setting": f"{p.dial_pct:g} %" if p.dial_pct is not None else f"{p.target_mac:g}",
+            }
+        )
     return pd.DataFrame(rows, columns=["phase", "duration", "O2", "air", "N2O", "control", "setting"])
 
 
@@ -126,30 +137,40 @@ slots = {"name": a1.empty(), "agent": a2.empty(), "weight": a3.empty(), "age": a
 with inputs_col.expander("Safety limits and scavenging", icon=":material/tune:"):
     b1, b2, b3 = st.columns(3)
     b1.text_input("Warn under inspired O2", key="cp_floor", help="Never below 21 %")
-    b2.text_input("Lowest sevoflurane flow", key="cp_sevo_min",
-                  help="Some labelling asks for at least 1 L/min (2 L/min beyond 1 MAC-hour); follow local protocol")
+    b2.text_input(
+        "Lowest sevoflurane flow",
+        key="cp_sevo_min",
+        help="Some labelling asks for at least 1 L/min (2 L/min beyond 1 MAC-hour); follow local protocol",
+    )
     b3.text_input("Agent captured before release", key="cp_capture", help="Share of scavenged agent captured, 0-100 %")
-    slots.update({"inspired_o2_floor": b1.empty(), "sevoflurane_min_flow": b2.empty(),
-                  "capture_efficiency": b3.empty()})
+    slots.update(
+        {"inspired_o2_floor": b1.empty(), "sevoflurane_min_flow": b2.empty(), "capture_efficiency": b3.empty()}
+    )
 
 inputs_col.markdown("**Phases** — one row per phase; add or delete rows at the table's edge.")
 editor_key = f"cp_phases_{ss['cp_rev']}"
 edited = inputs_col.data_editor(
-    ui.state.editor_base(editor_key, ss["cp_editor_df"]), key=editor_key, num_rows="dynamic", hide_index=True,
+    ui.state.editor_base(editor_key, ss["cp_editor_df"]),
+    key=editor_key,
+    num_rows="dynamic",
+    hide_index=True,
     width="stretch",
     column_config={
         "phase": st.column_config.TextColumn("phase", required=True, max_chars=80, width=100),
-        "duration": st.column_config.TextColumn("duration", help="e.g. 75 min or 1.25 h", required=True,
-                                                width="small"),
+        "duration": st.column_config.TextColumn("duration", help="e.g. 75 min or 1.25 h", required=True, width="small"),
         "O2": st.column_config.TextColumn("O2 flow", help="e.g. 0.5 L/min or 500 mL/min", width="small"),
         "air": st.column_config.TextColumn("air flow", width="small"),
         "N2O": st.column_config.TextColumn("N2O flow", width="small"),
-        "control": st.column_config.SelectboxColumn("control", options=list(CONTROL_LABELS), required=True,
-                                                    width="small",
-                                                    help="dial: vaporizer setting; target: end-tidal MAC multiple"),
-        "setting": st.column_config.TextColumn("dial % or target", help="e.g. 2.5 % (dial) or 1.0 (x MAC)",
-                                               width=110),
-    })
+        "control": st.column_config.SelectboxColumn(
+            "control",
+            options=list(CONTROL_LABELS),
+            required=True,
+            width="small",
+            help="dial: vaporizer setting; target: end-tidal MAC multiple",
+        ),
+        "setting": st.column_config.TextColumn("dial % or target", help="e.g. 2.5 % (dial) or 1.0 (x MAC)", width=110),
+    },
+)
 
 
 def _control_switches(before: pd.DataFrame | None, after: pd.DataFrame) -> list[int]:
@@ -160,8 +181,14 @@ def _control_switches(before: pd.DataFrame | None, after: pd.DataFrame) -> list[
     for i in range(min(len(before), len(after))):
         was, now = before["control"].iloc[i], after["control"].iloc[i]
         setting = after["setting"].iloc[i]
-        if was != now and was in CONTROL_LABELS and setting == before["setting"].iloc[i] \
-                and setting is not None and setting == setting and str(setting).strip():
+        if (
+            was != now
+            and was in CONTROL_LABELS
+            and setting == before["setting"].iloc[i]
+            and setting is not None
+            and setting == setting
+            and str(setting).strip()
+        ):
             rows.append(i)
     return rows
 
@@ -175,11 +202,15 @@ if switched:
     for i in switched:
         old = str(frame.at[frame.index[i], "setting"]).strip()
         if frame["control"].iloc[i] == "target":
-            notes.append(f"row {i + 1}: the control is now an end-tidal target, so the dial setting '{old}' "
-                         "was cleared; type the target as a MAC multiple (e.g. 1.0)")
+            notes.append(
+                f"row {i + 1}: the control is now an end-tidal target, so the dial setting '{old}' "
+                "was cleared; type the target as a MAC multiple (e.g. 1.0)"
+            )
         else:
-            notes.append(f"row {i + 1}: the control is now the vaporizer dial, so the target '{old}' was "
-                         "cleared; type the dial setting in % (e.g. 2 %)")
+            notes.append(
+                f"row {i + 1}: the control is now the vaporizer dial, so the target '{old}' was "
+                "cleared; type the dial setting in % (e.g. 2 %)"
+            )
         frame.at[frame.index[i], "setting"] = None
     ss["cp_editor_df"] = frame.reset_index(drop=True)
     ss["cp_rev"] += 1
@@ -204,18 +235,18 @@ def _raw_inputs() -> dict:
     base["settings"]["gwp_source"] = view.gwp_source
     base["settings"]["room_temperature"] = f"{view.temperature_c:g} degC"
     if not ss.get("cp_own_prices"):
-        base.pop("prices", None)     # the prices in use on every page, unless the plan's own are chosen
+        base.pop("prices", None)  # the prices in use on every page, unless the plan's own are chosen
     phases = []
     for row in edited.to_dict("records"):
         if all(v is None or (isinstance(v, str) and not v.strip()) or v != v for v in row.values()):
-            continue    # an empty added row
+            continue  # an empty added row
         p = {}
         for col, key in COLUMNS.items():
             v = row.get(col)
             if v is not None and v == v and str(v).strip():
                 p[key] = str(v).strip()
                 if key in ("o2", "air", "n2o") and _BARE_NUMBER.fullmatch(p[key]):
-                    p[key] += " " + view.flow_unit      # a bare flow is in the unit the table shows
+                    p[key] += " " + view.flow_unit  # a bare flow is in the unit the table shows
         setting = row.get("setting")
         if setting is not None and setting == setting and str(setting).strip():
             p["target" if row.get("control") == "target" else "dial"] = str(setting).strip()
@@ -239,9 +270,17 @@ def _build(raw_json: str, ref_key: str, _ref) -> tuple[str, str, str]:
 
 
 _PHASE_FIELD = re.compile(r"^phases\[(\d+)\]\.?(\w*)")
-_FIELD_LABEL = {"name": "phase", "duration": "duration", "o2": "O2 flow", "air": "air flow",
-                "n2o": "N2O flow", "dial": "dial % or target", "target": "dial % or target",
-                "dial/target": "dial % or target", "o2/air/n2o": "flows"}
+_FIELD_LABEL = {
+    "name": "phase",
+    "duration": "duration",
+    "o2": "O2 flow",
+    "air": "air flow",
+    "n2o": "N2O flow",
+    "dial": "dial % or target",
+    "target": "dial % or target",
+    "dial/target": "dial % or target",
+    "o2/air/n2o": "flows",
+}
 
 
 def _place_error(field: str, message: str) -> None:
@@ -249,8 +288,9 @@ def _place_error(field: str, message: str) -> None:
     if m:
         row, col = int(m.group(1)), m.group(2)
         text = message.split(": ", 1)[-1] if ": " in message else message
-        table_slot.error(ui.md(f"Phases table, row {row}, {_FIELD_LABEL.get(col, col or 'row')}: {text}"),
-                         icon=":material/error:")
+        table_slot.error(
+            ui.md(f"Phases table, row {row}, {_FIELD_LABEL.get(col, col or 'row')}: {text}"), icon=":material/error:"
+        )
         return
     if field == "phases":
         table_slot.error("Phases table: a plan needs at least one phase.", icon=":material/error:")
@@ -273,11 +313,13 @@ else:
     _place_error(payload, message)
 
 if result is None:
-    headline.warning("These figures are the last valid result; correct the entry on the left to update them.",
-                     icon=":material/history:")
+    headline.warning(
+        "These figures are the last valid result; correct the entry on the left to update them.",
+        icon=":material/history:",
+    )
     try:
         result = ui.compute_cached(ss["cp_last_toml"], ref_key, ref)
-    except InputError as err:   # e.g. the GWP source has no value for this agent
+    except InputError as err:  # e.g. the GWP source has no value for this agent
         ui.show_input_error(err)
         st.stop()
 plan = result.plan
@@ -287,6 +329,7 @@ t = result.totals
 
 # ---- results -------------------------------------------------------------------------
 
+
 @st.cache_data(show_spinner=False, max_entries=64)
 def _baseline_totals(base_toml: str, ref_key: str, _ref) -> dict:
     return ui.compute_cached(base_toml, ref_key, _ref).totals
@@ -294,8 +337,7 @@ def _baseline_totals(base_toml: str, ref_key: str, _ref) -> dict:
 
 own_items = ui.provenance.price_items(ss["cp_base"].prices)
 own = (f"the plan '{ss['cp_base'].name}'", ss["cp_base"].prices) if own_items and ss.get("cp_own_prices") else None
-base_toml = plan_to_toml(replace(ui.apply_settings(ss["cp_base"], view),
-                                 prices=ss["cp_base"].prices if own else {}))
+base_toml = plan_to_toml(replace(ui.apply_settings(ss["cp_base"], view), prices=ss["cp_base"].prices if own else {}))
 try:
     b = _baseline_totals(base_toml, ref_key, ref)
 except InputError:
@@ -310,39 +352,75 @@ def _delta(key, fmt, scale=1.0):
 
 headline.markdown("##### What this case uses")
 if own_items:
-    headline.checkbox("Use the plan's own prices", key="cp_own_prices",
-                      help="Off: the prices in use on every page (your Reference values over the built-in examples). "
-                           f"On: the prices written in the plan for {', '.join(own_items)}.")
+    headline.checkbox(
+        "Use the plan's own prices",
+        key="cp_own_prices",
+        help="Off: the prices in use on every page (your Reference values over the built-in examples). "
+        f"On: the prices written in the plan for {', '.join(own_items)}.",
+    )
 with headline:
     unsafe = ui.cautions.unsafe_banner(result.warnings, "this plan")
 ui.provenance.show(view, ref, own)
 agent = ref.volatile(plan.agent)
 co2e_scale = ui.common.CO2E_UNITS[view.co2e_unit]
-m = [headline] * 6          # one figure a row: labels stay whole in a narrow column
-m[0].metric("Liquid agent", f"{t['liquid_agent_ml']:.1f} mL", _delta("liquid_agent_ml", lambda d: f"{d:+.1f} mL"),
-            delta_color="inverse", help="Change shown against the plan as opened")
-m[1].metric("Bottles", f"{t['bottles']:.2f}", _delta("bottles", lambda d: f"{d:+.2f}"), delta_color="inverse",
-            help=f"{agent.label} bottle of {agent.bottle_volume:g} mL")
-m[2].metric(f"Emissions ({view.co2e_unit})", view.co2e_number(t["co2e_total_kg"]),
-            _delta("co2e_total_kg", lambda d: f"{d:+,.3g}", co2e_scale), delta_color="inverse",
-            help=f"{result.gwp_label}; agent and N2O released")
-m[3].metric(f"Cost ({result.currency})", f"{t['cost_total']:,.2f}", _delta("cost_total", lambda d: f"{d:+,.2f}"),
-            delta_color="inverse", help="Agent pro rata by volume, gases, absorbent")
-m[4].metric("End-tidal MAC-h", f"{t['end_tidal_mac_hours']:.2f}",
-            _delta("end_tidal_mac_hours", lambda d: f"{d:+.2f}"), delta_color="off",
-            help="End-tidal MAC multiple over time (the depth the patient reaches; what a lower flow "
-                 "changes). The dial-based figure counts the vaporizer setting instead.")
+m = [headline] * 6  # one figure a row: labels stay whole in a narrow column
+m[0].metric(
+    "Liquid agent",
+    f"{t['liquid_agent_ml']:.1f} mL",
+    _delta("liquid_agent_ml", lambda d: f"{d:+.1f} mL"),
+    delta_color="inverse",
+    help="Change shown against the plan as opened",
+)
+m[1].metric(
+    "Bottles",
+    f"{t['bottles']:.2f}",
+    _delta("bottles", lambda d: f"{d:+.2f}"),
+    delta_color="inverse",
+    help=f"{agent.label} bottle of {agent.bottle_volume:g} mL",
+)
+m[2].metric(
+    f"Emissions ({view.co2e_unit})",
+    view.co2e_number(t["co2e_total_kg"]),
+    _delta("co2e_total_kg", lambda d: f"{d:+,.3g}", co2e_scale),
+    delta_color="inverse",
+    help=f"{result.gwp_label}; agent and N2O released",
+)
+m[3].metric(
+    f"Cost ({result.currency})",
+    f"{t['cost_total']:,.2f}",
+    _delta("cost_total", lambda d: f"{d:+,.2f}"),
+    delta_color="inverse",
+    help="Agent pro rata by volume, gases, absorbent",
+)
+m[4].metric(
+    "End-tidal MAC-h",
+    f"{t['end_tidal_mac_hours']:.2f}",
+    _delta("end_tidal_mac_hours", lambda d: f"{d:+.2f}"),
+    delta_color="off",
+    help="End-tidal MAC multiple over time (the depth the patient reaches; what a lower flow "
+    "changes). The dial-based figure counts the vaporizer setting instead.",
+)
 m[4].caption(f"Dial-based: {t['mac_hours']:.2f} MAC-h")
 tc = result.timecourse
 if "min_inspired_o2_pct" in t:
     safe = t.get("lowest_safe_fd_o2_pct")
-    m[5].metric("Lowest inspired O2", f"{t['min_inspired_o2_pct']:.0f} %",
-                _delta("min_inspired_o2_pct", lambda d: f"{d:+.0f} %"),
-                help="Predicted by the circle model" + (f"; lowest fresh gas O2 that keeps it above the floor: "
-                                                         f"{safe:.0f} %" if safe == safe and safe is not None else ""))
+    m[5].metric(
+        "Lowest inspired O2",
+        f"{t['min_inspired_o2_pct']:.0f} %",
+        _delta("min_inspired_o2_pct", lambda d: f"{d:+.0f} %"),
+        help="Predicted by the circle model"
+        + (
+            f"; lowest fresh gas O2 that keeps it above the floor: {safe:.0f} %"
+            if safe == safe and safe is not None
+            else ""
+        ),
+    )
 else:
-    m[5].metric("Lowest fresh gas O2", f"{t['min_fd_o2_pct']:.0f} %",
-                help="O2 share of the fresh gas; inspired O2 in a circle is lower at low flow")
+    m[5].metric(
+        "Lowest fresh gas O2",
+        f"{t['min_fd_o2_pct']:.0f} %",
+        help="O2 share of the fresh gas; inspired O2 in a circle is lower at low flow",
+    )
 g = st.columns(6)
 g[0].metric("Oxygen", f"{t['oxygen_l']:,.0f} L")
 g[1].metric("Medical air", f"{t['air_l']:,.0f} L")
@@ -352,8 +430,9 @@ g[4].metric("Agent emitted", f"{t['agent_emitted_g']:.1f} g")
 g[5].metric("Duration", f"{t['duration_min']:.0f} min")
 
 if result.warnings:
-    headline.warning(f"{len(result.warnings)} warning(s): see \"Check before use\" below the inputs.",
-                     icon=":material/warning:")
+    headline.warning(
+        f'{len(result.warnings)} warning(s): see "Check before use" below the inputs.', icon=":material/warning:"
+    )
     with st.container(border=True):
         st.markdown("**Check before use**")
         ui.cautions.show_other_warnings(result.warnings)
@@ -370,7 +449,8 @@ result_toml = ss["cp_last_toml"]
 @st.cache_resource(show_spinner=False, max_entries=64)
 def _figure(kind: str, plan_toml: str, ref_key: str, _result, _fate, _label):
     """One of the page's figures for one result, built when first shown (its tab opened, or a
-    report asked for), then kept while the inputs stay the same."""
+    report asked for), then kept while the inputs stay the same.
+    """
     if kind == "time":
         return charts.timecourse_figure(_result.timecourse, _result.plan.settings.inspired_o2_floor * 100)
     if kind == "fate":
@@ -380,15 +460,26 @@ def _figure(kind: str, plan_toml: str, ref_key: str, _result, _fate, _label):
 
 @st.cache_resource(show_spinner=False, max_entries=64)
 def _sweep_figure(plan_toml: str, ref_key: str, co2e_unit: str, _sw, _currency):
-    return charts.sweep_figure(_sw.table, "fgf_l_min", "cost_total", "co2e_total_kg", _sw.cost_lowest_flow_l_min,
-                               _sw.emission_lowest_flow_l_min, _currency, ui.common.CO2E_UNITS[co2e_unit],
-                               co2e_unit, feasible=_sw.table.get("feasible"), unsafe=~_sw.table["o2_safe"])
+    return charts.sweep_figure(
+        _sw.table,
+        "fgf_l_min",
+        "cost_total",
+        "co2e_total_kg",
+        _sw.cost_lowest_flow_l_min,
+        _sw.emission_lowest_flow_l_min,
+        _currency,
+        ui.common.CO2E_UNITS[co2e_unit],
+        co2e_unit,
+        feasible=_sw.table.get("feasible"),
+        unsafe=~_sw.table["o2_safe"],
+    )
 
 
 @st.cache_data(show_spinner=False, max_entries=128)
 def _sweep_cached(plan_toml: str, ref_key: str, _ref, _plan):
     """The flow sweep of the plan (``plan_toml`` is the key; ``_plan`` is that plan, parsed)."""
     from model.sweep import flow_sweep
+
     return flow_sweep(_plan, _ref)
 
 
@@ -402,7 +493,8 @@ def _sweep():
 
 class _Figures(dict):
     """The page's figures by name, each built on first use: a rerun builds only the figure of
-    the open tab; a report builds the rest when it is downloaded."""
+    the open tab; a report builds the rest when it is downloaded.
+    """
 
     def __missing__(self, kind):
         if kind == "sweep":
@@ -416,14 +508,22 @@ class _Figures(dict):
 
 figs = _Figures()
 ph = result.phases
-shown = pd.DataFrame({
-    "phase": ph["phase"], "minutes": ph["duration_min"],
-    f"fresh gas ({view.flow_unit})": ph["fgf_l_min"] * (1000 if view.flow_unit == "mL/min" else 1),
-    "flow band": ph["flow_band"], "fresh gas O2 %": ph["fd_o2_pct"].round(0), "dial %": ph["dial_pct"],
-    "liquid (mL)": ph["liquid_agent_ml"].round(1), f"CO2e ({view.co2e_unit})": (ph["co2e_kg"] * co2e_scale).round(3),
-    f"cost ({result.currency})": ph["cost_total"].round(2), "MAC-hours, dial-based": ph["mac_hours"].round(2),
-    "MAC-hours, end-tidal": ph["end_tidal_mac_hours"].round(2),
-    "mix altered": ph["flows_altered"]})
+shown = pd.DataFrame(
+    {
+        "phase": ph["phase"],
+        "minutes": ph["duration_min"],
+        f"fresh gas ({view.flow_unit})": ph["fgf_l_min"] * (1000 if view.flow_unit == "mL/min" else 1),
+        "flow band": ph["flow_band"],
+        "fresh gas O2 %": ph["fd_o2_pct"].round(0),
+        "dial %": ph["dial_pct"],
+        "liquid (mL)": ph["liquid_agent_ml"].round(1),
+        f"CO2e ({view.co2e_unit})": (ph["co2e_kg"] * co2e_scale).round(3),
+        f"cost ({result.currency})": ph["cost_total"].round(2),
+        "MAC-hours, dial-based": ph["mac_hours"].round(2),
+        "MAC-hours, end-tidal": ph["end_tidal_mac_hours"].round(2),
+        "mix altered": ph["flows_altered"],
+    }
+)
 
 # Only the open tab runs (on_change="rerun"): the flow sweep, its figure and the other
 # figures are worked out when their tab is opened, which keeps a rerun after an edit quick.
@@ -436,9 +536,11 @@ with tab["Time course"]:
         if figs["time"] is not None:
             st.plotly_chart(figs["time"], width="stretch", key="cp_fig_time")
         else:
-            st.info("The minute-by-minute time course (dial, inspired and end-tidal agent, inspired O2, "
-                    "cumulative liquid) appears here when the patient and circle model runs for this plan.",
-                    icon=":material/schedule:")
+            st.info(
+                "The minute-by-minute time course (dial, inspired and end-tidal agent, inspired O2, "
+                "cumulative liquid) appears here when the patient and circle model runs for this plan.",
+                icon=":material/schedule:",
+            )
 with tab["Where the agent went"]:
     if tab["Where the agent went"].open:
         c1, c2 = st.columns([3, 2])
@@ -459,22 +561,31 @@ with tab["Flow sweep"]:
         else:
             st.plotly_chart(figs["sweep"], width="stretch", key="cp_fig_sweep")
             phase_name = plan.phases[sw.phase_index].name
-            best = [f"lowest cost at **{view.flow(sw.cost_lowest_flow_l_min)}**" if sw.cost_lowest_flow_l_min
-                    else None,
-                    f"lowest CO2e at **{view.flow(sw.emission_lowest_flow_l_min)}**" if sw.emission_lowest_flow_l_min
-                    else None]
-            st.markdown(f"Flow of the *{ui.md(phase_name)}* phase varied at the same end-tidal depth "
-                        f"({sw.target_mac:.2f} x MAC): " + (", ".join(b for b in best if b) or
-                                                            "no flow keeps inspired O2 above the floor") + ".")
-            st.caption(f"Only flows that keep predicted inspired O2 above {sw.inspired_o2_floor_pct:.0f} % and "
-                       "hold the depth count as candidates (hollow markers do not; crosses are unsafe: hypoxic "
-                       "mixture or O2 running out). A lower flow also needs closer monitoring and follows local "
-                       "protocol.")
+            best = [
+                f"lowest cost at **{view.flow(sw.cost_lowest_flow_l_min)}**" if sw.cost_lowest_flow_l_min else None,
+                f"lowest CO2e at **{view.flow(sw.emission_lowest_flow_l_min)}**"
+                if sw.emission_lowest_flow_l_min
+                else None,
+            ]
+            st.markdown(
+                f"Flow of the *{ui.md(phase_name)}* phase varied at the same end-tidal depth "
+                f"({sw.target_mac:.2f} x MAC): "
+                + (", ".join(b for b in best if b) or "no flow keeps inspired O2 above the floor")
+                + "."
+            )
+            st.caption(
+                f"Only flows that keep predicted inspired O2 above {sw.inspired_o2_floor_pct:.0f} % and "
+                "hold the depth count as candidates (hollow markers do not; crosses are unsafe: hypoxic "
+                "mixture or O2 running out). A lower flow also needs closer monitoring and follows local "
+                "protocol."
+            )
             n_unsafe = int((~sw.table["o2_safe"]).sum())
             if n_unsafe:
-                st.markdown(f":red[**{ui.cautions.UNSAFE}** at {n_unsafe} of the {len(sw.table)} flows swept] "
-                            "(crosses; 'safety' column of the sweep table): their cost and CO2e are not savings "
-                            "to aim for.")
+                st.markdown(
+                    f":red[**{ui.cautions.UNSAFE}** at {n_unsafe} of the {len(sw.table)} flows swept] "
+                    "(crosses; 'safety' column of the sweep table): their cost and CO2e are not savings "
+                    "to aim for."
+                )
             with st.expander("Sweep table"):
                 fmt.table(sw.table, result.currency)
 with tab["Phases"]:
@@ -490,31 +601,63 @@ with tab["Cost by item"]:
 
 # ---- downloads, saving, plan files ---------------------------------------------------
 
-LABELS = [("Liquid agent", "liquid_agent_ml", "mL"), ("Bottles", "bottles", "bottles"),
-          ("Agent delivered", "agent_mass_g", "g"), ("Agent emitted", "agent_emitted_g", "g"),
-          ("Oxygen", "oxygen_l", "L"), ("Medical air", "air_l", "L"), ("Nitrous oxide", "nitrous_oxide_l", "L"),
-          ("CO2 absorbent", "absorbent_g", "g"), ("CO2e, agent", "co2e_agent_kg", "kg CO2e"),
-          ("CO2e, nitrous oxide", "co2e_nitrous_oxide_kg", "kg CO2e"), ("CO2e, total", "co2e_total_kg", "kg CO2e"),
-          ("Cost, total", "cost_total", result.currency), ("MAC-hours, end-tidal", "end_tidal_mac_hours", "MAC-h"),
-          ("MAC-hours, dial-based", "mac_hours", "MAC-h"),
-          ("Duration", "duration_min", "min"), ("Lowest fresh gas O2", "min_fd_o2_pct", "%")]
-summary = pd.DataFrame({"plan": plan.name, "figure": [x[0] for x in LABELS],
-                        "value": [float(t[x[1]]) for x in LABELS], "unit": [x[2] for x in LABELS]})
-inputs = {"plan": plan.name, "safety": ui.cautions.safety_text(result.warnings), "agent": agent.label,
-          "patient weight": f"{plan.patient.weight_kg:g} kg",
-          "patient age": f"{plan.patient.age_years:g} years", "GWP source": result.gwp_label,
-          "room temperature": f"{plan.settings.temperature_c:g} °C", "currency": result.currency,
-          "inspired O2 floor": f"{plan.settings.inspired_o2_floor:.0%}",
-          "overrides": ", ".join(ref.override_origins) or "none", **ui.provenance.in_use(view, ref, own)}
-inputs.update({f"phase {i}: {p.name}": f"{p.minutes:g} min; O2 {p.o2_l_min:g}, air {p.air_l_min:g}, "
-               f"N2O {p.n2o_l_min:g} L/min; " + (f"dial {p.dial_pct:g} %" if p.dial_pct is not None
-                                                 else f"target {p.target_mac:g} x MAC")
-               for i, p in enumerate(plan.phases, start=1)})
+LABELS = [
+    ("Liquid agent", "liquid_agent_ml", "mL"),
+    ("Bottles", "bottles", "bottles"),
+    ("Agent delivered", "agent_mass_g", "g"),
+    ("Agent emitted", "agent_emitted_g", "g"),
+    ("Oxygen", "oxygen_l", "L"),
+    ("Medical air", "air_l", "L"),
+    ("Nitrous oxide", "nitrous_oxide_l", "L"),
+    ("CO2 absorbent", "absorbent_g", "g"),
+    ("CO2e, agent", "co2e_agent_kg", "kg CO2e"),
+    ("CO2e, nitrous oxide", "co2e_nitrous_oxide_kg", "kg CO2e"),
+    ("CO2e, total", "co2e_total_kg", "kg CO2e"),
+    ("Cost, total", "cost_total", result.currency),
+    ("MAC-hours, end-tidal", "end_tidal_mac_hours", "MAC-h"),
+    ("MAC-hours, dial-based", "mac_hours", "MAC-h"),
+    ("Duration", "duration_min", "min"),
+    ("Lowest fresh gas O2", "min_fd_o2_pct", "%"),
+]
+summary = pd.DataFrame(
+    {
+        "plan": plan.name,
+        "figure": [x[0] for x in LABELS],
+        "value": [float(t[x[1]]) for x in LABELS],
+        "unit": [x[2] for x in LABELS],
+    }
+)
+inputs = {
+    "plan": plan.name,
+    "safety": ui.cautions.safety_text(result.warnings),
+    "agent": agent.label,
+    "patient weight": f"{plan.patient.weight_kg:g} kg",
+    "patient age": f"{plan.patient.age_years:g} years",
+    "GWP source": result.gwp_label,
+    "room temperature": f"{plan.settings.temperature_c:g} °C",
+    "currency": result.currency,
+    "inspired O2 floor": f"{plan.settings.inspired_o2_floor:.0%}",
+    "overrides": ", ".join(ref.override_origins) or "none",
+    **ui.provenance.in_use(view, ref, own),
+}
+inputs.update(
+    {
+        f"phase {i}: {p.name}": f"{p.minutes:g} min; O2 {p.o2_l_min:g}, air {p.air_l_min:g}, "
+        f"N2O {p.n2o_l_min:g} L/min; "
+        + (f"dial {p.dial_pct:g} %" if p.dial_pct is not None else f"target {p.target_mac:g} x MAC")
+        for i, p in enumerate(plan.phases, start=1)
+    }
+)
 sources = ui.common.sources_table(ref_key, ref)
-tables = {"Summary": summary, "Phases": result.phases.assign(plan=plan.name),
-          "Cost by item": charts.cost_by_item(t, result.currency), "Where the agent went": fate,
-          "Inputs": pd.DataFrame({"input": list(inputs), "value": list(inputs.values())}),
-          "Warnings": ui.cautions.warnings_table(result.warnings), "Sources": sources}
+tables = {
+    "Summary": summary,
+    "Phases": result.phases.assign(plan=plan.name),
+    "Cost by item": charts.cost_by_item(t, result.currency),
+    "Where the agent went": fate,
+    "Inputs": pd.DataFrame({"input": list(inputs), "value": list(inputs.values())}),
+    "Warnings": ui.cautions.warnings_table(result.warnings),
+    "Sources": sources,
+}
 if tc is not None:
     tables["Time course"] = tc
 # Built when the workbook is downloaded (the sweep runs then if its tab was never opened).
@@ -522,13 +665,21 @@ tables["Flow sweep"] = lambda: (lambda sw: None if sw is None else sw.table)(_sw
 
 
 def _report() -> str:
-    return html_report(("UNSAFE PRACTICE. " if unsafe else "") + f"Case plan: {plan.name}", inputs=inputs,
-                       tables={"Summary": summary[["figure", "value", "unit"]],
-                               "Phases": shown},
-                       figures=[("Time course", figs["time"]), ("Where the agent went", figs["fate"]),
-                                ("Flow sweep", figs["sweep"]), ("Cost by item", figs["cost"])],
-                       warnings=ui.cautions.report_lines(result.warnings), cautions=[ui.CAUTION], sources=sources,
-                       currency=result.currency)
+    return html_report(
+        ("UNSAFE PRACTICE. " if unsafe else "") + f"Case plan: {plan.name}",
+        inputs=inputs,
+        tables={"Summary": summary[["figure", "value", "unit"]], "Phases": shown},
+        figures=[
+            ("Time course", figs["time"]),
+            ("Where the agent went", figs["fate"]),
+            ("Flow sweep", figs["sweep"]),
+            ("Cost by item", figs["cost"]),
+        ],
+        warnings=ui.cautions.report_lines(result.warnings),
+        cautions=[ui.CAUTION],
+        sources=sources,
+        currency=result.currency,
+    )
 
 
 st.divider()
@@ -541,8 +692,16 @@ with d2:
     s1, s2 = st.columns([3, 1], vertical_alignment="bottom")
     note = s1.text_input("Note for this version", key="cp_note", placeholder="optional, e.g. after theatre meeting")
     may_save = ui.save_permission()
-    if s2.button("Save", type="primary", icon=":material/save:", width="stretch",
-                 disabled=status != "ok" or not may_save.allowed) and may_save.allowed:
+    if (
+        s2.button(
+            "Save",
+            type="primary",
+            icon=":material/save:",
+            width="stretch",
+            disabled=status != "ok" or not may_save.allowed,
+        )
+        and may_save.allowed
+    ):
         # The plan's own prices are kept with it whether or not they were used here.
         version = store.save_plan(replace(plan, prices=dict(ss["cp_base"].prices)), note, author=ui.author())
         ss["cp_base"] = plan
@@ -560,12 +719,14 @@ with st.expander("Plan files and saved versions", icon=":material/description:")
     f1, f2 = st.columns(2)
     with f1:
         st.markdown("**Import a plan file** (TOML, the format in docs/formats.md)")
-        up = st.file_uploader("Plan file", type=["toml"], key="cp_upload", label_visibility="collapsed",
-                              disabled=not may_save.allowed)
+        up = st.file_uploader(
+            "Plan file", type=["toml"], key="cp_upload", label_visibility="collapsed", disabled=not may_save.allowed
+        )
         if up is not None and may_save.allowed and ss.get("cp_upload_done") != up.file_id:
             ss["cp_upload_done"] = up.file_id
             try:
                 from model.io.uploads import check_upload
+
                 text = check_upload(up.name, up.getvalue(), "plan").text
                 imported, version = store.import_plan_text(text, up.name, author=ui.author())
             except InputError as err:
@@ -576,11 +737,27 @@ with st.expander("Plan files and saved versions", icon=":material/description:")
                 st.rerun()
     with f2:
         st.markdown("**Export this plan**")
-        st.download_button("Plan file (TOML)", data=plan_to_toml(plan), file_name=f"{ui.common._slug(plan.name)}.toml",
-                           mime="application/toml", key="cp_dl_toml", on_click="ignore", icon=":material/download:")
+        st.download_button(
+            "Plan file (TOML)",
+            data=plan_to_toml(plan),
+            file_name=f"{ui.common._slug(plan.name)}.toml",
+            mime="application/toml",
+            key="cp_dl_toml",
+            on_click="ignore",
+            icon=":material/download:",
+        )
     hist = store.history("plan", plan.name)
     if hist:
         st.markdown(f"**Saved versions of '{ui.md(plan.name)}'**")
-        st.dataframe(pd.DataFrame({"version": [v.version for v in hist], "saved (UTC)": [v.saved_at[:19] for v in hist],
-                                   "by": [author_label(v.author) for v in hist],
-                                   "note": [v.note for v in hist]}), hide_index=True, width="stretch")
+        st.dataframe(
+            pd.DataFrame(
+                {
+                    "version": [v.version for v in hist],
+                    "saved (UTC)": [v.saved_at[:19] for v in hist],
+                    "by": [author_label(v.author) for v in hist],
+                    "note": [v.note for v in hist],
+                }
+            ),
+            hide_index=True,
+            width="stretch",
+        )

@@ -12,23 +12,35 @@ import ui.cautions
 import ui.provenance
 from model import InputError
 from model.cautions import Caution, is_unsafe, severity_of
-from model.io.exports import html_report
 from model.io.plans import plan_to_toml
-from ui import charts
-from ui import format as fmt
+from model.present import case_charts as charts
+from model.present.exports import html_report
+from ui import tables as fmt
 
-view = ui.page_start("Compare", "Saved plans side by side. The first plan is the baseline; every "
-                     "other plan shows its difference from it, in units and in per cent.")
+view = ui.page_start(
+    "Compare",
+    "Saved plans side by side. The first plan is the baseline; every "
+    "other plan shows its difference from it, in units and in per cent.",
+)
 store = ui.get_store()
 ref = ui.reference(view)
 ref_key = ui.reference_key(view)
 
-FIGURES = [("Liquid agent", "liquid_agent_ml", "mL"), ("Bottles", "bottles", "bottles"),
-           ("CO2e, total", "co2e_total_kg", "kg CO2e"), ("CO2e, agent", "co2e_agent_kg", "kg CO2e"),
-           ("CO2e, nitrous oxide", "co2e_nitrous_oxide_kg", "kg CO2e"), ("Cost, total", "cost_total", "currency"),
-           ("Oxygen", "oxygen_l", "L"), ("Medical air", "air_l", "L"), ("Nitrous oxide", "nitrous_oxide_l", "L"),
-           ("CO2 absorbent", "absorbent_g", "g"), ("MAC-hours, end-tidal", "end_tidal_mac_hours", "MAC-h"),
-           ("MAC-hours, dial-based", "mac_hours", "MAC-h"), ("Duration", "duration_min", "min")]
+FIGURES = [
+    ("Liquid agent", "liquid_agent_ml", "mL"),
+    ("Bottles", "bottles", "bottles"),
+    ("CO2e, total", "co2e_total_kg", "kg CO2e"),
+    ("CO2e, agent", "co2e_agent_kg", "kg CO2e"),
+    ("CO2e, nitrous oxide", "co2e_nitrous_oxide_kg", "kg CO2e"),
+    ("Cost, total", "cost_total", "currency"),
+    ("Oxygen", "oxygen_l", "L"),
+    ("Medical air", "air_l", "L"),
+    ("Nitrous oxide", "nitrous_oxide_l", "L"),
+    ("CO2 absorbent", "absorbent_g", "g"),
+    ("MAC-hours, end-tidal", "end_tidal_mac_hours", "MAC-h"),
+    ("MAC-hours, dial-based", "mac_hours", "MAC-h"),
+    ("Duration", "duration_min", "min"),
+]
 
 
 #: Earlier versions of each plan offered for comparison, besides its latest.
@@ -49,6 +61,7 @@ def _delta_text(new: float, old: float, unit: str, digits: int = 1) -> str | Non
 
 tab_plans, tab_year = st.tabs(["Case plans", "Year scenarios"])
 
+
 def _compare_plans() -> None:
     names = store.names("plan")
     if len(names) < 2:
@@ -58,12 +71,17 @@ def _compare_plans() -> None:
     # name and number, so a plan can be set against what it was before a change.
     versions: dict[str, tuple[str, int | None]] = {name: (name, None) for name in names}
     for name in names:
-        for v in store.history("plan", name)[1:EARLIER_VERSIONS + 1]:
+        for v in store.history("plan", name)[1 : EARLIER_VERSIONS + 1]:
             versions.setdefault(f"{name} · version {v.version}", (name, v.version))
-    chosen = st.multiselect("Plans to compare (the first is the baseline)", list(versions), default=names[:2],
-                            key="cmp_plans", max_selections=8,
-                            help=f"A plan's name alone is its latest version; its {EARLIER_VERSIONS} versions "
-                                 "before that are listed by number.")
+    chosen = st.multiselect(
+        "Plans to compare (the first is the baseline)",
+        list(versions),
+        default=names[:2],
+        key="cmp_plans",
+        max_selections=8,
+        help=f"A plan's name alone is its latest version; its {EARLIER_VERSIONS} versions "
+        "before that are listed by number.",
+    )
     if len(chosen) < 2:
         st.warning("Choose two or more plans.")
         return
@@ -86,29 +104,49 @@ def _compare_plans() -> None:
     ui.provenance.show(view, ref)
     unsafe = [name for name, res in results.items() if is_unsafe(res.warnings)]
     if unsafe:
-        ui.cautions.unsafe_banner([Caution(f"{name}: {w}", severity_of(w)) for name, res in results.items()
-                                   for w in res.warnings], ", ".join(f"'{n}'" for n in unsafe))
-    st.caption(f"Baseline: **{ui.md(base_name)}** ({ref.agents[base.plan.agent].label}, "
-               f"{bt['duration_min']:.0f} min). Green is less used, emitted or spent.")
+        ui.cautions.unsafe_banner(
+            [Caution(f"{name}: {w}", severity_of(w)) for name, res in results.items() for w in res.warnings],
+            ", ".join(f"'{n}'" for n in unsafe),
+        )
+    st.caption(
+        f"Baseline: **{ui.md(base_name)}** ({ref.agents[base.plan.agent].label}, "
+        f"{bt['duration_min']:.0f} min). Green is less used, emitted or spent."
+    )
     for name, res in list(results.items())[1:]:
         t = res.totals
         with st.container(border=True):
             flag = f" — :red[**{ui.cautions.UNSAFE}**]" if is_unsafe(res.warnings) else ""
             st.markdown(f"**{ui.md(name)}** — {ref.agents[res.plan.agent].label}, {t['duration_min']:.0f} min{flag}")
             c = st.columns(5)
-            c[0].metric("Liquid agent", f"{t['liquid_agent_ml']:.1f} mL",
-                        _delta_text(t["liquid_agent_ml"], bt["liquid_agent_ml"], "mL"), delta_color="inverse")
-            c[1].metric(f"Emissions ({view.co2e_unit})", view.co2e_number(t["co2e_total_kg"]),
-                        _delta_text(t["co2e_total_kg"] * scale, bt["co2e_total_kg"] * scale, "", 2),
-                        delta_color="inverse")
-            c[2].metric(f"Cost ({res.currency})", f"{t['cost_total']:,.2f}",
-                        _delta_text(t["cost_total"], bt["cost_total"], "", 2), delta_color="inverse")
-            c[3].metric("Bottles", f"{t['bottles']:.2f}", _delta_text(t["bottles"], bt["bottles"], "", 2),
-                        delta_color="inverse")
+            c[0].metric(
+                "Liquid agent",
+                f"{t['liquid_agent_ml']:.1f} mL",
+                _delta_text(t["liquid_agent_ml"], bt["liquid_agent_ml"], "mL"),
+                delta_color="inverse",
+            )
+            c[1].metric(
+                f"Emissions ({view.co2e_unit})",
+                view.co2e_number(t["co2e_total_kg"]),
+                _delta_text(t["co2e_total_kg"] * scale, bt["co2e_total_kg"] * scale, "", 2),
+                delta_color="inverse",
+            )
+            c[2].metric(
+                f"Cost ({res.currency})",
+                f"{t['cost_total']:,.2f}",
+                _delta_text(t["cost_total"], bt["cost_total"], "", 2),
+                delta_color="inverse",
+            )
+            c[3].metric(
+                "Bottles", f"{t['bottles']:.2f}", _delta_text(t["bottles"], bt["bottles"], "", 2), delta_color="inverse"
+            )
             # End-tidal: lowering the flow changes the depth reached, not the dial (which it raises).
-            c[4].metric("End-tidal MAC-h", f"{t['end_tidal_mac_hours']:.2f}",
-                        _delta_text(t["end_tidal_mac_hours"], bt["end_tidal_mac_hours"], "", 2), delta_color="off",
-                        help="End-tidal MAC multiple over time, the depth reached")
+            c[4].metric(
+                "End-tidal MAC-h",
+                f"{t['end_tidal_mac_hours']:.2f}",
+                _delta_text(t["end_tidal_mac_hours"], bt["end_tidal_mac_hours"], "", 2),
+                delta_color="off",
+                help="End-tidal MAC multiple over time, the depth reached",
+            )
             c[4].caption(f"Dial-based: {t['mac_hours']:.2f} MAC-h")
 
     rows = []
@@ -127,23 +165,44 @@ def _compare_plans() -> None:
         table["safety"] = f"{ui.cautions.UNSAFE}: " + ", ".join(unsafe)
     st.subheader("Side by side")
     # Figures to four significant figures: a case's emissions in t CO2e are small numbers.
-    fmt.table(table, view.currency, config={c: st.column_config.NumberColumn(format="%.4g")
-                                            for c in table.columns[2:] if c != "safety"})
+    fmt.table(
+        table,
+        view.currency,
+        config={c: st.column_config.NumberColumn(format="%.4g") for c in table.columns[2:] if c != "safety"},
+    )
 
     cost_df = pd.DataFrame({"item": charts.cost_by_item(bt, base.currency)["item"]})
     co2e_df = pd.DataFrame({"source": ["Volatile agent", "Nitrous oxide"]})
-    use_df = pd.DataFrame({"item": ["Liquid agent (mL)", "Oxygen (10 L)", "Medical air (10 L)",
-                                    "Nitrous oxide (10 L)", "CO2 absorbent (10 g)"]})
+    use_df = pd.DataFrame(
+        {
+            "item": [
+                "Liquid agent (mL)",
+                "Oxygen (10 L)",
+                "Medical air (10 L)",
+                "Nitrous oxide (10 L)",
+                "CO2 absorbent (10 g)",
+            ]
+        }
+    )
     for name, res in results.items():
         t = res.totals
         cost_df[name] = charts.cost_by_item(t, res.currency).iloc[:, 1].to_numpy()
         co2e_df[name] = [t["co2e_agent_kg"] * scale, t["co2e_nitrous_oxide_kg"] * scale]
-        use_df[name] = [t["liquid_agent_ml"], t["oxygen_l"] / 10, t["air_l"] / 10, t["nitrous_oxide_l"] / 10,
-                        t["absorbent_g"] / 10]
-    figs = [("Cost by item", charts.grouped_bars(cost_df, "item", list(results), "Cost by item", view.currency)),
-            ("Emissions by source", charts.grouped_bars(co2e_df, "source", list(results), "Emissions by source",
-                                                        view.co2e_unit)),
-            ("What each plan uses", charts.grouped_bars(use_df, "item", list(results), "What each plan uses"))]
+        use_df[name] = [
+            t["liquid_agent_ml"],
+            t["oxygen_l"] / 10,
+            t["air_l"] / 10,
+            t["nitrous_oxide_l"] / 10,
+            t["absorbent_g"] / 10,
+        ]
+    figs = [
+        ("Cost by item", charts.grouped_bars(cost_df, "item", list(results), "Cost by item", view.currency)),
+        (
+            "Emissions by source",
+            charts.grouped_bars(co2e_df, "source", list(results), "Emissions by source", view.co2e_unit),
+        ),
+        ("What each plan uses", charts.grouped_bars(use_df, "item", list(results), "What each plan uses")),
+    ]
     st.subheader("Charts")
     g1, g2 = st.columns(2)
     g1.plotly_chart(figs[0][1], width="stretch", key="cmp_fig_cost")
@@ -159,15 +218,26 @@ def _compare_plans() -> None:
         tables[f"Phases {name}"] = res.phases.assign(plan=name)
     tables["Warnings"] = ui.cautions.warnings_table(warnings)
     tables["Sources"] = sources
-    inputs = {"baseline": base_name,
-              "safety": "; ".join(f"{n}: {ui.cautions.safety_text(r.warnings)}" for n, r in results.items()),
-              "compared": ", ".join(list(results)[1:]), "GWP source": base.gwp_label,
-              "room temperature": f"{view.temperature_c:g} °C", **ui.provenance.in_use(view, ref)}
+    inputs = {
+        "baseline": base_name,
+        "safety": "; ".join(f"{n}: {ui.cautions.safety_text(r.warnings)}" for n, r in results.items()),
+        "compared": ", ".join(list(results)[1:]),
+        "GWP source": base.gwp_label,
+        "room temperature": f"{view.temperature_c:g} °C",
+        **ui.provenance.in_use(view, ref),
+    }
 
     def _report() -> str:
-        return html_report(("UNSAFE PRACTICE. " if unsafe else "") + "Plan comparison", inputs=inputs,
-                           tables={"Side by side": table}, figures=figs, warnings=ui.cautions.report_lines(warnings),
-                           cautions=[ui.CAUTION], sources=sources, currency=view.currency)
+        return html_report(
+            ("UNSAFE PRACTICE. " if unsafe else "") + "Plan comparison",
+            inputs=inputs,
+            tables={"Side by side": table},
+            figures=figs,
+            warnings=ui.cautions.report_lines(warnings),
+            cautions=[ui.CAUTION],
+            sources=sources,
+            currency=view.currency,
+        )
 
     st.divider()
     st.markdown("**Download this comparison**")
@@ -183,7 +253,9 @@ with tab_year:
     try:
         from ui.year_compare import render as render_year
     except ImportError:
-        st.info("Year scenarios (a department's case mix under two practices) are compared on the "
-                "Department year page.", icon=":material/calendar_month:")
+        st.info(
+            "Year scenarios (a department's case mix under two practices) are compared on the Department year page.",
+            icon=":material/calendar_month:",
+        )
     else:
         render_year(view)

@@ -3,8 +3,8 @@
 from __future__ import annotations
 
 import hashlib
-from dataclasses import replace
 import tempfile
+from dataclasses import replace
 from pathlib import Path
 
 import pandas as pd
@@ -15,10 +15,10 @@ from model import InputError
 from model.audit.engine import audit_records
 from model.io.purchases import load_purchases
 from model.io.sites import parse_sites
+from model.present.report_charts import report_figures
+from model.present.report_document import report_html
 from model.report import build_report, parse_period, parse_target
-from model.report.document import report_html
 from ui.common import sources_table
-from ui.report_charts import report_figures
 from ui.report_views import period_input, shown, sites_against_purchases, target_input
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -27,12 +27,19 @@ DEMO_RECORDS = [DEMO / "fernhollow_2025.parquet", DEMO / "fernhollow_2026.parque
 DEMO_PURCHASES = [DEMO / "fernhollow_purchases_2025.csv", DEMO / "fernhollow_purchases_2026.csv"]
 DEMO_SITES = DEMO / "fernhollow_sites.csv"
 
-view = ui.page_start("Emissions report", "Scope 1 anaesthetic emissions for a reporting period, against a "
-                     "baseline and a target, with what drove the change: for a sustainability report or a board.")
+view = ui.page_start(
+    "Emissions report",
+    "Scope 1 anaesthetic emissions for a reporting period, against a "
+    "baseline and a target, with what drove the change: for a sustainability report or a board.",
+)
 ref = ui.reference(view)
 
-source = st.radio("Records", ["Demo records (Fernhollow General Hospital, invented, 2025 and 2026)", "Upload files"],
-                  key="er_source", horizontal=True)
+source = st.radio(
+    "Records",
+    ["Demo records (Fernhollow General Hospital, invented, 2025 and 2026)", "Upload files"],
+    key="er_source",
+    horizontal=True,
+)
 files: list[tuple[str, bytes]] = []
 purchase_files: list[tuple[str, bytes]] = []
 sites_file: tuple[str, bytes] | None = None
@@ -45,10 +52,15 @@ if source.startswith("Demo"):
         sites_file = (DEMO_SITES.name, DEMO_SITES.read_bytes())
 else:
     c1, c2, c3 = st.columns(3)
-    ups = c1.file_uploader("Record files covering both periods (.csv, .parquet)", type=["csv", "parquet"],
-                           accept_multiple_files=True, key="er_upload")
-    ups_p = c2.file_uploader("Purchases files (optional)", type=["csv", "parquet"], accept_multiple_files=True,
-                             key="er_upload_purchases")
+    ups = c1.file_uploader(
+        "Record files covering both periods (.csv, .parquet)",
+        type=["csv", "parquet"],
+        accept_multiple_files=True,
+        key="er_upload",
+    )
+    ups_p = c2.file_uploader(
+        "Purchases files (optional)", type=["csv", "parquet"], accept_multiple_files=True, key="er_upload_purchases"
+    )
     up_s = c3.file_uploader("Site file, theatre,site (optional)", type=["csv"], key="er_upload_sites")
     files = ui.checked_uploads(ups, "records")
     purchase_files = ui.checked_uploads(ups_p, "purchases")
@@ -99,25 +111,34 @@ def purchases_table(digest: str, ref_key: str, _files, _ref):
     return (pd.concat(tables, ignore_index=True) if tables else None), notes
 
 
-cases, summary, absorbent_note = audited(_digest(files), ui.reference_key(view), float(view.temperature_c), tuple(files), ref)
+cases, summary, absorbent_note = audited(
+    _digest(files), ui.reference_key(view), float(view.temperature_c), tuple(files), ref
+)
 if cases is None:
     ui.show_input_error(InputError("records", "the files", summary))
     st.stop()
-purchases, purchase_notes = (purchases_table(_digest(purchase_files), ui.reference_key(view), tuple(purchase_files),
-                                             ref) if purchase_files else (None, []))
+purchases, purchase_notes = (
+    purchases_table(_digest(purchase_files), ui.reference_key(view), tuple(purchase_files), ref)
+    if purchase_files
+    else (None, [])
+)
 sites = None
 if sites_file is not None:
     try:
         sites = parse_sites(sites_file[1].decode("utf-8-sig"), sites_file[0])
     except (InputError, UnicodeDecodeError) as err:
-        ui.show_input_error(err if isinstance(err, InputError) else
-                            InputError(sites_file[0], "the file", "not UTF-8 text"), "Site file (not used)")
+        ui.show_input_error(
+            err if isinstance(err, InputError) else InputError(sites_file[0], "the file", "not UTF-8 text"),
+            "Site file (not used)",
+        )
 
 starts = pd.to_datetime(cases["start"], errors="coerce").dropna()
 last_year = int(starts.max().year) if len(starts) else 2026
-st.caption(f"{summary['rows_valid']:,} rows used from {len(files)} file(s), {summary['rows_set_aside']:,} set aside "
-           "(the Record audit page lists them). Cases from "
-           + (f"{starts.min():%Y-%m-%d} to {starts.max():%Y-%m-%d}." if len(starts) else "no dated case."))
+st.caption(
+    f"{summary['rows_valid']:,} rows used from {len(files)} file(s), {summary['rows_set_aside']:,} set aside "
+    "(the Record audit page lists them). Cases from "
+    + (f"{starts.min():%Y-%m-%d} to {starts.max():%Y-%m-%d}." if len(starts) else "no dated case.")
+)
 
 # The headline and key figures are drawn here, above the choices that make them, so that on a
 # laptop screen they are seen first.
@@ -130,11 +151,19 @@ with st.container(border=True):
     target_text = target_input("er_target", last_year) if use_baseline else None
     c1, c2 = st.columns(2)
     gwp_keys = [k for k in ref.gwp_sources if k != "user" or ref.gwp_sources[k].values]
-    baseline_gwp = c1.selectbox("GWP source of the baseline", gwp_keys, index=gwp_keys.index(view.gwp_source)
-                                if view.gwp_source in gwp_keys else 0, key="er_baseline_gwp",
-                                format_func=lambda k: ref.gwp_sources[k].label,
-                                help="Normally the same as the sidebar's. A different one shows the change of "
-                                     "source as its own part of the change.") if use_baseline else None
+    baseline_gwp = (
+        c1.selectbox(
+            "GWP source of the baseline",
+            gwp_keys,
+            index=gwp_keys.index(view.gwp_source) if view.gwp_source in gwp_keys else 0,
+            key="er_baseline_gwp",
+            format_func=lambda k: ref.gwp_sources[k].label,
+            help="Normally the same as the sidebar's. A different one shows the change of "
+            "source as its own part of the change.",
+        )
+        if use_baseline
+        else None
+    )
     site_names = sorted(set(sites.values())) if sites else []
     chosen_sites = c2.multiselect("Sites reported (none chosen: all)", site_names, key="er_sites") if sites else []
 
@@ -158,27 +187,87 @@ except InputError as err:
 
 
 @st.cache_resource(show_spinner=False, max_entries=16)
-def cached_report(key: str, _cases, _period, _baseline, _ref, _gwp, _baseline_gwp, _purchases, _sites, _chosen,
-                  _target, _absorbent_note):
+def cached_report(
+    key: str,
+    _cases,
+    _period,
+    _baseline,
+    _ref,
+    _gwp,
+    _baseline_gwp,
+    _purchases,
+    _sites,
+    _chosen,
+    _target,
+    _absorbent_note,
+):
     """``build_report`` keyed by text naming every input (the result is never changed after)."""
-    return build_report(_cases, _period, _baseline, reference=_ref, gwp_source=_gwp,
-                        baseline_gwp_source=_baseline_gwp, purchases=_purchases, sites=_sites,
-                        chosen_sites=_chosen, target=_target, absorbent_note=_absorbent_note,
-                        fields={"period": "Reporting period", "baseline": "Baseline period", "target": "Target",
-                                "site": "Sites reported"})
+    return build_report(
+        _cases,
+        _period,
+        _baseline,
+        reference=_ref,
+        gwp_source=_gwp,
+        baseline_gwp_source=_baseline_gwp,
+        purchases=_purchases,
+        sites=_sites,
+        chosen_sites=_chosen,
+        target=_target,
+        absorbent_note=_absorbent_note,
+        fields={
+            "period": "Reporting period",
+            "baseline": "Baseline period",
+            "target": "Target",
+            "site": "Sites reported",
+        },
+    )
 
 
-report_key = "|".join(map(str, (_digest(files), _digest(purchase_files), sites_file and _digest([sites_file]),
-                                ui.reference_key(view), view.temperature_c, period.text, baseline and baseline.text,
-                                target and target.text, view.gwp_source, baseline_gwp, sorted(chosen_sites))))
+report_key = "|".join(
+    map(
+        str,
+        (
+            _digest(files),
+            _digest(purchase_files),
+            sites_file and _digest([sites_file]),
+            ui.reference_key(view),
+            view.temperature_c,
+            period.text,
+            baseline and baseline.text,
+            target and target.text,
+            view.gwp_source,
+            baseline_gwp,
+            sorted(chosen_sites),
+        ),
+    )
+)
 try:
-    report = cached_report(report_key, cases, period, baseline, ref, view.gwp_source, baseline_gwp, purchases, sites,
-                           tuple(chosen_sites), target, absorbent_note)
+    report = cached_report(
+        report_key,
+        cases,
+        period,
+        baseline,
+        ref,
+        view.gwp_source,
+        baseline_gwp,
+        purchases,
+        sites,
+        tuple(chosen_sites),
+        target,
+        absorbent_note,
+    )
 except InputError as err:
     ui.show_input_error(err)
     st.stop()
-extra = ([f"{len(purchase_notes)} purchase line(s) set aside; the others are used: "
-          + "; ".join(purchase_notes[:5]) + (" ..." if len(purchase_notes) > 5 else "")] if purchase_notes else [])
+extra = (
+    [
+        f"{len(purchase_notes)} purchase line(s) set aside; the others are used: "
+        + "; ".join(purchase_notes[:5])
+        + (" ..." if len(purchase_notes) > 5 else "")
+    ]
+    if purchase_notes
+    else []
+)
 # A copy with this run's messages: the cached report itself is never changed.
 report = replace(report, problems=problems + report.problems, cautions=report.cautions + extra)
 
@@ -197,8 +286,11 @@ with head:
     else:
         m[1].metric("Use-based, IPCC AR6 GWP100", f"{pr.figures['co2e_t']['ar6_gwp100']:,.1f} t CO2e")
     if pr.purchases is not None:
-        m[2].metric("Purchase-based", f"{pr.purchases.co2e_t(f't CO2e ({report.gwp_label})'):,.1f} t CO2e",
-                    help=f"Everything bought in the period's months, {report.gwp_label}")
+        m[2].metric(
+            "Purchase-based",
+            f"{pr.purchases.co2e_t(f't CO2e ({report.gwp_label})'):,.1f} t CO2e",
+            help=f"Everything bought in the period's months, {report.gwp_label}",
+        )
     else:
         m[2].metric("Purchase-based", "no purchases")
     m[3].metric("Fresh gas flow", view.flow(pr.figures["fgf_l_min"]), help="time-weighted over the anaesthetic time")
@@ -227,18 +319,33 @@ def _chart(heading: str, key: str) -> None:
     st.plotly_chart(charts[heading], width="stretch", key=key)
 
 
-tabs = st.tabs(["What drove the change", "Figures", "By month and site", "Flow bands", "Use and purchases",
-                "Target path", "Method and cautions"])
+tabs = st.tabs(
+    [
+        "What drove the change",
+        "Figures",
+        "By month and site",
+        "Flow bands",
+        "Use and purchases",
+        "Target path",
+        "Method and cautions",
+    ]
+)
 with tabs[0]:
     if d is None:
         st.caption("Choose a baseline period with cases in the records to see what drove the change.")
     else:
         _chart("What drove the change", "er_waterfall")
         st.markdown("\n".join(f"- {ui.md(sentence)}" for _, sentence in report.sentences()))
-        st.dataframe(report.decomposition_table(), hide_index=True, width="stretch",
-                     column_config={"t_co2e": st.column_config.NumberColumn("t CO2e", format="%+.2f")})
-        st.caption("Additive LMDI-I (Ang 2005): the parts add exactly to the total change. An agent used in one "
-                   "period only: analytical limits of Ang and Liu 2007 (its whole change is agent mix).")
+        st.dataframe(
+            report.decomposition_table(),
+            hide_index=True,
+            width="stretch",
+            column_config={"t_co2e": st.column_config.NumberColumn("t CO2e", format="%+.2f")},
+        )
+        st.caption(
+            "Additive LMDI-I (Ang 2005): the parts add exactly to the total change. An agent used in one "
+            "period only: analytical limits of Ang and Liu 2007 (its whole change is agent mix)."
+        )
 with tabs[1]:
     _chart("Emissions by agent", "er_agents")
     st.dataframe(shown(report.figures_table()), hide_index=True, width="stretch")
@@ -255,8 +362,10 @@ with tabs[4]:
     else:
         _chart("Use-based and purchase-based", "er_purchases")
         st.dataframe(shown(pr.use_vs_purchase), hide_index=True, width="stretch")
-        st.caption("Gap = purchased - used: stock held over, wastage, use not recorded and, for piped N2O, "
-                   "losses from manifolds and pipework.")
+        st.caption(
+            "Gap = purchased - used: stock held over, wastage, use not recorded and, for piped N2O, "
+            "losses from manifolds and pipework."
+        )
         sites_against_purchases(report)
 with tabs[5]:
     if report.target is None:
@@ -271,8 +380,9 @@ with tabs[6]:
 
 
 def _html() -> str:
-    return report_html(report, list(charts.items()), cautions=[ui.CAUTION], sources=sources_table(ui.reference_key(view), ref))
+    return report_html(
+        report, list(charts.items()), cautions=[ui.CAUTION], sources=sources_table(ui.reference_key(view), ref)
+    )
 
 
-ui.downloads(f"emissions report {pr.period.text}", report.tables(), _html, key="er_dl",
-             notes=tuple(report.notes()))
+ui.downloads(f"emissions report {pr.period.text}", report.tables(), _html, key="er_dl", notes=tuple(report.notes()))

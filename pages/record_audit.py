@@ -12,47 +12,83 @@ import streamlit as st
 import ui
 import ui.provenance
 from model import InputError
-from model.audit.result import BAND_COLUMNS, DEFAULT_HIGH_FLOW_L_MIN, DEFAULT_HIGH_FLOW_LIMIT_MIN
 from model.audit.engine import audit_records
-from model.io.exports import html_report
-from model.io.purchases import load_purchases
 from model.audit.reconcile import cost_view, reconcile, record_coverage
+from model.audit.result import BAND_COLUMNS, DEFAULT_HIGH_FLOW_L_MIN, DEFAULT_HIGH_FLOW_LIMIT_MIN
+from model.io.purchases import load_purchases
 from model.io.record_files import DEFAULT_GAP_LIMIT_MIN
-from ui import charts
-from ui import format as fmt
-from ui.format import plain_paths
+from model.present import case_charts as charts
+from model.present.exports import html_report
+from ui import tables as fmt
+from ui.tables import plain_paths
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "demo_data" / "records"
-DEMO_RECORDS = {"2025, all theatres (Parquet)": DEMO / "fernhollow_2025.parquet",
-                "2026, all theatres, after a change of practice (Parquet)": DEMO / "fernhollow_2026.parquet",
-                "About 30 Birch cases, other layout, with deliberate problems (CSV)":
-                    DEMO / "fernhollow_birch_cases.csv"}
+DEMO_RECORDS = {
+    "2025, all theatres (Parquet)": DEMO / "fernhollow_2025.parquet",
+    "2026, all theatres, after a change of practice (Parquet)": DEMO / "fernhollow_2026.parquet",
+    "About 30 Birch cases, other layout, with deliberate problems (CSV)": DEMO / "fernhollow_birch_cases.csv",
+}
 DEMO_PURCHASES = [DEMO / "fernhollow_purchases_2025.csv", DEMO / "fernhollow_purchases_2026.csv"]
 
 
 def _demo_purchases() -> tuple[str, bytes]:
     """The demo's two purchases files as one (the second's header and comments left out)."""
     first, *rest = (p.read_text(encoding="utf-8") for p in DEMO_PURCHASES)
-    lines = [line for text in rest for line in text.splitlines(keepends=True)
-             if line.strip() and not line.startswith("#") and not line.lower().startswith("month,")]
+    lines = [
+        line
+        for text in rest
+        for line in text.splitlines(keepends=True)
+        if line.strip() and not line.startswith("#") and not line.lower().startswith("month,")
+    ]
     return "fernhollow_purchases_2025-2026.csv", (first + "".join(lines)).encode("utf-8")
-#: Columns shown first in the wide audit tables (the rest follow, a scroll away).
-CASE_COLUMNS_FIRST = ("case_id", "agent", "theatre", "month", "minutes", "mean_fgf_l_min", "liquid_agent_ml",
-                      "co2e_total_kg", "cost_total", "high_flow_flag")
-SUM_COLUMNS_FIRST = ("theatre", "month", "agent", "cases", "mean_fgf_l_min", "liquid_agent_ml", "co2e_total_kg",
-                     "cost_total", "high_flow_cases")
 
-view = ui.page_start("Record audit", "What case records say was used and emitted, case by case, by "
-                     "theatre and month, and how that compares with what was bought.")
-st.warning("Records must be de-identified before upload: no names, hospital numbers or dates of "
-           "birth. A case id, times, theatre, agent, flows and dial or end-tidal settings are all "
-           "the audit needs.", icon=":material/shield_person:")
+
+#: Columns shown first in the wide audit tables (the rest follow, a scroll away).
+CASE_COLUMNS_FIRST = (
+    "case_id",
+    "agent",
+    "theatre",
+    "month",
+    "minutes",
+    "mean_fgf_l_min",
+    "liquid_agent_ml",
+    "co2e_total_kg",
+    "cost_total",
+    "high_flow_flag",
+)
+SUM_COLUMNS_FIRST = (
+    "theatre",
+    "month",
+    "agent",
+    "cases",
+    "mean_fgf_l_min",
+    "liquid_agent_ml",
+    "co2e_total_kg",
+    "cost_total",
+    "high_flow_cases",
+)
+
+view = ui.page_start(
+    "Record audit",
+    "What case records say was used and emitted, case by case, by "
+    "theatre and month, and how that compares with what was bought.",
+)
+st.warning(
+    "Records must be de-identified before upload: no names, hospital numbers or dates of "
+    "birth. A case id, times, theatre, agent, flows and dial or end-tidal settings are all "
+    "the audit needs.",
+    icon=":material/shield_person:",
+)
 ss = st.session_state
 ref = ui.reference(view)
 
-source = st.radio("Records", ["Demo records (Fernhollow General Hospital, invented)", "Upload files"],
-                  key="ra_source", horizontal=True)
+source = st.radio(
+    "Records",
+    ["Demo records (Fernhollow General Hospital, invented)", "Upload files"],
+    key="ra_source",
+    horizontal=True,
+)
 files: list[tuple[str, bytes]] = []
 purchases_file: tuple[str, bytes] | None = None
 if source.startswith("Demo"):
@@ -61,22 +97,41 @@ if source.startswith("Demo"):
     if st.checkbox("Reconcile with the demo purchases", value=True, key="ra_demo_purchases"):
         purchases_file = _demo_purchases()
 else:
-    uploads = st.file_uploader("Record files (.csv or .parquet; format in docs/formats.md, 'Case records')",
-                               type=["csv", "parquet"], accept_multiple_files=True, key="ra_upload")
-    up_p = st.file_uploader("Purchases file (optional; .csv or .parquet)", type=["csv", "parquet"],
-                            key="ra_upload_purchases")
+    uploads = st.file_uploader(
+        "Record files (.csv or .parquet; format in docs/formats.md, 'Case records')",
+        type=["csv", "parquet"],
+        accept_multiple_files=True,
+        key="ra_upload",
+    )
+    up_p = st.file_uploader(
+        "Purchases file (optional; .csv or .parquet)", type=["csv", "parquet"], key="ra_upload_purchases"
+    )
     files = ui.checked_uploads(uploads, "records")
     purchases_file = next(iter(ui.checked_uploads(up_p, "purchases")), None)
 
 with st.expander("Audit settings"):
     c1, c2, c3 = st.columns(3)
-    gap_limit = c1.number_input("Longest interval counted [min]", 0.5, 240.0, DEFAULT_GAP_LIMIT_MIN, 0.5,
-                                key="ra_gap", help="Longer gaps between two samples of a case are reported and "
-                                                   "left out of every sum, never filled in.")
-    high_flow = c2.number_input("High flow above [L/min]", 0.5, 20.0, float(DEFAULT_HIGH_FLOW_L_MIN), 0.5,
-                                key="ra_high", help="Baker 1994: flows above 2 L/min are high flow.")
-    high_limit = c3.number_input("Flag high-flow runs of at least [min]", 1.0, 600.0,
-                                 DEFAULT_HIGH_FLOW_LIMIT_MIN, 1.0, key="ra_high_limit")
+    gap_limit = c1.number_input(
+        "Longest interval counted [min]",
+        0.5,
+        240.0,
+        DEFAULT_GAP_LIMIT_MIN,
+        0.5,
+        key="ra_gap",
+        help="Longer gaps between two samples of a case are reported and left out of every sum, never filled in.",
+    )
+    high_flow = c2.number_input(
+        "High flow above [L/min]",
+        0.5,
+        20.0,
+        float(DEFAULT_HIGH_FLOW_L_MIN),
+        0.5,
+        key="ra_high",
+        help="Baker 1994: flows above 2 L/min are high flow.",
+    )
+    high_limit = c3.number_input(
+        "Flag high-flow runs of at least [min]", 1.0, 600.0, DEFAULT_HIGH_FLOW_LIMIT_MIN, 1.0, key="ra_high_limit"
+    )
 
 if not files:
     st.info("Choose demo files or upload record files to start the audit.")
@@ -90,7 +145,7 @@ def run_audit(files: tuple, purchases: tuple | None, settings: tuple, _ref, _pro
     """
     gap, high, limit, gwp, temp = settings
     with tempfile.TemporaryDirectory(prefix="gas-ledger-audit-") as tmp:
-        known: dict[str, str] = {}     # copy in the temporary folder -> the name the user knows
+        known: dict[str, str] = {}  # copy in the temporary folder -> the name the user knows
 
         def shown(text):
             """Name the uploaded file, not its copy in the private temporary folder."""
@@ -104,9 +159,16 @@ def run_audit(files: tuple, purchases: tuple | None, settings: tuple, _ref, _pro
             known[str(p)] = Path(name).name
         recon, purchase_notes, bought_table = None, [], None
         try:
-            result = audit_records(paths, reference=_ref, gwp_source=gwp, temperature_c=temp,
-                                   gap_limit_min=gap, high_flow_l_min=high, high_flow_limit_min=limit,
-                                   progress=_progress)
+            result = audit_records(
+                paths,
+                reference=_ref,
+                gwp_source=gwp,
+                temperature_c=temp,
+                gap_limit_min=gap,
+                high_flow_l_min=high,
+                high_flow_limit_min=limit,
+                progress=_progress,
+            )
             if purchases is not None:
                 p = Path(tmp) / Path(purchases[0]).name
                 p.write_bytes(purchases[1])
@@ -162,39 +224,55 @@ m[0].metric("Cases", f"{int(total['cases']):,}")
 m[1].metric("Rows used", f"{summary['rows_valid']:,}", help=f"{summary['rows_read']:,} rows read")
 m[2].metric("Rows set aside", f"{summary['rows_set_aside']:,}")
 m[3].metric("Liquid agent", f"{total['liquid_agent_ml']:,.0f} mL")
-m[4].metric(f"CO2e ({view.co2e_unit})", view.co2e_number(total["co2e_total_kg"]),
-            help=view.co2e(total["co2e_total_kg"]))
+m[4].metric(
+    f"CO2e ({view.co2e_unit})", view.co2e_number(total["co2e_total_kg"]), help=view.co2e(total["co2e_total_kg"])
+)
 m[5].metric("Cost", view.money(total["cost_total"]))
-st.caption(f"GWP source: {result.gwp_label}. Every delivered gram counts as emitted (no uptake model). "
-           f"{int(total['high_flow_cases']):,} case(s) ran {high_limit:g} min or more above {high_flow:g} L/min. "
-           + ("" if pd.isna(total["time_weighted_fgf_l_min"]) else
-              f"Time-weighted fresh gas flow {total['time_weighted_fgf_l_min']:,.2f} L/min. ") +
-           f"CO2 absorbent, estimated: {total['absorbent_g'] / 1000:,.1f} kg, {view.money(total['cost_absorbent'])} "
-           f"(not in the cost above).", help="Absorbent: " + result.absorbent_note())
+st.caption(
+    f"GWP source: {result.gwp_label}. Every delivered gram counts as emitted (no uptake model). "
+    f"{int(total['high_flow_cases']):,} case(s) ran {high_limit:g} min or more above {high_flow:g} L/min. "
+    + (
+        ""
+        if pd.isna(total["time_weighted_fgf_l_min"])
+        else f"Time-weighted fresh gas flow {total['time_weighted_fgf_l_min']:,.2f} L/min. "
+    )
+    + f"CO2 absorbent, estimated: {total['absorbent_g'] / 1000:,.1f} kg, {view.money(total['cost_absorbent'])} "
+    f"(not in the cost above).",
+    help="Absorbent: " + result.absorbent_note(),
+)
 
 ui.provenance.show(view, ref)
 
-with st.expander(f"Checks: {summary['rows_set_aside']:,} row(s) set aside, {summary['gaps']:,} gap(s)",
-                 expanded=summary["rows_set_aside"] > 0 or summary["gaps"] > 0):
-    kinds = pd.DataFrame([(fmt.problem_words(k), v) for k, v in summary["set_aside_by_kind"].items() if v],
-                         columns=["problem", "rows set aside"])
+with st.expander(
+    f"Checks: {summary['rows_set_aside']:,} row(s) set aside, {summary['gaps']:,} gap(s)",
+    expanded=summary["rows_set_aside"] > 0 or summary["gaps"] > 0,
+):
+    kinds = pd.DataFrame(
+        [(fmt.problem_words(k), v) for k, v in summary["set_aside_by_kind"].items() if v],
+        columns=["problem", "rows set aside"],
+    )
     if len(kinds):
         fmt.table(kinds, width="content")
-        fmt.table(fmt.issue_messages(rep.issues[["file", "row", "kind", "column", "value", "message"]]),
-                  height=min(35 * (len(rep.issues) + 1) + 3, 300))
+        fmt.table(
+            fmt.issue_messages(rep.issues[["file", "row", "kind", "column", "value", "message"]]),
+            height=min(35 * (len(rep.issues) + 1) + 3, 300),
+        )
     else:
         st.caption("Every row passed the checks.")
     if summary["gaps"]:
-        st.caption(f"Gaps over {summary['gap_limit_min']:g} min are not filled: "
-                   f"{summary['gap_minutes_not_counted']:,.0f} min are left out of the sums.")
+        st.caption(
+            f"Gaps over {summary['gap_limit_min']:g} min are not filled: "
+            f"{summary['gap_minutes_not_counted']:,.0f} min are left out of the sums."
+        )
         fmt.table(rep.gap_list[["file", "row", "case_id", "minutes"]])
     for note in summary["notes"]:
         st.caption(note)
 
 cases = result.cases
-figs: list = []     # (heading, figure) for the HTML report
+figs: list = []  # (heading, figure) for the HTML report
 tab_cases, tab_bands, tab_month, tab_recon = st.tabs(
-    ["Per case", "Flow bands by theatre", "Monthly trend", "Purchases"])
+    ["Per case", "Flow bands by theatre", "Monthly trend", "Purchases"]
+)
 with tab_cases:
     fig = charts.agent_spread_figure(cases)
     if fig is not None:
@@ -208,10 +286,14 @@ with tab_bands:
     figs.append(("Flow bands by theatre", fig))
     by_theatre = result.by("theatre")
     fmt.table(by_theatre, view.currency, first=SUM_COLUMNS_FIRST)
-    st.caption("By theatre and month: the time-weighted fresh gas flow (each flow weighted by the minutes it "
-               "held) beside the minutes in each flow band.")
-    fmt.table(result.by("theatre_month")[["theatre", "month", "cases", "time_weighted_fgf_l_min", *BAND_COLUMNS]],
-              view.currency)
+    st.caption(
+        "By theatre and month: the time-weighted fresh gas flow (each flow weighted by the minutes it "
+        "held) beside the minutes in each flow band."
+    )
+    fmt.table(
+        result.by("theatre_month")[["theatre", "month", "cases", "time_weighted_fgf_l_min", *BAND_COLUMNS]],
+        view.currency,
+    )
 with tab_month:
     by_month = result.by("month")
     fig = charts.monthly_co2e_figure(by_month, ui.common.CO2E_UNITS[view.co2e_unit], view.co2e_unit)
@@ -223,12 +305,17 @@ with tab_month:
 with tab_recon:
     if purchase_notes:
         more = len(purchase_notes) - 20
-        st.warning(f"{len(purchase_notes)} purchase line(s) set aside; the others are used:\n\n"
-                   + "\n".join(f"- {ui.md(m)}" for m in purchase_notes[:20])
-                   + (f"\n- ... and {more} more" if more > 0 else ""), icon=":material/warning:")
+        st.warning(
+            f"{len(purchase_notes)} purchase line(s) set aside; the others are used:\n\n"
+            + "\n".join(f"- {ui.md(m)}" for m in purchase_notes[:20])
+            + (f"\n- ... and {more} more" if more > 0 else ""),
+            icon=":material/warning:",
+        )
     fmt.table(costs, view.currency)
-    st.caption(f"Cost by item over the whole period, purchases priced with the same prices. The absorbent row "
-               f"is {result.absorbent_note()}")
+    st.caption(
+        f"Cost by item over the whole period, purchases priced with the same prices. The absorbent row "
+        f"is {result.absorbent_note()}"
+    )
     if recon is None:
         st.caption("Add a purchases file (format in docs/formats.md, 'Purchases') to compare with what was bought.")
     else:
@@ -239,20 +326,30 @@ with tab_recon:
             # A few cases against a hospital's purchases: say what the records cover, and no loss.
             st.warning(ui.md(coverage["message"]), icon=":material/rule:")
             if len(n2o):
-                st.metric("N2O apparent loss", "not estimated", delta_color="off",
-                          help="The records cover only part of what the purchases serve; the gap between "
-                               "them is mostly use that is not in these records.")
+                st.metric(
+                    "N2O apparent loss",
+                    "not estimated",
+                    delta_color="off",
+                    help="The records cover only part of what the purchases serve; the gap between "
+                    "them is mostly use that is not in these records.",
+                )
         elif len(n2o):
             st.caption(ui.md(coverage["message"]))
             r = n2o.iloc[0]
             share = "" if pd.isna(r["unexplained_share"]) else f"{r['unexplained_share']:.0%} of purchases"
-            st.metric("N2O apparent loss", f"{r['apparent_loss']:,.0f} L", share, delta_color="off",
-                      help="Purchased minus recorded N2O: losses in pipes and manifolds, part-full cylinders "
-                           "returned, and use not in the records.")
+            st.metric(
+                "N2O apparent loss",
+                f"{r['apparent_loss']:,.0f} L",
+                share,
+                delta_color="off",
+                help="Purchased minus recorded N2O: losses in pipes and manifolds, part-full cylinders "
+                "returned, and use not in the records.",
+            )
         with st.expander("Coverage by month and theatre", expanded=coverage["partial"]):
             fmt.table(coverage["by_month"].rename(columns={"bought": "purchases", "has_records": "case records"}))
-        long = totals.melt(id_vars=["item", "unit"], value_vars=["purchased", "recorded"], var_name="source",
-                           value_name="amount")
+        long = totals.melt(
+            id_vars=["item", "unit"], value_vars=["purchased", "recorded"], var_name="source", value_name="amount"
+        )
         long["item"] = long["item"].str.replace("_", " ") + " (" + long["unit"] + ")"
         fig = charts.purchased_recorded_figure(long)
         st.plotly_chart(fig, width="stretch", key="ra_recon")
@@ -260,31 +357,52 @@ with tab_recon:
         fmt.table(recon, view.currency)
         st.caption("Months differ by stock held over; the 'all' row of each item is the fairer comparison.")
 
-tables = {"Cases": cases, "By theatre": result.by("theatre"), "By month": result.by("month"),
-          "By agent": result.by("agent"), "By theatre and month": result.by("theatre_month"),
-          "Cost by item": costs, "Set-aside rows": rep.issues, "Gaps": rep.gap_list}
+tables = {
+    "Cases": cases,
+    "By theatre": result.by("theatre"),
+    "By month": result.by("month"),
+    "By agent": result.by("agent"),
+    "By theatre and month": result.by("theatre_month"),
+    "Cost by item": costs,
+    "Set-aside rows": rep.issues,
+    "Gaps": rep.gap_list,
+}
 if recon is not None:
     tables["Purchases"] = recon
     tables["Record coverage"] = coverage["by_month"]
 if purchase_notes:
     tables["Purchase lines set aside"] = pd.DataFrame({"message": purchase_notes})
-inputs = {"files": ", ".join(rep.files), "purchases": purchases_file[0] if purchases_file else "none",
-          "record coverage": coverage["message"] if recon is not None else "no purchases to compare",
-          "GWP source": result.gwp_label, "room temperature": f"{view.temperature_c:g} °C",
-          "longest interval counted": f"{gap_limit:g} min", "high flow above": f"{high_flow:g} L/min",
-          "cases": f"{int(total['cases']):,}", "rows used": f"{summary['rows_valid']:,}",
-          "rows set aside": f"{summary['rows_set_aside']:,}", "liquid agent": f"{total['liquid_agent_ml']:,.0f} mL",
-          "CO2e": view.co2e(total["co2e_total_kg"]), "cost": view.money(total["cost_total"]),
-          **ui.provenance.in_use(view, ref)}
+inputs = {
+    "files": ", ".join(rep.files),
+    "purchases": purchases_file[0] if purchases_file else "none",
+    "record coverage": coverage["message"] if recon is not None else "no purchases to compare",
+    "GWP source": result.gwp_label,
+    "room temperature": f"{view.temperature_c:g} °C",
+    "longest interval counted": f"{gap_limit:g} min",
+    "high flow above": f"{high_flow:g} L/min",
+    "cases": f"{int(total['cases']):,}",
+    "rows used": f"{summary['rows_valid']:,}",
+    "rows set aside": f"{summary['rows_set_aside']:,}",
+    "liquid agent": f"{total['liquid_agent_ml']:,.0f} mL",
+    "CO2e": view.co2e(total["co2e_total_kg"]),
+    "cost": view.money(total["cost_total"]),
+    **ui.provenance.in_use(view, ref),
+}
 
 
 def _report() -> str:
     shown = {"By theatre": tables["By theatre"], "By month": tables["By month"], "By agent": tables["By agent"]}
     if recon is not None:
         shown["Purchases"] = recon
-    return html_report("Record audit", inputs=inputs, tables=shown, figures=figs,
-                       cautions=[ui.CAUTION, "Every delivered gram counts as emitted (no uptake model)."],
-                       sources=pd.DataFrame(ref.table()), currency=view.currency)
+    return html_report(
+        "Record audit",
+        inputs=inputs,
+        tables=shown,
+        figures=figs,
+        cautions=[ui.CAUTION, "Every delivered gram counts as emitted (no uptake model)."],
+        sources=pd.DataFrame(ref.table()),
+        currency=view.currency,
+    )
 
 
 ui.downloads("record audit", tables, _report, key="ra_dl")

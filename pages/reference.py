@@ -10,14 +10,17 @@ import streamlit as st
 import ui
 import ui.provenance
 from model import DEFAULT_REFERENCE, InputError
-from model.access import author_label
-from model.changelog import reference_changes
-from model.changelog import shown as change_text
-from model.io.exports import html_report
+from model.present.exports import html_report
 from model.reference import VOLATILES
+from model.store.access import author_label
+from model.store.changelog import reference_changes
+from model.store.changelog import shown as change_text
 
-view = ui.page_start("Reference", "Every value the model uses, where it comes from, and your own "
-                     "values in place of the defaults. Saved values apply on every page.")
+view = ui.page_start(
+    "Reference",
+    "Every value the model uses, where it comes from, and your own "
+    "values in place of the defaults. Saved values apply on every page.",
+)
 store = ui.get_store()
 ref = ui.reference(view)
 saved = store.load_overrides()
@@ -41,17 +44,29 @@ if search.strip():
     needle = search.strip().lower()
     mask = shown.apply(lambda r: needle in " ".join(str(v) for v in r.values).lower(), axis=1)
     shown = shown[mask]
-st.dataframe(shown, hide_index=True, width="stretch", height=530,
-             column_config={"value": st.column_config.NumberColumn(format="%.6g"),
-                            "source": st.column_config.TextColumn(width="large")})
-st.caption(f"{len(shown)} of {len(table)} values. Basis says how each is known: published, from memory, "
-           "common practice, invented example price, or your own value.")
+st.dataframe(
+    shown,
+    hide_index=True,
+    width="stretch",
+    height=530,
+    column_config={
+        "value": st.column_config.NumberColumn(format="%.6g"),
+        "source": st.column_config.TextColumn(width="large"),
+    },
+)
+st.caption(
+    f"{len(shown)} of {len(table)} values. Basis says how each is known: published, from memory, "
+    "common practice, invented example price, or your own value."
+)
 
 
 def _report() -> str:
-    return html_report("Reference values", inputs={"your values": json.dumps(saved, sort_keys=True) or "none",
-                                                  "currency": view.currency},
-                       tables={"Reference values": table}, cautions=[ui.CAUTION])
+    return html_report(
+        "Reference values",
+        inputs={"your values": json.dumps(saved, sort_keys=True) or "none", "currency": view.currency},
+        tables={"Reference values": table},
+        cautions=[ui.CAUTION],
+    )
 
 
 ui.downloads("reference values", {"Reference": table}, _report, key="ref_dl")
@@ -61,16 +76,26 @@ ui.downloads("reference values", {"Reference": table}, _report, key="ref_dl")
 st.subheader("Your values")
 ui.provenance.show(view, ref)
 if history:
-    st.caption(f"In use: version {history[0].version}, saved {history[0].saved_at[:19]} UTC by "
-               f"{ui.md(author_label(history[0].author))}.")
+    st.caption(
+        f"In use: version {history[0].version}, saved {history[0].saved_at[:19]} UTC by "
+        f"{ui.md(author_label(history[0].author))}."
+    )
 st.caption("Leave a value as it is to keep the default. Saving keeps every earlier set of values.")
 if locked:
     st.info(ui.md(permission.reason), icon=":material/lock:")
 default = DEFAULT_REFERENCE
 prices_saved = saved.get("prices", {})
-FORM_KEYS = ("ref_currency",
-             "ref_bottle_", "ref_oxygen_", "ref_air_", "ref_nitrous_", "ref_absorbent_", "ref_gwp_", "ref_mac_",
-             "ref_vapmax_")
+FORM_KEYS = (
+    "ref_currency",
+    "ref_bottle_",
+    "ref_oxygen_",
+    "ref_air_",
+    "ref_nitrous_",
+    "ref_absorbent_",
+    "ref_gwp_",
+    "ref_mac_",
+    "ref_vapmax_",
+)
 
 
 def _values_in_use() -> dict:
@@ -99,31 +124,56 @@ with st.form("ref_overrides"):
     tab_p, tab_g, tab_m, tab_v = st.tabs(["Prices", "GWP values", "MAC at age 40", "Vaporizer maximum"])
     with tab_p:
         c = st.columns(5)
-        currency = c[0].text_input("Currency label", value=prices_saved.get("currency", default.prices.currency),
-                                   max_chars=12, key="ref_currency", disabled=locked)
+        currency = c[0].text_input(
+            "Currency label",
+            value=prices_saved.get("currency", default.prices.currency),
+            max_chars=12,
+            key="ref_currency",
+            disabled=locked,
+        )
         bottle = {}
         for i, a in enumerate(VOLATILES):
             bottle[a] = c[i + 1].number_input(
-                f"{default.agents[a].label} per bottle", min_value=0.0, step=1.0,
-                value=float(ref.prices.bottle.get(a, 0.0)), key=f"ref_bottle_{a}", disabled=locked)
+                f"{default.agents[a].label} per bottle",
+                min_value=0.0,
+                step=1.0,
+                value=float(ref.prices.bottle.get(a, 0.0)),
+                key=f"ref_bottle_{a}",
+                disabled=locked,
+            )
         c = st.columns(4)
         gases = {}
-        for i, (k, label) in enumerate([("oxygen_per_1000_l", "Oxygen per 1000 L"), ("air_per_1000_l", "Medical air per 1000 L"),
-                                        ("nitrous_oxide_per_1000_l", "Nitrous oxide per 1000 L"),
-                                        ("absorbent_per_kg", "CO2 absorbent per kg")]):
-            gases[k] = c[i].number_input(label, min_value=0.0, step=0.5, value=float(getattr(ref.prices, k)),
-                                         key=f"ref_{k}", disabled=locked)
+        for i, (k, label) in enumerate(
+            [
+                ("oxygen_per_1000_l", "Oxygen per 1000 L"),
+                ("air_per_1000_l", "Medical air per 1000 L"),
+                ("nitrous_oxide_per_1000_l", "Nitrous oxide per 1000 L"),
+                ("absorbent_per_kg", "CO2 absorbent per kg"),
+            ]
+        ):
+            gases[k] = c[i].number_input(
+                label, min_value=0.0, step=0.5, value=float(getattr(ref.prices, k)), key=f"ref_{k}", disabled=locked
+            )
         st.caption("Shipped prices are invented examples; put your own contract prices here.")
     with tab_g:
-        st.caption("Values for the source \"User values\" (GWP100, kg CO2e per kg). Choose that source in "
-                   "the sidebar to use them. Leave empty to give none: under this source, a plan that "
-                   "uses an agent or N2O with no value is not worked out, and its message names the value.")
+        st.caption(
+            'Values for the source "User values" (GWP100, kg CO2e per kg). Choose that source in '
+            "the sidebar to use them. Leave empty to give none: under this source, a plan that "
+            "uses an agent or N2O with no value is not worked out, and its message names the value."
+        )
         user_saved = saved.get("gwp", {}).get("user", {})
         c = st.columns(5)
         gwp_user = {}
         for i, a in enumerate(list(VOLATILES) + ["nitrous_oxide"]):
-            v = c[i].number_input(default.agents[a].label, min_value=0.0, step=1.0, value=user_saved.get(a),
-                                  key=f"ref_gwp_{a}", placeholder="none", disabled=locked)
+            v = c[i].number_input(
+                default.agents[a].label,
+                min_value=0.0,
+                step=1.0,
+                value=user_saved.get(a),
+                key=f"ref_gwp_{a}",
+                placeholder="none",
+                disabled=locked,
+            )
             if v is not None:
                 gwp_user[a] = float(v)
     with tab_m:
@@ -131,19 +181,36 @@ with st.form("ref_overrides"):
         c = st.columns(5)
         mac = {}
         for i, a in enumerate(list(VOLATILES) + ["nitrous_oxide"]):
-            mac[a] = c[i].number_input(default.agents[a].label, min_value=0.0, step=0.05,
-                                       value=float(ref.agents[a].mac40), key=f"ref_mac_{a}", format="%.3g", disabled=locked)
+            mac[a] = c[i].number_input(
+                default.agents[a].label,
+                min_value=0.0,
+                step=0.05,
+                value=float(ref.agents[a].mac40),
+                key=f"ref_mac_{a}",
+                format="%.3g",
+                disabled=locked,
+            )
     with tab_v:
-        st.caption("Highest dial setting of your vaporizers (%). Plan dials above it are refused, and "
-                   "targets are reached within it. Follow the workstation's instructions for use.")
+        st.caption(
+            "Highest dial setting of your vaporizers (%). Plan dials above it are refused, and "
+            "targets are reached within it. Follow the workstation's instructions for use."
+        )
         c = st.columns(4)
         vapmax = {}
         for i, a in enumerate(VOLATILES):
-            vapmax[a] = c[i].number_input(default.agents[a].label, min_value=0.5, max_value=100.0, step=0.5,
-                                          value=float(ref.agents[a].vaporizer_max), key=f"ref_vapmax_{a}",
-                                          format="%.3g", disabled=locked)
-    note = st.text_input("Note for this set of values", placeholder="optional, e.g. 2026 contract prices",
-                         disabled=locked)
+            vapmax[a] = c[i].number_input(
+                default.agents[a].label,
+                min_value=0.5,
+                max_value=100.0,
+                step=0.5,
+                value=float(ref.agents[a].vaporizer_max),
+                key=f"ref_vapmax_{a}",
+                format="%.3g",
+                disabled=locked,
+            )
+    note = st.text_input(
+        "Note for this set of values", placeholder="optional, e.g. 2026 contract prices", disabled=locked
+    )
     submitted = st.form_submit_button("Save my values", type="primary", icon=":material/save:", disabled=locked)
 
 
@@ -171,12 +238,12 @@ def _collect() -> dict:
     return out
 
 
-if submitted and locked:       # the button is disabled; refuse here too
+if submitted and locked:  # the button is disabled; refuse here too
     st.warning(ui.md(f"Not saved. {permission.reason}"), icon=":material/lock:")
 elif submitted:
     overrides = _collect()
     try:
-        default.with_overrides(overrides, "dashboard")     # check before saving
+        default.with_overrides(overrides, "dashboard")  # check before saving
     except InputError as err:
         ui.show_input_error(err, "Not saved")
     else:
@@ -190,29 +257,46 @@ if msg:
 
 changes = reference_changes(history)
 with st.expander(f"Change log ({len(changes)} changed values)", icon=":material/manage_history:"):
-    st.caption("Who changed which value, from what to what, and when. Every set of values stays "
-               "saved; an editor can put an earlier one back in use below.")
+    st.caption(
+        "Who changed which value, from what to what, and when. Every set of values stays "
+        "saved; an editor can put an earlier one back in use below."
+    )
     if not changes:
         st.caption("No value changed yet: the built-in defaults apply.")
     else:
-        st.dataframe(pd.DataFrame({"saved (UTC)": [c.saved_at[:19] for c in changes],
-                                   "by": [author_label(c.author) for c in changes],
-                                   "value": [c.path for c in changes],
-                                   "from": [change_text(default, c.path, c.old) for c in changes],
-                                   "to": [change_text(default, c.path, c.new) for c in changes],
-                                   "version": [c.version for c in changes],
-                                   "note": [c.note for c in changes]}),
-                     hide_index=True, width="stretch")
+        st.dataframe(
+            pd.DataFrame(
+                {
+                    "saved (UTC)": [c.saved_at[:19] for c in changes],
+                    "by": [author_label(c.author) for c in changes],
+                    "value": [c.path for c in changes],
+                    "from": [change_text(default, c.path, c.old) for c in changes],
+                    "to": [change_text(default, c.path, c.new) for c in changes],
+                    "version": [c.version for c in changes],
+                    "note": [c.note for c in changes],
+                }
+            ),
+            hide_index=True,
+            width="stretch",
+        )
 
 with st.expander(f"Earlier sets of values ({len(history)})", icon=":material/history:"):
     if not history:
         st.caption("None saved yet: the built-in defaults apply.")
     else:
-        st.dataframe(pd.DataFrame({"version": [v.version for v in history],
-                                   "saved (UTC)": [v.saved_at[:19] for v in history],
-                                   "by": [author_label(v.author) for v in history],
-                                   "note": [v.note for v in history],
-                                   "values": [v.body for v in history]}), hide_index=True, width="stretch")
+        st.dataframe(
+            pd.DataFrame(
+                {
+                    "version": [v.version for v in history],
+                    "saved (UTC)": [v.saved_at[:19] for v in history],
+                    "by": [author_label(v.author) for v in history],
+                    "note": [v.note for v in history],
+                    "values": [v.body for v in history],
+                }
+            ),
+            hide_index=True,
+            width="stretch",
+        )
         if locked:
             st.caption(ui.md(permission.reason))
         h1, h2, h3 = st.columns([1, 1, 2], vertical_alignment="bottom")

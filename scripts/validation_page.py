@@ -40,6 +40,7 @@ def _checks():
         if str(path) not in sys.path:
             sys.path.insert(0, str(path))
     import validation_cases
+
     return validation_cases
 
 
@@ -79,18 +80,23 @@ def render() -> str:
         passed += ok
         unit = f" {check.unit}" if check.unit and check.unit != "1" else ""
         mark = "" if ok else " **(outside the tolerance)**"
-        quantity = (f"{check.quantity}<br>`{check.id}` · "
-                    f"[methods](methods.md#{check.methods})")
-        row = " | ".join(_cell(x) for x in (
-            quantity, _number(value) + unit + mark, _number(expected) + unit, _tolerance(check), check.source))
+        quantity = f"{check.quantity}<br>`{check.id}` · [methods](methods.md#{check.methods})"
+        row = " | ".join(
+            _cell(x)
+            for x in (quantity, _number(value) + unit + mark, _number(expected) + unit, _tolerance(check), check.source)
+        )
         sections.setdefault(check.section, []).append(f"| {row} |")
-    summary = (f"{passed} of {len(vc.CHECKS)} checks agree within their tolerance "
-               f"(when this page was written).")
+    summary = f"{passed} of {len(vc.CHECKS)} checks agree within their tolerance (when this page was written)."
     out = [HEADER.format(test=vc.TEST, summary=summary)]
     for name, rows in sections.items():
-        out += [f"## {name}", "",
-                "| quantity (test id, methods section) | model | published | tolerance | source |",
-                "|---|---|---|---|---|", *rows, ""]
+        out += [
+            f"## {name}",
+            "",
+            "| quantity (test id, methods section) | model | published | tolerance | source |",
+            "|---|---|---|---|---|",
+            *rows,
+            "",
+        ]
     return "\n".join(out).rstrip() + "\n"
 
 

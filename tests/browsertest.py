@@ -21,6 +21,7 @@ def browser():
     if not Path(CHROMIUM).exists():
         pytest.fail(f"{CHROMIUM} is missing: install Debian's chromium (scripts/test.sh does it as root)")
     from playwright.sync_api import sync_playwright
+
     with sync_playwright() as p:
         b = p.chromium.launch(executable_path=CHROMIUM, args=LAUNCH_ARGS)
         yield b

@@ -11,9 +11,17 @@ import pytest
 from hypothesis import HealthCheck, settings
 
 # In CI (CI=true) the examples are derandomized, so a run is repeatable; local runs explore.
-FUZZ = settings(max_examples=1000, deadline=None, derandomize=bool(os.environ.get("CI")),
-                suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large,
-                                       HealthCheck.filter_too_much, HealthCheck.function_scoped_fixture])
+FUZZ = settings(
+    max_examples=1000,
+    deadline=None,
+    derandomize=bool(os.environ.get("CI")),
+    suppress_health_check=[
+        HealthCheck.too_slow,
+        HealthCheck.data_too_large,
+        HealthCheck.filter_too_much,
+        HealthCheck.function_scoped_fixture,
+    ],
+)
 #: For readers that take a tenth of a second an example (duckdb, SQLite).
 SLOW = settings(FUZZ, max_examples=80)
 
@@ -30,7 +38,7 @@ def scratch(tmp_path_factory):
 
 def store_refused_untouched_or_works(path: Path) -> None:
     """Open a store file: refused with one line and left as it was, or it works."""
-    from model.errors import InputError
+    from model.base.errors import InputError
     from model.store import Store, StoreError
 
     before = hashlib.sha256(path.read_bytes()).hexdigest()

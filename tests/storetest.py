@@ -29,11 +29,15 @@ def postgres_admin_url() -> str:
     if url:
         return url
     in_ci = os.environ.get("CI", "").strip().lower() == "true"
-    if not in_ci:   # a developer's machine without a server: say how to start one
-        pytest.skip(f"no PostgreSQL server: set {PG_ENV} to the URL of a user who may create databases "
-                    "(eval \"$(scripts/test_postgres.sh start DIR)\" starts a throwaway one)")
-    pytest.fail(f"{PG_ENV} is not set: in CI the PostgreSQL store tests must run "
-                "(.ci/run starts a server with scripts/test_postgres.sh)")
+    if not in_ci:  # a developer's machine without a server: say how to start one
+        pytest.skip(
+            f"no PostgreSQL server: set {PG_ENV} to the URL of a user who may create databases "
+            '(eval "$(scripts/test_postgres.sh start DIR)" starts a throwaway one)'
+        )
+    pytest.fail(
+        f"{PG_ENV} is not set: in CI the PostgreSQL store tests must run "
+        "(.ci/run starts a server with scripts/test_postgres.sh)"
+    )
 
 
 @contextlib.contextmanager

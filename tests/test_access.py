@@ -1,19 +1,30 @@
-"""Sign-in, editors and authorship: the pure rules (model.access, model.changelog) and the
-pages with Streamlit's AppTest (a signed-in user is seeded as ``st.user``)."""
+"""Sign-in, editors and authorship: the pure rules (model.store.access, model.store.changelog) and the
+pages with Streamlit's AppTest (a signed-in user is seeded as ``st.user``).
+"""
 
 from __future__ import annotations
 
 import pytest
+from pagetest import ROOT, TIMEOUT, isolated_store  # noqa: F401  (isolated_store: autouse fixture)
 from streamlit.testing.v1 import AppTest
 from streamlit.testing.v1.errors import AppTestError
 
-from model.access import (NO_ONE, AccessConfig, User, access_config, command_line_author, is_editor,
-                          may_edit_reference, may_save, user_from_header, user_from_sign_in)
-from model.changelog import default_value, reference_changes, shown
-from model.errors import InputError
+from model.base.errors import InputError
 from model.reference import DEFAULT_REFERENCE
 from model.store import Store
-from pagetest import ROOT, TIMEOUT, isolated_store  # noqa: F401  (isolated_store: autouse fixture)
+from model.store.access import (
+    NO_ONE,
+    AccessConfig,
+    User,
+    access_config,
+    command_line_author,
+    is_editor,
+    may_edit_reference,
+    may_save,
+    user_from_header,
+    user_from_sign_in,
+)
+from model.store.changelog import default_value, reference_changes, shown
 
 EDITOR = "lead@fernhollow.example"
 ANAESTHETIST = "anaesthetist@fernhollow.example"
@@ -23,25 +34,30 @@ SIGN_IN = access_config({"sign_in": "streamlit", "editors": [EDITOR.upper()]})
 
 # ---- the configuration -----------------------------------------------------------------
 
+
 def test_no_configuration_means_sign_in_off():
     assert access_config(None) == AccessConfig() and not AccessConfig().enabled
     assert access_config({}).sign_in == "off"
 
 
-@pytest.mark.parametrize("data, names", [
-    ({"sign_in": "ldap"}, "sign_in"),
-    ({"sign_in": "header"}, "identity_header"),                       # header mode needs its header
-    ({"sign_in": "header", "identity_header": "X User"}, "identity_header"),
-    ({"editors": "lead@fernhollow.example"}, "editors"),              # a list, not one text
-    ({"editors": [""]}, "editors"),
-    ({"sign_in": "off", "editor": []}, "editor"),                     # a misspelt key is named
-])
+@pytest.mark.parametrize(
+    "data, names",
+    [
+        ({"sign_in": "ldap"}, "sign_in"),
+        ({"sign_in": "header"}, "identity_header"),  # header mode needs its header
+        ({"sign_in": "header", "identity_header": "X User"}, "identity_header"),
+        ({"editors": "lead@fernhollow.example"}, "editors"),  # a list, not one text
+        ({"editors": [""]}, "editors"),
+        ({"sign_in": "off", "editor": []}, "editor"),  # a misspelt key is named
+    ],
+)
 def test_a_wrong_configuration_is_one_message_naming_the_key(data, names):
     with pytest.raises(InputError, match=names):
         access_config(data)
 
 
 # ---- identity by header ----------------------------------------------------------------
+
 
 def test_the_configured_header_signs_the_user_in():
     user = user_from_header(HEADER, [EDITOR])
@@ -62,8 +78,9 @@ def test_a_missing_repeated_or_malformed_header_signs_no_one_in(values):
 
 # ---- identity by Streamlit's sign-in ---------------------------------------------------
 
+
 def test_streamlit_sign_in_needs_is_logged_in_and_an_email_or_subject():
-    assert user_from_sign_in(SIGN_IN, {"email": EDITOR}) == NO_ONE              # AppTest's default user
+    assert user_from_sign_in(SIGN_IN, {"email": EDITOR}) == NO_ONE  # AppTest's default user
     assert user_from_sign_in(SIGN_IN, {"is_logged_in": False, "email": EDITOR}) == NO_ONE
     assert user_from_sign_in(HEADER, {"is_logged_in": True, "email": EDITOR}) == NO_ONE
     user = user_from_sign_in(SIGN_IN, {"is_logged_in": True, "email": EDITOR, "name": "A. Lead"})
@@ -73,13 +90,14 @@ def test_streamlit_sign_in_needs_is_logged_in_and_an_email_or_subject():
 
 # ---- permissions -----------------------------------------------------------------------
 
+
 def test_with_sign_in_off_everyone_may_do_everything_as_today():
     assert may_edit_reference(AccessConfig(), NO_ONE).allowed and may_save(AccessConfig(), NO_ONE).allowed
 
 
 def test_only_editors_change_reference_values_and_everyone_signed_in_saves():
     editor, other = User(EDITOR.title()), User(ANAESTHETIST)
-    assert is_editor(SIGN_IN, editor)                       # e-mail addresses compare without case
+    assert is_editor(SIGN_IN, editor)  # e-mail addresses compare without case
     assert may_edit_reference(SIGN_IN, editor).allowed
     refused = may_edit_reference(SIGN_IN, other)
     assert not refused.allowed and ANAESTHETIST in refused.reason and "editors" in refused.reason
@@ -93,24 +111,32 @@ def test_the_command_line_is_the_author_of_its_saves():
 
 # ---- the change log --------------------------------------------------------------------
 
+
 def test_change_log_lists_each_value_from_what_to_what(isolated_store):
     s = Store(isolated_store)
     s.save_overrides({"prices": {"oxygen_per_1000_l": 3.0}}, author="a")
     s.save_overrides({"prices": {"oxygen_per_1000_l": 4.0}, "agents": {"sevoflurane": {"mac40": 2.1}}}, author="b")
     s.save_overrides({}, note="back to built-in defaults", author="a")
     rows = [(c.version, c.author, c.path, c.old, c.new) for c in reference_changes(s.history("overrides", "dashboard"))]
-    assert rows == [(3, "a", "agents.sevoflurane.mac40", 2.1, None), (3, "a", "prices.oxygen_per_1000_l", 4.0, None),
-                    (2, "b", "agents.sevoflurane.mac40", None, 2.1), (2, "b", "prices.oxygen_per_1000_l", 3.0, 4.0),
-                    (1, "a", "prices.oxygen_per_1000_l", None, 3.0)]
+    assert rows == [
+        (3, "a", "agents.sevoflurane.mac40", 2.1, None),
+        (3, "a", "prices.oxygen_per_1000_l", 4.0, None),
+        (2, "b", "agents.sevoflurane.mac40", None, 2.1),
+        (2, "b", "prices.oxygen_per_1000_l", 3.0, 4.0),
+        (1, "a", "prices.oxygen_per_1000_l", None, 3.0),
+    ]
     assert default_value(DEFAULT_REFERENCE, "agents.sevoflurane.mac40") == DEFAULT_REFERENCE.agents["sevoflurane"].mac40
     assert default_value(DEFAULT_REFERENCE, "gwp.user.sevoflurane") is None
     # The currency label is text, not a number.
-    assert shown(DEFAULT_REFERENCE, "prices.currency", None) == f"{DEFAULT_REFERENCE.prices.currency} (built-in default)"
+    assert (
+        shown(DEFAULT_REFERENCE, "prices.currency", None) == f"{DEFAULT_REFERENCE.prices.currency} (built-in default)"
+    )
     assert shown(DEFAULT_REFERENCE, "prices.currency", "EUR") == "EUR"
     assert shown(DEFAULT_REFERENCE, "gwp.user.sevoflurane", None) == "none (built-in default)"
 
 
 # ---- the pages ---------------------------------------------------------------------------
+
 
 def _plain(markdown: str) -> str:
     """Text shown by markdown with the escapes of ui.md taken out."""
@@ -136,7 +162,7 @@ def test_a_user_who_is_not_an_editor_sees_reference_values_read_only(isolated_st
     assert box.disabled
     assert any("not on the list" in i.value for i in at.info)
     assert next(b for b in at.button if b.label == "Save my values").disabled
-    with pytest.raises(AppTestError, match="disabled"):      # as in a browser: the box takes no value
+    with pytest.raises(AppTestError, match="disabled"):  # as in a browser: the box takes no value
         box.set_value(999.0)
     assert Store(isolated_store).count_versions("overrides") == 0
     assert any(ANAESTHETIST in _plain(c.value) and "may save plans" in c.value for c in at.sidebar.caption)
@@ -157,7 +183,7 @@ def test_an_editor_changes_a_value_and_the_change_log_shows_author_old_and_new(i
     row = log[log["value"] == "prices.bottle.sevoflurane"].iloc[0]
     assert row["by"] == EDITOR and row["to"] == "240"
     assert row["from"] == f"{old:g} (built-in default)"
-    assert any(EDITOR in _plain(c.value) for c in at.caption)          # "In use: version 1, ... by ..."
+    assert any(EDITOR in _plain(c.value) for c in at.caption)  # "In use: version 1, ... by ..."
 
 
 def test_without_sign_in_configured_the_page_says_not_signed_in_and_works_as_before(isolated_store):

@@ -10,13 +10,13 @@ import pandas as pd
 import pytest
 
 from model import compute_case
-from model.audit.result import ADDITIVE, BAND_COLUMNS, summarise
 from model.audit.engine import audit_records
+from model.audit.result import ADDITIVE, BAND_COLUMNS, summarise
+from model.cli.synth import generate, write
 from model.emissions import gas_mass_g
 from model.freshgas import FLOW_BAND_NAMES, flow_band
 from model.plan import CasePlan, Phase, Settings
 from model.reference import DEFAULT_REFERENCE
-from model.cli.synth import generate, write
 from model.vapour import liquid_used_series_ml, rule_of_thumb_ml_per_hour
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -37,19 +37,33 @@ def _constant(case, minutes, o2, air, n2o, dial, agent, theatre="Alder"):
     return [(case, float(t), theatre, agent, o2, air, n2o, dial) for t in range(minutes + 1)]
 
 
-@pytest.mark.parametrize("agent, o2, air, n2o, dial", [
-    ("sevoflurane", 0.5, 0.5, 0.0, 2.5),
-    ("desflurane", 1.0, 0.0, 2.0, 6.0),
-    ("isoflurane", 2.0, 1.0, 0.0, 1.2),
-])
+@pytest.mark.parametrize(
+    "agent, o2, air, n2o, dial",
+    [
+        ("sevoflurane", 0.5, 0.5, 0.0, 2.5),
+        ("desflurane", 1.0, 0.0, 2.0, 6.0),
+        ("isoflurane", 2.0, 1.0, 0.0, 1.2),
+    ],
+)
 def test_constant_case_equals_the_foundation_case_result(tmp_path, agent, o2, air, n2o, dial):
-    plan = CasePlan("constant", agent, (Phase("maintenance", 60.0, o2, air, n2o, dial),),
-                    settings=Settings(temperature_c=20.0))
+    plan = CasePlan(
+        "constant", agent, (Phase("maintenance", 60.0, o2, air, n2o, dial),), settings=Settings(temperature_c=20.0)
+    )
     expected = compute_case(plan).totals
     got = audit_records([_write(tmp_path, _constant("K", 60, o2, air, n2o, dial, agent))]).cases.iloc[0]
     # What was delivered (Dion's formula, gas volumes) and what it costs are the same numbers.
-    for key in ("liquid_agent_ml", "agent_mass_g", "oxygen_l", "air_l", "nitrous_oxide_l", "bottles",
-                "cost_agent", "cost_oxygen", "cost_air", "cost_nitrous_oxide"):
+    for key in (
+        "liquid_agent_ml",
+        "agent_mass_g",
+        "oxygen_l",
+        "air_l",
+        "nitrous_oxide_l",
+        "bottles",
+        "cost_agent",
+        "cost_oxygen",
+        "cost_air",
+        "cost_nitrous_oxide",
+    ):
         assert got[key] == pytest.approx(expected[key], rel=1e-12, abs=1e-12), key
     assert got["minutes"] == expected["duration_min"]
     # Records carry no patient, so the audit counts every delivered gram as emitted: the
@@ -58,7 +72,8 @@ def test_constant_case_equals_the_foundation_case_result(tmp_path, agent, o2, ai
     metab = DEFAULT_REFERENCE.agents[agent].metabolised_fraction
     assert (1 - metab) * got["agent_emitted_g"] - 1e-9 <= expected["agent_emitted_g"] <= got["agent_emitted_g"] + 1e-9
     assert got["co2e_agent_kg"] == pytest.approx(
-        expected["co2e_agent_kg"] * got["agent_emitted_g"] / expected["agent_emitted_g"], rel=1e-12)
+        expected["co2e_agent_kg"] * got["agent_emitted_g"] / expected["agent_emitted_g"], rel=1e-12
+    )
     n2o_expected = expected["nitrous_oxide_emitted_g"]
     assert n2o_expected <= got["nitrous_oxide_emitted_g"] + 1e-9
     assert got["nitrous_oxide_emitted_g"] == pytest.approx(n2o_expected, rel=1e-3, abs=1e-9)
@@ -81,8 +96,9 @@ def test_one_hour_matches_dions_formula_and_the_bedside_rule(tmp_path):
     got = audit_records([_write(tmp_path, rows)], temperature_c=21.0).cases.iloc[0]
     agent = DEFAULT_REFERENCE.agents["sevoflurane"]
     # Source: Dion P. Can J Anaesth 1992;39:633-4: mL = FGF x dial x t x M / (2412 x density).
-    assert got["liquid_agent_ml"] == pytest.approx(1.0 * 1.0 * 60 * agent.molar_mass / (2412 * agent.liquid_density),
-                                                   rel=2e-3)
+    assert got["liquid_agent_ml"] == pytest.approx(
+        1.0 * 1.0 * 60 * agent.molar_mass / (2412 * agent.liquid_density), rel=2e-3
+    )
     # Common practice, no source: about 3 mL per hour per % per L/min.
     assert got["liquid_agent_ml"] == pytest.approx(float(rule_of_thumb_ml_per_hour(1.0, 1.0)), rel=0.12)
 
@@ -107,9 +123,12 @@ def test_flow_band_minutes_follow_the_foundation_bands(tmp_path):
 
 
 def test_long_high_flow_is_flagged_and_a_gap_breaks_the_run(tmp_path):
-    rows = (_constant("long", 20, 3.0, 0.0, 0.0, 1.0, "sevoflurane")
-            + _constant("short", 10, 3.0, 0.0, 0.0, 1.0, "sevoflurane"))
-    broken = [("gap", float(t), "Alder", "sevoflurane", 3.0, 0.0, 0.0, 1.0) for t in list(range(11)) + list(range(20, 31))]
+    rows = _constant("long", 20, 3.0, 0.0, 0.0, 1.0, "sevoflurane") + _constant(
+        "short", 10, 3.0, 0.0, 0.0, 1.0, "sevoflurane"
+    )
+    broken = [
+        ("gap", float(t), "Alder", "sevoflurane", 3.0, 0.0, 0.0, 1.0) for t in list(range(11)) + list(range(20, 31))
+    ]
     c = audit_records([_write(tmp_path, rows + broken)], high_flow_limit_min=15).cases.set_index("case_id")
     assert c.loc["long", "longest_high_flow_min"] == 20 and c.loc["long", "high_flow_flag"]
     assert c.loc["short", "longest_high_flow_min"] == 10 and not c.loc["short", "high_flow_flag"]
@@ -122,8 +141,9 @@ def test_end_tidal_is_used_where_no_dial_is_recorded(tmp_path):
     p.write_text(body, encoding="utf-8")
     c = audit_records([p]).cases.iloc[0]
     assert c["end_tidal_basis_min"] == 10
-    expected = liquid_used_series_ml(np.arange(11.0), np.ones(11), np.full(11, 1.5),
-                                     DEFAULT_REFERENCE.agents["sevoflurane"])
+    expected = liquid_used_series_ml(
+        np.arange(11.0), np.ones(11), np.full(11, 1.5), DEFAULT_REFERENCE.agents["sevoflurane"]
+    )
     assert c["liquid_agent_ml"] == pytest.approx(expected, rel=1e-12)
 
 
@@ -148,13 +168,14 @@ def test_csv_and_parquet_of_the_same_records_give_the_same_result(tmp_path):
 
 
 def test_memory_and_sql_engines_agree_on_messy_records(tmp_path):
-    df = generate(3000, seed=5).astype({"o2 [L/min]": object, "dial [%]": object, "agent": str,
-                                        "case_id": str, "theatre": str})
+    df = generate(3000, seed=5).astype(
+        {"o2 [L/min]": object, "dial [%]": object, "agent": str, "case_id": str, "theatre": str}
+    )
     df.loc[10, "o2 [L/min]"] = "x"
     df.loc[20, "agent"] = "argon"
     df.loc[30, "dial [%]"] = 40
     df = pd.concat([df, df.iloc[[50, 60]], df.iloc[[40]]], ignore_index=True)  # duplicates, backwards
-    df = df.drop(index=range(200, 215))                                        # a gap
+    df = df.drop(index=range(200, 215))  # a gap
     p = tmp_path / "messy.csv"
     df.to_csv(p, index=False)
     a = audit_records([p], engine="memory")
@@ -171,8 +192,15 @@ def test_cli_audit_reports_rows_set_aside_without_failing(capsys):
 
     from model.cli import main
 
-    code = main(["audit", str(DEMO / "fernhollow_birch_cases.csv"), "--purchases",
-                 str(DEMO / "fernhollow_purchases_2025.csv"), "--json"])
+    code = main(
+        [
+            "audit",
+            str(DEMO / "fernhollow_birch_cases.csv"),
+            "--purchases",
+            str(DEMO / "fernhollow_purchases_2025.csv"),
+            "--json",
+        ]
+    )
     assert code == 0
     data = json.loads(capsys.readouterr().out)
     assert data["report"]["rows_set_aside"] == len(data["messages"]) > 0

@@ -36,13 +36,13 @@ def test_messy_parquet_files_take_the_sql_checks_and_still_agree(tmp_path):
     parts = []
     for k in range(2):
         df = generate(2500, seed=20 + k, first_case=k * 1000).astype({"agent": str, "case_id": str, "theatre": str})
-        df.loc[5, "o2 [L/min]"] = -1.0                     # negative flow
-        df.loc[9, "agent"] = "argon"                       # unknown agent
-        df.loc[13, "dial [%]"] = np.nan                    # end-tidal only
-        df.loc[17, "case_id"] = "  "                       # missing case id
-        df.loc[21, "o2 [L/min]"] = np.inf                  # not a number
+        df.loc[5, "o2 [L/min]"] = -1.0  # negative flow
+        df.loc[9, "agent"] = "argon"  # unknown agent
+        df.loc[13, "dial [%]"] = np.nan  # end-tidal only
+        df.loc[17, "case_id"] = "  "  # missing case id
+        df.loc[21, "o2 [L/min]"] = np.inf  # not a number
         df = pd.concat([df, df.iloc[[40]]], ignore_index=True)  # a backward time
-        df = df.drop(index=range(100, 110))                      # a gap
+        df = df.drop(index=range(100, 110))  # a gap
         parts.append(write(df.reset_index(drop=True), tmp_path / f"m{k}.parquet"))
     recs = read_records(parts)
     assert read_parquet_file(recs, 0)[0] is None  # some row may have a problem: the SQL checks run
@@ -70,12 +70,17 @@ def test_a_case_across_two_files_is_audited_with_the_files_together(tmp_path):
 def test_fast_parquet_reading_of_elapsed_minutes_and_units_equals_csv(tmp_path):
     rng = np.random.default_rng(4)
     n = 400
-    df = pd.DataFrame({"case": np.repeat(["A", " B", "C "], [150, 150, 100]),
-                       "elapsed (s)": np.concatenate([np.arange(150) * 60.0, np.arange(150) * 30.0,
-                                                      np.arange(100) * 90.0]),
-                       "room": "Hazel", "agent": np.repeat(["Sevo", "des", "ISO"], [150, 150, 100]),
-                       "o2 [mL/min]": rng.integers(200, 3000, n), "air": rng.uniform(0, 1, n).round(2),
-                       "dial": np.repeat([2.0, 6.0, 1.0], [150, 150, 100])})
+    df = pd.DataFrame(
+        {
+            "case": np.repeat(["A", " B", "C "], [150, 150, 100]),
+            "elapsed (s)": np.concatenate([np.arange(150) * 60.0, np.arange(150) * 30.0, np.arange(100) * 90.0]),
+            "room": "Hazel",
+            "agent": np.repeat(["Sevo", "des", "ISO"], [150, 150, 100]),
+            "o2 [mL/min]": rng.integers(200, 3000, n),
+            "air": rng.uniform(0, 1, n).round(2),
+            "dial": np.repeat([2.0, 6.0, 1.0], [150, 150, 100]),
+        }
+    )
     pq_path = tmp_path / "e.parquet"
     df.to_parquet(pq_path)
     csv_path = tmp_path / "e.csv"
@@ -131,8 +136,15 @@ def test_cli_progress_line_goes_to_a_terminal_only(tmp_path, capsys, monkeypatch
 
 def test_sub_second_times_give_the_same_months_and_minutes_either_way(tmp_path):
     t0 = pd.Timestamp("2025-01-31 23:58:59.999")
-    df = pd.DataFrame({"case_id": "M", "time": [t0 + pd.Timedelta(seconds=37.5 * k) for k in range(8)],
-                       "agent": "sevoflurane", "o2": 1.0, "dial": 2.0})
+    df = pd.DataFrame(
+        {
+            "case_id": "M",
+            "time": [t0 + pd.Timedelta(seconds=37.5 * k) for k in range(8)],
+            "agent": "sevoflurane",
+            "o2": 1.0,
+            "dial": 2.0,
+        }
+    )
     p = tmp_path / "s.parquet"
     df.to_parquet(p)
     a, b = audit_records([p], engine="files"), audit_records([p], engine="sql")

@@ -45,10 +45,16 @@ def _identical(a, b):
 
 
 @settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
-@given(seed=st.integers(0, 10_000), edge_flows=st.booleans(), et_basis=st.floats(0, 0.5),
-       drop=st.integers(0, 30), high_flow=st.sampled_from([2.0, 4.0, 6.0]))
-def test_compiled_and_numpy_paths_agree_exactly(tmp_path_factory, monkeypatch, seed, edge_flows, et_basis, drop,
-                                                high_flow):
+@given(
+    seed=st.integers(0, 10_000),
+    edge_flows=st.booleans(),
+    et_basis=st.floats(0, 0.5),
+    drop=st.integers(0, 30),
+    high_flow=st.sampled_from([2.0, 4.0, 6.0]),
+)
+def test_compiled_and_numpy_paths_agree_exactly(
+    tmp_path_factory, monkeypatch, seed, edge_flows, et_basis, drop, high_flow
+):
     rng = np.random.default_rng(seed)
     df = generate(1500, seed=seed)
     if edge_flows:
@@ -65,20 +71,28 @@ def test_compiled_and_numpy_paths_agree_exactly(tmp_path_factory, monkeypatch, s
         start = int(rng.integers(0, len(df) - drop))
         df = df.drop(index=range(start, start + drop)).reset_index(drop=True)
     path = write(df, tmp_path_factory.mktemp("k") / "r.parquet")
-    _identical(_audit(path, True, monkeypatch, high_flow_l_min=high_flow),
-               _audit(path, False, monkeypatch, high_flow_l_min=high_flow))
+    _identical(
+        _audit(path, True, monkeypatch, high_flow_l_min=high_flow),
+        _audit(path, False, monkeypatch, high_flow_l_min=high_flow),
+    )
 
 
 def test_samples_out_of_order_are_left_to_the_numpy_path():
     # A case whose times go back, a case split in two runs, agents not grouped: no compiled result.
-    common = dict(n_agents=2, none_code=-1, gap_limit_min=10.0, high_flow_l_min=4.0, minute_ventilation_l_min=6.0,
-                  band_edges_l_min=np.array([0.25, 0.5, 1.0, 2.0, 4.0]))
+    common = dict(
+        n_agents=2,
+        none_code=-1,
+        gap_limit_min=10.0,
+        high_flow_l_min=4.0,
+        minute_ventilation_l_min=6.0,
+        band_edges_l_min=np.array([0.25, 0.5, 1.0, 2.0, 4.0]),
+    )
     ones = np.ones(3)
     args = lambda code, agent, t: (np.array(code), np.array(agent), np.array(t, float), ones, ones, ones, ones, ones)
-    assert case_sums(*args([0, 0, 0], [0, 0, 0], [0, 2, 1]), **common) is None   # time goes back
-    assert case_sums(*args([0, 0, 0], [0, 0, 0], [0, 1, 1]), **common) is None   # duplicate time
-    assert case_sums(*args([0, 1, 0], [0, 0, 0], [0, 1, 2]), **common) is None   # case 0 in two runs
-    assert case_sums(*args([0, 0, 0], [1, 0, 1], [0, 1, 2]), **common) is None   # agents interleaved
+    assert case_sums(*args([0, 0, 0], [0, 0, 0], [0, 2, 1]), **common) is None  # time goes back
+    assert case_sums(*args([0, 0, 0], [0, 0, 0], [0, 1, 1]), **common) is None  # duplicate time
+    assert case_sums(*args([0, 1, 0], [0, 0, 0], [0, 1, 2]), **common) is None  # case 0 in two runs
+    assert case_sums(*args([0, 0, 0], [1, 0, 1], [0, 1, 2]), **common) is None  # agents interleaved
     assert case_sums(*args([0, 0, 1], [0, 1, 0], [0, 1, 0]), **common) is not None
 
 
@@ -90,9 +104,21 @@ def test_a_hand_worked_case():
     o2 = np.array([1.0, 5.0, 5.0, 5.0])
     z = np.zeros(4)
     first, samples, gaps, sums, band_min, gap = case_sums(
-        np.zeros(4, np.int64), np.zeros(4, np.int64), t, o2, z, z, np.full(4, 2.0), z, n_agents=1, none_code=-1,
-        gap_limit_min=10.0, high_flow_l_min=4.0, minute_ventilation_l_min=6.0,
-        band_edges_l_min=np.array([0.25, 0.5, 1.0, 2.0, 4.0]))
+        np.zeros(4, np.int64),
+        np.zeros(4, np.int64),
+        t,
+        o2,
+        z,
+        z,
+        np.full(4, 2.0),
+        z,
+        n_agents=1,
+        none_code=-1,
+        gap_limit_min=10.0,
+        high_flow_l_min=4.0,
+        minute_ventilation_l_min=6.0,
+        band_edges_l_min=np.array([0.25, 0.5, 1.0, 2.0, 4.0]),
+    )
     assert list(first) == [0] and list(samples) == [4] and list(gaps) == [1]
     assert list(gap) == [False, False, True, False]
     minutes, gap_min, et_min, o2_l, air_l, n2o_l, vapour, rebreathed, longest = sums[0]
@@ -165,8 +191,9 @@ def test_a_clean_parquet_audit_never_opens_duckdb(tmp_path, monkeypatch):
     assert opened == [1] and result.report.set_aside["unknown_agent"] == 1
 
 
-@pytest.mark.parametrize("size", ["3GB", "3 gb", "1.5GB", "500MB", "3GiB", "100KB", "1TB", "1000B", "3G", "2M",
-                                  "80%", "3 bytes"])
+@pytest.mark.parametrize(
+    "size", ["3GB", "3 gb", "1.5GB", "500MB", "3GiB", "100KB", "1TB", "1000B", "3G", "2M", "80%", "3 bytes"]
+)
 def test_memory_limits_kept_for_later_are_ones_duckdb_takes(size):
     # Reference: duckdb itself (its SET memory_limit parser); a size our check lets wait
     # must not fail when the connection opens later.
@@ -179,7 +206,7 @@ def test_memory_limits_kept_for_later_are_ones_duckdb_takes(size):
 
 
 def test_a_memory_limit_duckdb_refuses_is_told_at_once(tmp_path):
-    from model.errors import InputError
+    from model.base.errors import InputError
 
     path = write(generate(300, seed=1), tmp_path / "r.parquet")
     for bad in ("lots", "3", "3 parsecs"):

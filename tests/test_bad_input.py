@@ -13,7 +13,7 @@ from pathlib import Path
 import pytest
 
 from model.audit.engine import audit_records
-from model.errors import InputError
+from model.base.errors import InputError
 
 ROOT = Path(__file__).resolve().parents[1]
 BIRCH = ROOT / "demo_data" / "records" / "fernhollow_birch_cases.csv"
@@ -21,7 +21,7 @@ HEADER = "case_id,elapsed,theatre,agent,o2,air,n2o,dial\n"
 
 
 def _good_lines(n: int) -> list[str]:
-    """n valid sample lines: cases of 10 minutes, sevoflurane at 2 %, 1 L/min."""
+    """N valid sample lines: cases of 10 minutes, sevoflurane at 2 %, 1 L/min."""
     return [f"C{i // 10},{i % 10},Alder,sevoflurane,0.5,0.5,0,2" for i in range(n)]
 
 
@@ -59,13 +59,16 @@ def test_unclosed_quote_sets_aside_its_line_alone_and_keeps_line_numbers(tmp_pat
 # --- 2. a lone CR, or extra fields, sets aside that line and nothing else --------------------
 
 
-@pytest.mark.parametrize("bad_line, kind", [
-    (b"C9,3,Al\rder,sevoflurane,0.5,0.5,0,2", "unreadable"),        # a CR inside a cell
-    (b"C9,3,Alder,sevoflurane,0.5,0.5,0,2\rC9,4,Alder,sevoflurane,0.5,0.5,0,2", "unreadable"),  # CR ending
-    (b"C9,3,Alder,sevoflurane,0.5,0.5,0,2,,,", "field_count"),      # extra empty trailing fields
-    (b"C9,3,Alder,sevoflurane,0.5,0.5,0,2,", "field_count"),        # one trailing comma
-    (b'C9,3,"Alder,B",sevoflurane,0.5,0.5,0', "field_count"),       # a quoted comma is no field break
-])
+@pytest.mark.parametrize(
+    "bad_line, kind",
+    [
+        (b"C9,3,Al\rder,sevoflurane,0.5,0.5,0,2", "unreadable"),  # a CR inside a cell
+        (b"C9,3,Alder,sevoflurane,0.5,0.5,0,2\rC9,4,Alder,sevoflurane,0.5,0.5,0,2", "unreadable"),  # CR ending
+        (b"C9,3,Alder,sevoflurane,0.5,0.5,0,2,,,", "field_count"),  # extra empty trailing fields
+        (b"C9,3,Alder,sevoflurane,0.5,0.5,0,2,", "field_count"),  # one trailing comma
+        (b'C9,3,"Alder,B",sevoflurane,0.5,0.5,0', "field_count"),  # a quoted comma is no field break
+    ],
+)
 def test_lone_cr_and_extra_fields_set_aside_one_line(tmp_path, bad_line, kind):
     good = [s.encode() for s in _good_lines(40)]
     bad = _write(tmp_path / "bad.csv", HEADER.encode() + b"\n".join(good[:20] + [bad_line] + good[20:]) + b"\n")
@@ -94,15 +97,26 @@ def _parquet_table(n: int = 2000):
     import pyarrow as pa
 
     t = np.arange(n) % 100
-    return {"case_id": pa.array([f"C{i // 100}" for i in range(n)]),
-            "elapsed": pa.array(t.astype(float)), "agent": pa.array(["sevoflurane"] * n),
-            "o2": pa.array(np.full(n, 1.0)), "dial": pa.array(np.full(n, 2.0))}
+    return {
+        "case_id": pa.array([f"C{i // 100}" for i in range(n)]),
+        "elapsed": pa.array(t.astype(float)),
+        "agent": pa.array(["sevoflurane"] * n),
+        "o2": pa.array(np.full(n, 1.0)),
+        "dial": pa.array(np.full(n, 2.0)),
+    }
 
 
-@pytest.mark.parametrize("column, arrow_type", [
-    ("o2", "list<double>"), ("elapsed", "list<double>"), ("dial", "large_list<double>"),
-    ("o2", "struct"), ("case_id", "list<string>"), ("agent", "map"),
-])
+@pytest.mark.parametrize(
+    "column, arrow_type",
+    [
+        ("o2", "list<double>"),
+        ("elapsed", "list<double>"),
+        ("dial", "large_list<double>"),
+        ("o2", "struct"),
+        ("case_id", "list<string>"),
+        ("agent", "map"),
+    ],
+)
 def test_parquet_column_of_a_nested_type_is_refused_naming_it(tmp_path, column, arrow_type):
     import pyarrow as pa
     import pyarrow.parquet as pq
@@ -146,7 +160,7 @@ def test_damaged_parquet_pages_give_one_message_naming_the_file(tmp_path, compre
     for k in range(25):
         pos = rng.randrange(4, data_end - 8)
         damaged = bytearray(good)
-        damaged[pos:pos + 8] = bytes(rng.randrange(256) for _ in range(8))
+        damaged[pos : pos + 8] = bytes(rng.randrange(256) for _ in range(8))
         path = tmp_path / f"damaged_{k}.parquet"
         path.write_bytes(bytes(damaged))
         # Read alongside a sound file: the message must name the damaged one.
@@ -161,9 +175,14 @@ def test_damaged_parquet_pages_give_one_message_naming_the_file(tmp_path, compre
 # --- 2 (purchases) and 9. purchase lines are read one by one, numbered as in the file ---------
 
 PURCHASE_HEADER = "month,item,quantity,unit,size\n"
-PURCHASE_GOOD = ["2025-01,sevoflurane,4,bottle,", "2025-01,oxygen,20,m**3,",
-                 "2025-02,desflurane,2,bottle,240 mL", "2025-02,nitrous_oxide,1,cylinder,9000 L",
-                 "2025-03,sevoflurane,100,mL,", "2025-03,isoflurane,1,bottle,"]
+PURCHASE_GOOD = [
+    "2025-01,sevoflurane,4,bottle,",
+    "2025-01,oxygen,20,m**3,",
+    "2025-02,desflurane,2,bottle,240 mL",
+    "2025-02,nitrous_oxide,1,cylinder,9000 L",
+    "2025-03,sevoflurane,100,mL,",
+    "2025-03,isoflurane,1,bottle,",
+]
 
 
 def _purchases(tmp_path, name, lines):
@@ -177,13 +196,16 @@ def _bought(read):
     return read.table.groupby("item")["amount"].sum().to_dict()
 
 
-@pytest.mark.parametrize("bad_line", [
-    "2025-02,oxygen,3,m**3,,",              # one trailing comma
-    "2025-02,oxygen,3,m**3,,,,",            # several
-    "2025-02,oxygen,3,m**3",                # one field short
-    '2025-02,"oxygen,3,m**3,',              # an unclosed quote
-    "2025-02,oxy\rgen,3,m**3,",             # a lone CR in a cell
-])
+@pytest.mark.parametrize(
+    "bad_line",
+    [
+        "2025-02,oxygen,3,m**3,,",  # one trailing comma
+        "2025-02,oxygen,3,m**3,,,,",  # several
+        "2025-02,oxygen,3,m**3",  # one field short
+        '2025-02,"oxygen,3,m**3,',  # an unclosed quote
+        "2025-02,oxy\rgen,3,m**3,",  # a lone CR in a cell
+    ],
+)
 def test_broken_purchase_line_is_set_aside_alone(tmp_path, bad_line):
     _, clean = _purchases(tmp_path, "clean.csv", PURCHASE_GOOD)
     path, read = _purchases(tmp_path, "bad.csv", PURCHASE_GOOD[:3] + [bad_line] + PURCHASE_GOOD[3:])
@@ -192,8 +214,7 @@ def test_broken_purchase_line_is_set_aside_alone(tmp_path, bad_line):
 
 
 def test_indented_comment_is_a_comment_and_later_lines_keep_their_numbers(tmp_path):
-    lines = PURCHASE_GOOD[:2] + ["   # a note, indented", "\t# another"] + PURCHASE_GOOD[2:] + [
-        "2025-13,oxygen,1,L,"]
+    lines = PURCHASE_GOOD[:2] + ["   # a note, indented", "\t# another"] + PURCHASE_GOOD[2:] + ["2025-13,oxygen,1,L,"]
     path, read = _purchases(tmp_path, "p.csv", lines)
     # Header line 1, data from line 2: the bad month is the last line of the file.
     assert [str(e).split(":")[0] for e in read.set_aside] == [f"{path}, line {len(lines) + 1}"]
@@ -211,11 +232,14 @@ def test_hash_inside_a_purchase_cell_is_text_not_a_comment(tmp_path):
     assert read.table["amount"].tolist() == [1000.0] and not read.messages
 
 
-@pytest.mark.parametrize("line, column", [
-    ("\uff12\uff10\uff12\uff15-04,oxygen,1,L,", "month"),     # full-width digits
-    ("2025-0\u0664,oxygen,1,L,", "month"),                     # an Arabic-Indic digit
-    ("2025-04,oxygen,\uff11,L,", "quantity"),
-])
+@pytest.mark.parametrize(
+    "line, column",
+    [
+        ("\uff12\uff10\uff12\uff15-04,oxygen,1,L,", "month"),  # full-width digits
+        ("2025-0\u0664,oxygen,1,L,", "month"),  # an Arabic-Indic digit
+        ("2025-04,oxygen,\uff11,L,", "quantity"),
+    ],
+)
 def test_non_ascii_digits_in_purchases_are_set_aside(tmp_path, line, column):
     path, read = _purchases(tmp_path, "p.csv", [line, "2025-04,oxygen,1,L,"])
     assert len(read.messages) == 1 and f"{path}, line 2: {column}" in read.messages[0]
@@ -257,7 +281,10 @@ def test_prices_and_month_weights_have_upper_bounds(tmp_path):
         Reference().with_overrides({"prices": {"oxygen_per_1000_l": MAX_PRICE * 10}}, "settings")
     with pytest.raises(InputError, match="at most"):
         Reference().with_overrides({"prices": {"bottle": {"sevoflurane": 1e308}}}, "settings")
-    assert Reference().with_overrides({"prices": {"oxygen_per_1000_l": MAX_PRICE}}, "s").prices.oxygen_per_1000_l == MAX_PRICE
+    assert (
+        Reference().with_overrides({"prices": {"oxygen_per_1000_l": MAX_PRICE}}, "s").prices.oxygen_per_1000_l
+        == MAX_PRICE
+    )
     with pytest.raises(InputError, match="GWP"):
         Reference().with_overrides({"gwp": {"user": {"sevoflurane": 1e308}}}, "settings")
     from model.io.scenario import parse_scenario_text
@@ -274,11 +301,14 @@ def test_prices_and_month_weights_have_upper_bounds(tmp_path):
 DEEP_HEADER = "\n[a" + ".b" * 1000 + "]\n"
 
 
-@pytest.mark.parametrize("command, demo", [
-    ("case", ROOT / "demo_data" / "plans" / "lap_chole_low_flow.toml"),
-    ("sweep", ROOT / "demo_data" / "plans" / "lap_chole_low_flow.toml"),
-    ("year", ROOT / "demo_data" / "year" / "baseline_2l.toml"),
-])
+@pytest.mark.parametrize(
+    "command, demo",
+    [
+        ("case", ROOT / "demo_data" / "plans" / "lap_chole_low_flow.toml"),
+        ("sweep", ROOT / "demo_data" / "plans" / "lap_chole_low_flow.toml"),
+        ("year", ROOT / "demo_data" / "year" / "baseline_2l.toml"),
+    ],
+)
 def test_deep_toml_table_header_exits_2_with_one_line(tmp_path, capsys, command, demo):
     path = demo.parent / f"_deep_{tmp_path.name}.toml"  # beside the demo, so its case mix is found
     try:
@@ -304,8 +334,7 @@ def test_upload_guard_and_file_readers_agree_on_depth(levels):
     text = (ROOT / "demo_data" / "plans" / "lap_chole_low_flow.toml").read_text()
     text += "\n[x" + ".y" * (levels - 1) + "]\nz = 1\n"
     verdicts = []
-    for call in (lambda: check_upload("p.toml", text.encode(), "plan"),
-                 lambda: parse_plan_text(text, "p.toml")):
+    for call in (lambda: check_upload("p.toml", text.encode(), "plan"), lambda: parse_plan_text(text, "p.toml")):
         try:
             call()
             verdicts.append("ok")
@@ -341,7 +370,7 @@ def test_line_limit_does_not_count_the_cr_of_crlf():
 
 
 def test_depth_limit_counts_levels_below_the_document():
-    from model.files import MAX_TOML_DEPTH
+    from model.base.files import MAX_TOML_DEPTH
     from model.io.uploads import check_upload
 
     def nested_array(levels):
@@ -359,8 +388,9 @@ def test_depth_limit_counts_levels_below_the_document():
 # --- 7. a file-system error on a named file is a clear message -----------------------------
 
 
-@pytest.mark.parametrize("plan_cell", ["p" * 300 + ".toml", "plans/" + "q" * 300 + ".toml",
-                                       "plans/a\x00b.toml", "/proc/self/mem/x.toml"])
+@pytest.mark.parametrize(
+    "plan_cell", ["p" * 300 + ".toml", "plans/" + "q" * 300 + ".toml", "plans/a\x00b.toml", "/proc/self/mem/x.toml"]
+)
 def test_case_mix_naming_an_impossible_plan_path_exits_2(tmp_path, capsys, plan_cell):
     import csv
     import io
@@ -380,12 +410,15 @@ def test_case_mix_naming_an_impossible_plan_path_exits_2(tmp_path, capsys, plan_
     assert status == 2 and err.count("\n") == 1 and "plan" in err
 
 
-@pytest.mark.parametrize("args", [
-    ["audit", "r" * 300 + ".csv"],
-    ["audit", BIRCH, "--purchases", "p" * 300 + ".csv"],
-    ["case", "c" * 300 + ".toml"],
-    ["year", "y" * 300 + ".toml"],
-])
+@pytest.mark.parametrize(
+    "args",
+    [
+        ["audit", "r" * 300 + ".csv"],
+        ["audit", BIRCH, "--purchases", "p" * 300 + ".csv"],
+        ["case", "c" * 300 + ".toml"],
+        ["year", "y" * 300 + ".toml"],
+    ],
+)
 def test_over_long_file_names_on_the_command_line_exit_2(capsys, args):
     status, _, err = _cli(args, capsys)
     assert status == 2 and err.count("\n") == 1
@@ -410,19 +443,27 @@ def _foreign_meta(path):
 
 
 def _no_version(path):
-    return _sqlite(path, "CREATE TABLE meta (key TEXT PRIMARY KEY, value TEXT)", "INSERT INTO meta VALUES ('owner', 'x')")
+    return _sqlite(
+        path, "CREATE TABLE meta (key TEXT PRIMARY KEY, value TEXT)", "INSERT INTO meta VALUES ('owner', 'x')"
+    )
 
 
 def _v1_without_plans(path):
-    return _sqlite(path, "CREATE TABLE meta (key TEXT PRIMARY KEY, value TEXT NOT NULL)",
-                   "INSERT INTO meta VALUES ('schema_version', '1')")
+    return _sqlite(
+        path,
+        "CREATE TABLE meta (key TEXT PRIMARY KEY, value TEXT NOT NULL)",
+        "INSERT INTO meta VALUES ('schema_version', '1')",
+    )
 
 
 def _v2_without_items(path):
-    return _sqlite(path, "CREATE TABLE meta (key TEXT PRIMARY KEY, value TEXT NOT NULL)",
-                   "INSERT INTO meta VALUES ('schema_version', '2')",
-                   "CREATE TABLE versions (id INTEGER PRIMARY KEY, item_id INTEGER, version INTEGER, "
-                   "body TEXT, note TEXT, saved_at TEXT)")
+    return _sqlite(
+        path,
+        "CREATE TABLE meta (key TEXT PRIMARY KEY, value TEXT NOT NULL)",
+        "INSERT INTO meta VALUES ('schema_version', '2')",
+        "CREATE TABLE versions (id INTEGER PRIMARY KEY, item_id INTEGER, version INTEGER, "
+        "body TEXT, note TEXT, saved_at TEXT)",
+    )
 
 
 def _bad_utf8_in_master(path):
@@ -447,8 +488,9 @@ def _truncated(path):
     return path
 
 
-@pytest.mark.parametrize("build", [_foreign_meta, _no_version, _v1_without_plans, _v2_without_items,
-                                   _bad_utf8_in_master, _truncated])
+@pytest.mark.parametrize(
+    "build", [_foreign_meta, _no_version, _v1_without_plans, _v2_without_items, _bad_utf8_in_master, _truncated]
+)
 def test_store_that_is_not_ours_is_refused_with_one_line_and_left_untouched(tmp_path, build):
     import hashlib
 
@@ -470,15 +512,16 @@ def test_killed_migration_leaves_no_partial_backup_under_a_backup_name(tmp_path,
     import sqlite3
 
     from model import store as store_module
+    from model.store import schema, sqlite
 
     path = tmp_path / "store.sqlite3"
-    store_module.create_schema_1(path)
+    schema.create_schema_1(path)
 
     def killed(src, target):
         Path(target).write_bytes(b"SQLite format 3\x00" + b"\x00" * 100)  # half written
         raise KeyboardInterrupt  # the process is stopped mid-copy
 
-    monkeypatch.setattr(store_module, "_copy_database", killed)
+    monkeypatch.setattr(sqlite, "_copy_database", killed)
     with pytest.raises(KeyboardInterrupt):
         store_module.Store(path)
     import re

@@ -21,9 +21,11 @@ ROOT = Path(__file__).resolve().parents[1]
 ARTIFACTS = ROOT / "test-artifacts"
 sys.path.insert(0, str(ROOT / "benchmarks"))
 from bench_load import dashboard  # noqa: E402  (the one way the tests start the app)
+
 sys.path.insert(0, str(ROOT / "tests"))
 from browsertest import browser  # noqa: E402,F401  (module fixture: one chromium per file)
-ROW_HEIGHT = 35          # st.data_editor's default row and header height [px]
+
+ROW_HEIGHT = 35  # st.data_editor's default row and header height [px]
 WAIT_MS = 90_000
 
 
@@ -35,7 +37,8 @@ def store_path(tmp_path_factory):
 @contextlib.contextmanager
 def serve_app(log_dir: Path, store: Path):
     """``streamlit run serve.py`` (app.py with its warm start) on a free loopback port with its own
-    store; yields its URL."""
+    store; yields its URL.
+    """
     with dashboard(store, log_dir / "streamlit.log") as (url, _):
         yield url.rstrip("/")
 
@@ -84,7 +87,8 @@ def wait_metric_change(pg, label: str, old: str) -> str:
 def edit_cell(pg, row: int, column: int, text: str) -> None:
     """Type into the phases table: select the row's first cell, move right, open the cell's
     editor, replace its text, Enter. Retries the selection if the editor did not open (the
-    grid may still be drawing on a loaded machine)."""
+    grid may still be drawing on a loaded machine).
+    """
     grid = pg.locator('[data-testid="stDataFrame"]').first
     grid.wait_for(state="visible")
     editor = pg.locator("textarea.gdg-input, #portal textarea").last
@@ -95,7 +99,7 @@ def edit_cell(pg, row: int, column: int, text: str) -> None:
         pg.wait_for_timeout(300)
         for _ in range(column):
             pg.keyboard.press("ArrowRight")
-        pg.keyboard.press("Enter")              # open the cell's editor with its current text
+        pg.keyboard.press("Enter")  # open the cell's editor with its current text
         try:
             editor.wait_for(state="visible", timeout=5000)
             break
@@ -151,10 +155,10 @@ def test_plan_lower_flow_save_reload_and_download(page, app_url, tmp_path):
     before = metric_number(page, "Liquid agent")
 
     # Maintenance (row 2) fresh gas flow from 2 L/min (1 O2 + 1 air) to 0.5 L/min.
-    edit_cell(page, 1, 2, "0.25 L/min")                     # O2 column
+    edit_cell(page, 1, 2, "0.25 L/min")  # O2 column
     mid = wait_metric_change(page, "Liquid agent", before_text)
     wait_idle(page)
-    edit_cell(page, 1, 3, "250 mL/min")                     # air column, another unit
+    edit_cell(page, 1, 3, "250 mL/min")  # air column, another unit
     wait_metric_change(page, "Liquid agent", mid)
     wait_idle(page)
     after = metric_number(page, "Liquid agent")
@@ -193,14 +197,17 @@ def test_invalid_entry_shows_message_not_traceback(page, app_url):
     page.screenshot(path=str(ARTIFACTS / "case_plan_invalid_entry.png"))
 
 
-@pytest.mark.parametrize("title, slug, marker", [
-    ("Case plan", "case_plan", "What this case uses"),
-    ("Compare", "compare", "Against the baseline"),
-    ("Reference", "reference", "Your values"),
-    ("Department year", "department_year", "Bottles bought per month"),
-    ("Record audit", "record_audit", "Rows set aside"),
-    ("Emissions report", "emissions_report", "What drove the change"),
-])
+@pytest.mark.parametrize(
+    "title, slug, marker",
+    [
+        ("Case plan", "case_plan", "What this case uses"),
+        ("Compare", "compare", "Against the baseline"),
+        ("Reference", "reference", "Your values"),
+        ("Department year", "department_year", "Bottles bought per month"),
+        ("Record audit", "record_audit", "Rows set aside"),
+        ("Emissions report", "emissions_report", "What drove the change"),
+    ],
+)
 def test_every_page_renders_and_is_captured(page, app_url, title, slug, marker):
     ARTIFACTS.mkdir(exist_ok=True)
     page.set_viewport_size({"width": 1400, "height": 2400})
@@ -209,7 +216,7 @@ def test_every_page_renders_and_is_captured(page, app_url, title, slug, marker):
     page.get_by_role("heading", name=title).first.wait_for()
     page.get_by_text(marker).first.wait_for()
     wait_idle(page)
-    page.wait_for_timeout(800)          # let plotly finish drawing
+    page.wait_for_timeout(800)  # let plotly finish drawing
     assert page.locator('[data-testid="stException"]').count() == 0
     page.screenshot(path=str(ARTIFACTS / f"page_{slug}.png"))
 
@@ -219,7 +226,7 @@ def test_emissions_report_html_carries_the_headline_figure(page, app_url, tmp_pa
     page.get_by_role("link", name="Emissions report").first.click()
     page.get_by_text("What drove the change").first.wait_for()
     wait_idle(page)
-    figure = metric_text(page, "Use-based, IPCC AR6 GWP100")          # e.g. "23.7 t CO2e"
+    figure = metric_text(page, "Use-based, IPCC AR6 GWP100")  # e.g. "23.7 t CO2e"
     assert figure.endswith("t CO2e")
     path, doc = download_html_report(page, tmp_path)
     headline = doc.split("id='headline'>", 1)[1].split("</p>", 1)[0]
@@ -232,7 +239,7 @@ def test_emissions_report_html_carries_the_headline_figure(page, app_url, tmp_pa
     assert page.get_by_text("What drove the change (additive LMDI-I)").count() >= 1
 
 
-HOSTILE_NAME = "<img src=x onerror=\"window.__pwned=1\">[link](javascript:window.__pwned=2)"
+HOSTILE_NAME = '<img src=x onerror="window.__pwned=1">[link](javascript:window.__pwned=2)'
 
 
 def test_hostile_plan_name_is_shown_as_text_and_escaped_in_the_report(page, app_url, store_path, tmp_path):
@@ -240,13 +247,14 @@ def test_hostile_plan_name_is_shown_as_text_and_escaped_in_the_report(page, app_
 
     from model import load_plan
     from model.store import Store
-    open_app(page, app_url)                    # the app has made and seeded the store
+
+    open_app(page, app_url)  # the app has made and seeded the store
     demo = load_plan(ROOT / "demo_data" / "plans" / "lap_chole_low_flow.toml")
     Store(store_path).save_plan(replace(demo, name=HOSTILE_NAME))
     page.reload()
     page.get_by_text("What this case uses").wait_for()
     wait_idle(page)
-    page.get_by_text("Editing: saved plan '<img src=x").wait_for()     # shown as typed
+    page.get_by_text("Editing: saved plan '<img src=x").wait_for()  # shown as typed
     assert page.locator("main img[src='x']").count() == 0
     assert page.locator("a[href^='javascript']").count() == 0
     assert page.evaluate("() => window.__pwned === undefined")
@@ -292,8 +300,10 @@ def _open_reference(pg, url: str) -> None:
 
 def test_a_forged_identity_header_is_ignored_where_header_sign_in_is_not_configured(browser, app_url):
     # The module's app has no sign-in configured: a header naming an editor changes nothing.
-    context = browser.new_context(viewport={"width": 1400, "height": 1000},
-                                  extra_http_headers={"X-Remote-User": EDITOR, "X-Forwarded-User": EDITOR})
+    context = browser.new_context(
+        viewport={"width": 1400, "height": 1000},
+        extra_http_headers={"X-Remote-User": EDITOR, "X-Forwarded-User": EDITOR},
+    )
     pg = context.new_page()
     pg.set_default_timeout(WAIT_MS)
     try:
@@ -307,15 +317,20 @@ def test_a_forged_identity_header_is_ignored_where_header_sign_in_is_not_configu
 
 def test_the_configured_header_signs_the_user_in_and_only_editors_may_change_values(browser, tmp_path):
     secrets = tmp_path / "secrets.toml"
-    secrets.write_text('[gas_ledger]\nsign_in = "header"\nidentity_header = "X-Remote-User"\n'
-                       f'editors = ["{EDITOR}"]\n', encoding="utf-8")
-    with dashboard(tmp_path / "store.sqlite3", tmp_path / "streamlit.log",
-                   extra_args=("--secrets.files", str(secrets))) as (url, _):
+    secrets.write_text(
+        f'[gas_ledger]\nsign_in = "header"\nidentity_header = "X-Remote-User"\neditors = ["{EDITOR}"]\n',
+        encoding="utf-8",
+    )
+    with dashboard(
+        tmp_path / "store.sqlite3", tmp_path / "streamlit.log", extra_args=("--secrets.files", str(secrets))
+    ) as (url, _):
         url = url.rstrip("/")
         seen = {}
-        for who, headers in [("editor", {"X-Remote-User": EDITOR}),
-                             ("other", {"X-Remote-User": "anaesthetist@fernhollow.example"}),
-                             ("nobody", {})]:
+        for who, headers in [
+            ("editor", {"X-Remote-User": EDITOR}),
+            ("other", {"X-Remote-User": "anaesthetist@fernhollow.example"}),
+            ("nobody", {}),
+        ]:
             context = browser.new_context(viewport={"width": 1400, "height": 1000}, extra_http_headers=headers)
             pg = context.new_page()
             pg.set_default_timeout(WAIT_MS)
@@ -335,9 +350,11 @@ def test_two_app_processes_on_one_postgres_store_see_each_others_saves(browser, 
     from storetest import postgres_database
 
     name = "Shared between two servers"
-    with postgres_database("gl_browser") as db, \
-            dashboard(db, tmp_path / "first.log") as (first, _), \
-            dashboard(db, tmp_path / "second.log") as (second, _):
+    with (
+        postgres_database("gl_browser") as db,
+        dashboard(db, tmp_path / "first.log") as (first, _),
+        dashboard(db, tmp_path / "second.log") as (second, _),
+    ):
         pages = []
         for _url in (first, second):
             context = browser.new_context(viewport={"width": 1400, "height": 1000})

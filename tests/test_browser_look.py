@@ -30,11 +30,14 @@ SIZES = ((1366, 768), (1920, 1080))
 #: A4 width at 96 px per inch (210 mm); US letter is wider (816 px), so A4 is the harder test.
 A4_PX = 794
 #: (page title in the navigation, file slug, text shown once the page has its results)
-PAGES = (("Case plan", "case_plan", "What this case uses"), ("Compare", "compare", "Against the baseline"),
-         ("Department year", "department_year", "Bottles bought per month"),
-         ("Record audit", "record_audit", "Rows set aside"),
-         ("Emissions report", "emissions_report", "Scope 1 anaesthetic emissions"),
-         ("Reference", "reference", "Your values"))
+PAGES = (
+    ("Case plan", "case_plan", "What this case uses"),
+    ("Compare", "compare", "Against the baseline"),
+    ("Department year", "department_year", "Bottles bought per month"),
+    ("Record audit", "record_audit", "Rows set aside"),
+    ("Emissions report", "emissions_report", "Scope 1 anaesthetic emissions"),
+    ("Reference", "reference", "Your values"),
+)
 
 #: Tick labels outside their figure's svg, and tick labels that overlap an axis title.
 TICKS_OUTSIDE = """() => {
@@ -84,7 +87,7 @@ def _open(pg, url: str, title: str, marker: str) -> None:
         pg.get_by_role("heading", name=title).first.wait_for()
     pg.get_by_text(marker).first.wait_for()
     _idle(pg)
-    pg.wait_for_timeout(800)            # let plotly finish drawing
+    pg.wait_for_timeout(800)  # let plotly finish drawing
 
 
 def _download_report(pg, path: Path) -> Path:
@@ -124,7 +127,8 @@ def reports(browser, app_url, tmp_path_factory):
 @pytest.mark.parametrize("slug", [p[1] for p in PAGES])
 def test_every_report_is_legible_at_a4_laptop_and_desktop_width(browser, reports, slug):
     """Defect 5: tick labels inside their figure and clear of axis titles, no page wider than
-    the window, at A4 width, 1366 and 1920 px; every report screenshotted."""
+    the window, at A4 width, 1366 and 1920 px; every report screenshotted.
+    """
     path = reports[slug]
     problems = []
     for w, h in ((A4_PX, 1123),) + SIZES:
@@ -147,7 +151,8 @@ def test_every_report_is_legible_at_a4_laptop_and_desktop_width(browser, reports
 def test_case_plan_first_laptop_screen_shows_the_headline_results_beside_the_inputs(browser, app_url):
     """Defect 16: at 1366 x 768 the first screen of Case plan showed no results. The headline
     figures must be on the first screen, beside the phases table, and every column of the
-    phases table must be in view without scrolling sideways."""
+    phases table must be in view without scrolling sideways.
+    """
     context = browser.new_context(viewport={"width": 1366, "height": 768})
     pg = context.new_page()
     pg.set_default_timeout(WAIT_MS)
@@ -161,8 +166,8 @@ def test_case_plan_first_laptop_screen_shows_the_headline_results_beside_the_inp
     grid.scroll_into_view_if_needed()
     g = grid.bounding_box()
     liquid = pg.locator('[data-testid="stMetric"]').filter(has_text="Liquid agent").first.bounding_box()
-    assert liquid["x"] > g["x"] + g["width"] - 1, (liquid, g)     # to the right of the table
-    assert liquid["y"] < 768 and liquid["y"] + liquid["height"] > 0, liquid     # and in view beside it
+    assert liquid["x"] > g["x"] + g["width"] - 1, (liquid, g)  # to the right of the table
+    assert liquid["y"] < 768 and liquid["y"] + liquid["height"] > 0, liquid  # and in view beside it
     # Every column in view: the grid's canvas scrolls sideways only if its columns are wider
     # than the grid (glide-data-grid's scroller holds the full width of the columns).
     overflow = pg.evaluate("""() => {

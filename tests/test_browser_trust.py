@@ -10,12 +10,21 @@ import re
 
 import pytest
 from playwright.sync_api import TimeoutError as PlaywrightTimeout
+from test_browser import (  # noqa: F401
+    ARTIFACTS,
+    WAIT_MS,
+    app_url,
+    browser,
+    click_button,
+    metric_text,
+    open_app,
+    open_saved_plan,
+    store_path,
+    wait_idle,
+)
 
 from model.reference import DEFAULT_REFERENCE
 from model.store import Store
-
-from test_browser import (ARTIFACTS, WAIT_MS, app_url, browser, click_button, metric_text,  # noqa: F401
-                          open_app, open_saved_plan, store_path, wait_idle)
 
 pytestmark = pytest.mark.browser
 
@@ -69,7 +78,8 @@ def test_case_plan_inputs_survive_a_visit_to_compare(laptop, app_url):  # noqa: 
 
 def test_going_back_to_the_defaults_empties_the_form(laptop, app_url, store_path):  # noqa: F811
     """Defect 9: after "Go back to the built-in defaults" the form shows the defaults, and saving it
-    again does not bring the old value back."""
+    again does not bring the old value back.
+    """
     pg = laptop
     open_app(pg, app_url)
     go(pg, "Reference", "Your values")
@@ -83,8 +93,11 @@ def test_going_back_to_the_defaults_empties_the_form(laptop, app_url, store_path
     # it took (a click that lands while the page is still rerunning can be lost under load).
     done = pg.get_by_text("Built-in defaults in use")
     for _ in range(4):
-        back = pg.locator('button[data-testid^="stBaseButton"]').filter(
-            has_text=re.compile("Go back to the built-in defaults$")).first
+        back = (
+            pg.locator('button[data-testid^="stBaseButton"]')
+            .filter(has_text=re.compile("Go back to the built-in defaults$"))
+            .first
+        )
         if not back.is_visible():
             pg.get_by_text(re.compile(r"Earlier sets of values")).first.click()
             back.wait_for()
@@ -106,7 +119,8 @@ def test_going_back_to_the_defaults_empties_the_form(laptop, app_url, store_path
 
 def test_year_workbook_records_the_practice_set_on_the_page(laptop, app_url, tmp_path):  # noqa: F811
     """Defect 6: after a change of practice on the page, the Excel workbook's Inputs sheet carries it
-    (not the scenario file's), with the prices, GWP values and the program's version."""
+    (not the scenario file's), with the prices, GWP values and the program's version.
+    """
     import importlib.metadata
 
     import openpyxl

@@ -9,18 +9,18 @@ import pytest
 
 from model.case import case_costs, compute_case, phase_consumption
 from model.emissions import co2e_kg, emitted_mass_g, gas_mass_g
-from model.plan import CasePlan, Patient, Phase, Settings
 from model.io.plans import load_plan
+from model.plan import CasePlan, Patient, Phase, Settings
 from model.reference import AGENTS, DEFAULT_REFERENCE, Prices, Reference
 
 DEMO = Path(__file__).resolve().parents[1] / "demo_data" / "plans"
 SEVO = AGENTS["sevoflurane"]
 
 
-def one_phase_plan(agent="sevoflurane", minutes=60.0, o2=1.0, air=1.0, n2o=0.0, dial=2.0, age=40.0,
-                   **settings):
-    return CasePlan("t", agent, (Phase("p", minutes, o2, air, n2o, dial_pct=dial),),
-                    Patient(70.0, age), Settings(**settings))
+def one_phase_plan(agent="sevoflurane", minutes=60.0, o2=1.0, air=1.0, n2o=0.0, dial=2.0, age=40.0, **settings):
+    return CasePlan(
+        "t", agent, (Phase("p", minutes, o2, air, n2o, dial_pct=dial),), Patient(70.0, age), Settings(**settings)
+    )
 
 
 def test_low_flow_demo_case_hand_worked():
@@ -98,12 +98,19 @@ def test_co2e_is_mass_times_gwp():
 
 
 def test_case_costs_hand_worked():
-    prices = Prices(currency="EUR", bottle={"isoflurane": 25.0}, oxygen_per_1000_l=4.0,
-                    air_per_1000_l=2.0, nitrous_oxide_per_1000_l=10.0, absorbent_per_kg=8.0)
+    prices = Prices(
+        currency="EUR",
+        bottle={"isoflurane": 25.0},
+        oxygen_per_1000_l=4.0,
+        air_per_1000_l=2.0,
+        nitrous_oxide_per_1000_l=10.0,
+        absorbent_per_kg=8.0,
+    )
     costs = case_costs(50.0, 500.0, 250.0, 100.0, 750.0, AGENTS["isoflurane"], prices)
     # Worked by hand: 50/250*25 = 5; 0.5*4 = 2; 0.25*2 = 0.5; 0.1*10 = 1; 0.75*8 = 6; total 14.5.
     assert {k: float(v) for k, v in costs.items()} == pytest.approx(
-        dict(agent=5.0, oxygen=2.0, air=0.5, nitrous_oxide=1.0, absorbent=6.0, total=14.5))
+        dict(agent=5.0, oxygen=2.0, air=0.5, nitrous_oxide=1.0, absorbent=6.0, total=14.5)
+    )
 
 
 def test_mac_hours_age_adjusted():
@@ -113,7 +120,7 @@ def test_mac_hours_age_adjusted():
     # Source: Mapleson 1996: at 80 years MAC is MAC40 * 10^-0.1076, so the same dial is
     # 10^0.1076 = 1.2811 MAC-hours.
     t80 = compute_case(one_phase_plan(dial=2.1, age=80.0)).totals
-    assert t80["mac_hours"] == pytest.approx(10 ** 0.1076)
+    assert t80["mac_hours"] == pytest.approx(10**0.1076)
 
 
 def test_mac_hours_count_nitrous_oxide():
@@ -127,8 +134,7 @@ def test_ratio_limit_alters_request_and_warns():
     row = result.phases.iloc[0]
     assert row["n2o_l_min"] == pytest.approx(1.5) and bool(row["flows_altered"])
     assert any("ratio limit altered" in w for w in result.warnings)
-    raised = compute_case(one_phase_plan("desflurane", o2=0.5, air=0.0, n2o=2.0, dial=5.0,
-                                         ratio_behaviour="raise_o2"))
+    raised = compute_case(one_phase_plan("desflurane", o2=0.5, air=0.0, n2o=2.0, dial=5.0, ratio_behaviour="raise_o2"))
     assert raised.phases.iloc[0]["o2_l_min"] == pytest.approx(2.0 / 3.0)
 
 
@@ -168,10 +174,18 @@ def test_result_dict_is_json_with_stable_keys():
     data = compute_case(load_plan(DEMO / "hip_desflurane_n2o.toml")).to_dict()
     text = json.dumps(data, allow_nan=False)
     back = json.loads(text)
-    assert {"plan", "agent", "currency", "gwp_source", "gwp_source_label", "totals", "phases",
-            "warnings"} <= set(back)
-    for key in ("liquid_agent_ml", "agent_mass_g", "oxygen_l", "air_l", "nitrous_oxide_l",
-                "co2e_total_kg", "cost_total", "mac_hours", "duration_min"):
+    assert {"plan", "agent", "currency", "gwp_source", "gwp_source_label", "totals", "phases", "warnings"} <= set(back)
+    for key in (
+        "liquid_agent_ml",
+        "agent_mass_g",
+        "oxygen_l",
+        "air_l",
+        "nitrous_oxide_l",
+        "co2e_total_kg",
+        "cost_total",
+        "mac_hours",
+        "duration_min",
+    ):
         assert isinstance(back["totals"][key], float), key
     assert len(back["phases"]) == 3
 
@@ -190,11 +204,13 @@ def test_phase_consumption_vectorises_over_many_rows():
 def test_warnings_are_ranked_hazard_first_with_a_severity_each():
     """Issue 12 defect 4: a hypoxic mixture and O2 running out come before labelling notes."""
     from model.cautions import SEVERITIES, is_unsafe, severity_of
+
     plan = load_plan(DEMO / "lap_chole_low_flow.toml")
     # 0.5 L/min maintenance at 50 % O2: the textbook steady-state FiO2 mass balance
     # (FGF x FdO2 - VO2) / (FGF - VO2 - ...) has a numerator near zero at VO2 ~ 0.25 L/min.
-    phases = tuple(replace(p, o2_l_min=0.25, air_l_min=0.25, n2o_l_min=0.0) if p.name == "maintenance" else p
-                   for p in plan.phases)
+    phases = tuple(
+        replace(p, o2_l_min=0.25, air_l_min=0.25, n2o_l_min=0.0) if p.name == "maintenance" else p for p in plan.phases
+    )
     result = compute_case(replace(plan, phases=phases))
     severities = [severity_of(w) for w in result.warnings]
     assert severities and severities[0] == "hazard" and "labelling" in severities

@@ -5,10 +5,10 @@ from pathlib import Path
 import pandas as pd
 import pytest
 
+from model.base.errors import InputError
 from model.io.casemix import casemix_from_frame, casemix_to_csv, casemix_to_frame, load_casemix, parse_casemix_text
-from model.year.inputs import stretch_phase
-from model.errors import InputError
 from model.io.plans import load_plan
+from model.year.inputs import stretch_phase
 
 YEAR = Path(__file__).resolve().parents[1] / "demo_data" / "year"
 HEADER = "case_type,cases_per_year,median_duration,duration_spread,sevoflurane,desflurane,n2o_share,plan\n"
@@ -35,16 +35,19 @@ def test_units_and_percent_shares_are_read():
     assert t.n2o_share == pytest.approx(0.1)
 
 
-@pytest.mark.parametrize("row, field", [
-    ("Hernia,-1,60,0.3,1,0,0,plans/adult_2l.toml", "cases_per_year"),
-    ("Hernia,10.5,60,0.3,1,0,0,plans/adult_2l.toml", "cases_per_year"),
-    ("Hernia,10,60 kg,0.3,1,0,0,plans/adult_2l.toml", "median_duration"),
-    ("Hernia,10,60,0.3,0.7,0.1,0,plans/adult_2l.toml", "agent shares"),
-    ("Hernia,10,60,0.3,1,0,1.5,plans/adult_2l.toml", "n2o_share"),
-    ("Hernia,10,60,-1,1,0,0,plans/adult_2l.toml", "duration_spread"),
-    ("Hernia,10,10,0.3,1,0,0,plans/adult_2l.toml", "median_duration"),
-    (",10,60,0.3,1,0,0,plans/adult_2l.toml", "case_type"),
-])
+@pytest.mark.parametrize(
+    "row, field",
+    [
+        ("Hernia,-1,60,0.3,1,0,0,plans/adult_2l.toml", "cases_per_year"),
+        ("Hernia,10.5,60,0.3,1,0,0,plans/adult_2l.toml", "cases_per_year"),
+        ("Hernia,10,60 kg,0.3,1,0,0,plans/adult_2l.toml", "median_duration"),
+        ("Hernia,10,60,0.3,0.7,0.1,0,plans/adult_2l.toml", "agent shares"),
+        ("Hernia,10,60,0.3,1,0,1.5,plans/adult_2l.toml", "n2o_share"),
+        ("Hernia,10,60,-1,1,0,0,plans/adult_2l.toml", "duration_spread"),
+        ("Hernia,10,10,0.3,1,0,0,plans/adult_2l.toml", "median_duration"),
+        (",10,60,0.3,1,0,0,plans/adult_2l.toml", "case_type"),
+    ],
+)
 def test_bad_rows_name_line_and_field(row, field):
     with pytest.raises(InputError) as exc:
         parse_casemix_text(HEADER + row + "\n", "mix.csv", _plans)

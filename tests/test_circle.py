@@ -1,5 +1,6 @@
 """The circle system with a patient: conservation, limits, steady states, targets, absorbent,
-inspired O2 and the per-case result built on it."""
+inspired O2 and the per-case result built on it.
+"""
 
 import json
 from dataclasses import replace
@@ -11,24 +12,55 @@ import pytest
 from model import compute_case, load_plan
 from model.circle import lowest_safe_fd_o2, rebreathed_share, simulate_cases, steady_state_fio2
 from model.cli import main
+from model.io.plans import parse_plan_text
 from model.mac import mac_at_age
 from model.plan import CasePlan, Patient, Phase, Settings
-from model.io.plans import parse_plan_text
 from model.reference import AIR_O2_FRACTION, DEFAULT_REFERENCE, VOLATILES
 
 DEMO = Path(__file__).resolve().parents[1] / "demo_data" / "plans"
 SEVO = DEFAULT_REFERENCE.volatile("sevoflurane")
 SPECIES = ("oxygen", "nitrous_oxide", "agent")
 FOUNDATION_KEYS = (
-    "duration_min", "liquid_agent_ml", "bottles", "agent_mass_g", "oxygen_l", "air_l", "nitrous_oxide_l",
-    "absorbent_g", "agent_uptake_g", "agent_emitted_g", "nitrous_oxide_emitted_g", "co2e_agent_kg",
-    "co2e_nitrous_oxide_kg", "co2e_total_kg", "cost_agent", "cost_oxygen", "cost_air", "cost_nitrous_oxide",
-    "cost_absorbent", "cost_total", "mac_hours", "min_fd_o2_pct")
+    "duration_min",
+    "liquid_agent_ml",
+    "bottles",
+    "agent_mass_g",
+    "oxygen_l",
+    "air_l",
+    "nitrous_oxide_l",
+    "absorbent_g",
+    "agent_uptake_g",
+    "agent_emitted_g",
+    "nitrous_oxide_emitted_g",
+    "co2e_agent_kg",
+    "co2e_nitrous_oxide_kg",
+    "co2e_total_kg",
+    "cost_agent",
+    "cost_oxygen",
+    "cost_air",
+    "cost_nitrous_oxide",
+    "cost_absorbent",
+    "cost_total",
+    "mac_hours",
+    "min_fd_o2_pct",
+)
 TIMECOURSE_COLUMNS = (
-    "time_min", "phase", "dial_pct", "inspired_agent_pct", "end_tidal_agent_pct", "end_tidal_mac",
-    "inspired_o2_pct", "end_tidal_o2_pct", "inspired_n2o_pct", "end_tidal_n2o_pct", "agent_uptake_ml_min",
-    "agent_vented_ml_min", "liquid_agent_cumulative_ml", "co2_absorbed_cumulative_l",
-    "absorbent_used_cumulative_g")
+    "time_min",
+    "phase",
+    "dial_pct",
+    "inspired_agent_pct",
+    "end_tidal_agent_pct",
+    "end_tidal_mac",
+    "inspired_o2_pct",
+    "end_tidal_o2_pct",
+    "inspired_n2o_pct",
+    "end_tidal_n2o_pct",
+    "agent_uptake_ml_min",
+    "agent_vented_ml_min",
+    "liquid_agent_cumulative_ml",
+    "co2_absorbed_cumulative_l",
+    "absorbent_used_cumulative_g",
+)
 
 
 def o2_air_for(fd_o2, fgf):
@@ -52,6 +84,7 @@ def plan(phases, agent="sevoflurane", patient=Patient(70.0, 40.0), **settings):
 
 # --- conservation ---------------------------------------------------------------------------
 
+
 @pytest.mark.parametrize("model", ["compartment", "lowe"])
 def test_agent_o2_and_n2o_are_conserved_over_mixed_cases(model):
     rng = np.random.default_rng(7)
@@ -62,8 +95,18 @@ def test_agent_o2_and_n2o_are_conserved_over_mixed_cases(model):
     air = rng.uniform(0, 3, (3, n))
     dial = np.where(rng.random((3, n)) < 0.5, rng.uniform(0, 8, (3, n)), np.nan)
     target = np.where(np.isnan(dial), rng.uniform(0, 2, (3, n)), np.nan)
-    sim = simulate_cases(SEVO, minutes, o2, air, n2o, dial, target, weight_kg=rng.uniform(5, 120, n),
-                         age_years=rng.uniform(1, 90, n), uptake_model=model)
+    sim = simulate_cases(
+        SEVO,
+        minutes,
+        o2,
+        air,
+        n2o,
+        dial,
+        target,
+        weight_kg=rng.uniform(5, 120, n),
+        age_years=rng.uniform(1, 90, n),
+        uptake_model=model,
+    )
     # Source: conservation of mass (delivered = taken up + vented + change held), docs/methods.md, The circle system
     for species, err in balance_errors(sim).items():
         assert err < 1e-6, species
@@ -77,6 +120,7 @@ def test_demo_plans_conserve_mass_in_the_case_result():
 
 
 # --- limits -------------------------------------------------------------------------------
+
 
 def test_high_flow_inspired_equals_delivered():
     o2, air = o2_air_for(0.5, 20.0)
@@ -106,6 +150,7 @@ def test_rebreathed_share_worked_points():
 
 
 # --- inspired O2 --------------------------------------------------------------------------
+
 
 def test_steady_state_fio2_at_worked_points():
     # Source: docs/methods.md, Inspired oxygen: textbook circle mass balance FiO2 = (FGF FdO2 - VO2)/(FGF - VO2 - VN2O - Vagent);
@@ -168,6 +213,7 @@ def test_n2o_accumulates_at_low_flow_and_lowers_inspired_o2():
 
 # --- wash-in ------------------------------------------------------------------------------
 
+
 def fa_fi_at_30_min(agent_name):
     if agent_name == "nitrous_oxide":
         sim = simulate_cases(SEVO, [[30.0]], [[3.0]], 0.0, [[5.0]], [[0.0]], record=True)
@@ -184,8 +230,13 @@ def fa_fi_at_30_min(agent_name):
 # kinetics of sevoflurane and isoflurane in humans. Anesth Analg 1991;72:316-24: FA/FI at
 # 30 min about 0.9 for N2O and desflurane, 0.85 sevoflurane, 0.73 isoflurane, 0.58 halothane
 # (values and ranges from memory).
-PUBLISHED_FA_FI_30 = {"nitrous_oxide": (0.85, 1.0), "desflurane": (0.85, 0.95), "sevoflurane": (0.80, 0.90),
-                      "isoflurane": (0.66, 0.80), "halothane": (0.50, 0.68)}
+PUBLISHED_FA_FI_30 = {
+    "nitrous_oxide": (0.85, 1.0),
+    "desflurane": (0.85, 0.95),
+    "sevoflurane": (0.80, 0.90),
+    "isoflurane": (0.66, 0.80),
+    "halothane": (0.50, 0.68),
+}
 
 
 def test_wash_in_order_matches_published_kinetics():
@@ -193,11 +244,16 @@ def test_wash_in_order_matches_published_kinetics():
     for agent, (low, high) in PUBLISHED_FA_FI_30.items():
         assert low <= values[agent] <= high, (agent, values[agent])
     # Source: Yasuda et al. 1991 (above): N2O and desflurane fastest, then sevoflurane, isoflurane, halothane
-    assert min(values["nitrous_oxide"], values["desflurane"]) > values["sevoflurane"] > values["isoflurane"] \
+    assert (
+        min(values["nitrous_oxide"], values["desflurane"])
+        > values["sevoflurane"]
+        > values["isoflurane"]
         > values["halothane"]
+    )
 
 
 # --- targets ------------------------------------------------------------------------------
+
 
 def test_target_mode_meets_the_age_adjusted_end_tidal_target():
     p = plan([Phase("maintenance", 60.0, 1.0, 1.0, 0.0, target_mac=1.0)], patient=Patient(70.0, 80.0))
@@ -233,9 +289,15 @@ def test_unreachable_target_is_reported():
 def test_lower_flow_is_slower_to_reach_a_new_target():
     def time_to_target(fgf):
         o2, air = o2_air_for(0.5, fgf)
-        p = plan([Phase("induction", 15.0, 3.0, 3.0, 0.0, target_mac=0.6),
-                  Phase("deeper", 60.0, o2, air, 0.0, target_mac=1.2)], agent="isoflurane")
+        p = plan(
+            [
+                Phase("induction", 15.0, 3.0, 3.0, 0.0, target_mac=0.6),
+                Phase("deeper", 60.0, o2, air, 0.0, target_mac=1.2),
+            ],
+            agent="isoflurane",
+        )
         return compute_case(p).phases["time_to_target_min"].iloc[1]
+
     times = [time_to_target(f) for f in (0.5, 1.0, 2.0, 6.0)]
     # Source: common practice, no source: at low flow the circle responds slowly to a change
     assert times == sorted(times, reverse=True)
@@ -244,10 +306,13 @@ def test_lower_flow_is_slower_to_reach_a_new_target():
 
 # --- absorbent and emissions -----------------------------------------------------------
 
+
 def test_absorbent_from_the_rebreathed_co2_at_a_worked_point():
-    p = plan([Phase("maintenance", 60.0, 0.5, 0.0, 0.0, dial_pct=2.0)],
-             patient=Patient(70.0, 40.0, vo2_ml_min=250.0, minute_ventilation_l_min=6.0),
-             absorbent_capacity_l_per_kg=150.0)
+    p = plan(
+        [Phase("maintenance", 60.0, 0.5, 0.0, 0.0, dial_pct=2.0)],
+        patient=Patient(70.0, 40.0, vo2_ml_min=250.0, minute_ventilation_l_min=6.0),
+        absorbent_capacity_l_per_kg=150.0,
+    )
     t = compute_case(p).totals
     # Source: docs/methods.md, Absorbent: CO2 absorbed = VCO2 x rebreathed share; hand-worked
     # 0.2 L/min x (1 - 0.5/6) x 60 min = 11.0 L; at 150 L/kg (10-20 L per 100 g, from memory) 73.3 g
@@ -267,6 +332,7 @@ def test_emissions_subtract_the_metabolised_share_of_uptake():
 
 def test_dial_phases_use_dions_liquid_exactly():
     from model.vapour import liquid_used_ml
+
     r = compute_case(load_plan(DEMO / "lap_chole_high_flow.toml"))
     ph = r.phases
     # Source: Dion P, Can J Anaesth 1992;39:633-4 (liquid = FGF x dial x t x M / (V_m rho))
@@ -275,6 +341,7 @@ def test_dial_phases_use_dions_liquid_exactly():
 
 
 # --- the per-case result ------------------------------------------------------------------
+
 
 def test_case_result_keeps_foundation_keys_and_adds_timecourse():
     r = compute_case(load_plan(DEMO / "lap_chole_low_flow.toml"))
@@ -287,16 +354,26 @@ def test_case_result_keeps_foundation_keys_and_adds_timecourse():
     d = json.loads(json.dumps(r.to_dict(), allow_nan=False))
     assert d["uptake_model"] == "compartment"
     assert len(d["timecourse"]) == 96 and set(d["timecourse"][0]) == set(TIMECOURSE_COLUMNS)
-    for key in ("min_inspired_o2_pct", "lowest_safe_fd_o2_pct", "slowest_time_to_target_min",
-                "sevoflurane_low_flow_caution", "absorbent_g", "agent_vented_g"):
+    for key in (
+        "min_inspired_o2_pct",
+        "lowest_safe_fd_o2_pct",
+        "slowest_time_to_target_min",
+        "sevoflurane_low_flow_caution",
+        "absorbent_g",
+        "agent_vented_g",
+    ):
         assert key in d["totals"]
 
 
 def test_phase_rows_add_up_to_the_totals():
     r = compute_case(load_plan(DEMO / "hip_desflurane_n2o.toml"))
-    for total, column in (("co2e_total_kg", "co2e_kg"), ("cost_total", "cost_total"),
-                          ("absorbent_g", "absorbent_g"), ("agent_emitted_g", "agent_emitted_g"),
-                          ("liquid_agent_ml", "liquid_agent_ml")):
+    for total, column in (
+        ("co2e_total_kg", "co2e_kg"),
+        ("cost_total", "cost_total"),
+        ("absorbent_g", "absorbent_g"),
+        ("agent_emitted_g", "agent_emitted_g"),
+        ("liquid_agent_ml", "liquid_agent_ml"),
+    ):
         assert r.totals[total] == pytest.approx(float(r.phases[column].sum()), rel=1e-12), total
 
 
@@ -310,8 +387,13 @@ def test_sevoflurane_low_flow_caution():
 
 
 def test_lowe_model_is_selectable_from_the_plan_file():
-    text = (DEMO / "lap_chole_low_flow.toml").read_text().replace(
-        'inspired_o2_floor = "30 %"', 'inspired_o2_floor = "30 %"\nuptake_model = "lowe"\ncircle_volume = "4 L"')
+    text = (
+        (DEMO / "lap_chole_low_flow.toml")
+        .read_text()
+        .replace(
+            'inspired_o2_floor = "30 %"', 'inspired_o2_floor = "30 %"\nuptake_model = "lowe"\ncircle_volume = "4 L"'
+        )
+    )
     p = parse_plan_text(text)
     assert p.settings.uptake_model == "lowe" and p.settings.circle_volume_l == 4.0
     lowe = compute_case(p)
@@ -322,8 +404,11 @@ def test_lowe_model_is_selectable_from_the_plan_file():
 
 
 def test_bad_uptake_model_in_a_plan_exits_2(tmp_path, capsys):
-    text = (DEMO / "lap_chole_low_flow.toml").read_text().replace(
-        'inspired_o2_floor = "30 %"', 'inspired_o2_floor = "30 %"\nuptake_model = "guess"')
+    text = (
+        (DEMO / "lap_chole_low_flow.toml")
+        .read_text()
+        .replace('inspired_o2_floor = "30 %"', 'inspired_o2_floor = "30 %"\nuptake_model = "guess"')
+    )
     f = tmp_path / "bad.toml"
     f.write_text(text)
     assert main(["case", str(f)]) == 2
@@ -344,8 +429,15 @@ def test_target_plan_runs_from_the_command_line(tmp_path, capsys):
 def test_step_schedule_error_is_under_one_percent():
     for name in VOLATILES:
         agent = DEFAULT_REFERENCE.volatile(name)
-        args = (agent, [[10], [75], [10]], [[2], [0.3], [6]], [[4], [0.2], [0]], 0.0,
-                [[np.nan], [np.nan], [0]], [[1.0], [1.0], [np.nan]])
+        args = (
+            agent,
+            [[10], [75], [10]],
+            [[2], [0.3], [6]],
+            [[4], [0.2], [0]],
+            0.0,
+            [[np.nan], [np.nan], [0]],
+            [[1.0], [1.0], [np.nan]],
+        )
         coarse = simulate_cases(*args)
         fine = simulate_cases(*args, step_min=0.05, fine_min=1e9)
         for key in ("liquid_ml", "agent_uptake_l", "min_inspired_o2", "absorbent_g"):
@@ -357,8 +449,15 @@ def test_growing_steps_keep_day_long_phases_within_one_percent():
     # no outside source). Steps past the first minutes grow with the time into the phase.
     for name in ("sevoflurane", "isoflurane"):
         agent = DEFAULT_REFERENCE.volatile(name)
-        args = (agent, [[10, 10], [1440, 300]], [[2, 2], [0.3, 1.0]], [[4, 4], [0.2, 1.0]], 0.0,
-                [[np.nan, np.nan], [np.nan, 2.0]], [[1.0, 1.0], [1.0, np.nan]])
+        args = (
+            agent,
+            [[10, 10], [1440, 300]],
+            [[2, 2], [0.3, 1.0]],
+            [[4, 4], [0.2, 1.0]],
+            0.0,
+            [[np.nan, np.nan], [np.nan, 2.0]],
+            [[1.0, 1.0], [1.0, np.nan]],
+        )
         coarse = simulate_cases(*args)
         fine = simulate_cases(*args, step_min=0.1, fine_min=1e9)
         for key in ("liquid_ml", "agent_uptake_l", "min_inspired_o2", "absorbent_g"):

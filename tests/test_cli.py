@@ -37,11 +37,11 @@ dial = "{dial}"
 """
 
 
-def write_plan(tmp_path, name="plan.toml", agent="sevoflurane", settings="", duration="60 min",
-               o2="1 L/min", dial="2 %"):
+def write_plan(
+    tmp_path, name="plan.toml", agent="sevoflurane", settings="", duration="60 min", o2="1 L/min", dial="2 %"
+):
     path = tmp_path / name
-    path.write_text(PLAN.format(agent=agent, settings=settings, duration=duration, o2=o2, dial=dial),
-                    encoding="utf-8")
+    path.write_text(PLAN.format(agent=agent, settings=settings, duration=duration, o2=o2, dial=dial), encoding="utf-8")
     return path
 
 
@@ -70,27 +70,75 @@ def as_json(argv, capsys):
 def test_case_prints_a_readable_table(capsys):
     status, out, err = run(["case", LOW], capsys)
     assert status == 0 and err == ""
-    for text in ("Laparoscopic cholecystectomy, low flow", "induction", "maintenance", "emergence",
-                 "Liquid agent", "bottles", "CO2e (IPCC AR6 GWP100)", "Cost", "GBP", "MAC-hours",
-                 "not a prescription"):
+    for text in (
+        "Laparoscopic cholecystectomy, low flow",
+        "induction",
+        "maintenance",
+        "emergence",
+        "Liquid agent",
+        "bottles",
+        "CO2e (IPCC AR6 GWP100)",
+        "Cost",
+        "GBP",
+        "MAC-hours",
+        "not a prescription",
+    ):
         assert text in out, text
 
 
 TOTAL_KEYS = {
-    "duration_min", "liquid_agent_ml", "bottles", "agent_mass_g", "oxygen_l", "air_l",
-    "nitrous_oxide_l", "absorbent_g", "agent_emitted_g", "nitrous_oxide_emitted_g",
-    "co2e_agent_kg", "co2e_nitrous_oxide_kg", "co2e_total_kg", "cost_agent", "cost_oxygen",
-    "cost_air", "cost_nitrous_oxide", "cost_absorbent", "cost_total", "mac_hours", "min_fd_o2_pct",
+    "duration_min",
+    "liquid_agent_ml",
+    "bottles",
+    "agent_mass_g",
+    "oxygen_l",
+    "air_l",
+    "nitrous_oxide_l",
+    "absorbent_g",
+    "agent_emitted_g",
+    "nitrous_oxide_emitted_g",
+    "co2e_agent_kg",
+    "co2e_nitrous_oxide_kg",
+    "co2e_total_kg",
+    "cost_agent",
+    "cost_oxygen",
+    "cost_air",
+    "cost_nitrous_oxide",
+    "cost_absorbent",
+    "cost_total",
+    "mac_hours",
+    "min_fd_o2_pct",
 }
-PHASE_KEYS = {"phase", "duration_min", "o2_l_min", "air_l_min", "n2o_l_min", "fgf_l_min",
-              "flow_band", "fd_o2_pct", "dial_pct", "liquid_agent_ml", "co2e_kg", "mac_hours"}
+PHASE_KEYS = {
+    "phase",
+    "duration_min",
+    "o2_l_min",
+    "air_l_min",
+    "n2o_l_min",
+    "fgf_l_min",
+    "flow_band",
+    "fd_o2_pct",
+    "dial_pct",
+    "liquid_agent_ml",
+    "co2e_kg",
+    "mac_hours",
+}
 UNIT_SUFFIXES = ("_min", "_ml", "_g", "_l", "_kg", "_pct", "_l_min")
 
 
 def test_case_json_has_stable_keys_with_units(capsys):
     data = as_json(["case", LOW, "--json"], capsys)
-    assert {"plan", "agent", "currency", "gwp_source", "gwp_source_label", "totals", "phases",
-            "warnings", "caution"} <= set(data)
+    assert {
+        "plan",
+        "agent",
+        "currency",
+        "gwp_source",
+        "gwp_source_label",
+        "totals",
+        "phases",
+        "warnings",
+        "caution",
+    } <= set(data)
     assert TOTAL_KEYS <= set(data["totals"])
     for row in data["phases"]:
         assert PHASE_KEYS <= set(row)
@@ -111,11 +159,25 @@ def test_case_json_is_the_same_twice(capsys):
 def test_reference_prints_every_value_with_its_source(capsys):
     status, out, err = run(["reference"], capsys)
     assert status == 0 and err == ""
-    for text in ("Sevoflurane", "Desflurane", "Isoflurane", "Halothane", "Nitrous oxide",
-                 "molar mass", "liquid density", "MAC at age 40", "GWP, IPCC AR6 GWP100",
-                 "GWP, IPCC AR5 GWP100", "GWP, IPCC AR6 GWP20", "Sulbaek Andersen",
-                 "from memory", "common practice, no source", "invented example price",
-                 "IPCC AR6 WG1 (2021)", "Mapleson"):
+    for text in (
+        "Sevoflurane",
+        "Desflurane",
+        "Isoflurane",
+        "Halothane",
+        "Nitrous oxide",
+        "molar mass",
+        "liquid density",
+        "MAC at age 40",
+        "GWP, IPCC AR6 GWP100",
+        "GWP, IPCC AR5 GWP100",
+        "GWP, IPCC AR6 GWP20",
+        "Sulbaek Andersen",
+        "from memory",
+        "common practice, no source",
+        "invented example price",
+        "IPCC AR6 WG1 (2021)",
+        "Mapleson",
+    ):
         assert text in out, text
     assert "0.0002" in out  # small shares are not rounded to 0.00
 
@@ -134,7 +196,7 @@ def test_reference_json_rows_all_carry_a_source(capsys):
 def test_settings_price_override_changes_the_cost(capsys, tmp_path):
     base = as_json(["case", LOW, "--json"], capsys)["totals"]
     local = tmp_path / "local.toml"
-    local.write_text("[prices]\ncurrency = \"EUR\"\nbottle = { sevoflurane = 240.0 }\n", encoding="utf-8")
+    local.write_text('[prices]\ncurrency = "EUR"\nbottle = { sevoflurane = 240.0 }\n', encoding="utf-8")
     data = as_json(["--settings", local, "case", LOW, "--json"], capsys)
     assert data["currency"] == "EUR"
     assert data["totals"]["cost_agent"] == pytest.approx(base["cost_agent"] * 2)
@@ -177,8 +239,10 @@ def test_settings_from_environment(capsys, tmp_path, monkeypatch):
 
 def test_reference_shows_override_and_keeps_default(capsys, tmp_path):
     local = tmp_path / "local.toml"
-    local.write_text("[agents.sevoflurane]\nmac40 = 1.95\n[gwp.ar6_gwp100]\ndesflurane = 2000\n"
-                     "[prices]\noxygen_per_1000_l = 9.5\n", encoding="utf-8")
+    local.write_text(
+        "[agents.sevoflurane]\nmac40 = 1.95\n[gwp.ar6_gwp100]\ndesflurane = 2000\n[prices]\noxygen_per_1000_l = 9.5\n",
+        encoding="utf-8",
+    )
     rows = as_json(["--settings", local, "reference", "--json"], capsys)
     by_key = {(r["item"], r["field"]): r for r in rows}
     mac = by_key[("Sevoflurane", "MAC at age 40 in O2")]
@@ -203,10 +267,11 @@ BAD_PLANS = {
     "negative flow": (dict(o2="-1 L/min"), ["phases[1].o2", "-1 L/min", "allowed range is [0, 20] L/min"]),
     "absurd flow": (dict(o2="900 L/min"), ["phases[1].o2", "900 L/min", "allowed range is [0, 20] L/min"]),
     "dial above vaporizer": (dict(dial="9 %"), ["phases[1].dial", "9 %", "vaporizer goes up to 8 %"]),
-    "O2 share above 1": (dict(settings="min_o2_share = 1.5"),
-                         ["settings.min_o2_share", "1.5", "a share from 0 to 1"]),
-    "O2 floor above 100 %": (dict(settings='inspired_o2_floor = "150 %"'),
-                             ["settings.inspired_o2_floor", "150 %", "a share from 0 to 1"]),
+    "O2 share above 1": (dict(settings="min_o2_share = 1.5"), ["settings.min_o2_share", "1.5", "a share from 0 to 1"]),
+    "O2 floor above 100 %": (
+        dict(settings='inspired_o2_floor = "150 %"'),
+        ["settings.inspired_o2_floor", "150 %", "a share from 0 to 1"],
+    ),
     "wrong unit": (dict(o2="1 kg"), ["phases[1].o2", "1 kg", "convertible to L/min"]),
     "wrong unit of time": (dict(duration="60 kg"), ["phases[1].duration", "60 kg", "convertible to min"]),
     "unknown GWP source": (dict(settings='gwp_source = "ar7"'), ["settings.gwp_source", "ar7", "ar6_gwp100"]),
@@ -274,14 +339,17 @@ def test_unreadable_plan_exits_2(capsys, tmp_path, monkeypatch):
     assert_one_clear_line(status, out, err, ["plan file", "cannot be read (Permission denied)"])
 
 
-@pytest.mark.parametrize("content, parts", [
-    ("[prices\n", ["settings file", "(line 1, column 8)", "not valid TOML"]),
-    ("[colours]\nsky = 1\n", ["[colours]", "allowed tables are agents, gwp, prices"]),
-    ("[prices]\noxygen_per_1000_l = -3\n", ["prices.oxygen_per_1000_l", "-3", "must not be negative"]),
-    ("[agents.sevoflurane]\nmac40 = \"two\"\n", ["agents.sevoflurane.mac40", "two", "finite number"]),
-    ("[agents.xenon]\nmac40 = 70\n", ["agents.xenon", "xenon", "allowed agents"]),
-    ("[gwp.user]\nsevoflurane = -1\n", ["gwp.user.sevoflurane", "-1", "must not be negative"]),
-])
+@pytest.mark.parametrize(
+    "content, parts",
+    [
+        ("[prices\n", ["settings file", "(line 1, column 8)", "not valid TOML"]),
+        ("[colours]\nsky = 1\n", ["[colours]", "allowed tables are agents, gwp, prices"]),
+        ("[prices]\noxygen_per_1000_l = -3\n", ["prices.oxygen_per_1000_l", "-3", "must not be negative"]),
+        ('[agents.sevoflurane]\nmac40 = "two"\n', ["agents.sevoflurane.mac40", "two", "finite number"]),
+        ("[agents.xenon]\nmac40 = 70\n", ["agents.xenon", "xenon", "allowed agents"]),
+        ("[gwp.user]\nsevoflurane = -1\n", ["gwp.user.sevoflurane", "-1", "must not be negative"]),
+    ],
+)
 def test_bad_settings_file_exits_2(content, parts, capsys, tmp_path):
     local = tmp_path / "local.toml"
     local.write_text(content, encoding="utf-8")
@@ -294,12 +362,15 @@ def test_missing_settings_file_exits_2(capsys, tmp_path):
     assert_one_clear_line(status, out, err, ["settings file", "gone.toml", "no such file"])
 
 
-@pytest.mark.parametrize("argv, parts", [
-    (["case", LOW, "--bogus"], ["unrecognized arguments: --bogus", "--help"]),
-    (["frobnicate"], ["invalid choice: 'frobnicate'", "case", "reference"]),
-    (["case"], ["required: plan"]),
-    (["--settings"], ["--settings", "expected one argument"]),
-])
+@pytest.mark.parametrize(
+    "argv, parts",
+    [
+        (["case", LOW, "--bogus"], ["unrecognized arguments: --bogus", "--help"]),
+        (["frobnicate"], ["invalid choice: 'frobnicate'", "case", "reference"]),
+        (["case"], ["required: plan"]),
+        (["--settings"], ["--settings", "expected one argument"]),
+    ],
+)
 def test_bad_flag_exits_2_with_one_line(argv, parts, capsys):
     status, out, err = run(argv, capsys)
     assert_one_clear_line(status, out, err, parts)
@@ -323,15 +394,23 @@ def _env():
     return env
 
 
-@pytest.mark.parametrize("command", [[str(CONSOLE)], [sys.executable, "-m", "model"]],
-                         ids=["gas-ledger", "python -m model"])
+@pytest.mark.parametrize(
+    "command", [[str(CONSOLE)], [sys.executable, "-m", "model"]], ids=["gas-ledger", "python -m model"]
+)
 def test_console_commands_run_case_and_report_bad_input(command, tmp_path):
-    ok = subprocess.run(command + ["case", str(LOW), "--json"], capture_output=True, text=True,
-                        cwd=ROOT, env=_env(), timeout=120)
+    ok = subprocess.run(
+        command + ["case", str(LOW), "--json"], capture_output=True, text=True, cwd=ROOT, env=_env(), timeout=120
+    )
     assert ok.returncode == 0, ok.stderr
     assert json.loads(ok.stdout)["totals"]["liquid_agent_ml"] > 0
-    bad = subprocess.run(command + ["case", str(write_plan(tmp_path, o2="-2 L/min"))],
-                         capture_output=True, text=True, cwd=ROOT, env=_env(), timeout=120)
+    bad = subprocess.run(
+        command + ["case", str(write_plan(tmp_path, o2="-2 L/min"))],
+        capture_output=True,
+        text=True,
+        cwd=ROOT,
+        env=_env(),
+        timeout=120,
+    )
     assert bad.returncode == 2
     assert bad.stdout == ""
     assert len(bad.stderr.splitlines()) == 1 and "Traceback" not in bad.stderr
@@ -339,7 +418,6 @@ def test_console_commands_run_case_and_report_bad_input(command, tmp_path):
 
 
 def test_console_reference_prints_sources():
-    out = subprocess.run([str(CONSOLE), "reference"], capture_output=True, text=True, cwd=ROOT,
-                         env=_env(), timeout=120)
+    out = subprocess.run([str(CONSOLE), "reference"], capture_output=True, text=True, cwd=ROOT, env=_env(), timeout=120)
     assert out.returncode == 0
     assert "source" in out.stdout.splitlines()[0] and "IPCC AR6" in out.stdout

@@ -7,7 +7,6 @@ traceback or a silent wrong number instead of exit status 2 with one line.
 
 import glob
 import json
-import math
 import re
 import shlex
 from pathlib import Path
@@ -66,11 +65,20 @@ def test_readme_command_examples_exit_zero(command, capsys, monkeypatch):
     assert out.strip()
 
 
-@pytest.mark.parametrize("field, value", [
-    ("molar_mass", 0), ("liquid_density", 0), ("bottle_volume", 0), ("mac40", 0),
-    ("blood_gas", 0), ("vaporizer_max", 0), ("svp_20c", 0), ("metabolised_fraction", 2),
-    ("liquid_density", 1e9),
-])
+@pytest.mark.parametrize(
+    "field, value",
+    [
+        ("molar_mass", 0),
+        ("liquid_density", 0),
+        ("bottle_volume", 0),
+        ("mac40", 0),
+        ("blood_gas", 0),
+        ("vaporizer_max", 0),
+        ("svp_20c", 0),
+        ("metabolised_fraction", 2),
+        ("liquid_density", 1e9),
+    ],
+)
 def test_settings_agent_override_out_of_range_exits_2_naming_field(field, value, tmp_path, capsys):
     settings = tmp_path / "s.toml"
     settings.write_text(f"[agents.sevoflurane]\n{field} = {value}\n", encoding="utf-8")
@@ -93,8 +101,8 @@ BASELINE = ROOT / "demo_data" / "year" / "baseline_2l.toml"
 def scenario_with(tmp_path, extra):
     """The demo baseline scenario with `extra` TOML appended, its case mix beside it."""
     text = BASELINE.read_text(encoding="utf-8").replace(
-        'case_mix = "fernhollow_casemix.csv"',
-        f'case_mix = "{(BASELINE.parent / "fernhollow_casemix.csv").as_posix()}"')
+        'case_mix = "fernhollow_casemix.csv"', f'case_mix = "{(BASELINE.parent / "fernhollow_casemix.csv").as_posix()}"'
+    )
     path = tmp_path / "scenario.toml"
     path.write_text(text + "\n" + extra, encoding="utf-8")
     return path
@@ -125,9 +133,10 @@ def test_audit_bad_memory_limit_exits_2_naming_the_flag(size, capsys):
 
 def test_audit_json_of_elapsed_records_without_date_parses(tmp_path, capsys):
     records = tmp_path / "r.csv"
-    records.write_text("case_id,elapsed,agent,o2,air,dial\n"
-                       "A,0,sevoflurane,1,1,2\nA,4,sevoflurane,1,1,2\nA,5,sevoflurane,1,1,2\n",
-                       encoding="utf-8")
+    records.write_text(
+        "case_id,elapsed,agent,o2,air,dial\nA,0,sevoflurane,1,1,2\nA,4,sevoflurane,1,1,2\nA,5,sevoflurane,1,1,2\n",
+        encoding="utf-8",
+    )
     status, out, err = run(["audit", records, "--json"], capsys)
     assert status == 0, err
     data = json.loads(out, parse_constant=lambda c: pytest.fail(f"{c} in JSON"))
@@ -144,10 +153,19 @@ def test_audit_parquet_elapsed_duration_is_read_in_its_unit(unit, per_second, tm
     import pyarrow.parquet as pq
 
     path = tmp_path / "r.parquet"
-    pq.write_table(pa.table({
-        "case_id": ["A", "A"], "agent": ["sevoflurane"] * 2,
-        "elapsed": pa.array([0, 240 * per_second], type=pa.duration(unit)),
-        "o2": [1.0, 1.0], "air": [1.0, 1.0], "dial": [2.0, 2.0]}), path)
+    pq.write_table(
+        pa.table(
+            {
+                "case_id": ["A", "A"],
+                "agent": ["sevoflurane"] * 2,
+                "elapsed": pa.array([0, 240 * per_second], type=pa.duration(unit)),
+                "o2": [1.0, 1.0],
+                "air": [1.0, 1.0],
+                "dial": [2.0, 2.0],
+            }
+        ),
+        path,
+    )
     status, out, err = run(["audit", path, "--json"], capsys)
     assert status == 0, err
     data = json.loads(out)
@@ -159,8 +177,10 @@ def test_audit_parquet_elapsed_duration_is_read_in_its_unit(unit, per_second, tm
 def test_purchases_line_with_extra_fields_is_set_aside_not_shifted(tmp_path, capsys):
     # Issue 15: the line is set aside alone (it once refused the whole file).
     purchases = tmp_path / "p.csv"
-    purchases.write_text("month,item,quantity,unit,size\n2025-09,sevoflurane,9,bottle,,,\n"
-                         "2025-09,desflurane,2,bottle,\n", encoding="utf-8")
+    purchases.write_text(
+        "month,item,quantity,unit,size\n2025-09,sevoflurane,9,bottle,,,\n2025-09,desflurane,2,bottle,\n",
+        encoding="utf-8",
+    )
     status, out, err = run(["audit", BIRCH, "--purchases", purchases, "--json"], capsys)
     assert status == 0, err
     data = json.loads(out)
@@ -181,8 +201,11 @@ def test_audit_table_of_a_single_sample_case_prints_no_nan(tmp_path, capsys):
 
 def test_audit_units_line_giving_a_column_twice_exits_2(tmp_path, capsys):
     records = tmp_path / "r.csv"
-    records.write_text("# units: o2=mL/min, o2=L/min\ncase_id,elapsed,agent,o2,air,dial\n"
-                       "A,0,sevoflurane,1,1,2\nA,4,sevoflurane,1,1,2\n", encoding="utf-8")
+    records.write_text(
+        "# units: o2=mL/min, o2=L/min\ncase_id,elapsed,agent,o2,air,dial\n"
+        "A,0,sevoflurane,1,1,2\nA,4,sevoflurane,1,1,2\n",
+        encoding="utf-8",
+    )
     status, _, err = run(["audit", records], capsys)
     assert_one_line_error(status, err, "r.csv, line 1", "o2=L/min", "given twice")
 
@@ -211,9 +234,15 @@ def test_purchases_parquet_with_empty_size_and_date_month_is_read(tmp_path, caps
     import pandas as pd
 
     path = tmp_path / "p.parquet"
-    pd.DataFrame({"month": pd.to_datetime(["2025-09-01", "2025-09-15"]),
-                  "item": ["sevoflurane", "nitrous_oxide"], "quantity": [9, 1],
-                  "unit": ["bottle", "cylinder"], "size": [None, "9000 L"]}).to_parquet(path)
+    pd.DataFrame(
+        {
+            "month": pd.to_datetime(["2025-09-01", "2025-09-15"]),
+            "item": ["sevoflurane", "nitrous_oxide"],
+            "quantity": [9, 1],
+            "unit": ["bottle", "cylinder"],
+            "size": [None, "9000 L"],
+        }
+    ).to_parquet(path)
     status, out, err = run(["audit", BIRCH, "--purchases", path, "--json"], capsys)
     assert status == 0, err
     bought = {(r["item"], r["month"]): r["purchased"] for r in json.loads(out)["reconciliation"]}
@@ -232,12 +261,15 @@ def test_readme_plan_settings_scenario_and_purchases_examples_run(tmp_path, caps
     (tmp_path / "settings.toml").write_text(settings, encoding="utf-8")
     casemix = (BASELINE.parent / "fernhollow_casemix.csv").as_posix()
     (tmp_path / "scenario.toml").write_text(
-        scenario.replace('"fernhollow_casemix.csv"', f'"{casemix}"'), encoding="utf-8")
+        scenario.replace('"fernhollow_casemix.csv"', f'"{casemix}"'), encoding="utf-8"
+    )
     (tmp_path / "purchases.csv").write_text(readme_blocks("csv")[0], encoding="utf-8")
-    for argv in (["case", tmp_path / "plan.toml"],
-                 ["--settings", tmp_path / "settings.toml", "case", LOW],
-                 ["year", tmp_path / "scenario.toml", "--draws", "200"],
-                 ["audit", BIRCH, "--purchases", tmp_path / "purchases.csv"]):
+    for argv in (
+        ["case", tmp_path / "plan.toml"],
+        ["--settings", tmp_path / "settings.toml", "case", LOW],
+        ["year", tmp_path / "scenario.toml", "--draws", "200"],
+        ["audit", BIRCH, "--purchases", tmp_path / "purchases.csv"],
+    ):
         status, out, err = run(argv, capsys)
         assert status == 0, (argv, err)
         assert out.strip()
@@ -254,11 +286,14 @@ def test_year_gwp_source_without_an_agent_value_names_the_scenario_field(tmp_pat
     casemix.write_text(
         "case_type,cases_per_year,median_duration,sevoflurane,halothane,plan\n"
         f"Paediatric,10,45,0.5,0.5,{(BASELINE.parent / 'plans' / 'child_2l.toml').as_posix()}\n",
-        encoding="utf-8")
+        encoding="utf-8",
+    )
     scenario = tmp_path / "s.toml"
-    scenario.write_text(f'name = "t"\ncase_mix = "{casemix.as_posix()}"\n'
-                        '[uncertainty]\ndraws = 50\ngwp_sources = ["ar6_gwp100", "sulbaek_andersen_2012"]\n',
-                        encoding="utf-8")
+    scenario.write_text(
+        f'name = "t"\ncase_mix = "{casemix.as_posix()}"\n'
+        '[uncertainty]\ndraws = 50\ngwp_sources = ["ar6_gwp100", "sulbaek_andersen_2012"]\n',
+        encoding="utf-8",
+    )
     status, _, err = run(["year", scenario], capsys)
     assert_one_line_error(status, err, "s.toml: uncertainty.gwp_sources", "sulbaek_andersen_2012", "halothane")
 
@@ -269,8 +304,9 @@ def test_user_gwp_without_n2o_serves_plans_that_use_no_n2o(tmp_path, capsys):
     settings = tmp_path / "settings.toml"
     settings.write_text("[gwp.user]\nsevoflurane = 130.0\n", encoding="utf-8")
     plan = tmp_path / "plan.toml"
-    plan.write_text(LOW.read_text(encoding="utf-8").replace('gwp_source = "ar6_gwp100"', 'gwp_source = "user"'),
-                    encoding="utf-8")
+    plan.write_text(
+        LOW.read_text(encoding="utf-8").replace('gwp_source = "ar6_gwp100"', 'gwp_source = "user"'), encoding="utf-8"
+    )
     status, out, err = run(["--settings", settings, "case", plan, "--json"], capsys)
     assert status == 0, err
     t = json.loads(out)["totals"]
@@ -280,16 +316,20 @@ def test_user_gwp_without_n2o_serves_plans_that_use_no_n2o(tmp_path, capsys):
     status, out, err = run(["--settings", settings, "sweep", plan, "--json"], capsys)
     assert status == 0, err
     with_n2o = tmp_path / "n2o.toml"
-    with_n2o.write_text(plan.read_text(encoding="utf-8").replace('air = "0.2 L/min"', 'n2o = "0.2 L/min"'),
-                        encoding="utf-8")
+    with_n2o.write_text(
+        plan.read_text(encoding="utf-8").replace('air = "0.2 L/min"', 'n2o = "0.2 L/min"'), encoding="utf-8"
+    )
     status, out, err = run(["--settings", settings, "case", with_n2o], capsys)
     assert_one_line_error(status, err, "nitrous_oxide", "gwp.user")
 
 
 def test_audit_sets_a_bad_purchase_line_aside_and_reconciles_the_rest(tmp_path, capsys):
     purchases = tmp_path / "p.csv"
-    purchases.write_text("month,item,quantity,unit,size\n2025-09,sevoflurane,9,bottle,\n"
-                         "2025-09,sevoflurane,nine,bottle,\n2025-09,isoflurane,1,bottle,\n", encoding="utf-8")
+    purchases.write_text(
+        "month,item,quantity,unit,size\n2025-09,sevoflurane,9,bottle,\n"
+        "2025-09,sevoflurane,nine,bottle,\n2025-09,isoflurane,1,bottle,\n",
+        encoding="utf-8",
+    )
     status, out, err = run(["audit", BIRCH, "--purchases", purchases], capsys)
     assert status == 0, err
     assert "1 purchase line(s) set aside" in out and f"{purchases}, line 3: quantity" in out

@@ -15,7 +15,9 @@ def test_case_text_shows_inspired_o2_absorbent_uptake_and_safe_o2_share(capsys):
     out = capsys.readouterr().out
     t = compute_case(load_plan(path)).totals
     lines = {line.split("  ")[0]: line for line in out.splitlines() if "  " in line}
-    assert f"{t['min_inspired_o2_pct']:.0f} % at {t['min_inspired_o2_time_min']:.0f} min" in lines["Inspired O2, lowest"]
+    assert (
+        f"{t['min_inspired_o2_pct']:.0f} % at {t['min_inspired_o2_time_min']:.0f} min" in lines["Inspired O2, lowest"]
+    )
     assert f"(floor {t['inspired_o2_floor_pct']:.0f} %)" in lines["Inspired O2, lowest"]
     assert f"{t['absorbent_g']:.0f} g ({t['co2_absorbed_l']:.1f} L CO2 absorbed)" in lines["Absorbent"]
     assert f"{t['agent_uptake_g']:.1f} g by the patient" in lines["Agent taken up"]

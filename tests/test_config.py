@@ -54,8 +54,7 @@ def test_users_see_no_tracebacks_or_outside_links(config):
 def test_streamlit_reads_every_setting_from_the_shipped_file(config):
     # Source: Streamlit's own configuration loader (streamlit.config), run from the project
     # folder as `streamlit run` is: each key must be an option it knows, with our value.
-    flat = {f"{section}.{key}": value for section, table in config.items()
-            for key, value in table.items()}
+    flat = {f"{section}.{key}": value for section, table in config.items() for key, value in table.items()}
     code = (
         "import json, sys\n"
         "from streamlit import config\n"
@@ -67,8 +66,14 @@ def test_streamlit_reads_every_setting_from_the_shipped_file(config):
         "       for k in keys}\n"
         "print(json.dumps(out))\n"
     )
-    done = subprocess.run([sys.executable, "-c", code, json.dumps(sorted(flat))], cwd=ROOT,
-                          capture_output=True, text=True, timeout=120, check=True)
+    done = subprocess.run(
+        [sys.executable, "-c", code, json.dumps(sorted(flat))],
+        cwd=ROOT,
+        capture_output=True,
+        text=True,
+        timeout=120,
+        check=True,
+    )
     seen = json.loads(done.stdout.strip().splitlines()[-1])
     for key, value in flat.items():
         known, actual, where = seen[key]
@@ -86,25 +91,28 @@ def test_upload_guard_uses_the_configured_limit(config):
 def _luminance(hex_colour: str) -> float:
     # Source: W3C, Web Content Accessibility Guidelines 2.1, definition of relative luminance.
     h = hex_colour.lstrip("#")
-    lin = [(c / 12.92 if c <= 0.04045 else ((c + 0.055) / 1.055) ** 2.4)
-           for c in (int(h[i:i + 2], 16) / 255 for i in (0, 2, 4))]
+    lin = [
+        (c / 12.92 if c <= 0.04045 else ((c + 0.055) / 1.055) ** 2.4)
+        for c in (int(h[i : i + 2], 16) / 255 for i in (0, 2, 4))
+    ]
     return 0.2126 * lin[0] + 0.7152 * lin[1] + 0.0722 * lin[2]
 
 
 def _hue(hex_colour: str) -> float:
     import colorsys
+
     h = hex_colour.lstrip("#")
-    r, g, b = (int(h[i:i + 2], 16) / 255 for i in (0, 2, 4))
+    r, g, b = (int(h[i : i + 2], 16) / 255 for i in (0, 2, 4))
     return colorsys.rgb_to_hls(r, g, b)[0] * 360
 
 
 def test_theme_is_calm_and_our_own_with_red_kept_for_danger(config):
     """Defect 17 of issue 12: the stock red primary colour made buttons read as danger."""
-    from ui.palette import DANGER, PALETTE, PRIMARY, TEXT
+    from model.present.palette import DANGER, PALETTE, PRIMARY, TEXT
 
     theme = config["theme"]
     assert theme["base"] == "light"
-    # The accent is the house colour, the same in the charts (model/charts/palette.py, re-exported as ui.palette).
+    # The accent is the house colour, the same in the charts (model/present/palette.py, re-exported as model.present.palette).
     assert theme["primaryColor"].lower() == PRIMARY.lower()
     assert theme["textColor"].lower() == TEXT.lower()
     assert [c.lower() for c in theme["chartCategoricalColors"]] == [c.lower() for c in PALETTE]

@@ -1,5 +1,6 @@
 """The documentation site (docs/, mkdocs.yml): it builds in strict mode, works offline, and its
-API pages list exactly each public package's ``__all__``."""
+API pages list exactly each public package's ``__all__``.
+"""
 
 import importlib
 import os
@@ -12,9 +13,16 @@ import pytest
 
 ROOT = Path(__file__).resolve().parents[1]
 DOCS = ROOT / "docs"
-API_PAGES = {"model": "model.md", "model.io": "io.md", "model.year": "year.md", "model.audit": "audit.md",
-             "model.report": "report.md", "model.charts": "charts.md",
-             "model.store": "store.md", "model.cli": "cli.md"}
+API_PAGES = {
+    "model": "model.md",
+    "model.io": "io.md",
+    "model.year": "year.md",
+    "model.audit": "audit.md",
+    "model.report": "report.md",
+    "model.present": "present.md",
+    "model.store": "store.md",
+    "model.cli": "cli.md",
+}
 
 
 def api_entries(page: Path) -> list[str]:
@@ -39,6 +47,7 @@ def test_every_api_page_is_in_the_navigation():
 
 def test_methods_gwp_table_matches_the_reference_data():
     from model.reference import GWP_SOURCES
+
     text = (DOCS / "methods.md").read_text(encoding="utf-8")
     table = text.split("| agent | AR6 GWP100 | AR6 GWP20 | AR5 GWP100 | Sulbaek Andersen 2012 |", 1)[1]
     rows = {}
@@ -65,8 +74,14 @@ def test_readme_points_at_pages_that_exist():
 def test_site_builds_in_strict_mode_and_loads_nothing_from_the_network(tmp_path):
     site = tmp_path / "site"
     env = dict(os.environ, PYTHONPATH=str(ROOT), NO_MKDOCS_2_WARNING="1")
-    proc = subprocess.run([sys.executable, "-m", "mkdocs", "build", "--strict", "-d", str(site)], cwd=ROOT,
-                          env=env, capture_output=True, text=True, timeout=600)
+    proc = subprocess.run(
+        [sys.executable, "-m", "mkdocs", "build", "--strict", "-d", str(site)],
+        cwd=ROOT,
+        env=env,
+        capture_output=True,
+        text=True,
+        timeout=600,
+    )
     assert proc.returncode == 0, proc.stdout + proc.stderr
     pages = {p.relative_to(site).as_posix() for p in site.rglob("*.html")}
     assert {"index.html", "guide.html", "formats.html", "methods.html", "validation.html"} <= pages

@@ -11,23 +11,32 @@ import openpyxl
 import pandas as pd
 import plotly.graph_objects as go
 import pytest
-from hypothesis import given, strategies as st
+from hypothesis import given
+from hypothesis import strategies as st
 
 from model import compute_case, load_plan
-from model.io.exports import FORMULA_STARTS, chart_text, html_report, neutralise, to_csv, to_xlsx
+from model.present.exports import FORMULA_STARTS, chart_text, html_report, neutralise, to_csv, to_xlsx
 
 DEMO = Path(__file__).resolve().parents[1] / "demo_data" / "plans"
 
 # Cell texts a spreadsheet program would run as formulas (OWASP "CSV injection" examples,
 # common practice, no source).
-HOSTILE = ["=HYPERLINK(\"http://example.invalid\",\"x\")", "+1+1", "-2+3", "@SUM(A1:A2)",
-           "\tindented", "\rreturn", "=cmd|' /C calc'!A0"]
+HOSTILE = [
+    '=HYPERLINK("http://example.invalid","x")',
+    "+1+1",
+    "-2+3",
+    "@SUM(A1:A2)",
+    "\tindented",
+    "\rreturn",
+    "=cmd|' /C calc'!A0",
+]
 HOSTILE_HTML = "<script>alert('plan')</script><img src=x onerror=alert(1)>"
 
 
 def frame():
-    return pd.DataFrame({"phase": HOSTILE, "liquid_ml": [1.5, -2.25, 0.0, 3.0, -4.0, 5.0, 6.0],
-                         "count": [1, -2, 3, 4, 5, 6, 7]})
+    return pd.DataFrame(
+        {"phase": HOSTILE, "liquid_ml": [1.5, -2.25, 0.0, 3.0, -4.0, 5.0, 6.0], "count": [1, -2, 3, 4, 5, 6, 7]}
+    )
 
 
 def test_csv_text_cells_neutralised_numbers_kept():
@@ -68,6 +77,7 @@ def test_neutralise_leaves_non_text_unchanged(value):
 def test_exports_of_a_plan_with_hostile_names():
     plan = load_plan(DEMO / "lap_chole_low_flow.toml")
     from dataclasses import replace
+
     plan = replace(plan, name="=HYPERLINK(1)", phases=tuple(replace(p, name="@" + p.name) for p in plan.phases))
     result = compute_case(plan)
     table = result.phases.assign(plan=plan.name)
@@ -83,10 +93,15 @@ def test_exports_of_a_plan_with_hostile_names():
 
 def test_html_report_escapes_user_text_and_is_self_contained():
     fig = go.Figure(go.Bar(x=[chart_text(HOSTILE_HTML)], y=[1]), layout_title_text=chart_text(HOSTILE_HTML))
-    doc = html_report(HOSTILE_HTML, inputs={"plan name": HOSTILE_HTML},
-                      tables={HOSTILE_HTML: pd.DataFrame({"phase": [HOSTILE_HTML], "x": [1.0]})},
-                      figures=[(HOSTILE_HTML, fig)], warnings=[HOSTILE_HTML], cautions=["Caution text"],
-                      sources=pd.DataFrame({"source": [HOSTILE_HTML]}))
+    doc = html_report(
+        HOSTILE_HTML,
+        inputs={"plan name": HOSTILE_HTML},
+        tables={HOSTILE_HTML: pd.DataFrame({"phase": [HOSTILE_HTML], "x": [1.0]})},
+        figures=[(HOSTILE_HTML, fig)],
+        warnings=[HOSTILE_HTML],
+        cautions=["Caution text"],
+        sources=pd.DataFrame({"source": [HOSTILE_HTML]}),
+    )
     assert "<script>alert" not in doc and "<img src=x" not in doc
     assert "&lt;script&gt;alert(&#x27;plan&#x27;)&lt;/script&gt;" in doc
     # Nothing is fetched when the report opens: no external scripts, styles or images.

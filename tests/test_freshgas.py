@@ -80,21 +80,35 @@ def test_full_o2_share_allows_no_n2o_in_both_behaviours():
         assert o2 == pytest.approx(1.0) and n2o == 0.0 and bool(altered)
 
 
-@pytest.mark.parametrize("kwargs, match", [
-    ({"behaviour": "shout"}, "cap_n2o"),
-    ({"min_o2_share": 0.0}, "min_o2_share"),
-    ({"min_o2_share": 1.5}, "min_o2_share"),
-])
+@pytest.mark.parametrize(
+    "kwargs, match",
+    [
+        ({"behaviour": "shout"}, "cap_n2o"),
+        ({"min_o2_share": 0.0}, "min_o2_share"),
+        ({"min_o2_share": 1.5}, "min_o2_share"),
+    ],
+)
 def test_bad_ratio_arguments_name_what_is_allowed(kwargs, match):
     with pytest.raises(ValueError, match=match):
         apply_ratio_limit(1.0, 1.0, **kwargs)
 
 
-@pytest.mark.parametrize("fgf, band", [
-    (0.2, "metabolic"), (0.25, "metabolic"), (0.3, "minimal"), (0.5, "minimal"),
-    (0.75, "low"), (1.0, "low"), (1.5, "medium"), (2.0, "medium"), (3.0, "high"),
-    (4.0, "high"), (6.0, "very high"),
-])
+@pytest.mark.parametrize(
+    "fgf, band",
+    [
+        (0.2, "metabolic"),
+        (0.25, "metabolic"),
+        (0.3, "minimal"),
+        (0.5, "minimal"),
+        (0.75, "low"),
+        (1.0, "low"),
+        (1.5, "medium"),
+        (2.0, "medium"),
+        (3.0, "high"),
+        (4.0, "high"),
+        (6.0, "very high"),
+    ],
+)
 def test_flow_bands_follow_baker(fgf, band):
     # Source: Baker AB, Anaesth Intensive Care 1994;22:341-2 (metabolic ~0.25, minimal
     # 0.25-0.5, low 0.5-1, medium 1-2, high 2-4, very high above 4 L/min).

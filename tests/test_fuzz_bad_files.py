@@ -16,14 +16,13 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from fuzzing import FUZZ, SLOW, scratch, store_refused_untouched_or_works  # noqa: F401  (scratch: fixture)
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from model.audit.engine import audit_records
-from model.errors import InputError
+from model.base.errors import InputError
 from model.io import purchases
-
-from fuzzing import FUZZ, SLOW, scratch, store_refused_untouched_or_works  # noqa: F401  (scratch: fixture)
 
 ROOT = Path(__file__).resolve().parents[1]
 
@@ -58,21 +57,46 @@ def _arrow_column(kind: str, n: int):
     }[kind]()
 
 
-PARQUET_KINDS = ["list<double>", "large_list<double>", "fixed_size_list", "list<list<double>>", "struct",
-                 "map", "dictionary", "binary", "bool", "int8", "uint64", "decimal", "float32", "time",
-                 "duration", "timestamp", "date", "null", "string"]
+PARQUET_KINDS = [
+    "list<double>",
+    "large_list<double>",
+    "fixed_size_list",
+    "list<list<double>>",
+    "struct",
+    "map",
+    "dictionary",
+    "binary",
+    "bool",
+    "int8",
+    "uint64",
+    "decimal",
+    "float32",
+    "time",
+    "duration",
+    "timestamp",
+    "date",
+    "null",
+    "string",
+]
 
 
 @settings(SLOW, max_examples=60)
-@given(column=st.sampled_from(["case_id", "elapsed", "time", "agent", "o2", "air", "dial", "end_tidal"]),
-       kind=st.sampled_from(PARQUET_KINDS))
+@given(
+    column=st.sampled_from(["case_id", "elapsed", "time", "agent", "o2", "air", "dial", "end_tidal"]),
+    kind=st.sampled_from(PARQUET_KINDS),
+)
 def test_parquet_column_of_any_type_gives_report_or_input_error(column, kind, scratch):
     import pyarrow as pa
     import pyarrow.parquet as pq
 
     n = 12
-    cols = {"case_id": pa.array(["A"] * 6 + ["B"] * 6), "elapsed": pa.array([float(i % 6) for i in range(n)]),
-            "agent": pa.array(["sevoflurane"] * n), "o2": pa.array([1.0] * n), "dial": pa.array([2.0] * n)}
+    cols = {
+        "case_id": pa.array(["A"] * 6 + ["B"] * 6),
+        "elapsed": pa.array([float(i % 6) for i in range(n)]),
+        "agent": pa.array(["sevoflurane"] * n),
+        "o2": pa.array([1.0] * n),
+        "dial": pa.array([2.0] * n),
+    }
     if column == "time":
         cols.pop("elapsed")
     cols[column] = _arrow_column(kind, n)
@@ -93,30 +117,40 @@ def small_parquet(scratch):
 
     n = 3000
     t = np.arange(n) % 100
-    table = pa.table({"case_id": [f"C{i // 100}" for i in range(n)], "elapsed": t.astype(float),
-                      "agent": ["sevoflurane"] * n, "o2": np.full(n, 1.0), "air": np.linspace(0, 2, n),
-                      "dial": np.full(n, 2.0)})
+    table = pa.table(
+        {
+            "case_id": [f"C{i // 100}" for i in range(n)],
+            "elapsed": t.astype(float),
+            "agent": ["sevoflurane"] * n,
+            "o2": np.full(n, 1.0),
+            "air": np.linspace(0, 2, n),
+            "dial": np.full(n, 2.0),
+        }
+    )
     paths = {}
     for compression in ("snappy", "zstd", "gzip", "none"):
         p = scratch / f"small_{compression}.parquet"
-        pq.write_table(table, p, compression=compression, row_group_size=700,
-                       use_dictionary=compression != "none")
+        pq.write_table(table, p, compression=compression, row_group_size=700, use_dictionary=compression != "none")
         paths[compression] = p
     return paths
 
 
 @settings(SLOW, max_examples=60)
-@given(compression=st.sampled_from(["snappy", "zstd", "gzip", "none"]), where=st.floats(0, 1),
-       junk=st.binary(min_size=1, max_size=64))
-def test_damaged_parquet_pages_give_report_or_one_message_naming_the_file(compression, where, junk,
-                                                                          small_parquet, scratch):
+@given(
+    compression=st.sampled_from(["snappy", "zstd", "gzip", "none"]),
+    where=st.floats(0, 1),
+    junk=st.binary(min_size=1, max_size=64),
+)
+def test_damaged_parquet_pages_give_report_or_one_message_naming_the_file(
+    compression, where, junk, small_parquet, scratch
+):
     good = small_parquet[compression].read_bytes()
     footer = int.from_bytes(good[-8:-4], "little")
     data_end = len(good) - 8 - footer  # the footer stays intact: only pages are damaged
     pos = 4 + int(where * (data_end - 4 - len(junk)))
-    damaged = good[:pos] + junk + good[pos + len(junk):]
+    damaged = good[:pos] + junk + good[pos + len(junk) :]
     path = scratch / "damaged_pages.parquet"
-    path.write_bytes(damaged[:len(good)])
+    path.write_bytes(damaged[: len(good)])
     try:
         audit_records([small_parquet["snappy"], path], threads=1)
     except InputError as exc:
@@ -144,19 +178,25 @@ def deep_toml(draw):
 @settings(FUZZ, max_examples=300)
 @given(deep=deep_toml(), kind=st.sampled_from(["plan", "settings", "scenario"]), before=st.booleans())
 def test_deep_toml_gives_the_same_verdict_on_the_pages_and_the_command_line(deep, kind, before, tmp_path_factory):
-    from model.files import MAX_TOML_DEPTH
+    from model.base.files import MAX_TOML_DEPTH
     from model.io.plans import parse_plan_text
     from model.io.scenario import parse_scenario_text
     from model.io.uploads import check_upload
     from model.reference import Reference
 
     text, levels = deep
-    demo = {"plan": ROOT / "demo_data" / "plans" / "lap_chole_low_flow.toml",
-            "scenario": ROOT / "demo_data" / "year" / "baseline_2l.toml", "settings": None}[kind]
-    full = ((demo.read_text() + "\n") if demo else "") + text if before else text + (
-        ("\n" + demo.read_text()) if demo else "")
+    demo = {
+        "plan": ROOT / "demo_data" / "plans" / "lap_chole_low_flow.toml",
+        "scenario": ROOT / "demo_data" / "year" / "baseline_2l.toml",
+        "settings": None,
+    }[kind]
+    full = (
+        ((demo.read_text() + "\n") if demo else "") + text
+        if before
+        else text + (("\n" + demo.read_text()) if demo else "")
+    )
     try:
-        check_upload(f"x.toml", full.encode(), kind)
+        check_upload("x.toml", full.encode(), kind)
         page = "ok"
     except InputError as exc:
         if "characters" in str(exc):
@@ -168,7 +208,7 @@ def test_deep_toml_gives_the_same_verdict_on_the_pages_and_the_command_line(deep
         elif kind == "scenario":
             parse_scenario_text(full, "x.toml", demo.parent)
         else:
-            from model.files import parse_toml
+            from model.base.files import parse_toml
 
             Reference().with_overrides(parse_toml(full, "x.toml", "settings"), "x.toml")
         cli = "ok"
@@ -186,15 +226,31 @@ def test_deep_toml_gives_the_same_verdict_on_the_pages_and_the_command_line(deep
 _NAMES = st.one_of(
     st.integers(250, 5000).map(lambda n: "n" * n),
     st.integers(1, 60).map(lambda n: "/".join(["d" * 250] * n)),
-    st.sampled_from(["a\x00b", "/proc/self/mem/x", "/dev/null", "/", ".", "..", "~nobody/x",
-                     "/root/../../etc/passwd/x", "\u202e.toml", "C:\\x\\y", "nonexistent/file"]),
+    st.sampled_from(
+        [
+            "a\x00b",
+            "/proc/self/mem/x",
+            "/dev/null",
+            "/",
+            ".",
+            "..",
+            "~nobody/x",
+            "/root/../../etc/passwd/x",
+            "\u202e.toml",
+            "C:\\x\\y",
+            "nonexistent/file",
+        ]
+    ),
     st.text(min_size=1, max_size=300),
 )
 
 
 @settings(FUZZ, max_examples=800)
-@given(name=_NAMES, suffix=st.sampled_from([".toml", ".csv", ".parquet", ""]),
-       reader=st.sampled_from(["plan", "scenario", "casemix", "records", "purchases", "settings"]))
+@given(
+    name=_NAMES,
+    suffix=st.sampled_from([".toml", ".csv", ".parquet", ""]),
+    reader=st.sampled_from(["plan", "scenario", "casemix", "records", "purchases", "settings"]),
+)
 def test_long_and_impossible_file_names_give_input_error(name, suffix, reader):
     from model.io.casemix import load_casemix
     from model.io.plans import load_plan
@@ -202,8 +258,14 @@ def test_long_and_impossible_file_names_give_input_error(name, suffix, reader):
     from model.io.scenario import load_scenario
     from model.reference import load_settings
 
-    call = {"plan": load_plan, "scenario": load_scenario, "casemix": load_casemix,
-            "records": inspect_file, "purchases": purchases.load_purchases, "settings": load_settings}[reader]
+    call = {
+        "plan": load_plan,
+        "scenario": load_scenario,
+        "casemix": load_casemix,
+        "records": inspect_file,
+        "purchases": purchases.load_purchases,
+        "settings": load_settings,
+    }[reader]
     try:
         call(name + suffix)
     except InputError as exc:
@@ -217,7 +279,8 @@ def test_case_mix_plan_cell_with_any_name_gives_input_error(name):
 
     out = io.StringIO()
     csv.writer(out, lineterminator="\n").writerows(
-        [["case_type", "cases_per_year", "median_duration", "sevoflurane", "plan"], ["t", "10", "90", "1", name]])
+        [["case_type", "cases_per_year", "median_duration", "sevoflurane", "plan"], ["t", "10", "90", "1", name]]
+    )
     with pytest.raises(InputError):
         parse_casemix_text(out.getvalue(), str(ROOT / "demo_data" / "year" / "fuzz.csv"))
 
@@ -240,32 +303,62 @@ def good_store(scratch):
 
 
 @settings(SLOW, max_examples=100)
-@given(how=st.sampled_from(["junk", "truncate", "zero_page"]), where=st.floats(0, 1),
-       junk=st.binary(min_size=1, max_size=200))
+@given(
+    how=st.sampled_from(["junk", "truncate", "zero_page"]),
+    where=st.floats(0, 1),
+    junk=st.binary(min_size=1, max_size=200),
+)
 def test_damaged_store_is_refused_untouched_or_works(how, where, junk, good_store, scratch):
     folder = Path(tempfile.mkdtemp(dir=scratch))
     path = folder / "store.sqlite3"
     pos = int(where * (len(good_store) - 1))
     if how == "junk":
-        data = good_store[:pos] + junk + good_store[pos + len(junk):]
+        data = good_store[:pos] + junk + good_store[pos + len(junk) :]
     elif how == "truncate":
         data = good_store[:pos]
     else:
         page = 4096
         start = pos // page * page
-        data = good_store[:start] + b"\x00" * page + good_store[start + page:]
+        data = good_store[:start] + b"\x00" * page + good_store[start + page :]
     path.write_bytes(data)
     store_refused_untouched_or_works(path)
 
 
 @settings(SLOW, max_examples=100)
-@given(tables=st.lists(st.tuples(st.sampled_from(["meta", "items", "versions", "plans", "x", "Meta", "items2"]),
-                                 st.lists(st.sampled_from(["key", "value", "k", "v", "id", "kind", "name",
-                                                           "created_at", "hidden_at", "item_id", "version",
-                                                           "body", "note", "saved_at", "toml"]),
-                                          min_size=1, max_size=6, unique=True)),
-                       max_size=4, unique_by=lambda t: t[0].lower()),
-       version=st.sampled_from(["1", "2", "3", "0", "-1", "x", "", "2.0", None]))
+@given(
+    tables=st.lists(
+        st.tuples(
+            st.sampled_from(["meta", "items", "versions", "plans", "x", "Meta", "items2"]),
+            st.lists(
+                st.sampled_from(
+                    [
+                        "key",
+                        "value",
+                        "k",
+                        "v",
+                        "id",
+                        "kind",
+                        "name",
+                        "created_at",
+                        "hidden_at",
+                        "item_id",
+                        "version",
+                        "body",
+                        "note",
+                        "saved_at",
+                        "toml",
+                    ]
+                ),
+                min_size=1,
+                max_size=6,
+                unique=True,
+            ),
+        ),
+        max_size=4,
+        unique_by=lambda t: t[0].lower(),
+    ),
+    version=st.sampled_from(["1", "2", "3", "0", "-1", "x", "", "2.0", None]),
+)
 def test_foreign_store_layouts_are_refused_untouched_or_work(tables, version, scratch):
     folder = Path(tempfile.mkdtemp(dir=scratch))
     path = folder / "store.sqlite3"

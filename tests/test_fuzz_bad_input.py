@@ -12,21 +12,19 @@ aside under its own line number. The file-level classes are in ``test_fuzz_bad_f
 from __future__ import annotations
 
 import csv
-import io
 import math
 from pathlib import Path
 
 import numpy as np
 import pytest
+from fuzzing import FUZZ, SLOW, scratch  # noqa: F401  (scratch: fixture)
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from model.audit.engine import audit_records
-from model.errors import InputError
+from model.base.errors import InputError
 from model.io import purchases
 from model.io.csv_lines import split_csv_lines
-
-from fuzzing import FUZZ, SLOW, scratch  # noqa: F401  (scratch: fixture)
 
 ROOT = Path(__file__).resolve().parents[1]
 
@@ -37,8 +35,9 @@ ROOT = Path(__file__).resolve().parents[1]
 @st.composite
 def bad_line(draw, good: str, n_fields: int):
     """A line that must be set aside: built from a good line by one of the classes."""
-    how = draw(st.sampled_from(["unclosed_quote", "lone_cr", "cr_ending", "trailing", "extra",
-                                "missing", "nul", "not_utf8"]))
+    how = draw(
+        st.sampled_from(["unclosed_quote", "lone_cr", "cr_ending", "trailing", "extra", "missing", "nul", "not_utf8"])
+    )
     cells = good.split(",")
     i = draw(st.integers(0, n_fields - 1))
     if how == "unclosed_quote":
@@ -72,8 +71,12 @@ def _lines_file(header: bytes, lines: list[bytes], crlf: bool, final_break: bool
 
 
 @FUZZ
-@given(data=st.binary(max_size=400), extra=st.lists(st.sampled_from(
-    [b'"', b",", b"\r", b"\n", b"\r\n", b"a", b" ", b"#", b'""', b"\xef\xbb\xbf"]), max_size=40))
+@given(
+    data=st.binary(max_size=400),
+    extra=st.lists(
+        st.sampled_from([b'"', b",", b"\r", b"\n", b"\r\n", b"a", b" ", b"#", b'""', b"\xef\xbb\xbf"]), max_size=40
+    ),
+)
 def test_line_splitter_agrees_with_the_csv_module_on_every_clean_line(data, extra):
     raw = data + b"".join(extra)
     lines = split_csv_lines(raw)
@@ -83,7 +86,7 @@ def test_line_splitter_agrees_with_the_csv_module_on_every_clean_line(data, extr
     for i in range(len(lines)):
         if lines.broken[i]:
             continue
-        chunk = raw[lines.starts[i]:lines.ends[i]].decode("latin-1")
+        chunk = raw[lines.starts[i] : lines.ends[i]].decode("latin-1")
         # A clean, well-formed line is one record of that many fields (RFC 4180 grammar).
         expected = _rfc4180_fields(chunk)
         if expected is not None:
@@ -142,8 +145,9 @@ def clean_record_totals(scratch):
 
 @settings(SLOW, max_examples=60)
 @given(data=st.data(), crlf=st.booleans(), final_break=st.booleans())
-def test_bad_record_lines_are_set_aside_alone_and_every_good_line_used(data, crlf, final_break,
-                                                                       scratch, clean_record_totals):
+def test_bad_record_lines_are_set_aside_alone_and_every_good_line_used(
+    data, crlf, final_break, scratch, clean_record_totals
+):
     n_bad = data.draw(st.integers(1, 4))
     lines = [g.encode() for g in RECORD_GOOD]
     where = sorted(data.draw(st.lists(st.integers(0, len(lines)), min_size=n_bad, max_size=n_bad)))
@@ -162,12 +166,16 @@ def test_bad_record_lines_are_set_aside_alone_and_every_good_line_used(data, crl
 
 
 PURCHASE_HEADER = b"month,item,quantity,unit,size"
-PURCHASE_GOOD = [f"2025-{m:02d},{item},{q},{unit},{size}"
-                 for m in range(1, 13)
-                 for item, q, unit, size in (("sevoflurane", m, "bottle", ""),
-                                             ("desflurane", 1 + m % 3, "bottle", "240 mL"),
-                                             ("nitrous_oxide", 2, "cylinder", "9000 L"),
-                                             ("oxygen", 10 + m, "m**3", ""))]
+PURCHASE_GOOD = [
+    f"2025-{m:02d},{item},{q},{unit},{size}"
+    for m in range(1, 13)
+    for item, q, unit, size in (
+        ("sevoflurane", m, "bottle", ""),
+        ("desflurane", 1 + m % 3, "bottle", "240 mL"),
+        ("nitrous_oxide", 2, "cylinder", "9000 L"),
+        ("oxygen", 10 + m, "m**3", ""),
+    )
+]
 
 
 def _bought(read):
@@ -182,10 +190,15 @@ def clean_purchases(scratch):
 
 
 @settings(FUZZ, max_examples=300)
-@given(data=st.data(), crlf=st.booleans(), final_break=st.booleans(),
-       comments=st.lists(st.sampled_from([b"# note", b"   # indented", b"\t#", b"", b"   "]), max_size=3))
-def test_bad_purchase_lines_are_set_aside_alone_and_every_good_line_used(data, crlf, final_break, comments,
-                                                                         scratch, clean_purchases):
+@given(
+    data=st.data(),
+    crlf=st.booleans(),
+    final_break=st.booleans(),
+    comments=st.lists(st.sampled_from([b"# note", b"   # indented", b"\t#", b"", b"   "]), max_size=3),
+)
+def test_bad_purchase_lines_are_set_aside_alone_and_every_good_line_used(
+    data, crlf, final_break, comments, scratch, clean_purchases
+):
     lines = [g.encode() for g in PURCHASE_GOOD]
     for c in comments:
         lines.insert(data.draw(st.integers(0, len(lines))), c)
@@ -206,17 +219,36 @@ def test_bad_purchase_lines_are_set_aside_alone_and_every_good_line_used(data, c
 # --- huge and tiny numbers -------------------------------------------------------------
 
 _NUMBERS = st.one_of(
-    st.sampled_from(["1e306", "1e308", "1e309", "-1e308", "1e-320", "5e-324", "1e-400", "-0",
-                     "0", "1e9", "1e10", "9" * 400, "0." + "0" * 400 + "1", "1e+0999"]),
+    st.sampled_from(
+        [
+            "1e306",
+            "1e308",
+            "1e309",
+            "-1e308",
+            "1e-320",
+            "5e-324",
+            "1e-400",
+            "-0",
+            "0",
+            "1e9",
+            "1e10",
+            "9" * 400,
+            "0." + "0" * 400 + "1",
+            "1e+0999",
+        ]
+    ),
     st.floats(allow_nan=False, allow_infinity=False).map(repr),
-    st.integers(-10**30, 10**30).map(str),
+    st.integers(-(10**30), 10**30).map(str),
 )
 
 
 @settings(FUZZ, max_examples=400)
-@given(quantity=_NUMBERS, size=st.one_of(st.just(""), _NUMBERS.map(lambda n: f"{n} L")),
-       item=st.sampled_from(["sevoflurane", "nitrous_oxide", "oxygen"]),
-       unit=st.sampled_from(["bottle", "cylinder", "mL", "L", "kg", "m**3"]))
+@given(
+    quantity=_NUMBERS,
+    size=st.one_of(st.just(""), _NUMBERS.map(lambda n: f"{n} L")),
+    item=st.sampled_from(["sevoflurane", "nitrous_oxide", "oxygen"]),
+    unit=st.sampled_from(["bottle", "cylinder", "mL", "L", "kg", "m**3"]),
+)
 def test_huge_and_tiny_purchase_numbers_give_finite_amounts_or_set_aside(quantity, size, item, unit, scratch):
     path = scratch / "numbers.csv"
     path.write_bytes(PURCHASE_HEADER + f"\n2025-01,{item},{quantity},{unit},{size}\n".encode())
@@ -225,8 +257,9 @@ def test_huge_and_tiny_purchase_numbers_give_finite_amounts_or_set_aside(quantit
     assert np.isfinite(read.table["amount"].astype(float)).all()
     assert (read.table["amount"] <= purchases.MAX_AMOUNT).all()
     if len(read.table):
-        from model.audit.reconcile import reconcile
         import pandas as pd
+
+        from model.audit.reconcile import reconcile
 
         use = pd.DataFrame({"month": ["2025-01"], "item": [read.table["item"].iloc[0]], "recorded": [1e6]})
         numbers = reconcile(read.table, use).select_dtypes("number").to_numpy().ravel()
@@ -252,13 +285,13 @@ def test_huge_and_tiny_case_mix_numbers_give_mix_or_input_error(count, median, s
     from model.io.plans import load_plan
 
     plan = load_plan(ROOT / "demo_data" / "plans" / "lap_chole_low_flow.toml")
-    text = ("case_type,cases_per_year,median_duration,duration_spread,sevoflurane,weight,plan\n"
-            f"t,{count},{median},{spread},1,{weight},p.toml\n")
+    text = (
+        "case_type,cases_per_year,median_duration,duration_spread,sevoflurane,weight,plan\n"
+        f"t,{count},{median},{spread},1,{weight},p.toml\n"
+    )
     try:
         mix = parse_casemix_text(text, "fuzz.csv", lambda name, where: plan)
     except InputError:
         return
     t = mix.types[0]
     assert all(math.isfinite(v) for v in (t.cases_per_year, t.median_min, t.spread, t.weight_kg))
-
-

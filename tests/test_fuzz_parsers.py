@@ -2,7 +2,7 @@
 
 Inputs are raw bytes, CSV-looking text, and well-formed CSV or TOML with wrong columns,
 units, numbers and names. The invariant of every test: the parser returns its result or
-raises ``model.errors.InputError``, never any other exception and never a hang.
+raises ``model.base.errors.InputError``, never any other exception and never a hang.
 Record files are read through duckdb (about 0.2 s a file), so the full read gets fewer
 examples than the header and unit parsing in front of it, which is fuzzed in thousands.
 """
@@ -11,16 +11,15 @@ import os
 from pathlib import Path
 
 import pytest
+from fuzzing import scratch  # noqa: F401  (a fixture)
 from hypothesis import HealthCheck, assume, given, settings
 from hypothesis import strategies as st
 
 from model import load_plan
+from model.base.errors import InputError
 from model.io import purchases, record_files, records, scenario
 from model.io.casemix import CASEMIX_COLUMNS, parse_casemix_text
 from model.year.inputs import CaseMix
-from model.errors import InputError
-
-from fuzzing import scratch  # noqa: F401  (a fixture)
 
 ROOT = Path(__file__).resolve().parents[1]
 YEAR = ROOT / "demo_data" / "year"
@@ -28,10 +27,17 @@ RECORDS = ROOT / "demo_data" / "records"
 DEMO_PLAN = load_plan(ROOT / "demo_data" / "plans" / "lap_chole_low_flow.toml")
 
 # In CI (CI=true) the examples are derandomized, so a run is repeatable; local runs explore.
-FUZZ = settings(max_examples=1500, deadline=None, derandomize=bool(os.environ.get("CI")),
-                suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large,
-                                       HealthCheck.filter_too_much,
-                                       HealthCheck.function_scoped_fixture])
+FUZZ = settings(
+    max_examples=1500,
+    deadline=None,
+    derandomize=bool(os.environ.get("CI")),
+    suppress_health_check=[
+        HealthCheck.too_slow,
+        HealthCheck.data_too_large,
+        HealthCheck.filter_too_much,
+        HealthCheck.function_scoped_fixture,
+    ],
+)
 STRUCTURED = settings(FUZZ, max_examples=400)
 # Each example reads a file through duckdb: kept small so the file stays well under a minute.
 DUCKDB = settings(FUZZ, max_examples=60)
@@ -48,15 +54,56 @@ def _only_input_error(call, *args, **kwargs):
 # --- cells a spreadsheet from another system could hold -------------------------------
 
 _cells = st.one_of(
-    st.text(alphabet=st.characters(blacklist_categories=("Cs",), blacklist_characters="\x00"),
-            max_size=15),
-    st.integers(-10**20, 10**20).map(str),
+    st.text(alphabet=st.characters(blacklist_categories=("Cs",), blacklist_characters="\x00"), max_size=15),
+    st.integers(-(10**20), 10**20).map(str),
     st.floats(allow_nan=True, allow_infinity=True).map(repr),
-    st.sampled_from(["", " ", "nan", "NaN", "inf", "-1", "0", "1e308", "1e-320", "0,5", "1.5.2",
-                     "2 L/min", "500 mL/min", "9**9**9", "10**400", "9^9^9", "m**3", "75 min",
-                     "1.5 h", "30 %", "120%", "sevo", "Sevoflurane", "N2O", "xenon", "none",
-                     "2025-13", "2025-02", "2025-02-30T25:61", "=SUM(A1:A9)", "+1", "@x",
-                     '"', '""', "'", "\t", "a,b", "\u202e", "é", "𝟙", "1_000", "0x1F", "½"]),
+    st.sampled_from(
+        [
+            "",
+            " ",
+            "nan",
+            "NaN",
+            "inf",
+            "-1",
+            "0",
+            "1e308",
+            "1e-320",
+            "0,5",
+            "1.5.2",
+            "2 L/min",
+            "500 mL/min",
+            "9**9**9",
+            "10**400",
+            "9^9^9",
+            "m**3",
+            "75 min",
+            "1.5 h",
+            "30 %",
+            "120%",
+            "sevo",
+            "Sevoflurane",
+            "N2O",
+            "xenon",
+            "none",
+            "2025-13",
+            "2025-02",
+            "2025-02-30T25:61",
+            "=SUM(A1:A9)",
+            "+1",
+            "@x",
+            '"',
+            '""',
+            "'",
+            "\t",
+            "a,b",
+            "\u202e",
+            "é",
+            "𝟙",
+            "1_000",
+            "0x1F",
+            "½",
+        ]
+    ),
 )
 
 
@@ -73,9 +120,11 @@ def _table(columns_pool):
     """CSV text: a header from the pool (plus strangers) and rows of random cells."""
     return st.builds(
         lambda header, rows, raw_quote: "\n".join(
-            [_csv_line(header)] + [_csv_line(r) if not raw_quote else ",".join(r) for r in rows]),
-        st.lists(st.one_of(st.sampled_from(columns_pool), st.text(max_size=8)), min_size=0,
-                 max_size=len(columns_pool) + 2),
+            [_csv_line(header)] + [_csv_line(r) if not raw_quote else ",".join(r) for r in rows]
+        ),
+        st.lists(
+            st.one_of(st.sampled_from(columns_pool), st.text(max_size=8)), min_size=0, max_size=len(columns_pool) + 2
+        ),
         st.lists(st.lists(_cells, max_size=len(columns_pool) + 2), max_size=5),
         st.booleans(),
     )
@@ -172,8 +221,7 @@ def test_demo_scenario_with_one_line_mangled_gives_scenario_or_input_error(text,
 @FUZZ
 @given(data=st.binary(max_size=1500))
 def test_scenario_from_raw_bytes_gives_scenario_or_input_error(data, demo_mix):
-    _only_input_error(scenario.parse_scenario_text, data.decode("utf-8", errors="replace"),
-                      "fuzz.toml", YEAR, demo_mix)
+    _only_input_error(scenario.parse_scenario_text, data.decode("utf-8", errors="replace"), "fuzz.toml", YEAR, demo_mix)
 
 
 # --- case records ---------------------------------------------------------------------
@@ -200,18 +248,44 @@ def _read_records(path):
 @st.composite
 def _column_names(draw):
     name = draw(st.one_of(st.sampled_from(RECORD_COLUMNS), st.text(max_size=10)))
-    unit = draw(st.one_of(st.just(""), st.sampled_from(
-        ["L/min", "mL/min", "%", "fraction", "min", "s", "h", "kg", "9**9**9", "m**3", "10**400",
-         "L/min/min", "furlong", "", "pct", "1"]), st.text(max_size=8)))
+    unit = draw(
+        st.one_of(
+            st.just(""),
+            st.sampled_from(
+                [
+                    "L/min",
+                    "mL/min",
+                    "%",
+                    "fraction",
+                    "min",
+                    "s",
+                    "h",
+                    "kg",
+                    "9**9**9",
+                    "m**3",
+                    "10**400",
+                    "L/min/min",
+                    "furlong",
+                    "",
+                    "pct",
+                    "1",
+                ]
+            ),
+            st.text(max_size=8),
+        )
+    )
     brackets = draw(st.sampled_from(["[]", "()"]))
     return f"{name} {brackets[0]}{unit}{brackets[1]}" if unit else name
 
 
 @settings(FUZZ, max_examples=800)
-@given(names=st.lists(_column_names(), max_size=12),
-       units_line=st.lists(st.tuples(st.sampled_from(RECORD_COLUMNS + ["x"]),
-                                     st.sampled_from(["mL/min", "%", "9**9**9", "h", "", "zz"])),
-                           max_size=4))
+@given(
+    names=st.lists(_column_names(), max_size=12),
+    units_line=st.lists(
+        st.tuples(st.sampled_from(RECORD_COLUMNS + ["x"]), st.sampled_from(["mL/min", "%", "9**9**9", "h", "", "zz"])),
+        max_size=4,
+    ),
+)
 def test_record_header_gives_columns_or_input_error(names, units_line):
     declared = {k: v for k, v in units_line}
     result = _only_input_error(record_files.map_columns, names, declared, "fuzz.csv")
@@ -259,7 +333,7 @@ def test_damaged_parquet_records_give_report_or_input_error(data, scratch):
     good = (RECORDS / "fernhollow_2025.parquet").read_bytes()
     assume(len(good) > 64)
     cut = len(data) % (len(good) - 8) + 4
-    damaged = good[:cut] + data + good[cut + len(data):]
+    damaged = good[:cut] + data + good[cut + len(data) :]
     _read_records(_write(scratch, "damaged.parquet", damaged[: len(good)]))
 
 
@@ -275,10 +349,12 @@ def _read_purchases(path):
     result = read.table
     assert set(result.columns) >= {"month", "item", "amount", "unit"}
     assert (result["amount"] >= 0).all()
-    if purchases.SITE_COLUMN in result.columns:     # the optional site: a short printable name or blank
+    if purchases.SITE_COLUMN in result.columns:  # the optional site: a short printable name or blank
         sites = result[purchases.SITE_COLUMN]
-        assert all(isinstance(v, str) and v == v.strip() and v.isprintable()
-                   and len(v) <= purchases.MAX_SITE_CHARS for v in sites)
+        assert all(
+            isinstance(v, str) and v == v.strip() and v.isprintable() and len(v) <= purchases.MAX_SITE_CHARS
+            for v in sites
+        )
     # Each line set aside is named by its file and line.
     assert all(m.startswith(f"{path}, ") and m.strip() for m in read.messages)
     return result
@@ -303,11 +379,28 @@ def test_purchases_from_raw_bytes_give_rows_or_input_error(data, scratch):
 
 
 @settings(FUZZ, max_examples=300)
-@given(unit=st.sampled_from(["bottle", "mL", "L", "m**3", "kg", "cylinder", "9**9**9",
-                             "9^9^9", "10**400", "L**9**9", "((9**9)**9)**9 L", "furlong", ""]),
-       size=st.sampled_from(["", "250 mL", "9000 L", "9**9**9 L", "10**400 L", "-1 L", "x"]),
-       item=st.sampled_from(["sevoflurane", "nitrous_oxide", "oxygen", "air", "xenon"]),
-       quantity=st.sampled_from(["1", "0", "-1", "1e308", "nan", "inf", "x"]))
+@given(
+    unit=st.sampled_from(
+        [
+            "bottle",
+            "mL",
+            "L",
+            "m**3",
+            "kg",
+            "cylinder",
+            "9**9**9",
+            "9^9^9",
+            "10**400",
+            "L**9**9",
+            "((9**9)**9)**9 L",
+            "furlong",
+            "",
+        ]
+    ),
+    size=st.sampled_from(["", "250 mL", "9000 L", "9**9**9 L", "10**400 L", "-1 L", "x"]),
+    item=st.sampled_from(["sevoflurane", "nitrous_oxide", "oxygen", "air", "xenon"]),
+    quantity=st.sampled_from(["1", "0", "-1", "1e308", "nan", "inf", "x"]),
+)
 def test_purchase_units_and_sizes_give_rows_or_input_error(unit, size, item, quantity, scratch):
     text = f"month,item,quantity,unit,size\n2025-01,{item},{quantity},{unit},{size}\n"
     _read_purchases(_write(scratch, "units.csv", text.encode()))
@@ -332,8 +425,10 @@ def test_found_power_in_a_record_unit_is_refused_without_evaluating_it(scratch):
 
 
 def test_found_power_in_a_purchase_unit_is_refused_without_evaluating_it(scratch):
-    for name, line, column in (("pow.csv", b"2025-01,oxygen,2,cylinder,9**9**9 L", "size"),
-                               ("pow2.csv", b"2025-01,oxygen,2,L**9**9,", "unit")):
+    for name, line, column in (
+        ("pow.csv", b"2025-01,oxygen,2,cylinder,9**9**9 L", "size"),
+        ("pow2.csv", b"2025-01,oxygen,2,L**9**9,", "unit"),
+    ):
         read = purchases.load_purchases(_write(scratch, name, b"month,item,quantity,unit,size\n" + line + b"\n"))
         assert read.table.empty
         assert len(read.messages) == 1 and f"line 2: {column}" in read.messages[0]

@@ -28,8 +28,7 @@ def test_twenty_sessions_plan_a_case_without_errors(tmp_path):
     run = run_load(SESSIONS, CONCURRENCY, timeout_s=90.0, store_path=store)
 
     assert len(run.sessions) == SESSIONS
-    problems = [f"session {s.index}: {'; '.join(s.errors) or 'figure did not change'}"
-                for s in run.failures]
+    problems = [f"session {s.index}: {'; '.join(s.errors) or 'figure did not change'}" for s in run.failures]
     assert not problems, "\n".join(problems)
     # Each session asked for its own flow, so each saw a new figure of its own.
     assert all(s.after and s.after != s.before for s in run.sessions)

@@ -7,12 +7,14 @@ an agent took a different colour on each page.
 from __future__ import annotations
 
 from pagetest import ROOT, TIMEOUT, isolated_store, page  # noqa: F401  (isolated_store: autouse fixture)
+
 from model.freshgas import FLOW_BAND_NAMES
-from ui.palette import AGENT_COLOURS, FLOW_BAND_COLOURS
+from model.present.palette import AGENT_COLOURS, FLOW_BAND_COLOURS
 
 
 def _figures(at):
     import json
+
     return [json.loads(c.proto.spec) for c in at.get("plotly_chart")]
 
 
@@ -22,7 +24,7 @@ def _relative_luminance(hex_colour: str) -> float:
     h = hex_colour.lstrip("#")
     lin = []
     for i in (0, 2, 4):
-        c = int(h[i:i + 2], 16) / 255
+        c = int(h[i : i + 2], 16) / 255
         lin.append(c / 12.92 if c <= 0.04045 else ((c + 0.055) / 1.055) ** 2.4)
     return 0.2126 * lin[0] + 0.7152 * lin[1] + 0.0722 * lin[2]
 
@@ -42,7 +44,8 @@ def test_flow_band_scale_darkens_steadily_from_the_lowest_to_the_highest_flow():
 
 def test_record_audit_flow_bands_follow_the_scale_and_agents_keep_their_colours():
     """Defect 15: the flow-band bars use the ordered scale, lowest flow first; the per-case
-    spread draws each agent in its house colour."""
+    spread draws each agent in its house colour.
+    """
     at = page("record_audit.py")
     figs = {f["layout"]["title"]["text"]: f for f in _figures(at)}
     bands = figs["Time in each fresh gas flow band, by theatre"]

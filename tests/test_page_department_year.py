@@ -2,9 +2,8 @@
 
 from __future__ import annotations
 
-from streamlit.testing.v1 import AppTest
-
 from pagetest import ROOT, isolated_store, page  # noqa: F401  (isolated_store: autouse fixture)
+from streamlit.testing.v1 import AppTest
 
 _page = page
 
@@ -59,4 +58,4 @@ def test_compare_page_year_tab_shows_paired_difference():
     labels = [m.label for m in at.metric]
     assert "Change in cost" in labels
     value = next(m.value for m in at.metric if m.label == "Change in cost")
-    assert value.startswith("-")       # the demo proposal saves money
+    assert value.startswith("-")  # the demo proposal saves money

@@ -5,12 +5,11 @@ from __future__ import annotations
 import json
 
 import pytest
+from pagetest import ROOT, isolated_store, page  # noqa: F401  (isolated_store: autouse fixture)
 from streamlit.testing.v1 import AppTest
 
 from model.audit.engine import audit_records
 from model.report import build_report, parse_period
-
-from pagetest import ROOT, isolated_store, page  # noqa: F401  (isolated_store: autouse fixture)
 
 DEMO = ROOT / "demo_data" / "records"
 
@@ -42,7 +41,7 @@ def test_a_later_baseline_year_changes_the_comparison_and_an_unknown_year_is_one
     at = page("emissions_report.py")
     at.number_input(key="er_baseline_year").set_value(2019).run()
     assert not at.exception
-    errors = [e.value.replace("\\", "") for e in at.error]       # shown through ui.md (escaped)
+    errors = [e.value.replace("\\", "") for e in at.error]  # shown through ui.md (escaped)
     assert len(errors) == 1 and "Baseline period: got '2019'" in errors[0] and "2025-01-01" in errors[0]
     # Nothing computed is lost: the period's figures stay.
     assert _metric(at, "Use-based, IPCC AR6 GWP100") == f"{expected.period.co2e_t:,.1f} t CO2e"
@@ -84,21 +83,37 @@ def test_the_command_line_html_has_the_charts_the_page_draws(tmp_path, capsys):
     """One set of figure builders: the page's and ``gas-ledger report --html``'s are the same
     functions, and for the page's default choices (demo records, purchases and sites, 2026
     against 2025, -5 %/year) the HTML file holds one chart for each chart on the page, with
-    the same titles."""
-    import model.charts.report
-    import ui.report_charts
+    the same titles.
+    """
+    import model.present.report_charts
     from model.cli import main
 
-    assert ui.report_charts.report_figures is model.charts.report.report_figures
+    assert model.present.report_charts.report_figures is model.present.report_charts.report_figures
     at = page("emissions_report.py")
     titles = [json.loads(c.proto.spec)["layout"]["title"]["text"] for c in at.get("plotly_chart")]
     assert len(titles) >= 5 and "What drove the change (additive LMDI-I)" in titles
     out = tmp_path / "r.html"
-    code = main(["report", str(DEMO / "fernhollow_2025.parquet"), str(DEMO / "fernhollow_2026.parquet"),
-                 "--purchases", str(DEMO / "fernhollow_purchases_2025.csv"),
-                 "--purchases", str(DEMO / "fernhollow_purchases_2026.csv"), "--sites",
-                 str(DEMO / "fernhollow_sites.csv"), "--period", "2026", "--baseline", "2025",
-                 "--target", "-5%/year", "--html", str(out)])
+    code = main(
+        [
+            "report",
+            str(DEMO / "fernhollow_2025.parquet"),
+            str(DEMO / "fernhollow_2026.parquet"),
+            "--purchases",
+            str(DEMO / "fernhollow_purchases_2025.csv"),
+            "--purchases",
+            str(DEMO / "fernhollow_purchases_2026.csv"),
+            "--sites",
+            str(DEMO / "fernhollow_sites.csv"),
+            "--period",
+            "2026",
+            "--baseline",
+            "2025",
+            "--target",
+            "-5%/year",
+            "--html",
+            str(out),
+        ]
+    )
     capsys.readouterr()
     assert code == 0
     html = out.read_text(encoding="utf-8")
@@ -116,11 +131,13 @@ def expected_by_site():
     from model.io.sites import read_sites
 
     cases = audit_records([DEMO / "fernhollow_2025.parquet", DEMO / "fernhollow_2026.parquet"]).cases
-    bought = pd.concat([load_purchases(DEMO / f"fernhollow_purchases_{y}.csv").table for y in (2025, 2026)],
-                       ignore_index=True)
+    bought = pd.concat(
+        [load_purchases(DEMO / f"fernhollow_purchases_{y}.csv").table for y in (2025, 2026)], ignore_index=True
+    )
     sites = read_sites(DEMO / "fernhollow_sites.csv")
-    return lambda chosen=(): build_report(cases, parse_period("2026"), parse_period("2025"), purchases=bought,
-                                          sites=sites, chosen_sites=chosen)
+    return lambda chosen=(): build_report(
+        cases, parse_period("2026"), parse_period("2025"), purchases=bought, sites=sites, chosen_sites=chosen
+    )
 
 
 def _site_table(at: AppTest):
@@ -149,9 +166,11 @@ def test_the_demo_report_sets_use_and_purchases_side_by_side_by_site(expected_by
     one = _site_table(at).value.set_index("site")
     assert list(one.index) == ["East wing"]
     assert one.loc["East wing", "purchase_based_t_co2e"] == pytest.approx(
-        want.loc["East wing", "purchase_based_t_co2e"], abs=1e-9)
+        want.loc["East wing", "purchase_based_t_co2e"], abs=1e-9
+    )
     assert _metric(at, "Purchase-based") == (
-        f"{expected_by_site(('East wing',)).period.purchases.co2e_t('t CO2e (IPCC AR6 GWP100)'):,.1f} t CO2e")
+        f"{expected_by_site(('East wing',)).period.purchases.co2e_t('t CO2e (IPCC AR6 GWP100)'):,.1f} t CO2e"
+    )
     assert any("chosen sites' purchases only (East wing)" in c.value.replace("\\", "") for c in at.caption)
 
 

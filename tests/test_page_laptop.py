@@ -17,7 +17,8 @@ def _config(df) -> dict:
 
 def test_wide_audit_tables_lead_with_the_key_figures_and_pin_their_first_column():
     """Defect 16: the case table starts with case, agent, theatre, month and the figures, and
-    keeps the case pinned while scrolled sideways."""
+    keeps the case pinned while scrolled sideways.
+    """
     at = page("record_audit.py")
     cases = next(df for df in at.dataframe if "case" in df.value.columns and "start" in df.value.columns)
     assert list(cases.value.columns[:4]) == ["case", "agent", "theatre", "month"]
@@ -34,13 +35,14 @@ def test_case_plan_headline_results_are_drawn_before_the_phases_table_beside_it(
     assert len(row.children) == 2
     left, right = row.children[0], row.children[1]
     assert [m.label for m in right.get("metric")][:1] == ["Liquid agent"]
-    assert len(left.get("arrow_data_frame") or left.dataframe) == 1     # the phases table
+    assert len(left.get("arrow_data_frame") or left.dataframe) == 1  # the phases table
     assert not left.get("metric")
 
 
 def test_record_problems_show_their_message_before_the_columns_that_may_be_wide():
     """Defect 16 (and 7): a set-aside row's message sits beside its line and problem, not past
-    a wide value column where a laptop screen cuts it off."""
+    a wide value column where a laptop screen cuts it off.
+    """
     at = page("record_audit.py")
     issues = next(df.value for df in at.dataframe if "message" in df.value.columns)
     assert list(issues.columns[:3]) == ["line or row", "problem", "message"]

@@ -10,10 +10,10 @@ import tempfile
 from pathlib import Path
 
 import pytest
+from pagetest import ROOT, TIMEOUT, isolated_store, page  # noqa: F401  (isolated_store: autouse fixture)
 from streamlit.testing.v1 import AppTest
 
-from pagetest import ROOT, TIMEOUT, isolated_store, page  # noqa: F401  (isolated_store: autouse fixture)
-from ui.format import plain_paths
+from ui.tables import plain_paths
 
 PAGES = ("case_plan.py", "compare.py", "department_year.py", "record_audit.py", "reference.py")
 
@@ -34,6 +34,7 @@ def _shown_text(at: AppTest) -> list[str]:
 
 def pd_is_string(s) -> bool:
     import pandas as pd
+
     return pd.api.types.is_string_dtype(s)
 
 

@@ -12,16 +12,15 @@ import re
 import numpy as np
 import pandas as pd
 import pytest
+from pagetest import ROOT, isolated_store, page  # noqa: F401  (isolated_store: autouse fixture)
 
 from model import DEFAULT_REFERENCE, load_plan
 from model.case import compute_case
-from model.io.exports import html_report, to_csv
-from model.io.readable import decimals, is_money, number_text, readable_frame
 from model.io.scenario import load_scenario
+from model.present.exports import html_report, to_csv
+from model.present.readable import decimals, is_money, number_text, readable_frame
 from model.reference import GWP_SOURCES
 from model.year.result import compute_year
-
-from pagetest import ROOT, isolated_store, page  # noqa: F401  (isolated_store: autouse fixture)
 
 SNAKE = re.compile(r"^[a-z0-9]+(_[a-z0-9]+)+$")
 PAGES = ("case_plan.py", "compare.py", "department_year.py", "record_audit.py")
@@ -48,11 +47,12 @@ def _check_frame(df: pd.DataFrame, where: str) -> None:
 @pytest.mark.parametrize("name", PAGES)
 def test_page_tables_have_headings_in_words_and_rounded_figures(name):
     """Defect 7: every table on the page has headings in words (units in brackets), figures to
-    sensible significant figures, and no machine keys (snake_case, GWP source keys) in cells."""
+    sensible significant figures, and no machine keys (snake_case, GWP source keys) in cells.
+    """
     at = page(name)
     assert at.dataframe, name
     for i, df in enumerate(at.dataframe):
-        if df.proto.editing_mode == 0:       # result tables; editors hold a file format's columns
+        if df.proto.editing_mode == 0:  # result tables; editors hold a file format's columns
             _check_frame(df.value, f"{name} table {i}")
     shown = " ".join(str(e.value) for kind in ("caption", "markdown", "info", "warning") for e in at.get(kind))
     assert not any(k in shown for k in GWP_SOURCES if k != "user"), shown
@@ -85,8 +85,7 @@ def test_year_report_and_exports_show_cases_as_a_count_and_sources_by_label():
     """Defect 7: "Cases 3080.00" in the year report; snake_case headings in CSV and Excel."""
     year = compute_year(load_scenario(ROOT / "demo_data" / "year" / "baseline_2l.toml"), DEFAULT_REFERENCE)
     summary = year.summary.drop(columns=["key"])
-    doc = html_report("Year", tables={"Headline figures": summary, "Per case type": year.by_type},
-                      currency="GBP")
+    doc = html_report("Year", tables={"Headline figures": summary, "Per case type": year.by_type}, currency="GBP")
     cases_row = re.search(r"<td>Cases</td><td>cases</td><td class='num'>([^<]*)</td>", doc)
     assert cases_row and cases_row.group(1) == "3,080", cases_row
     assert "3080.00" not in doc and "<th>deterministic</th>" not in doc and "<th>liquid_ml" not in doc

@@ -2,11 +2,10 @@
 
 from __future__ import annotations
 
+from pagetest import ROOT, isolated_store, page  # noqa: F401  (isolated_store: autouse fixture)
 from streamlit.testing.v1 import AppTest
 
 from model.audit.engine import audit_records
-
-from pagetest import ROOT, isolated_store, page  # noqa: F401  (isolated_store: autouse fixture)
 
 DEMO = ROOT / "demo_data" / "records"
 

@@ -6,12 +6,14 @@ file, while `gas-ledger audit` sets just that line aside (README, "Case records"
 
 from __future__ import annotations
 
-from model.audit.engine import audit_records
-
 from pagetest import isolated_store, page  # noqa: F401  (isolated_store: autouse fixture)
 
-RECORDS = ("case_id,elapsed,agent,o2,air,dial\n"
-           "A,0,sevo,1,1,2\nA,1,sevo,1,1,2\nA,2,s\u00e9vo,1,1,2\nA,3,sevo,1,1,2\nA,4,sevo,1,1,2\n").encode("cp1252")
+from model.audit.engine import audit_records
+
+RECORDS = (
+    "case_id,elapsed,agent,o2,air,dial\n"
+    "A,0,sevo,1,1,2\nA,1,sevo,1,1,2\nA,2,s\u00e9vo,1,1,2\nA,3,sevo,1,1,2\nA,4,sevo,1,1,2\n"
+).encode("cp1252")
 
 
 def _metric(at, label: str) -> str:
@@ -20,7 +22,8 @@ def _metric(at, label: str) -> str:
 
 def test_one_line_not_in_utf8_is_set_aside_on_the_page_as_on_the_command_line(tmp_path):
     """Defect 11: the page sets the bad line aside, names the upload and its line, and uses the
-    rest; its counts equal the command line's reader on the same bytes."""
+    rest; its counts equal the command line's reader on the same bytes.
+    """
     path = tmp_path / "theatre_export.csv"
     path.write_bytes(RECORDS)
     cli = audit_records([path])

@@ -20,18 +20,28 @@ import subprocess
 import sys
 import textwrap
 
-import model.sweep
+from pagetest import ROOT, isolated_store, page  # noqa: F401  (isolated_store: autouse fixture)
+
 import ui.common
 from model.store import STORE_ENV
-
-from pagetest import ROOT, isolated_store, page  # noqa: F401  (isolated_store: autouse fixture)
 
 #: Modules the Case plan page's first run has no use for: the year's model and its scipy
 #: parts, the record and purchase readers, the audit, the emissions report, the workbook
 #: writer (only on download) and the flow sweep (its tab is closed at first).
-NOT_FOR_THE_FIRST_PAGE = ("scipy.special", "scipy.stats", "model.year.result", "model.year.nodes",
-                          "model.year.sampling", "model.year.simulate", "model.io.records",
-                          "model.io.purchases", "model.audit", "model.report", "openpyxl", "model.sweep")
+NOT_FOR_THE_FIRST_PAGE = (
+    "scipy.special",
+    "scipy.stats",
+    "model.year.result",
+    "model.year.nodes",
+    "model.year.sampling",
+    "model.year.simulate",
+    "model.io.records",
+    "model.io.purchases",
+    "model.audit",
+    "model.report",
+    "openpyxl",
+    "model.sweep",
+)
 
 
 def _edit_o2(at, text: str) -> None:
@@ -48,6 +58,7 @@ def _counting(monkeypatch, module, name: str) -> list:
     def counted(*a, **k):
         calls.append(1)
         return original(*a, **k)
+
     monkeypatch.setattr(module, name, counted)
     return calls
 
@@ -55,13 +66,14 @@ def _counting(monkeypatch, module, name: str) -> list:
 def test_an_edit_runs_no_flow_sweep_and_builds_no_download_until_asked(monkeypatch):
     """Defect 18: with the first tab (the phases table) open, a new flow runs the case only: no
     sweep and no figure (their tabs are closed), no CSV, workbook or report (built when
-    downloaded)."""
-    import ui.charts
+    downloaded).
+    """
+    import model.present.case_charts
 
     at = page("case_plan.py")
     sweeps = _counting(monkeypatch, model.sweep, "flow_sweep")
     csvs = _counting(monkeypatch, ui.common, "to_csv")
-    figures = _counting(monkeypatch, ui.charts, "timecourse_figure")
+    figures = _counting(monkeypatch, model.present.case_charts, "timecourse_figure")
     _edit_o2(at, "0.37 L/min")
     assert any(m.label == "Liquid agent" for m in at.metric)
     assert sweeps == [] and csvs == [] and figures == []
@@ -77,7 +89,8 @@ def test_an_edit_runs_no_flow_sweep_and_builds_no_download_until_asked(monkeypat
 def test_the_first_run_of_the_dashboard_loads_only_what_the_case_plan_page_uses(isolated_store):
     """A new process runs ``app.py`` once (its default page is Case plan) and lists which of
     :data:`NOT_FOR_THE_FIRST_PAGE` it imported. Before the lazy packages, ``model``'s
-    ``__init__`` pulled in every format and the year's model with scipy.special."""
+    ``__init__`` pulled in every format and the year's model with scipy.special.
+    """
     code = textwrap.dedent(f"""
         import json, sys
         from streamlit.testing.v1 import AppTest
@@ -88,25 +101,24 @@ def test_the_first_run_of_the_dashboard_loads_only_what_the_case_plan_page_uses(
         print(json.dumps(sorted(m for m in {NOT_FOR_THE_FIRST_PAGE!r} if m in sys.modules)))
     """)
     env = dict(os.environ, PYTHONPATH=str(ROOT), **{STORE_ENV: str(isolated_store)})
-    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, cwd=ROOT, env=env,
-                         timeout=300)
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, cwd=ROOT, env=env, timeout=300)
     assert out.returncode == 0, out.stderr[-3000:]
     assert json.loads(out.stdout.splitlines()[-1]) == []
-
 
 
 def test_the_warm_start_leaves_the_first_page_nothing_to_import(isolated_store):
     """``serve.py``'s warm-up (run here as its background thread runs it at server start)
     imports every module the first page uses and builds the unit registry: the first run
     of ``app.py`` after it imports no module of ours and no package not loaded yet. The
-    page it warms is the one ``app.py`` opens first."""
+    page it warms is the one ``app.py`` opens first.
+    """
     code = textwrap.dedent(f"""
         import json, sys
         sys.path.insert(0, {str(ROOT)!r})
         from streamlit.testing.v1 import AppTest
         import serve
         serve.warm_up()
-        from model.units import registry
+        from model.base.units import registry
         built = registry.cache_info().currsize
         before = set(sys.modules)
         at = AppTest.from_file({str(ROOT / "app.py")!r}, default_timeout=120)
@@ -119,8 +131,7 @@ def test_the_warm_start_leaves_the_first_page_nothing_to_import(isolated_store):
         print(json.dumps([built, ours, packages, str(serve.app.script_path), [str(p) for p in serve.FIRST_PAGE]]))
     """)
     env = dict(os.environ, PYTHONPATH=str(ROOT), **{STORE_ENV: str(isolated_store)})
-    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, cwd=ROOT, env=env,
-                         timeout=300)
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, cwd=ROOT, env=env, timeout=300)
     assert out.returncode == 0, out.stderr[-3000:]
     built, ours, packages, served, first_page = json.loads(out.stdout.splitlines()[-1])
     assert built == 1, "the unit registry was not built"

@@ -6,11 +6,10 @@ import re
 from dataclasses import replace
 
 import pytest
+from pagetest import ROOT, TIMEOUT, isolated_store, page  # noqa: F401  (isolated_store: autouse fixture)
 from streamlit.testing.v1 import AppTest
 
 from model.store import Store
-
-from pagetest import ROOT, TIMEOUT, isolated_store, page  # noqa: F401  (isolated_store: autouse fixture)
 
 
 def metric(at: AppTest, label: str) -> float:
@@ -37,7 +36,7 @@ def test_app_entry_point_renders_with_navigation():
     at = AppTest.from_file(str(ROOT / "app.py"), default_timeout=TIMEOUT)
     at.run()
     assert not at.exception, [e.message for e in at.exception]
-    assert any(m.label == "Liquid agent" for m in at.metric)      # the default page is the case plan
+    assert any(m.label == "Liquid agent" for m in at.metric)  # the default page is the case plan
 
 
 def test_case_plan_renders_on_demo_data_with_caution():
@@ -75,12 +74,15 @@ def test_desflurane_instead_of_sevoflurane_raises_emissions():
     assert metric(at, "Emissions") > 5 * before
 
 
-@pytest.mark.parametrize("cells, shown", [
-    ({"O2": "banana"}, "row 2, O2 flow"),
-    ({"O2": "5 kg"}, "row 2, O2 flow"),
-    ({"duration": "-10 min"}, "row 2, duration"),
-    ({"setting": "40 %"}, "row 2, dial % or target"),
-])
+@pytest.mark.parametrize(
+    "cells, shown",
+    [
+        ({"O2": "banana"}, "row 2, O2 flow"),
+        ({"O2": "5 kg"}, "row 2, O2 flow"),
+        ({"duration": "-10 min"}, "row 2, duration"),
+        ({"setting": "40 %"}, "row 2, dial % or target"),
+    ],
+)
 def test_invalid_phase_entry_shows_error_and_keeps_last_result(cells, shown):
     at = page("case_plan.py")
     before = metric(at, "Liquid agent")
@@ -147,7 +149,7 @@ def test_compare_table_shows_emissions_in_the_sidebar_unit():
 
 
 def test_compare_sets_a_plan_against_an_earlier_version_of_itself(isolated_store):
-    page("compare.py")                                  # the first page run seeds the demo plans
+    page("compare.py")  # the first page run seeds the demo plans
     store = Store(isolated_store)
     name = "Laparoscopic cholecystectomy, low flow"
     plan = store.load_plan(name)
@@ -164,8 +166,9 @@ def test_compare_sets_a_plan_against_an_earlier_version_of_itself(isolated_store
 
 def test_compare_higher_flow_plan_shows_more_liquid():
     at = page("compare.py")
-    at.multiselect(key="cmp_plans").set_value(["Laparoscopic cholecystectomy, low flow",
-                                                "Laparoscopic cholecystectomy, high flow"])
+    at.multiselect(key="cmp_plans").set_value(
+        ["Laparoscopic cholecystectomy, low flow", "Laparoscopic cholecystectomy, high flow"]
+    )
     at.run()
     assert not at.exception
     delta = next(m.delta for m in at.metric if m.label == "Liquid agent")
@@ -199,22 +202,26 @@ HOSTILE_NAME = "<img src=x onerror=alert(1)>[click](javascript:alert(1))"
 
 def test_hostile_plan_name_never_reaches_markdown_unescaped(isolated_store):
     from dataclasses import replace
+
     from model import load_plan
-    page("case_plan.py")                 # the first run seeds the demo plans
+
+    page("case_plan.py")  # the first run seeds the demo plans
     store = Store(isolated_store)
     demo = load_plan(ROOT / "demo_data" / "plans" / "lap_chole_low_flow.toml")
-    store.save_plan(replace(demo, name=HOSTILE_NAME,
-                            phases=tuple(replace(p, name="=" + HOSTILE_NAME[:40]) for p in demo.phases)))
+    store.save_plan(
+        replace(demo, name=HOSTILE_NAME, phases=tuple(replace(p, name="=" + HOSTILE_NAME[:40]) for p in demo.phases))
+    )
     for name in ("case_plan.py", "compare.py"):
         at = AppTest.from_file(str(ROOT / "pages" / name), default_timeout=TIMEOUT)
         if name == "case_plan.py":
             at.run()
-            assert at.text_input(key="cp_name").value == HOSTILE_NAME      # opened: most recent
+            assert at.text_input(key="cp_name").value == HOSTILE_NAME  # opened: most recent
         else:
             at.run()
         assert not at.exception
-        shown = [e.value for kind in ("markdown", "caption", "success", "warning", "error", "info")
-                 for e in at.get(kind)]
+        shown = [
+            e.value for kind in ("markdown", "caption", "success", "warning", "error", "info") for e in at.get(kind)
+        ]
         assert any("\\<img src=x" in v for v in shown), (name, shown)
         # Markdown sources only ever hold the escaped form: no raw tag, no live link.
         assert not any(re.search(r"(?<!\\)<img", v) for v in shown)
@@ -234,7 +241,7 @@ def test_sidebar_gwp_horizon_and_flow_unit_apply():
     at.run()
     assert not at.exception
     assert "mL/min" in at.data_editor[0].value["O2"].iloc[1]
-    assert metric(at, "Liquid agent") == liquid      # the same plan, only shown differently
+    assert metric(at, "Liquid agent") == liquid  # the same plan, only shown differently
 
 
 def test_a_vaporizer_maximum_raised_on_the_reference_page_lets_a_plan_dial_above_the_default():

@@ -3,11 +3,10 @@
 from __future__ import annotations
 
 import pytest
+from pagetest import ROOT, TIMEOUT, isolated_store, page  # noqa: F401  (isolated_store: autouse fixture)
 from streamlit.testing.v1 import AppTest
 
 from model.reference import DEFAULT_REFERENCE
-
-from pagetest import ROOT, TIMEOUT, isolated_store, page  # noqa: F401  (isolated_store: autouse fixture)
 
 
 def test_importing_a_plan_file_opens_it_without_an_exception():
@@ -66,7 +65,7 @@ def test_case_emissions_in_tonnes_show_three_significant_figures():
 
 def test_flow_sweep_best_flows_follow_the_sidebar_flow_unit():
     at = page("case_plan.py")
-    at.session_state["cp_tab"] = "Flow sweep"          # the sweep runs only in its open tab
+    at.session_state["cp_tab"] = "Flow sweep"  # the sweep runs only in its open tab
     at.selectbox(key="gl_flow_unit").select("mL/min").run()
     assert not at.exception, [e.message for e in at.exception]
     line = next(m.value for m in at.markdown if "lowest cost at" in m.value)
@@ -77,8 +76,11 @@ def test_year_warnings_show_case_type_names_as_typed_not_as_markdown():
     at = page("department_year.py")
     name = at.selectbox(key="dy_scenario").value
     key = at.data_editor[0].key
-    at.session_state[key] = {"edited_rows": {0: {"case_type": "Lap_chole *urgent*"}}, "added_rows": [],
-                             "deleted_rows": []}
+    at.session_state[key] = {
+        "edited_rows": {0: {"case_type": "Lap_chole *urgent*"}},
+        "added_rows": [],
+        "deleted_rows": [],
+    }
     at.checkbox(key=f"dy_uf_{name}").check()
     at.run()
     at.number_input(key=f"dy_flow_{name}").set_value(0.3).run()
@@ -204,7 +206,8 @@ def test_a_bad_purchase_line_is_shown_set_aside_and_the_rest_reconciled():
     birch = (ROOT / "demo_data" / "records" / "fernhollow_birch_cases.csv").read_bytes()
     at.get("file_uploader")[0].upload("birch.csv", birch).run()
     at.get("file_uploader")[1].upload(
-        "bought.csv", b"month,item,quantity,unit,size\n2025-09,N2O,1,cylinder,\n2025-09,N2O,2,cylinder,9000 L\n").run()
+        "bought.csv", b"month,item,quantity,unit,size\n2025-09,N2O,1,cylinder,\n2025-09,N2O,2,cylinder,9000 L\n"
+    ).run()
     assert not at.exception, [e.message for e in at.exception]
     warning = " ".join(w.value for w in at.warning)
     assert "1 purchase line(s) set aside" in warning

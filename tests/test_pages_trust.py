@@ -7,11 +7,10 @@ Each test's docstring names the defect it covers. The app runs from its entry po
 from __future__ import annotations
 
 import pytest
+from pagetest import ROOT, TIMEOUT, isolated_store, page  # noqa: F401  (isolated_store: autouse fixture)
 from streamlit.testing.v1 import AppTest
 
 from model.store import Store
-
-from pagetest import ROOT, TIMEOUT, isolated_store, page  # noqa: F401  (isolated_store: autouse fixture)
 
 
 def app() -> AppTest:
@@ -61,7 +60,7 @@ def test_case_plan_inputs_survive_a_visit_to_another_page():
     run(at)
     liquid = metric_value(at, "Liquid agent")
     go(at, "compare.py")
-    assert any(m.label == "Liquid agent" for m in at.metric)       # the Compare page ran
+    assert any(m.label == "Liquid agent" for m in at.metric)  # the Compare page ran
     go(at, "case_plan.py")
     assert at.text_input(key="cp_name").value == "Laparoscopic cholecystectomy, high flow"
     assert at.text_input(key="cp_weight").value == "90 kg"
@@ -125,8 +124,9 @@ def test_switching_a_phase_to_a_target_clears_the_dial_setting_and_says_so():
     assert "row 2: the control is now an end-tidal target" in shown and "cleared" in shown
     # The setting typed for the target is a MAC multiple; a percent there is refused by its cell.
     edit_phase(at, 1, setting="2 %")
-    assert any("row 2, dial % or target" in e.value and "MAC multiple" in e.value for e in at.error), \
-        [e.value for e in at.error]
+    assert any("row 2, dial % or target" in e.value and "MAC multiple" in e.value for e in at.error), [
+        e.value for e in at.error
+    ]
     edit_phase(at, 1, setting="1.0")
     assert not at.error, [e.value for e in at.error]
 
@@ -155,8 +155,9 @@ def test_prices_saved_on_the_reference_page_reach_the_department_year(isolated_s
     assert "the own prices of the scenario" in line and "chosen on this page" in line
 
 
-@pytest.mark.parametrize("page_file", ["case_plan.py", "compare.py", "department_year.py", "record_audit.py",
-                                       "reference.py"])
+@pytest.mark.parametrize(
+    "page_file", ["case_plan.py", "compare.py", "department_year.py", "record_audit.py", "reference.py"]
+)
 def test_every_page_says_which_prices_and_gwp_values_are_in_use(page_file):
     """Defect 2: every page shows which prices and GWP values are in use and where they come from."""
     at = page(page_file)
@@ -174,7 +175,8 @@ def _year_at_half_litre(at: AppTest) -> str:
 
 def test_an_unsafe_year_practice_is_marked_unsafe_next_to_its_headline():
     """Defect 4: a 0.5 L/min maintenance practice (its mix unchanged) predicts a hypoxic mixture; the
-    hazard shows first, in its own style, next to the headline, and the figures are marked unsafe."""
+    hazard shows first, in its own style, next to the headline, and the figures are marked unsafe.
+    """
     at = page("department_year.py")
     _year_at_half_litre(at)
     run(at)
@@ -185,7 +187,7 @@ def test_an_unsafe_year_practice_is_marked_unsafe_next_to_its_headline():
     # Hazards are not left among the ordinary cautions or the labelling notes.
     cautions = [w.value for w in at.warning]
     assert not any("hypoxic mixture" in w for w in cautions)
-    assert any("sevoflurane minimum" in w for w in cautions)        # labelling notes after
+    assert any("sevoflurane minimum" in w for w in cautions)  # labelling notes after
     # The banner comes before the headline figures on the page.
     order = [type(e).__name__ for e in walk(at.main) if type(e).__name__ in ("Error", "Metric")]
     assert order.index("Error") < order.index("Metric")
@@ -217,14 +219,16 @@ def test_both_mac_hours_are_shown_and_comparisons_use_the_end_tidal_ones():
     """Defect 8: dial-based and end-tidal MAC-hours, labelled; Compare's cards use end-tidal."""
     from model import compute_case
     from model.io.plans import load_plan
+
     at = page("case_plan.py")
     assert metric_value(at, "End-tidal MAC-h")
     assert any(c.value.startswith("Dial-based:") for c in at.caption)
     phases = next(d.value for d in at.dataframe if "MAC-hours, end-tidal" in d.value.columns)
     assert "MAC-hours, dial-based" in phases.columns
     cmp = page("compare.py")
-    cmp.multiselect(key="cmp_plans").set_value(["Laparoscopic cholecystectomy, high flow",
-                                               "Laparoscopic cholecystectomy, low flow"])
+    cmp.multiselect(key="cmp_plans").set_value(
+        ["Laparoscopic cholecystectomy, high flow", "Laparoscopic cholecystectomy, low flow"]
+    )
     run(cmp)
     low = compute_case(load_plan(ROOT / "demo_data" / "plans" / "lap_chole_low_flow.toml")).totals
     card = next(m for m in cmp.metric if "MAC-h" in m.label)
@@ -259,7 +263,8 @@ def _inputs(at: AppTest) -> dict:
 
 def test_year_exports_record_the_practice_mix_prices_and_version_that_produced_them():
     """Defect 6: after a change of practice on the page, the export's inputs (the 'Inputs' sheet and
-    the report's inputs, shown on the page as 'What produced these figures') say so."""
+    the report's inputs, shown on the page as 'What produced these figures') say so.
+    """
     import importlib.metadata
 
     at = page("department_year.py")
@@ -276,6 +281,7 @@ def test_year_exports_record_the_practice_mix_prices_and_version_that_produced_t
     assert "built-in invented example prices" in rows["prices in use"]
     assert "IPCC AR6 GWP100" in rows["GWP values"]
     from model.io.casemix import load_casemix
+
     demo = load_casemix(ROOT / "demo_data" / "year" / "fernhollow_casemix.csv")
     cases = sum(t.cases_per_year for t in demo.types) - demo.types[0].cases_per_year + 999
     assert rows["case mix"].startswith(f"{len(demo.types)} case types, {cases:,} cases per year")
@@ -313,8 +319,11 @@ def test_scenario_and_case_mix_files_upload_into_the_store(isolated_store):
     """Defect 12: a scenario file and its case mix uploaded together are saved and opened."""
     at = page("department_year.py")
     year = ROOT / "demo_data" / "year"
-    text = (year / "proposal_half_litre.toml").read_text(encoding="utf-8").replace(
-        'name = "Fernhollow proposal: 0.5 L/min maintenance"', 'name = "Uploaded proposal"')
+    text = (
+        (year / "proposal_half_litre.toml")
+        .read_text(encoding="utf-8")
+        .replace('name = "Fernhollow proposal: 0.5 L/min maintenance"', 'name = "Uploaded proposal"')
+    )
     at.get("file_uploader")[0].upload("uploaded.toml", text.encode())
     at.get("file_uploader")[1].upload("fernhollow_casemix.csv", (year / "fernhollow_casemix.csv").read_bytes())
     run(at)
@@ -343,8 +352,7 @@ def test_compare_takes_saved_years_and_several_proposals_against_a_chosen_baseli
     assert "Unsafe half litre · saved" in options
     cmp.selectbox(key="yc_base").select("Fernhollow proposal: 0.5 L/min maintenance")
     run(cmp)
-    cmp.multiselect(key="yc_props").set_value(["Fernhollow baseline: 2 L/min maintenance",
-                                               "Unsafe half litre · saved"])
+    cmp.multiselect(key="yc_props").set_value(["Fernhollow baseline: 2 L/min maintenance", "Unsafe half litre · saved"])
     run(cmp)
     assert len([m for m in cmp.metric if m.label == "Change in cost"]) == 2
     table = next(d.value for d in cmp.dataframe if "year compared" in d.value.columns)
@@ -363,11 +371,12 @@ def test_a_plan_files_own_prices_apply_only_when_chosen_and_are_kept_when_saved(
     from dataclasses import replace
 
     from model.io.plans import load_plan
-    page("case_plan.py")                                  # the first run seeds the demo plans
+
+    page("case_plan.py")  # the first run seeds the demo plans
     store = Store(isolated_store)
     plan = load_plan(ROOT / "demo_data" / "plans" / "lap_chole_high_flow.toml")
     store.save_plan(replace(plan, name="Priced plan", prices={"bottle": {"sevoflurane": 1200.0}}))
-    at = page("case_plan.py")                             # the most recent plan opens first
+    at = page("case_plan.py")  # the most recent plan opens first
     assert at.text_input(key="cp_name").value == "Priced plan"
     cost = _number(metric_value(at, "Cost"))
     at.checkbox(key="cp_own_prices").check()

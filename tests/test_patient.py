@@ -3,13 +3,19 @@
 import numpy as np
 import pytest
 
-from model.patient import brody_cardiac_output_l_min, brody_vo2_ml_min, default_minute_ventilation_l_min, patient_values, resolve_patient
+from model.patient import (
+    brody_cardiac_output_l_min,
+    brody_vo2_ml_min,
+    default_minute_ventilation_l_min,
+    patient_values,
+    resolve_patient,
+)
 from model.plan import Patient
 
 
 def test_brody_vo2_at_70_kg():
     # Source: Lowe HJ, Ernst EA, The Quantitative Practice of Anesthesia, 1981: VO2 = 10 kg^0.75 mL/min
-    assert brody_vo2_ml_min(70.0) == pytest.approx(10 * 70 ** 0.75, rel=1e-12)
+    assert brody_vo2_ml_min(70.0) == pytest.approx(10 * 70**0.75, rel=1e-12)
     # Source: same; the worked value is about 242 mL/min for 70 kg
     assert brody_vo2_ml_min(70.0) == pytest.approx(242.0, abs=0.5)
 
@@ -37,8 +43,13 @@ def test_default_minute_ventilation_is_about_6_l_min_for_70_kg():
 
 
 def test_overrides_replace_defaults_and_nan_keeps_the_default():
-    pv = resolve_patient([70.0, 70.0], 40.0, cardiac_output_l_min=[6.0, np.nan], vo2_ml_min=[300.0, np.nan],
-                         minute_ventilation_l_min=[8.0, np.nan])
+    pv = resolve_patient(
+        [70.0, 70.0],
+        40.0,
+        cardiac_output_l_min=[6.0, np.nan],
+        vo2_ml_min=[300.0, np.nan],
+        minute_ventilation_l_min=[8.0, np.nan],
+    )
     assert pv.cardiac_output_l_min.tolist() == pytest.approx([6.0, 4.84], abs=0.01)
     assert pv.vo2_l_min.tolist() == pytest.approx([0.300, 0.242], abs=0.001)
     assert pv.minute_ventilation_l_min[0] == 8.0
@@ -48,4 +59,4 @@ def test_overrides_replace_defaults_and_nan_keeps_the_default():
 def test_patient_values_from_a_plan_patient():
     pv = patient_values(Patient(weight_kg=50.0, age_years=30.0, vo2_ml_min=200.0))
     assert float(pv.vo2_l_min) == pytest.approx(0.2)
-    assert float(pv.cardiac_output_l_min) == pytest.approx(0.2 * 50 ** 0.75)
+    assert float(pv.cardiac_output_l_min) == pytest.approx(0.2 * 50**0.75)

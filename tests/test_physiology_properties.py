@@ -35,8 +35,12 @@ def plans(draw):
     agent = draw(st.sampled_from(VOLATILES))
     ph = tuple(draw(phases(agent)) for _ in range(draw(st.integers(1, 3))))
     patient = Patient(draw(floats(3.0, 150.0)), draw(floats(1.0, 100.0)))
-    s = replace(Settings(), uptake_model=draw(st.sampled_from(["compartment", "lowe"])),
-                circle_volume_l=draw(floats(1.0, 10.0)), ratio_behaviour=draw(st.sampled_from(["cap_n2o", "raise_o2"])))
+    s = replace(
+        Settings(),
+        uptake_model=draw(st.sampled_from(["compartment", "lowe"])),
+        circle_volume_l=draw(floats(1.0, 10.0)),
+        ratio_behaviour=draw(st.sampled_from(["cap_n2o", "raise_o2"])),
+    )
     return CasePlan("random", agent, ph, patient, s)
 
 
@@ -44,8 +48,15 @@ def plans(draw):
 @given(plans())
 def test_concentrations_stay_within_zero_and_one(plan):
     tc = compute_case(plan).timecourse
-    for col in ("inspired_agent_pct", "end_tidal_agent_pct", "inspired_o2_pct", "end_tidal_o2_pct",
-                "inspired_n2o_pct", "end_tidal_n2o_pct", "dial_pct"):
+    for col in (
+        "inspired_agent_pct",
+        "end_tidal_agent_pct",
+        "inspired_o2_pct",
+        "end_tidal_o2_pct",
+        "inspired_n2o_pct",
+        "end_tidal_n2o_pct",
+        "dial_pct",
+    ):
         values = tc[col].to_numpy()
         assert np.all(values >= -1e-9) and np.all(values <= 100.0 + 1e-9), col
     assert np.all(np.diff(tc["liquid_agent_cumulative_ml"]) >= -1e-9)
@@ -62,10 +73,17 @@ def test_agent_o2_and_n2o_are_conserved(plan):
 
 
 @FAST
-@given(agent=st.sampled_from(VOLATILES), target=floats(0.3, 1.5), fd_o2=floats(0.4, 1.0),
-       minutes=floats(20.0, 180.0), weight=floats(10.0, 120.0), flows=st.lists(floats(0.3, 10.0), min_size=2, max_size=5))
-def test_lower_flow_never_uses_more_liquid_for_the_same_target_and_never_less_absorbent(agent, target, fd_o2, minutes,
-                                                                                       weight, flows):
+@given(
+    agent=st.sampled_from(VOLATILES),
+    target=floats(0.3, 1.5),
+    fd_o2=floats(0.4, 1.0),
+    minutes=floats(20.0, 180.0),
+    weight=floats(10.0, 120.0),
+    flows=st.lists(floats(0.3, 10.0), min_size=2, max_size=5),
+)
+def test_lower_flow_never_uses_more_liquid_for_the_same_target_and_never_less_absorbent(
+    agent, target, fd_o2, minutes, weight, flows
+):
     a = DEFAULT_REFERENCE.volatile(agent)
     f = np.sort(np.asarray(flows))
     o2 = f * (fd_o2 - 0.20946) / (1 - 0.20946)
@@ -80,6 +98,10 @@ def test_lower_flow_never_uses_more_liquid_for_the_same_target_and_never_less_ab
 @given(plans())
 def test_phase_rows_sum_to_the_totals(plan):
     r = compute_case(plan)
-    for total, column in (("co2e_total_kg", "co2e_kg"), ("cost_total", "cost_total"), ("absorbent_g", "absorbent_g"),
-                          ("liquid_agent_ml", "liquid_agent_ml")):
+    for total, column in (
+        ("co2e_total_kg", "co2e_kg"),
+        ("cost_total", "cost_total"),
+        ("absorbent_g", "absorbent_g"),
+        ("liquid_agent_ml", "liquid_agent_ml"),
+    ):
         assert abs(r.totals[total] - r.phases[column].sum()) <= 1e-9 * max(1.0, abs(r.totals[total]))

@@ -4,11 +4,10 @@ from pathlib import Path
 
 import pytest
 
+from model.base.errors import InputError
 from model.case import compute_case
-from model.errors import InputError
-from model.plan import CasePlan, Phase, Settings
 from model.io.plans import load_plan, parse_plan_text, plan_from_dict, plan_to_toml
-
+from model.plan import CasePlan, Phase, Settings
 from model.reference import DEFAULT_REFERENCE
 
 DEMO = Path(__file__).resolve().parents[1] / "demo_data" / "plans"
@@ -47,19 +46,20 @@ dial = 3
 def plan_dict(**changes):
     """A valid plan as a dict, with top-level or phase-1 changes (``phase_<field>``)."""
     data = {
-        "name": "t", "agent": "sevoflurane",
+        "name": "t",
+        "agent": "sevoflurane",
         "patient": {"weight": "70 kg", "age": "40 year"},
         "phases": [{"name": "p", "duration": "60 min", "o2": "1 L/min", "air": "1 L/min", "dial": "2 %"}],
     }
     for key, value in changes.items():
         if key.startswith("phase_"):
-            field = key[len("phase_"):]
+            field = key[len("phase_") :]
             if value is None:
                 data["phases"][0].pop(field, None)
             else:
                 data["phases"][0][field] = value
         elif key.startswith("settings_"):
-            data.setdefault("settings", {})[key[len("settings_"):]] = value
+            data.setdefault("settings", {})[key[len("settings_") :]] = value
         elif value is None:
             data.pop(key, None)
         else:
@@ -93,8 +93,14 @@ def test_units_are_converted_at_the_edge():
 
 
 def test_other_units_convert():
-    plan = plan_from_dict(plan_dict(phase_duration="5400 s", phase_o2="60 L/h",
-                                    settings_room_temperature="295.15 K", settings_pressure="760 mmHg"))
+    plan = plan_from_dict(
+        plan_dict(
+            phase_duration="5400 s",
+            phase_o2="60 L/h",
+            settings_room_temperature="295.15 K",
+            settings_pressure="760 mmHg",
+        )
+    )
     # Source: SI definitions (1 h = 3600 s = 60 min, 1 atm = 760 mmHg = 101.325 kPa).
     assert plan.phases[0].minutes == pytest.approx(90.0)
     assert plan.phases[0].o2_l_min == pytest.approx(1.0)
@@ -149,20 +155,23 @@ BAD = {
     "gas as the agent": (dict(agent="N2O"), ["agent", "N2O", "allowed agents"]),
     "negative flow": (dict(phase_o2="-1 L/min"), ["phases[1].o2", "-1 L/min", "[0, 20] L/min"]),
     "absurd flow": (dict(phase_air="500 L/min"), ["phases[1].air", "500 L/min", "[0, 20] L/min"]),
-    "absurd total flow": (dict(phase_o2=15, phase_air=15, phase_n2o=5),
-                          ["o2/air/n2o", "35 L/min total", "30 L/min"]),
+    "absurd total flow": (dict(phase_o2=15, phase_air=15, phase_n2o=5), ["o2/air/n2o", "35 L/min total", "30 L/min"]),
     "no flow": (dict(phase_o2=0, phase_air=0), ["o2/air/n2o", "some fresh gas flow"]),
     "dial above the vaporizer": (dict(phase_dial="9 %"), ["phases[1].dial", "9 %", "up to 8 %"]),
     "dial above 100 %": (dict(phase_dial="120 %"), ["phases[1].dial", "120 %", "[0, 100] %"]),
-    "desflurane dial above 18": (dict(agent="desflurane", phase_dial=19),
-                                 ["phases[1].dial", "19 %", "up to 18 %"]),
+    "desflurane dial above 18": (dict(agent="desflurane", phase_dial=19), ["phases[1].dial", "19 %", "up to 18 %"]),
     "negative dial": (dict(phase_dial=-1), ["phases[1].dial", "-1", "[0, 100] %"]),
     "O2 share above 1": (dict(settings_min_o2_share=1.5), ["settings.min_o2_share", "1.5", "share from 0 to 1"]),
-    "O2 share above 100 %": (dict(settings_min_o2_share="120 %"),
-                             ["settings.min_o2_share", "120 %", "share from 0 to 1"]),
+    "O2 share above 100 %": (
+        dict(settings_min_o2_share="120 %"),
+        ["settings.min_o2_share", "120 %", "share from 0 to 1"],
+    ),
     "O2 floor above 1": (dict(settings_inspired_o2_floor=1.2), ["settings.inspired_o2_floor", "1.2", "0 to 1"]),
     "O2 floor under air": (dict(settings_inspired_o2_floor="15 %"), ["inspired_o2_floor", "'15 %'", "0.21"]),
-    "flow typed in mL/min": (dict(phase_o2="900000 mL/min"), ["phases[1].o2", "'900000 mL/min'", "[0, 20] L/min (that is 900 L/min)"]),
+    "flow typed in mL/min": (
+        dict(phase_o2="900000 mL/min"),
+        ["phases[1].o2", "'900000 mL/min'", "[0, 20] L/min (that is 900 L/min)"],
+    ),
     "zero O2 share": (dict(settings_min_o2_share=0), ["settings.min_o2_share", "above 0"]),
     "capture above 1": (dict(settings_capture_efficiency=2), ["settings.capture_efficiency", "2", "0 to 1"]),
     "missing duration": (dict(phase_duration=None), ["phases[1].duration", "nothing", "required"]),
@@ -177,8 +186,10 @@ BAD = {
     "both dial and target": (dict(phase_target=1.0), ["phases[1]", "dial/target", "exactly one"]),
     "neither dial nor target": (dict(phase_dial=None), ["phases[1]", "dial/target", "exactly one"]),
     # Issue 12 defect 3: a target in % is a dial setting, never read as a MAC multiple.
-    "target in percent": (dict(phase_dial=None, phase_target="2 %"),
-                          ["phases[1].target", "2 %", "MAC multiple", "not a percent"]),
+    "target in percent": (
+        dict(phase_dial=None, phase_target="2 %"),
+        ["phases[1].target", "2 %", "MAC multiple", "not a percent"],
+    ),
     "unknown field": (dict(phase_colour="red"), ["phases[1].colour", "red", "unknown field"]),
     "unknown top-level table": (dict(extras={"a": 1}), ["extras", "unknown field"]),
     "unknown GWP source": (dict(settings_gwp_source="ar7"), ["settings.gwp_source", "ar7", "ar6_gwp100"]),

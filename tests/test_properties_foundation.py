@@ -9,8 +9,8 @@ from hypothesis import strategies as st
 
 from model.case import compute_case, phase_consumption
 from model.freshgas import RATIO_BEHAVIOURS, apply_ratio_limit
-from model.plan import CasePlan, Patient, Phase, Settings
 from model.io.plans import parse_plan_text, plan_to_toml
+from model.plan import CasePlan, Patient, Phase, Settings
 from model.reference import AGENTS, GWP_SOURCES, VOLATILES
 from model.vapour import liquid_used_ml
 
@@ -53,8 +53,9 @@ def test_liquid_use_adds_over_consecutive_periods(agent, fgf, dial, t1, t2):
 def test_liquid_use_is_linear_in_dial(agent, fgf, d1, d2, t):
     # additive and homogeneous in the dial setting
     both = liquid_used_ml(fgf, d1 + d2, t, agent)
-    assert both == pytest.approx(liquid_used_ml(fgf, d1, t, agent) + liquid_used_ml(fgf, d2, t, agent),
-                                 rel=1e-9, abs=1e-12)
+    assert both == pytest.approx(
+        liquid_used_ml(fgf, d1, t, agent) + liquid_used_ml(fgf, d2, t, agent), rel=1e-9, abs=1e-12
+    )
     assert liquid_used_ml(fgf, 0.0, t, agent) == 0.0
 
 
@@ -84,8 +85,12 @@ meter_flows = st.one_of(st.just(0.0), floats(1e-9, 20.0))
 
 
 @settings(max_examples=300, deadline=None)
-@given(st.lists(st.tuples(meter_flows, meter_flows), min_size=1, max_size=30), floats(0.01, 1.0),
-       floats(0.0, 5.0), st.sampled_from(RATIO_BEHAVIOURS))
+@given(
+    st.lists(st.tuples(meter_flows, meter_flows), min_size=1, max_size=30),
+    floats(0.01, 1.0),
+    floats(0.0, 5.0),
+    st.sampled_from(RATIO_BEHAVIOURS),
+)
 def test_ratio_limit_never_delivers_o2_share_under_minimum(requests, share, cutoff, behaviour):
     o2_req, n2o_req = (np.array(c) for c in zip(*requests))
     o2, n2o, altered = apply_ratio_limit(o2_req, n2o_req, share, cutoff, behaviour)
@@ -104,8 +109,12 @@ def test_ratio_limit_never_delivers_o2_share_under_minimum(requests, share, cuto
 
 
 @FAST
-@given(agents, st.lists(st.tuples(flows, flows, flows, dials, minutes), min_size=1, max_size=20),
-       floats(0.05, 1.0), st.sampled_from(RATIO_BEHAVIOURS))
+@given(
+    agents,
+    st.lists(st.tuples(flows, flows, flows, dials, minutes), min_size=1, max_size=20),
+    floats(0.05, 1.0),
+    st.sampled_from(RATIO_BEHAVIOURS),
+)
 def test_phase_rows_never_deliver_o2_share_under_minimum(agent, rows, share, behaviour):
     o2, air, n2o, dial, t = (np.array(c) for c in zip(*rows))
     c = phase_consumption(t, o2, air, n2o, dial, agent, min_o2_share=share, ratio_behaviour=behaviour)
@@ -125,8 +134,14 @@ def dial_phases(draw, agent_name):
     air = draw(floats(0.0, 10.0))
     n2o = draw(floats(0.0, 10.0))
     assume(o2 + air + n2o > 0.05)
-    return Phase(draw(st.sampled_from(["induction", "maintenance", "emergence", "x"])),
-                 draw(floats(0.5, 300.0)), o2, air, n2o, dial_pct=draw(floats(0.0, vmax)))
+    return Phase(
+        draw(st.sampled_from(["induction", "maintenance", "emergence", "x"])),
+        draw(floats(0.5, 300.0)),
+        o2,
+        air,
+        n2o,
+        dial_pct=draw(floats(0.0, vmax)),
+    )
 
 
 @st.composite
@@ -136,18 +151,26 @@ def dial_plans(draw):
     source = draw(st.sampled_from([k for k in GWP_SOURCES if k != "user"]))
     if agent == "halothane" and source == "sulbaek_andersen_2012":
         source = "ar6_gwp100"
-    s = Settings(temperature_c=draw(floats(10.0, 35.0)), gwp_source=source,
-                 capture_efficiency=draw(floats(0.0, 1.0)),
-                 min_o2_share=draw(floats(0.1, 1.0)),
-                 ratio_behaviour=draw(st.sampled_from(RATIO_BEHAVIOURS)))
+    s = Settings(
+        temperature_c=draw(floats(10.0, 35.0)),
+        gwp_source=source,
+        capture_efficiency=draw(floats(0.0, 1.0)),
+        min_o2_share=draw(floats(0.1, 1.0)),
+        ratio_behaviour=draw(st.sampled_from(RATIO_BEHAVIOURS)),
+    )
     patient = Patient(weight_kg=draw(floats(3.0, 150.0)), age_years=draw(floats(1.0, 100.0)))
     return CasePlan("property plan", agent, phases, patient, s)
 
 
 SUMMED = {
-    "duration_min": "duration_min", "liquid_agent_ml": "liquid_agent_ml",
-    "agent_mass_g": "agent_mass_g", "oxygen_l": "oxygen_l", "air_l": "air_l",
-    "nitrous_oxide_l": "nitrous_oxide_l", "co2e_total_kg": "co2e_kg", "cost_total": "cost_total",
+    "duration_min": "duration_min",
+    "liquid_agent_ml": "liquid_agent_ml",
+    "agent_mass_g": "agent_mass_g",
+    "oxygen_l": "oxygen_l",
+    "air_l": "air_l",
+    "nitrous_oxide_l": "nitrous_oxide_l",
+    "co2e_total_kg": "co2e_kg",
+    "cost_total": "cost_total",
     "mac_hours": "mac_hours",
 }
 
@@ -173,7 +196,7 @@ def test_case_totals_do_not_change_when_a_phase_is_split(plan, index, cut):
     p = plan.phases[index]
     first = replace(p, minutes=p.minutes * cut)
     second = replace(p, minutes=p.minutes - first.minutes)
-    split = replace(plan, phases=plan.phases[:index] + (first, second) + plan.phases[index + 1:])
+    split = replace(plan, phases=plan.phases[:index] + (first, second) + plan.phases[index + 1 :])
     a, b = compute_case(plan).totals, compute_case(split).totals
     for key in SUMMED:
         # Consumption is exact. Emissions and absorbent (in cost_total) come from the circle
@@ -185,8 +208,9 @@ def test_case_totals_do_not_change_when_a_phase_is_split(plan, index, cut):
 
 # --- plan files -----------------------------------------------------------------------------
 
-names = st.text(st.characters(codec="utf-8", exclude_categories=("Cs", "Cc")), min_size=1,
-                max_size=40).filter(lambda s: s == s.strip() and s != "")
+names = st.text(st.characters(codec="utf-8", exclude_categories=("Cs", "Cc")), min_size=1, max_size=40).filter(
+    lambda s: s == s.strip() and s != ""
+)
 
 
 @st.composite
@@ -205,16 +229,32 @@ def any_phases(draw, agent_name):
 def any_plans(draw):
     agent = draw(st.sampled_from(VOLATILES))
     optional = lambda strat: st.one_of(st.none(), strat)  # noqa: E731
-    patient = Patient(draw(floats(0.5, 350.0)), draw(floats(0.0, 120.0)),
-                      draw(optional(floats(0.11, 40.0))), draw(optional(floats(5.0, 2000.0))),
-                      draw(optional(floats(0.2, 40.0))))
-    s = Settings(draw(floats(0.0, 45.0)), draw(floats(50.0, 120.0)),
-                 draw(st.sampled_from(list(GWP_SOURCES))), draw(floats(0.0, 1.0)),
-                 draw(floats(1e-6, 1.0)), draw(floats(0.0, 5.0)),
-                 draw(st.sampled_from(RATIO_BEHAVIOURS)), draw(floats(0.21, 1.0)),
-                 draw(floats(0.0, 20.0)))
-    prices = draw(st.one_of(st.just({}), st.fixed_dictionaries(
-        {"currency": st.sampled_from(["EUR", "GBP", "CHF"]), "oxygen_per_1000_l": floats(0.0, 100.0)})))
+    patient = Patient(
+        draw(floats(0.5, 350.0)),
+        draw(floats(0.0, 120.0)),
+        draw(optional(floats(0.11, 40.0))),
+        draw(optional(floats(5.0, 2000.0))),
+        draw(optional(floats(0.2, 40.0))),
+    )
+    s = Settings(
+        draw(floats(0.0, 45.0)),
+        draw(floats(50.0, 120.0)),
+        draw(st.sampled_from(list(GWP_SOURCES))),
+        draw(floats(0.0, 1.0)),
+        draw(floats(1e-6, 1.0)),
+        draw(floats(0.0, 5.0)),
+        draw(st.sampled_from(RATIO_BEHAVIOURS)),
+        draw(floats(0.21, 1.0)),
+        draw(floats(0.0, 20.0)),
+    )
+    prices = draw(
+        st.one_of(
+            st.just({}),
+            st.fixed_dictionaries(
+                {"currency": st.sampled_from(["EUR", "GBP", "CHF"]), "oxygen_per_1000_l": floats(0.0, 100.0)}
+            ),
+        )
+    )
     phases = tuple(draw(st.lists(any_phases(agent), min_size=1, max_size=6)))
     return CasePlan(draw(names), agent, phases, patient, s, prices)
 

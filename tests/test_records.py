@@ -9,10 +9,10 @@ import pandas as pd
 import pytest
 
 from model.audit.engine import audit_records
-from model.errors import InputError
+from model.base.errors import InputError
 from model.freshgas import delivered_fractions
-from model.io.record_report import ISSUE_KINDS
 from model.io.record_files import inspect_file
+from model.io.record_report import ISSUE_KINDS
 
 HEADER = "case_id,elapsed,theatre,agent,o2,air,n2o,dial\n"
 
@@ -43,12 +43,16 @@ def test_clean_file_uses_every_row(tmp_path):
 def test_units_line_and_column_units_convert_with_pint(tmp_path):
     base = audit_records([_csv(tmp_path, _rows("A"), "base.csv")]).cases
     # Source: SI definitions (1 L = 1000 mL, 1 min = 60 s), applied through pint.
-    ml = "# units: o2=mL/min, air=mL/min, elapsed=s\n" + HEADER + "".join(
-        f"A,{t * 60},Alder,sevoflurane,500,500,0,2\n" for t in range(11))
+    ml = (
+        "# units: o2=mL/min, air=mL/min, elapsed=s\n"
+        + HEADER
+        + "".join(f"A,{t * 60},Alder,sevoflurane,500,500,0,2\n" for t in range(11))
+    )
     p1 = tmp_path / "ml.csv"
     p1.write_text(ml, encoding="utf-8")
     named = "case_id,elapsed [h],theatre,agent,o2 [mL/min],air (L/min),n2o,dial [%]\n" + "".join(
-        f"A,{t / 60},Alder,sevoflurane,500,0.5,0,2\n" for t in range(11))
+        f"A,{t / 60},Alder,sevoflurane,500,0.5,0,2\n" for t in range(11)
+    )
     p2 = tmp_path / "named.csv"
     p2.write_text(named, encoding="utf-8")
     for p in (p1, p2):
@@ -59,7 +63,8 @@ def test_units_line_and_column_units_convert_with_pint(tmp_path):
 
 def test_total_flow_with_o2_share_gives_that_fresh_gas_o2(tmp_path):
     body = "case_id,elapsed,agent,fgf,o2_share,n2o_share,dial\n" + "".join(
-        f"A,{t},sevoflurane,2.0,40,50,2\n" for t in range(11))
+        f"A,{t},sevoflurane,2.0,40,50,2\n" for t in range(11)
+    )
     p = tmp_path / "total.csv"
     p.write_text(body, encoding="utf-8")
     c = audit_records([p]).cases.iloc[0]
@@ -71,12 +76,15 @@ def test_total_flow_with_o2_share_gives_that_fresh_gas_o2(tmp_path):
     assert fd_n2o == pytest.approx(0.50)
 
 
-@pytest.mark.parametrize("header, missing", [
-    ("elapsed,agent,o2,dial\n", "case_id"),
-    ("case_id,agent,o2,dial\n", "time or elapsed"),
-    ("case_id,elapsed,o2,dial\n", "agent"),
-    ("case_id,elapsed,agent,dial\n", "flows"),
-])
+@pytest.mark.parametrize(
+    "header, missing",
+    [
+        ("elapsed,agent,o2,dial\n", "case_id"),
+        ("case_id,agent,o2,dial\n", "time or elapsed"),
+        ("case_id,elapsed,o2,dial\n", "agent"),
+        ("case_id,elapsed,agent,dial\n", "flows"),
+    ],
+)
 def test_missing_columns_raise_one_line_naming_them(tmp_path, header, missing):
     p = _csv(tmp_path, "A,1,sevoflurane,1\n", header=header)
     with pytest.raises(InputError) as err:
@@ -108,7 +116,9 @@ def test_each_kind_of_bad_row_is_reported_with_its_line(tmp_path):
         ("A,3,Alder,sevoflurane,0.5,0.5,0,2", "time_backwards"),
     ]
     body = good + "".join(line + "\n" for line, _ in lines) + "A,12,Alder,sevoflurane,0.5,0.5,0,2\n"
-    raw = (HEADER + body).encode() + b"A,13,Alder,sevo\xfflurane,0.5,0.5,0,2\n" + b"A,14,Alder,sevoflurane,0.5,0.5,0,2\n"
+    raw = (
+        (HEADER + body).encode() + b"A,13,Alder,sevo\xfflurane,0.5,0.5,0,2\n" + b"A,14,Alder,sevoflurane,0.5,0.5,0,2\n"
+    )
     p = _csv(tmp_path, "", raw=raw)
     r = audit_records([p])
     issues = r.report.issues
@@ -136,9 +146,15 @@ def test_gap_is_reported_and_not_filled(tmp_path):
 
 
 def test_parquet_reports_row_numbers_and_reads_typed_columns(tmp_path):
-    df = pd.DataFrame({"case_id": ["A"] * 4, "time": pd.to_datetime(["2025-03-01 08:00", "2025-03-01 08:01",
-                                                                       "2025-03-01 08:01", "2025-03-01 08:02"]),
-                       "agent": "sevoflurane", "o2 [L/min]": [1.0, 1.0, 1.0, np.nan], "dial": 2.0})
+    df = pd.DataFrame(
+        {
+            "case_id": ["A"] * 4,
+            "time": pd.to_datetime(["2025-03-01 08:00", "2025-03-01 08:01", "2025-03-01 08:01", "2025-03-01 08:02"]),
+            "agent": "sevoflurane",
+            "o2 [L/min]": [1.0, 1.0, 1.0, np.nan],
+            "dial": 2.0,
+        }
+    )
     p = tmp_path / "r.parquet"
     df.to_parquet(p)
     r = audit_records([p])
@@ -149,8 +165,9 @@ def test_parquet_reports_row_numbers_and_reads_typed_columns(tmp_path):
 
 def test_a_glob_of_parquet_files_reads_as_one_set(tmp_path):
     for i in range(3):
-        pd.DataFrame({"case_id": [f"C{i}"] * 3, "elapsed": [0.0, 1.0, 2.0], "agent": "isoflurane",
-                      "o2": 1.0, "dial": 1.0}).to_parquet(tmp_path / f"part-{i}.parquet")
+        pd.DataFrame(
+            {"case_id": [f"C{i}"] * 3, "elapsed": [0.0, 1.0, 2.0], "agent": "isoflurane", "o2": 1.0, "dial": 1.0}
+        ).to_parquet(tmp_path / f"part-{i}.parquet")
     r = audit_records([str(tmp_path / "part-*.parquet")])
     assert sorted(r.cases["case_id"]) == ["C0", "C1", "C2"]
     assert r.report.rows_valid == 9

@@ -14,8 +14,7 @@ from model.audit.engine import audit_records
 
 HEADER = "case_id,elapsed,theatre,agent,o2,air,n2o,dial"
 AGENTS = ("sevoflurane", "desflurane", "isoflurane", "Sevo", "ISO")
-ROW_KINDS = ("text_in_number", "unknown_agent", "negative_flow", "absurd_flow", "absurd_setting",
-             "missing_value")
+ROW_KINDS = ("text_in_number", "unknown_agent", "negative_flow", "absurd_flow", "absurd_setting", "missing_value")
 TIME_KINDS = ("duplicate_time", "time_backwards")
 CSV_KINDS = ("field_count", "encoding")
 
@@ -114,15 +113,22 @@ def test_broken_lines_are_reported_by_line_and_no_valid_row_is_lost(case):
 @given(clean_cases(), st.lists(st.sampled_from(("negative_flow", "absurd_setting", "unknown_agent")), max_size=4))
 def test_parquet_rows_set_aside_are_numbered_and_the_rest_all_used(clean, kinds):
     df = pd.DataFrame(clean, columns=HEADER.split(","))
-    bad = pd.DataFrame([[f.decode() if isinstance(f, bytes) else f for f in _bad_row(k).decode().split(",")]
-                        for k in kinds], columns=HEADER.split(",")).astype(df.dtypes.to_dict()) if kinds else df.iloc[:0]
+    bad = (
+        pd.DataFrame(
+            [[f.decode() if isinstance(f, bytes) else f for f in _bad_row(k).decode().split(",")] for k in kinds],
+            columns=HEADER.split(","),
+        ).astype(df.dtypes.to_dict())
+        if kinds
+        else df.iloc[:0]
+    )
     whole = pd.concat([bad, df], ignore_index=True)
     with tempfile.TemporaryDirectory() as tmp:
         p = Path(tmp) / "r.parquet"
         whole.to_parquet(p)
         r = audit_records([p])
     assert dict(zip(r.report.issues["row"].astype(int), r.report.issues["kind"])) == {
-        i + 1: k for i, k in enumerate(kinds)}
+        i + 1: k for i, k in enumerate(kinds)
+    }
     assert r.report.rows_valid == len(clean)
     assert int(r.cases["samples"].sum()) == len(clean)
 
@@ -130,8 +136,14 @@ def test_parquet_rows_set_aside_are_numbered_and_the_rest_all_used(clean, kinds)
 @pytest.mark.parametrize("kind", ROW_KINDS + CSV_KINDS)
 def test_each_bad_line_kind_is_recognised_on_its_own(tmp_path, kind):
     p = tmp_path / "one.csv"
-    p.write_bytes(HEADER.encode() + b"\n" + _line(("A", 0.0, "Hazel", "sevoflurane", 1.0, 0.0, 0.0, 1.0)) + b"\n"
-                  + _bad_row(kind) + b"\n")
+    p.write_bytes(
+        HEADER.encode()
+        + b"\n"
+        + _line(("A", 0.0, "Hazel", "sevoflurane", 1.0, 0.0, 0.0, 1.0))
+        + b"\n"
+        + _bad_row(kind)
+        + b"\n"
+    )
     r = audit_records([p])
     assert r.report.issues["kind"].tolist() == [kind]
     assert r.report.issues["row"].tolist() == [3]

@@ -6,8 +6,22 @@ import globalwarmingpotentials as gwp_tables
 import pytest
 from molmass import Formula
 
-from model.errors import InputError
-from model.reference import AGENT_FIELDS, AGENTS, AIR_O2_FRACTION, COMMON_PRACTICE, DEFAULT_REFERENCE, FROM_MEMORY, GWP_SOURCES, INVENTED, PUBLISHED, USER, VOLATILES, Reference, load_settings
+from model.base.errors import InputError
+from model.reference import (
+    AGENT_FIELDS,
+    AGENTS,
+    AIR_O2_FRACTION,
+    COMMON_PRACTICE,
+    DEFAULT_REFERENCE,
+    FROM_MEMORY,
+    GWP_SOURCES,
+    INVENTED,
+    PUBLISHED,
+    USER,
+    VOLATILES,
+    Reference,
+    load_settings,
+)
 
 FORMULAS = {
     "sevoflurane": "C4H3F7O",
@@ -29,8 +43,12 @@ def test_molar_mass_matches_molmass(name, formula):
 def test_air_molar_mass_matches_its_composition():
     # Source: molmass (PyPI) for N2, O2, Ar and CO2; dry-air mole fractions from the
     # US Standard Atmosphere 1976 (N2 0.78084, O2 0.20946, Ar 0.00934, CO2 ~0.00036), from memory.
-    air = (0.78084 * Formula("N2").mass + 0.20946 * Formula("O2").mass
-           + 0.00934 * Formula("Ar").mass + 0.00036 * Formula("CO2").mass)
+    air = (
+        0.78084 * Formula("N2").mass
+        + 0.20946 * Formula("O2").mass
+        + 0.00934 * Formula("Ar").mass
+        + 0.00036 * Formula("CO2").mass
+    )
     assert AGENTS["air"].molar_mass == pytest.approx(air, rel=1e-3)
     # Source: US Standard Atmosphere 1976 (O2 20.946 % of dry air), from memory.
     assert AIR_O2_FRACTION == pytest.approx(0.20946)
@@ -181,9 +199,13 @@ def test_unknown_gwp_source_names_the_allowed_ones():
 
 def test_override_replaces_value_and_keeps_default_with_its_source():
     ref = Reference().with_overrides(
-        {"agents": {"sevoflurane": {"mac40": 2.0}}, "gwp": {"ar6_gwp100": {"desflurane": 2500}},
-         "prices": {"currency": "EUR", "bottle": {"sevoflurane": 99.0}, "oxygen_per_1000_l": 4.5}},
-        "local.toml")
+        {
+            "agents": {"sevoflurane": {"mac40": 2.0}},
+            "gwp": {"ar6_gwp100": {"desflurane": 2500}},
+            "prices": {"currency": "EUR", "bottle": {"sevoflurane": 99.0}, "oxygen_per_1000_l": 4.5},
+        },
+        "local.toml",
+    )
     sevo = ref.agents["sevoflurane"].values["mac40"]
     assert sevo.value == 2.0 and sevo.basis == USER and "local.toml" in sevo.source
     assert sevo.default.value == AGENTS["sevoflurane"].mac40
@@ -215,21 +237,24 @@ def test_user_gwp_source_takes_values_from_settings():
         ref.gwp("desflurane", "user")
 
 
-@pytest.mark.parametrize("overrides, field", [
-    ({"colours": {}}, "[colours]"),
-    ({"agents": {"xenon": {"mac40": 1}}}, "agents.xenon"),
-    ({"agents": {"sevoflurane": {"colour": 1}}}, "agents.sevoflurane.colour"),
-    ({"agents": {"sevoflurane": {"mac40": "two"}}}, "agents.sevoflurane.mac40"),
-    ({"agents": {"sevoflurane": {"mac40": -1}}}, "agents.sevoflurane.mac40"),
-    ({"agents": {"sevoflurane": {"mac40": float("nan")}}}, "agents.sevoflurane.mac40"),
-    ({"gwp": {"ar9": {"sevoflurane": 1}}}, "gwp_source"),
-    ({"gwp": {"user": {"sevoflurane": -5}}}, "gwp.user.sevoflurane"),
-    ({"prices": {"bottle": {"oxygen": 3}}}, "prices.bottle.oxygen"),
-    ({"prices": {"gold_per_kg": 3}}, "prices.gold_per_kg"),
-    ({"prices": {"currency": ""}}, "prices.currency"),
-    ({"prices": {"absorbent_per_kg": -1}}, "prices.absorbent_per_kg"),
-    ({"prices": 5}, "[prices]"),
-])
+@pytest.mark.parametrize(
+    "overrides, field",
+    [
+        ({"colours": {}}, "[colours]"),
+        ({"agents": {"xenon": {"mac40": 1}}}, "agents.xenon"),
+        ({"agents": {"sevoflurane": {"colour": 1}}}, "agents.sevoflurane.colour"),
+        ({"agents": {"sevoflurane": {"mac40": "two"}}}, "agents.sevoflurane.mac40"),
+        ({"agents": {"sevoflurane": {"mac40": -1}}}, "agents.sevoflurane.mac40"),
+        ({"agents": {"sevoflurane": {"mac40": float("nan")}}}, "agents.sevoflurane.mac40"),
+        ({"gwp": {"ar9": {"sevoflurane": 1}}}, "gwp_source"),
+        ({"gwp": {"user": {"sevoflurane": -5}}}, "gwp.user.sevoflurane"),
+        ({"prices": {"bottle": {"oxygen": 3}}}, "prices.bottle.oxygen"),
+        ({"prices": {"gold_per_kg": 3}}, "prices.gold_per_kg"),
+        ({"prices": {"currency": ""}}, "prices.currency"),
+        ({"prices": {"absorbent_per_kg": -1}}, "prices.absorbent_per_kg"),
+        ({"prices": 5}, "[prices]"),
+    ],
+)
 def test_bad_override_names_the_field(overrides, field):
     with pytest.raises(InputError) as info:
         Reference().with_overrides(overrides, "my.toml")
@@ -248,11 +273,14 @@ def test_load_settings_reads_file_and_environment(tmp_path, monkeypatch):
     assert load_settings().prices.currency == DEFAULT_REFERENCE.prices.currency
 
 
-@pytest.mark.parametrize("content, expected", [
-    (None, "no such file"),
-    ("[prices\n", "not valid TOML"),
-    (b"\xff\xfe\x00", "not UTF-8"),
-])
+@pytest.mark.parametrize(
+    "content, expected",
+    [
+        (None, "no such file"),
+        ("[prices\n", "not valid TOML"),
+        (b"\xff\xfe\x00", "not UTF-8"),
+    ],
+)
 def test_bad_settings_file_is_one_clear_line(tmp_path, content, expected):
     path = tmp_path / "settings.toml"
     if isinstance(content, bytes):
@@ -267,6 +295,7 @@ def test_bad_settings_file_is_one_clear_line(tmp_path, content, expected):
 
 def test_demo_settings_file_loads_and_is_invented():
     from pathlib import Path
+
     path = Path(__file__).resolve().parents[1] / "demo_data" / "settings.toml"
     text = path.read_text(encoding="utf-8")
     assert "Fernhollow" in text and "invented" in text.lower()

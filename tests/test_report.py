@@ -12,17 +12,28 @@ import globalwarmingpotentials as gwp_tables
 import numpy as np
 import pandas as pd
 import pytest
-from hypothesis import given, settings, strategies as st
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from model.audit.engine import audit_records
 from model.audit.reconcile import purchase_emissions
 from model.audit.result import summarise
-from model.errors import InputError
+from model.base.errors import InputError
 from model.io.purchases import load_purchases
 from model.io.sites import parse_sites, read_sites
-from model.report import (FACTORS, PeriodMix, build_report, decompose, lmdi_additive, logmean, month_shares,
-                          parse_period, parse_target, target_path_t)
 from model.reference import DEFAULT_REFERENCE
+from model.report import (
+    FACTORS,
+    PeriodMix,
+    build_report,
+    decompose,
+    lmdi_additive,
+    logmean,
+    month_shares,
+    parse_period,
+    parse_target,
+    target_path_t,
+)
 from model.report.figures import assign_sites
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -43,6 +54,7 @@ def demo_purchases():
 
 # ---- LMDI ------------------------------------------------------------------------------
 
+
 def test_two_sector_worked_example_by_hand_from_the_lmdi_i_formulas():
     # Source: Ang B.W., Energy Policy 2005;33:867-71, Table 1, additive LMDI-I:
     # dX_k = sum_i L(E_i^T, E_i^0) ln(x_ik^T / x_ik^0), L(a, b) = (a - b) / (ln a - ln b).
@@ -62,12 +74,24 @@ def test_two_sector_worked_example_by_hand_from_the_lmdi_i_formulas():
 
 def _mix(hours, agent_hours, agent_kg, n2o_kg, source="ar6_gwp100"):
     from model.reference import DEFAULT_REFERENCE as ref
-    return PeriodMix(hours, dict(agent_hours), dict(agent_kg), {a: ref.gwp(a, source) for a in agent_kg},
-                     n2o_kg, ref.gwp("nitrous_oxide", source), source)
+
+    return PeriodMix(
+        hours,
+        dict(agent_hours),
+        dict(agent_kg),
+        {a: ref.gwp(a, source) for a in agent_kg},
+        n2o_kg,
+        ref.gwp("nitrous_oxide", source),
+        source,
+    )
 
 
-BASE = _mix(2000.0, {"sevoflurane": 1500.0, "desflurane": 200.0, "isoflurane": 100.0},
-            {"sevoflurane": 40.0, "desflurane": 13.0, "isoflurane": 1.5}, 30.0)
+BASE = _mix(
+    2000.0,
+    {"sevoflurane": 1500.0, "desflurane": 200.0, "isoflurane": 100.0},
+    {"sevoflurane": 40.0, "desflurane": 13.0, "isoflurane": 1.5},
+    30.0,
+)
 
 
 def _parts(d):
@@ -76,8 +100,12 @@ def _parts(d):
 
 def test_more_hours_at_the_same_mix_and_practice_is_all_activity():
     s = 1.3
-    now = _mix(2000 * s, {a: h * s for a, h in BASE.agent_hours.items()},
-               {a: m * s for a, m in BASE.agent_kg.items()}, 30.0 * s)
+    now = _mix(
+        2000 * s,
+        {a: h * s for a, h in BASE.agent_hours.items()},
+        {a: m * s for a, m in BASE.agent_kg.items()},
+        30.0 * s,
+    )
     d = decompose(BASE, now)
     # The identity of the method: a change in one factor only goes wholly to it.
     assert d.contribution("activity") == pytest.approx(d.change_kg, rel=1e-12)
@@ -120,8 +148,12 @@ def test_an_agent_used_in_one_period_only_goes_to_the_mix_and_the_small_value_st
     # term that appears (or vanishes) to the factor that was zero; the small-value strategy
     # (zeros in the data replaced by a small number) converges to it as the number shrinks,
     # like 1 / ln(1 / small) (the LMDI weight L(C, small) does).
-    now = _mix(2000.0, {"sevoflurane": 1700.0, "isoflurane": 100.0, "desflurane": 0.0},
-               {"sevoflurane": 40.0 / 1500 * 1700, "isoflurane": 1.5, "desflurane": 0.0}, 30.0)
+    now = _mix(
+        2000.0,
+        {"sevoflurane": 1700.0, "isoflurane": 100.0, "desflurane": 0.0},
+        {"sevoflurane": 40.0 / 1500 * 1700, "isoflurane": 1.5, "desflurane": 0.0},
+        30.0,
+    )
     d = decompose(BASE, now)
     des = d.detail[d.detail["term"] == "desflurane"].set_index("factor")["contribution_kg"]
     assert des["agent mix"] == pytest.approx(-13.0 * BASE.agent_gwp["desflurane"], rel=1e-12)
@@ -135,8 +167,9 @@ def test_an_agent_used_in_one_period_only_goes_to_the_mix_and_the_small_value_st
     assert all(b < a for a, b in zip(errors, errors[1:]))
     assert errors[-1] / errors[1] == pytest.approx(math.log(1e20) / math.log(1e160), rel=0.1)
     back = decompose(now, BASE)
-    assert back.detail.set_index(["factor", "term"]).loc[("agent mix", "desflurane"), "contribution_kg"] == \
-        pytest.approx(13.0 * BASE.agent_gwp["desflurane"], rel=1e-12)
+    assert back.detail.set_index(["factor", "term"]).loc[
+        ("agent mix", "desflurane"), "contribution_kg"
+    ] == pytest.approx(13.0 * BASE.agent_gwp["desflurane"], rel=1e-12)
 
 
 _amount = st.one_of(st.just(0.0), st.floats(0.01, 5000.0))
@@ -163,15 +196,19 @@ def test_lmdi_parts_add_to_the_total_change(a, b):
 
 # ---- periods -----------------------------------------------------------------------------
 
-@pytest.mark.parametrize("text, start, end", [
-    ("2026", date(2026, 1, 1), date(2027, 1, 1)),
-    ("FY2026-04", date(2026, 4, 1), date(2027, 4, 1)),
-    ("fy2025-07", date(2025, 7, 1), date(2026, 7, 1)),
-    ("2026Q2", date(2026, 4, 1), date(2026, 7, 1)),
-    ("2026Q4", date(2026, 10, 1), date(2027, 1, 1)),
-    ("2026-03", date(2026, 3, 1), date(2026, 4, 1)),
-    ("2026-01-01..2026-06-30", date(2026, 1, 1), date(2026, 7, 1)),
-])
+
+@pytest.mark.parametrize(
+    "text, start, end",
+    [
+        ("2026", date(2026, 1, 1), date(2027, 1, 1)),
+        ("FY2026-04", date(2026, 4, 1), date(2027, 4, 1)),
+        ("fy2025-07", date(2025, 7, 1), date(2026, 7, 1)),
+        ("2026Q2", date(2026, 4, 1), date(2026, 7, 1)),
+        ("2026Q4", date(2026, 10, 1), date(2027, 1, 1)),
+        ("2026-03", date(2026, 3, 1), date(2026, 4, 1)),
+        ("2026-01-01..2026-06-30", date(2026, 1, 1), date(2026, 7, 1)),
+    ],
+)
 def test_period_syntax(text, start, end):
     p = parse_period(text)
     assert (p.start, p.end) == (start, end)
@@ -185,8 +222,20 @@ def test_a_financial_year_from_april_is_april_to_march():
     assert p.label == "financial year April 2026 to March 2027"
 
 
-@pytest.mark.parametrize("text", ["2026H1", "FY2026", "FY2026-13", "2026Q5", "2026-02-30..2026-03-01",
-                                  "2026-06-30..2026-01-01", "next year", "", "20266"])
+@pytest.mark.parametrize(
+    "text",
+    [
+        "2026H1",
+        "FY2026",
+        "FY2026-13",
+        "2026Q5",
+        "2026-02-30..2026-03-01",
+        "2026-06-30..2026-01-01",
+        "next year",
+        "",
+        "20266",
+    ],
+)
 def test_an_unknown_period_gives_one_clear_message(text):
     with pytest.raises(InputError) as err:
         parse_period(text, "--period")
@@ -209,10 +258,22 @@ def _records(tmp_path, starts):
     rows = []
     for i, t0 in enumerate(starts):
         for m in range(31):
-            rows.append((f"C{i}", (pd.Timestamp(t0) + pd.Timedelta(minutes=m)).strftime("%Y-%m-%d %H:%M:%S"),
-                         "Alder", "sevoflurane", 1.0, 1.0, 0.0, 2.0))
+            rows.append(
+                (
+                    f"C{i}",
+                    (pd.Timestamp(t0) + pd.Timedelta(minutes=m)).strftime("%Y-%m-%d %H:%M:%S"),
+                    "Alder",
+                    "sevoflurane",
+                    1.0,
+                    1.0,
+                    0.0,
+                    2.0,
+                )
+            )
     p = tmp_path / "r.csv"
-    pd.DataFrame(rows, columns=["case_id", "time", "theatre", "agent", "o2", "air", "n2o", "dial"]).to_csv(p, index=False)
+    pd.DataFrame(rows, columns=["case_id", "time", "theatre", "agent", "o2", "air", "n2o", "dial"]).to_csv(
+        p, index=False
+    )
     return audit_records([p])
 
 
@@ -226,6 +287,7 @@ def test_a_date_range_cuts_cases_by_their_start(tmp_path):
 
 
 # ---- figures against the audit and the purchases ---------------------------------------
+
 
 @pytest.mark.parametrize("gwp", ["ar6_gwp100", "ar5_gwp100", "ar6_gwp20"])
 def test_use_based_figures_equal_the_record_audit_for_the_same_rows(gwp):
@@ -275,8 +337,13 @@ def test_purchase_based_figures_equal_the_purchases_for_the_same_months(demo, de
 
 
 def test_demo_second_year_shows_the_change_of_practice(demo, demo_purchases):
-    r = build_report(demo.cases, parse_period("2026"), parse_period("2025"), purchases=demo_purchases,
-                     target=parse_target("-5%/year"))
+    r = build_report(
+        demo.cases,
+        parse_period("2026"),
+        parse_period("2025"),
+        purchases=demo_purchases,
+        target=parse_target("-5%/year"),
+    )
     f0, f1 = r.baseline.figures, r.period.figures
     assert f1["fgf_l_min"] < f0["fgf_l_min"]
     assert f1["agent_hours"]["desflurane"] < 0.5 * f0["agent_hours"]["desflurane"]
@@ -286,7 +353,7 @@ def test_demo_second_year_shows_the_change_of_practice(demo, demo_purchases):
     second_half = build_report(demo.cases, parse_period("2026-07-01..2026-12-31"), purchases=demo_purchases)
     first_half = build_report(demo.cases, parse_period("2026-01-01..2026-06-30"), purchases=demo_purchases)
     share = lambda rep: rep.period.use_vs_purchase.set_index("item").loc["nitrous_oxide", "gap_share"]  # noqa: E731
-    assert gap > 0 and share(second_half) < share(first_half) / 2     # pipework mended from July
+    assert gap > 0 and share(second_half) < share(first_half) / 2  # pipework mended from July
     assert r.target.on_track
     assert f1["absorbent_kg"] > 0 and "CO2 absorbent" in set(r.figures_table()["figure"])
     assert "down" in r.headline() and "t CO2e" in r.headline()
@@ -337,8 +404,9 @@ def test_purchase_based_by_site_adds_up_to_the_whole_and_each_site_is_its_own_li
         assert t.loc["no site", "note"] == "purchases with no site"
         assert t.loc["no site", "purchase_based_t_co2e"] == 0 and t.loc["no site", "use_based_t_co2e"] == 0
     # Choosing a site: its purchases only, equal to its row of the whole report.
-    one = build_report(demo.cases, parse_period("2026"), purchases=demo_purchases, sites=sites,
-                       chosen_sites=["East wing"])
+    one = build_report(
+        demo.cases, parse_period("2026"), purchases=demo_purchases, sites=sites, chosen_sites=["East wing"]
+    )
     east = r.period.use_vs_purchase_by_site.set_index("site").loc["East wing"]
     assert one.period.purchases.co2e_t(AR6) == pytest.approx(east["purchase_based_t_co2e"], rel=1e-12)
     assert one.period.use_vs_purchase_by_site["site"].tolist() == ["East wing"]
@@ -346,22 +414,24 @@ def test_purchase_based_by_site_adds_up_to_the_whole_and_each_site_is_its_own_li
     left_out = r.period.purchases.co2e_t(AR6) - east["purchase_based_t_co2e"]
     assert len(scope) == 1 and f"{left_out:,.1f} t CO2e" in scope[0]
     assert not any("for all sites" in c for c in one.cautions)
-    from model.report.document import report_inputs
+    from model.present.report_document import report_inputs
 
     assert report_inputs(one)["purchase-based figures cover"] == "the chosen sites' purchases"
     assert report_inputs(r)["basis"].endswith(", by site") and "purchase-based figures cover" not in report_inputs(r)
     # The use-against-purchases table by item is of East wing's purchases too.
-    assert one.period.use_vs_purchase["purchase_t_co2e"].sum() == pytest.approx(east["purchase_based_t_co2e"],
-                                                                                 rel=1e-12)
+    assert one.period.use_vs_purchase["purchase_t_co2e"].sum() == pytest.approx(
+        east["purchase_based_t_co2e"], rel=1e-12
+    )
 
 
 def test_purchases_without_a_site_column_give_the_figures_they_gave_before(demo, demo_purchases, tmp_path):
     bare_files = []
-    for path in PURCHASES:   # the demo files with their site column (the last) taken out
+    for path in PURCHASES:  # the demo files with their site column (the last) taken out
         lines = path.read_text(encoding="utf-8").splitlines()
         out = tmp_path / path.name
-        out.write_text("\n".join(l if l.startswith("#") else l.rsplit(",", 1)[0] for l in lines) + "\n",
-                       encoding="utf-8")
+        out.write_text(
+            "\n".join(l if l.startswith("#") else l.rsplit(",", 1)[0] for l in lines) + "\n", encoding="utf-8"
+        )
         bare_files.append(out)
     bare = pd.concat([load_purchases(p).table for p in bare_files], ignore_index=True)
     assert list(bare.columns) == ["month", "item", "amount", "unit"]
@@ -375,8 +445,9 @@ def test_purchases_without_a_site_column_give_the_figures_they_gave_before(demo,
     # Against the audit layer directly (the path the figures took before sites existed).
     pe = purchase_emissions(bare)
     got = r0.period.purchases.by_item.set_index("item")["mass_kg"]
-    assert got.to_dict() == pytest.approx(pe[pe["month"].str.startswith("2026")].groupby("item")["mass_kg"]
-                                          .sum().to_dict(), rel=1e-12)
+    assert got.to_dict() == pytest.approx(
+        pe[pe["month"].str.startswith("2026")].groupby("item")["mass_kg"].sum().to_dict(), rel=1e-12
+    )
     assert "Use and purchases by site" not in r0.tables() and "Use and purchases by site" in r1.tables()
     d = r0.to_dict()["period"]
     assert d["use_and_purchases_by_site"] is None and d["purchase_based_by_site"] is None
@@ -385,7 +456,7 @@ def test_purchases_without_a_site_column_give_the_figures_they_gave_before(demo,
     assert one.period.purchases.co2e_t(AR6) == pytest.approx(r0.period.purchases.co2e_t(AR6), rel=1e-12)
     assert any("purchase-based figures are for all sites" in c for c in one.cautions)
     assert one.period.purchase_scope in one.cautions
-    from model.report.document import report_inputs
+    from model.present.report_document import report_inputs
 
     assert report_inputs(one)["purchase-based figures cover"] == "all sites (the purchases name no site)"
 
@@ -395,45 +466,58 @@ def test_sites_only_the_purchases_name_and_purchases_without_a_site_are_shown_as
     from model.report.figures import SITE_NOTES
 
     d = DEFAULT_REFERENCE.agents["desflurane"]
-    bought = pd.DataFrame([("2026-03", "desflurane", d.bottle_volume, "mL", "East wing"),
-                           ("2026-03", "nitrous_oxide", 546.5, "L", " east WING "),     # the same site
-                           ("2026-03", "sevoflurane", 500.0, "mL", "Nowhere"),
-                           ("2026-03", "isoflurane", 250.0, "mL", ""),
-                           ("2026-04", "isoflurane", 250.0, "mL", None)],             # outside the period
-                          columns=["month", "item", "amount", "unit", "site"])
+    bought = pd.DataFrame(
+        [
+            ("2026-03", "desflurane", d.bottle_volume, "mL", "East wing"),
+            ("2026-03", "nitrous_oxide", 546.5, "L", " east WING "),  # the same site
+            ("2026-03", "sevoflurane", 500.0, "mL", "Nowhere"),
+            ("2026-03", "isoflurane", 250.0, "mL", ""),
+            ("2026-04", "isoflurane", 250.0, "mL", None),
+        ],  # outside the period
+        columns=["month", "item", "amount", "unit", "site"],
+    )
     r = build_report(demo.cases, parse_period("2026-03"), purchases=bought, sites=read_sites(SITES))
     t = r.period.use_vs_purchase_by_site.set_index("site")
     assert list(t.index) == ["Day surgery unit", "East wing", "Main theatres", "Nowhere", "no site"]
-    assert t.loc["Nowhere", "note"] == SITE_NOTES["purchases only"] and t.loc["no site", "note"] == SITE_NOTES["no site"]
+    assert (
+        t.loc["Nowhere", "note"] == SITE_NOTES["purchases only"] and t.loc["no site", "note"] == SITE_NOTES["no site"]
+    )
     # Source: globalwarmingpotentials (PyPI), IPCC AR6 GWP100 of HFE-236ea2 (desflurane) and N2O; 546.5 L of N2O
     # at 20 degC and 101.325 kPa is 1 kg (ideal gas law, CODATA 2018 R; as in test_purchases).
-    east = (d.bottle_volume * d.liquid_density / 1000 * gwp_tables.data["AR6GWP100"]["HFE236ea2"]
-            + gwp_tables.data["AR6GWP100"]["N2O"]) / 1000.0
+    east = (
+        d.bottle_volume * d.liquid_density / 1000 * gwp_tables.data["AR6GWP100"]["HFE236ea2"]
+        + gwp_tables.data["AR6GWP100"]["N2O"]
+    ) / 1000.0
     assert t.loc["East wing", "purchase_based_t_co2e"] == pytest.approx(east, rel=1e-3)
     assert t.loc["Nowhere", "use_based_t_co2e"] == 0 and t.loc["Nowhere", "gap_share"] == 1.0
-    assert math.isnan(t.loc["Day surgery unit", "gap_share"])          # nothing bought: no share
+    assert math.isnan(t.loc["Day surgery unit", "gap_share"])  # nothing bought: no share
     assert t["purchase_based_t_co2e"].sum() == pytest.approx(r.period.purchases.co2e_t(AR6), rel=1e-12)
     assert t["use_based_t_co2e"].sum() == pytest.approx(r.period.co2e_t, rel=1e-12)
     assert any("Nowhere" in c and "misspelling" in c for c in r.cautions)
     assert any("Purchases with no site" in c for c in r.cautions)
 
 
-_PURCHASE_LINE = st.tuples(st.sampled_from(["2025-12", "2026-01", "2026-02", "2026-03"]),
-                           st.sampled_from(sorted(_ITEM_UNITS)),
-                           st.floats(0, 1e5, allow_nan=False),
-                           st.sampled_from(["Alder", "alder ", "Birch", "Elsewhere", "ELSEWHERE", "", None]))
+_PURCHASE_LINE = st.tuples(
+    st.sampled_from(["2025-12", "2026-01", "2026-02", "2026-03"]),
+    st.sampled_from(sorted(_ITEM_UNITS)),
+    st.floats(0, 1e5, allow_nan=False),
+    st.sampled_from(["Alder", "alder ", "Birch", "Elsewhere", "ELSEWHERE", "", None]),
+)
 
 
 @settings(max_examples=150, deadline=None)
-@given(lines=st.lists(_PURCHASE_LINE, max_size=30),
-       period=st.sampled_from(["2026-01", "2026Q1", "2026-01-10..2026-02-03", "2025"]))
+@given(
+    lines=st.lists(_PURCHASE_LINE, max_size=30),
+    period=st.sampled_from(["2026-01", "2026Q1", "2026-01-10..2026-02-03", "2025"]),
+)
 def test_purchase_based_by_site_sums_to_the_whole_for_any_purchases(lines, period):
     from model.reference import DEFAULT_REFERENCE
     from model.report.figures import NO_SITE, match_purchase_sites, purchase_figures, sites_against_purchases
 
     ref, sources = DEFAULT_REFERENCE, ("ar6_gwp100", "ar5_gwp100")
-    table = pd.DataFrame([(m, i, a, _ITEM_UNITS[i], s) for m, i, a, s in lines],
-                         columns=["month", "item", "amount", "unit", "site"])
+    table = pd.DataFrame(
+        [(m, i, a, _ITEM_UNITS[i], s) for m, i, a, s in lines], columns=["month", "item", "amount", "unit", "site"]
+    )
     p = parse_period(period)
     table["site"] = match_purchase_sites(table["site"], ["Alder", "Birch"]) if len(table) else []
     by = purchase_figures(table, p, ref, sources, by_site=True)
@@ -456,6 +540,7 @@ def test_purchase_based_by_site_sums_to_the_whole_for_any_purchases(lines, perio
 
 # ---- target ------------------------------------------------------------------------------
 
+
 def test_target_paths():
     base = parse_period("2025")
     # Common practice, no source: x % a year compounds; a tonnage by a year is reached in that year.
@@ -475,6 +560,7 @@ def test_a_quarter_is_compared_with_the_path_as_an_annual_rate(demo):
 
 
 # ---- bad input: one message, nothing computed lost --------------------------------------
+
 
 def test_a_baseline_without_cases_is_reported_and_the_period_stands(demo):
     r = build_report(demo.cases, parse_period("2026"), parse_period("2019"), target=parse_target("-5%/year"))
@@ -501,10 +587,16 @@ def test_site_file_format():
     assert sites == {"alder": "Main theatres", "DAY UNIT 1": "Day unit"}
     out = assign_sites(["Alder", "Day Unit 1", "Birch"], sites)
     assert list(out) == ["Main theatres", "Day unit", "unassigned"]
-    for bad, where in (("site,theatre\nA,B\n", "line 1"), ("theatre,site\nA\n", "line 2"),
-                       ("theatre,site\nA,X\na,Y\n", "line 3"), ("theatre,site\n,X\n", "line 2"), ("# only\n", "s.csv"),
-                       # The report's own rows' names (common practice, no source: ours).
-                       ("theatre,site\nA,X\nB, No Site\n", "line 3"), ("theatre,site\nA,Unassigned\n", "line 2")):
+    for bad, where in (
+        ("site,theatre\nA,B\n", "line 1"),
+        ("theatre,site\nA\n", "line 2"),
+        ("theatre,site\nA,X\na,Y\n", "line 3"),
+        ("theatre,site\n,X\n", "line 2"),
+        ("# only\n", "s.csv"),
+        # The report's own rows' names (common practice, no source: ours).
+        ("theatre,site\nA,X\nB, No Site\n", "line 3"),
+        ("theatre,site\nA,Unassigned\n", "line 2"),
+    ):
         with pytest.raises(InputError, match=where):
             parse_sites(bad, "s.csv")
 
@@ -521,6 +613,7 @@ def test_period_target_and_site_parsers_give_a_result_or_an_input_error(text):
 
 # ---- command line -----------------------------------------------------------------------
 
+
 def _cli(args, capsys):
     from model.cli import main
 
@@ -530,9 +623,29 @@ def _cli(args, capsys):
 
 
 def test_cli_report_json_and_files(tmp_path, capsys):
-    code, out, err = _cli([*YEARS, "--purchases", PURCHASES[0], "--purchases", PURCHASES[1], "--period", "2026",
-                           "--baseline", "2025", "--target", "-5%/year", "--sites", DEMO / "fernhollow_sites.csv",
-                           "--json", "--html", tmp_path / "r.html", "--xlsx", tmp_path / "r.xlsx"], capsys)
+    code, out, err = _cli(
+        [
+            *YEARS,
+            "--purchases",
+            PURCHASES[0],
+            "--purchases",
+            PURCHASES[1],
+            "--period",
+            "2026",
+            "--baseline",
+            "2025",
+            "--target",
+            "-5%/year",
+            "--sites",
+            DEMO / "fernhollow_sites.csv",
+            "--json",
+            "--html",
+            tmp_path / "r.html",
+            "--xlsx",
+            tmp_path / "r.xlsx",
+        ],
+        capsys,
+    )
     assert code == 0, err
     data = json.loads(out)
     assert data["target"]["on_track"] is True
@@ -542,25 +655,49 @@ def test_cli_report_json_and_files(tmp_path, capsys):
     html = (tmp_path / "r.html").read_text(encoding="utf-8")
     assert data["headline"].split(":")[0] in html and "Method statement" in html
     import openpyxl
+
     wb = openpyxl.load_workbook(tmp_path / "r.xlsx")
     assert {"Figures", "By agent", "What drove the change", "Notes"} <= set(wb.sheetnames)
 
 
 def test_cli_report_json_html_and_xlsx_carry_use_and_purchases_by_site(tmp_path, capsys):
-    bad = tmp_path / "bad_site.csv"      # one line with a tab in its site: set aside, the other used
-    bad.write_text('month,item,quantity,unit,size,site\n2026-05,sevoflurane,1,bottle,,"East\twing"\n'
-                   "2026-05,sevoflurane,2,bottle,,East wing\n", encoding="utf-8")
-    args = [*YEARS, "--purchases", PURCHASES[0], "--purchases", PURCHASES[1], "--purchases", bad,
-            "--period", "2026", "--baseline", "2025", "--sites", SITES]
+    bad = tmp_path / "bad_site.csv"  # one line with a tab in its site: set aside, the other used
+    bad.write_text(
+        'month,item,quantity,unit,size,site\n2026-05,sevoflurane,1,bottle,,"East\twing"\n'
+        "2026-05,sevoflurane,2,bottle,,East wing\n",
+        encoding="utf-8",
+    )
+    args = [
+        *YEARS,
+        "--purchases",
+        PURCHASES[0],
+        "--purchases",
+        PURCHASES[1],
+        "--purchases",
+        bad,
+        "--period",
+        "2026",
+        "--baseline",
+        "2025",
+        "--sites",
+        SITES,
+    ]
     code, out, err = _cli([*args, "--json", "--html", tmp_path / "r.html", "--xlsx", tmp_path / "r.xlsx"], capsys)
     assert code == 0, err
     data = json.loads(out)
     rows = {r["site"]: r for r in data["period"]["use_and_purchases_by_site"]}
     assert list(rows) == ["Day surgery unit", "East wing", "Main theatres", "no site"]
-    assert set(rows["East wing"]) == {"site", "note", "use_based_t_co2e", "purchase_based_t_co2e", "gap_t_co2e",
-                                      "gap_share"}
-    assert sum(r["use_based_t_co2e"] for r in rows.values()) == pytest.approx(data["period"]["t_co2e"]["ar6_gwp100"],
-                                                                             rel=1e-9)
+    assert set(rows["East wing"]) == {
+        "site",
+        "note",
+        "use_based_t_co2e",
+        "purchase_based_t_co2e",
+        "gap_t_co2e",
+        "gap_share",
+    }
+    assert sum(r["use_based_t_co2e"] for r in rows.values()) == pytest.approx(
+        data["period"]["t_co2e"]["ar6_gwp100"], rel=1e-9
+    )
     bought = sum(r[AR6] for r in data["period"]["purchase_based"])
     assert sum(r["purchase_based_t_co2e"] for r in rows.values()) == pytest.approx(bought, rel=1e-9)
     assert {r["site"] for r in data["period"]["purchase_based_by_site"]} == set(rows)
@@ -573,13 +710,21 @@ def test_cli_report_json_html_and_xlsx_carry_use_and_purchases_by_site(tmp_path,
     sevo = DEFAULT_REFERENCE.agents["sevoflurane"]
     two = 2 * sevo.bottle_volume * sevo.liquid_density / 1e6 * DEFAULT_REFERENCE.gwp("sevoflurane", "ar6_gwp100")
     assert rows["East wing"]["purchase_based_t_co2e"] == pytest.approx(
-        plain["East wing"]["purchase_based_t_co2e"] + two, rel=1e-9)
+        plain["East wing"]["purchase_based_t_co2e"] + two, rel=1e-9
+    )
     html = (tmp_path / "r.html").read_text(encoding="utf-8")
     assert "<h2>Use and purchases by site</h2>" in html and "purchases with no site" in html
     import openpyxl
+
     ws = openpyxl.load_workbook(tmp_path / "r.xlsx")["Use and purchases by site"]
-    assert [c.value for c in ws[1]] == ["site", "note", "use_based_t_co2e", "purchase_based_t_co2e", "gap_t_co2e",
-                                        "gap_share"]
+    assert [c.value for c in ws[1]] == [
+        "site",
+        "note",
+        "use_based_t_co2e",
+        "purchase_based_t_co2e",
+        "gap_t_co2e",
+        "gap_share",
+    ]
     # The text output prints the table; one site chosen, its purchases only and a caution that says so.
     code, out, err = _cli([*args, "--site", "East wing"], capsys)
     assert code == 0, err
@@ -588,8 +733,9 @@ def test_cli_report_json_html_and_xlsx_carry_use_and_purchases_by_site(tmp_path,
 
 def test_cli_report_html_carries_the_report_charts(tmp_path, capsys, monkeypatch):
     """``--html`` writes the charts of the Emissions report page's download, from the same builders
-    (model.charts.report, which the page reads through ui.report_charts), into a file that opens offline."""
-    import model.charts.report as report_charts
+    (model.present.report_charts, which the page reads through model.present.report_charts), into a file that opens offline.
+    """
+    import model.present.report_charts as report_charts
 
     made = []
 
@@ -599,16 +745,39 @@ def test_cli_report_html_carries_the_report_charts(tmp_path, capsys, monkeypatch
 
     recording.__wrapped__ = report_charts.report_figures
     monkeypatch.setattr(report_charts, "report_figures", recording)
-    code, out, err = _cli([*YEARS, "--purchases", PURCHASES[0], "--purchases", PURCHASES[1], "--period", "2026",
-                           "--baseline", "2025", "--target", "-5%/year", "--sites", DEMO / "fernhollow_sites.csv",
-                           "--html", tmp_path / "r.html"], capsys)
+    code, out, err = _cli(
+        [
+            *YEARS,
+            "--purchases",
+            PURCHASES[0],
+            "--purchases",
+            PURCHASES[1],
+            "--period",
+            "2026",
+            "--baseline",
+            "2025",
+            "--target",
+            "-5%/year",
+            "--sites",
+            DEMO / "fernhollow_sites.csv",
+            "--html",
+            tmp_path / "r.html",
+        ],
+        capsys,
+    )
     assert code == 0, err
     html = (tmp_path / "r.html").read_text(encoding="utf-8")
     assert len(made) == 1
     figures = made[0]
     # Baseline, purchases and target given: every chart of the report applies.
-    assert list(figures) == ["What drove the change", "Emissions by agent", "Emissions by month",
-                             "Time in each flow band", "Use-based and purchase-based", "Against the target path"]
+    assert list(figures) == [
+        "What drove the change",
+        "Emissions by agent",
+        "Emissions by month",
+        "Time in each flow band",
+        "Use-based and purchase-based",
+        "Against the target path",
+    ]
     assert html.count('class="plotly-graph-div"') == len(figures)
     for heading, fig in figures.items():
         assert f"<h2>{heading}</h2>" in html and fig.layout.title.text in html
@@ -637,9 +806,9 @@ def test_cli_report_site_file_naming_an_unknown_theatre_is_one_line_after_the_re
 def test_report_documents_escape_user_text_and_neutralise_formula_cells(demo, tmp_path):
     import openpyxl
 
-    from model.report.document import report_html, report_xlsx
+    from model.present.report_document import report_html, report_xlsx
 
-    hostile = {"Alder": "<b>Main</b>", "Birch": "=HYPERLINK(\"x\")"}
+    hostile = {"Alder": "<b>Main</b>", "Birch": '=HYPERLINK("x")'}
     r = build_report(demo.cases, parse_period("2026Q1"), parse_period("2025Q1"), sites=hostile)
     doc = report_html(r)
     assert "&lt;b&gt;Main&lt;/b&gt;" in doc and "<b>Main</b>" not in doc
@@ -648,4 +817,4 @@ def test_report_documents_escape_user_text_and_neutralise_formula_cells(demo, tm
     path.write_bytes(report_xlsx(r))
     ws = openpyxl.load_workbook(path)["By site"]
     # OWASP "CSV injection" advice (common practice): a formula from a user file stays text.
-    assert "'=HYPERLINK(\"x\")" in [c.value for c in ws["A"]]
+    assert '\'=HYPERLINK("x")' in [c.value for c in ws["A"]]

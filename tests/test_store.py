@@ -16,13 +16,13 @@ import textwrap
 from pathlib import Path
 
 import pytest
+from storetest import open_store, postgres_database, store_location  # noqa: F401  (fixtures)
 
 from model import load_plan
-from model.errors import InputError
+from model.base.errors import InputError
 from model.io.plans import plan_to_toml
-from model.store import (SCHEMA_VERSION, STORE_ENV, Store, StoreError, create_schema_1, create_schema_2,
-                         default_location, default_path)
-from storetest import open_store, postgres_database, store_location  # noqa: F401  (fixtures)
+from model.store import SCHEMA_VERSION, STORE_ENV, Store, StoreError, default_location, default_path
+from model.store.schema import create_schema_1, create_schema_2
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "demo_data" / "plans"
@@ -38,6 +38,7 @@ def _set_schema_version(location: str, version: int) -> None:
     """Write another schema version into a store's meta table, with the database's own client."""
     if location.startswith("postgresql"):
         import psycopg
+
         with psycopg.connect(location, autocommit=True) as con:
             con.execute("UPDATE meta SET value = %s WHERE key = 'schema_version'", (str(version),))
         return
@@ -66,7 +67,7 @@ def test_a_postgres_url_in_the_environment_selects_postgres(monkeypatch, open_st
         s = open_store(None)
         assert s.dialect == "postgresql" and s.path is None
         assert s.schema_version() == SCHEMA_VERSION
-        assert ":" not in s.location.split("@")[0].split("//")[1]      # no password in messages
+        assert ":" not in s.location.split("@")[0].split("//")[1]  # no password in messages
         s.close()
 
 
@@ -84,7 +85,7 @@ def test_hidden_item_can_be_restored(store, plan):
     store.save_plan(plan)
     store.hide("plan", plan.name)
     assert plan.name not in store.names("plan")
-    assert store.load_plan(plan.name) == plan       # versions stay readable
+    assert store.load_plan(plan.name) == plan  # versions stay readable
     store.restore("plan", plan.name)
     assert plan.name in store.names("plan")
 
@@ -92,20 +93,25 @@ def test_hidden_item_can_be_restored(store, plan):
 def test_saved_plan_survives_a_restart(store_location, open_store, plan):
     open_store(store_location).save_plan(plan)
     # A separate process (as after an app restart) reads it back from the store alone.
-    code = (f"from model.store import Store; s = Store({store_location!r}); "
-            f"print(s.load_plan({plan.name!r}).phases[1].o2_l_min)")
+    code = (
+        f"from model.store import Store; s = Store({store_location!r}); "
+        f"print(s.load_plan({plan.name!r}).phases[1].o2_l_min)"
+    )
     out = subprocess.run([PY, "-c", code], capture_output=True, text=True, cwd=ROOT, timeout=60)
     assert out.returncode == 0, out.stderr
     assert float(out.stdout) == plan.phases[1].o2_l_min
 
 
-@pytest.mark.parametrize("payload", [
-    b"\x00\x01\x02binary junk\xff\xfe",
-    b"PK\x03\x04 an archive",
-    b"[project]\nname = 'something else'\n",          # TOML, but a foreign file
-    b"<html><body>not a plan</body></html>",
-    b"name = 'x'\nagent = 'sevoflurane'\n[[phases]]\nduration = '-5 min'\no2 = 1\ndial = 2\n",
-])
+@pytest.mark.parametrize(
+    "payload",
+    [
+        b"\x00\x01\x02binary junk\xff\xfe",
+        b"PK\x03\x04 an archive",
+        b"[project]\nname = 'something else'\n",  # TOML, but a foreign file
+        b"<html><body>not a plan</body></html>",
+        b"name = 'x'\nagent = 'sevoflurane'\n[[phases]]\nduration = '-5 min'\no2 = 1\ndial = 2\n",
+    ],
+)
 def test_corrupt_or_foreign_import_is_refused_and_store_unchanged(store, plan, payload):
     store.save_plan(plan)
     before = store.count_versions()
@@ -144,8 +150,10 @@ def test_eight_writers_500_versions_each_lose_none(store_location, open_store):
     path = store_location
     open_store(path)
     writers, per_writer = 8, 500
-    procs = [subprocess.Popen([PY, "-c", _WRITER, str(path), str(w), str(per_writer)], cwd=ROOT,
-                              stderr=subprocess.PIPE) for w in range(writers)]
+    procs = [
+        subprocess.Popen([PY, "-c", _WRITER, str(path), str(w), str(per_writer)], cwd=ROOT, stderr=subprocess.PIPE)
+        for w in range(writers)
+    ]
     for p in procs:
         _, err = p.communicate(timeout=600)
         assert p.returncode == 0, err.decode()
@@ -171,8 +179,9 @@ _SLOW_WRITER = textwrap.dedent("""
 def test_writer_killed_mid_save_leaves_every_committed_version(store_location, open_store):
     path = store_location
     open_store(path)
-    proc = subprocess.Popen([PY, "-c", _SLOW_WRITER, str(path)], cwd=ROOT, stdout=subprocess.PIPE,
-                            stderr=subprocess.PIPE, text=True)
+    proc = subprocess.Popen(
+        [PY, "-c", _SLOW_WRITER, str(path)], cwd=ROOT, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True
+    )
     committed = []
     try:
         while len(committed) < 25:
@@ -180,7 +189,7 @@ def test_writer_killed_mid_save_leaves_every_committed_version(store_location, o
             assert line, proc.stderr.read()
             committed.append(int(line))
     finally:
-        os.kill(proc.pid, signal.SIGKILL)     # most likely inside the next save
+        os.kill(proc.pid, signal.SIGKILL)  # most likely inside the next save
         proc.wait(timeout=30)
     committed += [int(x) for x in proc.stdout.read().split()]
     s = open_store(path)
@@ -237,6 +246,7 @@ def test_foreign_store_file_is_refused(tmp_path, content):
 
 # ---- authors, schema 3, PostgreSQL, copying ---------------------------------------------
 
+
 def test_every_version_records_its_author_and_time(store, plan):
     store.save_plan(plan, author="lead@fernhollow.example")
     store.save_plan(plan.with_phase(1, o2_l_min=1.5), "lower flow", author="")
@@ -266,11 +276,14 @@ def test_schema_2_store_is_migrated_with_a_backup_and_keeps_every_version(tmp_pa
     path = tmp_path / "store.sqlite3"
     create_schema_2(path)
     con = sqlite3.connect(path)
-    con.execute("INSERT INTO items (id, kind, name, created_at) VALUES (1, 'plan', ?, '2025-01-01T00:00:00')",
-                (plan.name,))
+    con.execute(
+        "INSERT INTO items (id, kind, name, created_at) VALUES (1, 'plan', ?, '2025-01-01T00:00:00')", (plan.name,)
+    )
     for v in (1, 2):
-        con.execute("INSERT INTO versions (item_id, version, body, note, saved_at) VALUES (1, ?, ?, 'n', ?)",
-                    (v, plan_to_toml(plan), f"2025-01-0{v}T00:00:00"))
+        con.execute(
+            "INSERT INTO versions (item_id, version, body, note, saved_at) VALUES (1, ?, ?, 'n', ?)",
+            (v, plan_to_toml(plan), f"2025-01-0{v}T00:00:00"),
+        )
     con.commit()
     con.close()
     s = Store(path)
@@ -288,15 +301,18 @@ def test_schema_2_store_is_migrated_with_a_backup_and_keeps_every_version(tmp_pa
 
 def test_a_postgres_database_of_another_program_is_refused():
     import psycopg
+
     with postgres_database() as url:
         with psycopg.connect(url, autocommit=True) as con:
             con.execute("CREATE TABLE invoices (id INTEGER)")
         with pytest.raises(StoreError, match="another program"):
             Store(url)
         with psycopg.connect(url, autocommit=True) as con:
-            tables = {r[0] for r in con.execute("SELECT table_name FROM information_schema.tables "
-                                                "WHERE table_schema = 'public'")}
-        assert tables == {"invoices"}       # nothing was created in it
+            tables = {
+                r[0]
+                for r in con.execute("SELECT table_name FROM information_schema.tables WHERE table_schema = 'public'")
+            }
+        assert tables == {"invoices"}  # nothing was created in it
 
 
 def test_an_unreachable_postgres_server_is_one_clear_message():
@@ -315,8 +331,7 @@ def _fill(store: Store, plan) -> None:
 
 
 @pytest.mark.parametrize("target_backend", ["sqlite", "postgresql"])
-def test_copy_keeps_every_version_with_its_number_time_author_and_note(tmp_path, plan, open_store,
-                                                                       target_backend):
+def test_copy_keeps_every_version_with_its_number_time_author_and_note(tmp_path, plan, open_store, target_backend):
     source = open_store(tmp_path / "source.sqlite3")
     _fill(source, plan)
     with contextlib.ExitStack() as stack:
@@ -344,12 +359,33 @@ def test_command_line_copies_sqlite_into_postgres_and_saves_as_the_command_line(
     source_path = tmp_path / "source.sqlite3"
     _fill(open_store(source_path), plan)
     plan_file = DEMO / "lap_chole_high_flow.toml"
-    done = subprocess.run([PY, "-m", "model", "store", "save-plan", str(plan_file), "--store", str(source_path),
-                           "--note", "from the shell"], capture_output=True, text=True, cwd=ROOT, timeout=120)
+    done = subprocess.run(
+        [
+            PY,
+            "-m",
+            "model",
+            "store",
+            "save-plan",
+            str(plan_file),
+            "--store",
+            str(source_path),
+            "--note",
+            "from the shell",
+        ],
+        capture_output=True,
+        text=True,
+        cwd=ROOT,
+        timeout=120,
+    )
     assert done.returncode == 0, done.stderr
     with postgres_database() as url:
-        done = subprocess.run([PY, "-m", "model", "store", "copy", str(source_path), url],
-                              capture_output=True, text=True, cwd=ROOT, timeout=120)
+        done = subprocess.run(
+            [PY, "-m", "model", "store", "copy", str(source_path), url],
+            capture_output=True,
+            text=True,
+            cwd=ROOT,
+            timeout=120,
+        )
         assert done.returncode == 0, done.stderr
         assert "Copied 6 versions" in done.stdout
         target = open_store(url)
@@ -357,8 +393,13 @@ def test_command_line_copies_sqlite_into_postgres_and_saves_as_the_command_line(
         assert saved.note == "from the shell" and saved.author.startswith("command line")
         assert target.count_versions() == 6
         # Copying again into the same database: one line, exit status 2, nothing changed.
-        again = subprocess.run([PY, "-m", "model", "store", "copy", str(source_path), url],
-                               capture_output=True, text=True, cwd=ROOT, timeout=120)
+        again = subprocess.run(
+            [PY, "-m", "model", "store", "copy", str(source_path), url],
+            capture_output=True,
+            text=True,
+            cwd=ROOT,
+            timeout=120,
+        )
         assert again.returncode == 2 and again.stderr.count("\n") == 1 and "already holds" in again.stderr
         assert target.count_versions() == 6
         target.close()

@@ -7,8 +7,8 @@ import numpy as np
 import pytest
 
 from model import load_plan
+from model.base.errors import InputError
 from model.cli import main
-from model.errors import InputError
 from model.sweep import DEFAULT_SWEEP_FLOWS, flow_sweep
 
 DEMO = Path(__file__).resolve().parents[1] / "demo_data" / "plans"
@@ -72,8 +72,9 @@ def test_cli_sweep_table_and_json(capsys):
     assert d["phase_number"] == 2 and d["cost_lowest_flow_l_min"] == 0.5
 
 
-@pytest.mark.parametrize("args, field", [(["--flows", "a,b"], "--flows"), (["--phase", "9"], "--phase"),
-                                          (["--flows", "0,1"], "flows")])
+@pytest.mark.parametrize(
+    "args, field", [(["--flows", "a,b"], "--flows"), (["--phase", "9"], "--phase"), (["--flows", "0,1"], "flows")]
+)
 def test_cli_sweep_bad_input_exits_2(args, field, capsys):
     assert main(["sweep", str(LOW), *args]) == 2
     err = capsys.readouterr().err

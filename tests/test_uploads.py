@@ -14,8 +14,18 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from model import parse_plan_text
-from model.errors import InputError
-from model.io.uploads import KINDS, MAX_LINE_CHARS, MAX_PARQUET_COLUMNS, MAX_TOML_BYTES, MAX_TOML_DEPTH, UPLOAD_LIMIT_ENV, check_upload, upload_limit_bytes, upload_limit_mb
+from model.base.errors import InputError
+from model.io.uploads import (
+    KINDS,
+    MAX_LINE_CHARS,
+    MAX_PARQUET_COLUMNS,
+    MAX_TOML_BYTES,
+    MAX_TOML_DEPTH,
+    UPLOAD_LIMIT_ENV,
+    check_upload,
+    upload_limit_bytes,
+    upload_limit_mb,
+)
 
 ROOT = Path(__file__).resolve().parents[1]
 PLAN = (ROOT / "demo_data" / "plans" / "lap_chole_low_flow.toml").read_bytes()
@@ -89,10 +99,16 @@ def _tar(data):
     return buffer.getvalue()
 
 
-@pytest.mark.parametrize("pack, what", [
-    (_zip, "zip"), (gzip.compress, "gzip"), (bz2.compress, "bzip2"), (lzma.compress, "xz"),
-    (_tar, "tar"),
-])
+@pytest.mark.parametrize(
+    "pack, what",
+    [
+        (_zip, "zip"),
+        (gzip.compress, "gzip"),
+        (bz2.compress, "bzip2"),
+        (lzma.compress, "xz"),
+        (_tar, "tar"),
+    ],
+)
 def test_archives_are_refused_even_under_a_documented_name(pack, what):
     # Source: the archive formats' own writers in Python's standard library.
     _refused("plan.toml", pack(PLAN), "plan", what, "archive")
@@ -192,7 +208,8 @@ def test_windows_1252_text_is_refused_with_its_line():
 
 def test_a_records_csv_line_not_in_utf8_is_left_to_the_reader():
     """Defect 11 of issue 12: one bad line must not refuse a whole record file; the records
-    reader sets that line aside (README, "Case records"), on the page as on the command line."""
+    reader sets that line aside (README, "Case records"), on the page as on the command line.
+    """
     data = "case_id,name\nFGH-1,Caf\u00e9\nFGH-2,ok\n".encode("cp1252")
     up = check_upload("r.csv", data, "records")
     assert up.data == data
@@ -208,13 +225,16 @@ def test_huge_line_is_refused_with_its_line():
     assert check_upload("r.csv", ok, "records").text.endswith("x\n")
 
 
-@pytest.mark.parametrize("text", [
-    "a = " + "[" * 3000 + "]" * 3000,                            # past the parser's recursion
-    "a = " + "[\n" * 3000 + "]\n" * 3000,                        # the same on short lines
-    "a = " + "{b = " * 20 + "1" + "}" * 20,                      # inline tables
-    "[" + ".".join(["t"] * 20) + "]\nx = 1\n",                   # dotted table header
-    ".".join(["k"] * 20) + " = 1\n",                             # dotted key
-])
+@pytest.mark.parametrize(
+    "text",
+    [
+        "a = " + "[" * 3000 + "]" * 3000,  # past the parser's recursion
+        "a = " + "[\n" * 3000 + "]\n" * 3000,  # the same on short lines
+        "a = " + "{b = " * 20 + "1" + "}" * 20,  # inline tables
+        "[" + ".".join(["t"] * 20) + "]\nx = 1\n",  # dotted table header
+        ".".join(["k"] * 20) + " = 1\n",  # dotted key
+    ],
+)
 def test_deep_toml_nesting_is_refused(text):
     _refused("p.toml", text.encode(), "plan", "nest")
 
@@ -230,13 +250,13 @@ def test_invalid_toml_is_refused_as_toml():
 
 # --- fuzz: the guard itself never fails otherwise -------------------------------------
 
-_FUZZ = settings(max_examples=1500, deadline=None,
-                 suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large])
+_FUZZ = settings(
+    max_examples=1500, deadline=None, suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large]
+)
 
 
 @_FUZZ
-@given(name=st.text(max_size=40), data=st.binary(max_size=2000),
-       kind=st.sampled_from(sorted(KINDS)))
+@given(name=st.text(max_size=40), data=st.binary(max_size=2000), kind=st.sampled_from(sorted(KINDS)))
 def test_guard_returns_or_raises_input_error_for_any_bytes(name, data, kind):
     try:
         upload = check_upload(name, data, kind)
@@ -251,9 +271,23 @@ def test_guard_returns_or_raises_input_error_for_any_bytes(name, data, kind):
 
 
 @_FUZZ
-@given(prefix=st.sampled_from([b"PK\x03\x04", b"\x1f\x8b", b"BZh", b"\xfd7zXZ\x00", b"PAR1",
-                               b"%PDF", b"\x7fELF", b"MZ", b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1"]),
-       rest=st.binary(max_size=500), kind=st.sampled_from(sorted(KINDS)))
+@given(
+    prefix=st.sampled_from(
+        [
+            b"PK\x03\x04",
+            b"\x1f\x8b",
+            b"BZh",
+            b"\xfd7zXZ\x00",
+            b"PAR1",
+            b"%PDF",
+            b"\x7fELF",
+            b"MZ",
+            b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1",
+        ]
+    ),
+    rest=st.binary(max_size=500),
+    kind=st.sampled_from(sorted(KINDS)),
+)
 def test_binary_signatures_never_pass_as_text(prefix, rest, kind):
     fmt = next(f for f in KINDS[kind] if f != "parquet")
     with pytest.raises(InputError):

@@ -6,7 +6,18 @@ from scipy.integrate import quad
 
 from model.patient import resolve_patient
 from model.reference import AGENTS, FROM_MEMORY, VOLATILES
-from model.uptake import TISSUE_BLOOD, TISSUE_FLOW_SHARE, TISSUE_GROUPS, TISSUE_VOLUME_L_PER_KG, constant_alveolar_uptake_l, lowe_cumulative_ml, lowe_priming_ml, lowe_uptake_rate_ml_min, tissue_compartments, tissue_table
+from model.uptake import (
+    TISSUE_BLOOD,
+    TISSUE_FLOW_SHARE,
+    TISSUE_GROUPS,
+    TISSUE_VOLUME_L_PER_KG,
+    constant_alveolar_uptake_l,
+    lowe_cumulative_ml,
+    lowe_priming_ml,
+    lowe_uptake_rate_ml_min,
+    tissue_compartments,
+    tissue_table,
+)
 
 Q70 = float(resolve_patient(70.0, 40.0).cardiac_output_l_min)
 SPECIES = VOLATILES + ("nitrous_oxide",)

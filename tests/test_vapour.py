@@ -4,9 +4,16 @@ import numpy as np
 import pytest
 import scipy.constants
 
+from model.base.units import registry
 from model.reference import AGENTS
-from model.units import registry
-from model.vapour import liquid_from_vapour, liquid_used_ml, liquid_used_series_ml, molar_volume_l, rule_of_thumb_ml_per_hour, vapour_per_ml_liquid
+from model.vapour import (
+    liquid_from_vapour,
+    liquid_used_ml,
+    liquid_used_series_ml,
+    molar_volume_l,
+    rule_of_thumb_ml_per_hour,
+    vapour_per_ml_liquid,
+)
 
 SEVO, DES, ISO, HAL = (AGENTS[n] for n in ("sevoflurane", "desflurane", "isoflurane", "halothane"))
 
@@ -22,7 +29,7 @@ def test_molar_volume_at_20c_matches_textbook_and_pint():
     assert molar_volume_l(20.0) == pytest.approx(24.055, abs=1e-3)
     # Source: pint's own constants (molar_gas_constant) as an independent ideal-gas check.
     ureg = registry()
-    vm = (ureg.molar_gas_constant * ureg.Quantity(20.0, "degC").to("K") / ureg.Quantity(101.325, "kPa"))
+    vm = ureg.molar_gas_constant * ureg.Quantity(20.0, "degC").to("K") / ureg.Quantity(101.325, "kPa")
     assert molar_volume_l(20.0) == pytest.approx(vm.to("L/mol").magnitude, rel=1e-9)
 
 
@@ -104,8 +111,11 @@ def test_series_uses_left_step_rule_and_uneven_steps():
     t = np.array([0.0, 10.0, 15.0, 45.0])
     fgf = np.array([6.0, 2.0, 0.5, 99.0])  # the last sample closes the series
     dial = np.array([6.0, 3.0, 2.0, 99.0])
-    expected = (liquid_used_ml(6.0, 6.0, 10.0, SEVO) + liquid_used_ml(2.0, 3.0, 5.0, SEVO)
-                + liquid_used_ml(0.5, 2.0, 30.0, SEVO))
+    expected = (
+        liquid_used_ml(6.0, 6.0, 10.0, SEVO)
+        + liquid_used_ml(2.0, 3.0, 5.0, SEVO)
+        + liquid_used_ml(0.5, 2.0, 30.0, SEVO)
+    )
     assert liquid_used_series_ml(t, fgf, dial, SEVO) == pytest.approx(float(expected))
 
 

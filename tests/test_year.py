@@ -8,18 +8,24 @@ import numpy as np
 import pytest
 import scipy.stats
 
+from model.base.errors import InputError
 from model.case import compute_case
 from model.io.casemix import parse_casemix_text
-from model.errors import InputError
 from model.io.plans import load_plan
-from model.reference import DEFAULT_REFERENCE
-from model.year.inputs import DAYS_PER_MONTH, Sampling, Scenario
 from model.io.scenario import load_scenario, parse_scenario_text
-from model.year.nodes import NODE_Z, duration_nodes, interpolate_nodes, piecewise_linear_moments, stretch_minutes_moments
-from model.year.simulate import QUANTITIES, practised_plan, year_inputs
+from model.reference import DEFAULT_REFERENCE
 from model.year.compare import compare_years
+from model.year.inputs import DAYS_PER_MONTH, Sampling, Scenario
+from model.year.nodes import (
+    NODE_Z,
+    duration_nodes,
+    interpolate_nodes,
+    piecewise_linear_moments,
+    stretch_minutes_moments,
+)
 from model.year.result import compute_year, headline_figures
 from model.year.sampling import triangular_ppf
+from model.year.simulate import QUANTITIES, practised_plan, year_inputs
 
 ROOT = Path(__file__).resolve().parents[1]
 YEAR = ROOT / "demo_data" / "year"
@@ -40,10 +46,12 @@ def _scenario(rows: str, **kw) -> Scenario:
     return Scenario("test", _mix(rows), **kw)
 
 
-FIXED = ("Lap chole,120,90,0,1,0,0,0,lap_chole_low_flow.toml\n"
-         "Hip,35,130,0,0,1,0,1,hip_desflurane_n2o.toml\n"
-         "Lap chole high,17,70,0,1,0,0,0,lap_chole_high_flow.toml\n"
-         "Laparotomy,25,150,0,1,0,0,0,plans/adult_target_2l.toml\n")
+FIXED = (
+    "Lap chole,120,90,0,1,0,0,0,lap_chole_low_flow.toml\n"
+    "Hip,35,130,0,0,1,0,1,hip_desflurane_n2o.toml\n"
+    "Lap chole high,17,70,0,1,0,0,0,lap_chole_high_flow.toml\n"
+    "Laparotomy,25,150,0,1,0,0,0,plans/adult_target_2l.toml\n"
+)
 
 
 def _case_at(plan, median, k):
@@ -55,9 +63,21 @@ def test_year_is_the_sum_of_its_case_types():
     # Analytic check: with fixed durations a year is each type's per-case result from
     # compute_case (the same circle-model physics) x its count, for every total.
     year = compute_year(_scenario(FIXED)).totals
-    keys = ("liquid_agent_ml", "oxygen_l", "air_l", "nitrous_oxide_l", "absorbent_g", "agent_emitted_g",
-            "nitrous_oxide_emitted_g", "co2e_agent_kg", "co2e_nitrous_oxide_kg", "cost_oxygen", "cost_air",
-            "cost_nitrous_oxide", "cost_absorbent")
+    keys = (
+        "liquid_agent_ml",
+        "oxygen_l",
+        "air_l",
+        "nitrous_oxide_l",
+        "absorbent_g",
+        "agent_emitted_g",
+        "nitrous_oxide_emitted_g",
+        "co2e_agent_kg",
+        "co2e_nitrous_oxide_kg",
+        "cost_oxygen",
+        "cost_air",
+        "cost_nitrous_oxide",
+        "cost_absorbent",
+    )
     expected = {(a, k): 0.0 for a in ("sevoflurane", "desflurane") for k in keys}
     for t in _mix(FIXED).types:
         c = _case_at(t.plan, t.median_min, t.stretch_index)
@@ -76,8 +96,10 @@ def test_year_is_the_sum_of_its_case_types():
         "air": (year["air_l"], both("air_l")),
         "nitrous oxide": (year["nitrous_oxide_l"], both("nitrous_oxide_l")),
         "absorbent": (year["absorbent_kg"] * 1000, both("absorbent_g")),
-        "gas cost": (year["cost_oxygen"] + year["cost_air"] + year["cost_nitrous_oxide"],
-                     both("cost_oxygen") + both("cost_air") + both("cost_nitrous_oxide")),
+        "gas cost": (
+            year["cost_oxygen"] + year["cost_air"] + year["cost_nitrous_oxide"],
+            both("cost_oxygen") + both("cost_air") + both("cost_nitrous_oxide"),
+        ),
         "absorbent cost": (year["cost_absorbent"], both("cost_absorbent")),
     }
     # All agents' cases of one agent share one simulate_cases call, where a case takes the
@@ -86,8 +108,17 @@ def test_year_is_the_sum_of_its_case_types():
     # by under 1e-4; every other total (and dial-mode agent) matches to rounding.
     for name, (y, e) in got.items():
         assert y == pytest.approx(e, rel=1e-4), name
-    for name in ("des liquid", "des emitted", "oxygen", "air", "nitrous oxide", "absorbent", "gas cost",
-                 "absorbent cost", "co2e N2O"):
+    for name in (
+        "des liquid",
+        "des emitted",
+        "oxygen",
+        "air",
+        "nitrous oxide",
+        "absorbent",
+        "gas cost",
+        "absorbent cost",
+        "co2e N2O",
+    ):
         assert got[name][0] == pytest.approx(got[name][1], rel=1e-12), name
 
 
@@ -109,9 +140,11 @@ def test_bottles_are_whole_and_rounded_up_per_month():
 def test_zero_spread_and_full_adherence_give_one_value():
     base = load_scenario(YEAR / "baseline_2l.toml")
     mix = replace(base.casemix, types=tuple(replace(t, spread=0.0) for t in base.casemix.types))
-    scenario = replace(base, casemix=mix, sampling=Sampling(draws=500, seed=3, price_spread=0.0),
-                       ).with_practice(maintenance_flow_l_min=0.5, dial_factor=1.5, adherence=1.0,
-                                       adherence_low=1.0, adherence_high=1.0)
+    scenario = replace(
+        base,
+        casemix=mix,
+        sampling=Sampling(draws=500, seed=3, price_spread=0.0),
+    ).with_practice(maintenance_flow_l_min=0.5, dial_factor=1.5, adherence=1.0, adherence_low=1.0, adherence_high=1.0)
     result = compute_year(scenario)
     for row in result.summary.to_dict("records"):
         assert row["p5"] == row["p50"] == row["p95"], row["key"]
@@ -127,8 +160,7 @@ def test_bands_widen_with_spread_and_order_p5_p50_p95():
 
 
 def test_emissions_match_ipcc_ar6_gwp100_in_globalwarmingpotentials():
-    rows = ("Des,50,100,0,0,1,0,1,hip_desflurane_n2o.toml\n"
-            "Iso,40,90,0,0,0,1,0,lap_chole_high_flow.toml\n")
+    rows = "Des,50,100,0,0,1,0,1,hip_desflurane_n2o.toml\nIso,40,90,0,0,0,1,0,lap_chole_high_flow.toml\n"
     result = compute_year(_scenario(rows, gwp_source="ar6_gwp100"))
     t = result.totals
     # Source: IPCC AR6 WG1 GWP100 as carried by the PyPI package globalwarmingpotentials
@@ -137,8 +169,9 @@ def test_emissions_match_ipcc_ar6_gwp100_in_globalwarmingpotentials():
     assert t["co2e_desflurane_t"] == pytest.approx(t["emitted_kg_desflurane"] / 1000 * ar6["HFE236ea2"], rel=1e-4)
     assert t["co2e_isoflurane_t"] == pytest.approx(t["emitted_kg_isoflurane"] / 1000 * ar6["HCFE235da2"], rel=1e-4)
     assert t["co2e_nitrous_oxide_t"] == pytest.approx(t["emitted_kg_nitrous_oxide"] / 1000 * ar6["N2O"], rel=1e-4)
-    assert t["co2e_total_t"] == pytest.approx(t["co2e_desflurane_t"] + t["co2e_isoflurane_t"]
-                                              + t["co2e_nitrous_oxide_t"])
+    assert t["co2e_total_t"] == pytest.approx(
+        t["co2e_desflurane_t"] + t["co2e_isoflurane_t"] + t["co2e_nitrous_oxide_t"]
+    )
     ref = DEFAULT_REFERENCE.agents
     # Emitted is delivered less the metabolised share of uptake: desflurane about 0.02 %,
     # isoflurane about 0.2 % of uptake (from memory, docs/methods.md, Emitted mass), so nearly all that
@@ -172,8 +205,9 @@ def test_paired_difference_is_tighter_than_independent_bands():
     prop = load_scenario(YEAR / "proposal_half_litre.toml")
     comp = compare_years(base, prop, draws=3000)
     d = comp.difference["liquid_ml_sevoflurane"]
-    independent = np.hypot(comp.baseline.draws["liquid_ml_sevoflurane"].std(),
-                           comp.proposal.draws["liquid_ml_sevoflurane"].std())
+    independent = np.hypot(
+        comp.baseline.draws["liquid_ml_sevoflurane"].std(), comp.proposal.draws["liquid_ml_sevoflurane"].std()
+    )
     assert d.std() < independent
     row = comp.summary.set_index("key").loc["cost_total"]
     assert row["p95"] < 0 and row["difference"] < 0
@@ -187,8 +221,9 @@ def test_zero_adherence_is_the_baseline():
 
 def test_switch_moves_the_followed_share_of_desflurane():
     base = load_scenario(YEAR / "baseline_2l.toml")
-    switch = base.with_practice(switch_from="desflurane", switch_to="sevoflurane", adherence=0.9,
-                                adherence_low=0.9, adherence_high=0.9)
+    switch = base.with_practice(
+        switch_from="desflurane", switch_to="sevoflurane", adherence=0.9, adherence_low=0.9, adherence_high=0.9
+    )
     b, s = compute_year(base, draws=50).totals, compute_year(switch, draws=50).totals
     assert s["liquid_ml_desflurane"] == pytest.approx(0.1 * b["liquid_ml_desflurane"])
     assert s["co2e_total_t"] < b["co2e_total_t"]
@@ -202,7 +237,7 @@ def test_stretch_moments_match_scipy_lognormal_expectation():
     m1 = dist.expect(lambda d: max(d - fixed, 0.0))
     m2 = dist.expect(lambda d: max(d - fixed, 0.0) ** 2)
     assert float(mean) == pytest.approx(m1, rel=1e-6)
-    assert float(var) == pytest.approx(m2 - m1 ** 2, rel=1e-5)
+    assert float(var) == pytest.approx(m2 - m1**2, rel=1e-5)
     assert stretch_minutes_moments(median, 0.0, fixed)[0] == pytest.approx(median - fixed)
 
 
@@ -236,8 +271,9 @@ def test_scenario_file_errors_name_the_field(tmp_path):
     with pytest.raises(InputError, match=r"s.toml: gwp_source"):
         parse_scenario_text('case_mix = "fernhollow_casemix.csv"\ngwp_source = "ar9"\n', "s.toml", YEAR)
     with pytest.raises(InputError, match=r"s.toml: \[prices\]: prices.bottle"):
-        parse_scenario_text('case_mix = "fernhollow_casemix.csv"\n[prices]\nbottle = { sevoflurane = -1 }\n',
-                            "s.toml", YEAR)
+        parse_scenario_text(
+            'case_mix = "fernhollow_casemix.csv"\n[prices]\nbottle = { sevoflurane = -1 }\n', "s.toml", YEAR
+        )
 
 
 def test_headline_keys_match_the_json():
@@ -257,9 +293,14 @@ def _subplan_case(sub, stretch_min):
     return compute_case(sub.plan.with_phase(sub.stretch_index, minutes=float(stretch_min))).totals
 
 
-_DIRECT = {"oxygen_l": "oxygen_l", "air_l": "air_l", "nitrous_oxide_l": "nitrous_oxide_l",
-           "absorbent_g": "absorbent_g", "nitrous_oxide_emitted_g": "nitrous_oxide_emitted_g",
-           "minutes": "duration_min"}
+_DIRECT = {
+    "oxygen_l": "oxygen_l",
+    "air_l": "air_l",
+    "nitrous_oxide_l": "nitrous_oxide_l",
+    "absorbent_g": "absorbent_g",
+    "nitrous_oxide_emitted_g": "nitrous_oxide_emitted_g",
+    "minutes": "duration_min",
+}
 
 
 @pytest.mark.parametrize("name", ["baseline_2l.toml", "proposal_half_litre.toml"])
@@ -283,8 +324,11 @@ def test_interpolated_case_totals_are_within_one_percent_of_direct_simulation(na
         est = interpolate_nodes(sub.nodes_min, sub.totals, stretch)
         for x, row in zip(stretch, est):
             c = _subplan_case(sub, x)
-            want = {f"liquid_ml:{sub.agent}": c["liquid_agent_ml"], f"emitted_g:{sub.agent}": c["agent_emitted_g"],
-                    **{q: c[k] for q, k in _DIRECT.items()}}
+            want = {
+                f"liquid_ml:{sub.agent}": c["liquid_agent_ml"],
+                f"emitted_g:{sub.agent}": c["agent_emitted_g"],
+                **{q: c[k] for q, k in _DIRECT.items()},
+            }
             for q, v in want.items():
                 assert row[QUANTITIES.index(q)] == pytest.approx(v, rel=0.01, abs=1e-9), (t.name, sub.agent, q, x)
 
@@ -358,19 +402,26 @@ def test_o2_share_splits_the_practice_flow():
     m = plan.phases[t.stretch_index]
     assert (m.o2_l_min, m.air_l_min, m.n2o_l_min) == pytest.approx((0.4, 0.1, 0.0))
     with pytest.raises(InputError, match="practice.maintenance_o2_share"):
-        parse_scenario_text('case_mix = "fernhollow_casemix.csv"\n[practice]\nmaintenance_o2_share = 1.5\n',
-                            "s.toml", YEAR)
+        parse_scenario_text(
+            'case_mix = "fernhollow_casemix.csv"\n[practice]\nmaintenance_o2_share = 1.5\n', "s.toml", YEAR
+        )
 
 
 def test_plans_with_different_phase_layouts_share_a_call_without_changing_their_cases():
     # A plan with an extra phase before maintenance is padded against the others in the
     # agent's one simulate_cases call; each type still equals compute_case at its median.
     plan = load_plan(PLANS / "lap_chole_low_flow.toml")
-    extra = replace(plan, phases=(replace(plan.phases[0], name="pre-oxygenation", minutes=3.0, o2_l_min=6.0,
-                                          air_l_min=0.0, dial_pct=0.0),) + plan.phases)
+    extra = replace(
+        plan,
+        phases=(
+            replace(plan.phases[0], name="pre-oxygenation", minutes=3.0, o2_l_min=6.0, air_l_min=0.0, dial_pct=0.0),
+        )
+        + plan.phases,
+    )
     plans = {"a.toml": plan, "b.toml": extra}
-    mix = parse_casemix_text(HEADER + "A,100,90,0,1,0,0,0,a.toml\nB,50,90,0,1,0,0,0,b.toml\n", "mix",
-                             lambda name, where: plans[name])
+    mix = parse_casemix_text(
+        HEADER + "A,100,90,0,1,0,0,0,a.toml\nB,50,90,0,1,0,0,0,b.toml\n", "mix", lambda name, where: plans[name]
+    )
     year = compute_year(Scenario("layouts", mix, sampling=Sampling(draws=5))).totals
     want = {"liquid_agent_ml": 0.0, "oxygen_l": 0.0, "absorbent_g": 0.0, "agent_emitted_g": 0.0}
     for t in mix.types:
@@ -386,8 +437,10 @@ def test_plans_with_different_phase_layouts_share_a_call_without_changing_their_
 
 def test_a_dial_above_the_vaporizer_maximum_in_use_names_the_case_type(tmp_path):
     plan = tmp_path / "deep.toml"
-    plan.write_text((PLANS / "lap_chole_high_flow.toml").read_text(encoding="utf-8")
-                    .replace('dial = "2 %"', 'dial = "9 %"'), encoding="utf-8")
+    plan.write_text(
+        (PLANS / "lap_chole_high_flow.toml").read_text(encoding="utf-8").replace('dial = "2 %"', 'dial = "9 %"'),
+        encoding="utf-8",
+    )
     assert 'dial = "9 %"' in plan.read_text(encoding="utf-8")
     mix = parse_casemix_text(HEADER + f"Deep,10,60,0,1,0,0,0,{plan}\n", "mix", lambda name, where: load_plan(name))
     scenario = Scenario("deep", mix, sampling=Sampling(draws=5))
@@ -400,7 +453,8 @@ def test_a_dial_above_the_vaporizer_maximum_in_use_names_the_case_type(tmp_path)
     case = compute_case(t.plan.with_phase(t.stretch_index, minutes=60 - fixed), wide).totals
     # A year with fixed durations is each case x its count (as in the sum-of-types check above).
     assert compute_year(scenario, wide).totals["liquid_ml_sevoflurane"] == pytest.approx(
-        10 * case["liquid_agent_ml"], rel=1e-6)
+        10 * case["liquid_agent_ml"], rel=1e-6
+    )
 
 
 def test_a_slow_end_tidal_target_is_a_caution_of_the_year_as_of_the_case(tmp_path):
@@ -418,9 +472,17 @@ def test_a_slow_end_tidal_target_is_a_caution_of_the_year_as_of_the_case(tmp_pat
     minutes = lambda text: text.split("only after ")[1].split(" min")[0]  # noqa: E731
     assert minutes(year_caution[0]) == minutes(case_caution[0])
     # A target reached at once gives no such caution.
-    assert not [w for w in compute_year(Scenario("fast", parse_casemix_text(
-        HEADER + "Fast,10,108,0,1,0,0,0,fast.toml\n", "mix", lambda name, where: plan),
-        sampling=Sampling(draws=5))).warnings if "only after" in w]
+    assert not [
+        w
+        for w in compute_year(
+            Scenario(
+                "fast",
+                parse_casemix_text(HEADER + "Fast,10,108,0,1,0,0,0,fast.toml\n", "mix", lambda name, where: plan),
+                sampling=Sampling(draws=5),
+            )
+        ).warnings
+        if "only after" in w
+    ]
 
 
 def test_a_scenario_written_out_reads_back_the_same():
@@ -428,6 +490,7 @@ def test_a_scenario_written_out_reads_back_the_same():
     from dataclasses import replace as _replace
 
     from model.io.scenario import load_scenario, parse_scenario_text, scenario_to_toml
+
     demo = Path(__file__).resolve().parents[1] / "demo_data" / "year"
     base = load_scenario(demo / "proposal_half_litre.toml")
     edited = base.with_practice(maintenance_flow_l_min=0.8, dial_factor=1.25)

@@ -31,8 +31,14 @@ def test_year_json_is_machine_readable(capsys):
     assert data["car_factor_source"]
     # The notes say what the year models (the circle model, uptake, metabolism, absorbent).
     notes = " ".join(data["notes"])
-    for text in ("circle-system model", "end-tidal target", "metabolised share of the patient's uptake",
-                 "CO2 absorbent", "inspired O2", "interpolated"):
+    for text in (
+        "circle-system model",
+        "end-tidal target",
+        "metabolised share of the patient's uptake",
+        "CO2 absorbent",
+        "inspired O2",
+        "interpolated",
+    ):
         assert text in notes
     assert "not modelled" not in notes and "not subtracted" not in notes
     assert data["totals"]["emitted_kg_sevoflurane"] > 0
@@ -53,12 +59,15 @@ def test_compare_table(capsys):
     assert "negative = the proposal saves" in out and "Cost, total" in out
 
 
-@pytest.mark.parametrize("argv, text", [
-    (["year", "no_such.toml"], "does not exist"),
-    (["year", BASE, "--draws", "lots"], "--draws"),
-    (["year", BASE, "--seed", "-3"], "--seed"),
-    (["compare", BASE, "no_such.toml"], "does not exist"),
-])
+@pytest.mark.parametrize(
+    "argv, text",
+    [
+        (["year", "no_such.toml"], "does not exist"),
+        (["year", BASE, "--draws", "lots"], "--draws"),
+        (["year", BASE, "--seed", "-3"], "--seed"),
+        (["compare", BASE, "no_such.toml"], "does not exist"),
+    ],
+)
 def test_bad_input_exits_2_with_one_line(argv, text, capsys):
     assert main(argv) == 2
     err = capsys.readouterr().err
@@ -66,8 +75,7 @@ def test_bad_input_exits_2_with_one_line(argv, text, capsys):
 
 
 def test_bad_case_mix_row_names_file_line_and_field(tmp_path, capsys):
-    (tmp_path / "mix.csv").write_text(
-        "case_type,cases_per_year,median_duration,sevoflurane,plan\nA,ten,60,1,x.toml\n")
+    (tmp_path / "mix.csv").write_text("case_type,cases_per_year,median_duration,sevoflurane,plan\nA,ten,60,1,x.toml\n")
     (tmp_path / "s.toml").write_text('case_mix = "mix.csv"\n')
     assert main(["year", str(tmp_path / "s.toml")]) == 2
     err = capsys.readouterr().err
@@ -75,7 +83,8 @@ def test_bad_case_mix_row_names_file_line_and_field(tmp_path, capsys):
 
 
 def test_installed_command_exits_2_on_bad_input():
-    proc = subprocess.run([sys.executable, "-m", "model", "year", "missing.toml"],
-                          capture_output=True, text=True, cwd=ROOT)
+    proc = subprocess.run(
+        [sys.executable, "-m", "model", "year", "missing.toml"], capture_output=True, text=True, cwd=ROOT
+    )
     assert proc.returncode == 2
     assert proc.stderr.startswith("gas-ledger: ") and "Traceback" not in proc.stderr

@@ -7,11 +7,11 @@ import numpy as np
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from model.year.inputs import Sampling
 from model.io.scenario import load_scenario
-from model.year.compare import compare_years
-from model.year.result import compute_year
 from model.reference import VOLATILES
+from model.year.compare import compare_years
+from model.year.inputs import Sampling
+from model.year.result import compute_year
 
 YEAR = Path(__file__).resolve().parents[1] / "demo_data" / "year"
 BASE = load_scenario(YEAR / "baseline_2l.toml")
@@ -40,8 +40,9 @@ def test_more_cases_never_cost_less(counts, which, extra):
 
 
 @settings(max_examples=25, deadline=None)
-@given(high=st.floats(0.3, 8.0), drop=st.floats(0.05, 0.95), adherence=st.floats(0.0, 1.0),
-       dial_factor=st.floats(0.5, 2.0))
+@given(
+    high=st.floats(0.3, 8.0), drop=st.floats(0.05, 0.95), adherence=st.floats(0.0, 1.0), dial_factor=st.floats(0.5, 2.0)
+)
 def test_lowering_the_practice_flow_never_raises_agent_use(high, drop, adherence, dial_factor):
     kw = dict(dial_factor=dial_factor, adherence=adherence, adherence_low=adherence, adherence_high=adherence)
     a = compute_year(BASE.with_practice(maintenance_flow_l_min=high, **kw), draws=1).totals
@@ -57,9 +58,11 @@ def test_lowering_every_flow_of_the_plans_never_raises_agent_use(scale):
     def scaled(t):
         plan = t.plan
         for i, p in enumerate(plan.phases):
-            plan = plan.with_phase(i, o2_l_min=p.o2_l_min * scale, air_l_min=p.air_l_min * scale,
-                                   n2o_l_min=p.n2o_l_min * scale)
+            plan = plan.with_phase(
+                i, o2_l_min=p.o2_l_min * scale, air_l_min=p.air_l_min * scale, n2o_l_min=p.n2o_l_min * scale
+            )
         return replace(t, plan=plan)
+
     low = replace(BASE, casemix=replace(BASE.casemix, types=tuple(scaled(t) for t in BASE.casemix.types)))
     a = compute_year(BASE, draws=1).totals
     b = compute_year(low, draws=1).totals
@@ -68,8 +71,11 @@ def test_lowering_every_flow_of_the_plans_never_raises_agent_use(scale):
 
 
 @settings(max_examples=20, deadline=None)
-@given(seed=st.integers(0, 2**32), draws=st.integers(1, 400), name=st.sampled_from(
-    ["baseline_2l.toml", "proposal_half_litre.toml", "proposal_sevo_not_des.toml"]))
+@given(
+    seed=st.integers(0, 2**32),
+    draws=st.integers(1, 400),
+    name=st.sampled_from(["baseline_2l.toml", "proposal_half_litre.toml", "proposal_sevo_not_des.toml"]),
+)
 def test_a_scenario_compared_with_itself_differs_by_exactly_zero(seed, draws, name):
     s = load_scenario(YEAR / name)
     comp = compare_years(s, s, draws=draws, seed=seed)

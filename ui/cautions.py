@@ -49,9 +49,12 @@ def unsafe_banner(warnings, what: str = "this plan") -> bool:
         return False
     lines = "\n".join(f"- {md(_line(t, s))}" for t, s in hazards[:BANNER_LINES])
     more = len(hazards) - BANNER_LINES
-    st.error(f"**{UNSAFE}: {md(what)} is unsafe as written.** Its figures (and any saving they show) assume "
-             f"a practice the model predicts to be hypoxic or to run out of O2:\n\n{lines}"
-             + (f"\n\n... and {more} more below." if more > 0 else ""), icon=":material/dangerous:")
+    st.error(
+        f"**{UNSAFE}: {md(what)} is unsafe as written.** Its figures (and any saving they show) assume "
+        f"a practice the model predicts to be hypoxic or to run out of O2:\n\n{lines}"
+        + (f"\n\n... and {more} more below." if more > 0 else ""),
+        icon=":material/dangerous:",
+    )
     if more > 0:
         with st.expander(f"All {len(hazards)} hazards", icon=":material/dangerous:"):
             for t, s in hazards:
@@ -66,9 +69,11 @@ def show_other_warnings(warnings) -> None:
         items = [(t, s) for sev, t, s in rest if sev == severity]
         if not items:
             continue
-        with st.expander(f"{_HEADINGS[severity]} ({len(items)})",
-                         expanded=severity == "caution" and len(items) <= OPEN_UP_TO,
-                         icon=":material/warning:" if severity == "caution" else ":material/menu_book:"):
+        with st.expander(
+            f"{_HEADINGS[severity]} ({len(items)})",
+            expanded=severity == "caution" and len(items) <= OPEN_UP_TO,
+            icon=":material/warning:" if severity == "caution" else ":material/menu_book:",
+        ):
             icon = ":material/warning:" if severity == "caution" else ":material/menu_book:"
             for t, s in items:
                 st.warning(md(_line(t, s)), icon=icon)

@@ -4,22 +4,33 @@ from __future__ import annotations
 
 import json
 import re
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass, replace
 from pathlib import Path
-from typing import Callable, Mapping
 
 import pandas as pd
 import streamlit as st
 
 from model import DEFAULT_REFERENCE, InputError, Reference, compute_case, parse_plan_text
-from model.access import (CONFIG_PLACE, NO_ONE, AccessConfig, Permission, User, access_config, is_editor,
-                          may_edit_reference, may_save, user_from_header, user_from_sign_in)
-from model.io.exports import to_csv, to_xlsx
 from model.io.uploads import check_upload
 from model.plan import CasePlan
+from model.present.exports import to_csv, to_xlsx
 from model.store import Store, StoreError, default_location, is_postgres_url
+from model.store.access import (
+    CONFIG_PLACE,
+    NO_ONE,
+    AccessConfig,
+    Permission,
+    User,
+    access_config,
+    is_editor,
+    may_edit_reference,
+    may_save,
+    user_from_header,
+    user_from_sign_in,
+)
 
-from .format import plain_paths, readable_frame
+from .tables import plain_paths, readable_frame
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO_PLANS = ROOT / "demo_data" / "plans"
@@ -28,8 +39,11 @@ DEMO_PLANS = ROOT / "demo_data" / "plans"
 CAUTION = (
     "Estimates support planning, budgeting and reporting; they are not a prescription. "
     "Flows, mixes and dial settings for a patient follow local protocols, the workstation's "
-    "instructions for use and licensed practice, with inspired O2 and end-tidal agent monitored.")
-CAUTION_SHORT = "Planning estimates, not a prescription: follow local protocols and monitor inspired O2 and end-tidal agent."
+    "instructions for use and licensed practice, with inspired O2 and end-tidal agent monitored."
+)
+CAUTION_SHORT = (
+    "Planning estimates, not a prescription: follow local protocols and monitor inspired O2 and end-tidal agent."
+)
 
 FLOW_UNITS = ("L/min", "mL/min")
 CO2E_UNITS = {"kg CO2e": 1.0, "g CO2e": 1000.0, "t CO2e": 0.001}
@@ -57,7 +71,8 @@ class ViewSettings:
 
     def co2e_number(self, kg: float) -> str:
         """CO2e in the chosen unit, without the unit (three significant figures under 1, two
-        decimals under 100, else none), so a case shown in t CO2e does not round to 0.03."""
+        decimals under 100, else none), so a case shown in t CO2e does not round to 0.03.
+        """
         v = kg * CO2E_UNITS[self.co2e_unit]
         if 0 < abs(v) < 1:
             return f"{v:.3g}"
@@ -69,14 +84,16 @@ class ViewSettings:
 
 # ---- store and reference -------------------------------------------------------------
 
+
 @st.cache_resource(show_spinner=False)
 def _store_at(location: str) -> Store:
     store = Store(location)
     if store.count_versions() == 0:
         # A new store starts with the demo plans, so the dashboard is usable at once.
         for f in sorted(DEMO_PLANS.glob("*.toml")):
-            store.import_plan_text(f.read_text(encoding="utf-8"), f.name, "demo plan (invented)",
-                                   author="demo data (invented)")
+            store.import_plan_text(
+                f.read_text(encoding="utf-8"), f.name, "demo plan (invented)", author="demo data (invented)"
+            )
     return store
 
 
@@ -132,8 +149,7 @@ def reference(view: ViewSettings | None = None) -> Reference:
 
 def apply_settings(plan: CasePlan, view: ViewSettings) -> CasePlan:
     """The plan with the sidebar's GWP source and room temperature."""
-    return replace(plan, settings=replace(plan.settings, gwp_source=view.gwp_source,
-                                          temperature_c=view.temperature_c))
+    return replace(plan, settings=replace(plan.settings, gwp_source=view.gwp_source, temperature_c=view.temperature_c))
 
 
 @st.cache_data(show_spinner=False, max_entries=32)
@@ -161,8 +177,8 @@ def _access() -> tuple[AccessConfig, str]:
     try:
         raw = st.secrets.get("gas_ledger")
     except (FileNotFoundError, StreamlitSecretNotFoundError):
-        return AccessConfig(), ""          # no secrets file at all: sign-in off
-    except Exception as exc:               # noqa: BLE001 - a secrets file that does not parse
+        return AccessConfig(), ""  # no secrets file at all: sign-in off
+    except Exception as exc:  # noqa: BLE001 - a secrets file that does not parse
         return _FAIL_CLOSED, f".streamlit/secrets.toml cannot be read ({type(exc).__name__})"
     if raw is None:
         return AccessConfig(), ""
@@ -174,13 +190,14 @@ def _access() -> tuple[AccessConfig, str]:
 
 
 def access_settings() -> AccessConfig:
-    """The sign-in configuration (:data:`model.access.CONFIG_PLACE`); sign-in off when absent."""
+    """The sign-in configuration (:data:`model.store.access.CONFIG_PLACE`); sign-in off when absent."""
     return _access()[0]
 
 
 def current_user() -> User:
     """Who is signed in: Streamlit's sign-in (``st.user``) or the trusted proxy's header, only
-    as configured; with sign-in off no one (a header sent anyway is ignored)."""
+    as configured; with sign-in off no one (a header sent anyway is ignored).
+    """
     config, problem = _access()
     if problem:
         return NO_ONE
@@ -210,13 +227,21 @@ def _who_box() -> None:
     """The sidebar's line on who is signed in, with sign-in and sign-out in streamlit mode."""
     config, problem = _access()
     if problem:
-        st.error(md(f"Sign-in is misconfigured ({CONFIG_PLACE}): {problem}. Nothing can be changed "
-                    "until it is fixed."), icon=":material/lock:")
+        st.error(
+            md(f"Sign-in is misconfigured ({CONFIG_PLACE}): {problem}. Nothing can be changed until it is fixed."),
+            icon=":material/lock:",
+        )
         return
     user = current_user()
     if not user.signed_in:
-        st.caption("Not signed in." + ("" if config.enabled else " (This server has no sign-in: "
-                                       "anyone who can open it may change every value.)"))
+        st.caption(
+            "Not signed in."
+            + (
+                ""
+                if config.enabled
+                else " (This server has no sign-in: anyone who can open it may change every value.)"
+            )
+        )
         if config.sign_in == "streamlit" and st.button("Sign in", icon=":material/login:", key="gl_sign_in"):
             _sign_in(config)
         return
@@ -237,11 +262,12 @@ def _sign_in(config: AccessConfig) -> None:
 
 # ---- sidebar and page header ---------------------------------------------------------
 
+
 def _sidebar() -> ViewSettings:
     ss = st.session_state
     saved_currency = (_saved_overrides().get("prices") or {}).get("currency") or DEFAULT_REFERENCE.prices.currency
     ss.setdefault("gl_currency", saved_currency)
-    if "gl_currency_pending" in ss:      # set by a page that saved a new currency label
+    if "gl_currency_pending" in ss:  # set by a page that saved a new currency label
         ss["gl_currency"] = ss.pop("gl_currency_pending")
     ss.setdefault("gl_horizon", "100 years")
     ss.setdefault("gl_temp", 20.0)
@@ -250,26 +276,38 @@ def _sidebar() -> ViewSettings:
     ref = DEFAULT_REFERENCE
     with st.sidebar:
         st.markdown("#### Settings for every page")
-        currency = st.text_input("Currency label", key="gl_currency", max_chars=12,
-                                 help="Shown beside every cost. It labels your prices; it does not convert them.")
+        currency = st.text_input(
+            "Currency label",
+            key="gl_currency",
+            max_chars=12,
+            help="Shown beside every cost. It labels your prices; it does not convert them.",
+        )
         if not re.fullmatch(r"[\w .$€£¥-]{1,12}", currency or ""):
             st.error("Currency label: use 1-12 letters or symbols, e.g. GBP or EUR.")
             currency = saved_currency
         horizon = st.radio("GWP horizon", ["100 years", "20 years"], key="gl_horizon", horizontal=True)
         years = int(horizon.split()[0])
         user_values = bool(_saved_overrides().get("gwp", {}).get("user"))
-        options = [k for k, s in ref.gwp_sources.items()
-                   if s.horizon_years == years and (k != "user" or user_values)]
+        options = [k for k, s in ref.gwp_sources.items() if s.horizon_years == years and (k != "user" or user_values)]
         if st.session_state.get("gl_gwp") not in options:
             st.session_state["gl_gwp"] = options[0]
-        source = st.selectbox("GWP source", options, key="gl_gwp",
-                              format_func=lambda k: ref.gwp_sources[k].label)
-        temp = st.number_input("Room temperature (°C)", min_value=0.0, max_value=45.0, step=1.0,
-                               key="gl_temp", help="Sets the vapour volume per mL of liquid (ideal gas).")
+        source = st.selectbox("GWP source", options, key="gl_gwp", format_func=lambda k: ref.gwp_sources[k].label)
+        temp = st.number_input(
+            "Room temperature (°C)",
+            min_value=0.0,
+            max_value=45.0,
+            step=1.0,
+            key="gl_temp",
+            help="Sets the vapour volume per mL of liquid (ideal gas).",
+        )
         flow_unit = st.selectbox("Flows shown in", FLOW_UNITS, key="gl_flow_unit")
-        co2e_unit = st.selectbox("Emissions shown in", list(CO2E_UNITS), key="gl_co2e_unit",
-                                 help="For cases, plans and records. A department's year is always "
-                                      "in tonnes CO2e, the unit of annual reporting.")
+        co2e_unit = st.selectbox(
+            "Emissions shown in",
+            list(CO2E_UNITS),
+            key="gl_co2e_unit",
+            help="For cases, plans and records. A department's year is always "
+            "in tonnes CO2e, the unit of annual reporting.",
+        )
         st.divider()
         _who_box()
         st.caption(CAUTION)
@@ -338,7 +376,8 @@ def md(text) -> str:
 def checked_uploads(uploaded, kind: str) -> list[tuple[str, bytes]]:
     """``(name, bytes)`` of each uploaded file (one uploader value, a list of them, or None)
     after the upload guard (:func:`model.io.uploads.check_upload` for ``kind``); a file it
-    refuses stops the page with its one-line message."""
+    refuses stops the page with its one-line message.
+    """
     items = uploaded if isinstance(uploaded, list) else [] if uploaded is None else [uploaded]
     out = []
     try:
@@ -359,6 +398,7 @@ def show_input_error(err: Exception, where: str = "") -> None:
 
 # ---- downloads -----------------------------------------------------------------------
 
+
 def _slug(name: str) -> str:
     s = re.sub(r"[^A-Za-z0-9]+", "-", name).strip("-").lower()
     return (s or "export")[:60]
@@ -369,14 +409,19 @@ def _currency() -> str:
     return st.session_state.get("_gl_view", ViewSettings()).currency
 
 
-def downloads(name: str, tables: Mapping[str, pd.DataFrame | Callable[[], pd.DataFrame | None]],
-              report: Callable[[], str] | None, key: str, notes: tuple[str, ...] = ()) -> None:
+def downloads(
+    name: str,
+    tables: Mapping[str, pd.DataFrame | Callable[[], pd.DataFrame | None]],
+    report: Callable[[], str] | None,
+    key: str,
+    notes: tuple[str, ...] = (),
+) -> None:
     """The row of downloads under a results view: CSV (first table), Excel (all), HTML report.
 
     Every file is built only when asked for (deferred download data), so a rerun pays nothing
     for them. A table may be given as a function returning it (or None to leave it out), for
     tables worked out only for the download. Tables are written for people
-    (``ui.format.readable_frame``: headings in words with units, figures rounded).
+    (``ui.tables.readable_frame``: headings in words with units, figures rounded).
     """
     currency = _currency()
 
@@ -391,15 +436,34 @@ def downloads(name: str, tables: Mapping[str, pd.DataFrame | Callable[[], pd.Dat
     slug = _slug(name)
     first_name, first = next(iter(tables.items()))
     c1, c2, c3, _ = st.columns([1, 1, 1.5, 1])
-    c1.download_button("CSV", data=lambda: to_csv(readable_frame(first() if callable(first) else first, currency)),
-                       file_name=f"{slug}-{_slug(first_name)}.csv",
-                       mime="text/csv", key=f"{key}_csv", on_click="ignore",
-                       icon=":material/download:", help=f"The '{first_name}' table as CSV")
-    c2.download_button("Excel", data=lambda: to_xlsx(ready(), notes=(CAUTION,) + tuple(notes)),
-                       file_name=f"{slug}.xlsx", key=f"{key}_xlsx", on_click="ignore",
-                       mime="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
-                       icon=":material/download:", help="Every table, one sheet each")
+    c1.download_button(
+        "CSV",
+        data=lambda: to_csv(readable_frame(first() if callable(first) else first, currency)),
+        file_name=f"{slug}-{_slug(first_name)}.csv",
+        mime="text/csv",
+        key=f"{key}_csv",
+        on_click="ignore",
+        icon=":material/download:",
+        help=f"The '{first_name}' table as CSV",
+    )
+    c2.download_button(
+        "Excel",
+        data=lambda: to_xlsx(ready(), notes=(CAUTION,) + tuple(notes)),
+        file_name=f"{slug}.xlsx",
+        key=f"{key}_xlsx",
+        on_click="ignore",
+        mime="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
+        icon=":material/download:",
+        help="Every table, one sheet each",
+    )
     if report is not None:
-        c3.download_button("HTML report", data=report, file_name=f"{slug}.html", mime="text/html",
-                           key=f"{key}_html", on_click="ignore", icon=":material/download:",
-                           help="Self-contained report: inputs, results, charts, sources, cautions")
+        c3.download_button(
+            "HTML report",
+            data=report,
+            file_name=f"{slug}.html",
+            mime="text/html",
+            key=f"{key}_html",
+            on_click="ignore",
+            icon=":material/download:",
+            help="Self-contained report: inputs, results, charts, sources, cautions",
+        )

@@ -9,7 +9,7 @@ the items it names.
 from __future__ import annotations
 
 import importlib.metadata
-from typing import Mapping
+from collections.abc import Mapping
 
 import pandas as pd
 import streamlit as st
@@ -19,8 +19,12 @@ from model.reference import Reference
 
 from .common import ViewSettings, get_store, md
 
-_PRICE_NAMES = {"oxygen_per_1000_l": "oxygen", "air_per_1000_l": "medical air",
-                "nitrous_oxide_per_1000_l": "nitrous oxide", "absorbent_per_kg": "CO2 absorbent"}
+_PRICE_NAMES = {
+    "oxygen_per_1000_l": "oxygen",
+    "air_per_1000_l": "medical air",
+    "nitrous_oxide_per_1000_l": "nitrous oxide",
+    "absorbent_per_kg": "CO2 absorbent",
+}
 
 
 def program_version() -> str:
@@ -80,8 +84,12 @@ def gwp_text(view: ViewSettings, ref: Reference) -> str:
 
 def in_use(view: ViewSettings, ref: Reference, own: tuple[str, Mapping] | None = None) -> dict:
     """The rows every export carries: prices and GWP values in use with their origin, the program."""
-    return {"prices in use": prices_text(own), "GWP values": gwp_text(view, ref),
-            "currency": ref.prices.currency, "program": f"fresh-gas-ledger {program_version()}"}
+    return {
+        "prices in use": prices_text(own),
+        "GWP values": gwp_text(view, ref),
+        "currency": ref.prices.currency,
+        "program": f"fresh-gas-ledger {program_version()}",
+    }
 
 
 def inputs_table(inputs: dict) -> pd.DataFrame:
@@ -97,15 +105,18 @@ def show(view: ViewSettings, ref: Reference, own: tuple[str, Mapping] | None = N
 def practice_rows(practice) -> dict:
     """The practice a year ran under, as export rows (field -> plain text)."""
     p = practice
-    rows = {"maintenance flow": f"{p.maintenance_flow_l_min:g} L/min" if p.maintenance_flow_l_min is not None
-            else "as each plan gives it",
-            "maintenance O2 share": f"{p.maintenance_o2_share:.0%} on the O2 flowmeter"
-            if p.maintenance_o2_share is not None else "as each plan gives it",
-            "dial factor in maintenance": f"{p.dial_factor:g}",
-            "agent switch": f"{p.switch_from} -> {p.switch_to}" if p.switch_from else "none"}
+    rows = {
+        "maintenance flow": f"{p.maintenance_flow_l_min:g} L/min"
+        if p.maintenance_flow_l_min is not None
+        else "as each plan gives it",
+        "maintenance O2 share": f"{p.maintenance_o2_share:.0%} on the O2 flowmeter"
+        if p.maintenance_o2_share is not None
+        else "as each plan gives it",
+        "dial factor in maintenance": f"{p.dial_factor:g}",
+        "agent switch": f"{p.switch_from} -> {p.switch_to}" if p.switch_from else "none",
+    }
     if p.changes_anything:
-        rows["adherence (low, likely, high)"] = (f"{p.adherence_low:.0%}, {p.adherence:.0%}, "
-                                                 f"{p.adherence_high:.0%}")
+        rows["adherence (low, likely, high)"] = f"{p.adherence_low:.0%}, {p.adherence:.0%}, {p.adherence_high:.0%}"
     return rows
 
 
@@ -116,8 +127,11 @@ def year_edits(base, scenario, mix) -> list[str]:
         out.append("practice")
     if casemix_to_csv(mix) != casemix_to_csv(base.casemix):
         out.append("case mix")
-    if (scenario.sampling.draws, scenario.sampling.seed, scenario.sampling.price_spread) != \
-            (base.sampling.draws, base.sampling.seed, base.sampling.price_spread):
+    if (scenario.sampling.draws, scenario.sampling.seed, scenario.sampling.price_spread) != (
+        base.sampling.draws,
+        base.sampling.seed,
+        base.sampling.price_spread,
+    ):
         out.append("sampling")
     if (scenario.car_kg_per_km, scenario.car_source) != (base.car_kg_per_km, base.car_source):
         out.append("car factor")

@@ -1,5 +1,6 @@
 """The "Year scenarios" tab of the Compare page: a chosen baseline year against any number of
-proposals (demo files or years saved in the store), each paired with the baseline."""
+proposals (demo files or years saved in the store), each paired with the baseline.
+"""
 
 from __future__ import annotations
 
@@ -12,14 +13,19 @@ import ui.provenance
 import ui.year_store
 from model import InputError
 from model.cautions import by_severity
-from model.io.exports import html_report
+from model.present import year_charts
+from model.present.exports import html_report
 from model.year.compare import nonzero_rows
 
-from . import format as fmt
+from . import tables as fmt
 from . import year_views as yv
 
-HEADLINES = [("cost_total", "cost"), ("bottles_total", "bottles"), ("co2e_total_t", "t CO2e"),
-             ("absorbent_kg", "absorbent (kg)")]
+HEADLINES = [
+    ("cost_total", "cost"),
+    ("bottles_total", "bottles"),
+    ("co2e_total_t", "t CO2e"),
+    ("absorbent_kg", "absorbent (kg)"),
+]
 #: Most proposals compared at once (each is a paired run of two years).
 MAX_PROPOSALS = 6
 
@@ -33,29 +39,43 @@ def render(view) -> None:
     choices = ui.year_store.choices(store)
     names = list(choices)
     if len(names) < 2:
-        st.info("Save a second year on the Department year page (or add a scenario file to demo_data/year) "
-                "to compare years.")
+        st.info(
+            "Save a second year on the Department year page (or add a scenario file to demo_data/year) "
+            "to compare years."
+        )
         return
-    st.caption("Each proposal uses the same random draws as the baseline (durations, adherence, prices, GWP "
-               "source), so the band of each difference is its own, not two bands set side by side. "
-               "Negative = the proposal saves.")
+    st.caption(
+        "Each proposal uses the same random draws as the baseline (durations, adherence, prices, GWP "
+        "source), so the band of each difference is its own, not two bands set side by side. "
+        "Negative = the proposal saves."
+    )
     if ss.get("yc_base") not in names:
         ss.pop("yc_base", None)
     c1, c2 = st.columns([1, 2])
-    b_name = c1.selectbox("Baseline year", names, index=0, key="yc_base",
-                          help="Demo scenario files and the years saved on the Department year page")
+    b_name = c1.selectbox(
+        "Baseline year",
+        names,
+        index=0,
+        key="yc_base",
+        help="Demo scenario files and the years saved on the Department year page",
+    )
     others = [n for n in names if n != b_name]
     ss["yc_props"] = [n for n in ss.get("yc_props", others[:1]) if n in others]
-    p_names = c2.multiselect("Proposals, each against the baseline", others, key="yc_props",
-                             max_selections=MAX_PROPOSALS)
-    own_prices = st.checkbox("Use each scenario's own prices", key="yc_own_prices",
-                             help="Off: the prices in use on every page (your Reference values over the "
-                                  "built-in examples) for every year. On: each scenario's [prices].")
+    p_names = c2.multiselect(
+        "Proposals, each against the baseline", others, key="yc_props", max_selections=MAX_PROPOSALS
+    )
+    own_prices = st.checkbox(
+        "Use each scenario's own prices",
+        key="yc_own_prices",
+        help="Off: the prices in use on every page (your Reference values over the "
+        "built-in examples) for every year. On: each scenario's [prices].",
+    )
     ui.provenance.show(view, ref, ("each scenario", None) if own_prices else None)
     if not p_names:
         st.info("Choose one or more proposals to set against the baseline.")
         return
     try:
+
         def scenario(name):
             return yv.scenario_for_view(ui.year_store.load(store, choices[name]), view, own_prices=own_prices)
 
@@ -71,8 +91,12 @@ def render(view) -> None:
     unsafe_names = ([b_name] if first.baseline.unsafe else []) + [n for n, c in comps.items() if c.proposal.unsafe]
     if unsafe_names:
         ui.cautions.unsafe_banner(warnings, " and ".join(f"'{n}'" for n in unsafe_names))
-    labels = [("cost_total", f"cost ({first.baseline.currency})"), ("bottles_total", "bottles"),
-              ("co2e_total_t", "t CO2e"), ("absorbent_kg", "absorbent")]
+    labels = [
+        ("cost_total", f"cost ({first.baseline.currency})"),
+        ("bottles_total", "bottles"),
+        ("co2e_total_t", "t CO2e"),
+        ("absorbent_kg", "absorbent"),
+    ]
     tables, figs, rows_all = {}, [], []
     for i, (p_name, comp) in enumerate(comps.items()):
         rows = comp.summary.set_index("key")
@@ -85,7 +109,7 @@ def render(view) -> None:
                 unit = f" {comp.baseline.currency}" if key == "cost_total" else ""
                 col.metric(f"Change in {label}", f"{r['difference']:+,.1f}{unit}")
                 col.caption(f"P5-P95: {r['p5']:+,.1f} to {r['p95']:+,.1f}")
-            fig = yv.difference_figure(comp.summary, labels)
+            fig = year_charts.difference_figure(comp.summary, labels)
             st.plotly_chart(fig, width="stretch", key=f"yc_fig_{i}")
             figs.append((f"Change per year: {p_name}", fig))
         table = nonzero_rows(comp.summary, ("baseline", "proposal", "p5", "p95")).drop(columns=["key"])
@@ -100,25 +124,40 @@ def render(view) -> None:
     notes = list(dict.fromkeys(n for c in comps.values() for n in c.notes + c.proposal.notes))
     for note in notes:
         st.caption(note)
-    inputs = {"baseline": baseline.name,
-              "safety of the baseline": ui.cautions.safety_text(first.baseline.warnings)}
+    inputs = {"baseline": baseline.name, "safety of the baseline": ui.cautions.safety_text(first.baseline.warnings)}
     for i, (p_name, comp) in enumerate(comps.items(), start=1):
         inputs[f"proposal {i}"] = comp.proposal.scenario.name
         inputs[f"safety of proposal {i}"] = ui.cautions.safety_text(comp.proposal.warnings)
-        inputs.update({f"proposal {i}, {k}": v for k, v in ui.provenance.practice_rows(
-            comp.proposal.scenario.practice).items()})
+        inputs.update(
+            {f"proposal {i}, {k}": v for k, v in ui.provenance.practice_rows(comp.proposal.scenario.practice).items()}
+        )
     inputs.update(ui.provenance.in_use(view, ref, ("each scenario", None) if own_prices else None))
-    inputs.update({"GWP source": first.baseline.inputs.gwp_label, "paired draws": first.baseline.n_draws,
-                   "seed": first.baseline.seed})
-    tables = {"Year comparison": table, "Inputs": ui.provenance.inputs_table(inputs),
-              "Baseline per month": first.baseline.monthly, **tables,
-              "Warnings": ui.cautions.warnings_table(warnings), "Sources": pd.DataFrame(ref.table())}
+    inputs.update(
+        {
+            "GWP source": first.baseline.inputs.gwp_label,
+            "paired draws": first.baseline.n_draws,
+            "seed": first.baseline.seed,
+        }
+    )
+    tables = {
+        "Year comparison": table,
+        "Inputs": ui.provenance.inputs_table(inputs),
+        "Baseline per month": first.baseline.monthly,
+        **tables,
+        "Warnings": ui.cautions.warnings_table(warnings),
+        "Sources": pd.DataFrame(ref.table()),
+    }
 
     def _report() -> str:
-        return html_report(("UNSAFE PRACTICE. " if unsafe_names else "") + "Year comparison", inputs=inputs,
-                           tables={"Paired difference": table}, figures=figs,
-                           warnings=ui.cautions.report_lines(warnings),
-                           cautions=[ui.CAUTION, *notes], sources=tables["Sources"],
-                           currency=first.baseline.currency)
+        return html_report(
+            ("UNSAFE PRACTICE. " if unsafe_names else "") + "Year comparison",
+            inputs=inputs,
+            tables={"Paired difference": table},
+            figures=figs,
+            warnings=ui.cautions.report_lines(warnings),
+            cautions=[ui.CAUTION, *notes],
+            sources=tables["Sources"],
+            currency=first.baseline.currency,
+        )
 
     ui.downloads("year comparison", tables, _report, key="yc_dl")

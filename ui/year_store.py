@@ -10,9 +10,9 @@ text, whose ``plan`` column names plans of the dashboard's plan library.
 from __future__ import annotations
 
 import tomllib
+from collections.abc import Mapping
 from dataclasses import dataclass, replace
 from pathlib import Path
-from typing import Mapping
 
 from model import InputError
 from model.io.casemix import casemix_to_csv, parse_casemix_text
@@ -32,7 +32,7 @@ SAVED = " · saved"
 class Choice:
     """Where a scenario comes from: a demo file (``path``) or the store (``name``)."""
 
-    kind: str                 # "demo" or "saved"
+    kind: str  # "demo" or "saved"
     name: str
     path: Path | None = None
 
@@ -50,6 +50,7 @@ def _plan_finder(library: Mapping[str, CasePlan], source: str):
         if name not in library:
             raise InputError(where, name, "known plans are " + ", ".join(sorted(library)))
         return library[name]
+
     return plan_for
 
 
@@ -68,8 +69,9 @@ def load_mix(store: Store, ref: str, library: Mapping[str, CasePlan]) -> CaseMix
     return parse_casemix_text(body, where, _plan_finder(library, where))
 
 
-def load(store: Store, choice: Choice, version: int | None = None,
-         library: Mapping[str, CasePlan] | None = None) -> Scenario:
+def load(
+    store: Store, choice: Choice, version: int | None = None, library: Mapping[str, CasePlan] | None = None
+) -> Scenario:
     """The scenario of a choice (a saved one at ``version``, default its latest) with its case mix."""
     if choice.kind == "demo":
         return load_scenario(choice.path)
@@ -83,8 +85,9 @@ def load(store: Store, choice: Choice, version: int | None = None,
     return parse_scenario_text(body, where, casemix=load_mix(store, mix_field, library))
 
 
-def save(store: Store, scenario: Scenario, mix: CaseMix, name: str, note: str = "",
-         author: str = "") -> tuple[int, int]:
+def save(
+    store: Store, scenario: Scenario, mix: CaseMix, name: str, note: str = "", author: str = ""
+) -> tuple[int, int]:
     """Save the case mix and the scenario under ``name`` (a new version of each).
 
     Returns (scenario version, case-mix version). The scenario is saved as given (practice,
@@ -103,8 +106,13 @@ def scenario_file(scenario: Scenario, mix_file: str) -> str:
     return scenario_to_toml(scenario, mix_file)
 
 
-def import_files(store: Store, scenario_upload: tuple[str, bytes] | None, mix_upload: tuple[str, bytes] | None,
-                 library: Mapping[str, CasePlan], author: str = "") -> tuple[str | None, str]:
+def import_files(
+    store: Store,
+    scenario_upload: tuple[str, bytes] | None,
+    mix_upload: tuple[str, bytes] | None,
+    library: Mapping[str, CasePlan],
+    author: str = "",
+) -> tuple[str | None, str]:
     """Check uploaded files and save them in the store.
 
     Returns (the saved scenario's name or None, a line saying what was saved).
@@ -130,18 +138,22 @@ def import_files(store: Store, scenario_upload: tuple[str, bytes] | None, mix_up
             saved = set(store.names("casemix"))
             for candidate in (wanted, Path(wanted).stem, wanted.rpartition("@")[0]):
                 if candidate and candidate in saved:
-                    mix = load_mix(store, wanted if candidate == wanted.rpartition("@")[0] else candidate,
-                                   library)
+                    mix = load_mix(store, wanted if candidate == wanted.rpartition("@")[0] else candidate, library)
                     break
             else:
-                raise InputError(f"{up.name}: case_mix", wanted,
-                                 "upload its case-mix file (CSV) with it, or save that case mix first")
+                raise InputError(
+                    f"{up.name}: case_mix",
+                    wanted,
+                    "upload its case-mix file (CSV) with it, or save that case mix first",
+                )
         scenario = parse_scenario_text(up.text, up.name, casemix=mix)
     if scenario is not None:
         version, _ = save(store, scenario, mix, scenario.name, f"uploaded {scenario_upload[0]}", author=author)
         return scenario.name, f"Saved scenario '{scenario.name}' as version {version}, with its case mix."
     if mix is not None:
         version = store.save("casemix", mix_name, casemix_to_csv(mix), f"uploaded {mix_upload[0]}", author=author)
-        return None, (f"Saved case mix '{mix_name}' as version {version}; a scenario file naming "
-                      f"case_mix = \"{mix_name}\" can now be uploaded.")
+        return None, (
+            f"Saved case mix '{mix_name}' as version {version}; a scenario file naming "
+            f'case_mix = "{mix_name}" can now be uploaded.'
+        )
     return None, ""

@@ -1,9 +1,17 @@
 """The record audit: per-case consumption, emissions and cost from case records, and
-reconciliation with purchases."""
-
+reconciliation with purchases.
+"""
 
 from model.audit.engine import audit_records
-from model.audit.result import DEFAULT_HIGH_FLOW_L_MIN, DEFAULT_HIGH_FLOW_LIMIT_MIN, AuditResult, summarise
 from model.audit.reconcile import purchase_emissions, reconcile
+from model.audit.result import DEFAULT_HIGH_FLOW_L_MIN, DEFAULT_HIGH_FLOW_LIMIT_MIN, AuditResult, summarise
 
-__all__ = ["AuditResult", "DEFAULT_HIGH_FLOW_LIMIT_MIN", "DEFAULT_HIGH_FLOW_L_MIN", "audit_records", "purchase_emissions", "reconcile", "summarise"]
+__all__ = [
+    "AuditResult",
+    "DEFAULT_HIGH_FLOW_LIMIT_MIN",
+    "DEFAULT_HIGH_FLOW_L_MIN",
+    "audit_records",
+    "purchase_emissions",
+    "reconcile",
+    "summarise",
+]

@@ -37,9 +37,13 @@ class AbsorbentAssumptions:
 
     def as_dict(self) -> dict:
         """Plain-dict form with units in the key names (for JSON and the audit's settings)."""
-        return {"weight_kg": self.weight_kg, "vco2_ml_min": self.vco2_l_min * 1000.0,
-                "minute_ventilation_l_min": self.minute_ventilation_l_min,
-                "capacity_l_per_kg": self.capacity_l_per_kg, "sources": dict(self.sources)}
+        return {
+            "weight_kg": self.weight_kg,
+            "vco2_ml_min": self.vco2_l_min * 1000.0,
+            "minute_ventilation_l_min": self.minute_ventilation_l_min,
+            "capacity_l_per_kg": self.capacity_l_per_kg,
+            "sources": dict(self.sources),
+        }
 
 
 def absorbent_assumptions(reference: Reference) -> AbsorbentAssumptions:
@@ -83,17 +87,20 @@ def absorbent_assumptions(reference: Reference) -> AbsorbentAssumptions:
     vo2_ml = None if vco2_ml is None else vco2_ml / RESPIRATORY_QUOTIENT
     pat = resolve_patient(weight, Patient().age_years, None, vo2_ml, ve)
     if vco2_ml is None:
-        sources["vco2_ml_min"] = ("Brody's scaling, VCO2 = 0.8 x 10 x kg^0.75 mL/min (Lowe and Ernst 1981), "
-                                  "as in case plans")
+        sources["vco2_ml_min"] = (
+            "Brody's scaling, VCO2 = 0.8 x 10 x kg^0.75 mL/min (Lowe and Ernst 1981), as in case plans"
+        )
     if ve is None:
-        sources["minute_ventilation_l_min"] = ("from VCO2 at normocapnia, alveolar ventilation equation "
-                                               "(West, Respiratory Physiology), as in case plans")
+        sources["minute_ventilation_l_min"] = (
+            "from VCO2 at normocapnia, alveolar ventilation equation (West, Respiratory Physiology), as in case plans"
+        )
     capacity = given("capacity_l_per_kg")
     if capacity is None:
         capacity = ABSORBENT_CAPACITY_L_PER_KG
         sources["capacity_l_per_kg"] = "10-20 L per 100 g soda lime in practice (from memory), as in case plans"
-    return AbsorbentAssumptions(float(weight), float(pat.vco2_l_min), float(pat.minute_ventilation_l_min),
-                                float(capacity), sources)
+    return AbsorbentAssumptions(
+        float(weight), float(pat.vco2_l_min), float(pat.minute_ventilation_l_min), float(capacity), sources
+    )
 
 
 def absorbent_from_rebreathed(rebreathed_min, assumptions: AbsorbentAssumptions):

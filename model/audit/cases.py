@@ -13,10 +13,16 @@ from model.reference import Reference
 from model.vapour import liquid_used_ml
 
 
-def case_results(raw: pd.DataFrame, reference: Reference, gwp_source: str, temperature_c: float,
-                 pressure_kpa: float, capture_efficiency: float,
-                 high_flow_limit_min: float = DEFAULT_HIGH_FLOW_LIMIT_MIN,
-                 absorbent: AbsorbentAssumptions | None = None) -> pd.DataFrame:
+def case_results(
+    raw: pd.DataFrame,
+    reference: Reference,
+    gwp_source: str,
+    temperature_c: float,
+    pressure_kpa: float,
+    capture_efficiency: float,
+    high_flow_limit_min: float = DEFAULT_HIGH_FLOW_LIMIT_MIN,
+    absorbent: AbsorbentAssumptions | None = None,
+) -> pd.DataFrame:
     """Per-case consumption, emissions and cost from the integrated sums of each case.
 
     Parameters
@@ -39,8 +45,10 @@ def case_results(raw: pd.DataFrame, reference: Reference, gwp_source: str, tempe
     n2o = reference.agents["nitrous_oxide"]
     prices = reference.prices
     # Each agent's cases worked out together in numpy, the columns set once.
-    cols = {col: np.zeros(n) for col in ("liquid_agent_ml", "bottles", "agent_mass_g", "agent_emitted_g",
-                                         "co2e_agent_kg", "cost_agent")}
+    cols = {
+        col: np.zeros(n)
+        for col in ("liquid_agent_ml", "bottles", "agent_mass_g", "agent_emitted_g", "co2e_agent_kg", "cost_agent")
+    }
     agents = c["agent"].to_numpy()
     vapour = c["vapour_integral"].to_numpy(dtype=float)
     for name in pd.unique(agents):
@@ -59,21 +67,29 @@ def case_results(raw: pd.DataFrame, reference: Reference, gwp_source: str, tempe
         cols["cost_agent"][mask] = case_costs(liquid, 0.0, 0.0, 0.0, 0.0, agent, prices)["agent"]
     for col, values in cols.items():
         c[col] = values
-    c["nitrous_oxide_g"] = gas_mass_g(c["nitrous_oxide_l"].to_numpy(dtype=float), n2o.molar_mass,
-                                      temperature_c, pressure_kpa)
-    c["nitrous_oxide_emitted_g"] = emitted_mass_g(c["nitrous_oxide_g"].to_numpy(), 0.0,
-                                                  n2o.metabolised_fraction, 0.0)
-    c["co2e_nitrous_oxide_kg"] = co2e_kg(c["nitrous_oxide_emitted_g"].to_numpy(),
-                                         reference.gwp("nitrous_oxide", gwp_source,
-                                                       used=bool((c["nitrous_oxide_l"] > 0).any())))
+    c["nitrous_oxide_g"] = gas_mass_g(
+        c["nitrous_oxide_l"].to_numpy(dtype=float), n2o.molar_mass, temperature_c, pressure_kpa
+    )
+    c["nitrous_oxide_emitted_g"] = emitted_mass_g(c["nitrous_oxide_g"].to_numpy(), 0.0, n2o.metabolised_fraction, 0.0)
+    c["co2e_nitrous_oxide_kg"] = co2e_kg(
+        c["nitrous_oxide_emitted_g"].to_numpy(),
+        reference.gwp("nitrous_oxide", gwp_source, used=bool((c["nitrous_oxide_l"] > 0).any())),
+    )
     c["co2e_total_kg"] = c["co2e_agent_kg"] + c["co2e_nitrous_oxide_kg"]
     absorbent = absorbent or absorbent_assumptions(reference)
     co2_l, absorbent_g = absorbent_from_rebreathed(c["rebreathed_min"].to_numpy(dtype=float), absorbent)
     c["co2_absorbed_l"] = co2_l
     c["absorbent_g"] = absorbent_g
     any_volatile = reference.volatile("sevoflurane")  # bottle size unused: no liquid passed
-    gas = case_costs(np.zeros(n), c["oxygen_l"].to_numpy(dtype=float), c["air_l"].to_numpy(dtype=float),
-                     c["nitrous_oxide_l"].to_numpy(dtype=float), absorbent_g, any_volatile, prices)
+    gas = case_costs(
+        np.zeros(n),
+        c["oxygen_l"].to_numpy(dtype=float),
+        c["air_l"].to_numpy(dtype=float),
+        c["nitrous_oxide_l"].to_numpy(dtype=float),
+        absorbent_g,
+        any_volatile,
+        prices,
+    )
     c["cost_oxygen"] = gas["oxygen"]
     c["cost_air"] = gas["air"]
     c["cost_nitrous_oxide"] = gas["nitrous_oxide"]
@@ -88,7 +104,9 @@ def case_results(raw: pd.DataFrame, reference: Reference, gwp_source: str, tempe
     twf = time_weighted_fgf(c)
     c.insert(c.columns.get_loc(BAND_COLUMNS[-1]) + 1, "time_weighted_fgf_l_min", twf)
     c["mean_fgf_l_min"] = twf
-    c = c.drop(columns=["vapour_integral", "rebreathed_min"]).sort_values(
-        ["month", "theatre", "case_id", "agent"], kind="stable").reset_index(drop=True)
+    c = (
+        c.drop(columns=["vapour_integral", "rebreathed_min"])
+        .sort_values(["month", "theatre", "case_id", "agent"], kind="stable")
+        .reset_index(drop=True)
+    )
     return c
-

@@ -20,18 +20,20 @@ import pandas as pd
 from model.audit.absorbent import absorbent_assumptions
 from model.audit.cases import case_results
 from model.audit.memory import IN_MEMORY_ROWS, _numpy_engine, read_parquet_file
-from model.audit.result import AuditResult, BAND_COLUMNS, DEFAULT_HIGH_FLOW_LIMIT_MIN, DEFAULT_HIGH_FLOW_L_MIN, ENGINES
-from model.errors import InputError
+from model.audit.result import BAND_COLUMNS, DEFAULT_HIGH_FLOW_L_MIN, DEFAULT_HIGH_FLOW_LIMIT_MIN, ENGINES, AuditResult
+from model.base.errors import InputError
 from model.freshgas import FLOW_BAND_NAMES
 from model.io.record_files import DEFAULT_GAP_LIMIT_MIN
 from model.io.record_report import Records, finish_report
 from model.io.records import read_records
-from model.reference import DEFAULT_GWP, DEFAULT_REFERENCE, Reference, STANDARD_PRESSURE_KPA
+from model.reference import DEFAULT_GWP, DEFAULT_REFERENCE, STANDARD_PRESSURE_KPA, Reference
 
 
 def _case_sql(high_flow_l_min: float, minute_ventilation_l_min: float) -> str:
-    bands = ", ".join(f"coalesce(sum(dt_min) FILTER (WHERE band = '{name}'), 0) AS {col}"
-                      for name, col in zip(FLOW_BAND_NAMES, BAND_COLUMNS))
+    bands = ", ".join(
+        f"coalesce(sum(dt_min) FILTER (WHERE band = '{name}'), 0) AS {col}"
+        for name, col in zip(FLOW_BAND_NAMES, BAND_COLUMNS)
+    )
     hi = repr(float(high_flow_l_min))
     ve = repr(float(minute_ventilation_l_min))
     return f"""
@@ -63,13 +65,23 @@ def _case_sql(high_flow_l_min: float, minute_ventilation_l_min: float) -> str:
     """
 
 
-def audit_records(records, *, reference: Reference = DEFAULT_REFERENCE, gwp_source: str = DEFAULT_GWP,
-                  temperature_c: float = 20.0, pressure_kpa: float = STANDARD_PRESSURE_KPA,
-                  capture_efficiency: float = 0.0, high_flow_l_min: float = DEFAULT_HIGH_FLOW_L_MIN,
-                  high_flow_limit_min: float = DEFAULT_HIGH_FLOW_LIMIT_MIN,
-                  gap_limit_min: float = DEFAULT_GAP_LIMIT_MIN, memory_limit: str | None = None,
-                  threads: int | None = None, max_messages: int | None = None,
-                  engine: str = "auto", progress=None) -> AuditResult:
+def audit_records(
+    records,
+    *,
+    reference: Reference = DEFAULT_REFERENCE,
+    gwp_source: str = DEFAULT_GWP,
+    temperature_c: float = 20.0,
+    pressure_kpa: float = STANDARD_PRESSURE_KPA,
+    capture_efficiency: float = 0.0,
+    high_flow_l_min: float = DEFAULT_HIGH_FLOW_L_MIN,
+    high_flow_limit_min: float = DEFAULT_HIGH_FLOW_LIMIT_MIN,
+    gap_limit_min: float = DEFAULT_GAP_LIMIT_MIN,
+    memory_limit: str | None = None,
+    threads: int | None = None,
+    max_messages: int | None = None,
+    engine: str = "auto",
+    progress=None,
+) -> AuditResult:
     """Audit case records: per-case consumption, CO2e, cost, flow-band minutes, high-flow flag.
 
     Parameters
@@ -129,28 +141,57 @@ def audit_records(records, *, reference: Reference = DEFAULT_REFERENCE, gwp_sour
     .. [1] Dion P. The cost of anaesthetic vapours. Can J Anaesth 1992;39:633-4.
     .. [2] Baker AB. Low flow and closed circuits. Anaesth Intensive Care 1994;22:341-2.
     """
-    for name, value, low, high in (("high flow threshold", high_flow_l_min, 0.0, 30.0),
-                                   ("high flow limit", high_flow_limit_min, 0.0, 24 * 60.0),
-                                   ("capture efficiency", capture_efficiency, 0.0, 1.0),
-                                   ("room temperature", temperature_c, 0.0, 45.0),
-                                   ("pressure", pressure_kpa, 50.0, 120.0)):
+    for name, value, low, high in (
+        ("high flow threshold", high_flow_l_min, 0.0, 30.0),
+        ("high flow limit", high_flow_limit_min, 0.0, 24 * 60.0),
+        ("capture efficiency", capture_efficiency, 0.0, 1.0),
+        ("room temperature", temperature_c, 0.0, 45.0),
+        ("pressure", pressure_kpa, 50.0, 120.0),
+    ):
         if not (isinstance(value, (int, float)) and math.isfinite(value) and low <= value <= high):
             raise InputError(name, value, f"allowed range is [{low:g}, {high:g}]")
     reference.gwp_source(gwp_source)
     step = progress or (lambda f, t: None)
     if not isinstance(records, Records):
         kwargs = {} if max_messages is None else {"max_messages": max_messages}
-        records = read_records(records, reference=reference, gap_limit_min=gap_limit_min,
-                               memory_limit=memory_limit, threads=threads, progress=progress, **kwargs)
+        records = read_records(
+            records,
+            reference=reference,
+            gap_limit_min=gap_limit_min,
+            memory_limit=memory_limit,
+            threads=threads,
+            progress=progress,
+            **kwargs,
+        )
         try:
             with records.guard():
-                return _audit(records, reference, gwp_source, temperature_c, pressure_kpa, capture_efficiency,
-                              high_flow_l_min, high_flow_limit_min, engine, step)
+                return _audit(
+                    records,
+                    reference,
+                    gwp_source,
+                    temperature_c,
+                    pressure_kpa,
+                    capture_efficiency,
+                    high_flow_l_min,
+                    high_flow_limit_min,
+                    engine,
+                    step,
+                )
         finally:
             records.close()
     with records.guard():
-        return _audit(records, reference, gwp_source, temperature_c, pressure_kpa, capture_efficiency,
-                      high_flow_l_min, high_flow_limit_min, engine, step)
+        return _audit(
+            records,
+            reference,
+            gwp_source,
+            temperature_c,
+            pressure_kpa,
+            capture_efficiency,
+            high_flow_l_min,
+            high_flow_limit_min,
+            engine,
+            step,
+        )
 
 
 def _watched(con, work, step, low: float, high: float, total_rows: int):
@@ -218,8 +259,9 @@ def _files_engine(records: Records, high_flow_l_min: float, minute_ventilation_l
                 table, texts = ahead.result()
                 if i + 1 < n_files:
                     ahead = reader.submit(_read_file, records, i + 1)
-                raw, c, t, g = _numpy_engine(records, high_flow_l_min, minute_ventilation_l_min,
-                                             sql if table is None else table, texts)
+                raw, c, t, g = _numpy_engine(
+                    records, high_flow_l_min, minute_ventilation_l_min, sql if table is None else table, texts
+                )
                 del table, texts
                 raw["_file"] = i
                 parts.append(raw)
@@ -241,8 +283,18 @@ def _files_engine(records: Records, high_flow_l_min: float, minute_ventilation_l
     return raw.drop(columns="_file"), counts, time_rows[:limit], gap_rows[:limit]
 
 
-def _audit(records, reference, gwp_source, temperature_c, pressure_kpa, capture_efficiency,
-           high_flow_l_min, high_flow_limit_min, engine, step) -> AuditResult:
+def _audit(
+    records,
+    reference,
+    gwp_source,
+    temperature_c,
+    pressure_kpa,
+    capture_efficiency,
+    high_flow_l_min,
+    high_flow_limit_min,
+    engine,
+    step,
+) -> AuditResult:
     step(0.45, "Integrating the samples of each case")
     if engine not in ENGINES:
         raise InputError("engine", engine, "allowed engines are " + ", ".join(ENGINES))
@@ -262,10 +314,12 @@ def _audit(records, reference, gwp_source, temperature_c, pressure_kpa, capture_
         raw, counts, time_rows, gap_rows = result
     elif engine == "memory":
         raw, counts, time_rows, gap_rows = _watched(
-            records.con, lambda: _numpy_engine(records, high_flow_l_min, ve), step, 0.45, 0.9, n_rows)
+            records.con, lambda: _numpy_engine(records, high_flow_l_min, ve), step, 0.45, 0.9, n_rows
+        )
     else:
-        raw = _watched(records.con, lambda: records.con.sql(_case_sql(high_flow_l_min, ve)).df(),
-                       step, 0.45, 0.8, n_rows)
+        raw = _watched(
+            records.con, lambda: records.con.sql(_case_sql(high_flow_l_min, ve)).df(), step, 0.45, 0.8, n_rows
+        )
         step(0.8, "Counting set-aside rows")
         # Row checks need no window: count them from ``prepared``. The time checks set aside
         # the rest of the rows that passed them; only when there are some is the window
@@ -275,20 +329,37 @@ def _audit(records, reference, gwp_source, temperature_c, pressure_kpa, capture_
         counts = by_kind
         used = int(raw["samples"].sum()) if len(raw) else 0
         if passed > used:
-            counts.update(records.con.sql(
-                "SELECT problem, count(*) FROM checked WHERE problem IN ('duplicate_time', 'time_backwards') "
-                "GROUP BY 1").fetchall())
+            counts.update(
+                records.con.sql(
+                    "SELECT problem, count(*) FROM checked WHERE problem IN ('duplicate_time', 'time_backwards') "
+                    "GROUP BY 1"
+                ).fetchall()
+            )
         time_rows = gap_rows = None
     rows_valid = int(raw["samples"].sum()) if len(raw) else 0
-    finish_report(records, counts, rows_valid, int(raw["gaps"].sum()) if len(raw) else 0,
-                  float(raw["gap_min"].sum()) if len(raw) else 0.0, time_rows, gap_rows)
+    finish_report(
+        records,
+        counts,
+        rows_valid,
+        int(raw["gaps"].sum()) if len(raw) else 0,
+        float(raw["gap_min"].sum()) if len(raw) else 0.0,
+        time_rows,
+        gap_rows,
+    )
     step(0.9, "Costs and emissions")
-    cases = case_results(raw, reference, gwp_source, temperature_c, pressure_kpa, capture_efficiency,
-                         high_flow_limit_min, absorbent)
+    cases = case_results(
+        raw, reference, gwp_source, temperature_c, pressure_kpa, capture_efficiency, high_flow_limit_min, absorbent
+    )
     step(1.0, f"Done: {n_rows:,} of {n_rows:,} rows in {len(records.files)} file(s)")
-    settings = {"gap_limit_min": records.gap_limit_min, "high_flow_l_min": float(high_flow_l_min),
-                "high_flow_limit_min": float(high_flow_limit_min), "temperature_c": float(temperature_c),
-                "pressure_kpa": float(pressure_kpa), "capture_efficiency": float(capture_efficiency),
-                "absorbent_estimate": absorbent.as_dict()}
-    return AuditResult(cases, records.report, reference.prices.currency, gwp_source,
-                       reference.gwp_source(gwp_source).label, settings)
+    settings = {
+        "gap_limit_min": records.gap_limit_min,
+        "high_flow_l_min": float(high_flow_l_min),
+        "high_flow_limit_min": float(high_flow_limit_min),
+        "temperature_c": float(temperature_c),
+        "pressure_kpa": float(pressure_kpa),
+        "capture_efficiency": float(capture_efficiency),
+        "absorbent_estimate": absorbent.as_dict(),
+    }
+    return AuditResult(
+        cases, records.report, reference.prices.currency, gwp_source, reference.gwp_source(gwp_source).label, settings
+    )

@@ -14,8 +14,17 @@ import numpy as np
 __all__ = ["case_sums", "rows_pass"]
 
 #: Columns of the ``sums`` array of :func:`case_sums`, in order (``band_min`` follows).
-SUM_COLUMNS = ("minutes", "gap_min", "end_tidal_basis_min", "oxygen_l", "air_l", "nitrous_oxide_l",
-               "vapour_integral", "rebreathed_min", "longest_high_flow_min")
+SUM_COLUMNS = (
+    "minutes",
+    "gap_min",
+    "end_tidal_basis_min",
+    "oxygen_l",
+    "air_l",
+    "nitrous_oxide_l",
+    "vapour_integral",
+    "rebreathed_min",
+    "longest_high_flow_min",
+)
 
 _compiled: dict = {}
 
@@ -29,8 +38,9 @@ def _kernel(name: str = "scan"):
     return _compiled[name]
 
 
-def _checks(case_code, n_cases, agent_code, known, volatile, max_dial, o2, air, n2o, dial, et, nan_missing,
-            max_flow, max_total):
+def _checks(
+    case_code, n_cases, agent_code, known, volatile, max_dial, o2, air, n2o, dial, et, nan_missing, max_flow, max_total
+):
     """The loop behind :func:`rows_pass` (plain Python; numba compiles it)."""
     n = len(case_code)
     nf = 3
@@ -67,8 +77,21 @@ def _checks(case_code, n_cases, agent_code, known, volatile, max_dial, o2, air, 
     return True
 
 
-def rows_pass(case_code, n_cases: int, agent_code, known, volatile, max_dial, flows, dial, end_tidal,
-              nan_missing, *, max_flow_l_min: float, max_total_flow_l_min: float) -> bool:
+def rows_pass(
+    case_code,
+    n_cases: int,
+    agent_code,
+    known,
+    volatile,
+    max_dial,
+    flows,
+    dial,
+    end_tidal,
+    nan_missing,
+    *,
+    max_flow_l_min: float,
+    max_total_flow_l_min: float,
+) -> bool:
     """Whether every row passes the fast row checks of a Parquet file, in one compiled pass.
 
     Parameters
@@ -97,13 +120,24 @@ def rows_pass(case_code, n_cases: int, agent_code, known, volatile, max_dial, fl
     """
     empty = np.zeros(0)
     o2, air, n2o = (empty if x is None else np.ascontiguousarray(x, dtype=np.float64) for x in flows)
-    return bool(_kernel("checks")(
-        np.ascontiguousarray(case_code, dtype=np.int64), np.int64(n_cases),
-        np.ascontiguousarray(agent_code, dtype=np.int64), np.asarray(known, dtype=np.bool_),
-        np.asarray(volatile, dtype=np.bool_), np.asarray(max_dial, dtype=np.float64), o2, air, n2o,
-        empty if dial is None else np.ascontiguousarray(dial, dtype=np.float64),
-        empty if end_tidal is None else np.ascontiguousarray(end_tidal, dtype=np.float64),
-        np.asarray(nan_missing, dtype=np.bool_), float(max_flow_l_min), float(max_total_flow_l_min)))
+    return bool(
+        _kernel("checks")(
+            np.ascontiguousarray(case_code, dtype=np.int64),
+            np.int64(n_cases),
+            np.ascontiguousarray(agent_code, dtype=np.int64),
+            np.asarray(known, dtype=np.bool_),
+            np.asarray(volatile, dtype=np.bool_),
+            np.asarray(max_dial, dtype=np.float64),
+            o2,
+            air,
+            n2o,
+            empty if dial is None else np.ascontiguousarray(dial, dtype=np.float64),
+            empty if end_tidal is None else np.ascontiguousarray(end_tidal, dtype=np.float64),
+            np.asarray(nan_missing, dtype=np.bool_),
+            float(max_flow_l_min),
+            float(max_total_flow_l_min),
+        )
+    )
 
 
 def _scan(code, agent, t, o2, air, n2o, dial, et, n_agents, none_code, gap_limit, high_flow, ve, edges):
@@ -116,13 +150,27 @@ def _scan(code, agent, t, o2, air, n2o, dial, et, n_agents, none_code, gap_limit
             groups = 1
             continue
         if code[i] < code[i - 1]:
-            return -1, np.zeros(0, np.int64), np.zeros(0, np.int64), np.zeros(0, np.int64), \
-                np.zeros((0, 0)), np.zeros((0, 0)), np.zeros(0, np.bool_)
+            return (
+                -1,
+                np.zeros(0, np.int64),
+                np.zeros(0, np.int64),
+                np.zeros(0, np.int64),
+                np.zeros((0, 0)),
+                np.zeros((0, 0)),
+                np.zeros(0, np.bool_),
+            )
         key0 = code[i - 1] * n_agents + agent[i - 1]
         key1 = code[i] * n_agents + agent[i]
         if key1 < key0 or (code[i] == code[i - 1] and not t[i] > t[i - 1]):
-            return -1, np.zeros(0, np.int64), np.zeros(0, np.int64), np.zeros(0, np.int64), \
-                np.zeros((0, 0)), np.zeros((0, 0)), np.zeros(0, np.bool_)
+            return (
+                -1,
+                np.zeros(0, np.int64),
+                np.zeros(0, np.int64),
+                np.zeros(0, np.int64),
+                np.zeros((0, 0)),
+                np.zeros((0, 0)),
+                np.zeros(0, np.bool_),
+            )
         if key1 != key0:
             groups += 1
     nb = len(edges) + 1
@@ -214,9 +262,23 @@ def _scan(code, agent, t, o2, air, n2o, dial, et, n_agents, none_code, gap_limit
     return groups, first, samples, gaps, sums, band_min, gap
 
 
-def case_sums(code, agent, t_min, o2, air, n2o, dial, end_tidal, *, n_agents: int, none_code: int,
-              gap_limit_min: float, high_flow_l_min: float, minute_ventilation_l_min: float,
-              band_edges_l_min):
+def case_sums(
+    code,
+    agent,
+    t_min,
+    o2,
+    air,
+    n2o,
+    dial,
+    end_tidal,
+    *,
+    n_agents: int,
+    none_code: int,
+    gap_limit_min: float,
+    high_flow_l_min: float,
+    minute_ventilation_l_min: float,
+    band_edges_l_min,
+):
     """Per case and agent sums of valid samples, in one compiled pass; None when it does not apply.
 
     Parameters
@@ -261,11 +323,18 @@ def case_sums(code, agent, t_min, o2, air, n2o, dial, end_tidal, *, n_agents: in
     file order, as ``numpy.bincount`` sums, so both paths give the same bits; the tests
     check it on random records.
     """
-    arrays = [np.ascontiguousarray(a, dtype=np.int64) for a in (code, agent)] + \
-             [np.ascontiguousarray(a, dtype=np.float64) for a in (t_min, o2, air, n2o, dial, end_tidal)]
+    arrays = [np.ascontiguousarray(a, dtype=np.int64) for a in (code, agent)] + [
+        np.ascontiguousarray(a, dtype=np.float64) for a in (t_min, o2, air, n2o, dial, end_tidal)
+    ]
     groups, first, samples, gaps, sums, band_min, gap = _kernel("scan")(
-        *arrays, np.int64(n_agents), np.int64(none_code), float(gap_limit_min), float(high_flow_l_min),
-        float(minute_ventilation_l_min), np.ascontiguousarray(band_edges_l_min, dtype=np.float64))
+        *arrays,
+        np.int64(n_agents),
+        np.int64(none_code),
+        float(gap_limit_min),
+        float(high_flow_l_min),
+        float(minute_ventilation_l_min),
+        np.ascontiguousarray(band_edges_l_min, dtype=np.float64),
+    )
     if groups < 0:
         return None
     return first, samples, gaps, sums, band_min, gap

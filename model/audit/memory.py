@@ -11,7 +11,6 @@ from model.freshgas import FLOW_BANDS
 from model.io.record_files import file_failures
 from model.io.record_report import Records
 
-
 # --------------------------------------------------------------------------------------
 # The in-memory engine: the same rules as the SQL views ``checked`` and ``valid`` and
 # ``_case_sql``, computed with numpy over samples sorted once by case and file order.
@@ -60,7 +59,8 @@ class _Texts:
 def _text_codes(col) -> _Texts:
     """Codes of a text column (pyarrow, plain or dictionary) into its values as the SQL reads
     them (``NULLIF(trim(x), '')``: spaces trimmed, empty is missing), worked out once per
-    distinct value; a missing value has the code ``len(values)``."""
+    distinct value; a missing value has the code ``len(values)``.
+    """
     import pyarrow as pa
     import pyarrow.compute as pc
 
@@ -72,8 +72,7 @@ def _text_codes(col) -> _Texts:
     values = pc.if_else(pc.equal(values, ""), pa.scalar(None, pa.string()), values)
     recoded = pc.dictionary_encode(values)
     names = recoded.dictionary
-    remap = np.append(recoded.indices.fill_null(len(names)).to_numpy(zero_copy_only=False).astype(np.int64),
-                      len(names))
+    remap = np.append(recoded.indices.fill_null(len(names)).to_numpy(zero_copy_only=False).astype(np.int64), len(names))
     indices = arr.indices if arr.null_count == 0 else arr.indices.fill_null(-1)
     idx = np.asarray(indices.to_numpy(zero_copy_only=False), dtype=np.int64)
     if arr.null_count == 0 and np.array_equal(remap[:-1], np.arange(len(remap) - 1)):
@@ -135,12 +134,20 @@ def _read_parquet_file(recs: Records, index: int):
         return None, None
     numbers = [f for f in NUMBER_FIELDS if f in c]
     ttype = schema.field(c["time"].source).type if "time" in c else None
-    fast = (rf.flow_mode == "parts" and "date" not in c
-            and all(pa.types.is_integer(schema.field(c[f].source).type)
-                    or pa.types.is_floating(schema.field(c[f].source).type) for f in numbers)
-            and (ttype is None or (pa.types.is_timestamp(ttype) and ttype.tz is None)))
-    sources = [c[f].source for f in text_fields] + ([c["time"].source] if fast and ttype is not None else []) \
+    fast = (
+        rf.flow_mode == "parts"
+        and "date" not in c
+        and all(
+            pa.types.is_integer(schema.field(c[f].source).type) or pa.types.is_floating(schema.field(c[f].source).type)
+            for f in numbers
+        )
+        and (ttype is None or (pa.types.is_timestamp(ttype) and ttype.tz is None))
+    )
+    sources = (
+        [c[f].source for f in text_fields]
+        + ([c["time"].source] if fast and ttype is not None else [])
         + ([c[f].source for f in numbers] if fast else [])
+    )
     table = pq.read_table(rf.path, columns=sources, read_dictionary=[c[f].source for f in text_fields])
     texts = {f: _text_codes(table[c[f].source]) for f in text_fields}
     if "theatre" not in texts:
@@ -180,11 +187,22 @@ def _read_parquet_file(recs: Records, index: int):
     from model.audit.kernel import rows_pass
 
     ok_all = bool(ok.all()) and rows_pass(
-        texts["case_id"].codes, len(texts["case_id"].values), acode, known, volatile, max_dial,
-        tuple(values.get(f) for f in flow_fields), values.get("dial"), values.get("end_tidal"),
-        np.array([nan_missing.get(f, True) for f in flow_fields] + [nan_missing.get("dial", True),
-                                                          nan_missing.get("end_tidal", True)]),
-        max_flow_l_min=MAX_FLOW_L_MIN, max_total_flow_l_min=MAX_TOTAL_FLOW_L_MIN)
+        texts["case_id"].codes,
+        len(texts["case_id"].values),
+        acode,
+        known,
+        volatile,
+        max_dial,
+        tuple(values.get(f) for f in flow_fields),
+        values.get("dial"),
+        values.get("end_tidal"),
+        np.array(
+            [nan_missing.get(f, True) for f in flow_fields]
+            + [nan_missing.get("dial", True), nan_missing.get("end_tidal", True)]
+        ),
+        max_flow_l_min=MAX_FLOW_L_MIN,
+        max_total_flow_l_min=MAX_TOTAL_FLOW_L_MIN,
+    )
     dial = values.get("dial", np.full(n, np.nan))
     et = values.get("end_tidal", np.full(n, np.nan))
     if ttype is not None:
@@ -214,19 +232,32 @@ def _read_parquet_file(recs: Records, index: int):
     # counts as none in both paths of the engine.
     zeros = np.zeros(n)
     flow = {f: values.get(f, zeros) for f in ("o2", "air", "n2o")}
-    out = pa.table({
-        "_fileno": pa.array(np.full(n, index, dtype=np.int32)),
-        "_row": pa.array(np.arange(1, n + 1, dtype=np.int64)),
-        "agent": pa.DictionaryArray.from_arrays(pa.array(canon_code[acode]), pa.array(canon, pa.string())),
-        "t_min": pa.array(t_min), "month": month, "start_hint": start,
-        "o2": pa.array(flow["o2"]), "air": pa.array(flow["air"]), "n2o": pa.array(flow["n2o"]),
-        "dial": pa.array(dial), "end_tidal": pa.array(et), "problem_a": pa.nulls(n, pa.string()),
-    })
+    out = pa.table(
+        {
+            "_fileno": pa.array(np.full(n, index, dtype=np.int32)),
+            "_row": pa.array(np.arange(1, n + 1, dtype=np.int64)),
+            "agent": pa.DictionaryArray.from_arrays(pa.array(canon_code[acode]), pa.array(canon, pa.string())),
+            "t_min": pa.array(t_min),
+            "month": month,
+            "start_hint": start,
+            "o2": pa.array(flow["o2"]),
+            "air": pa.array(flow["air"]),
+            "n2o": pa.array(flow["n2o"]),
+            "dial": pa.array(dial),
+            "end_tidal": pa.array(et),
+            "problem_a": pa.nulls(n, pa.string()),
+        }
+    )
     return out, case_texts
 
 
-def _numpy_engine(recs: Records, high_flow_l_min: float, minute_ventilation_l_min: float,
-                  source: str = "SELECT * FROM prepared", texts: dict | None = None):
+def _numpy_engine(
+    recs: Records,
+    high_flow_l_min: float,
+    minute_ventilation_l_min: float,
+    source: str = "SELECT * FROM prepared",
+    texts: dict | None = None,
+):
     """Time checks, integration and per-case sums in numpy.
 
     ``source`` is the SQL query of the checked rows to work on (the view ``prepared`` of
@@ -283,8 +314,9 @@ def _numpy_engine(recs: Records, high_flow_l_min: float, minute_ventilation_l_mi
     t = _float(table, "t_min")
     if n and not isinstance(source, str) and texts and in_order and problem_a.null_count == n:
         # Rows of one file, each valid: one compiled pass when they come grouped by case in time order.
-        fast = _compiled_pass(recs, table, texts, code, t, case_names, theatre_code, high_flow_l_min,
-                              minute_ventilation_l_min)
+        fast = _compiled_pass(
+            recs, table, texts, code, t, case_names, theatre_code, high_flow_l_min, minute_ventilation_l_min
+        )
         if fast is not None:
             raw, time_rows, gap_rows = fast
             return raw, counts, time_rows, gap_rows
@@ -328,8 +360,16 @@ def _numpy_engine(recs: Records, high_flow_l_min: float, minute_ventilation_l_mi
             bad = _first_in_file_order(np.flatnonzero(dup | back), fileno[order], row[order], recs._max_messages)
             for i in bad:
                 j = order[i]
-                time_rows.append((int(fileno[j]), int(row[j]), "duplicate_time" if dup[i] else "time_backwards",
-                                  case_names[int(code_s[i])].as_py(), float(t_s[i]), float(sorted_t[prev_rank[i]])))
+                time_rows.append(
+                    (
+                        int(fileno[j]),
+                        int(row[j]),
+                        "duplicate_time" if dup[i] else "time_backwards",
+                        case_names[int(code_s[i])].as_py(),
+                        float(t_s[i]),
+                        float(sorted_t[prev_rank[i]]),
+                    )
+                )
     all_valid = bool(valid_s.all())
     vidx = order if in_key_order and all_valid else order[valid_s]
     cv, tv = (code, t) if in_key_order and all_valid else (code[vidx], t[vidx])
@@ -345,8 +385,10 @@ def _numpy_engine(recs: Records, high_flow_l_min: float, minute_ventilation_l_mi
     gap_at = np.flatnonzero(gap)
     if len(gap_at):
         gap_at = _first_in_file_order(gap_at, fileno[vidx], row[vidx], recs._max_messages)
-    gap_rows = [(int(fileno[vidx[i]]), int(row[vidx[i]]), case_names[int(cv[i])].as_py(), float(tv[i]),
-                 float(dt_raw[i])) for i in gap_at]
+    gap_rows = [
+        (int(fileno[vidx[i]]), int(row[vidx[i]]), case_names[int(cv[i])].as_py(), float(tv[i]), float(dt_raw[i]))
+        for i in gap_at
+    ]
 
     identity = (in_key_order and all_valid) or (m == n and bool(np.all(vidx == np.arange(n))))
 
@@ -403,8 +445,9 @@ def _numpy_engine(recs: Records, high_flow_l_min: float, minute_ventilation_l_mi
         np.maximum.at(longest, inv[high], run_len[high])
     edges = np.array([upper for _, upper in FLOW_BANDS[:-1]])
     band = np.searchsorted(edges, fgf, side="left")  # the rule of model.freshgas.flow_band
-    band_min = np.bincount(inv * len(FLOW_BANDS) + band, weights=dt,
-                           minlength=g * len(FLOW_BANDS)).reshape(g, len(FLOW_BANDS))
+    band_min = np.bincount(inv * len(FLOW_BANDS) + band, weights=dt, minlength=g * len(FLOW_BANDS)).reshape(
+        g, len(FLOW_BANDS)
+    )
     vfirst = vidx[first]
     case_of_group = np.array(case_names.to_pylist(), dtype=object)[uniq // n_agents] if g else []
     sums = {
@@ -421,14 +464,22 @@ def _numpy_engine(recs: Records, high_flow_l_min: float, minute_ventilation_l_mi
         **{col: band_min[:, k] for k, col in enumerate(BAND_COLUMNS)},
         "longest_high_flow_min": longest,
     }
-    raw = _case_frame(table, texts, theatre_code if texts else None, vfirst, case_of_group,
-                      agent_names[uniq % n_agents] if g else [], sums)
+    raw = _case_frame(
+        table,
+        texts,
+        theatre_code if texts else None,
+        vfirst,
+        case_of_group,
+        agent_names[uniq % n_agents] if g else [],
+        sums,
+    )
     return raw, counts, time_rows, gap_rows
 
 
 def _month_text(month) -> list:
-    """"%Y-%m" text of each date or time ("unknown" when missing), each distinct month
-    formatted once (a year's cases fall in a few months)."""
+    """ "%Y-%m" text of each date or time ("unknown" when missing), each distinct month
+    formatted once (a year's cases fall in a few months).
+    """
     import pyarrow as pa
     import pyarrow.compute as pc
 
@@ -454,8 +505,9 @@ def _case_frame(table, texts, theatre_code, vfirst, case_of_group, agent_of_grou
     if pa.types.is_timestamp(start.type):  # the SQL's TIMESTAMP: microseconds
         start = start.cast(pa.timestamp("us"))
     start = pd.to_datetime(pd.Series(start.to_pandas())).to_numpy()
-    return pd.DataFrame({"case_id": case_of_group, "agent": agent_of_group, "theatre": theatre, "month": month,
-                         "start": start, **sums})
+    return pd.DataFrame(
+        {"case_id": case_of_group, "agent": agent_of_group, "theatre": theatre, "month": month, "start": start, **sums}
+    )
 
 
 def _agent_codes(table):
@@ -469,8 +521,7 @@ def _agent_codes(table):
     return agent_code, agent_names, int(none_codes[0]) if len(none_codes) else -1
 
 
-def _compiled_pass(recs, table, texts, code, t, case_names, theatre_code, high_flow_l_min,
-                   minute_ventilation_l_min):
+def _compiled_pass(recs, table, texts, code, t, case_names, theatre_code, high_flow_l_min, minute_ventilation_l_min):
     """The samples of one file integrated by :func:`model.audit.kernel.case_sums`.
 
     Returns ``(raw, time_rows, gap_rows)`` as :func:`_numpy_engine`, or None when the
@@ -482,10 +533,22 @@ def _compiled_pass(recs, table, texts, code, t, case_names, theatre_code, high_f
     agent_code, agent_names, none_code = _agent_codes(table)
     n_agents = max(len(agent_names), 1)
     edges = np.array([upper for _, upper in FLOW_BANDS[:-1]])
-    out = case_sums(code, agent_code, t, _float(table, "o2"), _float(table, "air"), _float(table, "n2o"),
-                    _float(table, "dial"), _float(table, "end_tidal"), n_agents=n_agents, none_code=none_code,
-                    gap_limit_min=recs.gap_limit_min, high_flow_l_min=high_flow_l_min,
-                    minute_ventilation_l_min=minute_ventilation_l_min, band_edges_l_min=edges)
+    out = case_sums(
+        code,
+        agent_code,
+        t,
+        _float(table, "o2"),
+        _float(table, "air"),
+        _float(table, "n2o"),
+        _float(table, "dial"),
+        _float(table, "end_tidal"),
+        n_agents=n_agents,
+        none_code=none_code,
+        gap_limit_min=recs.gap_limit_min,
+        high_flow_l_min=high_flow_l_min,
+        minute_ventilation_l_min=minute_ventilation_l_min,
+        band_edges_l_min=edges,
+    )
     if out is None:
         return None
     first, samples, gaps, sums, band_min, gap = out
@@ -494,13 +557,38 @@ def _compiled_pass(recs, table, texts, code, t, case_names, theatre_code, high_f
     fileno = np.asarray(_column(table, "_fileno").take(at).to_numpy(zero_copy_only=False), dtype=np.int64)
     row = np.asarray(_column(table, "_row").take(at).to_numpy(zero_copy_only=False), dtype=np.int64)
     keep = _first_in_file_order(np.arange(len(at)), fileno, row, recs._max_messages)
-    gap_rows = [(int(fileno[k]), int(row[k]), case_names[int(code[i])].as_py(), float(t[i]), float(t[i + 1] - t[i]))
-                for k, i in zip(keep, at[keep])]
-    columns = {"samples": samples, "minutes": sums[:, 0], "gaps": gaps,
-               **{name: sums[:, k] for k, name in enumerate(SUM_COLUMNS) if k},
-               **{col: band_min[:, k] for k, col in enumerate(BAND_COLUMNS)}}
-    order = ["samples", "minutes", "gaps", "gap_min", "end_tidal_basis_min", "oxygen_l", "air_l",
-             "nitrous_oxide_l", "vapour_integral", "rebreathed_min", *BAND_COLUMNS, "longest_high_flow_min"]
-    raw = _case_frame(table, texts, theatre_code, first, np.array(case_names.to_pylist(), dtype=object)[code[first]],
-                      agent_names[agent_code[first]], {k: columns[k] for k in order})
+    gap_rows = [
+        (int(fileno[k]), int(row[k]), case_names[int(code[i])].as_py(), float(t[i]), float(t[i + 1] - t[i]))
+        for k, i in zip(keep, at[keep])
+    ]
+    columns = {
+        "samples": samples,
+        "minutes": sums[:, 0],
+        "gaps": gaps,
+        **{name: sums[:, k] for k, name in enumerate(SUM_COLUMNS) if k},
+        **{col: band_min[:, k] for k, col in enumerate(BAND_COLUMNS)},
+    }
+    order = [
+        "samples",
+        "minutes",
+        "gaps",
+        "gap_min",
+        "end_tidal_basis_min",
+        "oxygen_l",
+        "air_l",
+        "nitrous_oxide_l",
+        "vapour_integral",
+        "rebreathed_min",
+        *BAND_COLUMNS,
+        "longest_high_flow_min",
+    ]
+    raw = _case_frame(
+        table,
+        texts,
+        theatre_code,
+        first,
+        np.array(case_names.to_pylist(), dtype=object)[code[first]],
+        agent_names[agent_code[first]],
+        {k: columns[k] for k in order},
+    )
     return raw, [], gap_rows

@@ -6,12 +6,17 @@ import numpy as np
 import pandas as pd
 
 from model.emissions import co2e_kg, gas_mass_g
-from model.reference import DEFAULT_GWP, DEFAULT_REFERENCE, Reference, STANDARD_PRESSURE_KPA
+from model.reference import DEFAULT_GWP, DEFAULT_REFERENCE, STANDARD_PRESSURE_KPA, Reference
 
 
-def purchase_emissions(purchases: pd.DataFrame, reference: Reference = DEFAULT_REFERENCE,
-                       gwp_source: str = DEFAULT_GWP, temperature_c: float = 20.0,
-                       pressure_kpa: float = STANDARD_PRESSURE_KPA, keys=()) -> pd.DataFrame:
+def purchase_emissions(
+    purchases: pd.DataFrame,
+    reference: Reference = DEFAULT_REFERENCE,
+    gwp_source: str = DEFAULT_GWP,
+    temperature_c: float = 20.0,
+    pressure_kpa: float = STANDARD_PRESSURE_KPA,
+    keys=(),
+) -> pd.DataFrame:
     """Purchase-based use and emissions per month and item.
 
     Parameters
@@ -63,9 +68,15 @@ def _co2e_kg(reference: Reference, item: str, grams: float, gwp_source: str) -> 
     return float(co2e_kg(grams, reference.gwp(item, gwp_source)))
 
 
-def reconcile(purchases: pd.DataFrame, use: pd.DataFrame, reference: Reference = DEFAULT_REFERENCE,
-              gwp_source: str = DEFAULT_GWP, temperature_c: float = 20.0,
-              pressure_kpa: float = STANDARD_PRESSURE_KPA, months_with_records=None) -> pd.DataFrame:
+def reconcile(
+    purchases: pd.DataFrame,
+    use: pd.DataFrame,
+    reference: Reference = DEFAULT_REFERENCE,
+    gwp_source: str = DEFAULT_GWP,
+    temperature_c: float = 20.0,
+    pressure_kpa: float = STANDARD_PRESSURE_KPA,
+    months_with_records=None,
+) -> pd.DataFrame:
     """Purchased against recorded (or modelled) use, per item and month, with a total per item.
 
     Parameters
@@ -97,12 +108,18 @@ def reconcile(purchases: pd.DataFrame, use: pd.DataFrame, reference: Reference =
     A negative unexplained amount means more was recorded than bought in that period.
     """
     pe = purchase_emissions(purchases, reference, gwp_source, temperature_c, pressure_kpa)
-    u = use.groupby(["month", "item"], as_index=False)["recorded"].sum() if len(use) else \
-        pd.DataFrame(columns=["month", "item", "recorded"])
+    u = (
+        use.groupby(["month", "item"], as_index=False)["recorded"].sum()
+        if len(use)
+        else pd.DataFrame(columns=["month", "item", "recorded"])
+    )
     items = set(pe["item"])
     u = u[u["item"].isin(items)]
-    m = pe[["month", "item", "purchased"]].merge(u, on=["month", "item"], how="outer").fillna(
-        {"purchased": 0.0, "recorded": 0.0})
+    m = (
+        pe[["month", "item", "purchased"]]
+        .merge(u, on=["month", "item"], how="outer")
+        .fillna({"purchased": 0.0, "recorded": 0.0})
+    )
     m["unit"] = ["mL" if reference.agents[i].kind == "volatile" else "L" for i in m["item"]]
     tot = m.groupby(["item", "unit"], as_index=False)[["purchased", "recorded"]].sum()
     tot["month"] = "all"
@@ -113,8 +130,9 @@ def reconcile(purchases: pd.DataFrame, use: pd.DataFrame, reference: Reference =
     # A share over a vanishing purchase (1e-320 bottles) overflows: left empty, as where nothing was bought.
     out["unexplained_share"] = np.where((out["purchased"] > 0) & np.isfinite(share), share, np.nan)
     out["unexplained_co2e_kg"] = [
-        _co2e_kg(reference, r.item, _mass_g(reference, r.item, r.unexplained, temperature_c, pressure_kpa),
-                 gwp_source) for r in out.itertuples(index=False)]
+        _co2e_kg(reference, r.item, _mass_g(reference, r.item, r.unexplained, temperature_c, pressure_kpa), gwp_source)
+        for r in out.itertuples(index=False)
+    ]
     out["apparent_loss"] = np.where(out["item"] == "nitrous_oxide", out["unexplained"], np.nan)
     if months_with_records is None:
         months_with_records = use["month"] if len(use) else ()
@@ -130,13 +148,29 @@ def reconcile(purchases: pd.DataFrame, use: pd.DataFrame, reference: Reference =
     with np.errstate(invalid="ignore", divide="ignore"):
         out["unexplained_share_with_records"] = np.where(
             total & (out["purchased_with_records"] > 0),
-            1.0 - out["recorded_with_records"] / out["purchased_with_records"].where(
-                out["purchased_with_records"] > 0, 1), np.nan)
+            1.0
+            - out["recorded_with_records"] / out["purchased_with_records"].where(out["purchased_with_records"] > 0, 1),
+            np.nan,
+        )
     out["_total"] = out["month"] == "all"
     out = out.sort_values(["item", "_total", "month"]).drop(columns="_total").reset_index(drop=True)
-    return out[["item", "month", "unit", "purchased", "recorded", "unexplained", "unexplained_share",
-                "unexplained_co2e_kg", "apparent_loss", "has_records", "purchased_with_records",
-                "recorded_with_records", "unexplained_share_with_records"]]
+    return out[
+        [
+            "item",
+            "month",
+            "unit",
+            "purchased",
+            "recorded",
+            "unexplained",
+            "unexplained_share",
+            "unexplained_co2e_kg",
+            "apparent_loss",
+            "has_records",
+            "purchased_with_records",
+            "recorded_with_records",
+            "unexplained_share_with_records",
+        ]
+    ]
 
 
 #: Item name of the absorbent estimate in :func:`cost_view` (records carry no absorbent).
@@ -187,8 +221,14 @@ def cost_view(purchases: pd.DataFrame | None, result, reference: Reference = DEF
             continue
         p = bought.get(item, np.nan)
         rows.append((item, p, recorded.get(item, 0.0), "recorded flows and dial settings"))
-    rows.append((ABSORBENT_ITEM, np.nan, float(c["cost_absorbent"].sum()) if "cost_absorbent" in c else 0.0,
-                 "estimate from the recorded fresh gas flow (assumed patient)"))
+    rows.append(
+        (
+            ABSORBENT_ITEM,
+            np.nan,
+            float(c["cost_absorbent"].sum()) if "cost_absorbent" in c else 0.0,
+            "estimate from the recorded fresh gas flow (assumed patient)",
+        )
+    )
     out = pd.DataFrame(rows, columns=["item", "purchased_cost", "recorded_cost", "basis"])
     out.insert(3, "unexplained_cost", out["purchased_cost"] - out["recorded_cost"])
     return out
@@ -221,8 +261,7 @@ def record_coverage(cases: pd.DataFrame, recon: pd.DataFrame, reference: Referen
         (records cover only part: months bought without records, or that share under
         :data:`PARTIAL_RECORDS_SHARE`) and ``message`` (one plain sentence).
     """
-    per_case = cases.groupby("month").agg(cases=("month", "size"),
-                                          theatres=("theatre", lambda x: int(x.nunique())))
+    per_case = cases.groupby("month").agg(cases=("month", "size"), theatres=("theatre", lambda x: int(x.nunique())))
     bought_months = sorted(set(recon.loc[(recon["month"] != "all") & (recon["purchased"] > 0), "month"]))
     months = sorted(set(bought_months) | set(per_case.index))
     by_month = pd.DataFrame({"month": months})
@@ -238,16 +277,27 @@ def record_coverage(cases: pd.DataFrame, recon: pd.DataFrame, reference: Referen
     theatres = sorted(str(t) for t in cases["theatre"].dropna().unique())
     partial = bool(missing) or (share == share and share < PARTIAL_RECORDS_SHARE)
     n_with = sum(1 for m in bought_months if m not in missing)
-    message = (f"The records hold {len(cases):,} case(s) in {len(theatres)} theatre(s) "
-               f"({', '.join(theatres[:8])}{', ...' if len(theatres) > 8 else ''}) over {n_with} of the "
-               f"{len(bought_months)} month(s) with purchases")
+    message = (
+        f"The records hold {len(cases):,} case(s) in {len(theatres)} theatre(s) "
+        f"({', '.join(theatres[:8])}{', ...' if len(theatres) > 8 else ''}) over {n_with} of the "
+        f"{len(bought_months)} month(s) with purchases"
+    )
     if share == share:
         message += f"; in those months they account for {share:.0%} of the volatile agent bought"
     if partial:
-        message += (". They cover only part of what the purchases serve, so the unexplained amounts "
-                    "and the N2O gap are not losses: compare only months and theatres the records cover fully.")
+        message += (
+            ". They cover only part of what the purchases serve, so the unexplained amounts "
+            "and the N2O gap are not losses: compare only months and theatres the records cover fully."
+        )
     else:
         message += "."
-    return {"by_month": by_month, "months_bought": len(bought_months), "months_with_records": n_with,
-            "cases": int(len(cases)), "theatres": theatres, "volatile_recorded_share": share,
-            "partial": partial, "message": message}
+    return {
+        "by_month": by_month,
+        "months_bought": len(bought_months),
+        "months_with_records": n_with,
+        "cases": int(len(cases)),
+        "theatres": theatres,
+        "volatile_recorded_share": share,
+        "partial": partial,
+        "message": message,
+    }

@@ -8,9 +8,8 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from model.freshgas import FLOW_BANDS, FLOW_BAND_NAMES
+from model.freshgas import FLOW_BAND_NAMES, FLOW_BANDS
 from model.io.record_report import ReadReport
-
 
 #: Fresh gas flow above which a sample counts as high flow. [L/min]
 #: Source: Baker AB, Anaesth Intensive Care 1994;22:341-2 (high flow is above 2 L/min).
@@ -24,12 +23,36 @@ ENGINES = ("auto", "files", "memory", "sql")
 BAND_COLUMNS = tuple("band_" + n.replace(" ", "_") + "_min" for n in FLOW_BAND_NAMES)
 
 #: Columns of the case table that add up over cases.
-ADDITIVE = ("cases", "samples", "minutes", "gaps", "gap_min", "end_tidal_basis_min", "oxygen_l",
-            "air_l", "nitrous_oxide_l", "liquid_agent_ml", "bottles", "agent_mass_g",
-            "agent_emitted_g", "nitrous_oxide_g", "nitrous_oxide_emitted_g", "co2e_agent_kg",
-            "co2e_nitrous_oxide_kg", "co2e_total_kg", "cost_agent", "cost_oxygen", "cost_air",
-            "cost_nitrous_oxide", "cost_total", *BAND_COLUMNS, "high_flow_cases",
-            "co2_absorbed_l", "absorbent_g", "cost_absorbent")
+ADDITIVE = (
+    "cases",
+    "samples",
+    "minutes",
+    "gaps",
+    "gap_min",
+    "end_tidal_basis_min",
+    "oxygen_l",
+    "air_l",
+    "nitrous_oxide_l",
+    "liquid_agent_ml",
+    "bottles",
+    "agent_mass_g",
+    "agent_emitted_g",
+    "nitrous_oxide_g",
+    "nitrous_oxide_emitted_g",
+    "co2e_agent_kg",
+    "co2e_nitrous_oxide_kg",
+    "co2e_total_kg",
+    "cost_agent",
+    "cost_oxygen",
+    "cost_air",
+    "cost_nitrous_oxide",
+    "cost_total",
+    *BAND_COLUMNS,
+    "high_flow_cases",
+    "co2_absorbed_l",
+    "absorbent_g",
+    "cost_absorbent",
+)
 #: Groupings of :func:`summarise` (None: the whole set); "theatre_month" groups by both.
 GROUPINGS = ("theatre", "month", "agent", "theatre_month")
 
@@ -59,10 +82,12 @@ class AuditResult:
         a = self.settings.get("absorbent_estimate")
         if not a:
             return "not estimated"
-        return (f"an estimate for an assumed patient (records carry none): VCO2 {a['vco2_ml_min']:.0f} mL/min, "
-                f"minute ventilation {a['minute_ventilation_l_min']:.1f} L/min, {a['capacity_l_per_kg']:g} L CO2 "
-                f"per kg absorbent; CO2 absorbed = VCO2 x (1 - FGF / minute ventilation) while the fresh gas "
-                f"flow is below minute ventilation. Set these in the settings file's [absorbent] table.")
+        return (
+            f"an estimate for an assumed patient (records carry none): VCO2 {a['vco2_ml_min']:.0f} mL/min, "
+            f"minute ventilation {a['minute_ventilation_l_min']:.1f} L/min, {a['capacity_l_per_kg']:g} L CO2 "
+            f"per kg absorbent; CO2 absorbed = VCO2 x (1 - FGF / minute ventilation) while the fresh gas "
+            f"flow is below minute ventilation. Set these in the settings file's [absorbent] table."
+        )
 
     def bands_by_theatre(self) -> pd.DataFrame:
         """Minutes in each flow band by theatre, long form (theatre, band, minutes, share)."""
@@ -96,11 +121,13 @@ class AuditResult:
 
     def to_dict(self, max_cases: int = 1000) -> dict:
         """Machine-readable form with stable keys (units in the key names)."""
+
         def table(df):
             out = []
             for row in df.to_dict("records"):
                 out.append({k: _clean(v) for k, v in row.items()})
             return out
+
         issues = self.report.issues.head(max(len(self.report.issues), 0))
         return {
             "currency": self.currency,

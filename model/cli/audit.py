@@ -6,9 +6,9 @@ import sys
 
 from model.cli.common import CAUTION, print_json, print_table
 
-
-DE_IDENTIFY = ("Records must be de-identified before they are audited or shared: no names, "
-               "hospital numbers or dates of birth.")
+DE_IDENTIFY = (
+    "Records must be de-identified before they are audited or shared: no names, hospital numbers or dates of birth."
+)
 
 
 class ProgressLine:
@@ -34,29 +34,47 @@ class ProgressLine:
 def register(subparsers) -> None:
     """Add ``audit`` to the ``gas-ledger`` command line."""
     p = subparsers.add_parser(
-        "audit", help="audit case records (CSV/Parquet); reconcile with purchases",
+        "audit",
+        help="audit case records (CSV/Parquet); reconcile with purchases",
         description="Per-case consumption, CO2e, cost and flow bands from case records, "
-                    "sums by theatre, month and agent, and optionally a reconciliation with "
-                    "purchases. Rows with problems are set aside and reported, never fatal.")
+        "sums by theatre, month and agent, and optionally a reconciliation with "
+        "purchases. Rows with problems are set aside and reported, never fatal.",
+    )
     p.add_argument("files", nargs="+", metavar="FILES", help="record files or globs (.csv, .parquet)")
     p.add_argument("--purchases", metavar="FILE", help="purchases file (.csv or .parquet)")
     p.add_argument("--json", action="store_true", help="machine-readable output")
-    p.add_argument("--gap-limit", type=float, default=None, metavar="MIN",
-                   help="longest interval between samples that is counted [min] (default 5)")
-    p.add_argument("--high-flow-limit", type=float, default=None, metavar="MIN",
-                   help="flag cases with a high-flow run at least this long [min] (default 15)")
+    p.add_argument(
+        "--gap-limit",
+        type=float,
+        default=None,
+        metavar="MIN",
+        help="longest interval between samples that is counted [min] (default 5)",
+    )
+    p.add_argument(
+        "--high-flow-limit",
+        type=float,
+        default=None,
+        metavar="MIN",
+        help="flag cases with a high-flow run at least this long [min] (default 15)",
+    )
     p.add_argument("--gwp-source", default=None, help="GWP source key (default ar6_gwp100)")
-    p.add_argument("--memory-limit", default=None, metavar="SIZE",
-                   help="duckdb memory limit for large record sets, e.g. 3GB")
-    p.add_argument("--messages", type=int, default=20, metavar="N",
-                   help="row-level messages printed (the JSON output carries up to 2000)")
+    p.add_argument(
+        "--memory-limit", default=None, metavar="SIZE", help="duckdb memory limit for large record sets, e.g. 3GB"
+    )
+    p.add_argument(
+        "--messages",
+        type=int,
+        default=20,
+        metavar="N",
+        help="row-level messages printed (the JSON output carries up to 2000)",
+    )
     p.set_defaults(func=cmd_audit)
 
 
 def cmd_audit(args) -> int:
-    from model.audit.result import BAND_COLUMNS, DEFAULT_HIGH_FLOW_LIMIT_MIN
     from model.audit.engine import audit_records
-    from model.errors import InputError
+    from model.audit.result import BAND_COLUMNS, DEFAULT_HIGH_FLOW_LIMIT_MIN
+    from model.base.errors import InputError
     from model.io.record_files import DEFAULT_GAP_LIMIT_MIN
     from model.reference import DEFAULT_GWP, load_settings
 
@@ -66,17 +84,21 @@ def cmd_audit(args) -> int:
     progress = ProgressLine(sys.stderr) if not args.json and sys.stderr.isatty() else None
     try:
         result = audit_records(
-            args.files, reference=reference, gwp_source=args.gwp_source or DEFAULT_GWP,
+            args.files,
+            reference=reference,
+            gwp_source=args.gwp_source or DEFAULT_GWP,
             gap_limit_min=DEFAULT_GAP_LIMIT_MIN if args.gap_limit is None else args.gap_limit,
             high_flow_limit_min=DEFAULT_HIGH_FLOW_LIMIT_MIN if args.high_flow_limit is None else args.high_flow_limit,
-            memory_limit=args.memory_limit, progress=progress)
+            memory_limit=args.memory_limit,
+            progress=progress,
+        )
     finally:
         if progress is not None:
             progress.clear()
     recon, purchase_notes = None, []
     if args.purchases:
-        from model.io.purchases import load_purchases
         from model.audit.reconcile import reconcile
+        from model.io.purchases import load_purchases
 
         bought = load_purchases(args.purchases, reference)
         purchase_notes = bought.messages
@@ -97,9 +119,11 @@ def cmd_audit(args) -> int:
     out = sys.stdout
     rep = result.report
     s = rep.summary()
-    out.write(f"Records: {len(s['files'])} file(s), {s['rows_read']:,} rows read, {s['rows_valid']:,} used, "
-              f"{s['rows_set_aside']:,} set aside; {s['gaps']:,} gap(s) over {s['gap_limit_min']:g} min "
-              f"({s['gap_minutes_not_counted']:,.0f} min not counted)\n")
+    out.write(
+        f"Records: {len(s['files'])} file(s), {s['rows_read']:,} rows read, {s['rows_valid']:,} used, "
+        f"{s['rows_set_aside']:,} set aside; {s['gaps']:,} gap(s) over {s['gap_limit_min']:g} min "
+        f"({s['gap_minutes_not_counted']:,.0f} min not counted)\n"
+    )
     kinds = {k: v for k, v in s["set_aside_by_kind"].items() if v}
     if kinds:
         out.write("Set aside by kind: " + ", ".join(f"{k} {v:,}" for k, v in kinds.items()) + "\n")
@@ -114,30 +138,48 @@ def cmd_audit(args) -> int:
     out.write("\n")
     t = result.total
     cur = result.currency
-    rows = [("Cases", f"{int(t['cases']):,}"),
-            ("Liquid agent", f"{t['liquid_agent_ml']:,.0f} mL ({t['bottles']:,.1f} bottles)"),
-            ("Oxygen / air / N2O", f"{t['oxygen_l']:,.0f} / {t['air_l']:,.0f} / {t['nitrous_oxide_l']:,.0f} L"),
-            (f"CO2e ({result.gwp_label})", f"{t['co2e_total_kg']:,.1f} kg (agent {t['co2e_agent_kg']:,.1f}, "
-                                           f"N2O {t['co2e_nitrous_oxide_kg']:,.1f})"),
-            ("Cost", f"{t['cost_total']:,.2f} {cur}"),
-            ("CO2 absorbent (estimate)", f"{t['absorbent_g'] / 1000:,.1f} kg, {t['cost_absorbent']:,.2f} {cur} "
-                                         f"(not in the cost above)"),
-            ("Time-weighted FGF", "no minute counted" if t['time_weighted_fgf_l_min'] != t['time_weighted_fgf_l_min']
-                                  else f"{t['time_weighted_fgf_l_min']:,.2f} L/min"),
-            ("Cases with long high flow", f"{int(t['high_flow_cases']):,} (run of "
-                                          f"{result.settings['high_flow_limit_min']:g} min or more above "
-                                          f"{result.settings['high_flow_l_min']:g} L/min)")]
+    rows = [
+        ("Cases", f"{int(t['cases']):,}"),
+        ("Liquid agent", f"{t['liquid_agent_ml']:,.0f} mL ({t['bottles']:,.1f} bottles)"),
+        ("Oxygen / air / N2O", f"{t['oxygen_l']:,.0f} / {t['air_l']:,.0f} / {t['nitrous_oxide_l']:,.0f} L"),
+        (
+            f"CO2e ({result.gwp_label})",
+            f"{t['co2e_total_kg']:,.1f} kg (agent {t['co2e_agent_kg']:,.1f}, N2O {t['co2e_nitrous_oxide_kg']:,.1f})",
+        ),
+        ("Cost", f"{t['cost_total']:,.2f} {cur}"),
+        (
+            "CO2 absorbent (estimate)",
+            f"{t['absorbent_g'] / 1000:,.1f} kg, {t['cost_absorbent']:,.2f} {cur} (not in the cost above)",
+        ),
+        (
+            "Time-weighted FGF",
+            "no minute counted"
+            if t["time_weighted_fgf_l_min"] != t["time_weighted_fgf_l_min"]
+            else f"{t['time_weighted_fgf_l_min']:,.2f} L/min",
+        ),
+        (
+            "Cases with long high flow",
+            f"{int(t['high_flow_cases']):,} (run of "
+            f"{result.settings['high_flow_limit_min']:g} min or more above "
+            f"{result.settings['high_flow_l_min']:g} L/min)",
+        ),
+    ]
     width = max(len(k) for k, _ in rows)
     for k, v in rows:
         out.write(f"{k.ljust(width)}  {v}\n")
     for key in ("theatre", "month", "agent"):
         out.write(f"\nBy {key}\n")
-        print_table(result.by(key).to_dict("records"),
-                    [key, "cases", "liquid_agent_ml", "co2e_total_kg", "cost_total", "mean_fgf_l_min",
-                     "high_flow_cases"], out)
+        print_table(
+            result.by(key).to_dict("records"),
+            [key, "cases", "liquid_agent_ml", "co2e_total_kg", "cost_total", "mean_fgf_l_min", "high_flow_cases"],
+            out,
+        )
     out.write("\nBy theatre and month: time-weighted fresh gas flow and minutes in each flow band (Baker 1994)\n")
-    print_table(result.by("theatre_month").to_dict("records"),
-                ["theatre", "month", "cases", "time_weighted_fgf_l_min", *BAND_COLUMNS], out)
+    print_table(
+        result.by("theatre_month").to_dict("records"),
+        ["theatre", "month", "cases", "time_weighted_fgf_l_min", *BAND_COLUMNS],
+        out,
+    )
     out.write(f"\nCO2 absorbent: {result.absorbent_note()}\n")
     if recon is not None:
         out.write("\nPurchases against recorded use (unexplained = purchased - recorded)\n")
@@ -147,13 +189,28 @@ def cmd_audit(args) -> int:
                 out.write(f"  - {m}\n")
             if len(purchase_notes) > args.messages:
                 out.write(f"  ... {len(purchase_notes) - args.messages} more (--messages N, or --json)\n")
-        print_table(recon.to_dict("records"),
-                    ["item", "month", "unit", "purchased", "recorded", "unexplained", "unexplained_share",
-                     "unexplained_co2e_kg"], out)
+        print_table(
+            recon.to_dict("records"),
+            [
+                "item",
+                "month",
+                "unit",
+                "purchased",
+                "recorded",
+                "unexplained",
+                "unexplained_share",
+                "unexplained_co2e_kg",
+            ],
+            out,
+        )
         loss = recon[(recon["item"] == "nitrous_oxide") & (recon["month"] == "all")]
         if len(loss):
             r = loss.iloc[0]
-            share = "" if r["unexplained_share"] != r["unexplained_share"] else f" ({r['unexplained_share']:.0%} of purchases)"
+            share = (
+                ""
+                if r["unexplained_share"] != r["unexplained_share"]
+                else f" ({r['unexplained_share']:.0%} of purchases)"
+            )
             out.write(f"N2O apparent loss: {r['apparent_loss']:,.0f} L{share}\n")
     out.write(f"\nCost by item, whole period ({cur}; purchases priced with the same prices)\n")
     print_table(costs.to_dict("records"), ["item", "purchased_cost", "recorded_cost", "unexplained_cost", "basis"], out)

@@ -7,7 +7,6 @@ import json
 import math
 import sys
 
-
 EXIT_INPUT = 2
 
 
@@ -22,7 +21,7 @@ def _fmt(value, digits=2):
     if value is None or (isinstance(value, float) and value != value):
         return "-"  # None or NaN: no figure (e.g. the mean flow of a case with no minutes)
     if isinstance(value, float):
-        if value != 0 and abs(value) < 10 ** -digits:
+        if value != 0 and abs(value) < 10**-digits:
             return f"{value:.2g}"  # small shares (e.g. 0.0002) would print as 0.00
         return f"{value:,.{digits}f}"
     return str(value)
@@ -59,11 +58,14 @@ def _finite_only(value):
     return value
 
 
-CAUTION = ("Estimates for planning, budgeting and reporting, not a prescription. Flows, mixes and "
-           "dial settings follow local protocols, the workstation's instructions for use and "
-           "licensed practice, with inspired O2 and end-tidal agent monitored.")
+CAUTION = (
+    "Estimates for planning, budgeting and reporting, not a prescription. Flows, mixes and "
+    "dial settings follow local protocols, the workstation's instructions for use and "
+    "licensed practice, with inspired O2 and end-tidal agent monitored."
+)
 
 
 def _reference(args):
     from model.reference import load_settings
+
     return load_settings(args.settings)

@@ -6,9 +6,9 @@ import argparse
 import math
 import sys
 
-from model.cli.common import CAUTION, EXIT_INPUT, _Parser, _reference, print_json, print_table
+from model.base.errors import InputError
 from model.cautions import severity_of
-from model.errors import InputError
+from model.cli.common import CAUTION, EXIT_INPUT, _Parser, _reference, print_json, print_table
 
 
 def cmd_case(args) -> int:
@@ -25,40 +25,67 @@ def cmd_case(args) -> int:
     cur = result.currency
     print(f"{plan.name}  ({plan.agent}, {t['duration_min']:g} min)")
     print()
-    print_table(result.phases.to_dict("records"),
-                ["phase", "duration_min", "fgf_l_min", "flow_band", "dial_pct", "liquid_agent_ml",
-                 "co2e_kg", "mac_hours", "end_tidal_mac_hours"])
+    print_table(
+        result.phases.to_dict("records"),
+        [
+            "phase",
+            "duration_min",
+            "fgf_l_min",
+            "flow_band",
+            "dial_pct",
+            "liquid_agent_ml",
+            "co2e_kg",
+            "mac_hours",
+            "end_tidal_mac_hours",
+        ],
+    )
     print()
     rows = [
         ("Liquid agent", f"{t['liquid_agent_ml']:.1f} mL ({t['bottles']:.2f} bottles)"),
         ("Agent mass", f"{t['agent_mass_g']:.1f} g"),
         ("Oxygen / air / N2O", f"{t['oxygen_l']:.0f} / {t['air_l']:.0f} / {t['nitrous_oxide_l']:.0f} L"),
         ("Absorbent", f"{t['absorbent_g']:.0f} g ({t.get('co2_absorbed_l', 0.0):.1f} L CO2 absorbed)"),
-        ("Agent taken up", f"{t.get('agent_uptake_g', 0.0):.1f} g by the patient "
-                           f"(metabolised {t.get('agent_metabolised_g', 0.0):.2f} g)"),
-        ("Inspired O2, lowest", f"{t.get('min_inspired_o2_pct', float('nan')):.0f} % at "
-                                f"{t.get('min_inspired_o2_time_min', float('nan')):.0f} min "
-                                f"(floor {t.get('inspired_o2_floor_pct', 30.0):.0f} %)"),
-        (f"CO2e ({result.gwp_label})", f"{t['co2e_total_kg']:.2f} kg "
-                                       f"(agent {t['co2e_agent_kg']:.2f}, N2O {t['co2e_nitrous_oxide_kg']:.2f})"),
-        ("Cost", f"{t['cost_total']:.2f} {cur} (agent {t['cost_agent']:.2f}, gases "
-                 f"{t['cost_oxygen'] + t['cost_air'] + t['cost_nitrous_oxide']:.2f}, "
-                 f"absorbent {t['cost_absorbent']:.2f})"),
+        (
+            "Agent taken up",
+            f"{t.get('agent_uptake_g', 0.0):.1f} g by the patient "
+            f"(metabolised {t.get('agent_metabolised_g', 0.0):.2f} g)",
+        ),
+        (
+            "Inspired O2, lowest",
+            f"{t.get('min_inspired_o2_pct', float('nan')):.0f} % at "
+            f"{t.get('min_inspired_o2_time_min', float('nan')):.0f} min "
+            f"(floor {t.get('inspired_o2_floor_pct', 30.0):.0f} %)",
+        ),
+        (
+            f"CO2e ({result.gwp_label})",
+            f"{t['co2e_total_kg']:.2f} kg (agent {t['co2e_agent_kg']:.2f}, N2O {t['co2e_nitrous_oxide_kg']:.2f})",
+        ),
+        (
+            "Cost",
+            f"{t['cost_total']:.2f} {cur} (agent {t['cost_agent']:.2f}, gases "
+            f"{t['cost_oxygen'] + t['cost_air'] + t['cost_nitrous_oxide']:.2f}, "
+            f"absorbent {t['cost_absorbent']:.2f})",
+        ),
         ("MAC-hours, end-tidal", f"{t['end_tidal_mac_hours']:.2f}"),
         ("MAC-hours, dial-based", f"{t['mac_hours']:.2f}"),
     ]
     safe = t.get("lowest_safe_fd_o2_pct")
     if safe is not None and math.isfinite(safe):
         at = next(i for i, (k, _) in enumerate(rows) if k == "Inspired O2, lowest") + 1
-        rows.insert(at, ("Lowest safe fresh gas O2", f"{safe:.0f} % at the longest phase's flow "
-                                                     f"(keeps inspired O2 above the floor at steady state)"))
+        rows.insert(
+            at,
+            (
+                "Lowest safe fresh gas O2",
+                f"{safe:.0f} % at the longest phase's flow (keeps inspired O2 above the floor at steady state)",
+            ),
+        )
     width = max(len(k) for k, _ in rows)
     for k, v in rows:
         print(f"{k.ljust(width)}  {v}")
     if result.warnings:
         print()
         print("Warnings:")
-        for w in result.warnings:       # most severe first (model.cautions.SEVERITIES)
+        for w in result.warnings:  # most severe first (model.cautions.SEVERITIES)
             print(f"  - {severity_of(w).upper()}: {w}")
     print()
     print(CAUTION)
@@ -83,11 +110,12 @@ def cmd_reference(args) -> int:
 
 
 def build_parser() -> argparse.ArgumentParser:
-    parser = _Parser(prog="gas-ledger",
-                     description="Fresh Gas Ledger: what anaesthesia consumes, costs and emits.")
-    parser.add_argument("--settings", metavar="FILE",
-                        help="user settings file (TOML) overriding reference values and prices; "
-                             "default: $GAS_LEDGER_SETTINGS")
+    parser = _Parser(prog="gas-ledger", description="Fresh Gas Ledger: what anaesthesia consumes, costs and emits.")
+    parser.add_argument(
+        "--settings",
+        metavar="FILE",
+        help="user settings file (TOML) overriding reference values and prices; default: $GAS_LEDGER_SETTINGS",
+    )
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
 
     p = sub.add_parser("case", help="consumption, cost and CO2e of one case plan")
@@ -147,8 +175,7 @@ def main(argv=None) -> int:
     args = parser.parse_args(_join_dash_values(argv))
     if not getattr(args, "func", None):
         parser.print_help()
-        sys.stderr.write("gas-ledger: no command given; choose one of "
-                         + ", ".join(_command_names(parser)) + "\n")
+        sys.stderr.write("gas-ledger: no command given; choose one of " + ", ".join(_command_names(parser)) + "\n")
         return EXIT_INPUT
     try:
         return args.func(args)

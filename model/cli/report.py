@@ -10,29 +10,49 @@ from model.cli.common import CAUTION, print_json, print_table
 def register(subparsers) -> None:
     """Add ``report`` to the ``gas-ledger`` command line."""
     p = subparsers.add_parser(
-        "report", help="emissions report: a period against a baseline and a target, what drove the change",
+        "report",
+        help="emissions report: a period against a baseline and a target, what drove the change",
         description="Scope 1 anaesthetic emissions of a reporting period from case records (use-based) and "
-                    "purchases (purchase-based), with intensity, a baseline, a target and an LMDI "
-                    "decomposition of the change. Periods: 2026 (calendar year), FY2026-04 (financial year "
-                    "starting April 2026), 2026Q2, 2026-03, 2026-01-01..2026-06-30.")
+        "purchases (purchase-based), with intensity, a baseline, a target and an LMDI "
+        "decomposition of the change. Periods: 2026 (calendar year), FY2026-04 (financial year "
+        "starting April 2026), 2026Q2, 2026-03, 2026-01-01..2026-06-30.",
+    )
     p.add_argument("files", nargs="+", metavar="RECORDS", help="record files or globs (.csv, .parquet)")
     p.add_argument("--period", required=True, help="reporting period, e.g. 2026, FY2026-04, 2026Q2")
     p.add_argument("--baseline", default=None, help="period to compare with, e.g. 2025")
     p.add_argument("--target", default=None, help="reduction target: '-5%%/year' or '120 t by 2030'")
-    p.add_argument("--purchases", action="append", default=[], metavar="FILE",
-                   help="purchases file (.csv or .parquet), optionally with a site column; give it again for "
-                        "more files")
+    p.add_argument(
+        "--purchases",
+        action="append",
+        default=[],
+        metavar="FILE",
+        help="purchases file (.csv or .parquet), optionally with a site column; give it again for more files",
+    )
     p.add_argument("--sites", default=None, metavar="FILE", help="site file: CSV theatre,site")
-    p.add_argument("--site", action="append", default=[], metavar="NAME",
-                   help="report only this site (repeat for more); default every site")
-    p.add_argument("--gwp", "--gwp-source", dest="gwp", default=None,
-                   help="GWP source of the headline (default ar6_gwp100); AR5 and AR6 GWP100 are always shown")
+    p.add_argument(
+        "--site",
+        action="append",
+        default=[],
+        metavar="NAME",
+        help="report only this site (repeat for more); default every site",
+    )
+    p.add_argument(
+        "--gwp",
+        "--gwp-source",
+        dest="gwp",
+        default=None,
+        help="GWP source of the headline (default ar6_gwp100); AR5 and AR6 GWP100 are always shown",
+    )
     p.add_argument("--baseline-gwp", default=None, help="GWP source of the baseline (default: as --gwp)")
     p.add_argument("--json", action="store_true", help="machine-readable output")
     p.add_argument("--xlsx", default=None, metavar="FILE", help="also write the report's tables as an Excel workbook")
-    p.add_argument("--html", default=None, metavar="FILE",
-                   help="also write the report as a self-contained HTML file: charts, tables and text, as the "
-                        "dashboard's Emissions report page downloads it (opens offline)")
+    p.add_argument(
+        "--html",
+        default=None,
+        metavar="FILE",
+        help="also write the report as a self-contained HTML file: charts, tables and text, as the "
+        "dashboard's Emissions report page downloads it (opens offline)",
+    )
     p.set_defaults(func=cmd_report)
 
 
@@ -42,7 +62,7 @@ def cmd_report(args) -> int:
     import pandas as pd
 
     from model.audit.engine import audit_records
-    from model.errors import InputError
+    from model.base.errors import InputError
     from model.io.purchases import load_purchases
     from model.io.sites import read_sites
     from model.reference import DEFAULT_GWP, load_settings
@@ -67,23 +87,33 @@ def cmd_report(args) -> int:
         read = [load_purchases(f, reference) for f in args.purchases]
         purchase_notes = [m for r in read for m in r.messages]
         purchases = pd.concat([r.table for r in read], ignore_index=True)
-    report = build_report(result.cases, period, baseline, reference=reference, gwp_source=gwp,
-                          baseline_gwp_source=args.baseline_gwp, purchases=purchases, sites=sites,
-                          chosen_sites=tuple(args.site), target=target, absorbent_note=result.absorbent_note(),
-                          fields={"period": "--period", "baseline": "--baseline", "target": "--target",
-                                  "site": "--site"})
+    report = build_report(
+        result.cases,
+        period,
+        baseline,
+        reference=reference,
+        gwp_source=gwp,
+        baseline_gwp_source=args.baseline_gwp,
+        purchases=purchases,
+        sites=sites,
+        chosen_sites=tuple(args.site),
+        target=target,
+        absorbent_note=result.absorbent_note(),
+        fields={"period": "--period", "baseline": "--baseline", "target": "--target", "site": "--site"},
+    )
     report.cautions.append(CAUTION)
     if purchase_notes:
-        report.cautions.append(f"{len(purchase_notes)} purchase line(s) set aside (see gas-ledger audit --purchases); "
-                               "the others are used.")
+        report.cautions.append(
+            f"{len(purchase_notes)} purchase line(s) set aside (see gas-ledger audit --purchases); the others are used."
+        )
     if args.xlsx:
-        from model.report.document import report_xlsx
+        from model.present.report_document import report_xlsx
 
         Path(args.xlsx).write_bytes(report_xlsx(report))
     if args.html:
         # The page's figure builders (plotly is imported only when an HTML file is asked for).
-        from model.charts.report import report_figures
-        from model.report.document import report_html
+        from model.present.report_charts import report_figures
+        from model.present.report_document import report_html
 
         Path(args.html).write_text(report_html(report, list(report_figures(report).items())), encoding="utf-8")
     if args.json:
@@ -101,8 +131,10 @@ def cmd_report(args) -> int:
 
 def _print(report, result, out) -> None:
     s = result.report.summary()
-    out.write(f"Records: {len(s['files'])} file(s), {s['rows_valid']:,} rows used, {s['rows_set_aside']:,} set aside "
-              f"(gas-ledger audit lists them)\n\n")
+    out.write(
+        f"Records: {len(s['files'])} file(s), {s['rows_valid']:,} rows used, {s['rows_set_aside']:,} set aside "
+        f"(gas-ledger audit lists them)\n\n"
+    )
     out.write(report.headline() + "\n\n")
     table = report.figures_table()
     print_table(table.to_dict("records"), list(table.columns), out)
@@ -115,8 +147,10 @@ def _print(report, result, out) -> None:
         t = report.period.use_vs_purchase
         print_table(t.to_dict("records"), list(t.columns), out)
     if report.period.use_vs_purchase_by_site is not None:
-        out.write(f"\nUse-based against purchase-based by site (t CO2e, {report.gwp_label}; gap = purchase-based - "
-                  "use-based)\n")
+        out.write(
+            f"\nUse-based against purchase-based by site (t CO2e, {report.gwp_label}; gap = purchase-based - "
+            "use-based)\n"
+        )
         t = report.period.use_vs_purchase_by_site
         print_table(t.to_dict("records"), list(t.columns), out)
     elif report.period.purchases is not None:

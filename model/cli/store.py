@@ -1,5 +1,6 @@
 """The ``store`` sub-command of ``gas-ledger`` (registered by model.cli): copy a store, show
-what it holds, save a plan file into it."""
+what it holds, save a plan file into it.
+"""
 
 from __future__ import annotations
 
@@ -8,6 +9,7 @@ from model.cli.common import print_json, print_table
 
 def _open(location):
     from model.store import Store
+
     return Store(location)
 
 
@@ -17,8 +19,10 @@ def cmd_store_copy(args) -> int:
         target = _open(args.target)
         try:
             n = source.copy_into(target)
-            print(f"Copied {n} versions from {source.location} to {target.location}; every version kept "
-                  f"with its number, time, author and note.")
+            print(
+                f"Copied {n} versions from {source.location} to {target.location}; every version kept "
+                f"with its number, time, author and note."
+            )
         finally:
             target.close()
     finally:
@@ -28,11 +32,19 @@ def cmd_store_copy(args) -> int:
 
 def cmd_store_info(args) -> int:
     from model.store import KINDS
+
     with _open(args.store) as store:
-        rows = [{"kind": k, "items": len(store.names(k, include_hidden=True)),
-                 "versions": store.count_versions(k)} for k in KINDS]
-        info = {"store": store.location, "database": store.dialect, "schema_version": store.schema_version(),
-                "integrity": store.integrity(), "kinds": rows}
+        rows = [
+            {"kind": k, "items": len(store.names(k, include_hidden=True)), "versions": store.count_versions(k)}
+            for k in KINDS
+        ]
+        info = {
+            "store": store.location,
+            "database": store.dialect,
+            "schema_version": store.schema_version(),
+            "integrity": store.integrity(),
+            "kinds": rows,
+        }
     if args.json:
         print_json(info)
         return 0
@@ -43,9 +55,9 @@ def cmd_store_info(args) -> int:
 
 
 def cmd_store_save_plan(args) -> int:
-    from model.access import command_line_author
-    from model.files import read_user_text
+    from model.base.files import read_user_text
     from model.io.plans import MAX_PLAN_BYTES
+    from model.store.access import command_line_author
 
     text = read_user_text(args.plan, "plan", MAX_PLAN_BYTES)
     with _open(args.store) as store:
@@ -66,15 +78,25 @@ def register(sub) -> None:
     c.set_defaults(func=cmd_store_copy)
 
     c = ssub.add_parser("info", help="the store's database, schema version, integrity and counts")
-    c.add_argument("store", nargs="?", default=None, metavar="STORE",
-                   help=where + "; default: $GAS_LEDGER_STORE or ~/.gas-ledger/store.sqlite3")
+    c.add_argument(
+        "store",
+        nargs="?",
+        default=None,
+        metavar="STORE",
+        help=where + "; default: $GAS_LEDGER_STORE or ~/.gas-ledger/store.sqlite3",
+    )
     c.add_argument("--json", action="store_true", help="machine-readable output")
     c.set_defaults(func=cmd_store_info)
 
-    c = ssub.add_parser("save-plan", help="check a plan file and save it as a new version "
-                                          "(author: the command line and the OS user)")
+    c = ssub.add_parser(
+        "save-plan", help="check a plan file and save it as a new version (author: the command line and the OS user)"
+    )
     c.add_argument("plan", help="case plan file (TOML)")
-    c.add_argument("--store", default=None, metavar="STORE",
-                   help=where + "; default: $GAS_LEDGER_STORE or ~/.gas-ledger/store.sqlite3")
+    c.add_argument(
+        "--store",
+        default=None,
+        metavar="STORE",
+        help=where + "; default: $GAS_LEDGER_STORE or ~/.gas-ledger/store.sqlite3",
+    )
     c.add_argument("--note", default="", help="a note for this version")
     c.set_defaults(func=cmd_store_save_plan)

@@ -14,8 +14,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from model.errors import InputError
-
+from model.base.errors import InputError
 
 #: Invented theatres of the fictional Fernhollow General Hospital.
 THEATRES = ("Alder", "Birch", "Cedar", "Hazel", "Rowan", "Willow", "Day Unit 1", "Day Unit 2")
@@ -27,8 +26,17 @@ MAINTENANCE_DIAL = {"sevoflurane": 2.0, "desflurane": 6.0, "isoflurane": 1.2, "n
 LOW_FLOW_SHARE = 0.55
 N2O_SHARE = 0.12
 #: Columns written, in order (units in the column names, the record format's own way).
-COLUMNS = ("case_id", "time", "theatre", "agent", "o2 [L/min]", "air [L/min]", "n2o [L/min]",
-           "dial [%]", "end_tidal [%]")
+COLUMNS = (
+    "case_id",
+    "time",
+    "theatre",
+    "agent",
+    "o2 [L/min]",
+    "air [L/min]",
+    "n2o [L/min]",
+    "dial [%]",
+    "end_tidal [%]",
+)
 
 
 #: Invented change of practice in the demo's second year (2026): less desflurane (its cases
@@ -37,8 +45,9 @@ AGENT_MIX_2026 = {"sevoflurane": 0.82, "desflurane": 0.03, "isoflurane": 0.09, "
 LOW_FLOW_2026 = {"Alder": 0.9, "Cedar": 0.9, "Day Unit 1": 0.85, "Willow": 0.8}
 
 
-def generate(rows: int, seed: int = 2025, year: int = 2025, first_case: int = 0, agent_mix=None,
-             low_flow_share=None) -> pd.DataFrame:
+def generate(
+    rows: int, seed: int = 2025, year: int = 2025, first_case: int = 0, agent_mix=None, low_flow_share=None
+) -> pd.DataFrame:
     """Invented minute-level records of about ``rows`` samples (whole cases, trimmed to ``rows``).
 
     Parameters
@@ -87,8 +96,11 @@ def generate(rows: int, seed: int = 2025, year: int = 2025, first_case: int = 0,
         share = LOW_FLOW_SHARE if low_flow_share is None else float(low_flow_share)
     low = low_draw < share
     day = rng.integers(0, 365 if year % 4 else 366, n_cases)
-    start = (np.datetime64(f"{year}-01-01T08:00") + day.astype("timedelta64[D]")
-             + rng.integers(0, 9 * 60, n_cases).astype("timedelta64[m]"))
+    start = (
+        np.datetime64(f"{year}-01-01T08:00")
+        + day.astype("timedelta64[D]")
+        + rng.integers(0, 9 * 60, n_cases).astype("timedelta64[m]")
+    )
     maint_fgf = np.where(low, rng.uniform(0.5, 1.0, n_cases), rng.uniform(2.0, 3.0, n_cases))
     # A few high-flow cases stay at 6 L/min throughout (invented).
     maint_fgf = np.where(rng.random(n_cases) < 0.04, 6.0, maint_fgf)
@@ -110,22 +122,30 @@ def generate(rows: int, seed: int = 2025, year: int = 2025, first_case: int = 0,
     n2o = np.where(n2o_on, np.round(fgf - o2, 2), 0.0)
     air = np.round(np.maximum(fgf - o2 - n2o, 0.0), 2)
     volatile = agent[case_of_row] != list(names).index("none")
-    dial = np.where(ind, np.minimum(dial_case[case_of_row] * 2.0, np.where(
-        agent[case_of_row] == list(names).index("desflurane"), 12.0, 6.0)),
-        np.where(emerg, 0.0, dial_case[case_of_row]))
+    dial = np.where(
+        ind,
+        np.minimum(
+            dial_case[case_of_row] * 2.0, np.where(agent[case_of_row] == list(names).index("desflurane"), 12.0, 6.0)
+        ),
+        np.where(emerg, 0.0, dial_case[case_of_row]),
+    )
     dial = np.where(volatile, np.round(dial, 1), 0.0)
     et = np.where(volatile, np.round(dial * np.where(ind, 0.5, 0.8) * rng.uniform(0.9, 1.1, len(dial)), 2), 0.0)
-    case_ids = np.char.add(f"FH{year % 100:02d}-", np.char.zfill(
-        (np.arange(n_cases) + first_case).astype(str), 7))
+    case_ids = np.char.add(f"FH{year % 100:02d}-", np.char.zfill((np.arange(n_cases) + first_case).astype(str), 7))
     # Text columns as categories (codes per row): fast to build, written as dictionary columns.
-    return pd.DataFrame({
-        "case_id": pd.Categorical.from_codes(case_of_row, categories=case_ids),
-        "time": start[case_of_row] + minute.astype("timedelta64[m]"),
-        "theatre": pd.Categorical.from_codes(theatre[case_of_row], categories=list(THEATRES)),
-        "agent": pd.Categorical.from_codes(agent[case_of_row], categories=list(names)),
-        "o2 [L/min]": o2, "air [L/min]": air, "n2o [L/min]": n2o,
-        "dial [%]": dial, "end_tidal [%]": et,
-    })
+    return pd.DataFrame(
+        {
+            "case_id": pd.Categorical.from_codes(case_of_row, categories=case_ids),
+            "time": start[case_of_row] + minute.astype("timedelta64[m]"),
+            "theatre": pd.Categorical.from_codes(theatre[case_of_row], categories=list(THEATRES)),
+            "agent": pd.Categorical.from_codes(agent[case_of_row], categories=list(names)),
+            "o2 [L/min]": o2,
+            "air [L/min]": air,
+            "n2o [L/min]": n2o,
+            "dial [%]": dial,
+            "end_tidal [%]": et,
+        }
+    )
 
 
 def write(df: pd.DataFrame, path) -> Path:
@@ -142,8 +162,9 @@ def write(df: pd.DataFrame, path) -> Path:
     elif p.suffix == ".csv":
         import pyarrow.csv as pc
 
-        table = table.set_column(table.schema.get_field_index("time"), "time",
-                                 pa.compute.strftime(table["time"], "%Y-%m-%d %H:%M:%S"))
+        table = table.set_column(
+            table.schema.get_field_index("time"), "time", pa.compute.strftime(table["time"], "%Y-%m-%d %H:%M:%S")
+        )
         for name in ("case_id", "theatre", "agent"):
             i = table.schema.get_field_index(name)
             table = table.set_column(i, name, table[name].cast(pa.string()))
@@ -153,8 +174,15 @@ def write(df: pd.DataFrame, path) -> Path:
     return p
 
 
-def write_many(rows: int, out_dir, seed: int = 2025, fmt: str = "parquet",
-               rows_per_file: int = 5_000_000, year: int = 2025, prefix: str = "records") -> list[Path]:
+def write_many(
+    rows: int,
+    out_dir,
+    seed: int = 2025,
+    fmt: str = "parquet",
+    rows_per_file: int = 5_000_000,
+    year: int = 2025,
+    prefix: str = "records",
+) -> list[Path]:
     """Write ``rows`` invented samples as files of at most ``rows_per_file`` rows each.
 
     Each part has its own seed (``seed`` + part number) and distinct case ids, so memory
@@ -180,8 +208,13 @@ def write_many(rows: int, out_dir, seed: int = 2025, fmt: str = "parquet",
 
 
 #: Invented purchase factors of the demo: purchased / recorded use (wastage, stock, losses).
-DEMO_PURCHASE_FACTORS = {"sevoflurane": 1.08, "desflurane": 1.05, "isoflurane": 1.12,
-                         "nitrous_oxide": 2.4, "oxygen": 1.3}
+DEMO_PURCHASE_FACTORS = {
+    "sevoflurane": 1.08,
+    "desflurane": 1.05,
+    "isoflurane": 1.12,
+    "nitrous_oxide": 2.4,
+    "oxygen": 1.3,
+}
 #: Invented size of the demo's N2O cylinders. [L of gas at room conditions]
 DEMO_N2O_CYLINDER_L = 9000.0
 #: Invented: the leaking N2O manifold and pipework were mended at the end of June 2026; from
@@ -190,9 +223,16 @@ DEMO_N2O_CYLINDER_L = 9000.0
 DEMO_N2O_FIXED_FROM = "2026-07"
 DEMO_N2O_FACTOR_FIXED = 1.15
 #: Invented sites of the demo hospital's theatres (the site file written with the demo).
-DEMO_SITES = {"Alder": "Main theatres", "Birch": "Main theatres", "Cedar": "Main theatres",
-              "Hazel": "Main theatres", "Rowan": "East wing", "Willow": "East wing",
-              "Day Unit 1": "Day surgery unit", "Day Unit 2": "Day surgery unit"}
+DEMO_SITES = {
+    "Alder": "Main theatres",
+    "Birch": "Main theatres",
+    "Cedar": "Main theatres",
+    "Hazel": "Main theatres",
+    "Rowan": "East wing",
+    "Willow": "East wing",
+    "Day Unit 1": "Day surgery unit",
+    "Day Unit 2": "Day surgery unit",
+}
 
 
 def write_demo(out_dir, rows: int = 120_000, seed: int = 2025) -> list[Path]:
@@ -220,17 +260,19 @@ def write_demo(out_dir, rows: int = 120_000, seed: int = 2025) -> list[Path]:
     t0 = week.groupby("case_id")["time"].transform("min")
     fgf = week["o2 [L/min]"] + week["air [L/min]"] + week["n2o [L/min]"]
     o2_share = (week["o2 [L/min]"] + 0.20946 * week["air [L/min]"]) / fgf * 100.0
-    csv = pd.DataFrame({
-        "case": week["case_id"].str.replace("FH25-", "BW-", regex=False),
-        "date": "",
-        "elapsed": ((week["time"] - t0).dt.total_seconds() / 60.0).round(1),
-        "location": "Birch",
-        "agent": week["agent"].map({"sevoflurane": "Sevo", "desflurane": "Des", "isoflurane": "Iso"}),
-        "total_flow": (fgf * 1000.0).round(0),
-        "n2o_share": (week["n2o [L/min]"] / fgf * 100.0).round(1),
-        "o2_share": o2_share.round(1),
-        "dial": week["dial [%]"],
-    })
+    csv = pd.DataFrame(
+        {
+            "case": week["case_id"].str.replace("FH25-", "BW-", regex=False),
+            "date": "",
+            "elapsed": ((week["time"] - t0).dt.total_seconds() / 60.0).round(1),
+            "location": "Birch",
+            "agent": week["agent"].map({"sevoflurane": "Sevo", "desflurane": "Des", "isoflurane": "Iso"}),
+            "total_flow": (fgf * 1000.0).round(0),
+            "n2o_share": (week["n2o [L/min]"] / fgf * 100.0).round(1),
+            "o2_share": o2_share.round(1),
+            "dial": week["dial [%]"],
+        }
+    )
     csv["date"] = week.groupby("case_id")["time"].transform("min").dt.strftime("%Y-%m-%d")
     csv = csv.astype(object)
     # Deliberate problems (each one a kind the checks report).
@@ -251,15 +293,20 @@ def write_demo(out_dir, rows: int = 120_000, seed: int = 2025) -> list[Path]:
         csv.to_csv(fh, index=False)
     # Purchases: recorded use of the year times invented factors, in whole bottles/cylinders.
     year25 = audit_records([main_path])
-    purchases = write_purchases(_demo_purchases_by_site(_demo_purchases(year25.use_by_month()), year25.cases),
-                                out / "fernhollow_purchases_2025.csv", with_site=True)
+    purchases = write_purchases(
+        _demo_purchases_by_site(_demo_purchases(year25.use_by_month()), year25.cases),
+        out / "fernhollow_purchases_2025.csv",
+        with_site=True,
+    )
     # The second year, with its change of practice (own seed; the first year is untouched).
     df26 = generate(rows, seed + 1001, year=2026, agent_mix=AGENT_MIX_2026, low_flow_share=LOW_FLOW_2026)
     path26 = write(df26, out / "fernhollow_2026.parquet")
     year26 = audit_records([path26])
-    purchases26 = write_purchases(_demo_purchases_by_site(_demo_purchases(year26.use_by_month(), n2o_by_mass=True),
-                                                          year26.cases),
-                                  out / "fernhollow_purchases_2026.csv", with_site=True)
+    purchases26 = write_purchases(
+        _demo_purchases_by_site(_demo_purchases(year26.use_by_month(), n2o_by_mass=True), year26.cases),
+        out / "fernhollow_purchases_2026.csv",
+        with_site=True,
+    )
     sites = out / "fernhollow_sites.csv"
     with open(sites, "w", encoding="utf-8", newline="") as fh:
         fh.write("# Fernhollow General Hospital (invented): the site of each theatre\n")
@@ -270,7 +317,8 @@ def write_demo(out_dir, rows: int = 120_000, seed: int = 2025) -> list[Path]:
 
 def _demo_purchases(use: pd.DataFrame, n2o_by_mass: bool = False) -> list[tuple]:
     """Purchase lines of the demo: recorded use times invented factors, in whole bottles and
-    cylinders (N2O in kg when ``n2o_by_mass``)."""
+    cylinders (N2O in kg when ``n2o_by_mass``).
+    """
     rows_out = []
     for r in use.itertuples(index=False):
         f = DEMO_PURCHASE_FACTORS.get(r.item)
@@ -290,8 +338,15 @@ def _demo_purchases(use: pd.DataFrame, n2o_by_mass: bool = False) -> list[tuple]
             kg = float(gas_mass_g(r.recorded * f, DEFAULT_REFERENCE.agents["nitrous_oxide"].molar_mass)) / 1000.0
             rows_out.append((r.month, r.item, f"{kg:.2f}", "kg", ""))
         elif r.item == "nitrous_oxide":
-            rows_out.append((r.month, r.item, int(math.ceil(r.recorded * f / DEMO_N2O_CYLINDER_L)),
-                             "cylinder", f"{DEMO_N2O_CYLINDER_L:g} L"))
+            rows_out.append(
+                (
+                    r.month,
+                    r.item,
+                    int(math.ceil(r.recorded * f / DEMO_N2O_CYLINDER_L)),
+                    "cylinder",
+                    f"{DEMO_N2O_CYLINDER_L:g} L",
+                )
+            )
         else:
             rows_out.append((r.month, r.item, round(r.recorded * f / 1000.0, 1), "m**3", ""))
     return rows_out
@@ -299,7 +354,8 @@ def _demo_purchases(use: pd.DataFrame, n2o_by_mass: bool = False) -> list[tuple]
 
 def _largest_remainder(total: int, weights) -> np.ndarray:
     """``total`` whole units shared in proportion to ``weights`` (Hare's largest remainder): the
-    parts are whole numbers that add up to ``total``; equal weights share from the first."""
+    parts are whole numbers that add up to ``total``; equal weights share from the first.
+    """
     w = np.asarray(weights, dtype=float)
     if total <= 0 or w.sum() <= 0:
         return np.zeros(len(w), dtype=np.int64)
@@ -315,7 +371,8 @@ def _demo_purchases_by_site(lines: list[tuple], cases: pd.DataFrame) -> list[tup
     """The demo's purchase lines bought by site: each month's line of an agent or N2O shared
     among the sites (``DEMO_SITES``) by their recorded use of it that month, in whole bottles
     and cylinders (N2O by mass in 0.01 kg), so the hospital's totals are those of ``lines``.
-    Oxygen comes from the hospital's bulk supply and names no site (invented)."""
+    Oxygen comes from the hospital's bulk supply and names no site (invented).
+    """
     names = list(dict.fromkeys(DEMO_SITES.values()))
     c = cases.assign(site=cases["theatre"].astype(str).map(DEMO_SITES))
     volatile = c[c["agent"] != "none"].groupby(["month", "agent", "site"])["liquid_agent_ml"].sum()
@@ -338,12 +395,14 @@ def _demo_purchases_by_site(lines: list[tuple], cases: pd.DataFrame) -> list[tup
 
 
 def main(argv=None) -> int:
-    parser = argparse.ArgumentParser(prog="python -m model.cli.synth",
-                                     description="Write invented case records (Fernhollow General Hospital).")
+    parser = argparse.ArgumentParser(
+        prog="python -m model.cli.synth", description="Write invented case records (Fernhollow General Hospital)."
+    )
     parser.add_argument("--rows", type=int, default=None, help="number of sample rows")
     parser.add_argument("--out", required=True, help="output folder")
-    parser.add_argument("--demo", action="store_true",
-                        help="write the demo records and purchases (demo_data/records) instead")
+    parser.add_argument(
+        "--demo", action="store_true", help="write the demo records and purchases (demo_data/records) instead"
+    )
     parser.add_argument("--seed", type=int, default=2025)
     parser.add_argument("--format", choices=("parquet", "csv"), default="parquet")
     parser.add_argument("--rows-per-file", type=int, default=5_000_000)

@@ -4,9 +4,9 @@ from __future__ import annotations
 
 import sys
 
+from model.base.errors import InputError
 from model.cautions import by_severity, severity_of
 from model.cli.common import CAUTION, print_json, print_table
-from model.errors import InputError
 from model.year.inputs import MAX_DRAWS
 
 
@@ -38,6 +38,7 @@ def _options(args):
 
 def _reference(args):
     from model.reference import load_settings
+
     return load_settings(getattr(args, "settings", None))
 
 
@@ -53,8 +54,8 @@ def _num(value: float, unit: str) -> str:
 
 def cmd_year(args) -> int:
     from model.io.scenario import load_scenario
-    from model.year.result import compute_year
     from model.year.compare import nonzero_rows
+    from model.year.result import compute_year
 
     draws, seed = _options(args)
     scenario = load_scenario(args.scenario)
@@ -62,12 +63,22 @@ def cmd_year(args) -> int:
     if args.json:
         print_json(result.to_dict(), sys.stdout)
         return 0
-    print(f"{scenario.name}  ({result.totals['cases']:,.0f} cases a year; {result.inputs.gwp_label}; "
-          f"{result.n_draws} draws, seed {result.seed})")
+    print(
+        f"{scenario.name}  ({result.totals['cases']:,.0f} cases a year; {result.inputs.gwp_label}; "
+        f"{result.n_draws} draws, seed {result.seed})"
+    )
     print()
-    rows = [{"figure": r["figure"], "unit": r["unit"], "expected": _num(r["deterministic"], r["unit"]),
-             "P5": _num(r["p5"], r["unit"]), "P50": _num(r["p50"], r["unit"]), "P95": _num(r["p95"], r["unit"])}
-            for r in nonzero_rows(result.summary).to_dict("records")]
+    rows = [
+        {
+            "figure": r["figure"],
+            "unit": r["unit"],
+            "expected": _num(r["deterministic"], r["unit"]),
+            "P5": _num(r["p5"], r["unit"]),
+            "P50": _num(r["p50"], r["unit"]),
+            "P95": _num(r["p95"], r["unit"]),
+        }
+        for r in nonzero_rows(result.summary).to_dict("records")
+    ]
     print_table(rows, ["figure", "unit", "expected", "P5", "P50", "P95"], sys.stdout)
     print()
     print("Per month (expected):")
@@ -103,9 +114,18 @@ def cmd_compare(args) -> int:
     rows = []
     for r in nonzero_rows(comp.summary, ("baseline", "proposal", "p5", "p95")).to_dict("records"):
         u = r["unit"]
-        rows.append({"figure": r["figure"], "unit": u, "baseline": _num(r["baseline"], u),
-                     "proposal": _num(r["proposal"], u), "difference": _num(r["difference"], u),
-                     "P5": _num(r["p5"], u), "P50": _num(r["p50"], u), "P95": _num(r["p95"], u)})
+        rows.append(
+            {
+                "figure": r["figure"],
+                "unit": u,
+                "baseline": _num(r["baseline"], u),
+                "proposal": _num(r["proposal"], u),
+                "difference": _num(r["difference"], u),
+                "P5": _num(r["p5"], u),
+                "P50": _num(r["p50"], u),
+                "P95": _num(r["p95"], u),
+            }
+        )
     print_table(rows, ["figure", "unit", "baseline", "proposal", "difference", "P5", "P50", "P95"], sys.stdout)
     _tail(list(dict.fromkeys(b.warnings + comp.proposal.warnings)), comp.notes + comp.proposal.notes)
     return 0

@@ -11,23 +11,32 @@ from __future__ import annotations
 import csv
 import io
 import math
+from collections.abc import Callable, Mapping
 from dataclasses import replace
 from pathlib import Path
-from typing import Callable, Mapping
 
 import pandas as pd
 
-from model.errors import InputError
-from model.files import path_kind, read_user_text, shown_path
+from model.base.errors import InputError
+from model.base.files import path_kind, read_user_text, shown_path
+from model.base.units import check_range, to_base
 from model.io.plans import load_plan
 from model.plan import CasePlan
 from model.reference import VOLATILES
-from model.units import check_range, to_base
 from model.year.inputs import CaseMix, CaseType
 
-
-CASEMIX_COLUMNS = ("case_type", "cases_per_year", "median_duration", "duration_spread",
-                   *VOLATILES, "n2o_share", "band", "weight", "age", "plan")
+CASEMIX_COLUMNS = (
+    "case_type",
+    "cases_per_year",
+    "median_duration",
+    "duration_spread",
+    *VOLATILES,
+    "n2o_share",
+    "band",
+    "weight",
+    "age",
+    "plan",
+)
 REQUIRED_COLUMNS = ("case_type", "cases_per_year", "median_duration", "plan")
 #: Largest case-mix file read. [bytes]
 MAX_CASEMIX_BYTES = 2_000_000
@@ -39,15 +48,22 @@ MAX_CASES_PER_TYPE = 1_000_000
 SHARE_TOLERANCE = 0.005
 
 
-def _number(raw: str, where: str, unit: str, low: float, high: float, default=None,
-            low_open=False, shown_unit: str | None = None) -> float:
+def _number(
+    raw: str,
+    where: str,
+    unit: str,
+    low: float,
+    high: float,
+    default=None,
+    low_open=False,
+    shown_unit: str | None = None,
+) -> float:
     if raw is None or str(raw).strip() == "":
         if default is None:
             raise InputError(where, "nothing", "this field is required")
         return default
     value = to_base(str(raw).strip(), unit, where)
-    return check_range(value, where, low, high, shown_unit if shown_unit is not None else unit, low_open,
-                       typed=raw)
+    return check_range(value, where, low, high, shown_unit if shown_unit is not None else unit, low_open, typed=raw)
 
 
 def _share(raw, where: str) -> float:
@@ -74,8 +90,7 @@ def _count(raw, where: str) -> int:
     return int(check_range(int(value), where, 0, MAX_CASES_PER_TYPE, ""))
 
 
-def case_type_from_row(row: Mapping[str, object], plan_for: Callable[[str, str], CasePlan],
-                       where: str) -> CaseType:
+def case_type_from_row(row: Mapping[str, object], plan_for: Callable[[str, str], CasePlan], where: str) -> CaseType:
     """Validate one case-mix row (values as text or numbers) into a :class:`CaseType`.
 
     Parameters
@@ -92,6 +107,7 @@ def case_type_from_row(row: Mapping[str, object], plan_for: Callable[[str, str],
     InputError
         Naming the row and the field.
     """
+
     def get(key):
         v = row.get(key)
         if v is None or (isinstance(v, float) and math.isnan(v)):
@@ -104,15 +120,18 @@ def case_type_from_row(row: Mapping[str, object], plan_for: Callable[[str, str],
     if len(name) > 120:
         raise InputError(f"{where}, case_type", name, "at most 120 characters")
     count = _count(get("cases_per_year"), f"{where}, cases_per_year")
-    median = _number(get("median_duration"), f"{where}, median_duration", "min", 0.0, 24 * 60,
-                     low_open=True)
-    spread = _number(get("duration_spread"), f"{where}, duration_spread", "dimensionless", 0.0, 2.0,
-                     default=0.0, shown_unit="")
+    median = _number(get("median_duration"), f"{where}, median_duration", "min", 0.0, 24 * 60, low_open=True)
+    spread = _number(
+        get("duration_spread"), f"{where}, duration_spread", "dimensionless", 0.0, 2.0, default=0.0, shown_unit=""
+    )
     shares = {a: _share(get(a), f"{where}, {a}") for a in VOLATILES}
     total = sum(shares.values())
     if abs(total - 1.0) > SHARE_TOLERANCE:
-        raise InputError(f"{where}, agent shares", f"{total:g}",
-                         "the shares of " + ", ".join(VOLATILES) + " must add up to 1 (100 %)")
+        raise InputError(
+            f"{where}, agent shares",
+            f"{total:g}",
+            "the shares of " + ", ".join(VOLATILES) + " must add up to 1 (100 %)",
+        )
     shares = {a: s / total for a, s in shares.items()}
     n2o = _share(get("n2o_share"), f"{where}, n2o_share")
     band = str(get("band") or "adult").strip()[:40] or "adult"
@@ -125,8 +144,11 @@ def case_type_from_row(row: Mapping[str, object], plan_for: Callable[[str, str],
     plan = replace(plan, patient=replace(plan.patient, weight_kg=weight, age_years=age))
     ctype = CaseType(name, count, median, spread, shares, n2o, plan, plan_name, band, weight, age)
     if median <= ctype.fixed_min:
-        raise InputError(f"{where}, median_duration", f"{median:g} min",
-                         f"must be longer than the plan's fixed phases ({ctype.fixed_min:g} min)")
+        raise InputError(
+            f"{where}, median_duration",
+            f"{median:g} min",
+            f"must be longer than the plan's fixed phases ({ctype.fixed_min:g} min)",
+        )
     return ctype
 
 
@@ -138,8 +160,9 @@ def _check_names(types, source):
         seen.add(t.name)
 
 
-def parse_casemix_text(text: str, source: str = "case mix",
-                       plan_for: Callable[[str, str], CasePlan] | None = None) -> CaseMix:
+def parse_casemix_text(
+    text: str, source: str = "case mix", plan_for: Callable[[str, str], CasePlan] | None = None
+) -> CaseMix:
     """Read a case mix from CSV text.
 
     Parameters
@@ -179,15 +202,17 @@ def parse_casemix_text(text: str, source: str = "case mix",
                 header = [h.strip().lower() for h in row]
                 unknown = [h for h in header if h not in CASEMIX_COLUMNS]
                 if unknown:
-                    raise InputError(f"{source}: line {line}", unknown[0],
-                                     "allowed columns are " + ", ".join(CASEMIX_COLUMNS))
+                    raise InputError(
+                        f"{source}: line {line}", unknown[0], "allowed columns are " + ", ".join(CASEMIX_COLUMNS)
+                    )
                 missing = [c for c in REQUIRED_COLUMNS if c not in header]
                 if missing:
                     raise InputError(f"{source}: header", missing[0], "this column is required")
                 continue
             if len(row) > len(header):
-                raise InputError(f"{source}: line {line}", f"{len(row)} fields",
-                                 f"the header has {len(header)} columns")
+                raise InputError(
+                    f"{source}: line {line}", f"{len(row)} fields", f"the header has {len(header)} columns"
+                )
             if len(types) >= MAX_CASE_TYPES:
                 raise InputError(source, f"more than {MAX_CASE_TYPES} case types", "split the mix")
             record = dict(zip(header, row))
@@ -211,8 +236,7 @@ def load_casemix(path) -> CaseMix:
     p = Path(path)
     text = read_user_text(p, "case-mix", MAX_CASEMIX_BYTES, "CSV", encoding="utf-8-sig")
     folder = p.parent
-    return parse_casemix_text(text, str(p),
-                              lambda name, where: _load_plan_file(folder / name, name, where))
+    return parse_casemix_text(text, str(p), lambda name, where: _load_plan_file(folder / name, name, where))
 
 
 def casemix_from_frame(frame: pd.DataFrame, plans: Mapping[str, CasePlan], source: str = "table") -> CaseMix:
@@ -220,6 +244,7 @@ def casemix_from_frame(frame: pd.DataFrame, plans: Mapping[str, CasePlan], sourc
 
     Rows are numbered from 1 in error messages.
     """
+
     def plan_for(name, where):
         if name not in plans:
             raise InputError(where, name, "known plans are " + ", ".join(sorted(plans)))
@@ -227,8 +252,7 @@ def casemix_from_frame(frame: pd.DataFrame, plans: Mapping[str, CasePlan], sourc
 
     types = []
     for i, record in enumerate(frame.to_dict("records"), start=1):
-        if all(v is None or (isinstance(v, float) and math.isnan(v)) or str(v).strip() == ""
-               for v in record.values()):
+        if all(v is None or (isinstance(v, float) and math.isnan(v)) or str(v).strip() == "" for v in record.values()):
             continue
         record = {str(k).strip().lower(): v for k, v in record.items()}
         types.append(case_type_from_row(record, plan_for, f"{source}: row {i}"))
@@ -242,13 +266,20 @@ def casemix_to_frame(mix: CaseMix) -> pd.DataFrame:
     """The case mix as a table in file form (durations in min, shares as fractions)."""
     rows = []
     for t in mix.types:
-        rows.append({
-            "case_type": t.name, "cases_per_year": t.cases_per_year,
-            "median_duration": t.median_min, "duration_spread": t.spread,
-            **{a: round(t.agent_shares.get(a, 0.0), 6) for a in VOLATILES},
-            "n2o_share": t.n2o_share, "band": t.band, "weight": t.weight_kg, "age": t.age_years,
-            "plan": t.plan_name,
-        })
+        rows.append(
+            {
+                "case_type": t.name,
+                "cases_per_year": t.cases_per_year,
+                "median_duration": t.median_min,
+                "duration_spread": t.spread,
+                **{a: round(t.agent_shares.get(a, 0.0), 6) for a in VOLATILES},
+                "n2o_share": t.n2o_share,
+                "band": t.band,
+                "weight": t.weight_kg,
+                "age": t.age_years,
+                "plan": t.plan_name,
+            }
+        )
     return pd.DataFrame(rows, columns=list(CASEMIX_COLUMNS))
 
 

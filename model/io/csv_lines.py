@@ -24,7 +24,7 @@ from dataclasses import dataclass
 import numpy as np
 
 _LF, _CR, _QUOTE, _COMMA, _NUL, _HASH = 10, 13, 34, 44, 0, 35
-_BLANK_BYTES = np.array([32, 9, 13], dtype=np.uint8)     # space, tab, CR
+_BLANK_BYTES = np.array([32, 9, 13], dtype=np.uint8)  # space, tab, CR
 _BOM = b"\xef\xbb\xbf"
 
 
@@ -67,12 +67,12 @@ class CsvLines:
         if self.cr[i]:
             return "holds a carriage return (CR) not followed by a line feed; lines end in LF or CR LF"
         if self.quote[i]:
-            return "an odd number of quotes (\") on this line: a quote never closed, or a stray one"
+            return 'an odd number of quotes (") on this line: a quote never closed, or a stray one'
         return None
 
     def text(self, i: int) -> str:
         """Line ``i`` (index) decoded as UTF-8 (undecodable bytes replaced)."""
-        return self.data[self.starts[i]:self.ends[i]].tobytes().decode("utf-8", errors="replace")
+        return self.data[self.starts[i] : self.ends[i]].tobytes().decode("utf-8", errors="replace")
 
     def keep_bytes(self, keep: np.ndarray) -> bytes:
         """The lines where ``keep`` is true, each ended by one LF (a CR LF becomes LF)."""
@@ -132,13 +132,17 @@ def split_csv_lines(data) -> CsvLines:
     n_filled = per_line(filled)
     blank = n_filled == 0
     first_filled = np.searchsorted(filled, starts)
-    comment = ~blank & (arr[filled[np.minimum(first_filled, max(len(filled) - 1, 0))]] == _HASH) \
-        if len(filled) else np.zeros(len(starts), bool)
+    comment = (
+        ~blank & (arr[filled[np.minimum(first_filled, max(len(filled) - 1, 0))]] == _HASH)
+        if len(filled)
+        else np.zeros(len(starts), bool)
+    )
     # A comma is outside quotes when an even number of quotes precede it on its line.
     commas = np.flatnonzero(arr == _COMMA)
     line_of = np.searchsorted(starts, commas, side="right") - 1
     inside = (np.searchsorted(quotes, commas) - np.searchsorted(quotes, starts[line_of])) % 2 == 1
     outside = commas[~inside] if len(commas) else commas
     fields = per_line(outside) + 1
-    return CsvLines(arr, starts, ends, breaks, np.arange(1, len(starts) + 1), blank, comment,
-                    n_quotes % 2 == 1, cr, nul, fields)
+    return CsvLines(
+        arr, starts, ends, breaks, np.arange(1, len(starts) + 1), blank, comment, n_quotes % 2 == 1, cr, nul, fields
+    )

@@ -6,7 +6,7 @@ import os
 import re
 import tempfile
 
-from model.errors import InputError
+from model.base.errors import InputError
 from model.io.record_files import _sql_str, file_failures
 
 __all__ = ["LazyConnection", "connect", "plain_size"]
@@ -26,8 +26,7 @@ def connect(memory_limit: str | None = None, threads: int | None = None):
 
             con.close()
             shutil.rmtree(tmp, ignore_errors=True)
-            raise InputError("--memory-limit", memory_limit,
-                             "a size with its unit, such as 3GB or 500MB") from None
+            raise InputError("--memory-limit", memory_limit, "a size with its unit, such as 3GB or 500MB") from None
     # Threads from the machine: the cores this process may run on.
     con.execute(f"SET threads = {int(threads) if threads else _cores()}")
     # duckdb counts a query's progress (read by the audit's progress line) without drawing its own bar.
@@ -41,7 +40,8 @@ _SIZE = re.compile(r"^\s*[0-9]+(\.[0-9]+)?\s*(b|bytes|kb|mb|gb|tb|kib|mib|gib|ti
 
 def plain_size(memory_limit) -> bool:
     """True when there is no memory limit or it is a size duckdb surely takes ("3GB",
-    "500 MB", "80%"); any other text is handed to duckdb at once, which says if it is wrong."""
+    "500 MB", "80%"); any other text is handed to duckdb at once, which says if it is wrong.
+    """
     return memory_limit is None or bool(_SIZE.match(str(memory_limit)))
 
 

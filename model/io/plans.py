@@ -11,23 +11,22 @@ bare numbers are read in the documented default unit of each field.
 from __future__ import annotations
 
 import re
+from collections.abc import Mapping
 from dataclasses import asdict
 from pathlib import Path
-from typing import Annotated
-from typing import Any, Mapping
+from typing import Annotated, Any
 
 import pydantic
 import tomli_w
 
+from model.base.errors import InputError
+from model.base.files import parse_toml, read_user_text
+from model.base.units import check_range, to_base
 from model.circle import ABSORBENT_CAPACITY_L_PER_KG, CIRCLE_VOLUME_L
-from model.errors import InputError
-from model.files import parse_toml, read_user_text
 from model.freshgas import RATIO_BEHAVIOURS
 from model.plan import CasePlan, Patient, Phase, Settings, check_dials
 from model.reference import DEFAULT_GWP, GWP_SOURCES, VOLATILES, normalise_agent_name
-from model.units import check_range, to_base
 from model.uptake import DEFAULT_UPTAKE_MODEL, UPTAKE_MODELS
-
 
 PLAN_FORMAT = "fresh-gas-ledger plan 1"
 #: Largest plan file read. [bytes]
@@ -38,12 +37,19 @@ MAX_PLAN_BYTES = 1_000_000
 # The file format, validated with pydantic. Each field converts its unit at this edge.
 
 
-def _quantity(unit: str, low: float, high: float, default_unit: str | None = None,
-              low_open: bool = False, shown_unit: str | None = None):
+def _quantity(
+    unit: str,
+    low: float,
+    high: float,
+    default_unit: str | None = None,
+    low_open: bool = False,
+    shown_unit: str | None = None,
+):
     def convert(value, info: pydantic.ValidationInfo):
         name = info.field_name
         number = to_base(value, unit, name, default_unit)
         return check_range(number, name, low, high, shown_unit or unit, low_open, typed=value)
+
     return pydantic.BeforeValidator(convert)
 
 
@@ -61,11 +67,13 @@ def _share(value, info: pydantic.ValidationInfo):
 
 def _share_above(low: float, open_: bool, allowed: str):
     """A share (as :func:`_share`) that must also be above ``low`` (or at least, if not ``open_``)."""
+
     def check(value, info: pydantic.ValidationInfo):
         number = _share(value, info)
         if number < low or (open_ and number <= low):
             raise InputError(info.field_name, value, allowed)
         return number
+
     return pydantic.BeforeValidator(check)
 
 
@@ -89,8 +97,12 @@ def _mac_target(value, info: pydantic.ValidationInfo):
         m = _MAC_SUFFIX.match(value.strip())
         value = m.group("number") if m else value
         if "%" in value or "percent" in value.lower():
-            raise InputError(name, typed, "an end-tidal target is a MAC multiple such as 1.0 or '1.2 MAC', "
-                                          "not a percent; a setting in % is a vaporizer dial (give dial instead)")
+            raise InputError(
+                name,
+                typed,
+                "an end-tidal target is a MAC multiple such as 1.0 or '1.2 MAC', "
+                "not a percent; a setting in % is a vaporizer dial (give dial instead)",
+            )
     number = to_base(value, "dimensionless", name)
     return check_range(number, name, 0.0, 3.0, "MAC", typed=typed)
 
@@ -111,19 +123,23 @@ def volatile_key(value: str, field: str) -> str:
 
 def format_of(expected: str):
     """A file's ``format`` line, which must name the one version this program reads."""
+
     def check(value, info: pydantic.ValidationInfo):
         if value != expected:
             raise InputError(info.field_name, value, f"this version reads '{expected}'")
         return value
+
     return pydantic.BeforeValidator(check)
 
 
 def _one_of(choices, noun: str):
     """A text field that must be one of ``choices`` ("allowed <noun> are ...")."""
+
     def check(value, info: pydantic.ValidationInfo):
         if value not in choices:
             raise InputError(info.field_name, value, f"allowed {noun} are " + ", ".join(choices))
         return value
+
     return pydantic.AfterValidator(check)
 
 
@@ -154,13 +170,19 @@ class PhaseIn(_Strict):
     @pydantic.model_validator(mode="after")
     def _one_control(self):
         if (self.dial is None) == (self.target is None):
-            raise InputError("dial/target", "both" if self.dial is not None else "neither",
-                             "give exactly one: dial (vaporizer %) or target (end-tidal MAC multiple)")
+            raise InputError(
+                "dial/target",
+                "both" if self.dial is not None else "neither",
+                "give exactly one: dial (vaporizer %) or target (end-tidal MAC multiple)",
+            )
         if self.o2 + self.air + self.n2o <= 0:
             raise InputError("o2/air/n2o", 0, "the phase needs some fresh gas flow")
         if self.o2 + self.air + self.n2o > 30:
-            raise InputError("o2/air/n2o", f"{self.o2 + self.air + self.n2o:g} L/min total",
-                             "total fresh gas flow above 30 L/min is not plausible")
+            raise InputError(
+                "o2/air/n2o",
+                f"{self.o2 + self.air + self.n2o:g} L/min total",
+                "total fresh gas flow above 30 L/min is not plausible",
+            )
         return self
 
 
@@ -195,7 +217,6 @@ class PlanIn(_Strict):
         return volatile_key(v, "agent")
 
 
-
 def _where(loc) -> str:
     parts = []
     for item in loc:
@@ -223,7 +244,9 @@ def _first_error(exc: pydantic.ValidationError, source: str, fmt: str = "plan") 
     if kind == "missing":
         return InputError(prefix + where, "nothing", "this field is required")
     if kind == "extra_forbidden":
-        return InputError(prefix + where, value, f"unknown field (check its spelling in docs/formats.md, the {fmt} format)")
+        return InputError(
+            prefix + where, value, f"unknown field (check its spelling in docs/formats.md, the {fmt} format)"
+        )
     if kind == "too_short" and loc and loc[-1] == "phases":
         return InputError(prefix + where, "no phases", "a plan needs at least one [[phases]] table")
     return InputError(prefix + where, value, err["msg"].replace("Value error, ", ""))
@@ -253,10 +276,21 @@ def plan_from_dict(data: Mapping, source: str = "", reference=None) -> CasePlan:
         agent=raw.agent,
         phases=tuple(phases),
         patient=Patient(pt.weight, pt.age, pt.cardiac_output, pt.o2_consumption, pt.minute_ventilation),
-        settings=Settings(s.room_temperature, s.pressure, s.gwp_source, s.capture_efficiency,
-                          s.min_o2_share, s.n2o_cutoff_o2_flow, s.ratio_limit, s.inspired_o2_floor,
-                          s.sevoflurane_min_flow, s.sevoflurane_min_flow_long, s.uptake_model,
-                          s.circle_volume, s.absorbent_capacity),
+        settings=Settings(
+            s.room_temperature,
+            s.pressure,
+            s.gwp_source,
+            s.capture_efficiency,
+            s.min_o2_share,
+            s.n2o_cutoff_o2_flow,
+            s.ratio_limit,
+            s.inspired_o2_floor,
+            s.sevoflurane_min_flow,
+            s.sevoflurane_min_flow_long,
+            s.uptake_model,
+            s.circle_volume,
+            s.absorbent_capacity,
+        ),
         prices=dict(raw.prices),
     )
     if reference is not None:
@@ -306,8 +340,13 @@ def plan_to_dict(plan: CasePlan) -> dict:
         patient["minute_ventilation"] = _q(pt.minute_ventilation_l_min, "L/min")
     phases = []
     for p in plan.phases:
-        row = {"name": p.name, "duration": _q(p.minutes, "min"), "o2": _q(p.o2_l_min, "L/min"),
-               "air": _q(p.air_l_min, "L/min"), "n2o": _q(p.n2o_l_min, "L/min")}
+        row = {
+            "name": p.name,
+            "duration": _q(p.minutes, "min"),
+            "o2": _q(p.o2_l_min, "L/min"),
+            "air": _q(p.air_l_min, "L/min"),
+            "n2o": _q(p.n2o_l_min, "L/min"),
+        }
         if p.dial_pct is not None:
             row["dial"] = _q(p.dial_pct, "%")
         else:

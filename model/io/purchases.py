@@ -22,14 +22,13 @@ from types import SimpleNamespace
 import numpy as np
 import pandas as pd
 
-from model.errors import InputError
-from model.files import path_kind, shown_path
+from model.base.errors import InputError
+from model.base.files import path_kind, shown_path
+from model.base.units import one_number_and_unit, registry, safe_quantity_text
 from model.io.csv_lines import split_csv_lines
 from model.io.sites import RESERVED_SITES
-from model.reference import DEFAULT_REFERENCE, Reference, STANDARD_PRESSURE_KPA, normalise_agent_name
-from model.units import one_number_and_unit, registry, safe_quantity_text
+from model.reference import DEFAULT_REFERENCE, STANDARD_PRESSURE_KPA, Reference, normalise_agent_name
 from model.vapour import molar_volume_l
-
 
 PURCHASE_COLUMNS = ("month", "item", "quantity", "unit", "size")
 #: The optional column naming the site (hospital, unit) a purchase was bought for.
@@ -80,8 +79,12 @@ class PurchasesFile:
         return [str(e) for e in self.set_aside]
 
 
-def read_purchases(path, reference: Reference = DEFAULT_REFERENCE, temperature_c: float = 20.0,
-                   pressure_kpa: float = STANDARD_PRESSURE_KPA) -> pd.DataFrame:
+def read_purchases(
+    path,
+    reference: Reference = DEFAULT_REFERENCE,
+    temperature_c: float = 20.0,
+    pressure_kpa: float = STANDARD_PRESSURE_KPA,
+) -> pd.DataFrame:
     """Read a purchases file, refusing it at its first bad line.
 
     The strict form of :func:`load_purchases` (same parameters), for callers that must
@@ -104,8 +107,12 @@ def read_purchases(path, reference: Reference = DEFAULT_REFERENCE, temperature_c
     return read.table
 
 
-def load_purchases(path, reference: Reference = DEFAULT_REFERENCE, temperature_c: float = 20.0,
-                   pressure_kpa: float = STANDARD_PRESSURE_KPA) -> PurchasesFile:
+def load_purchases(
+    path,
+    reference: Reference = DEFAULT_REFERENCE,
+    temperature_c: float = 20.0,
+    pressure_kpa: float = STANDARD_PRESSURE_KPA,
+) -> PurchasesFile:
     """Read a purchases file, setting bad lines aside and keeping every good one.
 
     Parameters
@@ -139,8 +146,13 @@ def load_purchases(path, reference: Reference = DEFAULT_REFERENCE, temperature_c
     where = str(p)
     found = path_kind(p, "purchases file")
     if found != "file":
-        raise InputError(where, shown_path(p), "that is a folder; give a purchases file (.csv or .parquet)"
-                         if found == "folder" else "the purchases file does not exist")
+        raise InputError(
+            where,
+            shown_path(p),
+            "that is a folder; give a purchases file (.csv or .parquet)"
+            if found == "folder"
+            else "the purchases file does not exist",
+        )
     fmt = p.suffix.lower()
     if fmt == ".csv":
         rows, set_aside, columns = _csv_rows(p, where)
@@ -204,7 +216,9 @@ def _csv_rows(p: Path, where: str):
     head = content[0]
     header = _csv_fields(lines, head)
     if isinstance(header, str):
-        raise InputError(f"{where}, line {int(lines.number[head])}", "the header row", f"not readable as CSV ({header})")
+        raise InputError(
+            f"{where}, line {int(lines.number[head])}", "the header row", f"not readable as CSV ({header})"
+        )
     columns = [c.strip().lower() for c in header]
     _require_columns(columns, where)
     rows, set_aside = [], []
@@ -214,9 +228,16 @@ def _csv_rows(p: Path, where: str):
         if isinstance(fields, str):
             set_aside.append((number, InputError(f"{where}, line {number}", lines.text(i), fields)))
         elif len(fields) != len(columns):
-            set_aside.append((number, InputError(
-                f"{where}, line {number}", f"{len(fields)} fields",
-                f"expected {len(columns)} as in the header ({', '.join(columns)}); an extra comma adds a field")))
+            set_aside.append(
+                (
+                    number,
+                    InputError(
+                        f"{where}, line {number}",
+                        f"{len(fields)} fields",
+                        f"expected {len(columns)} as in the header ({', '.join(columns)}); an extra comma adds a field",
+                    ),
+                )
+            )
         else:
             rows.append((number, dict(zip(columns, fields))))
     return rows, set_aside, columns
@@ -228,7 +249,7 @@ def _csv_fields(lines, i: int) -> list[str] | str:
     if problem:
         return problem
     try:
-        text = lines.data[lines.starts[i]:lines.ends[i]].tobytes().decode("utf-8")
+        text = lines.data[lines.starts[i] : lines.ends[i]].tobytes().decode("utf-8")
     except UnicodeDecodeError:
         return "not UTF-8 text; save the file as CSV UTF-8"
     try:
@@ -247,14 +268,19 @@ def _site(text, at: str) -> str:
     if len(site) > MAX_SITE_CHARS:
         raise InputError(f"{at}: site", site, f"expected a site name of at most {MAX_SITE_CHARS} characters")
     if site.casefold() in RESERVED_SITES:
-        raise InputError(f"{at}: site", site, "the report keeps this name for itself ('unassigned': theatres the "
-                         "site file does not name; 'no site': purchases without one); leave the site blank for a "
-                         "purchase not bought for one site")
+        raise InputError(
+            f"{at}: site",
+            site,
+            "the report keeps this name for itself ('unassigned': theatres the "
+            "site file does not name; 'no site': purchases without one); leave the site blank for a "
+            "purchase not bought for one site",
+        )
     return site
 
 
-def _purchase_line(r, at: str, reference: Reference, temperature_c: float,
-                   pressure_kpa: float) -> tuple[str, str, float, str]:
+def _purchase_line(
+    r, at: str, reference: Reference, temperature_c: float, pressure_kpa: float
+) -> tuple[str, str, float, str]:
     """One purchase line as (month, item, amount, unit); InputError naming ``at`` if bad."""
     month = str(r.month).strip()
     if not _MONTH.match(month):
@@ -278,11 +304,17 @@ def _purchase_line(r, at: str, reference: Reference, temperature_c: float,
         amount = _gas_l(qty, unit, size, agent, at, temperature_c, pressure_kpa)
         base = "L"
     if not np.isfinite(amount) or amount > MAX_AMOUNT:
-        raise InputError(f"{at}: quantity", r.quantity, f"{amount:g} {base} on one line; at most "
-                         f"{MAX_AMOUNT:g} {base} (check the quantity, unit and size)")
+        raise InputError(
+            f"{at}: quantity",
+            r.quantity,
+            f"{amount:g} {base} on one line; at most {MAX_AMOUNT:g} {base} (check the quantity, unit and size)",
+        )
     if 0 < amount < MIN_AMOUNT:
-        raise InputError(f"{at}: quantity", r.quantity, f"{amount:g} {base} on one line; 0 or at least "
-                         f"{MIN_AMOUNT:g} {base} (check the quantity, unit and size)")
+        raise InputError(
+            f"{at}: quantity",
+            r.quantity,
+            f"{amount:g} {base} on one line; 0 or at least {MIN_AMOUNT:g} {base} (check the quantity, unit and size)",
+        )
     return month, key, amount, base
 
 

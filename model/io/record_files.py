@@ -4,15 +4,14 @@ from __future__ import annotations
 
 import os
 import re
+from collections.abc import Iterable, Sequence
 from contextlib import contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Iterable, Sequence
 
-from model.errors import InputError
-from model.files import path_kind, shown_path
-from model.units import registry, safe_quantity_text
-
+from model.base.errors import InputError
+from model.base.files import path_kind, shown_path
+from model.base.units import registry, safe_quantity_text
 
 RECORD_FORMATS = ("csv", "parquet")
 
@@ -140,8 +139,9 @@ def map_columns(names: Sequence[str], declared: dict[str, str], where: str):
             ignored.append(src)
             continue
         if key in columns:
-            raise InputError(f"{where}: column '{src}'", src,
-                             f"the field '{key}' already comes from column '{columns[key].source}'")
+            raise InputError(
+                f"{where}: column '{src}'", src, f"the field '{key}' already comes from column '{columns[key].source}'"
+            )
         base = FIELDS[key][0]
         unit = unit or declared.get(name.lower(), "") or declared.get(key, "")
         factor = 1.0
@@ -151,11 +151,17 @@ def map_columns(names: Sequence[str], declared: dict[str, str], where: str):
         elif unit:
             factor = _unit_factor(unit, base, f"{where}: unit of column '{src}'")
         columns[key] = Column(key, src, factor, unit)
-    unknown_declared = [k for k in declared
-                        if k not in {c.source.lower() for c in columns.values()}
-                        and k not in columns and _NAME_UNIT.sub(r"\1", k) not in
-                        {(_NAME_UNIT.match(c.source).group(1) if _NAME_UNIT.match(c.source) else c.source).lower()
-                         for c in columns.values()}]
+    unknown_declared = [
+        k
+        for k in declared
+        if k not in {c.source.lower() for c in columns.values()}
+        and k not in columns
+        and _NAME_UNIT.sub(r"\1", k)
+        not in {
+            (_NAME_UNIT.match(c.source).group(1) if _NAME_UNIT.match(c.source) else c.source).lower()
+            for c in columns.values()
+        }
+    ]
     if unknown_declared:
         raise InputError(f"{where}: units line", unknown_declared[0], "names no column of the file")
     _require(columns, where)
@@ -174,8 +180,11 @@ def _require(columns: dict[str, Column], where: str) -> None:
     if not has_parts and not ("fgf" in columns and "o2_share" in columns):
         missing.append("o2/air/n2o flows, or fgf with o2_share")
     if missing:
-        raise InputError(f"{where}: columns", ", ".join(columns[k].source for k in columns) or "none",
-                         "missing required column(s): " + "; ".join(missing) + " (see docs/formats.md, 'Case records')")
+        raise InputError(
+            f"{where}: columns",
+            ", ".join(columns[k].source for k in columns) or "none",
+            "missing required column(s): " + "; ".join(missing) + " (see docs/formats.md, 'Case records')",
+        )
 
 
 def inspect_file(path) -> RecordFile:
@@ -211,8 +220,9 @@ def inspect_file(path) -> RecordFile:
             ptype = schema.field(col.source).type
             if pa.types.is_duration(ptype):
                 if key != "elapsed":
-                    raise InputError(f"{where}: column '{col.source}'", str(ptype),
-                                     "a duration fits only the elapsed column")
+                    raise InputError(
+                        f"{where}: column '{col.source}'", str(ptype), "a duration fits only the elapsed column"
+                    )
                 seconds = {"s": 1.0, "ms": 1e-3, "us": 1e-6, "ns": 1e-9}[ptype.unit]
                 columns[key] = Column(key, col.source, seconds / 60.0, ptype.unit)
         import duckdb
@@ -260,11 +270,25 @@ def inspect_file(path) -> RecordFile:
 
 
 #: duckdb types read as numbers as they are (exact names; DECIMAL(p,s) too).
-NUMERIC_TYPES = frozenset({"DOUBLE", "FLOAT", "REAL", "INTEGER", "BIGINT", "SMALLINT", "TINYINT",
-                           "HUGEINT", "UHUGEINT", "UBIGINT", "UINTEGER", "USMALLINT", "UTINYINT"})
+NUMERIC_TYPES = frozenset(
+    {
+        "DOUBLE",
+        "FLOAT",
+        "REAL",
+        "INTEGER",
+        "BIGINT",
+        "SMALLINT",
+        "TINYINT",
+        "HUGEINT",
+        "UHUGEINT",
+        "UBIGINT",
+        "UINTEGER",
+        "USMALLINT",
+        "UTINYINT",
+    }
+)
 #: duckdb types read as date-times as they are.
-TIME_TYPES = frozenset({"TIMESTAMP", "TIMESTAMP WITH TIME ZONE", "TIMESTAMP_S", "TIMESTAMP_MS",
-                        "TIMESTAMP_NS", "DATE"})
+TIME_TYPES = frozenset({"TIMESTAMP", "TIMESTAMP WITH TIME ZONE", "TIMESTAMP_S", "TIMESTAMP_MS", "TIMESTAMP_NS", "DATE"})
 #: Scalar duckdb types read as text (and checked row by row, as CSV cells are).
 TEXT_TYPES = frozenset({"VARCHAR", "BOOLEAN", "UUID", "TIME", "INTERVAL", "BLOB"})
 _DECIMAL = re.compile(r"^DECIMAL\(\d+,\s*\d+\)$")
@@ -294,9 +318,13 @@ def check_column_type(field_name: str, duck_type: str, where: str) -> None:
         return
     kind = FIELDS[field_name][0]
     wanted = {"text": "text", "timestamp": "a date-time or text", "date": "a date or text"}.get(
-        kind, f"numbers or text (in {kind.replace('percent', '%')})")
-    raise InputError(where, duck_type, f"a column of type {duck_type} cannot hold '{field_name}'; "
-                     f"expected one value per row: {wanted}")
+        kind, f"numbers or text (in {kind.replace('percent', '%')})"
+    )
+    raise InputError(
+        where,
+        duck_type,
+        f"a column of type {duck_type} cannot hold '{field_name}'; expected one value per row: {wanted}",
+    )
 
 
 @contextmanager
@@ -329,12 +357,14 @@ def failure_of(files: Sequence[RecordFile], exc: BaseException) -> InputError:
     if not named:
         named = [f for f in files if f.format == "parquet" and not _scans(f)]
     if not named:
-        return InputError("records", ", ".join(shown_path(f.path) for f in files)[:200],
-                          f"the files cannot be read to the end ({type(exc).__name__}: {first})")
+        return InputError(
+            "records",
+            ", ".join(shown_path(f.path) for f in files)[:200],
+            f"the files cannot be read to the end ({type(exc).__name__}: {first})",
+        )
     f = named[0]
     what = "a damaged Parquet file" if f.format == "parquet" else "a file that cannot be read to the end"
-    return InputError(f.path, "the file", f"{what} ({type(exc).__name__}: {first}); "
-                      "export it again or leave it out")
+    return InputError(f.path, "the file", f"{what} ({type(exc).__name__}: {first}); export it again or leave it out")
 
 
 def _scans(rf: RecordFile) -> bool:

@@ -9,10 +9,20 @@ import pandas as pd
 from model.io.record_files import DEFAULT_GAP_LIMIT_MIN, MAX_FLOW_L_MIN, MAX_TOTAL_FLOW_L_MIN, RecordFile, file_failures
 from model.reference import DEFAULT_REFERENCE, Reference
 
-
-ISSUE_KINDS = ("encoding", "field_count", "unreadable", "text_in_number", "bad_time",
-               "missing_value", "unknown_agent", "negative_flow", "absurd_flow",
-               "absurd_setting", "duplicate_time", "time_backwards")
+ISSUE_KINDS = (
+    "encoding",
+    "field_count",
+    "unreadable",
+    "text_in_number",
+    "bad_time",
+    "missing_value",
+    "unknown_agent",
+    "negative_flow",
+    "absurd_flow",
+    "absurd_setting",
+    "duplicate_time",
+    "time_backwards",
+)
 #: Most row-level messages kept in a report (counts are always complete).
 DEFAULT_MAX_MESSAGES = 2000
 
@@ -27,13 +37,15 @@ class ReadReport:
     #: Rows set aside, by issue kind (every kind of ``ISSUE_KINDS`` present, zeros included).
     set_aside: dict[str, int] = field(default_factory=lambda: {k: 0 for k in ISSUE_KINDS})
     #: Row-level messages (file, row, kind, column, value, message); at most ``max_messages``.
-    issues: pd.DataFrame = field(default_factory=lambda: pd.DataFrame(
-        columns=["file", "row", "kind", "column", "value", "message"]))
+    issues: pd.DataFrame = field(
+        default_factory=lambda: pd.DataFrame(columns=["file", "row", "kind", "column", "value", "message"])
+    )
     gaps: int = 0
     gap_minutes: float = 0.0
     #: One row per gap (file, row, case_id, from_min, to_min, minutes, message); capped.
-    gap_list: pd.DataFrame = field(default_factory=lambda: pd.DataFrame(
-        columns=["file", "row", "case_id", "minutes", "message"]))
+    gap_list: pd.DataFrame = field(
+        default_factory=lambda: pd.DataFrame(columns=["file", "row", "case_id", "minutes", "message"])
+    )
     notes: list[str] = field(default_factory=list)
     gap_limit_min: float = DEFAULT_GAP_LIMIT_MIN
 
@@ -104,8 +116,9 @@ class Records:
                 shutil.rmtree(self._tmpdir, ignore_errors=True)
 
 
-def finish_report(recs: Records, counts: dict[str, int], rows_valid: int, gaps: int,
-                  gap_minutes: float, time_rows=None, gap_rows=None) -> ReadReport:
+def finish_report(
+    recs: Records, counts: dict[str, int], rows_valid: int, gaps: int, gap_minutes: float, time_rows=None, gap_rows=None
+) -> ReadReport:
     """Fill the report's counts and row-numbered messages (at most ``max_messages``).
 
     With ``time_rows`` and ``gap_rows`` given (the in-memory engine found them), only the
@@ -132,13 +145,17 @@ def finish_report(recs: Records, counts: dict[str, int], rows_valid: int, gaps: 
     new = []
     if time_rows is None:
         if limit and sum(counts.values()):
-            rows = con.sql(f"SELECT {cols.format(problem='problem', prev='prev_max')} FROM checked "
-                           f"WHERE problem IS NOT NULL ORDER BY _fileno, _row LIMIT {limit}").fetchall()
+            rows = con.sql(
+                f"SELECT {cols.format(problem='problem', prev='prev_max')} FROM checked "
+                f"WHERE problem IS NOT NULL ORDER BY _fileno, _row LIMIT {limit}"
+            ).fetchall()
             new = [_issue_row(files[r[0]], r, recs.reference) for r in rows]
     else:
         if limit and sum(v for k, v in counts.items() if k not in ("duplicate_time", "time_backwards")):
-            rows = con.sql(f"SELECT {cols.format(problem='problem_a', prev='NULL')} FROM prepared "
-                           f"WHERE problem_a IS NOT NULL ORDER BY _fileno, _row LIMIT {limit}").fetchall()
+            rows = con.sql(
+                f"SELECT {cols.format(problem='problem_a', prev='NULL')} FROM prepared "
+                f"WHERE problem_a IS NOT NULL ORDER BY _fileno, _row LIMIT {limit}"
+            ).fetchall()
             new = [_issue_row(files[r[0]], r, recs.reference) for r in rows]
         for f, row, kind, case_id, t_min, prev_max in time_rows[:limit]:
             r = (f, row, kind, case_id, None, t_min) + (None,) * 12 + (prev_max,)
@@ -151,11 +168,20 @@ def finish_report(recs: Records, counts: dict[str, int], rows_valid: int, gaps: 
         gap_rows = con.sql(f"""SELECT _fileno, _row, case_id, t_min, dt_raw FROM valid WHERE gap
             ORDER BY _fileno, _row LIMIT {max(recs._max_messages, 1)}""").fetchall()
     if gap_rows:
-        rep.gap_list = pd.DataFrame([
-            (files[f].path, int(r), c, float(d),
-             f"{files[f].path}: {files[f].row_label} {int(r)}: case {c}: {d:g} min to the next sample "
-             f"(limit {recs.gap_limit_min:g} min); the interval is not counted")
-            for f, r, c, t, d in gap_rows], columns=["file", "row", "case_id", "minutes", "message"])
+        rep.gap_list = pd.DataFrame(
+            [
+                (
+                    files[f].path,
+                    int(r),
+                    c,
+                    float(d),
+                    f"{files[f].path}: {files[f].row_label} {int(r)}: case {c}: {d:g} min to the next sample "
+                    f"(limit {recs.gap_limit_min:g} min); the interval is not counted",
+                )
+                for f, r, c, t, d in gap_rows
+            ],
+            columns=["file", "row", "case_id", "minutes", "message"],
+        )
     return rep
 
 
@@ -164,8 +190,27 @@ def _fmt_num(x) -> str:
 
 
 def _issue_row(rf: RecordFile, r, reference: Reference):
-    (_, row, kind, case_id, agent_raw, t_min, txt_col, txt_val, bad_time, o2, air, n2o, dial, et,
-     o2s, n2os, fgf, parts, prev_max) = r
+    (
+        _,
+        row,
+        kind,
+        case_id,
+        agent_raw,
+        t_min,
+        txt_col,
+        txt_val,
+        bad_time,
+        o2,
+        air,
+        n2o,
+        dial,
+        et,
+        o2s,
+        n2os,
+        fgf,
+        parts,
+        prev_max,
+    ) = r
     col, val = None, None
     if kind == "text_in_number":
         col, val = rf.columns[txt_col].source, txt_val
@@ -201,8 +246,10 @@ def _issue_row(rf: RecordFile, r, reference: Reference):
         col = "flow"
         total = sum(v for v in (o2, air, n2o) if v is not None)
         val = f"O2 {_fmt_num(o2)}, air {_fmt_num(air)}, N2O {_fmt_num(n2o)} L/min"
-        msg = (f"flows {val} (total {total:g}) exceed {MAX_FLOW_L_MIN:g} L/min per gas or "
-               f"{MAX_TOTAL_FLOW_L_MIN:g} L/min in total")
+        msg = (
+            f"flows {val} (total {total:g}) exceed {MAX_FLOW_L_MIN:g} L/min per gas or "
+            f"{MAX_TOTAL_FLOW_L_MIN:g} L/min in total"
+        )
     elif kind == "absurd_setting":
         col = "setting"
         val = f"dial {_fmt_num(dial)} %, end-tidal {_fmt_num(et)} %"
@@ -216,7 +263,15 @@ def _issue_row(rf: RecordFile, r, reference: Reference):
     else:  # time_backwards
         col = "time"
         val = _fmt_num(t_min)
-        msg = (f"case {case_id}: time earlier than an earlier sample of the case "
-               f"(by {prev_max - t_min:g} min); the rows of a case must be in time order")
-    return (rf.path, int(row), kind, col, None if val is None else str(val),
-            f"{rf.path}: {rf.row_label} {int(row)}: {msg}")
+        msg = (
+            f"case {case_id}: time earlier than an earlier sample of the case "
+            f"(by {prev_max - t_min:g} min); the rows of a case must be in time order"
+        )
+    return (
+        rf.path,
+        int(row),
+        kind,
+        col,
+        None if val is None else str(val),
+        f"{rf.path}: {rf.row_label} {int(row)}: {msg}",
+    )

@@ -34,17 +34,30 @@ filled: the interval is left out of every sum, and the rows on both sides are ke
 from __future__ import annotations
 
 import os
+from collections.abc import Callable
 from pathlib import Path
-from typing import Callable
 
 import numpy as np
 import pandas as pd
 
-from model.errors import InputError
+from model.base.errors import InputError
 from model.freshgas import FLOW_BANDS
 from model.io.csv_lines import split_csv_lines
-from model.io.record_files import DEFAULT_GAP_LIMIT_MIN, is_numeric_type, is_time_type, MAX_FLOW_L_MIN, MAX_TOTAL_FLOW_L_MIN, NUMBER_FIELDS, RecordFile, _ident, _sql_str, expand_paths, file_failures, inspect_file
 from model.io.duckdb_connection import LazyConnection, connect, plain_size
+from model.io.record_files import (
+    DEFAULT_GAP_LIMIT_MIN,
+    MAX_FLOW_L_MIN,
+    MAX_TOTAL_FLOW_L_MIN,
+    NUMBER_FIELDS,
+    RecordFile,
+    _ident,
+    _sql_str,
+    expand_paths,
+    file_failures,
+    inspect_file,
+    is_numeric_type,
+    is_time_type,
+)
 from model.io.record_report import DEFAULT_MAX_MESSAGES, ReadReport, Records
 from model.reference import AIR_O2_FRACTION, DEFAULT_REFERENCE, Reference, normalise_agent_name
 
@@ -80,16 +93,13 @@ def _raw_select(rf: RecordFile, fileno: int, source_sql: str) -> str:
     for f in NUMBER_FIELDS:
         if f in c and not any(t[0] == f for t in txt_checks):
             col = _ident(c[f].source)
-            txt_checks.append((f, f"(NOT isfinite(CAST({col} AS DOUBLE)))",
-                               f"CAST({col} AS VARCHAR)"))
+            txt_checks.append((f, f"(NOT isfinite(CAST({col} AS DOUBLE)))", f"CAST({col} AS VARCHAR)"))
         elif f in c:
             s = f"NULLIF(trim(CAST({_ident(c[f].source)} AS VARCHAR)), '')"
             txt_checks.append((f, f"(NOT isfinite(TRY_CAST({s} AS DOUBLE)))", s))
     if txt_checks:
-        parts.append("CASE " + " ".join(f"WHEN {cond} THEN '{f}'" for f, cond, _ in txt_checks)
-                     + " END AS txt_col")
-        parts.append("CASE " + " ".join(f"WHEN {cond} THEN {val}" for f, cond, val in txt_checks)
-                     + " END AS txt_val")
+        parts.append("CASE " + " ".join(f"WHEN {cond} THEN '{f}'" for f, cond, _ in txt_checks) + " END AS txt_col")
+        parts.append("CASE " + " ".join(f"WHEN {cond} THEN {val}" for f, cond, val in txt_checks) + " END AS txt_val")
     else:
         parts.append("NULL::VARCHAR AS txt_col")
         parts.append("NULL::VARCHAR AS txt_val")
@@ -153,8 +163,9 @@ def _distinct_agents(con, specs, file_selects) -> list:
                 found.update(v for v in values.take(used).to_pylist() if v)
     if by_sql:
         union = " UNION ALL ".join(f"SELECT agent_raw FROM ({q})" for q in by_sql)
-        found.update(r[0] for r in con.sql(f"SELECT DISTINCT agent_raw FROM ({union}) "
-                                            "WHERE agent_raw IS NOT NULL").fetchall())
+        found.update(
+            r[0] for r in con.sql(f"SELECT DISTINCT agent_raw FROM ({union}) WHERE agent_raw IS NOT NULL").fetchall()
+        )
     return sorted(found)
 
 
@@ -167,8 +178,7 @@ def _parquet_rows(path: str) -> int:
 
 def _band_sql(expr: str) -> str:
     """SQL CASE giving the flow band name of ``expr`` [L/min], from ``model.freshgas.FLOW_BANDS``."""
-    whens = " ".join(f"WHEN {expr} <= {upper!r} THEN {_sql_str(name)}"
-                     for name, upper in FLOW_BANDS[:-1])
+    whens = " ".join(f"WHEN {expr} <= {upper!r} THEN {_sql_str(name)}" for name, upper in FLOW_BANDS[:-1])
     return f"CASE {whens} ELSE {_sql_str(FLOW_BANDS[-1][0])} END"
 
 
@@ -224,12 +234,14 @@ def _csv_table(con, rf: RecordFile, index: int, report: ReadReport, folder: str)
             f"delim=',', quote='\"', escape='\"', auto_detect=false, new_line='\\n', "
             f"columns={columns}, max_line_size={max(longest + 16, 2_097_152)}, "
             f"store_rejects=true, rejects_table={_sql_str(rej)}, rejects_scan={_sql_str(scan)}, "
-            f"strict_mode=true, null_padding=false)")
+            f"strict_mode=true, null_padding=false)"
+        )
         table = rel.arrow()
         if hasattr(table, "read_all"):
             table = table.read_all()
-        rejects = con.sql(f"SELECT line, min(error_type) AS error_type FROM {rej} "
-                          f"GROUP BY line ORDER BY line").fetchall()
+        rejects = con.sql(
+            f"SELECT line, min(error_type) AS error_type FROM {rej} GROUP BY line ORDER BY line"
+        ).fetchall()
     except duckdb.Error as exc:
         first = (str(exc).strip().splitlines() or [type(exc).__name__])[0]
         raise InputError(rf.path, "the file", f"not readable as CSV ({first})") from None
@@ -244,11 +256,18 @@ def _csv_table(con, rf: RecordFile, index: int, report: ReadReport, folder: str)
     accepted[rejected[(rejected >= 0) & (rejected < len(kept_numbers))]] = False
     rows = kept_numbers[accepted]
     if len(rows) != table.num_rows:  # never expected: each clean line is one record
-        raise InputError(rf.path, "the file", f"not readable as CSV ({table.num_rows} records in "
-                         f"{len(rows)} lines); save it again as CSV UTF-8")
+        raise InputError(
+            rf.path,
+            "the file",
+            f"not readable as CSV ({table.num_rows} records in {len(rows)} lines); save it again as CSV UTF-8",
+        )
     table = table.append_column("_row", pa.array(rows, type=pa.int64()))
-    kinds = {"INVALID ENCODING": "encoding", "INVALID UNICODE": "encoding",
-             "TOO MANY COLUMNS": "field_count", "MISSING COLUMNS": "field_count"}
+    kinds = {
+        "INVALID ENCODING": "encoding",
+        "INVALID UNICODE": "encoding",
+        "TOO MANY COLUMNS": "field_count",
+        "MISSING COLUMNS": "field_count",
+    }
     for line, err in rejects:
         k = int(line) - 2
         if not 0 <= k < len(kept_numbers):
@@ -267,11 +286,16 @@ def _csv_table(con, rf: RecordFile, index: int, report: ReadReport, folder: str)
     return table, rej_rows
 
 
-def read_records(paths, *, reference: Reference = DEFAULT_REFERENCE,
-                 gap_limit_min: float = DEFAULT_GAP_LIMIT_MIN,
-                 max_messages: int = DEFAULT_MAX_MESSAGES, memory_limit: str | None = None,
-                 threads: int | None = None,
-                 progress: Callable[[float, str], None] | None = None) -> Records:
+def read_records(
+    paths,
+    *,
+    reference: Reference = DEFAULT_REFERENCE,
+    gap_limit_min: float = DEFAULT_GAP_LIMIT_MIN,
+    max_messages: int = DEFAULT_MAX_MESSAGES,
+    memory_limit: str | None = None,
+    threads: int | None = None,
+    progress: Callable[[float, str], None] | None = None,
+) -> Records:
     """Read and check record files (CSV and Parquet, globs allowed).
 
     Parameters
@@ -327,8 +351,7 @@ def read_records(paths, *, reference: Reference = DEFAULT_REFERENCE,
         raise
     recs = Records(con, specs, report, gl, reference, tmp)
     #: Each file's ``prepared`` query and row count, and the agent names as read.
-    recs.file_sql, recs.file_rows, recs.agent_map = (per_file["file_sql"], per_file["file_rows"],
-                                                     per_file["agent_map"])
+    recs.file_sql, recs.file_rows, recs.agent_map = (per_file["file_sql"], per_file["file_rows"], per_file["agent_map"])
     recs.report.issues = pd.DataFrame(rej_rows, columns=["file", "row", "kind", "column", "value", "message"])
     recs._rejected = len(rej_rows)
     recs._max_messages = max_messages
@@ -356,13 +379,17 @@ def _build_views(con, tmp, specs, reference, gap_limit_min, step):
     for key, idx in groups.items():
         s = specs[idx[0]]
         names = "[" + ", ".join(_sql_str(specs[i].path) for i in idx) + "]"
-        src = (f"(SELECT *, list_position({names}, filename) - 1 + 0 AS _grp, "
-               f"file_row_number + 1 AS _row FROM read_parquet({names}, filename=true, file_row_number=true))")
+        src = (
+            f"(SELECT *, list_position({names}, filename) - 1 + 0 AS _grp, "
+            f"file_row_number + 1 AS _row FROM read_parquet({names}, filename=true, file_row_number=true))"
+        )
         fileno_map = "CASE _grp " + " ".join(f"WHEN {j} THEN {i}" for j, i in enumerate(idx)) + " END"
         selects.append(_raw_select(s, -1, f"(SELECT *, {fileno_map} AS _fileno FROM {src})"))
         for i in idx:
-            one = (f"(SELECT *, file_row_number + 1 AS _row FROM "
-                   f"read_parquet({_sql_str(specs[i].path)}, file_row_number=true))")
+            one = (
+                f"(SELECT *, file_row_number + 1 AS _row FROM "
+                f"read_parquet({_sql_str(specs[i].path)}, file_row_number=true))"
+            )
             file_selects[i] = _raw_select(specs[i], i, one)
             file_rows[i] = _parquet_rows(specs[i].path)
     for i, s in enumerate(specs):
@@ -390,10 +417,16 @@ def _build_views(con, tmp, specs, reference, gap_limit_min, step):
             amap.append((raw, "none", 0.0))
         elif key in reference.agents and reference.agents[key].kind == "volatile":
             amap.append((raw, key, float(reference.agents[key].vaporizer_max)))
-    agent_case = ("CASE agent_raw " + " ".join(f"WHEN {_sql_str(r)} THEN {_sql_str(k)}" for r, k, _ in amap)
-                  + " END") if amap else "NULL::VARCHAR"
-    dial_case = ("CASE agent_raw " + " ".join(f"WHEN {_sql_str(r)} THEN {d!r}" for r, _, d in amap)
-                 + " END") if amap else "NULL::DOUBLE"
+    agent_case = (
+        ("CASE agent_raw " + " ".join(f"WHEN {_sql_str(r)} THEN {_sql_str(k)}" for r, k, _ in amap) + " END")
+        if amap
+        else "NULL::VARCHAR"
+    )
+    dial_case = (
+        ("CASE agent_raw " + " ".join(f"WHEN {_sql_str(r)} THEN {d!r}" for r, _, d in amap) + " END")
+        if amap
+        else "NULL::DOUBLE"
+    )
     a = AIR_O2_FRACTION  # US Standard Atmosphere 1976 (see model.reference)
     prepared = f"""
     WITH r AS (
@@ -461,7 +494,7 @@ def _build_views(con, tmp, specs, reference, gap_limit_min, step):
     )
     SELECT *, coalesce(dt_raw > {gl!r}, false) AS gap,
       CASE WHEN dt_raw > {gl!r} THEN 0.0 ELSE coalesce(dt_raw, 0.0) END AS dt_min,
-      {_band_sql('fgf')} AS band
+      {_band_sql("fgf")} AS band
     FROM v
     """)
     per_file = {

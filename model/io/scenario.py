@@ -7,19 +7,19 @@ scenario files"). It names its case-mix file (CSV, :mod:`model.io.casemix`) rela
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 from pathlib import Path
-from typing import Annotated, Any, Mapping
+from typing import Annotated, Any
 
 import pydantic
 import tomli_w
 
-from model.errors import InputError
-from model.files import parse_toml, read_user_text
+from model.base.errors import InputError
+from model.base.files import parse_toml, read_user_text
 from model.io.casemix import load_casemix
-from model.io.plans import GwpSourceName, Share, _Strict, _first_error, _quantity, format_of, volatile_key
+from model.io.plans import GwpSourceName, Share, _first_error, _quantity, _Strict, format_of, volatile_key
 from model.reference import DEFAULT_GWP, GWP_SOURCES, Reference
-from model.year.inputs import CaseMix, DAYS_PER_MONTH, DEFAULT_CAR_FACTOR, MAX_DRAWS, Practice, Sampling, Scenario
-
+from model.year.inputs import DAYS_PER_MONTH, DEFAULT_CAR_FACTOR, MAX_DRAWS, CaseMix, Practice, Sampling, Scenario
 
 SCENARIO_FORMAT = "fresh-gas-ledger scenario 1"
 #: Largest scenario file read. [bytes]
@@ -58,8 +58,9 @@ class _PracticeIn(_Strict):
         low = mode if self.adherence_low is None else self.adherence_low
         high = mode if self.adherence_high is None else self.adherence_high
         if not low <= mode <= high:
-            raise InputError("adherence", f"{low:g} <= {mode:g} <= {high:g}",
-                             "need adherence_low <= adherence <= adherence_high")
+            raise InputError(
+                "adherence", f"{low:g} <= {mode:g} <= {high:g}", "need adherence_low <= adherence <= adherence_high"
+            )
         if self.switch_agent is not None and self.switch_agent.from_ == self.switch_agent.to:
             raise InputError("switch_agent", self.switch_agent.to, "'from' and 'to' must differ")
         return self
@@ -81,8 +82,9 @@ class _SamplingIn(_Strict):
 
 
 class _EquivalenceIn(_Strict):
-    car_kg_co2e_per_km: Annotated[float, _quantity("dimensionless", 0.0, 10.0, low_open=True,
-                                                   shown_unit="kg CO2e/km")] = DEFAULT_CAR_FACTOR.value
+    car_kg_co2e_per_km: Annotated[
+        float, _quantity("dimensionless", 0.0, 10.0, low_open=True, shown_unit="kg CO2e/km")
+    ] = DEFAULT_CAR_FACTOR.value
     car_source: Annotated[str, pydantic.StringConstraints(min_length=1, max_length=300)] = DEFAULT_CAR_FACTOR.source
 
 
@@ -109,9 +111,9 @@ class _ScenarioIn(_Strict):
     calendar: _CalendarIn = _CalendarIn()
 
 
-
-def scenario_from_dict(data: Mapping, source: str = "scenario", base_dir: Path | None = None,
-                       casemix: CaseMix | None = None) -> Scenario:
+def scenario_from_dict(
+    data: Mapping, source: str = "scenario", base_dir: Path | None = None, casemix: CaseMix | None = None
+) -> Scenario:
     """Validate a scenario given as a dict (as read from TOML).
 
     Parameters
@@ -140,28 +142,37 @@ def scenario_from_dict(data: Mapping, source: str = "scenario", base_dir: Path |
     p = raw.practice
     mode = 1.0 if p.adherence is None else p.adherence
     practice = Practice(
-        maintenance_flow_l_min=p.maintenance_flow, dial_factor=p.dial_factor,
+        maintenance_flow_l_min=p.maintenance_flow,
+        dial_factor=p.dial_factor,
         switch_from=p.switch_agent.from_ if p.switch_agent else None,
         switch_to=p.switch_agent.to if p.switch_agent else None,
         adherence=mode,
         adherence_low=mode if p.adherence_low is None else p.adherence_low,
         adherence_high=mode if p.adherence_high is None else p.adherence_high,
-        maintenance_o2_share=p.maintenance_o2_share)
+        maintenance_o2_share=p.maintenance_o2_share,
+    )
     u = raw.uncertainty
     scenario = Scenario(
-        name=raw.name, casemix=casemix, practice=practice, gwp_source=raw.gwp_source,
+        name=raw.name,
+        casemix=casemix,
+        practice=practice,
+        gwp_source=raw.gwp_source,
         prices=dict(raw.prices),
         sampling=Sampling(u.draws, u.seed, u.price_spread, tuple(u.gwp_sources)),
-        car_kg_per_km=raw.equivalence.car_kg_co2e_per_km, car_source=raw.equivalence.car_source,
-        month_weights=tuple(float(w) for w in raw.calendar.month_weights), source=source)
+        car_kg_per_km=raw.equivalence.car_kg_co2e_per_km,
+        car_source=raw.equivalence.car_source,
+        month_weights=tuple(float(w) for w in raw.calendar.month_weights),
+        source=source,
+    )
     if scenario.prices:
         # Check the price table now, so a bad field is reported with the file's name.
         Reference().with_overrides({"prices": dict(scenario.prices)}, f"{source}: [prices]")
     return scenario
 
 
-def parse_scenario_text(text: str, source: str = "scenario", base_dir: Path | None = None,
-                        casemix: CaseMix | None = None) -> Scenario:
+def parse_scenario_text(
+    text: str, source: str = "scenario", base_dir: Path | None = None, casemix: CaseMix | None = None
+) -> Scenario:
     """Read a scenario from TOML text. Raises InputError for malformed TOML or bad fields."""
     if len(text) > MAX_SCENARIO_BYTES:
         raise InputError(source, f"{len(text)} characters", f"a scenario file is at most {MAX_SCENARIO_BYTES} bytes")
@@ -198,17 +209,21 @@ def scenario_to_dict(scenario: Scenario, case_mix: str) -> dict:
     if p.switch_from is not None:
         practice["switch_agent"] = {"from": p.switch_from, "to": p.switch_to}
     if practice or (p.adherence, p.adherence_low, p.adherence_high) != (1.0, 1.0, 1.0):
-        practice.update(adherence=float(p.adherence), adherence_low=float(p.adherence_low),
-                        adherence_high=float(p.adherence_high))
+        practice.update(
+            adherence=float(p.adherence), adherence_low=float(p.adherence_low), adherence_high=float(p.adherence_high)
+        )
     s = scenario.sampling
-    out = {"format": SCENARIO_FORMAT, "name": scenario.name, "case_mix": case_mix,
-           "gwp_source": scenario.gwp_source}
+    out = {"format": SCENARIO_FORMAT, "name": scenario.name, "case_mix": case_mix, "gwp_source": scenario.gwp_source}
     if practice:
         out["practice"] = practice
     if scenario.prices:
         out["prices"] = {k: (dict(v) if isinstance(v, Mapping) else v) for k, v in scenario.prices.items()}
-    out["uncertainty"] = {"draws": int(s.draws), "seed": int(s.seed), "price_spread": float(s.price_spread),
-                          "gwp_sources": list(s.gwp_sources)}
+    out["uncertainty"] = {
+        "draws": int(s.draws),
+        "seed": int(s.seed),
+        "price_spread": float(s.price_spread),
+        "gwp_sources": list(s.gwp_sources),
+    }
     out["equivalence"] = {"car_kg_co2e_per_km": float(scenario.car_kg_per_km), "car_source": scenario.car_source}
     out["calendar"] = {"month_weights": [float(w) for w in scenario.month_weights]}
     return out

@@ -17,8 +17,8 @@ import csv
 import io
 from pathlib import Path
 
-from model.errors import InputError
-from model.files import read_user_text
+from model.base.errors import InputError
+from model.base.files import read_user_text
 
 SITE_COLUMNS = ("theatre", "site")
 #: Site names the report keeps for itself: "unassigned" (theatres the site file does not
@@ -51,8 +51,11 @@ def parse_sites(text: str, where: str = "site file") -> dict[str, str]:
         name, a site named as the report's own rows (``RESERVED_SITES``), or a theatre given
         twice with different sites.
     """
-    lines = [(n, line) for n, line in enumerate(str(text).splitlines(), start=1)
-             if line.strip() and not line.lstrip().startswith("#")]
+    lines = [
+        (n, line)
+        for n, line in enumerate(str(text).splitlines(), start=1)
+        if line.strip() and not line.lstrip().startswith("#")
+    ]
     if not lines:
         raise InputError(where, "the file", "no lines; expected a header 'theatre,site' and one theatre per line")
     n0, header = lines[0]
@@ -69,13 +72,20 @@ def parse_sites(text: str, where: str = "site file") -> dict[str, str]:
         if not theatre or not site:
             raise InputError(f"{where}, line {n}", line.strip(), "a theatre and a site, neither empty")
         if site.casefold() in RESERVED_SITES:
-            raise InputError(f"{where}, line {n}", site, "the report keeps this name for itself ('unassigned': "
-                             "theatres the site file does not name; 'no site': purchases without one); "
-                             "choose another site name")
+            raise InputError(
+                f"{where}, line {n}",
+                site,
+                "the report keeps this name for itself ('unassigned': "
+                "theatres the site file does not name; 'no site': purchases without one); "
+                "choose another site name",
+            )
         key = theatre.casefold()
         if key in seen and seen[key][1] != site:
-            raise InputError(f"{where}, line {n}", theatre,
-                             f"this theatre is already given site '{seen[key][1]}' on line {seen[key][0]}")
+            raise InputError(
+                f"{where}, line {n}",
+                theatre,
+                f"this theatre is already given site '{seen[key][1]}' on line {seen[key][0]}",
+            )
         seen[key] = (n, site)
         out[theatre] = site
     return out

@@ -15,15 +15,14 @@ import io
 import os
 import re
 import tomllib
+from collections.abc import Mapping
 from dataclasses import dataclass
 from functools import lru_cache
 from pathlib import Path, PurePath
 from types import MappingProxyType
-from typing import Mapping
 
-from model.errors import InputError
-from model.files import MAX_TOML_DEPTH, parse_toml  # noqa: F401  (MAX_TOML_DEPTH: part of this module's API)
-
+from model.base.errors import InputError
+from model.base.files import MAX_TOML_DEPTH, parse_toml  # noqa: F401  (MAX_TOML_DEPTH: part of this module's API)
 
 #: The Streamlit configuration shipped with the project; its ``server.maxUploadSize`` [MB,
 #: counted as MiB by Streamlit] is the one upload limit of the app.
@@ -34,15 +33,17 @@ UPLOAD_LIMIT_ENV = "STREAMLIT_SERVER_MAX_UPLOAD_SIZE"
 FALLBACK_UPLOAD_MB = 25
 
 #: Formats each kind of upload may come in (file extension -> format).
-KINDS: Mapping[str, tuple[str, ...]] = MappingProxyType({
-    "plan": ("toml",),
-    "settings": ("toml",),
-    "scenario": ("toml",),
-    "casemix": ("csv", "toml"),
-    "sites": ("csv",),
-    "records": ("csv", "parquet"),
-    "purchases": ("csv", "parquet"),
-})
+KINDS: Mapping[str, tuple[str, ...]] = MappingProxyType(
+    {
+        "plan": ("toml",),
+        "settings": ("toml",),
+        "scenario": ("toml",),
+        "casemix": ("csv", "toml"),
+        "sites": ("csv",),
+        "records": ("csv", "parquet"),
+        "purchases": ("csv", "parquet"),
+    }
+)
 _TEXT_FORMATS = ("csv", "toml")
 #: Kinds read line by line whose reader sets a line that is not UTF-8 aside and uses the rest
 #: (``model.io.records.read_records``, as on the command line): the guard leaves such a line
@@ -192,8 +193,11 @@ def check_upload(name: str, data: bytes, kind: str) -> Upload:
 
     found = _sniff(data)
     if found is not None:
-        raise InputError(where, found, f"expected a plain {fmt.upper()} file; "
-                         "unpack or export it first (archives and office files are not read)")
+        raise InputError(
+            where,
+            found,
+            f"expected a plain {fmt.upper()} file; unpack or export it first (archives and office files are not read)",
+        )
     if fmt == "parquet":
         _check_parquet(data, where)
         return Upload(shown, kind, fmt, data, None)
@@ -216,33 +220,41 @@ def _size(n: int) -> str:
 
 def _sniff(data: bytes) -> str | None:
     for offset, magic, what in _SIGNATURES:
-        if data[offset:offset + len(magic)] == magic:
+        if data[offset : offset + len(magic)] == magic:
             return what
     return None
 
 
 def _decode_text(data: bytes, where: str, lenient: bool = False) -> str:
     """The text of an upload; with ``lenient``, bytes that are not UTF-8 become U+FFFD and
-    the file's reader (which reads the bytes themselves) names and sets aside their lines."""
+    the file's reader (which reads the bytes themselves) names and sets aside their lines.
+    """
     if data.startswith((b"\xff\xfe", b"\xfe\xff")):
         raise InputError(where, "UTF-16 text", "save the file as UTF-8 text")
     nul = data.find(b"\x00")
     if nul >= 0:
         line = data.count(b"\n", 0, nul) + 1
-        raise InputError(f"{where}, line {line}", "a NUL byte",
-                         "expected plain text; the file looks binary or is not UTF-8")
+        raise InputError(
+            f"{where}, line {line}", "a NUL byte", "expected plain text; the file looks binary or is not UTF-8"
+        )
     try:
         text = data.decode("utf-8-sig", errors="replace" if lenient else "strict")
     except UnicodeDecodeError as exc:
         line = data.count(b"\n", 0, exc.start) + 1
-        raise InputError(f"{where}, line {line}", f"byte 0x{data[exc.start]:02x}",
-                         "expected UTF-8 text; save it as UTF-8 (in spreadsheet programs: CSV UTF-8)") from None
+        raise InputError(
+            f"{where}, line {line}",
+            f"byte 0x{data[exc.start]:02x}",
+            "expected UTF-8 text; save it as UTF-8 (in spreadsheet programs: CSV UTF-8)",
+        ) from None
     found = _CONTROL.search(text)
     if found is not None:
         bad = found.start()
         line = text.count("\n", 0, bad) + 1
-        raise InputError(f"{where}, line {line}", f"control character U+{ord(text[bad]):04X}",
-                         "expected plain text (tabs and line breaks only)")
+        raise InputError(
+            f"{where}, line {line}",
+            f"control character U+{ord(text[bad]):04X}",
+            "expected plain text (tabs and line breaks only)",
+        )
     return text
 
 
@@ -252,10 +264,13 @@ def _check_lines(text: str, where: str) -> None:
         start = text.rfind("\n", 0, found.start()) + 1
         end = text.find("\n", start)
         length = (len(text) if end < 0 else end) - start
-        if text[start:start + length].endswith("\r"):
+        if text[start : start + length].endswith("\r"):
             length -= 1  # the CR of a CR LF line break
-        raise InputError(f"{where}, line {text.count(chr(10), 0, start) + 1}", f"{length} characters",
-                         f"a line is at most {MAX_LINE_CHARS:,} characters")
+        raise InputError(
+            f"{where}, line {text.count(chr(10), 0, start) + 1}",
+            f"{length} characters",
+            f"a line is at most {MAX_LINE_CHARS:,} characters",
+        )
 
 
 def _check_toml(text: str, where: str) -> None:
@@ -273,7 +288,9 @@ def _check_parquet(data: bytes, where: str) -> None:
     try:
         meta = pq.read_metadata(io.BytesIO(data))
     except Exception as exc:  # pyarrow raises several types for damaged files
-        raise InputError(where, "a damaged Parquet file", f"could not read its metadata ({type(exc).__name__})") from None
+        raise InputError(
+            where, "a damaged Parquet file", f"could not read its metadata ({type(exc).__name__})"
+        ) from None
     if meta.num_columns > MAX_PARQUET_COLUMNS:
         raise InputError(where, f"{meta.num_columns} columns", f"at most {MAX_PARQUET_COLUMNS} columns")
     if meta.num_rows > MAX_PARQUET_ROWS:

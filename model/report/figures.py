@@ -17,10 +17,10 @@ import pandas as pd
 
 from model.audit.reconcile import purchase_emissions
 from model.audit.result import BAND_COLUMNS, time_weighted_fgf
-from model.errors import InputError
+from model.base.errors import InputError
 from model.freshgas import FLOW_BAND_NAMES
 from model.io.purchases import SITE_COLUMN
-from model.reference import DEFAULT_REFERENCE, Reference, STANDARD_PRESSURE_KPA
+from model.reference import DEFAULT_REFERENCE, STANDARD_PRESSURE_KPA, Reference
 from model.report.lmdi import PeriodMix
 from model.report.periods import Period, month_shares
 
@@ -38,9 +38,23 @@ SITE_NOTES = {
     "no site": "purchases with no site",
 }
 #: Columns of the audit's case table the report reads.
-NEEDED = ("case_id", "agent", "theatre", "start", "month", "minutes", "oxygen_l", "air_l", "nitrous_oxide_l",
-          "agent_mass_g", "agent_emitted_g", "nitrous_oxide_g", "nitrous_oxide_emitted_g", "cost_total",
-          *BAND_COLUMNS)
+NEEDED = (
+    "case_id",
+    "agent",
+    "theatre",
+    "start",
+    "month",
+    "minutes",
+    "oxygen_l",
+    "air_l",
+    "nitrous_oxide_l",
+    "agent_mass_g",
+    "agent_emitted_g",
+    "nitrous_oxide_g",
+    "nitrous_oxide_emitted_g",
+    "cost_total",
+    *BAND_COLUMNS,
+)
 
 
 def gwp_sources_shown(gwp_source: str, reference: Reference = DEFAULT_REFERENCE) -> tuple[str, ...]:
@@ -79,14 +93,23 @@ def assign_sites(theatres, sites: dict[str, str] | None, where: str = "site file
     known = {t.strip().casefold(): t for t in pd.unique(th)}
     unknown = [t for t in sites if t.strip().casefold() not in known]
     if unknown:
-        raise InputError(f"{where}: theatre", ", ".join(unknown),
-                         "not in the records; the records' theatres are " + ", ".join(sorted(known.values())))
+        raise InputError(
+            f"{where}: theatre",
+            ", ".join(unknown),
+            "not in the records; the records' theatres are " + ", ".join(sorted(known.values())),
+        )
     by_key = {t.strip().casefold(): s for t, s in sites.items()}
     return th.map(lambda t: by_key.get(t.strip().casefold(), UNASSIGNED)).to_numpy(dtype=object)
 
 
-def cases_in(cases: pd.DataFrame, period: Period, sites: dict[str, str] | None = None,
-             chosen_sites=None, where: str = "period", site_field: str = "site") -> pd.DataFrame:
+def cases_in(
+    cases: pd.DataFrame,
+    period: Period,
+    sites: dict[str, str] | None = None,
+    chosen_sites=None,
+    where: str = "period",
+    site_field: str = "site",
+) -> pd.DataFrame:
     """The audit's cases that start inside ``period``, with a ``site`` column, restricted to ``chosen_sites``.
 
     Raises
@@ -107,8 +130,11 @@ def cases_in(cases: pd.DataFrame, period: Period, sites: dict[str, str] | None =
     inside = c[period.contains(c["start"])]
     if not len(inside):
         starts = pd.to_datetime(cases["start"], errors="coerce").dropna()
-        cover = (f"the records' cases start from {starts.min():%Y-%m-%d} to {starts.max():%Y-%m-%d}"
-                 if len(starts) else "no case in the records has a start date")
+        cover = (
+            f"the records' cases start from {starts.min():%Y-%m-%d} to {starts.max():%Y-%m-%d}"
+            if len(starts)
+            else "no case in the records has a start date"
+        )
         raise InputError(where, period.text, f"no case starts in {period.label}; {cover}")
     return inside.reset_index(drop=True)
 
@@ -161,16 +187,23 @@ def use_figures(cases: pd.DataFrame, reference: Reference, gwp_sources) -> dict:
         return x / n if n > 0 else float("nan")
 
     return {
-        "cases": n_cases, "hours": hours, "co2e_t": co2e, "co2e_agent_t": co2e_agent, "co2e_n2o_t": co2e_n2o,
-        "kg_per_case": per(co2e[chosen] * 1000.0, n_cases), "kg_per_hour": per(co2e[chosen] * 1000.0, hours),
+        "cases": n_cases,
+        "hours": hours,
+        "co2e_t": co2e,
+        "co2e_agent_t": co2e_agent,
+        "co2e_n2o_t": co2e_n2o,
+        "kg_per_case": per(co2e[chosen] * 1000.0, n_cases),
+        "kg_per_hour": per(co2e[chosen] * 1000.0, hours),
         "n2o_l_per_case": per(float(cases["nitrous_oxide_l"].sum()), n_cases),
         "n2o_kg_co2e_per_case": per(co2e_n2o[chosen] * 1000.0, n_cases),
         "fgf_l_min": float(time_weighted_fgf(sums)[0]),
         "band_share": {b: per(m, band_total) for b, m in band_min.items()},
-        "cost": float(cases["cost_total"].sum()) + (float(cases["cost_absorbent"].sum())
-                                                    if "cost_absorbent" in cases.columns else 0.0),
+        "cost": float(cases["cost_total"].sum())
+        + (float(cases["cost_absorbent"].sum()) if "cost_absorbent" in cases.columns else 0.0),
         "absorbent_kg": absorbent,
-        "agent_kg": agent_kg, "agent_hours": agent_hours, "n2o_kg": n2o_kg,
+        "agent_kg": agent_kg,
+        "agent_hours": agent_hours,
+        "n2o_kg": n2o_kg,
     }
 
 
@@ -187,13 +220,26 @@ def by_agent_table(cases: pd.DataFrame, reference: Reference, gwp_sources) -> pd
     volatile = cases[cases["agent"] != "none"]
     for agent, g in volatile.groupby("agent", sort=True):
         kg = float(g["agent_emitted_g"].sum()) / 1000.0
-        rows.append({"item": agent, "cases": int(g["case_id"].nunique()), "hours": float(g["minutes"].sum()) / 60.0,
-                     "emitted_kg": kg, **{s: kg * _gwp(reference, agent, s, kg > 0) / 1000.0 for s in gwp_sources}})
+        rows.append(
+            {
+                "item": agent,
+                "cases": int(g["case_id"].nunique()),
+                "hours": float(g["minutes"].sum()) / 60.0,
+                "emitted_kg": kg,
+                **{s: kg * _gwp(reference, agent, s, kg > 0) / 1000.0 for s in gwp_sources},
+            }
+        )
     n2o = cases[cases["nitrous_oxide_l"] > 0]
     kg = float(cases["nitrous_oxide_emitted_g"].sum()) / 1000.0
-    rows.append({"item": "nitrous_oxide", "cases": int(n2o["case_id"].nunique()),
-                 "hours": float(n2o["minutes"].sum()) / 60.0, "emitted_kg": kg,
-                 **{s: kg * _gwp(reference, "nitrous_oxide", s, kg > 0) / 1000.0 for s in gwp_sources}})
+    rows.append(
+        {
+            "item": "nitrous_oxide",
+            "cases": int(n2o["case_id"].nunique()),
+            "hours": float(n2o["minutes"].sum()) / 60.0,
+            "emitted_kg": kg,
+            **{s: kg * _gwp(reference, "nitrous_oxide", s, kg > 0) / 1000.0 for s in gwp_sources},
+        }
+    )
     df = pd.DataFrame(rows)
     total = df[gwp_sources[0]].sum()
     df["co2e_share"] = df[gwp_sources[0]] / total if total > 0 else 0.0
@@ -205,23 +251,34 @@ def grouped_table(cases: pd.DataFrame, key: str, reference: Reference, gwp_sourc
     rows = []
     for k, g in cases.groupby(key, sort=True):
         f = use_figures(g, reference, (gwp_source,))
-        rows.append({key: k, "cases": f["cases"], "hours": f["hours"], "t_co2e_agent": f["co2e_agent_t"][gwp_source],
-                     "t_co2e_n2o": f["co2e_n2o_t"][gwp_source], "t_co2e": f["co2e_t"][gwp_source],
-                     "kg_co2e_per_case": f["kg_per_case"], "kg_co2e_per_hour": f["kg_per_hour"],
-                     "fgf_l_min": f["fgf_l_min"]})
+        rows.append(
+            {
+                key: k,
+                "cases": f["cases"],
+                "hours": f["hours"],
+                "t_co2e_agent": f["co2e_agent_t"][gwp_source],
+                "t_co2e_n2o": f["co2e_n2o_t"][gwp_source],
+                "t_co2e": f["co2e_t"][gwp_source],
+                "kg_co2e_per_case": f["kg_per_case"],
+                "kg_co2e_per_hour": f["kg_per_hour"],
+                "fgf_l_min": f["fgf_l_min"],
+            }
+        )
     return pd.DataFrame(rows)
 
 
 def period_mix(figures: dict, reference: Reference, gwp_source: str) -> PeriodMix:
     """The decomposition's view of a period's use-based figures (see :mod:`model.report.lmdi`)."""
     agents = sorted(set(figures["agent_kg"]) | set(figures["agent_hours"]))
-    return PeriodMix(hours=figures["hours"], agent_hours={a: figures["agent_hours"].get(a, 0.0) for a in agents},
-                     agent_kg={a: figures["agent_kg"].get(a, 0.0) for a in agents},
-                     agent_gwp={a: _gwp(reference, a, gwp_source, figures["agent_kg"].get(a, 0.0) > 0)
-                                for a in agents},
-                     n2o_kg=figures["n2o_kg"],
-                     n2o_gwp=_gwp(reference, "nitrous_oxide", gwp_source, figures["n2o_kg"] > 0),
-                     gwp_label=reference.gwp_source(gwp_source).label)
+    return PeriodMix(
+        hours=figures["hours"],
+        agent_hours={a: figures["agent_hours"].get(a, 0.0) for a in agents},
+        agent_kg={a: figures["agent_kg"].get(a, 0.0) for a in agents},
+        agent_gwp={a: _gwp(reference, a, gwp_source, figures["agent_kg"].get(a, 0.0) > 0) for a in agents},
+        n2o_kg=figures["n2o_kg"],
+        n2o_gwp=_gwp(reference, "nitrous_oxide", gwp_source, figures["n2o_kg"] > 0),
+        gwp_label=reference.gwp_source(gwp_source).label,
+    )
 
 
 @dataclass
@@ -259,8 +316,11 @@ def _site_text(values) -> pd.Series:
 
 def purchases_name_sites(purchases: pd.DataFrame | None) -> bool:
     """Whether any purchase line names a site (a non-blank ``site``)."""
-    return (purchases is not None and SITE_COLUMN in purchases.columns
-            and bool((_site_text(purchases[SITE_COLUMN]) != "").any()))
+    return (
+        purchases is not None
+        and SITE_COLUMN in purchases.columns
+        and bool((_site_text(purchases[SITE_COLUMN]) != "").any())
+    )
 
 
 def match_purchase_sites(names, known) -> np.ndarray:
@@ -288,9 +348,15 @@ def match_purchase_sites(names, known) -> np.ndarray:
     return text.str.casefold().map(spelling).to_numpy(dtype=object)
 
 
-def purchase_figures(purchases: pd.DataFrame, period: Period, reference: Reference, gwp_sources,
-                     temperature_c: float = 20.0, pressure_kpa: float = STANDARD_PRESSURE_KPA,
-                     by_site: bool | None = None) -> PurchaseFigures:
+def purchase_figures(
+    purchases: pd.DataFrame,
+    period: Period,
+    reference: Reference,
+    gwp_sources,
+    temperature_c: float = 20.0,
+    pressure_kpa: float = STANDARD_PRESSURE_KPA,
+    by_site: bool | None = None,
+) -> PurchaseFigures:
     """Purchase-based emissions of a period: everything bought in its months counted as emitted.
 
     Parameters
@@ -314,13 +380,19 @@ def purchase_figures(purchases: pd.DataFrame, period: Period, reference: Referen
         by_site = purchases_name_sites(purchases)
     keys = (SITE_COLUMN,) if by_site else ()
     if by_site:
-        site = _site_text(purchases[SITE_COLUMN]) if SITE_COLUMN in purchases.columns else \
-            pd.Series("", index=purchases.index, dtype=object)
+        site = (
+            _site_text(purchases[SITE_COLUMN])
+            if SITE_COLUMN in purchases.columns
+            else pd.Series("", index=purchases.index, dtype=object)
+        )
         purchases = purchases.assign(**{SITE_COLUMN: site.where(site != "", NO_SITE).to_numpy(dtype=object)})
     frames = []
     for s in gwp_sources:
-        pe = purchase_emissions(purchases, reference, s, temperature_c, pressure_kpa, keys) if len(purchases) else \
-            pd.DataFrame(columns=["month", "item", "purchased", "unit", "mass_kg", "co2e_kg", *keys])
+        pe = (
+            purchase_emissions(purchases, reference, s, temperature_c, pressure_kpa, keys)
+            if len(purchases)
+            else pd.DataFrame(columns=["month", "item", "purchased", "unit", "mass_kg", "co2e_kg", *keys])
+        )
         pe = pe[pe["month"].isin(list(shares))].copy()
         pe["share"] = pe["month"].map(shares).astype(float)
         pe[labels[s]] = pe["co2e_kg"] * pe["share"] / 1000.0
@@ -332,7 +404,9 @@ def purchase_figures(purchases: pd.DataFrame, period: Period, reference: Referen
         base[labels[s]] = f[labels[s]].to_numpy()
     by_item = base.groupby(["item", "unit"], as_index=False)[["purchased", "mass_kg", *labels.values()]].sum()
     by_item = by_item[["item", "purchased", "unit", "mass_kg", *labels.values()]]
-    by_month = base.groupby("month", as_index=False).agg(share=("share", "first"), t_co2e=(labels[gwp_sources[0]], "sum"))
+    by_month = base.groupby("month", as_index=False).agg(
+        share=("share", "first"), t_co2e=(labels[gwp_sources[0]], "sum")
+    )
     missing = [m for m in shares if m not in set(base["month"])]
     sites = None
     if by_site:
@@ -341,8 +415,9 @@ def purchase_figures(purchases: pd.DataFrame, period: Period, reference: Referen
     return PurchaseFigures(by_item.reset_index(drop=True), by_month, missing, sites)
 
 
-def sites_against_purchases(use_by_site: pd.DataFrame, bought: PurchaseFigures, reference: Reference,
-                            gwp_source: str, known=()) -> pd.DataFrame:
+def sites_against_purchases(
+    use_by_site: pd.DataFrame, bought: PurchaseFigures, reference: Reference, gwp_source: str, known=()
+) -> pd.DataFrame:
     """Use-based and purchase-based CO2e side by side, one row per site, with the gap.
 
     Parameters
@@ -382,13 +457,21 @@ def sites_against_purchases(use_by_site: pd.DataFrame, bought: PurchaseFigures, 
     p = np.array([buy.get(s, 0.0) for s in rows], dtype=float)
     with np.errstate(invalid="ignore", divide="ignore"):
         share = np.where(p > 0, (p - u) / np.where(p > 0, p, 1.0), np.nan)
-    return pd.DataFrame({"site": pd.Series(rows, dtype=object), "note": [SITE_NOTES[kind(s)] for s in rows],
-                         "use_based_t_co2e": u, "purchase_based_t_co2e": p, "gap_t_co2e": p - u,
-                         "gap_share": share})
+    return pd.DataFrame(
+        {
+            "site": pd.Series(rows, dtype=object),
+            "note": [SITE_NOTES[kind(s)] for s in rows],
+            "use_based_t_co2e": u,
+            "purchase_based_t_co2e": p,
+            "gap_t_co2e": p - u,
+            "gap_share": share,
+        }
+    )
 
 
-def use_against_purchases(cases: pd.DataFrame, bought: PurchaseFigures, reference: Reference,
-                          gwp_source: str) -> pd.DataFrame:
+def use_against_purchases(
+    cases: pd.DataFrame, bought: PurchaseFigures, reference: Reference, gwp_source: str
+) -> pd.DataFrame:
     """Use-based and purchase-based side by side, per agent and N2O, with the gap.
 
     Returns
@@ -408,7 +491,16 @@ def use_against_purchases(cases: pd.DataFrame, bought: PurchaseFigures, referenc
         p = float(b.loc[item, "mass_kg"]) if item in b.index else 0.0
         g = _gwp(reference, item, gwp_source, (u > 0) or (p > 0))
         pt = float(b.loc[item, label]) if item in b.index else 0.0
-        rows.append({"item": item, "use_kg": u, "purchase_kg": p, "gap_kg": p - u,
-                     "gap_share": (p - u) / p if p > 0 else float("nan"),
-                     "use_t_co2e": u * g / 1000.0, "purchase_t_co2e": pt, "gap_t_co2e": pt - u * g / 1000.0})
+        rows.append(
+            {
+                "item": item,
+                "use_kg": u,
+                "purchase_kg": p,
+                "gap_kg": p - u,
+                "gap_share": (p - u) / p if p > 0 else float("nan"),
+                "use_t_co2e": u * g / 1000.0,
+                "purchase_t_co2e": pt,
+                "gap_t_co2e": pt - u * g / 1000.0,
+            }
+        )
     return pd.DataFrame(rows)

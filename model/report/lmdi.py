@@ -110,7 +110,9 @@ def lmdi_additive(v0, v1, x0, x1) -> np.ndarray:
     for i in np.flatnonzero(~pos & ((v0 > 0) | (v1 > 0))):
         bad = lambda x: (x == 0) | ~np.isfinite(x)  # noqa: E731
         zero_side = x0[:, i] if v0[i] == 0 else x1[:, i] if v1[i] == 0 else None
-        hits = np.flatnonzero(bad(zero_side)) if zero_side is not None else np.flatnonzero(bad(x0[:, i]) | bad(x1[:, i]))
+        hits = (
+            np.flatnonzero(bad(zero_side)) if zero_side is not None else np.flatnonzero(bad(x0[:, i]) | bad(x1[:, i]))
+        )
         k = int(hits[0]) if len(hits) else 0
         out[k, i] = v1[i] - v0[i]
     return out
@@ -154,6 +156,7 @@ class PeriodMix:
 
 def _factors(mix: PeriodMix, agents, small: float | None):
     """Terms (n,) and factors (5, n) of a period; ``small`` replaces zero data (small value strategy)."""
+
     def z(v):
         v = float(v)
         return small if (small is not None and v == 0) else v
@@ -210,8 +213,9 @@ class Decomposition:
         return float(self.by_factor.set_index("factor").loc[factor, "contribution_kg"])
 
 
-def decompose(baseline: PeriodMix, period: PeriodMix, zero_handling: str = "analytical",
-              small_value: float = SMALL_VALUE) -> Decomposition:
+def decompose(
+    baseline: PeriodMix, period: PeriodMix, zero_handling: str = "analytical", small_value: float = SMALL_VALUE
+) -> Decomposition:
     """Split the change in CO2e from ``baseline`` to ``period`` into its factors (additive LMDI-I).
 
     Parameters
@@ -238,20 +242,22 @@ def decompose(baseline: PeriodMix, period: PeriodMix, zero_handling: str = "anal
     """
     if zero_handling not in ZERO_HANDLING:
         raise ValueError(f"zero_handling must be one of {ZERO_HANDLING}, got {zero_handling!r}")
-    agents = sorted(set(baseline.agent_kg) | set(period.agent_kg) | set(baseline.agent_hours)
-                    | set(period.agent_hours))
+    agents = sorted(set(baseline.agent_kg) | set(period.agent_kg) | set(baseline.agent_hours) | set(period.agent_hours))
     small = float(small_value) if zero_handling == "small_value" else None
     v0, x0 = _factors(baseline, agents, small)
     v1, x1 = _factors(period, agents, small)
     if small is not None:
         # A GWP of zero (a source without the agent) would stay zero: the LMDI weight of
         # such a term is 0 either way, so the small value of its data changes nothing else.
-        c = lmdi_additive(np.maximum(v0, small), np.maximum(v1, small), np.where(x0 == 0, small, x0),
-                          np.where(x1 == 0, small, x1))
+        c = lmdi_additive(
+            np.maximum(v0, small), np.maximum(v1, small), np.where(x0 == 0, small, x0), np.where(x1 == 0, small, x1)
+        )
     else:
         c = lmdi_additive(v0, v1, x0, x1)
     terms = list(agents) + ["nitrous_oxide"]
-    detail = pd.DataFrame([(f, t, float(c[i, j])) for i, f in enumerate(FACTORS) for j, t in enumerate(terms)],
-                          columns=["factor", "term", "contribution_kg"])
+    detail = pd.DataFrame(
+        [(f, t, float(c[i, j])) for i, f in enumerate(FACTORS) for j, t in enumerate(terms)],
+        columns=["factor", "term", "contribution_kg"],
+    )
     by = pd.DataFrame({"factor": list(FACTORS), "contribution_kg": c.sum(axis=1)})
     return Decomposition(baseline.co2e_kg, period.co2e_kg, by, detail, zero_handling)

@@ -22,12 +22,29 @@ from datetime import date, timedelta
 import numpy as np
 import pandas as pd
 
-from model.errors import InputError
+from model.base.errors import InputError
 
-PERIOD_FORMS = ("2026 (calendar year)", "FY2026-04 (financial year starting April 2026)",
-                "2026Q2 (quarter)", "2026-03 (month)", "2026-01-01..2026-06-30 (date range)")
-_MONTH_NAMES = ("January", "February", "March", "April", "May", "June", "July", "August",
-                "September", "October", "November", "December")
+PERIOD_FORMS = (
+    "2026 (calendar year)",
+    "FY2026-04 (financial year starting April 2026)",
+    "2026Q2 (quarter)",
+    "2026-03 (month)",
+    "2026-01-01..2026-06-30 (date range)",
+)
+_MONTH_NAMES = (
+    "January",
+    "February",
+    "March",
+    "April",
+    "May",
+    "June",
+    "July",
+    "August",
+    "September",
+    "October",
+    "November",
+    "December",
+)
 
 
 @dataclass(frozen=True)
@@ -73,7 +90,7 @@ class Period:
         lo, hi = pd.Timestamp(self.start), pd.Timestamp(self.end)
         return ((t >= lo) & (t < hi)).to_numpy(dtype=bool)
 
-    def overlaps(self, other: "Period") -> bool:
+    def overlaps(self, other: Period) -> bool:
         return self.start < other.end and other.start < self.end
 
 
@@ -127,14 +144,21 @@ def parse_period(text: str, where: str = "period") -> Period:
             start = date(y, mo, 1)
             end = _add_months(y, mo, 12)
             last = _add_months(y, mo, 11)
-            label = (f"calendar year {y}" if mo == 1 else
-                     f"financial year {_MONTH_NAMES[mo - 1]} {y} to {_MONTH_NAMES[last.month - 1]} {last.year}")
+            label = (
+                f"calendar year {y}"
+                if mo == 1
+                else f"financial year {_MONTH_NAMES[mo - 1]} {y} to {_MONTH_NAMES[last.month - 1]} {last.year}"
+            )
             return Period(raw.strip(), label, start, end)
         if m := re.fullmatch(r"(\d{4})Q([1-4])", s):
             y, q = _year(m[1], where), int(m[2])
             start = date(y, 3 * (q - 1) + 1, 1)
-            return Period(raw.strip(), f"{y} quarter {q} ({_MONTH_NAMES[start.month - 1]} to "
-                          f"{_MONTH_NAMES[start.month + 1]})", start, _add_months(y, start.month, 3))
+            return Period(
+                raw.strip(),
+                f"{y} quarter {q} ({_MONTH_NAMES[start.month - 1]} to {_MONTH_NAMES[start.month + 1]})",
+                start,
+                _add_months(y, start.month, 3),
+            )
         if m := re.fullmatch(r"(\d{4})-(\d{1,2})", s):
             y, mo = _year(m[1], where), int(m[2])
             if not 1 <= mo <= 12:

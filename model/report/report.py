@@ -13,12 +13,26 @@ from dataclasses import dataclass, field
 
 import pandas as pd
 
-from model.errors import InputError
+from model.base.errors import InputError
 from model.reference import DEFAULT_GWP, DEFAULT_REFERENCE, Reference
-from model.report.figures import (NO_SITE, PurchaseFigures, SITE_NOTES, UNASSIGNED, assign_sites, by_agent_table,
-                                  cases_in, grouped_table, gwp_sources_shown, match_purchase_sites, period_mix,
-                                  purchase_figures, purchases_name_sites, sites_against_purchases,
-                                  use_against_purchases, use_figures)
+from model.report.figures import (
+    NO_SITE,
+    SITE_NOTES,
+    UNASSIGNED,
+    PurchaseFigures,
+    assign_sites,
+    by_agent_table,
+    cases_in,
+    grouped_table,
+    gwp_sources_shown,
+    match_purchase_sites,
+    period_mix,
+    purchase_figures,
+    purchases_name_sites,
+    sites_against_purchases,
+    use_against_purchases,
+    use_figures,
+)
 from model.report.lmdi import FACTORS, Decomposition, decompose
 from model.report.periods import Period
 from model.report.target import Target, TargetStatus, annual_rate_t, target_status
@@ -99,8 +113,10 @@ class EmissionsReport:
     def headline(self) -> str:
         """One sentence: the period's tonnes, against the baseline and the target."""
         p = self.period
-        text = (f"Scope 1 anaesthetic emissions, {p.period.label}: {p.co2e_t:,.1f} t CO2e ({self.gwp_label}, "
-                f"use-based, from {p.figures['cases']:,} cases)")
+        text = (
+            f"Scope 1 anaesthetic emissions, {p.period.label}: {p.co2e_t:,.1f} t CO2e ({self.gwp_label}, "
+            f"use-based, from {p.figures['cases']:,} cases)"
+        )
         if self.baseline is not None:
             b = self.baseline
             if p.period.months == b.period.months or abs(p.period.months - b.period.months) < 1e-9:
@@ -110,8 +126,10 @@ class EmissionsReport:
             else:
                 change = p.annual_t / b.annual_t - 1.0 if b.annual_t > 0 else float("nan")
                 word = "down" if change < 0 else "up"
-                text += (f", {p.annual_t:,.1f} t a year: {word} {abs(change):.0%} on {b.period.label} "
-                         f"({b.annual_t:,.1f} t a year)")
+                text += (
+                    f", {p.annual_t:,.1f} t a year: {word} {abs(change):.0%} on {b.period.label} "
+                    f"({b.annual_t:,.1f} t a year)"
+                )
         if self.target is not None:
             text += "; " + ("on track" if self.target.on_track else "not on track") + f" for {self.target.target.label}"
         return text + "."
@@ -120,8 +138,14 @@ class EmissionsReport:
         """(factor, sentence) for each part of the change."""
         if self.decomposition is None or self.baseline is None:
             return []
-        return driver_sentences(self.decomposition, self.baseline.figures, self.period.figures,
-                                self.baseline.gwp_source, self.period.gwp_source, self.reference)
+        return driver_sentences(
+            self.decomposition,
+            self.baseline.figures,
+            self.period.figures,
+            self.baseline.gwp_source,
+            self.period.gwp_source,
+            self.reference,
+        )
 
     def figures_table(self) -> pd.DataFrame:
         """The period's key figures (and the baseline's, when there is one), one row each."""
@@ -145,8 +169,11 @@ class EmissionsReport:
         add("of which nitrous oxide", "t CO2e", lambda pr: pr.figures["co2e_n2o_t"][pr.gwp_source])
         if self.period.purchases is not None:
             lab = f"t CO2e ({self.gwp_label})"
-            add(f"CO2e, purchase-based ({self.gwp_label})", "t CO2e",
-                lambda pr: pr.purchases.co2e_t(lab) if pr.purchases is not None else None)
+            add(
+                f"CO2e, purchase-based ({self.gwp_label})",
+                "t CO2e",
+                lambda pr: pr.purchases.co2e_t(lab) if pr.purchases is not None else None,
+            )
         add("Cases", "cases", lambda pr: pr.figures["cases"])
         add("Anaesthetic hours", "h", lambda pr: pr.figures["hours"])
         add("CO2e per case", "kg CO2e", lambda pr: pr.figures["kg_per_case"])
@@ -155,10 +182,15 @@ class EmissionsReport:
         add("N2O CO2e per case", "kg CO2e", lambda pr: pr.figures["n2o_kg_co2e_per_case"])
         add("Time-weighted fresh gas flow", "L/min", lambda pr: pr.figures["fgf_l_min"])
         for band in self.period.figures["band_share"]:
-            add(f"Share of anaesthetic time at {band} flow", "%", lambda pr, b=band: 100.0 * pr.figures["band_share"][b])
+            add(
+                f"Share of anaesthetic time at {band} flow", "%", lambda pr, b=band: 100.0 * pr.figures["band_share"][b]
+            )
         add("CO2 absorbent", "kg", lambda pr: pr.figures["absorbent_kg"])
-        add("Cost (agents and gases" + (", absorbent)" if self.period.figures["absorbent_kg"] is not None else ")"),
-            self.reference.prices.currency, lambda pr: pr.figures["cost"])
+        add(
+            "Cost (agents and gases" + (", absorbent)" if self.period.figures["absorbent_kg"] is not None else ")"),
+            self.reference.prices.currency,
+            lambda pr: pr.figures["cost"],
+        )
         return pd.DataFrame(rows)
 
     def decomposition_table(self) -> pd.DataFrame:
@@ -179,17 +211,25 @@ class EmissionsReport:
         ref = self.reference
         lines = list(COUNTED)
         src = ref.gwp_source(self.period.gwp_source)
-        lines.append(f"GWP source used for the headline: {src.label} ({src.horizon_years}-year horizon; "
-                     f"{src.citation}). Shown beside it: " + ", ".join(
-                         ref.gwp_source(s).label for s in self.period.gwp_sources[1:]) + ".")
+        lines.append(
+            f"GWP source used for the headline: {src.label} ({src.horizon_years}-year horizon; "
+            f"{src.citation}). Shown beside it: "
+            + ", ".join(ref.gwp_source(s).label for s in self.period.gwp_sources[1:])
+            + "."
+        )
         if self.baseline is not None and self.baseline.gwp_source != self.period.gwp_source:
-            lines.append(f"The baseline is worked out under {ref.gwp_source(self.baseline.gwp_source).label}; the "
-                         "change of source is its own part of the decomposition.")
+            lines.append(
+                f"The baseline is worked out under {ref.gwp_source(self.baseline.gwp_source).label}; the "
+                "change of source is its own part of the decomposition."
+            )
         for s in self.period.gwp_sources:
             g = ref.gwp_sources[s]
-            vals = "; ".join(f"{_name(a)} {v.value:g} ({v.source})" for a, v in g.values.items()
-                             if v.value is not None and a in ("sevoflurane", "desflurane", "isoflurane", "halothane",
-                                                               "nitrous_oxide"))
+            vals = "; ".join(
+                f"{_name(a)} {v.value:g} ({v.source})"
+                for a, v in g.values.items()
+                if v.value is not None
+                and a in ("sevoflurane", "desflurane", "isoflurane", "halothane", "nitrous_oxide")
+            )
             lines.append(f"{g.label}, kg CO2e per kg: {vals}.")
         for a in ("sevoflurane", "desflurane", "isoflurane", "nitrous_oxide"):
             ag = ref.agents[a]
@@ -199,25 +239,35 @@ class EmissionsReport:
                 if v is not None and v.value is not None:
                     parts.append(f"{name} {v.value:g} {v.unit} ({_no_trade_name(v.source)})")
             lines.append(f"{ag.label}: " + "; ".join(parts) + ".")
-        lines.append("What drove the change: additive LMDI-I decomposition (Ang B.W., Energy Policy 2005;33:867-71) "
-                     "of the change in CO2e into activity (anaesthetic hours), agent mix (share of hours per agent), "
-                     "intensity within an agent (kg of agent emitted per hour of that agent: flow and dial practice), "
-                     "N2O use (kg N2O per anaesthetic hour) and GWP source. The parts add exactly to the total change. "
-                     "An agent used in one period only is handled by the analytical limits of Ang B.W. and Liu N. "
-                     "(Energy Policy 2007;35:238-46): its whole change goes to the agent mix.")
+        lines.append(
+            "What drove the change: additive LMDI-I decomposition (Ang B.W., Energy Policy 2005;33:867-71) "
+            "of the change in CO2e into activity (anaesthetic hours), agent mix (share of hours per agent), "
+            "intensity within an agent (kg of agent emitted per hour of that agent: flow and dial practice), "
+            "N2O use (kg N2O per anaesthetic hour) and GWP source. The parts add exactly to the total change. "
+            "An agent used in one period only is handled by the analytical limits of Ang B.W. and Liu N. "
+            "(Energy Policy 2007;35:238-46): its whole change goes to the agent mix."
+        )
         if self.absorbent_note and self.period.figures["absorbent_kg"] is not None:
             lines.append("CO2 absorbent (in the cost, not in CO2e): " + self.absorbent_note)
-        lines.append("Targets compare annual rates (a period's total x 12 / its length in months); a yearly "
-                     "reduction is compounded from the baseline's midpoint, a tonnage by a year is a straight "
-                     "path from the baseline to that year's middle.")
-        lines.append("Cases are counted in a period by their start (first sample, or the case date); purchases by "
-                     "their month, a month partly inside a date range by its share of days.")
+        lines.append(
+            "Targets compare annual rates (a period's total x 12 / its length in months); a yearly "
+            "reduction is compounded from the baseline's midpoint, a tonnage by a year is a straight "
+            "path from the baseline to that year's middle."
+        )
+        lines.append(
+            "Cases are counted in a period by their start (first sample, or the case date); purchases by "
+            "their month, a month partly inside a date range by its share of days."
+        )
         return lines
 
     def tables(self) -> dict[str, pd.DataFrame]:
         """Every table of the report, by sheet name (for xlsx and the page)."""
-        t = {"Figures": self.figures_table(), "By agent": self.period.by_agent, "By month": self.period.by_month,
-             "By site": self.period.by_site}
+        t = {
+            "Figures": self.figures_table(),
+            "By agent": self.period.by_agent,
+            "By month": self.period.by_month,
+            "By site": self.period.by_site,
+        }
         if self.baseline is not None:
             t["Baseline by agent"] = self.baseline.by_agent
         if self.decomposition is not None:
@@ -245,6 +295,7 @@ class EmissionsReport:
 
     def to_dict(self) -> dict:
         """Machine-readable form (stable keys, units in the names)."""
+
         def table(df):
             return [{k: _clean(v) for k, v in r.items()} for r in df.to_dict("records")]
 
@@ -252,44 +303,72 @@ class EmissionsReport:
             if pr is None:
                 return None
             f = pr.figures
-            return {"period": pr.period.text, "label": pr.period.label, "start": pr.period.start.isoformat(),
-                    "last_day": pr.period.last_day.isoformat(), "gwp_source": pr.gwp_source,
-                    "cases": f["cases"], "anaesthetic_hours": f["hours"],
-                    "t_co2e": {s: _clean(v) for s, v in f["co2e_t"].items()},
-                    "t_co2e_agents": {s: _clean(v) for s, v in f["co2e_agent_t"].items()},
-                    "t_co2e_nitrous_oxide": {s: _clean(v) for s, v in f["co2e_n2o_t"].items()},
-                    "t_co2e_per_year": _clean(pr.annual_t),
-                    "kg_co2e_per_case": _clean(f["kg_per_case"]), "kg_co2e_per_hour": _clean(f["kg_per_hour"]),
-                    "n2o_l_per_case": _clean(f["n2o_l_per_case"]),
-                    "n2o_kg_co2e_per_case": _clean(f["n2o_kg_co2e_per_case"]),
-                    "time_weighted_fgf_l_min": _clean(f["fgf_l_min"]),
-                    "flow_band_share_of_time": {b: _clean(v) for b, v in f["band_share"].items()},
-                    "absorbent_kg": _clean(f["absorbent_kg"]), "cost": _clean(f["cost"]),
-                    "by_agent": table(pr.by_agent), "by_month": table(pr.by_month), "by_site": table(pr.by_site),
-                    "purchase_based": None if pr.purchases is None else table(pr.purchases.by_item),
-                    "use_and_purchases": None if pr.use_vs_purchase is None else table(pr.use_vs_purchase),
-                    "purchase_based_by_site": (None if pr.purchases is None or pr.purchases.by_site is None
-                                               else table(pr.purchases.by_site)),
-                    "use_and_purchases_by_site": (None if pr.use_vs_purchase_by_site is None
-                                                  else table(pr.use_vs_purchase_by_site)),
-                    "purchase_scope": pr.purchase_scope or None}
+            return {
+                "period": pr.period.text,
+                "label": pr.period.label,
+                "start": pr.period.start.isoformat(),
+                "last_day": pr.period.last_day.isoformat(),
+                "gwp_source": pr.gwp_source,
+                "cases": f["cases"],
+                "anaesthetic_hours": f["hours"],
+                "t_co2e": {s: _clean(v) for s, v in f["co2e_t"].items()},
+                "t_co2e_agents": {s: _clean(v) for s, v in f["co2e_agent_t"].items()},
+                "t_co2e_nitrous_oxide": {s: _clean(v) for s, v in f["co2e_n2o_t"].items()},
+                "t_co2e_per_year": _clean(pr.annual_t),
+                "kg_co2e_per_case": _clean(f["kg_per_case"]),
+                "kg_co2e_per_hour": _clean(f["kg_per_hour"]),
+                "n2o_l_per_case": _clean(f["n2o_l_per_case"]),
+                "n2o_kg_co2e_per_case": _clean(f["n2o_kg_co2e_per_case"]),
+                "time_weighted_fgf_l_min": _clean(f["fgf_l_min"]),
+                "flow_band_share_of_time": {b: _clean(v) for b, v in f["band_share"].items()},
+                "absorbent_kg": _clean(f["absorbent_kg"]),
+                "cost": _clean(f["cost"]),
+                "by_agent": table(pr.by_agent),
+                "by_month": table(pr.by_month),
+                "by_site": table(pr.by_site),
+                "purchase_based": None if pr.purchases is None else table(pr.purchases.by_item),
+                "use_and_purchases": None if pr.use_vs_purchase is None else table(pr.use_vs_purchase),
+                "purchase_based_by_site": (
+                    None if pr.purchases is None or pr.purchases.by_site is None else table(pr.purchases.by_site)
+                ),
+                "use_and_purchases_by_site": (
+                    None if pr.use_vs_purchase_by_site is None else table(pr.use_vs_purchase_by_site)
+                ),
+                "purchase_scope": pr.purchase_scope or None,
+            }
 
         d = self.decomposition
         return {
-            "title": self.title, "headline": self.headline(), "gwp_source": self.period.gwp_source,
-            "gwp_source_label": self.gwp_label, "currency": self.reference.prices.currency,
-            "sites": self.sites, "chosen_sites": list(self.chosen_sites),
-            "period": per(self.period), "baseline": per(self.baseline),
-            "change": None if d is None else {
-                "t_co2e": d.change_kg / 1000.0, "zero_handling": d.zero_handling,
+            "title": self.title,
+            "headline": self.headline(),
+            "gwp_source": self.period.gwp_source,
+            "gwp_source_label": self.gwp_label,
+            "currency": self.reference.prices.currency,
+            "sites": self.sites,
+            "chosen_sites": list(self.chosen_sites),
+            "period": per(self.period),
+            "baseline": per(self.baseline),
+            "change": None
+            if d is None
+            else {
+                "t_co2e": d.change_kg / 1000.0,
+                "zero_handling": d.zero_handling,
                 "by_factor_t_co2e": {f: d.contribution(f) / 1000.0 for f in FACTORS},
-                "detail": table(d.detail), "sentences": [s for _, s in self.sentences()]},
-            "target": None if self.target is None else {
-                "target": self.target.target.text, "label": self.target.target.label,
+                "detail": table(d.detail),
+                "sentences": [s for _, s in self.sentences()],
+            },
+            "target": None
+            if self.target is None
+            else {
+                "target": self.target.target.text,
+                "label": self.target.target.label,
                 "allowed_t_per_year": self.target.allowed_t_per_year,
-                "actual_t_per_year": self.target.actual_t_per_year, "on_track": self.target.on_track,
-                "sentence": self.target.sentence()},
-            "method": self.method_statement(), "cautions": list(self.cautions),
+                "actual_t_per_year": self.target.actual_t_per_year,
+                "on_track": self.target.on_track,
+                "sentence": self.target.sentence(),
+            },
+            "method": self.method_statement(),
+            "cautions": list(self.cautions),
             "not_worked_out": [str(p) for p in self.problems],
         }
 
@@ -317,16 +396,34 @@ def _name(term: str) -> str:
     return _NAMES.get(term, term)
 
 
-def period_report(cases: pd.DataFrame, period: Period, reference: Reference, gwp_source: str,
-                  sites=None, chosen_sites=None, purchases: pd.DataFrame | None = None,
-                  where: str = "period", site_field: str = "site", also=()) -> PeriodReport:
+def period_report(
+    cases: pd.DataFrame,
+    period: Period,
+    reference: Reference,
+    gwp_source: str,
+    sites=None,
+    chosen_sites=None,
+    purchases: pd.DataFrame | None = None,
+    where: str = "period",
+    site_field: str = "site",
+    also=(),
+) -> PeriodReport:
     """Figures of one period (see :class:`PeriodReport`), under ``gwp_source`` first, AR5 and AR6 GWP100
-    and the sources ``also``. Raises InputError when no case starts in it."""
+    and the sources ``also``. Raises InputError when no case starts in it.
+    """
     sources = tuple(dict.fromkeys((*gwp_sources_shown(gwp_source, reference), *also)))
     c = cases_in(cases, period, sites, chosen_sites, where, site_field)
     f = use_figures(c, reference, sources)
-    pr = PeriodReport(period, gwp_source, sources, c, f, by_agent_table(c, reference, sources),
-                      grouped_table(c, "month", reference, gwp_source), grouped_table(c, "site", reference, gwp_source))
+    pr = PeriodReport(
+        period,
+        gwp_source,
+        sources,
+        c,
+        f,
+        by_agent_table(c, reference, sources),
+        grouped_table(c, "month", reference, gwp_source),
+        grouped_table(c, "site", reference, gwp_source),
+    )
     if purchases is not None:
         named = purchases_name_sites(purchases)
         bought = purchases
@@ -338,35 +435,50 @@ def period_report(cases: pd.DataFrame, period: Period, reference: Reference, gwp
         pr.purchases = purchase_figures(bought, period, reference, sources, by_site=named)
         pr.use_vs_purchase = use_against_purchases(c, pr.purchases, reference, gwp_source)
         if named:
-            pr.use_vs_purchase_by_site = sites_against_purchases(pr.by_site, pr.purchases, reference, gwp_source,
-                                                                 known)
+            pr.use_vs_purchase_by_site = sites_against_purchases(pr.by_site, pr.purchases, reference, gwp_source, known)
         if chosen_sites:
-            pr.purchase_scope = _purchase_scope(purchases, named, bought, period, reference, gwp_source,
-                                                tuple(chosen_sites))
+            pr.purchase_scope = _purchase_scope(
+                purchases, named, bought, period, reference, gwp_source, tuple(chosen_sites)
+            )
     return pr
 
 
-def _purchase_scope(purchases, named: bool, bought, period: Period, reference: Reference, gwp_source: str,
-                    chosen: tuple) -> str:
+def _purchase_scope(
+    purchases, named: bool, bought, period: Period, reference: Reference, gwp_source: str, chosen: tuple
+) -> str:
     """A sentence saying what the purchase-based figures cover when only some sites are reported."""
     names = ", ".join(chosen)
     if not named:
-        return (f"The purchases name no site, so the purchase-based figures are for all sites (every purchase in "
-                f"the files), while the use-based figures are of the chosen sites only ({names}): the gap between "
-                "them is not those sites' gap.")
+        return (
+            f"The purchases name no site, so the purchase-based figures are for all sites (every purchase in "
+            f"the files), while the use-based figures are of the chosen sites only ({names}): the gap between "
+            "them is not those sites' gap."
+        )
     label = f"t CO2e ({reference.gwp_source(gwp_source).label})"
     whole = purchase_figures(purchases, period, reference, (gwp_source,), by_site=False).co2e_t(label)
     mine = purchase_figures(bought, period, reference, (gwp_source,), by_site=False).co2e_t(label)
-    return (f"Purchase-based figures are of the chosen sites' purchases only ({names}); "
-            f"{whole - mine:,.1f} t CO2e bought in the period for other sites or with no site is left out.")
+    return (
+        f"Purchase-based figures are of the chosen sites' purchases only ({names}); "
+        f"{whole - mine:,.1f} t CO2e bought in the period for other sites or with no site is left out."
+    )
 
 
-def build_report(cases: pd.DataFrame, period: Period, baseline: Period | None = None, *,
-                 reference: Reference = DEFAULT_REFERENCE, gwp_source: str = DEFAULT_GWP,
-                 baseline_gwp_source: str | None = None, purchases: pd.DataFrame | None = None,
-                 sites: dict | None = None, chosen_sites=(), target: Target | None = None,
-                 title: str = "Anaesthetic emissions report", absorbent_note: str = "",
-                 fields: dict | None = None) -> EmissionsReport:
+def build_report(
+    cases: pd.DataFrame,
+    period: Period,
+    baseline: Period | None = None,
+    *,
+    reference: Reference = DEFAULT_REFERENCE,
+    gwp_source: str = DEFAULT_GWP,
+    baseline_gwp_source: str | None = None,
+    purchases: pd.DataFrame | None = None,
+    sites: dict | None = None,
+    chosen_sites=(),
+    target: Target | None = None,
+    title: str = "Anaesthetic emissions report",
+    absorbent_note: str = "",
+    fields: dict | None = None,
+) -> EmissionsReport:
     """The emissions report of ``period`` against ``baseline`` and ``target``.
 
     Parameters
@@ -411,57 +523,95 @@ def build_report(cases: pd.DataFrame, period: Period, baseline: Period | None = 
             assign_sites(cases["theatre"], sites)
         except InputError as err:
             problems.append(err)
-            cautions.append("The site file could not be used (see 'not worked out'); each theatre is shown as its own site.")
+            cautions.append(
+                "The site file could not be used (see 'not worked out'); each theatre is shown as its own site."
+            )
             sites, chosen_sites = None, ()
-    pr = period_report(cases, period, reference, gwp_source, sites, chosen_sites, purchases, name["period"],
-                       name["site"])
-    rep = EmissionsReport(title, reference, pr, sites=sites, chosen_sites=tuple(chosen_sites or ()),
-                          problems=problems, cautions=cautions, absorbent_note=absorbent_note)
+    pr = period_report(
+        cases, period, reference, gwp_source, sites, chosen_sites, purchases, name["period"], name["site"]
+    )
+    rep = EmissionsReport(
+        title,
+        reference,
+        pr,
+        sites=sites,
+        chosen_sites=tuple(chosen_sites or ()),
+        problems=problems,
+        cautions=cautions,
+        absorbent_note=absorbent_note,
+    )
     if sites is not None and (pr.cases["site"] == UNASSIGNED).any():
         left = sorted(set(pr.cases.loc[pr.cases["site"] == UNASSIGNED, "theatre"]))
-        cautions.append(f"Theatres the site file does not name are reported as '{UNASSIGNED}': " + ", ".join(left) + ".")
+        cautions.append(
+            f"Theatres the site file does not name are reported as '{UNASSIGNED}': " + ", ".join(left) + "."
+        )
     if pr.purchase_scope:
         cautions.append(pr.purchase_scope)
     table = pr.use_vs_purchase_by_site
     if table is not None:
         odd = table.loc[table["note"] == SITE_NOTES["purchases only"], "site"].tolist()
         if odd:
-            cautions.append("Purchases name sites that are neither in the site file nor theatres of the records "
-                            "(a misspelling?): " + ", ".join(odd) + "; they are shown on their own rows of "
-                            "'Use and purchases by site'.")
+            cautions.append(
+                "Purchases name sites that are neither in the site file nor theatres of the records "
+                "(a misspelling?): " + ", ".join(odd) + "; they are shown on their own rows of "
+                "'Use and purchases by site'."
+            )
         none = table.loc[table["note"] == SITE_NOTES["no site"], "purchase_based_t_co2e"]
         if len(none):
-            cautions.append(f"Purchases with no site ({float(none.sum()):,.1f} t CO2e) are shown as '{NO_SITE}' in "
-                            "'Use and purchases by site': they count in the whole-set purchase-based figures but "
-                            "belong to no site.")
+            cautions.append(
+                f"Purchases with no site ({float(none.sum()):,.1f} t CO2e) are shown as '{NO_SITE}' in "
+                "'Use and purchases by site': they count in the whole-set purchase-based figures but "
+                "belong to no site."
+            )
     if pr.purchases is not None and pr.purchases.months_missing:
-        cautions.append("No purchase line in: " + ", ".join(pr.purchases.months_missing)
-                        + " (purchase-based figures count nothing for those months).")
+        cautions.append(
+            "No purchase line in: "
+            + ", ".join(pr.purchases.months_missing)
+            + " (purchase-based figures count nothing for those months)."
+        )
     if baseline is not None:
         bsrc = baseline_gwp_source or gwp_source
         try:
-            rep.baseline = period_report(cases, baseline, reference, bsrc, sites, chosen_sites, purchases,
-                                         name["baseline"], name["site"], also=pr.gwp_sources)
+            rep.baseline = period_report(
+                cases,
+                baseline,
+                reference,
+                bsrc,
+                sites,
+                chosen_sites,
+                purchases,
+                name["baseline"],
+                name["site"],
+                also=pr.gwp_sources,
+            )
         except InputError as err:
             problems.append(err)
         if rep.baseline is not None:
             if bsrc != gwp_source:
-                cautions.append(f"The baseline is worked out under {reference.gwp_source(bsrc).label} and the period "
-                                f"under {reference.gwp_source(gwp_source).label}: the change, the headline and the "
-                                "target comparison include the change of source (its part is shown on its own).")
+                cautions.append(
+                    f"The baseline is worked out under {reference.gwp_source(bsrc).label} and the period "
+                    f"under {reference.gwp_source(gwp_source).label}: the change, the headline and the "
+                    "target comparison include the change of source (its part is shown on its own)."
+                )
             if baseline.overlaps(period):
-                cautions.append(f"The baseline ({baseline.label}) overlaps the period ({period.label}): cases in "
-                                "both are counted in each.")
+                cautions.append(
+                    f"The baseline ({baseline.label}) overlaps the period ({period.label}): cases in "
+                    "both are counted in each."
+                )
             if abs(baseline.months - period.months) > 1e-9:
-                cautions.append(f"The period ({period.months:g} months) and the baseline ({baseline.months:g} months) "
-                                "differ in length: totals and the activity part of the change reflect that; the "
-                                "comparison with the target uses annual rates.")
-            rep.decomposition = decompose(period_mix(rep.baseline.figures, reference, bsrc),
-                                          period_mix(pr.figures, reference, gwp_source))
+                cautions.append(
+                    f"The period ({period.months:g} months) and the baseline ({baseline.months:g} months) "
+                    "differ in length: totals and the activity part of the change reflect that; the "
+                    "comparison with the target uses annual rates."
+                )
+            rep.decomposition = decompose(
+                period_mix(rep.baseline.figures, reference, bsrc), period_mix(pr.figures, reference, gwp_source)
+            )
             if target is not None:
                 try:
-                    rep.target = target_status(target, baseline, rep.baseline.co2e_t * 1000.0, period,
-                                               pr.co2e_t * 1000.0, name["target"])
+                    rep.target = target_status(
+                        target, baseline, rep.baseline.co2e_t * 1000.0, period, pr.co2e_t * 1000.0, name["target"]
+                    )
                 except InputError as err:
                     problems.append(err)
     elif target is not None:
@@ -471,9 +621,11 @@ def build_report(cases: pd.DataFrame, period: Period, baseline: Period | None = 
     return rep
 
 
-def driver_sentences(d: Decomposition, base: dict, now: dict, base_src: str, now_src: str,
-                     reference: Reference) -> list[tuple[str, str]]:
+def driver_sentences(
+    d: Decomposition, base: dict, now: dict, base_src: str, now_src: str, reference: Reference
+) -> list[tuple[str, str]]:
     """A plain sentence for each part of the change (t CO2e, with the figures behind it)."""
+
     def t(kg):
         if abs(kg) < 50.0:
             return "changes it by less than 0.1 t CO2e"
@@ -484,8 +636,13 @@ def driver_sentences(d: Decomposition, base: dict, now: dict, base_src: str, now
 
     out = []
     h0, h1 = base["hours"], now["hours"]
-    out.append(("activity", f"Activity: anaesthetic hours went from {h0:,.0f} to {h1:,.0f} ({pct(h0, h1)}); at the "
-                            f"baseline's agent mix and practice this {t(d.contribution('activity'))}."))
+    out.append(
+        (
+            "activity",
+            f"Activity: anaesthetic hours went from {h0:,.0f} to {h1:,.0f} ({pct(h0, h1)}); at the "
+            f"baseline's agent mix and practice this {t(d.contribution('activity'))}.",
+        )
+    )
     agents = sorted(set(base["agent_hours"]) | set(now["agent_hours"]))
 
     def share(f, a):
@@ -503,18 +660,38 @@ def driver_sentences(d: Decomposition, base: dict, now: dict, base_src: str, now
 
     moved = [a for a in sorted(agents, key=lambda a: -abs(inten.get(a, 0.0)))[:2] if abs(inten.get(a, 0.0)) > 0]
     bits = "; ".join(f"{a} from {gph(base, a):,.1f} to {gph(now, a):,.1f} g of agent per hour" for a in moved)
-    out.append(("intensity", f"Intensity within each agent (fresh gas flow and dial practice): time-weighted fresh "
-                             f"gas flow went from {base['fgf_l_min']:.2f} to {now['fgf_l_min']:.2f} L/min"
-                             + (f"; {bits}" if bits else "") + f". This {t(d.contribution('intensity'))}."))
+    out.append(
+        (
+            "intensity",
+            f"Intensity within each agent (fresh gas flow and dial practice): time-weighted fresh "
+            f"gas flow went from {base['fgf_l_min']:.2f} to {now['fgf_l_min']:.2f} L/min"
+            + (f"; {bits}" if bits else "")
+            + f". This {t(d.contribution('intensity'))}.",
+        )
+    )
     n0 = base["n2o_kg"] / h0 * 1000 if h0 > 0 else float("nan")
     n1 = now["n2o_kg"] / h1 * 1000 if h1 > 0 else float("nan")
-    out.append(("N2O use", f"N2O use: {n0:,.0f} to {n1:,.0f} g of nitrous oxide per anaesthetic hour; this "
-                           f"{t(d.contribution('N2O use'))}."))
+    out.append(
+        (
+            "N2O use",
+            f"N2O use: {n0:,.0f} to {n1:,.0f} g of nitrous oxide per anaesthetic hour; this "
+            f"{t(d.contribution('N2O use'))}.",
+        )
+    )
     if base_src == now_src:
-        out.append(("GWP source", f"GWP source: the same for both ({reference.gwp_source(now_src).label}), no part "
-                                  "of the change."))
+        out.append(
+            (
+                "GWP source",
+                f"GWP source: the same for both ({reference.gwp_source(now_src).label}), no part of the change.",
+            )
+        )
     else:
-        out.append(("GWP source", f"GWP source: {reference.gwp_source(base_src).label} for the baseline, "
-                                  f"{reference.gwp_source(now_src).label} for the period; the change of source "
-                                  f"{t(d.contribution('GWP source'))}."))
+        out.append(
+            (
+                "GWP source",
+                f"GWP source: {reference.gwp_source(base_src).label} for the baseline, "
+                f"{reference.gwp_source(now_src).label} for the period; the change of source "
+                f"{t(d.contribution('GWP source'))}.",
+            )
+        )
     return out

@@ -14,11 +14,13 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from model.errors import InputError
+from model.base.errors import InputError
 from model.report.periods import Period
 
-TARGET_FORMS = ("-5%/year (a yearly reduction, compounded from the baseline)",
-                "120 t by 2030 (tonnes CO2e a year, reached in that calendar year)")
+TARGET_FORMS = (
+    "-5%/year (a yearly reduction, compounded from the baseline)",
+    "120 t by 2030 (tonnes CO2e a year, reached in that calendar year)",
+)
 
 
 @dataclass(frozen=True)
@@ -82,8 +84,9 @@ def annual_rate_t(total_kg: float, period: Period) -> float:
     return float(total_kg) / 1000.0 * 12.0 / period.months
 
 
-def target_path_t(target: Target, baseline: Period, baseline_t_per_year: float, at_years,
-                  where: str = "target") -> np.ndarray:
+def target_path_t(
+    target: Target, baseline: Period, baseline_t_per_year: float, at_years, where: str = "target"
+) -> np.ndarray:
     """The target path: annual emissions the target allows at decimal years ``at_years``. [t CO2e/year]
 
     Parameters
@@ -134,13 +137,16 @@ class TargetStatus:
     def sentence(self) -> str:
         state = "on track" if self.on_track else "not on track"
         how = "under" if self.on_track else "over"
-        return (f"Target {self.target.label}: the path allows {self.allowed_t_per_year:,.1f} t CO2e a year at "
-                f"this period; it ran at {self.actual_t_per_year:,.1f} t a year, "
-                f"{abs(self.margin_t_per_year):,.1f} t {how} the path: {state}.")
+        return (
+            f"Target {self.target.label}: the path allows {self.allowed_t_per_year:,.1f} t CO2e a year at "
+            f"this period; it ran at {self.actual_t_per_year:,.1f} t a year, "
+            f"{abs(self.margin_t_per_year):,.1f} t {how} the path: {state}."
+        )
 
 
-def target_status(target: Target, baseline: Period, baseline_kg: float, period: Period,
-                  period_kg: float, where: str = "target") -> TargetStatus:
+def target_status(
+    target: Target, baseline: Period, baseline_kg: float, period: Period, period_kg: float, where: str = "target"
+) -> TargetStatus:
     """Compare a period with the target path (annual rates, at the period's midpoint)."""
     b = annual_rate_t(baseline_kg, baseline)
     allowed = float(target_path_t(target, baseline, b, period.midpoint_years, where))

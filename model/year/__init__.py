@@ -27,35 +27,7 @@ the given price), and the GWP source (drawn among the listed ones). Paired compa
 use the same draws for both scenarios, so their difference has its own band.
 """
 
-from __future__ import annotations
+import lazy_loader as _lazy
 
-from typing import TYPE_CHECKING
-
-from model.lazy import lazy_exports
-
-# Each public name and the module it lives in. A module is imported when one of its names is
-# first used (PEP 562), not with the package: the case-mix format needs only
-# model.year.inputs, and the year's model (scipy.special) loads when a year is computed.
-_HOME = {name: module for module, names in {
-    "model.year.inputs": ["MAX_DRAWS", "MONTHS", "CaseMix", "CaseType", "Practice", "Sampling", "Scenario",
-                          "stretch_phase"],
-    "model.year.result": ["YearResult", "compute_year", "headline_figures"],
-    "model.year.compare": ["Comparison", "compare_years", "nonzero_rows"],
-    "model.year.simulate": ["YearInputs", "year_inputs"],
-}.items() for name in names}
-
-__all__ = [
-    "CaseMix", "CaseType", "Comparison", "MAX_DRAWS", "MONTHS", "Practice", "Sampling", "Scenario",
-    "YearInputs", "YearResult", "compare_years", "compute_year", "headline_figures", "nonzero_rows",
-    "stretch_phase", "year_inputs",
-]
-
-
-__getattr__, __dir__ = lazy_exports(__name__, _HOME, globals(), __all__)
-
-
-if TYPE_CHECKING:   # what static tools read (type checkers, the API pages); at run time __getattr__ imports
-    from model.year.inputs import MAX_DRAWS, MONTHS, CaseMix, CaseType, Practice, Sampling, Scenario, stretch_phase
-    from model.year.result import YearResult, compute_year, headline_figures
-    from model.year.compare import Comparison, compare_years, nonzero_rows
-    from model.year.simulate import YearInputs, year_inputs
+# Each name loads its module when first used; the names are listed once, in __init__.pyi.
+__getattr__, __dir__, __all__ = _lazy.attach_stub(__name__, __file__)

@@ -6,9 +6,9 @@ from dataclasses import dataclass, field, replace
 
 import pandas as pd
 
+from model.base.errors import InputError
 from model.cautions import by_severity, warnings_as_records
-from model.errors import InputError
-from model.reference import DEFAULT_REFERENCE, Reference, VOLATILES
+from model.reference import DEFAULT_REFERENCE, VOLATILES, Reference
 from model.year.inputs import Scenario
 from model.year.result import YearResult, _clean, _result, headline_figures
 from model.year.sampling import _central, _percentiles, _sampled, make_draws
@@ -24,7 +24,7 @@ class Comparison:
     #: key, figure, unit, baseline, proposal, difference (deterministic), p5, p50, p95 of the
     #: difference (proposal - baseline; negative = the proposal saves).
     summary: pd.DataFrame
-    difference: dict        # key -> (D,) proposal - baseline per draw
+    difference: dict  # key -> (D,) proposal - baseline per draw
     notes: list[str] = field(default_factory=list)
 
     @property
@@ -45,9 +45,10 @@ class Comparison:
             "gwp_source": self.baseline.scenario.gwp_source,
             "draws": self.baseline.n_draws,
             "seed": self.baseline.seed,
-            "difference": {r["key"]: _clean({k: r[k] for k in ("baseline", "proposal", "difference",
-                                                                 "p5", "p50", "p95")})
-                           for r in self.summary.to_dict("records")},
+            "difference": {
+                r["key"]: _clean({k: r[k] for k in ("baseline", "proposal", "difference", "p5", "p50", "p95")})
+                for r in self.summary.to_dict("records")
+            },
             "baseline_totals": _clean(self.baseline.totals),
             "proposal_totals": _clean(self.proposal.totals),
             "warnings": list(self.warnings),
@@ -59,8 +60,14 @@ class Comparison:
         }
 
 
-def compare_years(baseline: Scenario, proposal: Scenario, reference: Reference = DEFAULT_REFERENCE, *,
-                  draws: int | None = None, seed: int | None = None) -> Comparison:
+def compare_years(
+    baseline: Scenario,
+    proposal: Scenario,
+    reference: Reference = DEFAULT_REFERENCE,
+    *,
+    draws: int | None = None,
+    seed: int | None = None,
+) -> Comparison:
     """Paired comparison: both scenarios over the same draws (the baseline's sampling settings).
 
     The proposal is computed with the baseline's GWP source, GWP sampling, price spread,
@@ -80,8 +87,9 @@ def compare_years(baseline: Scenario, proposal: Scenario, reference: Reference =
     proposal = replace(proposal, gwp_source=baseline.gwp_source, sampling=s)
     b_inp, p_inp = _year_inputs_many([baseline, proposal], reference)
     if b_inp.currency != p_inp.currency:
-        raise InputError("prices.currency", p_inp.currency,
-                         f"the proposal must price in the baseline's currency ({b_inp.currency})")
+        raise InputError(
+            "prices.currency", p_inp.currency, f"the proposal must price in the baseline's currency ({b_inp.currency})"
+        )
     n = s.draws if draws is None else int(draws)
     sd = s.seed if seed is None else int(seed)
     shared = make_draws(b_inp.names + p_inp.names, n, sd)
@@ -95,9 +103,19 @@ def compare_years(baseline: Scenario, proposal: Scenario, reference: Reference =
     rows = []
     for key, label, unit in headline_figures(b_inp.currency):
         p = _percentiles(diff[key])
-        rows.append({"key": key, "figure": label, "unit": unit, "baseline": b_res.totals[key],
-                     "proposal": p_res.totals[key], "difference": p_res.totals[key] - b_res.totals[key],
-                     "p5": float(p[0]), "p50": float(p[1]), "p95": float(p[2])})
+        rows.append(
+            {
+                "key": key,
+                "figure": label,
+                "unit": unit,
+                "baseline": b_res.totals[key],
+                "proposal": p_res.totals[key],
+                "difference": p_res.totals[key] - b_res.totals[key],
+                "p5": float(p[0]),
+                "p50": float(p[1]),
+                "p95": float(p[2]),
+            }
+        )
     return Comparison(b_res, p_res, pd.DataFrame(rows), diff, notes)
 
 

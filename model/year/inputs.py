@@ -5,14 +5,14 @@ Reading and writing these as files is :mod:`model.io.casemix` and :mod:`model.io
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass, field, replace
-from typing import Any, Mapping
+from typing import Any
 
 import numpy as np
 
 from model.plan import CasePlan
 from model.reference import DEFAULT_GWP, Reference, Sourced
-
 
 #: Name of the phase that stretches with case duration, when a plan has one.
 STRETCH_PHASE_NAME = "maintenance"
@@ -64,10 +64,11 @@ class CaseMix:
     def cases_per_year(self) -> int:
         return int(sum(t.cases_per_year for t in self.types))
 
-    def with_counts(self, factor: float) -> "CaseMix":
+    def with_counts(self, factor: float) -> CaseMix:
         """A copy with every yearly count multiplied by ``factor`` (rounded to whole cases)."""
-        return replace(self, types=tuple(replace(t, cases_per_year=int(round(t.cases_per_year * factor)))
-                                         for t in self.types))
+        return replace(
+            self, types=tuple(replace(t, cases_per_year=int(round(t.cases_per_year * factor))) for t in self.types)
+        )
 
 
 def stretch_phase(plan: CasePlan) -> int:
@@ -81,14 +82,19 @@ def stretch_phase(plan: CasePlan) -> int:
         if p.name.strip().lower() == STRETCH_PHASE_NAME:
             return i
     return int(np.argmax([p.minutes for p in plan.phases]))
+
+
 #: Most Monte Carlo draws one run may ask for (memory stays well under 1 GB).
 MAX_DRAWS = 200_000
 
 #: Emission of an average car per km driven. [kg CO2e/km]
 DEFAULT_CAR_FACTOR = Sourced(
-    0.17, "kg CO2e/km",
+    0.17,
+    "kg CO2e/km",
     "UK Government GHG conversion factors for company reporting 2023, average car of "
-    "unknown fuel (about 0.17 kg CO2e/km), from memory", "from memory")
+    "unknown fuel (about 0.17 kg CO2e/km), from memory",
+    "from memory",
+)
 
 #: Days per month of a 365-day year: the default share of the year's cases in each month.
 #: Common practice, no source (cases spread evenly over calendar days).
@@ -122,8 +128,12 @@ class Practice:
 
     @property
     def changes_anything(self) -> bool:
-        return (self.maintenance_flow_l_min is not None or self.dial_factor != 1.0
-                or self.switch_from is not None or self.maintenance_o2_share is not None)
+        return (
+            self.maintenance_flow_l_min is not None
+            or self.dial_factor != 1.0
+            or self.switch_from is not None
+            or self.maintenance_o2_share is not None
+        )
 
 
 @dataclass(frozen=True)
@@ -161,5 +171,5 @@ class Scenario:
             return base
         return base.with_overrides({"prices": dict(self.prices)}, f"scenario '{self.name}'")
 
-    def with_practice(self, **changes) -> "Scenario":
+    def with_practice(self, **changes) -> Scenario:
         return replace(self, practice=replace(self.practice, **changes))

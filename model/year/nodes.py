@@ -7,7 +7,6 @@ import math
 import numpy as np
 from scipy.special import ndtr
 
-
 # --------------------------------------------------------------------------------------
 # Per-type fixed amounts and per-minute rates.
 
@@ -49,8 +48,8 @@ def stretch_minutes_moments(median_min, spread, fixed_min):
     with np.errstate(divide="ignore"):
         log_f = np.where(f > 0, np.log(np.where(f > 0, f, 1.0)), -np.inf)
     p = ndtr((mu - log_f) / s_safe)
-    e1 = np.exp(mu + s_safe ** 2 / 2) * ndtr((mu + s_safe ** 2 - log_f) / s_safe)
-    e2 = np.exp(2 * mu + 2 * s_safe ** 2) * ndtr((mu + 2 * s_safe ** 2 - log_f) / s_safe)
+    e1 = np.exp(mu + s_safe**2 / 2) * ndtr((mu + s_safe**2 - log_f) / s_safe)
+    e2 = np.exp(2 * mu + 2 * s_safe**2) * ndtr((mu + 2 * s_safe**2 - log_f) / s_safe)
     m1 = e1 - f * p
     m2 = e2 - 2 * f * e1 + f * f * p
     var = np.maximum(m2 - m1 * m1, 0.0)
@@ -142,22 +141,22 @@ def piecewise_linear_moments(nodes_min, values, median_min, spread, fixed_min):
     if len(x) == 1:
         return f[0].copy(), zero, zero
     mu, s, c = math.log(median_min), float(spread), float(fixed_min)
-    b = (f[1:] - f[:-1]) / (x[1:] - x[:-1])[:, None]          # (K-1, Q) slopes per segment
-    a = f[:-1] - b * x[:-1, None]                             # intercepts in x
-    edges = np.concatenate([[0.0], x[1:-1], [np.inf]]) + c    # segment edges in D
+    b = (f[1:] - f[:-1]) / (x[1:] - x[:-1])[:, None]  # (K-1, Q) slopes per segment
+    a = f[:-1] - b * x[:-1, None]  # intercepts in x
+    edges = np.concatenate([[0.0], x[1:-1], [np.inf]]) + c  # segment edges in D
     with np.errstate(divide="ignore"):
         log_e = np.log(edges)
 
     def partial(k):
         cdf = ndtr((log_e - mu - k * s * s) / s)
-        return math.exp(k * mu + k * k * s * s / 2.0) * np.diff(cdf)   # (K-1,)
+        return math.exp(k * mu + k * k * s * s / 2.0) * np.diff(cdf)  # (K-1,)
 
     m0, m1, m2 = partial(0), partial(1), partial(2)
     p_short = float(ndtr((math.log(c) - mu) / s)) if c > 0 else 0.0
-    alpha = a - b * c                                          # f = alpha + b D on a segment
+    alpha = a - b * c  # f = alpha + b D on a segment
     m0, m1, m2 = m0[:, None], m1[:, None], m2[:, None]
     e_f = a[0] * p_short + (alpha * m0 + b * m1).sum(axis=0)
     e_fx = (alpha * m1 - alpha * c * m0 + b * m2 - b * c * m1).sum(axis=0)
-    e_f2 = a[0] ** 2 * p_short + (alpha ** 2 * m0 + 2 * alpha * b * m1 + b ** 2 * m2).sum(axis=0)
+    e_f2 = a[0] ** 2 * p_short + (alpha**2 * m0 + 2 * alpha * b * m1 + b**2 * m2).sum(axis=0)
     e_x = float(stretch_minutes_moments(median_min, spread, fixed_min)[0])
     return e_f, e_fx - e_f * e_x, np.maximum(e_f2 - e_f * e_f, 0.0)

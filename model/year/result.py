@@ -8,13 +8,13 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
+from model.base.errors import InputError
 from model.cautions import is_unsafe, warnings_as_records
-from model.errors import InputError
-from model.reference import DEFAULT_REFERENCE, GWP_SOURCES, Reference, VOLATILES
+from model.reference import DEFAULT_REFERENCE, GWP_SOURCES, VOLATILES, Reference
 from model.year.inputs import MONTHS, Scenario
 from model.year.nodes import NODE_Z
 from model.year.sampling import Draws, _central, _percentiles, _sampled, make_draws
-from model.year.simulate import CAUTION, GASES, YearInputs, _EMIT, _LIQ, _Q, year_inputs
+from model.year.simulate import _EMIT, _LIQ, _Q, CAUTION, GASES, YearInputs, year_inputs
 
 
 def _label(agent: str) -> str:
@@ -28,19 +28,29 @@ def headline_figures(currency: str) -> list[tuple[str, str, str]]:
         rows.append((f"liquid_ml_{a}", f"{_label(a)} liquid", "mL"))
     for a in VOLATILES:
         rows.append((f"bottles_{a}", f"{_label(a)} bottles bought", "bottles"))
-    rows += [("bottles_total", "Bottles bought, all agents", "bottles"),
-             ("oxygen_l", "Oxygen", "L"), ("air_l", "Medical air", "L"),
-             ("nitrous_oxide_l", "Nitrous oxide", "L"), ("absorbent_kg", "CO2 absorbent", "kg")]
+    rows += [
+        ("bottles_total", "Bottles bought, all agents", "bottles"),
+        ("oxygen_l", "Oxygen", "L"),
+        ("air_l", "Medical air", "L"),
+        ("nitrous_oxide_l", "Nitrous oxide", "L"),
+        ("absorbent_kg", "CO2 absorbent", "kg"),
+    ]
     for a in VOLATILES:
         rows.append((f"cost_{a}", f"Cost of {_label(a).lower()}", currency))
-    rows += [("cost_oxygen", "Cost of oxygen", currency), ("cost_air", "Cost of medical air", currency),
-             ("cost_nitrous_oxide", "Cost of nitrous oxide", currency),
-             ("cost_absorbent", "Cost of absorbent", currency), ("cost_total", "Cost, total", currency)]
+    rows += [
+        ("cost_oxygen", "Cost of oxygen", currency),
+        ("cost_air", "Cost of medical air", currency),
+        ("cost_nitrous_oxide", "Cost of nitrous oxide", currency),
+        ("cost_absorbent", "Cost of absorbent", currency),
+        ("cost_total", "Cost, total", currency),
+    ]
     for a in VOLATILES:
         rows.append((f"co2e_{a}_t", f"CO2e from {_label(a).lower()}", "t CO2e"))
-    rows += [("co2e_nitrous_oxide_t", "CO2e from nitrous oxide", "t CO2e"),
-             ("co2e_total_t", "CO2e, total", "t CO2e"),
-             ("car_km", "Same CO2e as driving an average car", "km")]
+    rows += [
+        ("co2e_nitrous_oxide_t", "CO2e from nitrous oxide", "t CO2e"),
+        ("co2e_total_t", "CO2e, total", "t CO2e"),
+        ("car_km", "Same CO2e as driving an average car", "km"),
+    ]
     return rows
 
 
@@ -50,13 +60,13 @@ class YearResult:
 
     scenario: Scenario
     inputs: YearInputs
-    totals: dict            # key -> float (deterministic: central values, the scenario's GWP source)
-    per_case: dict          # key -> float, totals / cases
-    summary: pd.DataFrame   # key, figure, unit, deterministic, p5, p50, p95
-    monthly: pd.DataFrame   # deterministic figures per month
-    by_type: pd.DataFrame   # deterministic figures per case type
-    fan: pd.DataFrame       # month, figure, p5, p50, p95 of cumulative cost and CO2e
-    draws: dict             # key -> (D,) per-draw figures
+    totals: dict  # key -> float (deterministic: central values, the scenario's GWP source)
+    per_case: dict  # key -> float, totals / cases
+    summary: pd.DataFrame  # key, figure, unit, deterministic, p5, p50, p95
+    monthly: pd.DataFrame  # deterministic figures per month
+    by_type: pd.DataFrame  # deterministic figures per case type
+    fan: pd.DataFrame  # month, figure, p5, p50, p95 of cumulative cost and CO2e
+    draws: dict  # key -> (D,) per-draw figures
     n_draws: int
     seed: int
     notes: list[str] = field(default_factory=list)
@@ -72,7 +82,8 @@ class YearResult:
     @property
     def unsafe(self) -> bool:
         """Whether the practice of this year is unsafe as written: some of its cases are
-        predicted a hypoxic mixture or run the circle out of O2 (a ``"hazard"`` warning)."""
+        predicted a hypoxic mixture or run the circle out of O2 (a ``"hazard"`` warning).
+        """
         return is_unsafe(self.warnings)
 
     def to_dict(self) -> dict:
@@ -89,8 +100,10 @@ class YearResult:
             "car_factor_source": self.scenario.car_source,
             "totals": _clean(self.totals),
             "per_case": _clean(self.per_case),
-            "bands": {r["key"]: _clean({"p5": r["p5"], "p50": r["p50"], "p95": r["p95"]})
-                      for r in self.summary.to_dict("records")},
+            "bands": {
+                r["key"]: _clean({"p5": r["p5"], "p50": r["p50"], "p95": r["p95"]})
+                for r in self.summary.to_dict("records")
+            },
             "monthly": [_clean(r) for r in self.monthly.to_dict("records")],
             "by_type": [_clean(r) for r in self.by_type.to_dict("records")],
             "warnings": list(self.warnings),
@@ -117,8 +130,17 @@ def _summary(keys, central: dict, draws: dict) -> pd.DataFrame:
     rows = []
     for key, label, unit in keys:
         p = _percentiles(draws[key])
-        rows.append({"key": key, "figure": label, "unit": unit, "deterministic": float(central[key][0]),
-                     "p5": float(p[0]), "p50": float(p[1]), "p95": float(p[2])})
+        rows.append(
+            {
+                "key": key,
+                "figure": label,
+                "unit": unit,
+                "deterministic": float(central[key][0]),
+                "p5": float(p[0]),
+                "p50": float(p[1]),
+                "p95": float(p[2]),
+            }
+        )
     return pd.DataFrame(rows)
 
 
@@ -140,28 +162,35 @@ def _monthly_table(inp: YearInputs, months: dict) -> pd.DataFrame:
 
 def _by_type(inp: YearInputs, central_minutes_share: float) -> pd.DataFrame:
     a = central_minutes_share
-    per_case = ((1 - a) * (inp.fixed[0] + inp.rate[0] * inp.stretch_mean[:, None])
-                + a * (inp.fixed[1] + inp.rate[1] * inp.stretch_mean[:, None]))      # (I, Q)
+    per_case = (1 - a) * (inp.fixed[0] + inp.rate[0] * inp.stretch_mean[:, None]) + a * (
+        inp.fixed[1] + inp.rate[1] * inp.stretch_mean[:, None]
+    )  # (I, Q)
     year = per_case * inp.counts[:, None]
     gwp = inp.gwp[0]
-    co2e_kg = (year[:, _EMIT] / 1000.0 * gwp[:-1]).sum(axis=1) + year[:, _Q["nitrous_oxide_emitted_g"]] / 1000.0 * gwp[-1]
+    co2e_kg = (year[:, _EMIT] / 1000.0 * gwp[:-1]).sum(axis=1) + year[:, _Q["nitrous_oxide_emitted_g"]] / 1000.0 * gwp[
+        -1
+    ]
     n_a = len(VOLATILES)
-    cost = ((year[:, _LIQ] / inp.bottle_ml * inp.prices[:n_a]).sum(axis=1)
-            + (year[:, [_Q[f"{g}_l"] for g in GASES]] / 1000.0 * inp.prices[n_a:n_a + 3]).sum(axis=1)
-            + year[:, _Q["absorbent_g"]] / 1000.0 * inp.prices[n_a + 3])
-    return pd.DataFrame({
-        "case_type": list(inp.names),
-        "cases": inp.counts,
-        "mean_duration_min": per_case[:, _Q["minutes"]],
-        "liquid_ml": year[:, _LIQ].sum(axis=1),
-        **{f"liquid_ml_{v}": year[:, _Q[f"liquid_ml:{v}"]] for v in VOLATILES},
-        "oxygen_l": year[:, _Q["oxygen_l"]],
-        "air_l": year[:, _Q["air_l"]],
-        "nitrous_oxide_l": year[:, _Q["nitrous_oxide_l"]],
-        "absorbent_kg": year[:, _Q["absorbent_g"]] / 1000.0,
-        "co2e_t": co2e_kg / 1000.0,
-        "cost_pro_rata": cost,
-    })
+    cost = (
+        (year[:, _LIQ] / inp.bottle_ml * inp.prices[:n_a]).sum(axis=1)
+        + (year[:, [_Q[f"{g}_l"] for g in GASES]] / 1000.0 * inp.prices[n_a : n_a + 3]).sum(axis=1)
+        + year[:, _Q["absorbent_g"]] / 1000.0 * inp.prices[n_a + 3]
+    )
+    return pd.DataFrame(
+        {
+            "case_type": list(inp.names),
+            "cases": inp.counts,
+            "mean_duration_min": per_case[:, _Q["minutes"]],
+            "liquid_ml": year[:, _LIQ].sum(axis=1),
+            **{f"liquid_ml_{v}": year[:, _Q[f"liquid_ml:{v}"]] for v in VOLATILES},
+            "oxygen_l": year[:, _Q["oxygen_l"]],
+            "air_l": year[:, _Q["air_l"]],
+            "nitrous_oxide_l": year[:, _Q["nitrous_oxide_l"]],
+            "absorbent_kg": year[:, _Q["absorbent_g"]] / 1000.0,
+            "co2e_t": co2e_kg / 1000.0,
+            "cost_pro_rata": cost,
+        }
+    )
 
 
 def _fan(months: dict) -> pd.DataFrame:
@@ -193,22 +222,33 @@ def _notes(inp: YearInputs, scenario: Scenario) -> list[str]:
     ]
     if scenario.practice.changes_anything:
         pr = scenario.practice
-        notes.append(f"Practice change followed by {pr.adherence * 100:.0f} % of cases "
-                     f"(sampled {pr.adherence_low * 100:.0f}-{pr.adherence_high * 100:.0f} %); "
-                     f"the others keep the plan as written.")
+        notes.append(
+            f"Practice change followed by {pr.adherence * 100:.0f} % of cases "
+            f"(sampled {pr.adherence_low * 100:.0f}-{pr.adherence_high * 100:.0f} %); "
+            f"the others keep the plan as written."
+        )
     sampled = scenario.sampling.gwp_sources
     if sampled and set(sampled) != {scenario.gwp_source}:
+
         def label(k):
             return GWP_SOURCES[k].label if k in GWP_SOURCES else k
-        notes.append(f"The expected column uses {label(scenario.gwp_source)}; the P5-P95 bands also sample the "
-                     f"GWP sources {', '.join(map(label, sampled))} (the uncertainty of the GWP choice), so an expected "
-                     "CO2e can sit near one end of its band.")
+
+        notes.append(
+            f"The expected column uses {label(scenario.gwp_source)}; the P5-P95 bands also sample the "
+            f"GWP sources {', '.join(map(label, sampled))} (the uncertainty of the GWP choice), so an expected "
+            "CO2e can sit near one end of its band."
+        )
     return notes
 
 
-def compute_year(scenario: Scenario, reference: Reference = DEFAULT_REFERENCE, *,
-                 draws: int | None = None, seed: int | None = None,
-                 shared: Draws | None = None) -> YearResult:
+def compute_year(
+    scenario: Scenario,
+    reference: Reference = DEFAULT_REFERENCE,
+    *,
+    draws: int | None = None,
+    seed: int | None = None,
+    shared: Draws | None = None,
+) -> YearResult:
     """A scenario's year with Monte Carlo bands.
 
     Parameters
@@ -247,7 +287,16 @@ def _result(scenario, inp, central, central_months, sampled, sampled_months, sha
     cases = totals["cases"]
     per_case = {k: (v / cases if cases else 0.0) for k, v in totals.items() if k != "cases"}
     return YearResult(
-        scenario=scenario, inputs=inp, totals=totals, per_case=per_case,
-        summary=_summary(keys, central, sampled), monthly=_monthly_table(inp, central_months),
-        by_type=_by_type(inp, inp.adherence[1]), fan=_fan(sampled_months), draws=sampled,
-        n_draws=shared.n, seed=shared.seed, notes=_notes(inp, scenario))
+        scenario=scenario,
+        inputs=inp,
+        totals=totals,
+        per_case=per_case,
+        summary=_summary(keys, central, sampled),
+        monthly=_monthly_table(inp, central_months),
+        by_type=_by_type(inp, inp.adherence[1]),
+        fan=_fan(sampled_months),
+        draws=sampled,
+        n_draws=shared.n,
+        seed=shared.seed,
+        notes=_notes(inp, scenario),
+    )

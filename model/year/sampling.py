@@ -7,10 +7,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from model.errors import InputError
+from model.base.errors import InputError
 from model.reference import VOLATILES
-from model.year.simulate import GASES, PRICE_ITEMS, YearInputs, _BOTTLE_SLACK, _EMIT, _LIQ, _Q
-
+from model.year.simulate import _BOTTLE_SLACK, _EMIT, _LIQ, _Q, GASES, PRICE_ITEMS, YearInputs
 
 PERCENTILES = (5.0, 50.0, 95.0)
 
@@ -27,9 +26,9 @@ class Draws:
     seed: int
     #: Standard normal draw of each case type's year of minutes, keyed by type name. (n,)
     z_types: dict
-    u_adherence: np.ndarray     # (n,) uniform
-    z_price: np.ndarray         # (n, len(PRICE_ITEMS)) standard normal
-    u_gwp: np.ndarray           # (n,) uniform
+    u_adherence: np.ndarray  # (n,) uniform
+    z_price: np.ndarray  # (n, len(PRICE_ITEMS)) standard normal
+    u_gwp: np.ndarray  # (n,) uniform
 
 
 def make_draws(type_names, n: int, seed: int) -> Draws:
@@ -44,8 +43,10 @@ def make_draws(type_names, n: int, seed: int) -> Draws:
     u_adh = rng.random(n)
     z_price = rng.standard_normal((n, len(PRICE_ITEMS)))
     u_gwp = rng.random(n)
-    z_types = {name: np.random.default_rng([seed, zlib.crc32(name.encode("utf-8"))]).standard_normal(n)
-               for name in dict.fromkeys(type_names)}
+    z_types = {
+        name: np.random.default_rng([seed, zlib.crc32(name.encode("utf-8"))]).standard_normal(n)
+        for name in dict.fromkeys(type_names)
+    }
     return Draws(n, seed, z_types, u_adh, z_price, u_gwp)
 
 
@@ -78,33 +79,34 @@ def triangular_ppf(u, low, mode, high):
     return np.where(u < fc, left, right)
 
 
-def _simulate(inp: YearInputs, z: np.ndarray, adherence: np.ndarray, price_factor: np.ndarray,
-              gwp_index: np.ndarray) -> tuple[dict, dict]:
+def _simulate(
+    inp: YearInputs, z: np.ndarray, adherence: np.ndarray, price_factor: np.ndarray, gwp_index: np.ndarray
+) -> tuple[dict, dict]:
     """Headline figures per draw, and monthly arrays.
 
     Shapes: ``z`` (D, I), ``adherence`` (D,), ``price_factor`` (D, len(PRICE_ITEMS)),
     ``gwp_index`` (D,) integers into ``inp.gwp``.
     """
     n = inp.counts
-    minutes = np.maximum(n * inp.stretch_mean + np.sqrt(n * inp.stretch_var) * z, 0.0)   # (D, I)
-    f0, f1 = n @ inp.fixed[0], n @ inp.fixed[1]                                           # (Q,)
-    r0, r1 = inp.rate[0], inp.rate[1]                                                     # (I, Q)
+    minutes = np.maximum(n * inp.stretch_mean + np.sqrt(n * inp.stretch_var) * z, 0.0)  # (D, I)
+    f0, f1 = n @ inp.fixed[0], n @ inp.fixed[1]  # (Q,)
+    r0, r1 = inp.rate[0], inp.rate[1]  # (I, Q)
     adh = adherence[:, None]
-    q = f0 + adh * (f1 - f0) + minutes @ r0 + adh * (minutes @ (r1 - r0))                 # (D, Q)
+    q = f0 + adh * (f1 - f0) + minutes @ r0 + adh * (minutes @ (r1 - r0))  # (D, Q)
     q = np.maximum(q, 0.0)
     w = inp.month_weights
-    liquid = q[:, _LIQ]                                                                   # (D, A)
-    monthly_liquid = liquid[:, None, :] * w[None, :, None]                                # (D, 12, A)
+    liquid = q[:, _LIQ]  # (D, A)
+    monthly_liquid = liquid[:, None, :] * w[None, :, None]  # (D, 12, A)
     monthly_bottles = np.maximum(np.ceil(monthly_liquid / inp.bottle_ml - _BOTTLE_SLACK), 0.0)
-    bottles = monthly_bottles.sum(axis=1)                                                 # (D, A)
-    price = inp.prices * price_factor                                                     # (D, P)
+    bottles = monthly_bottles.sum(axis=1)  # (D, A)
+    price = inp.prices * price_factor  # (D, P)
     n_a = len(VOLATILES)
     cost_agents = bottles * price[:, :n_a]
     gas = q[:, [_Q["oxygen_l"], _Q["air_l"], _Q["nitrous_oxide_l"]]]
-    cost_gas = gas / 1000.0 * price[:, n_a:n_a + 3]
+    cost_gas = gas / 1000.0 * price[:, n_a : n_a + 3]
     absorbent_kg = q[:, _Q["absorbent_g"]] / 1000.0
     cost_abs = absorbent_kg * price[:, n_a + 3]
-    gwp = inp.gwp[gwp_index]                                                              # (D, A + 1)
+    gwp = inp.gwp[gwp_index]  # (D, A + 1)
     co2e_agents_kg = q[:, _EMIT] / 1000.0 * gwp[:, :n_a]
     co2e_n2o_kg = q[:, _Q["nitrous_oxide_emitted_g"]] / 1000.0 * gwp[:, -1]
     co2e_total_kg = co2e_agents_kg.sum(axis=1) + co2e_n2o_kg
@@ -133,11 +135,16 @@ def _simulate(inp: YearInputs, z: np.ndarray, adherence: np.ndarray, price_facto
     for a_i, a in enumerate(VOLATILES):
         out[f"emitted_kg_{a}"] = q[:, _EMIT[a_i]] / 1000.0
     out["emitted_kg_nitrous_oxide"] = q[:, _Q["nitrous_oxide_emitted_g"]] / 1000.0
-    monthly_cost = ((monthly_bottles * price[:, None, :n_a]).sum(axis=2)
-                    + (cost_gas.sum(axis=1) + cost_abs)[:, None] * w[None, :])             # (D, 12)
-    months = {"liquid_ml": monthly_liquid, "bottles": monthly_bottles, "cost": monthly_cost,
-              "co2e_t": co2e_total_kg[:, None] * w[None, :] / 1000.0,
-              "q": q}
+    monthly_cost = (monthly_bottles * price[:, None, :n_a]).sum(axis=2) + (cost_gas.sum(axis=1) + cost_abs)[
+        :, None
+    ] * w[None, :]  # (D, 12)
+    months = {
+        "liquid_ml": monthly_liquid,
+        "bottles": monthly_bottles,
+        "cost": monthly_cost,
+        "co2e_t": co2e_total_kg[:, None] * w[None, :] / 1000.0,
+        "q": q,
+    }
     return out, months
 
 
@@ -155,8 +162,13 @@ def _sampled(inp: YearInputs, draws: Draws, price_spread: float):
 
 def _central(inp: YearInputs):
     one = 1
-    return _simulate(inp, np.zeros((one, len(inp.names))), np.array([inp.adherence[1]]),
-                     np.ones((one, len(PRICE_ITEMS))), np.zeros(one, dtype=int))
+    return _simulate(
+        inp,
+        np.zeros((one, len(inp.names))),
+        np.array([inp.adherence[1]]),
+        np.ones((one, len(PRICE_ITEMS))),
+        np.zeros(one, dtype=int),
+    )
 
 
 # --------------------------------------------------------------------------------------

@@ -1,5 +1,6 @@
 """Case types through the circle model at their duration nodes: sub-plans, one vectorised
-simulation per agent, and the per-type inputs of a year (see :mod:`model.year`)."""
+simulation per agent, and the per-type inputs of a year (see :mod:`model.year`).
+"""
 
 from __future__ import annotations
 
@@ -8,24 +9,33 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
+from model.base.errors import InputError
 from model.case import simulation_totals
 from model.cautions import SLOW_TARGET_MIN, Caution, by_severity
 from model.circle import simulate_cases
-from model.errors import InputError
 from model.plan import CasePlan, check_dials
-from model.reference import DEFAULT_REFERENCE, Reference, VOLATILES
+from model.reference import DEFAULT_REFERENCE, VOLATILES, Reference
 from model.year.inputs import CaseMix, CaseType, Scenario
 from model.year.nodes import duration_nodes, piecewise_linear_moments, stretch_minutes_moments
 
-
-CAUTION = ("Estimates for planning, budgeting and reporting, not a prescription. Flows, mixes and "
-           "dial settings follow local protocols, the workstation's instructions for use and "
-           "licensed practice, with inspired O2 and end-tidal agent monitored.")
+CAUTION = (
+    "Estimates for planning, budgeting and reporting, not a prescription. Flows, mixes and "
+    "dial settings follow local protocols, the workstation's instructions for use and "
+    "licensed practice, with inspired O2 and end-tidal agent monitored."
+)
 
 GASES = ("oxygen", "air", "nitrous_oxide")
 #: Quantities carried per case type, in this order. Units: mL, g, L, g, g, min.
-QUANTITIES = (*(f"liquid_ml:{a}" for a in VOLATILES), *(f"emitted_g:{a}" for a in VOLATILES),
-              "oxygen_l", "air_l", "nitrous_oxide_l", "nitrous_oxide_emitted_g", "absorbent_g", "minutes")
+QUANTITIES = (
+    *(f"liquid_ml:{a}" for a in VOLATILES),
+    *(f"emitted_g:{a}" for a in VOLATILES),
+    "oxygen_l",
+    "air_l",
+    "nitrous_oxide_l",
+    "nitrous_oxide_emitted_g",
+    "absorbent_g",
+    "minutes",
+)
 _Q = {name: i for i, name in enumerate(QUANTITIES)}
 _LIQ = np.array([_Q[f"liquid_ml:{a}"] for a in VOLATILES])
 _EMIT = np.array([_Q[f"emitted_g:{a}"] for a in VOLATILES])
@@ -50,16 +60,19 @@ def practised_plan(ctype: CaseType, scenario: Scenario):
     changes = {}
     if pr.maintenance_flow_l_min is not None and phase.fgf_l_min > 0:
         scale = pr.maintenance_flow_l_min / phase.fgf_l_min
-        changes.update(o2_l_min=phase.o2_l_min * scale, air_l_min=phase.air_l_min * scale,
-                       n2o_l_min=phase.n2o_l_min * scale)
+        changes.update(
+            o2_l_min=phase.o2_l_min * scale, air_l_min=phase.air_l_min * scale, n2o_l_min=phase.n2o_l_min * scale
+        )
     if pr.maintenance_o2_share is not None:
         total = pr.maintenance_flow_l_min if pr.maintenance_flow_l_min is not None else phase.fgf_l_min
         air, n2o = changes.get("air_l_min", phase.air_l_min), changes.get("n2o_l_min", phase.n2o_l_min)
         rest = total * (1.0 - pr.maintenance_o2_share)
         other = air + n2o
-        changes.update(o2_l_min=total * pr.maintenance_o2_share,
-                       air_l_min=rest * air / other if other > 0 else rest,
-                       n2o_l_min=rest * n2o / other if other > 0 else 0.0)
+        changes.update(
+            o2_l_min=total * pr.maintenance_o2_share,
+            air_l_min=rest * air / other if other > 0 else rest,
+            n2o_l_min=rest * n2o / other if other > 0 else 0.0,
+        )
     if pr.dial_factor != 1.0 and phase.dial_pct is not None:
         changes["dial_pct"] = phase.dial_pct * pr.dial_factor
     if changes:
@@ -77,17 +90,17 @@ class YearInputs:
     """Everything the sampling needs, computed once per scenario (arrays over case types)."""
 
     names: tuple[str, ...]
-    counts: np.ndarray          # (I,) cases per year
-    stretch_mean: np.ndarray    # (I,) mean stretched minutes per case [min]
-    stretch_var: np.ndarray     # (I,) their variance [min^2]
-    fixed: np.ndarray           # (2, I, Q) per-case intercepts; [0] as written, [1] changed
-    rate: np.ndarray            # (2, I, Q) amounts per stretched minute (regression slopes)
-    prices: np.ndarray          # (len(PRICE_ITEMS),) central unit prices
-    bottle_ml: np.ndarray       # (A,) bottle volumes [mL]
-    gwp: np.ndarray             # (S, A + 1) GWP per source (agents, then N2O) [kg CO2e/kg]
+    counts: np.ndarray  # (I,) cases per year
+    stretch_mean: np.ndarray  # (I,) mean stretched minutes per case [min]
+    stretch_var: np.ndarray  # (I,) their variance [min^2]
+    fixed: np.ndarray  # (2, I, Q) per-case intercepts; [0] as written, [1] changed
+    rate: np.ndarray  # (2, I, Q) amounts per stretched minute (regression slopes)
+    prices: np.ndarray  # (len(PRICE_ITEMS),) central unit prices
+    bottle_ml: np.ndarray  # (A,) bottle volumes [mL]
+    gwp: np.ndarray  # (S, A + 1) GWP per source (agents, then N2O) [kg CO2e/kg]
     gwp_keys: tuple[str, ...]
-    adherence: tuple[float, float, float]   # low, mode, high [1]
-    month_weights: np.ndarray   # (12,) summing to 1
+    adherence: tuple[float, float, float]  # low, mode, high [1]
+    month_weights: np.ndarray  # (12,) summing to 1
     car_kg_per_km: float
     currency: str
     gwp_label: str
@@ -104,14 +117,14 @@ class SubPlan:
     """One simulated variant of a case type, with its per-case totals at the duration nodes."""
 
     type_index: int
-    variant: int                # 0 = plan as written, 1 = practice change followed
+    variant: int  # 0 = plan as written, 1 = practice change followed
     agent: str
     with_n2o: bool
-    weight: float               # share of the type's cases [1]
-    plan: CasePlan              # the plan as simulated (this agent, N2O use, practice)
+    weight: float  # share of the type's cases [1]
+    plan: CasePlan  # the plan as simulated (this agent, N2O use, practice)
     stretch_index: int
-    nodes_min: np.ndarray       # (K,) stretched minutes at the nodes [min]
-    totals: np.ndarray          # (K, Q) per-case amounts at the nodes (units of QUANTITIES)
+    nodes_min: np.ndarray  # (K,) stretched minutes at the nodes [min]
+    totals: np.ndarray  # (K, Q) per-case amounts at the nodes (units of QUANTITIES)
 
 
 def _dial_for(agent, plan_agent, dial):
@@ -153,23 +166,54 @@ def _subplans(scenario: Scenario, ref: Reference) -> list[SubPlan]:
                         dial = None if p.dial_pct is None else _dial_for(agent, plan_agent, p.dial_pct)
                         phases.append(replace(p, o2_l_min=o2, air_l_min=air, n2o_l_min=n2o, dial_pct=dial))
                     sub = replace(plan, agent=agent_name, phases=tuple(phases))
-                    out.append(SubPlan(i, v, agent_name, with_n2o, share * w, sub, t.stretch_index, nodes,
-                                       np.zeros((len(nodes), len(QUANTITIES)))))
+                    out.append(
+                        SubPlan(
+                            i,
+                            v,
+                            agent_name,
+                            with_n2o,
+                            share * w,
+                            sub,
+                            t.stretch_index,
+                            nodes,
+                            np.zeros((len(nodes), len(QUANTITIES))),
+                        )
+                    )
     return out
 
 
 def _group_key(agent: str, s) -> tuple:
     """Plans sharing a simulate_cases call: one agent and the scalar settings of the call."""
-    return (agent, s.uptake_model, s.temperature_c, s.pressure_kpa, s.min_o2_share, s.min_o2_flow_l_min,
-            s.ratio_behaviour, s.inspired_o2_floor, s.absorbent_capacity_l_per_kg)
+    return (
+        agent,
+        s.uptake_model,
+        s.temperature_c,
+        s.pressure_kpa,
+        s.min_o2_share,
+        s.min_o2_flow_l_min,
+        s.ratio_behaviour,
+        s.inspired_o2_floor,
+        s.absorbent_capacity_l_per_kg,
+    )
 
 
 def _column_key(sub: SubPlan, x: float) -> tuple:
     pt, s = sub.plan.patient, sub.plan.settings
-    phases = tuple((x if j == sub.stretch_index else p.minutes, p.o2_l_min, p.air_l_min, p.n2o_l_min,
-                    p.dial_pct, p.target_mac) for j, p in enumerate(sub.plan.phases))
-    return (sub.stretch_index, phases, pt.weight_kg, pt.age_years, pt.cardiac_output_l_min, pt.vo2_ml_min,
-            pt.minute_ventilation_l_min, s.circle_volume_l, s.capture_efficiency)
+    phases = tuple(
+        (x if j == sub.stretch_index else p.minutes, p.o2_l_min, p.air_l_min, p.n2o_l_min, p.dial_pct, p.target_mac)
+        for j, p in enumerate(sub.plan.phases)
+    )
+    return (
+        sub.stretch_index,
+        phases,
+        pt.weight_kg,
+        pt.age_years,
+        pt.cardiac_output_l_min,
+        pt.vo2_ml_min,
+        pt.minute_ventilation_l_min,
+        s.circle_volume_l,
+        s.capture_efficiency,
+    )
 
 
 #: Recent simulations by their exact inputs (agent data, settings, every column), so that a
@@ -236,26 +280,45 @@ def simulate_subplans(subplans: list[SubPlan], ref: Reference) -> dict:
                     arr["dial"][j, c] = np.nan if p.dial_pct is None else p.dial_pct
                     arr["target"][j, c] = np.nan if p.target_mac is None else p.target_mac
                 elif r < 0 and first.dial_pct is not None:
-                    arr["dial"][j, c] = first.dial_pct   # same start as the plan alone
+                    arr["dial"][j, c] = first.dial_pct  # same start as the plan alone
         pts = [sub.plan.patient for sub, _ in specs]
         opt = lambda v: np.nan if v is None else float(v)  # noqa: E731
         s0 = specs[0][0].plan.settings
         sim = simulate_cases(
-            agent, arr["minutes"], arr["o2"], arr["air"], arr["n2o"], arr["dial"], arr["target"],
-            weight_kg=np.array([p.weight_kg for p in pts]), age_years=np.array([p.age_years for p in pts]),
+            agent,
+            arr["minutes"],
+            arr["o2"],
+            arr["air"],
+            arr["n2o"],
+            arr["dial"],
+            arr["target"],
+            weight_kg=np.array([p.weight_kg for p in pts]),
+            age_years=np.array([p.age_years for p in pts]),
             cardiac_output_l_min=np.array([opt(p.cardiac_output_l_min) for p in pts]),
             vo2_ml_min=np.array([opt(p.vo2_ml_min) for p in pts]),
             minute_ventilation_l_min=np.array([opt(p.minute_ventilation_l_min) for p in pts]),
             uptake_model=s0.uptake_model,
             circle_volume_l=np.array([sub.plan.settings.circle_volume_l for sub, _ in specs]),
-            absorbent_capacity_l_per_kg=s0.absorbent_capacity_l_per_kg, temperature_c=s0.temperature_c,
-            pressure_kpa=s0.pressure_kpa, min_o2_share=s0.min_o2_share, min_o2_flow_l_min=s0.min_o2_flow_l_min,
-            ratio_behaviour=s0.ratio_behaviour, inspired_o2_floor=s0.inspired_o2_floor,
-            nitrous_oxide=ref.agents["nitrous_oxide"])
+            absorbent_capacity_l_per_kg=s0.absorbent_capacity_l_per_kg,
+            temperature_c=s0.temperature_c,
+            pressure_kpa=s0.pressure_kpa,
+            min_o2_share=s0.min_o2_share,
+            min_o2_flow_l_min=s0.min_o2_flow_l_min,
+            ratio_behaviour=s0.ratio_behaviour,
+            inspired_o2_floor=s0.inspired_o2_floor,
+            nitrous_oxide=ref.agents["nitrous_oxide"],
+        )
         tot, _ = simulation_totals(
-            sim, agent, ref.prices, gwp_agent=1.0, gwp_n2o=1.0,
+            sim,
+            agent,
+            ref.prices,
+            gwp_agent=1.0,
+            gwp_n2o=1.0,
             capture_efficiency=np.array([sub.plan.settings.capture_efficiency for sub, _ in specs]),
-            temperature_c=s0.temperature_c, pressure_kpa=s0.pressure_kpa, nitrous_oxide=ref.agents["nitrous_oxide"])
+            temperature_c=s0.temperature_c,
+            pressure_kpa=s0.pressure_kpa,
+            nitrous_oxide=ref.agents["nitrous_oxide"],
+        )
         q = np.zeros((n, len(QUANTITIES)))
         q[:, _Q[f"liquid_ml:{agent.name}"]] = tot["liquid_agent_ml"]
         q[:, _Q[f"emitted_g:{agent.name}"]] = tot["agent_emitted_g"]
@@ -309,11 +372,12 @@ def _assemble(scenario: Scenario, ref: Reference, subplans: list[SubPlan], cols,
     types = mix.types
     n_types = len(types)
     changed = scenario.practice.changes_anything
-    mean, var = stretch_minutes_moments([t.median_min for t in types], [t.spread for t in types],
-                                        [t.fixed_min for t in types])
+    mean, var = stretch_minutes_moments(
+        [t.median_min for t in types], [t.spread for t in types], [t.fixed_min for t in types]
+    )
     e_f = np.zeros((2, n_types, len(QUANTITIES)))
     cov = np.zeros_like(e_f)
-    warnings: dict[str, dict] = {}   # caution text -> case types it applies to
+    warnings: dict[str, dict] = {}  # caution text -> case types it applies to
     r2 = [1.0]
     for sub, where in zip(subplans, cols):
         t = types[sub.type_index]
@@ -334,9 +398,10 @@ def _assemble(scenario: Scenario, ref: Reference, subplans: list[SubPlan], cols,
     used_agents = {sp.agent for sp in subplans}
     uses_n2o = any(q.n2o_l_min > 0 for sp in subplans for q in sp.plan.phases)
     prices = ref.prices
-    price_vec = np.array([prices.bottle.get(a, 0.0) for a in VOLATILES]
-                         + [prices.oxygen_per_1000_l, prices.air_per_1000_l,
-                            prices.nitrous_oxide_per_1000_l, prices.absorbent_per_kg])
+    price_vec = np.array(
+        [prices.bottle.get(a, 0.0) for a in VOLATILES]
+        + [prices.oxygen_per_1000_l, prices.air_per_1000_l, prices.nitrous_oxide_per_1000_l, prices.absorbent_per_kg]
+    )
     gwp_keys = (scenario.gwp_source, *scenario.sampling.gwp_sources)
     gwp = np.zeros((len(gwp_keys), len(VOLATILES) + 1))
     for s_i, src in enumerate(gwp_keys):
@@ -347,22 +412,29 @@ def _assemble(scenario: Scenario, ref: Reference, subplans: list[SubPlan], cols,
             gwp[s_i, -1] = ref.gwp("nitrous_oxide", src, used=uses_n2o)
         except InputError as err:  # name the scenario and its field
             field = "gwp_source" if s_i == 0 else "uncertainty.gwp_sources"
-            raise InputError(f"{scenario.source}: {field}" if scenario.source else field,
-                             src, err.allowed) from None
+            raise InputError(f"{scenario.source}: {field}" if scenario.source else field, src, err.allowed) from None
     weights = np.asarray(scenario.month_weights, dtype=float)
     pr = scenario.practice
     return YearInputs(
         names=tuple(t.name for t in types),
         counts=np.array([t.cases_per_year for t in types], dtype=float),
-        stretch_mean=mean, stretch_var=var, fixed=fixed, rate=rate, prices=price_vec,
+        stretch_mean=mean,
+        stretch_var=var,
+        fixed=fixed,
+        rate=rate,
+        prices=price_vec,
         bottle_ml=np.array([ref.volatile(a).bottle_volume for a in VOLATILES]),
-        gwp=gwp, gwp_keys=gwp_keys,
+        gwp=gwp,
+        gwp_keys=gwp_keys,
         adherence=(pr.adherence_low, pr.adherence, pr.adherence_high) if changed else (1.0, 1.0, 1.0),
-        month_weights=weights / weights.sum(), car_kg_per_km=scenario.car_kg_per_km,
-        currency=prices.currency, gwp_label=ref.gwp_source(scenario.gwp_source).label,
-        warnings=by_severity(Caution(f"{', '.join(names)}: {text}", text.severity)
-                             for text, names in warnings.items()), subplans=subplans,
-        variance_explained=float(np.clip(min(r2), 0.0, 1.0)))
+        month_weights=weights / weights.sum(),
+        car_kg_per_km=scenario.car_kg_per_km,
+        currency=prices.currency,
+        gwp_label=ref.gwp_source(scenario.gwp_source).label,
+        warnings=by_severity(Caution(f"{', '.join(names)}: {text}", text.severity) for text, names in warnings.items()),
+        subplans=subplans,
+        variance_explained=float(np.clip(min(r2), 0.0, 1.0)),
+    )
 
 
 def _subplan_warnings(out: dict, ctype: CaseType, sub: SubPlan, where, groups, ref: Reference) -> None:
@@ -390,29 +462,46 @@ def _subplan_warnings(out: dict, ctype: CaseType, sub: SubPlan, where, groups, r
         if bool(sim["phase_altered"][row, c0]):
             add(f"{at}: the O2/N2O ratio limit altered the requested mix")
         if sub.agent == "sevoflurane" and fgf < s.sevoflurane_min_flow_l_min - 1e-12:
-            add(f"{at}: {fgf:.2f} L/min is under the set sevoflurane minimum of "
-                f"{s.sevoflurane_min_flow_l_min:g} L/min; follow local protocol and labelling", "labelling")
+            add(
+                f"{at}: {fgf:.2f} L/min is under the set sevoflurane minimum of "
+                f"{s.sevoflurane_min_flow_l_min:g} L/min; follow local protocol and labelling",
+                "labelling",
+            )
         if fd_o2 < s.inspired_o2_floor - 1e-12:
-            add(f"{at}: fresh gas O2 {fd_o2 * 100:.0f} % is under the inspired O2 floor of "
-                f"{floor_pct:.0f} %; inspired O2 in a circle is lower still", "hazard")
+            add(
+                f"{at}: fresh gas O2 {fd_o2 * 100:.0f} % is under the inspired O2 floor of "
+                f"{floor_pct:.0f} %; inspired O2 in a circle is lower still",
+                "hazard",
+            )
         elif math.isfinite(safe) and fd_o2 < safe - 1e-9:
-            add(f"{at}: at {fgf:.2f} L/min, fresh gas O2 {fd_o2 * 100:.0f} % is under the {safe * 100:.0f} % "
-                f"that keeps inspired O2 above {floor_pct:.0f} % at steady state")
+            add(
+                f"{at}: at {fgf:.2f} L/min, fresh gas O2 {fd_o2 * 100:.0f} % is under the {safe * 100:.0f} % "
+                f"that keeps inspired O2 above {floor_pct:.0f} % at steady state"
+            )
         elif not math.isfinite(safe):
-            add(f"{at}: fresh gas flow {fgf:.2f} L/min does not exceed the O2 consumption; no fresh gas "
-                f"mix keeps inspired O2 above {floor_pct:.0f} %", "hazard")
+            add(
+                f"{at}: fresh gas flow {fgf:.2f} L/min does not exceed the O2 consumption; no fresh gas "
+                f"mix keeps inspired O2 above {floor_pct:.0f} %",
+                "hazard",
+            )
         if p.target_mac is not None:
-            reach = [g2["sim"]["phase_time_to_target_min"][int(g2["offsets"][c]) + j, c]
-                     for g2, c in ((groups[k], c) for k, c in where)
-                     if g2["sim"]["phase_minutes"][int(g2["offsets"][c]) + j, c] > 0]
+            reach = [
+                g2["sim"]["phase_time_to_target_min"][int(g2["offsets"][c]) + j, c]
+                for g2, c in ((groups[k], c) for k, c in where)
+                if g2["sim"]["phase_minutes"][int(g2["offsets"][c]) + j, c] > 0
+            ]
             if any(not math.isfinite(r) for r in reach):
-                add(f"{at}: the end-tidal target of {p.target_mac:g} MAC is not reached within the phase "
+                add(
+                    f"{at}: the end-tidal target of {p.target_mac:g} MAC is not reached within the phase "
                     f"at {fgf:.2f} L/min (vaporizer maximum {ref.agents[sub.agent].vaporizer_max:g} "
-                    f"%); raise the flow or allow longer")
+                    f"%); raise the flow or allow longer"
+                )
             elif reach and max(reach) > SLOW_TARGET_MIN:
                 # The slow response of low flow, as for a single case (model.cautions.case_warnings).
-                add(f"{at}: end-tidal reaches the target of {p.target_mac:g} MAC only after "
-                    f"{max(reach):.0f} min at {fgf:.2f} L/min")
+                add(
+                    f"{at}: end-tidal reaches the target of {p.target_mac:g} MAC only after "
+                    f"{max(reach):.0f} min at {fgf:.2f} L/min"
+                )
     worst = None
     for gk, c in where:
         tot = groups[gk]["tot"]
@@ -420,15 +509,27 @@ def _subplan_warnings(out: dict, ctype: CaseType, sub: SubPlan, where, groups, r
         if fio2 < floor_pct and (worst is None or fio2 < worst[0]):
             worst = (fio2,)
         if float(tot["o2_shortfall_l"][c]) > 1e-6:
-            add(f"{who}: the circle runs out of O2 for the patient's consumption; O2 inflow must at "
-                f"least match consumption", "hazard")
+            add(
+                f"{who}: the circle runs out of O2 for the patient's consumption; O2 inflow must at "
+                f"least match consumption",
+                "hazard",
+            )
         k = sub.stretch_index
         stretch_fgf = float(groups[gk]["sim"]["phase_fgf_l_min"][int(groups[gk]["offsets"][c]) + k, c])
-        if (sub.agent == "sevoflurane" and float(tot["end_tidal_mac_hours"][c]) > 1.0
-                and stretch_fgf < s.sevoflurane_min_flow_long_l_min - 1e-12):
-            add(f"{who}: cases beyond 1 MAC-hour run sevoflurane at {stretch_fgf:.2f} L/min in "
+        if (
+            sub.agent == "sevoflurane"
+            and float(tot["end_tidal_mac_hours"][c]) > 1.0
+            and stretch_fgf < s.sevoflurane_min_flow_long_l_min - 1e-12
+        ):
+            add(
+                f"{who}: cases beyond 1 MAC-hour run sevoflurane at {stretch_fgf:.2f} L/min in "
                 f"{plan.phases[k].name}, under the set minimum of {s.sevoflurane_min_flow_long_l_min:g} L/min; "
-                f"follow local protocol and labelling", "labelling")
+                f"follow local protocol and labelling",
+                "labelling",
+            )
     if worst is not None:
-        add(f"{who}: predicted inspired O2 falls to {worst[0]:.0f} %, under the floor of {floor_pct:.0f} %: "
-            f"hypoxic mixture; raise the O2 share or the flow", "hazard")
+        add(
+            f"{who}: predicted inspired O2 falls to {worst[0]:.0f} %, under the floor of {floor_pct:.0f} %: "
+            f"hypoxic mixture; raise the O2 share or the flow",
+            "hazard",
+        )

@@ -1,6 +1,6 @@
 """Numbers, names and files as people read them, on every page and in every download.
 
-Builds on :mod:`model.io.readable` (headings in words with units, sensible significant
+Builds on :mod:`model.present.readable` (headings in words with units, sensible significant
 figures, problem kinds and GWP sources in words), which the HTML reports use too, and adds
 what only the pages need: ``table`` (``st.dataframe`` with readable headings, thousands
 separators and wide message columns) and ``plain_paths`` (messages name files as the user
@@ -12,15 +12,22 @@ from __future__ import annotations
 import os
 import re
 import tempfile
+from collections.abc import Mapping
 from pathlib import Path
-from typing import Mapping
 
 import numpy as np
 import pandas as pd
 import streamlit as st
 
-from model.io.readable import (column_label, gwp_label, is_money, number_text, problem_words,  # noqa: F401
-                               readable_frame, round_figure)
+from model.present.readable import (  # noqa: F401
+    column_label,
+    gwp_label,
+    is_money,
+    number_text,
+    problem_words,
+    readable_frame,
+    round_figure,
+)
 
 ROOT = Path(__file__).resolve().parents[1]
 
@@ -34,7 +41,8 @@ PIN_AFTER_COLUMNS = 7
 def column_config(df: pd.DataFrame) -> dict:
     """``st.dataframe`` column settings for a readable table: thousands separators (the
     reader's locale), whole numbers without decimals, small numbers to three figures, long
-    text columns wide."""
+    text columns wide.
+    """
     config = {}
     for col in df.columns:
         s = df[col]
@@ -59,8 +67,15 @@ def column_config(df: pd.DataFrame) -> dict:
     return config
 
 
-def table(df: pd.DataFrame, currency: str = "", *, key: str | None = None, config: Mapping | None = None,
-          first: tuple[str, ...] = (), **kwargs) -> None:
+def table(
+    df: pd.DataFrame,
+    currency: str = "",
+    *,
+    key: str | None = None,
+    config: Mapping | None = None,
+    first: tuple[str, ...] = (),
+    **kwargs,
+) -> None:
     """Show a result table for people (``st.dataframe`` of :func:`readable_frame`).
 
     ``first`` names columns (by their machine names) to show first, so the figures that
@@ -82,7 +97,8 @@ def table(df: pd.DataFrame, currency: str = "", *, key: str | None = None, confi
 def issue_messages(issues: pd.DataFrame) -> pd.DataFrame:
     """Set-aside rows for the page: line, problem, the message (without the file and line it
     starts with: they have columns of their own), then column, value and file, so the message
-    is in view at the left rather than cut off at the table's right edge."""
+    is in view at the left rather than cut off at the table's right edge.
+    """
     out = issues.copy()
     if "message" in out:
         out["message"] = out["message"].astype(str).str.replace(_LEADING_PLACE, "", regex=True)

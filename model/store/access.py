@@ -20,10 +20,10 @@ from __future__ import annotations
 
 import getpass
 import re
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
-from typing import Mapping, Sequence
 
-from model.errors import InputError
+from model.base.errors import InputError
 
 #: How the dashboard knows who the user is.
 SIGN_IN_MODES = ("off", "streamlit", "header")
@@ -55,7 +55,8 @@ class AccessConfig:
 @dataclass(frozen=True)
 class User:
     """Who is using the dashboard. ``id`` is what the editors list is matched against (the
-    e-mail of a Streamlit sign-in, the header's value); empty when no one is signed in."""
+    e-mail of a Streamlit sign-in, the header's value); empty when no one is signed in.
+    """
 
     id: str = ""
     name: str = ""
@@ -107,16 +108,20 @@ def access_config(data: Mapping | None, where: str = CONFIG_PLACE) -> AccessConf
     if not isinstance(header, str) or (header and not _HEADER_NAME.fullmatch(header)):
         raise InputError(f"{where}, identity_header", header, "expected a header name of letters, digits and -")
     if mode == "header" and not header:
-        raise InputError(f"{where}, identity_header", "", 'sign_in = "header" needs the header the proxy sets, '
-                         'e.g. identity_header = "X-Remote-User"')
+        raise InputError(
+            f"{where}, identity_header",
+            "",
+            'sign_in = "header" needs the header the proxy sets, e.g. identity_header = "X-Remote-User"',
+        )
     editors = data.get("editors", [])
     if not isinstance(editors, (list, tuple)) or not all(isinstance(e, str) and e.strip() for e in editors):
         raise InputError(f"{where}, editors", editors, "expected a list of user names or e-mail addresses")
     provider = data.get("provider", "")
     if not isinstance(provider, str):
         raise InputError(f"{where}, provider", provider, "expected the name of a provider in [auth]")
-    return AccessConfig(mode, header if mode == "header" else "",
-                        frozenset(_identity_key(e) for e in editors), provider.strip())
+    return AccessConfig(
+        mode, header if mode == "header" else "", frozenset(_identity_key(e) for e in editors), provider.strip()
+    )
 
 
 def _identity_key(text: str) -> str:
@@ -176,9 +181,12 @@ def may_edit_reference(config: AccessConfig, user: User) -> Permission:
     if not user.signed_in:
         return Permission(False, "Sign in to change the reference values; until then they are shown read-only.")
     if not is_editor(config, user):
-        return Permission(False, f"Only the department's editors change the reference values that everyone's "
-                                 f"figures are worked out with; {user.label} is not on the list. Ask an editor "
-                                 f"or the server's administrator.")
+        return Permission(
+            False,
+            f"Only the department's editors change the reference values that everyone's "
+            f"figures are worked out with; {user.label} is not on the list. Ask an editor "
+            f"or the server's administrator.",
+        )
     return Permission(True)
 
 

@@ -1,7 +1,7 @@
 """The house colours: one colour per agent, one ordered scale for flow bands, the theme's accents.
 
 Every page, chart and report takes its colours from here (the dashboard through
-``ui.palette``, which re-exports this module), so an agent has the same colour wherever it
+``model.present.palette``, which re-exports this module), so an agent has the same colour wherever it
 appears and the flow bands always run the same way. ``.streamlit/config.toml`` repeats the
 theme colours (Streamlit reads only that file); ``tests/test_config.py`` checks the two agree.
 """
@@ -12,9 +12,24 @@ from types import MappingProxyType
 
 from model.freshgas import FLOW_BAND_NAMES
 
-__all__ = ["AGENT_COLOURS", "AXIS", "CO2E_COLOUR", "COST_COLOUR", "DANGER", "FLOW_BAND_COLOURS", "GRID",
-           "LESS_COLOUR", "MORE_COLOUR", "MUTED", "NO_AGENT_COLOUR", "PALETTE", "PRIMARY", "TEXT", "agent_colour",
-           "rgba"]
+__all__ = [
+    "AGENT_COLOURS",
+    "AXIS",
+    "CO2E_COLOUR",
+    "COST_COLOUR",
+    "DANGER",
+    "FLOW_BAND_COLOURS",
+    "GRID",
+    "LESS_COLOUR",
+    "MORE_COLOUR",
+    "MUTED",
+    "NO_AGENT_COLOUR",
+    "PALETTE",
+    "PRIMARY",
+    "TEXT",
+    "agent_colour",
+    "rgba",
+]
 
 #: Accent of buttons, chips and focus rings: a calm teal-blue (never red, which means danger).
 PRIMARY = "#1f6b7a"
@@ -35,13 +50,15 @@ LESS_COLOUR = PALETTE[5]
 MORE_COLOUR = "#a8661c"
 
 #: One colour per agent on every page and export (nitrous oxide, a gas, in warm grey).
-AGENT_COLOURS = MappingProxyType({
-    "sevoflurane": PALETTE[0],
-    "desflurane": PALETTE[1],
-    "isoflurane": PALETTE[2],
-    "halothane": PALETTE[3],
-    "nitrous_oxide": PALETTE[4],
-})
+AGENT_COLOURS = MappingProxyType(
+    {
+        "sevoflurane": PALETTE[0],
+        "desflurane": PALETTE[1],
+        "isoflurane": PALETTE[2],
+        "halothane": PALETTE[3],
+        "nitrous_oxide": PALETTE[4],
+    }
+)
 #: Cases with no volatile agent (records with agent "none").
 NO_AGENT_COLOUR = "#b8c4ca"
 
@@ -50,8 +67,9 @@ NO_AGENT_COLOUR = "#b8c4ca"
 #: SRON technical note SRON/EPS/TN/09-002, issue 3.2 (2021), a scheme designed to stay
 #: ordered for colour-blind readers and in grey print. The palest steps are left out so the
 #: lowest band still shows on white.
-FLOW_BAND_COLOURS = MappingProxyType(dict(zip(
-    FLOW_BAND_NAMES, ("#FEE391", "#FEC44F", "#FB9A29", "#EC7014", "#CC4C02", "#993404"))))
+FLOW_BAND_COLOURS = MappingProxyType(
+    dict(zip(FLOW_BAND_NAMES, ("#FEE391", "#FEC44F", "#FB9A29", "#EC7014", "#CC4C02", "#993404")))
+)
 
 
 def agent_colour(agent: str) -> str:
@@ -62,5 +80,5 @@ def agent_colour(agent: str) -> str:
 def rgba(hex_colour: str, alpha: float) -> str:
     """A hex colour as CSS ``rgba(...)`` with the given opacity (for bands and fills)."""
     h = hex_colour.lstrip("#")
-    r, g, b = (int(h[i:i + 2], 16) for i in (0, 2, 4))
+    r, g, b = (int(h[i : i + 2], 16) for i in (0, 2, 4))
     return f"rgba({r},{g},{b},{alpha:g})"

@@ -2,7 +2,7 @@
 to sensible significant figures, problem kinds and GWP sources in words.
 
 One module for every page, report and spreadsheet: the pages show tables through
-``ui.format`` (which builds on this), and ``model.io.exports`` writes its HTML tables with
+``ui.tables`` (which builds on this), and ``model.present.exports`` writes its HTML tables with
 :func:`number_text`. Data keep their machine names inside the model; only what a person reads
 is renamed.
 """
@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import math
 import re
-from typing import Mapping
+from collections.abc import Mapping
 
 import numpy as np
 import pandas as pd
@@ -21,69 +21,150 @@ from model.reference import AGENTS, GWP_SOURCES, VOLATILES
 #: Column headings in words, with the unit in brackets. "{cur}" is the currency label.
 _LABELS: dict[str, str] = {
     # case plan: phases, time course, flow sweep
-    "phase": "phase", "duration_min": "duration (min)", "mode": "control",
-    "o2_l_min": "O2 flow (L/min)", "air_l_min": "air flow (L/min)", "n2o_l_min": "N2O flow (L/min)",
-    "fgf_l_min": "fresh gas flow (L/min)", "requested_fgf_l_min": "requested fresh gas flow (L/min)",
-    "flow_band": "flow band", "fd_o2_pct": "fresh gas O2 (%)", "fd_n2o_pct": "fresh gas N2O (%)",
-    "dial_pct": "vaporizer dial (%)", "mean_dial_pct": "mean vaporizer dial (%)",
-    "target_mac": "end-tidal target (x MAC)", "liquid_agent_ml": "liquid agent (mL)",
-    "agent_mass_g": "agent delivered (g)", "oxygen_l": "oxygen (L)", "air_l": "medical air (L)",
-    "nitrous_oxide_l": "nitrous oxide (L)", "co2e_kg": "CO2e (kg)", "co2e_total_kg": "CO2e, total (kg)",
-    "co2e_agent_kg": "CO2e, agent (kg)", "co2e_nitrous_oxide_kg": "CO2e, nitrous oxide (kg)",
-    "cost_total": "cost, total ({cur})", "cost_agent": "cost, agent ({cur})", "cost_gases": "cost, gases ({cur})",
-    "cost_absorbent": "cost, absorbent ({cur})", "cost_oxygen": "cost, oxygen ({cur})",
-    "cost_air": "cost, medical air ({cur})", "cost_nitrous_oxide": "cost, nitrous oxide ({cur})",
-    "cost_pro_rata": "cost, pro rata ({cur})", "mac_multiple": "MAC multiple", "mac_hours": "MAC-hours, dial-based",
-    "flows_altered": "mix altered by the ratio limit", "agent_uptake_g": "agent taken up (g)",
-    "agent_vented_g": "agent vented (g)", "agent_emitted_g": "agent emitted (g)",
-    "end_tidal_agent_pct": "end-tidal agent (%)", "inspired_agent_pct": "inspired agent (%)",
-    "end_tidal_mac": "end-tidal (x MAC)", "time_to_target_min": "time to target (min)",
+    "phase": "phase",
+    "duration_min": "duration (min)",
+    "mode": "control",
+    "o2_l_min": "O2 flow (L/min)",
+    "air_l_min": "air flow (L/min)",
+    "n2o_l_min": "N2O flow (L/min)",
+    "fgf_l_min": "fresh gas flow (L/min)",
+    "requested_fgf_l_min": "requested fresh gas flow (L/min)",
+    "flow_band": "flow band",
+    "fd_o2_pct": "fresh gas O2 (%)",
+    "fd_n2o_pct": "fresh gas N2O (%)",
+    "dial_pct": "vaporizer dial (%)",
+    "mean_dial_pct": "mean vaporizer dial (%)",
+    "target_mac": "end-tidal target (x MAC)",
+    "liquid_agent_ml": "liquid agent (mL)",
+    "agent_mass_g": "agent delivered (g)",
+    "oxygen_l": "oxygen (L)",
+    "air_l": "medical air (L)",
+    "nitrous_oxide_l": "nitrous oxide (L)",
+    "co2e_kg": "CO2e (kg)",
+    "co2e_total_kg": "CO2e, total (kg)",
+    "co2e_agent_kg": "CO2e, agent (kg)",
+    "co2e_nitrous_oxide_kg": "CO2e, nitrous oxide (kg)",
+    "cost_total": "cost, total ({cur})",
+    "cost_agent": "cost, agent ({cur})",
+    "cost_gases": "cost, gases ({cur})",
+    "cost_absorbent": "cost, absorbent ({cur})",
+    "cost_oxygen": "cost, oxygen ({cur})",
+    "cost_air": "cost, medical air ({cur})",
+    "cost_nitrous_oxide": "cost, nitrous oxide ({cur})",
+    "cost_pro_rata": "cost, pro rata ({cur})",
+    "mac_multiple": "MAC multiple",
+    "mac_hours": "MAC-hours, dial-based",
+    "flows_altered": "mix altered by the ratio limit",
+    "agent_uptake_g": "agent taken up (g)",
+    "agent_vented_g": "agent vented (g)",
+    "agent_emitted_g": "agent emitted (g)",
+    "end_tidal_agent_pct": "end-tidal agent (%)",
+    "inspired_agent_pct": "inspired agent (%)",
+    "end_tidal_mac": "end-tidal (x MAC)",
+    "time_to_target_min": "time to target (min)",
     "time_at_max_below_target_min": "time at the dial maximum below target (min)",
-    "min_inspired_o2_pct": "lowest inspired O2 (%)", "steady_inspired_o2_pct": "steady inspired O2 (%)",
-    "lowest_safe_fd_o2_pct": "lowest safe fresh gas O2 (%)", "rebreathed_pct": "rebreathed (%)",
-    "co2_absorbed_l": "CO2 absorbed (L)", "absorbent_g": "CO2 absorbent (g)", "absorbent_kg": "CO2 absorbent (kg)",
-    "time_min": "time (min)", "inspired_o2_pct": "inspired O2 (%)", "end_tidal_o2_pct": "end-tidal O2 (%)",
-    "inspired_n2o_pct": "inspired N2O (%)", "end_tidal_n2o_pct": "end-tidal N2O (%)",
-    "agent_uptake_ml_min": "agent uptake (mL vapour/min)", "agent_vented_ml_min": "agent vented (mL vapour/min)",
+    "min_inspired_o2_pct": "lowest inspired O2 (%)",
+    "steady_inspired_o2_pct": "steady inspired O2 (%)",
+    "lowest_safe_fd_o2_pct": "lowest safe fresh gas O2 (%)",
+    "rebreathed_pct": "rebreathed (%)",
+    "co2_absorbed_l": "CO2 absorbed (L)",
+    "absorbent_g": "CO2 absorbent (g)",
+    "absorbent_kg": "CO2 absorbent (kg)",
+    "time_min": "time (min)",
+    "inspired_o2_pct": "inspired O2 (%)",
+    "end_tidal_o2_pct": "end-tidal O2 (%)",
+    "inspired_n2o_pct": "inspired N2O (%)",
+    "end_tidal_n2o_pct": "end-tidal N2O (%)",
+    "agent_uptake_ml_min": "agent uptake (mL vapour/min)",
+    "agent_vented_ml_min": "agent vented (mL vapour/min)",
     "liquid_agent_cumulative_ml": "liquid agent, cumulative (mL)",
     "co2_absorbed_cumulative_l": "CO2 absorbed, cumulative (L)",
     "absorbent_used_cumulative_g": "CO2 absorbent used, cumulative (g)",
-    "o2_safe": "inspired O2 above the floor", "target_held": "depth held",
-    "sevoflurane_caution": "under the sevoflurane flow caution", "feasible": "candidate",
-    "agent_g": "agent (g)", "where": "where it went", "item": "item",
+    "o2_safe": "inspired O2 above the floor",
+    "target_held": "depth held",
+    "sevoflurane_caution": "under the sevoflurane flow caution",
+    "feasible": "candidate",
+    "agent_g": "agent (g)",
+    "where": "where it went",
+    "item": "item",
     # year
-    "case_type": "case type", "cases": "cases", "mean_duration_min": "mean duration (min)",
-    "liquid_ml": "liquid agent (mL)", "co2e_t": "CO2e (t)", "co2e_total_t": "CO2e, total (t)",
-    "deterministic": "expected", "p5": "P5", "p50": "P50", "p95": "P95",
-    "month": "month", "figure": "figure", "unit": "unit",
+    "case_type": "case type",
+    "cases": "cases",
+    "mean_duration_min": "mean duration (min)",
+    "liquid_ml": "liquid agent (mL)",
+    "co2e_t": "CO2e (t)",
+    "co2e_total_t": "CO2e, total (t)",
+    "deterministic": "expected",
+    "p5": "P5",
+    "p50": "P50",
+    "p95": "P95",
+    "month": "month",
+    "figure": "figure",
+    "unit": "unit",
     # record audit
-    "case_id": "case", "agent": "agent", "theatre": "theatre", "start": "start", "samples": "samples",
-    "minutes": "minutes", "gaps": "gaps", "gap_min": "gap time not counted (min)",
-    "end_tidal_basis_min": "time from end-tidal only (min)", "longest_high_flow_min": "longest high-flow run (min)",
-    "bottles": "bottles", "nitrous_oxide_g": "nitrous oxide (g)", "nitrous_oxide_emitted_g": "nitrous oxide emitted (g)",
-    "high_flow_flag": "long high-flow run", "high_flow_cases": "cases with a long high-flow run",
-    "mean_fgf_l_min": "mean fresh gas flow (L/min)", "liquid_agent_ml_per_case": "liquid agent per case (mL)",
-    "co2e_kg_per_case": "CO2e per case (kg)", "row": "line or row", "kind": "problem", "column": "column",
-    "value": "value", "message": "message", "file": "file",
-    "purchased": "purchased", "recorded": "recorded", "unexplained": "unexplained",
-    "unexplained_share": "unexplained share (%)", "unexplained_co2e_kg": "CO2e unexplained (kg)",
-    "apparent_loss": "apparent loss", "has_records": "month has records",
+    "case_id": "case",
+    "agent": "agent",
+    "theatre": "theatre",
+    "start": "start",
+    "samples": "samples",
+    "minutes": "minutes",
+    "gaps": "gaps",
+    "gap_min": "gap time not counted (min)",
+    "end_tidal_basis_min": "time from end-tidal only (min)",
+    "longest_high_flow_min": "longest high-flow run (min)",
+    "bottles": "bottles",
+    "nitrous_oxide_g": "nitrous oxide (g)",
+    "nitrous_oxide_emitted_g": "nitrous oxide emitted (g)",
+    "high_flow_flag": "long high-flow run",
+    "high_flow_cases": "cases with a long high-flow run",
+    "mean_fgf_l_min": "mean fresh gas flow (L/min)",
+    "liquid_agent_ml_per_case": "liquid agent per case (mL)",
+    "co2e_kg_per_case": "CO2e per case (kg)",
+    "row": "line or row",
+    "kind": "problem",
+    "column": "column",
+    "value": "value",
+    "message": "message",
+    "file": "file",
+    "purchased": "purchased",
+    "recorded": "recorded",
+    "unexplained": "unexplained",
+    "unexplained_share": "unexplained share (%)",
+    "unexplained_co2e_kg": "CO2e unexplained (kg)",
+    "apparent_loss": "apparent loss",
+    "has_records": "month has records",
     "purchased_with_records": "purchased, months with records",
     "recorded_with_records": "recorded, months with records",
     "unexplained_share_with_records": "unexplained share, months with records (%)",
-    "purchased_cost": "purchased cost", "recorded_cost": "recorded cost", "unexplained_cost": "unexplained cost",
-    "time_weighted_fgf_l_min": "time-weighted fresh gas flow (L/min)", "safety": "safety",
+    "purchased_cost": "purchased cost",
+    "recorded_cost": "recorded cost",
+    "unexplained_cost": "unexplained cost",
+    "time_weighted_fgf_l_min": "time-weighted fresh gas flow (L/min)",
+    "safety": "safety",
     "end_tidal_mac_hours": "MAC-hours, end-tidal",
     # reference
-    "basis": "basis", "source": "source", "default": "default (before your value)", "default_source": "source of the default",
+    "basis": "basis",
+    "source": "source",
+    "default": "default (before your value)",
+    "default_source": "source of the default",
     # emissions report: by month and site, use against purchases
-    "t_co2e_agent": "volatile agents (t CO2e)", "t_co2e_n2o": "nitrous oxide (t CO2e)", "t_co2e": "total (t CO2e)",
-    "kg_co2e_per_case": "per case (kg CO2e)", "kg_co2e_per_hour": "per anaesthetic hour (kg CO2e)",
-    "emitted_kg": "emitted (kg)", "use_kg": "used (kg)", "purchase_kg": "purchased (kg)", "gap_kg": "gap (kg)",
-    "gap_share": "gap, share of purchased (%)", "use_t_co2e": "use-based (t CO2e)",
-    "purchase_t_co2e": "purchase-based (t CO2e)", "gap_t_co2e": "gap (t CO2e)",
-    "use_based_t_co2e": "use-based (t CO2e)", "purchase_based_t_co2e": "purchase-based (t CO2e)",
-    "co2e_share": "share of CO2e (%)", "hours": "anaesthetic hours (h)",
+    "t_co2e_agent": "volatile agents (t CO2e)",
+    "t_co2e_n2o": "nitrous oxide (t CO2e)",
+    "t_co2e": "total (t CO2e)",
+    "kg_co2e_per_case": "per case (kg CO2e)",
+    "kg_co2e_per_hour": "per anaesthetic hour (kg CO2e)",
+    "emitted_kg": "emitted (kg)",
+    "use_kg": "used (kg)",
+    "purchase_kg": "purchased (kg)",
+    "gap_kg": "gap (kg)",
+    "gap_share": "gap, share of purchased (%)",
+    "use_t_co2e": "use-based (t CO2e)",
+    "purchase_t_co2e": "purchase-based (t CO2e)",
+    "gap_t_co2e": "gap (t CO2e)",
+    "use_based_t_co2e": "use-based (t CO2e)",
+    "purchase_based_t_co2e": "purchase-based (t CO2e)",
+    "co2e_share": "share of CO2e (%)",
+    "hours": "anaesthetic hours (h)",
 }
 for _a in VOLATILES:
     _name = AGENTS[_a].label
@@ -100,17 +181,43 @@ _PERCENT_SHARES = ("unexplained_share", "unexplained_share_with_records", "gap_s
 
 #: Problem kinds of the records check (``model.io.record_report.ISSUE_KINDS``) in words.
 PROBLEM_WORDS: Mapping[str, str] = {
-    "encoding": "not UTF-8 text", "field_count": "wrong number of fields", "unreadable": "unreadable line",
-    "text_in_number": "text in a number column", "bad_time": "time not readable",
-    "missing_value": "required value missing", "unknown_agent": "unknown agent",
-    "negative_flow": "negative flow", "absurd_flow": "flow out of range", "absurd_setting": "dial or end-tidal out of range",
-    "duplicate_time": "time repeated", "time_backwards": "time goes backwards",
+    "encoding": "not UTF-8 text",
+    "field_count": "wrong number of fields",
+    "unreadable": "unreadable line",
+    "text_in_number": "text in a number column",
+    "bad_time": "time not readable",
+    "missing_value": "required value missing",
+    "unknown_agent": "unknown agent",
+    "negative_flow": "negative flow",
+    "absurd_flow": "flow out of range",
+    "absurd_setting": "dial or end-tidal out of range",
+    "duplicate_time": "time repeated",
+    "time_backwards": "time goes backwards",
 }
 
-_WORDS = {"co2e": "CO2e", "co2": "CO2", "o2": "O2", "n2o": "N2O", "fgf": "fresh gas flow", "mac": "MAC",
-          "fd": "fresh gas", "pct": "%", "gwp": "GWP"}
-_UNITS = (("_l_min", "L/min"), ("_ml_min", "mL/min"), ("_ml", "mL"), ("_kg", "kg"), ("_g", "g"), ("_l", "L"),
-          ("_min", "min"), ("_pct", "%"), ("_t", "t"), ("_h", "h"))
+_WORDS = {
+    "co2e": "CO2e",
+    "co2": "CO2",
+    "o2": "O2",
+    "n2o": "N2O",
+    "fgf": "fresh gas flow",
+    "mac": "MAC",
+    "fd": "fresh gas",
+    "pct": "%",
+    "gwp": "GWP",
+}
+_UNITS = (
+    ("_l_min", "L/min"),
+    ("_ml_min", "mL/min"),
+    ("_ml", "mL"),
+    ("_kg", "kg"),
+    ("_g", "g"),
+    ("_l", "L"),
+    ("_min", "min"),
+    ("_pct", "%"),
+    ("_t", "t"),
+    ("_h", "h"),
+)
 
 
 def column_label(name, currency: str = "") -> str:
@@ -129,7 +236,7 @@ def column_label(name, currency: str = "") -> str:
     unit = ""
     for suffix, u in _UNITS:
         if text.endswith(suffix) and len(text) > len(suffix):
-            text, unit = text[:-len(suffix)], u
+            text, unit = text[: -len(suffix)], u
             break
     if _MONEY.match(str(name)):
         unit = cur
@@ -151,7 +258,8 @@ def gwp_label(key) -> str:
 
 def decimals(value: float, money: bool = False) -> int:
     """Decimals that show a figure to sensible precision: four significant figures from 1 to
-    1000, three under 1, whole numbers from 1000, two decimals for money."""
+    1000, three under 1, whole numbers from 1000, two decimals for money.
+    """
     if money:
         return 2
     v = abs(float(value))
@@ -171,7 +279,7 @@ def round_figure(value, money: bool = False):
         return value
     if isinstance(value, (int, np.integer)):
         return int(value)
-    return round(v, decimals(v, money)) + 0.0     # + 0.0: no "-0.0"
+    return round(v, decimals(v, money)) + 0.0  # + 0.0: no "-0.0"
 
 
 def round_figures(values, money: bool = False) -> np.ndarray:
@@ -184,14 +292,15 @@ def round_figures(values, money: bool = False) -> np.ndarray:
         mag = np.floor(np.log10(np.where(a > 0, a, 1.0)))
     d = np.where(a >= 1000, 0, np.where(a >= 1, np.maximum(0, 3 - mag), np.minimum(2 - mag, 12)))
     d = np.where(np.isfinite(v) & (a > 0), d, 0).astype(int)
-    scale = 10.0 ** d
+    scale = 10.0**d
     out = np.round(v * scale) / scale
     return np.where(np.isfinite(v), out, v) + 0.0
 
 
 def number_text(value, money: bool = False) -> str:
     """A figure as text with thousands separators: ``3080.0`` -> "3,080",
-    ``23.799988848217595`` -> "23.8", ``5.999999999999997`` -> "6", money with two decimals."""
+    ``23.799988848217595`` -> "23.8", ``5.999999999999997`` -> "6", money with two decimals.
+    """
     if value is None or isinstance(value, (bool, np.bool_)):
         return "" if value is None else ("yes" if value else "no")
     v = float(value)
@@ -204,7 +313,7 @@ def number_text(value, money: bool = False) -> str:
     if not money and "." in text:
         text = text.rstrip("0").rstrip(".")
     if text.startswith("-") and not text.strip("-0.,"):
-        text = text[1:]          # no "-0" or "-0.00"
+        text = text[1:]  # no "-0" or "-0.00"
     return text or "0"
 
 
@@ -232,12 +341,18 @@ def readable_frame(df: pd.DataFrame, currency: str = "", *, rename: bool = True)
             pass
         elif pd.api.types.is_float_dtype(s):
             finite = s[np.isfinite(s.to_numpy(dtype=float, na_value=np.nan))]
-            if len(finite) and (finite == finite.round()).all() and s.notna().all() and not is_money(col) \
-                    and finite.abs().max() < 2 ** 53:
+            if (
+                len(finite)
+                and (finite == finite.round()).all()
+                and s.notna().all()
+                and not is_money(col)
+                and finite.abs().max() < 2**53
+            ):
                 s = s.round().astype("int64")
             else:
-                s = pd.Series(round_figures(s.to_numpy(dtype=float, na_value=np.nan), is_money(col)),
-                              index=s.index, name=s.name)
+                s = pd.Series(
+                    round_figures(s.to_numpy(dtype=float, na_value=np.nan), is_money(col)), index=s.index, name=s.name
+                )
         elif str(col) == "kind":
             s = s.map(problem_words)
         elif str(col) in ("gwp_source", "gwp"):

@@ -8,8 +8,8 @@ compared with the one before it, value by value.
 from __future__ import annotations
 
 import json
+from collections.abc import Iterable
 from dataclasses import dataclass
-from typing import Iterable
 
 from model.reference import Reference
 
@@ -75,7 +75,8 @@ def reference_changes(versions: Iterable) -> list[Change]:
 
 def default_value(reference: Reference, path: str):
     """The built-in value a dotted overrides path replaces (None where there is none, as for
-    user GWP values), so the change log can say "from the default 0.3" instead of "default"."""
+    user GWP values), so the change log can say "from the default 0.3" instead of "default".
+    """
     parts = path.split(".")
     try:
         if parts[0] == "prices" and len(parts) == 3 and parts[1] == "bottle":

@@ -6,7 +6,7 @@ import re
 import tomllib
 from pathlib import Path
 
-from model.errors import InputError
+from model.base.errors import InputError
 
 
 def shown_path(path) -> str:
@@ -75,26 +75,33 @@ def read_user_text(path, kind: str, max_bytes: int, fmt: str = "TOML", encoding:
     except InputError:
         raise  # (a ValueError too: not to be taken for a NUL in the path below)
     except FileNotFoundError:
-        raise InputError(label, shown_path(p), f"no such file (it does not exist); give the path of a {fmt} {kind} file") from None
+        raise InputError(
+            label, shown_path(p), f"no such file (it does not exist); give the path of a {fmt} {kind} file"
+        ) from None
     except IsADirectoryError:
         raise InputError(label, shown_path(p), f"that is a folder; give the path of a {fmt} {kind} file") from None
     except UnicodeDecodeError:
         raise InputError(label, shown_path(p), f"not UTF-8 text; a {kind} file is {fmt} text") from None
     except OSError as exc:
-        raise InputError(label, shown_path(p), f"cannot be read ({exc.strerror}); give a readable {fmt} {kind} file") from None
+        raise InputError(
+            label, shown_path(p), f"cannot be read ({exc.strerror}); give a readable {fmt} {kind} file"
+        ) from None
     except ValueError:  # a NUL character in the path (UnicodeDecodeError is caught above)
-        raise InputError(label, shown_path(p), f"the path holds a NUL character; give the path of a {fmt} {kind} file") from None
+        raise InputError(
+            label, shown_path(p), f"the path holds a NUL character; give the path of a {fmt} {kind} file"
+        ) from None
 
 
-def toml_error(source: str, exc: Exception,
-               allowed: str = "the file is not valid TOML (see the plan format in docs/formats.md)") -> InputError:
+def toml_error(
+    source: str, exc: Exception, allowed: str = "the file is not valid TOML (see the plan format in docs/formats.md)"
+) -> InputError:
     """One-line InputError for malformed TOML, naming the file, line and column."""
     text = " ".join(str(exc).split())
     match = re.search(r"\s*\(at line (\d+), column (\d+)\)", text)
     where = source
     if match:
         where = f"{source} (line {match.group(1)}, column {match.group(2)})"
-        text = text[:match.start()] + text[match.end():]
+        text = text[: match.start()] + text[match.end() :]
     return InputError(where, text.strip() or "malformed text", allowed)
 
 
@@ -103,8 +110,12 @@ def toml_error(source: str, exc: Exception,
 MAX_TOML_DEPTH = 8
 
 
-def parse_toml(text: str, source: str, kind: str,
-               allowed: str = "the file is not valid TOML (see the plan format in docs/formats.md)") -> dict:
+def parse_toml(
+    text: str,
+    source: str,
+    kind: str,
+    allowed: str = "the file is not valid TOML (see the plan format in docs/formats.md)",
+) -> dict:
     """Parse a user's TOML text, refusing nesting deeper than :data:`MAX_TOML_DEPTH`.
 
     The one TOML guard of the project: the upload check (pages) and the file readers
@@ -131,12 +142,14 @@ def parse_toml(text: str, source: str, kind: str,
     except tomllib.TOMLDecodeError as exc:
         raise toml_error(source, exc, allowed) from None
     except RecursionError:
-        raise InputError(source, "nesting too deep",
-                         f"tables and arrays nest at most {MAX_TOML_DEPTH} deep in a {kind} file") from None
+        raise InputError(
+            source, "nesting too deep", f"tables and arrays nest at most {MAX_TOML_DEPTH} deep in a {kind} file"
+        ) from None
     depth = toml_depth(data)
     if depth > MAX_TOML_DEPTH:
-        raise InputError(source, f"nesting {depth} deep",
-                         f"tables and arrays nest at most {MAX_TOML_DEPTH} deep in a {kind} file")
+        raise InputError(
+            source, f"nesting {depth} deep", f"tables and arrays nest at most {MAX_TOML_DEPTH} deep in a {kind} file"
+        )
     return data
 
 

@@ -8,7 +8,7 @@ import re
 
 import pint
 
-from model.errors import InputError
+from model.base.errors import InputError
 
 
 @functools.lru_cache(maxsize=1)
@@ -40,7 +40,7 @@ def one_number_and_unit(text: str) -> bool:
     m = _LEADING_NUMBER.match(text)
     if not m:
         return False
-    unit = _SMALL_POWER.sub("", text[m.end():])
+    unit = _SMALL_POWER.sub("", text[m.end() :])
     return not any(ch.isdigit() for ch in unit) and "(" not in unit
 
 
@@ -131,8 +131,9 @@ def _convert(value, unit: str, default_unit: str) -> float:
     return number
 
 
-def check_range(number: float, field: str, low: float, high: float, unit: str,
-                low_open: bool = False, typed=None) -> float:
+def check_range(
+    number: float, field: str, low: float, high: float, unit: str, low_open: bool = False, typed=None
+) -> float:
     """Return ``number`` if it lies in [low, high] (or (low, high]), else raise InputError.
 
     ``typed`` is what the user wrote (e.g. ``"900000 mL/min"``); the message quotes it and

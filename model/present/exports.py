@@ -13,14 +13,13 @@ import html
 import io
 import math
 import re
-from datetime import datetime, timezone
-from typing import Iterable, Mapping, Sequence
+from collections.abc import Iterable, Mapping, Sequence
+from datetime import UTC, datetime
 
 import numpy as np
 import pandas as pd
 
-from model.io.readable import column_label, is_money, number_text, readable_frame
-
+from model.present.readable import column_label, is_money, number_text, readable_frame
 
 #: Characters that make a spreadsheet read a cell as a formula.
 FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
@@ -65,7 +64,7 @@ def _sheet_title(name: str, used: set) -> str:
     base, n = title, 2
     while title.lower() in used:
         suffix = f" ({n})"
-        title = base[:31 - len(suffix)] + suffix
+        title = base[: 31 - len(suffix)] + suffix
         n += 1
     used.add(title.lower())
     return title
@@ -113,7 +112,7 @@ def to_xlsx(sheets: Mapping[str, pd.DataFrame], notes: Sequence[str] = ()) -> by
         for cell_row in ws.iter_rows(min_row=1):
             for cell in cell_row:
                 if isinstance(cell.value, str):
-                    cell.data_type = "s"   # never a formula, whatever the text
+                    cell.data_type = "s"  # never a formula, whatever the text
         for i, col in enumerate(df.columns, start=1):
             width = max([len(str(col))] + [len(str(v)) for v in df[col].head(200)]) + 2
             ws.column_dimensions[ws.cell(1, i).column_letter].width = min(60, max(8, width))
@@ -168,8 +167,8 @@ def _table_html(df: pd.DataFrame) -> str:
         first, rest = df.columns[:1], list(df.columns[1:])
         step = MAX_REPORT_COLUMNS - 1
         n = -(-len(rest) // step)
-        step = -(-len(rest) // n)          # parts of even width
-        return "".join(_table_part(df[list(first) + rest[i:i + step]]) for i in range(0, len(rest), step))
+        step = -(-len(rest) // n)  # parts of even width
+        return "".join(_table_part(df[list(first) + rest[i : i + step]]) for i in range(0, len(rest), step))
     return _table_part(df)
 
 
@@ -190,8 +189,7 @@ def _table_part(df: pd.DataFrame) -> str:
                 cells.append(f"<td>{html.escape(str(v))}</td>")
         rows.append("<tr>" + "".join(cells) + "</tr>")
     # On a screen narrower than the table, it scrolls inside its own box, never the page.
-    return (f"<div class='table-wrap'><table><thead><tr>{head}</tr></thead>"
-            f"<tbody>{''.join(rows)}</tbody></table></div>")
+    return f"<div class='table-wrap'><table><thead><tr>{head}</tr></thead><tbody>{''.join(rows)}</tbody></table></div>"
 
 
 def _report_figure(fig):
@@ -208,14 +206,22 @@ def _report_figure(fig):
     return out
 
 
-def html_report(title: str, *, inputs: Mapping[str, object] | None = None,
-                tables: Mapping[str, pd.DataFrame] | None = None,
-                figures: Iterable[tuple[str, object]] = (),
-                warnings: Sequence[str] = (), cautions: Sequence[str] = (),
-                sources: pd.DataFrame | None = None, generated_by: str = "Fresh Gas Ledger",
-                headline: str = "", summary: Sequence[str] = (),
-                sections: Mapping[str, Sequence[str]] | None = None, figures_first: bool = False,
-                currency: str = "") -> str:
+def html_report(
+    title: str,
+    *,
+    inputs: Mapping[str, object] | None = None,
+    tables: Mapping[str, pd.DataFrame] | None = None,
+    figures: Iterable[tuple[str, object]] = (),
+    warnings: Sequence[str] = (),
+    cautions: Sequence[str] = (),
+    sources: pd.DataFrame | None = None,
+    generated_by: str = "Fresh Gas Ledger",
+    headline: str = "",
+    summary: Sequence[str] = (),
+    sections: Mapping[str, Sequence[str]] | None = None,
+    figures_first: bool = False,
+    currency: str = "",
+) -> str:
     """A self-contained HTML report: inputs, tables, charts, warnings, cautions, sources.
 
     Parameters
@@ -240,7 +246,7 @@ def html_report(title: str, *, inputs: Mapping[str, object] | None = None,
         Charts before the tables (after the inputs) rather than after them.
     currency : str
         Currency label for the headings of cost columns. Tables are shown for people
-        (``model.io.readable.readable_frame``: headings in words with units, figures to
+        (``model.present.readable.readable_frame``: headings in words with units, figures to
         sensible significant figures).
 
     Returns
@@ -249,11 +255,13 @@ def html_report(title: str, *, inputs: Mapping[str, object] | None = None,
         The HTML document.
     """
     e = html.escape
-    parts = [f"<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>"
-             f"<meta name='viewport' content='width=device-width, initial-scale=1'>"
-             f"<title>{e(str(title))}</title><style>{_CSS}</style></head><body>",
-             f"<h1>{e(str(title))}</h1>",
-             f"<p class='meta'>{e(generated_by)}, {datetime.now(timezone.utc):%Y-%m-%d %H:%M} UTC</p>"]
+    parts = [
+        f"<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>"
+        f"<meta name='viewport' content='width=device-width, initial-scale=1'>"
+        f"<title>{e(str(title))}</title><style>{_CSS}</style></head><body>",
+        f"<h1>{e(str(title))}</h1>",
+        f"<p class='meta'>{e(generated_by)}, {datetime.now(UTC):%Y-%m-%d %H:%M} UTC</p>",
+    ]
     if headline:
         parts.append(f"<p class='headline' id='headline'>{e(str(headline))}</p>")
     parts.extend(f"<p>{e(str(p))}</p>" for p in summary)
@@ -275,9 +283,16 @@ def html_report(title: str, *, inputs: Mapping[str, object] | None = None,
         if fig is None:
             continue
         figure_parts.append(f"<h2>{e(str(heading))}</h2>")
-        figure_parts.append("<div class='figure'>" + _report_figure(fig).to_html(
-            full_html=False, include_plotlyjs=True if first else False, default_width="100%",
-            config={"displaylogo": False, "responsive": True}) + "</div>")
+        figure_parts.append(
+            "<div class='figure'>"
+            + _report_figure(fig).to_html(
+                full_html=False,
+                include_plotlyjs=True if first else False,
+                default_width="100%",
+                config={"displaylogo": False, "responsive": True},
+            )
+            + "</div>"
+        )
         first = False
     parts.extend(figure_parts + table_parts if figures_first else table_parts + figure_parts)
     for heading, paragraphs in (sections or {}).items():

@@ -1,0 +1,216 @@
+"""The store in an SQLite file: connections, the write transaction, backups, and the read-only check
+of a file before anything opens it.
+"""
+
+from __future__ import annotations
+
+import os
+import sqlite3
+import tempfile
+from collections.abc import Iterator
+from contextlib import contextmanager
+from pathlib import Path
+
+from model.store.schema import _REQUIRED, BUSY_TIMEOUT_MS, SCHEMA_VERSION, STORE_ENV, StoreError, _ignored
+
+
+class _SQLite:
+    """An SQLite file: a new connection per operation (cheap), WAL set once per Store."""
+
+    dialect = "sqlite"
+    for_update = ""
+
+    def __init__(self, path: Path):
+        self.path = path
+        self.where = str(path)
+        try:
+            self.path.parent.mkdir(parents=True, exist_ok=True)
+        except OSError as exc:
+            raise StoreError("store file", str(self.path), f"its folder cannot be made ({exc.strerror})") from None
+        self._wal = False
+
+    def _foreign(self, exc) -> StoreError:
+        return StoreError(
+            "store file",
+            str(self.path),
+            f"is not a Fresh Gas Ledger store ({exc}); set {STORE_ENV} to another file or move this one aside",
+        )
+
+    def _connect(self, setup: bool = True) -> sqlite3.Connection:
+        try:
+            con = sqlite3.connect(self.path, timeout=BUSY_TIMEOUT_MS / 1000, isolation_level=None)
+        except (OSError, sqlite3.Error) as exc:
+            raise StoreError("store file", str(self.path), f"cannot be opened ({exc})") from None
+        try:
+            con.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS}")
+            if not setup:  # only look: a foreign file must stay byte for byte as it was
+                return con
+            if not self._wal:  # WAL is a property of the file: set it once per Store
+                con.execute("PRAGMA journal_mode = WAL")
+                self._wal = True
+            con.execute("PRAGMA synchronous = FULL")
+            con.execute("PRAGMA foreign_keys = ON")
+        except sqlite3.DatabaseError as exc:
+            con.close()
+            raise self._foreign(exc) from None
+        return con
+
+    @contextmanager
+    def read(self, setup: bool = True) -> Iterator[sqlite3.Connection]:
+        con = self._connect(setup)
+        try:
+            yield con
+        except sqlite3.DatabaseError as exc:
+            # A page damaged past what the opening check reads: one line, never a traceback.
+            if isinstance(exc, sqlite3.OperationalError) and "locked" in str(exc):
+                raise
+            raise StoreError("store file", str(self.path), f"is damaged ({exc}); nothing was changed by this "
+                             f"request; restore it from a backup or set {STORE_ENV} to another file") from None
+        finally:
+            con.close()
+
+    @contextmanager
+    def write(self) -> Iterator[sqlite3.Connection]:
+        """One write transaction, taken at once, so writers queue rather than deadlock."""
+        with self.read() as con:
+            con.execute("BEGIN IMMEDIATE")
+            try:
+                yield con
+            except BaseException:
+                con.execute("ROLLBACK")
+                raise
+            con.execute("COMMIT")
+
+    def tables(self, con) -> set[str]:
+        try:
+            return {r[0] for r in con.execute("SELECT name FROM sqlite_master WHERE type = 'table'")}
+        except sqlite3.DatabaseError as exc:
+            raise self._foreign(exc) from None
+
+    def lock_store(self, con) -> None:
+        """The write transaction already holds the whole file."""
+
+    def backup(self, con, found: int) -> Path:
+        """Copy the store beside itself (kept; the way back from a migration).
+
+        Runs while the migration's write transaction holds the file, so the copy is the
+        state being migrated; read through a second connection (SQLite's backup from the
+        writing connection itself would wait forever), written to a temporary name in the
+        same folder, then renamed.
+        """
+        suffix = f".schema{found}.bak"
+        target = self.path.with_name(self.path.name + suffix)
+        n = 1
+        while target.exists():
+            target = self.path.with_name(f"{self.path.name}{suffix}.{n}")
+            n += 1
+        fd, tmp = tempfile.mkstemp(prefix=target.name + ".", suffix=".tmp", dir=self.path.parent)
+        os.close(fd)
+        try:
+            with self.read() as src:
+                _copy_database(src, Path(tmp))
+            os.replace(tmp, target)
+        except BaseException:
+            with _ignored(OSError):
+                os.unlink(tmp)
+            raise
+        return target
+
+    def integrity(self, con) -> str:
+        return con.execute("PRAGMA integrity_check").fetchone()[0]
+
+    def close(self) -> None:
+        """Nothing stays open between operations."""
+
+
+def _copy_database(src: sqlite3.Connection, target: Path) -> None:
+    """Copy an open database to a new file, flushed to disk."""
+    dst = sqlite3.connect(target)
+    try:
+        src.backup(dst)
+    finally:
+        dst.close()
+    with open(target, "rb+") as fh:
+        os.fsync(fh.fileno())
+
+
+def check_store_file(path: str | os.PathLike) -> int:
+    """Check, read-only, that a file is a store of ours before anything else opens it.
+
+    Parameters
+    ----------
+    path : str or PathLike
+        The store file.
+
+    Returns
+    -------
+    int
+        0 for a file that does not exist yet, is empty or holds no table (a new store);
+        else its schema version (a newer one than this program's is returned as found).
+
+    Raises
+    ------
+    StoreError
+        One line, for anything that is not a valid store of ours: not an SQLite file,
+        damaged (SQLite's ``quick_check`` of every page), names that are not UTF-8, a ``meta`` table of another layout, no schema
+        version, or a table or column of its version missing. The file is opened
+        read-only and left byte for byte as it was.
+    """
+    p = Path(path)
+
+    def refuse(why: str) -> StoreError:
+        return StoreError("store file", str(p), f"{why}; set {STORE_ENV} to another file or move this one aside")
+
+    try:
+        if not p.exists() or p.stat().st_size == 0:
+            return 0
+        from urllib.parse import quote
+
+        con = sqlite3.connect(
+            f"file:{quote(str(p.resolve()))}?mode=ro", uri=True, timeout=BUSY_TIMEOUT_MS / 1000, isolation_level=None
+        )
+    except (OSError, ValueError, sqlite3.Error) as exc:
+        raise refuse(f"cannot be opened ({exc})") from None
+    con.text_factory = bytes  # names and values that are not UTF-8 must not raise
+
+    def text(value) -> str:
+        return value.decode("utf-8", errors="replace") if isinstance(value, bytes) else str(value)
+
+    try:
+        tables = {text(r[0]) for r in con.execute("SELECT name FROM sqlite_master WHERE type = 'table'")}
+        if not tables:
+            return 0
+        if "meta" not in tables:
+            raise refuse(f"is an SQLite file of another program (tables: {', '.join(sorted(tables)[:5])})")
+        columns = {
+            t: {text(r[1]) for r in con.execute(f'PRAGMA table_info("{t}")')} for t in tables if t.isidentifier()
+        }
+        if not {"key", "value"} <= columns.get("meta", set()):
+            raise refuse("is not a Fresh Gas Ledger store (its meta table has another layout)")
+        row = con.execute("SELECT value FROM meta WHERE key = 'schema_version'").fetchone()
+        if row is None:
+            raise refuse("is not a Fresh Gas Ledger store (no schema version)")
+        try:
+            version = int(text(row[0]))
+        except ValueError:
+            raise refuse(f"has an unreadable schema version {text(row[0])[:20]!r}") from None
+        if version < 1:
+            raise refuse(f"has an unreadable schema version {version}")
+        for table, needed in _REQUIRED.get(version, {}).items():
+            missing = needed - columns.get(table, set())
+            if missing:
+                what = (
+                    f"table '{table}'"
+                    if table not in columns
+                    else f"column(s) {', '.join(sorted(missing))} of table '{table}'"
+                )
+                raise refuse(f"is a damaged store (schema {version} without its {what})")
+        if version <= SCHEMA_VERSION:  # pages and indexes sound (reads every page once)
+            found = text(con.execute("PRAGMA quick_check(1)").fetchone()[0])
+            if found != "ok":
+                raise refuse(f"is a damaged store ({found[:120]})")
+        return version
+    except sqlite3.Error as exc:
+        raise refuse(f"is not a Fresh Gas Ledger store ({exc})") from None
+    finally:
+        con.close()
