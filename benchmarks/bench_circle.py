@@ -7,11 +7,14 @@ on a sample of the cases, and reports the wall time, the ratio, and the peak mem
 (tracemalloc and the process's maximum resident size). Goal: under 2 s for the 10,000 cases
 and under 1 GB of memory. No assertions (speed goals are reported, never tested).
 
-    .venv/bin/python benchmarks/bench_circle.py [cases] [loop_sample]
+    .venv/bin/python benchmarks/bench_circle.py [--cases 10000] [--loop-sample 200] [--tiny] [--results DIR]
+
+Writes its figures to benchmarks/results/bench_circle.json (benchmarks/benchresults.py).
 """
 
 from __future__ import annotations
 
+import argparse
 import resource
 import statistics
 import sys
@@ -23,6 +26,9 @@ import numpy as np
 
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
+sys.path.insert(0, str(ROOT / "benchmarks"))
+
+import benchresults  # noqa: E402
 
 from model.case import simulation_totals  # noqa: E402
 from model.circle import simulate_cases  # noqa: E402
@@ -71,9 +77,14 @@ def run_loop(agent, cases, k):
     return np.array(out)
 
 
-def main(argv):
-    n = int(argv[1]) if len(argv) > 1 else CASES
-    k = int(argv[2]) if len(argv) > 2 else LOOP_SAMPLE
+def main(argv=None) -> int:
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--cases", type=int, default=CASES)
+    ap.add_argument("--loop-sample", type=int, default=LOOP_SAMPLE)
+    benchresults.add_arguments(ap)
+    args = ap.parse_args(argv)
+    n, k = (50, 3) if args.tiny else (args.cases, min(args.loop_sample, args.cases))
+    run = benchresults.new_run({"two-hour cases": n, "cases in the per-case loop": k}, args.tiny)
     agent = DEFAULT_REFERENCE.volatile("sevoflurane")
     cases = make_cases(n)
     run_vectorised(agent, make_cases(50))  # warm-up (imports, caches)
@@ -104,7 +115,18 @@ def main(argv):
         f"peak traced memory: {peak / 2**20:.0f} MiB; process max RSS "
         f"{resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024:.0f} MiB (goal under 1 GB)"
     )
+    benchresults.figure(run, "vectorised, median", vec, "s", goal=GOAL_S)
+    benchresults.figure(run, "vectorised, best", min(times), "s")
+    benchresults.figure(run, "per-case loop, per case", loop_per_case * 1000, "ms")
+    benchresults.figure(run, "relative difference loop vs vectorised (liquid agent)", agree, "1")
+    benchresults.figure(run, "peak traced memory", peak / 2**20, "MiB", goal=1024)
+    benchresults.figure(run, "process max RSS", resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024, "MiB")
+    benchresults.ratio(
+        run, "per-case loop (projected to all cases) / vectorised", loop_per_case * n / vec, "per-case loop"
+    )
+    benchresults.finish("bench_circle", run, args.results)
+    return 0
 
 
 if __name__ == "__main__":
-    main(sys.argv)
+    sys.exit(main())

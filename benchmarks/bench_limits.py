@@ -10,6 +10,9 @@ temporary folder and deleted afterwards.
 
     .venv/bin/python benchmarks/bench_limits.py            # everything
     .venv/bin/python benchmarks/bench_limits.py --quick    # 50 types instead of 500
+    .venv/bin/python benchmarks/bench_limits.py --tiny     # 3 phases, 2 types: the script runs
+
+Writes its figures to benchmarks/results/bench_limits.json (benchmarks/benchresults.py).
 """
 
 from __future__ import annotations
@@ -22,6 +25,9 @@ from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
+sys.path.insert(0, str(ROOT / "benchmarks"))
+
+import benchresults  # noqa: E402
 
 from model import circle  # noqa: E402
 from model.case import compute_case  # noqa: E402
@@ -38,13 +44,12 @@ MAX_PHASES = 100
 MAX_PHASE_MIN = 24 * 60
 
 
-def largest_plan(folder: Path) -> Path:
-    """A plan of MAX_PHASES phases, their minutes as long as the limits allow."""
-    minutes = MAX_PHASE_MIN
+def largest_plan(folder: Path, n_phases: int = MAX_PHASES, minutes: float = MAX_PHASE_MIN) -> Path:
+    """A plan of ``n_phases`` phases of ``minutes`` each (by default as many and as long as the limits allow)."""
     phases = "".join(
         f'[[phases]]\nname = "phase {i + 1}"\nduration = "{minutes:g} min"\n'
         f'o2 = "{0.5 + (i % 3) * 0.5:g} L/min"\nair = "0.5 L/min"\n' + ('dial = "2 %"\n' if i % 2 else "target = 1.0\n")
-        for i in range(MAX_PHASES)
+        for i in range(n_phases)
     )
     path = folder / "largest.toml"
     path.write_text(
@@ -55,7 +60,7 @@ def largest_plan(folder: Path) -> Path:
     return path
 
 
-def casemix_at_limits(folder: Path, types: int, spread: float) -> Path:
+def casemix_at_limits(folder: Path, types: int, spread: float, draws: int = 2000) -> Path:
     """A scenario over ``types`` case types at median 1,440 min and the given spread."""
     (folder / "plans").mkdir(exist_ok=True)
     (folder / "plans" / "p.toml").write_text(DEMO_PLAN.read_text(encoding="utf-8"), encoding="utf-8")
@@ -70,7 +75,7 @@ def casemix_at_limits(folder: Path, types: int, spread: float) -> Path:
     scen = folder / f"scenario_{types}_{spread:g}.toml"
     scen.write_text(
         f'format = "fresh-gas-ledger scenario 1"\nname = "limits"\ncase_mix = "{mix.name}"\n'
-        "[uncertainty]\ndraws = 2000\nseed = 1\n",
+        f"[uncertainty]\ndraws = {draws}\nseed = 1\n",
         encoding="utf-8",
     )
     return scen
@@ -89,31 +94,47 @@ def steps_of_phase(minutes: float) -> int:
     return sum(n for _, n in sched)
 
 
-def main():
+def main(argv=None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--quick", action="store_true", help="50 case types instead of 500")
-    args = parser.parse_args()
+    benchresults.add_arguments(parser)
+    args = parser.parse_args(argv)
+    n_phases, minutes, types, draws = (
+        (3, 60.0, 2, 200) if args.tiny else (MAX_PHASES, MAX_PHASE_MIN, 50 if args.quick else MAX_CASE_TYPES, 2000)
+    )
+    run = benchresults.new_run(
+        {"phases": n_phases, "minutes per phase": minutes, "case types": types, "draws": draws}, args.tiny
+    )
     with tempfile.TemporaryDirectory(prefix="bench-limits-") as tmp:
         folder = Path(tmp)
-        plan = load_plan(largest_plan(folder))
+        plan = load_plan(largest_plan(folder, n_phases, minutes))
         longest = max(p.minutes for p in plan.phases)
         print(
             f"largest plan: {len(plan.phases)} phases of {longest:g} min "
             f"({sum(p.minutes for p in plan.phases):g} min in all); "
             f"steps per phase {steps_of_phase(longest)}"
         )
-        timed("case (largest valid plan)", lambda: compute_case(plan))
-        timed("sweep (largest valid plan)", lambda: flow_sweep(plan))
+        run["sizes"]["steps of the longest phase"] = steps_of_phase(longest)
+        label = f"{len(plan.phases)} phases of {longest:g} min"
+        benchresults.figure(run, f"case ({label})", timed(f"case ({label})", lambda: compute_case(plan)), "s")
+        benchresults.figure(run, f"sweep ({label})", timed(f"sweep ({label})", lambda: flow_sweep(plan)), "s")
         for spread in (0.0, 2.0):
-            scen = load_scenario(casemix_at_limits(folder, 1, spread))
+            scen = load_scenario(casemix_at_limits(folder, 1, spread, draws))
             year_simulate._SIM_CACHE.clear()
-            timed(f"year, one type, median 1440 min, spread {spread:g}", lambda: compute_year(scen))
-        types = 50 if args.quick else MAX_CASE_TYPES
-        scen = load_scenario(casemix_at_limits(folder, types, 2.0))
-        assert len(load_casemix(Path(scen.casemix.source)).types) == types
+            name = f"year, one type, median 1440 min, spread {spread:g}"
+            benchresults.figure(run, name, timed(name, lambda scen=scen: compute_year(scen)), "s")
+        scen = load_scenario(casemix_at_limits(folder, types, 2.0, draws))
+        found = len(load_casemix(Path(scen.casemix.source)).types)
+        if found != types:
+            print(f"the case mix holds {found} types, not {types}: no figure reported")
+            return 1
         year_simulate._SIM_CACHE.clear()
-        timed(f"year, {types} types, median 1440 min, spread 2", lambda: compute_year(scen))
+        name = f"year, {types} types, median 1440 min, spread 2"
+        benchresults.figure(run, name, timed(name, lambda: compute_year(scen)), "s")
+    run["notes"].append("goal: each in seconds")
+    benchresults.finish("bench_limits", run, args.results)
+    return 0
 
 
 if __name__ == "__main__":
-    main()
+    sys.exit(main())

@@ -1,7 +1,7 @@
 """Benchmark: simulated users planning a case in the dashboard at the same time.
 
-Starts ``streamlit run serve.py`` (the dashboard with its warm start) on a free localhost port with a store of its own (a
-temporary file named by ``GAS_LEDGER_STORE``), then drives N browser sessions (Playwright
+Starts ``streamlit run serve.py`` (the dashboard with its warm start) on a free localhost port
+with a store of its own (a temporary file named by ``GAS_LEDGER_STORE``), then drives N browser sessions (Playwright
 contexts in one headless Debian chromium) that each open the app on the case-plan page and
 change the O2 flow of the maintenance phase to a value of their own. Prints the page load
 and the response (Enter pressed until the new figure shows) per session: median, 90th
@@ -12,6 +12,8 @@ version and checks that every session finishes without an error.
     .venv/bin/python benchmarks/bench_load.py --sessions 40 --concurrency 10
 
 Only loopback addresses are contacted; the run is bounded in sessions and in time.
+``--tiny``: one session (the test suite's check that the script runs, a browser test).
+Writes its figures to benchmarks/results/bench_load.json (benchmarks/benchresults.py).
 """
 
 from __future__ import annotations
@@ -32,6 +34,9 @@ from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
+sys.path.insert(0, str(ROOT / "benchmarks"))
+
+import benchresults  # noqa: E402
 
 from model.store import STORE_ENV  # noqa: E402
 
@@ -213,9 +218,12 @@ async def _state(page) -> str:
     with contextlib.suppress(Exception):
         return await page.evaluate("""() => {
             const app = document.querySelector('[data-testid="stApp"]');
-            const cells = [...document.querySelectorAll('[data-testid="stDataFrame"] td')].map(t => t.innerText.trim());
-            const alerts = [...document.querySelectorAll('[data-testid="stAlertContainer"]')].map(a => a.innerText.trim().slice(0, 120));
-            return `script ${app && app.getAttribute('data-test-script-state')}; grid ${JSON.stringify(cells.slice(0, 24))}; alerts ${JSON.stringify(alerts)}`;
+            const cells = [...document.querySelectorAll('[data-testid="stDataFrame"] td')]
+                .map(t => t.innerText.trim());
+            const alerts = [...document.querySelectorAll('[data-testid="stAlertContainer"]')]
+                .map(a => a.innerText.trim().slice(0, 120));
+            const script = app && app.getAttribute('data-test-script-state');
+            return `script ${script}; grid ${JSON.stringify(cells.slice(0, 24))}; alerts ${JSON.stringify(alerts)}`;
         }""")
     return "page state unreadable"
 
@@ -325,12 +333,20 @@ def run_load(
     return LoadRun(results, wall, text)
 
 
-def _figures(values: list[float]) -> str:
+def _stats(values: list[float]) -> tuple[float, float, float] | None:
+    """Median, 90th percentile and worst of the finite values, or None."""
     good = sorted(v for v in values if v == v)
     if not good:
-        return "no figures"
+        return None
     p90 = good[min(len(good) - 1, int(round(0.9 * (len(good) - 1))))]
-    return f"median {statistics.median(good):.2f} s, p90 {p90:.2f} s, worst {good[-1]:.2f} s"
+    return statistics.median(good), p90, good[-1]
+
+
+def _figures(values: list[float]) -> str:
+    stats = _stats(values)
+    if stats is None:
+        return "no figures"
+    return f"median {stats[0]:.2f} s, p90 {stats[1]:.2f} s, worst {stats[2]:.2f} s"
 
 
 def main(argv=None) -> int:
@@ -338,9 +354,13 @@ def main(argv=None) -> int:
     parser.add_argument("--sessions", type=int, default=20)
     parser.add_argument("--concurrency", type=int, default=5, help="sessions at once (default: 5)")
     parser.add_argument("--timeout", type=float, default=60.0, help="bound on each step [s]")
+    benchresults.add_arguments(parser)
     args = parser.parse_args(argv)
+    if args.tiny:
+        args.sessions, args.concurrency = 1, 1
     if not 1 <= args.sessions <= 200 or not 1 <= args.concurrency <= 50:
         parser.error("--sessions must be 1-200 and --concurrency 1-50 (the run stays bounded)")
+    record = benchresults.new_run({"sessions": args.sessions, "at once": args.concurrency}, args.tiny)
     run = run_load(args.sessions, args.concurrency, args.timeout)
     ok = len(run.sessions) - len(run.failures)
     print(
@@ -353,6 +373,17 @@ def main(argv=None) -> int:
     print(f"edits typed again: {sum(s.retries for s in run.sessions)}")
     for s in run.failures:
         print(f"session {s.index}: {'; '.join(s.errors) or 'figure did not change'}")
+    benchresults.figure(record, "sessions finished without error", ok, "sessions")
+    benchresults.figure(record, "wall time of the run", run.wall_s, "s")
+    for what, values in (
+        ("page load", [s.load_s for s in run.sessions]),
+        ("response", [s.response_s for s in run.sessions]),
+    ):
+        stats = _stats(values)
+        for label, value in zip(("median", "p90", "worst"), stats or (None, None, None), strict=True):
+            benchresults.figure(record, f"{what}, {label}", value, "s")
+    benchresults.figure(record, "edits typed again", sum(s.retries for s in run.sessions), "edits")
+    benchresults.finish("bench_load", record, args.results)
     return 0 if not run.failures else 1
 
 

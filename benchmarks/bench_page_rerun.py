@@ -29,7 +29,9 @@ that runs in the background), then a second session on the warm server. Measured
 command until the server answered.
 
 ``--root DIR`` runs the same measurements on another checkout (e.g. an export of main), for a
-relative figure taken at the same load.
+relative figure taken at the same load. ``--tiny``: two runs of each, no cold start (the test
+suite's check that the script runs). Writes its figures to
+benchmarks/results/bench_page_rerun.json (benchmarks/benchresults.py).
 """
 
 from __future__ import annotations
@@ -44,6 +46,10 @@ import time
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[1]
+sys.path.insert(0, str(ROOT / "benchmarks"))
+
+import benchresults  # noqa: E402
+
 GOAL_MS = 300.0
 
 
@@ -70,9 +76,11 @@ def cold_apptest(root: Path) -> tuple[float, float]:
 
 
 def cold_browser(root: Path, entry: str = "serve.py") -> tuple[float, float, float]:
-    """Seconds from starting ``streamlit run <entry>`` until the server answered, and from
-    opening the app until "Liquid agent" shows: the first session after the server started
-    (cold), and a second session (warm server).
+    """Seconds until the server answered, and until "Liquid agent" shows in two sessions.
+
+    From starting ``streamlit run <entry>`` until the server answered, and from opening the
+    app until "Liquid agent" shows: the first session after the server started (cold), and a
+    second session (warm server).
     """
     sys.path.insert(0, str(ROOT / "benchmarks"))
     from bench_load import CHROMIUM, CHROMIUM_ARGS, dashboard
@@ -102,7 +110,13 @@ def main(argv=None) -> int:
     ap.add_argument("--runs", type=int, default=30)
     ap.add_argument("--cold", action="store_true", help="also measure a cold start (AppTest and browser)")
     ap.add_argument("--root", type=Path, default=ROOT, help="project checkout to measure (default: this one)")
+    benchresults.add_arguments(ap)
     args = ap.parse_args(argv)
+    if args.tiny:
+        args.runs, args.cold = 2, False
+    run = benchresults.new_run({"runs of each": args.runs, "cold start": args.cold}, args.tiny)
+    if args.root.resolve() != ROOT:
+        run["notes"].append(f"measured on another checkout: {args.root}")
     root = args.root.resolve()
     tmp = tempfile.mkdtemp(prefix="gl-bench-")
     os.environ["GAS_LEDGER_STORE"] = str(Path(tmp) / "store.sqlite3")
@@ -139,6 +153,9 @@ def main(argv=None) -> int:
         cpu = statistics.median(r[1] for r in runs)
         med = statistics.median(xs)
         p90 = xs[int(0.9 * (len(xs) - 1))]
+        benchresults.figure(run, f"{name}: wall median", med, "ms", goal=GOAL_MS)
+        benchresults.figure(run, f"{name}: wall p90", p90, "ms")
+        benchresults.figure(run, f"{name}: CPU median", cpu, "ms", goal=GOAL_MS)
         print(
             f"{name:<44} wall median {med:7.1f} ms  p90 {p90:7.1f} ms  median/goal {med / GOAL_MS:5.2f}"
             f"   CPU median {cpu:6.1f} ms (CPU/goal {cpu / GOAL_MS:4.2f})"
@@ -155,6 +172,8 @@ def main(argv=None) -> int:
     if args.cold:
         load = _load()
         wall, cpu = cold_apptest(root)
+        benchresults.figure(run, "cold: new process, first page run (AppTest), wall", wall, "s")
+        benchresults.figure(run, "cold: new process, first page run (AppTest), CPU", cpu, "s")
         print(
             f"cold start, new process, first page run (AppTest): wall {wall:.2f} s, CPU {cpu:.2f} s "
             f"(load average {load:.1f})"
@@ -164,11 +183,22 @@ def main(argv=None) -> int:
                 continue
             load = _load()
             started, first, second = cold_browser(root, entry)
+            benchresults.figure(
+                run, f"cold: browser, first session after `streamlit run {entry}` starts", first, "s", goal=3.0
+            )
+            benchresults.figure(run, f"browser, second session (warm server), {entry}", second, "s", goal=3.0)
             print(
                 f"cold start, streamlit run {entry}, browser until 'Liquid agent' shows: first session after "
                 f"server start {first:.2f} s, second session {second:.2f} s (server answered {started:.1f} s "
                 f"after the command; load average {load:.1f} before, {_load():.1f} after)"
             )
+    benchresults.ratio(
+        run,
+        "seen value / new value (CPU medians)",
+        statistics.median(r[1] for r in seen) / statistics.median(r[1] for r in new),
+        "a rerun that runs the model",
+    )
+    benchresults.finish("bench_page_rerun", run, args.results)
     return 0
 
 

@@ -6,11 +6,14 @@ volumes and N2O mass) followed by ``emitted_mass_g``, ``co2e_kg`` and ``case_cos
 Prints the median wall time of several runs of each, and their ratio. Goal: well under 1 s
 for the vectorised path. No assertions (speed goals are reported, never tested).
 
-    .venv/bin/python benchmarks/bench_phases.py [rows] [runs]
+    .venv/bin/python benchmarks/bench_phases.py [--rows 100000] [--runs 7] [--tiny] [--results DIR]
+
+Writes its figures to benchmarks/results/bench_phases.json (benchmarks/benchresults.py).
 """
 
 from __future__ import annotations
 
+import argparse
 import math
 import statistics
 import sys
@@ -21,6 +24,9 @@ import numpy as np
 
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
+sys.path.insert(0, str(ROOT / "benchmarks"))
+
+import benchresults  # noqa: E402
 
 from model.case import case_costs, phase_consumption  # noqa: E402
 from model.emissions import co2e_kg, emitted_mass_g  # noqa: E402
@@ -62,7 +68,12 @@ def plain_loop(rows, agent, prices, gwp_agent, gwp_n2o, capture):
     bottle_price = prices.bottle.get(agent.name, 0.0) / agent.bottle_volume
     liquid_out, co2e_out, cost_out = [], [], []
     for t, o2, air, n2o_req, dial in zip(
-        rows["minutes"].tolist(), rows["o2"].tolist(), rows["air"].tolist(), rows["n2o"].tolist(), rows["dial"].tolist()
+        rows["minutes"].tolist(),
+        rows["o2"].tolist(),
+        rows["air"].tolist(),
+        rows["n2o"].tolist(),
+        rows["dial"].tolist(),
+        strict=True,
     ):
         n2o = min(n2o_req, o2 * ratio)
         if o2 < cutoff:
@@ -97,26 +108,32 @@ def median_time(fn, runs):
     return statistics.median(times), min(times)
 
 
-def main(argv):
-    n = int(argv[1]) if len(argv) > 1 else ROWS
-    runs = int(argv[2]) if len(argv) > 2 else RUNS
+def main(argv=None) -> int:
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--rows", type=int, default=ROWS)
+    ap.add_argument("--runs", type=int, default=RUNS)
+    benchresults.add_arguments(ap)
+    args = ap.parse_args(argv)
+    n, runs = (1_000, 3) if args.tiny else (args.rows, args.runs)
+    loop_runs = max(3, runs // 2)
+    run = benchresults.new_run({"phase rows": n, "runs vectorised": runs, "runs loop": loop_runs}, args.tiny)
     rows = make_rows(n)
     agent = DEFAULT_REFERENCE.agents["sevoflurane"]
     prices = DEFAULT_REFERENCE.prices
-    args = (rows, agent, prices, DEFAULT_REFERENCE.gwp("sevoflurane"), DEFAULT_REFERENCE.gwp("nitrous_oxide"), 0.0)
+    args_ = (rows, agent, prices, DEFAULT_REFERENCE.gwp("sevoflurane"), DEFAULT_REFERENCE.gwp("nitrous_oxide"), 0.0)
 
     # The two paths must agree before their speeds mean anything.
-    v_liquid, v_co2e, v_cost = vectorised(*args)
-    p_liquid, p_co2e, p_cost = plain_loop(*args)
+    v_liquid, v_co2e, v_cost = vectorised(*args_)
+    p_liquid, p_co2e, p_cost = plain_loop(*args_)
     worst = max(
         float(np.max(np.abs(np.asarray(p) - v) / np.maximum(np.abs(v), 1e-12)))
         for p, v in ((p_liquid, v_liquid), (p_co2e, v_co2e), (p_cost, v_cost))
     )
 
-    vec_median, vec_best = median_time(lambda: vectorised(*args), runs)
-    loop_median, loop_best = median_time(lambda: plain_loop(*args), max(3, runs // 2))
+    vec_median, vec_best = median_time(lambda: vectorised(*args_), runs)
+    loop_median, loop_best = median_time(lambda: plain_loop(*args_), loop_runs)
     print(f"phase rows:                  {n:,}")
-    print(f"runs (median of):            {runs} vectorised, {max(3, runs // 2)} loop")
+    print(f"runs (median of):            {runs} vectorised, {loop_runs} loop")
     print(f"vectorised (numpy) median:   {vec_median:.4f} s  (best {vec_best:.4f} s)")
     print(f"plain Python loop median:    {loop_median:.4f} s  (best {loop_best:.4f} s)")
     print(f"speed-up, loop / vectorised: {loop_median / vec_median:.1f} x")
@@ -126,7 +143,14 @@ def main(argv):
         f"largest relative difference between the two paths: {worst:.1e}"
         + ("" if math.isfinite(worst) else " (check!)")
     )
+    benchresults.figure(run, "vectorised, median", vec_median, "s", goal=GOAL_S)
+    benchresults.figure(run, "vectorised, best", vec_best, "s")
+    benchresults.figure(run, "plain Python loop, median", loop_median, "s")
+    benchresults.figure(run, "largest relative difference between the two paths", worst, "1")
+    benchresults.ratio(run, "plain loop / vectorised (medians)", loop_median / vec_median, "plain Python loop")
+    benchresults.finish("bench_phases", run, args.results)
+    return 0
 
 
 if __name__ == "__main__":
-    main(sys.argv)
+    sys.exit(main())
