@@ -23,7 +23,8 @@ def number_text(value) -> str:
     if value is None:
         return "-"
     if isinstance(value, bool) or not isinstance(value, (int, float)):
-        return str(value)
+        # A range of figures ("0.22-0.30") keeps together in its cell: a non-breaking hyphen.
+        return re.sub(r"(?<=\d)-(?=\d)", "\u2011", str(value))
     if isinstance(value, int):
         return f"{value:,}"
     if value != 0 and (abs(value) < 1e-3 or abs(value) >= 1e6):
@@ -34,6 +35,7 @@ def number_text(value) -> str:
 
 
 def load_text(load) -> str:
+    """The load averages of a run (three figures, or the text recorded by hand)."""
     if load is None:
         return "not recorded"
     if isinstance(load, list):
@@ -103,6 +105,7 @@ def render(markdown: str, folder: Path = RESULTS) -> str:
 
 
 def on_page_markdown(markdown, page, config, files):  # noqa: ARG001  (MkDocs hook signature)
+    """MkDocs hook: render the benchmarks page's markers; other pages pass unchanged."""
     if page.file.src_uri != PAGE:
         return markdown
     return render(markdown)
