@@ -60,7 +60,7 @@ def largest_plan(folder: Path, n_phases: int = MAX_PHASES, minutes: float = MAX_
     return path
 
 
-def casemix_at_limits(folder: Path, types: int, spread: float, draws: int = 2000) -> Path:
+def case_mix_at_limits(folder: Path, types: int, spread: float, draws: int = 2000) -> Path:
     """A scenario over ``types`` case types at median 1,440 min and the given spread."""
     (folder / "plans").mkdir(exist_ok=True)
     (folder / "plans" / "p.toml").write_text(DEMO_PLAN.read_text(encoding="utf-8"), encoding="utf-8")
@@ -119,11 +119,11 @@ def main(argv=None) -> int:
         benchresults.figure(run, f"case ({label})", timed(f"case ({label})", lambda: compute_case(plan)), "s")
         benchresults.figure(run, f"sweep ({label})", timed(f"sweep ({label})", lambda: flow_sweep(plan)), "s")
         for spread in (0.0, 2.0):
-            scen = load_scenario(casemix_at_limits(folder, 1, spread, draws))
+            scen = load_scenario(case_mix_at_limits(folder, 1, spread, draws))
             year_simulate._SIM_CACHE.clear()
             name = f"year, one type, median 1440 min, spread {spread:g}"
             benchresults.figure(run, name, timed(name, lambda scen=scen: compute_year(scen)), "s")
-        scen = load_scenario(casemix_at_limits(folder, types, 2.0, draws))
+        scen = load_scenario(case_mix_at_limits(folder, types, 2.0, draws))
         found = len(load_casemix(Path(scen.casemix.source)).types)
         if found != types:
             print(f"the case mix holds {found} types, not {types}: no figure reported")
