@@ -142,6 +142,22 @@ def test_the_audit_benchmark_refuses_kept_files_of_the_wrong_size(tmp_path):
     assert bench_audit.check_data(folder, 10, 5) == "no data yet"
 
 
+def test_the_load_benchmark_records_what_its_sessions_gave(tmp_path, monkeypatch, capsys):
+    # The browser run itself is the browser test below; here its figures are recorded
+    # from a run of one session as the driver returns it.
+    import bench_load
+
+    session = bench_load.SessionResult(0, "0.50 L/min", load_s=2.0, response_s=0.5, before="10 mL", after="9 mL")
+    monkeypatch.setattr(bench_load, "run_load", lambda *a, **k: bench_load.LoadRun([session], 3.0, ""))
+    assert bench_load.main(["--tiny", "--results", str(tmp_path)]) == 0
+    run = json.loads((tmp_path / "bench_load.json").read_text(encoding="utf-8"))["runs"][0]
+    check_run(run)
+    figures = {f["measure"]: f["value"] for f in run["figures"]}
+    assert figures["sessions finished without error"] == 1 and figures["response, median"] == 0.5
+    assert run["sizes"] == {"sessions": 1, "at once": 1}
+    assert "finished without error: 1" in capsys.readouterr().out
+
+
 @pytest.mark.browser
 @pytest.mark.skipif(not CHROMIUM.exists(), reason="needs Debian's chromium")
 def test_the_load_benchmark_runs_one_session_and_records_it(tmp_path):
