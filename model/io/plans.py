@@ -151,6 +151,8 @@ class _Strict(pydantic.BaseModel):
 
 
 class PatientIn(_Strict):
+    """The ``[patient]`` table of a plan file, as written (quantities with units)."""
+
     weight: Annotated[float, _quantity("kg", 0.5, 350.0)] = 70.0
     age: Annotated[float, _quantity("year", 0.0, 120.0)] = 40.0
     cardiac_output: Annotated[float | None, _quantity("L/min", 0.1, 40.0, low_open=True)] = None
@@ -159,6 +161,8 @@ class PatientIn(_Strict):
 
 
 class PhaseIn(_Strict):
+    """One ``[[phases]]`` entry of a plan file: flows and exactly one of dial or target."""
+
     name: Annotated[str, pydantic.StringConstraints(min_length=1, max_length=80)] = "phase"
     duration: Annotated[float, _quantity("min", 0.0, 24 * 60, low_open=True)]
     o2: Flow = 0.0
@@ -187,6 +191,8 @@ class PhaseIn(_Strict):
 
 
 class SettingsIn(_Strict):
+    """The ``[settings]`` table of a plan file, as written (quantities with units)."""
+
     room_temperature: Annotated[float, _quantity("degC", 0.0, 45.0)] = 20.0
     pressure: Annotated[float, _quantity("kPa", 50.0, 120.0)] = 101.325
     gwp_source: GwpSourceName = DEFAULT_GWP
@@ -203,6 +209,8 @@ class SettingsIn(_Strict):
 
 
 class PlanIn(_Strict):
+    """A whole plan file, as written: name, agent, patient, settings, prices and phases."""
+
     format: Annotated[str, format_of(PLAN_FORMAT)] = PLAN_FORMAT
     name: Annotated[str, pydantic.StringConstraints(min_length=1, max_length=120)] = "Unnamed plan"
     agent: str

@@ -51,6 +51,7 @@ class ReadReport:
 
     @property
     def rows_set_aside(self) -> int:
+        """Rows set aside, all issue kinds together."""
         return int(sum(self.set_aside.values()))
 
     def summary(self) -> dict:
