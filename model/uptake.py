@@ -245,7 +245,8 @@ def tissue_compartments(model, species, blood_gas, weight_kg, cardiac_output_l_m
         C = vol * w[None, :] * tb * blood_gas
         return G, C
     if species == "nitrous_oxide":
-        amplitude = SEVERINGHAUS_N2O_L_MIN.value / SEVERINGHAUS_N2O_FRACTION * q / _Q70
+        n2o_l_min: float = SEVERINGHAUS_N2O_L_MIN.value  # type: ignore[assignment]  # a Sourced constant, 1.0, never None
+        amplitude = n2o_l_min / SEVERINGHAUS_N2O_FRACTION * q / _Q70
     else:
         amplitude = blood_gas * q
     weights = lowe_kernel_weights()[:, None]

@@ -90,6 +90,7 @@ def generate(
     low_draw = rng.random(n_cases)
     uses_n2o = rng.random(n_cases) < N2O_SHARE
     theatre = rng.integers(0, len(THEATRES), n_cases)
+    share: float | np.ndarray
     if isinstance(low_flow_share, dict):
         share = np.array([float(low_flow_share.get(t, LOW_FLOW_SHARE)) for t in THEATRES])[theatre]
     else:
@@ -320,7 +321,7 @@ def _demo_purchases(use: pd.DataFrame, n2o_by_mass: bool = False) -> list[tuple]
 
     In whole bottles and cylinders (N2O in kg when ``n2o_by_mass``).
     """
-    rows_out = []
+    rows_out: list[tuple] = []
     for r in use.itertuples(index=False):
         f = DEMO_PURCHASE_FACTORS.get(r.item)
         if r.item == "nitrous_oxide" and r.month >= DEMO_N2O_FIXED_FROM:

@@ -192,7 +192,7 @@ def parse_casemix_text(
 
     reader = csv.reader(io.StringIO(text))
     header = None
-    types = []
+    types: list[CaseType] = []
     try:
         for row in reader:
             line = reader.line_num

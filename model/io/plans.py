@@ -37,6 +37,11 @@ MAX_PLAN_BYTES = 1_000_000
 # The file format, validated with pydantic. Each field converts its unit at this edge.
 
 
+def _field(info: pydantic.ValidationInfo) -> str:
+    """The name of the field a validator checks (pydantic leaves it None only for a model's validator)."""
+    return info.field_name or "value"
+
+
 def _quantity(
     unit: str,
     low: float,
@@ -46,7 +51,7 @@ def _quantity(
     shown_unit: str | None = None,
 ):
     def convert(value, info: pydantic.ValidationInfo):
-        name = info.field_name
+        name = _field(info)
         number = to_base(value, unit, name, default_unit)
         return check_range(number, name, low, high, shown_unit or unit, low_open, typed=value)
 
@@ -55,7 +60,7 @@ def _quantity(
 
 def _share(value, info: pydantic.ValidationInfo):
     """A share typed as 0.3, "30 %" or "0.3": stored as a fraction."""
-    name = info.field_name
+    name = _field(info)
     if isinstance(value, str) and "%" in value:
         number = to_base(value, "percent", name) / 100.0
     else:
@@ -71,7 +76,7 @@ def _share_above(low: float, open_: bool, allowed: str):
     def check(value, info: pydantic.ValidationInfo):
         number = _share(value, info)
         if number < low or (open_ and number <= low):
-            raise InputError(info.field_name, value, allowed)
+            raise InputError(_field(info), value, allowed)
         return number
 
     return pydantic.BeforeValidator(check)
@@ -79,7 +84,7 @@ def _share_above(low: float, open_: bool, allowed: str):
 
 def _percent(value, info: pydantic.ValidationInfo):
     """A concentration typed as 2, "2 %" or "2%": stored in percent."""
-    return check_range(to_base(value, "percent", info.field_name), info.field_name, 0.0, 100.0, "%", typed=value)
+    return check_range(to_base(value, "percent", _field(info)), _field(info), 0.0, 100.0, "%", typed=value)
 
 
 _MAC_SUFFIX = re.compile(r"^(?P<number>.*?)\s*(?:x\s*)?MAC$", re.IGNORECASE)
@@ -91,7 +96,7 @@ def _mac_target(value, info: pydantic.ValidationInfo):
     A percent ("2 %") is refused: it is a vaporizer dial setting, and read as a bare number
     it would ask for 2 x MAC.
     """
-    name = info.field_name
+    name = _field(info)
     typed = value
     if isinstance(value, str):
         m = _MAC_SUFFIX.match(value.strip())
@@ -126,7 +131,7 @@ def format_of(expected: str):
 
     def check(value, info: pydantic.ValidationInfo):
         if value != expected:
-            raise InputError(info.field_name, value, f"this version reads '{expected}'")
+            raise InputError(_field(info), value, f"this version reads '{expected}'")
         return value
 
     return pydantic.BeforeValidator(check)
@@ -137,7 +142,7 @@ def _one_of(choices, noun: str):
 
     def check(value, info: pydantic.ValidationInfo):
         if value not in choices:
-            raise InputError(info.field_name, value, f"allowed {noun} are " + ", ".join(choices))
+            raise InputError(_field(info), value, f"allowed {noun} are " + ", ".join(choices))
         return value
 
     return pydantic.AfterValidator(check)
@@ -348,7 +353,7 @@ def plan_to_dict(plan: CasePlan) -> dict:
         patient["minute_ventilation"] = _q(pt.minute_ventilation_l_min, "L/min")
     phases = []
     for p in plan.phases:
-        row = {
+        row: dict[str, Any] = {
             "name": p.name,
             "duration": _q(p.minutes, "min"),
             "o2": _q(p.o2_l_min, "L/min"),

@@ -212,5 +212,5 @@ def command_line_author() -> str:
         who = getpass.getuser()
     except (KeyError, OSError, ImportError):
         who = ""
-    who = _clean_identity(who)
-    return f"{COMMAND_LINE} ({who})" if who else COMMAND_LINE
+    shown = _clean_identity(who)
+    return f"{COMMAND_LINE} ({shown})" if shown else COMMAND_LINE

@@ -65,6 +65,7 @@ class Store:
     def __init__(self, location: str | os.PathLike | None = None):
         if location is None:
             location = default_location()
+        self._db: _Postgres | _SQLite
         if is_postgres_url(location):
             self._db = _Postgres(str(location).strip())
         else:
@@ -128,8 +129,8 @@ class Store:
             raise StoreError(what, self.location, f"has an unreadable schema version {row[0]!r}") from None
 
     def _open_and_migrate(self) -> None:
-        if self.dialect == "sqlite":
-            check_store_file(self.path)  # read-only: a file that is not ours stays as it was
+        if isinstance(self._db, _SQLite):
+            check_store_file(self._db.path)  # read-only: a file that is not ours stays as it was
         with self._db.read(setup=False) as con:
             found = self._read_schema_version(con)
         self._refuse_newer(found)
