@@ -213,7 +213,12 @@ def scenario_to_dict(scenario: Scenario, case_mix: str) -> dict:
             adherence=float(p.adherence), adherence_low=float(p.adherence_low), adherence_high=float(p.adherence_high)
         )
     s = scenario.sampling
-    out: dict[str, Any] = {"format": SCENARIO_FORMAT, "name": scenario.name, "case_mix": case_mix, "gwp_source": scenario.gwp_source}
+    out: dict[str, Any] = {
+        "format": SCENARIO_FORMAT,
+        "name": scenario.name,
+        "case_mix": case_mix,
+        "gwp_source": scenario.gwp_source,
+    }
     if practice:
         out["practice"] = practice
     if scenario.prices:
