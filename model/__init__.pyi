@@ -1,36 +1,55 @@
 # The public names of model, listed once: lazy_loader reads this stub to load each name
 # on first use (PEP 562), and type checkers and the API pages read it as the package's interface.
+# Each name is written `name as name`, a stub's mark of a re-export (PEP 484), so type
+# checkers take it as public.
 
-from .base.errors import InputError
-from .base.units import to_base
-from .case import CaseResult, case_costs, compute_case, phase_consumption, simulation_totals
-from .circle import lowest_safe_fd_o2, rebreathed_share, simulate_cases, steady_state_fio2
-from .emissions import co2e_kg, emitted_mass_g, gas_mass_g
-from .freshgas import FLOW_BAND_NAMES, apply_ratio_limit, delivered_fractions, flow_band
-from .io.plans import load_plan, parse_plan_text, plan_to_toml
-from .mac import mac_at_age, mac_multiple
-from .patient import brody_cardiac_output_l_min, brody_vo2_ml_min
-from .plan import CasePlan, Patient, Phase, Settings, check_dials
-from .reference import (
-    AGENTS,
-    DEFAULT_GWP,
-    DEFAULT_REFERENCE,
-    GWP_SOURCES,
-    VOLATILES,
-    Agent,
-    GwpSource,
-    Prices,
-    Reference,
-    Sourced,
-    load_settings,
-)
-from .sweep import flow_sweep
-from .uptake import lowe_cumulative_ml, lowe_uptake_rate_ml_min
-from .vapour import (
-    liquid_from_vapour,
-    liquid_used_ml,
-    liquid_used_series_ml,
-    molar_volume_l,
-    rule_of_thumb_ml_per_hour,
-    vapour_per_ml_liquid,
-)
+from .base.errors import InputError as InputError
+from .base.units import to_base as to_base
+from .case import CaseResult as CaseResult
+from .case import case_costs as case_costs
+from .case import compute_case as compute_case
+from .case import phase_consumption as phase_consumption
+from .case import simulation_totals as simulation_totals
+from .circle import lowest_safe_fd_o2 as lowest_safe_fd_o2
+from .circle import rebreathed_share as rebreathed_share
+from .circle import simulate_cases as simulate_cases
+from .circle import steady_state_fio2 as steady_state_fio2
+from .emissions import co2e_kg as co2e_kg
+from .emissions import emitted_mass_g as emitted_mass_g
+from .emissions import gas_mass_g as gas_mass_g
+from .freshgas import FLOW_BAND_NAMES as FLOW_BAND_NAMES
+from .freshgas import apply_ratio_limit as apply_ratio_limit
+from .freshgas import delivered_fractions as delivered_fractions
+from .freshgas import flow_band as flow_band
+from .io.plans import load_plan as load_plan
+from .io.plans import parse_plan_text as parse_plan_text
+from .io.plans import plan_to_toml as plan_to_toml
+from .mac import mac_at_age as mac_at_age
+from .mac import mac_multiple as mac_multiple
+from .patient import brody_cardiac_output_l_min as brody_cardiac_output_l_min
+from .patient import brody_vo2_ml_min as brody_vo2_ml_min
+from .plan import CasePlan as CasePlan
+from .plan import Patient as Patient
+from .plan import Phase as Phase
+from .plan import Settings as Settings
+from .plan import check_dials as check_dials
+from .reference import AGENTS as AGENTS
+from .reference import DEFAULT_GWP as DEFAULT_GWP
+from .reference import DEFAULT_REFERENCE as DEFAULT_REFERENCE
+from .reference import GWP_SOURCES as GWP_SOURCES
+from .reference import VOLATILES as VOLATILES
+from .reference import Agent as Agent
+from .reference import GwpSource as GwpSource
+from .reference import Prices as Prices
+from .reference import Reference as Reference
+from .reference import Sourced as Sourced
+from .reference import load_settings as load_settings
+from .sweep import flow_sweep as flow_sweep
+from .uptake import lowe_cumulative_ml as lowe_cumulative_ml
+from .uptake import lowe_uptake_rate_ml_min as lowe_uptake_rate_ml_min
+from .vapour import liquid_from_vapour as liquid_from_vapour
+from .vapour import liquid_used_ml as liquid_used_ml
+from .vapour import liquid_used_series_ml as liquid_used_series_ml
+from .vapour import molar_volume_l as molar_volume_l
+from .vapour import rule_of_thumb_ml_per_hour as rule_of_thumb_ml_per_hour
+from .vapour import vapour_per_ml_liquid as vapour_per_ml_liquid

@@ -47,10 +47,12 @@ class Phase:
 
     @property
     def mode(self) -> str:
+        """Control mode of the phase: "dial" or "target"."""
         return "dial" if self.dial_pct is not None else "target"
 
     @property
     def fgf_l_min(self) -> float:
+        """Total fresh gas flow of the phase (O2 + air + N2O) [L/min]."""
         return self.o2_l_min + self.air_l_min + self.n2o_l_min
 
 
@@ -100,6 +102,7 @@ class CasePlan:
 
     @property
     def minutes(self) -> float:
+        """Length of the case, all phases together [min]."""
         return float(sum(p.minutes for p in self.phases))
 
     def with_phase(self, index: int, **changes) -> CasePlan:

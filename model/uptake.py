@@ -1,6 +1,7 @@
-"""Patient uptake of volatile agents and N2O: Lowe's square-root-of-time model and a
-physiological compartment model (vessel-rich group, muscle, fat), each as tissue compartments
-the circle model can carry.
+"""Patient uptake of volatile agents and N2O, as tissue compartments the circle model can carry.
+
+Lowe's square-root-of-time model and a physiological compartment model (vessel-rich group,
+muscle, fat).
 
 Both models are written the same way for the circle integrator (:mod:`model.circle`): a set
 of tissue compartments k, each with a conductance ``G_k`` (blood flow x blood/gas partition
@@ -152,7 +153,7 @@ def lowe_uptake_rate_ml_min(t_min, alveolar_pct, blood_gas, cardiac_output_l_min
 
 
 def lowe_cumulative_ml(t_min, alveolar_pct, blood_gas, cardiac_output_l_min):
-    """Lowe's cumulative uptake ``2 f MAC lambda Q sqrt(t)``. [mL vapour]
+    """Lowe's cumulative uptake ``2 f MAC lambda Q sqrt(t)`` [mL vapour].
 
     Parameters are those of :func:`lowe_uptake_rate_ml_min`.
 
@@ -166,7 +167,7 @@ def lowe_cumulative_ml(t_min, alveolar_pct, blood_gas, cardiac_output_l_min):
 
 
 def lowe_priming_ml(alveolar_pct, circuit_volume_l, frc_l):
-    """Lowe's priming dose: vapour that fills the circuit and the lungs. [mL]
+    """Lowe's priming dose: vapour that fills the circuit and the lungs [mL].
 
     Parameters
     ----------
@@ -244,7 +245,8 @@ def tissue_compartments(model, species, blood_gas, weight_kg, cardiac_output_l_m
         C = vol * w[None, :] * tb * blood_gas
         return G, C
     if species == "nitrous_oxide":
-        amplitude = SEVERINGHAUS_N2O_L_MIN.value / SEVERINGHAUS_N2O_FRACTION * q / _Q70
+        n2o_l_min: float = SEVERINGHAUS_N2O_L_MIN.value  # type: ignore[assignment]  # a Sourced constant, 1.0, never None
+        amplitude = n2o_l_min / SEVERINGHAUS_N2O_FRACTION * q / _Q70
     else:
         amplitude = blood_gas * q
     weights = lowe_kernel_weights()[:, None]

@@ -246,6 +246,7 @@ for col, (label, key, value, digits) in zip(
         ("CO2 absorbent (kg)", "absorbent_kg", f"{t['absorbent_kg']:,.0f}", 0),
         ("Average car (km)", "car_km", f"{t['car_km']:,.0f}", 0),
     ],
+    strict=True,
 ):
     col.metric(label, value, help=scenario.car_source if key == "car_km" else None)
     col.caption(yv.band_text(rows.loc[key], digits))

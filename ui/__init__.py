@@ -1,5 +1,7 @@
-"""Shared pieces of the dashboard pages: settings sidebar, caution, store, cached model calls,
-downloads and chart builders. Presentation only; every computation lives in ``model``.
+"""Shared pieces of the dashboard pages; presentation only, every computation lives in ``model``.
+
+The settings sidebar, the caution, the store, cached model calls, downloads and chart
+builders.
 
 API for page authors (see DEVELOPERS.md, "Dashboard pages"):
 

@@ -1,5 +1,7 @@
-"""Warnings on the pages, most severe first: hazards (hypoxic mixture, O2 running out) in their
-own style next to the headline figures, then cautions, then labelling notes; repeats grouped.
+"""Warnings on the pages, most severe first, repeats grouped.
+
+Hazards (hypoxic mixture, O2 running out) in their own style next to the headline figures,
+then cautions, then labelling notes.
 
 The severity of each warning comes from the model (:class:`model.cautions.Caution`).
 """

@@ -1,5 +1,7 @@
-"""Widgets of the Emissions report page: a reporting period, a target (each returns our own syntax), and
-the use-based against purchase-based table by site.
+"""Widgets of the Emissions report page.
+
+A reporting period, a target (each returns our own syntax), and the use-based against
+purchase-based table by site.
 """
 
 from __future__ import annotations
@@ -32,8 +34,9 @@ TARGET_KINDS = ("No target", "A yearly reduction", "A tonnage by a year")
 
 
 def period_input(label: str, key: str, default_year: int, default_kind: str = "Calendar year") -> str | None:
-    """Widgets for one reporting period; returns it in our syntax (e.g. "FY2026-04"), or None while a
-    date range is half chosen.
+    """Widgets for one reporting period.
+
+    Returns it in our syntax (e.g. "FY2026-04"), or None while a date range is half chosen.
     """
     c = st.columns([1.3, 1, 1])
     kind = c[0].selectbox(label, PERIOD_KINDS, index=PERIOD_KINDS.index(default_kind), key=f"{key}_kind")
@@ -95,9 +98,10 @@ def shown(df):
 
 
 def sites_against_purchases(report) -> None:
-    """The period's use-based and purchase-based CO2e side by side by site, with the gap, each
-    labelled; or, when the purchases name no site, a plain note that purchase-based figures
-    are for all sites together.
+    """The period's use-based and purchase-based CO2e side by side by site, with the gap.
+
+    Each is labelled; when the purchases name no site, a plain note says that purchase-based
+    figures are for all sites together.
     """
     pr = report.period
     table = pr.use_vs_purchase_by_site

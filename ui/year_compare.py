@@ -1,5 +1,7 @@
-"""The "Year scenarios" tab of the Compare page: a chosen baseline year against any number of
-proposals (demo files or years saved in the store), each paired with the baseline.
+"""The "Year scenarios" tab of the Compare page.
+
+A chosen baseline year against any number of proposals (demo files or years saved in the
+store), each paired with the baseline.
 """
 
 from __future__ import annotations
@@ -104,7 +106,7 @@ def render(view) -> None:
             flag = f" — :red[**{ui.cautions.UNSAFE}**]" if comp.proposal.unsafe else ""
             st.markdown(f"**{ui.md(p_name)}** against **{ui.md(b_name)}**{flag}")
             cols = st.columns(len(HEADLINES))
-            for col, (key, label) in zip(cols, HEADLINES):
+            for col, (key, label) in zip(cols, HEADLINES, strict=True):
                 r = rows.loc[key]
                 unit = f" {comp.baseline.currency}" if key == "cost_total" else ""
                 col.metric(f"Change in {label}", f"{r['difference']:+,.1f}{unit}")
@@ -125,7 +127,7 @@ def render(view) -> None:
     for note in notes:
         st.caption(note)
     inputs = {"baseline": baseline.name, "safety of the baseline": ui.cautions.safety_text(first.baseline.warnings)}
-    for i, (p_name, comp) in enumerate(comps.items(), start=1):
+    for i, comp in enumerate(comps.values(), start=1):
         inputs[f"proposal {i}"] = comp.proposal.scenario.name
         inputs[f"safety of proposal {i}"] = ui.cautions.safety_text(comp.proposal.warnings)
         inputs.update(

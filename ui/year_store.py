@@ -1,6 +1,8 @@
-"""Year work kept in the store: scenarios and their case mixes saved, versioned, uploaded and
-downloaded, as plans are. Presentation glue; the formats are model.io.scenario and
-model.io.casemix, the store model.store (its ``save``/``get``/``history``/``names`` API).
+"""Year work kept in the store: scenarios and their case mixes, as plans are.
+
+Saved, versioned, uploaded and downloaded. Presentation glue; the formats are
+model.io.scenario and model.io.casemix, the store model.store (its
+``save``/``get``/``history``/``names`` API).
 
 A saved scenario is kind ``scenario``: its TOML text, whose ``case_mix`` names a saved case
 mix and its version as ``"<name>@<version>"``. A saved case mix is kind ``casemix``: its CSV

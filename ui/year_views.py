@@ -1,5 +1,7 @@
-"""Pieces of the year views (Department year page, year tab of Compare): scenario choice,
-cached year runs and plotly figures. Presentation only; the year is computed in model.year.
+"""Pieces of the year views (Department year page, year tab of Compare).
+
+Scenario choice, cached year runs and plotly figures. Presentation only; the year is
+computed in model.year.
 """
 
 from __future__ import annotations
@@ -46,8 +48,9 @@ def plan_library() -> dict:
 
 
 def scenario_for_view(scenario: Scenario, view, mix: CaseMix | None = None, own_prices: bool = False) -> Scenario:
-    """The scenario with the sidebar's GWP source, room temperature and currency label (and an
-    edited mix).
+    """The scenario with the sidebar's GWP source, room temperature and currency label.
+
+    And an edited mix, when given.
 
     Prices: the values in use on every page (the Reference page's saved values over the
     defaults, given to the year as its ``Reference``); the scenario's own ``[prices]`` only
@@ -82,21 +85,26 @@ def _key(*parts) -> str:
 
 @st.cache_resource(show_spinner=False, max_entries=16)
 def year_cached(key: str, _scenario: Scenario, _ref: Reference):
+    """The year of a scenario, cached under ``key`` (the arguments with ``_`` are not hashed)."""
     return compute_year(_scenario, _ref)
 
 
 @st.cache_resource(show_spinner=False, max_entries=16)
 def compare_cached(key: str, _baseline: Scenario, _proposal: Scenario, _ref: Reference):
+    """The comparison of two years, cached under ``key`` (the arguments with ``_`` are not hashed)."""
     return compare_years(_baseline, _proposal, _ref)
 
 
 def run_year(scenario: Scenario, ref: Reference, ref_key: str):
+    """The year of a scenario under the reference values in use, computed once per scenario and reference."""
     return year_cached(_key(scenario, ref_key), scenario, ref)
 
 
 def run_compare(baseline: Scenario, proposal: Scenario, ref: Reference, ref_key: str):
+    """A proposal year against a baseline, computed once per pair and reference."""
     return compare_cached(_key(baseline, proposal, ref_key), baseline, proposal, ref)
 
 
 def band_text(row, digits: int = 0) -> str:
+    """A P5-P95 band as text, from a summary row's ``p5`` and ``p95``."""
     return f"P5-P95: {row['p5']:,.{digits}f} to {row['p95']:,.{digits}f}"

@@ -1,5 +1,7 @@
-"""The record audit: per-case consumption, emissions and cost from case records, and
-reconciliation with purchases.
+"""The record audit: what each recorded case consumed and emitted, and what it cost.
+
+Per-case consumption, emissions and cost from case records, and their reconciliation with
+purchases.
 """
 
 from model.audit.engine import audit_records

@@ -72,7 +72,7 @@ def absorbent_assumptions(reference: Reference) -> AbsorbentAssumptions:
 
     def given(name):
         v = user.get(name)
-        if v is not None:
+        if v is not None and v.value is not None:
             sources[name] = v.source
             return float(v.value)
         return None

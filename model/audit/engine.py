@@ -32,7 +32,7 @@ from model.reference import DEFAULT_GWP, DEFAULT_REFERENCE, STANDARD_PRESSURE_KP
 def _case_sql(high_flow_l_min: float, minute_ventilation_l_min: float) -> str:
     bands = ", ".join(
         f"coalesce(sum(dt_min) FILTER (WHERE band = '{name}'), 0) AS {col}"
-        for name, col in zip(FLOW_BAND_NAMES, BAND_COLUMNS)
+        for name, col in zip(FLOW_BAND_NAMES, BAND_COLUMNS, strict=True)
     )
     hi = repr(float(high_flow_l_min))
     ve = repr(float(minute_ventilation_l_min))
@@ -195,8 +195,10 @@ def audit_records(
 
 
 def _watched(con, work, step, low: float, high: float, total_rows: int):
-    """Run ``work`` (duckdb queries on ``con``) in a worker thread while telling ``step``
-    the share of the current query that duckdb reports done, as rows out of ``total_rows``.
+    """Run ``work`` (duckdb queries on ``con``) in a worker thread, reporting its progress.
+
+    ``step`` is told the share of the current query that duckdb reports done, as rows out
+    of ``total_rows``.
 
     The caller's thread only watches, so a progress callback that must run there (a page's
     progress bar) can. Exceptions of ``work`` are raised here.

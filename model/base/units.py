@@ -14,7 +14,7 @@ from model.base.errors import InputError
 @functools.lru_cache(maxsize=1)
 def registry() -> pint.UnitRegistry:
     """The one UnitRegistry of the package (built once, on first use)."""
-    ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
+    ureg: pint.UnitRegistry = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
     # Percent as a dimensionless unit, so "2 %" and "0.02" mean the same.
     if "percent" not in ureg:
         ureg.define("percent = 0.01 = %")

@@ -12,6 +12,7 @@ from model.cli.common import CAUTION, EXIT_INPUT, _Parser, _reference, print_jso
 
 
 def cmd_case(args) -> int:
+    """The ``case`` command: one case plan's consumption, emissions and cost; the exit code."""
     from model.case import compute_case
     from model.io.plans import load_plan
 
@@ -93,6 +94,7 @@ def cmd_case(args) -> int:
 
 
 def cmd_reference(args) -> int:
+    """The ``reference`` command: every reference value with its unit and source; the exit code."""
     ref = _reference(args)
     rows = ref.table()
     if args.json:
@@ -110,6 +112,7 @@ def cmd_reference(args) -> int:
 
 
 def build_parser() -> argparse.ArgumentParser:
+    """The argument parser of ``gas-ledger``, with every sub-command registered."""
     parser = _Parser(prog="gas-ledger", description="Fresh Gas Ledger: what anaesthesia consumes, costs and emits.")
     parser.add_argument(
         "--settings",
@@ -171,6 +174,7 @@ def _join_dash_values(argv):
 
 
 def main(argv=None) -> int:
+    """Run ``gas-ledger`` with ``argv`` (the process's arguments when None); the exit code."""
     parser = build_parser()
     args = parser.parse_args(_join_dash_values(argv))
     if not getattr(args, "func", None):

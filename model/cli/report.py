@@ -57,6 +57,7 @@ def register(subparsers) -> None:
 
 
 def cmd_report(args) -> int:
+    """The ``report`` command: the emissions report of a period from case records; the exit code."""
     from pathlib import Path
 
     import pandas as pd

@@ -1,5 +1,6 @@
-"""The ``store`` sub-command of ``gas-ledger`` (registered by model.cli): copy a store, show
-what it holds, save a plan file into it.
+"""The ``store`` sub-command of ``gas-ledger``: copy a store, show it, save a plan into it.
+
+Registered by :mod:`model.cli`: copy a store, show what it holds, save a plan file into it.
 """
 
 from __future__ import annotations
@@ -14,6 +15,7 @@ def _open(location):
 
 
 def cmd_store_copy(args) -> int:
+    """``store copy``: every version of one store into another, empty one; the exit code."""
     source = _open(args.source)
     try:
         target = _open(args.target)
@@ -31,6 +33,7 @@ def cmd_store_copy(args) -> int:
 
 
 def cmd_store_info(args) -> int:
+    """``store info``: the store's database, schema version, integrity and counts; the exit code."""
     from model.store import KINDS
 
     with _open(args.store) as store:
@@ -55,6 +58,7 @@ def cmd_store_info(args) -> int:
 
 
 def cmd_store_save_plan(args) -> int:
+    """``store save-plan``: a plan file saved into a store as a new version; the exit code."""
     from model.base.files import read_user_text
     from model.io.plans import MAX_PLAN_BYTES
     from model.store.access import command_line_author
@@ -67,6 +71,7 @@ def cmd_store_save_plan(args) -> int:
 
 
 def register(sub) -> None:
+    """Add the ``store`` sub-command and its actions to the sub-parsers ``sub``."""
     p = sub.add_parser("store", help="copy a store, show what it holds, save a plan file into it")
     ssub = p.add_subparsers(dest="store_command", metavar="ACTION", parser_class=type(p))
     ssub.required = True

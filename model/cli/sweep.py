@@ -13,6 +13,7 @@ def _flows(text):
 
 
 def cmd_sweep(args) -> int:
+    """The ``sweep`` command: a case plan's figures over a range of fresh gas flows; the exit code."""
     from model.cli.common import CAUTION, _reference, print_json, print_table
     from model.io.plans import load_plan
     from model.sweep import flow_sweep

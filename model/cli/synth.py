@@ -90,6 +90,7 @@ def generate(
     low_draw = rng.random(n_cases)
     uses_n2o = rng.random(n_cases) < N2O_SHARE
     theatre = rng.integers(0, len(THEATRES), n_cases)
+    share: float | np.ndarray
     if isinstance(low_flow_share, dict):
         share = np.array([float(low_flow_share.get(t, LOW_FLOW_SHARE)) for t in THEATRES])[theatre]
     else:
@@ -316,10 +317,11 @@ def write_demo(out_dir, rows: int = 120_000, seed: int = 2025) -> list[Path]:
 
 
 def _demo_purchases(use: pd.DataFrame, n2o_by_mass: bool = False) -> list[tuple]:
-    """Purchase lines of the demo: recorded use times invented factors, in whole bottles and
-    cylinders (N2O in kg when ``n2o_by_mass``).
+    """Purchase lines of the demo: recorded use times invented factors.
+
+    In whole bottles and cylinders (N2O in kg when ``n2o_by_mass``).
     """
-    rows_out = []
+    rows_out: list[tuple] = []
     for r in use.itertuples(index=False):
         f = DEMO_PURCHASE_FACTORS.get(r.item)
         if r.item == "nitrous_oxide" and r.month >= DEMO_N2O_FIXED_FROM:
@@ -353,8 +355,9 @@ def _demo_purchases(use: pd.DataFrame, n2o_by_mass: bool = False) -> list[tuple]
 
 
 def _largest_remainder(total: int, weights) -> np.ndarray:
-    """``total`` whole units shared in proportion to ``weights`` (Hare's largest remainder): the
-    parts are whole numbers that add up to ``total``; equal weights share from the first.
+    """``total`` whole units shared in proportion to ``weights`` (Hare's largest remainder).
+
+    The parts are whole numbers that add up to ``total``; equal weights share from the first.
     """
     w = np.asarray(weights, dtype=float)
     if total <= 0 or w.sum() <= 0:
@@ -368,9 +371,11 @@ def _largest_remainder(total: int, weights) -> np.ndarray:
 
 
 def _demo_purchases_by_site(lines: list[tuple], cases: pd.DataFrame) -> list[tuple]:
-    """The demo's purchase lines bought by site: each month's line of an agent or N2O shared
-    among the sites (``DEMO_SITES``) by their recorded use of it that month, in whole bottles
-    and cylinders (N2O by mass in 0.01 kg), so the hospital's totals are those of ``lines``.
+    """The demo's purchase lines bought by site.
+
+    Each month's line of an agent or N2O is shared among the sites (``DEMO_SITES``) by their
+    recorded use of it that month, in whole bottles and cylinders (N2O by mass in 0.01 kg),
+    so the hospital's totals are those of ``lines``.
     Oxygen comes from the hospital's bulk supply and names no site (invented).
     """
     names = list(dict.fromkeys(DEMO_SITES.values()))
@@ -388,13 +393,14 @@ def _demo_purchases_by_site(lines: list[tuple], cases: pd.DataFrame) -> list[tup
             weights = [float(volatile.get((month, item, s), 0.0)) for s in names]
         by_mass = unit == "kg"
         total = int(round(float(qty) * 100)) if by_mass else int(qty)
-        for site, part in zip(names, _largest_remainder(total, weights)):
+        for site, part in zip(names, _largest_remainder(total, weights), strict=True):
             if part > 0:
                 out.append((month, item, f"{part / 100:.2f}" if by_mass else int(part), unit, size, site))
     return out
 
 
 def main(argv=None) -> int:
+    """Write invented case records as ``argv`` asks (the process's arguments when None); the exit code."""
     parser = argparse.ArgumentParser(
         prog="python -m model.cli.synth", description="Write invented case records (Fernhollow General Hospital)."
     )

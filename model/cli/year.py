@@ -53,6 +53,7 @@ def _num(value: float, unit: str) -> str:
 
 
 def cmd_year(args) -> int:
+    """The ``year`` command: a department's year from a scenario, with P5-P95 bands; the exit code."""
     from model.io.scenario import load_scenario
     from model.year.compare import nonzero_rows
     from model.year.result import compute_year
@@ -97,6 +98,7 @@ def cmd_year(args) -> int:
 
 
 def cmd_compare(args) -> int:
+    """The ``compare`` command: a proposal year against a baseline over the same draws; the exit code."""
     from model.io.scenario import load_scenario
     from model.year.compare import compare_years, nonzero_rows
 

@@ -192,7 +192,7 @@ def parse_casemix_text(
 
     reader = csv.reader(io.StringIO(text))
     header = None
-    types = []
+    types: list[CaseType] = []
     try:
         for row in reader:
             line = reader.line_num
@@ -215,7 +215,8 @@ def parse_casemix_text(
                 )
             if len(types) >= MAX_CASE_TYPES:
                 raise InputError(source, f"more than {MAX_CASE_TYPES} case types", "split the mix")
-            record = dict(zip(header, row))
+            # A short row leaves its last columns empty (a long one was refused above).
+            record = dict(zip(header, row, strict=False))
             types.append(case_type_from_row(record, cached, f"{source}: line {line}"))
     except csv.Error as exc:
         raise InputError(f"{source}: line {reader.line_num}", "the row", f"not valid CSV ({exc})") from None

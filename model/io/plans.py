@@ -37,6 +37,11 @@ MAX_PLAN_BYTES = 1_000_000
 # The file format, validated with pydantic. Each field converts its unit at this edge.
 
 
+def _field(info: pydantic.ValidationInfo) -> str:
+    """The name of the field a validator checks (pydantic leaves it None only for a model's validator)."""
+    return info.field_name or "value"
+
+
 def _quantity(
     unit: str,
     low: float,
@@ -46,7 +51,7 @@ def _quantity(
     shown_unit: str | None = None,
 ):
     def convert(value, info: pydantic.ValidationInfo):
-        name = info.field_name
+        name = _field(info)
         number = to_base(value, unit, name, default_unit)
         return check_range(number, name, low, high, shown_unit or unit, low_open, typed=value)
 
@@ -55,7 +60,7 @@ def _quantity(
 
 def _share(value, info: pydantic.ValidationInfo):
     """A share typed as 0.3, "30 %" or "0.3": stored as a fraction."""
-    name = info.field_name
+    name = _field(info)
     if isinstance(value, str) and "%" in value:
         number = to_base(value, "percent", name) / 100.0
     else:
@@ -71,7 +76,7 @@ def _share_above(low: float, open_: bool, allowed: str):
     def check(value, info: pydantic.ValidationInfo):
         number = _share(value, info)
         if number < low or (open_ and number <= low):
-            raise InputError(info.field_name, value, allowed)
+            raise InputError(_field(info), value, allowed)
         return number
 
     return pydantic.BeforeValidator(check)
@@ -79,7 +84,7 @@ def _share_above(low: float, open_: bool, allowed: str):
 
 def _percent(value, info: pydantic.ValidationInfo):
     """A concentration typed as 2, "2 %" or "2%": stored in percent."""
-    return check_range(to_base(value, "percent", info.field_name), info.field_name, 0.0, 100.0, "%", typed=value)
+    return check_range(to_base(value, "percent", _field(info)), _field(info), 0.0, 100.0, "%", typed=value)
 
 
 _MAC_SUFFIX = re.compile(r"^(?P<number>.*?)\s*(?:x\s*)?MAC$", re.IGNORECASE)
@@ -91,7 +96,7 @@ def _mac_target(value, info: pydantic.ValidationInfo):
     A percent ("2 %") is refused: it is a vaporizer dial setting, and read as a bare number
     it would ask for 2 x MAC.
     """
-    name = info.field_name
+    name = _field(info)
     typed = value
     if isinstance(value, str):
         m = _MAC_SUFFIX.match(value.strip())
@@ -126,7 +131,7 @@ def format_of(expected: str):
 
     def check(value, info: pydantic.ValidationInfo):
         if value != expected:
-            raise InputError(info.field_name, value, f"this version reads '{expected}'")
+            raise InputError(_field(info), value, f"this version reads '{expected}'")
         return value
 
     return pydantic.BeforeValidator(check)
@@ -137,7 +142,7 @@ def _one_of(choices, noun: str):
 
     def check(value, info: pydantic.ValidationInfo):
         if value not in choices:
-            raise InputError(info.field_name, value, f"allowed {noun} are " + ", ".join(choices))
+            raise InputError(_field(info), value, f"allowed {noun} are " + ", ".join(choices))
         return value
 
     return pydantic.AfterValidator(check)
@@ -151,6 +156,8 @@ class _Strict(pydantic.BaseModel):
 
 
 class PatientIn(_Strict):
+    """The ``[patient]`` table of a plan file, as written (quantities with units)."""
+
     weight: Annotated[float, _quantity("kg", 0.5, 350.0)] = 70.0
     age: Annotated[float, _quantity("year", 0.0, 120.0)] = 40.0
     cardiac_output: Annotated[float | None, _quantity("L/min", 0.1, 40.0, low_open=True)] = None
@@ -159,6 +166,8 @@ class PatientIn(_Strict):
 
 
 class PhaseIn(_Strict):
+    """One ``[[phases]]`` entry of a plan file: flows and exactly one of dial or target."""
+
     name: Annotated[str, pydantic.StringConstraints(min_length=1, max_length=80)] = "phase"
     duration: Annotated[float, _quantity("min", 0.0, 24 * 60, low_open=True)]
     o2: Flow = 0.0
@@ -187,6 +196,8 @@ class PhaseIn(_Strict):
 
 
 class SettingsIn(_Strict):
+    """The ``[settings]`` table of a plan file, as written (quantities with units)."""
+
     room_temperature: Annotated[float, _quantity("degC", 0.0, 45.0)] = 20.0
     pressure: Annotated[float, _quantity("kPa", 50.0, 120.0)] = 101.325
     gwp_source: GwpSourceName = DEFAULT_GWP
@@ -203,6 +214,8 @@ class SettingsIn(_Strict):
 
 
 class PlanIn(_Strict):
+    """A whole plan file, as written: name, agent, patient, settings, prices and phases."""
+
     format: Annotated[str, format_of(PLAN_FORMAT)] = PLAN_FORMAT
     name: Annotated[str, pydantic.StringConstraints(min_length=1, max_length=120)] = "Unnamed plan"
     agent: str
@@ -340,7 +353,7 @@ def plan_to_dict(plan: CasePlan) -> dict:
         patient["minute_ventilation"] = _q(pt.minute_ventilation_l_min, "L/min")
     phases = []
     for p in plan.phases:
-        row = {
+        row: dict[str, Any] = {
             "name": p.name,
             "duration": _q(p.minutes, "min"),
             "o2": _q(p.o2_l_min, "L/min"),

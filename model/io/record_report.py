@@ -3,11 +3,17 @@
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
 
 import pandas as pd
 
 from model.io.record_files import DEFAULT_GAP_LIMIT_MIN, MAX_FLOW_L_MIN, MAX_TOTAL_FLOW_L_MIN, RecordFile, file_failures
 from model.reference import DEFAULT_REFERENCE, Reference
+
+if TYPE_CHECKING:
+    import duckdb
+
+    from model.io.duckdb_connection import LazyConnection
 
 ISSUE_KINDS = (
     "encoding",
@@ -51,6 +57,7 @@ class ReadReport:
 
     @property
     def rows_set_aside(self) -> int:
+        """Rows set aside, all issue kinds together."""
         return int(sum(self.set_aside.values()))
 
     def summary(self) -> dict:
@@ -83,12 +90,12 @@ class Records:
     ``fgf``, ``dose_pct`` and ``band``.
     """
 
-    con: object
+    con: duckdb.DuckDBPyConnection | LazyConnection
     files: list[RecordFile]
     report: ReadReport
     gap_limit_min: float
     reference: Reference = DEFAULT_REFERENCE
-    _tmpdir: object = None
+    _tmpdir: str | None = None
     #: The ``prepared`` query of each file on its own (same columns and checks), for
     #: engines that work file by file.
     file_sql: list = field(default_factory=list)
@@ -96,6 +103,10 @@ class Records:
     file_rows: list = field(default_factory=list)
     #: Agent text as read (trimmed) -> (reference agent name or "none", vaporizer maximum [%]).
     agent_map: dict = field(default_factory=dict)
+    #: Rows the reader rejected before the checks (set by the reader).
+    _rejected: int = field(default=0, init=False, repr=False)
+    #: Most row-level messages kept in the report (set by the reader).
+    _max_messages: int = field(default=DEFAULT_MAX_MESSAGES, init=False, repr=False)
 
     def guard(self):
         """A block in which any failure reading the files becomes one InputError naming the file.

@@ -84,7 +84,7 @@ class _SamplingIn(_Strict):
 class _EquivalenceIn(_Strict):
     car_kg_co2e_per_km: Annotated[
         float, _quantity("dimensionless", 0.0, 10.0, low_open=True, shown_unit="kg CO2e/km")
-    ] = DEFAULT_CAR_FACTOR.value
+    ] = DEFAULT_CAR_FACTOR.value  # type: ignore[assignment]  # a Sourced constant, 0.17, never None
     car_source: Annotated[str, pydantic.StringConstraints(min_length=1, max_length=300)] = DEFAULT_CAR_FACTOR.source
 
 
@@ -213,7 +213,12 @@ def scenario_to_dict(scenario: Scenario, case_mix: str) -> dict:
             adherence=float(p.adherence), adherence_low=float(p.adherence_low), adherence_high=float(p.adherence_high)
         )
     s = scenario.sampling
-    out = {"format": SCENARIO_FORMAT, "name": scenario.name, "case_mix": case_mix, "gwp_source": scenario.gwp_source}
+    out: dict[str, Any] = {
+        "format": SCENARIO_FORMAT,
+        "name": scenario.name,
+        "case_mix": case_mix,
+        "gwp_source": scenario.gwp_source,
+    }
     if practice:
         out["practice"] = practice
     if scenario.prices:

@@ -178,7 +178,7 @@ def _table_part(df: pd.DataFrame) -> str:
     rows = []
     for row in df.itertuples(index=False, name=None):
         cells = []
-        for v, m in zip(row, money):
+        for v, m in zip(row, money, strict=True):
             if isinstance(v, (bool, np.bool_)):
                 cells.append(f"<td>{'yes' if v else 'no'}</td>")
             elif isinstance(v, (int, np.integer, float, np.floating)):
@@ -193,9 +193,11 @@ def _table_part(df: pd.DataFrame) -> str:
 
 
 def _report_figure(fig):
-    """A copy of a figure for a report: it takes the report's width (never a fixed one), and
-    every axis makes room for its tick labels and title (plotly's automargin), so labels are
-    never cut at the figure's edge on A4 or on a screen. The page's own figure is left as it is.
+    """A copy of a figure for a report, sized by the report.
+
+    It takes the report's width (never a fixed one), and every axis makes room for its tick
+    labels and title (plotly's automargin), so labels are never cut at the figure's edge on
+    A4 or on a screen. The page's own figure is left as it is.
     """
     import plotly.graph_objects as go
 

@@ -68,7 +68,7 @@ NO_AGENT_COLOUR = "#b8c4ca"
 #: ordered for colour-blind readers and in grey print. The palest steps are left out so the
 #: lowest band still shows on white.
 FLOW_BAND_COLOURS = MappingProxyType(
-    dict(zip(FLOW_BAND_NAMES, ("#FEE391", "#FEC44F", "#FB9A29", "#EC7014", "#CC4C02", "#993404")))
+    dict(zip(FLOW_BAND_NAMES, ("#FEE391", "#FEC44F", "#FB9A29", "#EC7014", "#CC4C02", "#993404"), strict=True))
 )
 
 

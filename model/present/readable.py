@@ -1,5 +1,7 @@
-"""Numbers and names for people: column headings in words with their units, figures rounded
-to sensible significant figures, problem kinds and GWP sources in words.
+"""Numbers and names for people: headings in words with units, figures sensibly rounded.
+
+Column headings in words with their units, figures rounded to sensible significant
+figures, problem kinds and GWP sources in words.
 
 One module for every page, report and spreadsheet: the pages show tables through
 ``ui.tables`` (which builds on this), and ``model.present.exports`` writes its HTML tables with
@@ -257,8 +259,10 @@ def gwp_label(key) -> str:
 
 
 def decimals(value: float, money: bool = False) -> int:
-    """Decimals that show a figure to sensible precision: four significant figures from 1 to
-    1000, three under 1, whole numbers from 1000, two decimals for money.
+    """Decimals that show a figure to sensible precision.
+
+    Four significant figures from 1 to 1000, three under 1, whole numbers from 1000, two
+    decimals for money.
     """
     if money:
         return 2
@@ -298,8 +302,10 @@ def round_figures(values, money: bool = False) -> np.ndarray:
 
 
 def number_text(value, money: bool = False) -> str:
-    """A figure as text with thousands separators: ``3080.0`` -> "3,080",
-    ``23.799988848217595`` -> "23.8", ``5.999999999999997`` -> "6", money with two decimals.
+    """A figure as text with thousands separators, to sensible precision.
+
+    ``3080.0`` -> "3,080", ``23.799988848217595`` -> "23.8", ``5.999999999999997`` -> "6",
+    money with two decimals.
     """
     if value is None or isinstance(value, (bool, np.bool_)):
         return "" if value is None else ("yes" if value else "no")
@@ -318,14 +324,16 @@ def number_text(value, money: bool = False) -> str:
 
 
 def is_money(column) -> bool:
+    """Whether a column name is a money figure (shown with two decimals)."""
     return bool(_MONEY.match(str(column)))
 
 
 def readable_frame(df: pd.DataFrame, currency: str = "", *, rename: bool = True) -> pd.DataFrame:
-    """A copy of a result table for people: headings in words with units, figures rounded
-    (numbers stay numbers), whole-number float columns as integers, problem kinds and GWP
-    sources in words, shares as per cent. Values of a table with a ``source`` column (the
-    reference values) are kept exact.
+    """A copy of a result table for people.
+
+    Headings in words with units, figures rounded (numbers stay numbers), whole-number float
+    columns as integers, problem kinds and GWP sources in words, shares as per cent. Values
+    of a table with a ``source`` column (the reference values) are kept exact.
     """
     out = df.copy()
     # A table of sourced values (the reference table) shows each value exactly as its source

@@ -1,5 +1,7 @@
-"""Figures of a department's year and of a comparison of two years: bottles and cost by month, CO2e by
-source, the P5-P95 band through the year, paired differences. Plotly, on the house template.
+"""Figures of a department's year and of a comparison of two years (plotly, house template).
+
+Bottles and cost by month, CO2e by source, the P5-P95 band through the year, paired
+differences.
 """
 
 from __future__ import annotations
@@ -37,6 +39,7 @@ def monthly_bottles_figure(monthly: pd.DataFrame) -> go.Figure:
 
 
 def monthly_cost_figure(monthly: pd.DataFrame, currency: str) -> go.Figure:
+    """Cost per month of a year (bars), in ``currency``."""
     fig = go.Figure(
         go.Bar(
             x=monthly["month"],
@@ -115,9 +118,9 @@ def difference_figure(summary: pd.DataFrame, keys: list[tuple[str, str]]) -> go.
     rows = summary.set_index("key")
     labels = [label for _, label in keys]
     base = [abs(rows.loc[k, "baseline"]) or 1.0 for k, _ in keys]
-    p50 = [rows.loc[k, "p50"] / b * 100 for (k, _), b in zip(keys, base)]
-    lo = [(rows.loc[k, "p50"] - rows.loc[k, "p5"]) / b * 100 for (k, _), b in zip(keys, base)]
-    hi = [(rows.loc[k, "p95"] - rows.loc[k, "p50"]) / b * 100 for (k, _), b in zip(keys, base)]
+    p50 = [rows.loc[k, "p50"] / b * 100 for (k, _), b in zip(keys, base, strict=True)]
+    lo = [(rows.loc[k, "p50"] - rows.loc[k, "p5"]) / b * 100 for (k, _), b in zip(keys, base, strict=True)]
+    hi = [(rows.loc[k, "p95"] - rows.loc[k, "p50"]) / b * 100 for (k, _), b in zip(keys, base, strict=True)]
     colours = [LESS_COLOUR if v <= 0 else MORE_COLOUR for v in p50]
     fig = go.Figure(
         go.Bar(

@@ -1,5 +1,7 @@
-"""The emissions report: reporting periods, sites, intensity, baseline and target, and the LMDI
-decomposition of what drove the change (reads the record audit's results).
+"""The emissions report, read from the record audit's results.
+
+Reporting periods, sites, intensity, baseline and target, and the LMDI decomposition of
+what drove the change.
 """
 
 from model.report.lmdi import FACTORS, Decomposition, PeriodMix, decompose, lmdi_additive, logmean

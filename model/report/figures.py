@@ -178,7 +178,7 @@ def use_figures(cases: pd.DataFrame, reference: Reference, gwp_sources) -> dict:
         co2e_n2o[s] = n2o_kg * _gwp(reference, "nitrous_oxide", s, n2o_kg > 0) / 1000.0
     co2e = {s: co2e_agent[s] + co2e_n2o[s] for s in gwp_sources}
     chosen = gwp_sources[0]
-    band_min = {name: float(cases[col].sum()) for name, col in zip(FLOW_BAND_NAMES, BAND_COLUMNS)}
+    band_min = {name: float(cases[col].sum()) for name, col in zip(FLOW_BAND_NAMES, BAND_COLUMNS, strict=True)}
     band_total = sum(band_min.values())
     sums = cases[["oxygen_l", "air_l", "nitrous_oxide_l", "minutes"]].sum().to_frame().T
     absorbent = float(cases["absorbent_g"].sum()) / 1000.0 if "absorbent_g" in cases.columns else None
@@ -306,6 +306,7 @@ class PurchaseFigures:
     by_site: pd.DataFrame | None = None
 
     def co2e_t(self, label: str) -> float:
+        """Purchase-based CO2e of the period under the column ``label`` [t CO2e]."""
         return float(self.by_item[label].sum()) if len(self.by_item) else 0.0
 
 
@@ -400,7 +401,7 @@ def purchase_figures(
     base = frames[0]
     for col in ("purchased", "mass_kg"):
         base[col] = base[col] * base["share"]
-    for s, f in zip(gwp_sources[1:], frames[1:]):
+    for s, f in zip(gwp_sources[1:], frames[1:], strict=True):
         base[labels[s]] = f[labels[s]].to_numpy()
     by_item = base.groupby(["item", "unit"], as_index=False)[["purchased", "mass_kg", *labels.values()]].sum()
     by_item = by_item[["item", "purchased", "unit", "mass_kg", *labels.values()]]
@@ -441,9 +442,9 @@ def sites_against_purchases(
         up to the period's whole-set figure.
     """
     label = f"t CO2e ({reference.gwp_source(gwp_source).label})"
-    use = dict(zip(use_by_site["site"], use_by_site["t_co2e"].astype(float))) if len(use_by_site) else {}
+    use = dict(zip(use_by_site["site"], use_by_site["t_co2e"].astype(float), strict=True)) if len(use_by_site) else {}
     bs = bought.by_site
-    buy = dict(zip(bs[SITE_COLUMN], bs[label].astype(float))) if bs is not None and len(bs) else {}
+    buy = dict(zip(bs[SITE_COLUMN], bs[label].astype(float), strict=True)) if bs is not None and len(bs) else {}
     known = set(known) | set(use)
 
     def kind(site):

@@ -150,7 +150,7 @@ class PeriodMix:
 
     @property
     def co2e_kg(self) -> float:
-        """CO2e of the period. [kg]"""
+        """CO2e of the period [kg]."""
         return float(sum(self.agent_kg[a] * self.agent_gwp[a] for a in self.agent_kg) + self.n2o_kg * self.n2o_gwp)
 
 
@@ -206,10 +206,11 @@ class Decomposition:
 
     @property
     def change_kg(self) -> float:
+        """Period less baseline [kg CO2e]."""
         return self.period_kg - self.baseline_kg
 
     def contribution(self, factor: str) -> float:
-        """Contribution of one factor. [kg CO2e]"""
+        """Contribution of one factor [kg CO2e]."""
         return float(self.by_factor.set_index("factor").loc[factor, "contribution_kg"])
 
 

@@ -68,20 +68,22 @@ class Period:
 
     @property
     def last_day(self) -> date:
+        """The last day inside the period."""
         return self.end - timedelta(days=1)
 
     @property
     def days(self) -> int:
+        """Length in days."""
         return (self.end - self.start).days
 
     @property
     def months(self) -> float:
-        """Length in months: whole months counted exactly, a partial month by its share of days. [month]"""
+        """Length in months: whole months counted exactly, a partial month by its share of days [month]."""
         return float(sum(month_shares(self).values()))
 
     @property
     def midpoint_years(self) -> float:
-        """Midpoint as a decimal year (2026.5 for the calendar year 2026). [year]"""
+        """Midpoint as a decimal year (2026.5 for the calendar year 2026) [year]."""
         return (_decimal_year(self.start) + _decimal_year(self.end)) / 2.0
 
     def contains(self, when) -> np.ndarray:
@@ -91,6 +93,7 @@ class Period:
         return ((t >= lo) & (t < hi)).to_numpy(dtype=bool)
 
     def overlaps(self, other: Period) -> bool:
+        """Whether the two periods share at least one day."""
         return self.start < other.end and other.start < self.end
 
 
@@ -181,7 +184,7 @@ def _iso(text: str) -> str:
 
 
 def month_shares(period: Period) -> dict[str, float]:
-    """Share of each calendar month (YYYY-MM) that lies inside the period. [1]
+    """Share of each calendar month (YYYY-MM) that lies inside the period [1].
 
     Whole months give 1.0; the first and last month of a date range give their share of
     days. Used to count monthly purchases in a period.

@@ -48,6 +48,7 @@ class Target:
 
     @property
     def label(self) -> str:
+        """The target in plain words, e.g. "-5 % a year from the baseline"."""
         if self.kind == "rate":
             return f"{self.rate * 100:+g} % a year from the baseline"
         return f"{self.tonnes:g} t CO2e a year by {self.year}"
@@ -80,14 +81,14 @@ def parse_target(text: str, where: str = "target") -> Target:
 
 
 def annual_rate_t(total_kg: float, period: Period) -> float:
-    """A period's emissions as a yearly rate: total x 12 / length in months. [t CO2e/year]"""
+    """A period's emissions as a yearly rate: total x 12 / length in months [t CO2e/year]."""
     return float(total_kg) / 1000.0 * 12.0 / period.months
 
 
 def target_path_t(
     target: Target, baseline: Period, baseline_t_per_year: float, at_years, where: str = "target"
 ) -> np.ndarray:
-    """The target path: annual emissions the target allows at decimal years ``at_years``. [t CO2e/year]
+    """The target path: annual emissions the target allows at decimal years ``at_years`` [t CO2e/year].
 
     Parameters
     ----------
@@ -127,14 +128,16 @@ class TargetStatus:
 
     @property
     def on_track(self) -> bool:
+        """Whether the period ran at or under the path."""
         return self.actual_t_per_year <= self.allowed_t_per_year + 1e-9
 
     @property
     def margin_t_per_year(self) -> float:
-        """Allowed less actual: positive when under the path. [t CO2e/year]"""
+        """Allowed less actual: positive when under the path [t CO2e/year]."""
         return self.allowed_t_per_year - self.actual_t_per_year
 
     def sentence(self) -> str:
+        """The status as one sentence for a report."""
         state = "on track" if self.on_track else "not on track"
         how = "under" if self.on_track else "over"
         return (

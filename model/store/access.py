@@ -49,13 +49,16 @@ class AccessConfig:
 
     @property
     def enabled(self) -> bool:
+        """Whether sign-in is configured (anything but ``sign_in = "off"``)."""
         return self.sign_in != "off"
 
 
 @dataclass(frozen=True)
 class User:
-    """Who is using the dashboard. ``id`` is what the editors list is matched against (the
-    e-mail of a Streamlit sign-in, the header's value); empty when no one is signed in.
+    """Who is using the dashboard.
+
+    ``id`` is what the editors list is matched against (the e-mail of a Streamlit sign-in,
+    the header's value); empty when no one is signed in.
     """
 
     id: str = ""
@@ -64,6 +67,7 @@ class User:
 
     @property
     def signed_in(self) -> bool:
+        """Whether someone is signed in."""
         return bool(self.id)
 
     @property
@@ -175,7 +179,7 @@ def is_editor(config: AccessConfig, user: User) -> bool:
 
 
 def may_edit_reference(config: AccessConfig, user: User) -> Permission:
-    """May the user change the reference values or put an earlier set back in use?"""
+    """Whether the user may change the reference values or put an earlier set back in use."""
     if not config.enabled:
         return Permission(True)
     if not user.signed_in:
@@ -208,5 +212,5 @@ def command_line_author() -> str:
         who = getpass.getuser()
     except (KeyError, OSError, ImportError):
         who = ""
-    who = _clean_identity(who)
-    return f"{COMMAND_LINE} ({who})" if who else COMMAND_LINE
+    shown = _clean_identity(who)
+    return f"{COMMAND_LINE} ({shown})" if shown else COMMAND_LINE

@@ -74,8 +74,10 @@ def reference_changes(versions: Iterable) -> list[Change]:
 
 
 def default_value(reference: Reference, path: str):
-    """The built-in value a dotted overrides path replaces (None where there is none, as for
-    user GWP values), so the change log can say "from the default 0.3" instead of "default".
+    """The built-in value a dotted overrides path replaces (None where there is none).
+
+    There is none for user GWP values. With it the change log can say "from the default 0.3"
+    instead of "default".
     """
     parts = path.split(".")
     try:

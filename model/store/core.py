@@ -65,6 +65,7 @@ class Store:
     def __init__(self, location: str | os.PathLike | None = None):
         if location is None:
             location = default_location()
+        self._db: _Postgres | _SQLite
         if is_postgres_url(location):
             self._db = _Postgres(str(location).strip())
         else:
@@ -87,7 +88,7 @@ class Store:
 
     @property
     def dialect(self) -> str:
-        """ "sqlite" or "postgresql"."""
+        """Dialect of the database: "sqlite" or "postgresql"."""
         return self._db.dialect
 
     def close(self) -> None:
@@ -103,6 +104,7 @@ class Store:
     # ---- schema ----------------------------------------------------------------------
 
     def schema_version(self) -> int:
+        """The store's schema version (0 for an empty store)."""
         with self._db.read() as con:
             return self._read_schema_version(con)
 
@@ -127,8 +129,8 @@ class Store:
             raise StoreError(what, self.location, f"has an unreadable schema version {row[0]!r}") from None
 
     def _open_and_migrate(self) -> None:
-        if self.dialect == "sqlite":
-            check_store_file(self.path)  # read-only: a file that is not ours stays as it was
+        if isinstance(self._db, _SQLite):
+            check_store_file(self._db.path)  # read-only: a file that is not ours stays as it was
         with self._db.read(setup=False) as con:
             found = self._read_schema_version(con)
         self._refuse_newer(found)
@@ -252,6 +254,7 @@ class Store:
         return [Version(kind, name, *r) for r in rows]
 
     def count_versions(self, kind: str | None = None) -> int:
+        """Number of saved versions of ``kind`` (of every kind when None)."""
         with self._db.read() as con:
             if kind is None:
                 return con.execute("SELECT COUNT(*) FROM versions").fetchone()[0]
@@ -279,8 +282,10 @@ class Store:
                 raise InputError(kind, name, f"no saved {kind} of that name")
 
     def integrity(self) -> str:
-        """ "ok" when the store is sound: the database's own check (SQLite), and every item's
-        versions numbered 1 to n without a gap.
+        """Whether the store is sound: "ok", or what is wrong.
+
+        Sound is the database's own check (SQLite) passing, and every item's versions
+        numbered 1 to n without a gap.
         """
         with self._db.read() as con:
             own = self._db.integrity(con)
@@ -302,6 +307,7 @@ class Store:
         return self.save("plan", plan.name, plan_to_toml(plan), note, author)
 
     def load_plan(self, name: str, version: int | None = None) -> CasePlan:
+        """The saved plan ``name`` at ``version`` (the latest when None), parsed."""
         v = self.get("plan", name, version)
         return parse_plan_text(v.body, f"stored plan '{name}' version {v.version}")
 
@@ -324,6 +330,7 @@ class Store:
         return plan, self.save_plan(plan, note or f"imported from {source}", author)
 
     def export_plan_text(self, name: str, version: int | None = None) -> str:
+        """The saved plan ``name`` at ``version`` (the latest when None) as plan-file TOML."""
         return plan_to_toml(self.load_plan(name, version))
 
     # ---- overrides -------------------------------------------------------------------
@@ -352,8 +359,9 @@ class Store:
     # ---- copying ---------------------------------------------------------------------
 
     def copy_into(self, target: Store) -> int:
-        """Copy every item and version of this store into an empty ``target``; return the
-        number of versions copied.
+        """Copy every item and version of this store into an empty ``target``.
+
+        Returns the number of versions copied.
 
         Each version keeps its number, body, note, time and author; each item its creation
         time and whether it is hidden; the order of saves is kept. The copy is one

@@ -1,5 +1,7 @@
-"""What the store holds and where: its tables and schema versions, migrations, locations and the
-checks of every saved name and text.
+"""What the store holds and where.
+
+Its tables and schema versions, migrations, locations and the checks of every saved name
+and text.
 """
 
 from __future__ import annotations

@@ -1,7 +1,21 @@
 # The public names of model.year, listed once: lazy_loader reads this stub to load each name
 # on first use (PEP 562), and type checkers and the API pages read it as the package's interface.
+# Each name is written `name as name`, a stub's mark of a re-export (PEP 484), so type
+# checkers take it as public.
 
-from .compare import Comparison, compare_years, nonzero_rows
-from .inputs import MAX_DRAWS, MONTHS, CaseMix, CaseType, Practice, Sampling, Scenario, stretch_phase
-from .result import YearResult, compute_year, headline_figures
-from .simulate import YearInputs, year_inputs
+from .compare import Comparison as Comparison
+from .compare import compare_years as compare_years
+from .compare import nonzero_rows as nonzero_rows
+from .inputs import MAX_DRAWS as MAX_DRAWS
+from .inputs import MONTHS as MONTHS
+from .inputs import CaseMix as CaseMix
+from .inputs import CaseType as CaseType
+from .inputs import Practice as Practice
+from .inputs import Sampling as Sampling
+from .inputs import Scenario as Scenario
+from .inputs import stretch_phase as stretch_phase
+from .result import YearResult as YearResult
+from .result import compute_year as compute_year
+from .result import headline_figures as headline_figures
+from .simulate import YearInputs as YearInputs
+from .simulate import year_inputs as year_inputs

@@ -38,6 +38,7 @@ class Comparison:
         return by_severity(self.baseline.warnings + self.proposal.warnings)
 
     def to_dict(self) -> dict:
+        """Plain-dict form with stable keys (for JSON)."""
         return {
             "baseline": self.baseline.scenario.name,
             "proposal": self.proposal.scenario.name,

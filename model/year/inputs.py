@@ -46,7 +46,7 @@ class CaseType:
 
     @property
     def fixed_min(self) -> float:
-        """Minutes of the phases that keep their planned length. [min]"""
+        """Minutes of the phases that keep their planned length [min]."""
         i = self.stretch_index
         return float(sum(p.minutes for j, p in enumerate(self.plan.phases) if j != i))
 
@@ -62,6 +62,7 @@ class CaseMix:
 
     @property
     def cases_per_year(self) -> int:
+        """Cases a year, all case types together."""
         return int(sum(t.cases_per_year for t in self.types))
 
     def with_counts(self, factor: float) -> CaseMix:
@@ -128,6 +129,7 @@ class Practice:
 
     @property
     def changes_anything(self) -> bool:
+        """Whether the practice changes any case (flow, dial, agent or O2 share)."""
         return (
             self.maintenance_flow_l_min is not None
             or self.dial_factor != 1.0
@@ -160,7 +162,7 @@ class Scenario:
     #: Price overrides in the settings-file form (``currency``, ``bottle.<agent>``, ...).
     prices: Mapping[str, Any] = field(default_factory=dict)
     sampling: Sampling = field(default_factory=Sampling)
-    car_kg_per_km: float = DEFAULT_CAR_FACTOR.value
+    car_kg_per_km: float = DEFAULT_CAR_FACTOR.value  # type: ignore[assignment]  # a Sourced constant, 0.17, never None
     car_source: str = DEFAULT_CAR_FACTOR.source
     month_weights: tuple[float, ...] = DAYS_PER_MONTH
     source: str = ""
@@ -172,4 +174,5 @@ class Scenario:
         return base.with_overrides({"prices": dict(self.prices)}, f"scenario '{self.name}'")
 
     def with_practice(self, **changes) -> Scenario:
+        """A copy with some fields of the practice changed (e.g. ``with_practice(dial_factor=1.2)``)."""
         return replace(self, practice=replace(self.practice, **changes))

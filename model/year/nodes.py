@@ -1,4 +1,7 @@
-"""Duration nodes of a case type: log-normal stretch minutes, nodes spanning them, linear interpolation and its exact moments."""
+"""Duration nodes of a case type and linear interpolation between them.
+
+Log-normal stretch minutes, the nodes spanning them, linear interpolation and its exact moments.
+"""
 
 from __future__ import annotations
 
@@ -66,7 +69,7 @@ NODE_Z = (-2.5, -1.25, 0.0, 1.25, 2.5)
 
 
 def duration_nodes(median_min, spread, fixed_min, z=NODE_Z) -> np.ndarray:
-    """Stretched minutes at which a case type is simulated: sorted, distinct, >= 0. [min]
+    """Stretched minutes at which a case type is simulated: sorted, distinct, >= 0 [min].
 
     The median is always a node, so a type without spread is simulated at its median only.
     """
