@@ -38,20 +38,24 @@ PURCHASES = ROOT / "demo_data" / "records" / "fernhollow_purchases_2025.csv"
 # --- the wheel ---------------------------------------------------------------------------
 
 
-@pytest.fixture(scope="module")
-def wheel(tmp_path_factory) -> Path:
-    """The wheel built from a copy of the project's files (the checkout itself stays clean)."""
-    src = tmp_path_factory.mktemp("src")
+def _project_files() -> list[str]:
+    """The project's files as a fresh clone has them (tracked, or new and not ignored)."""
     listed = subprocess.run(
         ["git", "ls-files", "--cached", "--others", "--exclude-standard", "-z"],
         cwd=ROOT,
         capture_output=True,
         check=True,
     ).stdout.decode()
-    for name in filter(None, listed.split("\0")):
-        if (ROOT / name).is_file():
-            (src / name).parent.mkdir(parents=True, exist_ok=True)
-            shutil.copy2(ROOT / name, src / name)
+    return [name for name in listed.split("\0") if name and (ROOT / name).is_file()]
+
+
+@pytest.fixture(scope="module")
+def wheel(tmp_path_factory) -> Path:
+    """The wheel built from a copy of the project's files (the checkout itself stays clean)."""
+    src = tmp_path_factory.mktemp("src")
+    for name in _project_files():
+        (src / name).parent.mkdir(parents=True, exist_ok=True)
+        shutil.copy2(ROOT / name, src / name)
     out = tmp_path_factory.mktemp("wheel")
     done = subprocess.run(
         [sys.executable, "-m", "pip", "wheel", "--no-deps", "--quiet", "-w", str(out), str(src)],
@@ -85,11 +89,7 @@ def test_the_wheel_holds_the_package_with_its_data_and_nothing_of_the_checkout(w
         assert not any(n.startswith(top) for n in names), top
     # Every file of the package's source folder is in it: modules, the lazy packages' stubs,
     # the data read with importlib.resources, and py.typed where the package has it.
-    source = {
-        p.relative_to(ROOT).as_posix()
-        for p in (ROOT / "model").rglob("*")
-        if p.is_file() and "__pycache__" not in p.parts and p.suffix != ".pyc"
-    }
+    source = {name for name in _project_files() if name.startswith("model/")}
     assert source - names == set()
     assert {"model/io/upload_limits.toml", "model/__init__.pyi", "model/io/__init__.pyi"} <= names
     assert "model/py.typed" in names or not (ROOT / "model" / "py.typed").exists()
