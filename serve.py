@@ -30,8 +30,9 @@ FIRST_PAGE = (HERE / "app.py", HERE / "pages" / "case_plan.py")
 
 
 def script_imports(path: Path) -> list[tuple[str, tuple[str, ...]]]:
-    """``(module, names)`` of each top-level import statement of a script, in order
-    (``names`` empty for ``import module``; ``from __future__`` left out).
+    """``(module, names)`` of each top-level import statement of a script, in order.
+
+    ``names`` is empty for ``import module``; ``from __future__`` is left out.
     """
     out = []
     for node in ast.parse(path.read_text(encoding="utf-8")).body:

@@ -4,4 +4,7 @@
 set -euo pipefail
 cd "$(dirname "$0")/.."
 scripts/setup.sh
-exec .venv/bin/python -m streamlit run serve.py "$@"
+# Streamlit's upload limit is the package's (model/io/upload_limits.toml, or
+# STREAMLIT_SERVER_MAX_UPLOAD_SIZE when set): the value the upload guard applies too.
+limit=$(.venv/bin/python -c "from model.io.uploads import upload_limit_mb; print(upload_limit_mb())")
+exec .venv/bin/python -m streamlit run serve.py --server.maxUploadSize "$limit" "$@"

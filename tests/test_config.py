@@ -1,6 +1,8 @@
 """The Streamlit configuration shipped with the project keeps the hospital-network choices."""
 
 import json
+import os
+import shlex
 import subprocess
 import sys
 import tomllib
@@ -25,11 +27,15 @@ def test_cross_site_protections_stay_on(config):
     assert config["server"].get("xsrfCookieSameSite", "lax") in ("lax", "strict")
 
 
-def test_upload_limit_is_set_and_small(config):
-    limit = config["server"]["maxUploadSize"]
+def test_upload_limit_is_the_packages_and_small(config):
+    from model.io.uploads import LIMITS
+
+    limit = LIMITS["max_upload_mb"]
     assert isinstance(limit, int) and not isinstance(limit, bool)
-    # Streamlit's default is 200 MB; ours is deliberately smaller.
+    # Streamlit's default is 200 MB (its config.py); ours is deliberately smaller.
     assert limit in range(1, 51)
+    # One source: the Streamlit file does not set it a second time.
+    assert "maxUploadSize" not in config["server"]
 
 
 def test_usage_statistics_are_off(config):
@@ -82,10 +88,63 @@ def test_streamlit_reads_every_setting_from_the_shipped_file(config):
         assert Path(where).resolve() == CONFIG, key
 
 
-def test_upload_guard_uses_the_configured_limit(config):
-    from model.io.uploads import upload_limit_bytes
+def _streamlit_upload_limit_as_dashboard_starts_it(env: dict) -> int:
+    """Streamlit's ``server.maxUploadSize`` when started by the lines of scripts/dashboard.sh.
 
-    assert upload_limit_bytes() == config["server"]["maxUploadSize"] * 1024 * 1024
+    Source: Streamlit's own command line (streamlit.web.cli) parses the dashboard's
+    ``streamlit run`` arguments and loads its configuration; only the server start is left out.
+    """
+    script = (ROOT / "scripts" / "dashboard.sh").read_text(encoding="utf-8")
+    limit_line = next(line for line in script.splitlines() if line.startswith("limit="))
+    run_line = next(line for line in script.splitlines() if line.startswith("exec "))
+    python = shlex.quote(sys.executable)
+    # The limit= line as the script runs it, with this interpreter in place of .venv's.
+    limit = subprocess.run(
+        ["bash", "-c", limit_line.replace(".venv/bin/python", python) + '; printf %s "$limit"'],
+        cwd=ROOT,
+        env=env,
+        capture_output=True,
+        text=True,
+        timeout=120,
+        check=True,
+    ).stdout
+    words = shlex.split(run_line.replace('"$limit"', limit).replace('"$@"', ""))
+    assert words[:4] == ["exec", ".venv/bin/python", "-m", "streamlit"], run_line
+    code = (
+        "import sys\n"
+        "from streamlit import config\n"
+        "from streamlit.web import bootstrap, cli\n"
+        "def report(*a, **k):\n"
+        "    print('LIMIT', config.get_option('server.maxUploadSize'))\n"
+        "bootstrap.run = bootstrap.run_asgi_app = report\n"
+        "cli.main(sys.argv[1:], standalone_mode=False)\n"
+    )
+    done = subprocess.run(
+        [sys.executable, "-c", code, *words[4:]],
+        cwd=ROOT,
+        env=env,
+        capture_output=True,
+        text=True,
+        timeout=120,
+        check=True,
+    )
+    return int(next(line for line in done.stdout.splitlines() if line.startswith("LIMIT ")).split()[1])
+
+
+def test_the_dashboard_gives_streamlit_the_packages_upload_limit():
+    from model.io.uploads import LIMITS, UPLOAD_LIMIT_ENV
+
+    env = {k: v for k, v in os.environ.items() if k != UPLOAD_LIMIT_ENV}
+    assert _streamlit_upload_limit_as_dashboard_starts_it(env) == LIMITS["max_upload_mb"] != 200
+    # The environment form wins, for Streamlit and for the guard alike.
+    assert _streamlit_upload_limit_as_dashboard_starts_it({**env, UPLOAD_LIMIT_ENV: "3"}) == 3
+
+
+def test_upload_guard_uses_the_packages_limit(monkeypatch):
+    from model.io.uploads import LIMITS, UPLOAD_LIMIT_ENV, upload_limit_bytes
+
+    monkeypatch.delenv(UPLOAD_LIMIT_ENV, raising=False)
+    assert upload_limit_bytes() == LIMITS["max_upload_mb"] * 1024 * 1024
 
 
 def _luminance(hex_colour: str) -> float:
@@ -112,7 +171,7 @@ def test_theme_is_calm_and_our_own_with_red_kept_for_danger(config):
 
     theme = config["theme"]
     assert theme["base"] == "light"
-    # The accent is the house colour, the same in the charts (model/present/palette.py, re-exported as model.present.palette).
+    # The accent is the house colour, the same in the charts (model/present/palette.py).
     assert theme["primaryColor"].lower() == PRIMARY.lower()
     assert theme["textColor"].lower() == TEXT.lower()
     assert [c.lower() for c in theme["chartCategoricalColors"]] == [c.lower() for c in PALETTE]

@@ -147,12 +147,44 @@ def test_parquet_with_too_many_columns_is_refused():
 # --- size -----------------------------------------------------------------------------
 
 
-def test_limit_comes_from_the_shipped_streamlit_config():
+def test_limit_comes_from_the_package(monkeypatch):
     import tomllib
+    from importlib import resources
 
-    config = tomllib.loads((ROOT / ".streamlit" / "config.toml").read_text())
-    assert upload_limit_mb() == config["server"]["maxUploadSize"]
-    assert upload_limit_bytes() == config["server"]["maxUploadSize"] * 1024 * 1024
+    monkeypatch.delenv(UPLOAD_LIMIT_ENV, raising=False)
+    shipped = tomllib.loads(resources.files("model.io").joinpath("upload_limits.toml").read_text(encoding="utf-8"))
+    assert upload_limit_mb() == shipped["max_upload_mb"]
+    assert upload_limit_bytes() == shipped["max_upload_mb"] * 1024 * 1024
+    assert (MAX_TOML_BYTES, MAX_LINE_CHARS, MAX_PARQUET_COLUMNS) == (
+        shipped["max_toml_bytes"],
+        shipped["max_line_chars"],
+        shipped["max_parquet_columns"],
+    )
+    # The limits SECURITY.md states (25 MB uploads, 1 MB TOML, 10,000-character lines,
+    # 200 columns and 5,000,000 rows of Parquet).
+    assert dict(shipped) == {
+        "max_upload_mb": 25,
+        "max_toml_bytes": 1_000_000,
+        "max_line_chars": 10_000,
+        "max_parquet_rows": 5_000_000,
+        "max_parquet_columns": 200,
+    }
+
+
+def test_a_bad_limits_file_is_one_line(monkeypatch, tmp_path):
+    import model.io.uploads as uploads
+
+    class Files:
+        def joinpath(self, name):
+            return tmp_path / name
+
+    monkeypatch.setattr(uploads.resources, "files", lambda package: Files())
+    (tmp_path / uploads.LIMITS_FILE).write_text("max_upload_mb = 0\n", encoding="utf-8")
+    with pytest.raises(InputError, match="max_upload_mb.*at least 1"):
+        uploads._read_limits()
+    (tmp_path / uploads.LIMITS_FILE).write_text("max_upload_mb = \n", encoding="utf-8")
+    with pytest.raises(InputError, match="cannot read the upload limits"):
+        uploads._read_limits()
 
 
 def test_environment_overrides_the_limit_as_in_streamlit(monkeypatch):
@@ -207,8 +239,10 @@ def test_windows_1252_text_is_refused_with_its_line():
 
 
 def test_a_records_csv_line_not_in_utf8_is_left_to_the_reader():
-    """Defect 11 of issue 12: one bad line must not refuse a whole record file; the records
-    reader sets that line aside (README, "Case records"), on the page as on the command line.
+    """Defect 11 of issue 12: one bad line must not refuse a whole record file.
+
+    The records reader sets that line aside (README, "Case records"), on the page as on the
+    command line.
     """
     data = "case_id,name\nFGH-1,Caf\u00e9\nFGH-2,ok\n".encode("cp1252")
     up = check_upload("r.csv", data, "records")

@@ -30,9 +30,16 @@ _compiled: dict = {}
 
 
 def _kernel(name: str = "scan"):
-    """A compiled loop, built on first use (numba caches the machine code on disk)."""
+    """A compiled loop, built on first use (numba caches the machine code on disk).
+
+    None without numba (the optional ``fast`` extra): the callers then take the numpy path,
+    which gives the same results to the last bit.
+    """
     if name not in _compiled:
-        from numba import njit
+        try:
+            from numba import njit
+        except ImportError:
+            return None
 
         _compiled[name] = njit(cache=True, nogil=True)({"scan": _scan, "checks": _checks}[name])
     return _compiled[name]
@@ -75,6 +82,48 @@ def _checks(
         if d < 0.0 or d > md or e < 0.0 or e > md:
             return False
     return True
+
+
+def _checks_numpy(
+    case_code, n_cases, agent_code, known, volatile, max_dial, o2, air, n2o, dial, et, nan_missing, max_flow, max_total
+):
+    """:func:`_checks` as numpy operations over every row, for when numba is absent.
+
+    The same tests as the loop, each over the whole column; a row fails the file when any
+    test fails, so the order of the tests does not change the answer.
+    """
+    n = len(case_code)
+    if n == 0:
+        return True
+    if (case_code >= n_cases).any() or not known[agent_code].all():
+        return False
+    present = np.zeros(n, dtype=np.bool_)
+    total = np.zeros(n)
+    for f, flow in enumerate((o2, air, n2o)):
+        if len(flow) == 0:  # no such column
+            continue
+        counted = ~(np.isnan(flow) & nan_missing[f])
+        with np.errstate(invalid="ignore"):
+            bad = ~np.isfinite(flow) | (flow < 0.0) | (flow > max_flow)
+        if (counted & bad).any():
+            return False
+        present |= counted
+        total = total + np.where(counted, flow, 0.0)
+    if not present.all() or (total > max_total).any():
+        return False
+    d = dial if len(dial) else np.full(n, np.nan)
+    e = et if len(et) else np.full(n, np.nan)
+    if (len(dial) and not nan_missing[3] and np.isnan(d).any()) or (
+        len(et) and not nan_missing[4] and np.isnan(e).any()
+    ):
+        return False
+    if np.isinf(d).any() or np.isinf(e).any():
+        return False
+    if (volatile[agent_code] & np.isnan(d) & np.isnan(e)).any():
+        return False
+    md = max_dial[agent_code]
+    with np.errstate(invalid="ignore"):
+        return not ((d < 0.0) | (d > md) | (e < 0.0) | (e > md)).any()
 
 
 def rows_pass(
@@ -121,7 +170,7 @@ def rows_pass(
     empty = np.zeros(0)
     o2, air, n2o = (empty if x is None else np.ascontiguousarray(x, dtype=np.float64) for x in flows)
     return bool(
-        _kernel("checks")(
+        (_kernel("checks") or _checks_numpy)(
             np.ascontiguousarray(case_code, dtype=np.int64),
             np.int64(n_cases),
             np.ascontiguousarray(agent_code, dtype=np.int64),
@@ -323,6 +372,8 @@ def case_sums(
     file order, as ``numpy.bincount`` sums, so both paths give the same bits; the tests
     check it on random records.
     """
+    if _kernel("scan") is None:  # no numba: numpy's general path does the same sums
+        return None
     arrays = [np.ascontiguousarray(a, dtype=np.int64) for a in (code, agent)] + [
         np.ascontiguousarray(a, dtype=np.float64) for a in (t_min, o2, air, n2o, dial, end_tidal)
     ]

@@ -111,9 +111,20 @@ def cmd_reference(args) -> int:
     return 0
 
 
+def _version() -> str:
+    """The installed version of fresh-gas-ledger, from its package metadata (written once, in pyproject.toml)."""
+    import importlib.metadata
+
+    try:
+        return importlib.metadata.version("fresh-gas-ledger")
+    except importlib.metadata.PackageNotFoundError:
+        return "unknown (run from a source folder that is not installed)"
+
+
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser of ``gas-ledger``, with every sub-command registered."""
     parser = _Parser(prog="gas-ledger", description="Fresh Gas Ledger: what anaesthesia consumes, costs and emits.")
+    parser.add_argument("--version", action="version", version=f"gas-ledger (fresh-gas-ledger) {_version()}")
     parser.add_argument(
         "--settings",
         metavar="FILE",

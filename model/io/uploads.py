@@ -1,7 +1,7 @@
 """The guard every uploaded file passes before a parser reads it.
 
 ``check_upload(name, data, kind)`` accepts only the documented formats of each kind of file,
-checks the size against the app's configured upload limit and sniffs the content: archives,
+checks the size against the package's upload limit (``upload_limits.toml``) and sniffs the content: archives,
 office documents, images, executables and other binary junk, NUL bytes or control characters
 in text, text not in UTF-8 (except a records CSV's lines, which its reader sets aside one by
 one, as on the command line), over-long lines and deeply nested TOML are refused with one
@@ -17,20 +17,36 @@ import re
 import tomllib
 from collections.abc import Mapping
 from dataclasses import dataclass
-from functools import lru_cache
-from pathlib import Path, PurePath
+from importlib import resources
+from pathlib import PurePath
 from types import MappingProxyType
 
 from model.base.errors import InputError
 from model.base.files import MAX_TOML_DEPTH, parse_toml  # noqa: F401  (MAX_TOML_DEPTH: part of this module's API)
 
-#: The Streamlit configuration shipped with the project; its ``server.maxUploadSize`` [MB,
-#: counted as MiB by Streamlit] is the one upload limit of the app.
-CONFIG_PATH = Path(__file__).resolve().parents[1] / ".streamlit" / "config.toml"
-#: Streamlit's environment form of ``server.maxUploadSize``; it wins over the file, as in Streamlit.
+#: The package's data file of upload limits (read with importlib.resources, so an installed
+#: package needs no checkout); scripts/dashboard.sh hands its ``max_upload_mb`` to Streamlit.
+LIMITS_FILE = "upload_limits.toml"
+#: Streamlit's environment form of ``server.maxUploadSize``; it wins over the package's limit,
+#: for Streamlit and for this guard alike.
 UPLOAD_LIMIT_ENV = "STREAMLIT_SERVER_MAX_UPLOAD_SIZE"
-#: Used only when neither the environment nor the config file sets a limit. [MB]
-FALLBACK_UPLOAD_MB = 25
+
+
+def _read_limits() -> Mapping[str, int]:
+    """The limits of ``LIMITS_FILE``, each a whole number of at least 1."""
+    where = f"{__package__}/{LIMITS_FILE}"
+    try:
+        limits = tomllib.loads(resources.files(__package__).joinpath(LIMITS_FILE).read_text(encoding="utf-8"))
+    except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError) as exc:
+        raise InputError(where, "the file", f"cannot read the upload limits ({exc})") from None
+    for key, value in limits.items():
+        if isinstance(value, bool) or not isinstance(value, int) or value < 1:
+            raise InputError(f"{where}: {key}", value, "expected a whole number, at least 1")
+    return MappingProxyType(limits)
+
+
+#: The upload limits as the package ships them (``LIMITS_FILE``).
+LIMITS = _read_limits()
 
 #: Formats each kind of upload may come in (file extension -> format).
 KINDS: Mapping[str, tuple[str, ...]] = MappingProxyType(
@@ -51,12 +67,12 @@ _TEXT_FORMATS = ("csv", "toml")
 LINE_BY_LINE_KINDS = ("records",)
 
 #: Largest TOML file (plans, settings, scenarios, case mixes). [bytes] Same as plan files.
-MAX_TOML_BYTES = 1_000_000
+MAX_TOML_BYTES = LIMITS["max_toml_bytes"]
 #: Longest line in a text upload. [characters]
-MAX_LINE_CHARS = 10_000
+MAX_LINE_CHARS = LIMITS["max_line_chars"]
 #: Most rows and columns in a Parquet upload (its data may be compressed far below its size).
-MAX_PARQUET_ROWS = 5_000_000
-MAX_PARQUET_COLUMNS = 200
+MAX_PARQUET_ROWS = LIMITS["max_parquet_rows"]
+MAX_PARQUET_COLUMNS = LIMITS["max_parquet_columns"]
 
 # Leading bytes of formats that are never one of ours. (offset, magic, what it is)
 _SIGNATURES = (
@@ -86,7 +102,7 @@ _PARQUET_MAGIC = b"PAR1"
 _CONTROL = re.compile("[\x00-\x08\x0b\x0e-\x1f\x7f]")
 _CONTROL_OR_BREAK = re.compile("[\x00-\x1f\x7f\x85\u2028\u2029]")
 # A line longer than the limit, its line break (LF or CR LF) not counted.
-_LONG_LINE = re.compile("^[^\n]{%d}(?!\r?(?:\n|\\Z))" % MAX_LINE_CHARS, re.MULTILINE)
+_LONG_LINE = re.compile(f"^[^\n]{{{MAX_LINE_CHARS}}}(?!\r?(?:\n|\\Z))", re.MULTILINE)
 
 
 @dataclass(frozen=True)
@@ -105,42 +121,28 @@ class Upload:
     text: str | None
 
 
-def upload_limit_mb(config_path: Path | None = None) -> int:
-    """The app's upload limit: ``server.maxUploadSize``. [MB]
+def upload_limit_mb() -> int:
+    """The app's upload limit, Streamlit's ``server.maxUploadSize``, in MB.
 
-    Read from the environment variable ``STREAMLIT_SERVER_MAX_UPLOAD_SIZE`` if set, else from
-    the project's ``.streamlit/config.toml`` (the file Streamlit itself reads), else
-    ``FALLBACK_UPLOAD_MB``.
+    Read from the environment variable ``STREAMLIT_SERVER_MAX_UPLOAD_SIZE`` if set (as
+    Streamlit does), else the package's ``max_upload_mb`` (``LIMITS_FILE``), the value
+    scripts/dashboard.sh gives Streamlit.
     """
     env = os.environ.get(UPLOAD_LIMIT_ENV, "").strip()
-    if env:
-        try:
-            value = int(env)
-        except ValueError:
-            raise InputError(UPLOAD_LIMIT_ENV, env, "expected a whole number of MB") from None
-        if value < 1:
-            raise InputError(UPLOAD_LIMIT_ENV, env, "expected at least 1 MB")
-        return value
-    return _config_limit_mb(str(config_path or CONFIG_PATH))
-
-
-@lru_cache(maxsize=4)
-def _config_limit_mb(path: str) -> int:
+    if not env:
+        return LIMITS["max_upload_mb"]
     try:
-        config = tomllib.loads(Path(path).read_text(encoding="utf-8"))
-    except FileNotFoundError:
-        return FALLBACK_UPLOAD_MB
-    except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError) as exc:
-        raise InputError(path, "the file", f"cannot read server.maxUploadSize ({exc})") from None
-    value = config.get("server", {}).get("maxUploadSize", FALLBACK_UPLOAD_MB)
-    if isinstance(value, bool) or not isinstance(value, int) or value < 1:
-        raise InputError(f"{path}: server.maxUploadSize", value, "expected a whole number of MB, at least 1")
+        value = int(env)
+    except ValueError:
+        raise InputError(UPLOAD_LIMIT_ENV, env, "expected a whole number of MB") from None
+    if value < 1:
+        raise InputError(UPLOAD_LIMIT_ENV, env, "expected at least 1 MB")
     return value
 
 
-def upload_limit_bytes(config_path: Path | None = None) -> int:
+def upload_limit_bytes() -> int:
     """The app's upload limit in bytes (Streamlit counts a MB as 1024 * 1024 bytes)."""
-    return upload_limit_mb(config_path) * 1024 * 1024
+    return upload_limit_mb() * 1024 * 1024
 
 
 def check_upload(name: str, data: bytes, kind: str) -> Upload:
@@ -226,8 +228,10 @@ def _sniff(data: bytes) -> str | None:
 
 
 def _decode_text(data: bytes, where: str, lenient: bool = False) -> str:
-    """The text of an upload; with ``lenient``, bytes that are not UTF-8 become U+FFFD and
-    the file's reader (which reads the bytes themselves) names and sets aside their lines.
+    """The text of an upload.
+
+    With ``lenient``, bytes that are not UTF-8 become U+FFFD and the file's reader (which
+    reads the bytes themselves) names and sets aside their lines.
     """
     if data.startswith((b"\xff\xfe", b"\xfe\xff")):
         raise InputError(where, "UTF-16 text", "save the file as UTF-8 text")

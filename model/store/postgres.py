@@ -21,14 +21,20 @@ class _Cursorless:
 def _safe_url(url: str) -> str:
     """A PostgreSQL URL for messages: user, host, port and database, never the password."""
     try:
-        from psycopg.conninfo import conninfo_to_dict
+        try:
+            from psycopg.conninfo import conninfo_to_dict
 
-        d = conninfo_to_dict(url)
+            d = conninfo_to_dict(url)
+        except ImportError:  # no postgres extra: read the URL form alone
+            from urllib.parse import urlsplit
+
+            parts = urlsplit(url)
+            d = {"user": parts.username, "host": parts.hostname, "port": parts.port, "dbname": parts.path[1:]}
     except Exception:  # noqa: BLE001 - an unparsable URL is shown by its scheme only
         return url.split("://", 1)[0] + "://..."
     user = f"{d['user']}@" if d.get("user") else ""
     port = f":{d['port']}" if d.get("port") else ""
-    return f"postgresql://{user}{d.get('host', '')}{port}/{d.get('dbname', '')}"
+    return f"postgresql://{user}{d.get('host') or ''}{port}/{d.get('dbname') or ''}"
 
 
 class _Postgres:
@@ -48,7 +54,9 @@ class _Postgres:
             from psycopg_pool import ConnectionPool
         except ImportError:
             raise StoreError(
-                "store", self.where, "needs psycopg and psycopg-pool (pip install 'psycopg[binary]' psycopg-pool)"
+                "store",
+                self.where,
+                "a PostgreSQL store needs the postgres extra: pip install 'fresh-gas-ledger[postgres]'",
             ) from None
         self._errors = (psycopg.Error,)
         # Check the address first: a pool would retry an unreachable server in the background.
@@ -96,8 +104,9 @@ class _Postgres:
         con.execute("SELECT pg_advisory_xact_lock(?)", (self._MIGRATION_LOCK,))
 
     def backup(self, con, found: int) -> None:
-        """The database server's own backups (pg_dump) cover PostgreSQL; the migration is
-        one transaction, so a failure leaves the old schema as it was.
+        """Nothing to do: the database server's own backups (pg_dump) cover PostgreSQL.
+
+        The migration is one transaction, so a failure leaves the old schema as it was.
         """
 
     def integrity(self, con) -> str:
