@@ -159,8 +159,22 @@ def sources_table(ref_key: str, _ref: Reference) -> pd.DataFrame:
 
 
 @st.cache_data(show_spinner=False, max_entries=512)
+def compute_plan(plan: CasePlan, ref_key: str, _ref: Reference):
+    """``compute_case`` on a plan, cached on the plan itself.
+
+    The frozen dataclass is the cache key (Streamlit hashes a dataclass field by field), so
+    a page that has read its inputs into a plan once computes it without writing it out as
+    plan-file text and reading it back.
+    """
+    return compute_case(plan, _ref)
+
+
+@st.cache_data(show_spinner=False, max_entries=512)
 def compute_cached(plan_toml: str, ref_key: str, _ref: Reference):
-    """``compute_case`` on a plan given as plan-file text (the hashable cache key)."""
+    """``compute_case`` on a plan given as plan-file text (the hashable cache key).
+
+    For callers that hold a plan's text; one that holds the plan uses :func:`compute_plan`.
+    """
     return compute_case(parse_plan_text(plan_toml, "plan"), _ref)
 
 
