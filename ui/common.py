@@ -12,6 +12,7 @@ import pandas as pd
 import streamlit as st
 
 from model import DEFAULT_REFERENCE, InputError, Reference, compute_case, parse_plan_text
+from model.base.files import Source
 from model.io.uploads import check_upload
 from model.plan import CasePlan
 from model.present.exports import to_csv, to_xlsx
@@ -387,17 +388,20 @@ def md(text) -> str:
     return _MD_SPECIAL.sub(r"\\\1", str(text)).replace("\n", " ").replace("\r", " ")
 
 
-def checked_uploads(uploaded, kind: str) -> list[tuple[str, bytes]]:
-    """``(name, bytes)`` of each uploaded file (one uploader value, a list of them, or None)
-    after the upload guard (:func:`model.io.uploads.check_upload` for ``kind``); a file it
-    refuses stops the page with its one-line message.
+def checked_uploads(uploaded, kind: str) -> list[Source]:
+    """Each uploaded file that passed the upload guard, as a reader takes it.
+
+    ``uploaded`` is one uploader value, a list of them, or None. Each file goes through
+    :func:`model.io.uploads.check_upload` for ``kind``; a file it refuses stops the page
+    with its one-line message. The readers are given the bytes with the name as uploaded
+    (:class:`model.base.files.Source`), so their messages name the user's file.
     """
     items = uploaded if isinstance(uploaded, list) else [] if uploaded is None else [uploaded]
     out = []
     try:
         for u in items:
             ok = check_upload(u.name, u.getvalue(), kind)
-            out.append((ok.name, ok.data))
+            out.append(Source(ok.name, data=ok.data))
     except InputError as err:
         show_input_error(err)
         st.stop()

@@ -89,6 +89,8 @@ class Records:
     gap_limit_min: float
     reference: Reference = DEFAULT_REFERENCE
     _tmpdir: object = None
+    #: The private folder of Parquet bytes written for duckdb (see ``read_records``), if any.
+    _written_dir: object = None
     #: The ``prepared`` query of each file on its own (same columns and checks), for
     #: engines that work file by file.
     file_sql: list = field(default_factory=list)
@@ -112,8 +114,9 @@ class Records:
         try:
             self.con.close()
         finally:
-            if self._tmpdir:
-                shutil.rmtree(self._tmpdir, ignore_errors=True)
+            for folder in (self._tmpdir, self._written_dir):
+                if folder:
+                    shutil.rmtree(folder, ignore_errors=True)
 
 
 def finish_report(
@@ -171,11 +174,11 @@ def finish_report(
         rep.gap_list = pd.DataFrame(
             [
                 (
-                    files[f].path,
+                    files[f].name,
                     int(r),
                     c,
                     float(d),
-                    f"{files[f].path}: {files[f].row_label} {int(r)}: case {c}: {d:g} min to the next sample "
+                    f"{files[f].name}: {files[f].row_label} {int(r)}: case {c}: {d:g} min to the next sample "
                     f"(limit {recs.gap_limit_min:g} min); the interval is not counted",
                 )
                 for f, r, c, t, d in gap_rows
@@ -268,10 +271,10 @@ def _issue_row(rf: RecordFile, r, reference: Reference):
             f"(by {prev_max - t_min:g} min); the rows of a case must be in time order"
         )
     return (
-        rf.path,
+        rf.name,
         int(row),
         kind,
         col,
         None if val is None else str(val),
-        f"{rf.path}: {rf.row_label} {int(row)}: {msg}",
+        f"{rf.name}: {rf.row_label} {int(row)}: {msg}",
     )
