@@ -256,8 +256,10 @@ def _raw_inputs() -> dict:
 
 @st.cache_data(show_spinner=False, max_entries=256)
 def _build(raw: dict, ref_key: str, _ref) -> tuple[str, CasePlan | str, str]:
-    """("ok", plan, "") or ("error", field, message) for the typed inputs (``raw``, in the
-    plan-file form, is the cache key): the one place the page reads its inputs into a plan.
+    """("ok", plan, "") or ("error", field, message) for the typed inputs.
+
+    The one place the page reads its inputs into a plan; ``raw`` (in the plan-file form)
+    is the cache key.
 
     Dials are checked against the vaporizer maxima of the values in use (``_ref``, keyed
     by ``ref_key``), so that error is shown by its cell too.
@@ -447,8 +449,10 @@ fate = charts.agent_fate(t, agent.metabolised_fraction)
 
 @st.cache_resource(show_spinner=False, max_entries=64)
 def _figure(kind: str, plan: CasePlan, ref_key: str, _result, _fate, _label):
-    """One of the page's figures for one result, built when first shown (its tab opened, or a
-    report asked for), then kept while the inputs stay the same.
+    """One of the page's figures for one result.
+
+    Built when first shown (its tab opened, or a report asked for), then kept while the
+    inputs stay the same.
     """
     if kind == "time":
         return charts.timecourse_figure(_result.timecourse, _result.plan.settings.inspired_o2_floor * 100)
@@ -491,8 +495,10 @@ def _sweep():
 
 
 class _Figures(dict):
-    """The page's figures by name, each built on first use: a rerun builds only the figure of
-    the open tab; a report builds the rest when it is downloaded.
+    """The page's figures by name, each built on first use.
+
+    A rerun builds only the figure of the open tab; a report builds the rest when it is
+    downloaded.
     """
 
     def __missing__(self, kind):
@@ -529,7 +535,7 @@ shown = pd.DataFrame(
 # The phases table opens first: it answers "what does each phase use" while editing, and a
 # page without a chart on it loads seconds sooner (the browser loads plotly only for a chart).
 TABS = ("Phases", "Time course", "Where the agent went", "Flow sweep", "Cost by item")
-tab = dict(zip(TABS, st.tabs(TABS, key="cp_tab", on_change="rerun")))
+tab = dict(zip(TABS, st.tabs(TABS, key="cp_tab", on_change="rerun"), strict=True))
 with tab["Time course"]:
     if tab["Time course"].open:
         if figs["time"] is not None:

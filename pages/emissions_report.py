@@ -1,4 +1,4 @@
-"""Emissions report: a period's scope 1 anaesthetic emissions against a baseline and a target, and what drove the change."""
+"""Emissions report: a period's scope 1 anaesthetic emissions against a baseline and a target, and what drove it."""
 
 from __future__ import annotations
 

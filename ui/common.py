@@ -68,11 +68,14 @@ class ViewSettings:
         return f"{l_min:.3g} L/min"
 
     def co2e(self, kg: float) -> str:
+        """CO2e in the chosen unit, with the unit (see :meth:`co2e_number`)."""
         return f"{self.co2e_number(kg)} {self.co2e_unit}"
 
     def co2e_number(self, kg: float) -> str:
-        """CO2e in the chosen unit, without the unit (three significant figures under 1, two
-        decimals under 100, else none), so a case shown in t CO2e does not round to 0.03.
+        """CO2e in the chosen unit, without the unit.
+
+        Three significant figures under 1, two decimals under 100, else none, so a case
+        shown in t CO2e does not round to 0.03.
         """
         v = kg * CO2E_UNITS[self.co2e_unit]
         if 0 < abs(v) < 1:
@@ -80,6 +83,7 @@ class ViewSettings:
         return f"{v:,.2f}" if abs(v) < 100 else f"{v:,.0f}"
 
     def money(self, amount: float) -> str:
+        """An amount with the currency label."""
         return f"{amount:,.2f} {self.currency}"
 
 
@@ -99,8 +103,10 @@ def _store_at(location: str) -> Store:
 
 
 def get_store() -> Store:
-    """The store named by ``GAS_LEDGER_STORE`` (a file or a PostgreSQL URL; else the default
-    file), seeded with the demo. One per server process, shared by its sessions.
+    """The store named by ``GAS_LEDGER_STORE``, seeded with the demo.
+
+    A file or a PostgreSQL URL; else the default file. One per server process, shared by
+    its sessions.
 
     A store that cannot be used (foreign, unreachable, or from a newer program) stops the
     page with its one-line message.
@@ -210,8 +216,9 @@ def access_settings() -> AccessConfig:
 
 
 def current_user() -> User:
-    """Who is signed in: Streamlit's sign-in (``st.user``) or the trusted proxy's header, only
-    as configured; with sign-in off no one (a header sent anyway is ignored).
+    """Who is signed in: Streamlit's sign-in (``st.user``) or the trusted proxy's header.
+
+    Only as configured; with sign-in off no one (a header sent anyway is ignored).
     """
     config, problem = _access()
     if problem:
@@ -229,12 +236,12 @@ def author() -> str:
 
 
 def reference_permission() -> Permission:
-    """May this user change the reference values (and restore an earlier set)?"""
+    """Whether this user may change the reference values (and restore an earlier set)."""
     return may_edit_reference(access_settings(), current_user())
 
 
 def save_permission() -> Permission:
-    """May this user save plans and scenarios?"""
+    """Whether this user may save plans and scenarios."""
     return may_save(access_settings(), current_user())
 
 

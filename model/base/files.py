@@ -55,12 +55,15 @@ class Source:
 
     def read_bytes(self) -> bytes:
         """The file's bytes (read from its path, or as given). Raises OSError as reading does."""
-        return self.data if self.path is None else self.path.read_bytes()
+        if self.path is not None:
+            return self.path.read_bytes()
+        assert self.data is not None  # exactly one of the two (``__post_init__``)
+        return self.data
 
     def head(self, size: int) -> bytes:
         """The file's first ``size`` bytes, without reading the rest from disk."""
         if self.path is None:
-            return self.data[:size]
+            return self.read_bytes()[:size]
         with open(self.path, "rb") as fh:
             return fh.read(size)
 
@@ -72,7 +75,7 @@ class Source:
         """
         h = hashlib.sha256(self.name.encode() + b"\0")
         if self.path is None:
-            h.update(hashlib.sha256(self.data).digest())
+            h.update(hashlib.sha256(self.read_bytes()).digest())
             return h.hexdigest()
         h.update(str(self.path.resolve()).encode())
         try:

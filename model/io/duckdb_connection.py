@@ -39,8 +39,9 @@ _SIZE = re.compile(r"^\s*[0-9]+(\.[0-9]+)?\s*(b|bytes|kb|mb|gb|tb|kib|mib|gib|ti
 
 
 def plain_size(memory_limit) -> bool:
-    """True when there is no memory limit or it is a size duckdb surely takes ("3GB",
-    "500 MB", "80%"); any other text is handed to duckdb at once, which says if it is wrong.
+    """Whether there is no memory limit or it is a size duckdb surely takes ("3GB", "500 MB", "80%").
+
+    Any other text is handed to duckdb at once, which says if it is wrong.
     """
     return memory_limit is None or bool(_SIZE.match(str(memory_limit)))
 
@@ -63,6 +64,7 @@ class LazyConnection:
 
     @property
     def opened(self) -> bool:
+        """Whether the connection has been opened."""
         return self._con is not None
 
     def _open(self):
@@ -76,6 +78,7 @@ class LazyConnection:
         return self._con
 
     def execute(self, sql, *args):
+        """Run ``sql``: a setting or a view is kept until the connection opens; anything else opens it."""
         words = sql.split(None, 1)
         if self._con is None and not args and words and words[0].upper() in ("SET", "CREATE"):
             self._pending.append(sql)
@@ -86,6 +89,7 @@ class LazyConnection:
         return getattr(self._open(), name)
 
     def close(self) -> None:
+        """Close the connection (if it was opened) and remove its spill folder."""
         import shutil
 
         try:

@@ -78,6 +78,7 @@ class PurchasesFile:
 
     @property
     def messages(self) -> list[str]:
+        """The one-line message of each line set aside."""
         return [str(e) for e in self.set_aside]
 
 
@@ -172,7 +173,10 @@ def load_purchases(
         df.columns = [str(c).strip().lower() for c in df.columns]
         _require_columns(list(df.columns), where)
         columns = list(df.columns)
-        rows = [(i, dict(zip(df.columns, r))) for i, r in enumerate(df.itertuples(index=False, name=None), start=1)]
+        rows = [
+            (i, dict(zip(df.columns, r, strict=True)))
+            for i, r in enumerate(df.itertuples(index=False, name=None), start=1)
+        ]
         set_aside = []
         label = "row"
     else:
@@ -242,7 +246,7 @@ def _csv_rows(src: Source, where: str):
                 )
             )
         else:
-            rows.append((number, dict(zip(columns, fields))))
+            rows.append((number, dict(zip(columns, fields, strict=True))))
     return rows, set_aside, columns
 
 

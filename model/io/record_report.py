@@ -51,6 +51,7 @@ class ReadReport:
 
     @property
     def rows_set_aside(self) -> int:
+        """Rows set aside, of every kind."""
         return int(sum(self.set_aside.values()))
 
     def summary(self) -> dict:
@@ -88,9 +89,9 @@ class Records:
     report: ReadReport
     gap_limit_min: float
     reference: Reference = DEFAULT_REFERENCE
-    _tmpdir: object = None
+    _tmpdir: str | None = None
     #: The private folder of Parquet bytes written for duckdb (see ``read_records``), if any.
-    _written_dir: object = None
+    _written_dir: str | None = None
     #: The ``prepared`` query of each file on its own (same columns and checks), for
     #: engines that work file by file.
     file_sql: list = field(default_factory=list)

@@ -419,7 +419,7 @@ def _build_views(con, tmp, specs, reference, gap_limit_min, step):
         if s.format == "parquet":
             key = tuple(sorted(s.types.items())) + tuple(sorted((k, c.source, c.factor) for k, c in s.columns.items()))
             groups.setdefault(key, []).append(i)
-    for key, idx in groups.items():
+    for idx in groups.values():
         s = specs[idx[0]]
         names = "[" + ", ".join(_sql_str(specs[i].path) for i in idx) + "]"
         src = (
