@@ -44,3 +44,20 @@ def test_a_rerun_without_a_change_parses_nothing(plan_reads):
     at.run()
     assert not at.exception, [e.message for e in at.exception]
     assert plan_reads == []
+
+
+def test_opening_a_saved_plan_reads_its_text_once_and_the_inputs_once(plan_reads):
+    at = page("case_plan.py")
+    names = at.selectbox(key="cp_open_name").options
+    other = next(n for n in names if n != at.selectbox(key="cp_open_name").value)
+    at.selectbox(key="cp_open_name").select(other)
+    at.run()
+    plan_reads.clear()
+    next(b for b in at.button if b.label == "Open").click()
+    at.run()
+    assert not at.exception, [e.message for e in at.exception]
+    # The stored plan file, then the inputs it filled in; the baseline of the deltas is the
+    # stored plan itself, and nothing is written out as plan-file text to be read back.
+    assert len(plan_reads) == 2, plan_reads
+    assert plan_reads[0].startswith(f"stored plan '{other}'") and plan_reads[1] == ""
+    assert at.session_state["cp_current_plan"].name == other
