@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import pytest
+import streamlit as st
 from pagetest import isolated_store, page  # noqa: F401  (isolated_store: autouse fixture)
 
 import model.io.plans
@@ -52,6 +53,7 @@ def test_opening_a_saved_plan_reads_its_text_once_and_the_inputs_once(plan_reads
     other = next(n for n in names if n != at.selectbox(key="cp_open_name").value)
     at.selectbox(key="cp_open_name").select(other)
     at.run()
+    st.cache_data.clear()  # another test may have opened this plan in this process
     plan_reads.clear()
     next(b for b in at.button if b.label == "Open").click()
     at.run()
