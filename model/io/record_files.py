@@ -84,10 +84,6 @@ class RecordFile:
         if not self.name:
             self.name = self.path
 
-    def read_bytes(self) -> bytes:
-        """The whole file's bytes."""
-        return self.data if self.data is not None else Path(self.path).read_bytes()
-
     @property
     def flow_mode(self) -> str:
         """How the flows are given: ``"parts"`` (O2, air, N2O) or ``"total"`` (FGF and O2 share)."""
