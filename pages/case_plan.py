@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import json
 import re
 from dataclasses import replace
 
@@ -68,7 +67,7 @@ def _load(plan: CasePlan, origin: str) -> None:
     ss["cp_editor_df"] = _editor_frame(plan)
     ss["cp_editor_unit"] = view.flow_unit
     ss["cp_rev"] = ss.get("cp_rev", 0) + 1
-    ss["cp_last_toml"] = plan_to_toml(ui.apply_settings(plan, view))
+    ss["cp_last_plan"] = ui.apply_settings(plan, view)
 
 
 def _open_selected() -> None:
@@ -256,17 +255,20 @@ def _raw_inputs() -> dict:
 
 
 @st.cache_data(show_spinner=False, max_entries=256)
-def _build(raw_json: str, ref_key: str, _ref) -> tuple[str, str, str]:
-    """("ok", plan TOML, "") or ("error", field, message) for the typed inputs.
+def _build(raw: dict, ref_key: str, _ref) -> tuple[str, CasePlan | str, str]:
+    """("ok", plan, "") or ("error", field, message) for the typed inputs.
+
+    The one place the page reads its inputs into a plan; ``raw`` (in the plan-file form)
+    is the cache key.
 
     Dials are checked against the vaporizer maxima of the values in use (``_ref``, keyed
     by ``ref_key``), so that error is shown by its cell too.
     """
     try:
-        plan = plan_from_dict(json.loads(raw_json), "", _ref)
+        plan = plan_from_dict(raw, "", _ref)
     except InputError as err:
         return "error", err.field, str(err)
-    return "ok", plan_to_toml(plan), ""
+    return "ok", plan, ""
 
 
 _PHASE_FIELD = re.compile(r"^phases\[(\d+)\]\.?(\w*)")
@@ -300,13 +302,13 @@ def _place_error(field: str, message: str) -> None:
     (slot or table_slot).error(ui.md(message), icon=":material/error:")
 
 
-status, payload, message = _build(json.dumps(_raw_inputs(), sort_keys=True, default=str), ref_key, ref)
+status, payload, message = _build(_raw_inputs(), ref_key, ref)
 result = None
-if status == "ok":
+if isinstance(payload, CasePlan):
     try:
         with st.spinner("Computing the case..."):
-            result = ui.compute_cached(payload, ref_key, ref)
-        ss["cp_last_toml"] = payload
+            result = ui.common.compute_plan(payload, ref_key, ref)
+        ss["cp_last_plan"] = payload
     except InputError as err:
         _place_error(err.field, str(err))
 else:
@@ -318,7 +320,7 @@ if result is None:
         icon=":material/history:",
     )
     try:
-        result = ui.compute_cached(ss["cp_last_toml"], ref_key, ref)
+        result = ui.common.compute_plan(ss["cp_last_plan"], ref_key, ref)
     except InputError as err:  # e.g. the GWP source has no value for this agent
         ui.show_input_error(err)
         st.stop()
@@ -331,15 +333,15 @@ t = result.totals
 
 
 @st.cache_data(show_spinner=False, max_entries=64)
-def _baseline_totals(base_toml: str, ref_key: str, _ref) -> dict:
-    return ui.compute_cached(base_toml, ref_key, _ref).totals
+def _baseline_totals(base_plan: CasePlan, ref_key: str, _ref) -> dict:
+    return ui.common.compute_plan(base_plan, ref_key, _ref).totals
 
 
 own_items = ui.provenance.price_items(ss["cp_base"].prices)
 own = (f"the plan '{ss['cp_base'].name}'", ss["cp_base"].prices) if own_items and ss.get("cp_own_prices") else None
-base_toml = plan_to_toml(replace(ui.apply_settings(ss["cp_base"], view), prices=ss["cp_base"].prices if own else {}))
+base_plan = replace(ui.apply_settings(ss["cp_base"], view), prices=ss["cp_base"].prices if own else {})
 try:
-    b = _baseline_totals(base_toml, ref_key, ref)
+    b = _baseline_totals(base_plan, ref_key, ref)
 except InputError:
     b = None
 
@@ -443,13 +445,14 @@ else:
 # ---- charts --------------------------------------------------------------------------
 
 fate = charts.agent_fate(t, agent.metabolised_fraction)
-result_toml = ss["cp_last_toml"]
 
 
 @st.cache_resource(show_spinner=False, max_entries=64)
-def _figure(kind: str, plan_toml: str, ref_key: str, _result, _fate, _label):
-    """One of the page's figures for one result, built when first shown (its tab opened, or a
-    report asked for), then kept while the inputs stay the same.
+def _figure(kind: str, plan: CasePlan, ref_key: str, _result, _fate, _label):
+    """One of the page's figures for one result.
+
+    Built when first shown (its tab opened, or a report asked for), then kept while the
+    inputs stay the same.
     """
     if kind == "time":
         return charts.timecourse_figure(_result.timecourse, _result.plan.settings.inspired_o2_floor * 100)
@@ -459,7 +462,7 @@ def _figure(kind: str, plan_toml: str, ref_key: str, _result, _fate, _label):
 
 
 @st.cache_resource(show_spinner=False, max_entries=64)
-def _sweep_figure(plan_toml: str, ref_key: str, co2e_unit: str, _sw, _currency):
+def _sweep_figure(plan: CasePlan, ref_key: str, co2e_unit: str, _sw, _currency):
     return charts.sweep_figure(
         _sw.table,
         "fgf_l_min",
@@ -476,32 +479,34 @@ def _sweep_figure(plan_toml: str, ref_key: str, co2e_unit: str, _sw, _currency):
 
 
 @st.cache_data(show_spinner=False, max_entries=128)
-def _sweep_cached(plan_toml: str, ref_key: str, _ref, _plan):
-    """The flow sweep of the plan (``plan_toml`` is the key; ``_plan`` is that plan, parsed)."""
+def _sweep_cached(plan: CasePlan, ref_key: str, _ref):
+    """The flow sweep of the plan (the plan and ``ref_key`` are the key)."""
     from model.sweep import flow_sweep
 
-    return flow_sweep(_plan, _ref)
+    return flow_sweep(plan, _ref)
 
 
 def _sweep():
     """The flow sweep (None when it cannot be worked out: see ``_sweep_error``)."""
     try:
-        return _sweep_cached(result_toml, ref_key, ref, result.plan)
+        return _sweep_cached(result.plan, ref_key, ref)
     except InputError:
         return None
 
 
 class _Figures(dict):
-    """The page's figures by name, each built on first use: a rerun builds only the figure of
-    the open tab; a report builds the rest when it is downloaded.
+    """The page's figures by name, each built on first use.
+
+    A rerun builds only the figure of the open tab; a report builds the rest when it is
+    downloaded.
     """
 
     def __missing__(self, kind):
         if kind == "sweep":
             sw = _sweep()
-            fig = None if sw is None else _sweep_figure(result_toml, ref_key, view.co2e_unit, sw, result.currency)
+            fig = None if sw is None else _sweep_figure(result.plan, ref_key, view.co2e_unit, sw, result.currency)
         else:
-            fig = _figure(kind, result_toml, ref_key, result, fate, agent.label)
+            fig = _figure(kind, result.plan, ref_key, result, fate, agent.label)
         self[kind] = fig
         return fig
 
@@ -530,7 +535,7 @@ shown = pd.DataFrame(
 # The phases table opens first: it answers "what does each phase use" while editing, and a
 # page without a chart on it loads seconds sooner (the browser loads plotly only for a chart).
 TABS = ("Phases", "Time course", "Where the agent went", "Flow sweep", "Cost by item")
-tab = dict(zip(TABS, st.tabs(TABS, key="cp_tab", on_change="rerun")))
+tab = dict(zip(TABS, st.tabs(TABS, key="cp_tab", on_change="rerun"), strict=True))
 with tab["Time course"]:
     if tab["Time course"].open:
         if figs["time"] is not None:
@@ -555,7 +560,7 @@ with tab["Flow sweep"]:
     if tab["Flow sweep"].open:
         try:
             with st.spinner("Sweeping the maintenance flow..."):
-                sw = _sweep_cached(result_toml, ref_key, ref, result.plan)
+                sw = _sweep_cached(result.plan, ref_key, ref)
         except InputError as err:
             ui.show_input_error(err, "Flow sweep")
         else:

@@ -1,9 +1,8 @@
-"""Emissions report: a period's scope 1 anaesthetic emissions against a baseline and a target, and what drove the change."""
+"""Emissions report: a period's scope 1 anaesthetic emissions against a baseline and a target, and what drove it."""
 
 from __future__ import annotations
 
 import hashlib
-import tempfile
 from dataclasses import replace
 from pathlib import Path
 
@@ -13,6 +12,7 @@ import streamlit as st
 import ui
 from model import InputError
 from model.audit.engine import audit_records
+from model.base.files import Source
 from model.io.purchases import load_purchases
 from model.io.sites import parse_sites
 from model.present.report_charts import report_figures
@@ -40,16 +40,17 @@ source = st.radio(
     key="er_source",
     horizontal=True,
 )
-files: list[tuple[str, bytes]] = []
-purchase_files: list[tuple[str, bytes]] = []
-sites_file: tuple[str, bytes] | None = None
+files: list[Source] = []
+purchase_files: list[Source] = []
+sites_file: Source | None = None
 if source.startswith("Demo"):
-    files = [(p.name, p.read_bytes()) for p in DEMO_RECORDS]
+    # The demo files are read where they are, named as the user knows them.
+    files = [Source(p.name, path=p) for p in DEMO_RECORDS]
     c1, c2 = st.columns(2)
     if c1.checkbox("Add the demo purchases (purchase-based figures)", value=True, key="er_demo_purchases"):
-        purchase_files = [(p.name, p.read_bytes()) for p in DEMO_PURCHASES]
+        purchase_files = [Source(p.name, path=p) for p in DEMO_PURCHASES]
     if c2.checkbox("Group theatres into sites (demo site file)", value=True, key="er_demo_sites"):
-        sites_file = (DEMO_SITES.name, DEMO_SITES.read_bytes())
+        sites_file = Source(DEMO_SITES.name, path=DEMO_SITES)
 else:
     c1, c2, c3 = st.columns(3)
     ups = c1.file_uploader(
@@ -70,26 +71,20 @@ if not files:
     st.stop()
 
 
-def _digest(items) -> str:
+def _digest(items: list[Source]) -> str:
     h = hashlib.sha256()
-    for name, data in items:
-        h.update(name.encode() + b"\0" + hashlib.sha256(data).digest())
+    for f in items:
+        h.update(f.digest().encode())
     return h.hexdigest()
 
 
 @st.cache_data(show_spinner="Auditing the records...", max_entries=4)
 def audited(digest: str, ref_key: str, temperature_c: float, _files, _ref):
-    """The audit's case table, reading summary and absorbent note (files in a private temporary folder)."""
-    with tempfile.TemporaryDirectory(prefix="gas-ledger-report-") as tmp:
-        paths = []
-        for i, (name, data) in enumerate(_files):
-            p = Path(tmp) / f"{i:03d}-{Path(name).name}"
-            p.write_bytes(data)
-            paths.append(p)
-        try:
-            result = audit_records(paths, reference=_ref, temperature_c=temperature_c)
-        except InputError as err:
-            return None, str(err).replace(tmp + "/", ""), ""
+    """The audit's case table, reading summary and absorbent note; messages name the user's files."""
+    try:
+        result = audit_records(_files, reference=_ref, temperature_c=temperature_c)
+    except InputError as err:
+        return None, str(err), ""
     return result.cases, result.report.summary(), result.absorbent_note()
 
 
@@ -97,17 +92,14 @@ def audited(digest: str, ref_key: str, temperature_c: float, _files, _ref):
 def purchases_table(digest: str, ref_key: str, _files, _ref):
     """The purchases files' usable lines (one table) and the messages of lines set aside."""
     tables, notes = [], []
-    with tempfile.TemporaryDirectory(prefix="gas-ledger-report-") as tmp:
-        for name, data in _files:
-            p = Path(tmp) / Path(name).name
-            p.write_bytes(data)
-            try:
-                read = load_purchases(p, _ref)
-            except InputError as err:
-                notes.append(str(err).replace(tmp + "/", ""))
-                continue
-            tables.append(read.table)
-            notes += [m.replace(tmp + "/", "") for m in read.messages]
+    for f in _files:
+        try:
+            read = load_purchases(f, _ref)
+        except InputError as err:
+            notes.append(str(err))
+            continue
+        tables.append(read.table)
+        notes += read.messages
     return (pd.concat(tables, ignore_index=True) if tables else None), notes
 
 
@@ -125,10 +117,10 @@ purchases, purchase_notes = (
 sites = None
 if sites_file is not None:
     try:
-        sites = parse_sites(sites_file[1].decode("utf-8-sig"), sites_file[0])
+        sites = parse_sites(sites_file.read_bytes().decode("utf-8-sig"), sites_file.name)
     except (InputError, UnicodeDecodeError) as err:
         ui.show_input_error(
-            err if isinstance(err, InputError) else InputError(sites_file[0], "the file", "not UTF-8 text"),
+            err if isinstance(err, InputError) else InputError(sites_file.name, "the file", "not UTF-8 text"),
             "Site file (not used)",
         )
 

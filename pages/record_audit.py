@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import hashlib
-import tempfile
 from pathlib import Path
 
 import pandas as pd
@@ -15,12 +14,12 @@ from model import InputError
 from model.audit.engine import audit_records
 from model.audit.reconcile import cost_view, reconcile, record_coverage
 from model.audit.result import BAND_COLUMNS, DEFAULT_HIGH_FLOW_L_MIN, DEFAULT_HIGH_FLOW_LIMIT_MIN
+from model.base.files import Source
 from model.io.purchases import load_purchases
 from model.io.record_files import DEFAULT_GAP_LIMIT_MIN
 from model.present import case_charts as charts
 from model.present.exports import html_report
 from ui import tables as fmt
-from ui.tables import plain_paths
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "demo_data" / "records"
@@ -32,7 +31,7 @@ DEMO_RECORDS = {
 DEMO_PURCHASES = [DEMO / "fernhollow_purchases_2025.csv", DEMO / "fernhollow_purchases_2026.csv"]
 
 
-def _demo_purchases() -> tuple[str, bytes]:
+def _demo_purchases() -> Source:
     """The demo's two purchases files as one (the second's header and comments left out)."""
     first, *rest = (p.read_text(encoding="utf-8") for p in DEMO_PURCHASES)
     lines = [
@@ -41,7 +40,7 @@ def _demo_purchases() -> tuple[str, bytes]:
         for line in text.splitlines(keepends=True)
         if line.strip() and not line.startswith("#") and not line.lower().startswith("month,")
     ]
-    return "fernhollow_purchases_2025-2026.csv", (first + "".join(lines)).encode("utf-8")
+    return Source("fernhollow_purchases_2025-2026.csv", data=(first + "".join(lines)).encode("utf-8"))
 
 
 #: Columns shown first in the wide audit tables (the rest follow, a scroll away).
@@ -89,11 +88,12 @@ source = st.radio(
     key="ra_source",
     horizontal=True,
 )
-files: list[tuple[str, bytes]] = []
-purchases_file: tuple[str, bytes] | None = None
+files: list[Source] = []
+purchases_file: Source | None = None
 if source.startswith("Demo"):
     chosen = st.multiselect("Demo files", list(DEMO_RECORDS), default=list(DEMO_RECORDS), key="ra_demo")
-    files = [(DEMO_RECORDS[c].name, DEMO_RECORDS[c].read_bytes()) for c in chosen]
+    # Read where they are, named as the user knows them.
+    files = [Source(DEMO_RECORDS[c].name, path=DEMO_RECORDS[c]) for c in chosen]
     if st.checkbox("Reconcile with the demo purchases", value=True, key="ra_demo_purchases"):
         purchases_file = _demo_purchases()
 else:
@@ -138,62 +138,36 @@ if not files:
     st.stop()
 
 
-def run_audit(files: tuple, purchases: tuple | None, settings: tuple, _ref, _progress):
-    """Audit the files (written to a private temporary folder) and reconcile with purchases.
+def run_audit(files: tuple[Source, ...], purchases: Source | None, settings: tuple, _ref, _progress):
+    """Audit the files and reconcile with purchases; every message names the user's files.
 
     Returns (audit result, reconciliation or None, messages for purchase lines set aside, cost by item).
     """
     gap, high, limit, gwp, temp = settings
-    with tempfile.TemporaryDirectory(prefix="gas-ledger-audit-") as tmp:
-        known: dict[str, str] = {}  # copy in the temporary folder -> the name the user knows
-
-        def shown(text):
-            """Name the uploaded file, not its copy in the private temporary folder."""
-            return plain_paths(text, known)
-
-        paths = []
-        for i, (name, data) in enumerate(files):
-            p = Path(tmp) / f"{i:03d}-{Path(name).name}"
-            p.write_bytes(data)
-            paths.append(p)
-            known[str(p)] = Path(name).name
-        recon, purchase_notes, bought_table = None, [], None
-        try:
-            result = audit_records(
-                paths,
-                reference=_ref,
-                gwp_source=gwp,
-                temperature_c=temp,
-                gap_limit_min=gap,
-                high_flow_l_min=high,
-                high_flow_limit_min=limit,
-                progress=_progress,
-            )
-            if purchases is not None:
-                p = Path(tmp) / Path(purchases[0]).name
-                p.write_bytes(purchases[1])
-                known[str(p)] = p.name
-                bought = load_purchases(p, _ref)
-                purchase_notes = [shown(m) for m in bought.messages]
-                recon = reconcile(bought.table, result.use_by_month(), _ref, gwp)
-                bought_table = bought.table
-        except InputError as err:
-            raise InputError(shown(str(err.field)), shown(err.value), shown(err.allowed)) from None
-    # File names inside the temporary folder mean nothing to the user: show the uploaded names.
-    for df in (result.report.issues, result.report.gap_list):
-        for col in ("file", "message"):
-            if len(df):
-                df[col] = df[col].map(shown)
-    result.report.files[:] = [Path(name).name for name, _ in files]
-    result.report.notes = [shown(n) for n in result.report.notes]
+    result = audit_records(
+        files,
+        reference=_ref,
+        gwp_source=gwp,
+        temperature_c=temp,
+        gap_limit_min=gap,
+        high_flow_l_min=high,
+        high_flow_limit_min=limit,
+        progress=_progress,
+    )
+    recon, purchase_notes, bought_table = None, [], None
+    if purchases is not None:
+        bought = load_purchases(purchases, _ref)
+        purchase_notes = bought.messages
+        recon = reconcile(bought.table, result.use_by_month(), _ref, gwp)
+        bought_table = bought.table
     return result, recon, purchase_notes, cost_view(bought_table, result, _ref)
 
 
 digest = hashlib.sha256()
-for name, data in files:
-    digest.update(name.encode() + b"\0" + hashlib.sha256(data).digest())
+for f in files:
+    digest.update(f.digest().encode())
 if purchases_file:
-    digest.update(b"purchases" + hashlib.sha256(purchases_file[1]).digest())
+    digest.update(b"purchases" + purchases_file.digest().encode())
 settings = (float(gap_limit), float(high_flow), float(high_limit), view.gwp_source, float(view.temperature_c))
 cache_key = (digest.hexdigest(), settings, ui.reference_key(view))
 # Results are kept per session (the last few), so moving between tabs does not re-run the audit;
@@ -374,7 +348,7 @@ if purchase_notes:
     tables["Purchase lines set aside"] = pd.DataFrame({"message": purchase_notes})
 inputs = {
     "files": ", ".join(rep.files),
-    "purchases": purchases_file[0] if purchases_file else "none",
+    "purchases": purchases_file.name if purchases_file else "none",
     "record coverage": coverage["message"] if recon is not None else "no purchases to compare",
     "GWP source": result.gwp_label,
     "room temperature": f"{view.temperature_c:g} °C",

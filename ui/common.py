@@ -12,6 +12,7 @@ import pandas as pd
 import streamlit as st
 
 from model import DEFAULT_REFERENCE, InputError, Reference, compute_case, parse_plan_text
+from model.base.files import Source
 from model.io.uploads import check_upload
 from model.plan import CasePlan
 from model.present.exports import to_csv, to_xlsx
@@ -67,11 +68,14 @@ class ViewSettings:
         return f"{l_min:.3g} L/min"
 
     def co2e(self, kg: float) -> str:
+        """CO2e in the chosen unit, with the unit (see :meth:`co2e_number`)."""
         return f"{self.co2e_number(kg)} {self.co2e_unit}"
 
     def co2e_number(self, kg: float) -> str:
-        """CO2e in the chosen unit, without the unit (three significant figures under 1, two
-        decimals under 100, else none), so a case shown in t CO2e does not round to 0.03.
+        """CO2e in the chosen unit, without the unit.
+
+        Three significant figures under 1, two decimals under 100, else none, so a case
+        shown in t CO2e does not round to 0.03.
         """
         v = kg * CO2E_UNITS[self.co2e_unit]
         if 0 < abs(v) < 1:
@@ -79,6 +83,7 @@ class ViewSettings:
         return f"{v:,.2f}" if abs(v) < 100 else f"{v:,.0f}"
 
     def money(self, amount: float) -> str:
+        """An amount with the currency label."""
         return f"{amount:,.2f} {self.currency}"
 
 
@@ -98,8 +103,10 @@ def _store_at(location: str) -> Store:
 
 
 def get_store() -> Store:
-    """The store named by ``GAS_LEDGER_STORE`` (a file or a PostgreSQL URL; else the default
-    file), seeded with the demo. One per server process, shared by its sessions.
+    """The store named by ``GAS_LEDGER_STORE``, seeded with the demo.
+
+    A file or a PostgreSQL URL; else the default file. One per server process, shared by
+    its sessions.
 
     A store that cannot be used (foreign, unreachable, or from a newer program) stops the
     page with its one-line message.
@@ -159,8 +166,22 @@ def sources_table(ref_key: str, _ref: Reference) -> pd.DataFrame:
 
 
 @st.cache_data(show_spinner=False, max_entries=512)
+def compute_plan(plan: CasePlan, ref_key: str, _ref: Reference):
+    """``compute_case`` on a plan, cached on the plan itself.
+
+    The frozen dataclass is the cache key (Streamlit hashes a dataclass field by field), so
+    a page that has read its inputs into a plan once computes it without writing it out as
+    plan-file text and reading it back.
+    """
+    return compute_case(plan, _ref)
+
+
+@st.cache_data(show_spinner=False, max_entries=512)
 def compute_cached(plan_toml: str, ref_key: str, _ref: Reference):
-    """``compute_case`` on a plan given as plan-file text (the hashable cache key)."""
+    """``compute_case`` on a plan given as plan-file text (the hashable cache key).
+
+    For callers that hold a plan's text; one that holds the plan uses :func:`compute_plan`.
+    """
     return compute_case(parse_plan_text(plan_toml, "plan"), _ref)
 
 
@@ -195,8 +216,9 @@ def access_settings() -> AccessConfig:
 
 
 def current_user() -> User:
-    """Who is signed in: Streamlit's sign-in (``st.user``) or the trusted proxy's header, only
-    as configured; with sign-in off no one (a header sent anyway is ignored).
+    """Who is signed in: Streamlit's sign-in (``st.user``) or the trusted proxy's header.
+
+    Only as configured; with sign-in off no one (a header sent anyway is ignored).
     """
     config, problem = _access()
     if problem:
@@ -214,12 +236,12 @@ def author() -> str:
 
 
 def reference_permission() -> Permission:
-    """May this user change the reference values (and restore an earlier set)?"""
+    """Whether this user may change the reference values (and restore an earlier set)."""
     return may_edit_reference(access_settings(), current_user())
 
 
 def save_permission() -> Permission:
-    """May this user save plans and scenarios?"""
+    """Whether this user may save plans and scenarios."""
     return may_save(access_settings(), current_user())
 
 
@@ -373,17 +395,20 @@ def md(text) -> str:
     return _MD_SPECIAL.sub(r"\\\1", str(text)).replace("\n", " ").replace("\r", " ")
 
 
-def checked_uploads(uploaded, kind: str) -> list[tuple[str, bytes]]:
-    """``(name, bytes)`` of each uploaded file (one uploader value, a list of them, or None)
-    after the upload guard (:func:`model.io.uploads.check_upload` for ``kind``); a file it
-    refuses stops the page with its one-line message.
+def checked_uploads(uploaded, kind: str) -> list[Source]:
+    """Each uploaded file that passed the upload guard, as a reader takes it.
+
+    ``uploaded`` is one uploader value, a list of them, or None. Each file goes through
+    :func:`model.io.uploads.check_upload` for ``kind``; a file it refuses stops the page
+    with its one-line message. The readers are given the bytes with the name as uploaded
+    (:class:`model.base.files.Source`), so their messages name the user's file.
     """
     items = uploaded if isinstance(uploaded, list) else [] if uploaded is None else [uploaded]
     out = []
     try:
         for u in items:
             ok = check_upload(u.name, u.getvalue(), kind)
-            out.append((ok.name, ok.data))
+            out.append(Source(ok.name, data=ok.data))
     except InputError as err:
         show_input_error(err)
         st.stop()

@@ -36,8 +36,10 @@ def keepable(key) -> bool:
 
 
 def keep_page_inputs() -> None:
-    """Assign every page input's value to itself, so that no page's inputs are cleaned up
-    while another page is shown. Call once at the top of every run (``app.py``).
+    """Assign every page input's value to itself, so that no page's inputs are cleaned up.
+
+    Streamlit cleans up the inputs of a page while another page is shown. Call once at the
+    top of every run (``app.py``).
     """
     ss = st.session_state
     for key in [k for k in ss if keepable(k)]:
@@ -64,8 +66,10 @@ def last_edited(key: str):
 
 
 def remember_editor(key: str, edited, family: str | None = None) -> None:
-    """Keep the editor's table as edited in this run (``family``: a key prefix whose other
-    editors are forgotten, e.g. earlier revisions of the same table).
+    """Keep the editor's table as edited in this run.
+
+    ``family`` is a key prefix whose other editors are forgotten (e.g. earlier revisions of
+    the same table).
     """
     ss = st.session_state
     for store in (ss.setdefault(_KEPT, {}), ss.setdefault(_BASE, {})):

@@ -39,9 +39,10 @@ PIN_AFTER_COLUMNS = 7
 
 
 def column_config(df: pd.DataFrame) -> dict:
-    """``st.dataframe`` column settings for a readable table: thousands separators (the
-    reader's locale), whole numbers without decimals, small numbers to three figures, long
-    text columns wide.
+    """``st.dataframe`` column settings for a readable table.
+
+    Thousands separators (the reader's locale), whole numbers without decimals, small
+    numbers to three figures, long text columns wide.
     """
     config = {}
     for col in df.columns:
@@ -95,9 +96,10 @@ def table(
 
 
 def issue_messages(issues: pd.DataFrame) -> pd.DataFrame:
-    """Set-aside rows for the page: line, problem, the message (without the file and line it
-    starts with: they have columns of their own), then column, value and file, so the message
-    is in view at the left rather than cut off at the table's right edge.
+    """Set-aside rows for the page: line, problem, message, then column, value and file.
+
+    The message loses the file and line it starts with (they have columns of their own),
+    so it is in view at the left rather than cut off at the table's right edge.
     """
     out = issues.copy()
     if "message" in out:

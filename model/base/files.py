@@ -1,12 +1,89 @@
-"""Reading a user's input file as text, with one clear message for each way it can fail."""
+"""A user's input file (a name with its bytes or its path), read with one clear message for each way it can fail."""
 
 from __future__ import annotations
 
+import hashlib
+import os
 import re
 import tomllib
+from dataclasses import dataclass, field
 from pathlib import Path
 
 from model.base.errors import InputError
+
+
+@dataclass(frozen=True)
+class Source:
+    """A user's file as a reader takes it: the name its messages give it, and its bytes or its path.
+
+    Parameters
+    ----------
+    name : str
+        The file as the user knows it: an upload's file name, a demo file's name, or a
+        path as typed on the command line. Every message about the file names it so.
+    data : bytes, optional
+        The file's bytes (an upload, or a file made in memory).
+    path : str or PathLike, optional
+        Where the file is read from. Exactly one of ``data`` and ``path`` is given.
+    """
+
+    name: str
+    data: bytes | None = field(default=None, repr=False)
+    path: Path | None = None
+
+    def __post_init__(self) -> None:
+        if (self.data is None) == (self.path is None):
+            raise ValueError("a Source has exactly one of data and path")
+        if self.path is not None and not isinstance(self.path, Path):
+            object.__setattr__(self, "path", Path(self.path))
+
+    @classmethod
+    def of(cls, item: Source | str | os.PathLike) -> Source:
+        """``item`` if it is a Source, else the file at that path, named by the path as given."""
+        if isinstance(item, Source):
+            return item
+        return cls(str(Path(item)), path=Path(item))
+
+    @property
+    def suffix(self) -> str:
+        """The file's extension as written (``".csv"``; ``""`` for none)."""
+        return (self.path if self.path is not None else Path(self.name)).suffix
+
+    def kind(self, field_name: str) -> str:
+        """What the source is, as :func:`path_kind`: always ``"file"`` for bytes."""
+        return "file" if self.path is None else path_kind(self.path, field_name)
+
+    def read_bytes(self) -> bytes:
+        """The file's bytes (read from its path, or as given). Raises OSError as reading does."""
+        if self.path is not None:
+            return self.path.read_bytes()
+        assert self.data is not None  # exactly one of the two (``__post_init__``)
+        return self.data
+
+    def head(self, size: int) -> bytes:
+        """The file's first ``size`` bytes, without reading the rest from disk."""
+        if self.path is None:
+            return self.read_bytes()[:size]
+        with open(self.path, "rb") as fh:
+            return fh.read(size)
+
+    def digest(self) -> str:
+        """A cache key that reads no file from disk.
+
+        It changes with the name and the content (bytes), or with the name and the file's
+        place, size and time of change (a path).
+        """
+        h = hashlib.sha256(self.name.encode() + b"\0")
+        if self.path is None:
+            h.update(hashlib.sha256(self.read_bytes()).digest())
+            return h.hexdigest()
+        h.update(str(self.path.resolve()).encode())
+        try:
+            st = self.path.stat()
+            h.update(f"\0{st.st_size}\0{st.st_mtime_ns}".encode())
+        except OSError:
+            pass  # a missing file: the reader says so
+        return h.hexdigest()
 
 
 def shown_path(path) -> str:

@@ -39,10 +39,9 @@ _SIZE = re.compile(r"^\s*[0-9]+(\.[0-9]+)?\s*(b|bytes|kb|mb|gb|tb|kib|mib|gib|ti
 
 
 def plain_size(memory_limit) -> bool:
-    """True when there is no memory limit or it is a size duckdb surely takes.
+    """Whether there is no memory limit or it is a size duckdb surely takes ("3GB", "500 MB", "80%").
 
-    Such sizes are "3GB", "500 MB", "80%"; any other text is handed to duckdb at once, which
-    says if it is wrong.
+    Any other text is handed to duckdb at once, which says if it is wrong.
     """
     return memory_limit is None or bool(_SIZE.match(str(memory_limit)))
 
@@ -65,7 +64,7 @@ class LazyConnection:
 
     @property
     def opened(self) -> bool:
-        """Whether the duckdb connection has been opened."""
+        """Whether the connection has been opened."""
         return self._con is not None
 
     def _open(self):
@@ -79,7 +78,7 @@ class LazyConnection:
         return self._con
 
     def execute(self, sql, *args):
-        """Run ``sql``; a ``SET`` or ``CREATE`` statement before first use is kept until the connection opens."""
+        """Run ``sql``: a setting or a view is kept until the connection opens; anything else opens it."""
         words = sql.split(None, 1)
         if self._con is None and not args and words and words[0].upper() in ("SET", "CREATE"):
             self._pending.append(sql)
@@ -90,7 +89,7 @@ class LazyConnection:
         return getattr(self._open(), name)
 
     def close(self) -> None:
-        """Close the connection (when opened) and remove its temporary folder."""
+        """Close the connection (if it was opened) and remove its spill folder."""
         import shutil
 
         try:

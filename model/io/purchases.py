@@ -14,6 +14,8 @@ part-full).
 from __future__ import annotations
 
 import csv
+import io
+import os
 import re
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -23,7 +25,7 @@ import numpy as np
 import pandas as pd
 
 from model.base.errors import InputError
-from model.base.files import path_kind, shown_path
+from model.base.files import Source, shown_path
 from model.base.units import one_number_and_unit, registry, safe_quantity_text
 from model.io.csv_lines import split_csv_lines
 from model.io.sites import RESERVED_SITES
@@ -76,11 +78,12 @@ class PurchasesFile:
 
     @property
     def messages(self) -> list[str]:
+        """The one-line message of each line set aside."""
         return [str(e) for e in self.set_aside]
 
 
 def read_purchases(
-    path,
+    path: Source | str | os.PathLike,
     reference: Reference = DEFAULT_REFERENCE,
     temperature_c: float = 20.0,
     pressure_kpa: float = STANDARD_PRESSURE_KPA,
@@ -108,7 +111,7 @@ def read_purchases(
 
 
 def load_purchases(
-    path,
+    path: Source | str | os.PathLike,
     reference: Reference = DEFAULT_REFERENCE,
     temperature_c: float = 20.0,
     pressure_kpa: float = STANDARD_PRESSURE_KPA,
@@ -117,9 +120,10 @@ def load_purchases(
 
     Parameters
     ----------
-    path : path
+    path : Source or path
         CSV (UTF-8; a line whose first character other than a space or tab is ``#`` is
-        a comment) or Parquet.
+        a comment) or Parquet. A :class:`model.base.files.Source` (bytes or a path) is
+        named by its name in every message; a path by the path as given.
     reference : Reference
         Agent data (bottle volumes, densities, molar masses).
     temperature_c, pressure_kpa : float
@@ -142,24 +146,24 @@ def load_purchases(
         readable header row, or a required column missing. A line that cannot be read (an
         unclosed quote, a lone CR, the wrong number of fields, not UTF-8) is set aside.
     """
-    p = Path(path)
-    where = str(p)
-    found = path_kind(p, "purchases file")
+    src = Source.of(path)
+    where = src.name
+    found = src.kind("purchases file")
     if found != "file":
         raise InputError(
             where,
-            shown_path(p),
+            shown_path(where),
             "that is a folder; give a purchases file (.csv or .parquet)"
             if found == "folder"
             else "the purchases file does not exist",
         )
-    fmt = p.suffix.lower()
+    fmt = src.suffix.lower()
     if fmt == ".csv":
-        rows, set_aside, columns = _csv_rows(p, where)
+        rows, set_aside, columns = _csv_rows(src, where)
         label = "line"
     elif fmt == ".parquet":
         try:
-            df = pd.read_parquet(p)
+            df = pd.read_parquet(src.path if src.path is not None else io.BytesIO(src.read_bytes()))
         except Exception as exc:  # noqa: BLE001  (pyarrow raises many types for a damaged file)
             raise InputError(where, "the file", f"not a readable Parquet file ({type(exc).__name__})") from None
         for col in df.columns:  # a date-time month is read as its YYYY-MM
@@ -169,11 +173,14 @@ def load_purchases(
         df.columns = [str(c).strip().lower() for c in df.columns]
         _require_columns(list(df.columns), where)
         columns = list(df.columns)
-        rows = [(i, dict(zip(df.columns, r))) for i, r in enumerate(df.itertuples(index=False, name=None), start=1)]
+        rows = [
+            (i, dict(zip(df.columns, r, strict=True)))
+            for i, r in enumerate(df.itertuples(index=False, name=None), start=1)
+        ]
         set_aside = []
         label = "row"
     else:
-        raise InputError(where, p.suffix or "no extension", "a purchases file ends in .csv or .parquet")
+        raise InputError(where, src.suffix or "no extension", "a purchases file ends in .csv or .parquet")
     with_site = SITE_COLUMN in columns
     out = []
     for number, record in rows:
@@ -195,7 +202,7 @@ def _require_columns(columns: list[str], where: str) -> None:
         raise InputError(f"{where}: columns", ", ".join(columns), "missing column(s): " + ", ".join(missing))
 
 
-def _csv_rows(p: Path, where: str):
+def _csv_rows(src: Source, where: str):
     """The data lines of a purchases CSV as (line number, {column: text}); bad lines set aside.
 
     The file is cut into lines before its fields are read (:mod:`model.io.csv_lines`), so a
@@ -204,7 +211,7 @@ def _csv_rows(p: Path, where: str):
     character other than a space or tab is ``#``; a ``#`` inside a line is text.
     """
     try:
-        data = p.read_bytes()
+        data = src.read_bytes()
     except OSError as exc:
         raise InputError(where, "the file", f"cannot be read ({exc.strerror or type(exc).__name__})") from None
     if data.startswith((b"\xff\xfe", b"\xfe\xff")):
@@ -239,7 +246,7 @@ def _csv_rows(p: Path, where: str):
                 )
             )
         else:
-            rows.append((number, dict(zip(columns, fields))))
+            rows.append((number, dict(zip(columns, fields, strict=True))))
     return rows, set_aside, columns
 
 

@@ -10,7 +10,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from model.base.errors import InputError
-from model.base.files import path_kind, shown_path
+from model.base.files import Source, shown_path
 from model.base.units import registry, safe_quantity_text
 
 RECORD_FORMATS = ("csv", "parquet")
@@ -64,6 +64,7 @@ class Column:
 class RecordFile:
     """What a record file holds: its format, its columns and how each maps to a field."""
 
+    #: Where the file is read from ("" for a CSV file given as bytes, read from ``data``).
     path: str
     format: str
     columns: dict[str, Column]
@@ -73,13 +74,24 @@ class RecordFile:
     skip_lines: int = 0
     #: duckdb type of each source column.
     types: dict[str, str] = field(default_factory=dict)
+    #: The file as the user knows it (:attr:`model.base.files.Source.name`): every message
+    #: names it so. The path when not given.
+    name: str = ""
+    #: The bytes of a CSV file given as bytes (None: read from ``path``).
+    data: bytes | None = field(default=None, repr=False)
+
+    def __post_init__(self) -> None:
+        if not self.name:
+            self.name = self.path
 
     @property
     def flow_mode(self) -> str:
+        """How the flows are given: ``"parts"`` (O2, air, N2O) or ``"total"`` (FGF and O2 share)."""
         return "parts" if any(k in self.columns for k in ("o2", "air", "n2o")) else "total"
 
     @property
     def row_label(self) -> str:
+        """What a message calls a row of the file: ``"line"`` (CSV) or ``"row"`` (Parquet)."""
         return "line" if self.format == "csv" else "row"
 
 
@@ -187,60 +199,118 @@ def _require(columns: dict[str, Column], where: str) -> None:
         )
 
 
-def inspect_file(path) -> RecordFile:
+def inspect_file(source: Source | str | os.PathLike) -> RecordFile:
     """Read the header of a record file and map its columns (no data rows are read).
+
+    Parameters
+    ----------
+    source : Source or path
+        The file; a path is named by the path as given. A Parquet file is read by its
+        path (duckdb and pyarrow open it): give Parquet bytes as a file
+        (:func:`model.io.records.read_records` writes them to its private folder).
 
     Raises
     ------
     InputError
         The file is missing or unreadable, is not CSV/Parquet, is UTF-16, declares an
-        unknown unit, or lacks a required column.
+        unknown unit, or lacks a required column. Every message names ``source.name``.
     """
-    p = Path(path)
-    where = str(p)
-    fmt = p.suffix.lower().lstrip(".")
-    if fmt not in RECORD_FORMATS:
-        raise InputError(where, p.suffix or "no extension", "record files end in .csv or .parquet")
-    found = path_kind(p, "record file")
-    if found != "file":
-        raise InputError(where, shown_path(p), "the file does not exist" if found == "missing" else "expected a file")
+    src = Source.of(source)
+    fmt = _record_format(src)
     if fmt == "parquet":
-        import pyarrow as pa
-        import pyarrow.parquet as pq
+        if src.path is None:
+            raise ValueError("a Parquet record file is read from a path; write its bytes to a file first")
+        return _inspect_parquet(src)
+    return _inspect_csv(src)
 
-        try:
-            schema = pq.read_schema(p)
-        except Exception as exc:
-            raise InputError(where, "the file", f"not a readable Parquet file ({type(exc).__name__})") from None
-        names = list(schema.names)
-        columns, ignored = map_columns(names, {}, where)
-        # A duration column is read as its integer count of s, ms, us or ns: give elapsed
-        # its factor to minutes; any other field has no use for a duration.
-        for key, col in list(columns.items()):
-            ptype = schema.field(col.source).type
-            if pa.types.is_duration(ptype):
-                if key != "elapsed":
-                    raise InputError(
-                        f"{where}: column '{col.source}'", str(ptype), "a duration fits only the elapsed column"
-                    )
-                seconds = {"s": 1.0, "ms": 1e-3, "us": 1e-6, "ns": 1e-9}[ptype.unit]
-                columns[key] = Column(key, col.source, seconds / 60.0, ptype.unit)
-        import duckdb
 
-        try:
-            described = duckdb.sql(f"DESCRIBE SELECT * FROM read_parquet({_sql_str(str(p))})").fetchall()
-        except duckdb.Error as exc:
-            raise InputError(where, "the file", f"not a readable Parquet file ({type(exc).__name__})") from None
-        types = {r[0]: r[1] for r in described}
-        for key, col in columns.items():
-            check_column_type(key, types.get(col.source, "VARCHAR"), f"{where}: column '{col.source}'")
-        return RecordFile(where, fmt, columns, ignored, 0, types)
-    with open(p, "rb") as fh:
-        head = fh.read(65536)
+def _record_format(src: Source) -> str:
+    """The record format ("csv" or "parquet") from the extension; InputError if neither, or no such file."""
+    where = src.name
+    fmt = src.suffix.lower().lstrip(".")
+    if fmt not in RECORD_FORMATS:
+        raise InputError(where, src.suffix or "no extension", "record files end in .csv or .parquet")
+    found = src.kind("record file")
+    if found != "file":
+        raise InputError(
+            where, shown_path(where), "the file does not exist" if found == "missing" else "expected a file"
+        )
+    return fmt
+
+
+def _inspect_parquet(src: Source) -> RecordFile:
+    """The columns of a Parquet record file, from its schema, and their duckdb types."""
+    import pyarrow.parquet as pq
+
+    where, path = src.name, str(src.path)
+    try:
+        schema = pq.read_schema(path)
+    except Exception as exc:
+        raise InputError(where, "the file", f"not a readable Parquet file ({type(exc).__name__})") from None
+    columns, ignored = map_columns(list(schema.names), {}, where)
+    _duration_factors(columns, schema, where)
+    types = _parquet_types(path, where)
+    for key, col in columns.items():
+        check_column_type(key, types.get(col.source, "VARCHAR"), f"{where}: column '{col.source}'")
+    return RecordFile(path, "parquet", columns, ignored, 0, types, name=where)
+
+
+def _duration_factors(columns: dict[str, Column], schema, where: str) -> None:
+    """Give a duration column its factor to minutes (pyarrow reads it as a count of s, ms, us or ns).
+
+    Any field but elapsed has no use for a duration: InputError naming the column.
+    """
+    import pyarrow as pa
+
+    for key, col in list(columns.items()):
+        ptype = schema.field(col.source).type
+        if pa.types.is_duration(ptype):
+            if key != "elapsed":
+                raise InputError(
+                    f"{where}: column '{col.source}'", str(ptype), "a duration fits only the elapsed column"
+                )
+            seconds = {"s": 1.0, "ms": 1e-3, "us": 1e-6, "ns": 1e-9}[ptype.unit]
+            columns[key] = Column(key, col.source, seconds / 60.0, ptype.unit)
+
+
+def _parquet_types(path: str, where: str) -> dict[str, str]:
+    """The duckdb type of each column of a Parquet file."""
+    import duckdb
+
+    try:
+        described = duckdb.sql(f"DESCRIBE SELECT * FROM read_parquet({_sql_str(path)})").fetchall()
+    except duckdb.Error as exc:
+        raise InputError(where, "the file", f"not a readable Parquet file ({type(exc).__name__})") from None
+    return {r[0]: r[1] for r in described}
+
+
+#: Bytes read from the top of a CSV record file to find its units lines and header row.
+_CSV_HEAD_BYTES = 65536
+
+
+def _inspect_csv(src: Source) -> RecordFile:
+    """The columns of a CSV record file, from its units lines and header row."""
+    where = src.name
+    head = src.head(_CSV_HEAD_BYTES)
     if head.startswith((b"\xff\xfe", b"\xfe\xff")) or (len(head) > 1 and head[1:2] == b"\x00"):
         raise InputError(where, "UTF-16 text", "save the file as UTF-8 text (CSV UTF-8)")
     if head.startswith(b"\xef\xbb\xbf"):
         head = head[3:]
+    header_line, skip, declared = _csv_header(head, where)
+    import csv
+
+    try:
+        names = next(csv.reader([header_line]))
+    except csv.Error as exc:
+        raise InputError(f"{where}, line {skip + 1}", "the header row", f"not readable as CSV ({exc})") from None
+    columns, ignored = map_columns(names, declared, where)
+    path = "" if src.path is None else str(src.path)
+    types = {n: "VARCHAR" for n in names}
+    return RecordFile(path, "csv", columns, ignored, skip, types, name=where, data=src.data)
+
+
+def _csv_header(head: bytes, where: str) -> tuple[str, int, dict[str, str]]:
+    """The header row of a CSV file's first bytes, the lines before it and the units they declare."""
     lines = head.split(b"\n")
     declared: dict[str, str] = {}
     skip = 0
@@ -254,19 +324,12 @@ def inspect_file(path) -> RecordFile:
             skip += 1
             continue
         break
-    if skip >= len(lines) - 1 and len(head) == 65536:
+    if skip >= len(lines) - 1 and len(head) == _CSV_HEAD_BYTES:
         raise InputError(where, "no header row", "expected a header row near the top of the file")
     header_line = lines[skip].decode("utf-8", errors="replace").rstrip("\r") if skip < len(lines) else ""
     if not header_line.strip():
         raise InputError(where, "an empty file", "expected a header row with column names")
-    import csv
-
-    try:
-        names = next(csv.reader([header_line]))
-    except csv.Error as exc:
-        raise InputError(f"{where}, line {skip + 1}", "the header row", f"not readable as CSV ({exc})") from None
-    columns, ignored = map_columns(names, declared, where)
-    return RecordFile(where, fmt, columns, ignored, skip, {n: "VARCHAR" for n in names})
+    return header_line, skip, declared
 
 
 #: duckdb types read as numbers as they are (exact names; DECIMAL(p,s) too).
@@ -350,8 +413,13 @@ def file_failures(files: Sequence[RecordFile]):
 
 def failure_of(files: Sequence[RecordFile], exc: BaseException) -> InputError:
     """One InputError naming the file a reader failure came from (see :func:`file_failures`)."""
-    first = (str(exc).strip().splitlines() or [""])[0][:200] or type(exc).__name__
-    named = [f for f in files if f.path in str(exc)]
+    text = str(exc)
+    named = [f for f in files if f.path and f.path in text]
+    # The library's own words may quote the place a file is read from: name the file instead.
+    for f in sorted(files, key=lambda f: len(f.path), reverse=True):
+        if f.path and f.path != f.name:
+            text = text.replace(f.path, f.name)
+    first = (text.strip().splitlines() or [""])[0][:200] or type(exc).__name__
     if not named and len(files) == 1:
         named = list(files)
     if not named:
@@ -359,12 +427,12 @@ def failure_of(files: Sequence[RecordFile], exc: BaseException) -> InputError:
     if not named:
         return InputError(
             "records",
-            ", ".join(shown_path(f.path) for f in files)[:200],
+            ", ".join(shown_path(f.name) for f in files)[:200],
             f"the files cannot be read to the end ({type(exc).__name__}: {first})",
         )
     f = named[0]
     what = "a damaged Parquet file" if f.format == "parquet" else "a file that cannot be read to the end"
-    return InputError(f.path, "the file", f"{what} ({type(exc).__name__}: {first}); export it again or leave it out")
+    return InputError(f.name, "the file", f"{what} ({type(exc).__name__}: {first}); export it again or leave it out")
 
 
 def _scans(rf: RecordFile) -> bool:
@@ -379,8 +447,11 @@ def _scans(rf: RecordFile) -> bool:
         return False
 
 
-def expand_paths(patterns: Iterable) -> list[str]:
+def expand_paths(patterns: Iterable) -> list[Source]:
     """Files named by paths or glob patterns, in order, each once.
+
+    A :class:`model.base.files.Source` is taken as it is (its name is no pattern); a path
+    or a pattern's match is named by its path.
 
     Raises
     ------
@@ -389,8 +460,15 @@ def expand_paths(patterns: Iterable) -> list[str]:
     """
     import glob
 
-    out: list[str] = []
+    out: list[Source] = []
+    seen: set[str] = set()
     for pat in patterns:
+        if isinstance(pat, Source):
+            key = "" if pat.path is None else str(pat.path)
+            if not key or key not in seen:
+                out.append(pat)
+                seen.add(key)
+            continue
         pat = str(pat)
         if any(ch in pat for ch in "*?["):
             found = sorted(glob.glob(pat, recursive=True))
@@ -403,8 +481,9 @@ def expand_paths(patterns: Iterable) -> list[str]:
         else:
             found = [pat]
         for f in found:
-            if f not in out:
-                out.append(f)
+            if f not in seen:
+                out.append(Source.of(f))
+                seen.add(f)
     if not out:
         raise InputError("records", "no files", "give at least one record file")
     return out

@@ -57,7 +57,7 @@ class ReadReport:
 
     @property
     def rows_set_aside(self) -> int:
-        """Rows set aside, all issue kinds together."""
+        """Rows set aside, of every kind."""
         return int(sum(self.set_aside.values()))
 
     def summary(self) -> dict:
@@ -96,6 +96,8 @@ class Records:
     gap_limit_min: float
     reference: Reference = DEFAULT_REFERENCE
     _tmpdir: str | None = None
+    #: The private folder of Parquet bytes written for duckdb (see ``read_records``), if any.
+    _written_dir: str | None = None
     #: The ``prepared`` query of each file on its own (same columns and checks), for
     #: engines that work file by file.
     file_sql: list = field(default_factory=list)
@@ -123,8 +125,9 @@ class Records:
         try:
             self.con.close()
         finally:
-            if self._tmpdir:
-                shutil.rmtree(self._tmpdir, ignore_errors=True)
+            for folder in (self._tmpdir, self._written_dir):
+                if folder:
+                    shutil.rmtree(folder, ignore_errors=True)
 
 
 def finish_report(
@@ -182,11 +185,11 @@ def finish_report(
         rep.gap_list = pd.DataFrame(
             [
                 (
-                    files[f].path,
+                    files[f].name,
                     int(r),
                     c,
                     float(d),
-                    f"{files[f].path}: {files[f].row_label} {int(r)}: case {c}: {d:g} min to the next sample "
+                    f"{files[f].name}: {files[f].row_label} {int(r)}: case {c}: {d:g} min to the next sample "
                     f"(limit {recs.gap_limit_min:g} min); the interval is not counted",
                 )
                 for f, r, c, t, d in gap_rows
@@ -279,10 +282,10 @@ def _issue_row(rf: RecordFile, r, reference: Reference):
             f"(by {prev_max - t_min:g} min); the rows of a case must be in time order"
         )
     return (
-        rf.path,
+        rf.name,
         int(row),
         kind,
         col,
         None if val is None else str(val),
-        f"{rf.path}: {rf.row_label} {int(row)}: {msg}",
+        f"{rf.name}: {rf.row_label} {int(row)}: {msg}",
     )

@@ -41,6 +41,7 @@ import numpy as np
 import pandas as pd
 
 from model.base.errors import InputError
+from model.base.files import Source
 from model.freshgas import FLOW_BANDS
 from model.io.csv_lines import split_csv_lines
 from model.io.duckdb_connection import LazyConnection, connect, plain_size
@@ -195,14 +196,15 @@ def _csv_table(con, rf: RecordFile, index: int, report: ReadReport, folder: str)
     import pyarrow as pa
 
     try:
-        lines = split_csv_lines(np.fromfile(rf.path, dtype=np.uint8))
+        raw = np.frombuffer(rf.data, dtype=np.uint8) if rf.data is not None else np.fromfile(rf.path, dtype=np.uint8)
+        lines = split_csv_lines(raw)
     except OSError as exc:
-        raise InputError(rf.path, "the file", f"cannot be read ({exc.strerror or type(exc).__name__})") from None
+        raise InputError(rf.name, "the file", f"cannot be read ({exc.strerror or type(exc).__name__})") from None
     header = rf.skip_lines  # index of the header line
     n_fields = len(rf.types)
     if header >= len(lines) or lines.broken[header]:
         what = lines.problem(header) if header < len(lines) else "missing"
-        raise InputError(f"{rf.path}, line {header + 1}", "the header row", f"not readable as CSV ({what})")
+        raise InputError(f"{rf.name}, line {header + 1}", "the header row", f"not readable as CSV ({what})")
     data = np.arange(len(lines)) > header
     data &= ~lines.blank
     broken = data & lines.broken
@@ -215,7 +217,7 @@ def _csv_table(con, rf: RecordFile, index: int, report: ReadReport, folder: str)
             kind, msg = "unreadable", f"cannot be read as CSV: {lines.problem(i)}"
         else:
             kind, msg = "field_count", f"expected {n_fields} fields as in the header, found {int(lines.fields[i])}"
-        rej_rows.append((rf.path, line, kind, None, None, f"{rf.path}: line {line}: {msg}"))
+        rej_rows.append((rf.name, line, kind, None, None, f"{rf.name}: line {line}: {msg}"))
     # The header and the lines kept, in a file of their own: its line k + 1 is kept line k.
     kept_numbers = lines.number[keep]
     longest = int((lines.ends - lines.starts).max()) if len(lines) else 0
@@ -243,8 +245,9 @@ def _csv_table(con, rf: RecordFile, index: int, report: ReadReport, folder: str)
             f"SELECT line, min(error_type) AS error_type FROM {rej} GROUP BY line ORDER BY line"
         ).fetchall()
     except duckdb.Error as exc:
-        first = (str(exc).strip().splitlines() or [type(exc).__name__])[0]
-        raise InputError(rf.path, "the file", f"not readable as CSV ({first})") from None
+        # duckdb's words may quote the clean copy's place: name the user's file instead.
+        first = (str(exc).replace(clean, rf.name).strip().splitlines() or [type(exc).__name__])[0]
+        raise InputError(rf.name, "the file", f"not readable as CSV ({first})") from None
     finally:
         try:
             os.remove(clean)
@@ -257,7 +260,7 @@ def _csv_table(con, rf: RecordFile, index: int, report: ReadReport, folder: str)
     rows = kept_numbers[accepted]
     if len(rows) != table.num_rows:  # never expected: each clean line is one record
         raise InputError(
-            rf.path,
+            rf.name,
             "the file",
             f"not readable as CSV ({table.num_rows} records in {len(rows)} lines); save it again as CSV UTF-8",
         )
@@ -280,7 +283,7 @@ def _csv_table(con, rf: RecordFile, index: int, report: ReadReport, folder: str)
             msg = f"expected {n_fields} fields as in the header"
         else:
             msg = f"cannot be read as CSV ({err.lower()})"
-        rej_rows.append((rf.path, number, kind, None, None, f"{rf.path}: line {number}: {msg}"))
+        rej_rows.append((rf.name, number, kind, None, None, f"{rf.name}: line {number}: {msg}"))
     rej_rows.sort(key=lambda r: r[1])
     con.execute(f"DROP TABLE IF EXISTS {rej}; DROP TABLE IF EXISTS {scan}")
     return table, rej_rows
@@ -300,8 +303,12 @@ def read_records(
 
     Parameters
     ----------
-    paths : iterable of path or glob
+    paths : Source, path or glob, or an iterable of them
         Record files. Parquet files with the same columns are read as one columnar scan.
+        A :class:`model.base.files.Source` is named by its name in every message; a path
+        by the path as given. Parquet bytes are written to a private folder (duckdb and
+        pyarrow read Parquet by path) that :meth:`Records.close` removes; CSV bytes are
+        read as they are.
     reference : Reference
         Reference data (agent names, vaporizer maxima).
     gap_limit_min : float
@@ -330,9 +337,14 @@ def read_records(
     if not (isinstance(gap_limit_min, (int, float)) and np.isfinite(gap_limit_min) and gap_limit_min > 0):
         raise InputError("gap limit", gap_limit_min, "expected a positive number of minutes")
     step = progress or (lambda f, t: None)
-    files = expand_paths(paths if not isinstance(paths, (str, os.PathLike)) else [paths])
+    files = expand_paths(paths if not isinstance(paths, (str, os.PathLike, Source)) else [paths])
     step(0.0, f"Reading the headers of {len(files)} file(s)")
-    specs = [inspect_file(f) for f in files]
+    files, written = _parquet_on_disk(files)
+    try:
+        specs = [inspect_file(f) for f in files]
+    except BaseException:
+        _remove(written)
+        raise
     if all(s.format == "parquet" for s in specs) and plain_size(memory_limit):
         # Parquet only: duckdb opens when a query first needs it (the compiled path of a
         # clean file never does); its settings and views are kept until then.
@@ -343,13 +355,11 @@ def read_records(
         with file_failures(specs):
             report, rej_rows, gl, per_file = _build_views(con, tmp, specs, reference, gap_limit_min, step)
     except BaseException:
-        import shutil
-
         con.close()
-        if tmp:
-            shutil.rmtree(tmp, ignore_errors=True)
+        _remove(tmp)
+        _remove(written)
         raise
-    recs = Records(con, specs, report, gl, reference, tmp)
+    recs = Records(con, specs, report, gl, reference, tmp, _written_dir=written)
     #: Each file's ``prepared`` query and row count, and the agent names as read.
     recs.file_sql, recs.file_rows, recs.agent_map = (per_file["file_sql"], per_file["file_rows"], per_file["agent_map"])
     recs.report.issues = pd.DataFrame(rej_rows, columns=["file", "row", "kind", "column", "value", "message"])
@@ -359,12 +369,45 @@ def read_records(
     return recs
 
 
+def _parquet_on_disk(files: list[Source]) -> tuple[list[Source], str | None]:
+    """The sources, Parquet bytes among them written to a private folder (None: none were).
+
+    The copies are named by their place in the list only; the sources keep their names, so
+    no message ever names a copy.
+    """
+    if not any(f.path is None and f.suffix.lower() == ".parquet" for f in files):
+        return files, None
+    import tempfile
+
+    folder = tempfile.mkdtemp(prefix="gas-ledger-records-")
+    out = []
+    try:
+        for i, f in enumerate(files):
+            if f.path is None and f.suffix.lower() == ".parquet":
+                copy = Path(folder) / f"{i:04d}.parquet"
+                copy.write_bytes(f.read_bytes())
+                f = Source(f.name, path=copy)
+            out.append(f)
+    except BaseException:
+        _remove(folder)
+        raise
+    return out, folder
+
+
+def _remove(folder: str | None) -> None:
+    """Remove a private folder of the reader, if there is one."""
+    if folder:
+        import shutil
+
+        shutil.rmtree(folder, ignore_errors=True)
+
+
 def _build_views(con, tmp, specs, reference, gap_limit_min, step):
     """Read the CSV files and create the ``raw``, ``prepared``, ``checked`` and ``valid`` views."""
-    report = ReadReport(files=[s.path for s in specs], gap_limit_min=float(gap_limit_min))
+    report = ReadReport(files=[s.name for s in specs], gap_limit_min=float(gap_limit_min))
     for s in specs:
         if s.ignored:
-            report.notes.append(f"{s.path}: ignored column(s) {', '.join(s.ignored)}")
+            report.notes.append(f"{s.name}: ignored column(s) {', '.join(s.ignored)}")
     selects = []
     #: The raw SELECT of each file on its own, and its number of rows, for per-file work.
     file_selects: dict[int, str] = {}
@@ -376,7 +419,7 @@ def _build_views(con, tmp, specs, reference, gap_limit_min, step):
         if s.format == "parquet":
             key = tuple(sorted(s.types.items())) + tuple(sorted((k, c.source, c.factor) for k, c in s.columns.items()))
             groups.setdefault(key, []).append(i)
-    for key, idx in groups.items():
+    for idx in groups.values():
         s = specs[idx[0]]
         names = "[" + ", ".join(_sql_str(specs[i].path) for i in idx) + "]"
         src = (
@@ -395,7 +438,7 @@ def _build_views(con, tmp, specs, reference, gap_limit_min, step):
     for i, s in enumerate(specs):
         if s.format != "csv":
             continue
-        step(0.05 + 0.25 * i / max(len(specs), 1), f"Reading {Path(s.path).name}")
+        step(0.05 + 0.25 * i / max(len(specs), 1), f"Reading {Path(s.name).name}")
         table, rows = _csv_table(con, s, i, report, tmp)
         rej_rows.extend(rows)
         name = f"csv_{i}"
