@@ -69,6 +69,7 @@ def test_an_edit_runs_no_flow_sweep_and_builds_no_download_until_asked(monkeypat
     downloaded).
     """
     import model.present.case_charts
+    import model.sweep
 
     at = page("case_plan.py")
     sweeps = _counting(monkeypatch, model.sweep, "flow_sweep")
