@@ -8,6 +8,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
+from model.base.jsonable import to_json_value
 from model.cautions import case_warnings, is_unsafe, warnings_as_records
 from model.circle import simulate_cases
 from model.emissions import co2e_kg, emitted_mass_g, gas_mass_g
@@ -354,18 +355,6 @@ class CaseResult:
 
     def to_dict(self) -> dict:
         """Machine-readable form with stable keys (units in the key names)."""
-
-        def clean(v):
-            if isinstance(v, (np.floating, float)):
-                v = float(v)
-                return v if math.isfinite(v) else None
-            if isinstance(v, (np.integer,)):
-                return int(v)
-            if isinstance(v, np.bool_):
-                return bool(v)
-            return v
-
-        phases = [{k: clean(v) for k, v in row.items()} for row in self.phases.to_dict("records")]
         out = {
             "plan": self.plan.name,
             "agent": self.plan.agent,
@@ -373,14 +362,14 @@ class CaseResult:
             "gwp_source": self.gwp_source,
             "gwp_source_label": self.gwp_label,
             "uptake_model": self.uptake_model,
-            "totals": {k: clean(v) for k, v in self.totals.items()},
-            "phases": phases,
+            "totals": to_json_value(self.totals),
+            "phases": to_json_value(self.phases.to_dict("records")),
             "warnings": list(self.warnings),
             "warnings_by_severity": warnings_as_records(self.warnings),
             "unsafe": is_unsafe(self.warnings),
         }
         if self.timecourse is not None:
-            out["timecourse"] = [{k: clean(v) for k, v in row.items()} for row in self.timecourse.to_dict("records")]
+            out["timecourse"] = to_json_value(self.timecourse.to_dict("records"))
         return out
 
 

@@ -4,8 +4,9 @@ from __future__ import annotations
 
 import argparse
 import json
-import math
 import sys
+
+from model.base.jsonable import to_json_value
 
 EXIT_INPUT = 2
 
@@ -39,23 +40,10 @@ def print_table(rows, columns, out=None):
 
 
 def print_json(data, out=None):
-    """Print data as JSON; a number that is not finite (NaN, inf) is written as null."""
+    """Print data as JSON (:func:`model.base.jsonable.to_json_value`: a number that is not finite is null)."""
     out = out or sys.stdout
-    json.dump(_finite_only(data), out, indent=2, ensure_ascii=False, allow_nan=False)
+    json.dump(to_json_value(data), out, indent=2, ensure_ascii=False, allow_nan=False)
     out.write("\n")
-
-
-def _finite_only(value):
-    """``value`` with every non-finite float (NaN, inf, numpy ones too) replaced by None."""
-    if isinstance(value, dict):
-        return {k: _finite_only(v) for k, v in value.items()}
-    if isinstance(value, (list, tuple)):
-        return [_finite_only(v) for v in value]
-    if isinstance(value, float) and not math.isfinite(value):
-        return None
-    if hasattr(value, "dtype") and hasattr(value, "item"):  # numpy scalars
-        return _finite_only(value.item())
-    return value
 
 
 CAUTION = (

@@ -7,13 +7,13 @@ purchases) is left empty with its reason in ``problems``, and the rest stands.
 
 from __future__ import annotations
 
-import math
 import re
 from dataclasses import dataclass, field
 
 import pandas as pd
 
 from model.base.errors import InputError
+from model.base.jsonable import to_json_value
 from model.reference import DEFAULT_GWP, DEFAULT_REFERENCE, Reference
 from model.report.figures import (
     NO_SITE,
@@ -297,7 +297,7 @@ class EmissionsReport:
         """Machine-readable form (stable keys, units in the names)."""
 
         def table(df):
-            return [{k: _clean(v) for k, v in r.items()} for r in df.to_dict("records")]
+            return [{k: to_json_value(v) for k, v in r.items()} for r in df.to_dict("records")]
 
         def per(pr: PeriodReport | None):
             if pr is None:
@@ -311,18 +311,18 @@ class EmissionsReport:
                 "gwp_source": pr.gwp_source,
                 "cases": f["cases"],
                 "anaesthetic_hours": f["hours"],
-                "t_co2e": {s: _clean(v) for s, v in f["co2e_t"].items()},
-                "t_co2e_agents": {s: _clean(v) for s, v in f["co2e_agent_t"].items()},
-                "t_co2e_nitrous_oxide": {s: _clean(v) for s, v in f["co2e_n2o_t"].items()},
-                "t_co2e_per_year": _clean(pr.annual_t),
-                "kg_co2e_per_case": _clean(f["kg_per_case"]),
-                "kg_co2e_per_hour": _clean(f["kg_per_hour"]),
-                "n2o_l_per_case": _clean(f["n2o_l_per_case"]),
-                "n2o_kg_co2e_per_case": _clean(f["n2o_kg_co2e_per_case"]),
-                "time_weighted_fgf_l_min": _clean(f["fgf_l_min"]),
-                "flow_band_share_of_time": {b: _clean(v) for b, v in f["band_share"].items()},
-                "absorbent_kg": _clean(f["absorbent_kg"]),
-                "cost": _clean(f["cost"]),
+                "t_co2e": {s: to_json_value(v) for s, v in f["co2e_t"].items()},
+                "t_co2e_agents": {s: to_json_value(v) for s, v in f["co2e_agent_t"].items()},
+                "t_co2e_nitrous_oxide": {s: to_json_value(v) for s, v in f["co2e_n2o_t"].items()},
+                "t_co2e_per_year": to_json_value(pr.annual_t),
+                "kg_co2e_per_case": to_json_value(f["kg_per_case"]),
+                "kg_co2e_per_hour": to_json_value(f["kg_per_hour"]),
+                "n2o_l_per_case": to_json_value(f["n2o_l_per_case"]),
+                "n2o_kg_co2e_per_case": to_json_value(f["n2o_kg_co2e_per_case"]),
+                "time_weighted_fgf_l_min": to_json_value(f["fgf_l_min"]),
+                "flow_band_share_of_time": {b: to_json_value(v) for b, v in f["band_share"].items()},
+                "absorbent_kg": to_json_value(f["absorbent_kg"]),
+                "cost": to_json_value(f["cost"]),
                 "by_agent": table(pr.by_agent),
                 "by_month": table(pr.by_month),
                 "by_site": table(pr.by_site),
@@ -371,16 +371,6 @@ class EmissionsReport:
             "cautions": list(self.cautions),
             "not_worked_out": [str(p) for p in self.problems],
         }
-
-
-def _clean(v):
-    if v is None:
-        return None
-    if hasattr(v, "item"):
-        v = v.item()
-    if isinstance(v, float) and not math.isfinite(v):
-        return None
-    return v
 
 
 _NAMES = {"nitrous_oxide": "N2O"}

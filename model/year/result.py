@@ -2,13 +2,13 @@
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
 
 from model.base.errors import InputError
+from model.base.jsonable import to_json_value
 from model.cautions import is_unsafe, warnings_as_records
 from model.reference import DEFAULT_REFERENCE, GWP_SOURCES, VOLATILES, Reference
 from model.year.inputs import MONTHS, Scenario
@@ -98,32 +98,20 @@ class YearResult:
             "seed": self.seed,
             "car_kg_co2e_per_km": self.scenario.car_kg_per_km,
             "car_factor_source": self.scenario.car_source,
-            "totals": _clean(self.totals),
-            "per_case": _clean(self.per_case),
+            "totals": to_json_value(self.totals),
+            "per_case": to_json_value(self.per_case),
             "bands": {
-                r["key"]: _clean({"p5": r["p5"], "p50": r["p50"], "p95": r["p95"]})
+                r["key"]: to_json_value({"p5": r["p5"], "p50": r["p50"], "p95": r["p95"]})
                 for r in self.summary.to_dict("records")
             },
-            "monthly": [_clean(r) for r in self.monthly.to_dict("records")],
-            "by_type": [_clean(r) for r in self.by_type.to_dict("records")],
+            "monthly": [to_json_value(r) for r in self.monthly.to_dict("records")],
+            "by_type": [to_json_value(r) for r in self.by_type.to_dict("records")],
             "warnings": list(self.warnings),
             "warnings_by_severity": warnings_as_records(self.warnings),
             "unsafe": self.unsafe,
             "notes": list(self.notes),
             "caution": CAUTION,
         }
-
-
-def _clean(d: dict) -> dict:
-    out = {}
-    for k, v in d.items():
-        if isinstance(v, (np.floating, float)):
-            v = float(v)
-            v = v if math.isfinite(v) else None
-        elif isinstance(v, np.integer):
-            v = int(v)
-        out[k] = v
-    return out
 
 
 def _summary(keys, central: dict, draws: dict) -> pd.DataFrame:
