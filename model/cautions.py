@@ -14,6 +14,8 @@ __all__ = [
     "Caution",
     "SEVERITIES",
     "SLOW_TARGET_MIN",
+    "STANDING_CAUTION",
+    "STANDING_CAUTION_SHORT",
     "by_severity",
     "case_warnings",
     "is_unsafe",
@@ -21,6 +23,19 @@ __all__ = [
     "warnings_as_records",
 ]
 
+
+#: The standing caution every result carries: shown on every page, printed by every command,
+#: written into every JSON output, report and export (docs/methods.md, "Cautions the results
+#: always carry").
+STANDING_CAUTION = (
+    "Estimates support planning, budgeting and reporting; they are not a prescription. "
+    "Flows, mixes and dial settings for a patient follow local protocols, the workstation's "
+    "instructions for use and licensed practice, with inspired O2 and end-tidal agent monitored."
+)
+#: The standing caution in one line, for places too small for the whole of it.
+STANDING_CAUTION_SHORT = (
+    "Planning estimates, not a prescription: follow local protocols and monitor inspired O2 and end-tidal agent."
+)
 
 #: A target reached later than this after a phase starts is reported. [min]
 #: Common practice, no source.

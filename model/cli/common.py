@@ -7,6 +7,7 @@ import json
 import sys
 
 from model.base.jsonable import to_json_value
+from model.cautions import STANDING_CAUTION
 
 EXIT_INPUT = 2
 
@@ -46,11 +47,8 @@ def print_json(data, out=None):
     out.write("\n")
 
 
-CAUTION = (
-    "Estimates for planning, budgeting and reporting, not a prescription. Flows, mixes and "
-    "dial settings follow local protocols, the workstation's instructions for use and "
-    "licensed practice, with inspired O2 and end-tidal agent monitored."
-)
+#: The standing caution, printed after every table and carried in every JSON output.
+CAUTION = STANDING_CAUTION
 
 
 def _reference(args):

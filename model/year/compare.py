@@ -8,12 +8,12 @@ import pandas as pd
 
 from model.base.errors import InputError
 from model.base.jsonable import to_json_value
-from model.cautions import by_severity, warnings_as_records
+from model.cautions import STANDING_CAUTION, by_severity, warnings_as_records
 from model.reference import DEFAULT_REFERENCE, VOLATILES, Reference
 from model.year.inputs import Scenario
 from model.year.result import YearResult, _result, headline_figures
 from model.year.sampling import _central, _percentiles, _sampled, make_draws
-from model.year.simulate import CAUTION, _year_inputs_many
+from model.year.simulate import _year_inputs_many
 
 
 @dataclass
@@ -57,7 +57,7 @@ class Comparison:
             "baseline_unsafe": self.baseline.unsafe,
             "proposal_unsafe": self.proposal.unsafe,
             "notes": list(self.notes),
-            "caution": CAUTION,
+            "caution": STANDING_CAUTION,
         }
 
 

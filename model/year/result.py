@@ -9,12 +9,12 @@ import pandas as pd
 
 from model.base.errors import InputError
 from model.base.jsonable import to_json_value
-from model.cautions import is_unsafe, warnings_as_records
+from model.cautions import STANDING_CAUTION, is_unsafe, warnings_as_records
 from model.reference import DEFAULT_REFERENCE, GWP_SOURCES, VOLATILES, Reference
 from model.year.inputs import MONTHS, Scenario
 from model.year.nodes import NODE_Z
 from model.year.sampling import Draws, _central, _percentiles, _sampled, make_draws
-from model.year.simulate import _EMIT, _LIQ, _Q, CAUTION, GASES, YearInputs, year_inputs
+from model.year.simulate import _EMIT, _LIQ, _Q, GASES, YearInputs, year_inputs
 
 
 def _label(agent: str) -> str:
@@ -110,7 +110,7 @@ class YearResult:
             "warnings_by_severity": warnings_as_records(self.warnings),
             "unsafe": self.unsafe,
             "notes": list(self.notes),
-            "caution": CAUTION,
+            "caution": STANDING_CAUTION,
         }
 
 
