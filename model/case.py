@@ -9,7 +9,7 @@ import numpy as np
 import pandas as pd
 
 from model.base.jsonable import to_json_value
-from model.cautions import case_warnings, is_unsafe, warnings_as_records
+from model.cautions import SEVOFLURANE_LOW_FLOW_CODES, case_warnings, code_of, is_unsafe, warnings_as_records
 from model.circle import simulate_cases
 from model.emissions import co2e_kg, emitted_mass_g, gas_mass_g
 from model.freshgas import apply_ratio_limit, delivered_fractions, flow_band
@@ -484,7 +484,7 @@ def compute_case(plan: CasePlan, reference: Reference = DEFAULT_REFERENCE) -> Ca
     timecourse = _timecourse(sim["series"], [p.name for p in plan.phases], minutes)
     phases["end_tidal_mac_hours"] = _phase_end_tidal_mac_hours(timecourse, minutes)
     warnings = case_warnings(plan, phases, agent, totals, timecourse)
-    totals["sevoflurane_low_flow_caution"] = any("sevoflurane at" in w for w in warnings)
+    totals["sevoflurane_low_flow_caution"] = any(code_of(w) in SEVOFLURANE_LOW_FLOW_CODES for w in warnings)
     return CaseResult(
         plan,
         phases,
@@ -499,8 +499,10 @@ def compute_case(plan: CasePlan, reference: Reference = DEFAULT_REFERENCE) -> Ca
 
 
 def _phase_end_tidal_mac_hours(tc: pd.DataFrame, minutes) -> np.ndarray:
-    """End-tidal MAC-hours of each phase: the time course's end-tidal MAC multiple integrated
-    (trapezoid rule on the minute grid) over the phase. [MAC-h]
+    """End-tidal MAC-hours of each phase, in MAC-h.
+
+    The time course's end-tidal MAC multiple integrated (trapezoid rule on the minute grid)
+    over the phase.
 
     The dial-based ``mac_hours`` counts the vaporizer setting; at low flow the end-tidal level
     lies well under the dial, so a comparison of practices uses these.
