@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -126,6 +127,76 @@ def case_costs(liquid_ml, oxygen_l, air_l, nitrous_oxide_l, absorbent_g, agent, 
     }
     costs["total"] = sum(costs.values())
     return costs
+
+
+#: Items of a case's cost: (label, key of the case totals).
+COST_ITEMS = (
+    ("Liquid agent", "cost_agent"),
+    ("Oxygen", "cost_oxygen"),
+    ("Medical air", "cost_air"),
+    ("Nitrous oxide", "cost_nitrous_oxide"),
+    ("CO2 absorbent", "cost_absorbent"),
+)
+
+#: Where a case's delivered agent goes, in the order :func:`agent_fate` lists it.
+FATE_PARTS = ("Vented through the scavenger", "Taken up by the patient", "Metabolised", "Left in the circle")
+
+
+def cost_by_item(totals: Mapping, currency: str) -> pd.DataFrame:
+    """A case's cost by item (:data:`COST_ITEMS`).
+
+    Parameters
+    ----------
+    totals : mapping
+        Case totals (:attr:`CaseResult.totals`); a missing item counts as 0.
+    currency : str
+        Currency of the prices, for the column name.
+
+    Returns
+    -------
+    DataFrame
+        ``item`` and ``cost (<currency>)``, one row per item.
+    """
+    return pd.DataFrame(
+        {
+            "item": [label for label, _ in COST_ITEMS],
+            f"cost ({currency})": [float(totals.get(key, 0.0)) for _, key in COST_ITEMS],
+        }
+    )
+
+
+def agent_fate(totals: Mapping, metabolised_fraction: float = 0.0) -> pd.DataFrame:
+    """Where a case's delivered agent went, in grams: a mass balance of the circle.
+
+    Parameters
+    ----------
+    totals : mapping
+        Case totals (:attr:`CaseResult.totals`).
+    metabolised_fraction : float
+        Share of the uptake metabolised, used only when the totals lack the circle model's
+        ``agent_metabolised_g``. [1]
+
+    Returns
+    -------
+    DataFrame
+        ``where`` (:data:`FATE_PARTS`) and ``agent_g``: vented through the scavenger, taken
+        up by the patient (less the metabolised part), metabolised, left in the circle. The
+        parts add up to the delivered agent ``agent_mass_g``.
+
+    Notes
+    -----
+    Conservation of mass: delivered = vented + taken up + held in the circle, and the
+    metabolised share is part of what was taken up. Without the circle model's split,
+    vented = delivered less uptake less what the circle holds.
+    """
+    delivered = float(totals.get("agent_mass_g", 0.0))
+    uptake = float(totals.get("agent_uptake_g", 0.0))
+    metabolised = float(totals.get("agent_metabolised_g", uptake * metabolised_fraction))
+    in_circle = float(totals.get("agent_held_in_circle_g", 0.0))
+    vented = float(totals.get("agent_vented_g", max(delivered - uptake - in_circle, 0.0)))
+    return pd.DataFrame(
+        {"where": list(FATE_PARTS), "agent_g": [vented, max(uptake - metabolised, 0.0), metabolised, in_circle]}
+    )
 
 
 def simulation_totals(
@@ -352,6 +423,14 @@ class CaseResult:
     timecourse: pd.DataFrame | None = None
     #: Patient uptake model used ("compartment" or "lowe").
     uptake_model: str = ""
+
+    def cost_by_item(self) -> pd.DataFrame:
+        """The case's cost by item (:func:`cost_by_item`)."""
+        return cost_by_item(self.totals, self.currency)
+
+    def agent_fate(self) -> pd.DataFrame:
+        """Where the case's delivered agent went, in grams (:func:`agent_fate`)."""
+        return agent_fate(self.totals)
 
     def to_dict(self) -> dict:
         """Machine-readable form with stable keys (units in the key names)."""

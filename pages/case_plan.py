@@ -442,7 +442,7 @@ else:
 
 # ---- charts --------------------------------------------------------------------------
 
-fate = charts.agent_fate(t, agent.metabolised_fraction)
+fate = result.agent_fate()
 result_toml = ss["cp_last_toml"]
 
 
@@ -596,7 +596,7 @@ with tab["Cost by item"]:
         c1, c2 = st.columns([3, 2])
         c1.plotly_chart(figs["cost"], width="stretch", key="cp_fig_cost")
         with c2:
-            fmt.table(charts.cost_by_item(t, result.currency), width="content")
+            fmt.table(result.cost_by_item(), width="content")
 
 
 # ---- downloads, saving, plan files ---------------------------------------------------
@@ -652,7 +652,7 @@ sources = ui.common.sources_table(ref_key, ref)
 tables = {
     "Summary": summary,
     "Phases": result.phases.assign(plan=plan.name),
-    "Cost by item": charts.cost_by_item(t, result.currency),
+    "Cost by item": result.cost_by_item(),
     "Where the agent went": fate,
     "Inputs": pd.DataFrame({"input": list(inputs), "value": list(inputs.values())}),
     "Warnings": ui.cautions.warnings_table(result.warnings),
