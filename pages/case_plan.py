@@ -126,7 +126,6 @@ if flash:
 # ---- the inputs ----------------------------------------------------------------------
 
 inputs_col.subheader("Inputs")
-field_errors: dict[str, str] = {}
 a1, a2, a3, a4 = inputs_col.columns([3, 1.3, 1, 1])
 a1.text_input("Plan name", key="cp_name", max_chars=120)
 a2.selectbox("Agent", VOLATILES, key="cp_agent", format_func=lambda k: ref.agents[k].label)

@@ -12,7 +12,6 @@ from .palette import (
     GRID,
     LESS_COLOUR,
     MORE_COLOUR,
-    MUTED,
     NO_AGENT_COLOUR,
     PALETTE,
     PRIMARY,
