@@ -1,6 +1,7 @@
-"""The flow sweep: what one case plan consumes, costs and emits as its maintenance fresh gas
-flow runs from metabolic to very high flow, with the cost-lowest and emission-lowest flows
-that keep inspired O2 above the floor.
+"""The flow sweep: what one case plan consumes, costs and emits across maintenance fresh gas flows.
+
+The flow runs from metabolic to very high flow; the sweep names the cost-lowest and
+emission-lowest flows that keep inspired O2 above the floor.
 """
 
 from __future__ import annotations
@@ -40,7 +41,6 @@ class SweepResult:
 
     def to_dict(self) -> dict:
         """Machine-readable form with stable keys (units in the key names)."""
-
         return {
             "plan": self.plan.name,
             "agent": self.plan.agent,

@@ -93,7 +93,7 @@ class AuditResult:
         """Minutes in each flow band by theatre, long form (theatre, band, minutes, share)."""
         t = self.by("theatre")[["theatre", *BAND_COLUMNS]]
         long = t.melt(id_vars="theatre", value_vars=list(BAND_COLUMNS), var_name="band", value_name="minutes")
-        long["band"] = long["band"].map(dict(zip(BAND_COLUMNS, FLOW_BAND_NAMES)))
+        long["band"] = long["band"].map(dict(zip(BAND_COLUMNS, FLOW_BAND_NAMES, strict=True)))
         totals = long.groupby("theatre")["minutes"].transform("sum")
         long["share"] = np.where(totals > 0, long["minutes"] / totals.where(totals > 0, 1), 0.0)
         return long

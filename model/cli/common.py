@@ -34,10 +34,10 @@ def print_table(rows, columns, out=None):
     out = out or sys.stdout  # looked up at call time, so redirected output is honoured
     cells = [[_fmt(r.get(c)) for c in columns] for r in rows]
     widths = [max([len(c)] + [len(row[i]) for row in cells]) for i, c in enumerate(columns)]
-    out.write("  ".join(c.ljust(w) for c, w in zip(columns, widths)).rstrip() + "\n")
+    out.write("  ".join(c.ljust(w) for c, w in zip(columns, widths, strict=True)).rstrip() + "\n")
     out.write("  ".join("-" * w for w in widths) + "\n")
     for row in cells:
-        out.write("  ".join(v.ljust(w) for v, w in zip(row, widths)).rstrip() + "\n")
+        out.write("  ".join(v.ljust(w) for v, w in zip(row, widths, strict=True)).rstrip() + "\n")
 
 
 def print_json(data, out=None):

@@ -73,16 +73,20 @@ class YearResult:
 
     @property
     def currency(self) -> str:
+        """Currency of the year's costs."""
         return self.inputs.currency
 
     @property
     def warnings(self) -> list[str]:
+        """Cautions of the year's case types, most severe first."""
         return self.inputs.warnings
 
     @property
     def unsafe(self) -> bool:
-        """Whether the practice of this year is unsafe as written: some of its cases are
-        predicted a hypoxic mixture or run the circle out of O2 (a ``"hazard"`` warning).
+        """Whether the practice of this year is unsafe as written.
+
+        Some of its cases are predicted a hypoxic mixture or run the circle out of O2 (a
+        ``"hazard"`` warning).
         """
         return is_unsafe(self.warnings)
 
