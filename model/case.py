@@ -3,12 +3,14 @@
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
 
-from model.cautions import case_warnings, is_unsafe, warnings_as_records
+from model.base.jsonable import to_json_value
+from model.cautions import SEVOFLURANE_LOW_FLOW_CODES, case_warnings, code_of, is_unsafe, warnings_as_records
 from model.circle import simulate_cases
 from model.emissions import co2e_kg, emitted_mass_g, gas_mass_g
 from model.freshgas import apply_ratio_limit, delivered_fractions, flow_band
@@ -125,6 +127,76 @@ def case_costs(liquid_ml, oxygen_l, air_l, nitrous_oxide_l, absorbent_g, agent, 
     }
     costs["total"] = sum(costs.values())
     return costs
+
+
+#: Items of a case's cost: (label, key of the case totals).
+COST_ITEMS = (
+    ("Liquid agent", "cost_agent"),
+    ("Oxygen", "cost_oxygen"),
+    ("Medical air", "cost_air"),
+    ("Nitrous oxide", "cost_nitrous_oxide"),
+    ("CO2 absorbent", "cost_absorbent"),
+)
+
+#: Where a case's delivered agent goes, in the order :func:`agent_fate` lists it.
+FATE_PARTS = ("Vented through the scavenger", "Taken up by the patient", "Metabolised", "Left in the circle")
+
+
+def cost_by_item(totals: Mapping, currency: str) -> pd.DataFrame:
+    """A case's cost by item (:data:`COST_ITEMS`).
+
+    Parameters
+    ----------
+    totals : mapping
+        Case totals (:attr:`CaseResult.totals`); a missing item counts as 0.
+    currency : str
+        Currency of the prices, for the column name.
+
+    Returns
+    -------
+    DataFrame
+        ``item`` and ``cost (<currency>)``, one row per item.
+    """
+    return pd.DataFrame(
+        {
+            "item": [label for label, _ in COST_ITEMS],
+            f"cost ({currency})": [float(totals.get(key, 0.0)) for _, key in COST_ITEMS],
+        }
+    )
+
+
+def agent_fate(totals: Mapping, metabolised_fraction: float = 0.0) -> pd.DataFrame:
+    """Where a case's delivered agent went, in grams: a mass balance of the circle.
+
+    Parameters
+    ----------
+    totals : mapping
+        Case totals (:attr:`CaseResult.totals`).
+    metabolised_fraction : float
+        Share of the uptake metabolised, used only when the totals lack the circle model's
+        ``agent_metabolised_g``. [1]
+
+    Returns
+    -------
+    DataFrame
+        ``where`` (:data:`FATE_PARTS`) and ``agent_g``: vented through the scavenger, taken
+        up by the patient (less the metabolised part), metabolised, left in the circle. The
+        parts add up to the delivered agent ``agent_mass_g``.
+
+    Notes
+    -----
+    Conservation of mass: delivered = vented + taken up + held in the circle, and the
+    metabolised share is part of what was taken up. Without the circle model's split,
+    vented = delivered less uptake less what the circle holds.
+    """
+    delivered = float(totals.get("agent_mass_g", 0.0))
+    uptake = float(totals.get("agent_uptake_g", 0.0))
+    metabolised = float(totals.get("agent_metabolised_g", uptake * metabolised_fraction))
+    in_circle = float(totals.get("agent_held_in_circle_g", 0.0))
+    vented = float(totals.get("agent_vented_g", max(delivered - uptake - in_circle, 0.0)))
+    return pd.DataFrame(
+        {"where": list(FATE_PARTS), "agent_g": [vented, max(uptake - metabolised, 0.0), metabolised, in_circle]}
+    )
 
 
 def simulation_totals(
@@ -352,20 +424,16 @@ class CaseResult:
     #: Patient uptake model used ("compartment" or "lowe").
     uptake_model: str = ""
 
+    def cost_by_item(self) -> pd.DataFrame:
+        """The case's cost by item (:func:`cost_by_item`)."""
+        return cost_by_item(self.totals, self.currency)
+
+    def agent_fate(self) -> pd.DataFrame:
+        """Where the case's delivered agent went, in grams (:func:`agent_fate`)."""
+        return agent_fate(self.totals)
+
     def to_dict(self) -> dict:
         """Machine-readable form with stable keys (units in the key names)."""
-
-        def clean(v):
-            if isinstance(v, (np.floating, float)):
-                v = float(v)
-                return v if math.isfinite(v) else None
-            if isinstance(v, (np.integer,)):
-                return int(v)
-            if isinstance(v, np.bool_):
-                return bool(v)
-            return v
-
-        phases = [{k: clean(v) for k, v in row.items()} for row in self.phases.to_dict("records")]
         out = {
             "plan": self.plan.name,
             "agent": self.plan.agent,
@@ -373,14 +441,14 @@ class CaseResult:
             "gwp_source": self.gwp_source,
             "gwp_source_label": self.gwp_label,
             "uptake_model": self.uptake_model,
-            "totals": {k: clean(v) for k, v in self.totals.items()},
-            "phases": phases,
+            "totals": to_json_value(self.totals),
+            "phases": to_json_value(self.phases.to_dict("records")),
             "warnings": list(self.warnings),
             "warnings_by_severity": warnings_as_records(self.warnings),
             "unsafe": is_unsafe(self.warnings),
         }
         if self.timecourse is not None:
-            out["timecourse"] = [{k: clean(v) for k, v in row.items()} for row in self.timecourse.to_dict("records")]
+            out["timecourse"] = to_json_value(self.timecourse.to_dict("records"))
         return out
 
 
@@ -495,7 +563,7 @@ def compute_case(plan: CasePlan, reference: Reference = DEFAULT_REFERENCE) -> Ca
     timecourse = _timecourse(sim["series"], [p.name for p in plan.phases], minutes)
     phases["end_tidal_mac_hours"] = _phase_end_tidal_mac_hours(timecourse, minutes)
     warnings = case_warnings(plan, phases, agent, totals, timecourse)
-    totals["sevoflurane_low_flow_caution"] = any("sevoflurane at" in w for w in warnings)
+    totals["sevoflurane_low_flow_caution"] = any(code_of(w) in SEVOFLURANE_LOW_FLOW_CODES for w in warnings)
     return CaseResult(
         plan,
         phases,
@@ -510,8 +578,10 @@ def compute_case(plan: CasePlan, reference: Reference = DEFAULT_REFERENCE) -> Ca
 
 
 def _phase_end_tidal_mac_hours(tc: pd.DataFrame, minutes) -> np.ndarray:
-    """End-tidal MAC-hours of each phase: the time course's end-tidal MAC multiple integrated
-    (trapezoid rule on the minute grid) over the phase. [MAC-h]
+    """End-tidal MAC-hours of each phase, in MAC-h.
+
+    The time course's end-tidal MAC multiple integrated (trapezoid rule on the minute grid)
+    over the phase.
 
     The dial-based ``mac_hours`` counts the vaporizer setting; at low flow the end-tidal level
     lies well under the dial, so a comparison of practices uses these.

@@ -157,14 +157,3 @@ def resolve_patient(
     vco2 = RESPIRATORY_QUOTIENT * vo2
     ve = pick(minute_ventilation_l_min, default_minute_ventilation_l_min(vco2))
     return PatientValues(w, age, q, vo2, vco2, ve, ve * (1.0 - DEAD_SPACE_SHARE), FRC_L_PER_KG * w)
-
-
-def patient_values(patient) -> PatientValues:
-    """Resolve a :class:`model.plan.Patient` (its None fields take Brody's defaults)."""
-    return resolve_patient(
-        patient.weight_kg,
-        patient.age_years,
-        patient.cardiac_output_l_min,
-        patient.vo2_ml_min,
-        patient.minute_ventilation_l_min,
-    )

@@ -15,8 +15,6 @@ from model.circle import ABSORBENT_CAPACITY_L_PER_KG, CIRCLE_VOLUME_L
 from model.reference import DEFAULT_GWP
 from model.uptake import DEFAULT_UPTAKE_MODEL
 
-CONTROL_MODES = ("dial", "target")
-
 
 @dataclass(frozen=True)
 class Patient:

@@ -29,8 +29,6 @@ R_GAS = 8.314462618
 STANDARD_PRESSURE_KPA = 101.325
 #: Oxygen fraction of dry air (by volume). Source: US Standard Atmosphere 1976 (20.946 %).
 AIR_O2_FRACTION = 0.20946
-#: Molar mass of CO2. [g/mol] Source: IUPAC standard atomic weights (C 12.011, O 15.999).
-CO2_MOLAR_MASS = 44.009
 
 
 @dataclass(frozen=True)

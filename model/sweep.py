@@ -1,6 +1,7 @@
-"""The flow sweep: what one case plan consumes, costs and emits as its maintenance fresh gas
-flow runs from metabolic to very high flow, with the cost-lowest and emission-lowest flows
-that keep inspired O2 above the floor.
+"""The flow sweep: what one case plan consumes, costs and emits across maintenance fresh gas flows.
+
+The flow runs from metabolic to very high flow; the sweep names the cost-lowest and
+emission-lowest flows that keep inspired O2 above the floor.
 """
 
 from __future__ import annotations
@@ -11,6 +12,7 @@ import numpy as np
 import pandas as pd
 
 from model.base.errors import InputError
+from model.base.jsonable import to_json_value
 from model.case import simulate_plan, simulation_totals
 from model.freshgas import flow_band
 from model.plan import CasePlan
@@ -39,28 +41,17 @@ class SweepResult:
 
     def to_dict(self) -> dict:
         """Machine-readable form with stable keys (units in the key names)."""
-
-        def clean(v):
-            if isinstance(v, (np.floating, float)):
-                v = float(v)
-                return v if np.isfinite(v) else None
-            if isinstance(v, np.bool_):
-                return bool(v)
-            if isinstance(v, np.integer):
-                return int(v)
-            return v
-
         return {
             "plan": self.plan.name,
             "agent": self.plan.agent,
             "phase": self.plan.phases[self.phase_index].name,
             "phase_number": self.phase_index + 1,
-            "end_tidal_target_mac": clean(self.target_mac),
+            "end_tidal_target_mac": to_json_value(self.target_mac),
             "currency": self.currency,
-            "inspired_o2_floor_pct": clean(self.inspired_o2_floor_pct),
-            "cost_lowest_flow_l_min": clean(self.cost_lowest_flow_l_min),
-            "emission_lowest_flow_l_min": clean(self.emission_lowest_flow_l_min),
-            "rows": [{k: clean(v) for k, v in r.items()} for r in self.table.to_dict("records")],
+            "inspired_o2_floor_pct": to_json_value(self.inspired_o2_floor_pct),
+            "cost_lowest_flow_l_min": to_json_value(self.cost_lowest_flow_l_min),
+            "emission_lowest_flow_l_min": to_json_value(self.emission_lowest_flow_l_min),
+            "rows": to_json_value(self.table.to_dict("records")),
         }
 
 

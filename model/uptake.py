@@ -278,23 +278,6 @@ def constant_alveolar_uptake_l(t_min, G, C):
     return (C[None] * (1.0 - np.exp(-G[None] * t / C[None]))).sum(axis=1)
 
 
-def tissue_table():
-    """Rows (dicts) of the compartment model's values with their sources, for reports."""
-    rows = []
-    for g in TISSUE_GROUPS:
-        for label, table in (("volume per kg", TISSUE_VOLUME_L_PER_KG), ("share of cardiac output", TISSUE_FLOW_SHARE)):
-            v = table[g]
-            rows.append(dict(item=g, field=label, value=v.value, unit=v.unit, source=v.source, basis=v.basis))
-        for species, t in TISSUE_BLOOD.items():
-            v = t[g]
-            rows.append(
-                dict(
-                    item=g, field=f"tissue/blood {species}", value=v.value, unit=v.unit, source=v.source, basis=v.basis
-                )
-            )
-    return rows
-
-
 __all__ = [
     "DEFAULT_UPTAKE_MODEL",
     "TISSUE_GROUPS",
@@ -304,5 +287,4 @@ __all__ = [
     "lowe_priming_ml",
     "lowe_uptake_rate_ml_min",
     "tissue_compartments",
-    "tissue_table",
 ]

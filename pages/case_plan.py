@@ -125,7 +125,6 @@ if flash:
 # ---- the inputs ----------------------------------------------------------------------
 
 inputs_col.subheader("Inputs")
-field_errors: dict[str, str] = {}
 a1, a2, a3, a4 = inputs_col.columns([3, 1.3, 1, 1])
 a1.text_input("Plan name", key="cp_name", max_chars=120)
 a2.selectbox("Agent", VOLATILES, key="cp_agent", format_func=lambda k: ref.agents[k].label)
@@ -444,7 +443,7 @@ else:
 
 # ---- charts --------------------------------------------------------------------------
 
-fate = charts.agent_fate(t, agent.metabolised_fraction)
+fate = result.agent_fate()
 
 
 @st.cache_resource(show_spinner=False, max_entries=64)
@@ -601,7 +600,7 @@ with tab["Cost by item"]:
         c1, c2 = st.columns([3, 2])
         c1.plotly_chart(figs["cost"], width="stretch", key="cp_fig_cost")
         with c2:
-            fmt.table(charts.cost_by_item(t, result.currency), width="content")
+            fmt.table(result.cost_by_item(), width="content")
 
 
 # ---- downloads, saving, plan files ---------------------------------------------------
@@ -657,7 +656,7 @@ sources = ui.common.sources_table(ref_key, ref)
 tables = {
     "Summary": summary,
     "Phases": result.phases.assign(plan=plan.name),
-    "Cost by item": charts.cost_by_item(t, result.currency),
+    "Cost by item": result.cost_by_item(),
     "Where the agent went": fate,
     "Inputs": pd.DataFrame({"input": list(inputs), "value": list(inputs.values())}),
     "Warnings": ui.cautions.warnings_table(result.warnings),

@@ -171,7 +171,7 @@ def _compare_plans() -> None:
         config={c: st.column_config.NumberColumn(format="%.4g") for c in table.columns[2:] if c != "safety"},
     )
 
-    cost_df = pd.DataFrame({"item": charts.cost_by_item(bt, base.currency)["item"]})
+    cost_df = pd.DataFrame({"item": base.cost_by_item()["item"]})
     co2e_df = pd.DataFrame({"source": ["Volatile agent", "Nitrous oxide"]})
     use_df = pd.DataFrame(
         {
@@ -186,7 +186,7 @@ def _compare_plans() -> None:
     )
     for name, res in results.items():
         t = res.totals
-        cost_df[name] = charts.cost_by_item(t, res.currency).iloc[:, 1].to_numpy()
+        cost_df[name] = res.cost_by_item().iloc[:, 1].to_numpy()
         co2e_df[name] = [t["co2e_agent_kg"] * scale, t["co2e_nitrous_oxide_kg"] * scale]
         use_df[name] = [
             t["liquid_agent_ml"],

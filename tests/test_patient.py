@@ -7,10 +7,20 @@ from model.patient import (
     brody_cardiac_output_l_min,
     brody_vo2_ml_min,
     default_minute_ventilation_l_min,
-    patient_values,
     resolve_patient,
 )
 from model.plan import Patient
+
+
+def patient_values(patient):
+    """Resolve a :class:`model.plan.Patient` (its None fields take Brody's defaults)."""
+    return resolve_patient(
+        patient.weight_kg,
+        patient.age_years,
+        patient.cardiac_output_l_min,
+        patient.vo2_ml_min,
+        patient.minute_ventilation_l_min,
+    )
 
 
 def test_brody_vo2_at_70_kg():

@@ -16,11 +16,27 @@ from model.uptake import (
     lowe_priming_ml,
     lowe_uptake_rate_ml_min,
     tissue_compartments,
-    tissue_table,
 )
 
 Q70 = float(resolve_patient(70.0, 40.0).cardiac_output_l_min)
 SPECIES = VOLATILES + ("nitrous_oxide",)
+
+
+def tissue_table():
+    """Rows (dicts) of the compartment model's values with their sources, for reports."""
+    rows = []
+    for g in TISSUE_GROUPS:
+        for label, table in (("volume per kg", TISSUE_VOLUME_L_PER_KG), ("share of cardiac output", TISSUE_FLOW_SHARE)):
+            v = table[g]
+            rows.append(dict(item=g, field=label, value=v.value, unit=v.unit, source=v.source, basis=v.basis))
+        for species, t in TISSUE_BLOOD.items():
+            v = t[g]
+            rows.append(
+                dict(
+                    item=g, field=f"tissue/blood {species}", value=v.value, unit=v.unit, source=v.source, basis=v.basis
+                )
+            )
+    return rows
 
 
 def test_lowe_rate_at_a_worked_point():

@@ -13,6 +13,7 @@ import streamlit as st
 
 from model import DEFAULT_REFERENCE, InputError, Reference, compute_case, parse_plan_text
 from model.base.files import Source
+from model.cautions import STANDING_CAUTION, STANDING_CAUTION_SHORT
 from model.io.uploads import check_upload
 from model.plan import CasePlan
 from model.present.exports import to_csv, to_xlsx
@@ -37,14 +38,8 @@ ROOT = Path(__file__).resolve().parents[1]
 DEMO_PLANS = ROOT / "demo_data" / "plans"
 
 #: The standing caution (docs/methods.md, Cautions the results always carry), shown on every page and in every report.
-CAUTION = (
-    "Estimates support planning, budgeting and reporting; they are not a prescription. "
-    "Flows, mixes and dial settings for a patient follow local protocols, the workstation's "
-    "instructions for use and licensed practice, with inspired O2 and end-tidal agent monitored."
-)
-CAUTION_SHORT = (
-    "Planning estimates, not a prescription: follow local protocols and monitor inspired O2 and end-tidal agent."
-)
+CAUTION = STANDING_CAUTION
+CAUTION_SHORT = STANDING_CAUTION_SHORT
 
 FLOW_UNITS = ("L/min", "mL/min")
 CO2E_UNITS = {"kg CO2e": 1.0, "g CO2e": 1000.0, "t CO2e": 0.001}

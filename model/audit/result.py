@@ -2,12 +2,12 @@
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
 
+from model.base.jsonable import to_json_value
 from model.freshgas import FLOW_BAND_NAMES, FLOW_BANDS
 from model.io.record_report import ReadReport
 
@@ -93,7 +93,7 @@ class AuditResult:
         """Minutes in each flow band by theatre, long form (theatre, band, minutes, share)."""
         t = self.by("theatre")[["theatre", *BAND_COLUMNS]]
         long = t.melt(id_vars="theatre", value_vars=list(BAND_COLUMNS), var_name="band", value_name="minutes")
-        long["band"] = long["band"].map(dict(zip(BAND_COLUMNS, FLOW_BAND_NAMES)))
+        long["band"] = long["band"].map(dict(zip(BAND_COLUMNS, FLOW_BAND_NAMES, strict=True)))
         totals = long.groupby("theatre")["minutes"].transform("sum")
         long["share"] = np.where(totals > 0, long["minutes"] / totals.where(totals > 0, 1), 0.0)
         return long
@@ -123,10 +123,7 @@ class AuditResult:
         """Machine-readable form with stable keys (units in the key names)."""
 
         def table(df):
-            out = []
-            for row in df.to_dict("records"):
-                out.append({k: _clean(v) for k, v in row.items()})
-            return out
+            return to_json_value(df.to_dict("records"))
 
         issues = self.report.issues.head(max(len(self.report.issues), 0))
         return {
@@ -137,7 +134,7 @@ class AuditResult:
             "report": self.report.summary(),
             "messages": [m for m in issues["message"]],
             "gaps": [m for m in self.report.gap_list["message"]],
-            "total": {k: _clean(v) for k, v in self.total.items()},
+            "total": to_json_value(self.total),
             "by_theatre": table(self.by("theatre")),
             "by_month": table(self.by("month")),
             "by_agent": table(self.by("agent")),
@@ -145,21 +142,6 @@ class AuditResult:
             "cases_shown": min(len(self.cases), max_cases),
             "cases": table(self.cases.head(max_cases)),
         }
-
-
-def _clean(v):
-    if v is pd.NaT or v is pd.NA:
-        return None
-    if isinstance(v, (np.floating, float)):
-        v = float(v)
-        return v if math.isfinite(v) else None
-    if isinstance(v, np.integer):
-        return int(v)
-    if isinstance(v, np.bool_):
-        return bool(v)
-    if isinstance(v, pd.Timestamp):
-        return v.isoformat()
-    return v
 
 
 def summarise(cases: pd.DataFrame, by: str | None) -> pd.DataFrame:

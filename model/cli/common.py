@@ -4,8 +4,10 @@ from __future__ import annotations
 
 import argparse
 import json
-import math
 import sys
+
+from model.base.jsonable import to_json_value
+from model.cautions import STANDING_CAUTION
 
 EXIT_INPUT = 2
 
@@ -32,37 +34,21 @@ def print_table(rows, columns, out=None):
     out = out or sys.stdout  # looked up at call time, so redirected output is honoured
     cells = [[_fmt(r.get(c)) for c in columns] for r in rows]
     widths = [max([len(c)] + [len(row[i]) for row in cells]) for i, c in enumerate(columns)]
-    out.write("  ".join(c.ljust(w) for c, w in zip(columns, widths)).rstrip() + "\n")
+    out.write("  ".join(c.ljust(w) for c, w in zip(columns, widths, strict=True)).rstrip() + "\n")
     out.write("  ".join("-" * w for w in widths) + "\n")
     for row in cells:
-        out.write("  ".join(v.ljust(w) for v, w in zip(row, widths)).rstrip() + "\n")
+        out.write("  ".join(v.ljust(w) for v, w in zip(row, widths, strict=True)).rstrip() + "\n")
 
 
 def print_json(data, out=None):
-    """Print data as JSON; a number that is not finite (NaN, inf) is written as null."""
+    """Print data as JSON (:func:`model.base.jsonable.to_json_value`: a number that is not finite is null)."""
     out = out or sys.stdout
-    json.dump(_finite_only(data), out, indent=2, ensure_ascii=False, allow_nan=False)
+    json.dump(to_json_value(data), out, indent=2, ensure_ascii=False, allow_nan=False)
     out.write("\n")
 
 
-def _finite_only(value):
-    """``value`` with every non-finite float (NaN, inf, numpy ones too) replaced by None."""
-    if isinstance(value, dict):
-        return {k: _finite_only(v) for k, v in value.items()}
-    if isinstance(value, (list, tuple)):
-        return [_finite_only(v) for v in value]
-    if isinstance(value, float) and not math.isfinite(value):
-        return None
-    if hasattr(value, "dtype") and hasattr(value, "item"):  # numpy scalars
-        return _finite_only(value.item())
-    return value
-
-
-CAUTION = (
-    "Estimates for planning, budgeting and reporting, not a prescription. Flows, mixes and "
-    "dial settings follow local protocols, the workstation's instructions for use and "
-    "licensed practice, with inspired O2 and end-tidal agent monitored."
-)
+#: The standing caution, printed after every table and carried in every JSON output.
+CAUTION = STANDING_CAUTION
 
 
 def _reference(args):

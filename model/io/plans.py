@@ -12,7 +12,6 @@ from __future__ import annotations
 
 import re
 from collections.abc import Mapping
-from dataclasses import asdict
 from pathlib import Path
 from typing import Annotated, Any
 
@@ -395,8 +394,3 @@ def plan_to_dict(plan: CasePlan) -> dict:
 def plan_to_toml(plan: CasePlan) -> str:
     """The plan as TOML text in the project's plan format."""
     return tomli_w.dumps(plan_to_dict(plan))
-
-
-def plan_as_record(plan: CasePlan) -> dict:
-    """Plain-dict view of the dataclasses (for JSON output)."""
-    return asdict(plan)

@@ -60,7 +60,6 @@ KINDS: Mapping[str, tuple[str, ...]] = MappingProxyType(
         "purchases": ("csv", "parquet"),
     }
 )
-_TEXT_FORMATS = ("csv", "toml")
 #: Kinds read line by line whose reader sets a line that is not UTF-8 aside and uses the rest
 #: (``model.io.records.read_records``, as on the command line): the guard leaves such a line
 #: to it rather than refusing the whole file.

@@ -16,7 +16,6 @@ from .palette import FLOW_BAND_COLOURS as FLOW_BAND_COLOURS
 from .palette import GRID as GRID
 from .palette import LESS_COLOUR as LESS_COLOUR
 from .palette import MORE_COLOUR as MORE_COLOUR
-from .palette import MUTED as MUTED
 from .palette import NO_AGENT_COLOUR as NO_AGENT_COLOUR
 from .palette import PALETTE as PALETTE
 from .palette import PRIMARY as PRIMARY

@@ -1,5 +1,7 @@
-"""Plotly figures for the dashboard pages and their HTML reports (presentation only), on the
-house template of :mod:`model.present.theme`.
+"""Plotly figures for the dashboard pages and their HTML reports (presentation only).
+
+They use the house template of :mod:`model.present.theme`; the figures they draw (cost by
+item, where the agent went) are worked out in :mod:`model.case`.
 
 User text (plan and phase names) passes through :func:`model.present.exports.chart_text` before it
 reaches a label, because plotly reads a few HTML tags in labels.
@@ -12,6 +14,7 @@ import pandas as pd
 import plotly.graph_objects as go
 from plotly.subplots import make_subplots
 
+from model.case import cost_by_item
 from model.present.exports import chart_text
 from model.present.palette import CO2E_COLOUR, COST_COLOUR, DANGER, FLOW_BAND_COLOURS, PALETTE, agent_colour
 
@@ -22,20 +25,8 @@ from model.present.theme import house_style as _style
 from model.present.theme import new_figure as _fig
 
 
-def cost_by_item(totals: dict, currency: str) -> pd.DataFrame:
-    items = [
-        ("Liquid agent", "cost_agent"),
-        ("Oxygen", "cost_oxygen"),
-        ("Medical air", "cost_air"),
-        ("Nitrous oxide", "cost_nitrous_oxide"),
-        ("CO2 absorbent", "cost_absorbent"),
-    ]
-    return pd.DataFrame(
-        {"item": [i for i, _ in items], f"cost ({currency})": [float(totals.get(k, 0.0)) for _, k in items]}
-    )
-
-
 def cost_figure(totals: dict, currency: str) -> go.Figure:
+    """Bars of a case's cost by item (:func:`model.case.cost_by_item`)."""
     df = cost_by_item(totals, currency)
     col = df.columns[1]
     fig = _fig(
@@ -54,27 +45,8 @@ def cost_figure(totals: dict, currency: str) -> go.Figure:
     return _style(fig, "Cost by item", 300)
 
 
-def agent_fate(totals: dict, metabolised_fraction: float) -> pd.DataFrame:
-    """Where the delivered agent went, in grams (from the case totals).
-
-    Uses the circle model's split (vented, taken up, metabolised, left in the circle) when
-    the totals carry it; otherwise vented = delivered less uptake and metabolised = uptake x
-    the agent's metabolised share.
-    """
-    delivered = float(totals.get("agent_mass_g", 0.0))
-    uptake = float(totals.get("agent_uptake_g", 0.0))
-    metabolised = float(totals.get("agent_metabolised_g", uptake * metabolised_fraction))
-    in_circle = float(totals.get("agent_held_in_circle_g", 0.0))
-    vented = float(totals.get("agent_vented_g", max(delivered - uptake - in_circle, 0.0)))
-    return pd.DataFrame(
-        {
-            "where": ["Vented through the scavenger", "Taken up by the patient", "Metabolised", "Left in the circle"],
-            "agent_g": [vented, max(uptake - metabolised, 0.0), metabolised, in_circle],
-        }
-    )
-
-
 def fate_figure(fate: pd.DataFrame, agent_label: str) -> go.Figure:
+    """Ring of where a case's delivered agent went (:func:`model.case.agent_fate`)."""
     fig = _fig(
         go.Pie(
             labels=fate["where"],
@@ -290,8 +262,9 @@ def agent_spread_figure(cases: pd.DataFrame) -> go.Figure | None:
 
 
 def flow_bands_figure(bands: pd.DataFrame) -> go.Figure:
-    """Share of counted minutes in each flow band by theatre, stacked lowest flow first, on
-    the one ordered flow-band scale (``model.present.palette.FLOW_BAND_COLOURS``).
+    """Share of counted minutes in each flow band by theatre, stacked lowest flow first.
+
+    The bands take the one ordered flow-band scale (``model.present.palette.FLOW_BAND_COLOURS``).
     """
     fig = _fig()
     for band, colour in FLOW_BAND_COLOURS.items():
@@ -332,7 +305,7 @@ def monthly_co2e_figure(by_month: pd.DataFrame, scale: float = 1.0, unit: str = 
 def purchased_recorded_figure(long: pd.DataFrame) -> go.Figure:
     """Purchased against recorded amounts per item (log scale: items differ by orders of magnitude)."""
     fig = _fig()
-    for i, (source, colour) in enumerate((("purchased", COST_COLOUR), ("recorded", PALETTE[7]))):
+    for source, colour in (("purchased", COST_COLOUR), ("recorded", PALETTE[7])):
         d = long[long["source"] == source]
         fig.add_trace(
             go.Bar(

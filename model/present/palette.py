@@ -22,7 +22,6 @@ __all__ = [
     "GRID",
     "LESS_COLOUR",
     "MORE_COLOUR",
-    "MUTED",
     "NO_AGENT_COLOUR",
     "PALETTE",
     "PRIMARY",
@@ -34,7 +33,6 @@ __all__ = [
 #: Accent of buttons, chips and focus rings: a calm teal-blue (never red, which means danger).
 PRIMARY = "#1f6b7a"
 TEXT = "#1d2a33"
-MUTED = "#546e7a"
 GRID = "#e3e9ec"
 AXIS = "#9aa8b0"
 #: Real danger only: the inspired O2 floor, errors.

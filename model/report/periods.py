@@ -197,8 +197,3 @@ def month_shares(period: Period) -> dict[str, float]:
         out[f"{d.year:04d}-{d.month:02d}"] = inside / (nxt - d).days
         d = nxt
     return out
-
-
-def months_in(period: Period) -> list[str]:
-    """The calendar months (YYYY-MM) the period touches, in order."""
-    return list(month_shares(period))

@@ -7,13 +7,13 @@ purchases) is left empty with its reason in ``problems``, and the rest stands.
 
 from __future__ import annotations
 
-import math
 import re
 from dataclasses import dataclass, field
 
 import pandas as pd
 
 from model.base.errors import InputError
+from model.base.jsonable import to_json_value
 from model.reference import DEFAULT_GWP, DEFAULT_REFERENCE, Reference
 from model.report.figures import (
     NO_SITE,
@@ -81,11 +81,12 @@ class PeriodReport:
 
     @property
     def co2e_t(self) -> float:
-        """Use-based CO2e under the chosen source. [t]"""
+        """Use-based CO2e under the chosen source, in tonnes."""
         return float(self.figures["co2e_t"][self.gwp_source])
 
     @property
     def annual_t(self) -> float:
+        """Use-based CO2e at its annual rate, in tonnes per year."""
         return annual_rate_t(self.co2e_t * 1000.0, self.period)
 
 
@@ -108,6 +109,7 @@ class EmissionsReport:
 
     @property
     def gwp_label(self) -> str:
+        """The label of the period's GWP source."""
         return self.reference.gwp_source(self.period.gwp_source).label
 
     def headline(self) -> str:
@@ -201,7 +203,9 @@ class EmissionsReport:
         rows = []
         for f in FACTORS:
             part = d.detail[(d.detail["factor"] == f) & (d.detail["contribution_kg"].abs() > 1e-9)]
-            detail = ", ".join(f"{_name(t)} {v / 1000:+,.2f} t" for t, v in zip(part["term"], part["contribution_kg"]))
+            detail = ", ".join(
+                f"{_name(t)} {v / 1000:+,.2f} t" for t, v in zip(part["term"], part["contribution_kg"], strict=True)
+            )
             rows.append({"factor": f, "t_co2e": d.contribution(f) / 1000.0, "detail": detail})
         rows.append({"factor": "total change", "t_co2e": d.change_kg / 1000.0, "detail": ""})
         return pd.DataFrame(rows)
@@ -297,7 +301,7 @@ class EmissionsReport:
         """Machine-readable form (stable keys, units in the names)."""
 
         def table(df):
-            return [{k: _clean(v) for k, v in r.items()} for r in df.to_dict("records")]
+            return [{k: to_json_value(v) for k, v in r.items()} for r in df.to_dict("records")]
 
         def per(pr: PeriodReport | None):
             if pr is None:
@@ -311,18 +315,18 @@ class EmissionsReport:
                 "gwp_source": pr.gwp_source,
                 "cases": f["cases"],
                 "anaesthetic_hours": f["hours"],
-                "t_co2e": {s: _clean(v) for s, v in f["co2e_t"].items()},
-                "t_co2e_agents": {s: _clean(v) for s, v in f["co2e_agent_t"].items()},
-                "t_co2e_nitrous_oxide": {s: _clean(v) for s, v in f["co2e_n2o_t"].items()},
-                "t_co2e_per_year": _clean(pr.annual_t),
-                "kg_co2e_per_case": _clean(f["kg_per_case"]),
-                "kg_co2e_per_hour": _clean(f["kg_per_hour"]),
-                "n2o_l_per_case": _clean(f["n2o_l_per_case"]),
-                "n2o_kg_co2e_per_case": _clean(f["n2o_kg_co2e_per_case"]),
-                "time_weighted_fgf_l_min": _clean(f["fgf_l_min"]),
-                "flow_band_share_of_time": {b: _clean(v) for b, v in f["band_share"].items()},
-                "absorbent_kg": _clean(f["absorbent_kg"]),
-                "cost": _clean(f["cost"]),
+                "t_co2e": {s: to_json_value(v) for s, v in f["co2e_t"].items()},
+                "t_co2e_agents": {s: to_json_value(v) for s, v in f["co2e_agent_t"].items()},
+                "t_co2e_nitrous_oxide": {s: to_json_value(v) for s, v in f["co2e_n2o_t"].items()},
+                "t_co2e_per_year": to_json_value(pr.annual_t),
+                "kg_co2e_per_case": to_json_value(f["kg_per_case"]),
+                "kg_co2e_per_hour": to_json_value(f["kg_per_hour"]),
+                "n2o_l_per_case": to_json_value(f["n2o_l_per_case"]),
+                "n2o_kg_co2e_per_case": to_json_value(f["n2o_kg_co2e_per_case"]),
+                "time_weighted_fgf_l_min": to_json_value(f["fgf_l_min"]),
+                "flow_band_share_of_time": {b: to_json_value(v) for b, v in f["band_share"].items()},
+                "absorbent_kg": to_json_value(f["absorbent_kg"]),
+                "cost": to_json_value(f["cost"]),
                 "by_agent": table(pr.by_agent),
                 "by_month": table(pr.by_month),
                 "by_site": table(pr.by_site),
@@ -373,16 +377,6 @@ class EmissionsReport:
         }
 
 
-def _clean(v):
-    if v is None:
-        return None
-    if hasattr(v, "item"):
-        v = v.item()
-    if isinstance(v, float) and not math.isfinite(v):
-        return None
-    return v
-
-
 _NAMES = {"nitrous_oxide": "N2O"}
 _TRADE = re.compile(r"(prescribing information) \([A-Z][\w-]*(?:/[A-Z][\w-]*)*\)")
 
@@ -408,8 +402,10 @@ def period_report(
     site_field: str = "site",
     also=(),
 ) -> PeriodReport:
-    """Figures of one period (see :class:`PeriodReport`), under ``gwp_source`` first, AR5 and AR6 GWP100
-    and the sources ``also``. Raises InputError when no case starts in it.
+    """Figures of one period (see :class:`PeriodReport`).
+
+    They are worked out under ``gwp_source`` first, AR5 and AR6 GWP100 and the sources
+    ``also``. Raises InputError when no case starts in it.
     """
     sources = tuple(dict.fromkeys((*gwp_sources_shown(gwp_source, reference), *also)))
     c = cases_in(cases, period, sites, chosen_sites, where, site_field)
@@ -516,109 +512,198 @@ def build_report(
         When no case starts in the period, or ``chosen_sites`` names an unknown site.
     """
     name = {"period": "period", "baseline": "baseline", "target": "target", "site": "site", **(fields or {})}
-    problems: list[InputError] = []
-    cautions: list[str] = []
-    if sites is not None:
-        try:
-            assign_sites(cases["theatre"], sites)
-        except InputError as err:
-            problems.append(err)
-            cautions.append(
-                "The site file could not be used (see 'not worked out'); each theatre is shown as its own site."
-            )
-            sites, chosen_sites = None, ()
+    used = _usable_sites(cases, sites, chosen_sites)
     pr = period_report(
-        cases, period, reference, gwp_source, sites, chosen_sites, purchases, name["period"], name["site"]
+        cases, period, reference, gwp_source, used.sites, used.chosen, purchases, name["period"], name["site"]
     )
-    rep = EmissionsReport(
-        title,
-        reference,
-        pr,
-        sites=sites,
-        chosen_sites=tuple(chosen_sites or ()),
-        problems=problems,
-        cautions=cautions,
-        absorbent_note=absorbent_note,
-    )
-    if sites is not None and (pr.cases["site"] == UNASSIGNED).any():
-        left = sorted(set(pr.cases.loc[pr.cases["site"] == UNASSIGNED, "theatre"]))
-        cautions.append(
-            f"Theatres the site file does not name are reported as '{UNASSIGNED}': " + ", ".join(left) + "."
-        )
-    if pr.purchase_scope:
-        cautions.append(pr.purchase_scope)
-    table = pr.use_vs_purchase_by_site
-    if table is not None:
-        odd = table.loc[table["note"] == SITE_NOTES["purchases only"], "site"].tolist()
-        if odd:
-            cautions.append(
-                "Purchases name sites that are neither in the site file nor theatres of the records "
-                "(a misspelling?): " + ", ".join(odd) + "; they are shown on their own rows of "
-                "'Use and purchases by site'."
-            )
-        none = table.loc[table["note"] == SITE_NOTES["no site"], "purchase_based_t_co2e"]
-        if len(none):
-            cautions.append(
-                f"Purchases with no site ({float(none.sum()):,.1f} t CO2e) are shown as '{NO_SITE}' in "
-                "'Use and purchases by site': they count in the whole-set purchase-based figures but "
-                "belong to no site."
-            )
-    if pr.purchases is not None and pr.purchases.months_missing:
-        cautions.append(
-            "No purchase line in: "
-            + ", ".join(pr.purchases.months_missing)
-            + " (purchase-based figures count nothing for those months)."
-        )
+    problems = [*used.problems]
+    cautions = [*used.cautions, *_period_cautions(pr, used.sites)]
+    against = _Comparison()
     if baseline is not None:
-        bsrc = baseline_gwp_source or gwp_source
-        try:
-            rep.baseline = period_report(
-                cases,
-                baseline,
-                reference,
-                bsrc,
-                sites,
-                chosen_sites,
-                purchases,
-                name["baseline"],
-                name["site"],
-                also=pr.gwp_sources,
-            )
-        except InputError as err:
-            problems.append(err)
-        if rep.baseline is not None:
-            if bsrc != gwp_source:
-                cautions.append(
-                    f"The baseline is worked out under {reference.gwp_source(bsrc).label} and the period "
-                    f"under {reference.gwp_source(gwp_source).label}: the change, the headline and the "
-                    "target comparison include the change of source (its part is shown on its own)."
-                )
-            if baseline.overlaps(period):
-                cautions.append(
-                    f"The baseline ({baseline.label}) overlaps the period ({period.label}): cases in "
-                    "both are counted in each."
-                )
-            if abs(baseline.months - period.months) > 1e-9:
-                cautions.append(
-                    f"The period ({period.months:g} months) and the baseline ({baseline.months:g} months) "
-                    "differ in length: totals and the activity part of the change reflect that; the "
-                    "comparison with the target uses annual rates."
-                )
-            rep.decomposition = decompose(
-                period_mix(rep.baseline.figures, reference, bsrc), period_mix(pr.figures, reference, gwp_source)
-            )
-            if target is not None:
-                try:
-                    rep.target = target_status(
-                        target, baseline, rep.baseline.co2e_t * 1000.0, period, pr.co2e_t * 1000.0, name["target"]
-                    )
-                except InputError as err:
-                    problems.append(err)
+        against = _against_baseline(
+            cases,
+            pr,
+            baseline,
+            baseline_gwp_source or gwp_source,
+            target,
+            reference=reference,
+            sites=used,
+            purchases=purchases,
+            name=name,
+        )
+        problems += against.problems
+        cautions += against.cautions
     elif target is not None:
         problems.append(InputError(name["target"], target.text, "a target needs a baseline period to start from"))
     if pr.figures["absorbent_kg"] is None:
         cautions.append("CO2 absorbent is not in these audit results; the cost covers agents and gases only.")
-    return rep
+    return EmissionsReport(
+        title,
+        reference,
+        pr,
+        baseline=against.baseline,
+        decomposition=against.decomposition,
+        target=against.target,
+        sites=used.sites,
+        chosen_sites=used.chosen,
+        problems=problems,
+        cautions=cautions,
+        absorbent_note=absorbent_note,
+    )
+
+
+@dataclass
+class _Sites:
+    """The site file as the report uses it.
+
+    ``sites`` is None (and every theatre its own site) when the file names unknown
+    theatres, with that error in ``problems`` and a caution saying so.
+    """
+
+    sites: dict | None
+    chosen: tuple
+    problems: list[InputError] = field(default_factory=list)
+    cautions: list[str] = field(default_factory=list)
+
+
+def _usable_sites(cases: pd.DataFrame, sites: dict | None, chosen_sites) -> _Sites:
+    """The site file and chosen sites, or none of them when the site file cannot be used."""
+    if sites is None:
+        return _Sites(None, tuple(chosen_sites or ()))
+    try:
+        assign_sites(cases["theatre"], sites)
+    except InputError as err:
+        return _Sites(
+            None,
+            (),
+            [err],
+            ["The site file could not be used (see 'not worked out'); each theatre is shown as its own site."],
+        )
+    return _Sites(sites, tuple(chosen_sites or ()))
+
+
+def _period_cautions(pr: PeriodReport, sites: dict | None) -> list[str]:
+    """Cautions about the period's sites and purchases.
+
+    Theatres the site file does not name, the purchases' scope, sites only the purchases
+    name, purchases with no site, months with no purchase line.
+    """
+    out = []
+    if sites is not None and (pr.cases["site"] == UNASSIGNED).any():
+        left = sorted(set(pr.cases.loc[pr.cases["site"] == UNASSIGNED, "theatre"]))
+        out.append(f"Theatres the site file does not name are reported as '{UNASSIGNED}': " + ", ".join(left) + ".")
+    if pr.purchase_scope:
+        out.append(pr.purchase_scope)
+    if pr.use_vs_purchase_by_site is not None:
+        out += _site_table_cautions(pr.use_vs_purchase_by_site)
+    if pr.purchases is not None and pr.purchases.months_missing:
+        out.append(
+            "No purchase line in: "
+            + ", ".join(pr.purchases.months_missing)
+            + " (purchase-based figures count nothing for those months)."
+        )
+    return out
+
+
+def _site_table_cautions(table: pd.DataFrame) -> list[str]:
+    """Cautions about the rows of 'Use and purchases by site' that are no site of the records."""
+    out = []
+    odd = table.loc[table["note"] == SITE_NOTES["purchases only"], "site"].tolist()
+    if odd:
+        out.append(
+            "Purchases name sites that are neither in the site file nor theatres of the records "
+            "(a misspelling?): " + ", ".join(odd) + "; they are shown on their own rows of "
+            "'Use and purchases by site'."
+        )
+    none = table.loc[table["note"] == SITE_NOTES["no site"], "purchase_based_t_co2e"]
+    if len(none):
+        out.append(
+            f"Purchases with no site ({float(none.sum()):,.1f} t CO2e) are shown as '{NO_SITE}' in "
+            "'Use and purchases by site': they count in the whole-set purchase-based figures but "
+            "belong to no site."
+        )
+    return out
+
+
+@dataclass
+class _Comparison:
+    """The baseline's figures, the decomposition of the change and the target's status.
+
+    Each is None when it could not be worked out (the reason in ``problems``).
+    """
+
+    baseline: PeriodReport | None = None
+    decomposition: Decomposition | None = None
+    target: TargetStatus | None = None
+    problems: list[InputError] = field(default_factory=list)
+    cautions: list[str] = field(default_factory=list)
+
+
+def _against_baseline(
+    cases: pd.DataFrame,
+    pr: PeriodReport,
+    baseline: Period,
+    baseline_gwp_source: str,
+    target: Target | None,
+    *,
+    reference: Reference,
+    sites: _Sites,
+    purchases: pd.DataFrame | None,
+    name: dict,
+) -> _Comparison:
+    """The period against ``baseline`` (and ``target``); a baseline without cases is a problem."""
+    out = _Comparison()
+    try:
+        out.baseline = period_report(
+            cases,
+            baseline,
+            reference,
+            baseline_gwp_source,
+            sites.sites,
+            sites.chosen,
+            purchases,
+            name["baseline"],
+            name["site"],
+            also=pr.gwp_sources,
+        )
+    except InputError as err:
+        out.problems.append(err)
+        return out
+    out.cautions = _baseline_cautions(pr, baseline, baseline_gwp_source, reference)
+    out.decomposition = decompose(
+        period_mix(out.baseline.figures, reference, baseline_gwp_source),
+        period_mix(pr.figures, reference, pr.gwp_source),
+    )
+    if target is not None:
+        try:
+            out.target = target_status(
+                target, baseline, out.baseline.co2e_t * 1000.0, pr.period, pr.co2e_t * 1000.0, name["target"]
+            )
+        except InputError as err:
+            out.problems.append(err)
+    return out
+
+
+def _baseline_cautions(pr: PeriodReport, baseline: Period, baseline_gwp_source: str, reference: Reference) -> list[str]:
+    """Cautions of the comparison: a change of GWP source, overlapping periods, periods of different length."""
+    period, out = pr.period, []
+    if baseline_gwp_source != pr.gwp_source:
+        out.append(
+            f"The baseline is worked out under {reference.gwp_source(baseline_gwp_source).label} and the period "
+            f"under {reference.gwp_source(pr.gwp_source).label}: the change, the headline and the "
+            "target comparison include the change of source (its part is shown on its own)."
+        )
+    if baseline.overlaps(period):
+        out.append(
+            f"The baseline ({baseline.label}) overlaps the period ({period.label}): cases in both are counted in each."
+        )
+    if abs(baseline.months - period.months) > 1e-9:
+        out.append(
+            f"The period ({period.months:g} months) and the baseline ({baseline.months:g} months) "
+            "differ in length: totals and the activity part of the change reflect that; the "
+            "comparison with the target uses annual rates."
+        )
+    return out
 
 
 def driver_sentences(

@@ -63,7 +63,6 @@ class User:
 
     id: str = ""
     name: str = ""
-    via: str = ""
 
     @property
     def signed_in(self) -> bool:
@@ -155,7 +154,7 @@ def user_from_header(config: AccessConfig, values: Sequence[str]) -> User:
     value = _clean_identity(values[0])
     if value is None:
         return NO_ONE
-    return User(value, value, f"header {config.identity_header}")
+    return User(value, value)
 
 
 def user_from_sign_in(config: AccessConfig, claims: Mapping) -> User:
@@ -170,7 +169,7 @@ def user_from_sign_in(config: AccessConfig, claims: Mapping) -> User:
     if ident is None:
         return NO_ONE
     name = _clean_identity(claims.get("name")) or ident
-    return User(ident, name, "sign-in")
+    return User(ident, name)
 
 
 def is_editor(config: AccessConfig, user: User) -> bool:

@@ -7,12 +7,13 @@ from dataclasses import dataclass, field, replace
 import pandas as pd
 
 from model.base.errors import InputError
-from model.cautions import by_severity, warnings_as_records
+from model.base.jsonable import to_json_value
+from model.cautions import STANDING_CAUTION, by_severity, warnings_as_records
 from model.reference import DEFAULT_REFERENCE, VOLATILES, Reference
 from model.year.inputs import Scenario
-from model.year.result import YearResult, _clean, _result, headline_figures
+from model.year.result import YearResult, _result, headline_figures
 from model.year.sampling import _central, _percentiles, _sampled, make_draws
-from model.year.simulate import CAUTION, _year_inputs_many
+from model.year.simulate import _year_inputs_many
 
 
 @dataclass
@@ -47,17 +48,17 @@ class Comparison:
             "draws": self.baseline.n_draws,
             "seed": self.baseline.seed,
             "difference": {
-                r["key"]: _clean({k: r[k] for k in ("baseline", "proposal", "difference", "p5", "p50", "p95")})
+                r["key"]: to_json_value({k: r[k] for k in ("baseline", "proposal", "difference", "p5", "p50", "p95")})
                 for r in self.summary.to_dict("records")
             },
-            "baseline_totals": _clean(self.baseline.totals),
-            "proposal_totals": _clean(self.proposal.totals),
+            "baseline_totals": to_json_value(self.baseline.totals),
+            "proposal_totals": to_json_value(self.proposal.totals),
             "warnings": list(self.warnings),
             "warnings_by_severity": warnings_as_records(self.warnings),
             "baseline_unsafe": self.baseline.unsafe,
             "proposal_unsafe": self.proposal.unsafe,
             "notes": list(self.notes),
-            "caution": CAUTION,
+            "caution": STANDING_CAUTION,
         }
 
 

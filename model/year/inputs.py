@@ -65,12 +65,6 @@ class CaseMix:
         """Cases a year, all case types together."""
         return int(sum(t.cases_per_year for t in self.types))
 
-    def with_counts(self, factor: float) -> CaseMix:
-        """A copy with every yearly count multiplied by ``factor`` (rounded to whole cases)."""
-        return replace(
-            self, types=tuple(replace(t, cases_per_year=int(round(t.cases_per_year * factor))) for t in self.types)
-        )
-
 
 def stretch_phase(plan: CasePlan) -> int:
     """Index of the phase that takes up a case's duration beyond the other phases.

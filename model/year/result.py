@@ -2,19 +2,19 @@
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
 
 from model.base.errors import InputError
-from model.cautions import is_unsafe, warnings_as_records
+from model.base.jsonable import to_json_value
+from model.cautions import STANDING_CAUTION, is_unsafe, warnings_as_records
 from model.reference import DEFAULT_REFERENCE, GWP_SOURCES, VOLATILES, Reference
 from model.year.inputs import MONTHS, Scenario
 from model.year.nodes import NODE_Z
 from model.year.sampling import Draws, _central, _percentiles, _sampled, make_draws
-from model.year.simulate import _EMIT, _LIQ, _Q, CAUTION, GASES, YearInputs, year_inputs
+from model.year.simulate import _EMIT, _LIQ, _Q, GASES, YearInputs, year_inputs
 
 
 def _label(agent: str) -> str:
@@ -73,16 +73,20 @@ class YearResult:
 
     @property
     def currency(self) -> str:
+        """Currency of the year's costs."""
         return self.inputs.currency
 
     @property
     def warnings(self) -> list[str]:
+        """Cautions of the year's case types, most severe first."""
         return self.inputs.warnings
 
     @property
     def unsafe(self) -> bool:
-        """Whether the practice of this year is unsafe as written: some of its cases are
-        predicted a hypoxic mixture or run the circle out of O2 (a ``"hazard"`` warning).
+        """Whether the practice of this year is unsafe as written.
+
+        Some of its cases are predicted a hypoxic mixture or run the circle out of O2 (a
+        ``"hazard"`` warning).
         """
         return is_unsafe(self.warnings)
 
@@ -98,32 +102,20 @@ class YearResult:
             "seed": self.seed,
             "car_kg_co2e_per_km": self.scenario.car_kg_per_km,
             "car_factor_source": self.scenario.car_source,
-            "totals": _clean(self.totals),
-            "per_case": _clean(self.per_case),
+            "totals": to_json_value(self.totals),
+            "per_case": to_json_value(self.per_case),
             "bands": {
-                r["key"]: _clean({"p5": r["p5"], "p50": r["p50"], "p95": r["p95"]})
+                r["key"]: to_json_value({"p5": r["p5"], "p50": r["p50"], "p95": r["p95"]})
                 for r in self.summary.to_dict("records")
             },
-            "monthly": [_clean(r) for r in self.monthly.to_dict("records")],
-            "by_type": [_clean(r) for r in self.by_type.to_dict("records")],
+            "monthly": [to_json_value(r) for r in self.monthly.to_dict("records")],
+            "by_type": [to_json_value(r) for r in self.by_type.to_dict("records")],
             "warnings": list(self.warnings),
             "warnings_by_severity": warnings_as_records(self.warnings),
             "unsafe": self.unsafe,
             "notes": list(self.notes),
-            "caution": CAUTION,
+            "caution": STANDING_CAUTION,
         }
-
-
-def _clean(d: dict) -> dict:
-    out = {}
-    for k, v in d.items():
-        if isinstance(v, (np.floating, float)):
-            v = float(v)
-            v = v if math.isfinite(v) else None
-        elif isinstance(v, np.integer):
-            v = int(v)
-        out[k] = v
-    return out
 
 
 def _summary(keys, central: dict, draws: dict) -> pd.DataFrame:

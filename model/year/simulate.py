@@ -18,12 +18,6 @@ from model.reference import DEFAULT_REFERENCE, VOLATILES, Reference
 from model.year.inputs import CaseMix, CaseType, Scenario
 from model.year.nodes import duration_nodes, piecewise_linear_moments, stretch_minutes_moments
 
-CAUTION = (
-    "Estimates for planning, budgeting and reporting, not a prescription. Flows, mixes and "
-    "dial settings follow local protocols, the workstation's instructions for use and "
-    "licensed practice, with inspired O2 and end-tidal agent monitored."
-)
-
 GASES = ("oxygen", "air", "nitrous_oxide")
 #: Quantities carried per case type, in this order. Units: mL, g, L, g, g, min.
 QUANTITIES = (
