@@ -561,6 +561,7 @@ class _Step(NamedTuple):
     fa: np.ndarray
     s_o2: np.ndarray  # O2 consumption [L/min]
     dial: np.ndarray  # [1]
+    t_frac: np.ndarray | None  # end-tidal agent aimed at [1] (None without target phases)
     deliv_ag: np.ndarray  # agent vapour delivered [L]
     b: np.ndarray  # return from the tissues (2, n) [L/min]
     vent: np.ndarray  # valve flow [L/min]
@@ -657,11 +658,12 @@ def _tissues(uptake_model: str, agent: Agent, n2o_ref: Agent, case: _CaseConstan
     return _Tissues(np.stack([g_n2o, g_ag]), np.stack([c_n2o, c_ag]))
 
 
-def _initial_state(flows: _Flows, inputs: _PhaseInputs, tissues: _Tissues, n_cases: int) -> _State:
+def _initial_state(flows: _Flows, inputs: _PhaseInputs, tissues: _Tissues, case: _CaseConstants) -> _State:
     """State at the start: the circle filled with the first phase's fresh gas without agent.
 
     The lungs hold air, the tissues nothing.
     """
+    n_cases = len(case.vo2_l_min)
     fc = np.zeros((3, n_cases))
     fc[0], fc[1] = flows.fd_o2[0], flows.fd_n2o[0]
     fa = np.zeros((3, n_cases))
@@ -670,7 +672,7 @@ def _initial_state(flows: _Flows, inputs: _PhaseInputs, tissues: _Tissues, n_cas
         fc=fc,
         fa=fa,
         p=np.zeros((2, tissues.conductance.shape[1], n_cases)),
-        u_prev=np.zeros(n_cases),  # set by the caller (the patient's VO2)
+        u_prev=case.vo2_l_min.copy(),  # the first step's valve flow takes uptake as VO2
         d_prev=np.where(inputs.target_mode[0], 0.0, np.nan_to_num(inputs.dial[0])),
         delivered=np.zeros((3, n_cases)),
         uptake=np.zeros((3, n_cases)),
@@ -742,7 +744,7 @@ def _vaporizer(
     return np.where(setting.target_mode, d_ctrl, setting.dial), t_frac
 
 
-def _advance(state: _State, seg: _Segment, setting: _PhaseSetting, tally: _PhaseTally, case: _CaseConstants) -> _Step:
+def _advance(state: _State, seg: _Segment, setting: _PhaseSetting, case: _CaseConstants) -> _Step:
     """One backward-Euler step of circuit and lungs (the state itself is not changed)."""
     dt, a12, a22 = seg.dt, seg.a12, seg.a22
     v_c = case.circle_volume_l
@@ -761,13 +763,11 @@ def _advance(state: _State, seg: _Segment, setting: _PhaseSetting, tally: _Phase
     fa_new[0] -= k_o2 * s_o2
     fc_new[0] -= (a12 * dt / det[0]) * s_o2
     d, t_frac = _vaporizer(setting, seg, fa_new, det[2], case)
-    if t_frac is not None:
-        tally.t_frac = t_frac
     deliv_ag = seg.beta_fgf * d
     fa_new[2] += (a12 / det[2]) * deliv_ag
     fc_new[2] += (a22[2] / det[2]) * deliv_ag
     up_rate = seg.a_tis * fa_new[1:] - b  # (2, n) [L/min]
-    return _Step(fc_new, fa_new, s_o2, d, deliv_ag, b, vent, up_rate)
+    return _Step(fc_new, fa_new, s_o2, d, t_frac, deliv_ag, b, vent, up_rate)
 
 
 def _book(state: _State, seg: _Segment, step: _Step) -> None:
@@ -793,6 +793,8 @@ def _track(
     Returns the end-tidal MAC multiple after the step.
     """
     dt, fc, fa = seg.dt, state.fc, state.fa
+    if step.t_frac is not None:
+        tally.t_frac = step.t_frac
     tally.deliv_ag += step.deliv_ag
     tally.t_in += dt
     et_mac = fa[2] / case.mac_agent + fa[1] / case.mac_n2o
@@ -893,7 +895,7 @@ def _run_phase(
     for dt, n_steps in schedule:
         seg = _segment(dt, setting, tissues, case)
         for _ in range(n_steps):
-            step = _advance(state, seg, setting, tally, case)
+            step = _advance(state, seg, setting, case)
             _book(state, seg, step)
             et_mac = _track(state, tally, seg, step, setting, case)
             if recorder is not None:
@@ -1037,8 +1039,7 @@ def simulate_cases(
     )
     flows = _Flows(o2, n2o, altered, *delivered_fractions(o2, inputs.air_l_min, n2o))
     tissues = _tissues(uptake_model, agent, n2o_ref, case)
-    state = _initial_state(flows, inputs, tissues, n_cases)
-    state.u_prev = case.vo2_l_min.copy()
+    state = _initial_state(flows, inputs, tissues, case)
     held_start = case.circle_volume_l * state.fc + case.frc_l * state.fa
 
     # Step schedule per phase: fine steps over the first ``fine_min`` minutes (wash-in,
