@@ -47,7 +47,7 @@ from __future__ import annotations
 import math
 from collections.abc import Iterator, Mapping
 from dataclasses import dataclass, fields
-from typing import NamedTuple
+from typing import Any, NamedTuple, cast
 
 import numpy as np
 
@@ -278,7 +278,7 @@ class _FieldMapping(Mapping):
         return len(self._keys())
 
     def _keys(self) -> tuple[str, ...]:
-        return tuple(f.name for f in fields(self))
+        return tuple(f.name for f in fields(cast(Any, self)))
 
     def as_dict(self) -> dict:
         """A plain dict of the same keys and arrays (the arrays are not copied)."""
@@ -512,7 +512,7 @@ class _State:
 class _PhaseSetting(NamedTuple):
     """What one phase sets, shape ``(n_cases,)`` (``inflow`` (3, n))."""
 
-    index: int
+    phase: int  # its index
     minutes: np.ndarray  # [min]
     fgf_l_min: np.ndarray  # [L/min]
     inflow: np.ndarray  # O2, N2O, agent (none) in the fresh gas [L/min]
@@ -691,7 +691,7 @@ def _phase_setting(i: int, inputs: _PhaseInputs, flows: _Flows, case: _CaseConst
     f = flows.fgf_l_min[i]
     tmode = inputs.target_mode[i]
     return _PhaseSetting(
-        index=i,
+        phase=i,
         minutes=inputs.minutes[i],
         fgf_l_min=f,
         inflow=np.stack([f * flows.fd_o2[i], f * flows.fd_n2o[i], np.zeros_like(f)]),
@@ -845,7 +845,7 @@ class _Recorder:
         s["liquid_ml"][row] = state.delivered[2] / self.vapour_per_ml
         s["co2_absorbed_l"][row] = state.co2_total + setting.co2_rate * tally.t_in
         s["end_tidal_mac"][row] = et_mac
-        s["phase_index"][row] = setting.index
+        s["phase_index"][row] = setting.phase
 
     def series(self, absorbent_capacity_l_per_kg: float) -> StepSeries:
         s = self.arrays
@@ -1050,7 +1050,7 @@ def simulate_cases(
     recorder = None
     if record:
         recorder = _Recorder(sum(n for segs in schedule for _, n in segs), state, vapour_per_ml)
-    ends = []
+    ends: list[tuple[np.ndarray | None, _PhaseEnd | None]] = []
     for i, segments in enumerate(schedule):
         if not segments:
             ends.append((None, None))

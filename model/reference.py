@@ -9,6 +9,7 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 from types import MappingProxyType
+from typing import Any
 
 from model.base.errors import InputError
 from model.base.files import parse_toml, read_user_text
@@ -493,7 +494,7 @@ class Reference:
         ptable = _table(table, f"{origin}: [prices]")
         if not ptable:
             return self.prices
-        changes = {"basis": f"user prices ({origin})"}
+        changes: dict[str, Any] = {"basis": f"user prices ({origin})"}
         for key, raw in ptable.items():
             changes[key] = self._price_change(key, raw, f"{origin}: prices.{key}")
         return replace(self.prices, **changes)

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from typing import NamedTuple
+from typing import Any, NamedTuple
 
 import numpy as np
 import pandas as pd
@@ -195,9 +195,10 @@ def _read_parquet_file(recs: Records, index: int):
     dial = values.get("dial", np.full(n, np.nan))
     et = values.get("end_tidal", np.full(n, np.nan))
     if ttype is not None:
-        times = _sample_times(table[c["time"].source], None, n)
+        times = _timestamp_times(table[c["time"].source], n)
     else:
-        times = _sample_times(None, values["elapsed"], n)
+        elapsed = values["elapsed"]
+        times = _SampleTimes(elapsed, pa.nulls(n, pa.timestamp("us")), pa.nulls(n, pa.date32()), ~np.isnan(elapsed))
     if times is None or not (ok_all and bool(ok.all()) and bool(times.ok.all())):
         return None, case_texts
     # Flows as read: every row passed the checks, so none is negative; a missing flow (NaN)
@@ -275,16 +276,14 @@ class _SampleTimes(NamedTuple):
     ok: np.ndarray  # bool: the time is present
 
 
-def _sample_times(tcol, elapsed: np.ndarray | None, n: int) -> _SampleTimes | None:
-    """Sample times from the file's timestamp column ``tcol``, else from the elapsed minutes.
+def _timestamp_times(tcol, n: int) -> _SampleTimes | None:
+    """Sample times from the file's timestamp column ``tcol`` (without one, the elapsed minutes are the times).
 
     None when a timestamp is missing or before 1970 (the SQL checks then run on the file).
     Times are whole milliseconds since 1970 / 60000, as the SQL computes them.
     """
     import pyarrow as pa
 
-    if tcol is None:
-        return _SampleTimes(elapsed, pa.nulls(n, pa.timestamp("us")), pa.nulls(n, pa.date32()), ~np.isnan(elapsed))
     if tcol.null_count:
         return None
     tcol = tcol.combine_chunks() if isinstance(tcol, pa.ChunkedArray) else tcol
@@ -313,7 +312,7 @@ class _CaseCodes(NamedTuple):
     """Case of each row as a code into its names (and theatre codes, from ``texts``)."""
 
     code: np.ndarray  # int64, one per row
-    case_names: object  # pyarrow array of the case ids, by code
+    case_names: Any  # pyarrow array of the case ids, by code
     theatre_code: np.ndarray | None  # with ``texts`` only
     row: np.ndarray | None  # the row numbers, when read on the way
     in_order: bool  # with ``texts``: the rows are the file's, in file order

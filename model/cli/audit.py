@@ -116,7 +116,7 @@ def cmd_audit(args) -> int:
     _write_totals(out, result)
     _write_breakdowns(out, result)
     if purchases.recon is not None:
-        _write_reconciliation(out, purchases, args.messages)
+        _write_reconciliation(out, purchases.recon, purchases.notes, args.messages)
     out.write(f"\nCost by item, whole period ({result.currency}; purchases priced with the same prices)\n")
     print_table(
         purchases.costs.to_dict("records"),
@@ -256,9 +256,8 @@ def _write_breakdowns(out, result: AuditResult) -> None:
     out.write(f"\nCO2 absorbent: {result.absorbent_note()}\n")
 
 
-def _write_reconciliation(out, purchases: _Purchases, messages: int) -> None:
+def _write_reconciliation(out, recon: pd.DataFrame, purchase_notes: list, messages: int) -> None:
     """Purchases against recorded use: lines set aside, the table, the N2O apparent loss."""
-    recon, purchase_notes = purchases.recon, purchases.notes
     out.write("\nPurchases against recorded use (unexplained = purchased - recorded)\n")
     if purchase_notes:
         out.write(f"{len(purchase_notes)} purchase line(s) set aside; the others are used:\n")
