@@ -1,5 +1,7 @@
-"""The circle system with a patient in it: fresh gas in, uptake, excess gas vented, CO2
-absorbed; simulated for many cases at once (the vectorised API used by the year model).
+"""The circle system with a patient in it, simulated for many cases at once.
+
+Fresh gas in, uptake, excess gas vented, CO2 absorbed: the vectorised API used by the year
+model.
 
 Model
 -----
@@ -43,12 +45,15 @@ modelled; the lungs exchange as one compartment without a shunt.
 from __future__ import annotations
 
 import math
+from collections.abc import Iterator, Mapping
+from dataclasses import dataclass, fields
+from typing import Any, NamedTuple, cast
 
 import numpy as np
 
 from model.freshgas import apply_ratio_limit, delivered_fractions
 from model.mac import mac_at_age
-from model.patient import resolve_patient
+from model.patient import PatientValues, resolve_patient
 from model.reference import AIR_O2_FRACTION, DEFAULT_REFERENCE, Agent
 from model.uptake import DEFAULT_UPTAKE_MODEL, UPTAKE_MODELS, tissue_compartments
 from model.vapour import vapour_per_ml_liquid
@@ -237,7 +242,352 @@ def step_schedule(
     return tuple(segments)
 
 
-def _as_phase_array(value, shape, name):
+_SERIES_KEYS = (
+    "time_min",
+    "dial_pct",
+    "inspired_agent",
+    "end_tidal_agent",
+    "inspired_o2",
+    "end_tidal_o2",
+    "inspired_n2o",
+    "end_tidal_n2o",
+    "agent_uptake_l_min",
+    "agent_vented_l_min",
+    "liquid_ml",
+    "co2_absorbed_l",
+    "absorbent_g",
+    "end_tidal_mac",
+    "phase_index",
+)
+
+
+class _FieldMapping(Mapping):
+    """Read-only mapping view of a frozen dataclass of arrays: ``obj["name"]`` is ``obj.name``."""
+
+    __slots__ = ()
+
+    def __getitem__(self, key: str):
+        if key not in self._keys():
+            raise KeyError(key)
+        return getattr(self, key)
+
+    def __iter__(self) -> Iterator[str]:
+        return iter(self._keys())
+
+    def __len__(self) -> int:
+        return len(self._keys())
+
+    def _keys(self) -> tuple[str, ...]:
+        return tuple(f.name for f in fields(cast(Any, self)))
+
+    def as_dict(self) -> dict:
+        """A plain dict of the same keys and arrays (the arrays are not copied)."""
+        return {key: self[key] for key in self}
+
+
+@dataclass(frozen=True, eq=False)
+class StepSeries(_FieldMapping):
+    """State after every integration step, arrays of shape ``(n_steps + 1, n_cases)``.
+
+    Row 0 is the start. Fractions in [0, 1], dial in %, flows in L/min, volumes in L at room
+    conditions, liquid in mL, mass in g, time in min; ``phase_index`` is the phase of the
+    step (as float).
+    """
+
+    time_min: np.ndarray
+    dial_pct: np.ndarray
+    inspired_agent: np.ndarray
+    end_tidal_agent: np.ndarray
+    inspired_o2: np.ndarray
+    end_tidal_o2: np.ndarray
+    inspired_n2o: np.ndarray
+    end_tidal_n2o: np.ndarray
+    agent_uptake_l_min: np.ndarray
+    agent_vented_l_min: np.ndarray
+    liquid_ml: np.ndarray
+    co2_absorbed_l: np.ndarray
+    absorbent_g: np.ndarray
+    end_tidal_mac: np.ndarray
+    phase_index: np.ndarray
+
+
+@dataclass(frozen=True, eq=False)
+class SpeciesBalance(_FieldMapping):
+    """Mass balance of one species over the case, arrays of shape ``(n_cases,)``, in L.
+
+    ``delivered_l = uptake_l + vented_l + held_end_l - held_start_l`` to rounding error;
+    ``uptake_l`` is the net uptake into the tissues (O2: consumed), ``held_*`` the gas in
+    circuit and lungs, ``tissue_end_l`` what the tissues hold at the end (0 for O2).
+    """
+
+    delivered_l: np.ndarray
+    uptake_l: np.ndarray
+    vented_l: np.ndarray
+    held_start_l: np.ndarray
+    held_end_l: np.ndarray
+    tissue_end_l: np.ndarray
+
+
+@dataclass(frozen=True, eq=False)
+class PhaseResults(_FieldMapping):
+    """Per-phase results, arrays of shape ``(n_phases, n_cases)``.
+
+    The amounts (``liquid_ml`` [mL], ``agent_uptake_l``, ``agent_vented_l``,
+    ``agent_gross_uptake_l``, ``nitrous_oxide_gross_uptake_l``, ``co2_absorbed_l`` [L]) are 0
+    where a case skips the phase, the other results of the integration NaN.
+    ``target_fraction`` is the end-tidal agent aimed at, at phase end (NaN in dial mode);
+    ``time_to_target_min`` NaN if not reached or in dial mode;
+    ``time_at_max_below_target_min`` the time with the dial at the vaporizer maximum and the
+    end-tidal agent still under 95 % of target. Flows (delivered, after the ratio limit) in
+    L/min, fractions in [0, 1], dial in %, time in min.
+    """
+
+    liquid_ml: np.ndarray
+    mean_dial_pct: np.ndarray
+    agent_uptake_l: np.ndarray
+    agent_vented_l: np.ndarray
+    agent_gross_uptake_l: np.ndarray
+    nitrous_oxide_gross_uptake_l: np.ndarray
+    co2_absorbed_l: np.ndarray
+    min_inspired_o2: np.ndarray
+    end_tidal_agent: np.ndarray
+    inspired_agent: np.ndarray
+    end_tidal_mac: np.ndarray
+    target_fraction: np.ndarray
+    time_to_target_min: np.ndarray
+    time_at_max_below_target_min: np.ndarray
+    fgf_l_min: np.ndarray
+    o2_l_min: np.ndarray
+    n2o_l_min: np.ndarray
+    air_l_min: np.ndarray
+    altered: np.ndarray
+    fd_o2: np.ndarray
+    fd_n2o: np.ndarray
+    rebreathed_share: np.ndarray
+    lowest_safe_fd_o2: np.ndarray
+    steady_fio2: np.ndarray
+    target_mode: np.ndarray
+    minutes: np.ndarray
+    dial_pct: np.ndarray
+    target_mac: np.ndarray
+
+
+@dataclass(frozen=True, eq=False)
+class Simulation(Mapping):
+    """Result of :func:`simulate_cases`: named arrays, and a read-only mapping view of them.
+
+    Totals have shape ``(n_cases,)``: ``liquid_ml`` [mL]; ``co2_absorbed_l``,
+    ``agent_gross_uptake_l`` (agent that entered the blood before any came back out: the
+    base of the metabolised share), ``nitrous_oxide_gross_uptake_l``, ``o2_shortfall_l`` (O2
+    the patient needed but the circle could not supply) [L]; ``absorbent_g`` [g];
+    ``min_inspired_o2`` [1] and ``min_inspired_o2_time_min`` [min]; ``end_tidal_mac_hours``
+    [MAC-h]; the patient's ``vo2_l_min``, ``vco2_l_min``, ``minute_ventilation_l_min``,
+    ``cardiac_output_l_min`` [L/min]; the age-adjusted ``mac_agent_pct``, ``mac_n2o_pct``
+    [%]; the settings ``absorbent_capacity_l_per_kg`` [L/kg], ``circle_volume_l``, ``frc_l``
+    [L]. ``oxygen``, ``nitrous_oxide``, ``agent`` are the :class:`SpeciesBalance` of each
+    species, ``phases`` the :class:`PhaseResults`, ``series`` the :class:`StepSeries` (None
+    unless recorded).
+
+    The mapping view keeps the flat keys: ``sim["liquid_ml"]``, ``sim["agent_vented_l"]``
+    (``sim.agent.vented_l``), ``sim["phase_fd_o2"]`` (``sim.phases.fd_o2``),
+    ``sim["series"]`` (absent when not recorded); :meth:`as_dict` gives them as a dict.
+    """
+
+    liquid_ml: np.ndarray
+    co2_absorbed_l: np.ndarray
+    agent_gross_uptake_l: np.ndarray
+    nitrous_oxide_gross_uptake_l: np.ndarray
+    absorbent_g: np.ndarray
+    min_inspired_o2: np.ndarray
+    min_inspired_o2_time_min: np.ndarray
+    o2_shortfall_l: np.ndarray
+    end_tidal_mac_hours: np.ndarray
+    vo2_l_min: np.ndarray
+    vco2_l_min: np.ndarray
+    minute_ventilation_l_min: np.ndarray
+    cardiac_output_l_min: np.ndarray
+    mac_agent_pct: np.ndarray
+    mac_n2o_pct: np.ndarray
+    absorbent_capacity_l_per_kg: np.ndarray
+    circle_volume_l: np.ndarray
+    frc_l: np.ndarray
+    oxygen: SpeciesBalance
+    nitrous_oxide: SpeciesBalance
+    agent: SpeciesBalance
+    phases: PhaseResults
+    series: StepSeries | None = None
+
+    def __getitem__(self, key: str):
+        path = _SIMULATION_KEYS.get(key)
+        if path is None or (key == "series" and self.series is None):
+            raise KeyError(key)
+        part, name = path
+        return getattr(self, name) if part is None else getattr(getattr(self, part), name)
+
+    def __iter__(self) -> Iterator[str]:
+        return (key for key in _SIMULATION_KEYS if key != "series" or self.series is not None)
+
+    def __len__(self) -> int:
+        return len(_SIMULATION_KEYS) - (self.series is None)
+
+    def as_dict(self) -> dict:
+        """The flat keys as a plain dict (arrays not copied; ``series`` a :class:`StepSeries`)."""
+        return {key: self[key] for key in self}
+
+
+_SIMULATION_KEYS: dict[str, tuple[str | None, str]] = {
+    **{f.name: (None, f.name) for f in fields(Simulation) if f.type == "np.ndarray"},
+    **{f"{s}_{f.name}": (s, f.name) for s in SPECIES for f in fields(SpeciesBalance)},
+    **{f"phase_{f.name}": ("phases", f.name) for f in fields(PhaseResults)},
+    "series": (None, "series"),
+}
+
+
+class _PhaseInputs(NamedTuple):
+    """Phase inputs checked and broadcast to ``(n_phases, n_cases)``."""
+
+    minutes: np.ndarray  # [min]
+    o2_l_min: np.ndarray  # requested [L/min]
+    air_l_min: np.ndarray  # [L/min]
+    n2o_l_min: np.ndarray  # requested [L/min]
+    dial: np.ndarray  # vaporizer dial as a fraction [1], NaN in target phases
+    target: np.ndarray  # end-tidal target [MAC multiple], NaN in dial phases
+    target_mode: np.ndarray  # bool
+
+
+class _CaseConstants(NamedTuple):
+    """Per-case constants of the integration, shape ``(n_cases,)``."""
+
+    weight_kg: np.ndarray
+    cardiac_output_l_min: np.ndarray
+    vo2_l_min: np.ndarray
+    vco2_l_min: np.ndarray
+    minute_ventilation_l_min: np.ndarray
+    alveolar_ventilation_l_min: np.ndarray
+    frc_l: np.ndarray
+    circle_volume_l: np.ndarray
+    mac_agent: np.ndarray  # age-adjusted, as a fraction [1]
+    mac_n2o: np.ndarray  # [1]
+    dial_max: float  # vaporizer maximum as a fraction [1]
+
+
+class _Flows(NamedTuple):
+    """Delivered fresh gas per phase, ``(n_phases, n_cases)``, after the ratio limit."""
+
+    o2_l_min: np.ndarray
+    n2o_l_min: np.ndarray
+    altered: np.ndarray
+    fgf_l_min: np.ndarray
+    fd_o2: np.ndarray
+    fd_n2o: np.ndarray
+
+
+class _Tissues(NamedTuple):
+    """Tissue compartments, rows 0 = N2O, 1 = agent: conductances and capacities (2, k, n)."""
+
+    conductance: np.ndarray  # [L/min]
+    capacity: np.ndarray  # [L]
+
+
+@dataclass
+class _State:
+    """The gas state and the case's running totals, advanced in place step by step."""
+
+    fc: np.ndarray  # circuit fractions (3, n) [1]
+    fa: np.ndarray  # lung (alveolar) fractions (3, n) [1]
+    p: np.ndarray  # tissue partial pressures as fractions (2, k, n) [1]
+    u_prev: np.ndarray  # total uptake rate of the previous step (n,) [L/min]
+    d_prev: np.ndarray  # dial of the previous step (n,) [1]
+    delivered: np.ndarray  # (3, n) [L]
+    uptake: np.ndarray  # (3, n) [L]
+    gross: np.ndarray  # N2O and agent into the blood, before any comes back (2, n) [L]
+    vented: np.ndarray  # (3, n) [L]
+    co2_total: np.ndarray  # (n,) [L]
+    min_fio2: np.ndarray  # (n,) [1]
+    min_fio2_t: np.ndarray  # (n,) [min]
+    et_mac_min: np.ndarray  # end-tidal MAC x minutes (n,)
+    elapsed: np.ndarray  # time at the start of the phase (n,) [min]
+
+
+class _PhaseSetting(NamedTuple):
+    """What one phase sets, shape ``(n_cases,)`` (``inflow`` (3, n))."""
+
+    phase: int  # its index
+    minutes: np.ndarray  # [min]
+    fgf_l_min: np.ndarray  # [L/min]
+    inflow: np.ndarray  # O2, N2O, agent (none) in the fresh gas [L/min]
+    target_mode: np.ndarray  # bool
+    dial: np.ndarray  # [1], 0 in target phases
+    target: np.ndarray  # [MAC multiple]
+    any_target: bool
+    co2_rate: np.ndarray  # CO2 into the absorber [L/min]
+
+
+@dataclass
+class _PhaseTally:
+    """Running values of one phase (n,)."""
+
+    start_uptake: np.ndarray  # agent uptake at the start [L]
+    start_vented: np.ndarray  # agent vented at the start [L]
+    start_gross: np.ndarray  # gross uptake at the start (2, n) [L]
+    # The phase's own sum: as a difference of running totals, a phase at 1e-9 L/min after
+    # one at 1 L/min would lose its mean dial to cancellation (relative error 1e-8).
+    deliv_ag: np.ndarray  # [L]
+    min_o2: np.ndarray  # [1]
+    t_reach: np.ndarray  # [min]
+    t_at_max: np.ndarray  # [min]
+    t_in: np.ndarray  # [min]
+    t_frac: np.ndarray  # end-tidal agent aimed at [1]
+
+
+class _Segment(NamedTuple):
+    """Coefficients shared by the steps of one segment (steps of length ``dt``)."""
+
+    dt: np.ndarray  # (n,) [min]
+    g_eff: np.ndarray  # (2, k, n)
+    h: np.ndarray  # (2, k, n)
+    a_tis: np.ndarray  # (2, n)
+    a12: np.ndarray
+    a12sq: np.ndarray
+    a22: np.ndarray  # (3, n)
+    dt_inflow: np.ndarray  # (3, n) [L]
+    beta_fgf: np.ndarray  # [L]
+
+
+class _Step(NamedTuple):
+    """One step's new state and the fluxes that moved it."""
+
+    fc: np.ndarray
+    fa: np.ndarray
+    s_o2: np.ndarray  # O2 consumption [L/min]
+    dial: np.ndarray  # [1]
+    t_frac: np.ndarray | None  # end-tidal agent aimed at [1] (None without target phases)
+    deliv_ag: np.ndarray  # agent vapour delivered [L]
+    b: np.ndarray  # return from the tissues (2, n) [L/min]
+    vent: np.ndarray  # valve flow [L/min]
+    up_rate: np.ndarray  # net uptake of N2O and agent (2, n) [L/min]
+
+
+class _PhaseEnd(NamedTuple):
+    """A phase's results at its end, shape ``(n_cases,)`` (see :class:`PhaseResults`)."""
+
+    liquid_ml: np.ndarray
+    mean_dial_pct: np.ndarray
+    agent_uptake_l: np.ndarray
+    agent_vented_l: np.ndarray
+    agent_gross_uptake_l: np.ndarray
+    nitrous_oxide_gross_uptake_l: np.ndarray
+    co2_absorbed_l: np.ndarray
+    min_inspired_o2: np.ndarray
+    end_tidal_agent: np.ndarray
+    inspired_agent: np.ndarray
+    end_tidal_mac: np.ndarray
+    target_fraction: np.ndarray
+    time_to_target_min: np.ndarray
+    time_at_max_below_target_min: np.ndarray
+
+
+def _as_phase_array(value, shape: tuple[int, int], name: str) -> np.ndarray:
     arr = np.asarray(value, dtype=float)
     try:
         return np.broadcast_to(arr.reshape(arr.shape + (1,) * (2 - arr.ndim)) if arr.ndim < 2 else arr, shape).astype(
@@ -245,6 +595,328 @@ def _as_phase_array(value, shape, name):
         )
     except ValueError:
         raise ValueError(f"{name} must broadcast to (n_phases, n_cases) = {shape}, got {arr.shape}") from None
+
+
+def _case_count(phase_values: tuple, case_values: tuple) -> int:
+    """Number of cases: the widest phase input (axis 1) or per-case input (axis 0)."""
+    n_cases = 1
+    for x in phase_values:
+        if x is not None and np.ndim(x) == 2:
+            n_cases = max(n_cases, np.shape(x)[1])
+    for x in case_values:
+        if x is not None and np.ndim(x) == 1:
+            n_cases = max(n_cases, np.shape(x)[0])
+    return n_cases
+
+
+def _phase_inputs(minutes, o2_l_min, air_l_min, n2o_l_min, dial_pct, target_mac, shape) -> _PhaseInputs:
+    """Phase inputs broadcast to ``shape``.
+
+    A phase with neither dial nor target, or a negative duration, is a ValueError.
+    """
+    minutes = _as_phase_array(minutes, shape, "minutes")
+    o2_req = _as_phase_array(o2_l_min, shape, "o2_l_min")
+    air = _as_phase_array(air_l_min, shape, "air_l_min")
+    n2o_req = _as_phase_array(n2o_l_min, shape, "n2o_l_min")
+    dial = _as_phase_array(np.nan if dial_pct is None else dial_pct, shape, "dial_pct") / 100.0
+    target = _as_phase_array(np.nan if target_mac is None else target_mac, shape, "target_mac")
+    target_mode = np.isnan(dial)
+    if np.any(target_mode & np.isnan(target)):
+        raise ValueError("each phase needs a dial setting or an end-tidal target (both NaN found)")
+    if np.any(minutes < 0):
+        raise ValueError("phase durations must not be negative")
+    return _PhaseInputs(minutes, o2_req, air, n2o_req, dial, target, target_mode)
+
+
+def _case_constants(pat: PatientValues, circle_volume_l, agent: Agent, n2o_ref: Agent, n_cases: int) -> _CaseConstants:
+    """The patient's values, the circle volume and the age-adjusted MACs, one per case."""
+
+    def per_case(x):
+        return np.broadcast_to(np.asarray(x, dtype=float), (n_cases,)).astype(float)
+
+    age = per_case(pat.age_years)
+    return _CaseConstants(
+        weight_kg=per_case(pat.weight_kg),
+        cardiac_output_l_min=per_case(pat.cardiac_output_l_min),
+        vo2_l_min=per_case(pat.vo2_l_min),
+        vco2_l_min=per_case(pat.vco2_l_min),
+        minute_ventilation_l_min=per_case(pat.minute_ventilation_l_min),
+        alveolar_ventilation_l_min=per_case(pat.alveolar_ventilation_l_min),
+        frc_l=per_case(pat.frc_l),
+        circle_volume_l=per_case(circle_volume_l),
+        mac_agent=mac_at_age(agent.mac40, age) / 100.0,
+        mac_n2o=mac_at_age(n2o_ref.mac40, age) / 100.0,
+        dial_max=agent.vaporizer_max / 100.0,
+    )
+
+
+def _tissues(uptake_model: str, agent: Agent, n2o_ref: Agent, case: _CaseConstants) -> _Tissues:
+    """Tissue compartments of N2O and the agent (:func:`model.uptake.tissue_compartments`)."""
+    w, q = case.weight_kg, case.cardiac_output_l_min
+    g_n2o, c_n2o = tissue_compartments(uptake_model, "nitrous_oxide", n2o_ref.blood_gas, w, q)
+    g_ag, c_ag = tissue_compartments(uptake_model, agent.name, agent.blood_gas, w, q)
+    return _Tissues(np.stack([g_n2o, g_ag]), np.stack([c_n2o, c_ag]))
+
+
+def _initial_state(flows: _Flows, inputs: _PhaseInputs, tissues: _Tissues, case: _CaseConstants) -> _State:
+    """State at the start: the circle filled with the first phase's fresh gas without agent.
+
+    The lungs hold air, the tissues nothing.
+    """
+    n_cases = len(case.vo2_l_min)
+    fc = np.zeros((3, n_cases))
+    fc[0], fc[1] = flows.fd_o2[0], flows.fd_n2o[0]
+    fa = np.zeros((3, n_cases))
+    fa[0] = AIR_O2_FRACTION
+    return _State(
+        fc=fc,
+        fa=fa,
+        p=np.zeros((2, tissues.conductance.shape[1], n_cases)),
+        u_prev=case.vo2_l_min.copy(),  # the first step's valve flow takes uptake as VO2
+        d_prev=np.where(inputs.target_mode[0], 0.0, np.nan_to_num(inputs.dial[0])),
+        delivered=np.zeros((3, n_cases)),
+        uptake=np.zeros((3, n_cases)),
+        gross=np.zeros((2, n_cases)),
+        vented=np.zeros((3, n_cases)),
+        co2_total=np.zeros(n_cases),
+        min_fio2=fc[0].copy(),
+        min_fio2_t=np.zeros(n_cases),
+        et_mac_min=np.zeros(n_cases),
+        elapsed=np.zeros(n_cases),
+    )
+
+
+def _phase_setting(i: int, inputs: _PhaseInputs, flows: _Flows, case: _CaseConstants) -> _PhaseSetting:
+    """Phase ``i``'s fresh gas, vaporizer setting and CO2 load."""
+    f = flows.fgf_l_min[i]
+    tmode = inputs.target_mode[i]
+    return _PhaseSetting(
+        phase=i,
+        minutes=inputs.minutes[i],
+        fgf_l_min=f,
+        inflow=np.stack([f * flows.fd_o2[i], f * flows.fd_n2o[i], np.zeros_like(f)]),
+        target_mode=tmode,
+        dial=np.nan_to_num(inputs.dial[i]),
+        target=inputs.target[i],
+        any_target=bool(tmode.any()),
+        co2_rate=case.vco2_l_min * rebreathed_share(f, case.minute_ventilation_l_min),
+    )
+
+
+def _phase_tally(state: _State, n_cases: int) -> _PhaseTally:
+    return _PhaseTally(
+        start_uptake=state.uptake[2].copy(),
+        start_vented=state.vented[2].copy(),
+        start_gross=state.gross.copy(),
+        deliv_ag=np.zeros(n_cases),
+        min_o2=np.full(n_cases, np.inf),
+        t_reach=np.full(n_cases, np.nan),
+        t_at_max=np.zeros(n_cases),
+        t_in=np.zeros(n_cases),
+        t_frac=np.full(n_cases, np.nan),
+    )
+
+
+def _segment(dt: np.ndarray, setting: _PhaseSetting, tissues: _Tissues, case: _CaseConstants) -> _Segment:
+    """Coefficients of the backward-Euler step of length ``dt``, tissues eliminated."""
+    G, C = tissues.conductance, tissues.capacity
+    denom = C + G * dt
+    g_eff = G * C / denom  # (2, k, n)
+    h = G * dt / denom
+    a_tis = g_eff.sum(axis=1)  # (2, n)
+    a12 = dt * case.alveolar_ventilation_l_min
+    a22 = case.frc_l + a12 + np.concatenate([np.zeros((1, a_tis.shape[1])), dt * a_tis])  # (3, n)
+    return _Segment(dt, g_eff, h, a_tis, a12, a12 * a12, a22, dt * setting.inflow, dt * setting.fgf_l_min)
+
+
+def _vaporizer(
+    setting: _PhaseSetting, seg: _Segment, fa_new: np.ndarray, det2: np.ndarray, case: _CaseConstants
+) -> tuple[np.ndarray, np.ndarray | None]:
+    """The dial of the step: the given one, or the one that meets the end-tidal target.
+
+    Returns the dial [1] and the end-tidal agent aimed at [1] (None without target phases).
+    """
+    if not setting.any_target:
+        return setting.dial, None
+    beta = seg.a12 * seg.beta_fgf / det2
+    t_frac = np.maximum(setting.target - fa_new[1] / case.mac_n2o, 0.0) * case.mac_agent
+    d_ctrl = np.clip((t_frac - fa_new[2]) / np.maximum(beta, 1e-300), 0.0, case.dial_max)
+    return np.where(setting.target_mode, d_ctrl, setting.dial), t_frac
+
+
+def _advance(state: _State, seg: _Segment, setting: _PhaseSetting, case: _CaseConstants) -> _Step:
+    """One backward-Euler step of circuit and lungs (the state itself is not changed)."""
+    dt, a12, a22 = seg.dt, seg.a12, seg.a22
+    v_c = case.circle_volume_l
+    vent = np.maximum(setting.fgf_l_min * (1.0 + state.d_prev) - state.u_prev, 0.0)
+    a11 = v_c + dt * (vent + case.alveolar_ventilation_l_min)
+    b = np.einsum("skn,skn->sn", seg.g_eff, state.p)  # (2, n)
+    r1 = v_c * state.fc + seg.dt_inflow
+    r2 = case.frc_l * state.fa
+    r2[1:] += dt * b
+    det = a11 * a22 - seg.a12sq
+    fa_new = (a11 * r2 + a12 * r1) / det
+    fc_new = (r1 * a22 + a12 * r2) / det
+    # O2 consumption, limited to what the lungs hold (then the patient is hypoxic).
+    k_o2 = np.maximum(a11 * dt / det[0], 1e-300)
+    s_o2 = np.minimum(case.vo2_l_min, np.maximum(fa_new[0], 0.0) / k_o2)
+    fa_new[0] -= k_o2 * s_o2
+    fc_new[0] -= (a12 * dt / det[0]) * s_o2
+    d, t_frac = _vaporizer(setting, seg, fa_new, det[2], case)
+    deliv_ag = seg.beta_fgf * d
+    fa_new[2] += (a12 / det[2]) * deliv_ag
+    fc_new[2] += (a22[2] / det[2]) * deliv_ag
+    up_rate = seg.a_tis * fa_new[1:] - b  # (2, n) [L/min]
+    return _Step(fc_new, fa_new, s_o2, d, t_frac, deliv_ag, b, vent, up_rate)
+
+
+def _book(state: _State, seg: _Segment, step: _Step) -> None:
+    """Move the state and book the step's amounts, from the same fluxes."""
+    dt = seg.dt
+    state.p += seg.h * (step.fa[1:, None, :] - state.p)
+    state.delivered[:2] += seg.dt_inflow[:2]
+    state.delivered[2] += step.deliv_ag
+    state.uptake[0] += step.s_o2 * dt
+    state.uptake[1:] += step.up_rate * dt
+    state.gross += np.maximum(step.up_rate, 0.0) * dt
+    state.vented += (dt * step.vent) * step.fc
+    state.fc, state.fa = step.fc, step.fa
+    state.u_prev = step.s_o2 + step.up_rate[0] + step.up_rate[1]
+    state.d_prev = step.dial
+
+
+def _track(
+    state: _State, tally: _PhaseTally, seg: _Segment, step: _Step, setting: _PhaseSetting, case: _CaseConstants
+) -> np.ndarray:
+    """Advance the phase's clock and the running minima, MAC-time and target tracking.
+
+    Returns the end-tidal MAC multiple after the step.
+    """
+    dt, fc, fa = seg.dt, state.fc, state.fa
+    if step.t_frac is not None:
+        tally.t_frac = step.t_frac
+    tally.deliv_ag += step.deliv_ag
+    tally.t_in += dt
+    et_mac = fa[2] / case.mac_agent + fa[1] / case.mac_n2o
+    state.et_mac_min += et_mac * dt
+    lower = fc[0] < state.min_fio2
+    state.min_fio2 = np.where(lower, fc[0], state.min_fio2)
+    state.min_fio2_t = np.where(lower, state.elapsed + tally.t_in, state.min_fio2_t)
+    tally.min_o2 = np.minimum(tally.min_o2, fc[0])
+    if setting.any_target:
+        t_frac, tmode = tally.t_frac, setting.target_mode
+        tol = TARGET_TOLERANCE * np.maximum(t_frac, 0.2 * case.mac_agent)
+        hit = tmode & np.isnan(tally.t_reach) & (np.abs(fa[2] - t_frac) <= tol)
+        tally.t_reach = np.where(hit, tally.t_in, tally.t_reach)
+        tally.t_at_max += np.where(
+            tmode & (step.dial >= case.dial_max) & (fa[2] < (1 - TARGET_TOLERANCE) * t_frac), dt, 0.0
+        )
+    return et_mac
+
+
+class _Recorder:
+    """The state after every step, for :class:`StepSeries` (``record=True``)."""
+
+    def __init__(self, total_steps: int, state: _State, vapour_per_ml: float):
+        n_cases = state.fc.shape[1]
+        self.arrays = {key: np.zeros((total_steps + 1, n_cases)) for key in _SERIES_KEYS}
+        self.arrays["inspired_o2"][0] = state.fc[0]
+        self.arrays["end_tidal_o2"][0] = state.fa[0]
+        self.arrays["inspired_n2o"][0] = state.fc[1]
+        self.total_steps = total_steps
+        self.vapour_per_ml = vapour_per_ml
+        self.row = 0
+
+    def record(
+        self, state: _State, tally: _PhaseTally, step: _Step, et_mac: np.ndarray, setting: _PhaseSetting
+    ) -> None:
+        self.row += 1
+        row, s, fc, fa = self.row, self.arrays, state.fc, state.fa
+        s["time_min"][row] = state.elapsed + tally.t_in
+        s["dial_pct"][row] = step.dial * 100.0
+        s["inspired_agent"][row] = fc[2]
+        s["end_tidal_agent"][row] = fa[2]
+        s["inspired_o2"][row] = fc[0]
+        s["end_tidal_o2"][row] = fa[0]
+        s["inspired_n2o"][row] = fc[1]
+        s["end_tidal_n2o"][row] = fa[1]
+        s["agent_uptake_l_min"][row] = step.up_rate[1]
+        s["agent_vented_l_min"][row] = step.vent * fc[2]
+        s["liquid_ml"][row] = state.delivered[2] / self.vapour_per_ml
+        s["co2_absorbed_l"][row] = state.co2_total + setting.co2_rate * tally.t_in
+        s["end_tidal_mac"][row] = et_mac
+        s["phase_index"][row] = setting.phase
+
+    def series(self, absorbent_capacity_l_per_kg: float) -> StepSeries:
+        s = self.arrays
+        s["dial_pct"][0] = s["dial_pct"][1] if self.total_steps else 0.0
+        s["absorbent_g"] = s["co2_absorbed_l"] / absorbent_capacity_l_per_kg * 1000.0
+        return StepSeries(**s)
+
+
+def _phase_end(
+    state: _State, tally: _PhaseTally, setting: _PhaseSetting, case: _CaseConstants, vapour_per_ml: float
+) -> _PhaseEnd:
+    """Book the phase's CO2 and time, and return its results (:class:`_PhaseEnd`)."""
+    minutes = setting.minutes
+    state.co2_total += setting.co2_rate * minutes
+    state.elapsed += minutes
+    f_safe = np.where(setting.fgf_l_min > 0, setting.fgf_l_min, 1.0)
+    active = minutes > 0
+    fa, fc = state.fa, state.fc
+    return _PhaseEnd(
+        liquid_ml=tally.deliv_ag / vapour_per_ml,
+        mean_dial_pct=np.where(active, tally.deliv_ag / (f_safe * np.maximum(minutes, 1e-300)) * 100.0, np.nan),
+        agent_uptake_l=state.uptake[2] - tally.start_uptake,
+        agent_vented_l=state.vented[2] - tally.start_vented,
+        agent_gross_uptake_l=state.gross[1] - tally.start_gross[1],
+        nitrous_oxide_gross_uptake_l=state.gross[0] - tally.start_gross[0],
+        co2_absorbed_l=setting.co2_rate * minutes,
+        min_inspired_o2=tally.min_o2,
+        end_tidal_agent=fa[2].copy(),
+        inspired_agent=fc[2].copy(),
+        end_tidal_mac=fa[2] / case.mac_agent + fa[1] / case.mac_n2o,
+        target_fraction=np.where(setting.target_mode, tally.t_frac, np.nan),
+        time_to_target_min=tally.t_reach,
+        time_at_max_below_target_min=np.where(setting.target_mode, tally.t_at_max, np.nan),
+    )
+
+
+def _run_phase(
+    state: _State,
+    schedule: tuple,
+    setting: _PhaseSetting,
+    tissues: _Tissues,
+    case: _CaseConstants,
+    recorder: _Recorder | None,
+) -> _PhaseTally:
+    """Integrate one phase over its step schedule, in place on ``state``."""
+    tally = _phase_tally(state, state.fc.shape[1])
+    for dt, n_steps in schedule:
+        seg = _segment(dt, setting, tissues, case)
+        for _ in range(n_steps):
+            step = _advance(state, seg, setting, case)
+            _book(state, seg, step)
+            et_mac = _track(state, tally, seg, step, setting, case)
+            if recorder is not None:
+                recorder.record(state, tally, step, et_mac, setting)
+    return tally
+
+
+def _phase_table(ends: list[tuple], shape: tuple[int, int]) -> dict[str, np.ndarray]:
+    """Per-phase results stacked to ``shape``.
+
+    Amounts are 0 where a case skips a phase (or the whole phase is skipped), the rest NaN.
+    """
+    table = {}
+    for j, name in enumerate(_PhaseEnd._fields):
+        fill = 0.0 if f"phase_{name}" in _PHASE_AMOUNTS else np.nan
+        rows = np.full(shape, fill)
+        for i, (active, end) in enumerate(ends):
+            if end is not None:
+                rows[i] = np.where(active, end[j], fill)
+        table[name] = rows
+    return table
 
 
 def simulate_cases(
@@ -261,21 +933,21 @@ def simulate_cases(
     cardiac_output_l_min=None,
     vo2_ml_min=None,
     minute_ventilation_l_min=None,
-    uptake_model=DEFAULT_UPTAKE_MODEL,
+    uptake_model: str = DEFAULT_UPTAKE_MODEL,
     circle_volume_l=CIRCLE_VOLUME_L,
-    absorbent_capacity_l_per_kg=ABSORBENT_CAPACITY_L_PER_KG,
-    temperature_c=20.0,
-    pressure_kpa=101.325,
-    min_o2_share=0.25,
-    min_o2_flow_l_min=0.2,
-    ratio_behaviour="cap_n2o",
-    inspired_o2_floor=0.30,
-    step_min=STEP_MIN,
-    fine_min=FINE_MIN,
-    coarse_step_min=COARSE_STEP_MIN,
-    record=False,
+    absorbent_capacity_l_per_kg: float = ABSORBENT_CAPACITY_L_PER_KG,
+    temperature_c: float = 20.0,
+    pressure_kpa: float = 101.325,
+    min_o2_share: float = 0.25,
+    min_o2_flow_l_min: float = 0.2,
+    ratio_behaviour: str = "cap_n2o",
+    inspired_o2_floor: float = 0.30,
+    step_min: float = STEP_MIN,
+    fine_min: float = FINE_MIN,
+    coarse_step_min: float = COARSE_STEP_MIN,
+    record: bool = False,
     nitrous_oxide: Agent | None = None,
-):
+) -> Simulation:
     """Simulate many cases of one agent through the circle system at once.
 
     This is the vectorised entry point (the year model calls it with thousands of sampled
@@ -323,38 +995,23 @@ def simulate_cases(
 
     Returns
     -------
-    dict
-        Arrays of shape ``(n_cases,)`` (totals), ``(n_phases, n_cases)`` (keys starting
-        ``phase_``), and with ``record`` a dict ``series`` of arrays ``(n_steps + 1, n_cases)``.
-        Volumes of gas and vapour in L at room conditions, liquid in mL, mass in g,
-        fractions in [0, 1], dial in %. Totals:
-
-        ``liquid_ml``; for each species ``s`` in ``oxygen``, ``nitrous_oxide``, ``agent``:
-        ``{s}_delivered_l``, ``{s}_uptake_l`` (O2: consumed), ``{s}_vented_l``,
-        ``{s}_held_start_l``, ``{s}_held_end_l`` (gas in circuit and lungs), with
-        ``delivered = uptake + vented + held_end - held_start`` to rounding error; uptake
-        is the net uptake into the tissues (what they hold at the end, ``{s}_tissue_end_l``);
-        ``agent_gross_uptake_l`` (agent that entered the blood, before any came back out:
-        the base of the metabolised share), ``nitrous_oxide_gross_uptake_l``, ``co2_absorbed_l``, ``absorbent_g``, ``min_inspired_o2``, ``min_inspired_o2_time_min``,
-        ``o2_shortfall_l`` (O2 the patient needed but the circle could not supply),
-        ``end_tidal_mac_hours``, ``vco2_l_min``, ``vo2_l_min``, ``minute_ventilation_l_min``.
-
-        Per phase: ``phase_fgf_l_min``, ``phase_o2_l_min``, ``phase_n2o_l_min`` (delivered),
-        ``phase_altered``, ``phase_fd_o2``, ``phase_fd_n2o``, ``phase_liquid_ml``,
-        ``phase_mean_dial_pct``, ``phase_agent_uptake_l``, ``phase_agent_vented_l``,
-        ``phase_agent_gross_uptake_l``, ``phase_nitrous_oxide_gross_uptake_l``,
-        ``phase_co2_absorbed_l``, ``phase_rebreathed_share``, ``phase_min_inspired_o2``,
-        ``phase_end_tidal_agent``, ``phase_inspired_agent``, ``phase_end_tidal_mac``,
-        ``phase_target_fraction`` (end-tidal agent aimed at, at phase end; NaN in dial mode),
-        ``phase_time_to_target_min`` (NaN if not reached or dial mode),
-        ``phase_time_at_max_below_target_min`` (dial at the vaporizer maximum and end-tidal
-        still under 95 % of target), ``phase_lowest_safe_fd_o2``, ``phase_steady_fio2``.
+    Simulation
+        Totals ``(n_cases,)``, the mass balance of each species, per-phase results
+        ``(n_phases, n_cases)`` and with ``record`` the :class:`StepSeries`
+        ``(n_steps + 1, n_cases)``; a read-only mapping of the flat keys too
+        (``sim["agent_vented_l"]``, ``sim["phase_fd_o2"]``, ``sim["series"]``). Volumes of
+        gas and vapour in L at room conditions, liquid in mL, mass in g, fractions in
+        [0, 1], dial in %. For each species ``delivered = uptake + vented + held_end -
+        held_start`` to rounding error.
 
     Notes
     -----
     Cost: about ``4 n_cases`` float operations x 40 per step; 10,000 two-hour cases take
     well under 2 s (``benchmarks/bench_circle.py``). The circle starts filled with the
-    first phase's fresh gas without agent; the lungs with air; tissues empty.
+    first phase's fresh gas without agent; the lungs with air; tissues empty. The pieces:
+    inputs checked and broadcast (:func:`_phase_inputs`, :func:`_case_constants`), the step
+    schedule (:func:`step_schedule`), the step (:func:`_advance`), its bookkeeping
+    (:func:`_book`, :func:`_track`) and the result (:func:`_simulation`).
 
     References
     ----------
@@ -370,295 +1027,123 @@ def simulate_cases(
     if minutes.ndim == 1:
         minutes = minutes[:, None]
     pat = resolve_patient(weight_kg, age_years, cardiac_output_l_min, vo2_ml_min, minute_ventilation_l_min)
-    n_cases = 1
-    for x in (minutes, o2_l_min, air_l_min, n2o_l_min, dial_pct, target_mac):
-        if x is not None and np.ndim(x) == 2:
-            n_cases = max(n_cases, np.shape(x)[1])
-    for x in (weight_kg, age_years, cardiac_output_l_min, vo2_ml_min, minute_ventilation_l_min, circle_volume_l):
-        if x is not None and np.ndim(x) == 1:
-            n_cases = max(n_cases, np.shape(x)[0])
-    n_phases = minutes.shape[0]
-    shape = (n_phases, n_cases)
-    minutes = _as_phase_array(minutes, shape, "minutes")
-    o2_req = _as_phase_array(o2_l_min, shape, "o2_l_min")
-    air = _as_phase_array(air_l_min, shape, "air_l_min")
-    n2o_req = _as_phase_array(n2o_l_min, shape, "n2o_l_min")
-    dial = _as_phase_array(np.nan if dial_pct is None else dial_pct, shape, "dial_pct") / 100.0
-    target = _as_phase_array(np.nan if target_mac is None else target_mac, shape, "target_mac")
-    target_mode = np.isnan(dial)
-    if np.any(target_mode & np.isnan(target)):
-        raise ValueError("each phase needs a dial setting or an end-tidal target (both NaN found)")
-    if np.any(minutes < 0):
-        raise ValueError("phase durations must not be negative")
-
-    def per_case(x):
-        return np.broadcast_to(np.asarray(x, dtype=float), (n_cases,)).astype(float)
-
-    w, age = per_case(pat.weight_kg), per_case(pat.age_years)
-    q, vo2, vco2 = per_case(pat.cardiac_output_l_min), per_case(pat.vo2_l_min), per_case(pat.vco2_l_min)
-    ve, va, v_l = per_case(pat.minute_ventilation_l_min), per_case(pat.alveolar_ventilation_l_min), per_case(pat.frc_l)
-    v_c = per_case(circle_volume_l)
-    mac_agent = mac_at_age(agent.mac40, age) / 100.0
-    mac_n2o = mac_at_age(n2o_ref.mac40, age) / 100.0
-    d_max = agent.vaporizer_max / 100.0
-
-    o2, n2o, altered = apply_ratio_limit(o2_req, n2o_req, min_o2_share, min_o2_flow_l_min, ratio_behaviour)
-    fgf, fd_o2, fd_n2o = delivered_fractions(o2, air, n2o)
-
-    # Tissue compartments: rows 0 = N2O, 1 = agent; shape (2, k, n).
-    g_n2o, c_n2o = tissue_compartments(uptake_model, "nitrous_oxide", n2o_ref.blood_gas, w, q)
-    g_ag, c_ag = tissue_compartments(uptake_model, agent.name, agent.blood_gas, w, q)
-    G = np.stack([g_n2o, g_ag])
-    C = np.stack([c_n2o, c_ag])
-    k = G.shape[1]
-
-    # State: fractions in circuit and lungs (3, n); tissue partial pressures (2, k, n).
-    fc = np.zeros((3, n_cases))
-    fc[0], fc[1] = fd_o2[0], fd_n2o[0]
-    fa = np.zeros((3, n_cases))
-    fa[0] = AIR_O2_FRACTION
-    p = np.zeros((2, k, n_cases))
-    held_start = v_c * fc + v_l * fa
-
-    delivered = np.zeros((3, n_cases))
-    uptake = np.zeros((3, n_cases))
-    gross = np.zeros((2, n_cases))  # N2O and agent into the blood, before any comes back
-    vented = np.zeros((3, n_cases))
-    co2_total = np.zeros(n_cases)
-    min_fio2 = fc[0].copy()
-    min_fio2_t = np.zeros(n_cases)
-    et_mac_min = np.zeros(n_cases)  # end-tidal MAC x minutes
-
-    ph = {
-        key: np.full(shape, 0.0 if key in _PHASE_AMOUNTS else np.nan)
-        for key in (
-            "phase_liquid_ml",
-            "phase_mean_dial_pct",
-            "phase_agent_uptake_l",
-            "phase_agent_vented_l",
-            "phase_agent_gross_uptake_l",
-            "phase_nitrous_oxide_gross_uptake_l",
-            "phase_co2_absorbed_l",
-            "phase_min_inspired_o2",
-            "phase_end_tidal_agent",
-            "phase_inspired_agent",
-            "phase_end_tidal_mac",
-            "phase_target_fraction",
-            "phase_time_to_target_min",
-            "phase_time_at_max_below_target_min",
-        )
-    }
+    n_cases = _case_count(
+        (minutes, o2_l_min, air_l_min, n2o_l_min, dial_pct, target_mac),
+        (weight_kg, age_years, cardiac_output_l_min, vo2_ml_min, minute_ventilation_l_min, circle_volume_l),
+    )
+    shape = (minutes.shape[0], n_cases)
+    inputs = _phase_inputs(minutes, o2_l_min, air_l_min, n2o_l_min, dial_pct, target_mac, shape)
+    case = _case_constants(pat, circle_volume_l, agent, n2o_ref, n_cases)
+    o2, n2o, altered = apply_ratio_limit(
+        inputs.o2_l_min, inputs.n2o_l_min, min_o2_share, min_o2_flow_l_min, ratio_behaviour
+    )
+    flows = _Flows(o2, n2o, altered, *delivered_fractions(o2, inputs.air_l_min, n2o))
+    tissues = _tissues(uptake_model, agent, n2o_ref, case)
+    state = _initial_state(flows, inputs, tissues, case)
+    held_start = case.circle_volume_l * state.fc + case.frc_l * state.fa
 
     # Step schedule per phase: fine steps over the first ``fine_min`` minutes (wash-in,
     # the fast lung and vessel-rich dynamics), coarse steps after. Cases share the step
     # count; each case scales its own steps to its phase duration.
-    schedule = [step_schedule(minutes[i], step_min, fine_min, coarse_step_min) for i in range(n_phases)]
-    total_steps = sum(n for segs in schedule for _, n in segs)
-    series = None
-    if record:
-        series = {
-            key: np.zeros((total_steps + 1, n_cases))
-            for key in (
-                "time_min",
-                "dial_pct",
-                "inspired_agent",
-                "end_tidal_agent",
-                "inspired_o2",
-                "end_tidal_o2",
-                "inspired_n2o",
-                "end_tidal_n2o",
-                "agent_uptake_l_min",
-                "agent_vented_l_min",
-                "liquid_ml",
-                "co2_absorbed_l",
-                "absorbent_g",
-                "end_tidal_mac",
-                "phase_index",
-            )
-        }
-        series["inspired_o2"][0] = fc[0]
-        series["end_tidal_o2"][0] = fa[0]
-        series["inspired_n2o"][0] = fc[1]
+    schedule = [step_schedule(inputs.minutes[i], step_min, fine_min, coarse_step_min) for i in range(shape[0])]
     vapour_per_ml = vapour_per_ml_liquid(agent, temperature_c, pressure_kpa) / 1000.0  # L vapour / mL liquid
-
-    u_prev = vo2.copy()  # total uptake rate of the previous step [L/min]
-    d_prev = np.where(target_mode[0], 0.0, np.nan_to_num(dial[0]))
-    elapsed = np.zeros(n_cases)
-    zeros = np.zeros(n_cases)
-    row = 0
-    for i in range(n_phases):
-        if not schedule[i]:
+    recorder = None
+    if record:
+        recorder = _Recorder(sum(n for segs in schedule for _, n in segs), state, vapour_per_ml)
+    ends: list[tuple[np.ndarray | None, _PhaseEnd | None]] = []
+    for i, segments in enumerate(schedule):
+        if not segments:
+            ends.append((None, None))
             continue
-        f = fgf[i]
-        inflow = np.stack([f * fd_o2[i], f * fd_n2o[i], zeros])
-        tmode, dial_i, tgt_i = target_mode[i], np.nan_to_num(dial[i]), target[i]
-        any_target = bool(tmode.any())
-        co2_rate = vco2 * rebreathed_share(f, ve)
-        start_up, start_vent = uptake[2].copy(), vented[2].copy()
-        # The phase's own sum: as a difference of running totals, a phase at 1e-9 L/min after
-        # one at 1 L/min would lose its mean dial to cancellation (relative error 1e-8).
-        ph_deliv_ag = np.zeros(n_cases)
-        start_gross = gross.copy()
-        ph_min_o2 = np.full(n_cases, np.inf)
-        t_reach = np.full(n_cases, np.nan)
-        t_at_max = np.zeros(n_cases)
-        t_in = np.zeros(n_cases)
-        t_frac = np.full(n_cases, np.nan)
-        for dt, n_steps in schedule[i]:
-            denom = C + G * dt
-            g_eff = G * C / denom  # (2, k, n)
-            h = G * dt / denom
-            a_tis = g_eff.sum(axis=1)  # (2, n)
-            a12 = dt * va
-            a12sq = a12 * a12
-            a22 = v_l + a12 + np.concatenate([zeros[None], dt * a_tis])  # (3, n)
-            dt_inflow = dt * inflow
-            beta_fgf = dt * f
-            for _ in range(n_steps):
-                vent = np.maximum(f * (1.0 + d_prev) - u_prev, 0.0)
-                a11 = v_c + dt * (vent + va)
-                b = np.einsum("skn,skn->sn", g_eff, p)  # (2, n)
-                r1 = v_c * fc + dt_inflow
-                r2 = v_l * fa
-                r2[1:] += dt * b
-                det = a11 * a22 - a12sq
-                fa_new = (a11 * r2 + a12 * r1) / det
-                fc_new = (r1 * a22 + a12 * r2) / det
-                # O2 consumption, limited to what the lungs hold (then the patient is hypoxic).
-                k_o2 = np.maximum(a11 * dt / det[0], 1e-300)
-                s_o2 = np.minimum(vo2, np.maximum(fa_new[0], 0.0) / k_o2)
-                fa_new[0] -= k_o2 * s_o2
-                fc_new[0] -= (a12 * dt / det[0]) * s_o2
-                # Vaporizer: given dial, or the dial that meets the end-tidal target.
-                if any_target:
-                    beta = a12 * beta_fgf / det[2]
-                    t_frac = np.maximum(tgt_i - fa_new[1] / mac_n2o, 0.0) * mac_agent
-                    d_ctrl = np.clip((t_frac - fa_new[2]) / np.maximum(beta, 1e-300), 0.0, d_max)
-                    d = np.where(tmode, d_ctrl, dial_i)
-                else:
-                    d = dial_i
-                deliv_ag = beta_fgf * d
-                fa_new[2] += (a12 / det[2]) * deliv_ag
-                fc_new[2] += (a22[2] / det[2]) * deliv_ag
-                # Bookkeeping from the same fluxes that moved the state.
-                up_rate = a_tis * fa_new[1:] - b  # (2, n) [L/min]
-                p += h * (fa_new[1:, None, :] - p)
-                delivered[:2] += dt_inflow[:2]
-                delivered[2] += deliv_ag
-                ph_deliv_ag += deliv_ag
-                uptake[0] += s_o2 * dt
-                uptake[1:] += up_rate * dt
-                gross += np.maximum(up_rate, 0.0) * dt
-                vented += (dt * vent) * fc_new
-                fc, fa = fc_new, fa_new
-                u_prev = s_o2 + up_rate[0] + up_rate[1]
-                d_prev = d
-                t_in += dt
-                et_mac = fa[2] / mac_agent + fa[1] / mac_n2o
-                et_mac_min += et_mac * dt
-                lower = fc[0] < min_fio2
-                min_fio2 = np.where(lower, fc[0], min_fio2)
-                min_fio2_t = np.where(lower, elapsed + t_in, min_fio2_t)
-                ph_min_o2 = np.minimum(ph_min_o2, fc[0])
-                if any_target:
-                    tol = TARGET_TOLERANCE * np.maximum(t_frac, 0.2 * mac_agent)
-                    hit = tmode & np.isnan(t_reach) & (np.abs(fa[2] - t_frac) <= tol)
-                    t_reach = np.where(hit, t_in, t_reach)
-                    t_at_max += np.where(tmode & (d >= d_max) & (fa[2] < (1 - TARGET_TOLERANCE) * t_frac), dt, 0.0)
-                row += 1
-                if series is not None:
-                    series["time_min"][row] = elapsed + t_in
-                    series["dial_pct"][row] = d * 100.0
-                    series["inspired_agent"][row] = fc[2]
-                    series["end_tidal_agent"][row] = fa[2]
-                    series["inspired_o2"][row] = fc[0]
-                    series["end_tidal_o2"][row] = fa[0]
-                    series["inspired_n2o"][row] = fc[1]
-                    series["end_tidal_n2o"][row] = fa[1]
-                    series["agent_uptake_l_min"][row] = up_rate[1]
-                    series["agent_vented_l_min"][row] = vent * fc[2]
-                    series["liquid_ml"][row] = delivered[2] / vapour_per_ml
-                    series["co2_absorbed_l"][row] = co2_total + co2_rate * t_in
-                    series["end_tidal_mac"][row] = et_mac
-                    series["phase_index"][row] = i
-        co2_total += co2_rate * minutes[i]
-        elapsed += minutes[i]
-        f_safe = np.where(f > 0, f, 1.0)
-        active = minutes[i] > 0
-        put = {
-            "phase_liquid_ml": ph_deliv_ag / vapour_per_ml,
-            "phase_mean_dial_pct": np.where(
-                active, ph_deliv_ag / (f_safe * np.maximum(minutes[i], 1e-300)) * 100.0, np.nan
-            ),
-            "phase_agent_uptake_l": uptake[2] - start_up,
-            "phase_agent_vented_l": vented[2] - start_vent,
-            "phase_agent_gross_uptake_l": gross[1] - start_gross[1],
-            "phase_nitrous_oxide_gross_uptake_l": gross[0] - start_gross[0],
-            "phase_co2_absorbed_l": co2_rate * minutes[i],
-            "phase_min_inspired_o2": ph_min_o2,
-            "phase_end_tidal_agent": fa[2].copy(),
-            "phase_inspired_agent": fc[2].copy(),
-            "phase_end_tidal_mac": fa[2] / mac_agent + fa[1] / mac_n2o,
-            "phase_target_fraction": np.where(tmode, t_frac, np.nan),
-            "phase_time_to_target_min": t_reach,
-            "phase_time_at_max_below_target_min": np.where(tmode, t_at_max, np.nan),
-        }
-        for key, value in put.items():
-            ph[key][i] = np.where(active, value, np.nan)
-        for key in _PHASE_AMOUNTS:
-            ph[key][i] = np.where(active, put[key], 0.0)
-
-    held_end = v_c * fc + v_l * fa
-    tissue_end = np.zeros((3, n_cases))
-    tissue_end[1:] = (C * p).sum(axis=1)
-    out = {
-        "liquid_ml": delivered[2] / vapour_per_ml,
-        "co2_absorbed_l": co2_total,
-        "agent_gross_uptake_l": gross[1],
-        "nitrous_oxide_gross_uptake_l": gross[0],
-        "absorbent_g": co2_total / absorbent_capacity_l_per_kg * 1000.0,
-        "min_inspired_o2": min_fio2,
-        "min_inspired_o2_time_min": min_fio2_t,
-        "o2_shortfall_l": np.maximum(vo2 * elapsed - uptake[0], 0.0),
-        "end_tidal_mac_hours": et_mac_min / 60.0,
-        "vo2_l_min": vo2,
-        "vco2_l_min": vco2,
-        "minute_ventilation_l_min": ve,
-        "cardiac_output_l_min": q,
-        "mac_agent_pct": mac_agent * 100.0,
-        "mac_n2o_pct": mac_n2o * 100.0,
-    }
-    for j, s in enumerate(SPECIES):
-        out[f"{s}_delivered_l"] = delivered[j]
-        out[f"{s}_uptake_l"] = uptake[j]
-        out[f"{s}_vented_l"] = vented[j]
-        out[f"{s}_held_start_l"] = held_start[j]
-        out[f"{s}_held_end_l"] = held_end[j]
-        out[f"{s}_tissue_end_l"] = tissue_end[j]
-    out.update(ph)
-    out.update(
-        {
-            "phase_fgf_l_min": fgf,
-            "phase_o2_l_min": o2,
-            "phase_n2o_l_min": n2o,
-            "phase_air_l_min": air,
-            "phase_altered": altered,
-            "phase_fd_o2": fd_o2,
-            "phase_fd_n2o": fd_n2o,
-            "phase_rebreathed_share": rebreathed_share(fgf, ve[None, :]),
-            "phase_lowest_safe_fd_o2": lowest_safe_fd_o2(fgf, vo2[None, :], inspired_o2_floor),
-            "phase_steady_fio2": steady_state_fio2(fgf, fd_o2, vo2[None, :]),
-            "phase_target_mode": target_mode,
-            "phase_minutes": minutes,
-            "phase_dial_pct": dial * 100.0,
-            "phase_target_mac": target,
-            "absorbent_capacity_l_per_kg": np.full(n_cases, float(absorbent_capacity_l_per_kg)),
-            "circle_volume_l": v_c,
-            "frc_l": v_l,
-        }
+        setting = _phase_setting(i, inputs, flows, case)
+        tally = _run_phase(state, segments, setting, tissues, case, recorder)
+        ends.append((setting.minutes > 0, _phase_end(state, tally, setting, case, vapour_per_ml)))
+    return _simulation(
+        state,
+        held_start,
+        tissues,
+        case,
+        inputs,
+        flows,
+        _phase_table(ends, shape),
+        vapour_per_ml=vapour_per_ml,
+        absorbent_capacity_l_per_kg=absorbent_capacity_l_per_kg,
+        inspired_o2_floor=inspired_o2_floor,
+        series=None if recorder is None else recorder.series(absorbent_capacity_l_per_kg),
     )
-    if series is not None:
-        series["dial_pct"][0] = series["dial_pct"][1] if total_steps else 0.0
-        series["absorbent_g"] = series["co2_absorbed_l"] / absorbent_capacity_l_per_kg * 1000.0
-        out["series"] = series
-    return out
+
+
+def _simulation(
+    state: _State,
+    held_start: np.ndarray,
+    tissues: _Tissues,
+    case: _CaseConstants,
+    inputs: _PhaseInputs,
+    flows: _Flows,
+    table: dict[str, np.ndarray],
+    *,
+    vapour_per_ml: float,
+    absorbent_capacity_l_per_kg: float,
+    inspired_o2_floor: float,
+    series: StepSeries | None,
+) -> Simulation:
+    """The result of the integration: totals, balances, per-phase results."""
+    n_cases = state.fc.shape[1]
+    v_c, v_l, vo2, ve = case.circle_volume_l, case.frc_l, case.vo2_l_min, case.minute_ventilation_l_min
+    held_end = v_c * state.fc + v_l * state.fa
+    tissue_end = np.zeros((3, n_cases))
+    tissue_end[1:] = (tissues.capacity * state.p).sum(axis=1)
+    balances = [
+        SpeciesBalance(
+            delivered_l=state.delivered[j],
+            uptake_l=state.uptake[j],
+            vented_l=state.vented[j],
+            held_start_l=held_start[j],
+            held_end_l=held_end[j],
+            tissue_end_l=tissue_end[j],
+        )
+        for j in range(len(SPECIES))
+    ]
+    fgf = flows.fgf_l_min
+    phases = PhaseResults(
+        **table,
+        fgf_l_min=fgf,
+        o2_l_min=flows.o2_l_min,
+        n2o_l_min=flows.n2o_l_min,
+        air_l_min=inputs.air_l_min,
+        altered=flows.altered,
+        fd_o2=flows.fd_o2,
+        fd_n2o=flows.fd_n2o,
+        rebreathed_share=rebreathed_share(fgf, ve[None, :]),
+        lowest_safe_fd_o2=lowest_safe_fd_o2(fgf, vo2[None, :], inspired_o2_floor),
+        steady_fio2=steady_state_fio2(fgf, flows.fd_o2, vo2[None, :]),
+        target_mode=inputs.target_mode,
+        minutes=inputs.minutes,
+        dial_pct=inputs.dial * 100.0,
+        target_mac=inputs.target,
+    )
+    return Simulation(
+        liquid_ml=state.delivered[2] / vapour_per_ml,
+        co2_absorbed_l=state.co2_total,
+        agent_gross_uptake_l=state.gross[1],
+        nitrous_oxide_gross_uptake_l=state.gross[0],
+        absorbent_g=state.co2_total / absorbent_capacity_l_per_kg * 1000.0,
+        min_inspired_o2=state.min_fio2,
+        min_inspired_o2_time_min=state.min_fio2_t,
+        o2_shortfall_l=np.maximum(vo2 * state.elapsed - state.uptake[0], 0.0),
+        end_tidal_mac_hours=state.et_mac_min / 60.0,
+        vo2_l_min=vo2,
+        vco2_l_min=case.vco2_l_min,
+        minute_ventilation_l_min=ve,
+        cardiac_output_l_min=case.cardiac_output_l_min,
+        mac_agent_pct=case.mac_agent * 100.0,
+        mac_n2o_pct=case.mac_n2o * 100.0,
+        absorbent_capacity_l_per_kg=np.full(n_cases, float(absorbent_capacity_l_per_kg)),
+        circle_volume_l=v_c,
+        frc_l=v_l,
+        oxygen=balances[0],
+        nitrous_oxide=balances[1],
+        agent=balances[2],
+        phases=phases,
+        series=series,
+    )

@@ -9,6 +9,7 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 from types import MappingProxyType
+from typing import Any
 
 from model.base.errors import InputError
 from model.base.files import parse_toml, read_user_text
@@ -340,6 +341,7 @@ class Prices:
     basis: str = INVENTED
 
     def gas_per_1000_l(self, gas: str) -> float:
+        """Price of ``gas`` ("oxygen", "air", "nitrous_oxide"), in currency per 1000 L."""
         return {
             "oxygen": self.oxygen_per_1000_l,
             "air": self.air_per_1000_l,
@@ -360,6 +362,30 @@ ABSORBENT_FIELDS: Mapping[str, tuple[str, str, float, float]] = MappingProxyType
         "capacity_l_per_kg": ("L/kg", "CO2 taken up per kg of absorbent", 10.0, 400.0),
     }
 )
+
+
+def _agent_override(old: Sourced | None, fname: str, raw, where: str, origin: str) -> Sourced:
+    """A user value of agent field ``fname``, checked against its range, its default beside it."""
+    if fname not in AGENT_FIELDS:
+        raise InputError(where, fname, "allowed fields are " + ", ".join(AGENT_FIELDS))
+    number = _finite(raw, where)
+    low, high, closed = _AGENT_FIELD_RANGES[fname]
+    if not (low <= number <= high if closed else low < number <= high):
+        unit = AGENT_FIELDS[fname][0].replace("1", "").strip()
+        raise InputError(where, raw, f"allowed range is {'[' if closed else '('}{low:g}, {high:g}] {unit}".rstrip())
+    old = old or Sourced(None, AGENT_FIELDS[fname][0], "no default")
+    return Sourced(number, old.unit, f"user override ({origin})", USER, old.default or old)
+
+
+def _gwp_override(old: Sourced | None, raw, where: str, origin: str) -> Sourced:
+    """A user GWP value (0 to ``MAX_GWP``, kg CO2e/kg), its default beside it."""
+    number = _finite(raw, where)
+    if number < 0:
+        raise InputError(where, raw, "must not be negative")
+    if number > MAX_GWP:
+        raise InputError(where, raw, f"a GWP is at most {MAX_GWP:g}")
+    old = old or Sourced(None, "kg CO2e/kg", "no default")
+    return Sourced(number, "kg CO2e/kg", f"user override ({origin})", USER, old.default or old)
 
 
 @dataclass(frozen=True)
@@ -383,13 +409,14 @@ class Reference:
         return self.agents[key]
 
     def volatile(self, name: str, field_name: str = "agent") -> Agent:
+        """Look up a volatile agent by name; N2O or an unknown name is an InputError on ``field_name``."""
         agent = self.agent(name, field_name)
         if agent.kind != "volatile":
             raise InputError(field_name, name, "allowed volatile agents are " + ", ".join(VOLATILES))
         return agent
 
     def gwp(self, agent: str, source: str = DEFAULT_GWP, used: bool = True) -> float:
-        """GWP of ``agent`` under ``source``. [kg CO2e/kg]
+        """GWP of ``agent`` under ``source``, in kg CO2e/kg.
 
         With ``used`` False (nothing of the agent is emitted, e.g. a plan without N2O), a
         source that has no value for it gives 0 instead of an error.
@@ -409,6 +436,7 @@ class Reference:
         return value.value
 
     def gwp_source(self, source: str) -> GwpSource:
+        """Look up a GWP source by key; an unknown key is an InputError naming the keys."""
         if source not in self.gwp_sources:
             raise InputError("gwp_source", source, "allowed sources are " + ", ".join(self.gwp_sources))
         return self.gwp_sources[source]
@@ -425,65 +453,71 @@ class Reference:
         for key in overrides:
             if key not in allowed_top:
                 raise InputError(f"{origin}: [{key}]", key, "allowed tables are " + ", ".join(allowed_top))
+        return Reference(
+            MappingProxyType(self._agents_with(overrides.get("agents", {}), origin)),
+            MappingProxyType(self._gwp_sources_with(overrides.get("gwp", {}), origin)),
+            self._prices_with(overrides.get("prices", {}), origin),
+            self.override_origins + (origin,),
+            MappingProxyType(self._absorbent_with(overrides.get("absorbent", {}), origin)),
+        )
+
+    def _agents_with(self, table, origin: str) -> dict[str, Agent]:
+        """The agents with the ``[agents]`` table's values (each checked against its range)."""
         agents = dict(self.agents)
-        for name, fields in _table(overrides.get("agents", {}), f"{origin}: [agents]").items():
+        for name, fields in _table(table, f"{origin}: [agents]").items():
             agent = self.agent(name, f"{origin}: [agents.{name}]")
             values = dict(agent.values)
             for fname, raw in _table(fields, f"{origin}: [agents.{name}]").items():
-                where = f"{origin}: agents.{name}.{fname}"
-                if fname not in AGENT_FIELDS:
-                    raise InputError(where, fname, "allowed fields are " + ", ".join(AGENT_FIELDS))
-                number = _finite(raw, where)
-                low, high, closed = _AGENT_FIELD_RANGES[fname]
-                if not (low <= number <= high if closed else low < number <= high):
-                    unit = AGENT_FIELDS[fname][0].replace("1", "").strip()
-                    raise InputError(
-                        where, raw, f"allowed range is {'[' if closed else '('}{low:g}, {high:g}] {unit}".rstrip()
-                    )
-                old = values.get(fname) or Sourced(None, AGENT_FIELDS[fname][0], "no default")
-                values[fname] = Sourced(number, old.unit, f"user override ({origin})", USER, old.default or old)
+                values[fname] = _agent_override(
+                    values.get(fname), fname, raw, f"{origin}: agents.{name}.{fname}", origin
+                )
             agents[agent.name] = replace(agent, values=MappingProxyType(values))
+        return agents
+
+    def _gwp_sources_with(self, table, origin: str) -> dict[str, GwpSource]:
+        """The GWP sources with the ``[gwp.<source>]`` tables' values."""
         sources = dict(self.gwp_sources)
-        for skey, table in _table(overrides.get("gwp", {}), f"{origin}: [gwp]").items():
+        for skey, values_table in _table(table, f"{origin}: [gwp]").items():
             src = self.gwp_source(skey)
             values = dict(src.values)
-            for aname, raw in _table(table, f"{origin}: [gwp.{skey}]").items():
+            for aname, raw in _table(values_table, f"{origin}: [gwp.{skey}]").items():
                 where = f"{origin}: gwp.{skey}.{aname}"
                 agent = self.agent(aname, where)
-                number = _finite(raw, where)
-                if number < 0:
-                    raise InputError(where, raw, "must not be negative")
-                if number > MAX_GWP:
-                    raise InputError(where, raw, f"a GWP is at most {MAX_GWP:g}")
-                old = values.get(agent.name) or Sourced(None, "kg CO2e/kg", "no default")
-                values[agent.name] = Sourced(
-                    number, "kg CO2e/kg", f"user override ({origin})", USER, old.default or old
-                )
+                values[agent.name] = _gwp_override(values.get(agent.name), raw, where, origin)
             sources[skey] = replace(src, values=MappingProxyType(values))
-        prices = self.prices
-        ptable = _table(overrides.get("prices", {}), f"{origin}: [prices]")
-        if ptable:
-            changes = {"basis": f"user prices ({origin})"}
-            for key, raw in ptable.items():
-                where = f"{origin}: prices.{key}"
-                if key == "currency":
-                    if not isinstance(raw, str) or not 0 < len(raw.strip()) <= 12:
-                        raise InputError(where, raw, "expected a short currency label such as 'GBP'")
-                    changes["currency"] = raw.strip()
-                elif key == "bottle":
-                    bottle = dict(prices.bottle)
-                    for aname, braw in _table(raw, where).items():
-                        agent = self.volatile(aname, f"{where}.{aname}")
-                        bottle[agent.name] = _price(braw, f"{where}.{aname}")
-                    changes["bottle"] = MappingProxyType(bottle)
-                elif key in {f.name for f in dataclasses.fields(Prices)} - {"currency", "bottle", "basis"}:
-                    changes[key] = _price(raw, where)
-                else:
-                    allowed = [f.name for f in dataclasses.fields(Prices) if f.name != "basis"]
-                    raise InputError(where, key, "allowed price fields are " + ", ".join(allowed))
-            prices = replace(prices, **changes)
+        return sources
+
+    def _prices_with(self, table, origin: str) -> Prices:
+        """The prices with the ``[prices]`` table's values (the same prices without one)."""
+        ptable = _table(table, f"{origin}: [prices]")
+        if not ptable:
+            return self.prices
+        changes: dict[str, Any] = {"basis": f"user prices ({origin})"}
+        for key, raw in ptable.items():
+            changes[key] = self._price_change(key, raw, f"{origin}: prices.{key}")
+        return replace(self.prices, **changes)
+
+    def _price_change(self, key: str, raw, where: str):
+        """One field of ``[prices]``: the currency label, the bottle table, or a price."""
+        if key == "currency":
+            if not isinstance(raw, str) or not 0 < len(raw.strip()) <= 12:
+                raise InputError(where, raw, "expected a short currency label such as 'GBP'")
+            return raw.strip()
+        if key == "bottle":
+            bottle = dict(self.prices.bottle)
+            for aname, braw in _table(raw, where).items():
+                agent = self.volatile(aname, f"{where}.{aname}")
+                bottle[agent.name] = _price(braw, f"{where}.{aname}")
+            return MappingProxyType(bottle)
+        if key in {f.name for f in dataclasses.fields(Prices)} - {"currency", "bottle", "basis"}:
+            return _price(raw, where)
+        allowed = [f.name for f in dataclasses.fields(Prices) if f.name != "basis"]
+        raise InputError(where, key, "allowed price fields are " + ", ".join(allowed))
+
+    def _absorbent_with(self, table, origin: str) -> dict[str, Sourced]:
+        """The record audit's absorbent values with the ``[absorbent]`` table's (``ABSORBENT_FIELDS``)."""
         absorbent = dict(self.absorbent)
-        for fname, raw in _table(overrides.get("absorbent", {}), f"{origin}: [absorbent]").items():
+        for fname, raw in _table(table, f"{origin}: [absorbent]").items():
             where = f"{origin}: absorbent.{fname}"
             if fname not in ABSORBENT_FIELDS:
                 raise InputError(where, fname, "allowed fields are " + ", ".join(ABSORBENT_FIELDS))
@@ -492,13 +526,7 @@ class Reference:
             if not low <= number <= high:
                 raise InputError(where, raw, f"allowed range is [{low:g}, {high:g}] {unit}")
             absorbent[fname] = Sourced(number, unit, f"user override ({origin})", USER)
-        return Reference(
-            MappingProxyType(agents),
-            MappingProxyType(sources),
-            prices,
-            self.override_origins + (origin,),
-            MappingProxyType(absorbent),
-        )
+        return absorbent
 
     def table(self):
         """The reference table as rows of dicts: item, field, value, unit, source, basis, default.

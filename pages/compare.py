@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from dataclasses import replace
+from typing import NamedTuple
 
 import pandas as pd
 import streamlit as st
@@ -11,6 +12,7 @@ import ui
 import ui.cautions
 import ui.provenance
 from model import InputError
+from model.case import CaseResult
 from model.cautions import Caution, is_unsafe, severity_of
 from model.io.plans import plan_to_toml
 from model.present import case_charts as charts
@@ -62,11 +64,48 @@ def _delta_text(new: float, old: float, unit: str, digits: int = 1) -> str | Non
 tab_plans, tab_year = st.tabs(["Case plans", "Year scenarios"])
 
 
+class _Charts(NamedTuple):
+    """The charts' tables, one column per plan, and the figures built from them."""
+
+    cost: pd.DataFrame
+    co2e: pd.DataFrame
+    use: pd.DataFrame
+    figures: list
+
+
 def _compare_plans() -> None:
+    results = _computed_plans()
+    if results is None or len(results) < 2:
+        return
+    scale = ui.common.CO2E_UNITS[view.co2e_unit]
+    unsafe = [name for name, res in results.items() if is_unsafe(res.warnings)]
+    _show_against_baseline(results, scale, unsafe)
+    table = _side_by_side(results, scale, unsafe)
+    st.subheader("Side by side")
+    # Figures to four significant figures: a case's emissions in t CO2e are small numbers.
+    fmt.table(
+        table,
+        view.currency,
+        config={c: st.column_config.NumberColumn(format="%.4g") for c in table.columns[2:] if c != "safety"},
+    )
+    charts_ = _charts(results, scale)
+    st.subheader("Charts")
+    g1, g2 = st.columns(2)
+    g1.plotly_chart(charts_.figures[0][1], width="stretch", key="cmp_fig_cost")
+    g2.plotly_chart(charts_.figures[1][1], width="stretch", key="cmp_fig_co2e")
+    st.plotly_chart(charts_.figures[2][1], width="stretch", key="cmp_fig_use")
+
+    warnings = [Caution(f"{name}: {w}", severity_of(w)) for name, res in results.items() for w in res.warnings]
+    ui.cautions.show_other_warnings(warnings)
+    _offer_downloads(results, table, charts_, warnings, unsafe)
+
+
+def _computed_plans() -> dict[str, CaseResult] | None:
+    """The plans chosen to compare, computed (in the order chosen); None before two are chosen."""
     names = store.names("plan")
     if len(names) < 2:
         st.info("Save at least two plans on the Case plan page to compare them.")
-        return
+        return None
     # Each plan's latest version by its name, and its earlier versions (the last few) by
     # name and number, so a plan can be set against what it was before a change.
     versions: dict[str, tuple[str, int | None]] = {name: (name, None) for name in names}
@@ -84,7 +123,7 @@ def _compare_plans() -> None:
     )
     if len(chosen) < 2:
         st.warning("Choose two or more plans.")
-        return
+        return None
     results = {}
     with st.spinner("Computing the plans..."):
         for label in chosen:
@@ -94,15 +133,15 @@ def _compare_plans() -> None:
                 results[label] = ui.compute_cached(plan_to_toml(plan), ref_key, ref)
             except InputError as err:
                 ui.show_input_error(err, f"'{label}'")
-    if len(results) < 2:
-        return
+    return results
+
+
+def _show_against_baseline(results: dict[str, CaseResult], scale: float, unsafe: list[str]) -> None:
+    """The unsafe banner, then a card for each plan with its differences from the baseline."""
     base_name, base = next(iter(results.items()))
     bt = base.totals
-    scale = ui.common.CO2E_UNITS[view.co2e_unit]
-
     st.subheader("Against the baseline")
     ui.provenance.show(view, ref)
-    unsafe = [name for name, res in results.items() if is_unsafe(res.warnings)]
     if unsafe:
         ui.cautions.unsafe_banner(
             [Caution(f"{name}: {w}", severity_of(w)) for name, res in results.items() for w in res.warnings],
@@ -113,42 +152,51 @@ def _compare_plans() -> None:
         f"{bt['duration_min']:.0f} min). Green is less used, emitted or spent."
     )
     for name, res in list(results.items())[1:]:
-        t = res.totals
         with st.container(border=True):
-            flag = f" — :red[**{ui.cautions.UNSAFE}**]" if is_unsafe(res.warnings) else ""
-            st.markdown(f"**{ui.md(name)}** — {ref.agents[res.plan.agent].label}, {t['duration_min']:.0f} min{flag}")
-            c = st.columns(5)
-            c[0].metric(
-                "Liquid agent",
-                f"{t['liquid_agent_ml']:.1f} mL",
-                _delta_text(t["liquid_agent_ml"], bt["liquid_agent_ml"], "mL"),
-                delta_color="inverse",
-            )
-            c[1].metric(
-                f"Emissions ({view.co2e_unit})",
-                view.co2e_number(t["co2e_total_kg"]),
-                _delta_text(t["co2e_total_kg"] * scale, bt["co2e_total_kg"] * scale, "", 2),
-                delta_color="inverse",
-            )
-            c[2].metric(
-                f"Cost ({res.currency})",
-                f"{t['cost_total']:,.2f}",
-                _delta_text(t["cost_total"], bt["cost_total"], "", 2),
-                delta_color="inverse",
-            )
-            c[3].metric(
-                "Bottles", f"{t['bottles']:.2f}", _delta_text(t["bottles"], bt["bottles"], "", 2), delta_color="inverse"
-            )
-            # End-tidal: lowering the flow changes the depth reached, not the dial (which it raises).
-            c[4].metric(
-                "End-tidal MAC-h",
-                f"{t['end_tidal_mac_hours']:.2f}",
-                _delta_text(t["end_tidal_mac_hours"], bt["end_tidal_mac_hours"], "", 2),
-                delta_color="off",
-                help="End-tidal MAC multiple over time, the depth reached",
-            )
-            c[4].caption(f"Dial-based: {t['mac_hours']:.2f} MAC-h")
+            _plan_card(name, res, bt, scale)
 
+
+def _plan_card(name: str, res: CaseResult, bt: dict, scale: float) -> None:
+    """One plan's figures, each with its difference from the baseline totals ``bt``."""
+    t = res.totals
+    flag = f" — :red[**{ui.cautions.UNSAFE}**]" if is_unsafe(res.warnings) else ""
+    st.markdown(f"**{ui.md(name)}** — {ref.agents[res.plan.agent].label}, {t['duration_min']:.0f} min{flag}")
+    c = st.columns(5)
+    c[0].metric(
+        "Liquid agent",
+        f"{t['liquid_agent_ml']:.1f} mL",
+        _delta_text(t["liquid_agent_ml"], bt["liquid_agent_ml"], "mL"),
+        delta_color="inverse",
+    )
+    c[1].metric(
+        f"Emissions ({view.co2e_unit})",
+        view.co2e_number(t["co2e_total_kg"]),
+        _delta_text(t["co2e_total_kg"] * scale, bt["co2e_total_kg"] * scale, "", 2),
+        delta_color="inverse",
+    )
+    c[2].metric(
+        f"Cost ({res.currency})",
+        f"{t['cost_total']:,.2f}",
+        _delta_text(t["cost_total"], bt["cost_total"], "", 2),
+        delta_color="inverse",
+    )
+    c[3].metric(
+        "Bottles", f"{t['bottles']:.2f}", _delta_text(t["bottles"], bt["bottles"], "", 2), delta_color="inverse"
+    )
+    # End-tidal: lowering the flow changes the depth reached, not the dial (which it raises).
+    c[4].metric(
+        "End-tidal MAC-h",
+        f"{t['end_tidal_mac_hours']:.2f}",
+        _delta_text(t["end_tidal_mac_hours"], bt["end_tidal_mac_hours"], "", 2),
+        delta_color="off",
+        help="End-tidal MAC multiple over time, the depth reached",
+    )
+    c[4].caption(f"Dial-based: {t['mac_hours']:.2f} MAC-h")
+
+
+def _side_by_side(results: dict[str, CaseResult], scale: float, unsafe: list[str]) -> pd.DataFrame:
+    """The figures of every plan, and each plan's difference from the baseline (units and %)."""
+    bt = next(iter(results.values())).totals
     rows = []
     for label, key, unit in FIGURES:
         # Emissions in the unit chosen in the sidebar, like the cards above.
@@ -163,14 +211,12 @@ def _compare_plans() -> None:
     table = pd.DataFrame(rows)
     if unsafe:
         table["safety"] = f"{ui.cautions.UNSAFE}: " + ", ".join(unsafe)
-    st.subheader("Side by side")
-    # Figures to four significant figures: a case's emissions in t CO2e are small numbers.
-    fmt.table(
-        table,
-        view.currency,
-        config={c: st.column_config.NumberColumn(format="%.4g") for c in table.columns[2:] if c != "safety"},
-    )
+    return table
 
+
+def _charts(results: dict[str, CaseResult], scale: float) -> _Charts:
+    """Cost by item, emissions by source and what each plan uses, one bar per plan."""
+    base = next(iter(results.values()))
     cost_df = pd.DataFrame({"item": base.cost_by_item()["item"]})
     co2e_df = pd.DataFrame({"source": ["Volatile agent", "Nitrous oxide"]})
     use_df = pd.DataFrame(
@@ -203,17 +249,16 @@ def _compare_plans() -> None:
         ),
         ("What each plan uses", charts.grouped_bars(use_df, "item", list(results), "What each plan uses")),
     ]
-    st.subheader("Charts")
-    g1, g2 = st.columns(2)
-    g1.plotly_chart(figs[0][1], width="stretch", key="cmp_fig_cost")
-    g2.plotly_chart(figs[1][1], width="stretch", key="cmp_fig_co2e")
-    st.plotly_chart(figs[2][1], width="stretch", key="cmp_fig_use")
+    return _Charts(cost_df, co2e_df, use_df, figs)
 
-    warnings = [Caution(f"{name}: {w}", severity_of(w)) for name, res in results.items() for w in res.warnings]
-    ui.cautions.show_other_warnings(warnings)
 
+def _offer_downloads(
+    results: dict[str, CaseResult], table: pd.DataFrame, charts_: _Charts, warnings: list, unsafe: list[str]
+) -> None:
+    """The comparison's tables and its report, to download."""
+    base_name, base = next(iter(results.items()))
     sources = pd.DataFrame(ref.table())
-    tables = {"Comparison": table, "Cost by item": cost_df, "Emissions by source": co2e_df}
+    tables = {"Comparison": table, "Cost by item": charts_.cost, "Emissions by source": charts_.co2e}
     for name, res in results.items():
         tables[f"Phases {name}"] = res.phases.assign(plan=name)
     tables["Warnings"] = ui.cautions.warnings_table(warnings)
@@ -232,7 +277,7 @@ def _compare_plans() -> None:
             ("UNSAFE PRACTICE. " if unsafe else "") + "Plan comparison",
             inputs=inputs,
             tables={"Side by side": table},
-            figures=figs,
+            figures=charts_.figures,
             warnings=ui.cautions.report_lines(warnings),
             cautions=[ui.CAUTION],
             sources=sources,

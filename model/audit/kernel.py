@@ -41,7 +41,7 @@ def _kernel(name: str = "scan"):
         except ImportError:
             return None
 
-        _compiled[name] = njit(cache=True, nogil=True)({"scan": _scan, "checks": _checks}[name])
+        _compiled[name] = njit(cache=True, nogil=True)({"scan": _scan, "groups": _group_count, "checks": _checks}[name])
     return _compiled[name]
 
 
@@ -189,39 +189,32 @@ def rows_pass(
     )
 
 
-def _scan(code, agent, t, o2, air, n2o, dial, et, n_agents, none_code, gap_limit, high_flow, ve, edges):
-    """The loop behind :func:`case_sums` (plain Python; numba compiles it)."""
+def _group_count(code, agent, t, n_agents):
+    """The groups (case x agent) of samples in the order :func:`_scan` needs; -1 when out of it.
+
+    The order: cases in rising code, within a case agents in rising code and times rising
+    strictly (plain Python; numba compiles it).
+    """
     n = len(code)
-    # First pass: the order this loop needs, and the number of groups (case x agent).
     groups = 0
     for i in range(n):
         if i == 0:
             groups = 1
             continue
         if code[i] < code[i - 1]:
-            return (
-                -1,
-                np.zeros(0, np.int64),
-                np.zeros(0, np.int64),
-                np.zeros(0, np.int64),
-                np.zeros((0, 0)),
-                np.zeros((0, 0)),
-                np.zeros(0, np.bool_),
-            )
+            return -1
         key0 = code[i - 1] * n_agents + agent[i - 1]
         key1 = code[i] * n_agents + agent[i]
         if key1 < key0 or (code[i] == code[i - 1] and not t[i] > t[i - 1]):
-            return (
-                -1,
-                np.zeros(0, np.int64),
-                np.zeros(0, np.int64),
-                np.zeros(0, np.int64),
-                np.zeros((0, 0)),
-                np.zeros((0, 0)),
-                np.zeros(0, np.bool_),
-            )
+            return -1
         if key1 != key0:
             groups += 1
+    return groups
+
+
+def _scan(code, agent, t, o2, air, n2o, dial, et, n_agents, none_code, gap_limit, high_flow, ve, edges, groups):
+    """The loop behind :func:`case_sums` over ``groups`` groups in order (plain Python; numba compiles it)."""
+    n = len(code)
     nb = len(edges) + 1
     first = np.empty(groups, np.int64)
     samples = np.zeros(groups, np.int64)
@@ -308,7 +301,7 @@ def _scan(code, agent, t, o2, air, n2o, dial, et, n_agents, none_code, gap_limit
         sums[g, 0], sums[g, 1], sums[g, 2], sums[g, 3], sums[g, 4] = s_dt, s_gap, s_et, s_o2, s_air
         sums[g, 5], sums[g, 6], sums[g, 7], sums[g, 8] = s_n2o, s_vap, s_reb, longest
         band_min[g, :] = bands
-    return groups, first, samples, gaps, sums, band_min, gap
+    return first, samples, gaps, sums, band_min, gap
 
 
 def case_sums(
@@ -377,7 +370,10 @@ def case_sums(
     arrays = [np.ascontiguousarray(a, dtype=np.int64) for a in (code, agent)] + [
         np.ascontiguousarray(a, dtype=np.float64) for a in (t_min, o2, air, n2o, dial, end_tidal)
     ]
-    groups, first, samples, gaps, sums, band_min, gap = _kernel("scan")(
+    groups = _kernel("groups")(arrays[0], arrays[1], arrays[2], np.int64(n_agents))
+    if groups < 0:
+        return None
+    return _kernel("scan")(
         *arrays,
         np.int64(n_agents),
         np.int64(none_code),
@@ -385,7 +381,5 @@ def case_sums(
         float(high_flow_l_min),
         float(minute_ventilation_l_min),
         np.ascontiguousarray(band_edges_l_min, dtype=np.float64),
+        np.int64(groups),
     )
-    if groups < 0:
-        return None
-    return first, samples, gaps, sums, band_min, gap

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from typing import Any, NamedTuple
+
 import numpy as np
 import pandas as pd
 
@@ -57,8 +59,9 @@ class _Texts:
 
 
 def _text_codes(col) -> _Texts:
-    """Codes of a text column (pyarrow, plain or dictionary) into its values as the SQL reads
-    them (``NULLIF(trim(x), '')``: spaces trimmed, empty is missing), worked out once per
+    """Codes of a text column (pyarrow, plain or dictionary) into its values as the SQL reads them.
+
+    As ``NULLIF(trim(x), '')``: spaces trimmed, empty is missing; worked out once per
     distinct value; a missing value has the code ``len(values)``.
     """
     import pyarrow as pa
@@ -134,15 +137,7 @@ def _read_parquet_file(recs: Records, index: int):
         return None, None
     numbers = [f for f in NUMBER_FIELDS if f in c]
     ttype = schema.field(c["time"].source).type if "time" in c else None
-    fast = (
-        rf.flow_mode == "parts"
-        and "date" not in c
-        and all(
-            pa.types.is_integer(schema.field(c[f].source).type) or pa.types.is_floating(schema.field(c[f].source).type)
-            for f in numbers
-        )
-        and (ttype is None or (pa.types.is_timestamp(ttype) and ttype.tz is None))
-    )
+    fast = _columns_read_as_stored(rf, schema, numbers, ttype)
     sources = (
         [c[f].source for f in text_fields]
         + ([c["time"].source] if fast and ttype is not None else [])
@@ -159,13 +154,7 @@ def _read_parquet_file(recs: Records, index: int):
     # Row checks: the case id and agent, flows, dial and end-tidal in one compiled pass
     # (``rows_pass`` below); numpy only for what is rare (nulls, other number columns).
     ok = np.True_
-    # Agents: each distinct text looked up once, as the SQL's CASE does.
-    agent_names = [recs.agent_map.get(v) for v in texts["agent"].values.to_pylist()] + [None]
-    known = np.array([a is not None for a in agent_names])
-    canon = sorted({a[0] for a in agent_names if a is not None})
-    canon_code = np.array([canon.index(a[0]) if a else 0 for a in agent_names], dtype=np.int32)
-    max_dial = np.array([a[1] if a else 0.0 for a in agent_names])
-    volatile = np.array([a is not None and a[0] != "none" for a in agent_names])
+    known, volatile, max_dial, canon, canon_code = _agent_table(recs, texts["agent"])
     acode = texts["agent"].codes
     values, nan_missing = {}, {}
     for f in numbers:
@@ -206,27 +195,11 @@ def _read_parquet_file(recs: Records, index: int):
     dial = values.get("dial", np.full(n, np.nan))
     et = values.get("end_tidal", np.full(n, np.nan))
     if ttype is not None:
-        tcol = table[c["time"].source]
-        if tcol.null_count:
-            return None, case_texts
-        tcol = tcol.combine_chunks() if isinstance(tcol, pa.ChunkedArray) else tcol
-        if tcol.type.unit == "ms":  # whole milliseconds already: no conversion pass
-            ms = tcol.to_numpy().view(np.int64)
-        else:  # duckdb TIMESTAMP: microseconds, then whole milliseconds
-            ms = tcol.cast(pa.timestamp("us")).to_numpy().view(np.int64) // 1000
-        if n and ms.min() < 0:
-            return None, case_texts
-        t_min = ms / 60000.0
-        # Start and month are taken from a case's first sample only (``_case_frame``), in
-        # the file's own time type: the time itself gives the same "%Y-%m" text as the
-        # SQL's month (date_trunc) without a calendar conversion of every row.
-        start = month = tcol
+        times = _timestamp_times(table[c["time"].source], n)
     else:
-        t_min = values["elapsed"]
-        ok &= ~np.isnan(t_min)
-        month = pa.nulls(n, pa.date32())
-        start = pa.nulls(n, pa.timestamp("us"))
-    if not (ok_all and bool(ok.all())):
+        elapsed = values["elapsed"]
+        times = _SampleTimes(elapsed, pa.nulls(n, pa.timestamp("us")), pa.nulls(n, pa.date32()), ~np.isnan(elapsed))
+    if times is None or not (ok_all and bool(ok.all()) and bool(times.ok.all())):
         return None, case_texts
     # Flows as read: every row passed the checks, so none is negative; a missing flow (NaN)
     # counts as none in both paths of the engine.
@@ -237,9 +210,9 @@ def _read_parquet_file(recs: Records, index: int):
             "_fileno": pa.array(np.full(n, index, dtype=np.int32)),
             "_row": pa.array(np.arange(1, n + 1, dtype=np.int64)),
             "agent": pa.DictionaryArray.from_arrays(pa.array(canon_code[acode]), pa.array(canon, pa.string())),
-            "t_min": pa.array(t_min),
-            "month": month,
-            "start_hint": start,
+            "t_min": pa.array(times.t_min),
+            "month": times.month,
+            "start_hint": times.start,
             "o2": pa.array(flow["o2"]),
             "air": pa.array(flow["air"]),
             "n2o": pa.array(flow["n2o"]),
@@ -251,144 +224,362 @@ def _read_parquet_file(recs: Records, index: int):
     return out, case_texts
 
 
-def _numpy_engine(
-    recs: Records,
-    high_flow_l_min: float,
-    minute_ventilation_l_min: float,
-    source: str = "SELECT * FROM prepared",
-    texts: dict | None = None,
-):
-    """Time checks, integration and per-case sums in numpy.
+def _columns_read_as_stored(rf, schema, numbers: list, ttype) -> bool:
+    """Whether the file's columns can be taken as stored, without the SQL's conversions.
 
-    ``source`` is the SQL query of the checked rows to work on (the view ``prepared`` of
-    every file, or the ``prepared`` query of one file, ``Records.file_sql``), or those
-    columns already read by :func:`read_parquet_file`. ``texts`` (from the same) gives the
-    case ids and theatres of that one file as codes, so no text travels per row.
-
-    Returns
-    -------
-    raw : DataFrame
-        As the SQL case query.
-    counts : dict
-        Rows set aside by kind (``problem_a`` kinds and the time kinds).
-    time_rows : list of tuple
-        (fileno, row, kind, case_id, t_min, prev_max) of rows set aside by the time checks.
-    gap_rows : list of tuple
-        (fileno, row, case_id, t_min, dt_raw) of gaps.
+    Flows in parts, no date column, numbers stored as numbers and the time (if any) as a
+    timestamp without time zone.
     """
+    import pyarrow as pa
+
+    c = rf.columns
+    return (
+        rf.flow_mode == "parts"
+        and "date" not in c
+        and all(
+            pa.types.is_integer(schema.field(c[f].source).type) or pa.types.is_floating(schema.field(c[f].source).type)
+            for f in numbers
+        )
+        and (ttype is None or (pa.types.is_timestamp(ttype) and ttype.tz is None))
+    )
+
+
+class _AgentTable(NamedTuple):
+    """Each distinct agent text of a file (and "missing", last) looked up once."""
+
+    known: np.ndarray  # bool: the text names an agent
+    volatile: np.ndarray  # bool: a volatile one
+    max_dial: np.ndarray  # its highest dial [% v/v]
+    canon: list  # the agents' names, sorted
+    canon_code: np.ndarray  # int32: each text's code into ``canon``
+
+
+def _agent_table(recs: Records, agent_texts: _Texts) -> _AgentTable:
+    """Agent texts looked up once each, as the SQL's CASE does."""
+    agent_names = [recs.agent_map.get(v) for v in agent_texts.values.to_pylist()] + [None]
+    canon = sorted({a[0] for a in agent_names if a is not None})
+    return _AgentTable(
+        known=np.array([a is not None for a in agent_names]),
+        volatile=np.array([a is not None and a[0] != "none" for a in agent_names]),
+        max_dial=np.array([a[1] if a else 0.0 for a in agent_names]),
+        canon=canon,
+        canon_code=np.array([canon.index(a[0]) if a else 0 for a in agent_names], dtype=np.int32),
+    )
+
+
+class _SampleTimes(NamedTuple):
+    """Time of each sample in minutes, with the start and month columns of the case table."""
+
+    t_min: np.ndarray  # [min]
+    start: object  # pyarrow column of start times (or nulls)
+    month: object  # pyarrow column the month is read from (or nulls)
+    ok: np.ndarray  # bool: the time is present
+
+
+def _timestamp_times(tcol, n: int) -> _SampleTimes | None:
+    """Sample times from the file's timestamp column ``tcol`` (without one, the elapsed minutes are the times).
+
+    None when a timestamp is missing or before 1970 (the SQL checks then run on the file).
+    Times are whole milliseconds since 1970 / 60000, as the SQL computes them.
+    """
+    import pyarrow as pa
+
+    if tcol.null_count:
+        return None
+    tcol = tcol.combine_chunks() if isinstance(tcol, pa.ChunkedArray) else tcol
+    if tcol.type.unit == "ms":  # whole milliseconds already: no conversion pass
+        ms = tcol.to_numpy().view(np.int64)
+    else:  # duckdb TIMESTAMP: microseconds, then whole milliseconds
+        ms = tcol.cast(pa.timestamp("us")).to_numpy().view(np.int64) // 1000
+    if n and ms.min() < 0:
+        return None
+    # Start and month are taken from a case's first sample only (``_case_frame``), in
+    # the file's own time type: the time itself gives the same "%Y-%m" text as the
+    # SQL's month (date_trunc) without a calendar conversion of every row.
+    return _SampleTimes(ms / 60000.0, tcol, tcol, np.ones(n, dtype=bool))
+
+
+class _EngineResult(NamedTuple):
+    """What an engine gives for the records it worked on (unpacks as a 4-tuple)."""
+
+    raw: pd.DataFrame  # as the SQL case query
+    counts: dict  # rows set aside by kind (``problem_a`` kinds and the time kinds)
+    time_rows: list  # (fileno, row, kind, case_id, t_min, prev_max) of rows set aside by time
+    gap_rows: list  # (fileno, row, case_id, t_min, dt_raw) of gaps
+
+
+class _CaseCodes(NamedTuple):
+    """Case of each row as a code into its names (and theatre codes, from ``texts``)."""
+
+    code: np.ndarray  # int64, one per row
+    case_names: Any  # pyarrow array of the case ids, by code
+    theatre_code: np.ndarray | None  # with ``texts`` only
+    row: np.ndarray | None  # the row numbers, when read on the way
+    in_order: bool  # with ``texts``: the rows are the file's, in file order
+
+
+class _Intervals(NamedTuple):
+    """Interval from each valid sample to the next of its case, in min."""
+
+    same_next: np.ndarray  # the next sample is of the same case
+    dt_raw: np.ndarray  # the interval, NaN at a case's last sample
+    gap: np.ndarray  # longer than the gap limit
+    dt: np.ndarray  # the time counted: 0 at gaps and last samples
+
+
+class _Groups(NamedTuple):
+    """Groups of valid samples (case x agent): keys, first sample, group of each sample."""
+
+    uniq: np.ndarray
+    first: np.ndarray
+    inv: np.ndarray
+    contiguous: bool  # the samples of a group are adjacent, groups in key order
+
+
+def _engine_table(recs: Records, source, texts: dict | None):
+    """The checked rows to work on: the query ``source`` run, or the columns already read."""
+    if not isinstance(source, str):  # the columns already read (``read_parquet_file``)
+        return source
+    text_cols = "" if texts else "case_id, theatre, "
+    rel = recs.con.sql(f"""SELECT _fileno, _row, {text_cols}agent, t_min, month, start_hint,
+        greatest(o2, 0) AS o2, greatest(air, 0) AS air, greatest(n2o, 0) AS n2o, dial, end_tidal, problem_a
+        FROM ({source})""")
+    table = rel.arrow()
+    if hasattr(table, "read_all"):
+        table = table.read_all()
+    return table
+
+
+def _problem_counts(problem_a) -> dict:
+    """Rows with a row-level problem (``problem_a``), by kind."""
     import pyarrow.compute as pc
 
-    con = recs.con
-    if isinstance(source, str):
-        text_cols = "" if texts else "case_id, theatre, "
-        rel = con.sql(f"""SELECT _fileno, _row, {text_cols}agent, t_min, month, start_hint,
-            greatest(o2, 0) AS o2, greatest(air, 0) AS air, greatest(n2o, 0) AS n2o, dial, end_tidal, problem_a
-            FROM ({source})""")
-        table = rel.arrow()
-        if hasattr(table, "read_all"):
-            table = table.read_all()
-    else:  # the columns already read (``read_parquet_file``)
-        table = source
-    n = table.num_rows
-    problem_a = _column(table, "problem_a")
-    counts = {}
-    if problem_a.null_count < n:
-        vc = pc.value_counts(problem_a.drop_null())
-        counts = {v["values"].as_py(): v["counts"].as_py() for v in vc}
-    row = None
-    if texts:
-        # Parquet rows are numbered from 1 in file order: row - 1 is the row's place in the file.
-        if isinstance(source, str):
-            row = _ints(table, "_row")
-            in_order = n == len(texts["case_id"].codes) and bool(np.all(row == np.arange(1, n + 1)))
-        else:
-            in_order = n == len(texts["case_id"].codes)
-        pos = slice(None) if in_order else (row if row is not None else _ints(table, "_row")) - 1
-        code = texts["case_id"].codes[pos]
-        case_names = texts["case_id"].values
-        theatre_code = texts["theatre"].codes[pos]
-    else:
+    if problem_a.null_count == len(problem_a):
+        return {}
+    vc = pc.value_counts(problem_a.drop_null())
+    return {v["values"].as_py(): v["counts"].as_py() for v in vc}
+
+
+def _case_codes(table, texts: dict | None, from_query: bool) -> _CaseCodes:
+    """Case codes of the rows: from ``texts`` (one file's codes) or by encoding the case ids."""
+    import pyarrow.compute as pc
+
+    if not texts:
         case_codes = pc.dictionary_encode(_column(table, "case_id").fill_null(""))
         code = case_codes.indices.to_numpy(zero_copy_only=False).astype(np.int64)
-        case_names = case_codes.dictionary
-    t = _float(table, "t_min")
-    if n and not isinstance(source, str) and texts and in_order and problem_a.null_count == n:
-        # Rows of one file, each valid: one compiled pass when they come grouped by case in time order.
-        fast = _compiled_pass(
-            recs, table, texts, code, t, case_names, theatre_code, high_flow_l_min, minute_ventilation_l_min
-        )
-        if fast is not None:
-            raw, time_rows, gap_rows = fast
-            return raw, counts, time_rows, gap_rows
-    ok_a = problem_a.is_null().to_numpy(zero_copy_only=False)
-    fileno = _ints(table, "_fileno")
-    row = row if row is not None else _ints(table, "_row")
-    # One sort key: case, then file, then row. Records usually come grouped by case in file
-    # order (case codes number cases by first appearance), and then no sort is needed.
+        return _CaseCodes(code, case_codes.dictionary, None, None, False)
+    n = table.num_rows
+    row = None
+    # Parquet rows are numbered from 1 in file order: row - 1 is the row's place in the file.
+    if from_query:
+        row = _ints(table, "_row")
+        in_order = n == len(texts["case_id"].codes) and bool(np.all(row == np.arange(1, n + 1)))
+    else:
+        in_order = n == len(texts["case_id"].codes)
+    pos = slice(None) if in_order else (row if row is not None else _ints(table, "_row")) - 1
+    return _CaseCodes(texts["case_id"].codes[pos], texts["case_id"].values, texts["theatre"].codes[pos], row, in_order)
+
+
+def _sort_order(code: np.ndarray, fileno: np.ndarray, row: np.ndarray) -> tuple[np.ndarray, bool]:
+    """Order of the rows by case, then file, then row; and whether they are in it already.
+
+    Records usually come grouped by case in file order (case codes number cases by first
+    appearance), and then no sort is needed.
+    """
+    n = len(code)
     if n and fileno.max() < (1 << 8) and row.max() < (1 << 35) and code.max() < (1 << 20):
         key = (code << 43) | (fileno << 35) | row
         in_key_order = bool(np.all(key[1:] > key[:-1]))
         del key
         order = np.arange(n) if in_key_order else np.argsort((code << 43) | (fileno << 35) | row, kind="stable")
-    else:
-        order = np.lexsort((row, fileno, code))
-        in_key_order = False
-    # Already in order (the usual case): the sorted views are the columns themselves.
-    code_s, t_s, ok_s = (code, t, ok_a) if in_key_order else (code[order], t[order], ok_a[order])
-    # Running maximum of the earlier A-valid times of the same case, exactly, through ranks.
-    time_rows: list = []
-    valid_s = ok_s
+        return order, in_key_order
+    return np.lexsort((row, fileno, code)), False
+
+
+def _time_checks(code_s, t_s, ok_s, order, fileno, row, case_names, max_messages: int):
+    """Samples set aside for a duplicate or backward time.
+
+    Found through the running maximum of the earlier A-valid times of the same case
+    (exactly, through ranks).
+
+    Returns
+    -------
+    valid_s : ndarray of bool
+        The samples (in sorted order) that pass.
+    counts : dict
+        ``duplicate_time`` and ``time_backwards`` counts, when there are any.
+    time_rows : list of tuple
+        The first of them (see :class:`_EngineResult`).
+    """
     all_ok = bool(ok_s.all())
     t_ok = t_s if all_ok else t_s[ok_s]
     c_ok = code_s if all_ok else code_s[ok_s]
     monotonic = bool(np.all((np.diff(t_ok) > 0) | (c_ok[1:] != c_ok[:-1]))) if len(t_ok) > 1 else True
-    if ok_s.any() and not monotonic:
-        _, rank = np.unique(np.where(ok_s, t_s, -np.inf), return_inverse=True)
-        key = code_s * (1 << 32) + np.where(ok_s, rank.astype(np.int64) + 1, 0)
-        cummax = np.maximum.accumulate(key)
-        prev = np.concatenate(([-1], cummax[:-1]))
-        has_prev = prev > code_s * (1 << 32)
-        dup = ok_s & has_prev & (key == prev)
-        back = ok_s & has_prev & (key < prev)
-        valid_s = ok_s & ~dup & ~back
-        if dup.any() or back.any():
-            counts["duplicate_time"] = int(dup.sum())
-            counts["time_backwards"] = int(back.sum())
-            # Time of the earlier maximum, for the message.
-            prev_rank = np.where(has_prev, (prev - code_s * (1 << 32)) - 1, 0)
-            sorted_t = np.unique(np.where(ok_s, t_s, -np.inf))
-            bad = _first_in_file_order(np.flatnonzero(dup | back), fileno[order], row[order], recs._max_messages)
-            for i in bad:
-                j = order[i]
-                time_rows.append(
-                    (
-                        int(fileno[j]),
-                        int(row[j]),
-                        "duplicate_time" if dup[i] else "time_backwards",
-                        case_names[int(code_s[i])].as_py(),
-                        float(t_s[i]),
-                        float(sorted_t[prev_rank[i]]),
-                    )
-                )
-    all_valid = bool(valid_s.all())
-    vidx = order if in_key_order and all_valid else order[valid_s]
-    cv, tv = (code, t) if in_key_order and all_valid else (code[vidx], t[vidx])
-    m = len(vidx)
+    if not ok_s.any() or monotonic:
+        return ok_s, {}, []
+    _, rank = np.unique(np.where(ok_s, t_s, -np.inf), return_inverse=True)
+    key = code_s * (1 << 32) + np.where(ok_s, rank.astype(np.int64) + 1, 0)
+    cummax = np.maximum.accumulate(key)
+    prev = np.concatenate(([-1], cummax[:-1]))
+    has_prev = prev > code_s * (1 << 32)
+    dup = ok_s & has_prev & (key == prev)
+    back = ok_s & has_prev & (key < prev)
+    valid_s = ok_s & ~dup & ~back
+    if not (dup.any() or back.any()):
+        return valid_s, {}, []
+    counts = {"duplicate_time": int(dup.sum()), "time_backwards": int(back.sum())}
+    # Time of the earlier maximum, for the message.
+    prev_rank = np.where(has_prev, (prev - code_s * (1 << 32)) - 1, 0)
+    sorted_t = np.unique(np.where(ok_s, t_s, -np.inf))
+    bad = _first_in_file_order(np.flatnonzero(dup | back), fileno[order], row[order], max_messages)
+    time_rows = []
+    for i in bad:
+        j = order[i]
+        time_rows.append(
+            (
+                int(fileno[j]),
+                int(row[j]),
+                "duplicate_time" if dup[i] else "time_backwards",
+                case_names[int(code_s[i])].as_py(),
+                float(t_s[i]),
+                float(sorted_t[prev_rank[i]]),
+            )
+        )
+    return valid_s, counts, time_rows
+
+
+def _intervals(cv: np.ndarray, tv: np.ndarray, gap_limit_min: float) -> _Intervals:
+    """Interval to the next sample of the same case; a longer one than the limit is a gap."""
+    m = len(cv)
     same_next = np.zeros(m, dtype=bool)
     dt_raw = np.full(m, np.nan)
     if m:
         same_next[:-1] = cv[1:] == cv[:-1]
         dt_raw[:-1] = np.where(same_next[:-1], np.diff(tv), np.nan)
     dt0 = np.where(np.isnan(dt_raw), 0.0, dt_raw)
-    gap = dt0 > recs.gap_limit_min
-    dt = np.where(gap, 0.0, dt0)
-    gap_at = np.flatnonzero(gap)
+    gap = dt0 > gap_limit_min
+    return _Intervals(same_next, dt_raw, gap, np.where(gap, 0.0, dt0))
+
+
+def _gap_rows(iv: _Intervals, vidx, fileno, row, case_names, cv, tv, max_messages: int) -> list:
+    """The first gaps in file order: (fileno, row, case_id, t_min, dt_raw)."""
+    gap_at = np.flatnonzero(iv.gap)
     if len(gap_at):
-        gap_at = _first_in_file_order(gap_at, fileno[vidx], row[vidx], recs._max_messages)
-    gap_rows = [
-        (int(fileno[vidx[i]]), int(row[vidx[i]]), case_names[int(cv[i])].as_py(), float(tv[i]), float(dt_raw[i]))
+        gap_at = _first_in_file_order(gap_at, fileno[vidx], row[vidx], max_messages)
+    return [
+        (int(fileno[vidx[i]]), int(row[vidx[i]]), case_names[int(cv[i])].as_py(), float(tv[i]), float(iv.dt_raw[i]))
         for i in gap_at
     ]
+
+
+def _run_lengths(iv: _Intervals, high: np.ndarray) -> np.ndarray:
+    """Length of the high-flow run up to each sample, in min.
+
+    A difference of the running sum of high-flow time; a run ends at a sample below the
+    threshold or before a gap.
+    """
+    m = len(high)
+    endflag = ~high | iv.gap
+    new_run = np.ones(m, dtype=bool)
+    if m:
+        new_run[1:] = ~iv.same_next[:-1] | endflag[:-1]
+    w = iv.dt * high
+    cs = np.cumsum(w)
+    start_idx = np.maximum.accumulate(np.where(new_run, np.arange(m), 0))
+    return cs - (cs[start_idx] - w[start_idx])
+
+
+def _groups(gkey: np.ndarray) -> _Groups:
+    """Groups of equal keys (case x agent); no second sort when they are contiguous already."""
+    step = np.diff(gkey)
+    contiguous = len(gkey) > 0 and bool(np.all(step >= 0))
+    if contiguous:
+        first = np.concatenate(([0], np.flatnonzero(step) + 1))
+        return _Groups(gkey[first], first, np.cumsum(np.concatenate(([0], step != 0))), True)
+    uniq, first, inv = np.unique(gkey, return_index=True, return_inverse=True)
+    return _Groups(uniq, first, inv, False)
+
+
+def _longest_runs(groups: _Groups, high: np.ndarray, run_len: np.ndarray) -> np.ndarray:
+    """Longest high-flow run of each group, in min."""
+    g = len(groups.uniq)
+    if groups.contiguous:
+        return np.maximum.reduceat(np.where(high, run_len, 0.0), groups.first) if g else np.zeros(0)
+    longest = np.zeros(g)
+    np.maximum.at(longest, groups.inv[high], run_len[high])
+    return longest
+
+
+def _band_minutes(groups: _Groups, fgf: np.ndarray, dt: np.ndarray) -> np.ndarray:
+    """Minutes of each group in each flow band, ``(groups, bands)``."""
+    g, nb = len(groups.uniq), len(FLOW_BANDS)
+    edges = np.array([upper for _, upper in FLOW_BANDS[:-1]])
+    band = np.searchsorted(edges, fgf, side="left")  # the rule of model.freshgas.flow_band
+    return np.bincount(groups.inv * nb + band, weights=dt, minlength=g * nb).reshape(g, nb)
+
+
+def _numpy_engine(
+    recs: Records,
+    high_flow_l_min: float,
+    minute_ventilation_l_min: float,
+    source: str = "SELECT * FROM prepared",
+    texts: dict | None = None,
+) -> _EngineResult:
+    """Time checks, integration and per-case sums in numpy.
+
+    Parameters
+    ----------
+    recs : Records
+        The record set (its connection, gap limit and message limit).
+    high_flow_l_min : float
+        Flows above this make a high-flow run. [L/min]
+    minute_ventilation_l_min : float
+        Minute ventilation of the rebreathed share. [L/min]
+    source : str or pyarrow.Table
+        The SQL query of the checked rows to work on (the view ``prepared`` of every file,
+        or the ``prepared`` query of one file, ``Records.file_sql``), or those columns
+        already read by :func:`read_parquet_file`.
+    texts : dict, optional
+        From the same: the case ids and theatres of that one file as codes, so no text
+        travels per row.
+
+    Returns
+    -------
+    _EngineResult
+        ``(raw, counts, time_rows, gap_rows)``: the cases as the SQL case query, rows set
+        aside by kind, rows set aside by the time checks, gaps.
+    """
+    table = _engine_table(recs, source, texts)
+    n = table.num_rows
+    problem_a = _column(table, "problem_a")
+    counts = _problem_counts(problem_a)
+    cc = _case_codes(table, texts, isinstance(source, str))
+    code, case_names = cc.code, cc.case_names
+    t = _float(table, "t_min")
+    if n and not isinstance(source, str) and texts and cc.in_order and problem_a.null_count == n:
+        # Rows of one file, each valid: one compiled pass when they come grouped by case in time order.
+        fast = _compiled_pass(
+            recs, table, texts, code, t, case_names, cc.theatre_code, high_flow_l_min, minute_ventilation_l_min
+        )
+        if fast is not None:
+            raw, time_rows, gap_rows = fast
+            return _EngineResult(raw, counts, time_rows, gap_rows)
+    ok_a = problem_a.is_null().to_numpy(zero_copy_only=False)
+    fileno = _ints(table, "_fileno")
+    row = cc.row if cc.row is not None else _ints(table, "_row")
+    order, in_key_order = _sort_order(code, fileno, row)
+    # Already in order (the usual case): the sorted views are the columns themselves.
+    code_s, t_s, ok_s = (code, t, ok_a) if in_key_order else (code[order], t[order], ok_a[order])
+    valid_s, time_counts, time_rows = _time_checks(
+        code_s, t_s, ok_s, order, fileno, row, case_names, recs._max_messages
+    )
+    counts.update(time_counts)
+    all_valid = bool(valid_s.all())
+    vidx = order if in_key_order and all_valid else order[valid_s]
+    cv, tv = (code, t) if in_key_order and all_valid else (code[vidx], t[vidx])
+    m = len(vidx)
+    iv = _intervals(cv, tv, recs.gap_limit_min)
+    gap_rows = _gap_rows(iv, vidx, fileno, row, case_names, cv, tv, recs._max_messages)
 
     identity = (in_key_order and all_valid) or (m == n and bool(np.all(vidx == np.arange(n))))
 
@@ -412,49 +603,22 @@ def _numpy_engine(
     if is_none.any():
         dose = np.where(is_none, 0.0, dose)
     from_et = from_et & ~is_none
-    # High-flow runs: a run ends at a sample below the threshold or before a gap.
     high = fgf > high_flow_l_min
-    endflag = ~high | gap
-    new_run = np.ones(m, dtype=bool)
-    if m:
-        new_run[1:] = ~same_next[:-1] | endflag[:-1]
-    w = dt * high
-    cs = np.cumsum(w)
-    start_idx = np.maximum.accumulate(np.where(new_run, np.arange(m), 0))
-    run_len = cs - (cs[start_idx] - w[start_idx])
+    run_len = _run_lengths(iv, high)
     # Groups: case and agent.
     n_agents = max(len(agent_names), 1)
-    gkey = cv * n_agents + agent_code
-    step = np.diff(gkey)
-    contiguous = m > 0 and bool(np.all(step >= 0))
-    if contiguous:  # groups already contiguous: no second sort
-        first = np.concatenate(([0], np.flatnonzero(step) + 1))
-        uniq = gkey[first]
-        inv = np.cumsum(np.concatenate(([0], step != 0)))
-    else:
-        uniq, first, inv = np.unique(gkey, return_index=True, return_inverse=True)
-    g = len(uniq)
+    groups = _groups(cv * n_agents + agent_code)
+    uniq, inv, g, dt, gap = groups.uniq, groups.inv, len(groups.uniq), iv.dt, iv.gap
 
     def gsum(weights):
         return np.bincount(inv, weights=weights, minlength=g)
 
-    if contiguous:
-        longest = np.maximum.reduceat(np.where(high, run_len, 0.0), first) if g else np.zeros(0)
-    else:
-        longest = np.zeros(g)
-        np.maximum.at(longest, inv[high], run_len[high])
-    edges = np.array([upper for _, upper in FLOW_BANDS[:-1]])
-    band = np.searchsorted(edges, fgf, side="left")  # the rule of model.freshgas.flow_band
-    band_min = np.bincount(inv * len(FLOW_BANDS) + band, weights=dt, minlength=g * len(FLOW_BANDS)).reshape(
-        g, len(FLOW_BANDS)
-    )
-    vfirst = vidx[first]
-    case_of_group = np.array(case_names.to_pylist(), dtype=object)[uniq // n_agents] if g else []
+    band_min = _band_minutes(groups, fgf, dt)
     sums = {
         "samples": np.bincount(inv, minlength=g).astype(np.int64),
         "minutes": gsum(dt),
         "gaps": np.bincount(inv, weights=gap, minlength=g).astype(np.int64),
-        "gap_min": gsum(np.where(gap, dt_raw, 0.0)),
+        "gap_min": gsum(np.where(gap, iv.dt_raw, 0.0)),
         "end_tidal_basis_min": gsum(np.where(from_et, dt, 0.0)),
         "oxygen_l": gsum(o2 * dt),
         "air_l": gsum(air * dt),
@@ -462,23 +626,24 @@ def _numpy_engine(
         "vapour_integral": gsum(fgf * dose * dt),
         "rebreathed_min": gsum(rebreathed_share(fgf, minute_ventilation_l_min) * dt),
         **{col: band_min[:, k] for k, col in enumerate(BAND_COLUMNS)},
-        "longest_high_flow_min": longest,
+        "longest_high_flow_min": _longest_runs(groups, high, run_len),
     }
     raw = _case_frame(
         table,
         texts,
-        theatre_code if texts else None,
-        vfirst,
-        case_of_group,
+        cc.theatre_code if texts else None,
+        vidx[groups.first],
+        np.array(case_names.to_pylist(), dtype=object)[uniq // n_agents] if g else [],
         agent_names[uniq % n_agents] if g else [],
         sums,
     )
-    return raw, counts, time_rows, gap_rows
+    return _EngineResult(raw, counts, time_rows, gap_rows)
 
 
 def _month_text(month) -> list:
-    """ "%Y-%m" text of each date or time ("unknown" when missing), each distinct month
-    formatted once (a year's cases fall in a few months).
+    """Month text ("%Y-%m") of each date or time, "unknown" when missing.
+
+    Each distinct month is formatted once (a year's cases fall in a few months).
     """
     import pyarrow as pa
     import pyarrow.compute as pc
@@ -559,7 +724,7 @@ def _compiled_pass(recs, table, texts, code, t, case_names, theatre_code, high_f
     keep = _first_in_file_order(np.arange(len(at)), fileno, row, recs._max_messages)
     gap_rows = [
         (int(fileno[k]), int(row[k]), case_names[int(code[i])].as_py(), float(t[i]), float(t[i + 1] - t[i]))
-        for k, i in zip(keep, at[keep])
+        for k, i in zip(keep, at[keep], strict=True)
     ]
     columns = {
         "samples": samples,

@@ -3,8 +3,15 @@
 from __future__ import annotations
 
 import sys
+from typing import TYPE_CHECKING, NamedTuple
 
 from model.cli.common import CAUTION, print_json, print_table
+
+if TYPE_CHECKING:
+    import pandas as pd
+
+    from model.audit.result import AuditResult
+    from model.reference import Reference
 
 DE_IDENTIFY = (
     "Records must be de-identified before they are audited or shared: no names, hospital numbers or dates of birth."
@@ -19,12 +26,14 @@ class ProgressLine:
         self.width = 0
 
     def __call__(self, fraction: float, text: str) -> None:
+        """Show ``fraction`` done (0 to 1) and the step ``text``, over the line shown before."""
         line = f"audit {min(max(fraction, 0.0), 1.0):4.0%}  {text}"[:120]
         self.stream.write("\r" + line.ljust(self.width))
         self.stream.flush()
         self.width = len(line)
 
     def clear(self) -> None:
+        """Blank the line (before other output)."""
         if self.width:
             self.stream.write("\r" + " " * self.width + "\r")
             self.stream.flush()
@@ -71,19 +80,63 @@ def register(subparsers) -> None:
     p.set_defaults(func=cmd_audit)
 
 
+class _Purchases(NamedTuple):
+    """Purchases read for the audit.
+
+    The reconciliation (None without ``--purchases``), the purchase lines set aside, and
+    the cost view by item.
+    """
+
+    recon: pd.DataFrame | None
+    notes: list
+    costs: pd.DataFrame
+
+
 def cmd_audit(args) -> int:
-    from model.audit.engine import audit_records
-    from model.audit.result import BAND_COLUMNS, DEFAULT_HIGH_FLOW_LIMIT_MIN
+    """Run ``gas-ledger audit``: audit the records, reconcile with purchases, print or give JSON.
+
+    Returns
+    -------
+    int
+        The exit status (0).
+    """
     from model.base.errors import InputError
-    from model.io.record_files import DEFAULT_GAP_LIMIT_MIN
-    from model.reference import DEFAULT_GWP, load_settings
+    from model.reference import load_settings
 
     reference = load_settings(args.settings)
     if args.messages < 0:
         raise InputError("--messages", args.messages, "expected 0 or more")
+    result = _audit(args, reference)
+    purchases = _purchases(args, reference, result)
+    if args.json:
+        print_json(_audit_json(result, purchases))
+        return 0
+    out = sys.stdout
+    _write_records(out, result, args.messages)
+    _write_totals(out, result)
+    _write_breakdowns(out, result)
+    if purchases.recon is not None:
+        _write_reconciliation(out, purchases.recon, purchases.notes, args.messages)
+    out.write(f"\nCost by item, whole period ({result.currency}; purchases priced with the same prices)\n")
+    print_table(
+        purchases.costs.to_dict("records"),
+        ["item", "purchased_cost", "recorded_cost", "unexplained_cost", "basis"],
+        out,
+    )
+    out.write("\n" + DE_IDENTIFY + "\n" + CAUTION + "\n")
+    return 0
+
+
+def _audit(args, reference: Reference) -> AuditResult:
+    """The audit of the record files, with a progress line on a terminal."""
+    from model.audit.engine import audit_records
+    from model.audit.result import DEFAULT_HIGH_FLOW_LIMIT_MIN
+    from model.io.record_files import DEFAULT_GAP_LIMIT_MIN
+    from model.reference import DEFAULT_GWP
+
     progress = ProgressLine(sys.stderr) if not args.json and sys.stderr.isatty() else None
     try:
-        result = audit_records(
+        return audit_records(
             args.files,
             reference=reference,
             gwp_source=args.gwp_source or DEFAULT_GWP,
@@ -95,7 +148,13 @@ def cmd_audit(args) -> int:
     finally:
         if progress is not None:
             progress.clear()
-    recon, purchase_notes = None, []
+
+
+def _purchases(args, reference: Reference, result: AuditResult) -> _Purchases:
+    """The purchases file (if given) against the recorded use, and the cost view by item."""
+    from model.audit.reconcile import cost_view
+
+    recon, purchase_notes, bought_table = None, [], None
     if args.purchases:
         from model.audit.reconcile import reconcile
         from model.io.purchases import load_purchases
@@ -103,20 +162,24 @@ def cmd_audit(args) -> int:
         bought = load_purchases(args.purchases, reference)
         purchase_notes = bought.messages
         recon = reconcile(bought.table, result.use_by_month(), reference, result.gwp_source)
-    from model.audit.reconcile import cost_view
+        bought_table = bought.table
+    return _Purchases(recon, purchase_notes, cost_view(bought_table, result, reference))
 
-    costs = cost_view(bought.table if recon is not None else None, result, reference)
-    if args.json:
-        data = result.to_dict()
-        data["cost_view"] = [{k: _num(v) for k, v in r.items()} for r in costs.to_dict("records")]
-        if recon is not None:
-            data["reconciliation"] = [{k: _num(v) for k, v in r.items()} for r in recon.to_dict("records")]
-            data["purchase_lines_set_aside"] = purchase_notes
-        data["caution"] = CAUTION
-        data["de_identification"] = DE_IDENTIFY
-        print_json(data)
-        return 0
-    out = sys.stdout
+
+def _audit_json(result: AuditResult, purchases: _Purchases) -> dict:
+    """The JSON output: the audit, the cost view, the reconciliation, the cautions."""
+    data = result.to_dict()
+    data["cost_view"] = [{k: _num(v) for k, v in r.items()} for r in purchases.costs.to_dict("records")]
+    if purchases.recon is not None:
+        data["reconciliation"] = [{k: _num(v) for k, v in r.items()} for r in purchases.recon.to_dict("records")]
+        data["purchase_lines_set_aside"] = purchases.notes
+    data["caution"] = CAUTION
+    data["de_identification"] = DE_IDENTIFY
+    return data
+
+
+def _write_records(out, result: AuditResult, messages: int) -> None:
+    """The records read and used, rows set aside by kind, the first messages, the notes."""
     rep = result.report
     s = rep.summary()
     out.write(
@@ -127,15 +190,19 @@ def cmd_audit(args) -> int:
     kinds = {k: v for k, v in s["set_aside_by_kind"].items() if v}
     if kinds:
         out.write("Set aside by kind: " + ", ".join(f"{k} {v:,}" for k, v in kinds.items()) + "\n")
-    for m in list(rep.issues["message"])[: args.messages]:
+    for m in list(rep.issues["message"])[:messages]:
         out.write(f"  - {m}\n")
-    if len(rep.issues) > args.messages:
-        out.write(f"  ... {len(rep.issues) - args.messages} more message(s) (--messages N, or --json)\n")
-    for m in list(rep.gap_list["message"])[: max(args.messages // 2, 0)]:
+    if len(rep.issues) > messages:
+        out.write(f"  ... {len(rep.issues) - messages} more message(s) (--messages N, or --json)\n")
+    for m in list(rep.gap_list["message"])[: max(messages // 2, 0)]:
         out.write(f"  - {m}\n")
     for note in s["notes"]:
         out.write(f"Note: {note}\n")
     out.write("\n")
+
+
+def _write_totals(out, result: AuditResult) -> None:
+    """The totals of the period, one labelled line each."""
     t = result.total
     cur = result.currency
     rows = [
@@ -167,6 +234,12 @@ def cmd_audit(args) -> int:
     width = max(len(k) for k, _ in rows)
     for k, v in rows:
         out.write(f"{k.ljust(width)}  {v}\n")
+
+
+def _write_breakdowns(out, result: AuditResult) -> None:
+    """Sums by theatre, month and agent; flow bands by theatre and month; the absorbent note."""
+    from model.audit.result import BAND_COLUMNS
+
     for key in ("theatre", "month", "agent"):
         out.write(f"\nBy {key}\n")
         print_table(
@@ -181,44 +254,42 @@ def cmd_audit(args) -> int:
         out,
     )
     out.write(f"\nCO2 absorbent: {result.absorbent_note()}\n")
-    if recon is not None:
-        out.write("\nPurchases against recorded use (unexplained = purchased - recorded)\n")
-        if purchase_notes:
-            out.write(f"{len(purchase_notes)} purchase line(s) set aside; the others are used:\n")
-            for m in purchase_notes[: args.messages]:
-                out.write(f"  - {m}\n")
-            if len(purchase_notes) > args.messages:
-                out.write(f"  ... {len(purchase_notes) - args.messages} more (--messages N, or --json)\n")
-        print_table(
-            recon.to_dict("records"),
-            [
-                "item",
-                "month",
-                "unit",
-                "purchased",
-                "recorded",
-                "unexplained",
-                "unexplained_share",
-                "unexplained_co2e_kg",
-            ],
-            out,
+
+
+def _write_reconciliation(out, recon: pd.DataFrame, purchase_notes: list, messages: int) -> None:
+    """Purchases against recorded use: lines set aside, the table, the N2O apparent loss."""
+    out.write("\nPurchases against recorded use (unexplained = purchased - recorded)\n")
+    if purchase_notes:
+        out.write(f"{len(purchase_notes)} purchase line(s) set aside; the others are used:\n")
+        for m in purchase_notes[:messages]:
+            out.write(f"  - {m}\n")
+        if len(purchase_notes) > messages:
+            out.write(f"  ... {len(purchase_notes) - messages} more (--messages N, or --json)\n")
+    print_table(
+        recon.to_dict("records"),
+        [
+            "item",
+            "month",
+            "unit",
+            "purchased",
+            "recorded",
+            "unexplained",
+            "unexplained_share",
+            "unexplained_co2e_kg",
+        ],
+        out,
+    )
+    loss = recon[(recon["item"] == "nitrous_oxide") & (recon["month"] == "all")]
+    if len(loss):
+        r = loss.iloc[0]
+        share = (
+            "" if r["unexplained_share"] != r["unexplained_share"] else f" ({r['unexplained_share']:.0%} of purchases)"
         )
-        loss = recon[(recon["item"] == "nitrous_oxide") & (recon["month"] == "all")]
-        if len(loss):
-            r = loss.iloc[0]
-            share = (
-                ""
-                if r["unexplained_share"] != r["unexplained_share"]
-                else f" ({r['unexplained_share']:.0%} of purchases)"
-            )
-            out.write(f"N2O apparent loss: {r['apparent_loss']:,.0f} L{share}\n")
-    out.write(f"\nCost by item, whole period ({cur}; purchases priced with the same prices)\n")
-    print_table(costs.to_dict("records"), ["item", "purchased_cost", "recorded_cost", "unexplained_cost", "basis"], out)
-    out.write("\n" + DE_IDENTIFY + "\n" + CAUTION + "\n")
-    return 0
+        out.write(f"N2O apparent loss: {r['apparent_loss']:,.0f} L{share}\n")
 
 
 def _num(v):
+    """A JSON value: numpy scalars as Python ones, NaN as None."""
     if isinstance(v, float) and v != v:
         return None
     if hasattr(v, "item"):

@@ -1,5 +1,7 @@
-"""The store in an SQLite file: connections, the write transaction, backups, and the read-only check
-of a file before anything opens it.
+"""The store in an SQLite file.
+
+Connections, the write transaction, backups, and the read-only check of a file before
+anything opens it.
 """
 
 from __future__ import annotations
@@ -64,8 +66,12 @@ class _SQLite:
             # A page damaged past what the opening check reads: one line, never a traceback.
             if isinstance(exc, sqlite3.OperationalError) and "locked" in str(exc):
                 raise
-            raise StoreError("store file", str(self.path), f"is damaged ({exc}); nothing was changed by this "
-                             f"request; restore it from a backup or set {STORE_ENV} to another file") from None
+            raise StoreError(
+                "store file",
+                str(self.path),
+                f"is damaged ({exc}); nothing was changed by this "
+                f"request; restore it from a backup or set {STORE_ENV} to another file",
+            ) from None
         finally:
             con.close()
 
@@ -152,65 +158,87 @@ def check_store_file(path: str | os.PathLike) -> int:
     ------
     StoreError
         One line, for anything that is not a valid store of ours: not an SQLite file,
-        damaged (SQLite's ``quick_check`` of every page), names that are not UTF-8, a ``meta`` table of another layout, no schema
-        version, or a table or column of its version missing. The file is opened
+        damaged (SQLite's ``quick_check`` of every page), names that are not UTF-8, a
+        ``meta`` table of another layout, no schema version, or a table or column of its
+        version missing. The file is opened
         read-only and left byte for byte as it was.
     """
     p = Path(path)
+    con = _open_read_only(p)
+    if con is None:
+        return 0
+    try:
+        tables = {_text(r[0]) for r in con.execute("SELECT name FROM sqlite_master WHERE type = 'table'")}
+        if not tables:
+            return 0
+        if "meta" not in tables:
+            raise _refusal(p, f"is an SQLite file of another program (tables: {', '.join(sorted(tables)[:5])})")
+        columns = {
+            t: {_text(r[1]) for r in con.execute(f'PRAGMA table_info("{t}")')} for t in tables if t.isidentifier()
+        }
+        version = _schema_version(con, p, columns)
+        _check_tables(p, version, columns)
+        if version <= SCHEMA_VERSION:  # pages and indexes sound (reads every page once)
+            found = _text(con.execute("PRAGMA quick_check(1)").fetchone()[0])
+            if found != "ok":
+                raise _refusal(p, f"is a damaged store ({found[:120]})")
+        return version
+    except sqlite3.Error as exc:
+        raise _refusal(p, f"is not a Fresh Gas Ledger store ({exc})") from None
+    finally:
+        con.close()
 
-    def refuse(why: str) -> StoreError:
-        return StoreError("store file", str(p), f"{why}; set {STORE_ENV} to another file or move this one aside")
 
+def _refusal(p: Path, why: str) -> StoreError:
+    """The one-line error for a file that is not a valid store of ours."""
+    return StoreError("store file", str(p), f"{why}; set {STORE_ENV} to another file or move this one aside")
+
+
+def _text(value) -> str:
+    """A name or value read as bytes, as text (bytes that are not UTF-8 replaced)."""
+    return value.decode("utf-8", errors="replace") if isinstance(value, bytes) else str(value)
+
+
+def _open_read_only(p: Path) -> sqlite3.Connection | None:
+    """The file opened read-only, reading text as bytes; None when it is missing or empty."""
     try:
         if not p.exists() or p.stat().st_size == 0:
-            return 0
+            return None
         from urllib.parse import quote
 
         con = sqlite3.connect(
             f"file:{quote(str(p.resolve()))}?mode=ro", uri=True, timeout=BUSY_TIMEOUT_MS / 1000, isolation_level=None
         )
     except (OSError, ValueError, sqlite3.Error) as exc:
-        raise refuse(f"cannot be opened ({exc})") from None
+        raise _refusal(p, f"cannot be opened ({exc})") from None
     con.text_factory = bytes  # names and values that are not UTF-8 must not raise
+    return con
 
-    def text(value) -> str:
-        return value.decode("utf-8", errors="replace") if isinstance(value, bytes) else str(value)
 
+def _schema_version(con: sqlite3.Connection, p: Path, columns: dict[str, set[str]]) -> int:
+    """The schema version in the ``meta`` table (checked to have our layout), 1 or more."""
+    if not {"key", "value"} <= columns.get("meta", set()):
+        raise _refusal(p, "is not a Fresh Gas Ledger store (its meta table has another layout)")
+    row = con.execute("SELECT value FROM meta WHERE key = 'schema_version'").fetchone()
+    if row is None:
+        raise _refusal(p, "is not a Fresh Gas Ledger store (no schema version)")
     try:
-        tables = {text(r[0]) for r in con.execute("SELECT name FROM sqlite_master WHERE type = 'table'")}
-        if not tables:
-            return 0
-        if "meta" not in tables:
-            raise refuse(f"is an SQLite file of another program (tables: {', '.join(sorted(tables)[:5])})")
-        columns = {
-            t: {text(r[1]) for r in con.execute(f'PRAGMA table_info("{t}")')} for t in tables if t.isidentifier()
-        }
-        if not {"key", "value"} <= columns.get("meta", set()):
-            raise refuse("is not a Fresh Gas Ledger store (its meta table has another layout)")
-        row = con.execute("SELECT value FROM meta WHERE key = 'schema_version'").fetchone()
-        if row is None:
-            raise refuse("is not a Fresh Gas Ledger store (no schema version)")
-        try:
-            version = int(text(row[0]))
-        except ValueError:
-            raise refuse(f"has an unreadable schema version {text(row[0])[:20]!r}") from None
-        if version < 1:
-            raise refuse(f"has an unreadable schema version {version}")
-        for table, needed in _REQUIRED.get(version, {}).items():
-            missing = needed - columns.get(table, set())
-            if missing:
-                what = (
-                    f"table '{table}'"
-                    if table not in columns
-                    else f"column(s) {', '.join(sorted(missing))} of table '{table}'"
-                )
-                raise refuse(f"is a damaged store (schema {version} without its {what})")
-        if version <= SCHEMA_VERSION:  # pages and indexes sound (reads every page once)
-            found = text(con.execute("PRAGMA quick_check(1)").fetchone()[0])
-            if found != "ok":
-                raise refuse(f"is a damaged store ({found[:120]})")
-        return version
-    except sqlite3.Error as exc:
-        raise refuse(f"is not a Fresh Gas Ledger store ({exc})") from None
-    finally:
-        con.close()
+        version = int(_text(row[0]))
+    except ValueError:
+        raise _refusal(p, f"has an unreadable schema version {_text(row[0])[:20]!r}") from None
+    if version < 1:
+        raise _refusal(p, f"has an unreadable schema version {version}")
+    return version
+
+
+def _check_tables(p: Path, version: int, columns: dict[str, set[str]]) -> None:
+    """Refuse a store that lacks a table or column its schema version has."""
+    for table, needed in _REQUIRED.get(version, {}).items():
+        missing = needed - columns.get(table, set())
+        if missing:
+            what = (
+                f"table '{table}'"
+                if table not in columns
+                else f"column(s) {', '.join(sorted(missing))} of table '{table}'"
+            )
+            raise _refusal(p, f"is a damaged store (schema {version} without its {what})")

@@ -1,10 +1,13 @@
-"""Case types through the circle model at their duration nodes: sub-plans, one vectorised
-simulation per agent, and the per-type inputs of a year (see :mod:`model.year`).
+"""Case types through the circle model at their duration nodes.
+
+Sub-plans, one vectorised simulation per agent, and the per-type inputs of a year (see
+:mod:`model.year`).
 """
 
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass, field, replace
 
 import numpy as np
@@ -346,15 +349,15 @@ def year_inputs(scenario: Scenario, reference: Reference = DEFAULT_REFERENCE) ->
 def _year_inputs_many(scenarios, reference: Reference) -> list[YearInputs]:
     """Year inputs of several scenarios with their simulations in shared calls (one per agent)."""
     refs = [s.reference(reference) for s in scenarios]
-    subs = [_subplans(s, r) for s, r in zip(scenarios, refs)]
+    subs = [_subplans(s, r) for s, r in zip(scenarios, refs, strict=True)]
     flat = [sp for group in subs for sp in group]
     run = simulate_subplans(flat, refs[0]) if flat else {"groups": {}, "where": []}
     # Which (group, column) each sub-plan node used, for the warnings.
     cols_of: dict[int, list] = {}
-    for si, k, gkey, c in run["where"]:
+    for si, _k, gkey, c in run["where"]:
         cols_of.setdefault(si, []).append((gkey, c))
     out, start = [], 0
-    for scenario, ref, group in zip(scenarios, refs, subs):
+    for scenario, ref, group in zip(scenarios, refs, subs, strict=True):
         idx = range(start, start + len(group))
         start += len(group)
         out.append(_assemble(scenario, ref, group, [cols_of.get(i, []) for i in idx], run["groups"]))
@@ -373,7 +376,7 @@ def _assemble(scenario: Scenario, ref: Reference, subplans: list[SubPlan], cols,
     cov = np.zeros_like(e_f)
     warnings: dict[str, dict] = {}  # caution text -> case types it applies to
     r2 = [1.0]
-    for sub, where in zip(subplans, cols):
+    for sub, where in zip(subplans, cols, strict=True):
         t = types[sub.type_index]
         m, c, v = piecewise_linear_moments(sub.nodes_min, sub.totals, t.median_min, t.spread, t.fixed_min)
         e_f[sub.variant, sub.type_index] += sub.weight * m
@@ -432,70 +435,101 @@ def _assemble(scenario: Scenario, ref: Reference, subplans: list[SubPlan], cols,
 
 
 def _subplan_warnings(out: dict, ctype: CaseType, sub: SubPlan, where, groups, ref: Reference) -> None:
-    """Cautions of a sub-plan from its simulation (the checks of :func:`model.cautions.case_warnings`)."""
+    """Cautions of a sub-plan from its simulation (the checks of :func:`model.cautions.case_warnings`).
+
+    ``out`` maps each caution to the case types it applies to (added to in place);
+    ``where`` lists the (group, column) of each of the sub-plan's duration nodes in
+    ``groups`` (:func:`simulate_subplans`).
+    """
     if not where:
         return
-    plan, s = sub.plan, sub.plan.settings
-    floor_pct = s.inspired_o2_floor * 100.0
     label = ref.agents[sub.agent].label.lower()
     # Keyed by the text without the type's name, so types with the same caution share a line.
     who = f"{'changed practice, ' if sub.variant else ''}{label}{' with N2O' if sub.with_n2o else ''}"
 
-    def add(text, severity="caution"):
+    def add(text: str, severity: str = "caution") -> None:
         out.setdefault(Caution(text, severity), {})[ctype.name] = None
 
     gkey, c0 = where[-1]
     g = groups[gkey]
     sim, off = g["sim"], int(g["offsets"][c0])
-    for j, p in enumerate(plan.phases):
-        row = off + j
-        fgf = float(sim["phase_fgf_l_min"][row, c0])
-        fd_o2 = float(sim["phase_fd_o2"][row, c0])
-        safe = float(sim["phase_lowest_safe_fd_o2"][row, c0])
+    for j, p in enumerate(sub.plan.phases):
         at = f"{who}, {p.name}"
-        if bool(sim["phase_altered"][row, c0]):
-            add(f"{at}: the O2/N2O ratio limit altered the requested mix")
-        if sub.agent == "sevoflurane" and fgf < s.sevoflurane_min_flow_l_min - 1e-12:
-            add(
-                f"{at}: {fgf:.2f} L/min is under the set sevoflurane minimum of "
-                f"{s.sevoflurane_min_flow_l_min:g} L/min; follow local protocol and labelling",
-                "labelling",
-            )
-        if fd_o2 < s.inspired_o2_floor - 1e-12:
-            add(
-                f"{at}: fresh gas O2 {fd_o2 * 100:.0f} % is under the inspired O2 floor of "
-                f"{floor_pct:.0f} %; inspired O2 in a circle is lower still",
-                "hazard",
-            )
-        elif math.isfinite(safe) and fd_o2 < safe - 1e-9:
-            add(
-                f"{at}: at {fgf:.2f} L/min, fresh gas O2 {fd_o2 * 100:.0f} % is under the {safe * 100:.0f} % "
-                f"that keeps inspired O2 above {floor_pct:.0f} % at steady state"
-            )
-        elif not math.isfinite(safe):
-            add(
-                f"{at}: fresh gas flow {fgf:.2f} L/min does not exceed the O2 consumption; no fresh gas "
-                f"mix keeps inspired O2 above {floor_pct:.0f} %",
-                "hazard",
-            )
+        _mix_cautions(add, at, sub, sim, off + j, c0)
         if p.target_mac is not None:
-            reach = [
-                g2["sim"]["phase_time_to_target_min"][int(g2["offsets"][c]) + j, c]
-                for g2, c in ((groups[k], c) for k, c in where)
-                if g2["sim"]["phase_minutes"][int(g2["offsets"][c]) + j, c] > 0
-            ]
-            if any(not math.isfinite(r) for r in reach):
-                add(
-                    f"{at}: the end-tidal target of {p.target_mac:g} MAC is not reached within the phase "
-                    f"at {fgf:.2f} L/min (vaporizer maximum {ref.agents[sub.agent].vaporizer_max:g} "
-                    f"%); raise the flow or allow longer"
-                )
-            elif reach and max(reach) > SLOW_TARGET_MIN:
-                # The slow response of low flow, as for a single case (model.cautions.case_warnings).
-                add(
-                    f"{at}: end-tidal reaches the target of {p.target_mac:g} MAC only after "
-                    f"{max(reach):.0f} min at {fgf:.2f} L/min"
-                )
+            fgf = float(sim["phase_fgf_l_min"][off + j, c0])
+            _target_cautions(add, at, p, j, fgf, where, groups, ref.agents[sub.agent].vaporizer_max)
+    _node_cautions(add, who, sub, where, groups)
+
+
+def _mix_cautions(add: Callable[..., None], at: str, sub: SubPlan, sim, row: int, col: int) -> None:
+    """Cautions of one phase's fresh gas: the ratio limit, the sevoflurane minimum, inspired O2."""
+    s = sub.plan.settings
+    floor_pct = s.inspired_o2_floor * 100.0
+    fgf = float(sim["phase_fgf_l_min"][row, col])
+    fd_o2 = float(sim["phase_fd_o2"][row, col])
+    safe = float(sim["phase_lowest_safe_fd_o2"][row, col])
+    if bool(sim["phase_altered"][row, col]):
+        add(f"{at}: the O2/N2O ratio limit altered the requested mix")
+    if sub.agent == "sevoflurane" and fgf < s.sevoflurane_min_flow_l_min - 1e-12:
+        add(
+            f"{at}: {fgf:.2f} L/min is under the set sevoflurane minimum of "
+            f"{s.sevoflurane_min_flow_l_min:g} L/min; follow local protocol and labelling",
+            "labelling",
+        )
+    if fd_o2 < s.inspired_o2_floor - 1e-12:
+        add(
+            f"{at}: fresh gas O2 {fd_o2 * 100:.0f} % is under the inspired O2 floor of "
+            f"{floor_pct:.0f} %; inspired O2 in a circle is lower still",
+            "hazard",
+        )
+    elif math.isfinite(safe) and fd_o2 < safe - 1e-9:
+        add(
+            f"{at}: at {fgf:.2f} L/min, fresh gas O2 {fd_o2 * 100:.0f} % is under the {safe * 100:.0f} % "
+            f"that keeps inspired O2 above {floor_pct:.0f} % at steady state"
+        )
+    elif not math.isfinite(safe):
+        add(
+            f"{at}: fresh gas flow {fgf:.2f} L/min does not exceed the O2 consumption; no fresh gas "
+            f"mix keeps inspired O2 above {floor_pct:.0f} %",
+            "hazard",
+        )
+
+
+def _target_cautions(
+    add: Callable[..., None], at: str, p, j: int, fgf: float, where, groups, vaporizer_max: float
+) -> None:
+    """Cautions of a target phase ``j`` (phase ``p``) over the nodes: target not reached, or reached late.
+
+    ``fgf`` is the phase's flow [L/min], ``vaporizer_max`` the dial's maximum [%].
+    """
+    reach = [
+        g2["sim"]["phase_time_to_target_min"][int(g2["offsets"][c]) + j, c]
+        for g2, c in ((groups[k], c) for k, c in where)
+        if g2["sim"]["phase_minutes"][int(g2["offsets"][c]) + j, c] > 0
+    ]
+    if any(not math.isfinite(r) for r in reach):
+        add(
+            f"{at}: the end-tidal target of {p.target_mac:g} MAC is not reached within the phase "
+            f"at {fgf:.2f} L/min (vaporizer maximum {vaporizer_max:g} "
+            f"%); raise the flow or allow longer"
+        )
+    elif reach and max(reach) > SLOW_TARGET_MIN:
+        # The slow response of low flow, as for a single case (model.cautions.case_warnings).
+        add(
+            f"{at}: end-tidal reaches the target of {p.target_mac:g} MAC only after "
+            f"{max(reach):.0f} min at {fgf:.2f} L/min"
+        )
+
+
+def _node_cautions(add: Callable[..., None], who: str, sub: SubPlan, where, groups) -> None:
+    """Cautions of the whole case at each duration node.
+
+    An O2 shortfall, long low-flow sevoflurane, and (once, the worst) inspired O2 under the
+    floor.
+    """
+    plan, s = sub.plan, sub.plan.settings
+    floor_pct = s.inspired_o2_floor * 100.0
     worst = None
     for gk, c in where:
         tot = groups[gk]["tot"]
