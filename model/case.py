@@ -10,7 +10,7 @@ import numpy as np
 import pandas as pd
 
 from model.base.jsonable import to_json_value
-from model.cautions import SEVOFLURANE_LOW_FLOW_CODES, case_warnings, code_of, is_unsafe, warnings_as_records
+from model.cautions import SEVOFLURANE_LOW_FLOW_CODES, Caution, case_warnings, code_of, is_unsafe, warnings_as_records
 from model.circle import simulate_cases
 from model.emissions import co2e_kg, emitted_mass_g, gas_mass_g
 from model.freshgas import apply_ratio_limit, delivered_fractions, flow_band
@@ -418,7 +418,7 @@ class CaseResult:
     currency: str
     gwp_source: str
     gwp_label: str
-    warnings: list[str] = field(default_factory=list)
+    warnings: list[Caution] = field(default_factory=list)
     #: Minute-by-minute time course of the circle simulation (columns with units in names).
     timecourse: pd.DataFrame | None = None
     #: Patient uptake model used ("compartment" or "lowe").

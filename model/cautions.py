@@ -10,6 +10,7 @@ import numpy as np
 import pandas as pd
 
 from model.plan import CasePlan
+from model.reference import Agent
 
 __all__ = [
     "CAUTION_CODES",
@@ -175,7 +176,7 @@ class _Case:
     """What every check of one case reads: the plan's settings, the agent and the case totals."""
 
     plan: CasePlan
-    agent: object
+    agent: Agent
     totals: dict | None
 
     @property

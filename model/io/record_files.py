@@ -169,10 +169,7 @@ def map_columns(names: Sequence[str], declared: dict[str, str], where: str):
         if k not in {c.source.lower() for c in columns.values()}
         and k not in columns
         and _NAME_UNIT.sub(r"\1", k)
-        not in {
-            (_NAME_UNIT.match(c.source).group(1) if _NAME_UNIT.match(c.source) else c.source).lower()
-            for c in columns.values()
-        }
+        not in {(m.group(1) if (m := _NAME_UNIT.match(c.source)) else c.source).lower() for c in columns.values()}
     ]
     if unknown_declared:
         raise InputError(f"{where}: units line", unknown_declared[0], "names no column of the file")
@@ -278,7 +275,7 @@ def _parquet_types(path: str, where: str) -> dict[str, str]:
     import duckdb
 
     try:
-        described = duckdb.sql(f"DESCRIBE SELECT * FROM read_parquet({_sql_str(path)})").fetchall()
+        described = duckdb.execute(f"DESCRIBE SELECT * FROM read_parquet({_sql_str(path)})").fetchall()
     except duckdb.Error as exc:
         raise InputError(where, "the file", f"not a readable Parquet file ({type(exc).__name__})") from None
     return {r[0]: r[1] for r in described}
@@ -441,7 +438,7 @@ def _scans(rf: RecordFile) -> bool:
 
     cols = ", ".join(_ident(c.source) for c in rf.columns.values()) or "*"
     try:
-        duckdb.sql(f"SELECT max(hash({cols})) FROM read_parquet({_sql_str(rf.path)})").fetchall()
+        duckdb.execute(f"SELECT max(hash({cols})) FROM read_parquet({_sql_str(rf.path)})").fetchall()
         return True
     except Exception:  # noqa: BLE001  (any failure means this file is the damaged one)
         return False

@@ -214,7 +214,7 @@ def _csv_table(con, rf: RecordFile, index: int, report: ReadReport, folder: str)
     for i in np.flatnonzero(broken | wrong):
         line = int(lines.number[i])
         if broken[i]:
-            kind, msg = "unreadable", f"cannot be read as CSV: {lines.problem(i)}"
+            kind, msg = "unreadable", f"cannot be read as CSV: {lines.problem(int(i))}"
         else:
             kind, msg = "field_count", f"expected {n_fields} fields as in the header, found {int(lines.fields[i])}"
         rej_rows.append((rf.name, line, kind, None, None, f"{rf.name}: line {line}: {msg}"))
@@ -453,13 +453,13 @@ def _build_views(con, tmp, specs, reference, gap_limit_min, step):
     # Agent names: normalise the few distinct values in Python with the reference's rules.
     step(0.35, "Checking agents")
     distinct = _distinct_agents(con, specs, file_selects)
-    amap = []
+    amap: list[tuple[str, str, float]] = []
     for raw in distinct:
-        key = normalise_agent_name(raw)
-        if key in ("none", "no_agent", "-", "tiva"):
+        agent_key = normalise_agent_name(raw)
+        if agent_key in ("none", "no_agent", "-", "tiva"):
             amap.append((raw, "none", 0.0))
-        elif key in reference.agents and reference.agents[key].kind == "volatile":
-            amap.append((raw, key, float(reference.agents[key].vaporizer_max)))
+        elif agent_key in reference.agents and reference.agents[agent_key].kind == "volatile":
+            amap.append((raw, agent_key, float(reference.agents[agent_key].vaporizer_max)))
     agent_case = (
         ("CASE agent_raw " + " ".join(f"WHEN {_sql_str(r)} THEN {_sql_str(k)}" for r, k, _ in amap) + " END")
         if amap

@@ -276,12 +276,13 @@ class EmissionsReport:
             t["Baseline by agent"] = self.baseline.by_agent
         if self.decomposition is not None:
             t["What drove the change"] = self.decomposition_table()
-        if self.period.use_vs_purchase is not None:
+        purchases = self.period.purchases
+        if self.period.use_vs_purchase is not None and purchases is not None:
             t["Use and purchases"] = self.period.use_vs_purchase
-            t["Purchases by item"] = self.period.purchases.by_item
-        if self.period.use_vs_purchase_by_site is not None:
+            t["Purchases by item"] = purchases.by_item
+        if self.period.use_vs_purchase_by_site is not None and purchases is not None:
             t["Use and purchases by site"] = self.period.use_vs_purchase_by_site
-            t["Purchases by site"] = self.period.purchases.by_site
+            t["Purchases by site"] = purchases.by_site
         if self.sites:
             t["Sites"] = pd.DataFrame(sorted(self.sites.items()), columns=["theatre", "site"])
         return t

@@ -54,7 +54,7 @@ def practised_plan(ctype: CaseType, scenario: Scenario):
     plan = ctype.plan
     k = ctype.stretch_index
     phase = plan.phases[k]
-    changes = {}
+    changes: dict[str, float] = {}
     if pr.maintenance_flow_l_min is not None and phase.fgf_l_min > 0:
         scale = pr.maintenance_flow_l_min / phase.fgf_l_min
         changes.update(
@@ -75,7 +75,7 @@ def practised_plan(ctype: CaseType, scenario: Scenario):
     if changes:
         plan = plan.with_phase(k, **changes)
     shares = dict(ctype.agent_shares)
-    if pr.switch_from is not None:
+    if pr.switch_from is not None and pr.switch_to is not None:  # a switch names both (scenario format)
         moved = shares.get(pr.switch_from, 0.0)
         shares[pr.switch_from] = 0.0
         shares[pr.switch_to] = shares.get(pr.switch_to, 0.0) + moved
@@ -374,7 +374,7 @@ def _assemble(scenario: Scenario, ref: Reference, subplans: list[SubPlan], cols,
     )
     e_f = np.zeros((2, n_types, len(QUANTITIES)))
     cov = np.zeros_like(e_f)
-    warnings: dict[str, dict] = {}  # caution text -> case types it applies to
+    warnings: dict[Caution, dict] = {}  # caution -> case types it applies to
     r2 = [1.0]
     for sub, where in zip(subplans, cols, strict=True):
         t = types[sub.type_index]
