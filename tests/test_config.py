@@ -112,7 +112,8 @@ def test_theme_is_calm_and_our_own_with_red_kept_for_danger(config):
 
     theme = config["theme"]
     assert theme["base"] == "light"
-    # The accent is the house colour, the same in the charts (model/present/palette.py, re-exported as model.present.palette).
+    # The accent is the house colour, the same in the charts (model/present/palette.py,
+    # re-exported as model.present.palette).
     assert theme["primaryColor"].lower() == PRIMARY.lower()
     assert theme["textColor"].lower() == TEXT.lower()
     assert [c.lower() for c in theme["chartCategoricalColors"]] == [c.lower() for c in PALETTE]

@@ -13,7 +13,7 @@ from model.io.plans import load_plan
 from model.plan import CasePlan, Patient, Phase, Settings
 from model.reference import AGENTS, DEFAULT_REFERENCE, Prices, Reference
 
-DEMO = Path(__file__).resolve().parents[1] / "demo_data" / "plans"
+DEMO = Path(__file__).resolve().parents[2] / "demo_data" / "plans"
 SEVO = AGENTS["sevoflurane"]
 
 

@@ -1,5 +1,6 @@
-"""The circle system with a patient: conservation, limits, steady states, targets, absorbent,
-inspired O2 and the per-case result built on it.
+"""The circle system with a patient.
+
+Conservation, limits, steady states, targets, absorbent, inspired O2 and the per-case result built on it.
 """
 
 import json
@@ -17,7 +18,7 @@ from model.mac import mac_at_age
 from model.plan import CasePlan, Patient, Phase, Settings
 from model.reference import AIR_O2_FRACTION, DEFAULT_REFERENCE, VOLATILES
 
-DEMO = Path(__file__).resolve().parents[1] / "demo_data" / "plans"
+DEMO = Path(__file__).resolve().parents[2] / "demo_data" / "plans"
 SEVO = DEFAULT_REFERENCE.volatile("sevoflurane")
 SPECIES = ("oxygen", "nitrous_oxide", "agent")
 FOUNDATION_KEYS = (
@@ -78,7 +79,10 @@ def balance_errors(sim):
     return out
 
 
-def plan(phases, agent="sevoflurane", patient=Patient(70.0, 40.0), **settings):
+ADULT = Patient(70.0, 40.0)
+
+
+def plan(phases, agent="sevoflurane", patient=ADULT, **settings):
     return CasePlan("test", agent, tuple(phases), patient, replace(Settings(), **settings))
 
 
@@ -153,7 +157,8 @@ def test_rebreathed_share_worked_points():
 
 
 def test_steady_state_fio2_at_worked_points():
-    # Source: docs/methods.md, Inspired oxygen: textbook circle mass balance FiO2 = (FGF FdO2 - VO2)/(FGF - VO2 - VN2O - Vagent);
+    # Source: docs/methods.md, Inspired oxygen: textbook circle mass balance
+    # FiO2 = (FGF FdO2 - VO2)/(FGF - VO2 - VN2O - Vagent);
     # hand-worked: (1 x 0.5 - 0.25)/(1 - 0.25) = 1/3; (2 x 0.35 - 0.28)/(2 - 0.28) = 0.2442
     assert steady_state_fio2(1.0, 0.5, 0.25) == pytest.approx(1 / 3)
     assert steady_state_fio2(2.0, 0.35, 0.28) == pytest.approx(0.42 / 1.72)
@@ -206,8 +211,8 @@ def test_n2o_accumulates_at_low_flow_and_lowers_inspired_o2():
     high = compute_case(plan([Phase("m", 90.0, 1.8, 0.0, 4.2, dial_pct=1.0)])).timecourse
     # Source: docs/methods.md, Inspired oxygen (N2O accumulates in the circle at low flow; hypoxic mixture risk)
     assert low["inspired_o2_pct"].iloc[-1] < high["inspired_o2_pct"].iloc[-1] - 2.0
-    # Source: docs/methods.md, Inspired oxygen: the balance, hand-worked (6 x 0.3 - 0.242) / (6 - 0.242) = 27.1 % (N2O uptake
-    # late in the case raises it slightly)
+    # Source: docs/methods.md, Inspired oxygen: the balance, hand-worked
+    # (6 x 0.3 - 0.242) / (6 - 0.242) = 27.1 % (N2O uptake late in the case raises it slightly)
     assert high["inspired_o2_pct"].iloc[-1] == pytest.approx(27.1, abs=1.0)
 
 
@@ -324,7 +329,8 @@ def test_absorbent_from_the_rebreathed_co2_at_a_worked_point():
 def test_emissions_subtract_the_metabolised_share_of_uptake():
     r = compute_case(load_plan(DEMO / "lap_chole_low_flow.toml"))
     t = r.totals
-    # Source: docs/methods.md, Emitted mass (emitted = delivered - metabolised share of uptake); sevoflurane 3 %, from memory
+    # Source: docs/methods.md, Emitted mass (emitted = delivered - metabolised share of uptake);
+    # sevoflurane 3 %, from memory
     assert t["agent_metabolised_g"] == pytest.approx(SEVO.metabolised_fraction * t["agent_gross_uptake_g"], rel=1e-6)
     assert t["agent_emitted_g"] == pytest.approx(t["agent_mass_g"] - t["agent_metabolised_g"], rel=1e-9)
     assert 0 < t["agent_uptake_g"] <= t["agent_gross_uptake_g"] < t["agent_mass_g"]

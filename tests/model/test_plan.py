@@ -10,7 +10,7 @@ from model.io.plans import load_plan, parse_plan_text, plan_from_dict, plan_to_t
 from model.plan import CasePlan, Phase, Settings
 from model.reference import DEFAULT_REFERENCE
 
-DEMO = Path(__file__).resolve().parents[1] / "demo_data" / "plans"
+DEMO = Path(__file__).resolve().parents[2] / "demo_data" / "plans"
 
 GOOD = """
 format = "fresh-gas-ledger plan 1"

@@ -296,7 +296,7 @@ def test_bad_settings_file_is_one_clear_line(tmp_path, content, expected):
 def test_demo_settings_file_loads_and_is_invented():
     from pathlib import Path
 
-    path = Path(__file__).resolve().parents[1] / "demo_data" / "settings.toml"
+    path = Path(__file__).resolve().parents[2] / "demo_data" / "settings.toml"
     text = path.read_text(encoding="utf-8")
     assert "Fernhollow" in text and "invented" in text.lower()
     ref = load_settings(path)

@@ -11,7 +11,7 @@ from model.base.errors import InputError
 from model.cli import main
 from model.sweep import DEFAULT_SWEEP_FLOWS, flow_sweep
 
-DEMO = Path(__file__).resolve().parents[1] / "demo_data" / "plans"
+DEMO = Path(__file__).resolve().parents[2] / "demo_data" / "plans"
 LOW = DEMO / "lap_chole_low_flow.toml"
 
 

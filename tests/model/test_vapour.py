@@ -35,7 +35,8 @@ def test_molar_volume_at_20c_matches_textbook_and_pint():
 
 @pytest.mark.parametrize("agent, expected", [(SEVO, 183), (DES, 210), (ISO, 195), (HAL, 227)])
 def test_vapour_per_ml_at_20c_matches_textbook(agent, expected):
-    # Source: textbook values, from memory, docs/methods.md, Vapour from liquid (about 183, 210, 195 and 227 mL vapour per mL liquid at 20 °C).
+    # Source: textbook values, from memory, docs/methods.md, Vapour from liquid (about 183, 210, 195
+    # and 227 mL vapour per mL liquid at 20 °C).
     assert vapour_per_ml_liquid(agent, 20.0) == pytest.approx(expected, rel=0.005)
 
 

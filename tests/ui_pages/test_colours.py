@@ -6,10 +6,9 @@ an agent took a different colour on each page.
 
 from __future__ import annotations
 
-from pagetest import ROOT, TIMEOUT, isolated_store, page  # noqa: F401  (isolated_store: autouse fixture)
-
 from model.freshgas import FLOW_BAND_NAMES
 from model.present.palette import AGENT_COLOURS, FLOW_BAND_COLOURS
+from tests.helpers.pages import page
 
 
 def _figures(at):
@@ -34,17 +33,18 @@ def test_flow_band_scale_darkens_steadily_from_the_lowest_to_the_highest_flow():
     lum = [_relative_luminance(FLOW_BAND_COLOURS[b]) for b in FLOW_BAND_NAMES]
     # Source: Tol P., "Colour Schemes", SRON/EPS/TN/09-002 (2021) - a sequential scheme is
     # ordered in lightness, so each band must be darker than the one below it.
-    assert all(a > b for a, b in zip(lum, lum[1:])), lum
+    assert all(a > b for a, b in zip(lum, lum[1:], strict=False)), lum
     # Adjacent bands stay apart: a WCAG contrast ratio of at least 1.15 between neighbours
     # (common practice, no source), and the lowest band shows on white (ratio over 1.2).
-    ratio = [(a + 0.05) / (b + 0.05) for a, b in zip(lum, lum[1:])]
+    ratio = [(a + 0.05) / (b + 0.05) for a, b in zip(lum, lum[1:], strict=False)]
     assert min(ratio) > 1.15, ratio
     assert (1.05) / (lum[0] + 0.05) > 1.2
 
 
 def test_record_audit_flow_bands_follow_the_scale_and_agents_keep_their_colours():
-    """Defect 15: the flow-band bars use the ordered scale, lowest flow first; the per-case
-    spread draws each agent in its house colour.
+    """Defect 15: the flow-band bars use the ordered scale, lowest flow first.
+
+    The per-case spread draws each agent in its house colour.
     """
     at = page("record_audit.py")
     figs = {f["layout"]["title"]["text"]: f for f in _figures(at)}
@@ -65,5 +65,5 @@ def test_department_year_draws_each_agent_in_the_same_colour():
     for trace in bottles["data"]:
         assert trace["marker"]["color"] == AGENT_COLOURS[trace["name"].lower()], trace["name"]
     by_source = figs["CO2e by source"]["data"][0]
-    for name, colour in zip(by_source["y"], by_source["marker"]["color"]):
+    for name, colour in zip(by_source["y"], by_source["marker"]["color"], strict=False):
         assert colour == AGENT_COLOURS[name.lower().replace(" ", "_")], name

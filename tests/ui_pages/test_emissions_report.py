@@ -5,11 +5,12 @@ from __future__ import annotations
 import json
 
 import pytest
-from pagetest import ROOT, isolated_store, page  # noqa: F401  (isolated_store: autouse fixture)
 from streamlit.testing.v1 import AppTest
 
 from model.audit.engine import audit_records
 from model.report import build_report, parse_period
+from tests.helpers import ROOT
+from tests.helpers.pages import page
 
 DEMO = ROOT / "demo_data" / "records"
 
@@ -80,10 +81,11 @@ def test_upload_without_files_asks_for_records_and_no_baseline_hides_the_change(
 
 
 def test_the_command_line_html_has_the_charts_the_page_draws(tmp_path, capsys):
-    """One set of figure builders: the page's and ``gas-ledger report --html``'s are the same
-    functions, and for the page's default choices (demo records, purchases and sites, 2026
-    against 2025, -5 %/year) the HTML file holds one chart for each chart on the page, with
-    the same titles.
+    """One set of figure builders for the page and ``gas-ledger report --html``.
+
+    The page's and the command's are the same functions, and for the page's default
+    choices (demo records, purchases and sites, 2026 against 2025, -5 %/year) the HTML file
+    holds one chart for each chart on the page, with the same titles.
     """
     import model.present.report_charts
     from model.cli import main

@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import json
 
-from pagetest import isolated_store, page  # noqa: F401  (isolated_store: autouse fixture)
+from tests.helpers.pages import page
 
 
 def _config(df) -> dict:
@@ -16,8 +16,9 @@ def _config(df) -> dict:
 
 
 def test_wide_audit_tables_lead_with_the_key_figures_and_pin_their_first_column():
-    """Defect 16: the case table starts with case, agent, theatre, month and the figures, and
-    keeps the case pinned while scrolled sideways.
+    """Defect 16: the case table starts with case, agent, theatre, month and the figures.
+
+    It keeps the case pinned while scrolled sideways.
     """
     at = page("record_audit.py")
     cases = next(df for df in at.dataframe if "case" in df.value.columns and "start" in df.value.columns)
@@ -40,8 +41,9 @@ def test_case_plan_headline_results_are_drawn_before_the_phases_table_beside_it(
 
 
 def test_record_problems_show_their_message_before_the_columns_that_may_be_wide():
-    """Defect 16 (and 7): a set-aside row's message sits beside its line and problem, not past
-    a wide value column where a laptop screen cuts it off.
+    """Defect 16 (and 7): a set-aside row's message sits beside its line and problem.
+
+    Not past a wide value column where a laptop screen cuts it off.
     """
     at = page("record_audit.py")
     issues = next(df.value for df in at.dataframe if "message" in df.value.columns)

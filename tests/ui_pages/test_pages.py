@@ -6,10 +6,11 @@ import re
 from dataclasses import replace
 
 import pytest
-from pagetest import ROOT, TIMEOUT, isolated_store, page  # noqa: F401  (isolated_store: autouse fixture)
 from streamlit.testing.v1 import AppTest
 
 from model.store import Store
+from tests.helpers import ROOT
+from tests.helpers.pages import TIMEOUT, page
 
 
 def metric(at: AppTest, label: str) -> float:
@@ -263,3 +264,31 @@ def test_a_vaporizer_maximum_raised_on_the_reference_page_lets_a_plan_dial_above
     assert not at.error, [e.value for e in at.error]
     # Dion's formula (docs/methods.md): at the same flow, 9 % instead of 2 % vaporises more liquid.
     assert metric(at, "Liquid agent") > before
+
+
+def app() -> AppTest:
+    at = AppTest.from_file(str(ROOT / "app.py"), default_timeout=TIMEOUT)
+    at.run()
+    assert not at.exception, [e.message for e in at.exception]
+    return at
+
+
+def run(at: AppTest) -> AppTest:
+    at.run()
+    assert not at.exception, [e.message for e in at.exception]
+    return at
+
+
+def click(at: AppTest, text: str) -> AppTest:
+    next(b for b in at.button if b.label.endswith(text)).click()
+    return run(at)
+
+
+@pytest.mark.parametrize(
+    "page_file", ["case_plan.py", "compare.py", "department_year.py", "record_audit.py", "reference.py"]
+)
+def test_every_page_says_which_prices_and_gwp_values_are_in_use(page_file):
+    """Defect 2: every page shows which prices and GWP values are in use and where they come from."""
+    at = page(page_file)
+    line = next((c.value for c in at.caption if "Prices in use" in c.value), "").replace("\\", "")
+    assert "built-in invented example prices" in line and "chosen in the sidebar" in line, line

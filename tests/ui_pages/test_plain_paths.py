@@ -10,9 +10,10 @@ import tempfile
 from pathlib import Path
 
 import pytest
-from pagetest import ROOT, TIMEOUT, isolated_store, page  # noqa: F401  (isolated_store: autouse fixture)
 from streamlit.testing.v1 import AppTest
 
+from tests.helpers import ROOT
+from tests.helpers.pages import TIMEOUT, page
 from ui.tables import plain_paths
 
 PAGES = ("case_plan.py", "compare.py", "department_year.py", "record_audit.py", "reference.py")

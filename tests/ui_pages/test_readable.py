@@ -12,7 +12,6 @@ import re
 import numpy as np
 import pandas as pd
 import pytest
-from pagetest import ROOT, isolated_store, page  # noqa: F401  (isolated_store: autouse fixture)
 
 from model import DEFAULT_REFERENCE, load_plan
 from model.case import compute_case
@@ -21,6 +20,8 @@ from model.present.exports import html_report, to_csv
 from model.present.readable import decimals, is_money, number_text, readable_frame
 from model.reference import GWP_SOURCES
 from model.year.result import compute_year
+from tests.helpers import ROOT
+from tests.helpers.pages import page
 
 SNAKE = re.compile(r"^[a-z0-9]+(_[a-z0-9]+)+$")
 PAGES = ("case_plan.py", "compare.py", "department_year.py", "record_audit.py")
@@ -46,8 +47,10 @@ def _check_frame(df: pd.DataFrame, where: str) -> None:
 
 @pytest.mark.parametrize("name", PAGES)
 def test_page_tables_have_headings_in_words_and_rounded_figures(name):
-    """Defect 7: every table on the page has headings in words (units in brackets), figures to
-    sensible significant figures, and no machine keys (snake_case, GWP source keys) in cells.
+    """Defect 7: every table on the page is written for people.
+
+    Headings in words (units in brackets), figures to sensible significant figures, and no
+    machine keys (snake_case, GWP source keys) in cells.
     """
     at = page(name)
     assert at.dataframe, name

@@ -6,9 +6,8 @@ file, while `gas-ledger audit` sets just that line aside (README, "Case records"
 
 from __future__ import annotations
 
-from pagetest import isolated_store, page  # noqa: F401  (isolated_store: autouse fixture)
-
 from model.audit.engine import audit_records
+from tests.helpers.pages import page
 
 RECORDS = (
     "case_id,elapsed,agent,o2,air,dial\n"
@@ -21,8 +20,9 @@ def _metric(at, label: str) -> str:
 
 
 def test_one_line_not_in_utf8_is_set_aside_on_the_page_as_on_the_command_line(tmp_path):
-    """Defect 11: the page sets the bad line aside, names the upload and its line, and uses the
-    rest; its counts equal the command line's reader on the same bytes.
+    """Defect 11: the page sets the bad line aside, names the upload and its line, uses the rest.
+
+    Its counts equal the command line's reader on the same bytes.
     """
     path = tmp_path / "theatre_export.csv"
     path.write_bytes(RECORDS)
@@ -40,3 +40,13 @@ def test_one_line_not_in_utf8_is_set_aside_on_the_page_as_on_the_command_line(tm
     assert issues[["file", "line or row", "problem"]].values.tolist() == [["theatre_export.csv", 4, "not UTF-8 text"]]
     shown = " ".join(str(v) for v in issues.values.ravel())
     assert "/tmp" not in shown and "gas-ledger-audit" not in shown
+
+
+def test_record_file_missing_columns_is_named_as_uploaded_not_by_its_temporary_copy():
+    at = page("record_audit.py")
+    at.radio(key="ra_source").set_value("Upload files").run()
+    at.get("file_uploader")[0].upload("theatre_export.csv", b"case_id,elapsed,agent\nA,0,sevo\n").run()
+    assert not at.exception, [e.message for e in at.exception]
+    message = " ".join(e.value for e in at.error)
+    assert "theatre\\_export\\.csv" in message and "missing required column" in message
+    assert "gas\\-ledger\\-audit" not in message and "/tmp" not in message

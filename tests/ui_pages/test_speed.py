@@ -20,10 +20,10 @@ import subprocess
 import sys
 import textwrap
 
-from pagetest import ROOT, isolated_store, page  # noqa: F401  (isolated_store: autouse fixture)
-
 import ui.common
 from model.store import STORE_ENV
+from tests.helpers import ROOT
+from tests.helpers.pages import page
 
 #: Modules the Case plan page's first run has no use for: the year's model and its scipy
 #: parts, the record and purchase readers, the audit, the emissions report, the workbook
@@ -64,8 +64,9 @@ def _counting(monkeypatch, module, name: str) -> list:
 
 
 def test_an_edit_runs_no_flow_sweep_and_builds_no_download_until_asked(monkeypatch):
-    """Defect 18: with the first tab (the phases table) open, a new flow runs the case only: no
-    sweep and no figure (their tabs are closed), no CSV, workbook or report (built when
+    """Defect 18: with the first tab (the phases table) open, a new flow runs the case only.
+
+    No sweep and no figure (their tabs are closed), no CSV, workbook or report (built when
     downloaded).
     """
     import model.present.case_charts
@@ -87,8 +88,9 @@ def test_an_edit_runs_no_flow_sweep_and_builds_no_download_until_asked(monkeypat
 
 
 def test_the_first_run_of_the_dashboard_loads_only_what_the_case_plan_page_uses(isolated_store):
-    """A new process runs ``app.py`` once (its default page is Case plan) and lists which of
-    :data:`NOT_FOR_THE_FIRST_PAGE` it imported. Before the lazy packages, ``model``'s
+    """A new process runs ``app.py`` once and lists what of :data:`NOT_FOR_THE_FIRST_PAGE` it imported.
+
+    Its default page is Case plan. Before the lazy packages, ``model``'s
     ``__init__`` pulled in every format and the year's model with scipy.special.
     """
     code = textwrap.dedent(f"""
@@ -107,8 +109,10 @@ def test_the_first_run_of_the_dashboard_loads_only_what_the_case_plan_page_uses(
 
 
 def test_the_warm_start_leaves_the_first_page_nothing_to_import(isolated_store):
-    """``serve.py``'s warm-up (run here as its background thread runs it at server start)
-    imports every module the first page uses and builds the unit registry: the first run
+    """``serve.py``'s warm-up leaves the first run of ``app.py`` nothing to import.
+
+    The warm-up (run here as its background thread runs it at server start) imports every
+    module the first page uses and builds the unit registry: the first run
     of ``app.py`` after it imports no module of ours and no package not loaded yet. The
     page it warms is the one ``app.py`` opens first.
     """

@@ -5,7 +5,6 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 import pytest
-from test_audit import _constant, _write
 
 from model import compute_case
 from model.audit.absorbent import absorbent_assumptions
@@ -16,6 +15,8 @@ from model.circle import ABSORBENT_CAPACITY_L_PER_KG, rebreathed_share
 from model.patient import brody_vo2_ml_min
 from model.plan import CasePlan, Phase, Settings
 from model.reference import DEFAULT_REFERENCE, Reference
+from tests.helpers.records import constant_case as _constant
+from tests.helpers.records import write_records as _write
 
 
 @pytest.mark.parametrize("engine", ["memory", "sql"])
@@ -95,7 +96,7 @@ def test_time_weighted_fgf_is_the_flow_weighted_by_time(tmp_path, engine):
     t = np.cumsum(rng.uniform(0.2, 2.0, 50))
     o2 = rng.uniform(0.2, 3.0, 50)
     air = rng.uniform(0.0, 1.0, 50)
-    rows = [("W", ti, "Alder", "sevoflurane", oi, ai, 0.0, 2.0) for ti, oi, ai in zip(t, o2, air)]
+    rows = [("W", ti, "Alder", "sevoflurane", oi, ai, 0.0, 2.0) for ti, oi, ai in zip(t, o2, air, strict=True)]
     c = audit_records([_write(tmp_path, rows)], engine=engine).cases.iloc[0]
     # Definition (common practice, no source): each flow weighted by the minutes it held.
     assert c["time_weighted_fgf_l_min"] == pytest.approx(np.average((o2 + air)[:-1], weights=np.diff(t)), rel=1e-12)

@@ -18,23 +18,11 @@ from model.freshgas import FLOW_BAND_NAMES, flow_band
 from model.plan import CasePlan, Phase, Settings
 from model.reference import DEFAULT_REFERENCE
 from model.vapour import liquid_used_series_ml, rule_of_thumb_ml_per_hour
+from tests.helpers.records import constant_case as _constant
+from tests.helpers.records import write_records as _write
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[3]
 DEMO = ROOT / "demo_data" / "records"
-
-
-def _write(tmp_path, rows, name="r.csv"):
-    df = pd.DataFrame(rows, columns=["case_id", "elapsed", "theatre", "agent", "o2", "air", "n2o", "dial"])
-    p = tmp_path / name
-    if name.endswith(".csv"):
-        df.to_csv(p, index=False)
-    else:
-        df.to_parquet(p)
-    return p
-
-
-def _constant(case, minutes, o2, air, n2o, dial, agent, theatre="Alder"):
-    return [(case, float(t), theatre, agent, o2, air, n2o, dial) for t in range(minutes + 1)]
 
 
 @pytest.mark.parametrize(
@@ -84,7 +72,7 @@ def test_varying_case_equals_the_foundation_series_integral(tmp_path):
     t = np.cumsum(rng.uniform(0.2, 2.0, 80))
     o2 = rng.uniform(0.2, 3.0, 80)
     dial = rng.uniform(0.5, 4.0, 80)
-    rows = [("V", ti, "Alder", "sevoflurane", oi, 0.0, 0.0, di) for ti, oi, di in zip(t, o2, dial)]
+    rows = [("V", ti, "Alder", "sevoflurane", oi, 0.0, 0.0, di) for ti, oi, di in zip(t, o2, dial, strict=True)]
     got = audit_records([_write(tmp_path, rows)], gap_limit_min=5).cases.iloc[0]
     expected = liquid_used_series_ml(t, o2, dial, DEFAULT_REFERENCE.agents["sevoflurane"])
     assert got["liquid_agent_ml"] == pytest.approx(expected, rel=1e-12)
@@ -117,7 +105,7 @@ def test_flow_band_minutes_follow_the_foundation_bands(tmp_path):
     c = audit_records([_write(tmp_path, rows)]).cases.iloc[0]
     # Source: Baker AB, Anaesth Intensive Care 1994;22:341-2, as model.freshgas.flow_band.
     expected = pd.Series(flow_band(flows)).value_counts()
-    for name, col in zip(FLOW_BAND_NAMES, BAND_COLUMNS):
+    for name, col in zip(FLOW_BAND_NAMES, BAND_COLUMNS, strict=True):
         assert c[col] == expected.get(name, 0), name
     assert sum(c[col] for col in BAND_COLUMNS) == c["minutes"]
 

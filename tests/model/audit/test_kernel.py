@@ -88,7 +88,10 @@ def test_samples_out_of_order_are_left_to_the_numpy_path():
         band_edges_l_min=np.array([0.25, 0.5, 1.0, 2.0, 4.0]),
     )
     ones = np.ones(3)
-    args = lambda code, agent, t: (np.array(code), np.array(agent), np.array(t, float), ones, ones, ones, ones, ones)
+
+    def args(code, agent, t):
+        return (np.array(code), np.array(agent), np.array(t, float), ones, ones, ones, ones, ones)
+
     assert case_sums(*args([0, 0, 0], [0, 0, 0], [0, 2, 1]), **common) is None  # time goes back
     assert case_sums(*args([0, 0, 0], [0, 0, 0], [0, 1, 1]), **common) is None  # duplicate time
     assert case_sums(*args([0, 1, 0], [0, 0, 0], [0, 1, 2]), **common) is None  # case 0 in two runs

@@ -10,7 +10,7 @@ import pytest
 
 from model.cli import main
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[3]
 DEMO = ROOT / "demo_data" / "plans"
 LOW = DEMO / "lap_chole_low_flow.toml"
 SETTINGS = ROOT / "demo_data" / "settings.toml"

@@ -6,7 +6,7 @@ from model.case import compute_case
 from model.cli import main
 from model.io.plans import load_plan
 
-PLANS = Path(__file__).resolve().parents[1] / "demo_data" / "plans"
+PLANS = Path(__file__).resolve().parents[3] / "demo_data" / "plans"
 
 
 def test_case_text_shows_inspired_o2_absorbent_uptake_and_safe_o2_share(capsys):

@@ -9,7 +9,7 @@ import pytest
 
 from model.cli import main
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[3]
 YEAR = ROOT / "demo_data" / "year"
 BASE = str(YEAR / "baseline_2l.toml")
 HALF = str(YEAR / "proposal_half_litre.toml")

@@ -10,7 +10,7 @@ from model.io.casemix import casemix_from_frame, casemix_to_csv, casemix_to_fram
 from model.io.plans import load_plan
 from model.year.inputs import stretch_phase
 
-YEAR = Path(__file__).resolve().parents[1] / "demo_data" / "year"
+YEAR = Path(__file__).resolve().parents[3] / "demo_data" / "year"
 HEADER = "case_type,cases_per_year,median_duration,duration_spread,sevoflurane,desflurane,n2o_share,plan\n"
 
 

@@ -16,7 +16,7 @@ from model.base.errors import InputError
 from model.io.purchases import load_purchases, read_purchases
 from model.reference import DEFAULT_REFERENCE
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[3]
 DEMO = ROOT / "demo_data" / "records"
 
 
@@ -141,7 +141,10 @@ def test_a_bad_purchase_line_is_set_aside_and_the_lines_around_it_are_kept(tmp_p
     read = load_purchases(p)
     assert [str(e) for e in read.set_aside] == read.messages
     assert len(read.set_aside) == 1 and f"{p}, line 3: {field}" in read.messages[0]
-    assert list(zip(read.table["month"], read.table["item"])) == [("2025-01", "sevoflurane"), ("2025-02", "isoflurane")]
+    assert list(zip(read.table["month"], read.table["item"], strict=True)) == [
+        ("2025-01", "sevoflurane"),
+        ("2025-02", "isoflurane"),
+    ]
     # The strict reader refuses the same file at that line.
     with pytest.raises(InputError, match=f"line 3: {field}"):
         read_purchases(p)

@@ -125,9 +125,9 @@ def test_each_kind_of_bad_row_is_reported_with_its_line(tmp_path):
     # Header is line 1; five good rows are lines 2-6; the bad lines follow from line 7.
     expected = {7 + i: kind for i, (_, kind) in enumerate(lines)}
     expected[7 + len(lines) + 1] = "encoding"
-    got = dict(zip(issues["row"], issues["kind"]))
+    got = dict(zip(issues["row"], issues["kind"], strict=True))
     assert got == expected
-    for row, msg in zip(issues["row"], issues["message"]):
+    for row, msg in zip(issues["row"], issues["message"], strict=True):
         assert msg.startswith(f"{p}: line {row}: ")
     assert r.report.rows_valid == 5 + 2
     assert r.report.rows_read == 5 + 2 + len(lines) + 1
@@ -158,7 +158,10 @@ def test_parquet_reports_row_numbers_and_reads_typed_columns(tmp_path):
     p = tmp_path / "r.parquet"
     df.to_parquet(p)
     r = audit_records([p])
-    assert dict(zip(r.report.issues["row"], r.report.issues["kind"])) == {3: "duplicate_time", 4: "missing_value"}
+    assert dict(zip(r.report.issues["row"], r.report.issues["kind"], strict=True)) == {
+        3: "duplicate_time",
+        4: "missing_value",
+    }
     assert r.report.issues["message"].iloc[0].startswith(f"{p}: row 3: ")
     assert r.cases["month"].tolist() == ["2025-03"]
 

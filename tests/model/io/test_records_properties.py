@@ -99,8 +99,8 @@ def test_broken_lines_are_reported_by_line_and_no_valid_row_is_lost(case):
         r = audit_records([broken])
         ref = audit_records([good])
     issues = r.report.issues
-    assert dict(zip(issues["row"].astype(int), issues["kind"])) == expected
-    for row, msg in zip(issues["row"], issues["message"]):
+    assert dict(zip(issues["row"].astype(int), issues["kind"], strict=True)) == expected
+    for row, msg in zip(issues["row"], issues["message"], strict=True):
         assert msg.startswith(f"{broken}: line {row}: ")
     assert r.report.rows_valid == len(clean)
     assert r.report.rows_set_aside == len(expected)
@@ -126,7 +126,7 @@ def test_parquet_rows_set_aside_are_numbered_and_the_rest_all_used(clean, kinds)
         p = Path(tmp) / "r.parquet"
         whole.to_parquet(p)
         r = audit_records([p])
-    assert dict(zip(r.report.issues["row"].astype(int), r.report.issues["kind"])) == {
+    assert dict(zip(r.report.issues["row"].astype(int), r.report.issues["kind"], strict=True)) == {
         i + 1: k for i, k in enumerate(kinds)
     }
     assert r.report.rows_valid == len(clean)

@@ -27,7 +27,7 @@ from model.io.uploads import (
     upload_limit_mb,
 )
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[3]
 PLAN = (ROOT / "demo_data" / "plans" / "lap_chole_low_flow.toml").read_bytes()
 CSV = b"case_id,minute,o2,air,n2o,dial\nFGH-1,0,0.5,0.5,0,2.0\nFGH-1,1,0.5,0.5,0,2.0\n"
 
@@ -207,8 +207,9 @@ def test_windows_1252_text_is_refused_with_its_line():
 
 
 def test_a_records_csv_line_not_in_utf8_is_left_to_the_reader():
-    """Defect 11 of issue 12: one bad line must not refuse a whole record file; the records
-    reader sets that line aside (README, "Case records"), on the page as on the command line.
+    """Defect 11 of issue 12: one bad line must not refuse a whole record file.
+
+    The records reader sets that line aside (README, "Case records"), on the page as on the command line.
     """
     data = "case_id,name\nFGH-1,Caf\u00e9\nFGH-2,ok\n".encode("cp1252")
     up = check_upload("r.csv", data, "records")

@@ -17,7 +17,7 @@ from hypothesis import strategies as st
 from model import compute_case, load_plan
 from model.present.exports import FORMULA_STARTS, chart_text, html_report, neutralise, to_csv, to_xlsx
 
-DEMO = Path(__file__).resolve().parents[1] / "demo_data" / "plans"
+DEMO = Path(__file__).resolve().parents[3] / "demo_data" / "plans"
 
 # Cell texts a spreadsheet program would run as formulas (OWASP "CSV injection" examples,
 # common practice, no source).
@@ -42,7 +42,7 @@ def frame():
 def test_csv_text_cells_neutralised_numbers_kept():
     rows = list(csv.reader(io.StringIO(to_csv(frame()).decode("utf-8"), newline="")))
     assert rows[0] == ["phase", "liquid_ml", "count"]
-    for text, row in zip(HOSTILE, rows[1:]):
+    for text, row in zip(HOSTILE, rows[1:], strict=False):
         assert row[0] == "'" + text
     assert [float(r[1]) for r in rows[1:]] == [1.5, -2.25, 0.0, 3.0, -4.0, 5.0, 6.0]
     assert [int(r[2]) for r in rows[1:]] == [1, -2, 3, 4, 5, 6, 7]

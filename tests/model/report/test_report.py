@@ -36,7 +36,7 @@ from model.report import (
 )
 from model.report.figures import assign_sites
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[3]
 DEMO = ROOT / "demo_data" / "records"
 YEARS = [DEMO / "fernhollow_2025.parquet", DEMO / "fernhollow_2026.parquet"]
 PURCHASES = [DEMO / "fernhollow_purchases_2025.csv", DEMO / "fernhollow_purchases_2026.csv"]
@@ -164,7 +164,7 @@ def test_an_agent_used_in_one_period_only_goes_to_the_mix_and_the_small_value_st
         s = decompose(BASE, now, zero_handling="small_value", small_value=small)
         assert s.by_factor["contribution_kg"].sum() == pytest.approx(d.change_kg, rel=1e-9)
         errors.append(np.abs(s.by_factor["contribution_kg"].to_numpy() - exact).max())
-    assert all(b < a for a, b in zip(errors, errors[1:]))
+    assert all(b < a for a, b in zip(errors, errors[1:], strict=False))
     assert errors[-1] / errors[1] == pytest.approx(math.log(1e20) / math.log(1e160), rel=0.1)
     back = decompose(now, BASE)
     assert back.detail.set_index(["factor", "term"]).loc[
@@ -430,7 +430,8 @@ def test_purchases_without_a_site_column_give_the_figures_they_gave_before(demo,
         lines = path.read_text(encoding="utf-8").splitlines()
         out = tmp_path / path.name
         out.write_text(
-            "\n".join(l if l.startswith("#") else l.rsplit(",", 1)[0] for l in lines) + "\n", encoding="utf-8"
+            "\n".join(line if line.startswith("#") else line.rsplit(",", 1)[0] for line in lines) + "\n",
+            encoding="utf-8",
         )
         bare_files.append(out)
     bare = pd.concat([load_purchases(p).table for p in bare_files], ignore_index=True)
@@ -525,7 +526,7 @@ def test_purchase_based_by_site_sums_to_the_whole_for_any_purchases(lines, perio
     assert whole.by_site is None
     for label in (AR6, "t CO2e (IPCC AR5 GWP100)"):
         assert by.by_site[label].sum() == pytest.approx(whole.co2e_t(label), rel=1e-9, abs=1e-12)
-        for site, value in zip(by.by_site["site"], by.by_site[label]):
+        for site, value in zip(by.by_site["site"], by.by_site[label], strict=True):
             own = purchase_figures(table[table["site"] == site].drop(columns="site"), p, ref, sources)
             assert value == pytest.approx(own.co2e_t(label), rel=1e-12, abs=1e-15)
     # Spellings of a known site ignoring case and spaces are that site; of an unknown one, one site.
@@ -732,8 +733,10 @@ def test_cli_report_json_html_and_xlsx_carry_use_and_purchases_by_site(tmp_path,
 
 
 def test_cli_report_html_carries_the_report_charts(tmp_path, capsys, monkeypatch):
-    """``--html`` writes the charts of the Emissions report page's download, from the same builders
-    (model.present.report_charts, which the page reads through model.present.report_charts), into a file that opens offline.
+    """``--html`` writes the charts of the Emissions report page's download, offline.
+
+    The charts come from the same builders (model.present.report_charts, which the page
+    reads through model.present.report_charts), into a file that opens offline.
     """
     import model.present.report_charts as report_charts
 

@@ -1,7 +1,8 @@
-"""The store on SQLite and on PostgreSQL: versions kept, concurrent writers, killed writers,
-schema versions and migrations, imports, authors, copying one store into another.
+"""The store on SQLite and on PostgreSQL.
 
-Every test taking ``store_location`` (or ``store``) runs once per database (tests/storetest.py).
+Versions kept, concurrent writers, killed writers, schema versions and migrations, imports,
+authors, copying one store into another. Every test taking ``store_location`` (or
+``store``) runs once per database (tests/model/store/conftest.py).
 """
 
 from __future__ import annotations
@@ -16,15 +17,15 @@ import textwrap
 from pathlib import Path
 
 import pytest
-from storetest import open_store, postgres_database, store_location  # noqa: F401  (fixtures)
 
 from model import load_plan
 from model.base.errors import InputError
 from model.io.plans import plan_to_toml
 from model.store import SCHEMA_VERSION, STORE_ENV, Store, StoreError, default_location, default_path
 from model.store.schema import create_schema_1, create_schema_2
+from tests.helpers.postgres import postgres_database
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[3]
 DEMO = ROOT / "demo_data" / "plans"
 PY = sys.executable
 

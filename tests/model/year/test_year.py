@@ -27,7 +27,7 @@ from model.year.result import compute_year, headline_figures
 from model.year.sampling import triangular_ppf
 from model.year.simulate import QUANTITIES, practised_plan, year_inputs
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[3]
 YEAR = ROOT / "demo_data" / "year"
 PLANS = ROOT / "demo_data" / "plans"
 HEADER = "case_type,cases_per_year,median_duration,duration_spread,sevoflurane,desflurane,isoflurane,n2o_share,plan\n"
@@ -322,7 +322,7 @@ def test_interpolated_case_totals_are_within_one_percent_of_direct_simulation(na
         t = scenario.casemix.types[sub.type_index]
         stretch = np.maximum(t.median_min * np.exp(t.spread * rng.standard_normal(2)) - t.fixed_min, 0.0)
         est = interpolate_nodes(sub.nodes_min, sub.totals, stretch)
-        for x, row in zip(stretch, est):
+        for x, row in zip(stretch, est, strict=True):
             c = _subplan_case(sub, x)
             want = {
                 f"liquid_ml:{sub.agent}": c["liquid_agent_ml"],
@@ -345,10 +345,10 @@ def test_piecewise_linear_moments_match_scipy_lognormal_expectation():
     x = lambda d: max(d - fixed, 0.0)  # noqa: E731
     ex = dist.expect(x)
     for q in range(2):
-        m = dist.expect(lambda d: f(d, q))
+        m = dist.expect(lambda d, q=q: f(d, q))
         assert mean[q] == pytest.approx(m, rel=1e-6)
-        assert cov[q] == pytest.approx(dist.expect(lambda d: f(d, q) * x(d)) - m * ex, rel=1e-5)
-        assert var[q] == pytest.approx(dist.expect(lambda d: f(d, q) ** 2) - m * m, rel=1e-5)
+        assert cov[q] == pytest.approx(dist.expect(lambda d, q=q: f(d, q) * x(d)) - m * ex, rel=1e-5)
+        assert var[q] == pytest.approx(dist.expect(lambda d, q=q: f(d, q) ** 2) - m * m, rel=1e-5)
     # A linear total (column 1) moves exactly with the minutes: slope 2.
     assert cov[1] / stretch_minutes_moments(median, spread, fixed)[1] == pytest.approx(2.0, rel=1e-6)
 
@@ -491,7 +491,7 @@ def test_a_scenario_written_out_reads_back_the_same():
 
     from model.io.scenario import load_scenario, parse_scenario_text, scenario_to_toml
 
-    demo = Path(__file__).resolve().parents[1] / "demo_data" / "year"
+    demo = Path(__file__).resolve().parents[3] / "demo_data" / "year"
     base = load_scenario(demo / "proposal_half_litre.toml")
     edited = base.with_practice(maintenance_flow_l_min=0.8, dial_factor=1.25)
     edited = _replace(edited, sampling=_replace(edited.sampling, seed=7))

@@ -13,14 +13,14 @@ from model.year.compare import compare_years
 from model.year.inputs import Sampling
 from model.year.result import compute_year
 
-YEAR = Path(__file__).resolve().parents[1] / "demo_data" / "year"
+YEAR = Path(__file__).resolve().parents[3] / "demo_data" / "year"
 BASE = load_scenario(YEAR / "baseline_2l.toml")
 N_TYPES = len(BASE.casemix.types)
 FEW = Sampling(draws=64, seed=1, price_spread=0.1, gwp_sources=("ar6_gwp100", "ar5_gwp100"))
 
 
 def _with_counts(counts):
-    types = tuple(replace(t, cases_per_year=c) for t, c in zip(BASE.casemix.types, counts))
+    types = tuple(replace(t, cases_per_year=c) for t, c in zip(BASE.casemix.types, counts, strict=True))
     return replace(BASE, casemix=replace(BASE.casemix, types=types), sampling=FEW)
 
 

@@ -1,20 +1,19 @@
-"""Shared pieces of the fuzz tests: example settings and a scratch folder for fuzz files."""
+"""Example settings of the fuzz tests, and the verdict on a store file they made.
+
+The examples are derandomized, and so repeatable, under the ``ci`` Hypothesis profile
+(tests/conftest.py); the ``fuzz`` profile raises every count to its own.
+"""
 
 from __future__ import annotations
 
 import hashlib
-import os
-import tempfile
 from pathlib import Path
 
-import pytest
 from hypothesis import HealthCheck, settings
 
-# In CI (CI=true) the examples are derandomized, so a run is repeatable; local runs explore.
 FUZZ = settings(
     max_examples=1000,
     deadline=None,
-    derandomize=bool(os.environ.get("CI")),
     suppress_health_check=[
         HealthCheck.too_slow,
         HealthCheck.data_too_large,
@@ -24,16 +23,6 @@ FUZZ = settings(
 )
 #: For readers that take a tenth of a second an example (duckdb, SQLite).
 SLOW = settings(FUZZ, max_examples=80)
-
-
-@pytest.fixture(scope="module")
-def scratch(tmp_path_factory):
-    """A folder for fuzz files; duckdb's spill folders go there too, not to /tmp."""
-    folder = tmp_path_factory.mktemp("fuzz")
-    old = tempfile.tempdir
-    tempfile.tempdir = str(folder)
-    yield folder
-    tempfile.tempdir = old
 
 
 def store_refused_untouched_or_works(path: Path) -> None:

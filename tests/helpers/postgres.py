@@ -1,10 +1,8 @@
-"""Shared parts of the store tests: the same tests run on SQLite and on PostgreSQL.
+"""A PostgreSQL database of its own for a test, on the server named by ``GAS_LEDGER_TEST_POSTGRES``.
 
-``store_location`` is parametrised over both databases: an SQLite file in the test's
-temporary folder, or a new empty PostgreSQL database made for the test (dropped after) on
-the server named by ``GAS_LEDGER_TEST_POSTGRES``. Without that variable the PostgreSQL
-cases are skipped with the reason, except in CI (``CI=true``), where they fail: CI must run
-them (.ci/run starts a throwaway server with scripts/test_postgres.sh).
+Without that variable the PostgreSQL cases are skipped with the reason, except in CI
+(``CI=true``), where they fail: CI must run them (.ci/run starts a throwaway server with
+scripts/test_postgres.sh).
 """
 
 from __future__ import annotations
@@ -16,11 +14,8 @@ from urllib.parse import urlsplit, urlunsplit
 
 import pytest
 
-from model.store import Store
-
 #: Environment variable with the URL of a PostgreSQL user who may create databases.
 PG_ENV = "GAS_LEDGER_TEST_POSTGRES"
-BACKENDS = ("sqlite", "postgresql")
 
 
 def postgres_admin_url() -> str:
@@ -59,28 +54,3 @@ def postgres_database(prefix: str = "gl_test"):
     finally:
         with psycopg.connect(admin, autocommit=True, connect_timeout=15) as con:
             con.execute(f'DROP DATABASE IF EXISTS "{name}" WITH (FORCE)')
-
-
-@pytest.fixture(params=BACKENDS)
-def store_location(request, tmp_path):
-    """Where a test's store lives: an SQLite file, or a PostgreSQL URL."""
-    if request.param == "sqlite":
-        yield str(tmp_path / "store.sqlite3")
-    else:
-        with postgres_database() as url:
-            yield url
-
-
-@pytest.fixture
-def open_store():
-    """``open_store(location)`` opens a Store and closes it when the test ends."""
-    opened: list[Store] = []
-
-    def _open(location):
-        s = Store(location)
-        opened.append(s)
-        return s
-
-    yield _open
-    for s in opened:
-        s.close()
