@@ -12,7 +12,7 @@ from pathlib import Path
 
 import pytest
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[2]
 sys.path.insert(0, str(ROOT / "benchmarks"))
 
 from bench_load import run_load  # noqa: E402
@@ -22,6 +22,7 @@ CONCURRENCY = 5
 
 
 @pytest.mark.browser
+@pytest.mark.browser_alone  # 20 sessions, 5 at a time: the machine to itself
 @pytest.mark.timeout(900)
 def test_twenty_sessions_plan_a_case_without_errors(tmp_path):
     store = tmp_path / "store.sqlite3"

@@ -11,19 +11,13 @@ wide). Defect 16: at 1366 x 768 the first screen of Case plan showed no results.
 from __future__ import annotations
 
 import re
-import sys
 from pathlib import Path
 
 import pytest
 
-pytestmark = pytest.mark.browser
+from tests.browser.actions import ARTIFACTS, wait_plots_drawn
 
-ROOT = Path(__file__).resolve().parents[1]
-ARTIFACTS = ROOT / "test-artifacts"
-sys.path.insert(0, str(ROOT / "benchmarks"))
-sys.path.insert(0, str(Path(__file__).resolve().parent))
-from bench_load import dashboard  # noqa: E402
-from browsertest import browser  # noqa: E402,F401  (module fixture: one chromium per file)
+pytestmark = pytest.mark.browser
 
 WAIT_MS = 120_000
 SIZES = ((1366, 768), (1920, 1080))
@@ -65,13 +59,6 @@ TICKS_OUTSIDE = """() => {
 OVERFLOW = "() => document.documentElement.scrollWidth - document.documentElement.clientWidth"
 
 
-@pytest.fixture(scope="module")
-def app_url(tmp_path_factory):
-    tmp = tmp_path_factory.mktemp("look")
-    with dashboard(tmp / "store.sqlite3", tmp / "streamlit.log") as (url, _):
-        yield url.rstrip("/")
-
-
 def _idle(pg) -> None:
     pg.wait_for_timeout(300)
     pg.locator('[data-testid="stApp"][data-test-script-state="notRunning"]').wait_for(timeout=WAIT_MS)
@@ -87,7 +74,7 @@ def _open(pg, url: str, title: str, marker: str) -> None:
         pg.get_by_role("heading", name=title).first.wait_for()
     pg.get_by_text(marker).first.wait_for()
     _idle(pg)
-    pg.wait_for_timeout(800)  # let plotly finish drawing
+    wait_plots_drawn(pg)
 
 
 def _download_report(pg, path: Path) -> Path:
@@ -126,8 +113,10 @@ def reports(browser, app_url, tmp_path_factory):
 
 @pytest.mark.parametrize("slug", [p[1] for p in PAGES])
 def test_every_report_is_legible_at_a4_laptop_and_desktop_width(browser, reports, slug):
-    """Defect 5: tick labels inside their figure and clear of axis titles, no page wider than
-    the window, at A4 width, 1366 and 1920 px; every report screenshotted.
+    """Defect 5: every report is legible at A4, laptop and desktop width.
+
+    Tick labels inside their figure and clear of axis titles, no page wider than the
+    window, at A4 width, 1366 and 1920 px; every report screenshotted.
     """
     path = reports[slug]
     problems = []
@@ -149,8 +138,9 @@ def test_every_report_is_legible_at_a4_laptop_and_desktop_width(browser, reports
 
 
 def test_case_plan_first_laptop_screen_shows_the_headline_results_beside_the_inputs(browser, app_url):
-    """Defect 16: at 1366 x 768 the first screen of Case plan showed no results. The headline
-    figures must be on the first screen, beside the phases table, and every column of the
+    """Defect 16: at 1366 x 768 the first screen of Case plan showed no results.
+
+    The headline figures must be on the first screen, beside the phases table, and every column of the
     phases table must be in view without scrolling sideways.
     """
     context = browser.new_context(viewport={"width": 1366, "height": 768})
