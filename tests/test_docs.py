@@ -72,6 +72,7 @@ def test_readme_points_at_pages_that_exist():
         assert (ROOT / link).is_file(), link
 
 
+@pytest.mark.slow
 def test_site_builds_in_strict_mode_and_loads_nothing_from_the_network(tmp_path):
     site = tmp_path / "site"
     env = dict(os.environ, PYTHONPATH=str(ROOT), NO_MKDOCS_2_WARNING="1")

@@ -8,7 +8,7 @@ import pytest
 
 from model.base.errors import InputError
 
-ROOT = Path(__file__).resolve().parents[3]
+ROOT = Path(__file__).resolve().parents[2]
 
 
 def test_prices_and_month_weights_have_upper_bounds(tmp_path):

@@ -152,6 +152,7 @@ def test_sub_second_times_give_the_same_months_and_minutes_either_way(tmp_path):
     assert a.cases["month"].tolist() == ["2025-01"]
 
 
+@pytest.mark.slow
 def test_engines_agree_at_two_million_rows(tmp_path):
     # A hospital's year of minute-level records (the size of the speed goal): the file-by-file
     # engine (compiled pass), the in-memory numpy engine and duckdb's out-of-core SQL give the

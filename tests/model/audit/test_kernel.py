@@ -44,6 +44,7 @@ def _identical(a, b):
     pd.testing.assert_frame_equal(a.report.gap_list, b.report.gap_list)
 
 
+@pytest.mark.slow
 @settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(
     seed=st.integers(0, 10_000),
@@ -77,6 +78,7 @@ def test_compiled_and_numpy_paths_agree_exactly(
     )
 
 
+@pytest.mark.slow
 def test_samples_out_of_order_are_left_to_the_numpy_path():
     # A case whose times go back, a case split in two runs, agents not grouped: no compiled result.
     common = dict(

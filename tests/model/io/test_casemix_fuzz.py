@@ -42,6 +42,7 @@ _NAMES = st.one_of(
 )
 
 
+@pytest.mark.slow
 @settings(FUZZ, max_examples=400)
 @given(name=_NAMES)
 def test_case_mix_plan_cell_with_any_name_gives_input_error(name):

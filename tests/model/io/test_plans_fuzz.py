@@ -8,6 +8,7 @@ wrong in type, unit, range or name. The invariant of every test: the parser retu
 import math
 from pathlib import Path
 
+import pytest
 import tomli_w
 from hypothesis import HealthCheck, assume, given, settings
 from hypothesis import strategies as st
@@ -230,6 +231,7 @@ def test_plan_dict_with_wrong_fields_gives_plan_or_input_error(data):
         assert all(math.isfinite(p.minutes) and p.minutes > 0 for p in plan.phases)
 
 
+@pytest.mark.slow
 @STRUCTURED
 @given(_plan_dicts)
 def test_plan_toml_with_wrong_fields_gives_plan_or_input_error(data):

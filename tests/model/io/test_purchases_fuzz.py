@@ -80,6 +80,7 @@ def clean_purchases(scratch):
     return _bought(purchases.load_purchases(path))
 
 
+@pytest.mark.slow
 @settings(FUZZ, max_examples=300)
 @given(
     data=st.data(),
@@ -131,6 +132,7 @@ _NUMBERS = st.one_of(
 )
 
 
+@pytest.mark.slow
 @settings(FUZZ, max_examples=400)
 @given(
     quantity=_NUMBERS,
@@ -319,12 +321,14 @@ def test_purchase_table_with_wrong_cells_gives_rows_or_input_error(text, scratch
     _read_purchases(_write(scratch, "table.csv", text.encode()))
 
 
+@pytest.mark.slow
 @STRUCTURED
 @given(text=_mangled(PURCHASE_TEXT))
 def test_demo_purchases_with_one_line_mangled_give_rows_or_input_error(text, scratch):
     _read_purchases(_write(scratch, "mangled.csv", text.encode()))
 
 
+@pytest.mark.slow
 @settings(PARSER_FUZZ, max_examples=800)
 @given(data=st.binary(max_size=1500))
 def test_purchases_from_raw_bytes_give_rows_or_input_error(data, scratch):

@@ -67,6 +67,7 @@ PARQUET_KINDS = [
 ]
 
 
+@pytest.mark.slow
 @settings(SLOW, max_examples=60)
 @given(
     column=st.sampled_from(["case_id", "elapsed", "time", "agent", "o2", "air", "dial", "end_tidal"]),
@@ -122,6 +123,7 @@ def small_parquet(scratch):
     return paths
 
 
+@pytest.mark.slow
 @settings(SLOW, max_examples=60)
 @given(
     compression=st.sampled_from(["snappy", "zstd", "gzip", "none"]),
@@ -197,6 +199,7 @@ def clean_record_totals(scratch):
     return float(cases["liquid_agent_ml"].sum()), float(cases["minutes"].sum()), len(RECORD_GOOD)
 
 
+@pytest.mark.slow
 @settings(SLOW, max_examples=60)
 @given(data=st.data(), crlf=st.booleans(), final_break=st.booleans())
 def test_bad_record_lines_are_set_aside_alone_and_every_good_line_used(
@@ -243,6 +246,7 @@ _NUMBERS = st.one_of(
 )
 
 
+@pytest.mark.slow
 @settings(SLOW, max_examples=30)
 @given(cells=st.lists(_NUMBERS, min_size=4, max_size=4))
 def test_huge_and_tiny_record_numbers_give_finite_totals(cells, scratch):
@@ -445,6 +449,7 @@ def _column_names(draw):
     return f"{name} {brackets[0]}{unit}{brackets[1]}" if unit else name
 
 
+@pytest.mark.slow
 @settings(PARSER_FUZZ, max_examples=800)
 @given(
     names=st.lists(_column_names(), max_size=12),
@@ -475,6 +480,7 @@ def test_record_file_header_from_raw_bytes_gives_columns_or_input_error(data, sc
     _only_input_error(record_files.inspect_file, path)
 
 
+@pytest.mark.slow
 @DUCKDB
 @given(text=_mangled(RECORD_TEXT))
 def test_demo_records_with_one_line_mangled_give_report_or_input_error(text, scratch):
@@ -487,6 +493,7 @@ def test_record_table_with_wrong_cells_gives_report_or_input_error(text, scratch
     _read_records(_write(scratch, "table.csv", text.encode()))
 
 
+@pytest.mark.slow
 @DUCKDB
 @given(data=st.binary(min_size=1, max_size=1500))
 def test_record_file_from_raw_bytes_gives_report_or_input_error(data, scratch):

@@ -87,6 +87,7 @@ def broken_files(draw):
     return clean, b"\n".join(lines) + b"\n", expected
 
 
+@pytest.mark.slow
 @settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(broken_files())
 def test_broken_lines_are_reported_by_line_and_no_valid_row_is_lost(case):

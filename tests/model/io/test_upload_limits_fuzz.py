@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
+import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
@@ -28,6 +29,7 @@ def deep_toml(draw):
     return "[[t" + ".b" * max(levels - 1, 0) + "]]\nx = 1\n" if levels else "x = 1\n", levels
 
 
+@pytest.mark.slow
 @settings(FUZZ, max_examples=300)
 @given(deep=deep_toml(), kind=st.sampled_from(["plan", "settings", "scenario"]), before=st.booleans())
 def test_deep_toml_gives_the_same_verdict_on_the_pages_and_the_command_line(deep, kind, before, tmp_path_factory):

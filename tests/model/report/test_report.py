@@ -184,6 +184,7 @@ def _period_mix(draw):
     return _mix(total, hrs, kg, n2o, draw(st.sampled_from(["ar6_gwp100", "ar5_gwp100", "ar6_gwp20"])))
 
 
+@pytest.mark.slow
 @settings(max_examples=300, deadline=None)
 @given(_period_mix(), _period_mix())
 def test_lmdi_parts_add_to_the_total_change(a, b):
@@ -506,6 +507,7 @@ _PURCHASE_LINE = st.tuples(
 )
 
 
+@pytest.mark.slow
 @settings(max_examples=150, deadline=None)
 @given(
     lines=st.lists(_PURCHASE_LINE, max_size=30),

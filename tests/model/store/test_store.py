@@ -147,6 +147,7 @@ _WRITER = textwrap.dedent("""
 """)
 
 
+@pytest.mark.slow
 def test_eight_writers_500_versions_each_lose_none(store_location, open_store):
     path = store_location
     open_store(path)

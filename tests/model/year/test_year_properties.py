@@ -4,6 +4,7 @@ from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
+import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
@@ -39,6 +40,7 @@ def test_more_cases_never_cost_less(counts, which, extra):
     assert b["co2e_total_t"] >= a["co2e_total_t"]
 
 
+@pytest.mark.slow
 @settings(max_examples=25, deadline=None)
 @given(
     high=st.floats(0.3, 8.0), drop=st.floats(0.05, 0.95), adherence=st.floats(0.0, 1.0), dial_factor=st.floats(0.5, 2.0)
