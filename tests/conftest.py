@@ -43,7 +43,12 @@ def pytest_report_header(config):
 
 
 def pytest_collection_modifyitems(config, items):
-    """Under the ``fuzz`` profile, raise each test's own example count to the profile's."""
+    """Run the ``slow`` tests first; under the ``fuzz`` profile, raise each example count.
+
+    Slow tests first: with ``-n 2`` a long test collected last would leave one worker
+    waiting for the other at the end of the run. Otherwise the order is pytest's.
+    """
+    items.sort(key=lambda item: item.get_closest_marker("slow") is None)  # stable: the rest keep their order
     if PROFILE != "fuzz":
         return
     for item in items:
