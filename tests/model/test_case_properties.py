@@ -11,28 +11,10 @@ from model.case import compute_case, phase_consumption
 from model.freshgas import RATIO_BEHAVIOURS
 from model.plan import CasePlan, Patient, Phase, Settings
 from model.reference import AGENTS, GWP_SOURCES, VOLATILES
-
-FAST = settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.too_slow])
-
+from tests.helpers.strategies import FAST, agents, dials, floats, flows, minutes
 
 # Whole cases run the circle simulation (about 0.1 s each): fewer examples keep the suite fast.
 CASES = settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow])
-
-
-def floats(low, high, **kw):
-    return st.floats(low, high, allow_nan=False, allow_infinity=False, **kw)
-
-
-agents = st.sampled_from(VOLATILES).map(lambda n: AGENTS[n])
-
-
-flows = floats(0.0, 20.0)
-
-
-minutes = floats(0.1, 600.0)
-
-
-dials = floats(0.0, 8.0)
 
 
 @FAST

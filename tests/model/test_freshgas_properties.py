@@ -1,31 +1,12 @@
 """Property tests (hypothesis) of the foundation: each test name states its invariant."""
 
 import numpy as np
-from hypothesis import HealthCheck, given, settings
+from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from model.case import phase_consumption
 from model.freshgas import RATIO_BEHAVIOURS, apply_ratio_limit
-from model.reference import AGENTS, VOLATILES
-
-FAST = settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.too_slow])
-
-
-def floats(low, high, **kw):
-    return st.floats(low, high, allow_nan=False, allow_infinity=False, **kw)
-
-
-agents = st.sampled_from(VOLATILES).map(lambda n: AGENTS[n])
-
-
-flows = floats(0.0, 20.0)
-
-
-minutes = floats(0.1, 600.0)
-
-
-dials = floats(0.0, 8.0)
-
+from tests.helpers.strategies import FAST, agents, dials, floats, flows, minutes
 
 # Flows are 0 or at least 1e-9 L/min: a subnormal O2 flow (5e-324) times the allowed ratio
 # rounds back to itself, which no flowmeter can set and which says nothing about the limit.

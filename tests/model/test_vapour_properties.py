@@ -1,32 +1,12 @@
 """Property tests of liquid agent use (hypothesis): linear in time and dial, additive over time, monotonic in flow."""
 
 import pytest
-from hypothesis import HealthCheck, given, settings
-from hypothesis import strategies as st
+from hypothesis import given
 
-from model.reference import AGENTS, VOLATILES
 from model.vapour import liquid_used_ml
-
-FAST = settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.too_slow])
-
-
-def floats(low, high, **kw):
-    return st.floats(low, high, allow_nan=False, allow_infinity=False, **kw)
-
-
-agents = st.sampled_from(VOLATILES).map(lambda n: AGENTS[n])
-
-
-flows = floats(0.0, 20.0)
-
+from tests.helpers.strategies import FAST, agents, dials, floats, flows, minutes
 
 positive_flows = floats(0.01, 20.0)
-
-
-minutes = floats(0.1, 600.0)
-
-
-dials = floats(0.0, 8.0)
 
 
 temperatures = floats(0.0, 45.0)

@@ -12,34 +12,7 @@ from streamlit.testing.v1 import AppTest
 
 from model.store import Store
 from tests.helpers import ROOT
-from tests.helpers.pages import TIMEOUT, page
-
-
-def app() -> AppTest:
-    at = AppTest.from_file(str(ROOT / "app.py"), default_timeout=TIMEOUT)
-    at.run()
-    assert not at.exception, [e.message for e in at.exception]
-    return at
-
-
-def run(at: AppTest) -> AppTest:
-    at.run()
-    assert not at.exception, [e.message for e in at.exception]
-    return at
-
-
-def go(at: AppTest, page_file: str) -> AppTest:
-    at.switch_page(f"pages/{page_file}")
-    return run(at)
-
-
-def click(at: AppTest, text: str) -> AppTest:
-    next(b for b in at.button if b.label.endswith(text)).click()
-    return run(at)
-
-
-def metric_value(at: AppTest, label: str) -> str:
-    return next(m.value for m in at.metric if m.label == label or m.label.startswith(label + " ("))
+from tests.helpers.pages import app, click, go, metric_value, page, run
 
 
 def test_case_plan_inputs_survive_a_visit_to_another_page():

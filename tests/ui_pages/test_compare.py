@@ -4,18 +4,7 @@ from __future__ import annotations
 
 from streamlit.testing.v1 import AppTest
 
-from tests.helpers.pages import page
-
-
-def run(at: AppTest) -> AppTest:
-    at.run()
-    assert not at.exception, [e.message for e in at.exception]
-    return at
-
-
-def click(at: AppTest, text: str) -> AppTest:
-    next(b for b in at.button if b.label.endswith(text)).click()
-    return run(at)
+from tests.helpers.pages import click, page, run
 
 
 def _year_at_half_litre(at: AppTest) -> str:

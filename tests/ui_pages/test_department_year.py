@@ -6,7 +6,7 @@ from streamlit.testing.v1 import AppTest
 
 from model.store import Store
 from tests.helpers import ROOT
-from tests.helpers.pages import TIMEOUT, page
+from tests.helpers.pages import app, click, go, metric_value, page, run
 
 _page = page
 
@@ -64,38 +64,11 @@ def test_compare_page_year_tab_shows_paired_difference():
     assert value.startswith("-")  # the demo proposal saves money
 
 
-def app() -> AppTest:
-    at = AppTest.from_file(str(ROOT / "app.py"), default_timeout=TIMEOUT)
-    at.run()
-    assert not at.exception, [e.message for e in at.exception]
-    return at
-
-
-def run(at: AppTest) -> AppTest:
-    at.run()
-    assert not at.exception, [e.message for e in at.exception]
-    return at
-
-
-def go(at: AppTest, page_file: str) -> AppTest:
-    at.switch_page(f"pages/{page_file}")
-    return run(at)
-
-
-def click(at: AppTest, text: str) -> AppTest:
-    next(b for b in at.button if b.label.endswith(text)).click()
-    return run(at)
-
-
 def walk(node):
     """Every element under ``node`` in page order (AppTest's tree, depth first)."""
     for child in getattr(node, "children", {}).values():
         yield child
         yield from walk(child)
-
-
-def metric_value(at: AppTest, label: str) -> str:
-    return next(m.value for m in at.metric if m.label == label or m.label.startswith(label + " ("))
 
 
 def test_department_year_and_reference_inputs_survive_a_visit_to_another_page():

@@ -266,24 +266,6 @@ def test_a_vaporizer_maximum_raised_on_the_reference_page_lets_a_plan_dial_above
     assert metric(at, "Liquid agent") > before
 
 
-def app() -> AppTest:
-    at = AppTest.from_file(str(ROOT / "app.py"), default_timeout=TIMEOUT)
-    at.run()
-    assert not at.exception, [e.message for e in at.exception]
-    return at
-
-
-def run(at: AppTest) -> AppTest:
-    at.run()
-    assert not at.exception, [e.message for e in at.exception]
-    return at
-
-
-def click(at: AppTest, text: str) -> AppTest:
-    next(b for b in at.button if b.label.endswith(text)).click()
-    return run(at)
-
-
 @pytest.mark.parametrize(
     "page_file", ["case_plan.py", "compare.py", "department_year.py", "record_audit.py", "reference.py"]
 )

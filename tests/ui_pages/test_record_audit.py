@@ -6,7 +6,7 @@ from streamlit.testing.v1 import AppTest
 
 from model.audit.engine import audit_records
 from tests.helpers import ROOT
-from tests.helpers.pages import TIMEOUT, page
+from tests.helpers.pages import TIMEOUT, page, run
 
 DEMO = ROOT / "demo_data" / "records"
 
@@ -52,12 +52,6 @@ def test_no_files_chosen_shows_a_prompt_not_an_error():
     at.multiselect(key="ra_demo").set_value([]).run()
     assert not at.exception
     assert any("Choose demo files" in i.value for i in at.info)
-
-
-def run(at: AppTest) -> AppTest:
-    at.run()
-    assert not at.exception, [e.message for e in at.exception]
-    return at
 
 
 def test_a_few_records_against_a_year_of_purchases_report_coverage_not_a_loss():

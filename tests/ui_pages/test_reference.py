@@ -7,7 +7,7 @@ from streamlit.testing.v1 import AppTest
 
 from model.reference import DEFAULT_REFERENCE
 from model.store import Store
-from tests.helpers.pages import page
+from tests.helpers.pages import metric_value, page, run
 
 
 def _click(at: AppTest, text: str) -> None:
@@ -54,16 +54,6 @@ def test_user_gwp_values_without_nitrous_oxide_serve_plans_without_it_and_name_i
     _click(plan, "Open")
     message = " ".join(e.value for e in plan.error)
     assert "User values has no value for nitrous\\_oxide" in message and "Reference page" in message
-
-
-def run(at: AppTest) -> AppTest:
-    at.run()
-    assert not at.exception, [e.message for e in at.exception]
-    return at
-
-
-def metric_value(at: AppTest, label: str) -> str:
-    return next(m.value for m in at.metric if m.label == label or m.label.startswith(label + " ("))
 
 
 def _number(text: str) -> float:

@@ -3,21 +3,12 @@
 from pathlib import Path
 
 from model import parse_plan_text
-from model.base.errors import InputError
+from tests.helpers.plan_fuzz import _only_input_error
 
 ROOT = Path(__file__).resolve().parents[3]
 
 
 DEMO_PLAN = (ROOT / "demo_data" / "plans" / "lap_chole_low_flow.toml").read_text()
-
-
-def _only_input_error(call, *args):
-    """Run a parser; return its result or None when it raised InputError (one line)."""
-    try:
-        return call(*args)
-    except InputError as exc:
-        assert str(exc).strip(), "an InputError needs a message"
-        return None
 
 
 def test_power_in_a_quantity_is_refused_without_evaluating_it():

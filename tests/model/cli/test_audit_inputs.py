@@ -6,28 +6,9 @@ from pathlib import Path
 
 import pytest
 
-from model.cli import main
+from tests.helpers.cli import assert_one_line_error, run
 
 ROOT = Path(__file__).resolve().parents[3]
-
-
-def run(argv, capsys):
-    """Run the command line in-process; return (status, stdout, stderr)."""
-    try:
-        status = main([str(a) for a in argv])
-    except SystemExit as exc:  # argparse errors
-        status = exc.code
-    out, err = capsys.readouterr()
-    return status, out, err
-
-
-def assert_one_line_error(status, err, *words):
-    assert status == 2, err
-    lines = [line for line in err.splitlines() if line.strip()]
-    assert len(lines) == 1, err
-    assert "Traceback" not in err
-    for word in words:
-        assert word in lines[0], lines[0]
 
 
 BIRCH = ROOT / "demo_data" / "records" / "fernhollow_birch_cases.csv"

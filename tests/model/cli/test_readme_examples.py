@@ -7,7 +7,7 @@ from pathlib import Path
 
 import pytest
 
-from model.cli import main
+from tests.helpers.cli import run
 
 ROOT = Path(__file__).resolve().parents[3]
 
@@ -20,16 +20,6 @@ FORMATS = ROOT / "docs" / "formats.md"
 
 
 LOW = ROOT / "demo_data" / "plans" / "lap_chole_low_flow.toml"
-
-
-def run(argv, capsys):
-    """Run the command line in-process; return (status, stdout, stderr)."""
-    try:
-        status = main([str(a) for a in argv])
-    except SystemExit as exc:  # argparse errors
-        status = exc.code
-    out, err = capsys.readouterr()
-    return status, out, err
 
 
 def readme_cli_commands():

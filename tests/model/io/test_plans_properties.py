@@ -7,14 +7,7 @@ from model.freshgas import RATIO_BEHAVIOURS
 from model.io.plans import parse_plan_text, plan_to_toml
 from model.plan import CasePlan, Patient, Phase, Settings
 from model.reference import AGENTS, GWP_SOURCES, VOLATILES
-
-
-def floats(low, high, **kw):
-    return st.floats(low, high, allow_nan=False, allow_infinity=False, **kw)
-
-
-flows = floats(0.0, 20.0)
-
+from tests.helpers.strategies import floats, flows
 
 names = st.text(st.characters(codec="utf-8", exclude_categories=("Cs", "Cc")), min_size=1, max_size=40).filter(
     lambda s: s == s.strip() and s != ""
