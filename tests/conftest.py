@@ -1,4 +1,4 @@
-"""Fixtures every test folder may use, the Hypothesis profiles, and the ``slow`` marker's note.
+"""Fixtures every test folder may use, the Hypothesis profiles, and the order of the tests.
 
 Hypothesis profiles, chosen by ``HYPOTHESIS_PROFILE`` (default ``ci`` when ``CI=true``,
 else ``dev``):
@@ -8,6 +8,9 @@ else ``dev``):
   prints the blob that reproduces it.
 - ``fuzz``: at least 2,000 examples for every property and fuzz test, derandomization off:
   ``HYPOTHESIS_PROFILE=fuzz pytest tests/model/io -k fuzz`` for a long hunt.
+
+The ``slow`` marker (pyproject.toml) marks the slowest tests that are not browser tests:
+``pytest -m "not slow and not browser" -n 2`` is a quick local run.
 """
 
 from __future__ import annotations
