@@ -85,30 +85,44 @@ def _download_report(pg, path: Path) -> Path:
     return path
 
 
-@pytest.fixture(scope="module")
-def reports(browser, app_url, tmp_path_factory):
-    """Every page screenshotted at both sizes, and its HTML report downloaded: {slug: path}."""
-    ARTIFACTS.mkdir(exist_ok=True)
-    out = tmp_path_factory.mktemp("reports")
-    found = {}
-    for w, h in SIZES:
-        context = browser.new_context(viewport={"width": w, "height": h}, accept_downloads=True)
-        pg = context.new_page()
-        pg.set_default_timeout(WAIT_MS)
-        for title, slug, marker in PAGES:
-            _open(pg, app_url, title, marker)
+class _Reports(dict):
+    """{slug: path of the page's HTML report}, each page captured when first asked for."""
+
+    def __init__(self, browser, url: str, folder: Path):
+        super().__init__()
+        self.browser, self.url, self.folder = browser, url, folder
+
+    def __missing__(self, slug: str) -> Path:
+        """Screenshot the page at both sizes (and whole at laptop width); download its report."""
+        title, _, marker = next(p for p in PAGES if p[1] == slug)
+        for w, h in SIZES:
+            context = self.browser.new_context(viewport={"width": w, "height": h}, accept_downloads=True)
+            pg = context.new_page()
+            pg.set_default_timeout(WAIT_MS)
+            _open(pg, self.url, title, marker)
             assert pg.locator('[data-testid="stException"]').count() == 0, slug
             pg.screenshot(path=str(ARTIFACTS / f"page_{slug}_{w}x{h}.png"))
             if (w, h) == SIZES[0]:
-                found[slug] = _download_report(pg, out / f"{slug}.html")
+                self[slug] = _download_report(pg, self.folder / f"{slug}.html")
                 # The whole page at laptop width (the app scrolls inside its own frame, so the
                 # window is made tall for this shot).
                 pg.set_viewport_size({"width": w, "height": 2600})
                 _idle(pg)
                 pg.screenshot(path=str(ARTIFACTS / f"page_{slug}_{w}x{h}_full.png"))
                 pg.set_viewport_size({"width": w, "height": h})
-        context.close()
-    return found
+            context.close()
+        return self[slug]
+
+
+@pytest.fixture(scope="module")
+def reports(browser, app_url, tmp_path_factory):
+    """Every page screenshotted at both sizes, and its HTML report downloaded: {slug: path}.
+
+    A page is captured when a test first asks for it, so the tests of one page need not
+    wait for the others (the browser tests are spread over two workers test by test).
+    """
+    ARTIFACTS.mkdir(exist_ok=True)
+    return _Reports(browser, app_url, tmp_path_factory.mktemp("reports"))
 
 
 @pytest.mark.parametrize("slug", [p[1] for p in PAGES])
