@@ -1,8 +1,10 @@
 #!/usr/bin/env bash
 # Run the whole test suite (sets up .venv, and Debian's chromium for the browser tests).
-# With no arguments: every test but the browser ones on both cores, then the browser tests
-# one at a time (they start servers and chromium of their own and time what a user waits
-# for, so they run alone). With arguments: pytest with those arguments, as given.
+# With no arguments: every test but the browser ones on both cores; then the browser tests
+# on both cores (each worker has its own chromium and a dashboard its tests share; a test
+# file that saves starts a dashboard of its own); last, the browser tests marked
+# browser_alone, one at a time (the load test: 20 sessions with a time limit each).
+# With arguments: pytest with those arguments, as given.
 set -euo pipefail
 cd "$(dirname "$0")/.."
 scripts/setup.sh
@@ -21,5 +23,6 @@ if [ $# -gt 0 ]; then
 fi
 status=0
 .venv/bin/python -m pytest -m "not browser" -n 2 || status=$?
-.venv/bin/python -m pytest -m browser || status=$?
+.venv/bin/python -m pytest -m "browser and not browser_alone" -n 2 || status=$?
+.venv/bin/python -m pytest -m browser_alone || status=$?
 exit $status

@@ -36,10 +36,9 @@ absolute (in the row's unit).
 
 
 def _checks():
-    for path in (ROOT, ROOT / "tests"):
-        if str(path) not in sys.path:
-            sys.path.insert(0, str(path))
-    import validation_cases
+    if str(ROOT) not in sys.path:
+        sys.path.insert(0, str(ROOT))
+    from tests import validation_cases
 
     return validation_cases
 

@@ -1,5 +1,6 @@
-"""The package's layers import only downwards, with no cycle and no dashboard import (the
-import-linter contracts in pyproject.toml), and the packages that load their names on first
+"""The package's layers import only downwards, with no cycle and no dashboard import.
+
+The import-linter contracts in pyproject.toml), and the packages that load their names on first
 use hand out every name their stub lists.
 """
 
@@ -95,8 +96,9 @@ LAZY_PACKAGES = ("model", "model.io", "model.year", "model.present")
 
 
 def _stub_homes(package: str) -> dict[str, str]:
-    """Name -> module, as the package's ``__init__.pyi`` lists them (what type checkers and the
-    API pages read).
+    """Name -> module, as the package's ``__init__.pyi`` lists them.
+
+    The stub is what type checkers and the API pages read.
     """
     path = ROOT.joinpath(*package.split("."), "__init__.pyi")
     homes = {}
@@ -108,8 +110,9 @@ def _stub_homes(package: str) -> dict[str, str]:
 
 @pytest.mark.parametrize("package", LAZY_PACKAGES)
 def test_every_name_of_a_lazy_package_imports_from_its_home(package):
-    """``from <package> import <name>`` works for every name of the stub, in a new
-    interpreter, gives the object of the module the stub names, and an unknown name is a
+    """``from <package> import <name>`` works for every name of the stub.
+
+    In a new interpreter, it gives the object of the module the stub names, and an unknown name is a
     plain AttributeError.
     """
     homes = _stub_homes(package)

@@ -4,7 +4,8 @@ import importlib.util
 from pathlib import Path
 
 import pytest
-from validation_cases import CHECKS, matches
+
+from tests.validation_cases import CHECKS, matches
 
 ROOT = Path(__file__).resolve().parents[1]
 

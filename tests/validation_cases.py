@@ -135,7 +135,7 @@ def _q70():
 
 
 def _lowe_closed_form(alveolar_pct, blood_gas):
-    """Lowe's cumulative uptake over 60 min of a 70 kg adult. [mL vapour]"""
+    """Lowe's cumulative uptake over 60 min of a 70 kg adult [mL vapour]."""
     from model.uptake import lowe_cumulative_ml
 
     return float(lowe_cumulative_ml(60.0, alveolar_pct, blood_gas, _q70()))

@@ -1,0 +1,102 @@
+"""The case-mix file: reading, validation messages, round trip, and the stretched phase."""
+
+from pathlib import Path
+
+import pandas as pd
+import pytest
+
+from model.base.errors import InputError
+from model.io.casemix import casemix_from_frame, casemix_to_csv, casemix_to_frame, load_casemix, parse_casemix_text
+from model.io.plans import load_plan
+from model.year.inputs import stretch_phase
+
+YEAR = Path(__file__).resolve().parents[3] / "demo_data" / "year"
+HEADER = "case_type,cases_per_year,median_duration,duration_spread,sevoflurane,desflurane,n2o_share,plan\n"
+
+
+def _plans(name, where):
+    return load_plan(YEAR / name)
+
+
+def test_demo_casemix_reads_every_type():
+    mix = load_casemix(YEAR / "fernhollow_casemix.csv")
+    assert len(mix.types) == 11
+    assert mix.cases_per_year == sum(t.cases_per_year for t in mix.types)
+    for t in mix.types:
+        assert sum(t.agent_shares.values()) == pytest.approx(1.0)
+        assert t.plan.patient.weight_kg == t.weight_kg
+
+
+def test_units_and_percent_shares_are_read():
+    text = HEADER + 'Hernia,100,"1.5 h",0.3,80 %,20 %,"10 %",plans/adult_2l.toml\n'
+    t = parse_casemix_text(text, "mix.csv", _plans).types[0]
+    assert t.median_min == pytest.approx(90.0)
+    assert t.agent_shares["sevoflurane"] == pytest.approx(0.8)
+    assert t.n2o_share == pytest.approx(0.1)
+
+
+@pytest.mark.parametrize(
+    "row, field",
+    [
+        ("Hernia,-1,60,0.3,1,0,0,plans/adult_2l.toml", "cases_per_year"),
+        ("Hernia,10.5,60,0.3,1,0,0,plans/adult_2l.toml", "cases_per_year"),
+        ("Hernia,10,60 kg,0.3,1,0,0,plans/adult_2l.toml", "median_duration"),
+        ("Hernia,10,60,0.3,0.7,0.1,0,plans/adult_2l.toml", "agent shares"),
+        ("Hernia,10,60,0.3,1,0,1.5,plans/adult_2l.toml", "n2o_share"),
+        ("Hernia,10,60,-1,1,0,0,plans/adult_2l.toml", "duration_spread"),
+        ("Hernia,10,10,0.3,1,0,0,plans/adult_2l.toml", "median_duration"),
+        (",10,60,0.3,1,0,0,plans/adult_2l.toml", "case_type"),
+    ],
+)
+def test_bad_rows_name_line_and_field(row, field):
+    with pytest.raises(InputError) as exc:
+        parse_casemix_text(HEADER + row + "\n", "mix.csv", _plans)
+    message = str(exc.value)
+    assert message.startswith("mix.csv: line 2, " + field), message
+    assert "\n" not in message
+
+
+def test_unknown_column_and_missing_plan_are_reported(tmp_path):
+    with pytest.raises(InputError, match="allowed columns"):
+        parse_casemix_text("case_type,cases,plan\nA,1,x.toml\n", "mix.csv", _plans)
+    path = tmp_path / "mix.csv"
+    path.write_text(HEADER + "A,10,60,0,1,0,0,missing.toml\n")
+    with pytest.raises(InputError, match=r"line 2, plan: got 'missing.toml'; no plan file"):
+        load_casemix(path)
+
+
+def test_duplicate_type_names_are_refused():
+    text = HEADER + "A,10,60,0,1,0,0,plans/adult_2l.toml\nA,5,60,0,1,0,0,plans/adult_2l.toml\n"
+    with pytest.raises(InputError, match="each case type name appears once"):
+        parse_casemix_text(text, "mix.csv", _plans)
+
+
+def test_frame_round_trip_keeps_the_mix():
+    mix = load_casemix(YEAR / "fernhollow_casemix.csv")
+    frame = casemix_to_frame(mix)
+    again = casemix_from_frame(frame, mix.plans)
+    assert casemix_to_csv(again) == casemix_to_csv(mix)
+    frame["cases_per_year"] = frame["cases_per_year"].astype(object)
+    frame.loc[0, "cases_per_year"] = "many"
+    with pytest.raises(InputError, match=r"table: row 1, cases_per_year"):
+        casemix_from_frame(frame, mix.plans)
+
+
+def test_stretch_phase_is_maintenance_else_longest():
+    plan = load_plan(YEAR / "plans" / "adult_2l.toml")
+    assert plan.phases[stretch_phase(plan)].name == "maintenance"
+    renamed = plan.with_phase(1, name="steady")
+    assert stretch_phase(renamed) == 1
+
+
+def test_blank_rows_in_an_edited_table_are_skipped():
+    mix = load_casemix(YEAR / "fernhollow_casemix.csv")
+    frame = pd.concat([casemix_to_frame(mix), pd.DataFrame([{c: None for c in casemix_to_frame(mix).columns}])])
+    assert len(casemix_from_frame(frame, mix.plans).types) == len(mix.types)
+
+
+def test_a_plan_with_an_end_tidal_target_is_a_valid_case_type():
+    # The year runs plans through the circle model, which finds the dial for a target.
+    text = HEADER + "Laparotomy,100,150,0.4,1,0,0,plans/adult_target_2l.toml\n"
+    t = parse_casemix_text(text, "mix.csv", _plans).types[0]
+    assert t.plan.phases[t.stretch_index].mode == "target"

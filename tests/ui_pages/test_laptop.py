@@ -1,0 +1,50 @@
+"""Laptop first: wide tables stay usable on a 1366 px screen.
+
+Defect 16 of issue 12: wide tables hid their columns; the key figures of a record audit's
+38-column case table sat far to the right.
+"""
+
+from __future__ import annotations
+
+import json
+
+from tests.helpers.pages import page
+
+
+def _config(df) -> dict:
+    return json.loads(df.proto.columns or "{}")
+
+
+def test_wide_audit_tables_lead_with_the_key_figures_and_pin_their_first_column():
+    """Defect 16: the case table starts with case, agent, theatre, month and the figures.
+
+    It keeps the case pinned while scrolled sideways.
+    """
+    at = page("record_audit.py")
+    cases = next(df for df in at.dataframe if "case" in df.value.columns and "start" in df.value.columns)
+    assert list(cases.value.columns[:4]) == ["case", "agent", "theatre", "month"]
+    assert "CO2e, total (kg)" in list(cases.value.columns[:9])
+    assert _config(cases).get("case", {}).get("pinned") is True
+
+
+def test_case_plan_headline_results_are_drawn_before_the_phases_table_beside_it():
+    """Defect 16: the headline figures are in a column beside the inputs, not below them."""
+    at = page("case_plan.py")
+    blocks = list(at.main.children.values())
+    # The first block after the title, intro and caution is the row of the two columns.
+    row = next(b for b in blocks if b.type == "flex_container")
+    assert len(row.children) == 2
+    left, right = row.children[0], row.children[1]
+    assert [m.label for m in right.get("metric")][:1] == ["Liquid agent"]
+    assert len(left.get("arrow_data_frame") or left.dataframe) == 1  # the phases table
+    assert not left.get("metric")
+
+
+def test_record_problems_show_their_message_before_the_columns_that_may_be_wide():
+    """Defect 16 (and 7): a set-aside row's message sits beside its line and problem.
+
+    Not past a wide value column where a laptop screen cuts it off.
+    """
+    at = page("record_audit.py")
+    issues = next(df.value for df in at.dataframe if "message" in df.value.columns)
+    assert list(issues.columns[:3]) == ["line or row", "problem", "message"]
