@@ -31,7 +31,7 @@ import benchresults  # noqa: E402
 
 from model import circle  # noqa: E402
 from model.case import compute_case  # noqa: E402
-from model.io.casemix import MAX_CASE_TYPES, load_casemix  # noqa: E402
+from model.io.case_mix import MAX_CASE_TYPES, load_case_mix  # noqa: E402
 from model.io.plans import load_plan  # noqa: E402
 from model.io.scenario import load_scenario  # noqa: E402
 from model.sweep import flow_sweep  # noqa: E402
@@ -124,7 +124,7 @@ def main(argv=None) -> int:
             name = f"year, one type, median 1440 min, spread {spread:g}"
             benchresults.figure(run, name, timed(name, lambda scen=scen: compute_year(scen)), "s")
         scen = load_scenario(case_mix_at_limits(folder, types, 2.0, draws))
-        found = len(load_casemix(Path(scen.casemix.source)).types)
+        found = len(load_case_mix(Path(scen.case_mix.source)).types)
         if found != types:
             print(f"the case mix holds {found} types, not {types}: no figure reported")
             return 1

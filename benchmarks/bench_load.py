@@ -124,7 +124,7 @@ def dashboard(
     (benchmarks compare with main); ``extra_args`` are more ``streamlit run`` options (e.g.
     ``--secrets.files``); ``entry`` is the file run: ``serve.py``, the dashboard with its warm
     start as users start it (a checkout without it runs ``app.py``), or ``app.py``. Also used
-    by tests/test_browser.py.
+    by the browser tests (tests/browser/).
     """
     app_root = Path(app_root or ROOT)
     if not (app_root / entry).exists():

@@ -40,7 +40,7 @@ GOAL_S = 1.0
 
 def thirty_type_scenario(n_types=TYPES, draws=DRAWS):
     base = load_scenario(ROOT / "demo_data" / "year" / "proposal_half_litre.toml")
-    src = base.casemix.types
+    src = base.case_mix.types
     # Every type distinct (its own median duration), so no two share a simulation.
     types = tuple(
         replace(
@@ -53,7 +53,7 @@ def thirty_type_scenario(n_types=TYPES, draws=DRAWS):
     )
     return replace(
         base,
-        casemix=replace(base.casemix, types=types),
+        case_mix=replace(base.case_mix, types=types),
         sampling=Sampling(
             draws=draws, seed=1, price_spread=0.1, gwp_sources=("ar6_gwp100", "ar5_gwp100", "sulbaek_andersen_2012")
         ),

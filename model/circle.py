@@ -67,7 +67,7 @@ CIRCLE_VOLUME_L = 6.0
 ABSORBENT_CAPACITY_L_PER_KG = 150.0
 #: Integration steps: ``STEP_MIN`` over the first ``FINE_MIN`` minutes of each phase,
 #: then ``COARSE_STEP_MIN``. [min]  A numerical choice, no source: the totals of the demo
-#: plans change by under 1 % against a uniform 0.05 min step (tests/test_circle.py).
+#: plans change by under 1 % against a uniform 0.05 min step (tests/model/test_circle.py).
 STEP_MIN = 0.25
 FINE_MIN = 10.0
 COARSE_STEP_MIN = 1.0
@@ -75,7 +75,7 @@ COARSE_STEP_MIN = 1.0
 #: ``COARSE_STEP_MIN``): 1 min steps up to 20 min, 3 min at an hour, 72 min at a day, so a
 #: phase of any length takes some hundred steps (a day's phase 88 coarse steps instead of
 #: 1,430). Late in a phase only the slow tissues still move, on time scales of hours. A
-#: numerical choice, no source: tests/test_circle.py checks the demo plans and day-long
+#: numerical choice, no source: tests/model/test_circle.py checks the demo plans and day-long
 #: phases against a uniform fine step.
 STEP_GROWTH = 0.05
 #: End-tidal agent within this share of its target counts as reached. [1]

@@ -16,7 +16,7 @@ from model import InputError
 from model.io.plans import plan_from_dict, plan_to_dict, plan_to_toml
 from model.plan import CasePlan
 from model.present import case_charts as charts
-from model.present.exports import html_report
+from model.present.exports import html_export
 from model.reference import VOLATILES
 from model.store.access import author_label
 from ui import tables as fmt
@@ -669,7 +669,7 @@ tables["Flow sweep"] = lambda: (lambda sw: None if sw is None else sw.table)(_sw
 
 
 def _report() -> str:
-    return html_report(
+    return html_export(
         ("UNSAFE PRACTICE. " if unsafe else "") + f"Case plan: {plan.name}",
         inputs=inputs,
         tables={"Summary": summary[["figure", "value", "unit"]], "Phases": shown},
@@ -679,7 +679,7 @@ def _report() -> str:
             ("Flow sweep", figs["sweep"]),
             ("Cost by item", figs["cost"]),
         ],
-        warnings=ui.cautions.report_lines(result.warnings),
+        warnings=ui.cautions.caution_lines(result.warnings),
         cautions=[ui.CAUTION],
         sources=sources,
         currency=result.currency,

@@ -16,7 +16,7 @@ from model.case import CaseResult
 from model.cautions import Caution, is_unsafe, severity_of
 from model.io.plans import plan_to_toml
 from model.present import case_charts as charts
-from model.present.exports import html_report
+from model.present.exports import html_export
 from ui import tables as fmt
 
 view = ui.page_start(
@@ -273,12 +273,12 @@ def _offer_downloads(
     }
 
     def _report() -> str:
-        return html_report(
+        return html_export(
             ("UNSAFE PRACTICE. " if unsafe else "") + "Plan comparison",
             inputs=inputs,
             tables={"Side by side": table},
             figures=charts_.figures,
-            warnings=ui.cautions.report_lines(warnings),
+            warnings=ui.cautions.caution_lines(warnings),
             cautions=[ui.CAUTION],
             sources=sources,
             currency=view.currency,

@@ -13,9 +13,9 @@ import ui.provenance
 import ui.state
 import ui.year_store
 from model import InputError
-from model.io.casemix import casemix_from_frame, casemix_to_csv, casemix_to_frame
+from model.io.case_mix import case_mix_from_frame, case_mix_to_csv, case_mix_to_frame
 from model.present import year_charts
-from model.present.exports import html_report
+from model.present.exports import html_export
 from model.present.palette import CO2E_COLOUR
 from model.reference import GWP_SOURCES, VOLATILES
 from model.store.access import author_label
@@ -67,7 +67,7 @@ try:
 except InputError as err:
     ui.show_input_error(err)
     st.stop()
-library = {**yv.plan_library(), **base.casemix.plans}
+library = {**yv.plan_library(), **base.case_mix.plans}
 own_items = ui.provenance.price_items(base.prices)
 own_prices = bool(own_items) and st.checkbox(
     "Use the scenario's own prices",
@@ -88,7 +88,7 @@ share_cols = {
 }
 mix_key = f"dy_mix_{name}"
 edited = st.data_editor(
-    ui.state.editor_base(mix_key, casemix_to_frame(base.casemix)),
+    ui.state.editor_base(mix_key, case_mix_to_frame(base.case_mix)),
     key=mix_key,
     num_rows="dynamic",
     hide_index=True,
@@ -110,11 +110,11 @@ mix_slot = st.empty()
 last_key = f"dy_last_{name}"  # (scenario, result, mix) of the last valid year
 stale = False
 try:
-    mix = casemix_from_frame(edited, library, "Case mix table")
+    mix = case_mix_from_frame(edited, library, "Case mix table")
 except InputError as err:
     # Shown by the table; the practice panel, the last valid figures and downloads stay.
     mix_slot.error(ui.md(str(err)), icon=":material/error:")
-    mix = ss[last_key][2] if last_key in ss else base.casemix
+    mix = ss[last_key][2] if last_key in ss else base.case_mix
     stale = True
 
 with st.expander("Practice change and uncertainty", expanded=False, icon=":material/tune:"):
@@ -309,7 +309,7 @@ tables = {
     "Inputs": ui.provenance.inputs_table(inputs),
     "Per month": result.monthly,
     "Per case type": result.by_type,
-    "Case mix": casemix_to_frame(mix),
+    "Case mix": case_mix_to_frame(mix),
     "Warnings": ui.cautions.warnings_table(result.warnings),
     "Sources": pd.DataFrame(ref.table()),
 }
@@ -318,12 +318,12 @@ with st.expander("What produced these figures", icon=":material/info:"):
 
 
 def _report() -> str:
-    return html_report(
+    return html_export(
         ("UNSAFE PRACTICE. " if unsafe else "") + title,
         inputs=inputs,
         tables={"Headline figures": summary, "Per month": result.monthly, "Per case type": result.by_type},
         figures=figs,
-        warnings=ui.cautions.report_lines(result.warnings),
+        warnings=ui.cautions.caution_lines(result.warnings),
         cautions=[ui.CAUTION, *result.notes],
         sources=tables["Sources"],
         currency=cur,
@@ -406,7 +406,7 @@ with k2:
     )
     f2.download_button(
         "Case mix (CSV)",
-        data=casemix_to_csv(mix),
+        data=case_mix_to_csv(mix),
         file_name=f"{slug}-casemix.csv",
         mime="text/csv",
         key="dy_dl_casemix",

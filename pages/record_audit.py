@@ -18,7 +18,7 @@ from model.base.files import Source
 from model.io.purchases import load_purchases
 from model.io.record_files import DEFAULT_GAP_LIMIT_MIN
 from model.present import case_charts as charts
-from model.present.exports import html_report
+from model.present.exports import html_export
 from ui import tables as fmt
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -368,7 +368,7 @@ def _report() -> str:
     shown = {"By theatre": tables["By theatre"], "By month": tables["By month"], "By agent": tables["By agent"]}
     if recon is not None:
         shown["Purchases"] = recon
-    return html_report(
+    return html_export(
         "Record audit",
         inputs=inputs,
         tables=shown,

@@ -10,7 +10,7 @@ import streamlit as st
 import ui
 import ui.provenance
 from model import DEFAULT_REFERENCE, InputError
-from model.present.exports import html_report
+from model.present.exports import html_export
 from model.reference import VOLATILES
 from model.store.access import author_label
 from model.store.changelog import reference_changes
@@ -61,7 +61,7 @@ st.caption(
 
 
 def _report() -> str:
-    return html_report(
+    return html_export(
         "Reference values",
         inputs={"your values": json.dumps(saved, sort_keys=True) or "none", "currency": view.currency},
         tables={"Reference values": table},

@@ -196,7 +196,7 @@ def test_numpy_row_checks_answer_as_the_compiled_loop(rows, data, columns, nan_m
 
 def test_without_numba_the_audit_is_the_same_to_the_last_bit(monkeypatch):
     # Reference: the same audit with numba's compiled pass (tests/test_audit_kernel.py checks
-    # that pass against the numpy engine, which tests/test_audit_engines.py checks against SQL).
+    # that pass against the numpy engine, which tests/model/audit/test_engines.py checks against SQL).
     import pandas as pd
 
     taken = []

@@ -87,7 +87,7 @@ def warnings_table(warnings) -> pd.DataFrame:
     return pd.DataFrame(rows, columns=["severity", "warning", "applies to"])
 
 
-def report_lines(warnings) -> list[str]:
+def caution_lines(warnings) -> list[str]:
     """The warnings for an HTML report, most severe first, each with its severity."""
     return [f"{sev.upper()}: {_line(t, s)}" for sev, t, s in grouped(warnings)]
 

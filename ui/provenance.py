@@ -14,7 +14,7 @@ from collections.abc import Mapping
 import pandas as pd
 import streamlit as st
 
-from model.io.casemix import casemix_to_csv
+from model.io.case_mix import case_mix_to_csv
 from model.reference import Reference
 
 from .common import ViewSettings, get_store, md
@@ -125,7 +125,7 @@ def year_edits(base, scenario, mix) -> list[str]:
     out = []
     if scenario.practice != base.practice:
         out.append("practice")
-    if casemix_to_csv(mix) != casemix_to_csv(base.casemix):
+    if case_mix_to_csv(mix) != case_mix_to_csv(base.case_mix):
         out.append("case mix")
     if (scenario.sampling.draws, scenario.sampling.seed, scenario.sampling.price_spread) != (
         base.sampling.draws,

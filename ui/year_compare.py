@@ -16,7 +16,7 @@ import ui.year_store
 from model import InputError
 from model.cautions import by_severity
 from model.present import year_charts
-from model.present.exports import html_report
+from model.present.exports import html_export
 from model.year.compare import nonzero_rows
 
 from . import tables as fmt
@@ -151,12 +151,12 @@ def render(view) -> None:
     }
 
     def _report() -> str:
-        return html_report(
+        return html_export(
             ("UNSAFE PRACTICE. " if unsafe_names else "") + "Year comparison",
             inputs=inputs,
             tables={"Paired difference": table},
             figures=figs,
-            warnings=ui.cautions.report_lines(warnings),
+            warnings=ui.cautions.caution_lines(warnings),
             cautions=[ui.CAUTION, *notes],
             sources=tables["Sources"],
             currency=first.baseline.currency,

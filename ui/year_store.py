@@ -1,7 +1,7 @@
 """Year work kept in the store: scenarios and their case mixes, as plans are.
 
 Saved, versioned, uploaded and downloaded. Presentation glue; the formats are
-model.io.scenario and model.io.casemix, the store model.store (its
+model.io.scenario and model.io.case_mix, the store model.store (its
 ``save``/``get``/``history``/``names`` API).
 
 A saved scenario is kind ``scenario``: its TOML text, whose ``case_mix`` names a saved case
@@ -17,7 +17,7 @@ from dataclasses import dataclass, replace
 from pathlib import Path
 
 from model import InputError
-from model.io.casemix import casemix_to_csv, parse_casemix_text
+from model.io.case_mix import case_mix_to_csv, parse_case_mix_text
 from model.io.scenario import load_scenario, parse_scenario_text, scenario_to_toml
 from model.io.uploads import check_upload
 from model.plan import CasePlan
@@ -68,7 +68,7 @@ def load_mix(store: Store, ref: str, library: Mapping[str, CasePlan]) -> CaseMix
         name, version = ref, ""
     body = store.get("casemix", name, int(version) if version else None).body
     where = f"saved case mix '{name}'" + (f" version {version}" if version else "")
-    return parse_casemix_text(body, where, _plan_finder(library, where))
+    return parse_case_mix_text(body, where, _plan_finder(library, where))
 
 
 def load(
@@ -84,7 +84,7 @@ def load(
         mix_field = str(tomllib.loads(body).get("case_mix", ""))
     except tomllib.TOMLDecodeError as exc:
         raise InputError(where, "the text", f"not valid TOML ({exc})") from None
-    return parse_scenario_text(body, where, casemix=load_mix(store, mix_field, library))
+    return parse_scenario_text(body, where, case_mix=load_mix(store, mix_field, library))
 
 
 def save(
@@ -98,7 +98,7 @@ def save(
     name = name.strip()
     if not name:
         raise InputError("name", "empty", "give the year a name to save it under")
-    mix_version = store.save("casemix", name, casemix_to_csv(mix), note, author=author)
+    mix_version = store.save("casemix", name, case_mix_to_csv(mix), note, author=author)
     text = scenario_to_toml(replace(scenario, name=name), mix_ref(name, mix_version))
     return store.save("scenario", name, text, note, author=author), mix_version
 
@@ -128,7 +128,7 @@ def import_files(
     if mix_upload is not None:
         up = check_upload(mix_upload[0], mix_upload[1], "casemix")
         mix_name = Path(up.name).stem
-        mix = parse_casemix_text(up.text, up.name, _plan_finder(library, up.name))
+        mix = parse_case_mix_text(up.text, up.name, _plan_finder(library, up.name))
     scenario = None
     if scenario_upload is not None:
         up = check_upload(scenario_upload[0], scenario_upload[1], "scenario")
@@ -148,12 +148,12 @@ def import_files(
                     wanted,
                     "upload its case-mix file (CSV) with it, or save that case mix first",
                 )
-        scenario = parse_scenario_text(up.text, up.name, casemix=mix)
+        scenario = parse_scenario_text(up.text, up.name, case_mix=mix)
     if scenario is not None:
         version, _ = save(store, scenario, mix, scenario.name, f"uploaded {scenario_upload[0]}", author=author)
         return scenario.name, f"Saved scenario '{scenario.name}' as version {version}, with its case mix."
     if mix is not None:
-        version = store.save("casemix", mix_name, casemix_to_csv(mix), f"uploaded {mix_upload[0]}", author=author)
+        version = store.save("casemix", mix_name, case_mix_to_csv(mix), f"uploaded {mix_upload[0]}", author=author)
         return None, (
             f"Saved case mix '{mix_name}' as version {version}; a scenario file naming "
             f'case_mix = "{mix_name}" can now be uploaded.'

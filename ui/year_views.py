@@ -61,7 +61,7 @@ def scenario_for_view(scenario: Scenario, view, mix: CaseMix | None = None, own_
     prices = dict(scenario.prices) if own_prices else {}
     prices["currency"] = view.currency
     sources = tuple(k for k in scenario.sampling.gwp_sources if GWP_SOURCES[k].horizon_years == view.gwp_horizon_years)
-    mix = mix if mix is not None else scenario.casemix
+    mix = mix if mix is not None else scenario.case_mix
     # Every case type's plan at the sidebar's room temperature, as on the Case plan page.
     mix = replace(
         mix,
@@ -74,7 +74,7 @@ def scenario_for_view(scenario: Scenario, view, mix: CaseMix | None = None, own_
         scenario,
         gwp_source=view.gwp_source,
         prices=prices,
-        casemix=mix,
+        case_mix=mix,
         sampling=replace(scenario.sampling, gwp_sources=sources),
     )
 

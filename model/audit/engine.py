@@ -24,7 +24,7 @@ from model.audit.result import BAND_COLUMNS, DEFAULT_HIGH_FLOW_L_MIN, DEFAULT_HI
 from model.base.errors import InputError
 from model.freshgas import FLOW_BAND_NAMES
 from model.io.record_files import DEFAULT_GAP_LIMIT_MIN
-from model.io.record_report import Records, finish_report
+from model.io.record_reading import Records, finish_report
 from model.io.records import read_records
 from model.reference import DEFAULT_GWP, DEFAULT_REFERENCE, STANDARD_PRESSURE_KPA, Reference
 

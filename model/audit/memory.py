@@ -11,7 +11,7 @@ from model.audit.result import BAND_COLUMNS
 from model.circle import rebreathed_share
 from model.freshgas import FLOW_BANDS
 from model.io.record_files import file_failures
-from model.io.record_report import Records
+from model.io.record_reading import Records
 
 # --------------------------------------------------------------------------------------
 # The in-memory engine: the same rules as the SQL views ``checked`` and ``valid`` and

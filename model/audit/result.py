@@ -9,7 +9,7 @@ import pandas as pd
 
 from model.base.jsonable import to_json_value
 from model.freshgas import FLOW_BAND_NAMES, FLOW_BANDS
-from model.io.record_report import ReadReport
+from model.io.record_reading import ReadSummary
 
 #: Fresh gas flow above which a sample counts as high flow. [L/min]
 #: Source: Baker AB, Anaesth Intensive Care 1994;22:341-2 (high flow is above 2 L/min).
@@ -62,7 +62,7 @@ class AuditResult:
     """The audit of a set of records: one row per case, the reading report, and settings."""
 
     cases: pd.DataFrame
-    report: ReadReport
+    report: ReadSummary
     currency: str
     gwp_source: str
     gwp_label: str

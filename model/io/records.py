@@ -59,7 +59,7 @@ from model.io.record_files import (
     is_numeric_type,
     is_time_type,
 )
-from model.io.record_report import DEFAULT_MAX_MESSAGES, ReadReport, Records
+from model.io.record_reading import DEFAULT_MAX_MESSAGES, ReadSummary, Records
 from model.reference import AIR_O2_FRACTION, DEFAULT_REFERENCE, Reference, normalise_agent_name
 
 
@@ -183,7 +183,7 @@ def _band_sql(expr: str) -> str:
     return f"CASE {whens} ELSE {_sql_str(FLOW_BANDS[-1][0])} END"
 
 
-def _csv_table(con, rf: RecordFile, index: int, report: ReadReport, folder: str):
+def _csv_table(con, rf: RecordFile, index: int, report: ReadSummary, folder: str):
     """Read a CSV file line by line as text columns with its line numbers; bad lines go to the report.
 
     The file is cut into lines first (:func:`model.io.csv_lines.split_csv_lines`): a line
@@ -404,7 +404,7 @@ def _remove(folder: str | None) -> None:
 
 def _build_views(con, tmp, specs, reference, gap_limit_min, step):
     """Read the CSV files and create the ``raw``, ``prepared``, ``checked`` and ``valid`` views."""
-    report = ReadReport(files=[s.name for s in specs], gap_limit_min=float(gap_limit_min))
+    report = ReadSummary(files=[s.name for s in specs], gap_limit_min=float(gap_limit_min))
     for s in specs:
         if s.ignored:
             report.notes.append(f"{s.name}: ignored column(s) {', '.join(s.ignored)}")

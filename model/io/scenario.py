@@ -1,7 +1,7 @@
 """Scenarios: a case mix, a change of practice, prices and the settings of the year's sampling.
 
 A scenario file is TOML in the project's own format (documented in docs/formats.md, "Case-mix and
-scenario files"). It names its case-mix file (CSV, :mod:`model.io.casemix`) relative to itself.
+scenario files"). It names its case-mix file (CSV, :mod:`model.io.case_mix`) relative to itself.
 """
 
 from __future__ import annotations
@@ -16,7 +16,7 @@ import tomli_w
 
 from model.base.errors import InputError
 from model.base.files import parse_toml, read_user_text
-from model.io.casemix import load_casemix
+from model.io.case_mix import load_case_mix
 from model.io.plans import GwpSourceName, Share, _first_error, _quantity, _Strict, format_of, volatile_key
 from model.reference import DEFAULT_GWP, GWP_SOURCES, Reference
 from model.year.inputs import DAYS_PER_MONTH, DEFAULT_CAR_FACTOR, MAX_DRAWS, CaseMix, Practice, Sampling, Scenario
@@ -112,7 +112,7 @@ class _ScenarioIn(_Strict):
 
 
 def scenario_from_dict(
-    data: Mapping, source: str = "scenario", base_dir: Path | None = None, casemix: CaseMix | None = None
+    data: Mapping, source: str = "scenario", base_dir: Path | None = None, case_mix: CaseMix | None = None
 ) -> Scenario:
     """Validate a scenario given as a dict (as read from TOML).
 
@@ -124,7 +124,7 @@ def scenario_from_dict(
         Name of the file, for error messages.
     base_dir : Path, optional
         Folder the ``case_mix`` path is relative to (default: the current folder).
-    casemix : CaseMix, optional
+    case_mix : CaseMix, optional
         Use this case mix instead of reading the ``case_mix`` file (e.g. one edited on the
         dashboard).
 
@@ -137,8 +137,8 @@ def scenario_from_dict(
         raw = _ScenarioIn.model_validate(data)
     except pydantic.ValidationError as exc:
         raise _first_error(exc, source, "scenario") from None
-    if casemix is None:
-        casemix = load_casemix((base_dir or Path(".")) / raw.case_mix)
+    if case_mix is None:
+        case_mix = load_case_mix((base_dir or Path(".")) / raw.case_mix)
     p = raw.practice
     mode = 1.0 if p.adherence is None else p.adherence
     practice = Practice(
@@ -154,7 +154,7 @@ def scenario_from_dict(
     u = raw.uncertainty
     scenario = Scenario(
         name=raw.name,
-        casemix=casemix,
+        case_mix=case_mix,
         practice=practice,
         gwp_source=raw.gwp_source,
         prices=dict(raw.prices),
@@ -171,13 +171,13 @@ def scenario_from_dict(
 
 
 def parse_scenario_text(
-    text: str, source: str = "scenario", base_dir: Path | None = None, casemix: CaseMix | None = None
+    text: str, source: str = "scenario", base_dir: Path | None = None, case_mix: CaseMix | None = None
 ) -> Scenario:
     """Read a scenario from TOML text. Raises InputError for malformed TOML or bad fields."""
     if len(text) > MAX_SCENARIO_BYTES:
         raise InputError(source, f"{len(text)} characters", f"a scenario file is at most {MAX_SCENARIO_BYTES} bytes")
     data = parse_toml(text, source, "scenario", "not valid TOML (see 'Case-mix and scenario files' in docs/formats.md)")
-    return scenario_from_dict(data, source, base_dir, casemix)
+    return scenario_from_dict(data, source, base_dir, case_mix)
 
 
 def load_scenario(path) -> Scenario:

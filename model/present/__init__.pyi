@@ -4,7 +4,7 @@
 # checkers take it as public.
 
 from .exports import chart_text as chart_text
-from .exports import html_report as html_report
+from .exports import html_export as html_export
 from .exports import to_csv as to_csv
 from .exports import to_xlsx as to_xlsx
 from .palette import AGENT_COLOURS as AGENT_COLOURS
@@ -22,8 +22,8 @@ from .palette import PRIMARY as PRIMARY
 from .palette import TEXT as TEXT
 from .palette import agent_colour as agent_colour
 from .palette import rgba as rgba
-from .report_charts import band_figure as band_figure
 from .report_charts import by_agent_figure as by_agent_figure
+from .report_charts import flow_band_figure as flow_band_figure
 from .report_charts import monthly_figure as monthly_figure
 from .report_charts import report_figures as report_figures
 from .report_charts import target_figure as target_figure

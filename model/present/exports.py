@@ -208,7 +208,7 @@ def _report_figure(fig):
     return out
 
 
-def html_report(
+def html_export(
     title: str,
     *,
     inputs: Mapping[str, object] | None = None,

@@ -181,7 +181,7 @@ COLUMN_LABELS: Mapping[str, str] = _LABELS
 _MONEY = re.compile(r"^cost(_|,| \(|$)", re.IGNORECASE)
 _PERCENT_SHARES = ("unexplained_share", "unexplained_share_with_records", "gap_share", "co2e_share")
 
-#: Problem kinds of the records check (``model.io.record_report.ISSUE_KINDS``) in words.
+#: Problem kinds of the records check (``model.io.record_reading.ISSUE_KINDS``) in words.
 PROBLEM_WORDS: Mapping[str, str] = {
     "encoding": "not UTF-8 text",
     "field_count": "wrong number of fields",

@@ -19,7 +19,7 @@ from model.report.lmdi import FACTORS
 from model.report.target import target_path_t
 
 __all__ = [
-    "band_figure",
+    "flow_band_figure",
     "by_agent_figure",
     "monthly_figure",
     "report_figures",
@@ -109,7 +109,9 @@ def monthly_figure(
     return house_style(fig, "Use-based emissions by month", 320)
 
 
-def band_figure(period_share: dict, baseline_share: dict | None, period_label: str, baseline_label: str) -> go.Figure:
+def flow_band_figure(
+    period_share: dict, baseline_share: dict | None, period_label: str, baseline_label: str
+) -> go.Figure:
     """Share of anaesthetic time in each flow band, period against baseline."""
     fig = new_figure()
     series = [(period_label, period_share, PALETTE[0])]
@@ -210,7 +212,7 @@ def report_figures(report) -> dict:
     out["Emissions by month"] = monthly_figure(
         pr.by_month, br.by_month if br is not None else None, pr.period.text, br.period.text if br is not None else ""
     )
-    out["Time in each flow band"] = band_figure(
+    out["Time in each flow band"] = flow_band_figure(
         pr.figures["band_share"],
         br.figures["band_share"] if br is not None else None,
         pr.period.text,

@@ -6,7 +6,7 @@ from collections.abc import Iterable
 
 import pandas as pd
 
-from model.present.exports import html_report, to_xlsx
+from model.present.exports import html_export, to_xlsx
 from model.report.report import EmissionsReport
 
 
@@ -62,7 +62,7 @@ def report_html(
     if report.target is not None:
         summary.append(report.target.sentence())
     warnings = [f"Not worked out: {p}" for p in report.problems]
-    return html_report(
+    return html_export(
         report.title,
         inputs=report_inputs(report),
         tables=report.tables(),

@@ -11,7 +11,7 @@ without N2O x following the practice change or not) is simulated once at a few d
 (:data:`NODE_Z`, spanning the type's log-normal duration), all sub-plans of an agent in ONE
 vectorised call. A case's totals at any duration are interpolated linearly between those
 nodes in the minutes of the stretched phase (:func:`model.year.inputs.stretch_phase`), where
-totals are smooth and near-linear; tests/test_year.py measures the error against direct
+totals are smooth and near-linear; tests/model/year/test_year.py measures the error against direct
 simulation at random durations (under 1 %).
 
 A type's year is the sum of its cases. Its mean is exact for the interpolated totals

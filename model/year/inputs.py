@@ -1,6 +1,6 @@
 """What a department's year is computed from: case types, the case mix, the practice change, sampling and the scenario.
 
-Reading and writing these as files is :mod:`model.io.casemix` and :mod:`model.io.scenario`.
+Reading and writing these as files is :mod:`model.io.case_mix` and :mod:`model.io.scenario`.
 """
 
 from __future__ import annotations
@@ -150,7 +150,7 @@ class Scenario:
     """A case mix plus practice plus prices, with the settings of its year."""
 
     name: str
-    casemix: CaseMix
+    case_mix: CaseMix
     practice: Practice = field(default_factory=Practice)
     gwp_source: str = DEFAULT_GWP
     #: Price overrides in the settings-file form (``currency``, ``bottle.<agent>``, ...).

@@ -64,7 +64,7 @@ def stretch_minutes_moments(median_min, spread, fixed_min):
 #: is simulated at ``median x exp(spread x z)`` for these ``z`` (a numerical choice, no
 #: source). Per-case totals between nodes are interpolated linearly in the stretched minutes
 #: and extrapolated linearly beyond the outer nodes; against direct simulation of the
-#: Fernhollow mix at random durations the error is under 0.6 % (tests/test_year.py checks 1 %).
+#: Fernhollow mix at random durations the error is under 0.6 % (tests/model/year/test_year.py checks 1 %).
 NODE_Z = (-2.5, -1.25, 0.0, 1.25, 2.5)
 
 

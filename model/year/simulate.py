@@ -139,7 +139,7 @@ def _subplans(scenario: Scenario, ref: Reference) -> list[SubPlan]:
     """The sub-plans of a scenario: type x practice (as written / changed) x agent x N2O use."""
     out = []
     changed = scenario.practice.changes_anything
-    for i, t in enumerate(scenario.casemix.types):
+    for i, t in enumerate(scenario.case_mix.types):
         check_dials(t.plan, ref, f"case type '{t.name}', plan '{t.plan.name}'")
         plan_agent = ref.volatile(t.plan.agent)
         nodes = duration_nodes(t.median_min, t.spread, t.fixed_min)
@@ -365,7 +365,7 @@ def _year_inputs_many(scenarios, reference: Reference) -> list[YearInputs]:
 
 
 def _assemble(scenario: Scenario, ref: Reference, subplans: list[SubPlan], cols, groups) -> YearInputs:
-    mix: CaseMix = scenario.casemix
+    mix: CaseMix = scenario.case_mix
     types = mix.types
     n_types = len(types)
     changed = scenario.practice.changes_anything

@@ -90,7 +90,7 @@ def click_button(pg, text: str) -> None:
     pg.locator('button[data-testid^="stBaseButton"]').filter(has_text=re.compile(re.escape(text) + "$")).first.click()
 
 
-def download_html_report(pg, folder: Path) -> tuple[Path, str]:
+def download_html_export(pg, folder: Path) -> tuple[Path, str]:
     """Click the page's "HTML report" download; the saved file and its text."""
     with pg.expect_download() as dl:
         click_button(pg, "HTML report")

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import pytest
 
-from tests.browser.actions import download_html_report, metric_text, open_app, wait_idle
+from tests.browser.actions import download_html_export, metric_text, open_app, wait_idle
 
 pytestmark = pytest.mark.browser
 
@@ -16,7 +16,7 @@ def test_emissions_report_html_carries_the_headline_figure(page, app_url, tmp_pa
     wait_idle(page)
     figure = metric_text(page, "Use-based, IPCC AR6 GWP100")  # e.g. "23.7 t CO2e"
     assert figure.endswith("t CO2e")
-    path, doc = download_html_report(page, tmp_path)
+    path, doc = download_html_export(page, tmp_path)
     headline = doc.split("id='headline'>", 1)[1].split("</p>", 1)[0]
     assert f": {figure} (IPCC AR6 GWP100" in headline and "down" in headline
     assert "Method statement" in doc and "Ang B.W." in doc and "Estimates support planning" in doc

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import pytest
 
-from tests.browser.actions import download_html_report, open_app, wait_idle
+from tests.browser.actions import download_html_export, open_app, wait_idle
 from tests.helpers import ROOT
 
 pytestmark = pytest.mark.browser
@@ -40,7 +40,7 @@ def test_hostile_plan_name_is_shown_as_text_and_escaped_in_the_report(page, app_
     assert page.locator("main img[src='x']").count() == 0
     assert page.locator("a[href^='javascript']").count() == 0
     assert page.evaluate("() => window.__pwned === undefined")
-    path, doc = download_html_report(page, tmp_path)
+    path, doc = download_html_export(page, tmp_path)
     assert "&lt;img src=x" in doc and "<img src=x" not in doc
     # Open the report itself: the name is text, nothing runs, nothing is fetched.
     requests = []

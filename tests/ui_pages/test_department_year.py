@@ -174,9 +174,9 @@ def test_year_exports_record_the_practice_mix_prices_and_version_that_produced_t
     assert rows["program"] == "fresh-gas-ledger " + importlib.metadata.version("fresh-gas-ledger")
     assert "built-in invented example prices" in rows["prices in use"]
     assert "IPCC AR6 GWP100" in rows["GWP values"]
-    from model.io.casemix import load_casemix
+    from model.io.case_mix import load_case_mix
 
-    demo = load_casemix(ROOT / "demo_data" / "year" / "fernhollow_casemix.csv")
+    demo = load_case_mix(ROOT / "demo_data" / "year" / "fernhollow_casemix.csv")
     cases = sum(t.cases_per_year for t in demo.types) - demo.types[0].cases_per_year + 999
     assert rows["case mix"].startswith(f"{len(demo.types)} case types, {cases:,} cases per year")
 

@@ -16,7 +16,7 @@ import pytest
 from model import DEFAULT_REFERENCE, load_plan
 from model.case import compute_case
 from model.io.scenario import load_scenario
-from model.present.exports import html_report, to_csv
+from model.present.exports import html_export, to_csv
 from model.present.readable import decimals, is_money, number_text, readable_frame
 from model.reference import GWP_SOURCES
 from model.year.result import compute_year
@@ -88,7 +88,7 @@ def test_year_report_and_exports_show_cases_as_a_count_and_sources_by_label():
     """Defect 7: "Cases 3080.00" in the year report; snake_case headings in CSV and Excel."""
     year = compute_year(load_scenario(ROOT / "demo_data" / "year" / "baseline_2l.toml"), DEFAULT_REFERENCE)
     summary = year.summary.drop(columns=["key"])
-    doc = html_report("Year", tables={"Headline figures": summary, "Per case type": year.by_type}, currency="GBP")
+    doc = html_export("Year", tables={"Headline figures": summary, "Per case type": year.by_type}, currency="GBP")
     cases_row = re.search(r"<td>Cases</td><td>cases</td><td class='num'>([^<]*)</td>", doc)
     assert cases_row and cases_row.group(1) == "3,080", cases_row
     assert "3080.00" not in doc and "<th>deterministic</th>" not in doc and "<th>liquid_ml" not in doc

@@ -1,7 +1,7 @@
 """The compiled pass of the file-by-file audit gives the numpy path's results to the last bit.
 
 The reference is the numpy engine of the same project, itself checked against duckdb's SQL
-(tests/test_audit_engines.py) and against the case plan's formulas (tests/test_audit.py,
+(tests/model/audit/test_engines.py) and against the case plan's formulas (tests/model/audit/test_audit.py,
 tests/test_audit_absorbent.py); here the two paths must agree exactly, not to a tolerance.
 """
 

@@ -38,7 +38,7 @@ _NAMES = st.one_of(
     reader=st.sampled_from(["plan", "scenario", "casemix", "records", "purchases", "settings"]),
 )
 def test_long_and_impossible_file_names_give_input_error(name, suffix, reader):
-    from model.io.casemix import load_casemix
+    from model.io.case_mix import load_case_mix
     from model.io.plans import load_plan
     from model.io.record_files import inspect_file
     from model.io.scenario import load_scenario
@@ -47,7 +47,7 @@ def test_long_and_impossible_file_names_give_input_error(name, suffix, reader):
     call = {
         "plan": load_plan,
         "scenario": load_scenario,
-        "casemix": load_casemix,
+        "casemix": load_case_mix,
         "records": inspect_file,
         "purchases": purchases.load_purchases,
         "settings": load_settings,

@@ -60,9 +60,9 @@ def test_readme_plan_settings_scenario_and_purchases_examples_run(tmp_path, caps
     plan, settings, scenario = readme_blocks("toml")[:3]
     (tmp_path / "plan.toml").write_text(plan, encoding="utf-8")
     (tmp_path / "settings.toml").write_text(settings, encoding="utf-8")
-    casemix = (BASELINE.parent / "fernhollow_casemix.csv").as_posix()
+    case_mix = (BASELINE.parent / "fernhollow_casemix.csv").as_posix()
     (tmp_path / "scenario.toml").write_text(
-        scenario.replace('"fernhollow_casemix.csv"', f'"{casemix}"'), encoding="utf-8"
+        scenario.replace('"fernhollow_casemix.csv"', f'"{case_mix}"'), encoding="utf-8"
     )
     (tmp_path / "purchases.csv").write_text(readme_blocks("csv")[0], encoding="utf-8")
     for argv in (

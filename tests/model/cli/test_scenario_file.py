@@ -35,15 +35,15 @@ def test_scenario_switch_agent_error_names_the_field_once(tmp_path, capsys):
 
 
 def test_year_gwp_source_without_an_agent_value_names_the_scenario_field(tmp_path, capsys):
-    casemix = tmp_path / "mix.csv"
-    casemix.write_text(
+    case_mix = tmp_path / "mix.csv"
+    case_mix.write_text(
         "case_type,cases_per_year,median_duration,sevoflurane,halothane,plan\n"
         f"Paediatric,10,45,0.5,0.5,{(BASELINE.parent / 'plans' / 'child_2l.toml').as_posix()}\n",
         encoding="utf-8",
     )
     scenario = tmp_path / "s.toml"
     scenario.write_text(
-        f'name = "t"\ncase_mix = "{casemix.as_posix()}"\n'
+        f'name = "t"\ncase_mix = "{case_mix.as_posix()}"\n'
         '[uncertainty]\ndraws = 50\ngwp_sources = ["ar6_gwp100", "sulbaek_andersen_2012"]\n',
         encoding="utf-8",
     )

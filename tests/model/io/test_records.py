@@ -12,7 +12,7 @@ from model.audit.engine import audit_records
 from model.base.errors import InputError
 from model.freshgas import delivered_fractions
 from model.io.record_files import inspect_file
-from model.io.record_report import ISSUE_KINDS
+from model.io.record_reading import ISSUE_KINDS
 
 HEADER = "case_id,elapsed,theatre,agent,o2,air,n2o,dial\n"
 

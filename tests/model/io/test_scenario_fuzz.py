@@ -20,9 +20,9 @@ SCENARIO_TEXT = (YEAR / "baseline_2l.toml").read_text()
 
 @pytest.fixture(scope="module")
 def demo_mix():
-    from model.io.casemix import load_casemix
+    from model.io.case_mix import load_case_mix
 
-    return load_casemix(YEAR / "fernhollow_casemix.csv")
+    return load_case_mix(YEAR / "fernhollow_casemix.csv")
 
 
 @STRUCTURED

@@ -15,7 +15,7 @@ from hypothesis import given
 from hypothesis import strategies as st
 
 from model import compute_case, load_plan
-from model.present.exports import FORMULA_STARTS, chart_text, html_report, neutralise, to_csv, to_xlsx
+from model.present.exports import FORMULA_STARTS, chart_text, html_export, neutralise, to_csv, to_xlsx
 
 DEMO = Path(__file__).resolve().parents[3] / "demo_data" / "plans"
 
@@ -93,7 +93,7 @@ def test_exports_of_a_plan_with_hostile_names():
 
 def test_html_report_escapes_user_text_and_is_self_contained():
     fig = go.Figure(go.Bar(x=[chart_text(HOSTILE_HTML)], y=[1]), layout_title_text=chart_text(HOSTILE_HTML))
-    doc = html_report(
+    doc = html_export(
         HOSTILE_HTML,
         inputs={"plan name": HOSTILE_HTML},
         tables={HOSTILE_HTML: pd.DataFrame({"phase": [HOSTILE_HTML], "x": [1.0]})},

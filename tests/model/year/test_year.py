@@ -10,7 +10,7 @@ import scipy.stats
 
 from model.base.errors import InputError
 from model.case import compute_case
-from model.io.casemix import parse_casemix_text
+from model.io.case_mix import parse_case_mix_text
 from model.io.plans import load_plan
 from model.io.scenario import load_scenario, parse_scenario_text
 from model.reference import DEFAULT_REFERENCE
@@ -38,7 +38,7 @@ def _plan(name, where):
 
 
 def _mix(rows: str):
-    return parse_casemix_text(HEADER + rows, "test mix", _plan)
+    return parse_case_mix_text(HEADER + rows, "test mix", _plan)
 
 
 def _scenario(rows: str, **kw) -> Scenario:
@@ -139,10 +139,10 @@ def test_bottles_are_whole_and_rounded_up_per_month():
 
 def test_zero_spread_and_full_adherence_give_one_value():
     base = load_scenario(YEAR / "baseline_2l.toml")
-    mix = replace(base.casemix, types=tuple(replace(t, spread=0.0) for t in base.casemix.types))
+    mix = replace(base.case_mix, types=tuple(replace(t, spread=0.0) for t in base.case_mix.types))
     scenario = replace(
         base,
-        casemix=mix,
+        case_mix=mix,
         sampling=Sampling(draws=500, seed=3, price_spread=0.0),
     ).with_practice(maintenance_flow_l_min=0.5, dial_factor=1.5, adherence=1.0, adherence_low=1.0, adherence_high=1.0)
     result = compute_year(scenario)
@@ -251,7 +251,7 @@ def test_triangular_ppf_matches_scipy():
 
 def test_gwp_source_without_a_value_is_an_input_error():
     text = HEADER.replace("n2o_share", "halothane,n2o_share") + "Old,10,60,0,0,0,0,1,0,lap_chole_high_flow.toml\n"
-    mix = parse_casemix_text(text, "mix", _plan)
+    mix = parse_case_mix_text(text, "mix", _plan)
     with pytest.raises(InputError, match="no value for halothane"):
         compute_year(Scenario("h", mix, gwp_source="sulbaek_andersen_2012", sampling=Sampling(draws=5)))
 
@@ -312,14 +312,14 @@ def test_interpolated_case_totals_are_within_one_percent_of_direct_simulation(na
     scenario = load_scenario(YEAR / name)
     inp = year_inputs(scenario)
     rng = np.random.default_rng(20261201)
-    target_types = {i for i, t in enumerate(scenario.casemix.types) if any(p.target_mac for p in t.plan.phases)}
+    target_types = {i for i, t in enumerate(scenario.case_mix.types) if any(p.target_mac for p in t.plan.phases)}
     assert target_types, "the demo mix has a target-mode case type"
     # Every sub-plan of the target-mode type, and a sample of the others (for speed).
     subs = [s for s in inp.subplans if s.type_index in target_types]
     others = [s for s in inp.subplans if s.type_index not in target_types]
     subs += [others[i] for i in rng.choice(len(others), 6, replace=False)]
     for sub in subs:
-        t = scenario.casemix.types[sub.type_index]
+        t = scenario.case_mix.types[sub.type_index]
         stretch = np.maximum(t.median_min * np.exp(t.spread * rng.standard_normal(2)) - t.fixed_min, 0.0)
         est = interpolate_nodes(sub.nodes_min, sub.totals, stretch)
         for x, row in zip(stretch, est, strict=True):
@@ -368,12 +368,12 @@ def test_sampled_minutes_carry_nearly_all_per_case_variance():
 
 def test_target_mode_case_type_of_the_demo_runs_through_the_circle_model():
     base = load_scenario(YEAR / "baseline_2l.toml")
-    t = next(t for t in base.casemix.types if t.name == "Emergency laparotomy")
+    t = next(t for t in base.case_mix.types if t.name == "Emergency laparotomy")
     assert t.plan.phases[t.stretch_index].target_mac == 1.0
     # Without spread, the type's cases all last the median: per case the year uses what
     # compute_case of the plan uses (agent shares: sevoflurane 0.9, desflurane 0.1).
     only = replace(t, spread=0.0, agent_shares={"sevoflurane": 1.0})
-    result = compute_year(replace(base, casemix=replace(base.casemix, types=(only,))), draws=20)
+    result = compute_year(replace(base, case_mix=replace(base.case_mix, types=(only,))), draws=20)
     c = _case_at(t.plan, t.median_min, t.stretch_index)
     per_case = result.per_case
     assert per_case["liquid_ml_sevoflurane"] == pytest.approx(c["liquid_agent_ml"], rel=1e-9)
@@ -397,7 +397,7 @@ def test_low_flow_practice_warns_of_hypoxic_inspired_o2_unless_the_o2_share_rise
 def test_o2_share_splits_the_practice_flow():
     base = load_scenario(YEAR / "proposal_half_litre.toml")
     assert base.practice.maintenance_o2_share == pytest.approx(0.8)
-    t = base.casemix.types[0]
+    t = base.case_mix.types[0]
     plan, _ = practised_plan(t, base)
     m = plan.phases[t.stretch_index]
     assert (m.o2_l_min, m.air_l_min, m.n2o_l_min) == pytest.approx((0.4, 0.1, 0.0))
@@ -419,7 +419,7 @@ def test_plans_with_different_phase_layouts_share_a_call_without_changing_their_
         + plan.phases,
     )
     plans = {"a.toml": plan, "b.toml": extra}
-    mix = parse_casemix_text(
+    mix = parse_case_mix_text(
         HEADER + "A,100,90,0,1,0,0,0,a.toml\nB,50,90,0,1,0,0,0,b.toml\n", "mix", lambda name, where: plans[name]
     )
     year = compute_year(Scenario("layouts", mix, sampling=Sampling(draws=5))).totals
@@ -442,7 +442,7 @@ def test_a_dial_above_the_vaporizer_maximum_in_use_names_the_case_type(tmp_path)
         encoding="utf-8",
     )
     assert 'dial = "9 %"' in plan.read_text(encoding="utf-8")
-    mix = parse_casemix_text(HEADER + f"Deep,10,60,0,1,0,0,0,{plan}\n", "mix", lambda name, where: load_plan(name))
+    mix = parse_case_mix_text(HEADER + f"Deep,10,60,0,1,0,0,0,{plan}\n", "mix", lambda name, where: load_plan(name))
     scenario = Scenario("deep", mix, sampling=Sampling(draws=5))
     with pytest.raises(InputError, match=r"case type 'Deep'.*phases\[\d\]\.dial: got '9 %'.*up to 8 %"):
         compute_year(scenario)
@@ -461,7 +461,7 @@ def test_a_slow_end_tidal_target_is_a_caution_of_the_year_as_of_the_case(tmp_pat
     plan = load_plan(YEAR / "plans" / "adult_target_2l.toml")
     # A light wash-in, then a deeper target at 0.5 L/min: the slow response of low flow.
     slow = plan.with_phase(0, dial_pct=1.0).with_phase(1, o2_l_min=0.3, air_l_min=0.2, target_mac=1.2)
-    mix = parse_casemix_text(HEADER + "Slow,10,108,0,1,0,0,0,slow.toml\n", "mix", lambda name, where: slow)
+    mix = parse_case_mix_text(HEADER + "Slow,10,108,0,1,0,0,0,slow.toml\n", "mix", lambda name, where: slow)
     # The case type's plan carries the mix's patient (default band), so compare with that case.
     case_caution = [w for w in compute_case(mix.types[0].plan).warnings if "only after" in w]
     assert case_caution, "the single case must show the slow target first"
@@ -477,7 +477,7 @@ def test_a_slow_end_tidal_target_is_a_caution_of_the_year_as_of_the_case(tmp_pat
         for w in compute_year(
             Scenario(
                 "fast",
-                parse_casemix_text(HEADER + "Fast,10,108,0,1,0,0,0,fast.toml\n", "mix", lambda name, where: plan),
+                parse_case_mix_text(HEADER + "Fast,10,108,0,1,0,0,0,fast.toml\n", "mix", lambda name, where: plan),
                 sampling=Sampling(draws=5),
             )
         ).warnings

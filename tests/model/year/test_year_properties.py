@@ -16,13 +16,13 @@ from model.year.result import compute_year
 
 YEAR = Path(__file__).resolve().parents[3] / "demo_data" / "year"
 BASE = load_scenario(YEAR / "baseline_2l.toml")
-N_TYPES = len(BASE.casemix.types)
+N_TYPES = len(BASE.case_mix.types)
 FEW = Sampling(draws=64, seed=1, price_spread=0.1, gwp_sources=("ar6_gwp100", "ar5_gwp100"))
 
 
 def _with_counts(counts):
-    types = tuple(replace(t, cases_per_year=c) for t, c in zip(BASE.casemix.types, counts, strict=True))
-    return replace(BASE, casemix=replace(BASE.casemix, types=types), sampling=FEW)
+    types = tuple(replace(t, cases_per_year=c) for t, c in zip(BASE.case_mix.types, counts, strict=True))
+    return replace(BASE, case_mix=replace(BASE.case_mix, types=types), sampling=FEW)
 
 
 counts = st.lists(st.integers(0, 3000), min_size=N_TYPES, max_size=N_TYPES)
@@ -65,7 +65,7 @@ def test_lowering_every_flow_of_the_plans_never_raises_agent_use(scale):
             )
         return replace(t, plan=plan)
 
-    low = replace(BASE, casemix=replace(BASE.casemix, types=tuple(scaled(t) for t in BASE.casemix.types)))
+    low = replace(BASE, case_mix=replace(BASE.case_mix, types=tuple(scaled(t) for t in BASE.case_mix.types)))
     a = compute_year(BASE, draws=1).totals
     b = compute_year(low, draws=1).totals
     for agent in VOLATILES:

@@ -6,7 +6,13 @@ import pandas as pd
 import pytest
 
 from model.base.errors import InputError
-from model.io.casemix import casemix_from_frame, casemix_to_csv, casemix_to_frame, load_casemix, parse_casemix_text
+from model.io.case_mix import (
+    case_mix_from_frame,
+    case_mix_to_csv,
+    case_mix_to_frame,
+    load_case_mix,
+    parse_case_mix_text,
+)
 from model.io.plans import load_plan
 from model.year.inputs import stretch_phase
 
@@ -18,8 +24,8 @@ def _plans(name, where):
     return load_plan(YEAR / name)
 
 
-def test_demo_casemix_reads_every_type():
-    mix = load_casemix(YEAR / "fernhollow_casemix.csv")
+def test_demo_case_mix_reads_every_type():
+    mix = load_case_mix(YEAR / "fernhollow_casemix.csv")
     assert len(mix.types) == 11
     assert mix.cases_per_year == sum(t.cases_per_year for t in mix.types)
     for t in mix.types:
@@ -29,7 +35,7 @@ def test_demo_casemix_reads_every_type():
 
 def test_units_and_percent_shares_are_read():
     text = HEADER + 'Hernia,100,"1.5 h",0.3,80 %,20 %,"10 %",plans/adult_2l.toml\n'
-    t = parse_casemix_text(text, "mix.csv", _plans).types[0]
+    t = parse_case_mix_text(text, "mix.csv", _plans).types[0]
     assert t.median_min == pytest.approx(90.0)
     assert t.agent_shares["sevoflurane"] == pytest.approx(0.8)
     assert t.n2o_share == pytest.approx(0.1)
@@ -50,7 +56,7 @@ def test_units_and_percent_shares_are_read():
 )
 def test_bad_rows_name_line_and_field(row, field):
     with pytest.raises(InputError) as exc:
-        parse_casemix_text(HEADER + row + "\n", "mix.csv", _plans)
+        parse_case_mix_text(HEADER + row + "\n", "mix.csv", _plans)
     message = str(exc.value)
     assert message.startswith("mix.csv: line 2, " + field), message
     assert "\n" not in message
@@ -58,28 +64,28 @@ def test_bad_rows_name_line_and_field(row, field):
 
 def test_unknown_column_and_missing_plan_are_reported(tmp_path):
     with pytest.raises(InputError, match="allowed columns"):
-        parse_casemix_text("case_type,cases,plan\nA,1,x.toml\n", "mix.csv", _plans)
+        parse_case_mix_text("case_type,cases,plan\nA,1,x.toml\n", "mix.csv", _plans)
     path = tmp_path / "mix.csv"
     path.write_text(HEADER + "A,10,60,0,1,0,0,missing.toml\n")
     with pytest.raises(InputError, match=r"line 2, plan: got 'missing.toml'; no plan file"):
-        load_casemix(path)
+        load_case_mix(path)
 
 
 def test_duplicate_type_names_are_refused():
     text = HEADER + "A,10,60,0,1,0,0,plans/adult_2l.toml\nA,5,60,0,1,0,0,plans/adult_2l.toml\n"
     with pytest.raises(InputError, match="each case type name appears once"):
-        parse_casemix_text(text, "mix.csv", _plans)
+        parse_case_mix_text(text, "mix.csv", _plans)
 
 
 def test_frame_round_trip_keeps_the_mix():
-    mix = load_casemix(YEAR / "fernhollow_casemix.csv")
-    frame = casemix_to_frame(mix)
-    again = casemix_from_frame(frame, mix.plans)
-    assert casemix_to_csv(again) == casemix_to_csv(mix)
+    mix = load_case_mix(YEAR / "fernhollow_casemix.csv")
+    frame = case_mix_to_frame(mix)
+    again = case_mix_from_frame(frame, mix.plans)
+    assert case_mix_to_csv(again) == case_mix_to_csv(mix)
     frame["cases_per_year"] = frame["cases_per_year"].astype(object)
     frame.loc[0, "cases_per_year"] = "many"
     with pytest.raises(InputError, match=r"table: row 1, cases_per_year"):
-        casemix_from_frame(frame, mix.plans)
+        case_mix_from_frame(frame, mix.plans)
 
 
 def test_stretch_phase_is_maintenance_else_longest():
@@ -90,13 +96,13 @@ def test_stretch_phase_is_maintenance_else_longest():
 
 
 def test_blank_rows_in_an_edited_table_are_skipped():
-    mix = load_casemix(YEAR / "fernhollow_casemix.csv")
-    frame = pd.concat([casemix_to_frame(mix), pd.DataFrame([{c: None for c in casemix_to_frame(mix).columns}])])
-    assert len(casemix_from_frame(frame, mix.plans).types) == len(mix.types)
+    mix = load_case_mix(YEAR / "fernhollow_casemix.csv")
+    frame = pd.concat([case_mix_to_frame(mix), pd.DataFrame([{c: None for c in case_mix_to_frame(mix).columns}])])
+    assert len(case_mix_from_frame(frame, mix.plans).types) == len(mix.types)
 
 
 def test_a_plan_with_an_end_tidal_target_is_a_valid_case_type():
     # The year runs plans through the circle model, which finds the dial for a target.
     text = HEADER + "Laparotomy,100,150,0.4,1,0,0,plans/adult_target_2l.toml\n"
-    t = parse_casemix_text(text, "mix.csv", _plans).types[0]
+    t = parse_case_mix_text(text, "mix.csv", _plans).types[0]
     assert t.plan.phases[t.stretch_index].mode == "target"

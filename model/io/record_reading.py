@@ -34,7 +34,7 @@ DEFAULT_MAX_MESSAGES = 2000
 
 
 @dataclass
-class ReadReport:
+class ReadSummary:
     """Counts and row-numbered messages from reading and checking records."""
 
     files: list[str]
@@ -92,7 +92,7 @@ class Records:
 
     con: duckdb.DuckDBPyConnection | LazyConnection
     files: list[RecordFile]
-    report: ReadReport
+    report: ReadSummary
     gap_limit_min: float
     reference: Reference = DEFAULT_REFERENCE
     _tmpdir: str | None = None
@@ -132,7 +132,7 @@ class Records:
 
 def finish_report(
     recs: Records, counts: dict[str, int], rows_valid: int, gaps: int, gap_minutes: float, time_rows=None, gap_rows=None
-) -> ReadReport:
+) -> ReadSummary:
     """Fill the report's counts and row-numbered messages (at most ``max_messages``).
 
     With ``time_rows`` and ``gap_rows`` given (the in-memory engine found them), only the

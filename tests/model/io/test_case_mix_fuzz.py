@@ -13,7 +13,7 @@ from hypothesis import strategies as st
 
 from model import load_plan
 from model.base.errors import InputError
-from model.io.casemix import CASEMIX_COLUMNS, parse_casemix_text
+from model.io.case_mix import CASE_MIX_COLUMNS, parse_case_mix_text
 from model.year.inputs import CaseMix
 from tests.helpers.fuzz import FUZZ
 from tests.helpers.parser_fuzz import (
@@ -54,20 +54,20 @@ _NAMES = st.one_of(
 @settings(FUZZ, max_examples=400)
 @given(name=_NAMES)
 def test_case_mix_plan_cell_with_any_name_gives_input_error(name):
-    from model.io.casemix import parse_casemix_text
+    from model.io.case_mix import parse_case_mix_text
 
     out = io.StringIO()
     csv.writer(out, lineterminator="\n").writerows(
         [["case_type", "cases_per_year", "median_duration", "sevoflurane", "plan"], ["t", "10", "90", "1", name]]
     )
     with pytest.raises(InputError):
-        parse_casemix_text(out.getvalue(), str(ROOT / "demo_data" / "year" / "fuzz.csv"))
+        parse_case_mix_text(out.getvalue(), str(ROOT / "demo_data" / "year" / "fuzz.csv"))
 
 
 @settings(FUZZ, max_examples=300)
 @given(count=_NUMBERS, median=_NUMBERS, spread=_NUMBERS, weight=_NUMBERS)
 def test_huge_and_tiny_case_mix_numbers_give_mix_or_input_error(count, median, spread, weight):
-    from model.io.casemix import parse_casemix_text
+    from model.io.case_mix import parse_case_mix_text
     from model.io.plans import load_plan
 
     plan = load_plan(ROOT / "demo_data" / "plans" / "lap_chole_low_flow.toml")
@@ -76,7 +76,7 @@ def test_huge_and_tiny_case_mix_numbers_give_mix_or_input_error(count, median, s
         f"t,{count},{median},{spread},1,{weight},p.toml\n"
     )
     try:
-        mix = parse_casemix_text(text, "fuzz.csv", lambda name, where: plan)
+        mix = parse_case_mix_text(text, "fuzz.csv", lambda name, where: plan)
     except InputError:
         return
     t = mix.types[0]
@@ -89,7 +89,7 @@ YEAR = ROOT / "demo_data" / "year"
 DEMO_PLAN = load_plan(ROOT / "demo_data" / "plans" / "lap_chole_low_flow.toml")
 
 
-CASEMIX_TEXT = (YEAR / "fernhollow_casemix.csv").read_text()
+CASE_MIX_TEXT = (YEAR / "fernhollow_casemix.csv").read_text()
 
 
 def _plan_for(name, where):
@@ -98,8 +98,8 @@ def _plan_for(name, where):
     raise InputError(where, name, "no such plan (fuzz)")
 
 
-def _casemix(text):
-    result = _only_input_error(parse_casemix_text, text, "fuzz.csv", _plan_for)
+def _case_mix(text):
+    result = _only_input_error(parse_case_mix_text, text, "fuzz.csv", _plan_for)
     if result is not None:
         assert isinstance(result, CaseMix) and result.types
         assert all(t.cases_per_year >= 0 and t.median_min > 0 for t in result.types)
@@ -107,24 +107,24 @@ def _casemix(text):
 
 
 @STRUCTURED
-@given(_table(list(CASEMIX_COLUMNS)))
-def test_casemix_with_wrong_columns_and_cells_gives_mix_or_input_error(text):
-    _casemix(text)
+@given(_table(list(CASE_MIX_COLUMNS)))
+def test_case_mix_with_wrong_columns_and_cells_gives_mix_or_input_error(text):
+    _case_mix(text)
 
 
 @STRUCTURED
-@given(_mangled(CASEMIX_TEXT))
-def test_demo_casemix_with_one_line_mangled_gives_mix_or_input_error(text):
-    _casemix(text)
+@given(_mangled(CASE_MIX_TEXT))
+def test_demo_case_mix_with_one_line_mangled_gives_mix_or_input_error(text):
+    _case_mix(text)
 
 
 @PARSER_FUZZ
 @given(st.binary(max_size=2000))
-def test_casemix_from_raw_bytes_gives_mix_or_input_error(data):
-    _casemix(data.decode("utf-8", errors="replace"))
+def test_case_mix_from_raw_bytes_gives_mix_or_input_error(data):
+    _case_mix(data.decode("utf-8", errors="replace"))
 
 
 @PARSER_FUZZ
 @given(st.text(alphabet=st.sampled_from(list(',"\n\r #abcdeilnmoprstuv0123456789.-%/')), max_size=300))
-def test_casemix_from_csv_like_text_gives_mix_or_input_error(text):
-    _casemix(CASEMIX_TEXT.splitlines()[5] + "\n" + text)
+def test_case_mix_from_csv_like_text_gives_mix_or_input_error(text):
+    _case_mix(CASE_MIX_TEXT.splitlines()[5] + "\n" + text)

@@ -25,7 +25,7 @@ from model.plan import CasePlan
 from model.reference import VOLATILES
 from model.year.inputs import CaseMix, CaseType
 
-CASEMIX_COLUMNS = (
+CASE_MIX_COLUMNS = (
     "case_type",
     "cases_per_year",
     "median_duration",
@@ -39,7 +39,7 @@ CASEMIX_COLUMNS = (
 )
 REQUIRED_COLUMNS = ("case_type", "cases_per_year", "median_duration", "plan")
 #: Largest case-mix file read. [bytes]
-MAX_CASEMIX_BYTES = 2_000_000
+MAX_CASE_MIX_BYTES = 2_000_000
 #: Most case types in one mix.
 MAX_CASE_TYPES = 500
 #: Most cases of one type per year (a very large hospital does some tens of thousands in all).
@@ -160,7 +160,7 @@ def _check_names(types, source):
         seen.add(t.name)
 
 
-def parse_casemix_text(
+def parse_case_mix_text(
     text: str, source: str = "case mix", plan_for: Callable[[str, str], CasePlan] | None = None
 ) -> CaseMix:
     """Read a case mix from CSV text.
@@ -180,8 +180,8 @@ def parse_casemix_text(
     InputError
         Naming the file, line and column.
     """
-    if len(text) > MAX_CASEMIX_BYTES:
-        raise InputError(source, f"{len(text)} characters", f"a case-mix file is at most {MAX_CASEMIX_BYTES} bytes")
+    if len(text) > MAX_CASE_MIX_BYTES:
+        raise InputError(source, f"{len(text)} characters", f"a case-mix file is at most {MAX_CASE_MIX_BYTES} bytes")
     plans: dict[str, CasePlan] = {}
     loader = plan_for or (lambda name, where: _load_plan_file(Path(name), name, where))
 
@@ -200,10 +200,10 @@ def parse_casemix_text(
                 continue
             if header is None:
                 header = [h.strip().lower() for h in row]
-                unknown = [h for h in header if h not in CASEMIX_COLUMNS]
+                unknown = [h for h in header if h not in CASE_MIX_COLUMNS]
                 if unknown:
                     raise InputError(
-                        f"{source}: line {line}", unknown[0], "allowed columns are " + ", ".join(CASEMIX_COLUMNS)
+                        f"{source}: line {line}", unknown[0], "allowed columns are " + ", ".join(CASE_MIX_COLUMNS)
                     )
                 missing = [c for c in REQUIRED_COLUMNS if c not in header]
                 if missing:
@@ -232,15 +232,15 @@ def _load_plan_file(path: Path, name: str, where: str) -> CasePlan:
     return load_plan(path)
 
 
-def load_casemix(path) -> CaseMix:
+def load_case_mix(path) -> CaseMix:
     """Read a case-mix file (CSV); plan names are files relative to its folder."""
     p = Path(path)
-    text = read_user_text(p, "case-mix", MAX_CASEMIX_BYTES, "CSV", encoding="utf-8-sig")
+    text = read_user_text(p, "case-mix", MAX_CASE_MIX_BYTES, "CSV", encoding="utf-8-sig")
     folder = p.parent
-    return parse_casemix_text(text, str(p), lambda name, where: _load_plan_file(folder / name, name, where))
+    return parse_case_mix_text(text, str(p), lambda name, where: _load_plan_file(folder / name, name, where))
 
 
-def casemix_from_frame(frame: pd.DataFrame, plans: Mapping[str, CasePlan], source: str = "table") -> CaseMix:
+def case_mix_from_frame(frame: pd.DataFrame, plans: Mapping[str, CasePlan], source: str = "table") -> CaseMix:
     """A case mix from an edited table (columns as in the file), with plans given by name.
 
     Rows are numbered from 1 in error messages.
@@ -263,7 +263,7 @@ def casemix_from_frame(frame: pd.DataFrame, plans: Mapping[str, CasePlan], sourc
     return CaseMix(tuple(types), source, dict(plans))
 
 
-def casemix_to_frame(mix: CaseMix) -> pd.DataFrame:
+def case_mix_to_frame(mix: CaseMix) -> pd.DataFrame:
     """The case mix as a table in file form (durations in min, shares as fractions)."""
     rows = []
     for t in mix.types:
@@ -281,9 +281,9 @@ def casemix_to_frame(mix: CaseMix) -> pd.DataFrame:
                 "plan": t.plan_name,
             }
         )
-    return pd.DataFrame(rows, columns=list(CASEMIX_COLUMNS))
+    return pd.DataFrame(rows, columns=list(CASE_MIX_COLUMNS))
 
 
-def casemix_to_csv(mix: CaseMix) -> str:
+def case_mix_to_csv(mix: CaseMix) -> str:
     """The case mix as CSV text in the case-mix file format."""
-    return casemix_to_frame(mix).to_csv(index=False)
+    return case_mix_to_frame(mix).to_csv(index=False)
