@@ -47,13 +47,20 @@ CO2E_COLOUR = PALETTE[6]
 LESS_COLOUR = PALETTE[5]
 MORE_COLOUR = "#a8661c"
 
-#: One colour per agent on every page and export (nitrous oxide, a gas, in warm grey).
+#: One colour per agent on every page and export: the hues of the international colour code
+#: for anaesthetic agents that practitioners know from vaporizers, bottles and filling adaptors
+#: (ISO 5360, Anaesthetic vaporizers - Agent-specific filling systems: sevoflurane yellow,
+#: desflurane blue, isoflurane purple, halothane red, enflurane orange; from memory). The
+#: shades are ours, dark enough to read as lines and bars on white (the code's yellow is
+#: taken as a deep gold). Halothane's red is kept apart from the danger red by a bluer shade.
+#: Nitrous oxide, a gas with no ISO 5360 colour, is a warm grey.
 AGENT_COLOURS = MappingProxyType(
     {
-        "sevoflurane": PALETTE[0],
-        "desflurane": PALETTE[1],
-        "isoflurane": PALETTE[2],
-        "halothane": PALETTE[3],
+        "sevoflurane": "#d4a20a",
+        "desflurane": "#1f5fbf",
+        "isoflurane": "#7b3fa0",
+        "halothane": "#b0304f",
+        "enflurane": "#e07b1a",
         "nitrous_oxide": PALETTE[4],
     }
 )
@@ -61,12 +68,13 @@ AGENT_COLOURS = MappingProxyType(
 NO_AGENT_COLOUR = "#b8c4ca"
 
 #: Flow bands (Baker 1994), lowest flow first, on one sequential scale that darkens as the
-#: flow rises: six steps of the "YlOrBr" sequential scheme in Paul Tol, "Colour Schemes",
-#: SRON technical note SRON/EPS/TN/09-002, issue 3.2 (2021), a scheme designed to stay
-#: ordered for colour-blind readers and in grey print. The palest steps are left out so the
-#: lowest band still shows on white.
+#: flow rises, in a hue no agent uses (green), so a band is never read as an agent: six steps
+#: of the single-hue "Greens" sequential scheme of ColorBrewer (Harrower M., Brewer C.A.,
+#: "ColorBrewer.org: an online tool for selecting colour schemes for maps", The Cartographic
+#: Journal 40(1):27-37, 2003), ordered in lightness so it reads the same way for colour-blind
+#: readers and in grey print. The palest steps are left out so the lowest band shows on white.
 FLOW_BAND_COLOURS = MappingProxyType(
-    dict(zip(FLOW_BAND_NAMES, ("#FEE391", "#FEC44F", "#FB9A29", "#EC7014", "#CC4C02", "#993404"), strict=True))
+    dict(zip(FLOW_BAND_NAMES, ("#c7e9c0", "#a1d99b", "#74c476", "#41ab5d", "#238b45", "#005a32"), strict=True))
 )
 
 

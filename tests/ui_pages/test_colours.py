@@ -67,3 +67,44 @@ def test_department_year_draws_each_agent_in_the_same_colour():
     by_source = figs["CO2e by source"]["data"][0]
     for name, colour in zip(by_source["y"], by_source["marker"]["color"], strict=False):
         assert colour == AGENT_COLOURS[name.lower().replace(" ", "_")], name
+
+
+def _hue_degrees(hex_colour: str) -> float:
+    import colorsys
+
+    h = hex_colour.lstrip("#")
+    r, g, b = (int(h[i : i + 2], 16) / 255 for i in (0, 2, 4))
+    return colorsys.rgb_to_hsv(r, g, b)[0] * 360
+
+
+def _hue_distance(a: float, b: float) -> float:
+    d = abs(a - b) % 360
+    return min(d, 360 - d)
+
+
+# Source: ISO 5360, Anaesthetic vaporizers - Agent-specific filling systems, its colour code
+# (from memory): sevoflurane yellow, desflurane blue, isoflurane purple, halothane red,
+# enflurane orange. The hue ranges of the colour names are common practice, no source.
+_ISO_5360_HUES = {
+    "sevoflurane": (40.0, 60.0),
+    "desflurane": (200.0, 240.0),
+    "isoflurane": (265.0, 300.0),
+    "halothane": (330.0, 360.0),
+    "enflurane": (20.0, 40.0),
+}
+
+
+def test_agent_colours_follow_the_international_agent_colour_code():
+    """Issue 22, defect 12: each volatile agent takes the hue practitioners know from its vaporizer."""
+    for agent, (low, high) in _ISO_5360_HUES.items():
+        hue = _hue_degrees(AGENT_COLOURS[agent])
+        assert low <= hue <= high, (agent, AGENT_COLOURS[agent], hue)
+
+
+def test_flow_bands_use_a_hue_no_agent_uses():
+    """Issue 22, defect 12: the flow bands stay on their own scale, never mistaken for an agent."""
+    agent_hues = [_hue_degrees(AGENT_COLOURS[a]) for a in _ISO_5360_HUES]
+    for band, colour in FLOW_BAND_COLOURS.items():
+        nearest = min(_hue_distance(_hue_degrees(colour), h) for h in agent_hues)
+        # Hues 45 degrees apart are told apart at a glance (common practice, no source).
+        assert nearest >= 45, (band, colour, nearest)
