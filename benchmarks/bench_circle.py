@@ -50,9 +50,9 @@ def make_cases(n, seed=3):
     target = np.stack([np.full(n, np.nan), np.full(n, 1.0), np.full(n, np.nan)])
     return dict(
         minutes=minutes,
-        o2_l_min=o2,
+        oxygen_l_min=o2,
         air_l_min=air,
-        n2o_l_min=0.0,
+        nitrous_oxide_l_min=0.0,
         dial_pct=dial,
         target_mac=target,
         weight_kg=rng.uniform(40.0, 120.0, n),

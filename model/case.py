@@ -22,9 +22,9 @@ from model.vapour import liquid_used_ml
 
 def phase_consumption(
     minutes,
-    o2_l_min,
+    oxygen_l_min,
     air_l_min,
-    n2o_l_min,
+    nitrous_oxide_l_min,
     dial_pct,
     agent,
     *,
@@ -40,7 +40,7 @@ def phase_consumption(
     ----------
     minutes : array_like, shape (n,)
         Phase durations. [min]
-    o2_l_min, air_l_min, n2o_l_min : array_like, shape (n,)
+    oxygen_l_min, air_l_min, nitrous_oxide_l_min : array_like, shape (n,)
         Requested flowmeter settings. [L/min]
     dial_pct : array_like, shape (n,)
         Vaporizer dial settings. [%]
@@ -54,7 +54,7 @@ def phase_consumption(
     Returns
     -------
     dict of ndarray
-        ``o2_l_min``, ``n2o_l_min`` (delivered), ``altered`` (bool), ``fgf_l_min``,
+        ``oxygen_l_min``, ``nitrous_oxide_l_min`` (delivered), ``altered`` (bool), ``fgf_l_min``,
         ``fd_o2``, ``fd_n2o`` [1], ``liquid_ml`` [mL], ``agent_g`` [g], ``oxygen_l``,
         ``air_l``, ``nitrous_oxide_l`` [L], ``nitrous_oxide_g`` [g].
 
@@ -69,13 +69,15 @@ def phase_consumption(
     """
     t = np.asarray(minutes, dtype=float)
     air = np.asarray(air_l_min, dtype=float)
-    o2, n2o, altered = apply_ratio_limit(o2_l_min, n2o_l_min, min_o2_share, min_o2_flow_l_min, ratio_behaviour)
+    o2, n2o, altered = apply_ratio_limit(
+        oxygen_l_min, nitrous_oxide_l_min, min_o2_share, min_o2_flow_l_min, ratio_behaviour
+    )
     fgf, fd_o2, fd_n2o = delivered_fractions(o2, air, n2o)
     liquid = liquid_used_ml(fgf, dial_pct, t, agent, temperature_c, pressure_kpa)
     n2o_l = n2o * t
     return {
-        "o2_l_min": o2,
-        "n2o_l_min": n2o,
+        "oxygen_l_min": o2,
+        "nitrous_oxide_l_min": n2o,
         "altered": altered,
         "fgf_l_min": fgf,
         "fd_o2": fd_o2,
@@ -259,9 +261,9 @@ def simulation_totals(
     minutes = sim["phase_minutes"]
     liquid = sim["phase_liquid_ml"]
     agent_g = liquid * agent.liquid_density
-    oxygen_l = sim["phase_o2_l_min"] * minutes
+    oxygen_l = sim["phase_oxygen_l_min"] * minutes
     air_l = sim["phase_air_l_min"] * minutes
-    n2o_l = sim["phase_n2o_l_min"] * minutes
+    n2o_l = sim["phase_nitrous_oxide_l_min"] * minutes
     n2o_g = grams(n2o_l, m_n2o)
     # Metabolism acts on the case's gross uptake; it is shared out over the phases in
     # proportion to the agent delivered in each (so no phase shows negative emissions).
@@ -382,9 +384,9 @@ def simulate_plan(plan: CasePlan, reference: Reference = DEFAULT_REFERENCE, *, r
     col = lambda values: np.array(values, dtype=float)[:, None]  # noqa: E731
     kwargs = dict(
         minutes=col([p.minutes for p in plan.phases]),
-        o2_l_min=col([p.o2_l_min for p in plan.phases]),
+        oxygen_l_min=col([p.oxygen_l_min for p in plan.phases]),
         air_l_min=col([p.air_l_min for p in plan.phases]),
-        n2o_l_min=col([p.n2o_l_min for p in plan.phases]),
+        nitrous_oxide_l_min=col([p.nitrous_oxide_l_min for p in plan.phases]),
         dial_pct=col([np.nan if p.dial_pct is None else p.dial_pct for p in plan.phases]),
         target_mac=col([np.nan if p.target_mac is None else p.target_mac for p in plan.phases]),
         weight_kg=pt.weight_kg,
@@ -501,7 +503,7 @@ def compute_case(plan: CasePlan, reference: Reference = DEFAULT_REFERENCE) -> Ca
     check_dials(plan, reference, f"plan '{plan.name}'")
     n2o_agent = reference.agents["nitrous_oxide"]
     gwp_agent = reference.gwp(agent.name, s.gwp_source)
-    gwp_n2o = reference.gwp("nitrous_oxide", s.gwp_source, used=any(p.n2o_l_min > 0 for p in plan.phases))
+    gwp_n2o = reference.gwp("nitrous_oxide", s.gwp_source, used=any(p.nitrous_oxide_l_min > 0 for p in plan.phases))
     sim = simulate_plan(plan, reference, record=True)
     tot, ph = simulation_totals(
         sim,
@@ -522,9 +524,9 @@ def compute_case(plan: CasePlan, reference: Reference = DEFAULT_REFERENCE) -> Ca
             "phase": [p.name for p in plan.phases],
             "duration_min": minutes,
             "mode": np.where(target_mode, "target", "dial"),
-            "o2_l_min": first(sim["phase_o2_l_min"]),
+            "oxygen_l_min": first(sim["phase_oxygen_l_min"]),
             "air_l_min": first(sim["phase_air_l_min"]),
-            "n2o_l_min": first(sim["phase_n2o_l_min"]),
+            "nitrous_oxide_l_min": first(sim["phase_nitrous_oxide_l_min"]),
             "fgf_l_min": first(sim["phase_fgf_l_min"]),
             "flow_band": flow_band(first(sim["phase_fgf_l_min"])),
             "fd_o2_pct": first(sim["phase_fd_o2"]) * 100.0,

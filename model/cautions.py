@@ -161,8 +161,8 @@ class _Row(NamedTuple):
 
     phase: str
     flows_altered: bool
-    o2_l_min: float
-    n2o_l_min: float
+    oxygen_l_min: float
+    nitrous_oxide_l_min: float
     fgf_l_min: float
     fd_o2_pct: float
     lowest_safe_fd_o2_pct: float
@@ -191,8 +191,8 @@ def _ratio_altered(case: _Case, i: int, row: _Row) -> Caution | None:
     p = case.plan.phases[i - 1]
     return Caution(
         f"{_label(i, row)}: the O2/N2O ratio limit altered the requested mix "
-        f"(O2 {p.o2_l_min:g} -> {row.o2_l_min:.2f} L/min, N2O {p.n2o_l_min:g} -> "
-        f"{row.n2o_l_min:.2f} L/min)",
+        f"(O2 {p.oxygen_l_min:g} -> {row.oxygen_l_min:.2f} L/min, N2O {p.nitrous_oxide_l_min:g} -> "
+        f"{row.nitrous_oxide_l_min:.2f} L/min)",
         "caution",
         RATIO_ALTERED,
     )

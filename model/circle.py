@@ -357,8 +357,8 @@ class PhaseResults(_FieldMapping):
     time_to_target_min: np.ndarray
     time_at_max_below_target_min: np.ndarray
     fgf_l_min: np.ndarray
-    o2_l_min: np.ndarray
-    n2o_l_min: np.ndarray
+    oxygen_l_min: np.ndarray
+    nitrous_oxide_l_min: np.ndarray
     air_l_min: np.ndarray
     altered: np.ndarray
     fd_o2: np.ndarray
@@ -447,9 +447,9 @@ class _PhaseInputs(NamedTuple):
     """Phase inputs checked and broadcast to ``(n_phases, n_cases)``."""
 
     minutes: np.ndarray  # [min]
-    o2_l_min: np.ndarray  # requested [L/min]
+    oxygen_l_min: np.ndarray  # requested [L/min]
     air_l_min: np.ndarray  # [L/min]
-    n2o_l_min: np.ndarray  # requested [L/min]
+    nitrous_oxide_l_min: np.ndarray  # requested [L/min]
     dial: np.ndarray  # vaporizer dial as a fraction [1], NaN in target phases
     target: np.ndarray  # end-tidal target [MAC multiple], NaN in dial phases
     target_mode: np.ndarray  # bool
@@ -474,8 +474,8 @@ class _CaseConstants(NamedTuple):
 class _Flows(NamedTuple):
     """Delivered fresh gas per phase, ``(n_phases, n_cases)``, after the ratio limit."""
 
-    o2_l_min: np.ndarray
-    n2o_l_min: np.ndarray
+    oxygen_l_min: np.ndarray
+    nitrous_oxide_l_min: np.ndarray
     altered: np.ndarray
     fgf_l_min: np.ndarray
     fd_o2: np.ndarray
@@ -609,15 +609,15 @@ def _case_count(phase_values: tuple, case_values: tuple) -> int:
     return n_cases
 
 
-def _phase_inputs(minutes, o2_l_min, air_l_min, n2o_l_min, dial_pct, target_mac, shape) -> _PhaseInputs:
+def _phase_inputs(minutes, oxygen_l_min, air_l_min, nitrous_oxide_l_min, dial_pct, target_mac, shape) -> _PhaseInputs:
     """Phase inputs broadcast to ``shape``.
 
     A phase with neither dial nor target, or a negative duration, is a ValueError.
     """
     minutes = _as_phase_array(minutes, shape, "minutes")
-    o2_req = _as_phase_array(o2_l_min, shape, "o2_l_min")
+    o2_req = _as_phase_array(oxygen_l_min, shape, "oxygen_l_min")
     air = _as_phase_array(air_l_min, shape, "air_l_min")
-    n2o_req = _as_phase_array(n2o_l_min, shape, "n2o_l_min")
+    n2o_req = _as_phase_array(nitrous_oxide_l_min, shape, "nitrous_oxide_l_min")
     dial = _as_phase_array(np.nan if dial_pct is None else dial_pct, shape, "dial_pct") / 100.0
     target = _as_phase_array(np.nan if target_mac is None else target_mac, shape, "target_mac")
     target_mode = np.isnan(dial)
@@ -922,9 +922,9 @@ def _phase_table(ends: list[tuple], shape: tuple[int, int]) -> dict[str, np.ndar
 def simulate_cases(
     agent: Agent,
     minutes,
-    o2_l_min,
+    oxygen_l_min,
     air_l_min=0.0,
-    n2o_l_min=0.0,
+    nitrous_oxide_l_min=0.0,
     dial_pct=None,
     target_mac=None,
     *,
@@ -961,7 +961,7 @@ def simulate_cases(
         The volatile agent (``DEFAULT_REFERENCE.volatile("sevoflurane")`` or with overrides).
     minutes : array_like, (n_phases, n_cases)
         Phase durations [min]; 0 skips a phase for that case.
-    o2_l_min, air_l_min, n2o_l_min : array_like, (n_phases, n_cases)
+    oxygen_l_min, air_l_min, nitrous_oxide_l_min : array_like, (n_phases, n_cases)
         Requested flowmeter settings [L/min]; the O2/N2O ratio limit is applied.
     dial_pct : array_like or None, (n_phases, n_cases)
         Vaporizer dial [%] in "dial" phases, NaN in "target" phases.
@@ -1028,14 +1028,14 @@ def simulate_cases(
         minutes = minutes[:, None]
     pat = resolve_patient(weight_kg, age_years, cardiac_output_l_min, vo2_ml_min, minute_ventilation_l_min)
     n_cases = _case_count(
-        (minutes, o2_l_min, air_l_min, n2o_l_min, dial_pct, target_mac),
+        (minutes, oxygen_l_min, air_l_min, nitrous_oxide_l_min, dial_pct, target_mac),
         (weight_kg, age_years, cardiac_output_l_min, vo2_ml_min, minute_ventilation_l_min, circle_volume_l),
     )
     shape = (minutes.shape[0], n_cases)
-    inputs = _phase_inputs(minutes, o2_l_min, air_l_min, n2o_l_min, dial_pct, target_mac, shape)
+    inputs = _phase_inputs(minutes, oxygen_l_min, air_l_min, nitrous_oxide_l_min, dial_pct, target_mac, shape)
     case = _case_constants(pat, circle_volume_l, agent, n2o_ref, n_cases)
     o2, n2o, altered = apply_ratio_limit(
-        inputs.o2_l_min, inputs.n2o_l_min, min_o2_share, min_o2_flow_l_min, ratio_behaviour
+        inputs.oxygen_l_min, inputs.nitrous_oxide_l_min, min_o2_share, min_o2_flow_l_min, ratio_behaviour
     )
     flows = _Flows(o2, n2o, altered, *delivered_fractions(o2, inputs.air_l_min, n2o))
     tissues = _tissues(uptake_model, agent, n2o_ref, case)
@@ -1108,8 +1108,8 @@ def _simulation(
     phases = PhaseResults(
         **table,
         fgf_l_min=fgf,
-        o2_l_min=flows.o2_l_min,
-        n2o_l_min=flows.n2o_l_min,
+        oxygen_l_min=flows.oxygen_l_min,
+        nitrous_oxide_l_min=flows.nitrous_oxide_l_min,
         air_l_min=inputs.air_l_min,
         altered=flows.altered,
         fd_o2=flows.fd_o2,

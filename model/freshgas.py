@@ -21,12 +21,12 @@ FLOW_BANDS = (
 FLOW_BAND_NAMES = tuple(name for name, _ in FLOW_BANDS)
 
 
-def delivered_fractions(o2_l_min, air_l_min, n2o_l_min):
+def delivered_fractions(oxygen_l_min, air_l_min, nitrous_oxide_l_min):
     """Oxygen and nitrous oxide fractions of the fresh gas.
 
     Parameters
     ----------
-    o2_l_min, air_l_min, n2o_l_min : array_like
+    oxygen_l_min, air_l_min, nitrous_oxide_l_min : array_like
         Flowmeter settings. [L/min]
 
     Returns
@@ -46,9 +46,9 @@ def delivered_fractions(o2_l_min, air_l_min, n2o_l_min):
     ----------
     .. [1] US Standard Atmosphere 1976: dry air holds 20.946 % O2 by volume.
     """
-    o2 = np.asarray(o2_l_min, dtype=float)
+    o2 = np.asarray(oxygen_l_min, dtype=float)
     air = np.asarray(air_l_min, dtype=float)
-    n2o = np.asarray(n2o_l_min, dtype=float)
+    n2o = np.asarray(nitrous_oxide_l_min, dtype=float)
     fgf = o2 + air + n2o
     with np.errstate(invalid="ignore", divide="ignore"):
         fd_o2 = np.where(fgf > 0, (o2 + AIR_O2_FRACTION * air) / np.where(fgf > 0, fgf, 1), 0.0)
@@ -56,12 +56,12 @@ def delivered_fractions(o2_l_min, air_l_min, n2o_l_min):
     return fgf, fd_o2, fd_n2o
 
 
-def apply_ratio_limit(o2_l_min, n2o_l_min, min_o2_share=0.25, min_o2_flow_l_min=0.2, behaviour="cap_n2o"):
+def apply_ratio_limit(oxygen_l_min, nitrous_oxide_l_min, min_o2_share=0.25, min_o2_flow_l_min=0.2, behaviour="cap_n2o"):
     """Flows a workstation delivers when it guards against a hypoxic O2/N2O mix.
 
     Parameters
     ----------
-    o2_l_min, n2o_l_min : array_like
+    oxygen_l_min, nitrous_oxide_l_min : array_like
         Requested O2 and N2O flows. [L/min]
     min_o2_share : float
         Lowest O2 share of the O2 + N2O flow the workstation allows. [1] Default 0.25
@@ -94,8 +94,8 @@ def apply_ratio_limit(o2_l_min, n2o_l_min, min_o2_share=0.25, min_o2_flow_l_min=
         raise ValueError(f"behaviour must be one of {RATIO_BEHAVIOURS}, got {behaviour!r}")
     if not 0 < min_o2_share <= 1:
         raise ValueError(f"min_o2_share must lie in (0, 1], got {min_o2_share!r}")
-    o2_req = np.asarray(o2_l_min, dtype=float)
-    n2o_req = np.asarray(n2o_l_min, dtype=float)
+    o2_req = np.asarray(oxygen_l_min, dtype=float)
+    n2o_req = np.asarray(nitrous_oxide_l_min, dtype=float)
     ratio = (1.0 - min_o2_share) / min_o2_share  # largest N2O/O2 allowed
     if behaviour == "cap_n2o":
         o2 = o2_req

@@ -37,9 +37,9 @@ class Phase:
 
     name: str
     minutes: float
-    o2_l_min: float
+    oxygen_l_min: float
     air_l_min: float = 0.0
-    n2o_l_min: float = 0.0
+    nitrous_oxide_l_min: float = 0.0
     dial_pct: float | None = None
     target_mac: float | None = None
 
@@ -51,7 +51,7 @@ class Phase:
     @property
     def fgf_l_min(self) -> float:
         """Total fresh gas flow of the phase (O2 + air + N2O) [L/min]."""
-        return self.o2_l_min + self.air_l_min + self.n2o_l_min
+        return self.oxygen_l_min + self.air_l_min + self.nitrous_oxide_l_min
 
 
 @dataclass(frozen=True)
@@ -104,7 +104,7 @@ class CasePlan:
         return float(sum(p.minutes for p in self.phases))
 
     def with_phase(self, index: int, **changes) -> CasePlan:
-        """A copy with one phase changed (e.g. ``with_phase(1, o2_l_min=0.5)``)."""
+        """A copy with one phase changed (e.g. ``with_phase(1, oxygen_l_min=0.5)``)."""
         phases = list(self.phases)
         phases[index] = replace(phases[index], **changes)
         return replace(self, phases=tuple(phases))

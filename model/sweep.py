@@ -117,16 +117,18 @@ def flow_sweep(
         return np.repeat(values, n, axis=1)
 
     fgf0 = p.fgf_l_min
-    o2, air, n2o = table("o2_l_min"), table("air_l_min"), table("n2o_l_min")
+    o2, air, n2o = table("oxygen_l_min"), table("air_l_min"), table("nitrous_oxide_l_min")
     o2[phase], air[phase], n2o[phase] = (
-        flows * p.o2_l_min / fgf0,
+        flows * p.oxygen_l_min / fgf0,
         flows * p.air_l_min / fgf0,
-        flows * p.n2o_l_min / fgf0,
+        flows * p.nitrous_oxide_l_min / fgf0,
     )
     dial = np.array([[np.nan if q.dial_pct is None else q.dial_pct] for q in plan.phases]).repeat(n, axis=1)
     tgt = np.array([[np.nan if q.target_mac is None else q.target_mac] for q in plan.phases]).repeat(n, axis=1)
     dial[phase], tgt[phase] = np.nan, target
-    sim = simulate_plan(plan, reference, o2_l_min=o2, air_l_min=air, n2o_l_min=n2o, dial_pct=dial, target_mac=tgt)
+    sim = simulate_plan(
+        plan, reference, oxygen_l_min=o2, air_l_min=air, nitrous_oxide_l_min=n2o, dial_pct=dial, target_mac=tgt
+    )
     totals, _ = simulation_totals(
         sim,
         agent,

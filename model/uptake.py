@@ -82,7 +82,7 @@ TISSUE_BLOOD = MappingProxyType(
 #: N2O uptake of an adult breathing N2O: about 1000 t^-0.5 mL/min. [L/min at t = 1 min]
 #: Source: Severinghaus JW. The rate of uptake of nitrous oxide in man. J Clin Invest
 #: 1954;33:1183-9, from memory.
-SEVERINGHAUS_N2O_L_MIN = Sourced(
+SEVERINGHAUS_NITROUS_OXIDE_L_MIN = Sourced(
     1.0, "L/min", "Severinghaus JW, J Clin Invest 1954;33:1183-9, from memory", FROM_MEMORY
 )
 #: End-tidal N2O fraction at which Severinghaus' figure holds. [1]  From memory (about 75 %).
@@ -245,8 +245,8 @@ def tissue_compartments(model, species, blood_gas, weight_kg, cardiac_output_l_m
         C = vol * w[None, :] * tb * blood_gas
         return G, C
     if species == "nitrous_oxide":
-        n2o_l_min: float = SEVERINGHAUS_N2O_L_MIN.value  # type: ignore[assignment]  # a Sourced constant, 1.0, never None
-        amplitude = n2o_l_min / SEVERINGHAUS_N2O_FRACTION * q / _Q70
+        nitrous_oxide_l_min: float = SEVERINGHAUS_NITROUS_OXIDE_L_MIN.value  # type: ignore[assignment]  # a Sourced constant, 1.0, never None
+        amplitude = nitrous_oxide_l_min / SEVERINGHAUS_N2O_FRACTION * q / _Q70
     else:
         amplitude = blood_gas * q
     weights = lowe_kernel_weights()[:, None]

@@ -44,9 +44,9 @@ def _editor_frame(plan: CasePlan) -> pd.DataFrame:
             {
                 "phase": p.name,
                 "duration": f"{p.minutes:g} min",
-                "O2": view.flow(p.o2_l_min),
+                "O2": view.flow(p.oxygen_l_min),
                 "air": view.flow(p.air_l_min),
-                "N2O": view.flow(p.n2o_l_min),
+                "N2O": view.flow(p.nitrous_oxide_l_min),
                 "control": p.mode,
                 "setting": f"{p.dial_pct:g} %" if p.dial_pct is not None else f"{p.target_mac:g}",
             }
@@ -646,8 +646,8 @@ inputs = {
 }
 inputs.update(
     {
-        f"phase {i}: {p.name}": f"{p.minutes:g} min; O2 {p.o2_l_min:g}, air {p.air_l_min:g}, "
-        f"N2O {p.n2o_l_min:g} L/min; "
+        f"phase {i}: {p.name}": f"{p.minutes:g} min; O2 {p.oxygen_l_min:g}, air {p.air_l_min:g}, "
+        f"N2O {p.nitrous_oxide_l_min:g} L/min; "
         + (f"dial {p.dial_pct:g} %" if p.dial_pct is not None else f"target {p.target_mac:g} x MAC")
         for i, p in enumerate(plan.phases, start=1)
     }

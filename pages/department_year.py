@@ -229,8 +229,8 @@ st.caption(
     f"{t['cases']:,.0f} cases; {result.n_draws:,} draws (seed {result.seed}). "
     f"Expected values under {result.inputs.gwp_label}, with P5-P95 under each"
     + (
-        f" (the bands draw the GWP sources {', '.join(ref.gwp_sources[g].label for g in gwps)}, "
-        "so a value can sit near one end of its band)"
+        f" (the P5-P95 ranges draw the GWP sources {', '.join(ref.gwp_sources[g].label for g in gwps)}, "
+        "so a value can sit near one end of its range)"
         if len(gwps) > 1
         else ""
     )
@@ -249,7 +249,7 @@ for col, (label, key, value, digits) in zip(
     strict=True,
 ):
     col.metric(label, value, help=scenario.car_source if key == "car_km" else None)
-    col.caption(yv.band_text(rows.loc[key], digits))
+    col.caption(yv.range_text(rows.loc[key], digits))
 st.caption(
     f"Per case: {result.per_case['cost_total']:,.2f} {cur}, {result.per_case['co2e_total_t'] * 1000:,.1f} kg CO2e, "
     f"{sum(result.per_case[f'liquid_ml_{a}'] for a in VOLATILES):,.1f} mL liquid agent."

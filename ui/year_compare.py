@@ -48,7 +48,7 @@ def render(view) -> None:
         return
     st.caption(
         "Each proposal uses the same random draws as the baseline (durations, adherence, prices, GWP "
-        "source), so the band of each difference is its own, not two bands set side by side. "
+        "source), so the P5-P95 range of each difference is its own, not two ranges set side by side. "
         "Negative = the proposal saves."
     )
     if ss.get("yc_base") not in names:

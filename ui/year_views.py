@@ -54,9 +54,9 @@ def scenario_for_view(scenario: Scenario, view, mix: CaseMix | None = None, own_
 
     Prices: the values in use on every page (the Reference page's saved values over the
     defaults, given to the year as its ``Reference``); the scenario's own ``[prices]`` only
-    with ``own_prices`` (the user chose them on the page). The bands sample only the
+    with ``own_prices`` (the user chose them on the page). The P5-P95 ranges sample only the
     scenario's GWP sources of the sidebar's horizon: a 20-year expected CO2e never sits
-    beside a band drawn from 100-year values.
+    beside a range drawn from 100-year values.
     """
     prices = dict(scenario.prices) if own_prices else {}
     prices["currency"] = view.currency
@@ -105,6 +105,6 @@ def run_compare(baseline: Scenario, proposal: Scenario, ref: Reference, ref_key:
     return compare_cached(_key(baseline, proposal, ref_key), baseline, proposal, ref)
 
 
-def band_text(row, digits: int = 0) -> str:
-    """A P5-P95 band as text, from a summary row's ``p5`` and ``p95``."""
+def range_text(row, digits: int = 0) -> str:
+    """A P5-P95 range as text, from a summary row's ``p5`` and ``p95``."""
     return f"P5-P95: {row['p5']:,.{digits}f} to {row['p95']:,.{digits}f}"

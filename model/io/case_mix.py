@@ -134,7 +134,7 @@ def case_type_from_row(row: Mapping[str, object], plan_for: Callable[[str, str],
         )
     shares = {a: s / total for a, s in shares.items()}
     n2o = _share(get("n2o_share"), f"{where}, n2o_share")
-    band = str(get("band") or "adult").strip()[:40] or "adult"
+    patient_group = str(get("band") or "adult").strip()[:40] or "adult"
     weight = _number(get("weight"), f"{where}, weight", "kg", 0.5, 350.0, default=70.0)
     age = _number(get("age"), f"{where}, age", "year", 0.0, 120.0, default=40.0)
     plan_name = str(get("plan") or "").strip()
@@ -142,7 +142,7 @@ def case_type_from_row(row: Mapping[str, object], plan_for: Callable[[str, str],
         raise InputError(f"{where}, plan", "nothing", "name the case plan file of this type's flow practice")
     plan = plan_for(plan_name, f"{where}, plan")
     plan = replace(plan, patient=replace(plan.patient, weight_kg=weight, age_years=age))
-    ctype = CaseType(name, count, median, spread, shares, n2o, plan, plan_name, band, weight, age)
+    ctype = CaseType(name, count, median, spread, shares, n2o, plan, plan_name, patient_group, weight, age)
     if median <= ctype.fixed_min:
         raise InputError(
             f"{where}, median_duration",
@@ -275,7 +275,7 @@ def case_mix_to_frame(mix: CaseMix) -> pd.DataFrame:
                 "duration_spread": t.spread,
                 **{a: round(t.agent_shares.get(a, 0.0), 6) for a in VOLATILES},
                 "n2o_share": t.n2o_share,
-                "band": t.band,
+                "band": t.patient_group,
                 "weight": t.weight_kg,
                 "age": t.age_years,
                 "plan": t.plan_name,

@@ -355,9 +355,9 @@ def plan_to_dict(plan: CasePlan) -> dict:
         row: dict[str, Any] = {
             "name": p.name,
             "duration": _q(p.minutes, "min"),
-            "o2": _q(p.o2_l_min, "L/min"),
+            "o2": _q(p.oxygen_l_min, "L/min"),
             "air": _q(p.air_l_min, "L/min"),
-            "n2o": _q(p.n2o_l_min, "L/min"),
+            "n2o": _q(p.nitrous_oxide_l_min, "L/min"),
         }
         if p.dial_pct is not None:
             row["dial"] = _q(p.dial_pct, "%")

@@ -1,6 +1,6 @@
 """Figures of a department's year and of a comparison of two years (plotly, house template).
 
-Bottles and cost by month, CO2e by source, the P5-P95 band through the year, paired
+Bottles and cost by month, CO2e by source, the P5-P95 range through the year, paired
 differences.
 """
 
@@ -81,7 +81,7 @@ def co2e_by_source_figure(totals: dict) -> go.Figure:
 
 
 def fan_figure(fan: pd.DataFrame, figure: str, unit: str, colour: str = COST_COLOUR) -> go.Figure:
-    """Cumulative figure through the year: P50 line inside its P5-P95 band."""
+    """Cumulative figure through the year: P50 line inside its P5-P95 range."""
     d = fan[fan["figure"] == figure]
     x = list(d["month"])
     fig = go.Figure()

@@ -35,7 +35,7 @@ class CaseType:
     n2o_share: float
     plan: CasePlan
     plan_name: str
-    band: str = "adult"
+    patient_group: str = "adult"
     weight_kg: float = 70.0
     age_years: float = 40.0
 

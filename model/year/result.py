@@ -226,9 +226,9 @@ def _notes(inp: YearInputs, scenario: Scenario) -> list[str]:
             return GWP_SOURCES[k].label if k in GWP_SOURCES else k
 
         notes.append(
-            f"The expected column uses {label(scenario.gwp_source)}; the P5-P95 bands also sample the "
+            f"The expected column uses {label(scenario.gwp_source)}; the P5-P95 ranges also sample the "
             f"GWP sources {', '.join(map(label, sampled))} (the uncertainty of the GWP choice), so an expected "
-            "CO2e can sit near one end of its band."
+            "CO2e can sit near one end of its range."
         )
     return notes
 

@@ -58,17 +58,22 @@ def practised_plan(ctype: CaseType, scenario: Scenario):
     if pr.maintenance_flow_l_min is not None and phase.fgf_l_min > 0:
         scale = pr.maintenance_flow_l_min / phase.fgf_l_min
         changes.update(
-            o2_l_min=phase.o2_l_min * scale, air_l_min=phase.air_l_min * scale, n2o_l_min=phase.n2o_l_min * scale
+            oxygen_l_min=phase.oxygen_l_min * scale,
+            air_l_min=phase.air_l_min * scale,
+            nitrous_oxide_l_min=phase.nitrous_oxide_l_min * scale,
         )
     if pr.maintenance_o2_share is not None:
         total = pr.maintenance_flow_l_min if pr.maintenance_flow_l_min is not None else phase.fgf_l_min
-        air, n2o = changes.get("air_l_min", phase.air_l_min), changes.get("n2o_l_min", phase.n2o_l_min)
+        air, n2o = (
+            changes.get("air_l_min", phase.air_l_min),
+            changes.get("nitrous_oxide_l_min", phase.nitrous_oxide_l_min),
+        )
         rest = total * (1.0 - pr.maintenance_o2_share)
         other = air + n2o
         changes.update(
-            o2_l_min=total * pr.maintenance_o2_share,
+            oxygen_l_min=total * pr.maintenance_o2_share,
             air_l_min=rest * air / other if other > 0 else rest,
-            n2o_l_min=rest * n2o / other if other > 0 else 0.0,
+            nitrous_oxide_l_min=rest * n2o / other if other > 0 else 0.0,
         )
     if pr.dial_factor != 1.0 and phase.dial_pct is not None:
         changes["dial_pct"] = phase.dial_pct * pr.dial_factor
@@ -157,11 +162,13 @@ def _subplans(scenario: Scenario, ref: Reference) -> list[SubPlan]:
                     phases = []
                     for p in plan.phases:
                         if with_n2o:
-                            o2, air, n2o = p.o2_l_min, 0.0, p.n2o_l_min + p.air_l_min
+                            o2, air, n2o = p.oxygen_l_min, 0.0, p.nitrous_oxide_l_min + p.air_l_min
                         else:
-                            o2, air, n2o = p.o2_l_min, p.air_l_min + p.n2o_l_min, 0.0
+                            o2, air, n2o = p.oxygen_l_min, p.air_l_min + p.nitrous_oxide_l_min, 0.0
                         dial = None if p.dial_pct is None else _dial_for(agent, plan_agent, p.dial_pct)
-                        phases.append(replace(p, o2_l_min=o2, air_l_min=air, n2o_l_min=n2o, dial_pct=dial))
+                        phases.append(
+                            replace(p, oxygen_l_min=o2, air_l_min=air, nitrous_oxide_l_min=n2o, dial_pct=dial)
+                        )
                     sub = replace(plan, agent=agent_name, phases=tuple(phases))
                     out.append(
                         SubPlan(
@@ -197,7 +204,14 @@ def _group_key(agent: str, s) -> tuple:
 def _column_key(sub: SubPlan, x: float) -> tuple:
     pt, s = sub.plan.patient, sub.plan.settings
     phases = tuple(
-        (x if j == sub.stretch_index else p.minutes, p.o2_l_min, p.air_l_min, p.n2o_l_min, p.dial_pct, p.target_mac)
+        (
+            x if j == sub.stretch_index else p.minutes,
+            p.oxygen_l_min,
+            p.air_l_min,
+            p.nitrous_oxide_l_min,
+            p.dial_pct,
+            p.target_mac,
+        )
         for j, p in enumerate(sub.plan.phases)
     )
     return (
@@ -271,7 +285,7 @@ def simulate_subplans(subplans: list[SubPlan], ref: Reference) -> dict:
             for j in range(n_ph):
                 r = j - off
                 p = phases[min(max(r, 0), len(phases) - 1)]
-                arr["o2"][j, c], arr["air"][j, c], arr["n2o"][j, c] = p.o2_l_min, p.air_l_min, p.n2o_l_min
+                arr["o2"][j, c], arr["air"][j, c], arr["n2o"][j, c] = p.oxygen_l_min, p.air_l_min, p.nitrous_oxide_l_min
                 if 0 <= r < len(phases):
                     arr["minutes"][j, c] = x if r == sub.stretch_index else p.minutes
                     arr["dial"][j, c] = np.nan if p.dial_pct is None else p.dial_pct
@@ -393,7 +407,7 @@ def _assemble(scenario: Scenario, ref: Reference, subplans: list[SubPlan], cols,
     rate = np.where(has_var[None, :, None], cov / np.where(has_var, var, 1.0)[None, :, None], 0.0)
     fixed = e_f - rate * mean[None, :, None]
     used_agents = {sp.agent for sp in subplans}
-    uses_n2o = any(q.n2o_l_min > 0 for sp in subplans for q in sp.plan.phases)
+    uses_n2o = any(q.nitrous_oxide_l_min > 0 for sp in subplans for q in sp.plan.phases)
     prices = ref.prices
     price_vec = np.array(
         [prices.bottle.get(a, 0.0) for a in VOLATILES]

@@ -14,9 +14,9 @@ DEMO = Path(__file__).resolve().parents[2] / "demo_data" / "plans"
 PLANS = ["lap_chole_low_flow", "lap_chole_high_flow", "hip_desflurane_n2o"]
 
 
-def _at_flow(plan, o2_l_min, air_l_min):
+def _at_flow(plan, oxygen_l_min, air_l_min):
     """The plan with every phase at the given O2 and air flows."""
-    return replace(plan, phases=tuple(replace(p, o2_l_min=o2_l_min, air_l_min=air_l_min) for p in plan.phases))
+    return replace(plan, phases=tuple(replace(p, oxygen_l_min=oxygen_l_min, air_l_min=air_l_min) for p in plan.phases))
 
 
 @pytest.mark.parametrize("name", PLANS)

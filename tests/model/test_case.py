@@ -132,10 +132,10 @@ def test_mac_hours_count_nitrous_oxide():
 def test_ratio_limit_alters_request_and_warns():
     result = compute_case(one_phase_plan("desflurane", o2=0.5, air=0.0, n2o=2.0, dial=5.0))
     row = result.phases.iloc[0]
-    assert row["n2o_l_min"] == pytest.approx(1.5) and bool(row["flows_altered"])
+    assert row["nitrous_oxide_l_min"] == pytest.approx(1.5) and bool(row["flows_altered"])
     assert any("ratio limit altered" in w for w in result.warnings)
     raised = compute_case(one_phase_plan("desflurane", o2=0.5, air=0.0, n2o=2.0, dial=5.0, ratio_behaviour="raise_o2"))
-    assert raised.phases.iloc[0]["o2_l_min"] == pytest.approx(2.0 / 3.0)
+    assert raised.phases.iloc[0]["oxygen_l_min"] == pytest.approx(2.0 / 3.0)
 
 
 def test_low_sevoflurane_flow_warns():
@@ -209,7 +209,8 @@ def test_warnings_are_ranked_hazard_first_with_a_severity_each():
     # 0.5 L/min maintenance at 50 % O2: the textbook steady-state FiO2 mass balance
     # (FGF x FdO2 - VO2) / (FGF - VO2 - ...) has a numerator near zero at VO2 ~ 0.25 L/min.
     phases = tuple(
-        replace(p, o2_l_min=0.25, air_l_min=0.25, n2o_l_min=0.0) if p.name == "maintenance" else p for p in plan.phases
+        replace(p, oxygen_l_min=0.25, air_l_min=0.25, nitrous_oxide_l_min=0.0) if p.name == "maintenance" else p
+        for p in plan.phases
     )
     result = compute_case(replace(plan, phases=phases))
     severities = [severity_of(w) for w in result.warnings]

@@ -46,7 +46,9 @@ def test_a_phase_named_like_a_sevoflurane_caution_raises_no_sevoflurane_flag():
     # O2 with 3 L/min N2O; the phase's name, which every caution of it quotes, reads like
     # the sevoflurane caution's wording, and a desflurane case has no such caution.
     plan = load_plan(DEMO / "hip_desflurane_n2o.toml")
-    first = replace(plan.phases[0], name="sevoflurane at 0.5 L/min", o2_l_min=0.3, air_l_min=0.0, n2o_l_min=3.0)
+    first = replace(
+        plan.phases[0], name="sevoflurane at 0.5 L/min", oxygen_l_min=0.3, air_l_min=0.0, nitrous_oxide_l_min=3.0
+    )
     result = compute_case(replace(plan, phases=(first, *plan.phases[1:])))
     altered = [w for w in result.warnings if code_of(w) == RATIO_ALTERED]
     assert altered and "sevoflurane at" in altered[0]
@@ -58,7 +60,8 @@ def test_a_hypoxic_mixture_is_coded_low_o2():
     # inspired O2 under a 30 % floor (the steady-state mass balance of a circle).
     plan = load_plan(DEMO / "lap_chole_low_flow.toml")
     phases = tuple(
-        replace(p, o2_l_min=0.25, air_l_min=0.25, n2o_l_min=0.0) if p.name == "maintenance" else p for p in plan.phases
+        replace(p, oxygen_l_min=0.25, air_l_min=0.25, nitrous_oxide_l_min=0.0) if p.name == "maintenance" else p
+        for p in plan.phases
     )
     result = compute_case(replace(plan, phases=phases))
     low = [w for w in result.warnings if code_of(w) == LOW_INSPIRED_O2]

@@ -47,7 +47,7 @@ def test_ratio_limit_never_delivers_o2_share_under_minimum(requests, share, cuto
 def test_phase_rows_never_deliver_o2_share_under_minimum(agent, rows, share, behaviour):
     o2, air, n2o, dial, t = (np.array(c) for c in zip(*rows, strict=True))
     c = phase_consumption(t, o2, air, n2o, dial, agent, min_o2_share=share, ratio_behaviour=behaviour)
-    total = c["o2_l_min"] + c["n2o_l_min"]
+    total = c["oxygen_l_min"] + c["nitrous_oxide_l_min"]
     mixed = total > 0
-    assert np.all(c["o2_l_min"][mixed] / total[mixed] >= share * (1 - 1e-12))
-    assert np.all(c["n2o_l_min"][c["o2_l_min"] < 0.2] == 0.0)
+    assert np.all(c["oxygen_l_min"][mixed] / total[mixed] >= share * (1 - 1e-12))
+    assert np.all(c["nitrous_oxide_l_min"][c["oxygen_l_min"] < 0.2] == 0.0)

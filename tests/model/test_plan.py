@@ -80,7 +80,7 @@ def test_units_are_converted_at_the_edge():
     induction, maintenance = plan.phases
     assert induction.air_l_min == pytest.approx(4.0)
     assert maintenance.minutes == pytest.approx(75.0)
-    assert maintenance.o2_l_min == pytest.approx(0.3)  # bare number in the default unit, L/min
+    assert maintenance.oxygen_l_min == pytest.approx(0.3)  # bare number in the default unit, L/min
     assert maintenance.dial_pct == pytest.approx(3.0) and induction.dial_pct == pytest.approx(6.0)
     assert induction.fgf_l_min == pytest.approx(6.0)
     assert plan.minutes == pytest.approx(85.0)
@@ -103,7 +103,7 @@ def test_other_units_convert():
     )
     # Source: SI definitions (1 h = 3600 s = 60 min, 1 atm = 760 mmHg = 101.325 kPa).
     assert plan.phases[0].minutes == pytest.approx(90.0)
-    assert plan.phases[0].o2_l_min == pytest.approx(1.0)
+    assert plan.phases[0].oxygen_l_min == pytest.approx(1.0)
     assert plan.settings.temperature_c == pytest.approx(22.0)
     assert plan.settings.pressure_kpa == pytest.approx(101.325, rel=1e-5)
 
@@ -130,9 +130,9 @@ def test_a_target_may_be_typed_as_a_mac_multiple_with_or_without_its_name(typed)
 
 def test_with_phase_changes_one_phase_only():
     plan = parse_plan_text(GOOD)
-    changed = plan.with_phase(1, o2_l_min=0.5)
-    assert changed.phases[1].o2_l_min == 0.5 and changed.phases[0] == plan.phases[0]
-    assert plan.phases[1].o2_l_min == pytest.approx(0.3)
+    changed = plan.with_phase(1, oxygen_l_min=0.5)
+    assert changed.phases[1].oxygen_l_min == 0.5 and changed.phases[0] == plan.phases[0]
+    assert plan.phases[1].oxygen_l_min == pytest.approx(0.3)
 
 
 def test_written_plan_reads_back_and_keeps_units():

@@ -263,7 +263,7 @@ def test_year_band_at_20_year_horizon_samples_only_20_year_gwp_values():
     assert not at.exception, [e.message for e in at.exception]
     expected = float(next(m.value for m in at.metric if m.label == "Emissions (t CO2e)").replace(",", ""))
     low, high = _band([c.value for c in at.caption if c.value.startswith("P5-P95")][1])
-    # The expected CO2e and its band must use the same horizon: a GWP20 year is about 2.7 times
+    # The expected CO2e and its P5-P95 range must use the same horizon: a GWP20 year is about 2.7 times
     # its GWP100 year (IPCC AR6 WG1 Table 7.SM.7 ratios, from memory), so a band of 100-year
     # draws would sit far below the expected value.
     assert low <= expected * 1.02 and high >= expected * 0.98

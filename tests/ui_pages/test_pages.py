@@ -110,8 +110,8 @@ def test_saving_keeps_versions_and_survives_a_new_session(isolated_store):
     assert any("version 2" in s.value for s in at.success)
     # A new session (as after a restart) opens the store from the file and finds the change.
     store = Store(isolated_store)
-    assert store.load_plan(name).phases[1].o2_l_min == 0.8
-    assert store.load_plan(name, 1).phases[1].o2_l_min != 0.8
+    assert store.load_plan(name).phases[1].oxygen_l_min == 0.8
+    assert store.load_plan(name, 1).phases[1].oxygen_l_min != 0.8
     again = page("case_plan.py")
     assert again.text_input(key="cp_name").value == name
 
@@ -155,7 +155,7 @@ def test_compare_sets_a_plan_against_an_earlier_version_of_itself(isolated_store
     name = "Laparoscopic cholecystectomy, low flow"
     plan = store.load_plan(name)
     # The same plan with every phase at twice the O2 flow, saved as its next version.
-    doubled = replace(plan, phases=tuple(replace(p, o2_l_min=2 * p.o2_l_min) for p in plan.phases))
+    doubled = replace(plan, phases=tuple(replace(p, oxygen_l_min=2 * p.oxygen_l_min) for p in plan.phases))
     assert store.save_plan(doubled, note="double O2") == 2
     at = page("compare.py")
     assert f"{name} · version 1" in at.multiselect(key="cmp_plans").options

@@ -112,9 +112,9 @@ TOTAL_KEYS = {
 PHASE_KEYS = {
     "phase",
     "duration_min",
-    "o2_l_min",
+    "oxygen_l_min",
     "air_l_min",
-    "n2o_l_min",
+    "nitrous_oxide_l_min",
     "fgf_l_min",
     "flow_band",
     "fd_o2_pct",

@@ -74,7 +74,7 @@ def test_a_postgres_url_in_the_environment_selects_postgres(monkeypatch, open_st
 
 def test_saving_keeps_every_earlier_version(store, plan):
     v1 = store.save_plan(plan)
-    changed = plan.with_phase(1, o2_l_min=1.5)
+    changed = plan.with_phase(1, oxygen_l_min=1.5)
     v2 = store.save_plan(changed)
     assert (v1, v2) == (1, 2)
     assert store.load_plan(plan.name, 1) == plan
@@ -96,11 +96,11 @@ def test_saved_plan_survives_a_restart(store_location, open_store, plan):
     # A separate process (as after an app restart) reads it back from the store alone.
     code = (
         f"from model.store import Store; s = Store({store_location!r}); "
-        f"print(s.load_plan({plan.name!r}).phases[1].o2_l_min)"
+        f"print(s.load_plan({plan.name!r}).phases[1].oxygen_l_min)"
     )
     out = subprocess.run([PY, "-c", code], capture_output=True, text=True, cwd=ROOT, timeout=60)
     assert out.returncode == 0, out.stderr
-    assert float(out.stdout) == plan.phases[1].o2_l_min
+    assert float(out.stdout) == plan.phases[1].oxygen_l_min
 
 
 @pytest.mark.parametrize(
@@ -215,7 +215,7 @@ def test_older_store_is_migrated_with_a_backup(tmp_path, plan):
     create_schema_1(path)
     con = sqlite3.connect(path)
     con.execute("INSERT INTO plans VALUES (?, 1, ?, '2025-01-01T00:00:00')", (plan.name, plan_to_toml(plan)))
-    changed = plan.with_phase(1, o2_l_min=2.0)
+    changed = plan.with_phase(1, oxygen_l_min=2.0)
     con.execute("INSERT INTO plans VALUES (?, 2, ?, '2025-01-02T00:00:00')", (plan.name, plan_to_toml(changed)))
     con.commit()
     con.close()
@@ -251,7 +251,7 @@ def test_foreign_store_file_is_refused(tmp_path, content):
 
 def test_every_version_records_its_author_and_time(store, plan):
     store.save_plan(plan, author="lead@fernhollow.example")
-    store.save_plan(plan.with_phase(1, o2_l_min=1.5), "lower flow", author="")
+    store.save_plan(plan.with_phase(1, oxygen_l_min=1.5), "lower flow", author="")
     newest, oldest = store.history("plan", plan.name)
     assert (oldest.author, newest.author) == ("lead@fernhollow.example", "")
     assert newest.note == "lower flow"
@@ -325,7 +325,7 @@ def test_an_unreachable_postgres_server_is_one_clear_message():
 
 def _fill(store: Store, plan) -> None:
     store.save_plan(plan, "first", author="a@fernhollow.example")
-    store.save_plan(plan.with_phase(1, o2_l_min=0.7), "second", author="b@fernhollow.example")
+    store.save_plan(plan.with_phase(1, oxygen_l_min=0.7), "second", author="b@fernhollow.example")
     store.save_overrides({"prices": {"currency": "EUR"}}, author="lead@fernhollow.example")
     store.save("scenario", "hidden one", "x", author="")
     store.hide("scenario", "hidden one")
@@ -411,5 +411,5 @@ def test_two_stores_on_one_database_see_each_others_saves(store_location, open_s
     first, second = open_store(store_location), open_store(store_location)
     first.save_plan(plan, author="a")
     assert second.names("plan") == [plan.name]
-    second.save_plan(plan.with_phase(1, o2_l_min=0.9), author="b")
+    second.save_plan(plan.with_phase(1, oxygen_l_min=0.9), author="b")
     assert [v.author for v in first.history("plan", plan.name)] == ["b", "a"]

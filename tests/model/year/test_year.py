@@ -400,7 +400,7 @@ def test_o2_share_splits_the_practice_flow():
     t = base.case_mix.types[0]
     plan, _ = practised_plan(t, base)
     m = plan.phases[t.stretch_index]
-    assert (m.o2_l_min, m.air_l_min, m.n2o_l_min) == pytest.approx((0.4, 0.1, 0.0))
+    assert (m.oxygen_l_min, m.air_l_min, m.nitrous_oxide_l_min) == pytest.approx((0.4, 0.1, 0.0))
     with pytest.raises(InputError, match="practice.maintenance_o2_share"):
         parse_scenario_text(
             'case_mix = "fernhollow_casemix.csv"\n[practice]\nmaintenance_o2_share = 1.5\n', "s.toml", YEAR
@@ -414,7 +414,7 @@ def test_plans_with_different_phase_layouts_share_a_call_without_changing_their_
     extra = replace(
         plan,
         phases=(
-            replace(plan.phases[0], name="pre-oxygenation", minutes=3.0, o2_l_min=6.0, air_l_min=0.0, dial_pct=0.0),
+            replace(plan.phases[0], name="pre-oxygenation", minutes=3.0, oxygen_l_min=6.0, air_l_min=0.0, dial_pct=0.0),
         )
         + plan.phases,
     )
@@ -460,7 +460,7 @@ def test_a_dial_above_the_vaporizer_maximum_in_use_names_the_case_type(tmp_path)
 def test_a_slow_end_tidal_target_is_a_caution_of_the_year_as_of_the_case(tmp_path):
     plan = load_plan(YEAR / "plans" / "adult_target_2l.toml")
     # A light wash-in, then a deeper target at 0.5 L/min: the slow response of low flow.
-    slow = plan.with_phase(0, dial_pct=1.0).with_phase(1, o2_l_min=0.3, air_l_min=0.2, target_mac=1.2)
+    slow = plan.with_phase(0, dial_pct=1.0).with_phase(1, oxygen_l_min=0.3, air_l_min=0.2, target_mac=1.2)
     mix = parse_case_mix_text(HEADER + "Slow,10,108,0,1,0,0,0,slow.toml\n", "mix", lambda name, where: slow)
     # The case type's plan carries the mix's patient (default band), so compare with that case.
     case_caution = [w for w in compute_case(mix.types[0].plan).warnings if "only after" in w]

@@ -61,7 +61,10 @@ def test_lowering_every_flow_of_the_plans_never_raises_agent_use(scale):
         plan = t.plan
         for i, p in enumerate(plan.phases):
             plan = plan.with_phase(
-                i, o2_l_min=p.o2_l_min * scale, air_l_min=p.air_l_min * scale, n2o_l_min=p.n2o_l_min * scale
+                i,
+                oxygen_l_min=p.oxygen_l_min * scale,
+                air_l_min=p.air_l_min * scale,
+                nitrous_oxide_l_min=p.nitrous_oxide_l_min * scale,
             )
         return replace(t, plan=plan)
 
