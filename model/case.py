@@ -10,7 +10,7 @@ import numpy as np
 import pandas as pd
 
 from model.base.jsonable import to_json_value
-from model.cautions import SEVOFLURANE_LOW_FLOW_CODES, Caution, case_warnings, code_of, is_unsafe, warnings_as_records
+from model.cautions import SEVOFLURANE_LOW_FLOW_CODES, Caution, case_cautions, cautions_as_records, code_of, is_unsafe
 from model.circle import simulate_cases
 from model.emissions import co2e_kg, emitted_mass_g, gas_mass_g
 from model.freshgas import apply_ratio_limit, delivered_fractions, flow_band
@@ -446,7 +446,7 @@ class CaseResult:
             "totals": to_json_value(self.totals),
             "phases": to_json_value(self.phases.to_dict("records")),
             "warnings": list(self.warnings),
-            "warnings_by_severity": warnings_as_records(self.warnings),
+            "warnings_by_severity": cautions_as_records(self.warnings),
             "unsafe": is_unsafe(self.warnings),
         }
         if self.timecourse is not None:
@@ -564,7 +564,7 @@ def compute_case(plan: CasePlan, reference: Reference = DEFAULT_REFERENCE) -> Ca
     totals["inspired_o2_below_floor"] = bool(totals["min_inspired_o2_pct"] < s.inspired_o2_floor * 100.0)
     timecourse = _timecourse(sim["series"], [p.name for p in plan.phases], minutes)
     phases["end_tidal_mac_hours"] = _phase_end_tidal_mac_hours(timecourse, minutes)
-    warnings = case_warnings(plan, phases, agent, totals, timecourse)
+    warnings = case_cautions(plan, phases, agent, totals, timecourse)
     totals["sevoflurane_low_flow_caution"] = any(code_of(w) in SEVOFLURANE_LOW_FLOW_CODES for w in warnings)
     return CaseResult(
         plan,

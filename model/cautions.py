@@ -29,11 +29,11 @@ __all__ = [
     "STANDING_CAUTION",
     "STANDING_CAUTION_SHORT",
     "by_severity",
-    "case_warnings",
+    "case_cautions",
     "code_of",
     "is_unsafe",
     "severity_of",
-    "warnings_as_records",
+    "cautions_as_records",
 ]
 
 
@@ -61,7 +61,7 @@ SLOW_TARGET_MIN = 5.0
 #: and local protocol). Common practice, no source.
 SEVERITIES = ("hazard", "caution", "labelling")
 
-#: Codes of the cautions :func:`case_warnings` raises, one per check: results and flags are
+#: Codes of the cautions :func:`case_cautions` raises, one per check: results and flags are
 #: read from these, never from a caution's wording.
 #: The O2/N2O ratio limit altered a phase's requested mix (caution).
 RATIO_ALTERED = "ratio_altered"
@@ -140,20 +140,20 @@ def code_of(warning) -> str:
     return getattr(warning, "code", "")
 
 
-def by_severity(warnings) -> list:
-    """The warnings most severe first, in their order within a severity, each text once."""
-    unique = list(dict.fromkeys(warnings))
-    return sorted(unique, key=lambda w: SEVERITIES.index(severity_of(w)))
+def by_severity(cautions) -> list:
+    """The cautions most severe first, in their order within a severity, each text once."""
+    unique = list(dict.fromkeys(cautions))
+    return sorted(unique, key=lambda c: SEVERITIES.index(severity_of(c)))
 
 
-def is_unsafe(warnings) -> bool:
-    """Whether any warning is a hazard (hypoxic mixture predicted, or the circle runs out of O2)."""
-    return any(severity_of(w) == "hazard" for w in warnings)
+def is_unsafe(cautions) -> bool:
+    """Whether any caution is a hazard (hypoxic mixture predicted, or the circle runs out of O2)."""
+    return any(severity_of(c) == "hazard" for c in cautions)
 
 
-def warnings_as_records(warnings) -> list[dict]:
-    """Warnings as ``{"severity": ..., "text": ...}``, most severe first (for files and JSON)."""
-    return [{"severity": severity_of(w), "text": str(w)} for w in by_severity(warnings)]
+def cautions_as_records(cautions) -> list[dict]:
+    """Cautions as ``{"severity": ..., "text": ...}``, most severe first (for files and JSON)."""
+    return [{"severity": severity_of(c), "text": str(c)} for c in by_severity(cautions)]
 
 
 class _Row(NamedTuple):
@@ -348,7 +348,7 @@ def _label(i: int, row: _Row) -> str:
     return f"phase {i} ({row.phase})"
 
 
-def case_warnings(
+def case_cautions(
     plan: CasePlan, phases: pd.DataFrame, agent, totals: dict | None = None, timecourse: pd.DataFrame | None = None
 ) -> list[Caution]:
     """Cautions for a computed plan: altered mixes, sevoflurane flow, inspired O2, targets.

@@ -166,7 +166,7 @@ def flow_sweep(
             "lowest_safe_fd_o2_pct": sim["phase_lowest_safe_fd_o2"][phase] * 100.0,
             "fd_o2_pct": sim["phase_fd_o2"][phase] * 100.0,
             "o2_safe": o2_safe,
-            # A hazard as in model.cautions.case_warnings: hypoxic mixture predicted or O2 running out.
+            # A hazard as in model.cautions.case_cautions: hypoxic mixture predicted or O2 running out.
             "safety": np.where(o2_safe, "ok", "UNSAFE: hypoxic mixture or O2 runs out"),
             "target_held": held,
             "sevoflurane_caution": sevo,

@@ -8,7 +8,7 @@ import pandas as pd
 
 from model.base.errors import InputError
 from model.base.jsonable import to_json_value
-from model.cautions import STANDING_CAUTION, by_severity, warnings_as_records
+from model.cautions import STANDING_CAUTION, by_severity, cautions_as_records
 from model.reference import DEFAULT_REFERENCE, VOLATILES, Reference
 from model.year.inputs import Scenario
 from model.year.result import YearResult, _result, headline_figures
@@ -54,7 +54,7 @@ class Comparison:
             "baseline_totals": to_json_value(self.baseline.totals),
             "proposal_totals": to_json_value(self.proposal.totals),
             "warnings": list(self.warnings),
-            "warnings_by_severity": warnings_as_records(self.warnings),
+            "warnings_by_severity": cautions_as_records(self.warnings),
             "baseline_unsafe": self.baseline.unsafe,
             "proposal_unsafe": self.proposal.unsafe,
             "notes": list(self.notes),

@@ -9,7 +9,7 @@ import pandas as pd
 
 from model.base.errors import InputError
 from model.base.jsonable import to_json_value
-from model.cautions import STANDING_CAUTION, is_unsafe, warnings_as_records
+from model.cautions import STANDING_CAUTION, cautions_as_records, is_unsafe
 from model.reference import DEFAULT_REFERENCE, GWP_SOURCES, VOLATILES, Reference
 from model.year.inputs import MONTHS, Scenario
 from model.year.nodes import NODE_Z
@@ -111,7 +111,7 @@ class YearResult:
             "monthly": [to_json_value(r) for r in self.monthly.to_dict("records")],
             "by_type": [to_json_value(r) for r in self.by_type.to_dict("records")],
             "warnings": list(self.warnings),
-            "warnings_by_severity": warnings_as_records(self.warnings),
+            "warnings_by_severity": cautions_as_records(self.warnings),
             "unsafe": self.unsafe,
             "notes": list(self.notes),
             "caution": STANDING_CAUTION,

@@ -449,7 +449,7 @@ def _assemble(scenario: Scenario, ref: Reference, subplans: list[SubPlan], cols,
 
 
 def _subplan_warnings(out: dict, ctype: CaseType, sub: SubPlan, where, groups, ref: Reference) -> None:
-    """Cautions of a sub-plan from its simulation (the checks of :func:`model.cautions.case_warnings`).
+    """Cautions of a sub-plan from its simulation (the checks of :func:`model.cautions.case_cautions`).
 
     ``out`` maps each caution to the case types it applies to (added to in place);
     ``where`` lists the (group, column) of each of the sub-plan's duration nodes in
@@ -529,7 +529,7 @@ def _target_cautions(
             f"%); raise the flow or allow longer"
         )
     elif reach and max(reach) > SLOW_TARGET_MIN:
-        # The slow response of low flow, as for a single case (model.cautions.case_warnings).
+        # The slow response of low flow, as for a single case (model.cautions.case_cautions).
         add(
             f"{at}: end-tidal reaches the target of {p.target_mac:g} MAC only after "
             f"{max(reach):.0f} min at {fgf:.2f} L/min"
