@@ -1,7 +1,8 @@
 """Fresh Gas Ledger dashboard with a warm start: ``streamlit run serve.py`` (scripts/dashboard.sh).
 
 Serves the dashboard of ``app.py`` through Streamlit's ``st.App``; ``streamlit run app.py``
-serves the same pages, only without the warm-up. Streamlit runs ``app.py`` when a browser
+serves the same pages, only without the warm-up, and so does this file with a Streamlit that
+has no ``st.App`` (the fallback: it then runs ``app.py`` as its page script). Streamlit runs ``app.py`` when a browser
 session opens, so after a server start the first user would also wait for the imports of
 every module the page uses (pandas, pint, pydantic, the model) and for the unit registry to
 be built, about 1 s of CPU on a 2-core machine before the page itself. Here the server's
@@ -16,6 +17,7 @@ opened and no cache filled.
 from __future__ import annotations
 
 import ast
+import runpy
 import sys
 import threading
 import time
@@ -76,4 +78,10 @@ async def _lifespan(_app):
     yield
 
 
-app = st.App(HERE / "app.py", lifespan=_lifespan)
+if hasattr(st, "App"):
+    app = st.App(HERE / "app.py", lifespan=_lifespan)
+else:  # pragma: no cover - exercised by tests/ui_pages/test_speed.py with st.App removed
+    # A Streamlit without ``st.App`` (it is new, and its interface may still change) runs this
+    # file as a page script: serve the dashboard of app.py as it is, with no warm start.
+    print("gas-ledger: this Streamlit has no st.App; serving app.py without a warm start", file=sys.stderr)
+    runpy.run_path(str(HERE / "app.py"), run_name="__main__")

@@ -144,3 +144,28 @@ def test_the_warm_start_leaves_the_first_page_nothing_to_import(isolated_store):
     assert served == str(ROOT / "app.py")
     default = re.findall(r'_page\("([^"]+)"[^)]*default=True\)', (ROOT / "app.py").read_text(encoding="utf-8"))
     assert first_page == [str(ROOT / "app.py")] + [str(ROOT / "pages" / name) for name in default]
+
+
+def test_without_st_app_serve_runs_the_dashboard_as_a_plain_script(isolated_store):
+    """The warm start rests on ``st.App``; a Streamlit without it still serves every page.
+
+    Run as Streamlit runs a page script, with ``st.App`` taken away, ``serve.py`` shows the
+    Case plan page of ``app.py`` and says in the server log that there is no warm start.
+    """
+    code = textwrap.dedent(f"""
+        import sys
+        sys.path.insert(0, {str(ROOT)!r})
+        import streamlit
+        del streamlit.App
+        from streamlit.testing.v1 import AppTest
+        at = AppTest.from_file({str(ROOT / "serve.py")!r}, default_timeout=120)
+        at.run()
+        assert not at.exception, [e.message for e in at.exception]
+        assert any(m.label == "Liquid agent" for m in at.metric), "the Case plan page did not show"
+        print("served")
+    """)
+    env = dict(os.environ, PYTHONPATH=str(ROOT), **{STORE_ENV: str(isolated_store)})
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, cwd=ROOT, env=env, timeout=300)
+    assert out.returncode == 0, out.stderr[-3000:]
+    assert out.stdout.splitlines()[-1] == "served"
+    assert "no st.App; serving app.py without a warm start" in out.stderr
