@@ -153,6 +153,7 @@ def _course(arm: Arm) -> MappingProxyType:
         "liquid_ml": np.asarray(s["liquid_ml"])[:, 0],
         "end_tidal_over_dial": np.divide(et, dial_now, out=np.full_like(et, np.nan), where=dial_now > 0),
         "mac_pct": np.full_like(et, mac_pct),
+        "inspired_o2_pct": np.asarray(s["inspired_o2"])[:, 0] * 100.0,
     }
     for v in course.values():
         v.setflags(write=False)
@@ -163,7 +164,7 @@ def arm_course(study: Study, arm_key: str) -> MappingProxyType:
     """The model's time course of one arm (cached).
 
     Keys: time [min], inspired and end-tidal agent [%], liquid agent used so far [mL],
-    end-tidal over dial [1] and the age-adjusted MAC [%].
+    end-tidal over dial [1], the age-adjusted MAC [%] and inspired O2 [%].
     """
     return _course(study.arm(arm_key))
 
@@ -458,7 +459,7 @@ _WASH_IN_FIXED = Study(
 _SCHEDULE_FA = round(1.3 * 1.008, 4)
 _SCHEDULE_SD = round((0.059 + 0.029) / 1.349 * 1.3, 4)
 _SCHEDULE_SEVO = Study(
-    key="sevo-schedule-0.7",
+    key="sevo-schedule-low-flow",
     short="A sevoflurane dial schedule at 0.7 L/min O2/N2O: end-tidal over 45 min",
     citation=(
         "'Derivation and prospective testing of a two-step sevoflurane ...' (title as far as read), "
@@ -539,6 +540,40 @@ _RATIO_DES = Study(
     y_title="end-tidal / dial [1]",
 )
 
+_INSPIRED_O2 = Study(
+    key="o2-low-flow-3h",
+    short="Inspired O2 over three hours at 1 L/min of 50 % O2 in air",
+    citation=(
+        "Kim, Kang, Lee, Ryu, Ryu and Kim (as the article lists them). Change of inspired oxygen "
+        "concentration in low flow anesthesia. Anesth Pain Med 2020;15(4)"
+    ),
+    where_read="abstract (inspired O2 of the low-flow group at 180 min, mean ± SD)",
+    patients=(
+        "60 ASA I-II patients, elective surgery, two groups of 30: 4 L/min for the first 10 min after "
+        "intubation, then 4 L/min (group H) or 1 L/min (group L), fresh gas O2 50 % with medical air; "
+        "inspired O2 recorded every 15 min for 180 min; the inspired O2 stayed at or above 30 % in "
+        "patients under 90 kg"
+    ),
+    assumptions=(
+        "70 kg, 45 years; O2 consumption by Brody's scaling (the model's default)",
+        "O2 and air mixed to 50 % O2 (the model's air 20.946 % O2)",
+        "the volatile agent not stated: sevoflurane at a 2 % dial taken (it changes inspired O2 little)",
+    ),
+    arms=(
+        Arm(
+            "1.0",
+            "1 L/min after 10 min at 4 L/min",
+            "sevoflurane",
+            ((10.0, 1.47, 2.53, 0.0, 2.0, None), (170.0, 0.3675, 0.6325, 0.0, 2.0, None)),
+        ),
+    ),
+    measurements=(
+        Measurement("fio2-180", "1.0", "inspired O2 at 180 min, 1 L/min", "inspired_o2_pct", 35.4, "%", 4.0, 180.0),
+    ),
+    plot=("inspired_o2_pct",),
+    y_title="inspired O2 [%]",
+)
+
 STUDIES: tuple[Study, ...] = (
     _FIXED_DIAL_SEVO,
     _CLOSED_ISO,
@@ -546,6 +581,7 @@ STUDIES: tuple[Study, ...] = (
     _WASH_IN_FIXED,
     _SCHEDULE_SEVO,
     _RATIO_DES,
+    _INSPIRED_O2,
 )
 
 #: Series names as the page labels them.
@@ -555,5 +591,6 @@ SERIES_LABELS = MappingProxyType(
         "end_tidal_pct": "end-tidal",
         "liquid_ml": "liquid used",
         "end_tidal_over_dial": "end-tidal / dial",
+        "inspired_o2_pct": "inspired O2",
     }
 )
