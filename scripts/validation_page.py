@@ -159,10 +159,20 @@ def _study_figure(study, cs) -> str:
     return " ".join(line.strip() for line in html.splitlines() if line.strip())
 
 
+def _holds(ok: bool, check) -> str:
+    if ok:
+        return "yes"
+    return "**no** (known shortfall)" if check.shortfall else "**no**"
+
+
 def _deviation(value, expected) -> str:
-    diff = value - expected
-    rel = f" ({diff / expected * 100:+.1f} %)" if expected else ""
-    return f"{diff:+.3g}{rel}"
+    """Model minus published as a share of the published value (absolute where that is 0); rounding noise shows as 0."""
+    diff = float(value) - float(expected)
+    if abs(diff) <= 1e-9 * max(1.0, abs(float(expected))):
+        return "0"
+    if not expected:
+        return f"{diff:+.3g}"
+    return f"{diff / expected * 100:+.2g} %"
 
 
 def _clinical_section(vc) -> list[str]:
@@ -181,7 +191,7 @@ def _clinical_section(vc) -> list[str]:
                 reason = check.shortfall or "not yet explained (a new shortfall: look into it)"
                 misses.setdefault(reason, {}).setdefault(study.short, []).append(m.label)
             elif abs(value - expected) > WIDE_SHARE * abs(expected):
-                wide.append(f"{m.label} ({_deviation(value, expected)}, tolerance {_tolerance(check)})")
+                wide.append(f"{m.label} (model {_deviation(value, expected)}, tolerance {_tolerance(check)})")
     out += ["### Where the model still falls outside", ""]
     if not misses:
         out += ["Every clinical check holds.", ""]
@@ -209,8 +219,8 @@ def _clinical_section(vc) -> list[str]:
             "",
             _study_figure(study, cs),
             "",
-            "| quantity (test id) | published | model | deviation | tolerance | holds |",
-            "|---|---|---|---|---|---|",
+            "| quantity (test id) | published | model | deviation | tolerance | holds | source |",
+            "|---|---|---|---|---|---|---|",
         ]
         for m in study.measurements:
             check = by_id[f"clinical-{study.key}-{m.id}"]
@@ -218,7 +228,6 @@ def _clinical_section(vc) -> list[str]:
             ok = vc.matches(check, value, expected)
             unit = f" {check.unit}" if check.unit and check.unit != "1" else ""
             spread = f" ± {m.sd:g}" if m.sd is not None else ""
-            holds = "yes" if ok else ("**no** (known shortfall)" if check.shortfall else "**no**")
             row = " | ".join(
                 _cell(x)
                 for x in (
@@ -227,7 +236,8 @@ def _clinical_section(vc) -> list[str]:
                     _number(value) + unit,
                     _deviation(value, expected),
                     _tolerance(check),
-                    holds,
+                    _holds(ok, check),
+                    study.cite,
                 )
             )
             out.append(f"| {row} |")

@@ -87,6 +87,7 @@ class Study:
     key: str
     short: str  # heading on the page
     citation: str  # authors, journal, year, volume:pages as read
+    cite: str  # the short form beside each check in the page's table
     where_read: str  # which part of the publication the numbers come from
     patients: str  # what the study says of its patients, carrier gas, circle and sampling
     assumptions: tuple[str, ...]  # every input the study does not state, and what was taken
@@ -207,6 +208,7 @@ _WASH_IN = (
 _FIXED_DIAL_SEVO = Study(
     key="sevo-fixed-dial-1-2",
     short="Sevoflurane at a fixed 2 % dial, 1 and 2 L/min, two hours",
+    cite="J Clin Anesth 2002;14:267-70, abstract",
     citation=(
         "'The quotient end-tidal/inspired concentration of sevoflurane in a low-flow system', "
         "J Clin Anesth 2002;14(4):267-70 (Lund University; authors not read here)"
@@ -264,6 +266,7 @@ _FIXED_DIAL_SEVO = Study(
 _CLOSED_ISO = Study(
     key="iso-closed-circuit-flows",
     short="Isoflurane held at 0.92 % end-tidal: liquid used in the first hour at three flows",
+    cite="'Utilisation de l'isoflurane en circuit fermé', abstract",
     citation=(
         "'Utilisation de l'isoflurane en circuit fermé: avantages économiques' "
         "(English abstract; authors, journal and year not read here)"
@@ -329,6 +332,7 @@ _CLOSED_ISO = Study(
 _CLOSED_DES = Study(
     key="des-closed-circuit-3h",
     short="Desflurane held at 8 % end-tidal in a closed circle: liquid used over three hours",
+    cite="closed-circuit desflurane study (unidentified), abstract",
     citation=(
         "closed-circuit desflurane uptake study, 30 ASA 1-2 patients in spinal surgery "
         "(abstract read in a journal index; authors, journal and year not identified here)"
@@ -384,6 +388,7 @@ _CLOSED_DES = Study(
 _WASH_IN_FIXED = Study(
     key="wash-in-fixed-low-flow",
     short="Wash-in at a fixed low flow: time to 1 MAC, sevoflurane 6 % and desflurane 18 %",
+    cite="Minerva Anestesiol 2016;82:180-5, abstract",
     citation=(
         "'Desflurane and sevoflurane use during low- and minimal-flow anesthesia at fixed vaporizer "
         "settings', Minerva Anestesiol 2016;82(2):180-5 (Karolinska Institutet, Danderyd; authors not read here)"
@@ -461,6 +466,7 @@ _SCHEDULE_SD = round((0.059 + 0.029) / 1.349 * 1.3, 4)
 _SCHEDULE_SEVO = Study(
     key="sevo-schedule-low-flow",
     short="A sevoflurane dial schedule at 0.7 L/min O2/N2O: end-tidal over 45 min",
+    cite="Anaesth Intensive Care 2009;37:911-7, abstract",
     citation=(
         "'Derivation and prospective testing of a two-step sevoflurane ...' (title as far as read), "
         "Anaesth Intensive Care 2009;37(6):911-7 (authors not read here)"
@@ -506,6 +512,7 @@ _SCHEDULE_SEVO = Study(
 _RATIO_DES = Study(
     key="des-ratio-flows",
     short="Desflurane end-tidal over delivered at 0.5, 1 and 3 L/min",
+    cite="Coetzee and Stewart, Br J Anaesth 2002;88:46-55, abstract",
     citation=(
         "Coetzee JF, Stewart LJ. Fresh gas flow is not the only determinant of volatile agent "
         "consumption: a multi-centre study of low-flow anaesthesia. Br J Anaesth 2002;88:46-55"
@@ -543,6 +550,7 @@ _RATIO_DES = Study(
 _INSPIRED_O2 = Study(
     key="o2-low-flow-3h",
     short="Inspired O2 over three hours at 1 L/min of 50 % O2 in air",
+    cite="Kim et al., Anesth Pain Med 2020;15(4), abstract",
     citation=(
         "Kim, Kang, Lee, Ryu, Ryu and Kim (as the article lists them). Change of inspired oxygen "
         "concentration in low flow anesthesia. Anesth Pain Med 2020;15(4)"
