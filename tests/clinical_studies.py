@@ -263,6 +263,48 @@ _FIXED_DIAL_SEVO = Study(
     y_title="sevoflurane [%]",
 )
 
+_FIXED_DIAL_DES = Study(
+    key="des-fixed-dial-1-2",
+    short="Desflurane at a fixed 5 % dial, 1 and 2 L/min, two hours",
+    cite="'Low-flow anaesthesia with desflurane: kinetics during clinical procedures', abstract",
+    citation=(
+        "'Low-flow anaesthesia with desflurane: kinetics during clinical procedures' "
+        "(English abstract; authors, journal and year not read here)"
+    ),
+    where_read="abstract (means after 120 min; no spread given)",
+    patients=(
+        "56 patients (28 a group), elective surgery of at least 120 min, randomised to 1.0 or 2.0 L/min "
+        "fresh gas with the vaporizer fixed at 5 % desflurane; carrier gas, weight, age, circle and gas "
+        "sampling not given in the abstract"
+    ),
+    assumptions=(
+        "70 kg, 45 years",
+        "fresh gas O2 and air 1:1, no N2O",
+        "the dial at 5 % and the flow of the group from the start (no high-flow wash-in)",
+        "circle 6 L (the model's default); sampled gas returned to the circle",
+    ),
+    arms=(
+        Arm("1.0", "1.0 L/min", "desflurane", ((120.0, 0.5, 0.5, 0.0, 5.0, None),)),
+        Arm("2.0", "2.0 L/min", "desflurane", ((120.0, 1.0, 1.0, 0.0, 5.0, None),)),
+    ),
+    measurements=(
+        Measurement(
+            "fi-1.0", "1.0", "inspired desflurane at 120 min, 1.0 L/min", "inspired_pct", 4.54, "%", None, 120.0
+        ),
+        Measurement(
+            "fe-1.0", "1.0", "end-tidal desflurane at 120 min, 1.0 L/min", "end_tidal_pct", 4.37, "%", None, 120.0
+        ),
+        Measurement(
+            "fi-2.0", "2.0", "inspired desflurane at 120 min, 2.0 L/min", "inspired_pct", 4.76, "%", None, 120.0
+        ),
+        Measurement(
+            "fe-2.0", "2.0", "end-tidal desflurane at 120 min, 2.0 L/min", "end_tidal_pct", 4.58, "%", None, 120.0
+        ),
+    ),
+    plot=("inspired_pct", "end_tidal_pct"),
+    y_title="desflurane [%]",
+)
+
 _CLOSED_ISO = Study(
     key="iso-closed-circuit-flows",
     short="Isoflurane held at 0.92 % end-tidal: liquid used in the first hour at three flows",
@@ -584,6 +626,7 @@ _INSPIRED_O2 = Study(
 
 STUDIES: tuple[Study, ...] = (
     _FIXED_DIAL_SEVO,
+    _FIXED_DIAL_DES,
     _CLOSED_ISO,
     _CLOSED_DES,
     _WASH_IN_FIXED,
