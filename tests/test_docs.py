@@ -96,6 +96,9 @@ def test_site_builds_in_strict_mode_and_loads_nothing_from_the_network(tmp_path)
             text = path.read_text(encoding="utf-8", errors="replace")
             assert not remote.search(text), path
             assert not css_remote.search(text), path
+    # The validation page's figures load plotly.js from the site itself (docs/hooks/plotly_js.py).
+    assert (site / "js" / "plotly.min.js").stat().st_size > 1_000_000
+    assert 'src="js/plotly.min.js"' in (site / "validation.html").read_text(encoding="utf-8")
     # The API reference rendered the docstrings (a page of headings alone would pass the rest).
     model_page = (site / "api" / "model.html").read_text(encoding="utf-8")
     assert "Dion" in model_page and "Parameters" in model_page

@@ -10,7 +10,15 @@ from tests.validation_cases import CHECKS, matches
 ROOT = Path(__file__).resolve().parents[1]
 
 
-@pytest.mark.parametrize("check", CHECKS, ids=[c.id for c in CHECKS])
+def _param(check):
+    # A known shortfall is an expected failure, strict: it fails loudly once the model reaches
+    # the published value, so the mark (and the page's list) is then taken away.
+    if check.shortfall:
+        return pytest.param(check, id=check.id, marks=pytest.mark.xfail(strict=True, reason=check.shortfall))
+    return pytest.param(check, id=check.id)
+
+
+@pytest.mark.parametrize("check", [_param(c) for c in CHECKS])
 def test_model_matches_published_value(check):
     value, expected = check.model_value(), check.published_value()
     # Source: named by each check (check.source), shown beside it on docs/validation.md.
@@ -35,6 +43,31 @@ def test_a_wrong_model_value_fails_its_check():
     assert not matches(bands, ("low",) * 6, bands.published_value())
 
 
+def test_clinical_studies_cover_three_agents_and_the_range_of_flows_and_name_their_sources():
+    from tests.clinical_studies import STUDIES
+
+    assert len(STUDIES) >= 5 and len({s.key for s in STUDIES}) == len(STUDIES)
+    agents = {a.agent for s in STUDIES for a in s.arms}
+    assert {"sevoflurane", "desflurane", "isoflurane"} <= agents
+    flows = [sum(p[1:4]) for s in STUDIES for a in s.arms for p in a.phases]
+    assert min(flows) <= 0.5 and max(flows) >= 6.0
+    for s in STUDIES:
+        assert s.citation and s.where_read and s.patients and s.assumptions, s.key
+        arms = {a.key for a in s.arms}
+        for m in s.measurements:
+            assert m.arm in arms and m.series in s.plot and m.value > 0, (s.key, m.id)
+            assert m.sd is None or m.sd > 0, (s.key, m.id)
+
+
+def test_a_clinical_check_outside_its_tolerance_fails():
+    # 2 SD of the study's spread: 1.28 ± 0.12 % accepts 1.52 % and refuses 1.53 %.
+    check = next(c for c in CHECKS if c.id == "clinical-sevo-fixed-dial-1-2-fe-1.0")
+    assert matches(check, 1.519, 1.28) and not matches(check, 1.53, 1.28)
+    # No spread published: 15 % of 14.8 mL.
+    check = next(c for c in CHECKS if c.id == "clinical-des-closed-circuit-3h-liquid-60")
+    assert matches(check, 14.8 * 1.149, 14.8) and not matches(check, 14.8 * 1.151, 14.8)
+
+
 def _page_module():
     spec = importlib.util.spec_from_file_location("validation_page", ROOT / "scripts" / "validation_page.py")
     module = importlib.util.module_from_spec(spec)
@@ -46,3 +79,15 @@ def test_validation_page_is_current():
     page = _page_module().render()
     current = (ROOT / "docs" / "validation.md").read_text(encoding="utf-8")
     assert current == page, "docs/validation.md is stale: run `python scripts/validation_page.py`"
+
+
+def test_validation_page_has_a_figure_and_a_table_row_for_every_clinical_study():
+    from tests.clinical_studies import STUDIES
+
+    page = (ROOT / "docs" / "validation.md").read_text(encoding="utf-8")
+    assert '<script src="js/plotly.min.js"></script>' in page
+    for s in STUDIES:
+        assert f'id="figure-{s.key}"' in page, s.key
+        for m in s.measurements:
+            assert f"`clinical-{s.key}-{m.id}`" in page, (s.key, m.id)
+    assert "### Where the model still falls outside" in page

@@ -38,6 +38,9 @@ class Check:
     rel: float | None = None  # relative tolerance
     abs: float | None = None  # absolute tolerance
     methods: str = ""  # anchor on docs/methods.md
+    #: Why the model is known to miss this value (its test is then an expected failure with
+    #: strict=True, and the page lists it); None where it should hold.
+    shortfall: str | None = None
 
     def model_value(self):
         return self.model()
@@ -638,6 +641,39 @@ CHECKS: tuple[Check, ...] = (
         for agent, ipcc in _IPCC_NAMES.items()
     ),
 )
+
+
+# --- published clinical studies (tests/clinical_studies.py) -----------------------------------------
+
+
+def _clinical_checks() -> tuple[Check, ...]:
+    """One check per value measured in a published clinical study (tests/clinical_studies.py)."""
+    from tests.clinical_studies import STUDIES, model_value
+
+    checks = []
+    for study in STUDIES:
+        for m in study.measurements:
+            absolute, relative = m.tolerance
+            spread = f"{m.value:g} ± {m.sd:g} {m.unit} (mean ± SD)" if m.sd is not None else "no spread reported"
+            checks.append(
+                Check(
+                    f"clinical-{study.key}-{m.id}",
+                    "Clinical studies",
+                    m.label,
+                    functools.partial(model_value, study, m),
+                    m.value,
+                    m.unit,
+                    f"{study.citation}; {study.where_read}: {spread}",
+                    rel=relative,
+                    abs=absolute,
+                    methods="compartment-model",
+                    shortfall=m.shortfall,
+                )
+            )
+    return tuple(checks)
+
+
+CHECKS = CHECKS + _clinical_checks()
 
 
 def matches(check: Check, value, expected) -> bool:
