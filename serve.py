@@ -46,7 +46,10 @@ def script_imports(path: Path) -> list[tuple[str, tuple[str, ...]]]:
 
 
 def warm_up(scripts=FIRST_PAGE) -> float:
-    """Import what ``scripts`` import and build the unit registry; seconds of CPU it took."""
+    """Import what ``scripts`` import, build the unit registry, load the audit's compiled loops.
+
+    Returns the seconds of CPU it took.
+    """
     start = time.thread_time()
     for path in scripts:
         for module, names in script_imports(path):
@@ -56,6 +59,11 @@ def warm_up(scripts=FIRST_PAGE) -> float:
     from model.base.units import registry
 
     registry()
+    # Last, the audit's compiled loops: the Record audit's first result then does not wait
+    # for numba to load their machine code.
+    from model.audit.kernel import load_kernels
+
+    load_kernels()
     return time.thread_time() - start
 
 

@@ -217,3 +217,21 @@ def test_a_memory_limit_duckdb_refuses_is_told_at_once(tmp_path):
     for bad in ("lots", "3", "3 parsecs"):
         with pytest.raises(InputError, match="memory-limit"):
             audit_records([path], memory_limit=bad)
+
+
+def test_loading_the_kernels_first_leaves_the_demo_audit_nothing_to_compile():
+    # serve.py's warm start calls load_kernels(); the first audit after it must find the
+    # machine code of every loop it runs, for a Parquet file (read-only Arrow columns) and a
+    # CSV file, already loaded: no new signature is added by the audit.
+    pytest.importorskip("numba")
+    from model.audit import kernel
+    from tests.helpers import ROOT
+
+    kernel._compiled.clear()
+    assert kernel.load_kernels() is True
+    loaded = {name: set(d.signatures) for name, d in kernel._compiled.items()}
+    assert set(loaded) == {"checks", "scan", "groups"}
+    demo = ROOT / "demo_data" / "records"
+    audit_records([demo / "fernhollow_2025.parquet"])
+    audit_records([demo / "fernhollow_birch_cases.csv"])
+    assert {name: set(d.signatures) for name, d in kernel._compiled.items()} == loaded
