@@ -61,8 +61,8 @@ class ShownStream:
 def shown_output() -> Iterator[None]:
     """While it lasts, standard output and error show control characters escaped."""
     out, err = sys.stdout, sys.stderr
-    sys.stdout = ShownStream(out)  # type: ignore[assignment]
-    sys.stderr = ShownStream(err)  # type: ignore[assignment]
+    sys.stdout = ShownStream(out)
+    sys.stderr = ShownStream(err)
     try:
         yield
     finally:
