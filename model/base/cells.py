@@ -14,6 +14,8 @@ apostrophe before a formula start gets a second one.
 
 from __future__ import annotations
 
+import re
+
 import pandas as pd
 
 #: Characters that make a spreadsheet read a cell as a formula.
@@ -57,6 +59,24 @@ def unneutralise(text: str) -> str:
     if text.startswith(NEUTRAL_PREFIX) and _runs(text[len(NEUTRAL_PREFIX) :]):
         return text[len(NEUTRAL_PREFIX) :]
     return text
+
+
+#: Characters XML 1.0 cannot hold (section 2.2, "Characters"), so no workbook cell can.
+_NOT_XML = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\ud800-\udfff\ufffe\uffff]")
+
+
+def workbook_text(text: str) -> str:
+    r"""Text for a workbook cell: control characters XML cannot hold shown as ``\x1b``, neutralised.
+
+    A name from a user's file may hold an escape character or a bell; a workbook (XML)
+    cannot, so they are written visibly instead of failing the whole download.
+    """
+
+    def shown(match: re.Match) -> str:
+        c = ord(match.group())
+        return f"\\x{c:02x}" if c <= 0xFF else f"\\u{c:04x}"
+
+    return neutralise(_NOT_XML.sub(shown, text))
 
 
 def neutralise_frame(df: pd.DataFrame) -> pd.DataFrame:

@@ -22,7 +22,8 @@ import pandas as pd
 
 from model.base.cells import FORMULA_STARTS as FORMULA_STARTS  # re-exported: the one neutraliser
 from model.base.cells import NEUTRAL_PREFIX as NEUTRAL_PREFIX
-from model.base.cells import csv_text, neutralise
+from model.base.cells import csv_text, workbook_text
+from model.base.cells import neutralise as neutralise
 from model.base.cells import neutralise_frame as neutralise_frame
 from model.present.readable import column_label, is_money, number_text, readable_frame
 
@@ -40,7 +41,7 @@ _SHEET_BAD = re.compile(r"[\[\]:*?/\\]")
 
 
 def _sheet_title(name: str, used: set) -> str:
-    title = _SHEET_BAD.sub(" ", str(name)).strip("' ")[:31] or "Sheet"
+    title = _SHEET_BAD.sub(" ", workbook_text(str(name))).strip("' ")[:31] or "Sheet"
     base, n = title, 2
     while title.lower() in used:
         suffix = f" ({n})"
@@ -68,7 +69,7 @@ def _cell(value):
             return None
     except (TypeError, ValueError):
         pass
-    return neutralise(str(value))
+    return workbook_text(str(value))
 
 
 def to_xlsx(sheets: Mapping[str, pd.DataFrame], notes: Sequence[str] = ()) -> bytes:
