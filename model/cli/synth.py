@@ -401,7 +401,17 @@ def _demo_purchases_by_site(lines: list[tuple], cases: pd.DataFrame) -> list[tup
 
 
 def main(argv=None) -> int:
-    """Write invented case records as ``argv`` asks (the process's arguments when None); the exit code."""
+    """Write invented case records as ``argv`` asks (the process's arguments when None); the exit code.
+
+    What it prints shows control characters escaped, as ``gas-ledger`` does.
+    """
+    from model.cli.common import shown_output
+
+    with shown_output():
+        return _main(argv)
+
+
+def _main(argv) -> int:
     parser = argparse.ArgumentParser(
         prog="python -m model.cli.synth", description="Write invented case records (Fernhollow General Hospital)."
     )
