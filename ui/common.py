@@ -28,6 +28,7 @@ from model.store.access import (
     is_editor,
     may_edit_reference,
     may_save,
+    sign_in_refusal,
     user_from_header,
     user_from_sign_in,
 )
@@ -251,6 +252,9 @@ def _who_box() -> None:
         return
     user = current_user()
     if not user.signed_in:
+        refused = _refused_identity(config)
+        if refused:
+            st.warning(md(f"Not signed in: {refused}. Ask the server's administrator."), icon=":material/lock:")
         st.caption(
             "Not signed in."
             + (
@@ -266,6 +270,21 @@ def _who_box() -> None:
     st.caption(f"Signed in as {md(user.label)} ({role}).")
     if config.sign_in == "streamlit" and st.button("Sign out", icon=":material/logout:", key="gl_sign_out"):
         st.logout()
+
+
+def _refused_identity(config: AccessConfig) -> str:
+    """Why an identity that was sent signs no one in ("" when none was sent)."""
+    if config.sign_in == "header":
+        values = st.context.headers.get_all(config.identity_header)
+        if len(values) > 1:
+            return f"the header {config.identity_header} arrived more than once"
+        return sign_in_refusal(config, values[0]) if values else ""
+    if config.sign_in == "streamlit":
+        claims = st.user.to_dict()
+        if claims.get("is_logged_in") is not True:
+            return ""
+        return sign_in_refusal(config, claims.get("email") or claims.get("sub"))
+    return ""
 
 
 def _sign_in(config: AccessConfig) -> None:

@@ -5,7 +5,7 @@ from __future__ import annotations
 import sys
 from typing import TYPE_CHECKING, NamedTuple
 
-from model.cli.common import CAUTION, print_json, print_table
+from model.cli.common import CAUTION, print_json, print_table, shown_cell
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -23,20 +23,21 @@ class ProgressLine:
 
     def __init__(self, stream):
         self.stream = stream
+        self._raw = getattr(stream, "raw", stream)  # its own carriage returns, unescaped
         self.width = 0
 
     def __call__(self, fraction: float, text: str) -> None:
         """Show ``fraction`` done (0 to 1) and the step ``text``, over the line shown before."""
-        line = f"audit {min(max(fraction, 0.0), 1.0):4.0%}  {text}"[:120]
-        self.stream.write("\r" + line.ljust(self.width))
-        self.stream.flush()
+        line = shown_cell(f"audit {min(max(fraction, 0.0), 1.0):4.0%}  {text}")[:120]
+        self._raw.write("\r" + line.ljust(self.width))
+        self._raw.flush()
         self.width = len(line)
 
     def clear(self) -> None:
         """Blank the line (before other output)."""
         if self.width:
-            self.stream.write("\r" + " " * self.width + "\r")
-            self.stream.flush()
+            self._raw.write("\r" + " " * self.width + "\r")
+            self._raw.flush()
             self.width = 0
 
 

@@ -4,12 +4,69 @@ from __future__ import annotations
 
 import argparse
 import json
+import re
 import sys
+from collections.abc import Iterator
+from contextlib import contextmanager
 
 from model.base.jsonable import to_json_value
 from model.cautions import STANDING_CAUTION
 
 EXIT_INPUT = 2
+
+#: Characters a terminal may act on rather than show: C0 controls but the line break and tab,
+#: DEL, C1 controls (CSI U+009B starts an escape sequence on some terminals), the line and
+#: paragraph separators and the bidirectional controls (Unicode Standard Annex #9), which
+#: reorder what is shown.
+_ACTED_ON = "\x00-\x08\x0b-\x1f\x7f-\x9f\u061c\u200e\u200f\u2028\u2029\u202a-\u202e\u2066-\u2069"
+_ACTED_ON_RE = re.compile(f"[{_ACTED_ON}]")
+_CELL_RE = re.compile(f"[{_ACTED_ON}\n\t]")
+
+
+def _escape(match: re.Match) -> str:
+    c = ord(match.group())
+    return f"\\x{c:02x}" if c <= 0xFF else f"\\u{c:04x}"
+
+
+def shown(text: str) -> str:
+    """``text`` with every character a terminal would act on written as an escape (ESC as a backslash and ``x1b``).
+
+    Line breaks and tabs stay; escape sequences, carriage returns, C1 controls and
+    bidirectional controls in names from a user's file are shown, never obeyed.
+    """
+    return _ACTED_ON_RE.sub(_escape, text)
+
+
+def shown_cell(text: str) -> str:
+    """A table cell or a name on one line: as :func:`shown`, line breaks and tabs escaped too."""
+    return _CELL_RE.sub(_escape, text)
+
+
+class ShownStream:
+    """A text stream that writes everything through :func:`shown`; ``raw`` is the stream itself."""
+
+    def __init__(self, raw):
+        self.raw = raw
+
+    def write(self, text: str) -> int:
+        """Write ``text`` with control characters escaped; the count of characters given."""
+        self.raw.write(shown(text))
+        return len(text)
+
+    def __getattr__(self, name):
+        return getattr(self.raw, name)
+
+
+@contextmanager
+def shown_output() -> Iterator[None]:
+    """While it lasts, standard output and error show control characters escaped."""
+    out, err = sys.stdout, sys.stderr
+    sys.stdout = ShownStream(out)
+    sys.stderr = ShownStream(err)
+    try:
+        yield
+    finally:
+        sys.stdout, sys.stderr = out, err
 
 
 class _Parser(argparse.ArgumentParser):
@@ -32,7 +89,7 @@ def _fmt(value, digits=2):
 def print_table(rows, columns, out=None):
     """Print rows (dicts) as a plain aligned text table."""
     out = out or sys.stdout  # looked up at call time, so redirected output is honoured
-    cells = [[_fmt(r.get(c)) for c in columns] for r in rows]
+    cells = [[shown_cell(_fmt(r.get(c))) for c in columns] for r in rows]
     widths = [max([len(c)] + [len(row[i]) for row in cells]) for i, c in enumerate(columns)]
     out.write("  ".join(c.ljust(w) for c, w in zip(columns, widths, strict=True)).rstrip() + "\n")
     out.write("  ".join("-" * w for w in widths) + "\n")
@@ -41,10 +98,14 @@ def print_table(rows, columns, out=None):
 
 
 def print_json(data, out=None):
-    """Print data as JSON (:func:`model.base.jsonable.to_json_value`: a number that is not finite is null)."""
+    """Print data as JSON (:func:`model.base.jsonable.to_json_value`: a number that is not finite is null).
+
+    Characters a terminal would act on are written as JSON escapes (CSI as a backslash and ``u009b``), which
+    a JSON reader turns back into the same text.
+    """
     out = out or sys.stdout
-    json.dump(to_json_value(data), out, indent=2, ensure_ascii=False, allow_nan=False)
-    out.write("\n")
+    text = json.dumps(to_json_value(data), indent=2, ensure_ascii=False, allow_nan=False)
+    out.write(_ACTED_ON_RE.sub(lambda m: f"\\u{ord(m.group()):04x}", text) + "\n")
 
 
 #: The standing caution, printed after every table and carried in every JSON output.

@@ -8,7 +8,7 @@ import sys
 
 from model.base.errors import InputError
 from model.cautions import severity_of
-from model.cli.common import CAUTION, EXIT_INPUT, _Parser, _reference, print_json, print_table
+from model.cli.common import CAUTION, EXIT_INPUT, _Parser, _reference, print_json, print_table, shown_cell, shown_output
 
 
 def cmd_case(args) -> int:
@@ -24,7 +24,7 @@ def cmd_case(args) -> int:
         return 0
     t = result.totals
     cur = result.currency
-    print(f"{plan.name}  ({plan.agent}, {t['duration_min']:g} min)")
+    print(f"{shown_cell(plan.name)}  ({plan.agent}, {t['duration_min']:g} min)")
     print()
     print_table(
         result.phases.to_dict("records"),
@@ -185,7 +185,16 @@ def _join_dash_values(argv):
 
 
 def main(argv=None) -> int:
-    """Run ``gas-ledger`` with ``argv`` (the process's arguments when None); the exit code."""
+    """Run ``gas-ledger`` with ``argv`` (the process's arguments when None); the exit code.
+
+    Everything it prints shows control characters escaped (:func:`model.cli.common.shown`):
+    a plan, phase or theatre name holding an escape sequence cannot drive the terminal.
+    """
+    with shown_output():
+        return _main(argv)
+
+
+def _main(argv) -> int:
     parser = build_parser()
     args = parser.parse_args(_join_dash_values(argv))
     if not getattr(args, "func", None):

@@ -14,6 +14,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+from model.base.cells import csv_text
 from model.base.errors import InputError
 
 #: Invented theatres of the fictional Fernhollow General Hospital.
@@ -169,7 +170,7 @@ def write(df: pd.DataFrame, path) -> Path:
         for name in ("case_id", "theatre", "agent"):
             i = table.schema.get_field_index(name)
             table = table.set_column(i, name, table[name].cast(pa.string()))
-        pc.write_csv(table, p)
+        pc.write_csv(table, p)  # generated text only (fixed theatre and agent names, numbered cases)
     else:
         raise InputError("output file", str(p), "expected a name ending in .csv or .parquet")
     return p
@@ -291,7 +292,7 @@ def write_demo(out_dir, rows: int = 120_000, seed: int = 2025) -> list[Path]:
     with open(birch, "w", encoding="utf-8", newline="") as fh:
         fh.write("# Fernhollow General Hospital (invented), theatre Birch, about 30 cases\n")
         fh.write("# units: total_flow=mL/min, elapsed=min, o2_share=%, n2o_share=%, dial=%\n")
-        csv.to_csv(fh, index=False)
+        fh.write(csv_text(csv, lineterminator="\n"))
     # Purchases: recorded use of the year times invented factors, in whole bottles/cylinders.
     year25 = audit_records([main_path])
     purchases = write_purchases(
@@ -400,7 +401,17 @@ def _demo_purchases_by_site(lines: list[tuple], cases: pd.DataFrame) -> list[tup
 
 
 def main(argv=None) -> int:
-    """Write invented case records as ``argv`` asks (the process's arguments when None); the exit code."""
+    """Write invented case records as ``argv`` asks (the process's arguments when None); the exit code.
+
+    What it prints shows control characters escaped, as ``gas-ledger`` does.
+    """
+    from model.cli.common import shown_output
+
+    with shown_output():
+        return _main(argv)
+
+
+def _main(argv) -> int:
     parser = argparse.ArgumentParser(
         prog="python -m model.cli.synth", description="Write invented case records (Fernhollow General Hospital)."
     )

@@ -17,6 +17,7 @@ from pathlib import Path
 
 import pandas as pd
 
+from model.base.cells import csv_text, unneutralise
 from model.base.errors import InputError
 from model.base.files import path_kind, read_user_text, shown_path
 from model.base.units import check_range, to_base
@@ -114,7 +115,7 @@ def case_type_from_row(row: Mapping[str, object], plan_for: Callable[[str, str],
             return None
         return v
 
-    name = str(get("case_type") or "").strip()
+    name = unneutralise(str(get("case_type") or "").strip()).strip()
     if not name:
         raise InputError(f"{where}, case_type", "nothing", "every case type needs a name")
     if len(name) > 120:
@@ -134,10 +135,10 @@ def case_type_from_row(row: Mapping[str, object], plan_for: Callable[[str, str],
         )
     shares = {a: s / total for a, s in shares.items()}
     n2o = _share(get("n2o_share"), f"{where}, n2o_share")
-    patient_group = str(get("band") or "adult").strip()[:40] or "adult"
+    patient_group = unneutralise(str(get("band") or "adult").strip()).strip()[:40] or "adult"
     weight = _number(get("weight"), f"{where}, weight", "kg", 0.5, 350.0, default=70.0)
     age = _number(get("age"), f"{where}, age", "year", 0.0, 120.0, default=40.0)
-    plan_name = str(get("plan") or "").strip()
+    plan_name = unneutralise(str(get("plan") or "").strip()).strip()
     if not plan_name:
         raise InputError(f"{where}, plan", "nothing", "name the case plan file of this type's flow practice")
     plan = plan_for(plan_name, f"{where}, plan")
@@ -285,5 +286,10 @@ def case_mix_to_frame(mix: CaseMix) -> pd.DataFrame:
 
 
 def case_mix_to_csv(mix: CaseMix) -> str:
-    """The case mix as CSV text in the case-mix file format."""
-    return case_mix_to_frame(mix).to_csv(index=False)
+    """The case mix as CSV text in the case-mix file format.
+
+    Names a spreadsheet would run as a formula (``=``, ``+``, ``-``, ``@``, tab, carriage
+    return, also after leading spaces) are written with a leading apostrophe
+    (:func:`model.base.cells.csv_text`); the case-mix reader takes it off again.
+    """
+    return csv_text(case_mix_to_frame(mix), lineterminator="\n")

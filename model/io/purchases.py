@@ -24,6 +24,7 @@ from types import SimpleNamespace
 import numpy as np
 import pandas as pd
 
+from model.base.cells import csv_text, unneutralise
 from model.base.errors import InputError
 from model.base.files import Source, shown_path
 from model.base.units import one_number_and_unit, registry, safe_quantity_text
@@ -267,7 +268,7 @@ def _csv_fields(lines, i: int) -> list[str] | str:
 
 def _site(text, at: str) -> str:
     """The site named on a purchase line ("" when blank); InputError naming ``at`` if bad."""
-    site = str(text if text is not None else "").strip()
+    site = unneutralise(str(text if text is not None else "").strip()).strip()  # as write_purchases wrote it
     if not site:
         return ""
     if not site.isprintable():
@@ -381,5 +382,5 @@ def write_purchases(rows, path, with_site: bool = False) -> Path:
     df = pd.DataFrame(rows, columns=columns)
     with open(p, "w", encoding="utf-8", newline="") as fh:
         fh.write("# Purchases file (fresh-gas-ledger purchases 1): " + ", ".join(columns) + "\n")
-        df.to_csv(fh, index=False)
+        fh.write(csv_text(df, lineterminator="\n"))  # names a spreadsheet would run are neutralised
     return p

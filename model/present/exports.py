@@ -2,9 +2,10 @@
 
 Every text cell that comes from a user (plan names, phase names, notes) may begin with a
 character a spreadsheet program reads as the start of a formula (``=``, ``+``, ``-``, ``@``,
-tab, carriage return). Such cells are written with a leading apostrophe so they stay text;
-numbers stay numbers. The HTML report escapes every piece of text and carries plotly's
-JavaScript inline (nothing is fetched when it is opened).
+tab, carriage return), also after leading spaces or no-break spaces. Such cells are written
+with a leading apostrophe so they stay text (:mod:`model.base.cells`, the one neutralising
+writer of every CSV and workbook); numbers stay numbers. The HTML report escapes every
+piece of text and carries plotly's JavaScript inline (nothing is fetched when it is opened).
 """
 
 from __future__ import annotations
@@ -19,48 +20,28 @@ from datetime import UTC, datetime
 import numpy as np
 import pandas as pd
 
+from model.base.cells import FORMULA_STARTS as FORMULA_STARTS  # re-exported: the one neutraliser
+from model.base.cells import NEUTRAL_PREFIX as NEUTRAL_PREFIX
+from model.base.cells import csv_text, workbook_text
+from model.base.cells import neutralise as neutralise
+from model.base.cells import neutralise_frame as neutralise_frame
 from model.present.readable import column_label, is_money, number_text, readable_frame
-
-#: Characters that make a spreadsheet read a cell as a formula.
-FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
-#: Prefix that keeps such a cell as text. (OWASP "CSV injection" advice; common practice.)
-NEUTRAL_PREFIX = "'"
-
-
-def neutralise(value):
-    """A cell value safe to open in a spreadsheet program.
-
-    Strings beginning with a formula character get a leading apostrophe; every other
-    value (numbers, booleans, None) is returned unchanged.
-    """
-    if isinstance(value, str) and value.startswith(FORMULA_STARTS):
-        return NEUTRAL_PREFIX + value
-    return value
-
-
-def neutralise_frame(df: pd.DataFrame) -> pd.DataFrame:
-    """A copy of ``df`` with text cells and column names neutralised; numbers untouched."""
-    out = df.copy()
-    out.columns = [neutralise(str(c)) for c in out.columns]
-    for col in out.columns:
-        if out[col].dtype == object or pd.api.types.is_string_dtype(out[col]):
-            out[col] = out[col].map(neutralise)
-    return out
 
 
 def to_csv(df: pd.DataFrame) -> bytes:
     """One table as CSV (UTF-8, RFC 4180 line ends), formula cells neutralised.
 
-    CRLF line ends make the writer quote any field holding a carriage return or newline.
+    CRLF line ends make the writer quote any field holding a carriage return or newline;
+    :func:`model.base.cells.csv_text` is the one neutralising writer.
     """
-    return neutralise_frame(df).to_csv(index=False, lineterminator="\r\n").encode("utf-8")
+    return csv_text(df).encode("utf-8")
 
 
 _SHEET_BAD = re.compile(r"[\[\]:*?/\\]")
 
 
 def _sheet_title(name: str, used: set) -> str:
-    title = _SHEET_BAD.sub(" ", str(name)).strip("' ")[:31] or "Sheet"
+    title = _SHEET_BAD.sub(" ", workbook_text(str(name))).strip("' ")[:31] or "Sheet"
     base, n = title, 2
     while title.lower() in used:
         suffix = f" ({n})"
@@ -88,7 +69,7 @@ def _cell(value):
             return None
     except (TypeError, ValueError):
         pass
-    return neutralise(str(value))
+    return workbook_text(str(value))
 
 
 def to_xlsx(sheets: Mapping[str, pd.DataFrame], notes: Sequence[str] = ()) -> bytes:

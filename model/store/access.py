@@ -20,6 +20,7 @@ from __future__ import annotations
 
 import getpass
 import re
+import unicodedata
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 
@@ -122,23 +123,87 @@ def access_config(data: Mapping | None, where: str = CONFIG_PLACE) -> AccessConf
     provider = data.get("provider", "")
     if not isinstance(provider, str):
         raise InputError(f"{where}, provider", provider, "expected the name of a provider in [auth]")
-    return AccessConfig(
-        mode, header if mode == "header" else "", frozenset(_identity_key(e) for e in editors), provider.strip()
-    )
+    keys = []
+    for entry in editors:
+        ident = _clean_identity(entry.strip(" "))
+        if ident is None:
+            raise InputError(
+                f"{where}, editors",
+                entry,
+                f"expected a user name or e-mail address of at most {MAX_IDENTITY_CHARS} printable "
+                "characters in Unicode NFC (as the sign-in sends it)",
+            )
+        keys.append(identity_key(ident))
+    return AccessConfig(mode, header if mode == "header" else "", frozenset(keys), provider.strip())
 
 
-def _identity_key(text: str) -> str:
-    """Identities compare without case and surrounding spaces (e-mail addresses, user names)."""
-    return text.strip().casefold()
+_ASCII_LOWER = str.maketrans("ABCDEFGHIJKLMNOPQRSTUVWXYZ", "abcdefghijklmnopqrstuvwxyz")
+
+
+def identity_key(text: str) -> str:
+    """What an identity is compared by: the text exactly, with the ASCII letters A-Z lower-cased.
+
+    Nothing else is folded or normalised, so two different addresses never compare equal
+    (Unicode case folding would take "\u00df" for "ss", "\u017f" for "s", "\ufb01" for "fi"
+    and the Kelvin sign "\u212a" for "k"). Identities not in Unicode NFC are refused before
+    they get here (:func:`user_from_header`, :func:`user_from_sign_in`), and so are those
+    that only look like an editor's (:func:`confusable_key`).
+    """
+    return text.translate(_ASCII_LOWER)
+
+
+def confusable_key(text: str) -> str:
+    """The identity with every compatibility form and case folded (NFKC, case folding, NFKC).
+
+    Two identities with the same ``confusable_key`` but different :func:`identity_key` look
+    alike to a reader (a sharp s and "ss", the long s and "s", the ligature "\ufb01" and
+    "fi", the Kelvin sign and "K"): one of them may not sign in where the other is an
+    editor. Used only to refuse, never to match. (Unicode Standard Annex #15 and the
+    Unicode Standard, section 3.13, "Default Case Algorithms": NFKC_Casefold.)
+    """
+    return unicodedata.normalize("NFKC", unicodedata.normalize("NFKC", text).casefold())
 
 
 def _clean_identity(value) -> str | None:
+    """The identity as sent, or None when it is not one we accept.
+
+    Refused, never repaired: anything but text; empty or longer than
+    :data:`MAX_IDENTITY_CHARS`; a character that is not printable anywhere in it, at its
+    ends included (control characters C0 and C1 such as NEL U+0085, the no-break space
+    U+00A0 and every other space but the ASCII one, format characters); text not in Unicode
+    NFC (the Kelvin sign U+212A is not: its NFC is "K"); spaces at either end.
+    """
     if not isinstance(value, str):
         return None
-    value = value.strip()
     if not value or len(value) > MAX_IDENTITY_CHARS or not value.isprintable():
         return None
+    if value != value.strip(" ") or not unicodedata.is_normalized("NFC", value):
+        return None
     return value
+
+
+def _confusable_with_editor(config: AccessConfig, ident: str) -> bool:
+    """True when ``ident`` is not an editor but looks like one (same :func:`confusable_key`)."""
+    key = identity_key(ident)
+    if key in config.editors:
+        return False
+    look = confusable_key(ident)
+    return any(confusable_key(e) == look for e in config.editors)
+
+
+def sign_in_refusal(config: AccessConfig, ident) -> str:
+    """Why an identity from the proxy or the sign-in signs no one in ("" when it is accepted)."""
+    if not isinstance(ident, str) or not ident:
+        return "no identity was sent"
+    if len(ident) > MAX_IDENTITY_CHARS:
+        return f"the identity is longer than {MAX_IDENTITY_CHARS} characters"
+    if not ident.isprintable() or ident != ident.strip(" "):
+        return "the identity holds a control character or a space other than an inner ASCII space"
+    if not unicodedata.is_normalized("NFC", ident):
+        return "the identity is not in Unicode NFC (a compatibility character such as the Kelvin sign)"
+    if _confusable_with_editor(config, ident):
+        return "the identity looks like an editor's but is not the same text"
+    return ""
 
 
 def user_from_header(config: AccessConfig, values: Sequence[str]) -> User:
@@ -147,12 +212,17 @@ def user_from_header(config: AccessConfig, values: Sequence[str]) -> User:
     Only honoured in header mode: otherwise a header of that (or any) name, forged by a
     browser, is ignored. ``values`` are every value of the configured header in the request;
     a header sent more than once is refused (a proxy that appends rather than replaces it
-    would let a browser's own value through), as is an empty, overlong or unprintable one.
+    would let a browser's own value through), as is an empty or overlong one, or one with a
+    control character or a space other than an inner ASCII space anywhere, its ends included
+    (refused, never stripped; the server has already removed the optional spaces and tabs
+    around a header value, RFC 9110 section 5.5), one not in Unicode NFC, and one that only
+    looks like an editor's (:func:`confusable_key`). The server decodes header bytes as
+    Latin-1, so the byte 0xDF arrives as a sharp s: exact comparison keeps it apart from "ss".
     """
     if config.sign_in != "header" or len(values) != 1:
         return NO_ONE
     value = _clean_identity(values[0])
-    if value is None:
+    if value is None or _confusable_with_editor(config, value):
         return NO_ONE
     return User(value, value)
 
@@ -166,15 +236,15 @@ def user_from_sign_in(config: AccessConfig, claims: Mapping) -> User:
     if config.sign_in != "streamlit" or claims.get("is_logged_in") is not True:
         return NO_ONE
     ident = _clean_identity(claims.get("email")) or _clean_identity(claims.get("sub"))
-    if ident is None:
+    if ident is None or _confusable_with_editor(config, ident):
         return NO_ONE
     name = _clean_identity(claims.get("name")) or ident
     return User(ident, name)
 
 
 def is_editor(config: AccessConfig, user: User) -> bool:
-    """True when the signed-in user is on the editors list."""
-    return user.signed_in and _identity_key(user.id) in config.editors
+    """True when the signed-in user is on the editors list (compared by :func:`identity_key`)."""
+    return user.signed_in and identity_key(user.id) in config.editors
 
 
 def may_edit_reference(config: AccessConfig, user: User) -> Permission:

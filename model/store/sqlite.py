@@ -32,6 +32,9 @@ class _SQLite:
         self._wal = False
 
     def _foreign(self, exc) -> StoreError:
+        said = os_refusal(self.path, exc)
+        if said is not None:
+            return said
         return StoreError(
             "store file",
             str(self.path),
@@ -66,6 +69,9 @@ class _SQLite:
             # A page damaged past what the opening check reads: one line, never a traceback.
             if isinstance(exc, sqlite3.OperationalError) and "locked" in str(exc):
                 raise
+            said = os_refusal(self.path, exc)
+            if said is not None:
+                raise said from None
             raise StoreError(
                 "store file",
                 str(self.path),
@@ -83,7 +89,11 @@ class _SQLite:
             try:
                 yield con
             except BaseException:
-                con.execute("ROLLBACK")
+                # SQLite has already rolled back after some errors (a full disk): then a
+                # ROLLBACK of our own would fail and hide what went wrong.
+                if con.in_transaction:
+                    with _ignored(sqlite3.Error):
+                        con.execute("ROLLBACK")
                 raise
             con.execute("COMMIT")
 
@@ -110,7 +120,14 @@ class _SQLite:
         while target.exists():
             target = self.path.with_name(f"{self.path.name}{suffix}.{n}")
             n += 1
-        fd, tmp = tempfile.mkstemp(prefix=target.name + ".", suffix=".tmp", dir=self.path.parent)
+        try:
+            fd, tmp = tempfile.mkstemp(prefix=target.name + ".", suffix=".tmp", dir=self.path.parent)
+        except OSError as exc:
+            raise StoreError(
+                "store file",
+                str(self.path),
+                f"cannot be upgraded: its copy cannot be written beside it ({exc.strerror}); the store is unchanged",
+            ) from None
         os.close(fd)
         try:
             with self.read() as src:
@@ -184,9 +201,61 @@ def check_store_file(path: str | os.PathLike) -> int:
                 raise _refusal(p, f"is a damaged store ({found[:120]})")
         return version
     except sqlite3.Error as exc:
+        said = os_refusal(p, exc)
+        if said is not None:
+            raise said from None
         raise _refusal(p, f"is not a Fresh Gas Ledger store ({exc})") from None
     finally:
         con.close()
+
+
+#: What the operating system said, by SQLite's primary result code (sqlite.org/rescode.html),
+#: and what to do about it. None of these says anything about the file's content.
+_OS_SAID = {
+    sqlite3.SQLITE_READONLY: (
+        "cannot be written: the file or its folder is read-only",
+        "give the account that runs the tool write access to the file and its folder (SQLite "
+        "also writes {name}-wal and {name}-shm beside it)",
+    ),
+    sqlite3.SQLITE_FULL: (
+        "cannot be written: the disk is full",
+        "free some space on the disk that holds it and try again",
+    ),
+    sqlite3.SQLITE_CANTOPEN: (
+        "cannot be opened",
+        "check that the account that runs the tool may read and write the file and its folder",
+    ),
+    sqlite3.SQLITE_PERM: (
+        "cannot be used: the operating system refused access",
+        "give the account that runs the tool access to the file and its folder",
+    ),
+    sqlite3.SQLITE_IOERR: (
+        "cannot be read or written: the operating system reported an input/output error",
+        "check the disk (a full disk, a read-only or disconnected drive); then try again",
+    ),
+}
+
+
+def os_refusal(path: Path, exc: BaseException) -> StoreError | None:
+    """The one-line error for what the operating system said (read-only, full, no access).
+
+    None when SQLite's error is about the file itself (not a database, damaged): those
+    are :func:`_refusal`. A store refused here is valid: the message never suggests
+    moving it aside, and says that nothing was changed.
+    """
+    if isinstance(exc, OSError):
+        what = exc.strerror or str(exc)
+        return StoreError("store file", str(path), f"cannot be used ({what}); nothing was changed")
+    code = getattr(exc, "sqlite_errorcode", None)
+    if not isinstance(code, int) or (code & 0xFF) not in _OS_SAID:
+        return None
+    why, advice = _OS_SAID[code & 0xFF]
+    return StoreError(
+        "store file",
+        str(path),
+        f"{why} ({exc}); nothing was changed by this request and every saved version is kept; "
+        + advice.format(name=path.name),
+    )
 
 
 def _refusal(p: Path, why: str) -> StoreError:
@@ -209,7 +278,10 @@ def _open_read_only(p: Path) -> sqlite3.Connection | None:
         con = sqlite3.connect(
             f"file:{quote(str(p.resolve()))}?mode=ro", uri=True, timeout=BUSY_TIMEOUT_MS / 1000, isolation_level=None
         )
-    except (OSError, ValueError, sqlite3.Error) as exc:
+    except (OSError, sqlite3.Error) as exc:
+        said = os_refusal(p, exc)
+        raise (said if said is not None else _refusal(p, f"cannot be opened ({exc})")) from None
+    except ValueError as exc:
         raise _refusal(p, f"cannot be opened ({exc})") from None
     con.text_factory = bytes  # names and values that are not UTF-8 must not raise
     return con

@@ -105,3 +105,14 @@ def test_a_signed_out_user_cannot_save_a_year_and_a_signed_in_one_is_its_author(
     store = Store(isolated_store)
     assert store.get("scenario", "Fernhollow year, signed").author == ANAESTHETIST
     assert store.get("casemix", "Fernhollow year, signed").author == ANAESTHETIST
+
+
+def test_a_lookalike_of_an_editor_is_not_signed_in_and_the_sidebar_says_why(isolated_store):
+    # U+212A KELVIN SIGN folds to "k" (Unicode CaseFolding.txt): "\u212aate" is not "kate".
+    config = {"sign_in": "streamlit", "editors": ["kate@fernhollow.example"]}
+    at = _page("reference.py", "\u212aate@fernhollow.example", config)
+    assert at.number_input(key="ref_bottle_sevoflurane").disabled
+    assert any("Not signed in" in w.value and "NFC" in w.value for w in at.sidebar.warning)
+    at = _page("reference.py", "\u017fam@fernhollow.example", {**config, "editors": ["sam@fernhollow.example"]})
+    assert at.number_input(key="ref_bottle_sevoflurane").disabled
+    assert any("looks like an editor" in w.value for w in at.sidebar.warning)

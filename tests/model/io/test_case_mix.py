@@ -106,3 +106,23 @@ def test_a_plan_with_an_end_tidal_target_is_a_valid_case_type():
     text = HEADER + "Laparotomy,100,150,0.4,1,0,0,plans/adult_target_2l.toml\n"
     t = parse_case_mix_text(text, "mix.csv", _plans).types[0]
     assert t.plan.phases[t.stretch_index].mode == "target"
+
+
+@pytest.mark.parametrize(
+    "name",
+    ['=HYPERLINK("http://example.invalid","x")', "@SUM(A1:A2)", " =1+1", "\u00a0+1", "'=already quoted"],
+)
+def test_the_case_mix_csv_neutralises_formula_names_and_reads_them_back(name):
+    # The Department year page's "Case mix (CSV)" download is case_mix_to_csv.
+    from dataclasses import replace
+
+    mix = load_case_mix(YEAR / "fernhollow_casemix.csv")
+    hostile = replace(mix, types=(replace(mix.types[0], name=name), *mix.types[1:]))
+    text = case_mix_to_csv(hostile)
+    import csv
+    import io
+
+    cell = next(r for r in list(csv.reader(io.StringIO(text)))[1:] if r)[0]
+    assert cell == "'" + name  # a spreadsheet shows it as text, never runs it
+    again = parse_case_mix_text(text, "mix.csv", lambda n, w: mix.plans[n] if n in mix.plans else _plans(n, w))
+    assert again.types[0].name == name.strip()

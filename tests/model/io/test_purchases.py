@@ -315,3 +315,15 @@ def test_written_purchases_with_sites_read_back_the_same(tmp_path):
     assert table["site"].tolist() == ["East wing", ""] and table["amount"].tolist()[1] == pytest.approx(
         2500.0
     )  # SI: 1 m**3 = 1000 L
+
+
+@pytest.mark.parametrize("site", ['=HYPERLINK("http://example.invalid")', " @site", "\u00a0-wing"])
+def test_written_purchases_neutralise_a_formula_site_and_read_it_back(tmp_path, site):
+    import csv as csv_module
+
+    from model.io.purchases import write_purchases
+
+    p = write_purchases([("2025-01", "sevoflurane", 3, "bottle", "", site)], tmp_path / "w.csv", with_site=True)
+    lines = p.read_text(encoding="utf-8").splitlines()
+    assert next(csv_module.reader([lines[2]]))[-1] == "'" + site
+    assert read_purchases(p)["site"].tolist() == [site.strip()]

@@ -110,3 +110,13 @@ def test_html_report_escapes_user_text_and_is_self_contained():
     # plotly.js itself is inlined once (it is several hundred kB).
     assert len(doc) > 500_000 and doc.count("plotly.js v") >= 1
     assert "Caution text" in doc
+
+
+def test_a_workbook_with_control_characters_in_names_is_written_with_them_shown():
+    # XML 1.0 (section 2.2) cannot hold C0 controls but tab and line breaks: openpyxl refuses
+    # them, which failed the whole download.
+    df = pd.DataFrame({"phase": ["induc\x1b[31mtion", "\x07=1+1"], "n": [1, 2]})
+    wb = openpyxl.load_workbook(io.BytesIO(to_xlsx({"Plan \x1b": df}, notes=["note\x00"])))
+    ws = wb.worksheets[0]
+    assert [ws.cell(2, 1).value, ws.cell(3, 1).value] == ["induc\\x1b[31mtion", "\\x07=1+1"]
+    assert wb["Notes"]["A1"].value == "note\\x00"

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import os
 from pathlib import Path
 
 import pytest
@@ -117,3 +118,116 @@ def test_killed_migration_leaves_no_partial_backup_under_a_backup_name(tmp_path,
     con = sqlite3.connect(backups[0])
     assert con.execute("SELECT value FROM meta WHERE key = 'schema_version'").fetchone() == ("1",)
     con.close()
+
+
+# ---- what the operating system said: a valid store is never called foreign -----------------
+# SQLite's result codes: SQLITE_READONLY "attempt to write a readonly database", SQLITE_FULL
+# "database or disk is full" (sqlite.org/rescode.html).
+
+NOT_FOREIGN = ("not a Fresh Gas Ledger store", "move this one aside", "damaged", "another program")
+
+
+def _assert_said(message: str, *words: str) -> None:
+    assert "\n" not in message and "Traceback" not in message
+    for word in words:
+        assert word in message, message
+    for word in NOT_FOREIGN:
+        assert word not in message, message
+
+
+def _connect_with(monkeypatch, path: Path, adjust) -> None:
+    """Every connection to ``path`` made through ``adjust(real_connect, ...)``."""
+    import sqlite3
+
+    real = sqlite3.connect
+
+    def connect(database, *args, **kwargs):
+        if str(database) == str(path):
+            return adjust(real, database, *args, **kwargs)
+        return real(database, *args, **kwargs)
+
+    monkeypatch.setattr(sqlite3, "connect", connect)
+
+
+def test_a_save_on_a_full_disk_says_the_disk_is_full_and_keeps_every_version(tmp_path, monkeypatch):
+    from model.store import Store, StoreError
+
+    path = tmp_path / "store.sqlite3"
+    Store(path).save("scenario", "kept", "body 1")
+
+    def full(real, database, *args, **kwargs):
+        con = real(database, *args, **kwargs)
+        (pages,) = con.execute("PRAGMA page_count").fetchone()
+        con.execute(f"PRAGMA max_page_count = {pages}")  # SQLite answers SQLITE_FULL beyond this
+        return con
+
+    _connect_with(monkeypatch, path, full)
+    store = Store(path)
+    with pytest.raises(StoreError) as err:
+        store.save("scenario", "big", "x" * 200_000)
+    _assert_said(str(err.value), "disk is full", "nothing was changed")
+    monkeypatch.undo()
+    assert Store(path).get("scenario", "kept").body == "body 1"
+
+
+def test_a_save_to_a_read_only_store_says_read_only(tmp_path, monkeypatch):
+    from model.store import Store, StoreError
+
+    path = tmp_path / "store.sqlite3"
+    Store(path).save("scenario", "kept", "body 1")
+
+    def read_only(real, database, *args, **kwargs):
+        kwargs.pop("uri", None)
+        return real(f"file:{database}?mode=ro", *args, uri=True, **kwargs)
+
+    _connect_with(monkeypatch, path, read_only)
+    with pytest.raises(StoreError) as err:
+        Store(path).save("scenario", "kept", "body 2")
+    _assert_said(str(err.value), "read-only", "nothing was changed")
+
+
+@pytest.mark.skipif(
+    not hasattr(os, "geteuid") or os.geteuid() == 0, reason="needs POSIX permissions that bind (root ignores them)"
+)
+def test_store_info_in_a_read_only_folder_says_read_only_not_foreign(tmp_path, capsys):
+    # A real read-only folder: SQLite cannot make the store's -wal and -shm files beside it.
+    from model.cli import main
+    from model.store import Store
+
+    folder = tmp_path / "shelf"
+    folder.mkdir()
+    path = folder / "store.sqlite3"
+    Store(path).save("scenario", "kept", "body 1")
+    folder.chmod(0o555)
+    try:
+        status = main(["store", "info", str(path)])
+    finally:
+        folder.chmod(0o755)
+    err = capsys.readouterr().err
+    assert status == 2, err
+    _assert_said(err.strip(), "read-only", "nothing was changed")
+
+
+def test_store_info_on_a_store_it_may_not_write_says_read_only_not_foreign(tmp_path, monkeypatch, capsys):
+    # The same refusal on any account, root included: the store in rollback-journal mode,
+    # opened read-only, so SQLite itself answers SQLITE_READONLY when the store asks for WAL.
+    import sqlite3
+
+    from model.cli import main
+    from model.store import Store
+
+    path = tmp_path / "store.sqlite3"
+    Store(path).save("scenario", "kept", "body 1")
+    con = sqlite3.connect(path)
+    con.execute("PRAGMA journal_mode = DELETE")
+    con.close()
+
+    def read_only(real, database, *args, **kwargs):
+        kwargs.pop("uri", None)
+        return real(f"file:{database}?mode=ro", *args, uri=True, **kwargs)
+
+    _connect_with(monkeypatch, path, read_only)
+    status = main(["store", "info", str(path)])
+    err = capsys.readouterr().err
+    assert status == 2, err
+    _assert_said(err.strip(), "read-only", "nothing was changed")
