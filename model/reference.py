@@ -123,7 +123,10 @@ _LABEL_ISO = "isoflurane prescribing information, from memory"
 _LABEL_HAL = "halothane monograph, from memory"
 _YASUDA = "Yasuda N et al., Anesth Analg 1989;69:370-3 (blood/gas at 37 °C), from memory"
 _MAPLESON = "Mapleson WW, Br J Anaesth 1996;76:179-85 (MAC at 40 y), from memory"
-_AR6 = "IPCC AR6 WG1 Ch. 7 Supplementary Table 7.SM.7"
+#: Where Table 7.SM.7 was read: the chapter's published metrics data (Smith C et al.,
+#: github.com/chrisroadmap/ar6, data_output/7sm/metrics_supplement_cleaned.csv,
+#: doi:10.5281/zenodo.5211357), which reproduces the table.
+_AR6 = "IPCC AR6 WG1 Ch. 7 Supplementary Table 7.SM.7 (read in the chapter's data, doi:10.5281/zenodo.5211357)"
 _VAPORIZER = "common vaporizer design (maximum dial mark)"
 _BOTTLE = "common bottle size"
 _METAB = "textbook range of in vivo metabolism, from memory"
@@ -145,7 +148,7 @@ AGENTS: Mapping[str, Agent] = MappingProxyType(
             vaporizer_max=_s(8.0, "%", _VAPORIZER, COMMON_PRACTICE),
             bottle_volume=_s(250.0, "mL", _BOTTLE, COMMON_PRACTICE),
             metabolised_fraction=_s(0.03, "1", _METAB + " (2-5 %)"),
-            lifetime=_s(1.9, "yr", _AR6 + ", from memory"),
+            lifetime=_s(1.9, "yr", _AR6 + " (HFE-347mmz1)", PUBLISHED),
         ),
         "desflurane": _agent(
             "desflurane",
@@ -162,7 +165,7 @@ AGENTS: Mapping[str, Agent] = MappingProxyType(
             vaporizer_max=_s(18.0, "%", _VAPORIZER, COMMON_PRACTICE),
             bottle_volume=_s(240.0, "mL", _BOTTLE, COMMON_PRACTICE),
             metabolised_fraction=_s(0.0002, "1", _METAB + " (0.02 %)"),
-            lifetime=_s(10.8, "yr", _AR6 + ", from memory"),
+            lifetime=_s(14.1, "yr", _AR6 + " (HFE-236ea2)", PUBLISHED),
         ),
         "isoflurane": _agent(
             "isoflurane",
@@ -179,7 +182,7 @@ AGENTS: Mapping[str, Agent] = MappingProxyType(
             vaporizer_max=_s(5.0, "%", _VAPORIZER, COMMON_PRACTICE),
             bottle_volume=_s(250.0, "mL", _BOTTLE, COMMON_PRACTICE),
             metabolised_fraction=_s(0.002, "1", _METAB + " (0.2 %)"),
-            lifetime=_s(3.5, "yr", _AR6 + ", from memory"),
+            lifetime=_s(3.5, "yr", _AR6 + " (HCFE-235da2)", PUBLISHED),
         ),
         "halothane": _agent(
             "halothane",
@@ -196,7 +199,7 @@ AGENTS: Mapping[str, Agent] = MappingProxyType(
             vaporizer_max=_s(5.0, "%", _VAPORIZER, COMMON_PRACTICE),
             bottle_volume=_s(250.0, "mL", _BOTTLE, COMMON_PRACTICE),
             metabolised_fraction=_s(0.20, "1", _METAB + " (about 20 %)"),
-            lifetime=_s(1.0, "yr", _AR6 + ", from memory"),
+            lifetime=_s(1.0, "yr", _AR6 + " (Halon-2311)", PUBLISHED),
         ),
         "nitrous_oxide": _agent(
             "nitrous_oxide",
@@ -208,7 +211,7 @@ AGENTS: Mapping[str, Agent] = MappingProxyType(
             blood_gas=_s(0.47, "1", "Eger EI, Anesthetic Uptake and Action, 1974, from memory"),
             mac40=_s(104.0, "%", _MAPLESON),
             metabolised_fraction=_s(0.00004, "1", "textbook value (0.004 %), from memory"),
-            lifetime=_s(109.0, "yr", _AR6 + ", from memory"),
+            lifetime=_s(109.0, "yr", _AR6 + " (N2O)", PUBLISHED),
         ),
         "oxygen": _agent(
             "oxygen",
@@ -247,8 +250,20 @@ def _gwp(value, citation, basis=PUBLISHED):
 
 
 _AR6_NOTE = "IPCC AR6 WG1 (2021), Ch. 7 Suppl. Table 7.SM.7"
+#: Where each AR6 value was read: the chapter's published metrics data (see ``_AR6``).
+_AR6_READ = "read in the chapter's data, doi:10.5281/zenodo.5211357"
 _AR5_NOTE = "IPCC AR5 WG1 (2013), Ch. 8 Appendix 8.A, Table 8.A.1"
+#: Where the AR5 values were read: the GHG Protocol's table of AR5 values (as carried by the
+#: globalwarmingpotentials package) for N2O, desflurane and isoflurane; US EPA 40 CFR Part 98
+#: Subpart A, Table A-1 (AR5 values) for sevoflurane and halothane, which that package lacks.
+_AR5_GHGP = "read in the GHG Protocol table of AR5 values (globalwarmingpotentials package)"
+_AR5_EPA = "read in US EPA 40 CFR Part 98 Subpart A Table A-1 (AR5 values), not in the IPCC table itself"
 _SA2012 = "Sulbaek Andersen MP et al., Anesth Analg 2012;114:1081-5"
+
+
+def _ar6(value, name):
+    return _gwp(value, f"{_AR6_NOTE} ({name}; {_AR6_READ})")
+
 
 GWP_SOURCES: Mapping[str, GwpSource] = MappingProxyType(
     {
@@ -259,11 +274,11 @@ GWP_SOURCES: Mapping[str, GwpSource] = MappingProxyType(
             _AR6_NOTE,
             MappingProxyType(
                 {
-                    "nitrous_oxide": _gwp(273.0, _AR6_NOTE),
-                    "desflurane": _gwp(2590.0, _AR6_NOTE + " (HFE-236ea2)"),
-                    "isoflurane": _gwp(539.0, _AR6_NOTE + " (HCFE-235da2)"),
-                    "sevoflurane": _gwp(195.0, _AR6_NOTE + " (HFE-347mmz1), from memory", FROM_MEMORY),
-                    "halothane": _gwp(50.8, _AR6_NOTE + " (halothane), from memory", FROM_MEMORY),
+                    "nitrous_oxide": _ar6(273.0, "N2O"),
+                    "desflurane": _ar6(2590.0, "HFE-236ea2"),
+                    "isoflurane": _ar6(539.0, "HCFE-235da2"),
+                    "sevoflurane": _ar6(195.0, "HFE-347mmz1"),
+                    "halothane": _ar6(45.0, "Halon-2311"),
                 }
             ),
         ),
@@ -274,11 +289,11 @@ GWP_SOURCES: Mapping[str, GwpSource] = MappingProxyType(
             _AR6_NOTE,
             MappingProxyType(
                 {
-                    "nitrous_oxide": _gwp(273.0, _AR6_NOTE),
-                    "desflurane": _gwp(7020.0, _AR6_NOTE + " (HFE-236ea2)"),
-                    "isoflurane": _gwp(1930.0, _AR6_NOTE + " (HCFE-235da2)"),
-                    "sevoflurane": _gwp(702.0, _AR6_NOTE + " (HFE-347mmz1), from memory", FROM_MEMORY),
-                    "halothane": _gwp(185.0, _AR6_NOTE + " (halothane), from memory", FROM_MEMORY),
+                    "nitrous_oxide": _ar6(273.0, "N2O"),
+                    "desflurane": _ar6(7020.0, "HFE-236ea2"),
+                    "isoflurane": _ar6(1930.0, "HCFE-235da2"),
+                    "sevoflurane": _ar6(702.0, "HFE-347mmz1"),
+                    "halothane": _ar6(162.0, "Halon-2311"),
                 }
             ),
         ),
@@ -289,11 +304,11 @@ GWP_SOURCES: Mapping[str, GwpSource] = MappingProxyType(
             _AR5_NOTE,
             MappingProxyType(
                 {
-                    "nitrous_oxide": _gwp(265.0, _AR5_NOTE),
-                    "desflurane": _gwp(1790.0, _AR5_NOTE + " (HFE-236ea2)"),
-                    "isoflurane": _gwp(491.0, _AR5_NOTE + " (HCFE-235da2)"),
-                    "sevoflurane": _gwp(216.0, _AR5_NOTE + " (HFE-347mmz1), from memory", FROM_MEMORY),
-                    "halothane": _gwp(41.0, _AR5_NOTE + " (halothane), from memory", FROM_MEMORY),
+                    "nitrous_oxide": _gwp(265.0, f"{_AR5_NOTE} (N2O; {_AR5_GHGP})"),
+                    "desflurane": _gwp(1790.0, f"{_AR5_NOTE} (HFE-236ea2; {_AR5_GHGP})"),
+                    "isoflurane": _gwp(491.0, f"{_AR5_NOTE} (HCFE-235da2; {_AR5_GHGP})"),
+                    "sevoflurane": _gwp(216.0, f"{_AR5_NOTE} (HFE-347mmz1; {_AR5_EPA})"),
+                    "halothane": _gwp(41.0, f"{_AR5_NOTE} (Halon-2311; {_AR5_EPA})"),
                 }
             ),
         ),
