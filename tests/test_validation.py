@@ -63,4 +63,9 @@ def test_every_ipcc_value_and_lifetime_has_its_table_check():
             assert f"ar6-table-{field}-{agent}" in ids
             assert f"ar6-table-lifetime-{agent}" in ids
     assert set(GWP_SOURCES["ar5_gwp100"].values) == set(AR5_TABLE_8A1_GWP100)
+    # Every MAC at 40 of every MAC set has its check against the source that states it.
+    from model.reference import MAC_SETS
+    from tests.validation_cases import MAC40_TABLES
+
+    assert {k: set(s.values) for k, s in MAC_SETS.items()} == {k: set(t) for k, t in MAC40_TABLES.items()}
     assert {f"ar5-table-gwp100-{a}" for a in AR5_TABLE_8A1_GWP100} <= ids

@@ -107,6 +107,11 @@ def _gwp(agent, source):
     return float(_ref().gwp(agent, source))
 
 
+def _mac40_of_set(mac_set, agent):
+    """An agent's MAC at 40 [%] with ``mac_set`` in use."""
+    return float(_ref().with_mac_set(mac_set).agents[agent].mac40)
+
+
 def _reference_number(agent, field):
     """A reference value of the model: an agent's lifetime or its GWP under an IPCC source."""
     if field == "lifetime":
@@ -297,6 +302,28 @@ AR5_TABLE_8A1_GWP100 = {
     "isoflurane": ("HCFE-235da2", 491.0, "GHG Protocol table of AR5 values"),
     "sevoflurane": ("HFE-347mmz1", 216.0, "US EPA 40 CFR 98 Table A-1"),
     "halothane": ("Halon-2311", 41.0, "US EPA 40 CFR 98 Table A-1"),
+}
+# MAC at age 40 (%, in O2) of each MAC set, as its source states it: Mapleson WW, Br J Anaesth
+# 1996;76:179-85, the constant a of his age equation, read in the abstract (PubMed 8777094);
+# the sevoflurane label's table of MAC by age (2.1 % at 40, read in the label text of the US
+# National Library of Medicine); the desflurane label's 6.0 % at 31-65 y as stated in Gold MI
+# et al., Anesthesiology 1993;79:710-4 (abstract); the isoflurane label's 1.15 % at about 44 y,
+# from memory.
+MAC40_TABLES = {
+    "mapleson_1996": {
+        "sevoflurane": (1.80, "Mapleson 1996, abstract (PubMed 8777094)"),
+        "desflurane": (6.6, "Mapleson 1996, abstract (PubMed 8777094)"),
+        "isoflurane": (1.17, "Mapleson 1996, abstract (PubMed 8777094)"),
+        "halothane": (0.75, "Mapleson 1996, abstract (PubMed 8777094)"),
+        "nitrous_oxide": (104.0, "Mapleson 1996, abstract (PubMed 8777094)"),
+    },
+    "prescribing_information": {
+        "sevoflurane": (2.1, "sevoflurane prescribing information, MAC by age (2.1 % at 40 y)"),
+        "desflurane": (6.0, "desflurane prescribing information as stated in Gold MI et al. 1993 (6.0 % at 31-65 y)"),
+        "isoflurane": (1.15, "isoflurane prescribing information (1.15 % at about 44 y), from memory"),
+        "halothane": (0.75, "Mapleson 1996, abstract (PubMed 8777094)"),
+        "nitrous_oxide": (104.0, "Mapleson 1996, abstract (PubMed 8777094)"),
+    },
 }
 # Published FA/FI after 30 min, (low, high): Yasuda N, Lockhart SH, Eger EI II et al.,
 # Anesthesiology 1991;74:489-98, and Yasuda N et al., Anesth Analg 1991;72:316-24 (values
@@ -494,6 +521,21 @@ CHECKS: tuple[Check, ...] = (
         "Mapleson 1996, worked by hand: 104 x 10^(-0.00269 x 20)",
         abs=0.01,
         methods="mac",
+    ),
+    *(
+        Check(
+            f"mac40-{mac_set}-{agent}",
+            "Age-adjusted MAC",
+            f"MAC at 40 of {agent.replace('_', ' ')}, set {mac_set}",
+            functools.partial(_mac40_of_set, mac_set, agent),
+            value,
+            "%",
+            source,
+            rel=1e-9,
+            methods="mac",
+        )
+        for mac_set, table in MAC40_TABLES.items()
+        for agent, (value, source) in table.items()
     ),
     # Uptake
     Check(
