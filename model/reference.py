@@ -122,6 +122,11 @@ _LABEL_DES = "desflurane prescribing information, from memory"
 _LABEL_ISO = "isoflurane prescribing information, from memory"
 _LABEL_HAL = "halothane monograph, from memory"
 _YASUDA = "Yasuda N et al., Anesth Analg 1989;69:370-3 (blood/gas at 37 °C), from memory"
+#: Eger EI II. Desflurane animal and human pharmacology: aspects of kinetics, safety, and MAC.
+#: Anesth Analg 1992;75(4 Suppl):S3-7, read in its abstract (PubMed 1524237): desflurane
+#: blood/gas 0.42 and isoflurane 1.4; MAC of desflurane 6.0 % and of isoflurane 1.15 % in
+#: middle-aged patients.
+_EGER_1992 = "Eger EI II, Anesth Analg 1992;75(4 Suppl):S3-7 (abstract, PubMed 1524237)"
 #: Where Table 7.SM.7 was read: the chapter's published metrics data (Smith C et al.,
 #: github.com/chrisroadmap/ar6, data_output/7sm/metrics_supplement_cleaned.csv,
 #: doi:10.5281/zenodo.5211357), which reproduces the table.
@@ -182,10 +187,17 @@ MAC_SETS: Mapping[str, MacSet] = MappingProxyType(
                         6.0,
                         "%",
                         "desflurane prescribing information: 6.0 % at 31-65 y in O2 (as stated in "
-                        "Gold MI et al., Anesthesiology 1993;79:710-4, abstract)",
+                        "Gold MI et al., Anesthesiology 1993;79:710-4, abstract, and in " + _EGER_1992 + ")",
                         PUBLISHED,
                     ),
-                    "isoflurane": _s(1.15, "%", _LABEL_ISO + " (1.15 % at about 44 y, in O2)"),
+                    "isoflurane": _s(
+                        1.15,
+                        "%",
+                        "isoflurane prescribing information: 1.15 % at about 44 y in O2 (as stated in "
+                        + _EGER_1992
+                        + ": 1.15 % in middle-aged patients)",
+                        PUBLISHED,
+                    ),
                     "halothane": _s(0.75, "%", _MAPLESON_A, PUBLISHED),
                     "nitrous_oxide": _s(104.0, "%", _MAPLESON_A, PUBLISHED),
                 }
@@ -233,7 +245,7 @@ AGENTS: Mapping[str, Agent] = MappingProxyType(
             density_temperature=_s(20.0, "degC", _LABEL_DES),
             svp_20c=_s(89.2, "kPa", _LABEL_DES + " (669 mmHg at 20 °C)"),
             boiling_point=_s(22.8, "degC", _LABEL_DES),
-            blood_gas=_s(0.45, "1", _YASUDA),
+            blood_gas=_s(0.42, "1", _EGER_1992 + ": blood/gas 0.42", PUBLISHED),
             mac40=_mac40("desflurane"),
             vaporizer_max=_s(18.0, "%", _VAPORIZER, COMMON_PRACTICE),
             bottle_volume=_s(240.0, "mL", _BOTTLE, COMMON_PRACTICE),
@@ -250,7 +262,7 @@ AGENTS: Mapping[str, Agent] = MappingProxyType(
             density_temperature=_s(20.0, "degC", _LABEL_ISO),
             svp_20c=_s(31.7, "kPa", _LABEL_ISO + " (238 mmHg at 20 °C)"),
             boiling_point=_s(48.5, "degC", _LABEL_ISO),
-            blood_gas=_s(1.4, "1", _YASUDA),
+            blood_gas=_s(1.4, "1", _EGER_1992 + ": blood/gas 1.4", PUBLISHED),
             mac40=_mac40("isoflurane"),
             vaporizer_max=_s(5.0, "%", _VAPORIZER, COMMON_PRACTICE),
             bottle_volume=_s(250.0, "mL", _BOTTLE, COMMON_PRACTICE),

@@ -307,8 +307,8 @@ AR5_TABLE_8A1_GWP100 = {
 # 1996;76:179-85, the constant a of his age equation, read in the abstract (PubMed 8777094);
 # the sevoflurane label's table of MAC by age (2.1 % at 40, read in the label text of the US
 # National Library of Medicine); the desflurane label's 6.0 % at 31-65 y as stated in Gold MI
-# et al., Anesthesiology 1993;79:710-4 (abstract); the isoflurane label's 1.15 % at about 44 y,
-# from memory.
+# et al., Anesthesiology 1993;79:710-4 (abstract); the isoflurane label's 1.15 % in middle age,
+# as stated in Eger EI II, Anesth Analg 1992;75(4 Suppl):S3-7 (abstract, PubMed 1524237).
 MAC40_TABLES = {
     "mapleson_1996": {
         "sevoflurane": (1.80, "Mapleson 1996, abstract (PubMed 8777094)"),
@@ -320,7 +320,7 @@ MAC40_TABLES = {
     "prescribing_information": {
         "sevoflurane": (2.1, "sevoflurane prescribing information, MAC by age (2.1 % at 40 y)"),
         "desflurane": (6.0, "desflurane prescribing information as stated in Gold MI et al. 1993 (6.0 % at 31-65 y)"),
-        "isoflurane": (1.15, "isoflurane prescribing information (1.15 % at about 44 y), from memory"),
+        "isoflurane": (1.15, "isoflurane prescribing information as stated in Eger 1992 (1.15 % in middle age)"),
         "halothane": (0.75, "Mapleson 1996, abstract (PubMed 8777094)"),
         "nitrous_oxide": (104.0, "Mapleson 1996, abstract (PubMed 8777094)"),
     },
@@ -715,6 +715,20 @@ CHECKS: tuple[Check, ...] = (
         )
         for agent, (ipcc, *row) in AR6_TABLE_7SM7.items()
         for i, (field, label, unit) in enumerate(_AR6_FIELDS)
+    ),
+    *(
+        Check(
+            f"blood-gas-{agent}",
+            "Reference values against their tables",
+            f"blood/gas partition coefficient of {agent} at 37 °C",
+            functools.partial(lambda a: float(_agent(a).blood_gas), agent),
+            value,
+            "1",
+            "Eger EI II, Anesth Analg 1992;75(4 Suppl):S3-7, abstract (PubMed 1524237)",
+            rel=1e-9,
+            methods="reference-values",
+        )
+        for agent, value in (("desflurane", 0.42), ("isoflurane", 1.4))
     ),
     *(
         Check(

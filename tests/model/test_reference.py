@@ -90,7 +90,7 @@ def test_gwp_horizons_order_as_published():
 # that catches a typo or a wrong unit but not the spread between handbooks.
 TEXTBOOK_TABLE = {
     "sevoflurane": dict(liquid_density=1.52, svp_20c=21, blood_gas=0.65, vaporizer_max=8),
-    "desflurane": dict(liquid_density=1.465, svp_20c=89, blood_gas=0.45, vaporizer_max=18),
+    "desflurane": dict(liquid_density=1.465, svp_20c=89, blood_gas=0.42, vaporizer_max=18),
     "isoflurane": dict(liquid_density=1.496, svp_20c=32, blood_gas=1.4, vaporizer_max=5),
     "halothane": dict(liquid_density=1.86, svp_20c=32, blood_gas=2.4, vaporizer_max=5),
 }
