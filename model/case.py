@@ -425,6 +425,8 @@ class CaseResult:
     timecourse: pd.DataFrame | None = None
     #: Patient uptake model used ("compartment" or "lowe").
     uptake_model: str = ""
+    #: Which MAC values at age 40 were used (``Reference.mac_label``).
+    mac_label: str = ""
 
     def cost_by_item(self) -> pd.DataFrame:
         """The case's cost by item (:func:`cost_by_item`)."""
@@ -443,6 +445,7 @@ class CaseResult:
             "gwp_source": self.gwp_source,
             "gwp_source_label": self.gwp_label,
             "uptake_model": self.uptake_model,
+            "mac_set_label": self.mac_label,
             "totals": to_json_value(self.totals),
             "phases": to_json_value(self.phases.to_dict("records")),
             "warnings": list(self.warnings),
@@ -576,6 +579,7 @@ def compute_case(plan: CasePlan, reference: Reference = DEFAULT_REFERENCE) -> Ca
         warnings,
         timecourse,
         s.uptake_model,
+        reference.mac_label,
     )
 
 

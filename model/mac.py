@@ -28,7 +28,9 @@ def mac_at_age(mac40_pct, age_years):
     Notes
     -----
     ``MAC(age) = MAC40 * 10 ** (-0.00269 * (age - 40))``: about 6 % less per decade.
-    The meta-analysis covers ages over one year.
+    The meta-analysis covers ages over one year. The paper's own MAC40 values (the default
+    set, ``model.reference.MAC_SETS["mapleson_1996"]``) keep the slope and the value it
+    adjusts within one method.
 
     References
     ----------

@@ -122,9 +122,97 @@ _LABEL_DES = "desflurane prescribing information, from memory"
 _LABEL_ISO = "isoflurane prescribing information, from memory"
 _LABEL_HAL = "halothane monograph, from memory"
 _YASUDA = "Yasuda N et al., Anesth Analg 1989;69:370-3 (blood/gas at 37 °C), from memory"
-_MAPLESON = "Mapleson WW, Br J Anaesth 1996;76:179-85 (MAC at 40 y), from memory"
-_AR6 = "IPCC AR6 WG1 Ch. 7 Supplementary Table 7.SM.7"
+#: Eger EI II. Desflurane animal and human pharmacology: aspects of kinetics, safety, and MAC.
+#: Anesth Analg 1992;75(4 Suppl):S3-7, read in its abstract (PubMed 1524237): desflurane
+#: blood/gas 0.42 and isoflurane 1.4; MAC of desflurane 6.0 % and of isoflurane 1.15 % in
+#: middle-aged patients.
+_EGER_1992 = "Eger EI II, Anesth Analg 1992;75(4 Suppl):S3-7 (abstract, PubMed 1524237)"
+#: Where Table 7.SM.7 was read: the chapter's published metrics data (Smith C et al.,
+#: github.com/chrisroadmap/ar6, data_output/7sm/metrics_supplement_cleaned.csv,
+#: doi:10.5281/zenodo.5211357), which reproduces the table.
+_AR6 = "IPCC AR6 WG1 Ch. 7 Supplementary Table 7.SM.7 (read in the chapter's data, doi:10.5281/zenodo.5211357)"
 _VAPORIZER = "common vaporizer design (maximum dial mark)"
+
+#: Mapleson's own MAC at age 40 (the constant ``a`` of his age equation), read in the
+#: paper's abstract (PubMed 8777094): halothane 0.75 %, isoflurane 1.17 %, enflurane 1.63 %,
+#: sevoflurane 1.80 %, desflurane 6.6 %, N2O 104 % (95 % limits about +/- 7 %, desflurane
+#: +/- 10 %). Used with his age slope, these keep the age adjustment within one method.
+_MAPLESON_A = "Mapleson WW, Br J Anaesth 1996;76:179-85: MAC at 40 y of the age equation (abstract, PubMed 8777094)"
+
+
+@dataclass(frozen=True)
+class MacSet:
+    """A named set of MAC values at age 40 (in O2), one ``Sourced`` per agent and N2O.
+
+    The model adjusts every MAC for age with Mapleson's equation (``model.mac``); a set
+    taken from another source than that paper mixes two methods, and its label says so.
+    """
+
+    key: str
+    label: str
+    citation: str
+    values: Mapping[str, Sourced]
+
+
+MAC_SETS: Mapping[str, MacSet] = MappingProxyType(
+    {
+        "mapleson_1996": MacSet(
+            "mapleson_1996",
+            "Mapleson 1996 (the age equation's own MAC at 40)",
+            _MAPLESON_A,
+            MappingProxyType(
+                {
+                    "sevoflurane": _s(1.80, "%", _MAPLESON_A, PUBLISHED),
+                    "desflurane": _s(6.6, "%", _MAPLESON_A, PUBLISHED),
+                    "isoflurane": _s(1.17, "%", _MAPLESON_A, PUBLISHED),
+                    "halothane": _s(0.75, "%", _MAPLESON_A, PUBLISHED),
+                    "nitrous_oxide": _s(104.0, "%", _MAPLESON_A, PUBLISHED),
+                }
+            ),
+        ),
+        "prescribing_information": MacSet(
+            "prescribing_information",
+            "prescribing information (MAC at 40 of each label, Mapleson's age slope)",
+            "each agent's prescribing information; halothane and N2O from Mapleson 1996",
+            MappingProxyType(
+                {
+                    "sevoflurane": _s(
+                        2.1,
+                        "%",
+                        "sevoflurane prescribing information: 2.1 % at 40 y in O2 (its table of MAC "
+                        "by age, read in the label text of the US National Library of Medicine)",
+                        PUBLISHED,
+                    ),
+                    "desflurane": _s(
+                        6.0,
+                        "%",
+                        "desflurane prescribing information: 6.0 % at 31-65 y in O2 (as stated in "
+                        "Gold MI et al., Anesthesiology 1993;79:710-4, abstract, and in " + _EGER_1992 + ")",
+                        PUBLISHED,
+                    ),
+                    "isoflurane": _s(
+                        1.15,
+                        "%",
+                        "isoflurane prescribing information: 1.15 % at about 44 y in O2 (as stated in "
+                        + _EGER_1992
+                        + ": 1.15 % in middle-aged patients)",
+                        PUBLISHED,
+                    ),
+                    "halothane": _s(0.75, "%", _MAPLESON_A, PUBLISHED),
+                    "nitrous_oxide": _s(104.0, "%", _MAPLESON_A, PUBLISHED),
+                }
+            ),
+        ),
+    }
+)
+#: The default set: the age equation with its own paper's MAC at 40.
+DEFAULT_MAC_SET = "mapleson_1996"
+
+
+def _mac40(name: str) -> Sourced:
+    return MAC_SETS[DEFAULT_MAC_SET].values[name]
+
+
 _BOTTLE = "common bottle size"
 _METAB = "textbook range of in vivo metabolism, from memory"
 
@@ -141,11 +229,11 @@ AGENTS: Mapping[str, Agent] = MappingProxyType(
             svp_20c=_s(20.9, "kPa", _LABEL_SEVO + " (157 mmHg at 20 °C)"),
             boiling_point=_s(58.6, "degC", _LABEL_SEVO),
             blood_gas=_s(0.65, "1", _YASUDA),
-            mac40=_s(2.1, "%", _LABEL_SEVO + " (age 40, in O2)"),
+            mac40=_mac40("sevoflurane"),
             vaporizer_max=_s(8.0, "%", _VAPORIZER, COMMON_PRACTICE),
             bottle_volume=_s(250.0, "mL", _BOTTLE, COMMON_PRACTICE),
             metabolised_fraction=_s(0.03, "1", _METAB + " (2-5 %)"),
-            lifetime=_s(1.9, "yr", _AR6 + ", from memory"),
+            lifetime=_s(1.9, "yr", _AR6 + " (HFE-347mmz1)", PUBLISHED),
         ),
         "desflurane": _agent(
             "desflurane",
@@ -157,12 +245,12 @@ AGENTS: Mapping[str, Agent] = MappingProxyType(
             density_temperature=_s(20.0, "degC", _LABEL_DES),
             svp_20c=_s(89.2, "kPa", _LABEL_DES + " (669 mmHg at 20 °C)"),
             boiling_point=_s(22.8, "degC", _LABEL_DES),
-            blood_gas=_s(0.45, "1", _YASUDA),
-            mac40=_s(6.0, "%", _LABEL_DES + " (ages 31-65, in O2)"),
+            blood_gas=_s(0.42, "1", _EGER_1992 + ": blood/gas 0.42", PUBLISHED),
+            mac40=_mac40("desflurane"),
             vaporizer_max=_s(18.0, "%", _VAPORIZER, COMMON_PRACTICE),
             bottle_volume=_s(240.0, "mL", _BOTTLE, COMMON_PRACTICE),
             metabolised_fraction=_s(0.0002, "1", _METAB + " (0.02 %)"),
-            lifetime=_s(10.8, "yr", _AR6 + ", from memory"),
+            lifetime=_s(14.1, "yr", _AR6 + " (HFE-236ea2)", PUBLISHED),
         ),
         "isoflurane": _agent(
             "isoflurane",
@@ -174,12 +262,12 @@ AGENTS: Mapping[str, Agent] = MappingProxyType(
             density_temperature=_s(20.0, "degC", _LABEL_ISO),
             svp_20c=_s(31.7, "kPa", _LABEL_ISO + " (238 mmHg at 20 °C)"),
             boiling_point=_s(48.5, "degC", _LABEL_ISO),
-            blood_gas=_s(1.4, "1", _YASUDA),
-            mac40=_s(1.15, "%", _LABEL_ISO + " (about age 44, in O2)"),
+            blood_gas=_s(1.4, "1", _EGER_1992 + ": blood/gas 1.4", PUBLISHED),
+            mac40=_mac40("isoflurane"),
             vaporizer_max=_s(5.0, "%", _VAPORIZER, COMMON_PRACTICE),
             bottle_volume=_s(250.0, "mL", _BOTTLE, COMMON_PRACTICE),
             metabolised_fraction=_s(0.002, "1", _METAB + " (0.2 %)"),
-            lifetime=_s(3.5, "yr", _AR6 + ", from memory"),
+            lifetime=_s(3.5, "yr", _AR6 + " (HCFE-235da2)", PUBLISHED),
         ),
         "halothane": _agent(
             "halothane",
@@ -192,11 +280,11 @@ AGENTS: Mapping[str, Agent] = MappingProxyType(
             svp_20c=_s(32.4, "kPa", _LABEL_HAL + " (243 mmHg at 20 °C)"),
             boiling_point=_s(50.2, "degC", _LABEL_HAL),
             blood_gas=_s(2.4, "1", _YASUDA + " (2.3-2.5)"),
-            mac40=_s(0.75, "%", _MAPLESON),
+            mac40=_mac40("halothane"),
             vaporizer_max=_s(5.0, "%", _VAPORIZER, COMMON_PRACTICE),
             bottle_volume=_s(250.0, "mL", _BOTTLE, COMMON_PRACTICE),
             metabolised_fraction=_s(0.20, "1", _METAB + " (about 20 %)"),
-            lifetime=_s(1.0, "yr", _AR6 + ", from memory"),
+            lifetime=_s(1.0, "yr", _AR6 + " (Halon-2311)", PUBLISHED),
         ),
         "nitrous_oxide": _agent(
             "nitrous_oxide",
@@ -206,9 +294,9 @@ AGENTS: Mapping[str, Agent] = MappingProxyType(
             molar_mass=_s(44.013, "g/mol", _MOLMASS, PUBLISHED),
             boiling_point=_s(-88.5, "degC", "CRC Handbook of Chemistry and Physics, from memory"),
             blood_gas=_s(0.47, "1", "Eger EI, Anesthetic Uptake and Action, 1974, from memory"),
-            mac40=_s(104.0, "%", _MAPLESON),
+            mac40=_mac40("nitrous_oxide"),
             metabolised_fraction=_s(0.00004, "1", "textbook value (0.004 %), from memory"),
-            lifetime=_s(109.0, "yr", _AR6 + ", from memory"),
+            lifetime=_s(109.0, "yr", _AR6 + " (N2O)", PUBLISHED),
         ),
         "oxygen": _agent(
             "oxygen",
@@ -247,8 +335,20 @@ def _gwp(value, citation, basis=PUBLISHED):
 
 
 _AR6_NOTE = "IPCC AR6 WG1 (2021), Ch. 7 Suppl. Table 7.SM.7"
+#: Where each AR6 value was read: the chapter's published metrics data (see ``_AR6``).
+_AR6_READ = "read in the chapter's data, doi:10.5281/zenodo.5211357"
 _AR5_NOTE = "IPCC AR5 WG1 (2013), Ch. 8 Appendix 8.A, Table 8.A.1"
+#: Where the AR5 values were read: the GHG Protocol's table of AR5 values (as carried by the
+#: globalwarmingpotentials package) for N2O, desflurane and isoflurane; US EPA 40 CFR Part 98
+#: Subpart A, Table A-1 (AR5 values) for sevoflurane and halothane, which that package lacks.
+_AR5_GHGP = "read in the GHG Protocol table of AR5 values (globalwarmingpotentials package)"
+_AR5_EPA = "read in US EPA 40 CFR Part 98 Subpart A Table A-1 (AR5 values), not in the IPCC table itself"
 _SA2012 = "Sulbaek Andersen MP et al., Anesth Analg 2012;114:1081-5"
+
+
+def _ar6(value, name):
+    return _gwp(value, f"{_AR6_NOTE} ({name}; {_AR6_READ})")
+
 
 GWP_SOURCES: Mapping[str, GwpSource] = MappingProxyType(
     {
@@ -259,11 +359,11 @@ GWP_SOURCES: Mapping[str, GwpSource] = MappingProxyType(
             _AR6_NOTE,
             MappingProxyType(
                 {
-                    "nitrous_oxide": _gwp(273.0, _AR6_NOTE),
-                    "desflurane": _gwp(2590.0, _AR6_NOTE + " (HFE-236ea2)"),
-                    "isoflurane": _gwp(539.0, _AR6_NOTE + " (HCFE-235da2)"),
-                    "sevoflurane": _gwp(195.0, _AR6_NOTE + " (HFE-347mmz1), from memory", FROM_MEMORY),
-                    "halothane": _gwp(50.8, _AR6_NOTE + " (halothane), from memory", FROM_MEMORY),
+                    "nitrous_oxide": _ar6(273.0, "N2O"),
+                    "desflurane": _ar6(2590.0, "HFE-236ea2"),
+                    "isoflurane": _ar6(539.0, "HCFE-235da2"),
+                    "sevoflurane": _ar6(195.0, "HFE-347mmz1"),
+                    "halothane": _ar6(45.0, "Halon-2311"),
                 }
             ),
         ),
@@ -274,11 +374,11 @@ GWP_SOURCES: Mapping[str, GwpSource] = MappingProxyType(
             _AR6_NOTE,
             MappingProxyType(
                 {
-                    "nitrous_oxide": _gwp(273.0, _AR6_NOTE),
-                    "desflurane": _gwp(7020.0, _AR6_NOTE + " (HFE-236ea2)"),
-                    "isoflurane": _gwp(1930.0, _AR6_NOTE + " (HCFE-235da2)"),
-                    "sevoflurane": _gwp(702.0, _AR6_NOTE + " (HFE-347mmz1), from memory", FROM_MEMORY),
-                    "halothane": _gwp(185.0, _AR6_NOTE + " (halothane), from memory", FROM_MEMORY),
+                    "nitrous_oxide": _ar6(273.0, "N2O"),
+                    "desflurane": _ar6(7020.0, "HFE-236ea2"),
+                    "isoflurane": _ar6(1930.0, "HCFE-235da2"),
+                    "sevoflurane": _ar6(702.0, "HFE-347mmz1"),
+                    "halothane": _ar6(162.0, "Halon-2311"),
                 }
             ),
         ),
@@ -289,11 +389,11 @@ GWP_SOURCES: Mapping[str, GwpSource] = MappingProxyType(
             _AR5_NOTE,
             MappingProxyType(
                 {
-                    "nitrous_oxide": _gwp(265.0, _AR5_NOTE),
-                    "desflurane": _gwp(1790.0, _AR5_NOTE + " (HFE-236ea2)"),
-                    "isoflurane": _gwp(491.0, _AR5_NOTE + " (HCFE-235da2)"),
-                    "sevoflurane": _gwp(216.0, _AR5_NOTE + " (HFE-347mmz1), from memory", FROM_MEMORY),
-                    "halothane": _gwp(41.0, _AR5_NOTE + " (halothane), from memory", FROM_MEMORY),
+                    "nitrous_oxide": _gwp(265.0, f"{_AR5_NOTE} (N2O; {_AR5_GHGP})"),
+                    "desflurane": _gwp(1790.0, f"{_AR5_NOTE} (HFE-236ea2; {_AR5_GHGP})"),
+                    "isoflurane": _gwp(491.0, f"{_AR5_NOTE} (HCFE-235da2; {_AR5_GHGP})"),
+                    "sevoflurane": _gwp(216.0, f"{_AR5_NOTE} (HFE-347mmz1; {_AR5_EPA})"),
+                    "halothane": _gwp(41.0, f"{_AR5_NOTE} (Halon-2311; {_AR5_EPA})"),
                 }
             ),
         ),
@@ -400,6 +500,34 @@ class Reference:
     #: User values of the record audit's absorbent estimate (``ABSORBENT_FIELDS``); a field
     #: not here takes the case plans' default.
     absorbent: Mapping[str, Sourced] = field(default_factory=lambda: MappingProxyType({}))
+    #: Key of the MAC set in use (``MAC_SETS``): every agent's ``mac40`` is that set's value
+    #: unless the user gave their own.
+    mac_set: str = DEFAULT_MAC_SET
+
+    @property
+    def mac_label(self) -> str:
+        """Which MAC values at age 40 are in use, in words, for every output."""
+        label = MAC_SETS[self.mac_set].label
+        mine = [a.label for a in self.agents.values() if a.values.get("mac40") and a.values["mac40"].basis == USER]
+        if mine:
+            label += "; your own MAC at 40 for " + ", ".join(mine)
+        return label
+
+    def with_mac_set(self, key, where: str = "mac_set") -> Reference:
+        """A new Reference whose agents take their MAC at 40 from ``MAC_SETS[key]``.
+
+        A user's own MAC at 40 stays in use, with the set's value as its default. An unknown
+        key is an InputError on ``where`` naming the sets.
+        """
+        if not isinstance(key, str) or key not in MAC_SETS:
+            raise InputError(where, key, "allowed MAC sets are " + ", ".join(MAC_SETS))
+        agents = dict(self.agents)
+        for name, value in MAC_SETS[key].values.items():
+            agent = agents[name]
+            old = agent.values.get("mac40")
+            new = replace(old, default=value) if old is not None and old.basis == USER else value
+            agents[name] = replace(agent, values=MappingProxyType({**agent.values, "mac40": new}))
+        return replace(self, agents=MappingProxyType(agents), mac_set=key)
 
     def agent(self, name: str, field_name: str = "agent") -> Agent:
         """Look up an agent by name (case-insensitive; "N2O" and "nitrous oxide" accepted)."""
@@ -445,20 +573,29 @@ class Reference:
         """Return a new Reference with user overrides applied; see ``load_settings``.
 
         ``overrides`` has optional tables ``agents.<agent>.<field>``, ``gwp.<source>.<agent>``,
-        ``prices`` (``currency``, ``bottle.<agent>``, ``oxygen_per_1000_l``, ...) and
-        ``absorbent`` (``ABSORBENT_FIELDS``). Every replaced value keeps its default beside
-        it, so the reference table can show both.
+        ``prices`` (``currency``, ``bottle.<agent>``, ``oxygen_per_1000_l``, ...),
+        ``absorbent`` (``ABSORBENT_FIELDS``) and ``mac.set`` (a key of ``MAC_SETS``, applied
+        before the agents' own values). Every replaced value keeps its default beside it, so
+        the reference table can show both.
         """
-        allowed_top = ("agents", "gwp", "prices", "absorbent")
+        allowed_top = ("agents", "gwp", "prices", "absorbent", "mac")
         for key in overrides:
             if key not in allowed_top:
                 raise InputError(f"{origin}: [{key}]", key, "allowed tables are " + ", ".join(allowed_top))
+        base = self
+        mac = _table(overrides.get("mac", {}), f"{origin}: [mac]")
+        for key in mac:
+            if key != "set":
+                raise InputError(f"{origin}: mac.{key}", key, "the only field of [mac] is set")
+        if "set" in mac:
+            base = base.with_mac_set(mac["set"], f"{origin}: mac.set")
         return Reference(
-            MappingProxyType(self._agents_with(overrides.get("agents", {}), origin)),
-            MappingProxyType(self._gwp_sources_with(overrides.get("gwp", {}), origin)),
-            self._prices_with(overrides.get("prices", {}), origin),
-            self.override_origins + (origin,),
-            MappingProxyType(self._absorbent_with(overrides.get("absorbent", {}), origin)),
+            MappingProxyType(base._agents_with(overrides.get("agents", {}), origin)),
+            MappingProxyType(base._gwp_sources_with(overrides.get("gwp", {}), origin)),
+            base._prices_with(overrides.get("prices", {}), origin),
+            base.override_origins + (origin,),
+            MappingProxyType(base._absorbent_with(overrides.get("absorbent", {}), origin)),
+            base.mac_set,
         )
 
     def _agents_with(self, table, origin: str) -> dict[str, Agent]:
@@ -550,6 +687,21 @@ class Reference:
                         source=v.source,
                         basis=v.basis,
                         **_default_of(v),
+                    )
+                )
+        for mset in MAC_SETS.values():
+            for aname, v in mset.values.items():
+                in_use = " (in use)" if mset.key == self.mac_set else ""
+                rows.append(
+                    dict(
+                        item=self.agents[aname].label,
+                        field=f"MAC at 40, set {mset.label}{in_use}",
+                        value=v.value,
+                        unit=v.unit,
+                        source=v.source,
+                        basis=v.basis,
+                        default=None,
+                        default_source=None,
                     )
                 )
         for src in self.gwp_sources.values():

@@ -38,6 +38,8 @@ class SweepResult:
     emission_lowest_flow_l_min: float | None
     currency: str
     inspired_o2_floor_pct: float
+    #: Which MAC values at age 40 were used (``Reference.mac_label``).
+    mac_label: str = ""
 
     def to_dict(self) -> dict:
         """Machine-readable form with stable keys (units in the key names)."""
@@ -47,6 +49,7 @@ class SweepResult:
             "phase": self.plan.phases[self.phase_index].name,
             "phase_number": self.phase_index + 1,
             "end_tidal_target_mac": to_json_value(self.target_mac),
+            "mac_set_label": self.mac_label,
             "currency": self.currency,
             "inspired_o2_floor_pct": to_json_value(self.inspired_o2_floor_pct),
             "cost_lowest_flow_l_min": to_json_value(self.cost_lowest_flow_l_min),
@@ -189,4 +192,5 @@ def flow_sweep(
         best("co2e_total_kg"),
         reference.prices.currency,
         s.inspired_o2_floor * 100.0,
+        reference.mac_label,
     )

@@ -11,7 +11,7 @@ import ui
 import ui.provenance
 from model import DEFAULT_REFERENCE, InputError
 from model.present.exports import html_export
-from model.reference import VOLATILES
+from model.reference import DEFAULT_MAC_SET, MAC_SETS, USER, VOLATILES
 from model.store.access import author_label
 from model.store.changelog import reference_changes
 from model.store.changelog import shown as change_text
@@ -94,13 +94,14 @@ FORM_KEYS = (
     "ref_absorbent_",
     "ref_gwp_",
     "ref_mac_",
+    "ref_macset",
     "ref_vapmax_",
 )
 
 
 def _values_in_use() -> dict:
     """Each form field's key and the value in use now (saved values over the defaults)."""
-    values = {"ref_currency": prices_saved.get("currency", default.prices.currency)}
+    values = {"ref_currency": prices_saved.get("currency", default.prices.currency), "ref_macset": ref.mac_set}
     gwp_saved = saved.get("gwp", {}).get("user", {})
     for a in VOLATILES:
         values[f"ref_bottle_{a}"] = float(ref.prices.bottle.get(a, 0.0))
@@ -177,7 +178,21 @@ with st.form("ref_overrides"):
             if v is not None:
                 gwp_user[a] = float(v)
     with tab_m:
-        st.caption("MAC at age 40 in O2 (%). Age adjustment (Mapleson 1996) applies to your value.")
+        st.caption(
+            "MAC at age 40 in O2 (%). Every MAC is adjusted for age with Mapleson's equation (1996). "
+            "His own MAC at 40 keeps the adjustment within one method; the prescribing "
+            "information's values (sevoflurane 2.1 %, desflurane 6.0 %) come from other studies. "
+            "The set in use is named on every page and in every export. A value you change here "
+            "is your own and stays in use whichever set you choose."
+        )
+        mac_set = st.selectbox(
+            "MAC set",
+            list(MAC_SETS),
+            index=list(MAC_SETS).index(ref.mac_set),
+            format_func=lambda k: MAC_SETS[k].label,
+            key="ref_macset",
+            disabled=locked,
+        )
         c = st.columns(5)
         mac = {}
         for i, a in enumerate(list(VOLATILES) + ["nitrous_oxide"]):
@@ -229,7 +244,15 @@ def _collect() -> dict:
         out["prices"] = prices
     if gwp_user:
         out["gwp"] = {"user": gwp_user}
-    agents = {a: {"mac40": v} for a, v in mac.items() if abs(v - default.agents[a].mac40) > 1e-9}
+    if mac_set != DEFAULT_MAC_SET:
+        out["mac"] = {"set": mac_set}
+    # A MAC is the user's own when it was already (and is kept), or when it was changed in
+    # the form; an untouched value follows the chosen set.
+    agents = {
+        a: {"mac40": v}
+        for a, v in mac.items()
+        if abs(v - ref.agents[a].mac40) > 1e-9 or ref.agents[a].values["mac40"].basis == USER
+    }
     for a, v in vapmax.items():
         if abs(v - default.agents[a].vaporizer_max) > 1e-9:
             agents.setdefault(a, {})["vaporizer_max"] = v
@@ -248,6 +271,7 @@ elif submitted:
         ui.show_input_error(err, "Not saved")
     else:
         version = store.save_overrides(overrides, note=note, author=ui.author())
+        ss["ref_reset_form"] = True  # a new MAC set changes the MAC values the form shows
         ss["gl_currency_pending"] = currency.strip()
         ss["ref_msg"] = f"Saved your values as version {version}; every page now uses them."
         st.rerun()

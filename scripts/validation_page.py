@@ -283,7 +283,32 @@ def render() -> str:
             "",
         ]
     out += _clinical_section(vc)
+    out += _from_memory()
     return "\n".join(out).rstrip() + "\n"
+
+
+def _from_memory() -> list[str]:
+    """The reference values that stay "from memory": no published source could be read for them."""
+    from model.reference import DEFAULT_REFERENCE, FROM_MEMORY
+
+    rows = [r for r in DEFAULT_REFERENCE.table() if r["basis"] == FROM_MEMORY]
+    out = [
+        "## Reference values still from memory",
+        "",
+        f"{len(rows)} of the reference table's values are recalled, not read again in their "
+        "source; each names the source it is recalled from. A value read in its published "
+        'source is marked "published" in the reference table (`gas-ledger reference`, the '
+        "Reference page) and is not listed here.",
+        "",
+        "| item | value | unit | source |",
+        "|---|---|---|---|",
+    ]
+    for r in rows:
+        value = "none" if r["value"] is None else _number(r["value"])
+        unit = "°C" if r["unit"] == "degC" else r["unit"]
+        out.append("| " + " | ".join(_cell(x) for x in (f"{r['item']}, {r['field']}", value, unit, r["source"])) + " |")
+    out.append("")
+    return out
 
 
 def main() -> int:

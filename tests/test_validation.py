@@ -91,3 +91,26 @@ def test_validation_page_has_a_figure_and_a_table_row_for_every_clinical_study()
         for m in s.measurements:
             assert f"`clinical-{s.key}-{m.id}`" in page, (s.key, m.id)
     assert "### Where the model still falls outside" in page
+
+
+def test_every_ipcc_value_and_lifetime_has_its_table_check():
+    # Source: IPCC AR6 WG1 Table 7.SM.7 and AR5 WG1 Table 8.A.1 (tests/validation_cases.py
+    # carries the numbers read from each, with where they were read).
+    from model.reference import AGENTS, GWP_SOURCES
+    from tests.validation_cases import AR5_TABLE_8A1_GWP100, AR6_TABLE_7SM7
+
+    ids = {c.id for c in CHECKS}
+    with_lifetime = {name for name, a in AGENTS.items() if "lifetime" in a.values}
+    assert with_lifetime == set(AR6_TABLE_7SM7)
+    for source, field in (("ar6_gwp20", "gwp20"), ("ar6_gwp100", "gwp100")):
+        assert set(GWP_SOURCES[source].values) == set(AR6_TABLE_7SM7)
+        for agent in AR6_TABLE_7SM7:
+            assert f"ar6-table-{field}-{agent}" in ids
+            assert f"ar6-table-lifetime-{agent}" in ids
+    assert set(GWP_SOURCES["ar5_gwp100"].values) == set(AR5_TABLE_8A1_GWP100)
+    # Every MAC at 40 of every MAC set has its check against the source that states it.
+    from model.reference import MAC_SETS
+    from tests.validation_cases import MAC40_TABLES
+
+    assert {k: set(s.values) for k, s in MAC_SETS.items()} == {k: set(t) for k, t in MAC40_TABLES.items()}
+    assert {f"ar5-table-gwp100-{a}" for a in AR5_TABLE_8A1_GWP100} <= ids

@@ -110,6 +110,19 @@ def _gwp(agent, source):
     return float(_ref().gwp(agent, source))
 
 
+def _mac40_of_set(mac_set, agent):
+    """An agent's MAC at 40 [%] with ``mac_set`` in use."""
+    return float(_ref().with_mac_set(mac_set).agents[agent].mac40)
+
+
+def _reference_number(agent, field):
+    """A reference value of the model: an agent's lifetime or its GWP under an IPCC source."""
+    if field == "lifetime":
+        return float(_agent(agent).lifetime)
+    source = {"gwp20": "ar6_gwp20", "gwp100": "ar6_gwp100"}.get(field, field)
+    return float(_ref().gwp(agent, source))
+
+
 def _codata_molar_volume_0c():
     import scipy.constants
 
@@ -263,6 +276,57 @@ _IPCC_TABLES = {
     "ar6_gwp100": ("AR6GWP100", "IPCC AR6 GWP100"),
     "ar6_gwp20": ("AR6GWP20", "IPCC AR6 GWP20"),
     "ar5_gwp100": ("AR5GWP100", "IPCC AR5 GWP100"),
+}
+# IPCC AR6 WG1 Ch. 7 Supplementary Table 7.SM.7: (lifetime yr, GWP20, GWP100) of each agent
+# and N2O, read in the chapter's published metrics data (Smith C et al., repository
+# chrisroadmap/ar6, file data_output/7sm/metrics_supplement_cleaned.csv at commit 24f2792,
+# doi:10.5281/zenodo.5211357), which reproduces Table 7.SM.7. Enflurane (HCFE-235ca2: 4.42 yr,
+# 2320, 654) is in the table but not an agent of the model.
+AR6_TABLE_7SM7 = {
+    "nitrous_oxide": ("N2O", 109.0, 273.0, 273.0),
+    "desflurane": ("HFE-236ea2", 14.1, 7020.0, 2590.0),
+    "isoflurane": ("HCFE-235da2", 3.5, 1930.0, 539.0),
+    "sevoflurane": ("HFE-347mmz1", 1.9, 702.0, 195.0),
+    "halothane": ("Halon-2311", 1.0, 162.0, 45.0),
+}
+_AR6_FIELDS = (
+    ("lifetime", "atmospheric lifetime", "yr"),
+    ("gwp20", "AR6 GWP20", "kg CO2e/kg"),
+    ("gwp100", "AR6 GWP100", "kg CO2e/kg"),
+)
+_AR6_READ = "IPCC AR6 WG1 Table 7.SM.7, read in the chapter's data (doi:10.5281/zenodo.5211357)"
+# IPCC AR5 WG1 Table 8.A.1, GWP100: N2O, desflurane and isoflurane read in the GHG Protocol's
+# table of AR5 values (as carried by globalwarmingpotentials, checked below too); sevoflurane
+# and halothane read in US EPA 40 CFR Part 98 Subpart A Table A-1, which gives the AR5 values.
+# The IPCC table itself could not be read here.
+AR5_TABLE_8A1_GWP100 = {
+    "nitrous_oxide": ("N2O", 265.0, "GHG Protocol table of AR5 values"),
+    "desflurane": ("HFE-236ea2", 1790.0, "GHG Protocol table of AR5 values"),
+    "isoflurane": ("HCFE-235da2", 491.0, "GHG Protocol table of AR5 values"),
+    "sevoflurane": ("HFE-347mmz1", 216.0, "US EPA 40 CFR 98 Table A-1"),
+    "halothane": ("Halon-2311", 41.0, "US EPA 40 CFR 98 Table A-1"),
+}
+# MAC at age 40 (%, in O2) of each MAC set, as its source states it: Mapleson WW, Br J Anaesth
+# 1996;76:179-85, the constant a of his age equation, read in the abstract (PubMed 8777094);
+# the sevoflurane label's table of MAC by age (2.1 % at 40, read in the label text of the US
+# National Library of Medicine); the desflurane label's 6.0 % at 31-65 y as stated in Gold MI
+# et al., Anesthesiology 1993;79:710-4 (abstract); the isoflurane label's 1.15 % in middle age,
+# as stated in Eger EI II, Anesth Analg 1992;75(4 Suppl):S3-7 (abstract, PubMed 1524237).
+MAC40_TABLES = {
+    "mapleson_1996": {
+        "sevoflurane": (1.80, "Mapleson 1996, abstract (PubMed 8777094)"),
+        "desflurane": (6.6, "Mapleson 1996, abstract (PubMed 8777094)"),
+        "isoflurane": (1.17, "Mapleson 1996, abstract (PubMed 8777094)"),
+        "halothane": (0.75, "Mapleson 1996, abstract (PubMed 8777094)"),
+        "nitrous_oxide": (104.0, "Mapleson 1996, abstract (PubMed 8777094)"),
+    },
+    "prescribing_information": {
+        "sevoflurane": (2.1, "sevoflurane prescribing information, MAC by age (2.1 % at 40 y)"),
+        "desflurane": (6.0, "desflurane prescribing information as stated in Gold MI et al. 1993 (6.0 % at 31-65 y)"),
+        "isoflurane": (1.15, "isoflurane prescribing information as stated in Eger 1992 (1.15 % in middle age)"),
+        "halothane": (0.75, "Mapleson 1996, abstract (PubMed 8777094)"),
+        "nitrous_oxide": (104.0, "Mapleson 1996, abstract (PubMed 8777094)"),
+    },
 }
 # Published FA/FI after 30 min, (low, high): Yasuda N, Lockhart SH, Eger EI II et al.,
 # Anesthesiology 1991;74:489-98, and Yasuda N et al., Anesth Analg 1991;72:316-24 (values
@@ -461,6 +525,21 @@ CHECKS: tuple[Check, ...] = (
         abs=0.01,
         methods="mac",
     ),
+    *(
+        Check(
+            f"mac40-{mac_set}-{agent}",
+            "Age-adjusted MAC",
+            f"MAC at 40 of {agent.replace('_', ' ')}, set {mac_set}",
+            functools.partial(_mac40_of_set, mac_set, agent),
+            value,
+            "%",
+            source,
+            rel=1e-9,
+            methods="mac",
+        )
+        for mac_set, table in MAC40_TABLES.items()
+        for agent, (value, source) in table.items()
+    ),
     # Uptake
     Check(
         "lowe-rate-isoflurane",
@@ -624,6 +703,49 @@ CHECKS: tuple[Check, ...] = (
         "ideal gas: molmass (N2O) over the molar volume 24.055 L/mol",
         rel=1e-3,
         methods="emitted-mass",
+    ),
+    *(
+        Check(
+            f"ar6-table-{field}-{agent}",
+            "Reference values against their tables",
+            f"{label} of {agent.replace('_', ' ')} ({ipcc})",
+            functools.partial(_reference_number, agent, field),
+            row[i],
+            unit,
+            _AR6_READ,
+            rel=1e-9,
+            methods="gwp",
+        )
+        for agent, (ipcc, *row) in AR6_TABLE_7SM7.items()
+        for i, (field, label, unit) in enumerate(_AR6_FIELDS)
+    ),
+    *(
+        Check(
+            f"blood-gas-{agent}",
+            "Reference values against their tables",
+            f"blood/gas partition coefficient of {agent} at 37 °C",
+            functools.partial(lambda a: float(_agent(a).blood_gas), agent),
+            value,
+            "1",
+            "Eger EI II, Anesth Analg 1992;75(4 Suppl):S3-7, abstract (PubMed 1524237)",
+            rel=1e-9,
+            methods="reference-values",
+        )
+        for agent, value in (("desflurane", 0.42), ("isoflurane", 1.4))
+    ),
+    *(
+        Check(
+            f"ar5-table-gwp100-{agent}",
+            "Reference values against their tables",
+            f"AR5 GWP100 of {agent.replace('_', ' ')} ({ipcc})",
+            functools.partial(_reference_number, agent, "ar5_gwp100"),
+            value,
+            "kg CO2e/kg",
+            f"IPCC AR5 WG1 Table 8.A.1, read in the {where}",
+            rel=1e-9,
+            methods="gwp",
+        )
+        for agent, (ipcc, value, where) in AR5_TABLE_8A1_GWP100.items()
     ),
     *(
         Check(

@@ -87,6 +87,7 @@ def in_use(view: ViewSettings, ref: Reference, own: tuple[str, Mapping] | None =
     return {
         "prices in use": prices_text(own),
         "GWP values": gwp_text(view, ref),
+        "MAC at age 40": ref.mac_label,
         "currency": ref.prices.currency,
         "program": f"fresh-gas-ledger {program_version()}",
     }
@@ -99,7 +100,10 @@ def inputs_table(inputs: dict) -> pd.DataFrame:
 
 def show(view: ViewSettings, ref: Reference, own: tuple[str, Mapping] | None = None) -> None:
     """One caption on the page: the prices and GWP values in use and where they come from."""
-    st.caption(f":material/sell: **Prices in use:** {md(prices_text(own))}. **GWP values:** {md(gwp_text(view, ref))}.")
+    st.caption(
+        f":material/sell: **Prices in use:** {md(prices_text(own))}. **GWP values:** {md(gwp_text(view, ref))}. "
+        f"**MAC at age 40:** {md(ref.mac_label)}."
+    )
 
 
 def practice_rows(practice) -> dict:

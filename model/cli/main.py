@@ -69,6 +69,7 @@ def cmd_case(args) -> int:
         ),
         ("MAC-hours, end-tidal", f"{t['end_tidal_mac_hours']:.2f}"),
         ("MAC-hours, dial-based", f"{t['mac_hours']:.2f}"),
+        ("MAC at age 40", result.mac_label),
     ]
     safe = t.get("lowest_safe_fd_o2_pct")
     if safe is not None and math.isfinite(safe):

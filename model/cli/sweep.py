@@ -33,6 +33,7 @@ def cmd_sweep(args) -> int:
         f"{plan.name}  ({plan.agent}); flow of phase {result.phase_index + 1} ({name}) varied, "
         f"end-tidal held at {result.target_mac:.2f} MAC"
     )
+    print(f"MAC at age 40: {result.mac_label}")
     print()
     rows = result.table.to_dict("records")
     for r in rows:

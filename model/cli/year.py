@@ -68,6 +68,7 @@ def cmd_year(args) -> int:
         f"{scenario.name}  ({result.totals['cases']:,.0f} cases a year; {result.inputs.gwp_label}; "
         f"{result.n_draws} draws, seed {result.seed})"
     )
+    print(f"MAC at age 40: {result.inputs.mac_label}")
     print()
     rows = [
         {
@@ -112,6 +113,7 @@ def cmd_compare(args) -> int:
     b = comp.baseline
     print(f"{proposal.name}  minus  {baseline.name}")
     print(f"({b.inputs.gwp_label}; {b.n_draws} paired draws, seed {b.seed}; negative = the proposal saves)")
+    print(f"MAC at age 40: {b.inputs.mac_label}")
     print()
     rows = []
     for r in nonzero_rows(comp.summary, ("baseline", "proposal", "p5", "p95")).to_dict("records"):

@@ -87,6 +87,8 @@ def default_value(reference: Reference, path: str):
             return getattr(reference.prices, parts[1], None)
         if parts[0] == "agents" and len(parts) == 3:
             return getattr(reference.agents[parts[1]], parts[2], None)
+        if path == "mac.set":
+            return reference.mac_set
     except (KeyError, AttributeError):
         return None
     return None

@@ -45,6 +45,7 @@ class Comparison:
             "proposal": self.proposal.scenario.name,
             "currency": self.baseline.currency,
             "gwp_source": self.baseline.scenario.gwp_source,
+            "mac_set_label": self.baseline.inputs.mac_label,
             "draws": self.baseline.n_draws,
             "seed": self.baseline.seed,
             "difference": {

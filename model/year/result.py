@@ -97,6 +97,7 @@ class YearResult:
             "currency": self.currency,
             "gwp_source": self.scenario.gwp_source,
             "gwp_source_label": self.inputs.gwp_label,
+            "mac_set_label": self.inputs.mac_label,
             "gwp_sources_sampled": list(self.scenario.sampling.gwp_sources),
             "draws": self.n_draws,
             "seed": self.seed,

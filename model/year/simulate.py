@@ -107,6 +107,8 @@ class YearInputs:
     currency: str
     gwp_label: str
     warnings: list[str] = field(default_factory=list)
+    #: Which MAC values at age 40 were used (``Reference.mac_label``).
+    mac_label: str = ""
     #: The simulated sub-plans (type x practice x agent x N2O use): see :class:`SubPlan`.
     subplans: list = field(default_factory=list)
     #: Smallest share of a sub-plan's per-case variance (from durations) that the slope in
@@ -442,6 +444,7 @@ def _assemble(scenario: Scenario, ref: Reference, subplans: list[SubPlan], cols,
         car_kg_per_km=scenario.car_kg_per_km,
         currency=prices.currency,
         gwp_label=ref.gwp_source(scenario.gwp_source).label,
+        mac_label=ref.mac_label,
         warnings=by_severity(Caution(f"{', '.join(names)}: {text}", text.severity) for text, names in warnings.items()),
         subplans=subplans,
         variance_explained=float(np.clip(min(r2), 0.0, 1.0)),

@@ -114,18 +114,20 @@ def test_case_costs_hand_worked():
 
 
 def test_mac_hours_age_adjusted():
-    # Sevoflurane at its MAC40 (2.1 %) for 60 min at age 40 is 1 MAC-hour.
-    t40 = compute_case(one_phase_plan(dial=2.1)).totals
+    # Source: Mapleson WW, Br J Anaesth 1996;76:179-85 (abstract): sevoflurane at its MAC40
+    # (1.80 %) for 60 min at age 40 is 1 MAC-hour.
+    t40 = compute_case(one_phase_plan(dial=1.8)).totals
     assert t40["mac_hours"] == pytest.approx(1.0)
     # Source: Mapleson 1996: at 80 years MAC is MAC40 * 10^-0.1076, so the same dial is
     # 10^0.1076 = 1.2811 MAC-hours.
-    t80 = compute_case(one_phase_plan(dial=2.1, age=80.0)).totals
+    t80 = compute_case(one_phase_plan(dial=1.8, age=80.0)).totals
     assert t80["mac_hours"] == pytest.approx(10**0.1076)
 
 
 def test_mac_hours_count_nitrous_oxide():
-    # 1 L/min O2 + 1 L/min N2O: 50 % N2O = 50/104 MAC at 40 (Mapleson 1996), plus 1.05/2.1 sevoflurane.
-    t = compute_case(one_phase_plan(o2=1.0, air=0.0, n2o=1.0, dial=1.05)).totals
+    # Source: Mapleson 1996 (abstract): 1 L/min O2 + 1 L/min N2O: 50 % N2O = 50/104 MAC at
+    # 40, plus 0.9/1.80 sevoflurane.
+    t = compute_case(one_phase_plan(o2=1.0, air=0.0, n2o=1.0, dial=0.9)).totals
     assert t["mac_hours"] == pytest.approx(0.5 + 50 / 104)
 
 

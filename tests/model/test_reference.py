@@ -12,10 +12,12 @@ from model.reference import (
     AGENTS,
     AIR_O2_FRACTION,
     COMMON_PRACTICE,
+    DEFAULT_MAC_SET,
     DEFAULT_REFERENCE,
     FROM_MEMORY,
     GWP_SOURCES,
     INVENTED,
+    MAC_SETS,
     PUBLISHED,
     USER,
     VOLATILES,
@@ -87,10 +89,10 @@ def test_gwp_horizons_order_as_published():
 # Textbook values (docs/methods.md, Reference values), from memory, with a tolerance
 # that catches a typo or a wrong unit but not the spread between handbooks.
 TEXTBOOK_TABLE = {
-    "sevoflurane": dict(liquid_density=1.52, svp_20c=21, blood_gas=0.65, mac40=2.05, vaporizer_max=8),
-    "desflurane": dict(liquid_density=1.465, svp_20c=89, blood_gas=0.45, mac40=6.0, vaporizer_max=18),
-    "isoflurane": dict(liquid_density=1.496, svp_20c=32, blood_gas=1.4, mac40=1.15, vaporizer_max=5),
-    "halothane": dict(liquid_density=1.86, svp_20c=32, blood_gas=2.4, mac40=0.75, vaporizer_max=5),
+    "sevoflurane": dict(liquid_density=1.52, svp_20c=21, blood_gas=0.65, vaporizer_max=8),
+    "desflurane": dict(liquid_density=1.465, svp_20c=89, blood_gas=0.42, vaporizer_max=18),
+    "isoflurane": dict(liquid_density=1.496, svp_20c=32, blood_gas=1.4, vaporizer_max=5),
+    "halothane": dict(liquid_density=1.86, svp_20c=32, blood_gas=2.4, vaporizer_max=5),
 }
 
 
@@ -117,8 +119,54 @@ def test_svp_matches_mmhg_values_on_labels():
 
 
 def test_nitrous_oxide_mac_from_mapleson():
-    # Source: Mapleson WW, Br J Anaesth 1996;76:179-85 (N2O MAC40 104 %), from memory.
+    # Source: Mapleson WW, Br J Anaesth 1996;76:179-85, abstract (N2O MAC40 104 %).
     assert AGENTS["nitrous_oxide"].mac40 == pytest.approx(104.0)
+
+
+def test_default_mac_values_are_the_age_equations_own():
+    # Source: Mapleson WW, Br J Anaesth 1996;76:179-85, abstract (PubMed 8777094): MAC at 40
+    # of the age equation: halothane 0.75, isoflurane 1.17, sevoflurane 1.80, desflurane 6.6,
+    # N2O 104 %.
+    mapleson = {"halothane": 0.75, "isoflurane": 1.17, "sevoflurane": 1.80, "desflurane": 6.6, "nitrous_oxide": 104.0}
+    assert DEFAULT_REFERENCE.mac_set == DEFAULT_MAC_SET == "mapleson_1996"
+    for agent, value in mapleson.items():
+        assert AGENTS[agent].mac40 == pytest.approx(value, rel=1e-12), agent
+        assert AGENTS[agent].values["mac40"].basis == PUBLISHED
+
+
+def test_mac_set_from_the_settings_changes_every_mac_and_says_so():
+    ref = DEFAULT_REFERENCE.with_overrides({"mac": {"set": "prescribing_information"}}, "s.toml")
+    # Source: sevoflurane prescribing information (2.1 % at 40 y in O2); desflurane
+    # prescribing information as stated by Gold MI et al., Anesthesiology 1993;79:710-4
+    # (6.0 % at 31-65 y in O2).
+    assert ref.agents["sevoflurane"].mac40 == pytest.approx(2.1)
+    assert ref.agents["desflurane"].mac40 == pytest.approx(6.0)
+    assert ref.mac_set == "prescribing_information"
+    assert "prescribing information" in ref.mac_label
+    assert "Mapleson 1996" in DEFAULT_REFERENCE.mac_label
+    in_use = [r for r in ref.table() if r["field"].endswith("(in use)")]
+    assert {r["item"] for r in in_use} == {AGENTS[a].label for a in MAC_SETS["prescribing_information"].values}
+
+
+def test_own_mac_stays_in_use_whichever_set_and_is_named():
+    ref = DEFAULT_REFERENCE.with_overrides(
+        {"mac": {"set": "prescribing_information"}, "agents": {"isoflurane": {"mac40": 1.2}}}, "s.toml"
+    )
+    assert ref.agents["isoflurane"].mac40 == 1.2
+    assert ref.agents["isoflurane"].values["mac40"].default.value == pytest.approx(1.15)
+    assert "your own MAC at 40 for Isoflurane" in ref.mac_label
+    again = ref.with_mac_set("mapleson_1996")
+    assert again.agents["isoflurane"].mac40 == 1.2
+    assert again.agents["isoflurane"].values["mac40"].default.value == pytest.approx(1.17)
+
+
+@pytest.mark.parametrize("bad", ["labels", 3, ""])
+def test_unknown_mac_set_is_an_input_error_naming_the_sets(bad):
+    with pytest.raises(InputError) as err:
+        DEFAULT_REFERENCE.with_overrides({"mac": {"set": bad}}, "s.toml")
+    assert "s.toml: mac.set" in str(err.value) and "mapleson_1996" in str(err.value)
+    with pytest.raises(InputError, match="the only field of"):
+        DEFAULT_REFERENCE.with_overrides({"mac": {"name": "mapleson_1996"}}, "s.toml")
 
 
 def test_desflurane_svp_is_below_one_atmosphere_and_boils_near_room_temperature():

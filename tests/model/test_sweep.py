@@ -9,6 +9,7 @@ import pytest
 from model import load_plan
 from model.base.errors import InputError
 from model.cli import main
+from model.reference import DEFAULT_REFERENCE
 from model.sweep import DEFAULT_SWEEP_FLOWS, flow_sweep
 
 DEMO = Path(__file__).resolve().parents[2] / "demo_data" / "plans"
@@ -47,8 +48,13 @@ def test_best_flows_are_the_lowest_among_flows_that_keep_o2_safe(sweep):
 
 
 def test_sweep_holds_the_plan_end_tidal_level(sweep):
-    # the maintenance dial of 3 % at 0.5 L/min reaches about 1 MAC at the end of the phase
-    assert sweep.target_mac == pytest.approx(1.0, abs=0.1)
+    # the maintenance dial of 3 % at 0.5 L/min reaches about 1.2 MAC at the end of the phase
+    # (Mapleson's MAC at 40 of 1.80 %, age 52; about 1.0 MAC with the label's 2.1 %)
+    assert sweep.target_mac == pytest.approx(1.2, abs=0.1)
+    labels = flow_sweep(load_plan(LOW), DEFAULT_REFERENCE.with_mac_set("prescribing_information"))
+    # Source: Mapleson 1996 and the sevoflurane label (1.80 against 2.1 % at 40): the same
+    # end-tidal level is 2.1 / 1.80 times as many MAC under Mapleson's own values.
+    assert sweep.target_mac / labels.target_mac == pytest.approx(2.1 / 1.80, rel=0.01)
     t = sweep.table
     # Source: common practice, no source: at higher flow the dial needed approaches the end-tidal level
     assert t["mean_dial_pct"].iloc[-1] < t["mean_dial_pct"].iloc[2]

@@ -78,3 +78,21 @@ def test_prices_saved_on_the_reference_page_reach_the_department_year(isolated_s
     assert _number(metric_value(at, "Cost")) < 1.1 * cost
     line = next(c.value for c in at.caption if "Prices in use" in c.value).replace("\\", "")
     assert "the own prices of the scenario" in line and "chosen on this page" in line
+
+
+def test_mac_set_chosen_on_the_reference_page_is_used_and_named_on_other_pages(isolated_store):
+    at = page("reference.py")
+    at.selectbox(key="ref_macset").set_value("prescribing_information")
+    _click(at, "Save my values")
+    saved = Store(isolated_store).load_overrides()
+    # Only the set is saved: the MAC values left as they were follow the set, not the user.
+    assert saved == {"mac": {"set": "prescribing_information"}}
+    # Source: sevoflurane prescribing information (2.1 % at 40 y in O2).
+    assert at.number_input(key="ref_mac_sevoflurane").value == pytest.approx(2.1)
+    plan = page("case_plan.py")
+    line = next(c.value for c in plan.caption if "MAC at age 40" in c.value).replace("\\", "")
+    assert "prescribing information" in line
+    _click(at, "built-in defaults")
+    # Source: Mapleson WW, Br J Anaesth 1996;76:179-85 (abstract): 1.80 % at 40.
+    assert at.number_input(key="ref_mac_sevoflurane").value == pytest.approx(1.8)
+    assert at.selectbox(key="ref_macset").value == "mapleson_1996"

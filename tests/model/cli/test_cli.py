@@ -246,9 +246,10 @@ def test_reference_shows_override_and_keeps_default(capsys, tmp_path):
     rows = as_json(["--settings", local, "reference", "--json"], capsys)
     by_key = {(r["item"], r["field"]): r for r in rows}
     mac = by_key[("Sevoflurane", "MAC at age 40 in O2")]
-    assert mac["value"] == 1.95 and mac["default"] == 2.1 and "local.toml" in mac["source"]
-    # The built-in value keeps its source (cited by substance and document type, no trade name).
-    assert "sevoflurane prescribing information" in mac["default_source"]
+    # Source: Mapleson WW, Br J Anaesth 1996;76:179-85 (abstract): the default MAC at 40, 1.80 %.
+    assert mac["value"] == 1.95 and mac["default"] == 1.8 and "local.toml" in mac["source"]
+    # The built-in value keeps its source.
+    assert "Mapleson WW, Br J Anaesth 1996" in mac["default_source"]
     des = by_key[("Desflurane", "GWP, IPCC AR6 GWP100")]
     assert des["value"] == 2000 and des["default"] == 2590
     o2 = by_key[("Oxygen", "price per 1000 L")]
@@ -256,7 +257,7 @@ def test_reference_shows_override_and_keeps_default(capsys, tmp_path):
     status, out, err = run(["--settings", local, "reference"], capsys)
     assert status == 0
     line = next(x for x in out.splitlines() if "MAC at age 40" in x and x.startswith("Sevoflurane"))
-    assert "1.95" in line and "2.10" in line and "user override" in line
+    assert "1.95" in line and "1.80" in line and "user override" in line
     assert "default" in out.splitlines()[0] and "Overrides from:" in out
 
 

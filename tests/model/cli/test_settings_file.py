@@ -34,6 +34,20 @@ def test_settings_agent_override_out_of_range_exits_2_naming_field(field, value,
     assert_one_line_error(status, err, f"agents.sevoflurane.{field}", "allowed range")
 
 
+def test_mac_set_in_the_settings_is_used_and_named_in_every_output(tmp_path, capsys):
+    settings = tmp_path / "s.toml"
+    settings.write_text('[mac]\nset = "prescribing_information"\n', encoding="utf-8")
+    status, out, _ = run(["--settings", settings, "case", LOW, "--json"], capsys)
+    assert status == 0 and "prescribing information" in json.loads(out)["mac_set_label"]
+    status, out, _ = run(["case", LOW], capsys)
+    assert status == 0 and "MAC at age 40" in out and "Mapleson 1996" in out
+    status, out, _ = run(["sweep", LOW], capsys)
+    assert status == 0 and "MAC at age 40: Mapleson 1996" in out
+    settings.write_text('[mac]\nset = "labels"\n', encoding="utf-8")
+    status, _, err = run(["--settings", settings, "case", LOW], capsys)
+    assert_one_line_error(status, err, "mac.set", "allowed MAC sets")
+
+
 def test_settings_agent_override_in_range_is_used(tmp_path, capsys):
     settings = tmp_path / "s.toml"
     settings.write_text("[agents.sevoflurane]\nbottle_volume = 125\n", encoding="utf-8")

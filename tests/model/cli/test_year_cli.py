@@ -42,6 +42,7 @@ def test_year_json_is_machine_readable(capsys):
         assert text in notes
     assert "not modelled" not in notes and "not subtracted" not in notes
     assert data["totals"]["emitted_kg_sevoflurane"] > 0
+    assert data["mac_set_label"].startswith("Mapleson 1996")
 
 
 def test_compare_json_gives_paired_difference(capsys):
@@ -51,12 +52,15 @@ def test_compare_json_gives_paired_difference(capsys):
     assert cost["difference"] == pytest.approx(cost["proposal"] - cost["baseline"])
     assert cost["p95"] < 0
     assert any("sevoflurane minimum" in w for w in data["warnings"])
+    # The MAC set in use is named (docs/methods.md, Depth: age-adjusted MAC).
+    assert data["mac_set_label"].startswith("Mapleson 1996")
 
 
 def test_compare_table(capsys):
     assert main(["compare", BASE, HALF, "--draws", "100"]) == 0
     out = capsys.readouterr().out
     assert "negative = the proposal saves" in out and "Cost, total" in out
+    assert "MAC at age 40: Mapleson 1996" in out
 
 
 @pytest.mark.parametrize(

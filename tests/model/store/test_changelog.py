@@ -28,3 +28,10 @@ def test_change_log_lists_each_value_from_what_to_what(isolated_store):
     )
     assert shown(DEFAULT_REFERENCE, "prices.currency", "EUR") == "EUR"
     assert shown(DEFAULT_REFERENCE, "gwp.user.sevoflurane", None) == "none (built-in default)"
+
+
+def test_change_log_shows_the_built_in_mac_set_a_change_replaced():
+    # The default MAC set is Mapleson 1996's own values (docs/methods.md, Depth: age-adjusted MAC).
+    assert default_value(DEFAULT_REFERENCE, "mac.set") == "mapleson_1996"
+    assert shown(DEFAULT_REFERENCE, "mac.set", None) == "mapleson_1996 (built-in default)"
+    assert shown(DEFAULT_REFERENCE, "mac.set", "prescribing_information") == "prescribing_information"
