@@ -37,6 +37,8 @@ from .reference import AGENTS as AGENTS
 from .reference import DEFAULT_GWP as DEFAULT_GWP
 from .reference import DEFAULT_REFERENCE as DEFAULT_REFERENCE
 from .reference import GWP_SOURCES as GWP_SOURCES
+from .physiology import PHYSIOLOGY_SPREAD as PHYSIOLOGY_SPREAD
+from .physiology import draw_physiology as draw_physiology
 from .reference import VOLATILES as VOLATILES
 from .reference import Agent as Agent
 from .reference import GwpSource as GwpSource

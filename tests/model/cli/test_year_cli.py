@@ -88,3 +88,17 @@ def test_installed_command_exits_2_on_bad_input():
     )
     assert proc.returncode == 2
     assert proc.stderr.startswith("gas-ledger: ") and "Traceback" not in proc.stderr
+
+
+def test_bands_say_whether_they_hold_model_physiology(capsys):
+    # Without the option the bands are of case mix and prices, and say so; with
+    # --model-uncertainty they say they hold the model's physiology too (text and JSON).
+    assert main(["year", BASE, "--draws", "48"]) == 0
+    out = capsys.readouterr().out
+    assert "Bands: P5-P95 of case mix and prices." in out and "model physiology" not in out
+    assert main(["year", BASE, "--draws", "48", "--model-uncertainty"]) == 0
+    assert "Bands: P5-P95 of case mix and prices and model physiology." in capsys.readouterr().out
+    assert main(["compare", BASE, HALF, "--draws", "48", "--model-uncertainty", "--json"]) == 0
+    assert json.loads(capsys.readouterr().out)["band_label"] == "P5-P95 of case mix and prices and model physiology"
+    assert main(["compare", BASE, HALF, "--draws", "48"]) == 0
+    assert "Bands: P5-P95 of case mix and prices." in capsys.readouterr().out
