@@ -60,9 +60,7 @@ def cmd_year(args) -> int:
 
     draws, seed = _options(args)
     scenario = load_scenario(args.scenario)
-    result = compute_year(
-        scenario, _reference(args), draws=draws, seed=seed, model_uncertainty=args.model_uncertainty
-    )
+    result = compute_year(scenario, _reference(args), draws=draws, seed=seed, model_uncertainty=args.model_uncertainty)
     if args.json:
         print_json(result.to_dict(), sys.stdout)
         return 0
