@@ -170,6 +170,16 @@ with st.expander("Practice change and uncertainty", expanded=False, icon=":mater
     draws = c3.number_input("Monte Carlo draws", 100, MAX_DRAWS, s.draws, 500, key=f"dy_draws_{name}")
     seed = c3.number_input("Seed", 0, 2**31 - 1, s.seed, 1, key=f"dy_seed_{name}")
     spread = c3.number_input("Price spread (SD of ln price)", 0.0, 1.0, s.price_spread, 0.05, key=f"dy_ps_{name}")
+    model_unc = c3.checkbox(
+        "Bands include model physiology",
+        value=False,
+        key=f"dy_model_unc_{name}",
+        help=(
+            "Let the P5-P95 ranges also draw the uptake model's uncertain physiology (partition "
+            "coefficients, tissue volumes and flows, cardiac output, ventilation, circle volume), beside "
+            "the case mix and prices; slower. Method and sources: Methods and Validation pages."
+        ),
+    )
     horizon = [k for k in GWP_SOURCES if k != "user" and GWP_SOURCES[k].horizon_years == view.gwp_horizon_years]
     gwps = st.multiselect(
         "GWP sources drawn in the bands (empty: the sidebar's source only)",
@@ -204,7 +214,7 @@ scenario = replace(
 )
 try:
     with st.spinner("Sampling the year..."):
-        result = yv.run_year(scenario, ref, ref_key)
+        result = yv.run_year(scenario, ref, ref_key, model_unc)
 except InputError as err:
     ui.show_input_error(err)
     if last_key not in ss:
@@ -227,7 +237,7 @@ st.subheader("The year")
 unsafe = ui.cautions.unsafe_banner(result.warnings, "the practice of this year")
 st.caption(
     f"{t['cases']:,.0f} cases; {result.n_draws:,} draws (seed {result.seed}). "
-    f"Expected values under {result.inputs.gwp_label}, with P5-P95 under each"
+    f"Expected values under {result.inputs.gwp_label}, with the {result.band_label} under each"
     + (
         f" (the P5-P95 ranges draw the GWP sources {', '.join(ref.gwp_sources[g].label for g in gwps)}, "
         "so a value can sit near one end of its range)"
@@ -299,6 +309,7 @@ inputs = {
     "GWP source": result.inputs.gwp_label,
     "GWP sources drawn in the bands": ", ".join(ref.gwp_sources[g].label for g in scenario.sampling.gwp_sources)
     or "the GWP source only",
+    "bands": result.band_label,
     "draws": result.n_draws,
     "seed": result.seed,
     "price spread (SD of ln price)": f"{scenario.sampling.price_spread:g}",
