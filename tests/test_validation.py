@@ -91,3 +91,26 @@ def test_validation_page_has_a_figure_and_a_table_row_for_every_clinical_study()
         for m in s.measurements:
             assert f"`clinical-{s.key}-{m.id}`" in page, (s.key, m.id)
     assert "### Where the model still falls outside" in page
+
+
+def test_validation_page_shows_the_spread_of_the_figures_over_the_model_physiology():
+    # Every uncertain parameter with its spread and basis, the from-memory ones listed, the
+    # figures' P5-P95 and the one-at-a-time table, and the label the year's bands then carry.
+    from model.physiology import PHYSIOLOGY_SPREAD
+
+    page = (ROOT / "docs" / "validation.md").read_text(encoding="utf-8")
+    section = page[page.index("## Uncertainty of the model's physiology") :]
+    for p in PHYSIOLOGY_SPREAD:
+        assert f"(`{p.key}`) | {p.sigma:g} |" in section
+    memory = section[section.index("### Spreads from memory") :]
+    for p in PHYSIOLOGY_SPREAD:
+        assert (f"(`{p.key}`): SD of ln" in memory) == (p.basis == "from memory")
+    for text in (
+        "liquid agent of a case, end-tidal target at 0.5 L/min",
+        "flow sweep's lowest-cost flow",
+        "a year's saving from the change of practice",
+        "Which parameter moves each figure most",
+        "P5-P95 of case mix and prices and model physiology",
+        "methods.md#physiology-uncertainty",
+    ):
+        assert text in section

@@ -39,6 +39,7 @@ FIGURES = (
     ("liquid_ml", "liquid agent of a case, end-tidal target at 0.5 L/min", "mL"),
     ("lowest_cost_flow_l_min", "flow sweep's lowest-cost flow", "L/min"),
     ("year_saving", "a year's saving from the change of practice", "currency"),
+    ("year_liquid_saved_ml", "liquid agent the change of practice saves in a year", "mL"),
 )
 LATE_UPTAKE_FIGURES = (
     ("late_uptake_sevoflurane_l", "sevoflurane uptake 60-180 min at 1.0 MAC", "L vapour"),
@@ -144,12 +145,25 @@ def year_savings(
     ndarray, shape (m,)
         Baseline cost minus proposal cost of the central year (mean durations, central
         adherence and prices), positive where the proposal saves. [currency]
+
+    Notes
+    -----
+    Agent is bought in whole bottles a month, so the cost moves in steps of a bottle's
+    price; the liquid saved (in :func:`physiology_spread`) moves smoothly.
     """
+    return _year_differences(baseline, proposal, physiology, reference)["year_saving"]
+
+
+def _year_differences(baseline: Scenario, proposal: Scenario, physiology: dict, reference: Reference) -> dict:
+    """Cost saved [currency] and liquid agent saved [mL] (all agents) of the central year, per draw."""
     proposal = replace(proposal, gwp_source=baseline.gwp_source, sampling=baseline.sampling)
-    out = np.zeros(_n_draws(physiology))
-    for m in range(out.size):
+    n = _n_draws(physiology)
+    out = {"year_saving": np.zeros(n), "year_liquid_saved_ml": np.zeros(n)}
+    for m in range(n):
         b_inp, p_inp = _year_inputs_many([baseline, proposal], reference, _column(physiology, m))
-        out[m] = float(_central(b_inp)[0]["cost_total"][0] - _central(p_inp)[0]["cost_total"][0])
+        b, p = _central(b_inp)[0], _central(p_inp)[0]
+        out["year_saving"][m] = float(b["cost_total"][0] - p["cost_total"][0])
+        out["year_liquid_saved_ml"][m] = float(sum(b[k][0] - p[k][0] for k in b if k.startswith("liquid_ml_")))
     return out
 
 
@@ -219,7 +233,7 @@ def _figures(plan, sweep_plan, baseline, proposal, physiology, reference, late_u
     out = {"liquid_ml": case_liquid_ml(plan, physiology, reference)}
     if loops:
         out["lowest_cost_flow_l_min"] = lowest_cost_flows(sweep_plan, physiology, reference)
-        out["year_saving"] = year_savings(baseline, proposal, physiology, reference)
+        out.update(_year_differences(baseline, proposal, physiology, reference))
     if late_uptake:
         out["late_uptake_sevoflurane_l"] = late_uptake_l("sevoflurane", physiology, reference)
         out["late_uptake_desflurane_l"] = late_uptake_l("desflurane", physiology, reference)
