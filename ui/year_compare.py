@@ -89,6 +89,7 @@ def render(view) -> None:
         return
 
     first = next(iter(comps.values()))
+    st.caption(f"Bands: {first.baseline.band_label}.")
     warnings = by_severity([w for c in comps.values() for w in c.warnings])
     unsafe_names = ([b_name] if first.baseline.unsafe else []) + [n for n, c in comps.items() if c.proposal.unsafe]
     if unsafe_names:
@@ -137,6 +138,7 @@ def render(view) -> None:
     inputs.update(
         {
             "GWP source": first.baseline.inputs.gwp_label,
+            "bands": first.baseline.band_label,
             "paired draws": first.baseline.n_draws,
             "seed": first.baseline.seed,
         }

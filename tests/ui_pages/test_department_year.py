@@ -62,6 +62,7 @@ def test_compare_page_year_tab_shows_paired_difference():
     assert "Change in cost" in labels
     value = next(m.value for m in at.metric if m.label == "Change in cost")
     assert value.startswith("-")  # the demo proposal saves money
+    assert any(c.value == "Bands: P5-P95 of case mix and prices." for c in at.caption)
 
 
 def walk(node):
