@@ -24,7 +24,10 @@ each total moves with those minutes by its regression slope on them, which carri
 Uncertainty (seeded, reproducible): per draw, the year's minutes of each type, the share
 of cases following the practice change (triangular), every unit price (log-normal around
 the given price), and the GWP source (drawn among the listed ones). Paired comparisons
-use the same draws for both scenarios, so their difference has its own P5-P95 range.
+use the same draws for both scenarios, so their difference has its own P5-P95 range. With
+``model_uncertainty`` the bands also draw the uptake model's physiology (:mod:`model.physiology`),
+and every result says what its bands hold (``band_label``); :func:`physiology_spread` gives
+the spread of the figures that decide practice over those draws alone.
 """
 
 import lazy_loader as _lazy

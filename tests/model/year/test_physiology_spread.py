@@ -142,3 +142,22 @@ def test_year_bands_say_what_they_hold_and_default_is_unchanged(scenarios):
     assert not np.allclose(bands["p5"], plain.summary.set_index("key")["p5"])
     comp = compare_years(b, p, draws=60, seed=4, model_uncertainty=True)
     assert comp.to_dict()["band_label"] == BAND_LABEL_PHYSIOLOGY
+
+
+@FAST
+@given(
+    flow_muscle=st.floats(0.3, 2.0),
+    flow_fat=st.floats(0.3, 2.0),
+    weight=st.floats(40.0, 120.0),
+)
+def test_tissue_flows_still_add_up_to_the_cardiac_output(flow_muscle, flow_fat, weight):
+    # The vessel-rich group takes what muscle and fat do not: the blood flow through the
+    # tissues is the cardiac output, whatever the multipliers (mass balance of blood flow,
+    # common practice, no source).
+    from model.uptake import tissue_compartments
+
+    q = 0.2 * weight**0.75
+    g, _ = tissue_compartments(
+        "compartment", "sevoflurane", 1.0, weight, q, {"flow_muscle": flow_muscle, "flow_fat": flow_fat}
+    )
+    assert g.sum() == pytest.approx(q, rel=1e-12)
