@@ -212,7 +212,8 @@ def tissue_compartments(model, species, blood_gas, weight_kg, cardiac_output_l_m
         (n,) (:mod:`model.physiology`): ``tissue_blood_vessel_rich``, ``tissue_blood_muscle``,
         ``tissue_blood_fat``, ``volume_muscle``, ``volume_fat``, ``flow_muscle``,
         ``flow_fat`` (the vessel-rich group takes the rest of the cardiac output). Missing
-        keys, or None, leave the central values exactly. [1]
+        keys, or None, leave the central values exactly; the "lowe" model has no tissue
+        groups and ignores them. [1]
 
     Returns
     -------

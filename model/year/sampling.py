@@ -17,7 +17,8 @@ BAND_LABEL = "P5-P95 of case mix and prices"
 BAND_LABEL_PHYSIOLOGY = "P5-P95 of case mix and prices and model physiology"
 #: Physiology draws of a year with model uncertainty: the year's draws take them in turn
 #: (draw d the (d mod N)-th). A numerical choice, no source: each is a full simulation of
-#: the case mix, and the bands' P5 and P95 move by a few per cent between 16 and 64.
+#: the case mix; the demo year's P5 and P95 of cost and of sevoflurane liquid moved by under
+#: 0.5 % between 16 and 64 (measured once, seed 2026, 4000 draws).
 PHYSIOLOGY_YEAR_DRAWS = 24
 #: Second word of the seed of the physiology draws of a year (the first is the year's seed).
 PHYSIOLOGY_STREAM = 20260
