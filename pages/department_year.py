@@ -269,8 +269,11 @@ figs = [
     ("Bottles bought per month", year_charts.monthly_bottles_figure(result.monthly)),
     ("Cost per month", year_charts.monthly_cost_figure(result.monthly, cur)),
     ("CO2e by source", year_charts.co2e_by_source_figure(t)),
-    ("Cumulative CO2e", year_charts.fan_figure(result.fan, "cumulative t CO2e", "t CO2e", CO2E_COLOUR)),
-    ("Cumulative cost", year_charts.fan_figure(result.fan, "cumulative cost", cur)),
+    (
+        "Cumulative CO2e",
+        year_charts.fan_figure(result.fan, "cumulative t CO2e", "t CO2e", CO2E_COLOUR, result.band_label),
+    ),
+    ("Cumulative cost", year_charts.fan_figure(result.fan, "cumulative cost", cur, band_label=result.band_label)),
 ]
 g1, g2 = st.columns(2)
 g1.plotly_chart(figs[0][1], width="stretch", key="dy_fig_bottles")

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import json
+
 from streamlit.testing.v1 import AppTest
 
 from model.store import Store
@@ -298,3 +300,7 @@ def test_year_bands_say_whether_they_include_model_physiology():
     assert not at.exception, [e.message for e in at.exception]
     assert any("P5-P95 of case mix and prices and model physiology under each" in c.value for c in at.caption)
     assert _metric(at, "Cost (GBP)") == cost
+    # The charts' ranges carry the same label in their legends.
+    charts = [json.loads(c.proto.spec) for c in at.get("plotly_chart")]
+    names = {t.get("name") for c in charts for t in c["data"]}
+    assert "P5-P95 of case mix and prices and model physiology" in names
