@@ -668,13 +668,20 @@ def _tissues(uptake_model: str, agent: Agent, n2o_ref: Agent, case: _CaseConstan
 
 
 def _with_physiology(pat: PatientValues, circle_volume_l, physiology):
-    """The patient's cardiac output, ventilation and FRC, and the circle volume, times their multipliers."""
+    """The patient's cardiac output, O2 use, ventilation and FRC, and the circle volume, times their multipliers.
+
+    CO2 production follows the O2 consumption (a fixed respiratory quotient); the minute
+    ventilation has its own multiplier (it is set by the ventilator, not by the CO2).
+    """
     if physiology is None:
         return pat, circle_volume_l
     ve = multiplier(physiology, "minute_ventilation")
+    vo2 = multiplier(physiology, "oxygen_consumption")
     pat = replace(
         pat,
         cardiac_output_l_min=pat.cardiac_output_l_min * multiplier(physiology, "cardiac_output"),
+        vo2_l_min=pat.vo2_l_min * vo2,
+        vco2_l_min=pat.vco2_l_min * vo2,
         minute_ventilation_l_min=pat.minute_ventilation_l_min * ve,
         alveolar_ventilation_l_min=pat.alveolar_ventilation_l_min * ve,
         frc_l=pat.frc_l * multiplier(physiology, "frc"),
@@ -1020,7 +1027,7 @@ def simulate_cases(
     physiology : mapping, optional
         Multipliers of the model's uncertain physiology, each a scalar or shape
         ``(n_cases,)``, keys of :data:`model.physiology.PHYSIOLOGY_KEYS` (cardiac output,
-        minute ventilation, FRC, circle volume, the agent's blood/gas and tissue/blood
+        O2 consumption, minute ventilation, FRC, circle volume, the agent's blood/gas and tissue/blood
         coefficients, tissue volumes and flow shares). None, a missing key or a multiplier
         of exactly 1 leaves the central model unchanged. [1]
 

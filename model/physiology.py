@@ -74,6 +74,13 @@ PHYSIOLOGY_SPREAD: tuple[SpreadParameter, ...] = (
         FROM_MEMORY,
     ),
     SpreadParameter(
+        "oxygen_consumption",
+        "O2 consumption (Brody's scaling; CO2 production follows)",
+        0.15,
+        "between patients under anaesthesia about +/-25 % at P5-P95, from memory",
+        FROM_MEMORY,
+    ),
+    SpreadParameter(
         "minute_ventilation",
         "minute ventilation",
         0.15,

@@ -278,6 +278,7 @@ def _physiology_section() -> list[str]:
     from model.io.scenario import load_scenario
     from model.physiology import PHYSIOLOGY_SPREAD
     from model.reference import FROM_MEMORY
+    from model.sweep import flow_sweep
     from model.year.sampling import BAND_LABEL_PHYSIOLOGY
     from model.year.uncertainty import low_flow_target_plan, physiology_spread
 
@@ -326,11 +327,18 @@ def _physiology_section() -> list[str]:
         "phases held at an end-tidal target depend on the physiology, so a year whose plans mostly",
         "set the dial (as the demo's do) hardly moves, and its cost moves in whole bottles a month.",
     ]
-    if sweep["p5"] == sweep["p95"]:
+    table = flow_sweep(plan).table
+    feasible = table[table["feasible"]]
+    lowest = float(feasible["fgf_l_min"].min()) if not feasible.empty else None
+    below = table[table["fgf_l_min"] < (lowest or 0.0)]
+    if lowest == sweep["central"] and not below.empty and not below["o2_safe"].any():
         out.append(
-            f"The sweep's lowest-cost flow stays at {_fig(sweep['central'])} L/min in every draw: no draw "
-            "moves another of its flows below it in cost, or makes it unsafe."
+            f"In the central model the sweep's lowest-cost flow, {_fig(lowest)} L/min, is its lowest flow "
+            "that keeps inspired O2 above the floor (cost falls with the flow and every lower flow is "
+            "unsafe), so it moves with what decides inspired O2 (the O2 consumption), not with the uptake."
         )
+    if sweep["p5"] == sweep["p95"]:
+        out.append(f"It stays at {_fig(sweep['central'])} L/min in every draw.")
     labels = dict(zip(res.table["key"], res.table["figure"], strict=True))
     sens = res.sensitivity
     out += [
