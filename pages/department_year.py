@@ -176,8 +176,9 @@ with st.expander("Practice change and uncertainty", expanded=False, icon=":mater
         key=f"dy_model_unc_{name}",
         help=(
             "Let the P5-P95 ranges also draw the uptake model's uncertain physiology (partition "
-            "coefficients, tissue volumes and flows, cardiac output, ventilation, circle volume), beside "
-            "the case mix and prices; slower. Method and sources: Methods and Validation pages."
+            "coefficients, tissue volumes and flows, cardiac output, O2 consumption, ventilation, "
+            "circle volume), beside the case mix and prices; slower. Method and sources: Methods "
+            "and Validation pages."
         ),
     )
     horizon = [k for k in GWP_SOURCES if k != "user" and GWP_SOURCES[k].horizon_years == view.gwp_horizon_years]

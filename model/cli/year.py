@@ -154,7 +154,7 @@ def _tail(warnings, notes):
 
 _MODEL_UNCERTAINTY_HELP = (
     "let the P5-P95 bands also draw the uptake model's uncertain physiology (partition coefficients, "
-    "tissue volumes and flows, cardiac output, ventilation, circle volume); slower"
+    "tissue volumes and flows, cardiac output, O2 consumption, ventilation, circle volume); slower"
 )
 
 
