@@ -28,6 +28,8 @@ from .mac import mac_at_age as mac_at_age
 from .mac import mac_multiple as mac_multiple
 from .patient import brody_cardiac_output_l_min as brody_cardiac_output_l_min
 from .patient import brody_vo2_ml_min as brody_vo2_ml_min
+from .physiology import PHYSIOLOGY_SPREAD as PHYSIOLOGY_SPREAD
+from .physiology import draw_physiology as draw_physiology
 from .plan import CasePlan as CasePlan
 from .plan import Patient as Patient
 from .plan import Phase as Phase

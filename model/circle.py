@@ -46,7 +46,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Iterator, Mapping
-from dataclasses import dataclass, fields
+from dataclasses import dataclass, fields, replace
 from typing import Any, NamedTuple, cast
 
 import numpy as np
@@ -54,6 +54,7 @@ import numpy as np
 from model.freshgas import apply_ratio_limit, delivered_fractions
 from model.mac import mac_at_age
 from model.patient import PatientValues, resolve_patient
+from model.physiology import check_physiology, multiplier
 from model.reference import AIR_O2_FRACTION, DEFAULT_REFERENCE, Agent
 from model.uptake import DEFAULT_UPTAKE_MODEL, UPTAKE_MODELS, tissue_compartments
 from model.vapour import vapour_per_ml_liquid
@@ -650,12 +651,42 @@ def _case_constants(pat: PatientValues, circle_volume_l, agent: Agent, n2o_ref: 
     )
 
 
-def _tissues(uptake_model: str, agent: Agent, n2o_ref: Agent, case: _CaseConstants) -> _Tissues:
-    """Tissue compartments of N2O and the agent (:func:`model.uptake.tissue_compartments`)."""
+def _tissues(uptake_model: str, agent: Agent, n2o_ref: Agent, case: _CaseConstants, physiology=None) -> _Tissues:
+    """Tissue compartments of N2O and the agent (:func:`model.uptake.tissue_compartments`).
+
+    ``physiology`` multipliers: the body's volumes and flows apply to both species; the
+    blood/gas and tissue/blood coefficients to the agent only.
+    """
     w, q = case.weight_kg, case.cardiac_output_l_min
-    g_n2o, c_n2o = tissue_compartments(uptake_model, "nitrous_oxide", n2o_ref.blood_gas, w, q)
-    g_ag, c_ag = tissue_compartments(uptake_model, agent.name, agent.blood_gas, w, q)
+    body = None
+    if physiology is not None:
+        body = {k: v for k, v in physiology.items() if k.startswith(("volume_", "flow_"))}
+    g_n2o, c_n2o = tissue_compartments(uptake_model, "nitrous_oxide", n2o_ref.blood_gas, w, q, body)
+    blood_gas = agent.blood_gas * multiplier(physiology, "blood_gas")
+    g_ag, c_ag = tissue_compartments(uptake_model, agent.name, blood_gas, w, q, physiology)
     return _Tissues(np.stack([g_n2o, g_ag]), np.stack([c_n2o, c_ag]))
+
+
+def _with_physiology(pat: PatientValues, circle_volume_l, physiology):
+    """The patient's cardiac output, O2 use, ventilation and FRC, and the circle volume, times their multipliers.
+
+    CO2 production follows the O2 consumption (a fixed respiratory quotient); the minute
+    ventilation has its own multiplier (it is set by the ventilator, not by the CO2).
+    """
+    if physiology is None:
+        return pat, circle_volume_l
+    ve = multiplier(physiology, "minute_ventilation")
+    vo2 = multiplier(physiology, "oxygen_consumption")
+    pat = replace(
+        pat,
+        cardiac_output_l_min=pat.cardiac_output_l_min * multiplier(physiology, "cardiac_output"),
+        vo2_l_min=pat.vo2_l_min * vo2,
+        vco2_l_min=pat.vco2_l_min * vo2,
+        minute_ventilation_l_min=pat.minute_ventilation_l_min * ve,
+        alveolar_ventilation_l_min=pat.alveolar_ventilation_l_min * ve,
+        frc_l=pat.frc_l * multiplier(physiology, "frc"),
+    )
+    return pat, np.asarray(circle_volume_l, dtype=float) * multiplier(physiology, "circle_volume")
 
 
 def _initial_state(flows: _Flows, inputs: _PhaseInputs, tissues: _Tissues, case: _CaseConstants) -> _State:
@@ -947,6 +978,7 @@ def simulate_cases(
     coarse_step_min: float = COARSE_STEP_MIN,
     record: bool = False,
     nitrous_oxide: Agent | None = None,
+    physiology: Mapping | None = None,
 ) -> Simulation:
     """Simulate many cases of one agent through the circle system at once.
 
@@ -992,6 +1024,12 @@ def simulate_cases(
         (memory grows as steps x cases).
     nitrous_oxide : Agent, optional
         N2O reference data (default from ``DEFAULT_REFERENCE``).
+    physiology : mapping, optional
+        Multipliers of the model's uncertain physiology, each a scalar or shape
+        ``(n_cases,)``, keys of :data:`model.physiology.PHYSIOLOGY_KEYS` (cardiac output,
+        O2 consumption, minute ventilation, FRC, circle volume, the agent's blood/gas and tissue/blood
+        coefficients, tissue volumes and flow shares). None, a missing key or a multiplier
+        of exactly 1 leaves the central model unchanged. [1]
 
     Returns
     -------
@@ -1026,11 +1064,14 @@ def simulate_cases(
     minutes = np.asarray(minutes, dtype=float)
     if minutes.ndim == 1:
         minutes = minutes[:, None]
+    check_physiology(physiology)
     pat = resolve_patient(weight_kg, age_years, cardiac_output_l_min, vo2_ml_min, minute_ventilation_l_min)
     n_cases = _case_count(
         (minutes, oxygen_l_min, air_l_min, nitrous_oxide_l_min, dial_pct, target_mac),
-        (weight_kg, age_years, cardiac_output_l_min, vo2_ml_min, minute_ventilation_l_min, circle_volume_l),
+        (weight_kg, age_years, cardiac_output_l_min, vo2_ml_min, minute_ventilation_l_min, circle_volume_l)
+        + tuple(() if physiology is None else physiology.values()),
     )
+    pat, circle_volume_l = _with_physiology(pat, circle_volume_l, physiology)
     shape = (minutes.shape[0], n_cases)
     inputs = _phase_inputs(minutes, oxygen_l_min, air_l_min, nitrous_oxide_l_min, dial_pct, target_mac, shape)
     case = _case_constants(pat, circle_volume_l, agent, n2o_ref, n_cases)
@@ -1038,7 +1079,7 @@ def simulate_cases(
         inputs.oxygen_l_min, inputs.nitrous_oxide_l_min, min_o2_share, min_o2_flow_l_min, ratio_behaviour
     )
     flows = _Flows(o2, n2o, altered, *delivered_fractions(o2, inputs.air_l_min, n2o))
-    tissues = _tissues(uptake_model, agent, n2o_ref, case)
+    tissues = _tissues(uptake_model, agent, n2o_ref, case, physiology)
     state = _initial_state(flows, inputs, tissues, case)
     held_start = case.circle_volume_l * state.fc + case.frc_l * state.fa
 

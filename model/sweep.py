@@ -59,7 +59,12 @@ class SweepResult:
 
 
 def flow_sweep(
-    plan: CasePlan, reference: Reference = DEFAULT_REFERENCE, flows_l_min=None, phase: int | None = None
+    plan: CasePlan,
+    reference: Reference = DEFAULT_REFERENCE,
+    flows_l_min=None,
+    phase: int | None = None,
+    *,
+    physiology=None,
 ) -> SweepResult:
     """Consumption, cost and CO2e of a plan as functions of one phase's fresh gas flow.
 
@@ -74,6 +79,9 @@ def flow_sweep(
     phase : int, optional
         Index (0-based) of the phase whose flow varies; default the longest phase
         (maintenance).
+    physiology : mapping of float, optional
+        Multipliers of the model's uncertain physiology, one value each
+        (:mod:`model.physiology`); None is the central model.
 
     Returns
     -------
@@ -111,7 +119,7 @@ def flow_sweep(
     if p.target_mac is not None:
         target = float(p.target_mac)
     else:
-        base = simulate_plan(plan, reference)
+        base = simulate_plan(plan, reference, physiology=physiology)
         target = float(base["phase_end_tidal_mac"][phase, 0])
     n = flows.size
 
@@ -130,7 +138,14 @@ def flow_sweep(
     tgt = np.array([[np.nan if q.target_mac is None else q.target_mac] for q in plan.phases]).repeat(n, axis=1)
     dial[phase], tgt[phase] = np.nan, target
     sim = simulate_plan(
-        plan, reference, oxygen_l_min=o2, air_l_min=air, nitrous_oxide_l_min=n2o, dial_pct=dial, target_mac=tgt
+        plan,
+        reference,
+        oxygen_l_min=o2,
+        air_l_min=air,
+        nitrous_oxide_l_min=n2o,
+        dial_pct=dial,
+        target_mac=tgt,
+        physiology=physiology,
     )
     totals, _ = simulation_totals(
         sim,

@@ -194,7 +194,7 @@ def lowe_priming_ml(alveolar_pct, circuit_volume_l, frc_l):
     )
 
 
-def tissue_compartments(model, species, blood_gas, weight_kg, cardiac_output_l_min):
+def tissue_compartments(model, species, blood_gas, weight_kg, cardiac_output_l_min, physiology=None):
     """Conductances and capacities of the tissue compartments of one species.
 
     Parameters
@@ -207,6 +207,13 @@ def tissue_compartments(model, species, blood_gas, weight_kg, cardiac_output_l_m
         Blood/gas partition coefficient of the species. [1]
     weight_kg, cardiac_output_l_min : array_like, shape (n,)
         Patient weight [kg] and cardiac output [L/min].
+    physiology : mapping, optional
+        Multipliers of the compartment model's uncertain values, each a scalar or shape
+        (n,) (:mod:`model.physiology`): ``tissue_blood_vessel_rich``, ``tissue_blood_muscle``,
+        ``tissue_blood_fat``, ``volume_muscle``, ``volume_fat``, ``flow_muscle``,
+        ``flow_fat`` (the vessel-rich group takes the rest of the cardiac output). Missing
+        keys, or None, leave the central values exactly; the "lowe" model has no tissue
+        groups and ignores them. [1]
 
     Returns
     -------
@@ -241,6 +248,8 @@ def tissue_compartments(model, species, blood_gas, weight_kg, cardiac_output_l_m
         share = np.array([TISSUE_FLOW_SHARE[g].value for g in TISSUE_GROUPS])[:, None]
         vol = np.array([TISSUE_VOLUME_L_PER_KG[g].value for g in TISSUE_GROUPS])[:, None]
         tb = np.array([table[g].value for g in TISSUE_GROUPS])[:, None]
+        if physiology is not None:
+            share, vol, tb = _scaled_groups(share, vol, tb, physiology)
         G = share * q[None, :] * blood_gas
         C = vol * w[None, :] * tb * blood_gas
         return G, C
@@ -253,6 +262,29 @@ def tissue_compartments(model, species, blood_gas, weight_kg, cardiac_output_l_m
     taus = LOWE_TAUS_MIN[:, None]
     G = weights * amplitude[None, :]
     return G, G * taus
+
+
+def _scaled_groups(share, vol, tb, physiology):
+    """Flow shares, volumes and tissue/blood coefficients times their multipliers, shape (3, n) or (3, 1).
+
+    The muscle and fat flow shares scale; the vessel-rich group keeps the rest of the cardiac
+    output, written as ``share + sum of (1 - m) share`` so that multipliers of exactly 1 give
+    the central shares exactly.
+    """
+
+    def m(key):
+        return np.atleast_1d(np.asarray(physiology.get(key, 1.0), dtype=float))
+
+    flow_muscle, flow_fat = m("flow_muscle"), m("flow_fat")
+    vrg_share = share[0] + share[1] * (1.0 - flow_muscle) + share[2] * (1.0 - flow_fat)
+    share = np.stack(np.broadcast_arrays(np.maximum(vrg_share, 0.05), share[1] * flow_muscle, share[2] * flow_fat))
+    vol = np.stack(np.broadcast_arrays(vol[0], vol[1] * m("volume_muscle"), vol[2] * m("volume_fat")))
+    tb = np.stack(
+        np.broadcast_arrays(
+            tb[0] * m("tissue_blood_vessel_rich"), tb[1] * m("tissue_blood_muscle"), tb[2] * m("tissue_blood_fat")
+        )
+    )
+    return share, vol, tb
 
 
 def constant_alveolar_uptake_l(t_min, G, C):

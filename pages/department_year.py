@@ -1,4 +1,4 @@
-"""Department year: a case mix under one practice, scaled to a year with uncertainty bands."""
+"""Department year: a case mix under one practice, scaled to a year with P5-P95 ranges."""
 
 from __future__ import annotations
 
@@ -27,7 +27,7 @@ from ui import year_views as yv
 view = ui.page_start(
     "Department year",
     "A department's case mix scaled to a year: bottles per month, "
-    "gases, absorbent, cost and CO2e, with P5-P95 bands from sampled durations, "
+    "gases, absorbent, cost and CO2e, with P5-P95 ranges from sampled durations, "
     "adherence, prices and GWP source.",
 )
 ref = ui.reference(view)
@@ -170,9 +170,20 @@ with st.expander("Practice change and uncertainty", expanded=False, icon=":mater
     draws = c3.number_input("Monte Carlo draws", 100, MAX_DRAWS, s.draws, 500, key=f"dy_draws_{name}")
     seed = c3.number_input("Seed", 0, 2**31 - 1, s.seed, 1, key=f"dy_seed_{name}")
     spread = c3.number_input("Price spread (SD of ln price)", 0.0, 1.0, s.price_spread, 0.05, key=f"dy_ps_{name}")
+    model_unc = c3.checkbox(
+        "P5-P95 ranges include model physiology",
+        value=False,
+        key=f"dy_model_unc_{name}",
+        help=(
+            "Let the P5-P95 ranges also draw the uptake model's uncertain physiology (partition "
+            "coefficients, tissue volumes and flows, cardiac output, O2 consumption, ventilation, "
+            "circle volume), beside the case mix and prices; slower. Method and sources: Methods "
+            "and Validation pages."
+        ),
+    )
     horizon = [k for k in GWP_SOURCES if k != "user" and GWP_SOURCES[k].horizon_years == view.gwp_horizon_years]
     gwps = st.multiselect(
-        "GWP sources drawn in the bands (empty: the sidebar's source only)",
+        "GWP sources drawn in the P5-P95 ranges (empty: the sidebar's source only)",
         horizon,
         default=[k for k in s.gwp_sources if k in horizon],
         format_func=lambda k: GWP_SOURCES[k].label,
@@ -204,7 +215,7 @@ scenario = replace(
 )
 try:
     with st.spinner("Sampling the year..."):
-        result = yv.run_year(scenario, ref, ref_key)
+        result = yv.run_year(scenario, ref, ref_key, model_unc)
 except InputError as err:
     ui.show_input_error(err)
     if last_key not in ss:
@@ -227,7 +238,7 @@ st.subheader("The year")
 unsafe = ui.cautions.unsafe_banner(result.warnings, "the practice of this year")
 st.caption(
     f"{t['cases']:,.0f} cases; {result.n_draws:,} draws (seed {result.seed}). "
-    f"Expected values under {result.inputs.gwp_label}, with P5-P95 under each"
+    f"Expected values under {result.inputs.gwp_label}, with the {result.range_label} under each"
     + (
         f" (the P5-P95 ranges draw the GWP sources {', '.join(ref.gwp_sources[g].label for g in gwps)}, "
         "so a value can sit near one end of its range)"
@@ -259,8 +270,11 @@ figs = [
     ("Bottles bought per month", year_charts.monthly_bottles_figure(result.monthly)),
     ("Cost per month", year_charts.monthly_cost_figure(result.monthly, cur)),
     ("CO2e by source", year_charts.co2e_by_source_figure(t)),
-    ("Cumulative CO2e", year_charts.fan_figure(result.fan, "cumulative t CO2e", "t CO2e", CO2E_COLOUR)),
-    ("Cumulative cost", year_charts.fan_figure(result.fan, "cumulative cost", cur)),
+    (
+        "Cumulative CO2e",
+        year_charts.fan_figure(result.fan, "cumulative t CO2e", "t CO2e", CO2E_COLOUR, result.range_label),
+    ),
+    ("Cumulative cost", year_charts.fan_figure(result.fan, "cumulative cost", cur, range_label=result.range_label)),
 ]
 g1, g2 = st.columns(2)
 g1.plotly_chart(figs[0][1], width="stretch", key="dy_fig_bottles")
@@ -297,8 +311,9 @@ inputs = {
     "case mix": f"{len(mix.types)} case types, {t['cases']:,.0f} cases per year (table 'Case mix')",
     **ui.provenance.in_use(view, ref, own),
     "GWP source": result.inputs.gwp_label,
-    "GWP sources drawn in the bands": ", ".join(ref.gwp_sources[g].label for g in scenario.sampling.gwp_sources)
+    "GWP sources drawn in the P5-P95 ranges": ", ".join(ref.gwp_sources[g].label for g in scenario.sampling.gwp_sources)
     or "the GWP source only",
+    "P5-P95 ranges": result.range_label,
     "draws": result.n_draws,
     "seed": result.seed,
     "price spread (SD of ln price)": f"{scenario.sampling.price_spread:g}",

@@ -114,3 +114,26 @@ def test_every_ipcc_value_and_lifetime_has_its_table_check():
 
     assert {k: set(s.values) for k, s in MAC_SETS.items()} == {k: set(t) for k, t in MAC40_TABLES.items()}
     assert {f"ar5-table-gwp100-{a}" for a in AR5_TABLE_8A1_GWP100} <= ids
+
+
+def test_validation_page_shows_the_spread_of_the_figures_over_the_model_physiology():
+    # Every uncertain parameter with its spread and basis, the from-memory ones listed, the
+    # figures' P5-P95 and the one-at-a-time table, and the label the year's bands then carry.
+    from model.physiology import PHYSIOLOGY_SPREAD
+
+    page = (ROOT / "docs" / "validation.md").read_text(encoding="utf-8")
+    section = page[page.index("## Uncertainty of the model's physiology") :]
+    for p in PHYSIOLOGY_SPREAD:
+        assert f"(`{p.key}`) | {p.sigma:g} |" in section
+    memory = section[section.index("### Spreads from memory") :]
+    for p in PHYSIOLOGY_SPREAD:
+        assert (f"(`{p.key}`): SD of ln" in memory) == (p.basis == "from memory")
+    for text in (
+        "liquid agent of a case, end-tidal target at 0.5 L/min",
+        "flow sweep's lowest-cost flow",
+        "a year's saving from the change of practice",
+        "Which parameter moves each figure most",
+        "P5-P95 ranges over case mix, prices and model physiology",
+        "methods.md#physiology-uncertainty",
+    ):
+        assert text in section

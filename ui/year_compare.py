@@ -33,7 +33,7 @@ MAX_PROPOSALS = 6
 
 
 def render(view) -> None:
-    """Draw the year comparison: choices, paired differences with bands, chart, downloads."""
+    """Draw the year comparison: choices, paired differences with P5-P95 ranges, chart, downloads."""
     ss = st.session_state
     ref = ui.reference(view)
     ref_key = ui.reference_key(view)
@@ -89,6 +89,7 @@ def render(view) -> None:
         return
 
     first = next(iter(comps.values()))
+    st.caption(f"{first.baseline.range_label}.")
     warnings = by_severity([w for c in comps.values() for w in c.warnings])
     unsafe_names = ([b_name] if first.baseline.unsafe else []) + [n for n, c in comps.items() if c.proposal.unsafe]
     if unsafe_names:
@@ -137,6 +138,7 @@ def render(view) -> None:
     inputs.update(
         {
             "GWP source": first.baseline.inputs.gwp_label,
+            "P5-P95 ranges": first.baseline.range_label,
             "paired draws": first.baseline.n_draws,
             "seed": first.baseline.seed,
         }

@@ -84,9 +84,9 @@ def _key(*parts) -> str:
 
 
 @st.cache_resource(show_spinner=False, max_entries=16)
-def year_cached(key: str, _scenario: Scenario, _ref: Reference):
+def year_cached(key: str, _scenario: Scenario, _ref: Reference, model_uncertainty: bool = False):
     """The year of a scenario, cached under ``key`` (the arguments with ``_`` are not hashed)."""
-    return compute_year(_scenario, _ref)
+    return compute_year(_scenario, _ref, model_uncertainty=model_uncertainty)
 
 
 @st.cache_resource(show_spinner=False, max_entries=16)
@@ -95,9 +95,12 @@ def compare_cached(key: str, _baseline: Scenario, _proposal: Scenario, _ref: Ref
     return compare_years(_baseline, _proposal, _ref)
 
 
-def run_year(scenario: Scenario, ref: Reference, ref_key: str):
-    """The year of a scenario under the reference values in use, computed once per scenario and reference."""
-    return year_cached(_key(scenario, ref_key), scenario, ref)
+def run_year(scenario: Scenario, ref: Reference, ref_key: str, model_uncertainty: bool = False):
+    """The year of a scenario under the reference values in use, computed once per scenario and reference.
+
+    ``model_uncertainty``: the P5-P95 ranges also draw the uptake model's physiology (slower).
+    """
+    return year_cached(_key(scenario, ref_key, model_uncertainty), scenario, ref, model_uncertainty)
 
 
 def run_compare(baseline: Scenario, proposal: Scenario, ref: Reference, ref_key: str):

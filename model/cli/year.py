@@ -53,14 +53,14 @@ def _num(value: float, unit: str) -> str:
 
 
 def cmd_year(args) -> int:
-    """The ``year`` command: a department's year from a scenario, with P5-P95 bands; the exit code."""
+    """The ``year`` command: a department's year from a scenario, with P5-P95 ranges; the exit code."""
     from model.io.scenario import load_scenario
     from model.year.compare import nonzero_rows
     from model.year.result import compute_year
 
     draws, seed = _options(args)
     scenario = load_scenario(args.scenario)
-    result = compute_year(scenario, _reference(args), draws=draws, seed=seed)
+    result = compute_year(scenario, _reference(args), draws=draws, seed=seed, model_uncertainty=args.model_uncertainty)
     if args.json:
         print_json(result.to_dict(), sys.stdout)
         return 0
@@ -69,6 +69,7 @@ def cmd_year(args) -> int:
         f"{result.n_draws} draws, seed {result.seed})"
     )
     print(f"MAC at age 40: {result.inputs.mac_label}")
+    print(f"{result.range_label}.")
     print()
     rows = [
         {
@@ -106,7 +107,9 @@ def cmd_compare(args) -> int:
     draws, seed = _options(args)
     baseline = load_scenario(args.baseline)
     proposal = load_scenario(args.proposal)
-    comp = compare_years(baseline, proposal, _reference(args), draws=draws, seed=seed)
+    comp = compare_years(
+        baseline, proposal, _reference(args), draws=draws, seed=seed, model_uncertainty=args.model_uncertainty
+    )
     if args.json:
         print_json(comp.to_dict(), sys.stdout)
         return 0
@@ -114,6 +117,7 @@ def cmd_compare(args) -> int:
     print(f"{proposal.name}  minus  {baseline.name}")
     print(f"({b.inputs.gwp_label}; {b.n_draws} paired draws, seed {b.seed}; negative = the proposal saves)")
     print(f"MAC at age 40: {b.inputs.mac_label}")
+    print(f"{b.range_label}.")
     print()
     rows = []
     for r in nonzero_rows(comp.summary, ("baseline", "proposal", "p5", "p95")).to_dict("records"):
@@ -150,19 +154,27 @@ def _tail(warnings, notes):
     print(CAUTION)
 
 
+_MODEL_UNCERTAINTY_HELP = (
+    "let the P5-P95 ranges also draw the uptake model's uncertain physiology (partition coefficients, "
+    "tissue volumes and flows, cardiac output, O2 consumption, ventilation, circle volume); slower"
+)
+
+
 def register(sub) -> None:
     """Add ``year`` and ``compare`` to the ``gas-ledger`` sub-command parser."""
     p = sub.add_parser("year", help="a department's year from a scenario: totals, months, P5/P50/P95")
     p.add_argument("scenario", help="scenario file (TOML) naming its case-mix file (CSV)")
     p.add_argument("--draws", metavar="N", help="Monte Carlo draws (default: the scenario's)")
     p.add_argument("--seed", metavar="S", help="random seed (default: the scenario's)")
+    p.add_argument("--model-uncertainty", action="store_true", help=_MODEL_UNCERTAINTY_HELP)
     p.add_argument("--json", action="store_true", help="machine-readable output")
     p.set_defaults(func=cmd_year)
 
-    p = sub.add_parser("compare", help="what a proposal changes against a baseline, with paired bands")
+    p = sub.add_parser("compare", help="what a proposal changes against a baseline, with paired P5-P95 ranges")
     p.add_argument("baseline", help="baseline scenario file (TOML)")
     p.add_argument("proposal", help="proposal scenario file (TOML)")
     p.add_argument("--draws", metavar="N", help="Monte Carlo draws (default: the baseline's)")
     p.add_argument("--seed", metavar="S", help="random seed (default: the baseline's)")
+    p.add_argument("--model-uncertainty", action="store_true", help=_MODEL_UNCERTAINTY_HELP)
     p.add_argument("--json", action="store_true", help="machine-readable output")
     p.set_defaults(func=cmd_compare)

@@ -80,8 +80,13 @@ def co2e_by_source_figure(totals: dict) -> go.Figure:
     return _style(fig, "CO2e by source", 300)
 
 
-def fan_figure(fan: pd.DataFrame, figure: str, unit: str, colour: str = COST_COLOUR) -> go.Figure:
-    """Cumulative figure through the year: P50 line inside its P5-P95 range."""
+def fan_figure(
+    fan: pd.DataFrame, figure: str, unit: str, colour: str = COST_COLOUR, range_label: str = "P5-P95"
+) -> go.Figure:
+    """Cumulative figure through the year: P50 line inside its P5-P95 range.
+
+    ``range_label`` names the range in the legend (a year's ``range_label``: what it holds).
+    """
     d = fan[fan["figure"] == figure]
     x = list(d["month"])
     fig = go.Figure()
@@ -92,7 +97,7 @@ def fan_figure(fan: pd.DataFrame, figure: str, unit: str, colour: str = COST_COL
             fill="toself",
             fillcolor=rgba(colour, 0.18),
             line=dict(width=0),
-            name="P5-P95",
+            name=range_label,
             hoverinfo="skip",
         )
     )

@@ -1,4 +1,4 @@
-"""A department's year from its case mix: totals, months, uncertainty bands and comparisons.
+"""A department's year from its case mix: totals, months, P5-P95 ranges and comparisons.
 
 How a year is computed
 ----------------------
@@ -24,7 +24,10 @@ each total moves with those minutes by its regression slope on them, which carri
 Uncertainty (seeded, reproducible): per draw, the year's minutes of each type, the share
 of cases following the practice change (triangular), every unit price (log-normal around
 the given price), and the GWP source (drawn among the listed ones). Paired comparisons
-use the same draws for both scenarios, so their difference has its own P5-P95 range.
+use the same draws for both scenarios, so their difference has its own P5-P95 range. With
+``model_uncertainty`` the P5-P95 ranges also draw the uptake model's physiology (:mod:`model.physiology`),
+and every result says what its P5-P95 ranges hold (``range_label``); :func:`physiology_spread` gives
+the spread of the figures that decide practice over those draws alone.
 """
 
 import lazy_loader as _lazy

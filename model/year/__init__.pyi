@@ -19,3 +19,7 @@ from .result import compute_year as compute_year
 from .result import headline_figures as headline_figures
 from .simulate import YearInputs as YearInputs
 from .simulate import year_inputs as year_inputs
+from .uncertainty import PhysiologySpread as PhysiologySpread
+from .uncertainty import low_flow_target_plan as low_flow_target_plan
+from .uncertainty import physiology_spread as physiology_spread
+from .uncertainty import sensitivity_table as sensitivity_table

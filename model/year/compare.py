@@ -11,8 +11,8 @@ from model.base.jsonable import to_json_value
 from model.cautions import STANDING_CAUTION, by_severity, cautions_as_records
 from model.reference import DEFAULT_REFERENCE, VOLATILES, Reference
 from model.year.inputs import Scenario
-from model.year.result import YearResult, _result, headline_figures
-from model.year.sampling import _central, _percentiles, _sampled, make_draws
+from model.year.result import YearResult, _result, headline_figures, physiology_year_inputs
+from model.year.sampling import _central, _percentiles, _sampled, _sampled_physiology, make_draws, range_label
 from model.year.simulate import _year_inputs_many
 
 
@@ -48,6 +48,7 @@ class Comparison:
             "mac_set_label": self.baseline.inputs.mac_label,
             "draws": self.baseline.n_draws,
             "seed": self.baseline.seed,
+            "range_label": self.baseline.range_label,
             "difference": {
                 r["key"]: to_json_value({k: r[k] for k in ("baseline", "proposal", "difference", "p5", "p50", "p95")})
                 for r in self.summary.to_dict("records")
@@ -70,13 +71,16 @@ def compare_years(
     *,
     draws: int | None = None,
     seed: int | None = None,
+    model_uncertainty: bool = False,
 ) -> Comparison:
     """Paired comparison: both scenarios over the same draws (the baseline's sampling settings).
 
     The proposal is computed with the baseline's GWP source, GWP sampling, price spread,
     draws and seed, so the two differ only where the scenarios do. Differences are
     proposal minus baseline, draw by draw, so a scenario compared with itself differs by
-    exactly zero.
+    exactly zero. With ``model_uncertainty`` the P5-P95 ranges also draw the uptake model's
+    physiology, the same draw for baseline and proposal
+    (:func:`model.year.result.physiology_year_inputs`).
 
     Raises
     ------
@@ -97,11 +101,17 @@ def compare_years(
     sd = s.seed if seed is None else int(seed)
     shared = make_draws(b_inp.names + p_inp.names, n, sd)
     b_c, b_cm = _central(b_inp)
-    b_s, b_sm = _sampled(b_inp, shared, s.price_spread)
     p_c, p_cm = _central(p_inp)
-    p_s, p_sm = _sampled(p_inp, shared, s.price_spread)
+    if model_uncertainty:
+        pairs = physiology_year_inputs([baseline, proposal], reference, sd)
+        b_s, b_sm = _sampled_physiology([pair[0] for pair in pairs], shared, s.price_spread)
+        p_s, p_sm = _sampled_physiology([pair[1] for pair in pairs], shared, s.price_spread)
+    else:
+        b_s, b_sm = _sampled(b_inp, shared, s.price_spread)
+        p_s, p_sm = _sampled(p_inp, shared, s.price_spread)
     b_res = _result(baseline, b_inp, b_c, b_cm, b_s, b_sm, shared)
     p_res = _result(proposal, p_inp, p_c, p_cm, p_s, p_sm, shared)
+    b_res.range_label = p_res.range_label = range_label(model_uncertainty)
     diff = {k: p_s[k] - b_s[k] for k in b_s}
     rows = []
     for key, label, unit in headline_figures(b_inp.currency):

@@ -1,4 +1,4 @@
-"""The year of a scenario: central figures, P5/P50/P95 bands, months, per-type table and notes."""
+"""The year of a scenario: central figures, P5/P50/P95 ranges, months, per-type table and notes."""
 
 from __future__ import annotations
 
@@ -10,11 +10,23 @@ import pandas as pd
 from model.base.errors import InputError
 from model.base.jsonable import to_json_value
 from model.cautions import STANDING_CAUTION, cautions_as_records, is_unsafe
+from model.physiology import draw_physiology
 from model.reference import DEFAULT_REFERENCE, GWP_SOURCES, VOLATILES, Reference
 from model.year.inputs import MONTHS, Scenario
 from model.year.nodes import NODE_Z
-from model.year.sampling import Draws, _central, _percentiles, _sampled, make_draws
-from model.year.simulate import _EMIT, _LIQ, _Q, GASES, YearInputs, year_inputs
+from model.year.sampling import (
+    PHYSIOLOGY_STREAM,
+    PHYSIOLOGY_YEAR_DRAWS,
+    RANGE_LABEL,
+    Draws,
+    _central,
+    _percentiles,
+    _sampled,
+    _sampled_physiology,
+    make_draws,
+    range_label,
+)
+from model.year.simulate import _EMIT, _LIQ, _Q, GASES, YearInputs, _year_inputs_many, year_inputs
 
 
 def _label(agent: str) -> str:
@@ -56,7 +68,7 @@ def headline_figures(currency: str) -> list[tuple[str, str, str]]:
 
 @dataclass
 class YearResult:
-    """A scenario's year: deterministic totals, months, types, and Monte Carlo bands."""
+    """A scenario's year: deterministic totals, months, types, and Monte Carlo P5-P95 ranges."""
 
     scenario: Scenario
     inputs: YearInputs
@@ -70,6 +82,9 @@ class YearResult:
     n_draws: int
     seed: int
     notes: list[str] = field(default_factory=list)
+    #: What the P5-P95 ranges hold (:data:`model.year.sampling.RANGE_LABEL` or its
+    #: ``RANGE_LABEL_PHYSIOLOGY``).
+    range_label: str = RANGE_LABEL
 
     @property
     def currency(self) -> str:
@@ -105,7 +120,8 @@ class YearResult:
             "car_factor_source": self.scenario.car_source,
             "totals": to_json_value(self.totals),
             "per_case": to_json_value(self.per_case),
-            "bands": {
+            "range_label": self.range_label,
+            "ranges": {
                 r["key"]: to_json_value({"p5": r["p5"], "p50": r["p50"], "p95": r["p95"]})
                 for r in self.summary.to_dict("records")
             },
@@ -241,8 +257,9 @@ def compute_year(
     draws: int | None = None,
     seed: int | None = None,
     shared: Draws | None = None,
+    model_uncertainty: bool = False,
 ) -> YearResult:
-    """A scenario's year with Monte Carlo bands.
+    """A scenario's year with Monte Carlo P5-P95 ranges.
 
     Parameters
     ----------
@@ -254,12 +271,17 @@ def compute_year(
         Override the scenario's number of draws and seed.
     shared : Draws, optional
         Use these draws (paired comparisons); overrides ``draws`` and ``seed``.
+    model_uncertainty : bool
+        Let the P5-P95 ranges include the uncertain physiology of the uptake model as well
+        (:func:`physiology_year_inputs`); the deterministic totals stay the central model's.
+        Default False: P5-P95 ranges of case mix and prices only, as before.
 
     Returns
     -------
     YearResult
         Deterministic totals (central adherence, given prices, the scenario's GWP source,
-        mean durations) and P5/P50/P95 of every headline figure over the draws.
+        mean durations) and P5/P50/P95 of every headline figure over the draws, with
+        ``range_label`` saying what the P5-P95 ranges hold.
     """
     inp = year_inputs(scenario, reference)
     if shared is None:
@@ -270,8 +292,40 @@ def compute_year(
     if missing:
         raise InputError("draws", missing[0], "the shared draws lack this case type")
     central, central_months = _central(inp)
-    sampled, sampled_months = _sampled(inp, shared, scenario.sampling.price_spread)
-    return _result(scenario, inp, central, central_months, sampled, sampled_months, shared)
+    if model_uncertainty:
+        inputs = [ins[0] for ins in physiology_year_inputs([scenario], reference, shared.seed)]
+        sampled, sampled_months = _sampled_physiology(inputs, shared, scenario.sampling.price_spread)
+    else:
+        sampled, sampled_months = _sampled(inp, shared, scenario.sampling.price_spread)
+    res = _result(scenario, inp, central, central_months, sampled, sampled_months, shared)
+    res.range_label = range_label(model_uncertainty)
+    return res
+
+
+def physiology_year_inputs(scenarios, reference: Reference, seed: int, n: int = PHYSIOLOGY_YEAR_DRAWS) -> list:
+    """Year inputs of scenarios under ``n`` seeded draws of the model's physiology.
+
+    Parameters
+    ----------
+    scenarios : sequence of Scenario
+        Scenarios computed with the same physiology draws (a baseline and its proposal).
+    reference : Reference
+        Reference data.
+    seed : int
+        The year's seed; the physiology draws are seeded by it and
+        :data:`model.year.sampling.PHYSIOLOGY_STREAM`.
+    n : int
+        Number of physiology draws.
+
+    Returns
+    -------
+    list of list of YearInputs
+        ``n`` entries, each the scenarios' year inputs under one draw of
+        :func:`model.physiology.draw_physiology` (spreads and sources in
+        :data:`model.physiology.PHYSIOLOGY_SPREAD`).
+    """
+    phys = draw_physiology(n, [int(seed), PHYSIOLOGY_STREAM])
+    return [_year_inputs_many(list(scenarios), reference, {k: float(v[m]) for k, v in phys.items()}) for m in range(n)]
 
 
 def _result(scenario, inp, central, central_months, sampled, sampled_months, shared) -> YearResult:

@@ -236,7 +236,11 @@ _SIM_CACHE: dict = {}
 _SIM_CACHE_SIZE = 16
 
 
-def simulate_subplans(subplans: list[SubPlan], ref: Reference) -> dict:
+def _physiology_key(physiology) -> tuple:
+    return () if physiology is None else tuple(sorted((k, float(v)) for k, v in physiology.items()))
+
+
+def simulate_subplans(subplans: list[SubPlan], ref: Reference, physiology=None) -> dict:
     """Simulate every sub-plan at its duration nodes with the circle model; fill ``totals``.
 
     All sub-plans of one agent (and the same scalar settings) run as ONE vectorised
@@ -246,6 +250,8 @@ def simulate_subplans(subplans: list[SubPlan], ref: Reference) -> dict:
     fewer phases before (after) it gets zero-minute phases in front (at the end) that copy
     its first (last) phase's flows, in dial mode (the first phase's dial, or 0 when that phase
     holds a target, as the simulation starts), which leave the simulated case unchanged.
+    ``physiology`` (one float per key of :data:`model.physiology.PHYSIOLOGY_KEYS`, or None
+    for the central model) scales the model's uncertain physiology for every column.
 
     Returns
     -------
@@ -268,7 +274,13 @@ def simulate_subplans(subplans: list[SubPlan], ref: Reference) -> dict:
     for gkey, g in groups.items():
         specs = g["specs"]
         agent = ref.volatile(gkey[0])
-        cache_key = (gkey, repr(agent), repr(ref.agents["nitrous_oxide"]), tuple(g["cols"]))
+        cache_key = (
+            gkey,
+            repr(agent),
+            repr(ref.agents["nitrous_oxide"]),
+            tuple(g["cols"]),
+            _physiology_key(physiology),
+        )
         if cache_key in _SIM_CACHE:
             g.update(_SIM_CACHE[cache_key])
             facts[gkey] = g
@@ -320,6 +332,7 @@ def simulate_subplans(subplans: list[SubPlan], ref: Reference) -> dict:
             ratio_behaviour=s0.ratio_behaviour,
             inspired_o2_floor=s0.inspired_o2_floor,
             nitrous_oxide=ref.agents["nitrous_oxide"],
+            physiology=physiology,
         )
         tot, _ = simulation_totals(
             sim,
@@ -351,23 +364,26 @@ def simulate_subplans(subplans: list[SubPlan], ref: Reference) -> dict:
     return {"groups": facts, "where": where}
 
 
-def year_inputs(scenario: Scenario, reference: Reference = DEFAULT_REFERENCE) -> YearInputs:
+def year_inputs(scenario: Scenario, reference: Reference = DEFAULT_REFERENCE, physiology=None) -> YearInputs:
     """Per-type intercepts and per-minute slopes of a scenario, and its prices and GWPs.
+
+    ``physiology``: multipliers of the model's uncertain physiology, one float each
+    (:mod:`model.physiology`); None is the central model.
 
     Raises
     ------
     InputError
         A GWP source lacks a value for an agent the mix uses; prices are malformed.
     """
-    return _year_inputs_many([scenario], reference)[0]
+    return _year_inputs_many([scenario], reference, physiology)[0]
 
 
-def _year_inputs_many(scenarios, reference: Reference) -> list[YearInputs]:
+def _year_inputs_many(scenarios, reference: Reference, physiology=None) -> list[YearInputs]:
     """Year inputs of several scenarios with their simulations in shared calls (one per agent)."""
     refs = [s.reference(reference) for s in scenarios]
     subs = [_subplans(s, r) for s, r in zip(scenarios, refs, strict=True)]
     flat = [sp for group in subs for sp in group]
-    run = simulate_subplans(flat, refs[0]) if flat else {"groups": {}, "where": []}
+    run = simulate_subplans(flat, refs[0], physiology) if flat else {"groups": {}, "where": []}
     # Which (group, column) each sub-plan node used, for the warnings.
     cols_of: dict[int, list] = {}
     for si, _k, gkey, c in run["where"]:

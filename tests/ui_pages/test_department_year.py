@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import json
+
 from streamlit.testing.v1 import AppTest
 
 from model.store import Store
@@ -62,6 +64,7 @@ def test_compare_page_year_tab_shows_paired_difference():
     assert "Change in cost" in labels
     value = next(m.value for m in at.metric if m.label == "Change in cost")
     assert value.startswith("-")  # the demo proposal saves money
+    assert any(c.value == "P5-P95 ranges over case mix and prices." for c in at.caption)
 
 
 def walk(node):
@@ -282,3 +285,22 @@ def test_year_follows_the_sidebar_room_temperature_like_the_case_plan():
     # Ideal gas (docs/methods.md, Vapour from liquid): warmer liquid gives more vapour per mL, so less liquid for the
     # same dial; the year must move with the sidebar's temperature as a single case does.
     assert _per_case_liquid_ml(at) < cool
+
+
+def test_year_bands_say_whether_they_include_model_physiology():
+    # Default: the bands are of case mix and prices, and the caption and inputs say so; the
+    # option widens what they hold, leaves the expected figures alone, and says so too.
+    at = _page("department_year.py")
+    cost = _metric(at, "Cost (GBP)")
+    assert any("P5-P95 ranges over case mix and prices under each" in c.value for c in at.caption)
+    assert not any("model physiology" in c.value for c in at.caption)
+    key = next(c.key for c in at.checkbox if c.key and c.key.startswith("dy_model_unc_"))
+    at.checkbox(key=key).check()
+    at.run(timeout=300)
+    assert not at.exception, [e.message for e in at.exception]
+    assert any("P5-P95 ranges over case mix, prices and model physiology under each" in c.value for c in at.caption)
+    assert _metric(at, "Cost (GBP)") == cost
+    # The charts' ranges carry the same label in their legends.
+    charts = [json.loads(c.proto.spec) for c in at.get("plotly_chart")]
+    names = {t.get("name") for c in charts for t in c["data"]}
+    assert "P5-P95 ranges over case mix, prices and model physiology" in names

@@ -130,7 +130,7 @@ def test_a_hand_worked_case():
     assert (minutes, gap_min, et_min, o2_l, vapour, longest) == (2.0, 13.0, 0.0, 6.0, 12.0, 1.0)
     # Rebreathed share max(1 - FGF/VE, 0) (common practice, no source): 5/6 for 1 min + 1/6 for 1 min.
     assert rebreathed == pytest.approx(5 / 6 + 1 / 6)
-    # Bands: 1 L/min is at the "low" edge (in that band), 5 L/min is "very high".
+    # Flow bands: 1 L/min is at the "low" edge (in that band), 5 L/min is "very high".
     assert list(band_min[0]) == [0, 0, 1.0, 0, 0, 1.0]
 
 

@@ -26,7 +26,7 @@ def test_year_json_is_machine_readable(capsys):
     assert main(["year", BASE, "--draws", "100", "--seed", "5", "--json"]) == 0
     data = json.loads(capsys.readouterr().out)
     assert data["draws"] == 100 and data["seed"] == 5
-    assert data["bands"]["cost_total"]["p5"] <= data["bands"]["cost_total"]["p95"]
+    assert data["ranges"]["cost_total"]["p5"] <= data["ranges"]["cost_total"]["p95"]
     assert len(data["monthly"]) == 12
     assert data["car_factor_source"]
     # The notes say what the year models (the circle model, uptake, metabolism, absorbent).
@@ -92,3 +92,19 @@ def test_installed_command_exits_2_on_bad_input():
     )
     assert proc.returncode == 2
     assert proc.stderr.startswith("gas-ledger: ") and "Traceback" not in proc.stderr
+
+
+def test_bands_say_whether_they_hold_model_physiology(capsys):
+    # Without the option the bands are of case mix and prices, and say so; with
+    # --model-uncertainty they say they hold the model's physiology too (text and JSON).
+    assert main(["year", BASE, "--draws", "48"]) == 0
+    out = capsys.readouterr().out
+    assert "P5-P95 ranges over case mix and prices." in out and "model physiology" not in out
+    assert main(["year", BASE, "--draws", "48", "--model-uncertainty"]) == 0
+    assert "P5-P95 ranges over case mix, prices and model physiology." in capsys.readouterr().out
+    assert main(["compare", BASE, HALF, "--draws", "48", "--model-uncertainty", "--json"]) == 0
+    assert (
+        json.loads(capsys.readouterr().out)["range_label"] == "P5-P95 ranges over case mix, prices and model physiology"
+    )
+    assert main(["compare", BASE, HALF, "--draws", "48"]) == 0
+    assert "P5-P95 ranges over case mix and prices." in capsys.readouterr().out

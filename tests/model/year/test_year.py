@@ -279,7 +279,7 @@ def test_scenario_file_errors_name_the_field(tmp_path):
 def test_headline_keys_match_the_json():
     result = compute_year(_scenario(FIXED))
     keys = [k for k, _, _ in headline_figures(result.currency)]
-    assert list(result.to_dict()["bands"]) == keys
+    assert list(result.to_dict()["ranges"]) == keys
     assert set(keys) <= set(result.totals)
 
 
