@@ -58,12 +58,10 @@ def _quantity(
 
 
 def _share(value, info: pydantic.ValidationInfo):
-    """A share typed as 0.3, "30 %" or "0.3": stored as a fraction."""
+    """A share typed as 0.3, "30 %", "30 percent" or "0.3": stored as a fraction."""
     name = _field(info)
-    if isinstance(value, str) and "%" in value:
-        number = to_base(value, "percent", name) / 100.0
-    else:
-        number = to_base(value, "dimensionless", name)
+    # A plain number is a fraction; "30 %", "30 percent", "3000 ppm" are converted by pint.
+    number = to_base(value, "dimensionless", name)
     if not 0.0 <= number <= 1.0:
         raise InputError(name, value, "a share from 0 to 1 (e.g. 0.3 or '30 %')")
     return number
@@ -86,6 +84,7 @@ def _percent(value, info: pydantic.ValidationInfo):
     return check_range(to_base(value, "percent", _field(info)), _field(info), 0.0, 100.0, "%", typed=value)
 
 
+_PLAIN_NUMBER = re.compile(r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?")
 _MAC_SUFFIX = re.compile(r"^(?P<number>.*?)\s*(?:x\s*)?MAC$", re.IGNORECASE)
 
 
@@ -107,6 +106,8 @@ def _mac_target(value, info: pydantic.ValidationInfo):
                 "an end-tidal target is a MAC multiple such as 1.0 or '1.2 MAC', "
                 "not a percent; a setting in % is a vaporizer dial (give dial instead)",
             )
+        if not _PLAIN_NUMBER.fullmatch(value.strip()):
+            raise InputError(name, typed, "an end-tidal target is a MAC multiple such as 1.0 or '1.2 MAC'")
     number = to_base(value, "dimensionless", name)
     return check_range(number, name, 0.0, 3.0, "MAC", typed=typed)
 

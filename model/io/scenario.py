@@ -7,6 +7,7 @@ scenario files"). It names its case-mix file (CSV, :mod:`model.io.case_mix`) rel
 from __future__ import annotations
 
 import math
+import re
 from collections.abc import Mapping
 from pathlib import Path
 from typing import Annotated, Any
@@ -16,8 +17,9 @@ import tomli_w
 
 from model.base.errors import InputError
 from model.base.files import parse_toml, read_user_text
+from model.base.units import check_range, to_base
 from model.io.case_mix import load_case_mix
-from model.io.plans import GwpSourceName, Share, _first_error, _quantity, _Strict, format_of, volatile_key
+from model.io.plans import GwpSourceName, Share, _field, _first_error, _quantity, _Strict, format_of, volatile_key
 from model.reference import DEFAULT_GWP, GWP_SOURCES, Reference
 from model.year.inputs import DAYS_PER_MONTH, DEFAULT_CAR_FACTOR, MAX_DRAWS, CaseMix, Practice, Sampling, Scenario
 
@@ -81,10 +83,19 @@ class _SamplingIn(_Strict):
         return v
 
 
+_CO2E = re.compile(r"\s*\bCO2[- ]?eq?\b", re.IGNORECASE)
+
+
+def _car_factor(value, info: pydantic.ValidationInfo):
+    """Read a car's emission factor typed as 0.17, "0.17 kg/km", "170 g/km" or "0.17 kg CO2e/km" [kg/km]."""
+    name = _field(info)
+    text = _CO2E.sub("", value) if isinstance(value, str) else value
+    number = to_base(text, "kg/km", name)
+    return check_range(number, name, 0.0, 10.0, "kg CO2e/km", low_open=True, typed=value)
+
+
 class _EquivalenceIn(_Strict):
-    car_kg_co2e_per_km: Annotated[
-        float, _quantity("dimensionless", 0.0, 10.0, low_open=True, shown_unit="kg CO2e/km")
-    ] = DEFAULT_CAR_FACTOR.value  # type: ignore[assignment]  # a Sourced constant, 0.17, never None
+    car_kg_co2e_per_km: Annotated[float, pydantic.BeforeValidator(_car_factor)] = DEFAULT_CAR_FACTOR.value  # type: ignore[assignment]  # a Sourced constant, 0.17, never None
     car_source: Annotated[str, pydantic.StringConstraints(min_length=1, max_length=300)] = DEFAULT_CAR_FACTOR.source
 
 
