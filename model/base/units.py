@@ -85,7 +85,9 @@ def to_base(value, unit: str, field: str, default_unit: str | None = None) -> fl
         The text is not a quantity, the number is not finite, or the dimension is wrong.
     """
     default_unit = default_unit or unit
-    if isinstance(value, bool) or not isinstance(value, (int, float, str)):
+    if isinstance(value, bool):
+        raise InputError(field, str(value).lower(), "expected a number, not true or false")
+    if not isinstance(value, (int, float, str)):
         raise InputError(field, value, f"expected a number in {default_unit} or a quantity such as '1 {unit}'")
     try:
         return _convert(value, unit, default_unit)

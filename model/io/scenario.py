@@ -68,9 +68,19 @@ class _PracticeIn(_Strict):
         return self
 
 
+def _not_a_boolean(value, info: pydantic.ValidationInfo):
+    """Refuse ``true`` and ``false`` where a number is due (pydantic would read them as 1 and 0)."""
+    if isinstance(value, bool):
+        raise InputError(_field(info), str(value).lower(), "expected a number, not true or false")
+    return value
+
+
+NotBoolean = pydantic.BeforeValidator(_not_a_boolean)
+
+
 class _SamplingIn(_Strict):
-    draws: Annotated[int, pydantic.Field(ge=1, le=MAX_DRAWS)] = 2000
-    seed: Annotated[int, pydantic.Field(ge=0, le=2**63 - 1)] = 20260101
+    draws: Annotated[int, NotBoolean, pydantic.Field(ge=1, le=MAX_DRAWS)] = 2000
+    seed: Annotated[int, NotBoolean, pydantic.Field(ge=0, le=2**63 - 1)] = 20260101
     price_spread: Annotated[float, _quantity("dimensionless", 0.0, 1.0, shown_unit="")] = 0.0
     gwp_sources: list[str] = []
 
@@ -100,7 +110,9 @@ class _EquivalenceIn(_Strict):
 
 
 class _CalendarIn(_Strict):
-    month_weights: Annotated[list[float], pydantic.Field(min_length=12, max_length=12)] = list(DAYS_PER_MONTH)
+    month_weights: Annotated[list[Annotated[float, NotBoolean]], pydantic.Field(min_length=12, max_length=12)] = list(
+        DAYS_PER_MONTH
+    )
 
     @pydantic.field_validator("month_weights")
     @classmethod

@@ -94,3 +94,10 @@ def test_a_unit_of_another_dimension_is_refused_naming_the_field(text, unit, fie
     # Common practice, no source: a dimensionless unit is no unit of mass, flow or temperature.
     with pytest.raises(InputError, match=rf"^{field}: got '{re.escape(text)}'"):
         to_base(text, unit, field)
+
+
+@pytest.mark.parametrize("value", [True, False])
+def test_a_boolean_is_no_number(value):
+    # TOML 1.0 (toml.io): true and false are booleans; Python would take them as 1 and 0.
+    with pytest.raises(InputError, match=r"^o2: got '?(true|false)'?; expected a number, not true or false"):
+        to_base(value, "L/min", "o2")

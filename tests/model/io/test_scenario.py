@@ -50,3 +50,30 @@ def test_practice_shares_in_percent_or_ppm_keep_their_meaning(field, typed, want
     s = _scenario("practice", f"{field} = {typed}")
     got = s.practice.adherence if field == "adherence" else s.practice.maintenance_o2_share
     assert got == pytest.approx(want, rel=1e-12)
+
+
+@pytest.mark.parametrize(
+    "table, body, where",
+    [
+        # TOML 1.0 (toml.io): true and false are booleans, not the integers 1 and 0.
+        ("uncertainty", "draws = true", "uncertainty.draws"),
+        ("uncertainty", "seed = true", "uncertainty.seed"),
+        ("uncertainty", "seed = false", "uncertainty.seed"),
+        ("calendar", "month_weights = [true, 1, 1, 1, 1, 1, 1, 1, 1, 1, 1, 1]", r"calendar.month_weights\[1\]"),
+        ("calendar", "month_weights = [31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, false]", r"month_weights\[12\]"),
+        ("practice", "dial_factor = true", "practice.dial_factor"),
+        ("practice", "adherence = true", "practice.adherence"),
+        ("equivalence", "car_kg_co2e_per_km = true", "equivalence.car_kg_co2e_per_km"),
+        ("prices", "bottle = { sevoflurane = true }", "prices.bottle.sevoflurane"),
+    ],
+)
+def test_a_boolean_where_a_number_is_due_is_refused_naming_the_field(table, body, where):
+    with pytest.raises(InputError, match=rf"^s.toml: .*{where}: got .*(true|false|True|False)"):
+        _scenario(table, body)
+
+
+def test_whole_numbers_still_read_as_before():
+    s = _scenario("uncertainty", "draws = 10\nseed = 7")
+    assert (s.sampling.draws, s.sampling.seed) == (10, 7)
+    s = _scenario("calendar", "month_weights = [1, 1, 1, 1, 1, 1, 1, 1, 1, 1, 1, 2.5]")
+    assert s.month_weights == (1.0,) * 11 + (2.5,)
