@@ -30,6 +30,13 @@ from model.uptake import DEFAULT_UPTAKE_MODEL, UPTAKE_MODELS
 PLAN_FORMAT = "fresh-gas-ledger plan 1"
 #: Largest plan file read. [bytes]
 MAX_PLAN_BYTES = 1_000_000
+#: Smallest total fresh gas flow of a phase. [L/min] Common practice, no source: 10 mL/min
+#: is below any flowmeter's first mark and below any patient's O2 uptake; a flow just above
+#: 0 (5e-324 L/min) would make the circle's mixing ratios infinite.
+MIN_TOTAL_FLOW_L_MIN = 0.01
+#: Smallest share of O2 in the O2/N2O mix a ratio limit may keep. [1] Common practice, no
+#: source: workstations keep 25 %; a share just above 0 would allow infinite N2O per O2.
+MIN_O2_SHARE = 0.01
 
 
 # --------------------------------------------------------------------------------------
@@ -186,6 +193,12 @@ class PhaseIn(_Strict):
             )
         if self.o2 + self.air + self.n2o <= 0:
             raise InputError("o2/air/n2o", 0, "the phase needs some fresh gas flow")
+        if self.o2 + self.air + self.n2o < MIN_TOTAL_FLOW_L_MIN:
+            raise InputError(
+                "o2/air/n2o",
+                f"{self.o2 + self.air + self.n2o:g} L/min total",
+                f"a phase's fresh gas flow is at least {MIN_TOTAL_FLOW_L_MIN:g} L/min in total",
+            )
         if self.o2 + self.air + self.n2o > 30:
             raise InputError(
                 "o2/air/n2o",
@@ -202,7 +215,9 @@ class SettingsIn(_Strict):
     pressure: Annotated[float, _quantity("kPa", 50.0, 120.0)] = 101.325
     gwp_source: GwpSourceName = DEFAULT_GWP
     capture_efficiency: Annotated[float, Share] = 0.0
-    min_o2_share: Annotated[float, _share_above(0.0, True, "must be above 0 (e.g. 0.25 or '25 %')")] = 0.25
+    min_o2_share: Annotated[
+        float, _share_above(MIN_O2_SHARE, False, f"must be at least {MIN_O2_SHARE:g} (e.g. 0.25 or '25 %')")
+    ] = 0.25
     n2o_cutoff_o2_flow: Annotated[float, _quantity("L/min", 0.0, 5.0)] = 0.2
     ratio_limit: Annotated[str, _one_of(RATIO_BEHAVIOURS, "values")] = "cap_n2o"
     inspired_o2_floor: Annotated[float, _share_above(0.21, False, "the floor is never below 0.21 (21 %)")] = 0.30

@@ -19,7 +19,17 @@ from model.base.errors import InputError
 from model.base.files import parse_toml, read_user_text
 from model.base.units import check_range, to_base
 from model.io.case_mix import load_case_mix
-from model.io.plans import GwpSourceName, Share, _field, _first_error, _quantity, _Strict, format_of, volatile_key
+from model.io.plans import (
+    MIN_TOTAL_FLOW_L_MIN,
+    GwpSourceName,
+    Share,
+    _field,
+    _first_error,
+    _quantity,
+    _Strict,
+    format_of,
+    volatile_key,
+)
 from model.reference import DEFAULT_GWP, GWP_SOURCES, Reference
 from model.year.inputs import DAYS_PER_MONTH, DEFAULT_CAR_FACTOR, MAX_DRAWS, CaseMix, Practice, Sampling, Scenario
 
@@ -29,6 +39,9 @@ MAX_SCENARIO_BYTES = 200_000
 #: Largest month weight (weights are relative: days per month, cases per month). Common
 #: practice, no source; bounded so that their sum stays finite.
 MAX_MONTH_WEIGHT = 1e6
+#: Smallest car emission factor. [kg CO2e/km] Common practice, no source: 1 g/km, below
+#: any car's (an electric car's is some 50 g/km, from memory); the distance divides by it.
+MIN_CAR_KG_PER_KM = 0.001
 
 
 # --------------------------------------------------------------------------------------
@@ -46,7 +59,7 @@ class _SwitchIn(_Strict):
 
 
 class _PracticeIn(_Strict):
-    maintenance_flow: Annotated[float | None, _quantity("L/min", 0.0, 20.0, low_open=True)] = None
+    maintenance_flow: Annotated[float | None, _quantity("L/min", MIN_TOTAL_FLOW_L_MIN, 20.0)] = None
     maintenance_o2_share: Annotated[float | None, Share] = None
     dial_factor: Annotated[float, _quantity("dimensionless", 0.0, 5.0, low_open=True, shown_unit="")] = 1.0
     switch_agent: _SwitchIn | None = None
@@ -101,7 +114,7 @@ def _car_factor(value, info: pydantic.ValidationInfo):
     name = _field(info)
     text = _CO2E.sub("", value) if isinstance(value, str) else value
     number = to_base(text, "kg/km", name)
-    return check_range(number, name, 0.0, 10.0, "kg CO2e/km", low_open=True, typed=value)
+    return check_range(number, name, MIN_CAR_KG_PER_KM, 10.0, "kg CO2e/km", typed=value)
 
 
 class _EquivalenceIn(_Strict):

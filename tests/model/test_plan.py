@@ -199,7 +199,7 @@ BAD = {
         dict(phase_o2="900000 mL/min"),
         ["phases[1].o2", "'900000 mL/min'", "[0, 20] L/min (that is 900 L/min)"],
     ),
-    "zero O2 share": (dict(settings_min_o2_share=0), ["settings.min_o2_share", "above 0"]),
+    "zero O2 share": (dict(settings_min_o2_share=0), ["settings.min_o2_share", "at least 0.01"]),
     "capture above 1": (dict(settings_capture_efficiency=2), ["settings.capture_efficiency", "2", "0 to 1"]),
     "missing duration": (dict(phase_duration=None), ["phases[1].duration", "nothing", "required"]),
     "missing agent": (dict(agent=None), ["agent", "nothing", "required"]),
