@@ -888,3 +888,32 @@ def test_report_documents_escape_user_text_and_neutralise_formula_cells(demo, tm
     ws = openpyxl.load_workbook(path)["By site"]
     # OWASP "CSV injection" advice (common practice): a formula from a user file stays text.
     assert '\'=HYPERLINK("x")' in [c.value for c in ws["A"]]
+
+
+# ---- a period with no anaesthetic hours ----------------------------------------------------
+
+_ONE_SAMPLE = """case_id,time,theatre,agent,o2,air,n2o,dial
+A1,2025-03-02T08:00:00,Alder,sevoflurane,1,1,0,2
+B1,2026-03-02T08:00:00,Alder,sevoflurane,1,1,0,2
+B1,2026-03-02T08:01:00,Alder,sevoflurane,1,1,0.5,2
+B1,2026-03-02T08:02:00,Alder,sevoflurane,1,1,0.5,2
+"""
+_NAN_WORD = re.compile(r"(?<![A-Za-z])(nan|inf)(?![A-Za-z])", re.IGNORECASE)
+
+
+@pytest.mark.parametrize("period, baseline, empty", [("2026", "2025", "the baseline"), ("2025", "2026", "the period")])
+def test_a_period_without_anaesthetic_hours_says_why_a_figure_is_missing(tmp_path, period, baseline, empty):
+    # A case of one sample has no minutes (the time between samples is what is counted,
+    # docs/methods.md): figures per hour and per minute of such a period do not exist.
+    path = tmp_path / "r.csv"
+    path.write_text(_ONE_SAMPLE, encoding="utf-8")
+    cases = audit_records([path]).cases
+    r = build_report(cases, parse_period(period), parse_period(baseline))
+    text = " ".join([r.headline(), *(s for _, s in r.sentences())])
+    assert not _NAN_WORD.search(text), text
+    assert f"{empty} has no anaesthetic hours" in text
+    if empty == "the baseline":
+        assert "cannot be given as a percentage: the baseline has no anaesthetic hours" in r.headline()
+    flow = dict(r.sentences())["intensity"]
+    assert "time-weighted fresh gas flow cannot be worked out" in flow
+    assert "nitrous oxide per anaesthetic hour cannot be worked out" in dict(r.sentences())["N2O use"]
