@@ -11,6 +11,7 @@ import math
 import re
 from dataclasses import dataclass, field
 
+import numpy as np
 import pandas as pd
 
 from model.base.errors import InputError
@@ -123,19 +124,26 @@ class EmissionsReport:
         if self.baseline is not None:
             b = self.baseline
             same_length = p.period.months == b.period.months or abs(p.period.months - b.period.months) < 1e-9
-            if not b.co2e_t > 0:
-                # No percentage of nothing: say why instead of "up nan %".
-                why = "no anaesthetic hours" if not b.figures["hours"] > 0 else "no emissions"
+            now_t, then_t = (p.co2e_t, b.co2e_t) if same_length else (p.annual_t, b.annual_t)
+            with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+                change = now_t / then_t - 1.0 if then_t > 0 else math.nan
+            if not math.isfinite(change):
+                # No percentage of nothing (or of next to nothing): say why instead of "up nan %".
+                why = (
+                    "no anaesthetic hours"
+                    if not b.figures["hours"] > 0
+                    else "no emissions"
+                    if not then_t > 0
+                    else "emissions too small to compare with"
+                )
                 text += (
                     f"{'' if same_length else f', {p.annual_t:,.1f} t a year'}; the change on {b.period.label} "
                     f"cannot be given as a percentage: the baseline has {why}"
                 )
             elif same_length:
-                change = p.co2e_t / b.co2e_t - 1.0
                 word = "down" if change < 0 else "up"
                 text += f", {word} {abs(change):.0%} on {b.period.label} ({b.co2e_t:,.1f} t)"
             else:
-                change = p.annual_t / b.annual_t - 1.0
                 word = "down" if change < 0 else "up"
                 text += (
                     f", {p.annual_t:,.1f} t a year: {word} {abs(change):.0%} on {b.period.label} "
@@ -727,7 +735,11 @@ def driver_sentences(
         return f"{'adds' if kg >= 0 else 'removes'} {abs(kg) / 1000:,.1f} t CO2e"
 
     def pct(a, b):
-        return f"{(b / a - 1):+.0%}" if a > 0 else "new" if b > 0 else "none in either"
+        if not a > 0:
+            return "new" if b > 0 else "none in either"
+        with np.errstate(over="ignore"):
+            change = b / a - 1
+        return f"{change:+.0%}" if math.isfinite(change) else "too few baseline hours for a percentage"
 
     def none_in(f, name: str) -> str:
         """``name`` when ``f`` has no anaesthetic hours (so no per-hour figure), else ''."""

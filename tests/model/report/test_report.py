@@ -917,3 +917,17 @@ def test_a_period_without_anaesthetic_hours_says_why_a_figure_is_missing(tmp_pat
     flow = dict(r.sentences())["intensity"]
     assert "time-weighted fresh gas flow cannot be worked out" in flow
     assert "nitrous oxide per anaesthetic hour cannot be worked out" in dict(r.sentences())["N2O use"]
+
+
+def test_a_baseline_of_next_to_no_emissions_gives_no_infinite_percentage(tmp_path):
+    # Found by tests/model/report/test_report_fuzz.py: a baseline of 1e-310 L/min N2O emits
+    # some 1e-313 t, and the period's tonnes over it overflow to "up inf%".
+    rows = ["case_id,time,theatre,agent,o2,air,n2o,dial"]
+    for case, year, n2o, dial in (("A", 2025, "1e-310", "0"), ("B", 2026, "0", "2")):
+        rows += [f"{case},{year}-03-02T08:{m:02d}:00,Alder,sevoflurane,1,0,{n2o},{dial}" for m in range(12)]
+    path = tmp_path / "r.csv"
+    path.write_text("\n".join(rows) + "\n", encoding="utf-8")
+    r = build_report(audit_records([path]).cases, parse_period("2026"), parse_period("2025"))
+    assert 0 < r.baseline.co2e_t < 1e-300
+    assert not _NAN_WORD.search(r.headline()), r.headline()
+    assert "cannot be given as a percentage: the baseline has emissions too small to compare with" in r.headline()
