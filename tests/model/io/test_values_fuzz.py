@@ -23,7 +23,8 @@ from model.io.case_mix import parse_case_mix_text
 from model.io.plans import load_plan, plan_from_dict
 from model.io.scenario import parse_scenario_text
 from model.reference import DEFAULT_REFERENCE
-from tests.helpers.fuzz import FUZZ, assert_no_non_finite, dimensionless_texts, odd_values, reference_value
+from tests.helpers.cli import assert_one_line_error, run
+from tests.helpers.fuzz import FUZZ, SLOW, assert_no_non_finite, dimensionless_texts, odd_values, reference_value, tiny
 
 ROOT = Path(__file__).resolve().parents[3]
 YEAR = ROOT / "demo_data" / "year"
@@ -171,3 +172,30 @@ def demo_mix():
     from model.io.case_mix import load_case_mix
 
     return load_case_mix(YEAR / "fernhollow_casemix.csv")
+
+
+AGENT_FIELDS_FUZZED = ["molar_mass", "liquid_density", "svp_20c", "blood_gas", "mac40", "bottle_volume", "lifetime"]
+
+
+@SLOW
+@given(
+    field=st.sampled_from(AGENT_FIELDS_FUZZED),
+    value=st.one_of(tiny, st.booleans(), st.floats(1e-3, 2.0), st.sampled_from([0.0, 0.01, 0.05, 1.0])),
+    as_json=st.booleans(),
+)
+def test_an_odd_reference_value_over_the_command_line_is_refused_or_prints_finite_figures(
+    tmp_path_factory, capsys, field, value, as_json
+):
+    # Whatever a settings file holds, the command line prints finite figures or one line (exit 2).
+    tmp = tmp_path_factory.mktemp("s")
+    settings = tmp / "s.toml"
+    settings.write_text(f"[agents.sevoflurane]\n{field} = {str(value).lower()}\n", encoding="utf-8")
+    argv = ["--settings", settings, "case", ROOT / "demo_data" / "plans" / "lap_chole_low_flow.toml"]
+    status, out, err = run([*argv, "--json"] if as_json else argv, capsys)
+    if status == 0:
+        assert_no_non_finite(out)
+        if as_json:
+            json.loads(out)
+    else:
+        assert_one_line_error(status, err, "gas-ledger: ")
+        assert out == ""
