@@ -6,6 +6,7 @@ import json
 import re
 import shutil
 import tomllib
+import warnings
 from pathlib import Path
 
 import pytest
@@ -109,3 +110,19 @@ def test_an_infinite_figure_is_never_printed_or_written_as_null(tmp_path, capsys
         status, out, err = run(argv, capsys)
         assert_one_line_error(status, err, "totals.liquid_agent_ml", "could not be worked out")
         assert out == ""
+
+
+def test_a_subnormal_o2_share_of_the_practice_flow_runs_without_a_warning(tmp_path, capsys):
+    # 5e-324 of the maintenance flow as O2 is a share like any other (0 is allowed): the
+    # year runs, and the inspired-O2 check's division by a flow just above 0 is masked quietly.
+    year = tmp_path / "year"
+    shutil.copytree(YEAR, year)
+    path = year / "baseline_2l.toml"
+    data = tomllib.loads(path.read_text(encoding="utf-8"))
+    data.setdefault("practice", {})["maintenance_o2_share"] = 5e-324
+    path.write_text(tomli_w.dumps(data), encoding="utf-8")
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", RuntimeWarning)
+        status, out, err = run(["year", path, "--draws", "2"], capsys)
+    assert status == 0, err
+    _no_non_finite(out)
