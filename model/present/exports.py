@@ -53,7 +53,22 @@ def to_csv(df: pd.DataFrame) -> bytes:
 
     CRLF line ends make the writer quote any field holding a carriage return or newline.
     """
-    return neutralise_frame(df).to_csv(index=False, lineterminator="\r\n").encode("utf-8")
+    return neutralise_frame(finite_or_empty(df)).to_csv(index=False, lineterminator="\r\n").encode("utf-8")
+
+
+def finite_or_empty(df: pd.DataFrame) -> pd.DataFrame:
+    """``df`` with every infinite number made an empty cell, as NaN is: no file says "inf".
+
+    The workbook and HTML writers leave a figure that is not finite empty too
+    (:func:`_cell`, :func:`model.present.readable.number_text`).
+    """
+    numbers = df.select_dtypes(include="number")
+    if numbers.empty or bool(np.isfinite(numbers.to_numpy(dtype=float, na_value=0.0)).all()):
+        return df
+    out = df.copy()
+    for col in numbers.columns:
+        out[col] = out[col].where(~np.isinf(out[col].to_numpy(dtype=float, na_value=0.0)))
+    return out
 
 
 _SHEET_BAD = re.compile(r"[\[\]:*?/\\]")
