@@ -98,6 +98,9 @@ def infinite_paths(value, limit: int = 3) -> list[str]:
         if len(found) >= limit:
             return
         if isinstance(v, pd.DataFrame):
+            numbers = v.select_dtypes(include="number")
+            if not numbers.empty and not np.isinf(numbers.to_numpy(dtype=float, na_value=0.0)).any():
+                v = v.drop(columns=numbers.columns)  # every number finite (checked at once); look at the rest
             v = v.to_dict("records")
         elif isinstance(v, (pd.Series, np.ndarray)):
             v = list(v.tolist()) if isinstance(v, np.ndarray) else v.tolist()

@@ -5,7 +5,7 @@ from __future__ import annotations
 import sys
 from typing import TYPE_CHECKING, NamedTuple
 
-from model.cli.common import CAUTION, print_json, print_table
+from model.cli.common import CAUTION, print_json, print_table, refuse_infinite
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -107,6 +107,7 @@ def cmd_audit(args) -> int:
     if args.messages < 0:
         raise InputError("--messages", args.messages, "expected 0 or more")
     result = _audit(args, reference)
+    refuse_infinite({"cases": result.cases}, "audit")
     purchases = _purchases(args, reference, result)
     if args.json:
         print_json(_audit_json(result, purchases))

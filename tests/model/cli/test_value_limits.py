@@ -126,3 +126,21 @@ def test_a_subnormal_o2_share_of_the_practice_flow_runs_without_a_warning(tmp_pa
         status, out, err = run(["year", path, "--draws", "2"], capsys)
     assert status == 0, err
     _no_non_finite(out)
+
+
+def test_an_infinite_year_figure_is_refused_before_any_table_is_printed(capsys, monkeypatch):
+    # The year's text tables hold figures already formatted as text, so the guard runs first.
+    import model.year.result
+
+    real = model.year.result.compute_year
+
+    def broken(*args, **kwargs):
+        result = real(*args, **kwargs)
+        result.summary.loc[0, "p95"] = float("inf")
+        return result
+
+    monkeypatch.setattr(model.year.result, "compute_year", broken)
+    for argv in (["year", YEAR / "baseline_2l.toml", "--draws", "2"], ["year", YEAR / "baseline_2l.toml", "--json"]):
+        status, out, err = run(argv, capsys)
+        assert_one_line_error(status, err, "year", "summary[1].p95", "could not be worked out")
+        assert out == ""
