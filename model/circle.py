@@ -162,7 +162,7 @@ def lowest_safe_fd_o2(fgf_l_min, vo2_l_min, floor=0.30):
     """
     fgf = np.asarray(fgf_l_min, dtype=float)
     vo2 = np.asarray(vo2_l_min, dtype=float)
-    with np.errstate(divide="ignore", invalid="ignore"):
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):  # a flow just above 0: masked below
         f = (vo2 + np.asarray(floor, dtype=float) * (fgf - vo2)) / fgf
     return np.where(fgf > vo2, np.clip(f, 0.0, 1.0), np.nan)
 

@@ -66,21 +66,30 @@ AGENT_FIELDS: Mapping[str, tuple[str, str]] = MappingProxyType(
 )
 
 # Field name -> (low, high, low included) of a user override: wide bounds that only keep out
-# values no agent or gas can have (zero would divide, a share above 1 is impossible);
-# common practice, no source.
+# values no agent or gas can have (a share above 1 is impossible). A value the model divides
+# by has a smallest physically sensible value rather than an open 0, so that a number just
+# above 0 (5e-324) cannot give an infinite result; each lower bound's basis is on its line.
 _AGENT_FIELD_RANGES: Mapping[str, tuple[float, float, bool]] = MappingProxyType(
     {
-        "molar_mass": (0.0, 1000.0, False),
-        "liquid_density": (0.0, 5.0, False),
+        # Hydrogen, the lightest atom, 1.008 g/mol (IUPAC standard atomic weights).
+        "molar_mass": (1.0, 1000.0, True),
+        # Liquid hydrogen, the least dense liquid, about 0.07 g/mL (from memory).
+        "liquid_density": (0.05, 5.0, True),
         "density_temperature": (-273.15, 100.0, True),
-        "svp_20c": (0.0, 10000.0, False),
+        # 1 Pa: common practice, no source (no vaporizer gives a liquid this involatile).
+        "svp_20c": (0.001, 10000.0, True),
         "boiling_point": (-273.15, 300.0, True),
-        "blood_gas": (0.0, 100.0, False),
-        "mac40": (0.0, 200.0, False),
-        "vaporizer_max": (0.0, 100.0, False),
-        "bottle_volume": (0.0, 10000.0, False),
+        # Xenon, the least soluble anaesthetic gas, has about 0.115 (from memory).
+        "blood_gas": (0.01, 100.0, True),
+        # Methoxyflurane, the most potent volatile agent, has a MAC of about 0.16 % (from memory).
+        "mac40": (0.01, 200.0, True),
+        # Dials are marked in steps of 0.1 % or more (common practice, no source).
+        "vaporizer_max": (0.1, 100.0, True),
+        # 1 mL: common practice, no source (agent bottles hold some 100 to 250 mL).
+        "bottle_volume": (1.0, 10000.0, True),
         "metabolised_fraction": (0.0, 1.0, True),
-        "lifetime": (0.0, 100000.0, False),
+        # About 9 hours: common practice, no source (the agents' lifetimes are years).
+        "lifetime": (0.001, 100000.0, True),
     }
 )
 

@@ -148,7 +148,9 @@ def audit_records(
         ("room temperature", temperature_c, 0.0, 45.0),
         ("pressure", pressure_kpa, 50.0, 120.0),
     ):
-        if not (isinstance(value, (int, float)) and math.isfinite(value) and low <= value <= high):
+        if isinstance(value, bool) or not (
+            isinstance(value, (int, float)) and math.isfinite(value) and low <= value <= high
+        ):
             raise InputError(name, value, f"allowed range is [{low:g}, {high:g}]")
     reference.gwp_source(gwp_source)
     step = progress or (lambda f, t: None)

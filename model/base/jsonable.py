@@ -10,7 +10,7 @@ from os import PathLike
 import numpy as np
 import pandas as pd
 
-__all__ = ["to_json_value"]
+__all__ = ["infinite_paths", "to_json_value"]
 
 
 def to_json_value(value):
@@ -72,3 +72,51 @@ def _key(key):
     if isinstance(key, float) and math.isfinite(key):
         return key
     return str(key)
+
+
+def infinite_paths(value, limit: int = 3) -> list[str]:
+    """Where a structure of figures holds an infinite number (+inf or -inf), as paths.
+
+    Parameters
+    ----------
+    value : object
+        What :func:`to_json_value` takes (dicts, lists, tuples, arrays, dataclasses, numbers);
+        pandas DataFrames and Series are looked into as well.
+    limit : int
+        At most this many paths are returned.
+
+    Returns
+    -------
+    list of str
+        Paths such as ``"totals.liquid_agent_ml"`` or ``"phases[2].bottles"``; empty when
+        every number is finite or NaN. A NaN is "no figure" (written null, or "-" in text);
+        an infinity is never a figure, so output holding one is refused, not written.
+    """
+    found: list[str] = []
+
+    def walk(v, path: str) -> None:
+        if len(found) >= limit:
+            return
+        if isinstance(v, pd.DataFrame):
+            numbers = v.select_dtypes(include="number")
+            if not numbers.empty and not np.isinf(numbers.to_numpy(dtype=float, na_value=0.0)).any():
+                v = v.drop(columns=numbers.columns)  # every number finite (checked at once); look at the rest
+            v = v.to_dict("records")
+        elif isinstance(v, (pd.Series, np.ndarray)):
+            v = list(v.tolist()) if isinstance(v, np.ndarray) else v.tolist()
+        elif dataclasses.is_dataclass(v) and not isinstance(v, type):
+            v = {f.name: getattr(v, f.name) for f in dataclasses.fields(v)}
+        if isinstance(v, np.generic):
+            v = v.item()
+        if isinstance(v, float):
+            if math.isinf(v):
+                found.append(path or "value")
+        elif isinstance(v, dict):
+            for k, item in v.items():
+                walk(item, f"{path}.{k}" if path else str(k))
+        elif isinstance(v, (list, tuple)):
+            for i, item in enumerate(v):
+                walk(item, f"{path}[{i + 1}]")
+
+    walk(value, "")
+    return found

@@ -64,7 +64,9 @@ def to_base(value, unit: str, field: str, default_unit: str | None = None) -> fl
     ----------
     value : str, int or float
         What the user typed: a bare number (read in ``default_unit``, or ``unit``) or a
-        string with a unit such as ``"500 mL/min"``.
+        string with a unit such as ``"500 mL/min"``. A number with any unit text is
+        converted by pint, dimensionless units too ("30 %" is 0.3, "5 ppm" is 5e-6 in
+        ``"dimensionless"``); a unit of another dimension than ``unit``'s is refused.
     unit : str
         The documented base unit to return, e.g. ``"L/min"``.
     field : str
@@ -83,7 +85,9 @@ def to_base(value, unit: str, field: str, default_unit: str | None = None) -> fl
         The text is not a quantity, the number is not finite, or the dimension is wrong.
     """
     default_unit = default_unit or unit
-    if isinstance(value, bool) or not isinstance(value, (int, float, str)):
+    if isinstance(value, bool):
+        raise InputError(field, str(value).lower(), "expected a number, not true or false")
+    if not isinstance(value, (int, float, str)):
         raise InputError(field, value, f"expected a number in {default_unit} or a quantity such as '1 {unit}'")
     try:
         return _convert(value, unit, default_unit)
@@ -112,23 +116,54 @@ def _convert(value, unit: str, default_unit: str) -> float:
     text = value.strip()
     if not text or not safe_quantity_text(text) or not one_number_and_unit(text):
         raise _Refused(f"expected a quantity such as '1 {unit}'")
+    unit_text = text[_LEADING_NUMBER.match(text).end() :].strip()  # type: ignore[union-attr]
+    if not unit_text:
+        # A plain number typed as text: read it in the default unit.
+        try:
+            magnitude = float(text)
+        except ValueError:
+            raise _Refused(f"expected a quantity such as '1 {unit}'") from None
+        return _convert(magnitude, unit, default_unit)
+    # A unit was typed, a dimensionless one too (%, percent, ppm): pint converts it with its
+    # meaning, and a unit of another dimension is refused.
     try:
+        offset_inside = _offset_unit_inside(unit_text)
         quantity = ureg.Quantity(text)
-        bare = isinstance(quantity, (int, float)) or quantity.unitless
-        if bare:
-            magnitude = float(getattr(quantity, "magnitude", quantity))
     except Exception:
         raise _Refused(f"expected a quantity such as '1 {unit}'") from None
-    if bare:
-        # A bare number typed as text: read it in the default unit.
-        return _convert(magnitude, unit, default_unit)
+    if offset_inside:
+        # pint turns "22.5 degC/degC" into 295.65 K / 273.15 K = 1.08: no one means that.
+        raise _Refused(f"a temperature unit (degC, degF) is taken only on its own; {_expected(unit)}")
     try:
-        number = float(quantity.to(unit).magnitude)
+        if unit == "dimensionless" and quantity.units == ureg.percent:
+            # "95 %" is 95 / 100 = 0.95, as a reader divides; pint's 95 x 0.01 is 0.9500000000000001.
+            number = float(quantity.magnitude) / 100.0
+        else:
+            number = float(quantity.to(unit).magnitude)
     except Exception:
-        raise _Refused(f"expected a quantity convertible to {unit}") from None
+        raise _Refused(_expected(unit)) from None
     if not math.isfinite(number):
         raise _Refused("expected a finite number")
     return number
+
+
+_UNIT_NAME = re.compile(r"[^\s*/^()0-9.+-]+")
+
+
+def _offset_unit_inside(unit_text: str) -> bool:
+    """Whether a unit text of several units holds one with an offset (degC, degF): 0 of it is not 0 K."""
+    names = _UNIT_NAME.findall(unit_text)
+    if len(names) < 2:
+        return False
+    ureg = registry()
+    return any(float(ureg.Quantity(0.0, name).to_base_units().magnitude) != 0.0 for name in names)
+
+
+def _expected(unit: str) -> str:
+    """What a field takes, for the message of a unit of the wrong dimension."""
+    if unit in ("dimensionless", "percent"):
+        return "expected a plain number or a fraction in %, percent or ppm (e.g. '30 %')"
+    return f"expected a quantity convertible to {unit}"
 
 
 def check_range(

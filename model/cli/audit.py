@@ -5,7 +5,7 @@ from __future__ import annotations
 import sys
 from typing import TYPE_CHECKING, NamedTuple
 
-from model.cli.common import CAUTION, print_json, print_table, shown_cell
+from model.cli.common import CAUTION, print_json, print_table, refuse_infinite, shown_cell
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -108,6 +108,7 @@ def cmd_audit(args) -> int:
     if args.messages < 0:
         raise InputError("--messages", args.messages, "expected 0 or more")
     result = _audit(args, reference)
+    refuse_infinite({"cases": result.cases}, "audit")
     purchases = _purchases(args, reference, result)
     if args.json:
         print_json(_audit_json(result, purchases))

@@ -9,7 +9,8 @@ import sys
 from collections.abc import Iterator
 from contextlib import contextmanager
 
-from model.base.jsonable import to_json_value
+from model.base.errors import InputError
+from model.base.jsonable import infinite_paths, to_json_value
 from model.cautions import STANDING_CAUTION
 
 EXIT_INPUT = 2
@@ -86,8 +87,26 @@ def _fmt(value, digits=2):
     return str(value)
 
 
+def refuse_infinite(data, what: str = "results") -> None:
+    """Raise InputError when ``data`` holds an infinite number: such output is never printed or written.
+
+    The limits of every input keep the figures finite; this is the guard behind them, so a
+    case they miss gives one clear line (exit status 2) rather than "inf" in a table or a
+    silent null in JSON.
+    """
+    paths = infinite_paths(data)
+    if paths:
+        raise InputError(
+            what,
+            ", ".join(paths),
+            "could not be worked out: a value in use is too small or too large to compute with "
+            "(check the plan, scenario and reference values); nothing was written",
+        )
+
+
 def print_table(rows, columns, out=None):
-    """Print rows (dicts) as a plain aligned text table."""
+    """Print rows (dicts) as a plain aligned text table (refused if a figure is infinite)."""
+    refuse_infinite(rows)
     out = out or sys.stdout  # looked up at call time, so redirected output is honoured
     cells = [[shown_cell(_fmt(r.get(c))) for c in columns] for r in rows]
     widths = [max([len(c)] + [len(row[i]) for row in cells]) for i, c in enumerate(columns)]
@@ -103,6 +122,7 @@ def print_json(data, out=None):
     Characters a terminal would act on are written as JSON escapes (CSI as a backslash and ``u009b``), which
     a JSON reader turns back into the same text.
     """
+    refuse_infinite(data)
     out = out or sys.stdout
     text = json.dumps(to_json_value(data), indent=2, ensure_ascii=False, allow_nan=False)
     out.write(_ACTED_ON_RE.sub(lambda m: f"\\u{ord(m.group()):04x}", text) + "\n")

@@ -8,7 +8,17 @@ import sys
 
 from model.base.errors import InputError
 from model.cautions import severity_of
-from model.cli.common import CAUTION, EXIT_INPUT, _Parser, _reference, print_json, print_table, shown_cell, shown_output
+from model.cli.common import (
+    CAUTION,
+    EXIT_INPUT,
+    _Parser,
+    _reference,
+    print_json,
+    print_table,
+    refuse_infinite,
+    shown_cell,
+    shown_output,
+)
 
 
 def cmd_case(args) -> int:
@@ -19,6 +29,7 @@ def cmd_case(args) -> int:
     reference = _reference(args)
     plan = load_plan(args.plan, reference)
     result = compute_case(plan, reference)
+    refuse_infinite({"totals": result.totals, "phases": result.phases}, "case")
     if args.json:
         print_json({**result.to_dict(), "caution": CAUTION})
         return 0

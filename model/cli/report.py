@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import sys
 
-from model.cli.common import CAUTION, print_json, print_table
+from model.cli.common import CAUTION, print_json, print_table, refuse_infinite
 
 
 def register(subparsers) -> None:
@@ -107,6 +107,8 @@ def cmd_report(args) -> int:
         report.cautions.append(
             f"{len(purchase_notes)} purchase line(s) set aside (see gas-ledger audit --purchases); the others are used."
         )
+    # Nothing is written when a figure is infinite (the same guard as printed output).
+    refuse_infinite(report.to_dict(), "report")
     if args.xlsx:
         from model.present.report_document import report_xlsx
 

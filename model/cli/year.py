@@ -6,7 +6,7 @@ import sys
 
 from model.base.errors import InputError
 from model.cautions import by_severity, severity_of
-from model.cli.common import CAUTION, print_json, print_table
+from model.cli.common import CAUTION, print_json, print_table, refuse_infinite
 from model.year.inputs import MAX_DRAWS
 
 
@@ -61,6 +61,7 @@ def cmd_year(args) -> int:
     draws, seed = _options(args)
     scenario = load_scenario(args.scenario)
     result = compute_year(scenario, _reference(args), draws=draws, seed=seed, model_uncertainty=args.model_uncertainty)
+    refuse_infinite({"totals": result.totals, "summary": result.summary, "monthly": result.monthly}, "year")
     if args.json:
         print_json(result.to_dict(), sys.stdout)
         return 0
@@ -110,6 +111,8 @@ def cmd_compare(args) -> int:
     comp = compare_years(
         baseline, proposal, _reference(args), draws=draws, seed=seed, model_uncertainty=args.model_uncertainty
     )
+    for name, year in (("baseline", comp.baseline), ("proposal", comp.proposal)):
+        refuse_infinite({"totals": year.totals, "summary": year.summary, "monthly": year.monthly}, name)
     if args.json:
         print_json(comp.to_dict(), sys.stdout)
         return 0

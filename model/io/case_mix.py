@@ -71,10 +71,8 @@ def _share(raw, where: str) -> float:
     if raw is None or str(raw).strip() == "":
         return 0.0
     text = str(raw).strip()
-    if "%" in text:
-        value = to_base(text, "percent", where) / 100.0
-    else:
-        value = to_base(text, "dimensionless", where)
+    # A plain number is a fraction; "30 %", "30 percent", "3000 ppm" are converted by pint.
+    value = to_base(text, "dimensionless", where)
     return check_range(value, where, 0.0, 1.0, "", typed=text)
 
 

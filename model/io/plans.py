@@ -30,6 +30,13 @@ from model.uptake import DEFAULT_UPTAKE_MODEL, UPTAKE_MODELS
 PLAN_FORMAT = "fresh-gas-ledger plan 1"
 #: Largest plan file read. [bytes]
 MAX_PLAN_BYTES = 1_000_000
+#: Smallest total fresh gas flow of a phase. [L/min] Common practice, no source: 10 mL/min
+#: is below any flowmeter's first mark and below any patient's O2 uptake; a flow just above
+#: 0 (5e-324 L/min) would make the circle's mixing ratios infinite.
+MIN_TOTAL_FLOW_L_MIN = 0.01
+#: Smallest share of O2 in the O2/N2O mix a ratio limit may keep. [1] Common practice, no
+#: source: workstations keep 25 %; a share just above 0 would allow infinite N2O per O2.
+MIN_O2_SHARE = 0.01
 
 
 # --------------------------------------------------------------------------------------
@@ -58,12 +65,10 @@ def _quantity(
 
 
 def _share(value, info: pydantic.ValidationInfo):
-    """A share typed as 0.3, "30 %" or "0.3": stored as a fraction."""
+    """A share typed as 0.3, "30 %", "30 percent" or "0.3": stored as a fraction."""
     name = _field(info)
-    if isinstance(value, str) and "%" in value:
-        number = to_base(value, "percent", name) / 100.0
-    else:
-        number = to_base(value, "dimensionless", name)
+    # A plain number is a fraction; "30 %", "30 percent", "3000 ppm" are converted by pint.
+    number = to_base(value, "dimensionless", name)
     if not 0.0 <= number <= 1.0:
         raise InputError(name, value, "a share from 0 to 1 (e.g. 0.3 or '30 %')")
     return number
@@ -86,6 +91,7 @@ def _percent(value, info: pydantic.ValidationInfo):
     return check_range(to_base(value, "percent", _field(info)), _field(info), 0.0, 100.0, "%", typed=value)
 
 
+_PLAIN_NUMBER = re.compile(r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?")
 _MAC_SUFFIX = re.compile(r"^(?P<number>.*?)\s*(?:x\s*)?MAC$", re.IGNORECASE)
 
 
@@ -107,6 +113,8 @@ def _mac_target(value, info: pydantic.ValidationInfo):
                 "an end-tidal target is a MAC multiple such as 1.0 or '1.2 MAC', "
                 "not a percent; a setting in % is a vaporizer dial (give dial instead)",
             )
+        if not _PLAIN_NUMBER.fullmatch(value.strip()):
+            raise InputError(name, typed, "an end-tidal target is a MAC multiple such as 1.0 or '1.2 MAC'")
     number = to_base(value, "dimensionless", name)
     return check_range(number, name, 0.0, 3.0, "MAC", typed=typed)
 
@@ -185,6 +193,12 @@ class PhaseIn(_Strict):
             )
         if self.o2 + self.air + self.n2o <= 0:
             raise InputError("o2/air/n2o", 0, "the phase needs some fresh gas flow")
+        if self.o2 + self.air + self.n2o < MIN_TOTAL_FLOW_L_MIN:
+            raise InputError(
+                "o2/air/n2o",
+                f"{self.o2 + self.air + self.n2o:g} L/min total",
+                f"a phase's fresh gas flow is at least {MIN_TOTAL_FLOW_L_MIN:g} L/min in total",
+            )
         if self.o2 + self.air + self.n2o > 30:
             raise InputError(
                 "o2/air/n2o",
@@ -201,7 +215,9 @@ class SettingsIn(_Strict):
     pressure: Annotated[float, _quantity("kPa", 50.0, 120.0)] = 101.325
     gwp_source: GwpSourceName = DEFAULT_GWP
     capture_efficiency: Annotated[float, Share] = 0.0
-    min_o2_share: Annotated[float, _share_above(0.0, True, "must be above 0 (e.g. 0.25 or '25 %')")] = 0.25
+    min_o2_share: Annotated[
+        float, _share_above(MIN_O2_SHARE, False, f"must be at least {MIN_O2_SHARE:g} (e.g. 0.25 or '25 %')")
+    ] = 0.25
     n2o_cutoff_o2_flow: Annotated[float, _quantity("L/min", 0.0, 5.0)] = 0.2
     ratio_limit: Annotated[str, _one_of(RATIO_BEHAVIOURS, "values")] = "cap_n2o"
     inspired_o2_floor: Annotated[float, _share_above(0.21, False, "the floor is never below 0.21 (21 %)")] = 0.30

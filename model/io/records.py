@@ -334,7 +334,9 @@ def read_records(
         unit, missing required column). Row-level problems never raise: they are counted
         and described in ``Records.report``.
     """
-    if not (isinstance(gap_limit_min, (int, float)) and np.isfinite(gap_limit_min) and gap_limit_min > 0):
+    if isinstance(gap_limit_min, bool) or not (
+        isinstance(gap_limit_min, (int, float)) and np.isfinite(gap_limit_min) and gap_limit_min > 0
+    ):
         raise InputError("gap limit", gap_limit_min, "expected a positive number of minutes")
     step = progress or (lambda f, t: None)
     files = expand_paths(paths if not isinstance(paths, (str, os.PathLike, Source)) else [paths])

@@ -7,6 +7,7 @@ scenario files"). It names its case-mix file (CSV, :mod:`model.io.case_mix`) rel
 from __future__ import annotations
 
 import math
+import re
 from collections.abc import Mapping
 from pathlib import Path
 from typing import Annotated, Any
@@ -16,8 +17,19 @@ import tomli_w
 
 from model.base.errors import InputError
 from model.base.files import parse_toml, read_user_text
+from model.base.units import check_range, to_base
 from model.io.case_mix import load_case_mix
-from model.io.plans import GwpSourceName, Share, _first_error, _quantity, _Strict, format_of, volatile_key
+from model.io.plans import (
+    MIN_TOTAL_FLOW_L_MIN,
+    GwpSourceName,
+    Share,
+    _field,
+    _first_error,
+    _quantity,
+    _Strict,
+    format_of,
+    volatile_key,
+)
 from model.reference import DEFAULT_GWP, GWP_SOURCES, Reference
 from model.year.inputs import DAYS_PER_MONTH, DEFAULT_CAR_FACTOR, MAX_DRAWS, CaseMix, Practice, Sampling, Scenario
 
@@ -27,6 +39,9 @@ MAX_SCENARIO_BYTES = 200_000
 #: Largest month weight (weights are relative: days per month, cases per month). Common
 #: practice, no source; bounded so that their sum stays finite.
 MAX_MONTH_WEIGHT = 1e6
+#: Smallest car emission factor. [kg CO2e/km] Common practice, no source: 1 g/km, below
+#: any car's (an electric car's is some 50 g/km, from memory); the distance divides by it.
+MIN_CAR_KG_PER_KM = 0.001
 
 
 # --------------------------------------------------------------------------------------
@@ -44,7 +59,7 @@ class _SwitchIn(_Strict):
 
 
 class _PracticeIn(_Strict):
-    maintenance_flow: Annotated[float | None, _quantity("L/min", 0.0, 20.0, low_open=True)] = None
+    maintenance_flow: Annotated[float | None, _quantity("L/min", MIN_TOTAL_FLOW_L_MIN, 20.0)] = None
     maintenance_o2_share: Annotated[float | None, Share] = None
     dial_factor: Annotated[float, _quantity("dimensionless", 0.0, 5.0, low_open=True, shown_unit="")] = 1.0
     switch_agent: _SwitchIn | None = None
@@ -66,9 +81,19 @@ class _PracticeIn(_Strict):
         return self
 
 
+def _not_a_boolean(value, info: pydantic.ValidationInfo):
+    """Refuse ``true`` and ``false`` where a number is due (pydantic would read them as 1 and 0)."""
+    if isinstance(value, bool):
+        raise InputError(_field(info), str(value).lower(), "expected a number, not true or false")
+    return value
+
+
+NotBoolean = pydantic.BeforeValidator(_not_a_boolean)
+
+
 class _SamplingIn(_Strict):
-    draws: Annotated[int, pydantic.Field(ge=1, le=MAX_DRAWS)] = 2000
-    seed: Annotated[int, pydantic.Field(ge=0, le=2**63 - 1)] = 20260101
+    draws: Annotated[int, NotBoolean, pydantic.Field(ge=1, le=MAX_DRAWS)] = 2000
+    seed: Annotated[int, NotBoolean, pydantic.Field(ge=0, le=2**63 - 1)] = 20260101
     price_spread: Annotated[float, _quantity("dimensionless", 0.0, 1.0, shown_unit="")] = 0.0
     gwp_sources: list[str] = []
 
@@ -81,15 +106,26 @@ class _SamplingIn(_Strict):
         return v
 
 
+_CO2E = re.compile(r"\s*\bCO2[- ]?eq?\b", re.IGNORECASE)
+
+
+def _car_factor(value, info: pydantic.ValidationInfo):
+    """Read a car's emission factor typed as 0.17, "0.17 kg/km", "170 g/km" or "0.17 kg CO2e/km" [kg/km]."""
+    name = _field(info)
+    text = _CO2E.sub("", value) if isinstance(value, str) else value
+    number = to_base(text, "kg/km", name)
+    return check_range(number, name, MIN_CAR_KG_PER_KM, 10.0, "kg CO2e/km", typed=value)
+
+
 class _EquivalenceIn(_Strict):
-    car_kg_co2e_per_km: Annotated[
-        float, _quantity("dimensionless", 0.0, 10.0, low_open=True, shown_unit="kg CO2e/km")
-    ] = DEFAULT_CAR_FACTOR.value  # type: ignore[assignment]  # a Sourced constant, 0.17, never None
+    car_kg_co2e_per_km: Annotated[float, pydantic.BeforeValidator(_car_factor)] = DEFAULT_CAR_FACTOR.value  # type: ignore[assignment]  # a Sourced constant, 0.17, never None
     car_source: Annotated[str, pydantic.StringConstraints(min_length=1, max_length=300)] = DEFAULT_CAR_FACTOR.source
 
 
 class _CalendarIn(_Strict):
-    month_weights: Annotated[list[float], pydantic.Field(min_length=12, max_length=12)] = list(DAYS_PER_MONTH)
+    month_weights: Annotated[list[Annotated[float, NotBoolean]], pydantic.Field(min_length=12, max_length=12)] = list(
+        DAYS_PER_MONTH
+    )
 
     @pydantic.field_validator("month_weights")
     @classmethod

@@ -34,7 +34,22 @@ def to_csv(df: pd.DataFrame) -> bytes:
     CRLF line ends make the writer quote any field holding a carriage return or newline;
     :func:`model.base.cells.csv_text` is the one neutralising writer.
     """
-    return csv_text(df).encode("utf-8")
+    return csv_text(finite_or_empty(df)).encode("utf-8")
+
+
+def finite_or_empty(df: pd.DataFrame) -> pd.DataFrame:
+    """``df`` with every infinite number made an empty cell, as NaN is: no file says "inf".
+
+    The workbook and HTML writers leave a figure that is not finite empty too
+    (:func:`_cell`, :func:`model.present.readable.number_text`).
+    """
+    numbers = df.select_dtypes(include="number")
+    if numbers.empty or bool(np.isfinite(numbers.to_numpy(dtype=float, na_value=0.0)).all()):
+        return df
+    out = df.copy()
+    for col in numbers.columns:
+        out[col] = out[col].where(~np.isinf(out[col].to_numpy(dtype=float, na_value=0.0)))
+    return out
 
 
 _SHEET_BAD = re.compile(r"[\[\]:*?/\\]")

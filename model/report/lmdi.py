@@ -34,6 +34,11 @@ ZERO_HANDLING = ("analytical", "small_value")
 #: The small positive number of the "small value" strategy (Ang & Liu 2007 suggest 1e-10 to
 #: 1e-20; the result converges to the analytical limits as it shrinks, slowly).
 SMALL_VALUE = 1e-20
+#: What the parts may miss the change by, in every mode: at most RESIDUAL_REL x (|baseline|
+#: + |period|) + RESIDUAL_ABS_KG. [1], [kg CO2e] Common practice, no source: rounding of
+#: double precision sums is some 1e-16 of their size; the bound leaves room for many terms.
+RESIDUAL_REL = 1e-9
+RESIDUAL_ABS_KG = 1e-9
 
 
 def logmean(a, b) -> np.ndarray:
@@ -80,7 +85,7 @@ def lmdi_additive(v0, v1, x0, x1) -> np.ndarray:
     -------
     ndarray, shape (n_factors, n_terms)
         ``L(v1, v0) * ln(x1 / x0)``; summed over factors it gives ``v1 - v0`` for each term
-        exactly (to rounding).
+        (within ``RESIDUAL_REL`` of the term's size, see :func:`log_share_split`).
 
     Notes
     -----
@@ -100,22 +105,82 @@ def lmdi_additive(v0, v1, x0, x1) -> np.ndarray:
     x0 = np.asarray(x0, dtype=float)
     x1 = np.asarray(x1, dtype=float)
     out = np.zeros(x0.shape)
-    w = logmean(v1, v0)
     ok0 = np.all((x0 > 0) & np.isfinite(x0), axis=0)
     ok1 = np.all((x1 > 0) & np.isfinite(x1), axis=0)
     pos = (v0 > 0) & (v1 > 0) & ok0 & ok1
+    out[:, pos] = log_share_split(v1[pos] - v0[pos], logmean(v1[pos], v0[pos]), x0[:, pos], x1[:, pos])
+    _analytical_limits(out, v0, v1, x0, x1, pos)
+    return out
+
+
+def log_share_split(change, weight, x0, x1) -> np.ndarray:
+    """Split each term's change over its factors in proportion to each factor's log change.
+
+    Parameters
+    ----------
+    change : array_like, shape (n_terms,)
+        ``v1 - v0`` of each term (any unit).
+    weight : array_like, shape (n_terms,)
+        ``L(v1, v0)`` of each term, used only where the factors' log changes cancel (the term
+        did not move).
+    x0, x1 : array_like, shape (n_factors, n_terms)
+        The factors, positive and finite.
+
+    Returns
+    -------
+    ndarray, shape (n_factors, n_terms)
+        ``change * ln(x1_k / x0_k) / sum_j ln(x1_j / x0_j)``. Where the log changes cancel,
+        ``weight * ln(x1_k / x0_k)``, with what rounding leaves of ``change`` on the factor
+        that moved most. A column that cannot be worked out in floating point (an overflow)
+        is NaN.
+
+    Notes
+    -----
+    With ``v = prod(x)``, ``L(v1, v0) = (v1 - v0) / ln(v1 / v0)`` and
+    ``ln(v1 / v0) = sum_j ln(x1_j / x0_j)``, so this is the LMDI-I part
+    ``L(v1, v0) ln(x1_k / x0_k)`` of [1]_ written as a share of the change. Written so, the
+    parts of a term add to its change to rounding even where ``prod(x)`` is not quite ``v``:
+    small values put in the place of zeros [2]_, or the product of a tiny user GWP rounded.
+
+    References
+    ----------
+    .. [1] Ang B.W. Energy Policy 2005;33:867-71, Table 1 (additive LMDI-I).
+    .. [2] Ang B.W., Liu N. Energy Policy 2007;35:238-46 (the small value strategy).
+    """
+    change = np.asarray(change, dtype=float)
+    weight = np.asarray(weight, dtype=float)
+    x0 = np.asarray(x0, dtype=float)
+    x1 = np.asarray(x1, dtype=float)
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         # ln x1 - ln x0 rather than ln(x1 / x0): the ratio of two tiny factors can overflow.
-        out[:, pos] = w[pos] * (np.log(x1[:, pos]) - np.log(x0[:, pos]))
-    for i in np.flatnonzero(~pos & ((v0 > 0) | (v1 > 0))):
-        bad = lambda x: (x == 0) | ~np.isfinite(x)  # noqa: E731
+        r = np.log(x1) - np.log(x0)
+        s = r.sum(axis=0)
+        split = np.isfinite(s) & (s != 0)
+        out = np.where(split, change * (r / np.where(split, s, 1.0)), weight * r)
+        left = np.where(split, 0.0, change - out.sum(axis=0))
+    if out.shape[1]:
+        cols = np.arange(out.shape[1])
+        most = np.argmax(np.where(np.isfinite(r), np.abs(r), -1.0), axis=0)
+        out[most, cols] = out[most, cols] + left
+    out[:, ~np.all(np.isfinite(out), axis=0)] = np.nan
+    return out
+
+
+def _analytical_limits(out, v0, v1, x0, x1, done) -> None:
+    """Fill, in place, the terms not ``done`` or not finite with the analytical limits of Ang and Liu 2007."""
+    done = done & np.all(np.isfinite(out), axis=0)
+    out[:, ~done] = 0.0
+
+    def bad(x):
+        return (x == 0) | ~np.isfinite(x)
+
+    for i in np.flatnonzero(~done & (v0 != v1)):
         zero_side = x0[:, i] if v0[i] == 0 else x1[:, i] if v1[i] == 0 else None
         hits = (
             np.flatnonzero(bad(zero_side)) if zero_side is not None else np.flatnonzero(bad(x0[:, i]) | bad(x1[:, i]))
         )
         k = int(hits[0]) if len(hits) else 0
         out[k, i] = v1[i] - v0[i]
-    return out
 
 
 @dataclass(frozen=True)
@@ -209,6 +274,11 @@ class Decomposition:
         """Period less baseline [kg CO2e]."""
         return self.period_kg - self.baseline_kg
 
+    @property
+    def residual_kg(self) -> float:
+        """What the parts miss the change by: change less the sum of the parts [kg CO2e]."""
+        return float(self.change_kg - self.by_factor["contribution_kg"].sum())
+
     def contribution(self, factor: str) -> float:
         """Contribution of one factor [kg CO2e]."""
         return float(self.by_factor.set_index("factor").loc[factor, "contribution_kg"])
@@ -234,7 +304,8 @@ def decompose(
     Returns
     -------
     Decomposition
-        The parts add to ``period_kg - baseline_kg`` to rounding.
+        The parts add to ``period_kg - baseline_kg`` in either mode: the residual is at most
+        ``RESIDUAL_REL x (|baseline_kg| + |period_kg|) + RESIDUAL_ABS_KG``.
 
     References
     ----------
@@ -244,15 +315,22 @@ def decompose(
     if zero_handling not in ZERO_HANDLING:
         raise ValueError(f"zero_handling must be one of {ZERO_HANDLING}, got {zero_handling!r}")
     agents = sorted(set(baseline.agent_kg) | set(period.agent_kg) | set(baseline.agent_hours) | set(period.agent_hours))
-    small = float(small_value) if zero_handling == "small_value" else None
-    v0, x0 = _factors(baseline, agents, small)
-    v1, x1 = _factors(period, agents, small)
-    if small is not None:
-        # A GWP of zero (a source without the agent) would stay zero: the LMDI weight of
-        # such a term is 0 either way, so the small value of its data changes nothing else.
-        c = lmdi_additive(
-            np.maximum(v0, small), np.maximum(v1, small), np.where(x0 == 0, small, x0), np.where(x1 == 0, small, x1)
-        )
+    v0, x0 = _factors(baseline, agents, None)
+    v1, x1 = _factors(period, agents, None)
+    if zero_handling == "small_value":
+        small = float(small_value)
+        if not (0.0 < small < 1.0):
+            raise ValueError(f"small_value must be a positive number below 1, got {small_value!r}")
+        # Every zero in the data (and a GWP of zero) replaced by the small value; the change
+        # of each term is its real change, split by the factors' log changes.
+        s0, s1 = (_factors(m, agents, small)[1] for m in (baseline, period))
+        s0, s1 = np.where(s0 == 0, small, s0), np.where(s1 == 0, small, s1)
+        use = ((v0 > 0) | (v1 > 0)) & np.all((s0 > 0) & np.isfinite(s0) & (s1 > 0) & np.isfinite(s1), axis=0)
+        c = np.zeros(x0.shape)
+        with np.errstate(over="ignore", under="ignore"):
+            w = logmean(np.exp(np.log(s1[:, use]).sum(axis=0)), np.exp(np.log(s0[:, use]).sum(axis=0)))
+        c[:, use] = log_share_split(v1[use] - v0[use], w, s0[:, use], s1[:, use])
+        _analytical_limits(c, v0, v1, x0, x1, use)
     else:
         c = lmdi_additive(v0, v1, x0, x1)
     terms = list(agents) + ["nitrous_oxide"]

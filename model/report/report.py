@@ -7,9 +7,11 @@ purchases) is left empty with its reason in ``problems``, and the rest stands.
 
 from __future__ import annotations
 
+import math
 import re
 from dataclasses import dataclass, field
 
+import numpy as np
 import pandas as pd
 
 from model.base.errors import InputError
@@ -121,12 +123,27 @@ class EmissionsReport:
         )
         if self.baseline is not None:
             b = self.baseline
-            if p.period.months == b.period.months or abs(p.period.months - b.period.months) < 1e-9:
-                change = p.co2e_t / b.co2e_t - 1.0 if b.co2e_t > 0 else float("nan")
+            same_length = p.period.months == b.period.months or abs(p.period.months - b.period.months) < 1e-9
+            now_t, then_t = (p.co2e_t, b.co2e_t) if same_length else (p.annual_t, b.annual_t)
+            with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+                change = now_t / then_t - 1.0 if then_t > 0 else math.nan
+            if not math.isfinite(change):
+                # No percentage of nothing (or of next to nothing): say why instead of "up nan %".
+                why = (
+                    "no anaesthetic hours"
+                    if not b.figures["hours"] > 0
+                    else "no emissions"
+                    if not then_t > 0
+                    else "emissions too small to compare with"
+                )
+                text += (
+                    f"{'' if same_length else f', {p.annual_t:,.1f} t a year'}; the change on {b.period.label} "
+                    f"cannot be given as a percentage: the baseline has {why}"
+                )
+            elif same_length:
                 word = "down" if change < 0 else "up"
                 text += f", {word} {abs(change):.0%} on {b.period.label} ({b.co2e_t:,.1f} t)"
             else:
-                change = p.annual_t / b.annual_t - 1.0 if b.annual_t > 0 else float("nan")
                 word = "down" if change < 0 else "up"
                 text += (
                     f", {p.annual_t:,.1f} t a year: {word} {abs(change):.0%} on {b.period.label} "
@@ -718,7 +735,21 @@ def driver_sentences(
         return f"{'adds' if kg >= 0 else 'removes'} {abs(kg) / 1000:,.1f} t CO2e"
 
     def pct(a, b):
-        return f"{(b / a - 1):+.0%}" if a > 0 else "new"
+        if not a > 0:
+            return "new" if b > 0 else "none in either"
+        with np.errstate(over="ignore"):
+            change = b / a - 1
+        return f"{change:+.0%}" if math.isfinite(change) else "too few baseline hours for a percentage"
+
+    def none_in(f, name: str) -> str:
+        """``name`` when ``f`` has no anaesthetic hours (so no per-hour figure), else ''."""
+        return "" if f["hours"] > 0 else name
+
+    def why(*which) -> str:
+        named = [w for w in which if w]
+        return (
+            f"cannot be worked out: {' and '.join(named)} {'has' if len(named) == 1 else 'have'} no anaesthetic hours"
+        )
 
     out = []
     h0, h1 = base["hours"], now["hours"]
@@ -730,40 +761,45 @@ def driver_sentences(
         )
     )
     agents = sorted(set(base["agent_hours"]) | set(now["agent_hours"]))
-
-    def share(f, a):
-        return f["agent_hours"].get(a, 0.0) / f["hours"] if f["hours"] > 0 else 0.0
-
     mix = d.detail[d.detail["factor"] == "agent mix"].set_index("term")["contribution_kg"]
     moved = sorted(agents, key=lambda a: -abs(mix.get(a, 0.0)))[:2]
-    bits = "; ".join(f"{a} from {share(base, a):.0%} to {share(now, a):.0%} of hours" for a in moved)
+    if none_in(base, "the baseline") or none_in(now, "the period"):
+        bits = "the share of hours per agent " + why(none_in(base, "the baseline"), none_in(now, "the period"))
+    else:
+        bits = "; ".join(
+            f"{a} from {base['agent_hours'].get(a, 0.0) / h0:.0%} to {now['agent_hours'].get(a, 0.0) / h1:.0%} of hours"
+            for a in moved
+        )
     out.append(("agent mix", f"Agent mix: {bits}. The change of mix {t(d.contribution('agent mix'))}."))
     inten = d.detail[d.detail["factor"] == "intensity"].set_index("term")["contribution_kg"]
 
-    def gph(f, a):
+    def gph(f, a) -> str:
         hrs = f["agent_hours"].get(a, 0.0)
-        return f["agent_kg"].get(a, 0.0) * 1000.0 / hrs if hrs > 0 else float("nan")
+        return f"{f['agent_kg'].get(a, 0.0) * 1000.0 / hrs:,.1f}" if hrs > 0 else f"no {a} hours"
 
     moved = [a for a in sorted(agents, key=lambda a: -abs(inten.get(a, 0.0)))[:2] if abs(inten.get(a, 0.0)) > 0]
-    bits = "; ".join(f"{a} from {gph(base, a):,.1f} to {gph(now, a):,.1f} g of agent per hour" for a in moved)
+    bits = "; ".join(f"{a} from {gph(base, a)} to {gph(now, a)} g of agent per hour" for a in moved)
+    f0, f1 = base["fgf_l_min"], now["fgf_l_min"]
+    if math.isfinite(f0) and math.isfinite(f1):
+        flow = f"time-weighted fresh gas flow went from {f0:.2f} to {f1:.2f} L/min"
+    else:
+        flow = "time-weighted fresh gas flow " + why(
+            "" if math.isfinite(f0) else "the baseline", "" if math.isfinite(f1) else "the period"
+        )
     out.append(
         (
             "intensity",
-            f"Intensity within each agent (fresh gas flow and dial practice): time-weighted fresh "
-            f"gas flow went from {base['fgf_l_min']:.2f} to {now['fgf_l_min']:.2f} L/min"
+            f"Intensity within each agent (fresh gas flow and dial practice): {flow}"
             + (f"; {bits}" if bits else "")
             + f". This {t(d.contribution('intensity'))}.",
         )
     )
-    n0 = base["n2o_kg"] / h0 * 1000 if h0 > 0 else float("nan")
-    n1 = now["n2o_kg"] / h1 * 1000 if h1 > 0 else float("nan")
-    out.append(
-        (
-            "N2O use",
-            f"N2O use: {n0:,.0f} to {n1:,.0f} g of nitrous oxide per anaesthetic hour; this "
-            f"{t(d.contribution('N2O use'))}.",
-        )
-    )
+    if none_in(base, "the baseline") or none_in(now, "the period"):
+        n2o = "nitrous oxide per anaesthetic hour " + why(none_in(base, "the baseline"), none_in(now, "the period"))
+    else:
+        n0, n1 = base["n2o_kg"] / h0 * 1000, now["n2o_kg"] / h1 * 1000
+        n2o = f"{n0:,.0f} to {n1:,.0f} g of nitrous oxide per anaesthetic hour"
+    out.append(("N2O use", f"N2O use: {n2o}; this {t(d.contribution('N2O use'))}."))
     if base_src == now_src:
         out.append(
             (

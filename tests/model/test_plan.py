@@ -108,6 +108,33 @@ def test_other_units_convert():
     assert plan.settings.pressure_kpa == pytest.approx(101.325, rel=1e-5)
 
 
+@pytest.mark.parametrize(
+    "typed, share",
+    [
+        # Reference: pint's definitions (ppm = 1e-6, percent = 0.01); a plain number is a fraction.
+        ("1 ppm", 1e-6),
+        ("0.5 percent", 0.005),
+        ("50 %", 0.5),
+        ("0.5", 0.5),
+        (0.5, 0.5),
+        ("2500 ppm", 0.0025),
+    ],
+)
+def test_a_capture_efficiency_in_ppm_or_percent_keeps_its_meaning(typed, share):
+    plan = plan_from_dict(plan_dict(settings_capture_efficiency=typed))
+    assert plan.settings.capture_efficiency == pytest.approx(share, rel=1e-12)
+
+
+def test_a_capture_of_one_ppm_leaves_the_emissions_almost_whole():
+    # The case: "1 ppm" was read as 1, so all was captured and CO2e was 0 kg.
+    whole = compute_case(plan_from_dict(plan_dict()), DEFAULT_REFERENCE)
+    ppm = compute_case(plan_from_dict(plan_dict(settings_capture_efficiency="1 ppm")), DEFAULT_REFERENCE)
+    whole_kg, ppm_kg = whole.totals["co2e_total_kg"], ppm.totals["co2e_total_kg"]
+    assert whole_kg > 0
+    # Emitted = delivered x (1 - capture) (docs/methods.md); no N2O in this plan.
+    assert ppm_kg == pytest.approx(whole_kg * (1 - 1e-6), rel=1e-9)
+
+
 def test_defaults_fill_optional_fields():
     plan = plan_from_dict({"agent": "Sevo", "phases": [{"duration": 30, "o2": 1, "dial": 2}]})
     assert plan.agent == "sevoflurane"
@@ -172,7 +199,7 @@ BAD = {
         dict(phase_o2="900000 mL/min"),
         ["phases[1].o2", "'900000 mL/min'", "[0, 20] L/min (that is 900 L/min)"],
     ),
-    "zero O2 share": (dict(settings_min_o2_share=0), ["settings.min_o2_share", "above 0"]),
+    "zero O2 share": (dict(settings_min_o2_share=0), ["settings.min_o2_share", "at least 0.01"]),
     "capture above 1": (dict(settings_capture_efficiency=2), ["settings.capture_efficiency", "2", "0 to 1"]),
     "missing duration": (dict(phase_duration=None), ["phases[1].duration", "nothing", "required"]),
     "missing agent": (dict(agent=None), ["agent", "nothing", "required"]),
@@ -181,7 +208,7 @@ BAD = {
     "wrong unit for duration": (dict(phase_duration="60 kg"), ["phases[1].duration", "60 kg", "min"]),
     "wrong unit for weight": (dict(patient={"weight": "70 L"}), ["patient.weight", "70 L", "kg"]),
     "not a quantity": (dict(phase_o2="lots"), ["phases[1].o2", "lots", "quantity"]),
-    "boolean flow": (dict(phase_o2=True), ["phases[1].o2", "True", "number"]),
+    "boolean flow": (dict(phase_o2=True), ["phases[1].o2", "true", "not true or false"]),
     "zero duration": (dict(phase_duration=0), ["phases[1].duration", "0 min", "(0, 1440] min"]),
     "both dial and target": (dict(phase_target=1.0), ["phases[1]", "dial/target", "exactly one"]),
     "neither dial nor target": (dict(phase_dial=None), ["phases[1]", "dial/target", "exactly one"]),
@@ -196,6 +223,18 @@ BAD = {
     "unknown ratio behaviour": (dict(settings_ratio_limit="shout"), ["settings.ratio_limit", "shout", "cap_n2o"]),
     "wrong format version": (dict(format="other 2"), ["format", "other 2", "fresh-gas-ledger plan 1"]),
     "age out of range": (dict(patient={"age": 200}), ["patient.age", "200", "[0, 120]"]),
+    # A dimensionless unit is not a plain number: it must have the field's dimension.
+    "weight in percent": (dict(patient={"weight": "80 %"}), ["patient.weight", "80 %", "convertible to kg"]),
+    "flow in ppm": (dict(phase_o2="2 ppm"), ["phases[1].o2", "2 ppm", "convertible to L/min"]),
+    "temperature as a ratio": (
+        dict(settings_room_temperature="22.5 degC/degC"),
+        ["settings.room_temperature", "22.5 degC/degC", "temperature unit"],
+    ),
+    "target in ppm": (dict(phase_dial=None, phase_target="1.2 ppm"), ["phases[1].target", "1.2 ppm", "MAC multiple"]),
+    "capture in L/min": (
+        dict(settings_capture_efficiency="0.5 L/min"),
+        ["settings.capture_efficiency", "0.5 L/min", "fraction in %, percent or ppm"],
+    ),
 }
 
 

@@ -12,6 +12,7 @@ import pytest
 from model import compute_case
 from model.audit.engine import audit_records
 from model.audit.result import ADDITIVE, BAND_COLUMNS, summarise
+from model.base.errors import InputError
 from model.cli.synth import generate, write
 from model.emissions import gas_mass_g
 from model.freshgas import FLOW_BAND_NAMES, flow_band
@@ -210,3 +211,19 @@ def test_cli_audit_bad_file_exits_2_with_one_line(tmp_path, capsys):
     assert err.count("\n") == 1 and "agent" in err and str(p) in err
     assert main(["audit", str(DEMO / "fernhollow_birch_cases.csv"), "--gap-limit", "-1"]) == 2
     assert "gap limit" in capsys.readouterr().err
+
+
+@pytest.mark.parametrize(
+    "option, name",
+    [
+        ("capture_efficiency", "capture efficiency"),
+        ("temperature_c", "room temperature"),
+        ("high_flow_l_min", "high flow threshold"),
+        ("gap_limit_min", "gap limit"),
+    ],
+)
+def test_a_boolean_option_is_refused_not_read_as_one(tmp_path, option, name):
+    # Python takes True as 1: a capture efficiency of True would be read as 100 % capture.
+    path = _write(tmp_path, [("V", 0.0, "Alder", "sevoflurane", 1.0, 0.0, 0.0, 2.0)])
+    with pytest.raises(InputError, match=rf"^{name}: got True"):
+        audit_records([path], **{option: True})

@@ -126,3 +126,34 @@ def test_the_case_mix_csv_neutralises_formula_names_and_reads_them_back(name):
     assert cell == "'" + name  # a spreadsheet shows it as text, never runs it
     again = parse_case_mix_text(text, "mix.csv", lambda n, w: mix.plans[n] if n in mix.plans else _plans(n, w))
     assert again.types[0].name == name.strip()
+
+
+@pytest.mark.parametrize(
+    "sevo, des, n2o, want",
+    [
+        # Reference: pint's definitions (percent = 0.01, ppm = 1e-6); a plain number is a fraction.
+        ("99.5 percent", "0.5 percent", "0.5 percent", (0.995, 0.005, 0.005)),
+        ('"999000 ppm"', '"1000 ppm"', '"1 ppm"', (0.999, 0.001, 1e-6)),
+        ("0.6", "0.4", "0.25", (0.6, 0.4, 0.25)),
+    ],
+)
+def test_shares_in_percent_or_ppm_keep_their_meaning(sevo, des, n2o, want):
+    text = HEADER + f"Hernia,100,60,0.3,{sevo},{des},{n2o},plans/adult_2l.toml\n"
+    t = parse_case_mix_text(text, "mix.csv", _plans).types[0]
+    got = (t.agent_shares["sevoflurane"], t.agent_shares["desflurane"], t.n2o_share)
+    assert got == pytest.approx(want, rel=1e-12)
+
+
+@pytest.mark.parametrize(
+    "row, field",
+    [
+        ("Hernia,10,60,0.3,1,0,0,plans/adult_2l.toml,80 %", "weight"),
+        ("Hernia,10,60 ppm,0.3,1,0,0,plans/adult_2l.toml,80", "median_duration"),
+        ("Hernia,10,60,0.3,1,0,0.1 L/min,plans/adult_2l.toml,80", "n2o_share"),
+    ],
+)
+def test_a_unit_of_another_dimension_is_refused_naming_line_and_field(row, field):
+    with pytest.raises(InputError) as exc:
+        parse_case_mix_text(HEADER.rstrip("\n") + ",weight\n" + row + "\n", "mix.csv", _plans)
+    message = str(exc.value)
+    assert message.startswith("mix.csv") and "line 2" in message and field in message, message

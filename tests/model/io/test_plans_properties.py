@@ -4,7 +4,7 @@ from hypothesis import HealthCheck, assume, given, settings
 from hypothesis import strategies as st
 
 from model.freshgas import RATIO_BEHAVIOURS
-from model.io.plans import parse_plan_text, plan_to_toml
+from model.io.plans import MIN_O2_SHARE, MIN_TOTAL_FLOW_L_MIN, parse_plan_text, plan_to_toml
 from model.plan import CasePlan, Patient, Phase, Settings
 from model.reference import AGENTS, GWP_SOURCES, VOLATILES
 from tests.helpers.strategies import floats, flows
@@ -18,7 +18,7 @@ names = st.text(st.characters(codec="utf-8", exclude_categories=("Cs", "Cc")), m
 def any_phases(draw, agent_name):
     vmax = AGENTS[agent_name].vaporizer_max
     o2, air, n2o = draw(flows), draw(flows), draw(flows)
-    assume(0 < o2 + air + n2o <= 30)
+    assume(MIN_TOTAL_FLOW_L_MIN <= o2 + air + n2o <= 30)
     if draw(st.booleans()):
         control = dict(dial_pct=draw(floats(0.0, vmax)))
     else:
@@ -42,7 +42,7 @@ def any_plans(draw):
         draw(floats(50.0, 120.0)),
         draw(st.sampled_from(list(GWP_SOURCES))),
         draw(floats(0.0, 1.0)),
-        draw(floats(1e-6, 1.0)),
+        draw(floats(MIN_O2_SHARE, 1.0)),
         draw(floats(0.0, 5.0)),
         draw(st.sampled_from(RATIO_BEHAVIOURS)),
         draw(floats(0.21, 1.0)),

@@ -120,3 +120,14 @@ def test_a_workbook_with_control_characters_in_names_is_written_with_them_shown(
     ws = wb.worksheets[0]
     assert [ws.cell(2, 1).value, ws.cell(3, 1).value] == ["induc\\x1b[31mtion", "\\x07=1+1"]
     assert wb["Notes"]["A1"].value == "note\\x00"
+
+
+def test_csv_writes_an_infinite_or_missing_figure_as_an_empty_cell():
+    # RFC 4180 has no infinity; pandas would write "inf". The workbook leaves such cells empty.
+    df = pd.DataFrame({"what": ["a", "b", "c", "d"], "kg": [1.5, float("inf"), float("-inf"), float("nan")]})
+    text = to_csv(df).decode("utf-8")
+    assert "inf" not in text.lower() and "nan" not in text.lower()
+    rows = list(csv.reader(io.StringIO(text, newline="")))
+    assert [r[1] for r in rows[1:]] == ["1.5", "", "", ""]
+    ws = openpyxl.load_workbook(io.BytesIO(to_xlsx({"t": df}))).worksheets[0]
+    assert [ws.cell(i, 2).value for i in range(2, 6)] == [1.5, None, None, None]

@@ -21,7 +21,7 @@ from model.audit.result import summarise
 from model.base.errors import InputError
 from model.io.purchases import load_purchases
 from model.io.sites import parse_sites, read_sites
-from model.reference import DEFAULT_REFERENCE
+from model.reference import DEFAULT_REFERENCE, MAX_GWP
 from model.report import (
     FACTORS,
     PeriodMix,
@@ -35,6 +35,7 @@ from model.report import (
     target_path_t,
 )
 from model.report.figures import assign_sites
+from model.report.lmdi import RESIDUAL_ABS_KG, RESIDUAL_REL, ZERO_HANDLING
 
 ROOT = Path(__file__).resolve().parents[3]
 DEMO = ROOT / "demo_data" / "records"
@@ -193,6 +194,70 @@ def test_lmdi_parts_add_to_the_total_change(a, b):
     assert math.isfinite(total)
     assert total == pytest.approx(b.co2e_kg - a.co2e_kg, rel=1e-9, abs=1e-6)
     assert d.detail["contribution_kg"].sum() == pytest.approx(total, rel=1e-12, abs=1e-9)
+
+
+def _bound(d):
+    # The bound model.report.lmdi documents for every mode.
+    return RESIDUAL_REL * (abs(d.baseline_kg) + abs(d.period_kg)) + RESIDUAL_ABS_KG
+
+
+def test_the_small_value_strategy_adds_up_when_an_agent_stops_and_its_gwp_is_not_given():
+    # Ang & Liu 2007 (Energy Policy 35:238-46): the small-value strategy is LMDI-I on data
+    # whose zeros are replaced by a small number, so its parts add to the change like
+    # LMDI-I's do (Ang 2005, Energy Policy 33:867-71: "perfect decomposition"). Here the
+    # period has no isoflurane and, like a report's period, no GWP for it (0).
+    now = _mix(2000.0, {**BASE.agent_hours, "isoflurane": 0.0}, {**BASE.agent_kg, "isoflurane": 0.0}, 30.0)
+    now = PeriodMix(now.hours, now.agent_hours, now.agent_kg, {**now.agent_gwp, "isoflurane": 0.0}, 30.0, now.n2o_gwp)
+    s = decompose(BASE, now, zero_handling="small_value")
+    assert s.change_kg == pytest.approx(-1.5 * BASE.agent_gwp["isoflurane"], rel=1e-12)
+    assert abs(s.residual_kg) <= _bound(s)
+    iso = s.detail[s.detail["term"] == "isoflurane"]["contribution_kg"].sum()
+    assert iso == pytest.approx(s.change_kg, rel=1e-12)
+
+
+def test_a_tiny_user_gwp_leaves_no_residual_in_either_mode():
+    # A user GWP of 1e-30 kg CO2e/kg for desflurane is inside the allowed range [0, MAX_GWP]
+    # (model.reference); the parts still add to the change (Ang 2005, perfect decomposition).
+    assert 0 <= 1e-30 <= MAX_GWP
+    tiny = {**BASE.agent_gwp, "desflurane": 1e-30}
+    a = PeriodMix(BASE.hours, BASE.agent_hours, BASE.agent_kg, tiny, BASE.n2o_kg, BASE.n2o_gwp)
+    b = PeriodMix(1800.0, BASE.agent_hours, {**BASE.agent_kg, "desflurane": 26.0}, tiny, 20.0, BASE.n2o_gwp)
+    for mode in ZERO_HANDLING:
+        d = decompose(a, b, zero_handling=mode)
+        assert abs(d.residual_kg) <= _bound(d), mode
+        des = d.detail[d.detail["term"] == "desflurane"]["contribution_kg"].sum()
+        assert des == pytest.approx(13e-30, rel=1e-9, abs=1e-40), mode
+
+
+_gwp_value = st.one_of(
+    st.just(0.0),
+    st.floats(5e-324, 1e-300),
+    st.floats(1e-300, 1e-6),
+    st.floats(1e-6, MAX_GWP),
+)
+_odd_amount = st.one_of(st.just(0.0), st.floats(5e-324, 1e-300), st.floats(1e-300, 1e-3), st.floats(1e-3, 5000.0))
+
+
+@st.composite
+def _odd_period_mix(draw):
+    agents = ("sevoflurane", "desflurane", "isoflurane")
+    hrs = {a: draw(_odd_amount) for a in agents}
+    kg = {a: (draw(_odd_amount) if hrs[a] > 0 else 0.0) for a in agents}
+    total = sum(hrs.values()) + draw(_odd_amount)
+    n2o = draw(_odd_amount) if total > 0 else 0.0
+    return PeriodMix(total, hrs, kg, {a: draw(_gwp_value) for a in agents}, n2o, draw(_gwp_value))
+
+
+@pytest.mark.slow
+@settings(max_examples=400, deadline=None)
+@given(_odd_period_mix(), _odd_period_mix(), st.sampled_from(ZERO_HANDLING))
+def test_lmdi_parts_sum_to_the_change_in_every_mode_with_tiny_and_zero_values(a, b, mode):
+    # Ang 2005 (Energy Policy 33:867-71): LMDI-I is a perfect decomposition (no residual);
+    # Ang & Liu 2007 (Energy Policy 35:238-46): so are its two ways of handling zeros.
+    d = decompose(a, b, zero_handling=mode)
+    parts = d.detail["contribution_kg"].to_numpy()
+    assert np.isfinite(parts).all()
+    assert abs(d.residual_kg) <= _bound(d)
 
 
 # ---- periods -----------------------------------------------------------------------------
@@ -823,3 +888,46 @@ def test_report_documents_escape_user_text_and_neutralise_formula_cells(demo, tm
     ws = openpyxl.load_workbook(path)["By site"]
     # OWASP "CSV injection" advice (common practice): a formula from a user file stays text.
     assert '\'=HYPERLINK("x")' in [c.value for c in ws["A"]]
+
+
+# ---- a period with no anaesthetic hours ----------------------------------------------------
+
+_ONE_SAMPLE = """case_id,time,theatre,agent,o2,air,n2o,dial
+A1,2025-03-02T08:00:00,Alder,sevoflurane,1,1,0,2
+B1,2026-03-02T08:00:00,Alder,sevoflurane,1,1,0,2
+B1,2026-03-02T08:01:00,Alder,sevoflurane,1,1,0.5,2
+B1,2026-03-02T08:02:00,Alder,sevoflurane,1,1,0.5,2
+"""
+_NAN_WORD = re.compile(r"(?<![A-Za-z])(nan|inf)(?![A-Za-z])", re.IGNORECASE)
+
+
+@pytest.mark.parametrize("period, baseline, empty", [("2026", "2025", "the baseline"), ("2025", "2026", "the period")])
+def test_a_period_without_anaesthetic_hours_says_why_a_figure_is_missing(tmp_path, period, baseline, empty):
+    # A case of one sample has no minutes (the time between samples is what is counted,
+    # docs/methods.md): figures per hour and per minute of such a period do not exist.
+    path = tmp_path / "r.csv"
+    path.write_text(_ONE_SAMPLE, encoding="utf-8")
+    cases = audit_records([path]).cases
+    r = build_report(cases, parse_period(period), parse_period(baseline))
+    text = " ".join([r.headline(), *(s for _, s in r.sentences())])
+    assert not _NAN_WORD.search(text), text
+    assert f"{empty} has no anaesthetic hours" in text
+    if empty == "the baseline":
+        assert "cannot be given as a percentage: the baseline has no anaesthetic hours" in r.headline()
+    flow = dict(r.sentences())["intensity"]
+    assert "time-weighted fresh gas flow cannot be worked out" in flow
+    assert "nitrous oxide per anaesthetic hour cannot be worked out" in dict(r.sentences())["N2O use"]
+
+
+def test_a_baseline_of_next_to_no_emissions_gives_no_infinite_percentage(tmp_path):
+    # Found by tests/model/report/test_report_fuzz.py: a baseline of 1e-310 L/min N2O emits
+    # some 1e-313 t, and the period's tonnes over it overflow to "up inf%".
+    rows = ["case_id,time,theatre,agent,o2,air,n2o,dial"]
+    for case, year, n2o, dial in (("A", 2025, "1e-310", "0"), ("B", 2026, "0", "2")):
+        rows += [f"{case},{year}-03-02T08:{m:02d}:00,Alder,sevoflurane,1,0,{n2o},{dial}" for m in range(12)]
+    path = tmp_path / "r.csv"
+    path.write_text("\n".join(rows) + "\n", encoding="utf-8")
+    r = build_report(audit_records([path]).cases, parse_period("2026"), parse_period("2025"))
+    assert 0 < r.baseline.co2e_t < 1e-300
+    assert not _NAN_WORD.search(r.headline()), r.headline()
+    assert "cannot be given as a percentage: the baseline has emissions too small to compare with" in r.headline()
