@@ -26,7 +26,7 @@ import pandas as pd
 
 from model.base.errors import InputError
 from model.base.files import Source, shown_path
-from model.base.units import one_number_and_unit, registry, safe_quantity_text
+from model.base.units import is_number_text, one_number_and_unit, registry, safe_quantity_text
 from model.io.csv_lines import split_csv_lines
 from model.io.sites import RESERVED_SITES
 from model.reference import DEFAULT_REFERENCE, STANDARD_PRESSURE_KPA, Reference, normalise_agent_name
@@ -53,7 +53,6 @@ MAX_AMOUNT = 1e12
 #: large enough that a share of it (the reconciliation's unexplained share) stays finite;
 #: 1e-320 bottles would be a subnormal number whose reciprocal overflows to infinity.
 MIN_AMOUNT = 1e-6
-_NUMBER = re.compile(r"^[+-]?([0-9]+\.?[0-9]*|\.[0-9]+)([eE][+-]?[0-9]+)?$")
 _MONTH = re.compile(r"^[0-9]{4}-(0[1-9]|1[0-2])$")  # ASCII digits only
 
 
@@ -297,7 +296,7 @@ def _purchase_line(
         raise InputError(f"{at}: item", r.item, "allowed items are " + ", ".join(reference.agents))
     agent = reference.agents[key]
     text = str(r.quantity).strip()
-    if not _NUMBER.match(text):  # float() would read full-width digits and "1_0"
+    if not is_number_text(text):  # float() would read full-width digits and "1_0"
         raise InputError(f"{at}: quantity", r.quantity, "expected a number (digits 0-9)")
     qty = float(text)
     if not np.isfinite(qty) or qty < 0 or qty > MAX_QUANTITY:

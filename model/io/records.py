@@ -42,6 +42,7 @@ import pandas as pd
 
 from model.base.errors import InputError
 from model.base.files import Source
+from model.base.units import NUMBER_GRAMMAR
 from model.freshgas import FLOW_BANDS
 from model.io.csv_lines import split_csv_lines
 from model.io.duckdb_connection import LazyConnection, connect, plain_size
@@ -61,6 +62,9 @@ from model.io.record_files import (
 )
 from model.io.record_reading import DEFAULT_MAX_MESSAGES, ReadSummary, Records
 from model.reference import AIR_O2_FRACTION, DEFAULT_REFERENCE, Reference, normalise_agent_name
+
+#: :data:`model.base.units.NUMBER_GRAMMAR` as a SQL string (duckdb's regular expressions).
+_NUMBER_SQL = _sql_str(NUMBER_GRAMMAR)
 
 
 def _raw_select(rf: RecordFile, fileno: int, source_sql: str) -> str:
@@ -88,8 +92,10 @@ def _raw_select(rf: RecordFile, fileno: int, source_sql: str) -> str:
             parts.append(f"CAST({col} AS DOUBLE) * {factor} AS {f}")
         else:
             s = f"NULLIF(trim(CAST({col} AS VARCHAR)), '')"
-            parts.append(f"TRY_CAST({s} AS DOUBLE) * {factor} AS {f}")
-            txt_checks.append((f, f"({s} IS NOT NULL AND TRY_CAST({s} AS DOUBLE) IS NULL)", s))
+            # One number grammar for every reader (duckdb's cast alone reads "1_5" as 15).
+            number = f"CASE WHEN regexp_full_match({s}, {_NUMBER_SQL}) THEN TRY_CAST({s} AS DOUBLE) END"
+            parts.append(f"{number} * {factor} AS {f}")
+            txt_checks.append((f, f"({s} IS NOT NULL AND ({number}) IS NULL)", s))
     # A number that is not finite ('inf', 'nan') counts as text in a number column.
     for f in NUMBER_FIELDS:
         if f in c and not any(t[0] == f for t in txt_checks):

@@ -176,3 +176,28 @@ def test_a_glob_of_parquet_files_reads_as_one_set(tmp_path):
     assert r.report.rows_valid == 9
     with pytest.raises(InputError, match="matches no file"):
         audit_records([str(tmp_path / "nothing-*.parquet")])
+
+
+@pytest.mark.parametrize("text", ["1_5", "0_5", "1,5", "１", "٣", "0x1", "1 5", "inf", "nan", "1e400", "--1", "1e"])
+def test_a_number_outside_the_grammar_is_text_in_a_number_column(tmp_path, text):
+    # The documented number grammar (docs/formats.md, "Numbers in files"); duckdb alone reads "1_5" as 15.
+    body = _rows("A", 5) + f'A,5,Alder,sevoflurane,"{text}",0.5,0,2\n' + "A,6,Alder,sevoflurane,0.5,0.5,0,2\n"
+    r = audit_records([_csv(tmp_path, body)])
+    assert r.report.set_aside["text_in_number"] == 1
+    assert r.report.issues["value"].tolist() == [text]
+    assert r.report.rows_valid == 6
+
+
+@pytest.mark.parametrize(
+    "text, accepted",
+    [("1_5", False), ("1,5", False), ("１", False), ("inf", False), ("1.5", True), (".5", True), ("2e0", True)],
+)
+def test_records_and_purchases_read_numbers_by_one_grammar(tmp_path, text, accepted):
+    from model.io.purchases import load_purchases
+
+    rec = audit_records([_csv(tmp_path, _rows("A", 3) + f'A,3,Alder,sevoflurane,0.5,"{text}",0,2\n')]).report
+    buy = tmp_path / "p.csv"
+    buy.write_text(f'month,item,quantity,unit,size\n2025-01,sevoflurane,"{text}",bottle,\n', encoding="utf-8")
+    bought = load_purchases(buy)
+    assert (rec.set_aside["text_in_number"] == 0) == accepted
+    assert (not bought.set_aside) == accepted
