@@ -289,6 +289,9 @@ def _timestamp_times(tcol, n: int) -> _SampleTimes | None:
     tcol = tcol.combine_chunks() if isinstance(tcol, pa.ChunkedArray) else tcol
     if tcol.type.unit == "ms":  # whole milliseconds already: no conversion pass
         ms = tcol.to_numpy().view(np.int64)
+    elif tcol.type.unit == "ns":  # nanoseconds cut to microseconds, as the SQL reads them
+        tcol = pa.array(tcol.to_numpy().view(np.int64) // 1000, pa.timestamp("us"))
+        ms = tcol.to_numpy().view(np.int64) // 1000
     else:  # duckdb TIMESTAMP: microseconds, then whole milliseconds
         ms = tcol.cast(pa.timestamp("us")).to_numpy().view(np.int64) // 1000
     if n and ms.min() < 0:

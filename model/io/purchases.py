@@ -162,12 +162,9 @@ def load_purchases(
         label = "line"
     elif fmt == ".parquet":
         try:
-            df = pd.read_parquet(src.path if src.path is not None else io.BytesIO(src.read_bytes()))
+            df = _parquet_frame(src)
         except Exception as exc:  # noqa: BLE001  (pyarrow raises many types for a damaged file)
             raise InputError(where, "the file", f"not a readable Parquet file ({type(exc).__name__})") from None
-        for col in df.columns:  # a date-time month is read as its YYYY-MM
-            if pd.api.types.is_datetime64_any_dtype(df[col]):
-                df[col] = df[col].dt.strftime("%Y-%m")
         df = df.astype(object).where(df.notna(), "").astype(str)  # an empty cell is ""
         df.columns = [str(c).strip().lower() for c in df.columns]
         _require_columns(list(df.columns), where)
@@ -193,6 +190,19 @@ def load_purchases(
     set_aside.sort(key=lambda pair: pair[0])
     table = pd.DataFrame(out, columns=["month", "item", "amount", "unit", *((SITE_COLUMN,) if with_site else ())])
     return PurchasesFile(table, [err for _, err in set_aside])
+
+
+def _parquet_frame(src: Source) -> pd.DataFrame:
+    """A purchases Parquet file as a table; a date or date-time column is read as its YYYY-MM."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+    import pyarrow.parquet as pq
+
+    table = pq.read_table(src.path if src.path is not None else io.BytesIO(src.read_bytes()))
+    for i, fld in enumerate(table.schema):
+        if pa.types.is_date(fld.type) or pa.types.is_timestamp(fld.type):
+            table = table.set_column(i, fld.name, pc.strftime(table.column(i), format="%Y-%m"))
+    return table.to_pandas()
 
 
 def _require_columns(columns: list[str], where: str) -> None:

@@ -114,7 +114,9 @@ def _raw_select(rf: RecordFile, fileno: int, source_sql: str) -> str:
     if "time" in c:
         col = _ident(c["time"].source)
         if is_time_type(rf.types.get(c["time"].source, "VARCHAR")):
-            ts = f"CAST({col} AS TIMESTAMP)"
+            ttype = rf.types.get(c["time"].source, "").strip().upper()
+            # Nanoseconds cut to microseconds (duckdb's own cast rounds them).
+            ts = f"make_timestamp(epoch_ns({col}) // 1000)" if ttype == "TIMESTAMP_NS" else f"CAST({col} AS TIMESTAMP)"
             parts.append(f"{ts} AS ts")
             parts.append("NULL::VARCHAR AS bad_time")
         else:

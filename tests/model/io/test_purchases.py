@@ -315,3 +315,30 @@ def test_written_purchases_with_sites_read_back_the_same(tmp_path):
     assert table["site"].tolist() == ["East wing", ""] and table["amount"].tolist()[1] == pytest.approx(
         2500.0
     )  # SI: 1 m**3 = 1000 L
+
+
+@pytest.mark.parametrize("kind", ["date32", "date64", "timestamp_ms", "timestamp_tz"])
+def test_a_parquet_month_column_of_dates_is_read_as_its_month(tmp_path, kind):
+    import datetime
+
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    days = [datetime.date(2025, 1, 1), datetime.date(2025, 2, 1)]
+    month = {
+        "date32": pa.array(days, pa.date32()),
+        "date64": pa.array(days, pa.date64()),
+        "timestamp_ms": pa.array([datetime.datetime(d.year, d.month, 1) for d in days], pa.timestamp("ms")),
+        # Stored with its zone: the month is the one of that zone's calendar (midnight, 1 Feb).
+        "timestamp_tz": pa.array(
+            [datetime.datetime(2024, 12, 31, 23), datetime.datetime(2025, 1, 31, 23)], pa.timestamp("s", tz="UTC")
+        ).cast(pa.timestamp("s", tz="Europe/Paris")),
+    }[kind]
+    p = tmp_path / "p.parquet"
+    pq.write_table(
+        pa.table({"month": month, "item": ["sevoflurane"] * 2, "quantity": [9, 2], "unit": ["bottle"] * 2}), p
+    )
+    read = load_purchases(p)
+    assert read.messages == []
+    # 9 and 2 bottles of 250 mL (the reference bottle, model.reference).
+    assert read.table[["month", "amount"]].values.tolist() == [["2025-01", 2250.0], ["2025-02", 500.0]]

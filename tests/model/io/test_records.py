@@ -201,3 +201,34 @@ def test_records_and_purchases_read_numbers_by_one_grammar(tmp_path, text, accep
     bought = load_purchases(buy)
     assert (rec.set_aside["text_in_number"] == 0) == accepted
     assert (not bought.set_aside) == accepted
+
+
+def test_parquet_nanosecond_times_are_read_to_microseconds(tmp_path):
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    n = 11
+    # 60.000000999 s apart: the nanoseconds below a microsecond are cut, as docs/formats.md says.
+    ns = np.datetime64("2025-03-04T08:00:00", "ns") + np.arange(n) * np.timedelta64(60_000_000_999, "ns")
+    cols = {
+        "case_id": ["A"] * n,
+        "time": pa.array(ns, pa.timestamp("ns")),
+        "agent": ["sevoflurane"] * n,
+        "o2": [0.5] * n,
+        "air": [0.5] * n,
+        "dial": [2.0] * n,
+    }
+    p = tmp_path / "ns.parquet"
+    pq.write_table(pa.table(cols), p)
+    us = ns.astype("datetime64[us]").astype(np.int64)  # numpy's cut to microseconds
+    expected = float((us[-1] // 1000 - us[0] // 1000) / 60000.0)
+    for engine in ("auto", "sql"):
+        r = audit_records([p], engine=engine)
+        assert r.report.rows_valid == n
+        assert r.cases["minutes"].tolist() == [pytest.approx(expected, rel=1e-12)]
+    # A bad row sends the file through the SQL checks: the same minutes.
+    cols["o2"] = [0.5] * (n - 1) + [-1.0]
+    pq.write_table(pa.table(cols), p)
+    r = audit_records([p])
+    assert r.report.set_aside["negative_flow"] == 1
+    assert r.cases["minutes"].tolist() == [pytest.approx(float((us[-2] // 1000 - us[0] // 1000) / 60000.0))]
