@@ -81,6 +81,7 @@ def audit_records(
     max_messages: int | None = None,
     engine: str = "auto",
     progress=None,
+    time_zone: str | None = None,
 ) -> AuditResult:
     """Audit case records: per-case consumption, CO2e, cost, flow-band minutes, high-flow flag.
 
@@ -106,6 +107,9 @@ def audit_records(
         "memory" sorts the samples once and works in numpy (fast, needs the rows in
         memory); "sql" runs duckdb window functions out of core (bounded memory); "auto"
         picks "memory" up to ``IN_MEMORY_ROWS`` rows.
+    time_zone : str, optional
+        IANA time zone of times written without a UTC offset (when reading files here);
+        see :func:`model.io.records.read_records`.
 
     Returns
     -------
@@ -161,6 +165,7 @@ def audit_records(
             memory_limit=memory_limit,
             threads=threads,
             progress=progress,
+            time_zone=time_zone,
             **kwargs,
         )
         try:

@@ -137,7 +137,8 @@ def _read_parquet_file(recs: Records, index: int):
         return None, None
     numbers = [f for f in NUMBER_FIELDS if f in c]
     ttype = schema.field(c["time"].source).type if "time" in c else None
-    fast = _columns_read_as_stored(rf, schema, numbers, ttype)
+    # Times read in a time zone go through the SQL (its clock-change checks).
+    fast = _columns_read_as_stored(rf, schema, numbers, ttype) and (ttype is None or recs.time_zone is None)
     sources = (
         [c[f].source for f in text_fields]
         + ([c["time"].source] if fast and ttype is not None else [])

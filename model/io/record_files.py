@@ -79,6 +79,8 @@ class RecordFile:
     name: str = ""
     #: The bytes of a CSV file given as bytes (None: read from ``path``).
     data: bytes | None = field(default=None, repr=False)
+    #: The time zone stored with each Parquet date-time column that has one (column -> zone).
+    time_zones: dict[str, str] = field(default_factory=dict)
 
     def __post_init__(self) -> None:
         if not self.name:
@@ -237,6 +239,7 @@ def _record_format(src: Source) -> str:
 
 def _inspect_parquet(src: Source) -> RecordFile:
     """The columns of a Parquet record file, from its schema, and their duckdb types."""
+    import pyarrow as pa
     import pyarrow.parquet as pq
 
     where, path = src.name, str(src.path)
@@ -249,7 +252,8 @@ def _inspect_parquet(src: Source) -> RecordFile:
     types = _parquet_types(path, where)
     for key, col in columns.items():
         check_column_type(key, types.get(col.source, "VARCHAR"), f"{where}: column '{col.source}'")
-    return RecordFile(path, "parquet", columns, ignored, 0, types, name=where)
+    zones = {n: t.tz for n in schema.names if pa.types.is_timestamp(t := schema.field(n).type) and t.tz}
+    return RecordFile(path, "parquet", columns, ignored, 0, types, name=where, time_zones=zones)
 
 
 def _duration_factors(columns: dict[str, Column], schema, where: str) -> None:

@@ -61,14 +61,18 @@ from model.io.record_files import (
     is_time_type,
 )
 from model.io.record_reading import DEFAULT_MAX_MESSAGES, ReadSummary, Records
+from model.io.record_times import check_time_zone, instant_ms, stored_zone_local, text_time_levels, zone_levels
 from model.reference import AIR_O2_FRACTION, DEFAULT_REFERENCE, Reference, normalise_agent_name
 
 #: :data:`model.base.units.NUMBER_GRAMMAR` as a SQL string (duckdb's regular expressions).
 _NUMBER_SQL = _sql_str(NUMBER_GRAMMAR)
 
 
-def _raw_select(rf: RecordFile, fileno: int, source_sql: str) -> str:
-    """SELECT giving the canonical raw columns of one file (or a group with one schema)."""
+def _raw_select(rf: RecordFile, fileno: int, source_sql: str, zone: str | None = None) -> str:
+    """SELECT giving the canonical raw columns of one file (or a group with one schema).
+
+    ``zone`` is the time zone of times written without a UTC offset (None: as written).
+    """
     c = rf.columns
     parts = [f"{fileno} AS _fileno" if fileno >= 0 else "_fileno", "_row"]
 
@@ -111,20 +115,13 @@ def _raw_select(rf: RecordFile, fileno: int, source_sql: str) -> str:
         parts.append("NULL::VARCHAR AS txt_col")
         parts.append("NULL::VARCHAR AS txt_val")
     # Time: a date-time column wins over elapsed minutes.
+    levels: list[str] = []
     if "time" in c:
-        col = _ident(c["time"].source)
-        if is_time_type(rf.types.get(c["time"].source, "VARCHAR")):
-            ttype = rf.types.get(c["time"].source, "").strip().upper()
-            # Nanoseconds cut to microseconds (duckdb's own cast rounds them).
-            ts = f"make_timestamp(epoch_ns({col}) // 1000)" if ttype == "TIMESTAMP_NS" else f"CAST({col} AS TIMESTAMP)"
-            parts.append(f"{ts} AS ts")
-            parts.append("NULL::VARCHAR AS bad_time")
-        else:
-            s = f"NULLIF(trim(CAST({col} AS VARCHAR)), '')"
-            parts.append(f"TRY_CAST({s} AS TIMESTAMP) AS ts")
-            parts.append(f"CASE WHEN {s} IS NOT NULL AND TRY_CAST({s} AS TIMESTAMP) IS NULL THEN {s} END AS bad_time")
+        time_parts, levels = _time_columns(rf, zone)
+        parts.extend(time_parts)
     else:
         parts.append("NULL::TIMESTAMP AS ts")
+        parts.append("NULL::BIGINT AS ts_ms")
         if "date" in c:
             col = _ident(c["date"].source)
             s = f"NULLIF(trim(CAST({col} AS VARCHAR)), '')"
@@ -136,7 +133,48 @@ def _raw_select(rf: RecordFile, fileno: int, source_sql: str) -> str:
         parts.append("NULL::TIMESTAMP AS day")
     parts.append(f"{1 if rf.flow_mode == 'parts' else 0} AS parts_mode")
     parts.append(f"{1 if 'time' in c else 0} AS has_ts")
+    for level in levels:  # the time's parts, each level computed once per row
+        source_sql = f"(SELECT *, {level} FROM {source_sql})"
     return f"SELECT {', '.join(parts)} FROM {source_sql}"
+
+
+def _time_columns(rf: RecordFile, zone: str | None) -> tuple[list[str], list[str]]:
+    """The ``ts``, ``ts_ms`` and ``bad_time`` columns of a file with a time column, and the levels they need.
+
+    ``ts`` is the wall-clock time (for the month and the start shown), ``ts_ms`` the
+    instant in milliseconds since 1970 UTC (for the minutes); the levels are the columns
+    computed first around the source (:mod:`model.io.record_times`).
+    """
+    c = rf.columns
+    parts: list[str] = []
+    levels: list[str] = []
+    col = _ident(c["time"].source)
+    ttype = rf.types.get(c["time"].source, "VARCHAR").strip().upper()
+    cell = f"NULLIF(trim(CAST({col} AS VARCHAR)), '')"
+    if ttype == "TIMESTAMP WITH TIME ZONE":  # an instant: its wall clock in the zone stored with it
+        local, ms, bad = stored_zone_local(col, rf.time_zones.get(c["time"].source, "")), f"epoch_ms({col})", None
+    elif is_time_type(ttype):
+        # Nanoseconds cut to microseconds (duckdb's own cast rounds them).
+        local = f"make_timestamp(epoch_ns({col}) // 1000)" if ttype == "TIMESTAMP_NS" else f"CAST({col} AS TIMESTAMP)"
+        if zone is None:
+            ms, bad = f"epoch_ms({local})", None
+        else:
+            levels = [f"{local} AS __gl_local", *zone_levels("__gl_local", zone)]
+            local = "__gl_local"
+            ms = instant_ms(local, None, zone)
+            bad = f"CAST({local} AS VARCHAR)"
+    else:
+        levels = [*text_time_levels(cell), *zone_levels("__gl_local", zone)]
+        local, ms, bad = "__gl_local", instant_ms("__gl_local", "__gl_offset", zone), cell
+    parts.append(f"{local} AS ts")
+    parts.append(f"{ms} AS ts_ms")
+    present = cell if bad == cell else col
+    parts.append(
+        f"CASE WHEN {present} IS NOT NULL AND ({ms}) IS NULL THEN {bad} END AS bad_time"
+        if bad
+        else "NULL::VARCHAR AS bad_time"
+    )
+    return parts, levels
 
 
 #: Stands for the source of the ``prepared`` query until it is given (all files, or one).
@@ -306,6 +344,7 @@ def read_records(
     memory_limit: str | None = None,
     threads: int | None = None,
     progress: Callable[[float, str], None] | None = None,
+    time_zone: str | None = None,
 ) -> Records:
     """Read and check record files (CSV and Parquet, globs allowed).
 
@@ -329,6 +368,9 @@ def read_records(
         duckdb threads (default: all cores).
     progress : callable(fraction, text), optional
         Told of each step.
+    time_zone : str, optional
+        The IANA time zone (``Europe/London``) of times written without a UTC offset
+        (default: as written, with no clock changes); see :mod:`model.io.record_times`.
 
     Returns
     -------
@@ -344,6 +386,7 @@ def read_records(
     """
     if not (isinstance(gap_limit_min, (int, float)) and np.isfinite(gap_limit_min) and gap_limit_min > 0):
         raise InputError("gap limit", gap_limit_min, "expected a positive number of minutes")
+    zone = check_time_zone(time_zone)
     step = progress or (lambda f, t: None)
     files = expand_paths(paths if not isinstance(paths, (str, os.PathLike, Source)) else [paths])
     step(0.0, f"Reading the headers of {len(files)} file(s)")
@@ -361,13 +404,13 @@ def read_records(
         con, tmp = connect(memory_limit, threads)
     try:
         with file_failures(specs):
-            report, rej_rows, gl, per_file = _build_views(con, tmp, specs, reference, gap_limit_min, step)
+            report, rej_rows, gl, per_file = _build_views(con, tmp, specs, reference, gap_limit_min, step, zone)
     except BaseException:
         con.close()
         _remove(tmp)
         _remove(written)
         raise
-    recs = Records(con, specs, report, gl, reference, tmp, _written_dir=written)
+    recs = Records(con, specs, report, gl, reference, tmp, _written_dir=written, time_zone=zone)
     #: Each file's ``prepared`` query and row count, and the agent names as read.
     recs.file_sql, recs.file_rows, recs.agent_map = (per_file["file_sql"], per_file["file_rows"], per_file["agent_map"])
     recs.report.issues = pd.DataFrame(rej_rows, columns=["file", "row", "kind", "column", "value", "message"])
@@ -410,7 +453,7 @@ def _remove(folder: str | None) -> None:
         shutil.rmtree(folder, ignore_errors=True)
 
 
-def _build_views(con, tmp, specs, reference, gap_limit_min, step):
+def _build_views(con, tmp, specs, reference, gap_limit_min, step, zone):
     """Read the CSV files and create the ``raw``, ``prepared``, ``checked`` and ``valid`` views."""
     report = ReadSummary(files=[s.name for s in specs], gap_limit_min=float(gap_limit_min))
     for s in specs:
@@ -435,13 +478,13 @@ def _build_views(con, tmp, specs, reference, gap_limit_min, step):
             f"file_row_number + 1 AS _row FROM read_parquet({names}, filename=true, file_row_number=true))"
         )
         fileno_map = "CASE _grp " + " ".join(f"WHEN {j} THEN {i}" for j, i in enumerate(idx)) + " END"
-        selects.append(_raw_select(s, -1, f"(SELECT *, {fileno_map} AS _fileno FROM {src})"))
+        selects.append(_raw_select(s, -1, f"(SELECT *, {fileno_map} AS _fileno FROM {src})", zone))
         for i in idx:
             one = (
                 f"(SELECT *, file_row_number + 1 AS _row FROM "
                 f"read_parquet({_sql_str(specs[i].path)}, file_row_number=true))"
             )
-            file_selects[i] = _raw_select(specs[i], i, one)
+            file_selects[i] = _raw_select(specs[i], i, one, zone)
             file_rows[i] = _parquet_rows(specs[i].path)
     for i, s in enumerate(specs):
         if s.format != "csv":
@@ -451,8 +494,8 @@ def _build_views(con, tmp, specs, reference, gap_limit_min, step):
         rej_rows.extend(rows)
         name = f"csv_{i}"
         con.register(name, table)
-        selects.append(_raw_select(s, i, name))
-        file_selects[i] = _raw_select(s, i, name)
+        selects.append(_raw_select(s, i, name, zone))
+        file_selects[i] = _raw_select(s, i, name, zone)
         file_rows[i] = table.num_rows + len(rows)
     # The CSV files are read (in file order, for their line numbers); every later query
     # orders what it needs by file and row, so duckdb may stream in any order.
@@ -482,7 +525,7 @@ def _build_views(con, tmp, specs, reference, gap_limit_min, step):
     prepared = f"""
     WITH r AS (
       SELECT src.*, {agent_case} AS agent, {dial_case} AS max_dial,
-        coalesce(epoch_ms(ts) / 60000.0, elapsed) AS t_min,
+        coalesce(ts_ms / 60000.0, elapsed) AS t_min,
         CASE WHEN has_ts = 1 THEN CAST(date_trunc('month', ts) AS DATE)
              ELSE CAST(date_trunc('month', day) AS DATE) END AS month,
         CASE WHEN has_ts = 1 THEN ts ELSE day END AS start_hint
