@@ -167,6 +167,7 @@ def load_purchases(
             raise InputError(where, "the file", f"not a readable Parquet file ({type(exc).__name__})") from None
         df = df.astype(object).where(df.notna(), "").astype(str)  # an empty cell is ""
         df.columns = [str(c).strip().lower() for c in df.columns]
+        _check_header(list(df.columns), where)
         _require_columns(list(df.columns), where)
         columns = list(df.columns)
         rows = [
@@ -205,6 +206,24 @@ def _parquet_frame(src: Source) -> pd.DataFrame:
     return table.to_pandas()
 
 
+def _check_header(columns: list[str], where: str) -> None:
+    """Refuse a header that names a column twice or leaves one unnamed, in one line naming it.
+
+    ``columns`` are the names as compared (stripped, lower case), trailing empty ones removed.
+    """
+    seen: dict[str, int] = {}
+    for k, name in enumerate(columns, start=1):
+        if not name:
+            raise InputError(f"{where}: header", f"column {k}", "a column without a name; name it or remove the column")
+        if name in seen:
+            raise InputError(
+                f"{where}: header",
+                name,
+                f"the column '{name}' is named twice (columns {seen[name]} and {k}); name each column once",
+            )
+        seen[name] = k
+
+
 def _require_columns(columns: list[str], where: str) -> None:
     missing = [c for c in ("month", "item", "quantity", "unit") if c not in columns]
     if missing:
@@ -236,11 +255,31 @@ def _csv_rows(src: Source, where: str):
             f"{where}, line {int(lines.number[head])}", "the header row", f"not readable as CSV ({header})"
         )
     columns = [c.strip().lower() for c in header]
+    # Empty names at the end (every line ending in ",", as spreadsheets export) are no column.
+    while columns and not columns[-1]:
+        columns.pop()
+    _check_header(columns, f"{where}, line {int(lines.number[head])}")
     _require_columns(columns, where)
+    width = len(header)
     rows, set_aside = [], []
     for i in content[1:]:
         number = int(lines.number[i])
         fields = _csv_fields(lines, i)
+        if not isinstance(fields, str) and len(fields) in (width, len(columns)):
+            extra = [f for f in fields[len(columns) :] if f.strip()]
+            if extra:
+                set_aside.append(
+                    (
+                        number,
+                        InputError(
+                            f"{where}, line {number}",
+                            extra[0],
+                            "a value after the last named column; name its column in the header or remove it",
+                        ),
+                    )
+                )
+                continue
+            fields = fields[: len(columns)]
         if isinstance(fields, str):
             set_aside.append((number, InputError(f"{where}, line {number}", lines.text(i), fields)))
         elif len(fields) != len(columns):

@@ -79,6 +79,8 @@ class RecordFile:
     name: str = ""
     #: The bytes of a CSV file given as bytes (None: read from ``path``).
     data: bytes | None = field(default=None, repr=False)
+    #: The header's column names in order, as written (CSV; names may repeat or be empty).
+    names: list[str] = field(default_factory=list)
     #: The time zone stored with each Parquet date-time column that has one (column -> zone).
     time_zones: dict[str, str] = field(default_factory=dict)
 
@@ -304,10 +306,14 @@ def _inspect_csv(src: Source) -> RecordFile:
         names = next(csv.reader([header_line]))
     except csv.Error as exc:
         raise InputError(f"{where}, line {skip + 1}", "the header row", f"not readable as CSV ({exc})") from None
-    columns, ignored = map_columns(names, declared, where)
+    # Unnamed columns are ignored: those at the end (every line ending in "," as
+    # spreadsheets export) silently, others named by their place.
+    last = max((i for i, n in enumerate(names) if n.strip()), default=-1)
+    columns, ignored = map_columns([n for n in names if n.strip()], declared, where)
+    ignored += [f"column {i + 1} (no name)" for i, n in enumerate(names[:last]) if not n.strip()]
     path = "" if src.path is None else str(src.path)
     types = {n: "VARCHAR" for n in names}
-    return RecordFile(path, "csv", columns, ignored, skip, types, name=where, data=src.data)
+    return RecordFile(path, "csv", columns, ignored, skip, types, name=where, data=src.data, names=list(names))
 
 
 def _csv_header(head: bytes, where: str) -> tuple[str, int, dict[str, str]]:

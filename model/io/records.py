@@ -247,7 +247,7 @@ def _csv_table(con, rf: RecordFile, index: int, report: ReadSummary, folder: str
     except OSError as exc:
         raise InputError(rf.name, "the file", f"cannot be read ({exc.strerror or type(exc).__name__})") from None
     header = rf.skip_lines  # index of the header line
-    n_fields = len(rf.types)
+    n_fields = len(rf.names) if rf.names else len(rf.types)
     if header >= len(lines) or lines.broken[header]:
         what = lines.problem(header) if header < len(lines) else "missing"
         raise InputError(f"{rf.name}, line {header + 1}", "the header row", f"not readable as CSV ({what})")
@@ -275,7 +275,9 @@ def _csv_table(con, rf: RecordFile, index: int, report: ReadSummary, folder: str
     del lines
     rej = f"rejects_{index}"
     scan = f"rejects_scan_{index}"
-    columns = "{" + ", ".join(f"{_sql_str(n)}: 'VARCHAR'" for n in rf.types) + "}"
+    # Columns by place (a header may repeat a name or leave one empty); the mapped ones are
+    # named back after reading.
+    columns = "{" + ", ".join(f"'c{k}': 'VARCHAR'" for k in range(n_fields)) + "}"
     try:
         rel = con.sql(
             f"SELECT * FROM read_csv({_sql_str(clean)}, all_varchar=true, header=true, "
@@ -310,6 +312,9 @@ def _csv_table(con, rf: RecordFile, index: int, report: ReadSummary, folder: str
             "the file",
             f"not readable as CSV ({table.num_rows} records in {len(rows)} lines); save it again as CSV UTF-8",
         )
+    names = rf.names or list(rf.types)
+    mapped = list(dict.fromkeys(col.source for col in rf.columns.values()))
+    table = pa.table({src: table.column(names.index(src)) for src in mapped})
     table = table.append_column("_row", pa.array(rows, type=pa.int64()))
     kinds = {
         "INVALID ENCODING": "encoding",

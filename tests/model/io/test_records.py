@@ -232,3 +232,19 @@ def test_parquet_nanosecond_times_are_read_to_microseconds(tmp_path):
     r = audit_records([p])
     assert r.report.set_aside["negative_flow"] == 1
     assert r.cases["minutes"].tolist() == [pytest.approx(float((us[-2] // 1000 - us[0] // 1000) / 60000.0))]
+
+
+@pytest.mark.parametrize(
+    "header, ending",
+    [
+        ("case_id,elapsed,theatre,agent,o2,air,n2o,dial,", ","),  # spreadsheets end every line in ","
+        ("case_id,elapsed,theatre,agent,o2,air,n2o,dial,,", ",,"),
+        ("case_id,elapsed,theatre,agent,o2,air,n2o,dial,note,note", ",a,b"),
+        ("case_id,elapsed,theatre,agent,o2,air,n2o,dial,,note", ",,b"),
+    ],
+)
+def test_empty_and_repeated_names_of_ignored_columns_leave_the_records_read(tmp_path, header, ending):
+    body = "".join(line + ending + "\n" for line in _rows("A").splitlines())
+    r = audit_records([_csv(tmp_path, body, header=header + "\n")])
+    assert r.report.rows_set_aside == 0
+    assert r.cases["minutes"].tolist() == [10.0]
