@@ -239,6 +239,34 @@ def _read_file(records: Records, i: int):
     return read_parquet_file(records, i) if records.files[i].format == "parquet" else (None, None)
 
 
+def _no_file():
+    """Nothing read ahead: the next unit is a group of CSV files, read by its query."""
+    return None, None
+
+
+def _units(records: Records) -> list[tuple[list[int], str]]:
+    """What the file-by-file engine takes at a time: (file indices, their ``prepared`` query).
+
+    One file at a time, except CSV files of one layout, which were read as one table: they
+    are taken together while they fit in memory (many small daily exports cost one query,
+    not one each). A case with samples in several of them is integrated across them, as
+    the in-memory engine does.
+    """
+    grouped = {
+        idx[0]: (idx, sql)
+        for idx, sql in records.csv_groups
+        if len(idx) > 1 and sum(records.file_rows[i] for i in idx) <= IN_MEMORY_ROWS
+    }
+    skip = {i for idx, _ in grouped.values() for i in idx}
+    units = []
+    for i, sql in enumerate(records.file_sql):
+        if i in grouped:
+            units.append(grouped[i])
+        elif i not in skip:
+            units.append(([i], sql))
+    return units
+
+
 def _files_engine(records: Records, high_flow_l_min: float, minute_ventilation_l_min: float, step):
     """The in-memory engine run on each file in turn, when no case spans two files.
 
@@ -251,6 +279,7 @@ def _files_engine(records: Records, high_flow_l_min: float, minute_ventilation_l
     """
     total = max(sum(records.file_rows), 1)
     n_files = len(records.file_sql)
+    units = _units(records)
     parts, time_rows, gap_rows = [], [], []
     counts: dict = {}
     done = 0
@@ -260,23 +289,25 @@ def _files_engine(records: Records, high_flow_l_min: float, minute_ventilation_l
         # While one file is integrated, the next is read (pyarrow and numpy release the
         # GIL, so the two use both cores); at most two files are in memory at once.
         with ThreadPoolExecutor(max_workers=1, thread_name_prefix="gas-ledger-read") as reader:
-            ahead = reader.submit(_read_file, records, 0)
-            for i, sql in enumerate(records.file_sql):
-                step(0.45 + 0.45 * done / total, f"File {i + 1} of {n_files}: {done:,} of {total:,} rows done")
+            ahead = reader.submit(_read_file, records, units[0][0][0])
+            for u, (idx, sql) in enumerate(units):
+                first = idx[0] + 1
+                step(0.45 + 0.45 * done / total, f"File {first} of {n_files}: {done:,} of {total:,} rows done")
                 table, texts = ahead.result()
-                if i + 1 < n_files:
-                    ahead = reader.submit(_read_file, records, i + 1)
+                if u + 1 < len(units):
+                    nxt = units[u + 1][0]
+                    ahead = reader.submit(_read_file, records, nxt[0]) if len(nxt) == 1 else reader.submit(_no_file)
                 raw, c, t, g = _numpy_engine(
                     records, high_flow_l_min, minute_ventilation_l_min, sql if table is None else table, texts
                 )
                 del table, texts
-                raw["_file"] = i
+                raw["_file"] = u
                 parts.append(raw)
                 for k, v in c.items():
                     counts[k] = counts.get(k, 0) + int(v)
                 time_rows += t
                 gap_rows += g
-                done += records.file_rows[i]
+                done += sum(records.file_rows[i] for i in idx)
     finally:
         records.con.execute("SET preserve_insertion_order = false")
     step(0.9, f"{n_files} of {n_files} file(s): {done:,} of {total:,} rows done")

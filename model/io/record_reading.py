@@ -104,6 +104,9 @@ class Records:
     file_sql: list = field(default_factory=list)
     #: Rows of each file (Parquet: from its footer; CSV: lines read, set-aside ones included).
     file_rows: list = field(default_factory=list)
+    #: CSV files read as one table (one layout): (their indices, the ``prepared`` query of
+    #: them all), so engines working file by file may take them at once.
+    csv_groups: list = field(default_factory=list)
     #: Agent text as read (trimmed) -> (reference agent name or "none", vaporizer maximum [%]).
     agent_map: dict = field(default_factory=dict)
     #: The time zone of times written without a UTC offset (None: read as written).

@@ -181,7 +181,7 @@ def _time_columns(rf: RecordFile, zone: str | None) -> tuple[list[str], list[str
 _SOURCE = "/*@records source@*/"
 
 
-def _distinct_agents(con, specs, file_selects) -> list:
+def _distinct_agents(con, specs, file_selects, group_sql=()) -> list:
     """The distinct agent texts as the checks read them (``agent_raw``: trimmed, empty is missing).
 
     A Parquet file with a text agent column gives them from its dictionary pages with
@@ -192,8 +192,11 @@ def _distinct_agents(con, specs, file_selects) -> list:
     import pyarrow.parquet as pq
 
     found: set = set()
-    by_sql = []
+    in_groups = {i for idx, _ in group_sql for i in idx}
+    by_sql = [sql for _, sql in group_sql]
     for i, s in enumerate(specs):
+        if i in in_groups:
+            continue
         src = s.columns["agent"].source
         t = pq.read_schema(s.path).field(src).type if s.format == "parquet" else None
         t = t.value_type if t is not None and pa.types.is_dictionary(t) else t
@@ -229,18 +232,13 @@ def _band_sql(expr: str) -> str:
     return f"CASE {whens} ELSE {_sql_str(FLOW_BANDS[-1][0])} END"
 
 
-def _csv_table(con, rf: RecordFile, index: int, report: ReadSummary, folder: str):
-    """Read a CSV file line by line as text columns with its line numbers; bad lines go to the report.
+def _csv_lines(rf: RecordFile):
+    """The lines of a CSV file to read: (bytes of the lines kept, their line numbers, rows set aside, longest).
 
     The file is cut into lines first (:func:`model.io.csv_lines.split_csv_lines`): a line
     with an unclosed quote, a lone CR, a NUL byte or the wrong number of fields is set
-    aside on its own; the other lines, each one complete record, are read by duckdb, which
-    sets aside what it still cannot read (invalid UTF-8, a stray quote inside a field).
-    Line numbers are those of the file.
+    aside on its own; the others are each one complete record.
     """
-    import duckdb
-    import pyarrow as pa
-
     try:
         raw = np.frombuffer(rf.data, dtype=np.uint8) if rf.data is not None else np.fromfile(rf.path, dtype=np.uint8)
         lines = split_csv_lines(raw)
@@ -264,20 +262,52 @@ def _csv_table(con, rf: RecordFile, index: int, report: ReadSummary, folder: str
         else:
             kind, msg = "field_count", f"expected {n_fields} fields as in the header, found {int(lines.fields[i])}"
         rej_rows.append((rf.name, line, kind, None, None, f"{rf.name}: line {line}: {msg}"))
-    # The header and the lines kept, in a file of their own: its line k + 1 is kept line k.
-    kept_numbers = lines.number[keep]
     longest = int((lines.ends - lines.starts).max()) if len(lines) else 0
+    return lines.keep_bytes(keep) if keep.any() else b"", lines.number[keep], rej_rows, longest
+
+
+def _csv_table(con, group: list[tuple[int, RecordFile]], index: int, folder: str):
+    """Read CSV files of one layout as text columns with their file and line numbers; bad lines go to the report.
+
+    The files' good lines (:func:`_csv_lines`) are read by duckdb as one file under one
+    header (a few files or thousands cost one read), which sets aside what it still cannot
+    read (invalid UTF-8, a stray quote inside a field). Line numbers are those of each file.
+
+    Returns
+    -------
+    table : pyarrow.Table
+        The mapped columns, ``_fileno`` and ``_row``.
+    rej_rows : list
+        The rows set aside, in file and line order.
+    rows_of : dict
+        Rows of each file (lines read, set-aside ones included).
+    """
+    import duckdb
+    import pyarrow as pa
+
+    rf = group[0][1]
+    n_fields = len(rf.names) if rf.names else len(rf.types)
+    rej_rows: list = []
+    numbers, filenos, rows_of = [], [], {}
+    longest = 0
     clean = os.path.join(folder, f"lines_{index}.csv")
-    head_keep = np.zeros(len(lines), dtype=bool)
-    head_keep[header] = True
     with open(clean, "wb") as fh:
-        fh.write(lines.keep_bytes(head_keep | keep))
-    del lines
+        # Columns by place (a header may repeat a name or leave one empty): one header line.
+        fh.write((",".join(f"c{k}" for k in range(n_fields)) + "\n").encode())
+        for i, spec in group:
+            kept, kept_numbers, rejected, long_line = _csv_lines(spec)
+            fh.write(kept)
+            numbers.append(kept_numbers)
+            filenos.append(np.full(len(kept_numbers), i, dtype=np.int64))
+            rej_rows.extend(rejected)
+            rows_of[i] = len(kept_numbers) + len(rejected)
+            longest = max(longest, long_line)
+    kept_numbers = np.concatenate(numbers) if numbers else np.zeros(0, dtype=np.int64)
+    kept_files = np.concatenate(filenos) if filenos else np.zeros(0, dtype=np.int64)
     rej = f"rejects_{index}"
     scan = f"rejects_scan_{index}"
-    # Columns by place (a header may repeat a name or leave one empty); the mapped ones are
-    # named back after reading.
     columns = "{" + ", ".join(f"'c{k}': 'VARCHAR'" for k in range(n_fields)) + "}"
+    names = {i: spec.name for i, spec in group}
     try:
         rel = con.sql(
             f"SELECT * FROM read_csv({_sql_str(clean)}, all_varchar=true, header=true, "
@@ -294,8 +324,9 @@ def _csv_table(con, rf: RecordFile, index: int, report: ReadSummary, folder: str
         ).fetchall()
     except duckdb.Error as exc:
         # duckdb's words may quote the clean copy's place: name the user's file instead.
-        first = (str(exc).replace(clean, rf.name).strip().splitlines() or [type(exc).__name__])[0]
-        raise InputError(rf.name, "the file", f"not readable as CSV ({first})") from None
+        where = rf.name if len(group) == 1 else ", ".join(names.values())[:200]
+        first = (str(exc).replace(clean, where).strip().splitlines() or [type(exc).__name__])[0]
+        raise InputError(where, "the file", f"not readable as CSV ({first})") from None
     finally:
         try:
             os.remove(clean)
@@ -305,16 +336,17 @@ def _csv_table(con, rf: RecordFile, index: int, report: ReadSummary, folder: str
     rejected = np.array([r[0] for r in rejects], dtype=np.int64) - 2
     accepted = np.ones(len(kept_numbers), dtype=bool)
     accepted[rejected[(rejected >= 0) & (rejected < len(kept_numbers))]] = False
-    rows = kept_numbers[accepted]
+    rows, files = kept_numbers[accepted], kept_files[accepted]
     if len(rows) != table.num_rows:  # never expected: each clean line is one record
         raise InputError(
-            rf.name,
+            rf.name if len(group) == 1 else ", ".join(names.values())[:200],
             "the file",
             f"not readable as CSV ({table.num_rows} records in {len(rows)} lines); save it again as CSV UTF-8",
         )
-    names = rf.names or list(rf.types)
+    header = rf.names or list(rf.types)
     mapped = list(dict.fromkeys(col.source for col in rf.columns.values()))
-    table = pa.table({src: table.column(names.index(src)) for src in mapped})
+    table = pa.table({src: table.column(header.index(src)) for src in mapped})
+    table = table.append_column("_fileno", pa.array(files, type=pa.int64()))
     table = table.append_column("_row", pa.array(rows, type=pa.int64()))
     kinds = {
         "INVALID ENCODING": "encoding",
@@ -326,7 +358,7 @@ def _csv_table(con, rf: RecordFile, index: int, report: ReadSummary, folder: str
         k = int(line) - 2
         if not 0 <= k < len(kept_numbers):
             continue
-        number = int(kept_numbers[k])
+        number, name = int(kept_numbers[k]), names[int(kept_files[k])]
         kind = kinds.get(err, "unreadable")
         if kind == "encoding":
             msg = "not valid UTF-8 text; save the file as UTF-8 (CSV UTF-8)"
@@ -334,10 +366,12 @@ def _csv_table(con, rf: RecordFile, index: int, report: ReadSummary, folder: str
             msg = f"expected {n_fields} fields as in the header"
         else:
             msg = f"cannot be read as CSV ({err.lower()})"
-        rej_rows.append((rf.name, number, kind, None, None, f"{rf.name}: line {number}: {msg}"))
-    rej_rows.sort(key=lambda r: r[1])
+        rej_rows.append((name, number, kind, None, None, f"{name}: line {number}: {msg}"))
+    order = {i: k for k, (i, _) in enumerate(group)}
+    by_name = {spec.name: order[i] for i, spec in group}
+    rej_rows.sort(key=lambda r: (by_name.get(r[0], 0), r[1]))
     con.execute(f"DROP TABLE IF EXISTS {rej}; DROP TABLE IF EXISTS {scan}")
-    return table, rej_rows
+    return table, rej_rows, rows_of
 
 
 def read_records(
@@ -418,6 +452,7 @@ def read_records(
     recs = Records(con, specs, report, gl, reference, tmp, _written_dir=written, time_zone=zone)
     #: Each file's ``prepared`` query and row count, and the agent names as read.
     recs.file_sql, recs.file_rows, recs.agent_map = (per_file["file_sql"], per_file["file_rows"], per_file["agent_map"])
+    recs.csv_groups = per_file["groups"]
     recs.report.issues = pd.DataFrame(rej_rows, columns=["file", "row", "kind", "column", "value", "message"])
     recs._rejected = len(rej_rows)
     recs._max_messages = max_messages
@@ -468,6 +503,8 @@ def _build_views(con, tmp, specs, reference, gap_limit_min, step, zone):
     #: The raw SELECT of each file on its own, and its number of rows, for per-file work.
     file_selects: dict[int, str] = {}
     file_rows: dict[int, int] = {}
+    #: The raw SELECT of each group of CSV files read as one table, with the files it holds.
+    group_sql: list = []
     rej_rows: list = []
     # Parquet files with identical columns and types read as one scan.
     groups: dict = {}
@@ -491,24 +528,34 @@ def _build_views(con, tmp, specs, reference, gap_limit_min, step, zone):
             )
             file_selects[i] = _raw_select(specs[i], i, one, zone)
             file_rows[i] = _parquet_rows(specs[i].path)
+    # CSV files of one layout (the same header and units) are read as one table.
+    csv_groups: dict = {}
     for i, s in enumerate(specs):
-        if s.format != "csv":
-            continue
-        step(0.05 + 0.25 * i / max(len(specs), 1), f"Reading {Path(s.name).name}")
-        table, rows = _csv_table(con, s, i, report, tmp)
+        if s.format == "csv":
+            key = (tuple(s.names), tuple(sorted((k, c.source, c.factor) for k, c in s.columns.items())))
+            csv_groups.setdefault(key, []).append(i)
+    done = 0
+    for j, idx in enumerate(csv_groups.values()):
+        s = specs[idx[0]]
+        step(0.05 + 0.25 * done / max(len(specs), 1), f"Reading {Path(s.name).name}")
+        done += len(idx)
+        table, rows, rows_of = _csv_table(con, [(i, specs[i]) for i in idx], j, tmp)
         rej_rows.extend(rows)
-        name = f"csv_{i}"
+        name = f"csv_{j}"
         con.register(name, table)
-        selects.append(_raw_select(s, i, name, zone))
-        file_selects[i] = _raw_select(s, i, name, zone)
-        file_rows[i] = table.num_rows + len(rows)
+        selects.append(_raw_select(s, -1, name, zone))
+        for i in idx:
+            one = name if len(idx) == 1 else f"(SELECT * FROM {name} WHERE _fileno = {i})"
+            file_selects[i] = _raw_select(specs[i], i, one, zone)
+            file_rows[i] = rows_of[i]
+        group_sql.append((idx, _raw_select(s, -1, name, zone)))
     # The CSV files are read (in file order, for their line numbers); every later query
     # orders what it needs by file and row, so duckdb may stream in any order.
     con.execute("SET preserve_insertion_order = false")
     con.execute("CREATE OR REPLACE TEMP VIEW raw AS " + " UNION ALL BY NAME ".join(selects))
     # Agent names: normalise the few distinct values in Python with the reference's rules.
     step(0.35, "Checking agents")
-    distinct = _distinct_agents(con, specs, file_selects)
+    distinct = _distinct_agents(con, specs, file_selects, group_sql)
     amap: list[tuple[str, str, float]] = []
     for raw in distinct:
         agent_key = normalise_agent_name(raw)
@@ -600,5 +647,6 @@ def _build_views(con, tmp, specs, reference, gap_limit_min, step, zone):
         "file_sql": [prepared.replace(_SOURCE, f"({file_selects[i]})") for i in range(len(specs))],
         "file_rows": [int(file_rows[i]) for i in range(len(specs))],
         "agent_map": {r: (k, d) for r, k, d in amap},
+        "groups": [(idx, prepared.replace(_SOURCE, f"({sql})")) for idx, sql in group_sql],
     }
     return report, rej_rows, gl, per_file
