@@ -19,6 +19,7 @@ import pandas as pd
 
 from model.audit.absorbent import absorbent_assumptions
 from model.audit.cases import case_results
+from model.audit.identity import keep_cases_apart
 from model.audit.memory import IN_MEMORY_ROWS, _numpy_engine, read_parquet_file
 from model.audit.result import BAND_COLUMNS, DEFAULT_HIGH_FLOW_L_MIN, DEFAULT_HIGH_FLOW_LIMIT_MIN, ENGINES, AuditResult
 from model.base.errors import InputError
@@ -239,6 +240,20 @@ def _read_file(records: Records, i: int):
     return read_parquet_file(records, i) if records.files[i].format == "parquet" else (None, None)
 
 
+def _ids_shared_in_a_group(records: Records) -> bool:
+    """Whether CSV files read as one table share a case id (their unit would merge it unchecked)."""
+    for idx, sql in records.csv_groups:
+        if (
+            len(idx) > 1
+            and records.con.sql(
+                f"SELECT case_id FROM ({sql}) WHERE problem_a IS NULL AND case_id IS NOT NULL "
+                "GROUP BY case_id HAVING count(DISTINCT _fileno) > 1 LIMIT 1"
+            ).fetchall()
+        ):
+            return True
+    return False
+
+
 def _no_file():
     """Nothing read ahead: the next unit is a group of CSV files, read by its query."""
     return None, None
@@ -344,10 +359,13 @@ def _audit(
     ve = absorbent.minute_ventilation_l_min
     result = None
     if engine == "files":
-        result = _files_engine(records, high_flow_l_min, ve, step)
-        if result is None:  # a case spans files: the whole set at once
+        result = None if _ids_shared_in_a_group(records) else _files_engine(records, high_flow_l_min, ve, step)
+        if result is None:  # a case id in two files: the whole set at once
+            keep_cases_apart(records)
             engine = "memory" if n_rows <= IN_MEMORY_ROWS else "sql"
-            step(0.45, f"A case spans files: auditing all {n_rows:,} rows at once")
+            step(0.45, f"A case id is in more than one file: auditing all {n_rows:,} rows at once")
+    else:
+        keep_cases_apart(records)
     if result is not None:
         raw, counts, time_rows, gap_rows = result
     elif engine == "memory":

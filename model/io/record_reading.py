@@ -107,10 +107,14 @@ class Records:
     #: CSV files read as one table (one layout): (their indices, the ``prepared`` query of
     #: them all), so engines working file by file may take them at once.
     csv_groups: list = field(default_factory=list)
+    #: The query of the ``raw`` view (every file's rows), for views made over it again.
+    raw_sql: str = ""
     #: Agent text as read (trimmed) -> (reference agent name or "none", vaporizer maximum [%]).
     agent_map: dict = field(default_factory=dict)
     #: The time zone of times written without a UTC offset (None: read as written).
     time_zone: str | None = None
+    #: Whether colliding case ids were kept apart (:mod:`model.audit.identity`; None: not looked at).
+    _cases_kept_apart: bool | None = field(default=None, init=False, repr=False)
     #: Rows the reader rejected before the checks (set by the reader).
     _rejected: int = field(default=0, init=False, repr=False)
     #: Most row-level messages kept in the report (set by the reader).

@@ -452,7 +452,7 @@ def read_records(
     recs = Records(con, specs, report, gl, reference, tmp, _written_dir=written, time_zone=zone)
     #: Each file's ``prepared`` query and row count, and the agent names as read.
     recs.file_sql, recs.file_rows, recs.agent_map = (per_file["file_sql"], per_file["file_rows"], per_file["agent_map"])
-    recs.csv_groups = per_file["groups"]
+    recs.csv_groups, recs.raw_sql = per_file["groups"], per_file["raw_sql"]
     recs.report.issues = pd.DataFrame(rej_rows, columns=["file", "row", "kind", "column", "value", "message"])
     recs._rejected = len(rej_rows)
     recs._max_messages = max_messages
@@ -552,7 +552,8 @@ def _build_views(con, tmp, specs, reference, gap_limit_min, step, zone):
     # The CSV files are read (in file order, for their line numbers); every later query
     # orders what it needs by file and row, so duckdb may stream in any order.
     con.execute("SET preserve_insertion_order = false")
-    con.execute("CREATE OR REPLACE TEMP VIEW raw AS " + " UNION ALL BY NAME ".join(selects))
+    raw_sql = " UNION ALL BY NAME ".join(selects)
+    con.execute("CREATE OR REPLACE TEMP VIEW raw AS " + raw_sql)
     # Agent names: normalise the few distinct values in Python with the reference's rules.
     step(0.35, "Checking agents")
     distinct = _distinct_agents(con, specs, file_selects, group_sql)
@@ -648,5 +649,6 @@ def _build_views(con, tmp, specs, reference, gap_limit_min, step, zone):
         "file_rows": [int(file_rows[i]) for i in range(len(specs))],
         "agent_map": {r: (k, d) for r, k, d in amap},
         "groups": [(idx, prepared.replace(_SOURCE, f"({sql})")) for idx, sql in group_sql],
+        "raw_sql": raw_sql,
     }
     return report, rej_rows, gl, per_file
