@@ -20,6 +20,8 @@ from tests.helpers.parser_fuzz import (
     _only_input_error,
     _table,
     _write,
+    known_purchase_files,
+    no_nan_or_inf,
 )
 
 ROOT = Path(__file__).resolve().parents[3]
@@ -217,3 +219,28 @@ def test_found_power_in_a_purchase_unit_is_refused_without_evaluating_it(scratch
         read = purchases.load_purchases(_write(scratch, name, b"month,item,quantity,unit,size\n" + line + b"\n"))
         assert read.table.empty
         assert len(read.messages) == 1 and f"line 2: {column}" in read.messages[0]
+
+
+@settings(FUZZ, max_examples=200)
+@given(case=known_purchase_files())
+def test_odd_purchase_headers_are_refused_in_one_line_or_give_the_plain_sum_of_their_good_lines(case, scratch):
+    """A column named twice or unnamed refuses the file in one line; a trailing empty one is ignored.
+
+    The amount of an accepted file equals the plain sum of its good lines' bottles.
+    """
+    from model.base.errors import InputError
+    from model.reference import DEFAULT_REFERENCE
+
+    text, expected = case
+    path = _write(scratch, "odd.csv", text.encode())
+    if expected is None:
+        with pytest.raises(InputError) as err:
+            purchases.load_purchases(path)
+        assert "\n" not in str(err.value) and "header" in str(err.value)
+        return
+    bottles, bad = expected
+    read = purchases.load_purchases(path)
+    assert len(read.set_aside) == bad, read.messages
+    volume = DEFAULT_REFERENCE.agents["sevoflurane"].bottle_volume  # mL a bottle (model.reference)
+    assert float(read.table["amount"].sum()) == pytest.approx(bottles * volume)
+    assert no_nan_or_inf(read.table.to_dict("records"))

@@ -21,6 +21,8 @@ from tests.helpers.parser_fuzz import (
     _only_input_error,
     _table,
     _write,
+    known_record_sets,
+    no_nan_or_inf,
 )
 
 ROOT = Path(__file__).resolve().parents[3]
@@ -373,3 +375,27 @@ def test_found_record_line_with_nul_before_carriage_return_is_set_aside_alone(sc
 def test_found_power_in_a_record_unit_is_refused_without_evaluating_it(scratch):
     data = b"case_id,elapsed,agent,o2 [L/min**9**9**9],air,dial\nA,0,sevo,1,1,2\n"
     assert _only_input_error(record_files.inspect_file, _write(scratch, "pow.csv", data)) is None
+
+
+@pytest.mark.slow
+@settings(SLOW, max_examples=40)
+@given(case=known_record_sets())
+def test_odd_record_sets_give_the_plain_sums_of_their_good_rows(case, scratch, tmp_path_factory):
+    """Odd record sets: totals equal a plain-Python sum over the rows generated; no nan or inf.
+
+    Classes: times in zones and across clock changes, 12-hour times, trailing text, digit
+    separators, unnamed and repeated columns, case ids reused in other files.
+    """
+    import json
+
+    folder = tmp_path_factory.mktemp("known", numbered=True)
+    paths = [_write(folder, name, text.encode()) for name, text in case["files"]]
+    r = audit_records(paths, time_zone=case["time_zone"], gap_limit_min=600.0, threads=1)
+    assert r.report.rows_set_aside == case["bad"], r.report.issues["message"].tolist()
+    assert r.report.rows_valid + case["bad"] == r.report.rows_read
+    assert len(r.cases) == case["cases"]
+    for col in ("minutes", "oxygen_l", "air_l"):
+        assert float(r.cases[col].sum()) == pytest.approx(case[col], rel=1e-12, abs=1e-9), col
+    out = r.to_dict()
+    assert no_nan_or_inf(out)
+    json.dumps(out, allow_nan=False)  # raises on any nan or inf left in the output
