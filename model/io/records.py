@@ -125,8 +125,13 @@ def _raw_select(rf: RecordFile, fileno: int, source_sql: str, zone: str | None =
         if "date" in c:
             col = _ident(c["date"].source)
             s = f"NULLIF(trim(CAST({col} AS VARCHAR)), '')"
-            parts.append(f"CASE WHEN {s} IS NOT NULL AND TRY_CAST({s} AS DATE) IS NULL THEN {s} END AS bad_time")
-            parts.append(f"CAST(TRY_CAST({s} AS DATE) AS TIMESTAMP) AS day")
+            if is_time_type(rf.types.get(c["date"].source, "VARCHAR")):
+                parts.append("NULL::VARCHAR AS bad_time")
+                parts.append(f"CAST(CAST({col} AS DATE) AS TIMESTAMP) AS day")
+            else:  # the date of a cell by the documented grammar of times, as written
+                levels = text_time_levels(s)
+                parts.append(f"CASE WHEN {s} IS NOT NULL AND __gl_local IS NULL THEN {s} END AS bad_time")
+                parts.append("CAST(CAST(__gl_local AS DATE) AS TIMESTAMP) AS day")
         else:
             parts.append("NULL::VARCHAR AS bad_time")
     if "time" in c or "date" not in c:

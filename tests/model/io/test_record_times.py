@@ -178,3 +178,33 @@ def test_explained_reasons_use_zoneinfo_for_the_spring_gap():
     # zoneinfo: 01:30 on 2025-03-30 does not exist in Europe/London.
     assert "skip this time" in explain_bad_time("2025-03-30 01:30:00", "Europe/London")
     assert "twice" in explain_bad_time("2025-10-26 01:30:00", "Europe/London")
+
+
+@pytest.mark.parametrize("text", ["epoch", "infinity", "2025-03-04 (BC)", "2025/03/04", "2025-02-30", "4 March"])
+def test_a_date_cell_outside_the_grammar_sets_its_row_aside(tmp_path, text):
+    # duckdb's own date cast reads "epoch" as 1970-01-01, "infinity" and BC dates too.
+    p = tmp_path / "d.csv"
+    rows = [("A", "2025-03-04", t) for t in range(3)] + [("B", text, 0), ("B", text, 1)]
+    p.write_text(
+        "case_id,date,elapsed,agent,o2,air,dial\n"
+        + "".join(f"{c},{d},{t},sevoflurane,0.5,0.5,2\n" for c, d, t in rows),
+        encoding="utf-8",
+    )
+    r = audit_records([p])
+    assert r.report.set_aside["bad_time"] == 2
+    assert r.cases[["case_id", "month"]].values.tolist() == [["A", "2025-03"]]
+
+
+def test_naive_parquet_times_are_read_in_the_time_zone_setting(tmp_path):
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    walls = [t.astimezone(LONDON).replace(tzinfo=None) for t in SPRING]  # zoneinfo's wall clock
+    n = len(walls)
+    cols = {"case_id": ["A"] * n, "time": pa.array(walls, pa.timestamp("us")), "agent": ["sevoflurane"] * n}
+    p = tmp_path / "naive.parquet"
+    pq.write_table(pa.table(cols | {"o2": [0.5] * n, "air": [0.5] * n, "dial": [2.0] * n}), p)
+    r = audit_records([p], time_zone="Europe/London")
+    assert r.report.gaps == 0
+    assert r.cases["minutes"].tolist() == [(SPRING[-1] - SPRING[0]).total_seconds() / 60]
+    assert audit_records([p]).report.gaps == 1  # as written: the skipped hour is a gap
