@@ -369,6 +369,7 @@ inputs = {
     "GWP source": result.gwp_label,
     "room temperature": f"{view.temperature_c:g} °C",
     "longest interval counted": f"{gap_limit:g} min",
+    "times without a UTC offset": f"read in {time_zone}" if time_zone else "read as written",
     "high flow above": f"{high_flow:g} L/min",
     "cases": f"{int(total['cases']):,}",
     "rows used": f"{summary['rows_valid']:,}",

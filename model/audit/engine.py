@@ -409,6 +409,7 @@ def _audit(
     step(1.0, f"Done: {n_rows:,} of {n_rows:,} rows in {len(records.files)} file(s)")
     settings = {
         "gap_limit_min": records.gap_limit_min,
+        "time_zone": records.time_zone,
         "high_flow_l_min": float(high_flow_l_min),
         "high_flow_limit_min": float(high_flow_limit_min),
         "temperature_c": float(temperature_c),
