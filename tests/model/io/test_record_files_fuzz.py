@@ -399,3 +399,27 @@ def test_odd_record_sets_give_the_plain_sums_of_their_good_rows(case, scratch, t
     out = r.to_dict()
     assert no_nan_or_inf(out)
     json.dumps(out, allow_nan=False)  # raises on any nan or inf left in the output
+
+
+@settings(SLOW, max_examples=40)
+@given(
+    tails=st.lists(
+        st.one_of(
+            st.text(alphabet=st.characters(blacklist_categories=("Cs", "Cc"), blacklist_characters=',"'), max_size=6),
+            st.sampled_from([" ", "  ", " PM", "Z", "+01:00", " UTC", " GMT", "+14:01", "-12:00", "0", ".5", ":00"]),
+        ),
+        min_size=1,
+        max_size=12,
+    )
+)
+def test_text_after_a_complete_time_is_accepted_only_when_it_is_spaces(tails, scratch):
+    # After seconds and an offset the documented grammar (docs/formats.md) allows nothing but spaces.
+    base = [f"2025-03-04 08:{k:02d}:00+01:00" for k in range(len(tails) + 1)]
+    cells = [base[0]] + [b + tail for b, tail in zip(base[1:], tails, strict=True)]
+    text = "case_id,time,agent,o2,air,dial\n" + "".join(f"A,{c},sevoflurane,0.5,0.5,2\n" for c in cells)
+    r = audit_records([_write(scratch, "tails.csv", text.encode())], gap_limit_min=600.0, threads=1)
+    bad = {k + 3 for k, tail in enumerate(tails) if tail.strip(" ")}  # header is line 1, the first cell line 2
+    assert set(r.report.issues["row"]) == bad
+    assert set(r.report.issues["kind"]) <= {"bad_time"}
+    good = [0] + [k + 1 for k, tail in enumerate(tails) if not tail.strip(" ")]
+    assert r.cases["minutes"].tolist() == [float(good[-1] - good[0])]
