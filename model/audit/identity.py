@@ -69,6 +69,13 @@ def split_parts(records: Records, parts: pd.DataFrame) -> pd.DataFrame:
     return pd.DataFrame(rows, columns=["_fileno", "case_id", "new_id"])
 
 
+def _some_files(records: Records, filenos) -> str:
+    """The names of the first few files, and how many more."""
+    names = list(dict.fromkeys(Path(records.files[int(i)].name).name for i in filenos))
+    more = f" and {len(names) - NOTE_EXAMPLES} more files" if len(names) > NOTE_EXAMPLES else ""
+    return ", ".join(names[:NOTE_EXAMPLES]) + more
+
+
 def _same_day(a, b) -> bool:
     return (pd.isna(a) and pd.isna(b)) or (not pd.isna(a) and not pd.isna(b) and a == b)
 
@@ -98,8 +105,7 @@ def keep_cases_apart(records: Records) -> bool:
     )
     ids = list(dict.fromkeys(split["case_id"]))
     shown = "; ".join(
-        f"'{c}' in " + ", ".join(Path(records.files[i].name).name for i in split.loc[split["case_id"] == c, "_fileno"])
-        for c in ids[:NOTE_EXAMPLES]
+        f"'{c}' in " + _some_files(records, split.loc[split["case_id"] == c, "_fileno"]) for c in ids[:NOTE_EXAMPLES]
     )
     more = f" and {len(ids) - NOTE_EXAMPLES} more" if len(ids) > NOTE_EXAMPLES else ""
     records.report.notes.append(

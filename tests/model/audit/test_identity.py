@@ -72,3 +72,10 @@ def test_parquet_files_keep_their_cases_apart_too(tmp_path):
     r = audit_records([tmp_path / "p0.parquet", tmp_path / "p1.parquet"])
     assert r.cases["case_id"].tolist() == ["X [p0.parquet]", "X [p1.parquet]"]
     assert r.cases["minutes"].tolist() == [10.0, 10.0]
+
+
+def test_the_note_on_reused_ids_stays_one_short_line_for_many_files(tmp_path):
+    files = [_file(tmp_path / f"day-{d:02d}.csv", "1", "Alder", f"2025-03-{d:02d}", 0) for d in range(1, 21)]
+    (note,) = audit_records(files).report.notes
+    assert "'1' in day-01.csv, day-02.csv, day-03.csv and 17 more files" in note
+    assert len(note) < 400 and "\n" not in note
