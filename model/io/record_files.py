@@ -358,7 +358,9 @@ NUMERIC_TYPES = frozenset(
     }
 )
 #: duckdb types read as date-times as they are.
-TIME_TYPES = frozenset({"TIMESTAMP", "TIMESTAMP WITH TIME ZONE", "TIMESTAMP_S", "TIMESTAMP_MS", "TIMESTAMP_NS", "DATE"})
+TIME_TYPES = frozenset(
+    {"TIMESTAMP", "TIMESTAMP WITH TIME ZONE", "TIMESTAMPTZ_NS", "TIMESTAMP_S", "TIMESTAMP_MS", "TIMESTAMP_NS", "DATE"}
+)
 #: Scalar duckdb types read as text (and checked row by row, as CSV cells are).
 TEXT_TYPES = frozenset({"VARCHAR", "BOOLEAN", "UUID", "TIME", "INTERVAL", "BLOB"})
 _DECIMAL = re.compile(r"^DECIMAL\(\d+,\s*\d+\)$")

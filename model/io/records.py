@@ -156,7 +156,9 @@ def _time_columns(rf: RecordFile, zone: str | None) -> tuple[list[str], list[str
     col = _ident(c["time"].source)
     ttype = rf.types.get(c["time"].source, "VARCHAR").strip().upper()
     cell = f"NULLIF(trim(CAST({col} AS VARCHAR)), '')"
-    if ttype == "TIMESTAMP WITH TIME ZONE":  # an instant: its wall clock in the zone stored with it
+    if ttype in ("TIMESTAMP WITH TIME ZONE", "TIMESTAMPTZ_NS"):  # an instant: its wall clock in the stored zone
+        if ttype == "TIMESTAMPTZ_NS":  # nanoseconds cut to microseconds
+            col = f"timezone('UTC', make_timestamp(epoch_ns({col}) // 1000))"
         local, ms, bad = stored_zone_local(col, rf.time_zones.get(c["time"].source, "")), f"epoch_ms({col})", None
     elif is_time_type(ttype):
         # Nanoseconds cut to microseconds (duckdb's own cast rounds them).

@@ -15,7 +15,9 @@ from model.io import record_files, records
 from tests.helpers.fuzz import SLOW
 from tests.helpers.parser_fuzz import (
     _NUMBERS,
+    NEAR_CHANGES,
     PARSER_FUZZ,
+    ZONES,
     _lines_file,
     _mangled,
     _only_input_error,
@@ -423,3 +425,33 @@ def test_text_after_a_complete_time_is_accepted_only_when_it_is_spaces(tails, sc
     assert set(r.report.issues["kind"]) <= {"bad_time"}
     good = [0] + [k + 1 for k, tail in enumerate(tails) if not tail.strip(" ")]
     assert r.cases["minutes"].tolist() == [float(good[-1] - good[0])]
+
+
+@settings(SLOW, max_examples=30)
+@given(
+    zone=st.sampled_from(ZONES),
+    start=st.sampled_from(NEAR_CHANGES),
+    steps=st.lists(st.integers(1, 40), min_size=1, max_size=30),
+    unit=st.sampled_from(["s", "ms", "us", "ns"]),
+)
+def test_parquet_times_stored_with_a_zone_give_zoneinfos_minutes_and_month(zone, start, steps, unit, scratch):
+    import datetime as dt
+    import zoneinfo
+
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    first = dt.datetime.fromisoformat(start).replace(tzinfo=dt.UTC)
+    instants = [first + dt.timedelta(minutes=sum(steps[:k])) for k in range(len(steps) + 1)]
+    n = len(instants)
+    times = pa.array(instants, pa.timestamp("us", tz="UTC")).cast(pa.timestamp(unit, tz=zone))
+    table = pa.table(
+        {"case_id": ["A"] * n, "time": times, "agent": ["sevoflurane"] * n, "o2": [1.0] * n, "dial": [2.0] * n}
+    )
+    path = scratch / "zoned.parquet"
+    pq.write_table(table, path)
+    r = audit_records([path], gap_limit_min=600.0, threads=1)
+    local = first.astimezone(zoneinfo.ZoneInfo(zone))  # the zoneinfo database: the stored zone's calendar
+    assert r.cases["minutes"].tolist() == [float(sum(steps))]
+    assert r.cases["month"].tolist() == [local.strftime("%Y-%m")]
+    assert str(r.cases["start"].iloc[0]) == local.strftime("%Y-%m-%d %H:%M:%S")

@@ -248,3 +248,21 @@ def test_empty_and_repeated_names_of_ignored_columns_leave_the_records_read(tmp_
     r = audit_records([_csv(tmp_path, body, header=header + "\n")])
     assert r.report.rows_set_aside == 0
     assert r.cases["minutes"].tolist() == [10.0]
+
+
+def test_parquet_nanosecond_times_stored_with_a_zone_are_read(tmp_path):
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    n = 11
+    ns = np.datetime64("2025-03-04T08:00:00", "ns") + np.arange(n) * np.timedelta64(60_000_000_999, "ns")
+    times = pa.array(ns, pa.timestamp("ns", tz="UTC")).cast(pa.timestamp("ns", tz="Europe/Paris"))
+    cols = {"case_id": ["A"] * n, "time": times, "agent": ["sevoflurane"] * n, "o2": [0.5] * n, "dial": [2.0] * n}
+    p = tmp_path / "ns_tz.parquet"
+    pq.write_table(pa.table(cols), p)
+    us = ns.astype("datetime64[us]").astype(np.int64)  # numpy's cut to microseconds
+    r = audit_records([p])
+    assert r.report.rows_valid == n
+    assert r.cases["minutes"].tolist() == [pytest.approx(float((us[-1] // 1000 - us[0] // 1000) / 60000.0))]
+    # Paris is UTC+01:00 on 4 March 2025 (zoneinfo): the start in the stored zone.
+    assert str(r.cases["start"].iloc[0]) == "2025-03-04 09:00:00"
