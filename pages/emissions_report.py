@@ -69,6 +69,14 @@ else:
 if not files:
     st.info("Upload record files (format in docs/formats.md, 'Case records') to build the report.")
     st.stop()
+time_zone = st.text_input(
+    "Time zone of record times without a UTC offset",
+    "",
+    key="er_time_zone",
+    placeholder="as written (e.g. Europe/London)",
+    help="An IANA zone name. Times written with an offset (+01:00, Z) are read as that instant; "
+    "others in this zone, across its clock changes. Empty: read as written.",
+).strip()
 
 
 def _digest(items: list[Source]) -> str:
@@ -79,10 +87,10 @@ def _digest(items: list[Source]) -> str:
 
 
 @st.cache_data(show_spinner="Auditing the records...", max_entries=4)
-def audited(digest: str, ref_key: str, temperature_c: float, _files, _ref):
+def audited(digest: str, ref_key: str, temperature_c: float, time_zone: str, _files, _ref):
     """The audit's case table, reading summary and absorbent note; messages name the user's files."""
     try:
-        result = audit_records(_files, reference=_ref, temperature_c=temperature_c)
+        result = audit_records(_files, reference=_ref, temperature_c=temperature_c, time_zone=time_zone or None)
     except InputError as err:
         return None, str(err), ""
     return result.cases, result.report.summary(), result.absorbent_note()
@@ -104,7 +112,7 @@ def purchases_table(digest: str, ref_key: str, _files, _ref):
 
 
 cases, summary, absorbent_note = audited(
-    _digest(files), ui.reference_key(view), float(view.temperature_c), tuple(files), ref
+    _digest(files), ui.reference_key(view), float(view.temperature_c), time_zone, tuple(files), ref
 )
 if cases is None:
     ui.show_input_error(InputError("records", "the files", summary))

@@ -132,6 +132,14 @@ with st.expander("Audit settings"):
     high_limit = c3.number_input(
         "Flag high-flow runs of at least [min]", 1.0, 600.0, DEFAULT_HIGH_FLOW_LIMIT_MIN, 1.0, key="ra_high_limit"
     )
+    time_zone = st.text_input(
+        "Time zone of times without a UTC offset",
+        "",
+        key="ra_time_zone",
+        placeholder="as written (e.g. Europe/London)",
+        help="An IANA zone name. Times written with an offset (+01:00, Z) are read as that instant; "
+        "others in this zone, across its clock changes. Empty: read as written.",
+    ).strip()
 
 if not files:
     st.info("Choose demo files or upload record files to start the audit.")
@@ -143,7 +151,7 @@ def run_audit(files: tuple[Source, ...], purchases: Source | None, settings: tup
 
     Returns (audit result, reconciliation or None, messages for purchase lines set aside, cost by item).
     """
-    gap, high, limit, gwp, temp = settings
+    gap, high, limit, gwp, temp, zone = settings
     result = audit_records(
         files,
         reference=_ref,
@@ -153,6 +161,7 @@ def run_audit(files: tuple[Source, ...], purchases: Source | None, settings: tup
         high_flow_l_min=high,
         high_flow_limit_min=limit,
         progress=_progress,
+        time_zone=zone or None,
     )
     recon, purchase_notes, bought_table = None, [], None
     if purchases is not None:
@@ -168,7 +177,14 @@ for f in files:
     digest.update(f.digest().encode())
 if purchases_file:
     digest.update(b"purchases" + purchases_file.digest().encode())
-settings = (float(gap_limit), float(high_flow), float(high_limit), view.gwp_source, float(view.temperature_c))
+settings = (
+    float(gap_limit),
+    float(high_flow),
+    float(high_limit),
+    view.gwp_source,
+    float(view.temperature_c),
+    time_zone,
+)
 cache_key = (digest.hexdigest(), settings, ui.reference_key(view))
 # Results are kept per session (the last few), so moving between tabs does not re-run the audit;
 # st.cache_data cannot hold it because the progress bar is drawn while the audit runs.
@@ -353,6 +369,7 @@ inputs = {
     "GWP source": result.gwp_label,
     "room temperature": f"{view.temperature_c:g} °C",
     "longest interval counted": f"{gap_limit:g} min",
+    "times without a UTC offset": f"read in {time_zone}" if time_zone else "read as written",
     "high flow above": f"{high_flow:g} L/min",
     "cases": f"{int(total['cases']):,}",
     "rows used": f"{summary['rows_valid']:,}",

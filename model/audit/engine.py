@@ -19,6 +19,7 @@ import pandas as pd
 
 from model.audit.absorbent import absorbent_assumptions
 from model.audit.cases import case_results
+from model.audit.identity import keep_cases_apart
 from model.audit.memory import IN_MEMORY_ROWS, _numpy_engine, read_parquet_file
 from model.audit.result import BAND_COLUMNS, DEFAULT_HIGH_FLOW_L_MIN, DEFAULT_HIGH_FLOW_LIMIT_MIN, ENGINES, AuditResult
 from model.base.errors import InputError
@@ -81,6 +82,7 @@ def audit_records(
     max_messages: int | None = None,
     engine: str = "auto",
     progress=None,
+    time_zone: str | None = None,
 ) -> AuditResult:
     """Audit case records: per-case consumption, CO2e, cost, flow-band minutes, high-flow flag.
 
@@ -106,6 +108,9 @@ def audit_records(
         "memory" sorts the samples once and works in numpy (fast, needs the rows in
         memory); "sql" runs duckdb window functions out of core (bounded memory); "auto"
         picks "memory" up to ``IN_MEMORY_ROWS`` rows.
+    time_zone : str, optional
+        IANA time zone of times written without a UTC offset (when reading files here);
+        see :func:`model.io.records.read_records`.
 
     Returns
     -------
@@ -163,6 +168,7 @@ def audit_records(
             memory_limit=memory_limit,
             threads=threads,
             progress=progress,
+            time_zone=time_zone,
             **kwargs,
         )
         try:
@@ -236,6 +242,48 @@ def _read_file(records: Records, i: int):
     return read_parquet_file(records, i) if records.files[i].format == "parquet" else (None, None)
 
 
+def _ids_shared_in_a_group(records: Records) -> bool:
+    """Whether CSV files read as one table share a case id (their unit would merge it unchecked)."""
+    for idx, sql in records.csv_groups:
+        if (
+            len(idx) > 1
+            and records.con.sql(
+                f"SELECT case_id FROM ({sql}) WHERE problem_a IS NULL AND case_id IS NOT NULL "
+                "GROUP BY case_id HAVING count(DISTINCT _fileno) > 1 LIMIT 1"
+            ).fetchall()
+        ):
+            return True
+    return False
+
+
+def _no_file():
+    """Nothing read ahead: the next unit is a group of CSV files, read by its query."""
+    return None, None
+
+
+def _units(records: Records) -> list[tuple[list[int], str]]:
+    """What the file-by-file engine takes at a time: (file indices, their ``prepared`` query).
+
+    One file at a time, except CSV files of one layout, which were read as one table: they
+    are taken together while they fit in memory (many small daily exports cost one query,
+    not one each). A case with samples in several of them is integrated across them, as
+    the in-memory engine does.
+    """
+    grouped = {
+        idx[0]: (idx, sql)
+        for idx, sql in records.csv_groups
+        if len(idx) > 1 and sum(records.file_rows[i] for i in idx) <= IN_MEMORY_ROWS
+    }
+    skip = {i for idx, _ in grouped.values() for i in idx}
+    units = []
+    for i, sql in enumerate(records.file_sql):
+        if i in grouped:
+            units.append(grouped[i])
+        elif i not in skip:
+            units.append(([i], sql))
+    return units
+
+
 def _files_engine(records: Records, high_flow_l_min: float, minute_ventilation_l_min: float, step):
     """The in-memory engine run on each file in turn, when no case spans two files.
 
@@ -248,6 +296,7 @@ def _files_engine(records: Records, high_flow_l_min: float, minute_ventilation_l
     """
     total = max(sum(records.file_rows), 1)
     n_files = len(records.file_sql)
+    units = _units(records)
     parts, time_rows, gap_rows = [], [], []
     counts: dict = {}
     done = 0
@@ -257,23 +306,25 @@ def _files_engine(records: Records, high_flow_l_min: float, minute_ventilation_l
         # While one file is integrated, the next is read (pyarrow and numpy release the
         # GIL, so the two use both cores); at most two files are in memory at once.
         with ThreadPoolExecutor(max_workers=1, thread_name_prefix="gas-ledger-read") as reader:
-            ahead = reader.submit(_read_file, records, 0)
-            for i, sql in enumerate(records.file_sql):
-                step(0.45 + 0.45 * done / total, f"File {i + 1} of {n_files}: {done:,} of {total:,} rows done")
+            ahead = reader.submit(_read_file, records, units[0][0][0])
+            for u, (idx, sql) in enumerate(units):
+                first = idx[0] + 1
+                step(0.45 + 0.45 * done / total, f"File {first} of {n_files}: {done:,} of {total:,} rows done")
                 table, texts = ahead.result()
-                if i + 1 < n_files:
-                    ahead = reader.submit(_read_file, records, i + 1)
+                if u + 1 < len(units):
+                    nxt = units[u + 1][0]
+                    ahead = reader.submit(_read_file, records, nxt[0]) if len(nxt) == 1 else reader.submit(_no_file)
                 raw, c, t, g = _numpy_engine(
                     records, high_flow_l_min, minute_ventilation_l_min, sql if table is None else table, texts
                 )
                 del table, texts
-                raw["_file"] = i
+                raw["_file"] = u
                 parts.append(raw)
                 for k, v in c.items():
                     counts[k] = counts.get(k, 0) + int(v)
                 time_rows += t
                 gap_rows += g
-                done += records.file_rows[i]
+                done += sum(records.file_rows[i] for i in idx)
     finally:
         records.con.execute("SET preserve_insertion_order = false")
     step(0.9, f"{n_files} of {n_files} file(s): {done:,} of {total:,} rows done")
@@ -310,10 +361,13 @@ def _audit(
     ve = absorbent.minute_ventilation_l_min
     result = None
     if engine == "files":
-        result = _files_engine(records, high_flow_l_min, ve, step)
-        if result is None:  # a case spans files: the whole set at once
+        result = None if _ids_shared_in_a_group(records) else _files_engine(records, high_flow_l_min, ve, step)
+        if result is None:  # a case id in two files: the whole set at once
+            keep_cases_apart(records)
             engine = "memory" if n_rows <= IN_MEMORY_ROWS else "sql"
-            step(0.45, f"A case spans files: auditing all {n_rows:,} rows at once")
+            step(0.45, f"A case id is in more than one file: auditing all {n_rows:,} rows at once")
+    else:
+        keep_cases_apart(records)
     if result is not None:
         raw, counts, time_rows, gap_rows = result
     elif engine == "memory":
@@ -357,6 +411,7 @@ def _audit(
     step(1.0, f"Done: {n_rows:,} of {n_rows:,} rows in {len(records.files)} file(s)")
     settings = {
         "gap_limit_min": records.gap_limit_min,
+        "time_zone": records.time_zone,
         "high_flow_l_min": float(high_flow_l_min),
         "high_flow_limit_min": float(high_flow_limit_min),
         "temperature_c": float(temperature_c),

@@ -137,7 +137,8 @@ def _read_parquet_file(recs: Records, index: int):
         return None, None
     numbers = [f for f in NUMBER_FIELDS if f in c]
     ttype = schema.field(c["time"].source).type if "time" in c else None
-    fast = _columns_read_as_stored(rf, schema, numbers, ttype)
+    # Times read in a time zone go through the SQL (its clock-change checks).
+    fast = _columns_read_as_stored(rf, schema, numbers, ttype) and (ttype is None or recs.time_zone is None)
     sources = (
         [c[f].source for f in text_fields]
         + ([c["time"].source] if fast and ttype is not None else [])
@@ -289,6 +290,9 @@ def _timestamp_times(tcol, n: int) -> _SampleTimes | None:
     tcol = tcol.combine_chunks() if isinstance(tcol, pa.ChunkedArray) else tcol
     if tcol.type.unit == "ms":  # whole milliseconds already: no conversion pass
         ms = tcol.to_numpy().view(np.int64)
+    elif tcol.type.unit == "ns":  # nanoseconds cut to microseconds, as the SQL reads them
+        tcol = pa.array(tcol.to_numpy().view(np.int64) // 1000, pa.timestamp("us"))
+        ms = tcol.to_numpy().view(np.int64) // 1000
     else:  # duckdb TIMESTAMP: microseconds, then whole milliseconds
         ms = tcol.cast(pa.timestamp("us")).to_numpy().view(np.int64) // 1000
     if n and ms.min() < 0:

@@ -14,6 +14,7 @@ apostrophe before a formula start gets a second one.
 
 from __future__ import annotations
 
+import csv
 import re
 
 import pandas as pd
@@ -98,6 +99,15 @@ def csv_text(df: pd.DataFrame, lineterminator: str = "\r\n") -> str:
         The table; its index is not written.
     lineterminator : str
         Line ends: CRLF (RFC 4180, the default), which makes the writer quote any field
-        holding a carriage return or a newline, or a newline alone.
+        holding a carriage return or a newline, or a newline alone. With a newline alone the
+        writer would leave a carriage return inside a field unquoted, and a reader (which
+        ends a line at either) would cut the row there: a table holding a line break in any
+        text is then written with all its text quoted.
     """
-    return neutralise_frame(df).to_csv(index=False, lineterminator=lineterminator)
+    out = neutralise_frame(df)
+    quoting = csv.QUOTE_MINIMAL
+    if lineterminator != "\r\n":
+        text = out.select_dtypes(exclude="number")
+        if any(isinstance(v, str) and ("\r" in v or "\n" in v) for v in text.to_numpy().ravel()):
+            quoting = csv.QUOTE_NONNUMERIC
+    return out.to_csv(index=False, lineterminator=lineterminator, quoting=quoting)

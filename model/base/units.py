@@ -28,6 +28,19 @@ _POWER = re.compile(r"\*\*|\^")
 _SMALL_POWER = re.compile(r"(?:\*\*|\^)\s*[+-]?\d(?![\d.eE])(?!\s*(?:\*\*|\^))")
 
 
+#: The one grammar of a number in a cell of a file (case records and purchases alike):
+#: an optional sign, ASCII digits 0-9 with an optional decimal point, an optional
+#: exponent. Nothing else: no digit separators ("1_5", "1,5", "1 500"), no digits of other
+#: scripts, no "inf" or "nan". docs/formats.md documents it ("Numbers in files").
+NUMBER_GRAMMAR = r"[+-]?([0-9]+\.?[0-9]*|\.[0-9]+)([eE][+-]?[0-9]+)?"
+_NUMBER_TEXT = re.compile(NUMBER_GRAMMAR)
+
+
+def is_number_text(text: str) -> bool:
+    """Whether ``text`` is a number by :data:`NUMBER_GRAMMAR` (callers trim it first)."""
+    return _NUMBER_TEXT.fullmatch(text) is not None
+
+
 _LEADING_NUMBER = re.compile(r"^\s*[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?")
 
 

@@ -69,6 +69,12 @@ def register(subparsers) -> None:
     )
     p.add_argument("--gwp-source", default=None, help="GWP source key (default ar6_gwp100)")
     p.add_argument(
+        "--time-zone",
+        default=None,
+        metavar="ZONE",
+        help="IANA time zone of record times written without a UTC offset, e.g. Europe/London (default: as written)",
+    )
+    p.add_argument(
         "--memory-limit", default=None, metavar="SIZE", help="duckdb memory limit for large record sets, e.g. 3GB"
     )
     p.add_argument(
@@ -146,6 +152,7 @@ def _audit(args, reference: Reference) -> AuditResult:
             high_flow_limit_min=DEFAULT_HIGH_FLOW_LIMIT_MIN if args.high_flow_limit is None else args.high_flow_limit,
             memory_limit=args.memory_limit,
             progress=progress,
+            time_zone=args.time_zone,
         )
     finally:
         if progress is not None:

@@ -44,6 +44,12 @@ def register(subparsers) -> None:
         help="GWP source of the headline (default ar6_gwp100); AR5 and AR6 GWP100 are always shown",
     )
     p.add_argument("--baseline-gwp", default=None, help="GWP source of the baseline (default: as --gwp)")
+    p.add_argument(
+        "--time-zone",
+        default=None,
+        metavar="ZONE",
+        help="IANA time zone of record times written without a UTC offset, e.g. Europe/London (default: as written)",
+    )
     p.add_argument("--json", action="store_true", help="machine-readable output")
     p.add_argument("--xlsx", default=None, metavar="FILE", help="also write the report's tables as an Excel workbook")
     p.add_argument(
@@ -65,6 +71,7 @@ def cmd_report(args) -> int:
     from model.audit.engine import audit_records
     from model.base.errors import InputError
     from model.io.purchases import load_purchases
+    from model.io.record_times import check_time_zone
     from model.io.sites import read_sites
     from model.reference import DEFAULT_GWP, load_settings
     from model.report import build_report, parse_period, parse_target
@@ -78,11 +85,12 @@ def cmd_report(args) -> int:
     for flag, key in (("--gwp", gwp), ("--baseline-gwp", args.baseline_gwp)):
         if key is not None and key not in reference.gwp_sources:
             raise InputError(flag, key, "allowed sources are " + ", ".join(reference.gwp_sources))
+    check_time_zone(args.time_zone)
     sites = read_sites(args.sites) if args.sites else None
     for flag, path in (("--xlsx", args.xlsx), ("--html", args.html)):
         if path and not Path(path).parent.is_dir():
             raise InputError(flag, path, "the folder to write into does not exist")
-    result = audit_records(args.files, reference=reference, gwp_source=gwp)
+    result = audit_records(args.files, reference=reference, gwp_source=gwp, time_zone=args.time_zone)
     purchases, purchase_notes = None, []
     if args.purchases:
         read = [load_purchases(f, reference) for f in args.purchases]

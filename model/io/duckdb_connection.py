@@ -27,6 +27,8 @@ def connect(memory_limit: str | None = None, threads: int | None = None):
             con.close()
             shutil.rmtree(tmp, ignore_errors=True)
             raise InputError("--memory-limit", memory_limit, "a size with its unit, such as 3GB or 500MB") from None
+    # Date-times with a zone are read as instants, whatever the server's own zone.
+    con.execute("SET TimeZone = 'UTC'")
     # Threads from the machine: the cores this process may run on.
     con.execute(f"SET threads = {int(threads) if threads else _cores()}")
     # duckdb counts a query's progress (read by the audit's progress line) without drawing its own bar.

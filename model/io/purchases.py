@@ -27,7 +27,7 @@ import pandas as pd
 from model.base.cells import csv_text, unneutralise
 from model.base.errors import InputError
 from model.base.files import Source, shown_path
-from model.base.units import one_number_and_unit, registry, safe_quantity_text
+from model.base.units import is_number_text, one_number_and_unit, registry, safe_quantity_text
 from model.io.csv_lines import split_csv_lines
 from model.io.sites import RESERVED_SITES
 from model.reference import DEFAULT_REFERENCE, STANDARD_PRESSURE_KPA, Reference, normalise_agent_name
@@ -54,7 +54,6 @@ MAX_AMOUNT = 1e12
 #: large enough that a share of it (the reconciliation's unexplained share) stays finite;
 #: 1e-320 bottles would be a subnormal number whose reciprocal overflows to infinity.
 MIN_AMOUNT = 1e-6
-_NUMBER = re.compile(r"^[+-]?([0-9]+\.?[0-9]*|\.[0-9]+)([eE][+-]?[0-9]+)?$")
 _MONTH = re.compile(r"^[0-9]{4}-(0[1-9]|1[0-2])$")  # ASCII digits only
 
 
@@ -164,14 +163,12 @@ def load_purchases(
         label = "line"
     elif fmt == ".parquet":
         try:
-            df = pd.read_parquet(src.path if src.path is not None else io.BytesIO(src.read_bytes()))
+            df = _parquet_frame(src)
         except Exception as exc:  # noqa: BLE001  (pyarrow raises many types for a damaged file)
             raise InputError(where, "the file", f"not a readable Parquet file ({type(exc).__name__})") from None
-        for col in df.columns:  # a date-time month is read as its YYYY-MM
-            if pd.api.types.is_datetime64_any_dtype(df[col]):
-                df[col] = df[col].dt.strftime("%Y-%m")
         df = df.astype(object).where(df.notna(), "").astype(str)  # an empty cell is ""
         df.columns = [str(c).strip().lower() for c in df.columns]
+        _check_header(list(df.columns), where)
         _require_columns(list(df.columns), where)
         columns = list(df.columns)
         rows = [
@@ -195,6 +192,37 @@ def load_purchases(
     set_aside.sort(key=lambda pair: pair[0])
     table = pd.DataFrame(out, columns=["month", "item", "amount", "unit", *((SITE_COLUMN,) if with_site else ())])
     return PurchasesFile(table, [err for _, err in set_aside])
+
+
+def _parquet_frame(src: Source) -> pd.DataFrame:
+    """A purchases Parquet file as a table; a date or date-time column is read as its YYYY-MM."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+    import pyarrow.parquet as pq
+
+    table = pq.read_table(src.path if src.path is not None else io.BytesIO(src.read_bytes()))
+    for i, fld in enumerate(table.schema):
+        if pa.types.is_date(fld.type) or pa.types.is_timestamp(fld.type):
+            table = table.set_column(i, fld.name, pc.strftime(table.column(i), format="%Y-%m"))
+    return table.to_pandas()
+
+
+def _check_header(columns: list[str], where: str) -> None:
+    """Refuse a header that names a column twice or leaves one unnamed, in one line naming it.
+
+    ``columns`` are the names as compared (stripped, lower case), trailing empty ones removed.
+    """
+    seen: dict[str, int] = {}
+    for k, name in enumerate(columns, start=1):
+        if not name:
+            raise InputError(f"{where}: header", f"column {k}", "a column without a name; name it or remove the column")
+        if name in seen:
+            raise InputError(
+                f"{where}: header",
+                name,
+                f"the column '{name}' is named twice (columns {seen[name]} and {k}); name each column once",
+            )
+        seen[name] = k
 
 
 def _require_columns(columns: list[str], where: str) -> None:
@@ -228,11 +256,31 @@ def _csv_rows(src: Source, where: str):
             f"{where}, line {int(lines.number[head])}", "the header row", f"not readable as CSV ({header})"
         )
     columns = [c.strip().lower() for c in header]
+    # Empty names at the end (every line ending in ",", as spreadsheets export) are no column.
+    while columns and not columns[-1]:
+        columns.pop()
+    _check_header(columns, f"{where}, line {int(lines.number[head])}")
     _require_columns(columns, where)
+    width = len(header)
     rows, set_aside = [], []
     for i in content[1:]:
         number = int(lines.number[i])
         fields = _csv_fields(lines, i)
+        if not isinstance(fields, str) and len(fields) in (width, len(columns)):
+            extra = [f for f in fields[len(columns) :] if f.strip()]
+            if extra:
+                set_aside.append(
+                    (
+                        number,
+                        InputError(
+                            f"{where}, line {number}",
+                            extra[0],
+                            "a value after the last named column; name its column in the header or remove it",
+                        ),
+                    )
+                )
+                continue
+            fields = fields[: len(columns)]
         if isinstance(fields, str):
             set_aside.append((number, InputError(f"{where}, line {number}", lines.text(i), fields)))
         elif len(fields) != len(columns):
@@ -298,7 +346,7 @@ def _purchase_line(
         raise InputError(f"{at}: item", r.item, "allowed items are " + ", ".join(reference.agents))
     agent = reference.agents[key]
     text = str(r.quantity).strip()
-    if not _NUMBER.match(text):  # float() would read full-width digits and "1_0"
+    if not is_number_text(text):  # float() would read full-width digits and "1_0"
         raise InputError(f"{at}: quantity", r.quantity, "expected a number (digits 0-9)")
     qty = float(text)
     if not np.isfinite(qty) or qty < 0 or qty > MAX_QUANTITY:

@@ -79,6 +79,10 @@ class RecordFile:
     name: str = ""
     #: The bytes of a CSV file given as bytes (None: read from ``path``).
     data: bytes | None = field(default=None, repr=False)
+    #: The header's column names in order, as written (CSV; names may repeat or be empty).
+    names: list[str] = field(default_factory=list)
+    #: The time zone stored with each Parquet date-time column that has one (column -> zone).
+    time_zones: dict[str, str] = field(default_factory=dict)
 
     def __post_init__(self) -> None:
         if not self.name:
@@ -237,6 +241,7 @@ def _record_format(src: Source) -> str:
 
 def _inspect_parquet(src: Source) -> RecordFile:
     """The columns of a Parquet record file, from its schema, and their duckdb types."""
+    import pyarrow as pa
     import pyarrow.parquet as pq
 
     where, path = src.name, str(src.path)
@@ -249,7 +254,8 @@ def _inspect_parquet(src: Source) -> RecordFile:
     types = _parquet_types(path, where)
     for key, col in columns.items():
         check_column_type(key, types.get(col.source, "VARCHAR"), f"{where}: column '{col.source}'")
-    return RecordFile(path, "parquet", columns, ignored, 0, types, name=where)
+    zones = {n: t.tz for n in schema.names if pa.types.is_timestamp(t := schema.field(n).type) and t.tz}
+    return RecordFile(path, "parquet", columns, ignored, 0, types, name=where, time_zones=zones)
 
 
 def _duration_factors(columns: dict[str, Column], schema, where: str) -> None:
@@ -300,10 +306,14 @@ def _inspect_csv(src: Source) -> RecordFile:
         names = next(csv.reader([header_line]))
     except csv.Error as exc:
         raise InputError(f"{where}, line {skip + 1}", "the header row", f"not readable as CSV ({exc})") from None
-    columns, ignored = map_columns(names, declared, where)
+    # Unnamed columns are ignored: those at the end (every line ending in "," as
+    # spreadsheets export) silently, others named by their place.
+    last = max((i for i, n in enumerate(names) if n.strip()), default=-1)
+    columns, ignored = map_columns([n for n in names if n.strip()], declared, where)
+    ignored += [f"column {i + 1} (no name)" for i, n in enumerate(names[:last]) if not n.strip()]
     path = "" if src.path is None else str(src.path)
     types = {n: "VARCHAR" for n in names}
-    return RecordFile(path, "csv", columns, ignored, skip, types, name=where, data=src.data)
+    return RecordFile(path, "csv", columns, ignored, skip, types, name=where, data=src.data, names=list(names))
 
 
 def _csv_header(head: bytes, where: str) -> tuple[str, int, dict[str, str]]:
@@ -348,7 +358,9 @@ NUMERIC_TYPES = frozenset(
     }
 )
 #: duckdb types read as date-times as they are.
-TIME_TYPES = frozenset({"TIMESTAMP", "TIMESTAMP WITH TIME ZONE", "TIMESTAMP_S", "TIMESTAMP_MS", "TIMESTAMP_NS", "DATE"})
+TIME_TYPES = frozenset(
+    {"TIMESTAMP", "TIMESTAMP WITH TIME ZONE", "TIMESTAMPTZ_NS", "TIMESTAMP_S", "TIMESTAMP_MS", "TIMESTAMP_NS", "DATE"}
+)
 #: Scalar duckdb types read as text (and checked row by row, as CSV cells are).
 TEXT_TYPES = frozenset({"VARCHAR", "BOOLEAN", "UUID", "TIME", "INTERVAL", "BLOB"})
 _DECIMAL = re.compile(r"^DECIMAL\(\d+,\s*\d+\)$")

@@ -8,6 +8,7 @@ from typing import TYPE_CHECKING
 import pandas as pd
 
 from model.io.record_files import DEFAULT_GAP_LIMIT_MIN, MAX_FLOW_L_MIN, MAX_TOTAL_FLOW_L_MIN, RecordFile, file_failures
+from model.io.record_times import explain_bad_time
 from model.reference import DEFAULT_REFERENCE, Reference
 
 if TYPE_CHECKING:
@@ -103,8 +104,17 @@ class Records:
     file_sql: list = field(default_factory=list)
     #: Rows of each file (Parquet: from its footer; CSV: lines read, set-aside ones included).
     file_rows: list = field(default_factory=list)
+    #: CSV files read as one table (one layout): (their indices, the ``prepared`` query of
+    #: them all), so engines working file by file may take them at once.
+    csv_groups: list = field(default_factory=list)
+    #: The query of the ``raw`` view (every file's rows), for views made over it again.
+    raw_sql: str = ""
     #: Agent text as read (trimmed) -> (reference agent name or "none", vaporizer maximum [%]).
     agent_map: dict = field(default_factory=dict)
+    #: The time zone of times written without a UTC offset (None: read as written).
+    time_zone: str | None = None
+    #: Whether colliding case ids were kept apart (:mod:`model.audit.identity`; None: not looked at).
+    _cases_kept_apart: bool | None = field(default=None, init=False, repr=False)
     #: Rows the reader rejected before the checks (set by the reader).
     _rejected: int = field(default=0, init=False, repr=False)
     #: Most row-level messages kept in the report (set by the reader).
@@ -163,17 +173,17 @@ def finish_report(
                 f"SELECT {cols.format(problem='problem', prev='prev_max')} FROM checked "
                 f"WHERE problem IS NOT NULL ORDER BY _fileno, _row LIMIT {limit}"
             ).fetchall()
-            new = [_issue_row(files[r[0]], r, recs.reference) for r in rows]
+            new = [_issue_row(files[r[0]], r, recs.reference, recs.time_zone) for r in rows]
     else:
         if limit and sum(v for k, v in counts.items() if k not in ("duplicate_time", "time_backwards")):
             rows = con.sql(
                 f"SELECT {cols.format(problem='problem_a', prev='NULL')} FROM prepared "
                 f"WHERE problem_a IS NOT NULL ORDER BY _fileno, _row LIMIT {limit}"
             ).fetchall()
-            new = [_issue_row(files[r[0]], r, recs.reference) for r in rows]
+            new = [_issue_row(files[r[0]], r, recs.reference, recs.time_zone) for r in rows]
         for f, row, kind, case_id, t_min, prev_max in time_rows[:limit]:
             r = (f, row, kind, case_id, None, t_min) + (None,) * 12 + (prev_max,)
-            new.append(_issue_row(files[f], r, recs.reference))
+            new.append(_issue_row(files[f], r, recs.reference, recs.time_zone))
     if new:
         rep.issues = pd.concat([rep.issues, pd.DataFrame(new, columns=rep.issues.columns)], ignore_index=True)
     rep.issues = rep.issues.sort_values(["file", "row"], kind="stable").head(recs._max_messages)
@@ -203,7 +213,7 @@ def _fmt_num(x) -> str:
     return "empty" if x is None else f"{x:g}"
 
 
-def _issue_row(rf: RecordFile, r, reference: Reference):
+def _issue_row(rf: RecordFile, r, reference: Reference, time_zone: str | None = None):
     (
         _,
         row,
@@ -232,7 +242,8 @@ def _issue_row(rf: RecordFile, r, reference: Reference):
     elif kind == "bad_time":
         col = rf.columns["time" if "time" in rf.columns else "date"].source
         val = bad_time
-        msg = f"column '{col}' holds '{val}', expected a date-time such as 2025-03-04 08:15:00"
+        why = explain_bad_time(val, time_zone) if "time" in rf.columns else "expected a date such as 2025-03-04"
+        msg = f"column '{col}' holds '{val}', {why}"
     elif kind == "missing_value":
         empty = []
         if case_id is None:

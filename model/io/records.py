@@ -42,9 +42,10 @@ import pandas as pd
 
 from model.base.errors import InputError
 from model.base.files import Source
+from model.base.units import NUMBER_GRAMMAR
 from model.freshgas import FLOW_BANDS
-from model.io.csv_lines import split_csv_lines
 from model.io.duckdb_connection import LazyConnection, connect, plain_size
+from model.io.record_csv import csv_table
 from model.io.record_files import (
     DEFAULT_GAP_LIMIT_MIN,
     MAX_FLOW_L_MIN,
@@ -60,11 +61,18 @@ from model.io.record_files import (
     is_time_type,
 )
 from model.io.record_reading import DEFAULT_MAX_MESSAGES, ReadSummary, Records
+from model.io.record_times import check_time_zone, instant_ms, stored_zone_local, text_time_levels, zone_levels
 from model.reference import AIR_O2_FRACTION, DEFAULT_REFERENCE, Reference, normalise_agent_name
 
+#: :data:`model.base.units.NUMBER_GRAMMAR` as a SQL string (duckdb's regular expressions).
+_NUMBER_SQL = _sql_str(NUMBER_GRAMMAR)
 
-def _raw_select(rf: RecordFile, fileno: int, source_sql: str) -> str:
-    """SELECT giving the canonical raw columns of one file (or a group with one schema)."""
+
+def _raw_select(rf: RecordFile, fileno: int, source_sql: str, zone: str | None = None) -> str:
+    """SELECT giving the canonical raw columns of one file (or a group with one schema).
+
+    ``zone`` is the time zone of times written without a UTC offset (None: as written).
+    """
     c = rf.columns
     parts = [f"{fileno} AS _fileno" if fileno >= 0 else "_fileno", "_row"]
 
@@ -88,8 +96,10 @@ def _raw_select(rf: RecordFile, fileno: int, source_sql: str) -> str:
             parts.append(f"CAST({col} AS DOUBLE) * {factor} AS {f}")
         else:
             s = f"NULLIF(trim(CAST({col} AS VARCHAR)), '')"
-            parts.append(f"TRY_CAST({s} AS DOUBLE) * {factor} AS {f}")
-            txt_checks.append((f, f"({s} IS NOT NULL AND TRY_CAST({s} AS DOUBLE) IS NULL)", s))
+            # One number grammar for every reader (duckdb's cast alone reads "1_5" as 15).
+            number = f"CASE WHEN regexp_full_match({s}, {_NUMBER_SQL}) THEN TRY_CAST({s} AS DOUBLE) END"
+            parts.append(f"{number} * {factor} AS {f}")
+            txt_checks.append((f, f"({s} IS NOT NULL AND ({number}) IS NULL)", s))
     # A number that is not finite ('inf', 'nan') counts as text in a number column.
     for f in NUMBER_FIELDS:
         if f in c and not any(t[0] == f for t in txt_checks):
@@ -105,37 +115,80 @@ def _raw_select(rf: RecordFile, fileno: int, source_sql: str) -> str:
         parts.append("NULL::VARCHAR AS txt_col")
         parts.append("NULL::VARCHAR AS txt_val")
     # Time: a date-time column wins over elapsed minutes.
+    levels: list[str] = []
     if "time" in c:
-        col = _ident(c["time"].source)
-        if is_time_type(rf.types.get(c["time"].source, "VARCHAR")):
-            ts = f"CAST({col} AS TIMESTAMP)"
-            parts.append(f"{ts} AS ts")
-            parts.append("NULL::VARCHAR AS bad_time")
-        else:
-            s = f"NULLIF(trim(CAST({col} AS VARCHAR)), '')"
-            parts.append(f"TRY_CAST({s} AS TIMESTAMP) AS ts")
-            parts.append(f"CASE WHEN {s} IS NOT NULL AND TRY_CAST({s} AS TIMESTAMP) IS NULL THEN {s} END AS bad_time")
+        time_parts, levels = _time_columns(rf, zone)
+        parts.extend(time_parts)
     else:
         parts.append("NULL::TIMESTAMP AS ts")
+        parts.append("NULL::BIGINT AS ts_ms")
         if "date" in c:
             col = _ident(c["date"].source)
             s = f"NULLIF(trim(CAST({col} AS VARCHAR)), '')"
-            parts.append(f"CASE WHEN {s} IS NOT NULL AND TRY_CAST({s} AS DATE) IS NULL THEN {s} END AS bad_time")
-            parts.append(f"CAST(TRY_CAST({s} AS DATE) AS TIMESTAMP) AS day")
+            if is_time_type(rf.types.get(c["date"].source, "VARCHAR")):
+                parts.append("NULL::VARCHAR AS bad_time")
+                parts.append(f"CAST(CAST({col} AS DATE) AS TIMESTAMP) AS day")
+            else:  # the date of a cell by the documented grammar of times, as written
+                levels = text_time_levels(s)
+                parts.append(f"CASE WHEN {s} IS NOT NULL AND __gl_local IS NULL THEN {s} END AS bad_time")
+                parts.append("CAST(CAST(__gl_local AS DATE) AS TIMESTAMP) AS day")
         else:
             parts.append("NULL::VARCHAR AS bad_time")
     if "time" in c or "date" not in c:
         parts.append("NULL::TIMESTAMP AS day")
     parts.append(f"{1 if rf.flow_mode == 'parts' else 0} AS parts_mode")
     parts.append(f"{1 if 'time' in c else 0} AS has_ts")
+    for level in levels:  # the time's parts, each level computed once per row
+        source_sql = f"(SELECT *, {level} FROM {source_sql})"
     return f"SELECT {', '.join(parts)} FROM {source_sql}"
+
+
+def _time_columns(rf: RecordFile, zone: str | None) -> tuple[list[str], list[str]]:
+    """The ``ts``, ``ts_ms`` and ``bad_time`` columns of a file with a time column, and the levels they need.
+
+    ``ts`` is the wall-clock time (for the month and the start shown), ``ts_ms`` the
+    instant in milliseconds since 1970 UTC (for the minutes); the levels are the columns
+    computed first around the source (:mod:`model.io.record_times`).
+    """
+    c = rf.columns
+    parts: list[str] = []
+    levels: list[str] = []
+    col = _ident(c["time"].source)
+    ttype = rf.types.get(c["time"].source, "VARCHAR").strip().upper()
+    cell = f"NULLIF(trim(CAST({col} AS VARCHAR)), '')"
+    if ttype in ("TIMESTAMP WITH TIME ZONE", "TIMESTAMPTZ_NS"):  # an instant: its wall clock in the stored zone
+        if ttype == "TIMESTAMPTZ_NS":  # nanoseconds cut to microseconds
+            col = f"timezone('UTC', make_timestamp(epoch_ns({col}) // 1000))"
+        local, ms, bad = stored_zone_local(col, rf.time_zones.get(c["time"].source, "")), f"epoch_ms({col})", None
+    elif is_time_type(ttype):
+        # Nanoseconds cut to microseconds (duckdb's own cast rounds them).
+        local = f"make_timestamp(epoch_ns({col}) // 1000)" if ttype == "TIMESTAMP_NS" else f"CAST({col} AS TIMESTAMP)"
+        if zone is None:
+            ms, bad = f"epoch_ms({local})", None
+        else:
+            levels = [f"{local} AS __gl_local", *zone_levels("__gl_local", zone)]
+            local = "__gl_local"
+            ms = instant_ms(local, None, zone)
+            bad = f"CAST({local} AS VARCHAR)"
+    else:
+        levels = [*text_time_levels(cell), *zone_levels("__gl_local", zone)]
+        local, ms, bad = "__gl_local", instant_ms("__gl_local", "__gl_offset", zone), cell
+    parts.append(f"{local} AS ts")
+    parts.append(f"{ms} AS ts_ms")
+    present = cell if bad == cell else col
+    parts.append(
+        f"CASE WHEN {present} IS NOT NULL AND ({ms}) IS NULL THEN {bad} END AS bad_time"
+        if bad
+        else "NULL::VARCHAR AS bad_time"
+    )
+    return parts, levels
 
 
 #: Stands for the source of the ``prepared`` query until it is given (all files, or one).
 _SOURCE = "/*@records source@*/"
 
 
-def _distinct_agents(con, specs, file_selects) -> list:
+def _distinct_agents(con, specs, file_selects, group_sql=()) -> list:
     """The distinct agent texts as the checks read them (``agent_raw``: trimmed, empty is missing).
 
     A Parquet file with a text agent column gives them from its dictionary pages with
@@ -146,8 +199,11 @@ def _distinct_agents(con, specs, file_selects) -> list:
     import pyarrow.parquet as pq
 
     found: set = set()
-    by_sql = []
+    in_groups = {i for idx, _ in group_sql for i in idx}
+    by_sql = [sql for _, sql in group_sql]
     for i, s in enumerate(specs):
+        if i in in_groups:
+            continue
         src = s.columns["agent"].source
         t = pq.read_schema(s.path).field(src).type if s.format == "parquet" else None
         t = t.value_type if t is not None and pa.types.is_dictionary(t) else t
@@ -183,112 +239,6 @@ def _band_sql(expr: str) -> str:
     return f"CASE {whens} ELSE {_sql_str(FLOW_BANDS[-1][0])} END"
 
 
-def _csv_table(con, rf: RecordFile, index: int, report: ReadSummary, folder: str):
-    """Read a CSV file line by line as text columns with its line numbers; bad lines go to the report.
-
-    The file is cut into lines first (:func:`model.io.csv_lines.split_csv_lines`): a line
-    with an unclosed quote, a lone CR, a NUL byte or the wrong number of fields is set
-    aside on its own; the other lines, each one complete record, are read by duckdb, which
-    sets aside what it still cannot read (invalid UTF-8, a stray quote inside a field).
-    Line numbers are those of the file.
-    """
-    import duckdb
-    import pyarrow as pa
-
-    try:
-        raw = np.frombuffer(rf.data, dtype=np.uint8) if rf.data is not None else np.fromfile(rf.path, dtype=np.uint8)
-        lines = split_csv_lines(raw)
-    except OSError as exc:
-        raise InputError(rf.name, "the file", f"cannot be read ({exc.strerror or type(exc).__name__})") from None
-    header = rf.skip_lines  # index of the header line
-    n_fields = len(rf.types)
-    if header >= len(lines) or lines.broken[header]:
-        what = lines.problem(header) if header < len(lines) else "missing"
-        raise InputError(f"{rf.name}, line {header + 1}", "the header row", f"not readable as CSV ({what})")
-    data = np.arange(len(lines)) > header
-    data &= ~lines.blank
-    broken = data & lines.broken
-    wrong = data & ~lines.broken & (lines.fields != n_fields)
-    keep = data & ~broken & ~wrong
-    rej_rows = []
-    for i in np.flatnonzero(broken | wrong):
-        line = int(lines.number[i])
-        if broken[i]:
-            kind, msg = "unreadable", f"cannot be read as CSV: {lines.problem(int(i))}"
-        else:
-            kind, msg = "field_count", f"expected {n_fields} fields as in the header, found {int(lines.fields[i])}"
-        rej_rows.append((rf.name, line, kind, None, None, f"{rf.name}: line {line}: {msg}"))
-    # The header and the lines kept, in a file of their own: its line k + 1 is kept line k.
-    kept_numbers = lines.number[keep]
-    longest = int((lines.ends - lines.starts).max()) if len(lines) else 0
-    clean = os.path.join(folder, f"lines_{index}.csv")
-    head_keep = np.zeros(len(lines), dtype=bool)
-    head_keep[header] = True
-    with open(clean, "wb") as fh:
-        fh.write(lines.keep_bytes(head_keep | keep))
-    del lines
-    rej = f"rejects_{index}"
-    scan = f"rejects_scan_{index}"
-    columns = "{" + ", ".join(f"{_sql_str(n)}: 'VARCHAR'" for n in rf.types) + "}"
-    try:
-        rel = con.sql(
-            f"SELECT * FROM read_csv({_sql_str(clean)}, all_varchar=true, header=true, "
-            f"delim=',', quote='\"', escape='\"', auto_detect=false, new_line='\\n', "
-            f"columns={columns}, max_line_size={max(longest + 16, 2_097_152)}, "
-            f"store_rejects=true, rejects_table={_sql_str(rej)}, rejects_scan={_sql_str(scan)}, "
-            f"strict_mode=true, null_padding=false)"
-        )
-        table = rel.arrow()
-        if hasattr(table, "read_all"):
-            table = table.read_all()
-        rejects = con.sql(
-            f"SELECT line, min(error_type) AS error_type FROM {rej} GROUP BY line ORDER BY line"
-        ).fetchall()
-    except duckdb.Error as exc:
-        # duckdb's words may quote the clean copy's place: name the user's file instead.
-        first = (str(exc).replace(clean, rf.name).strip().splitlines() or [type(exc).__name__])[0]
-        raise InputError(rf.name, "the file", f"not readable as CSV ({first})") from None
-    finally:
-        try:
-            os.remove(clean)
-        except OSError:
-            pass
-    # duckdb numbers the lines of the clean file, its header line 1.
-    rejected = np.array([r[0] for r in rejects], dtype=np.int64) - 2
-    accepted = np.ones(len(kept_numbers), dtype=bool)
-    accepted[rejected[(rejected >= 0) & (rejected < len(kept_numbers))]] = False
-    rows = kept_numbers[accepted]
-    if len(rows) != table.num_rows:  # never expected: each clean line is one record
-        raise InputError(
-            rf.name,
-            "the file",
-            f"not readable as CSV ({table.num_rows} records in {len(rows)} lines); save it again as CSV UTF-8",
-        )
-    table = table.append_column("_row", pa.array(rows, type=pa.int64()))
-    kinds = {
-        "INVALID ENCODING": "encoding",
-        "INVALID UNICODE": "encoding",
-        "TOO MANY COLUMNS": "field_count",
-        "MISSING COLUMNS": "field_count",
-    }
-    for line, err in rejects:
-        k = int(line) - 2
-        if not 0 <= k < len(kept_numbers):
-            continue
-        number = int(kept_numbers[k])
-        kind = kinds.get(err, "unreadable")
-        if kind == "encoding":
-            msg = "not valid UTF-8 text; save the file as UTF-8 (CSV UTF-8)"
-        elif kind == "field_count":
-            msg = f"expected {n_fields} fields as in the header"
-        else:
-            msg = f"cannot be read as CSV ({err.lower()})"
-        rej_rows.append((rf.name, number, kind, None, None, f"{rf.name}: line {number}: {msg}"))
-    rej_rows.sort(key=lambda r: r[1])
-    con.execute(f"DROP TABLE IF EXISTS {rej}; DROP TABLE IF EXISTS {scan}")
-    return table, rej_rows
-
-
 def read_records(
     paths,
     *,
@@ -298,6 +248,7 @@ def read_records(
     memory_limit: str | None = None,
     threads: int | None = None,
     progress: Callable[[float, str], None] | None = None,
+    time_zone: str | None = None,
 ) -> Records:
     """Read and check record files (CSV and Parquet, globs allowed).
 
@@ -321,6 +272,9 @@ def read_records(
         duckdb threads (default: all cores).
     progress : callable(fraction, text), optional
         Told of each step.
+    time_zone : str, optional
+        The IANA time zone (``Europe/London``) of times written without a UTC offset
+        (default: as written, with no clock changes); see :mod:`model.io.record_times`.
 
     Returns
     -------
@@ -338,6 +292,7 @@ def read_records(
         isinstance(gap_limit_min, (int, float)) and np.isfinite(gap_limit_min) and gap_limit_min > 0
     ):
         raise InputError("gap limit", gap_limit_min, "expected a positive number of minutes")
+    zone = check_time_zone(time_zone)
     step = progress or (lambda f, t: None)
     files = expand_paths(paths if not isinstance(paths, (str, os.PathLike, Source)) else [paths])
     step(0.0, f"Reading the headers of {len(files)} file(s)")
@@ -355,15 +310,16 @@ def read_records(
         con, tmp = connect(memory_limit, threads)
     try:
         with file_failures(specs):
-            report, rej_rows, gl, per_file = _build_views(con, tmp, specs, reference, gap_limit_min, step)
+            report, rej_rows, gl, per_file = _build_views(con, tmp, specs, reference, gap_limit_min, step, zone)
     except BaseException:
         con.close()
         _remove(tmp)
         _remove(written)
         raise
-    recs = Records(con, specs, report, gl, reference, tmp, _written_dir=written)
+    recs = Records(con, specs, report, gl, reference, tmp, _written_dir=written, time_zone=zone)
     #: Each file's ``prepared`` query and row count, and the agent names as read.
     recs.file_sql, recs.file_rows, recs.agent_map = (per_file["file_sql"], per_file["file_rows"], per_file["agent_map"])
+    recs.csv_groups, recs.raw_sql = per_file["groups"], per_file["raw_sql"]
     recs.report.issues = pd.DataFrame(rej_rows, columns=["file", "row", "kind", "column", "value", "message"])
     recs._rejected = len(rej_rows)
     recs._max_messages = max_messages
@@ -404,7 +360,7 @@ def _remove(folder: str | None) -> None:
         shutil.rmtree(folder, ignore_errors=True)
 
 
-def _build_views(con, tmp, specs, reference, gap_limit_min, step):
+def _build_views(con, tmp, specs, reference, gap_limit_min, step, zone):
     """Read the CSV files and create the ``raw``, ``prepared``, ``checked`` and ``valid`` views."""
     report = ReadSummary(files=[s.name for s in specs], gap_limit_min=float(gap_limit_min))
     for s in specs:
@@ -414,6 +370,8 @@ def _build_views(con, tmp, specs, reference, gap_limit_min, step):
     #: The raw SELECT of each file on its own, and its number of rows, for per-file work.
     file_selects: dict[int, str] = {}
     file_rows: dict[int, int] = {}
+    #: The raw SELECT of each group of CSV files read as one table, with the files it holds.
+    group_sql: list = []
     rej_rows: list = []
     # Parquet files with identical columns and types read as one scan.
     groups: dict = {}
@@ -429,32 +387,43 @@ def _build_views(con, tmp, specs, reference, gap_limit_min, step):
             f"file_row_number + 1 AS _row FROM read_parquet({names}, filename=true, file_row_number=true))"
         )
         fileno_map = "CASE _grp " + " ".join(f"WHEN {j} THEN {i}" for j, i in enumerate(idx)) + " END"
-        selects.append(_raw_select(s, -1, f"(SELECT *, {fileno_map} AS _fileno FROM {src})"))
+        selects.append(_raw_select(s, -1, f"(SELECT *, {fileno_map} AS _fileno FROM {src})", zone))
         for i in idx:
             one = (
                 f"(SELECT *, file_row_number + 1 AS _row FROM "
                 f"read_parquet({_sql_str(specs[i].path)}, file_row_number=true))"
             )
-            file_selects[i] = _raw_select(specs[i], i, one)
+            file_selects[i] = _raw_select(specs[i], i, one, zone)
             file_rows[i] = _parquet_rows(specs[i].path)
+    # CSV files of one layout (the same header and units) are read as one table.
+    csv_groups: dict = {}
     for i, s in enumerate(specs):
-        if s.format != "csv":
-            continue
-        step(0.05 + 0.25 * i / max(len(specs), 1), f"Reading {Path(s.name).name}")
-        table, rows = _csv_table(con, s, i, report, tmp)
+        if s.format == "csv":
+            key = (tuple(s.names), tuple(sorted((k, c.source, c.factor) for k, c in s.columns.items())))
+            csv_groups.setdefault(key, []).append(i)
+    done = 0
+    for j, idx in enumerate(csv_groups.values()):
+        s = specs[idx[0]]
+        step(0.05 + 0.25 * done / max(len(specs), 1), f"Reading {Path(s.name).name}")
+        done += len(idx)
+        table, rows, rows_of = csv_table(con, [(i, specs[i]) for i in idx], j, tmp)
         rej_rows.extend(rows)
-        name = f"csv_{i}"
+        name = f"csv_{j}"
         con.register(name, table)
-        selects.append(_raw_select(s, i, name))
-        file_selects[i] = _raw_select(s, i, name)
-        file_rows[i] = table.num_rows + len(rows)
+        selects.append(_raw_select(s, -1, name, zone))
+        for i in idx:
+            one = name if len(idx) == 1 else f"(SELECT * FROM {name} WHERE _fileno = {i})"
+            file_selects[i] = _raw_select(specs[i], i, one, zone)
+            file_rows[i] = rows_of[i]
+        group_sql.append((idx, _raw_select(s, -1, name, zone)))
     # The CSV files are read (in file order, for their line numbers); every later query
     # orders what it needs by file and row, so duckdb may stream in any order.
     con.execute("SET preserve_insertion_order = false")
-    con.execute("CREATE OR REPLACE TEMP VIEW raw AS " + " UNION ALL BY NAME ".join(selects))
+    raw_sql = " UNION ALL BY NAME ".join(selects)
+    con.execute("CREATE OR REPLACE TEMP VIEW raw AS " + raw_sql)
     # Agent names: normalise the few distinct values in Python with the reference's rules.
     step(0.35, "Checking agents")
-    distinct = _distinct_agents(con, specs, file_selects)
+    distinct = _distinct_agents(con, specs, file_selects, group_sql)
     amap: list[tuple[str, str, float]] = []
     for raw in distinct:
         agent_key = normalise_agent_name(raw)
@@ -476,7 +445,7 @@ def _build_views(con, tmp, specs, reference, gap_limit_min, step):
     prepared = f"""
     WITH r AS (
       SELECT src.*, {agent_case} AS agent, {dial_case} AS max_dial,
-        coalesce(epoch_ms(ts) / 60000.0, elapsed) AS t_min,
+        coalesce(ts_ms / 60000.0, elapsed) AS t_min,
         CASE WHEN has_ts = 1 THEN CAST(date_trunc('month', ts) AS DATE)
              ELSE CAST(date_trunc('month', day) AS DATE) END AS month,
         CASE WHEN has_ts = 1 THEN ts ELSE day END AS start_hint
@@ -546,5 +515,7 @@ def _build_views(con, tmp, specs, reference, gap_limit_min, step):
         "file_sql": [prepared.replace(_SOURCE, f"({file_selects[i]})") for i in range(len(specs))],
         "file_rows": [int(file_rows[i]) for i in range(len(specs))],
         "agent_map": {r: (k, d) for r, k, d in amap},
+        "groups": [(idx, prepared.replace(_SOURCE, f"({sql})")) for idx, sql in group_sql],
+        "raw_sql": raw_sql,
     }
     return report, rej_rows, gl, per_file

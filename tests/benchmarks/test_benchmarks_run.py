@@ -24,7 +24,7 @@ sys.path.insert(0, str(BENCHMARKS))
 import benchresults  # noqa: E402
 
 #: The scripts run here without a browser; bench_load needs one (a browser test below).
-SCRIPTS = ["bench_phases", "bench_circle", "bench_year", "bench_limits", "bench_page_rerun"]
+SCRIPTS = ["bench_phases", "bench_circle", "bench_year", "bench_limits", "bench_page_rerun", "bench_many_files"]
 CHROMIUM = Path("/usr/bin/chromium")
 
 

@@ -193,3 +193,12 @@ def test_report_tables_on_the_page_have_headings_in_words():
         assert names == [], names
         seen += 1
     assert seen >= 3
+
+
+def test_an_unknown_time_zone_shows_a_message_and_no_exception():
+    at = page("emissions_report.py")
+    at.text_input(key="er_time_zone").set_value("Mars/Base").run()
+    assert not at.exception
+    assert any("time zone" in e.value and "Mars/Base" in e.value for e in at.error)
+    at.text_input(key="er_time_zone").set_value("Europe/London").run()
+    assert not at.exception and not at.error

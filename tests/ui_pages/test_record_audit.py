@@ -107,3 +107,13 @@ def test_a_bad_purchase_line_is_shown_set_aside_and_the_rest_reconciled():
     recon = next(df.value for df in at.dataframe if "apparent loss" in df.value.columns)
     total = recon[(recon["item"] == "nitrous oxide") & (recon["month"] == "all")]
     assert float(total["purchased"].iloc[0]) == 18000.0
+
+
+def test_an_unknown_time_zone_shows_a_message_and_a_known_one_audits():
+    at = _run()
+    at.text_input(key="ra_time_zone").set_value("Mars/Base").run(timeout=TIMEOUT)
+    assert not at.exception
+    assert any("time zone" in e.value for e in at.error)
+    at.text_input(key="ra_time_zone").set_value("Europe/London").run(timeout=TIMEOUT)
+    assert not at.exception and not at.error
+    assert int(_metric(at, "Cases").replace(",", "")) > 0

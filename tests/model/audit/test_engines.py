@@ -162,3 +162,37 @@ def test_engines_agree_at_two_million_rows(tmp_path):
     assert by_file.report.rows_read == 2_000_000 and len(by_file.cases) > 20_000
     _same(by_file, audit_records(files, engine="memory"))
     _same(by_file, audit_records(files, engine="sql", memory_limit="1GB"))
+
+
+def test_many_small_csv_files_of_one_layout_are_read_and_audited_as_one_table(tmp_path):
+    from model.audit.engine import _units
+
+    header = "case_id,time,theatre,agent,o2,air,dial\n"
+    files = []
+    for i in range(40):
+        lines = [f"C{i},2025-03-04 08:{k:02d}:00,Alder,sevoflurane,0.5,0.5,2\n" for k in range(30)]
+        if i == 7:
+            lines[3] = "C7,2025-03-04 08:03:00,Alder,sevoflurane,0.5\n"  # too few fields: line 5
+            lines[9] = "C7,2025-03-04 08:09:00,Alder,sevoflurane,x,0.5,2\n"  # text in a number: line 11
+        p = tmp_path / f"day-{i:02d}.csv"
+        p.write_text(header + "".join(lines), encoding="utf-8")
+        files.append(p)
+    (tmp_path / "day-40.csv").write_text(  # another layout (columns in another order)
+        "case_id,time,agent,theatre,o2,air,dial\n"
+        + "".join(f"C40,2025-03-04 08:{k:02d}:00,sevoflurane,Alder,0.5,0.5,2\n" for k in range(30)),
+        encoding="utf-8",
+    )
+    files.append(tmp_path / "day-40.csv")
+    recs = read_records(files)
+    # One query for the 40 files of one layout, one for the other: not one a file.
+    assert [len(idx) for idx, _ in _units(recs)] == [40, 1]
+    recs.close()
+    by_file = audit_records(files, engine="files")
+    _same(by_file, audit_records(files, engine="sql"))
+    issues = by_file.report.issues
+    assert issues[["file", "row", "kind"]].values.tolist() == [
+        [str(files[7]), 5, "field_count"],
+        [str(files[7]), 11, "text_in_number"],
+    ]
+    assert by_file.report.rows_valid == 41 * 30 - 2
+    assert len(by_file.cases) == 41

@@ -51,3 +51,11 @@ def test_no_neutralised_cell_runs_and_reading_it_back_gives_the_text(text):
     out = neutralise(text)
     assert not _runs_as_formula(out)
     assert unneutralise(out) == text
+
+
+def test_a_carriage_return_in_a_cell_with_lf_line_ends_stays_inside_its_row():
+    # Python's csv module (and spreadsheets) end a line at CR as at LF: a bare CR inside an
+    # unquoted cell would start a new row whose first cell is "=" and runs as a formula.
+    text = csv_text(pd.DataFrame({"site": ["\r=1+1", "plain"], "n": [1, 2]}), lineterminator="\n")
+    rows = list(csv.reader(io.StringIO(text, newline="")))
+    assert rows == [["site", "n"], ["'\r=1+1", "1"], ["plain", "2"]]

@@ -81,3 +81,24 @@ def test_audit_units_line_giving_a_column_twice_exits_2(tmp_path, capsys):
     )
     status, _, err = run(["audit", records], capsys)
     assert_one_line_error(status, err, "r.csv, line 1", "o2=L/min", "given twice")
+
+
+@pytest.mark.parametrize("command", ["audit", "report"])
+def test_an_unknown_time_zone_exits_2_in_one_line(command, tmp_path, capsys):
+    p = tmp_path / "r.csv"
+    p.write_text("case_id,time,agent,o2,dial\nA,2025-03-04 08:00:00,sevoflurane,1,2\n", encoding="utf-8")
+    extra = ["--period", "2025"] if command == "report" else []
+    status, _, err = run([command, p, *extra, "--time-zone", "Mars/Base"], capsys)
+    assert_one_line_error(status, err, "time zone", "Mars/Base")
+
+
+def test_audit_reads_times_without_offset_in_the_time_zone_given(tmp_path, capsys):
+    # Europe/London, zoneinfo: 00:59 GMT then 02:00 BST on 2025-03-30 are one minute apart.
+    p = tmp_path / "r.csv"
+    p.write_text(
+        "case_id,time,agent,o2,dial\nA,2025-03-30 00:59:00,sevoflurane,1,2\nA,2025-03-30 02:00:00,sevoflurane,1,2\n",
+        encoding="utf-8",
+    )
+    status, out, _ = run(["audit", p, "--json", "--time-zone", "Europe/London"], capsys)
+    assert status == 0
+    assert json.loads(out)["cases"][0]["minutes"] == 1.0

@@ -327,3 +327,76 @@ def test_written_purchases_neutralise_a_formula_site_and_read_it_back(tmp_path, 
     lines = p.read_text(encoding="utf-8").splitlines()
     assert next(csv_module.reader([lines[2]]))[-1] == "'" + site
     assert read_purchases(p)["site"].tolist() == [site.strip()]
+
+
+@pytest.mark.parametrize("kind", ["date32", "date64", "timestamp_ms", "timestamp_tz"])
+def test_a_parquet_month_column_of_dates_is_read_as_its_month(tmp_path, kind):
+    import datetime
+
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    days = [datetime.date(2025, 1, 1), datetime.date(2025, 2, 1)]
+    month = {
+        "date32": pa.array(days, pa.date32()),
+        "date64": pa.array(days, pa.date64()),
+        "timestamp_ms": pa.array([datetime.datetime(d.year, d.month, 1) for d in days], pa.timestamp("ms")),
+        # Stored with its zone: the month is the one of that zone's calendar (midnight, 1 Feb).
+        "timestamp_tz": pa.array(
+            [datetime.datetime(2024, 12, 31, 23), datetime.datetime(2025, 1, 31, 23)], pa.timestamp("s", tz="UTC")
+        ).cast(pa.timestamp("s", tz="Europe/Paris")),
+    }[kind]
+    p = tmp_path / "p.parquet"
+    pq.write_table(
+        pa.table({"month": month, "item": ["sevoflurane"] * 2, "quantity": [9, 2], "unit": ["bottle"] * 2}), p
+    )
+    read = load_purchases(p)
+    assert read.messages == []
+    # 9 and 2 bottles of 250 mL (the reference bottle, model.reference).
+    assert read.table[["month", "amount"]].values.tolist() == [["2025-01", 2250.0], ["2025-02", 500.0]]
+
+
+@pytest.mark.parametrize(
+    "header, problem",
+    [
+        ("month,item,quantity,quantity,unit,size", "the column 'quantity' is named twice (columns 3 and 4)"),
+        ("month,item,Quantity, quantity ,unit,size", "the column 'quantity' is named twice (columns 3 and 4)"),
+        ("month,item,,quantity,unit,size", "'column 3'; a column without a name"),
+    ],
+)
+def test_a_header_naming_a_column_twice_or_not_at_all_is_refused_in_one_line(tmp_path, header, problem):
+    p = _file(tmp_path, header + "\n2025-01,sevoflurane,9,1,bottle,\n")
+    with pytest.raises(InputError) as err:
+        load_purchases(p)
+    assert str(err.value).startswith(f"{p}, line 1: header: ")
+    assert problem in str(err.value)
+    assert "\n" not in str(err.value)
+
+
+def test_a_trailing_empty_column_as_spreadsheets_export_is_ignored(tmp_path):
+    body = (
+        "month,item,quantity,unit,size,\n"
+        "2025-01,sevoflurane,9,bottle,,\n"
+        "2025-02,sevoflurane,2,bottle,\n"  # the same line without the trailing comma
+        "2025-03,sevoflurane,4,bottle,,oops\n"
+    )
+    read = load_purchases(_file(tmp_path, body))
+    # 9 and 2 bottles of 250 mL (the reference bottle, model.reference).
+    assert read.table[["month", "amount"]].values.tolist() == [["2025-01", 2250.0], ["2025-02", 500.0]]
+    assert (
+        len(read.messages) == 1 and "line 4" in read.messages[0] and "after the last named column" in read.messages[0]
+    )
+
+
+def test_a_parquet_purchases_file_naming_a_column_twice_is_refused(tmp_path):
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    p = tmp_path / "p.parquet"
+    table = pa.Table.from_arrays(
+        [pa.array(["2025-01"]), pa.array(["sevoflurane"]), pa.array([9]), pa.array([1]), pa.array(["bottle"])],
+        names=["month", "item", "quantity", "Quantity", "unit"],
+    )
+    pq.write_table(table, p)
+    with pytest.raises(InputError, match="named twice"):
+        load_purchases(p)

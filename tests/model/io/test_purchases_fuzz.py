@@ -20,6 +20,8 @@ from tests.helpers.parser_fuzz import (
     _only_input_error,
     _table,
     _write,
+    known_purchase_files,
+    no_nan_or_inf,
 )
 
 ROOT = Path(__file__).resolve().parents[3]
@@ -235,3 +237,28 @@ def test_purchases_written_with_formula_sites_never_hold_a_running_cell_and_read
     read = purchases.load_purchases(path)  # a site that is not a valid name is set aside, never a traceback
     kept = [s.strip() for s in sites if s.strip().isprintable() and "\n" not in s and "\r" not in s]
     assert set(read.table["site"]) <= {s for s in kept} | {""}
+
+
+@settings(FUZZ, max_examples=200)
+@given(case=known_purchase_files())
+def test_odd_purchase_headers_are_refused_in_one_line_or_give_the_plain_sum_of_their_good_lines(case, scratch):
+    """A column named twice or unnamed refuses the file in one line; a trailing empty one is ignored.
+
+    The amount of an accepted file equals the plain sum of its good lines' bottles.
+    """
+    from model.base.errors import InputError
+    from model.reference import DEFAULT_REFERENCE
+
+    text, expected = case
+    path = _write(scratch, "odd.csv", text.encode())
+    if expected is None:
+        with pytest.raises(InputError) as err:
+            purchases.load_purchases(path)
+        assert "\n" not in str(err.value) and "header" in str(err.value)
+        return
+    bottles, bad = expected
+    read = purchases.load_purchases(path)
+    assert len(read.set_aside) == bad, read.messages
+    volume = DEFAULT_REFERENCE.agents["sevoflurane"].bottle_volume  # mL a bottle (model.reference)
+    assert float(read.table["amount"].sum()) == pytest.approx(bottles * volume)
+    assert no_nan_or_inf(read.table.to_dict("records"))

@@ -15,12 +15,16 @@ from model.io import record_files, records
 from tests.helpers.fuzz import SLOW
 from tests.helpers.parser_fuzz import (
     _NUMBERS,
+    NEAR_CHANGES,
     PARSER_FUZZ,
+    ZONES,
     _lines_file,
     _mangled,
     _only_input_error,
     _table,
     _write,
+    known_record_sets,
+    no_nan_or_inf,
 )
 
 ROOT = Path(__file__).resolve().parents[3]
@@ -373,3 +377,81 @@ def test_found_record_line_with_nul_before_carriage_return_is_set_aside_alone(sc
 def test_found_power_in_a_record_unit_is_refused_without_evaluating_it(scratch):
     data = b"case_id,elapsed,agent,o2 [L/min**9**9**9],air,dial\nA,0,sevo,1,1,2\n"
     assert _only_input_error(record_files.inspect_file, _write(scratch, "pow.csv", data)) is None
+
+
+@pytest.mark.slow
+@settings(SLOW, max_examples=40)
+@given(case=known_record_sets())
+def test_odd_record_sets_give_the_plain_sums_of_their_good_rows(case, scratch, tmp_path_factory):
+    """Odd record sets: totals equal a plain-Python sum over the rows generated; no nan or inf.
+
+    Classes: times in zones and across clock changes, 12-hour times, trailing text, digit
+    separators, unnamed and repeated columns, case ids reused in other files.
+    """
+    import json
+
+    folder = tmp_path_factory.mktemp("known", numbered=True)
+    paths = [_write(folder, name, text.encode()) for name, text in case["files"]]
+    r = audit_records(paths, time_zone=case["time_zone"], gap_limit_min=600.0, threads=1)
+    assert r.report.rows_set_aside == case["bad"], r.report.issues["message"].tolist()
+    assert r.report.rows_valid + case["bad"] == r.report.rows_read
+    assert len(r.cases) == case["cases"]
+    for col in ("minutes", "oxygen_l", "air_l"):
+        assert float(r.cases[col].sum()) == pytest.approx(case[col], rel=1e-12, abs=1e-9), col
+    out = r.to_dict()
+    assert no_nan_or_inf(out)
+    json.dumps(out, allow_nan=False)  # raises on any nan or inf left in the output
+
+
+@settings(SLOW, max_examples=40)
+@given(
+    tails=st.lists(
+        st.one_of(
+            st.text(alphabet=st.characters(blacklist_categories=("Cs", "Cc"), blacklist_characters=',"'), max_size=6),
+            st.sampled_from([" ", "  ", " PM", "Z", "+01:00", " UTC", " GMT", "+14:01", "-12:00", "0", ".5", ":00"]),
+        ),
+        min_size=1,
+        max_size=12,
+    )
+)
+def test_text_after_a_complete_time_is_accepted_only_when_it_is_spaces(tails, scratch):
+    # After seconds and an offset the documented grammar (docs/formats.md) allows nothing but spaces.
+    base = [f"2025-03-04 08:{k:02d}:00+01:00" for k in range(len(tails) + 1)]
+    cells = [base[0]] + [b + tail for b, tail in zip(base[1:], tails, strict=True)]
+    text = "case_id,time,agent,o2,air,dial\n" + "".join(f"A,{c},sevoflurane,0.5,0.5,2\n" for c in cells)
+    r = audit_records([_write(scratch, "tails.csv", text.encode())], gap_limit_min=600.0, threads=1)
+    bad = {k + 3 for k, tail in enumerate(tails) if tail.strip(" ")}  # header is line 1, the first cell line 2
+    assert set(r.report.issues["row"]) == bad
+    assert set(r.report.issues["kind"]) <= {"bad_time"}
+    good = [0] + [k + 1 for k, tail in enumerate(tails) if not tail.strip(" ")]
+    assert r.cases["minutes"].tolist() == [float(good[-1] - good[0])]
+
+
+@settings(SLOW, max_examples=30)
+@given(
+    zone=st.sampled_from(ZONES),
+    start=st.sampled_from(NEAR_CHANGES),
+    steps=st.lists(st.integers(1, 40), min_size=1, max_size=30),
+    unit=st.sampled_from(["s", "ms", "us", "ns"]),
+)
+def test_parquet_times_stored_with_a_zone_give_zoneinfos_minutes_and_month(zone, start, steps, unit, scratch):
+    import datetime as dt
+    import zoneinfo
+
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    first = dt.datetime.fromisoformat(start).replace(tzinfo=dt.UTC)
+    instants = [first + dt.timedelta(minutes=sum(steps[:k])) for k in range(len(steps) + 1)]
+    n = len(instants)
+    times = pa.array(instants, pa.timestamp("us", tz="UTC")).cast(pa.timestamp(unit, tz=zone))
+    table = pa.table(
+        {"case_id": ["A"] * n, "time": times, "agent": ["sevoflurane"] * n, "o2": [1.0] * n, "dial": [2.0] * n}
+    )
+    path = scratch / "zoned.parquet"
+    pq.write_table(table, path)
+    r = audit_records([path], gap_limit_min=600.0, threads=1)
+    local = first.astimezone(zoneinfo.ZoneInfo(zone))  # the zoneinfo database: the stored zone's calendar
+    assert r.cases["minutes"].tolist() == [float(sum(steps))]
+    assert r.cases["month"].tolist() == [local.strftime("%Y-%m")]
+    assert str(r.cases["start"].iloc[0]) == local.strftime("%Y-%m-%d %H:%M:%S")

@@ -176,3 +176,93 @@ def test_a_glob_of_parquet_files_reads_as_one_set(tmp_path):
     assert r.report.rows_valid == 9
     with pytest.raises(InputError, match="matches no file"):
         audit_records([str(tmp_path / "nothing-*.parquet")])
+
+
+@pytest.mark.parametrize("text", ["1_5", "0_5", "1,5", "１", "٣", "0x1", "1 5", "inf", "nan", "1e400", "--1", "1e"])
+def test_a_number_outside_the_grammar_is_text_in_a_number_column(tmp_path, text):
+    # The documented number grammar (docs/formats.md, "Numbers in files"); duckdb alone reads "1_5" as 15.
+    body = _rows("A", 5) + f'A,5,Alder,sevoflurane,"{text}",0.5,0,2\n' + "A,6,Alder,sevoflurane,0.5,0.5,0,2\n"
+    r = audit_records([_csv(tmp_path, body)])
+    assert r.report.set_aside["text_in_number"] == 1
+    assert r.report.issues["value"].tolist() == [text]
+    assert r.report.rows_valid == 6
+
+
+@pytest.mark.parametrize(
+    "text, accepted",
+    [("1_5", False), ("1,5", False), ("１", False), ("inf", False), ("1.5", True), (".5", True), ("2e0", True)],
+)
+def test_records_and_purchases_read_numbers_by_one_grammar(tmp_path, text, accepted):
+    from model.io.purchases import load_purchases
+
+    rec = audit_records([_csv(tmp_path, _rows("A", 3) + f'A,3,Alder,sevoflurane,0.5,"{text}",0,2\n')]).report
+    buy = tmp_path / "p.csv"
+    buy.write_text(f'month,item,quantity,unit,size\n2025-01,sevoflurane,"{text}",bottle,\n', encoding="utf-8")
+    bought = load_purchases(buy)
+    assert (rec.set_aside["text_in_number"] == 0) == accepted
+    assert (not bought.set_aside) == accepted
+
+
+def test_parquet_nanosecond_times_are_read_to_microseconds(tmp_path):
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    n = 11
+    # 60.000000999 s apart: the nanoseconds below a microsecond are cut, as docs/formats.md says.
+    ns = np.datetime64("2025-03-04T08:00:00", "ns") + np.arange(n) * np.timedelta64(60_000_000_999, "ns")
+    cols = {
+        "case_id": ["A"] * n,
+        "time": pa.array(ns, pa.timestamp("ns")),
+        "agent": ["sevoflurane"] * n,
+        "o2": [0.5] * n,
+        "air": [0.5] * n,
+        "dial": [2.0] * n,
+    }
+    p = tmp_path / "ns.parquet"
+    pq.write_table(pa.table(cols), p)
+    us = ns.astype("datetime64[us]").astype(np.int64)  # numpy's cut to microseconds
+    expected = float((us[-1] // 1000 - us[0] // 1000) / 60000.0)
+    for engine in ("auto", "sql"):
+        r = audit_records([p], engine=engine)
+        assert r.report.rows_valid == n
+        assert r.cases["minutes"].tolist() == [pytest.approx(expected, rel=1e-12)]
+    # A bad row sends the file through the SQL checks: the same minutes.
+    cols["o2"] = [0.5] * (n - 1) + [-1.0]
+    pq.write_table(pa.table(cols), p)
+    r = audit_records([p])
+    assert r.report.set_aside["negative_flow"] == 1
+    assert r.cases["minutes"].tolist() == [pytest.approx(float((us[-2] // 1000 - us[0] // 1000) / 60000.0))]
+
+
+@pytest.mark.parametrize(
+    "header, ending",
+    [
+        ("case_id,elapsed,theatre,agent,o2,air,n2o,dial,", ","),  # spreadsheets end every line in ","
+        ("case_id,elapsed,theatre,agent,o2,air,n2o,dial,,", ",,"),
+        ("case_id,elapsed,theatre,agent,o2,air,n2o,dial,note,note", ",a,b"),
+        ("case_id,elapsed,theatre,agent,o2,air,n2o,dial,,note", ",,b"),
+    ],
+)
+def test_empty_and_repeated_names_of_ignored_columns_leave_the_records_read(tmp_path, header, ending):
+    body = "".join(line + ending + "\n" for line in _rows("A").splitlines())
+    r = audit_records([_csv(tmp_path, body, header=header + "\n")])
+    assert r.report.rows_set_aside == 0
+    assert r.cases["minutes"].tolist() == [10.0]
+
+
+def test_parquet_nanosecond_times_stored_with_a_zone_are_read(tmp_path):
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    n = 11
+    ns = np.datetime64("2025-03-04T08:00:00", "ns") + np.arange(n) * np.timedelta64(60_000_000_999, "ns")
+    times = pa.array(ns, pa.timestamp("ns", tz="UTC")).cast(pa.timestamp("ns", tz="Europe/Paris"))
+    cols = {"case_id": ["A"] * n, "time": times, "agent": ["sevoflurane"] * n, "o2": [0.5] * n, "dial": [2.0] * n}
+    p = tmp_path / "ns_tz.parquet"
+    pq.write_table(pa.table(cols), p)
+    us = ns.astype("datetime64[us]").astype(np.int64)  # numpy's cut to microseconds
+    r = audit_records([p])
+    assert r.report.rows_valid == n
+    assert r.cases["minutes"].tolist() == [pytest.approx(float((us[-1] // 1000 - us[0] // 1000) / 60000.0))]
+    # Paris is UTC+01:00 on 4 March 2025 (zoneinfo): the start in the stored zone.
+    assert str(r.cases["start"].iloc[0]) == "2025-03-04 09:00:00"
