@@ -45,6 +45,20 @@ if not choices:
     st.stop()
 if ss.get("dy_scenario") not in choices:
     ss.pop("dy_scenario", None)
+
+
+def _of_year(name: str):
+    """Whether a session key holds one of the inputs of the year ``name`` (keys end with its name)."""
+    return lambda k: k.startswith("dy_") and (k.endswith(f"_{name}") or k.startswith(f"dy_gwps_{name}_"))
+
+
+# Edits of the practice and the case mix are kept per scenario (and version) for the session;
+# "Discard edits" forgets those of the year shown, before its widgets are drawn again.
+edited_years: dict[str, list[str]] = ss.setdefault("dy_edited", {})
+if "dy_discard_pending" in ss:
+    gone = ss.pop("dy_discard_pending")
+    ui.state.forget_inputs(_of_year(gone))
+    edited_years.pop(gone, None)
 c1, c2 = st.columns([4, 1], vertical_alignment="bottom")
 picked = c1.selectbox(
     "Scenario",
@@ -62,6 +76,7 @@ if ss.get("dy_version") not in versions:
 version = c2.selectbox("Version", versions, key="dy_version", disabled=choice.kind != "saved")
 # Widget keys carry the scenario (and the version opened), so each keeps its own inputs.
 name = picked if version == "latest" else f"{picked} v{version}"
+edits_slot = st.container()  # what is edited and not saved, filled in once the figures are known
 try:
     base = ui.year_store.load(store, choice, None if version == "latest" else int(version))
 except InputError as err:
@@ -284,6 +299,32 @@ for note in result.notes:
     st.caption(note)
 
 edits = ui.provenance.year_edits(base, scenario, mix)
+if edits:
+    edited_years[name] = edits
+else:
+    edited_years.pop(name, None)
+with edits_slot:
+    others = {n: e for n, e in edited_years.items() if n != name}
+    if others:
+        st.caption(
+            ui.md(
+                "Kept for this session, not saved: your edits of "
+                + "; ".join(f"'{n}' ({', '.join(e)})" for n, e in others.items())
+                + ". Choose that scenario again to go on with them, and save to keep them."
+            )
+        )
+    if edits:
+        d1, d2 = st.columns([4, 1], vertical_alignment="center")
+        d1.warning(
+            ui.md(
+                f"Edited on this page, not saved: {', '.join(edits)}. The edits stay with this scenario "
+                "while you look at another one; Save below keeps them as a new version."
+            ),
+            icon=":material/edit_note:",
+        )
+        if d2.button("Discard edits", icon=":material/undo:", key="dy_discard_btn", width="stretch"):
+            ss["dy_discard_pending"] = name
+            st.rerun()
 title = f"Department year: {scenario.name}" + (" (edited on this page)" if edits else "")
 inputs = {
     "scenario": scenario.name + (f" ({', '.join(edits)} edited on this page, not as saved)" if edits else ""),

@@ -62,6 +62,19 @@ def keep_page_inputs() -> None:
         ss[key] = ss[key]
 
 
+def forget_inputs(belongs) -> None:
+    """Forget the page inputs whose key ``belongs(key)`` says yes to, data editors' edits included.
+
+    Their widgets start again from the values the page gives them. Call before they are drawn.
+    """
+    ss = st.session_state
+    for key in [k for k in ss if isinstance(k, str) and belongs(k)]:
+        del ss[key]
+    for store in (ss.get(_KEPT, {}), ss.get(_BASE, {})):
+        for key in [k for k in store if belongs(k)]:
+            del store[key]
+
+
 def editor_base(key: str, frame):
     """The table to hand ``st.data_editor(..., key=key)``.
 

@@ -282,3 +282,31 @@ def test_year_follows_the_sidebar_room_temperature_like_the_case_plan():
     # Ideal gas (docs/methods.md, Vapour from liquid): warmer liquid gives more vapour per mL, so less liquid for the
     # same dial; the year must move with the sidebar's temperature as a single case does.
     assert _per_case_liquid_ml(at) < cool
+
+
+def test_practice_edits_are_kept_per_scenario_named_while_another_is_shown_and_can_be_discarded():
+    """A change of scenario keeps the unsaved edits of the one left, says so, and Discard edits undoes them."""
+    at = app()
+    go(at, "department_year.py")
+    name = at.selectbox(key="dy_scenario").value
+    cost = metric_value(at, "Cost")
+    at.checkbox(key=f"dy_uf_{name}").check()
+    run(at)
+    at.number_input(key=f"dy_flow_{name}").set_value(0.8)
+    run(at)
+    edited_cost = metric_value(at, "Cost")
+    assert edited_cost != cost
+    assert any("not saved: practice" in w.value.replace("\\", "") for w in at.warning)
+    other = next(o for o in at.selectbox(key="dy_scenario").options if o != name)
+    at.selectbox(key="dy_scenario").select(other)
+    run(at)
+    kept = " ".join(c.value for c in at.caption).replace("\\", "")
+    assert f"your edits of '{name}' (practice)" in kept
+    at.selectbox(key="dy_scenario").select(name)
+    run(at)
+    assert at.number_input(key=f"dy_flow_{name}").value == 0.8
+    assert metric_value(at, "Cost") == edited_cost
+    click(at, "Discard edits")
+    assert at.checkbox(key=f"dy_uf_{name}").value is False  # the scenario as saved
+    assert metric_value(at, "Cost") == cost
+    assert not any("not saved" in w.value for w in at.warning)

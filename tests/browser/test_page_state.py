@@ -1,0 +1,51 @@
+"""A page's inputs and uploads kept for the session, in a real browser at a laptop's 1366 x 768."""
+
+from __future__ import annotations
+
+import pytest
+
+from tests.browser.actions import field, go, metric_text, open_app, shot, wait_idle, wait_metric_change
+
+pytestmark = pytest.mark.browser
+
+
+def choose(pg, label: str, option: str) -> None:
+    """Pick ``option`` in the select box ``label``, scrolled to first (a click that scrolls may close the list)."""
+    box = pg.locator('[data-testid="stSelectbox"]').filter(has_text=label).first
+    box.scroll_into_view_if_needed()
+    pg.wait_for_timeout(300)
+    for _attempt in range(3):
+        box.click()
+        try:
+            pg.get_by_role("option", name=option, exact=True).click(timeout=5000)
+            break
+        except Exception:
+            pg.keyboard.press("Escape")
+    else:
+        raise AssertionError(f"{option!r} could not be chosen in {label!r}")
+    wait_idle(pg)
+
+
+def test_department_year_practice_edits_survive_a_change_of_scenario(laptop, app_url):
+    pg = laptop
+    open_app(pg, app_url)
+    go(pg, "Department year", "Bottles bought per month")
+    as_saved = metric_text(pg, "Cost")
+    pg.get_by_text("Practice change and uncertainty").first.click()
+    pg.get_by_text("Set maintenance flow").first.click()
+    wait_idle(pg)
+    flow = field(pg, "Maintenance flow (L/min)")
+    flow.fill("0.8")
+    flow.press("Enter")
+    cost = wait_metric_change(pg, "Cost", as_saved)
+    choose(pg, "Scenario", "Fernhollow proposal: sevoflurane instead of desflurane")
+    pg.get_by_text("Kept for this session, not saved").first.wait_for()
+    pg.evaluate("window.scrollTo(0, 0)")
+    shot(pg, "state_year_other_scenario")
+    choose(pg, "Scenario", "Fernhollow baseline: 2 L/min maintenance")
+    pg.get_by_text("Edited on this page, not saved").first.wait_for()
+    shot(pg, "state_year_back")
+    pg.get_by_text("Practice change and uncertainty").first.click()
+    wait_idle(pg)
+    assert field(pg, "Maintenance flow (L/min)").input_value() == "0.80"
+    assert metric_text(pg, "Cost") == cost
