@@ -78,3 +78,36 @@ def test_prices_saved_on_the_reference_page_reach_the_department_year(isolated_s
     assert _number(metric_value(at, "Cost")) < 1.1 * cost
     line = next(c.value for c in at.caption if "Prices in use" in c.value).replace("\\", "")
     assert "the own prices of the scenario" in line and "chosen on this page" in line
+
+
+def _versions() -> int:
+    return len(Store().history("overrides", "dashboard"))
+
+
+def test_a_changed_value_is_listed_old_to_new_and_saved_only_by_the_button():
+    at = page("reference.py")
+    old = at.number_input(key="ref_bottle_sevoflurane").value
+    at.number_input(key="ref_bottle_sevoflurane").set_value(200.0)
+    run(at)  # what Enter in the field does: the value is entered, nothing is saved
+    assert _versions() == 0
+    listed = next(d.value for d in at.dataframe if "after saving" in d.value.columns)
+    assert listed.to_dict("records") == [
+        {"value": "prices.bottle.sevoflurane", "now": f"{old:g} (built-in default)", "after saving": "200"}
+    ]
+    _click(at, "Save my values")
+    assert _versions() == 1
+    assert any("prices.bottle.sevoflurane" in s.value and "-> 200" in s.value for s in at.success)
+
+
+def test_saving_the_values_in_use_unchanged_makes_no_new_version():
+    at = page("reference.py")
+    _click(at, "Save my values")
+    assert _versions() == 0
+    assert any("nothing saved" in i.value for i in at.info)
+    at.number_input(key="ref_bottle_sevoflurane").set_value(200.0)
+    _click(at, "Save my values")
+    _click(at, "Save my values")  # the same values again
+    assert _versions() == 1
+    # Putting back the values already in use makes none either.
+    _click(at, "Use this version again")
+    assert _versions() == 1
