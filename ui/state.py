@@ -159,11 +159,11 @@ def kept_uploads(
     before = carried.get(key, ())
     if before:
         where.caption(
-            md(", ".join(f.name for f in before))
-            + " - kept for this session from an earlier upload, and used by every page that reads these files."
-            + (" Files added here join them." if multiple else " A file uploaded here replaces it.")
+            "In use, kept for this session: "
+            + md(", ".join(f.name for f in before))
+            + (". Files added here join them." if multiple else ". A file uploaded here replaces it.")
         )
-        if where.button("Forget these files", key=f"{key}_btn_forget", icon=":material/delete:"):
+        if where.button("Forget these files", key=f"{key}_btn_forget", icon=":material/delete:", type="tertiary"):
             carried[key] = ()
             kept.pop(holds, None)
             checked.pop(key, None)

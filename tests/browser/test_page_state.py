@@ -5,8 +5,10 @@ from __future__ import annotations
 import pytest
 
 from tests.browser.actions import field, go, metric_text, open_app, shot, wait_idle, wait_metric_change
+from tests.helpers import ROOT
 
 pytestmark = pytest.mark.browser
+BIRCH = ROOT / "demo_data" / "records" / "fernhollow_birch_cases.csv"
 
 
 def choose(pg, label: str, option: str) -> None:
@@ -49,3 +51,49 @@ def test_department_year_practice_edits_survive_a_change_of_scenario(laptop, app
     wait_idle(pg)
     assert field(pg, "Maintenance flow (L/min)").input_value() == "0.80"
     assert metric_text(pg, "Cost") == cost
+
+
+def _headline(pg) -> str:
+    return pg.locator('[data-testid="stHeadingWithActionElements"] h4').first.inner_text()
+
+
+def test_emissions_report_settings_survive_a_visit_to_another_page(laptop, app_url):
+    pg = laptop
+    open_app(pg, app_url)
+    go(pg, "Emissions report", "What drove the change")
+    first = _headline(pg)
+    choose(pg, "Reporting period", "Quarter")
+    choose(pg, "Quarter", "Q2")
+    pct = field(pg, "Reduction a year [%]")
+    pct.fill("10")
+    pct.press("Enter")
+    wait_idle(pg)
+    headline = _headline(pg)
+    assert headline != first and "quarter 2" in headline
+    go(pg, "Reference", "Your values")
+    go(pg, "Emissions report", "What drove the change")
+    shot(pg, "state_report_back")
+    assert _headline(pg) == headline
+    assert field(pg, "Reduction a year [%]").input_value() == "10.00"
+    assert "quarter 2" in _headline(pg)  # the period chosen, not the calendar year again
+
+
+def test_records_uploaded_on_the_record_audit_stay_and_serve_the_emissions_report(laptop, app_url):
+    pg = laptop
+    open_app(pg, app_url)
+    go(pg, "Record audit", "Per case")
+    pg.get_by_text("Upload files").first.click()
+    wait_idle(pg)
+    pg.locator('[data-testid="stFileUploaderDropzoneInput"]').first.set_input_files(str(BIRCH))
+    pg.locator('[data-testid="stMetric"]').filter(has_text="Rows set aside").first.wait_for()
+    wait_idle(pg)
+    cases = metric_text(pg, "Cases")
+    go(pg, "Reference", "Your values")
+    go(pg, "Record audit", "Per case")
+    pg.get_by_text("kept for this session").first.wait_for()
+    shot(pg, "state_audit_back")
+    assert metric_text(pg, "Cases") == cases
+    go(pg, "Emissions report", "What drove the change")
+    pg.get_by_text("kept for this session").first.wait_for()
+    shot(pg, "state_report_shared_records")
+    assert metric_text(pg, "Cases") == cases
