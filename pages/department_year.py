@@ -77,6 +77,9 @@ version = c2.selectbox("Version", versions, key="dy_version", disabled=choice.ki
 # Widget keys carry the scenario (and the version opened), so each keeps its own inputs.
 name = picked if version == "latest" else f"{picked} v{version}"
 edits_slot = st.container()  # what is edited and not saved, filled in once the figures are known
+# The year's headline figures are drawn here, above the inputs that make them, so that a laptop
+# screen shows them first (they are filled in once the year is worked out).
+head = st.container()
 try:
     base = ui.year_store.load(store, choice, None if version == "latest" else int(version))
 except InputError as err:
@@ -229,46 +232,47 @@ except InputError as err:
 else:
     if not stale:
         ss[last_key] = (scenario, result, mix)
-if stale:
-    st.warning(
-        "The figures below are the last valid result; correct the entry above to update them.",
-        icon=":material/history:",
-    )
+with head:
+    if stale:
+        st.warning(
+            "These figures are the last valid result; correct the entry below to update them.",
+            icon=":material/history:",
+        )
 
-t = result.totals
-rows = result.summary.set_index("key")
-cur = result.currency
-st.subheader("The year")
-unsafe = ui.cautions.unsafe_banner(result.warnings, "the practice of this year")
-st.caption(
-    f"{t['cases']:,.0f} cases; {result.n_draws:,} draws (seed {result.seed}). "
-    f"Expected values under {result.inputs.gwp_label}, with P5-P95 under each"
-    + (
-        f" (the bands draw the GWP sources {', '.join(ref.gwp_sources[g].label for g in gwps)}, "
-        "so a value can sit near one end of its band)"
-        if len(gwps) > 1
-        else ""
+    t = result.totals
+    rows = result.summary.set_index("key")
+    cur = result.currency
+    st.subheader("The year")
+    unsafe = ui.cautions.unsafe_banner(result.warnings, "the practice of this year")
+    st.caption(
+        f"{t['cases']:,.0f} cases; {result.n_draws:,} draws (seed {result.seed}). "
+        f"Expected values under {result.inputs.gwp_label}, with P5-P95 under each"
+        + (
+            f" (the bands draw the GWP sources {', '.join(ref.gwp_sources[g].label for g in gwps)}, "
+            "so a value can sit near one end of its band)"
+            if len(gwps) > 1
+            else ""
+        )
+        + "."
     )
-    + "."
-)
-m = st.columns(5)
-for col, (label, key, value, digits) in zip(
-    m,
-    [
-        (f"Cost ({cur})", "cost_total", f"{t['cost_total']:,.0f}", 0),
-        ("Emissions (t CO2e)", "co2e_total_t", f"{t['co2e_total_t']:,.1f}", 1),
-        ("Bottles bought", "bottles_total", f"{t['bottles_total']:,.0f}", 0),
-        ("CO2 absorbent (kg)", "absorbent_kg", f"{t['absorbent_kg']:,.0f}", 0),
-        ("Average car (km)", "car_km", f"{t['car_km']:,.0f}", 0),
-    ],
-    strict=True,
-):
-    col.metric(label, value, help=scenario.car_source if key == "car_km" else None)
-    col.caption(yv.band_text(rows.loc[key], digits))
-st.caption(
-    f"Per case: {result.per_case['cost_total']:,.2f} {cur}, {result.per_case['co2e_total_t'] * 1000:,.1f} kg CO2e, "
-    f"{sum(result.per_case[f'liquid_ml_{a}'] for a in VOLATILES):,.1f} mL liquid agent."
-)
+    m = st.columns(5)
+    for col, (label, key, value, digits) in zip(
+        m,
+        [
+            (f"Cost ({cur})", "cost_total", f"{t['cost_total']:,.0f}", 0),
+            ("Emissions (t CO2e)", "co2e_total_t", f"{t['co2e_total_t']:,.1f}", 1),
+            ("Bottles bought", "bottles_total", f"{t['bottles_total']:,.0f}", 0),
+            ("CO2 absorbent (kg)", "absorbent_kg", f"{t['absorbent_kg']:,.0f}", 0),
+            ("Average car (km)", "car_km", f"{t['car_km']:,.0f}", 0),
+        ],
+        strict=True,
+    ):
+        col.metric(label, value, help=scenario.car_source if key == "car_km" else None)
+        col.caption(yv.band_text(rows.loc[key], digits))
+    st.caption(
+        f"Per case: {result.per_case['cost_total']:,.2f} {cur}, {result.per_case['co2e_total_t'] * 1000:,.1f} kg CO2e, "
+        f"{sum(result.per_case[f'liquid_ml_{a}'] for a in VOLATILES):,.1f} mL liquid agent."
+    )
 
 figs = [
     ("Bottles bought per month", year_charts.monthly_bottles_figure(result.monthly)),
@@ -277,6 +281,7 @@ figs = [
     ("Cumulative CO2e", year_charts.fan_figure(result.fan, "cumulative t CO2e", "t CO2e", CO2E_COLOUR)),
     ("Cumulative cost", year_charts.fan_figure(result.fan, "cumulative cost", cur)),
 ]
+st.subheader("Charts of the year")
 g1, g2 = st.columns(2)
 g1.plotly_chart(figs[0][1], width="stretch", key="dy_fig_bottles")
 g2.plotly_chart(figs[1][1], width="stretch", key="dy_fig_cost")

@@ -97,3 +97,24 @@ def test_records_uploaded_on_the_record_audit_stay_and_serve_the_emissions_repor
     pg.get_by_text("kept for this session").first.wait_for()
     shot(pg, "state_report_shared_records")
     assert metric_text(pg, "Cases") == cases
+
+
+@pytest.mark.parametrize(
+    ("title", "marker", "labels"),
+    [
+        ("Department year", "Charts of the year", ("Cost", "Emissions (t CO2e)")),
+        ("Emissions report", "What drove the change", ("Use-based, IPCC AR6 GWP100", "Purchase-based")),
+    ],
+)
+def test_the_first_laptop_screen_shows_the_headline_results(laptop, app_url, title, marker, labels):
+    """Laptop first: at 1366 x 768 the page's headline figures are on the first screen, unscrolled."""
+    pg = laptop
+    open_app(pg, app_url)
+    go(pg, title, marker)
+    pg.evaluate("window.scrollTo(0, 0)")
+    pg.locator('[data-testid="stMain"]').evaluate("m => m.scrollTo(0, 0)")
+    wait_idle(pg)
+    shot(pg, f"state_first_screen_{title.lower().replace(' ', '_')}")
+    for label in labels:
+        box = pg.locator('[data-testid="stMetric"]').filter(has_text=label).first.bounding_box()
+        assert box and box["y"] >= 0 and box["y"] + box["height"] <= 768, (label, box)

@@ -48,3 +48,18 @@ def test_record_problems_show_their_message_before_the_columns_that_may_be_wide(
     at = page("record_audit.py")
     issues = next(df.value for df in at.dataframe if "message" in df.value.columns)
     assert list(issues.columns[:3]) == ["line or row", "problem", "message"]
+
+
+def _walk(node):
+    """Every element under ``node`` in page order (AppTest's tree, depth first)."""
+    for child in getattr(node, "children", {}).values():
+        yield child
+        yield from _walk(child)
+
+
+def test_department_year_headline_figures_come_before_the_case_mix_table():
+    """Laptop first: the year's cost and emissions are on the first screen, above the inputs that make them."""
+    at = page("department_year.py")
+    order = [e.label if e.type == "metric" else e.type for e in _walk(at.main) if e.type in ("metric", "dataframe")]
+    first_table = order.index("dataframe")  # the case-mix table
+    assert {"Cost (GBP)", "Emissions (t CO2e)"} <= set(order[:first_table])
