@@ -1,4 +1,4 @@
-"""A page's inputs and uploads kept for the session, in a real browser at a laptop's 1366 x 768."""
+"""A page's inputs and uploads kept for the session, and laptop first, in a real browser at 1366 x 768."""
 
 from __future__ import annotations
 
@@ -118,3 +118,25 @@ def test_the_first_laptop_screen_shows_the_headline_results(laptop, app_url, tit
     for label in labels:
         box = pg.locator('[data-testid="stMetric"]').filter(has_text=label).first.bounding_box()
         assert box and box["y"] >= 0 and box["y"] + box["height"] <= 768, (label, box)
+
+
+OVERFLOW = """() => [...document.querySelectorAll('[data-testid="stDataFrame"] .dvn-scroller')]
+  .filter(s => s.offsetParent !== null).map(s => s.scrollWidth - s.clientWidth)"""
+
+
+def test_compare_tables_fit_a_laptop_without_scrolling_sideways(laptop, app_url):
+    """Laptop first: the side-by-side and the year comparison tables show every column at 1366 px."""
+    pg = laptop
+    open_app(pg, app_url)
+    go(pg, "Compare", "Against the baseline")
+    pg.locator('[data-testid="stDataFrame"]').first.scroll_into_view_if_needed()
+    pg.wait_for_timeout(1000)
+    shot(pg, "state_compare_side_by_side")
+    assert all(0 <= o <= 1 for o in pg.evaluate(OVERFLOW)), pg.evaluate(OVERFLOW)
+    pg.get_by_role("tab", name="Year scenarios").click()
+    wait_idle(pg)
+    pg.locator('[data-testid="stDataFrame"]').last.scroll_into_view_if_needed()
+    pg.wait_for_timeout(1000)
+    shot(pg, "state_compare_year")
+    widths = pg.evaluate(OVERFLOW)
+    assert widths and all(0 <= o <= 1 for o in widths), widths

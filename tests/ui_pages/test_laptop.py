@@ -63,3 +63,21 @@ def test_department_year_headline_figures_come_before_the_case_mix_table():
     order = [e.label if e.type == "metric" else e.type for e in _walk(at.main) if e.type in ("metric", "dataframe")]
     first_table = order.index("dataframe")  # the case-mix table
     assert {"Cost (GBP)", "Emissions (t CO2e)"} <= set(order[:first_table])
+
+
+def test_compare_tables_show_one_column_per_plan_or_year_to_fit_a_laptop():
+    """Laptop first: the Compare tables fit a 1366 px screen.
+
+    The side-by-side table shows figure, unit and one column per plan (the differences on
+    request), and each year comparison its own table without the year's name repeated in a
+    column; the downloads keep every column.
+    """
+    at = page("compare.py")
+    side = next(df for df in at.dataframe if "figure" in df.value.columns and "unit" in df.value.columns)
+    plans = [c for c in side.value.columns if c not in ("figure", "unit", "safety")]
+    assert len(plans) >= 2 and not any("difference" in c for c in plans)
+    at.radio(key="cmp_side_by_side").set_value("Difference from the baseline").run()
+    side = next(df for df in at.dataframe if "figure" in df.value.columns and "unit" in df.value.columns)
+    assert len([c for c in side.value.columns if c not in ("figure", "unit", "safety")]) == len(plans) - 1
+    years = [df.value for df in at.dataframe if "P5" in df.value.columns]
+    assert years and not any("year compared" in t.columns for t in years)
