@@ -41,6 +41,7 @@ def test_compare_takes_saved_years_and_several_proposals_against_a_chosen_baseli
     # The demo baseline at 2 L/min shows the 2 L/min year costing more than the 0.5 L/min proposal.
     assert float(base_rows[base_rows["figure"].str.startswith("Cost")]["difference"].iloc[0]) > 0
 
+
 def test_year_comparison_warnings_are_escaped_like_every_other_message():
     at = page("compare.py")
     year = [w.value for w in at.warning if "Inguinal hernia repair" in w.value]
