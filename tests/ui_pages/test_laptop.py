@@ -81,3 +81,22 @@ def test_compare_tables_show_one_column_per_plan_or_year_to_fit_a_laptop():
     assert len([c for c in side.value.columns if c not in ("figure", "unit", "safety")]) == len(plans) - 1
     years = [df.value for df in at.dataframe if "P5" in df.value.columns]
     assert years and not any("year compared" in t.columns for t in years)
+
+
+#: The phases table's width beside the figures on a 1366 x 768 laptop [px]: the grid measured
+#: 624 px wide in the browser (tests/browser/test_look.py's screen), less its 33 px row marker.
+PHASES_WIDTH_PX = 590
+#: A heading's width at the grid's font: 6.2 px a character, plus 24 px for the edit icon and
+#: padding (measured on the 1366 px screenshot; an estimate, no source).
+HEADING_PX_PER_CHAR, HEADING_EXTRA_PX = 6.2, 24
+
+
+def test_the_phases_table_headings_fit_their_columns_and_the_columns_fit_a_laptop():
+    """Laptop first: no heading of the phases editor is cut, and no column is pushed out of view."""
+    at = page("case_plan.py")
+    columns = {k: v for k, v in _config(at.data_editor[0]).items() if not v.get("hidden")}
+    widths = {c["label"]: c.get("width") for c in columns.values()}
+    assert all(isinstance(w, int) for w in widths.values()), widths
+    assert sum(widths.values()) <= PHASES_WIDTH_PX, widths
+    for label, width in widths.items():
+        assert width >= len(label) * HEADING_PX_PER_CHAR + HEADING_EXTRA_PX, (label, width)
