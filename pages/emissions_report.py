@@ -56,8 +56,12 @@ if source.startswith("Demo"):
     if c2.checkbox("Group theatres into sites (demo site file)", value=True, key="er_demo_sites"):
         sites_file = Source(DEMO_SITES.name, path=DEMO_SITES)
 else:
-    # Kept for the session and shared with the Record audit (ui.state.kept_uploads).
-    c1, c2, c3 = st.columns(3)
+    # Kept for the session and shared with the Record audit (ui.state.kept_uploads). With records
+    # kept, the uploaders fold away so that the report's headline stays on a laptop's first screen.
+    box = st.expander(
+        "Record, purchases and site files", expanded=not ui.state.kept_files("records"), icon=":material/upload:"
+    )
+    c1, c2, c3 = box.columns(3)
     files = ui.state.kept_uploads(
         "Record files covering both periods (.csv, .parquet)",
         "er_upload",
