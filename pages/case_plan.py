@@ -154,19 +154,21 @@ edited = inputs_col.data_editor(
     hide_index=True,
     width="stretch",
     column_config={
-        "phase": st.column_config.TextColumn("phase", required=True, max_chars=80, width=100),
-        "duration": st.column_config.TextColumn("duration", help="e.g. 75 min or 1.25 h", required=True, width="small"),
-        "O2": st.column_config.TextColumn("O2 flow", help="e.g. 0.5 L/min or 500 mL/min", width="small"),
-        "air": st.column_config.TextColumn("air flow", width="small"),
-        "N2O": st.column_config.TextColumn("N2O flow", width="small"),
+        # Widths in px that add up to the table's width beside the figures on a 1366 px laptop,
+        # so no heading is cut; the flows' headings are short, their help says what they hold.
+        "phase": st.column_config.TextColumn("phase", required=True, max_chars=80, width=90),
+        "duration": st.column_config.TextColumn("duration", help="e.g. 75 min or 1.25 h", required=True, width=80),
+        "O2": st.column_config.TextColumn("O2", help="O2 flow, e.g. 0.5 L/min or 500 mL/min", width=70),
+        "air": st.column_config.TextColumn("air", help="Medical air flow, e.g. 1 L/min", width=70),
+        "N2O": st.column_config.TextColumn("N2O", help="N2O flow, e.g. 0 L/min", width=66),
         "control": st.column_config.SelectboxColumn(
             "control",
             options=list(CONTROL_LABELS),
             required=True,
-            width="small",
+            width=80,
             help="dial: vaporizer setting; target: end-tidal MAC multiple",
         ),
-        "setting": st.column_config.TextColumn("dial % or target", help="e.g. 2.5 % (dial) or 1.0 (x MAC)", width=110),
+        "setting": st.column_config.TextColumn("dial % or target", help="e.g. 2.5 % (dial) or 1.0 (x MAC)", width=124),
     },
 )
 

@@ -82,12 +82,7 @@ def _compare_plans() -> None:
     _show_against_baseline(results, scale, unsafe)
     table = _side_by_side(results, scale, unsafe)
     st.subheader("Side by side")
-    # Figures to four significant figures: a case's emissions in t CO2e are small numbers.
-    fmt.table(
-        table,
-        view.currency,
-        config={c: st.column_config.NumberColumn(format="%.4g") for c in table.columns[2:] if c != "safety"},
-    )
+    _show_side_by_side(table, list(results))
     charts_ = _charts(results, scale)
     st.subheader("Charts")
     g1, g2 = st.columns(2)
@@ -192,6 +187,42 @@ def _plan_card(name: str, res: CaseResult, bt: dict, scale: float) -> None:
         help="End-tidal MAC multiple over time, the depth reached",
     )
     c[4].caption(f"Dial-based: {t['mac_hours']:.2f} MAC-h")
+
+
+#: What the side-by-side table's plan columns show (one column per plan, so they fit a laptop).
+SIDE_BY_SIDE = {"Figures": "", "Difference from the baseline": ": difference", "Difference %": ": difference %"}
+
+
+def _show_side_by_side(table: pd.DataFrame, names: list[str]) -> None:
+    """The side-by-side table on the page: figure and unit, then one column per plan.
+
+    The plan columns show the figures, or each plan's difference from the baseline (the first
+    plan), in units or in %; the downloads carry all of them. A column is as wide as its share
+    of the page, its heading the plan's name (the whole name in its help).
+    """
+    shown = st.radio("Show", list(SIDE_BY_SIDE), horizontal=True, key="cmp_side_by_side", label_visibility="collapsed")
+    suffix = SIDE_BY_SIDE[shown]
+    plans = names if not suffix else names[1:]
+    columns = {f"{n}{suffix}": n for n in plans}
+    view_table = table[["figure", "unit", *columns, *(["safety"] if "safety" in table.columns else [])]]
+    view_table = view_table.rename(columns=columns)
+    width = max(90, (820 - 230) // max(len(plans), 1))  # px: the main column of a 1366 px laptop
+    fmt.table(
+        view_table,
+        view.currency,
+        # Figures to four significant figures: a case's emissions in t CO2e are small numbers.
+        config={
+            n: st.column_config.NumberColumn(
+                n,
+                format="%+.4g" if suffix == ": difference" else "%+.0f %%" if suffix else "%.4g",
+                width=width,
+                help=n + ("" if not suffix else f", {shown.lower()} ({names[0]})"),
+            )
+            for n in plans
+        },
+    )
+    if suffix and len(names) > 1:
+        st.caption(ui.md(f"Baseline: {names[0]}, the first plan chosen."))
 
 
 def _side_by_side(results: dict[str, CaseResult], scale: float, unsafe: list[str]) -> pd.DataFrame:

@@ -45,6 +45,20 @@ if not choices:
     st.stop()
 if ss.get("dy_scenario") not in choices:
     ss.pop("dy_scenario", None)
+
+
+def _of_year(name: str):
+    """Whether a session key holds one of the inputs of the year ``name`` (keys end with its name)."""
+    return lambda k: k.startswith("dy_") and (k.endswith(f"_{name}") or k.startswith(f"dy_gwps_{name}_"))
+
+
+# Edits of the practice and the case mix are kept per scenario (and version) for the session;
+# "Discard edits" forgets those of the year shown, before its widgets are drawn again.
+edited_years: dict[str, list[str]] = ss.setdefault("dy_edited", {})
+if "dy_discard_pending" in ss:
+    gone = ss.pop("dy_discard_pending")
+    ui.state.forget_inputs(_of_year(gone))
+    edited_years.pop(gone, None)
 c1, c2 = st.columns([4, 1], vertical_alignment="bottom")
 picked = c1.selectbox(
     "Scenario",
@@ -62,6 +76,10 @@ if ss.get("dy_version") not in versions:
 version = c2.selectbox("Version", versions, key="dy_version", disabled=choice.kind != "saved")
 # Widget keys carry the scenario (and the version opened), so each keeps its own inputs.
 name = picked if version == "latest" else f"{picked} v{version}"
+edits_slot = st.container()  # what is edited and not saved, filled in once the figures are known
+# The year's headline figures are drawn here, above the inputs that make them, so that a laptop
+# screen shows them first (they are filled in once the year is worked out).
+head = st.container()
 try:
     base = ui.year_store.load(store, choice, None if version == "latest" else int(version))
 except InputError as err:
@@ -225,46 +243,47 @@ except InputError as err:
 else:
     if not stale:
         ss[last_key] = (scenario, result, mix)
-if stale:
-    st.warning(
-        "The figures below are the last valid result; correct the entry above to update them.",
-        icon=":material/history:",
-    )
+with head:
+    if stale:
+        st.warning(
+            "These figures are the last valid result; correct the entry below to update them.",
+            icon=":material/history:",
+        )
 
-t = result.totals
-rows = result.summary.set_index("key")
-cur = result.currency
-st.subheader("The year")
-unsafe = ui.cautions.unsafe_banner(result.warnings, "the practice of this year")
-st.caption(
-    f"{t['cases']:,.0f} cases; {result.n_draws:,} draws (seed {result.seed}). "
-    f"Expected values under {result.inputs.gwp_label}, with the {result.range_label} under each"
-    + (
-        f" (the P5-P95 ranges draw the GWP sources {', '.join(ref.gwp_sources[g].label for g in gwps)}, "
-        "so a value can sit near one end of its range)"
-        if len(gwps) > 1
-        else ""
+    t = result.totals
+    rows = result.summary.set_index("key")
+    cur = result.currency
+    st.subheader("The year")
+    unsafe = ui.cautions.unsafe_banner(result.warnings, "the practice of this year")
+    st.caption(
+        f"{t['cases']:,.0f} cases; {result.n_draws:,} draws (seed {result.seed}). "
+        f"Expected values under {result.inputs.gwp_label}, with the {result.range_label} under each"
+        + (
+            f" (the P5-P95 ranges draw the GWP sources {', '.join(ref.gwp_sources[g].label for g in gwps)}, "
+            "so a value can sit near one end of its range)"
+            if len(gwps) > 1
+            else ""
+        )
+        + "."
     )
-    + "."
-)
-m = st.columns(5)
-for col, (label, key, value, digits) in zip(
-    m,
-    [
-        (f"Cost ({cur})", "cost_total", f"{t['cost_total']:,.0f}", 0),
-        ("Emissions (t CO2e)", "co2e_total_t", f"{t['co2e_total_t']:,.1f}", 1),
-        ("Bottles bought", "bottles_total", f"{t['bottles_total']:,.0f}", 0),
-        ("CO2 absorbent (kg)", "absorbent_kg", f"{t['absorbent_kg']:,.0f}", 0),
-        ("Average car (km)", "car_km", f"{t['car_km']:,.0f}", 0),
-    ],
-    strict=True,
-):
-    col.metric(label, value, help=scenario.car_source if key == "car_km" else None)
-    col.caption(yv.range_text(rows.loc[key], digits))
-st.caption(
-    f"Per case: {result.per_case['cost_total']:,.2f} {cur}, {result.per_case['co2e_total_t'] * 1000:,.1f} kg CO2e, "
-    f"{sum(result.per_case[f'liquid_ml_{a}'] for a in VOLATILES):,.1f} mL liquid agent."
-)
+    m = st.columns(5)
+    for col, (label, key, value, digits) in zip(
+        m,
+        [
+            (f"Cost ({cur})", "cost_total", f"{t['cost_total']:,.0f}", 0),
+            ("Emissions (t CO2e)", "co2e_total_t", f"{t['co2e_total_t']:,.1f}", 1),
+            ("Bottles bought", "bottles_total", f"{t['bottles_total']:,.0f}", 0),
+            ("CO2 absorbent (kg)", "absorbent_kg", f"{t['absorbent_kg']:,.0f}", 0),
+            ("Average car (km)", "car_km", f"{t['car_km']:,.0f}", 0),
+        ],
+        strict=True,
+    ):
+        col.metric(label, value, help=scenario.car_source if key == "car_km" else None)
+        col.caption(yv.range_text(rows.loc[key], digits))
+    st.caption(
+        f"Per case: {result.per_case['cost_total']:,.2f} {cur}, {result.per_case['co2e_total_t'] * 1000:,.1f} kg CO2e, "
+        f"{sum(result.per_case[f'liquid_ml_{a}'] for a in VOLATILES):,.1f} mL liquid agent."
+    )
 
 figs = [
     ("Bottles bought per month", year_charts.monthly_bottles_figure(result.monthly)),
@@ -276,6 +295,7 @@ figs = [
     ),
     ("Cumulative cost", year_charts.fan_figure(result.fan, "cumulative cost", cur, range_label=result.range_label)),
 ]
+st.subheader("Charts of the year")
 g1, g2 = st.columns(2)
 g1.plotly_chart(figs[0][1], width="stretch", key="dy_fig_bottles")
 g2.plotly_chart(figs[1][1], width="stretch", key="dy_fig_cost")
@@ -298,6 +318,32 @@ for note in result.notes:
     st.caption(note)
 
 edits = ui.provenance.year_edits(base, scenario, mix)
+if edits:
+    edited_years[name] = edits
+else:
+    edited_years.pop(name, None)
+with edits_slot:
+    others = {n: e for n, e in edited_years.items() if n != name}
+    if others:
+        st.caption(
+            ui.md(
+                "Kept for this session, not saved: your edits of "
+                + "; ".join(f"'{n}' ({', '.join(e)})" for n, e in others.items())
+                + ". Choose that scenario again to go on with them, and save to keep them."
+            )
+        )
+    if edits:
+        d1, d2 = st.columns([4, 1], vertical_alignment="center")
+        d1.warning(
+            ui.md(
+                f"Edited on this page, not saved: {', '.join(edits)}. The edits stay with this scenario "
+                "while you look at another one; Save below keeps them as a new version."
+            ),
+            icon=":material/edit_note:",
+        )
+        if d2.button("Discard edits", icon=":material/undo:", key="dy_discard_btn", width="stretch"):
+            ss["dy_discard_pending"] = name
+            st.rerun()
 title = f"Department year: {scenario.name}" + (" (edited on this page)" if edits else "")
 inputs = {
     "scenario": scenario.name + (f" ({', '.join(edits)} edited on this page, not as saved)" if edits else ""),

@@ -10,6 +10,7 @@ import pandas as pd
 import streamlit as st
 
 import ui
+import ui.state
 from model import InputError
 from model.audit.engine import audit_records
 from model.base.files import Source
@@ -34,9 +35,12 @@ view = ui.page_start(
 )
 ref = ui.reference(view)
 
+UPLOAD = "Upload files"
+if ui.state.kept_files("records"):
+    st.session_state.setdefault("er_source", UPLOAD)  # records uploaded on another page are used here too
 source = st.radio(
     "Records",
-    ["Demo records (Fernhollow General Hospital, invented, 2025 and 2026)", "Upload files"],
+    ["Demo records (Fernhollow General Hospital, invented, 2025 and 2026)", UPLOAD],
     key="er_source",
     horizontal=True,
 )
@@ -52,20 +56,32 @@ if source.startswith("Demo"):
     if c2.checkbox("Group theatres into sites (demo site file)", value=True, key="er_demo_sites"):
         sites_file = Source(DEMO_SITES.name, path=DEMO_SITES)
 else:
-    c1, c2, c3 = st.columns(3)
-    ups = c1.file_uploader(
+    # Kept for the session and shared with the Record audit (ui.state.kept_uploads). With records
+    # kept, the uploaders fold away so that the report's headline stays on a laptop's first screen.
+    box = st.expander(
+        "Record, purchases and site files", expanded=not ui.state.kept_files("records"), icon=":material/upload:"
+    )
+    c1, c2, c3 = box.columns(3)
+    files = ui.state.kept_uploads(
         "Record files covering both periods (.csv, .parquet)",
-        type=["csv", "parquet"],
-        accept_multiple_files=True,
-        key="er_upload",
+        "er_upload",
+        "records",
+        multiple=True,
+        types=("csv", "parquet"),
+        where=c1,
     )
-    ups_p = c2.file_uploader(
-        "Purchases files (optional)", type=["csv", "parquet"], accept_multiple_files=True, key="er_upload_purchases"
+    purchase_files = ui.state.kept_uploads(
+        "Purchases files (optional)",
+        "er_upload_purchases",
+        "purchases",
+        multiple=True,
+        types=("csv", "parquet"),
+        where=c2,
     )
-    up_s = c3.file_uploader("Site file, theatre,site (optional)", type=["csv"], key="er_upload_sites")
-    files = ui.checked_uploads(ups, "records")
-    purchase_files = ui.checked_uploads(ups_p, "purchases")
-    sites_file = next(iter(ui.checked_uploads(up_s, "sites")), None)
+    site_files = ui.state.kept_uploads(
+        "Site file, theatre,site (optional)", "er_upload_sites", "sites", types=("csv",), where=c3
+    )
+    sites_file = site_files[0] if site_files else None
 if not files:
     st.info("Upload record files (format in docs/formats.md, 'Case records') to build the report.")
     st.stop()

@@ -10,6 +10,7 @@ import streamlit as st
 
 import ui
 import ui.provenance
+import ui.state
 from model import InputError
 from model.audit.engine import audit_records
 from model.audit.reconcile import cost_view, reconcile, record_coverage
@@ -82,32 +83,39 @@ st.warning(
 ss = st.session_state
 ref = ui.reference(view)
 
+UPLOAD = "Upload files"
+if ui.state.kept_files("records"):
+    ss.setdefault("ra_source", UPLOAD)  # records uploaded on another page are used here too
 source = st.radio(
     "Records",
-    ["Demo records (Fernhollow General Hospital, invented)", "Upload files"],
+    ["Demo records (Fernhollow General Hospital, invented)", UPLOAD],
     key="ra_source",
     horizontal=True,
 )
 files: list[Source] = []
-purchases_file: Source | None = None
+purchase_files: list[Source] = []
 if source.startswith("Demo"):
     chosen = st.multiselect("Demo files", list(DEMO_RECORDS), default=list(DEMO_RECORDS), key="ra_demo")
     # Read where they are, named as the user knows them.
     files = [Source(DEMO_RECORDS[c].name, path=DEMO_RECORDS[c]) for c in chosen]
     if st.checkbox("Reconcile with the demo purchases", value=True, key="ra_demo_purchases"):
-        purchases_file = _demo_purchases()
+        purchase_files = [_demo_purchases()]
 else:
-    uploads = st.file_uploader(
+    # Kept for the session and shared with the Emissions report (ui.state.kept_uploads).
+    files = ui.state.kept_uploads(
         "Record files (.csv or .parquet; format in docs/formats.md, 'Case records')",
-        type=["csv", "parquet"],
-        accept_multiple_files=True,
-        key="ra_upload",
+        "ra_upload",
+        "records",
+        multiple=True,
+        types=("csv", "parquet"),
     )
-    up_p = st.file_uploader(
-        "Purchases file (optional; .csv or .parquet)", type=["csv", "parquet"], key="ra_upload_purchases"
+    purchase_files = ui.state.kept_uploads(
+        "Purchases files (optional; .csv or .parquet)",
+        "ra_upload_purchases",
+        "purchases",
+        multiple=True,
+        types=("csv", "parquet"),
     )
-    files = ui.checked_uploads(uploads, "records")
-    purchases_file = next(iter(ui.checked_uploads(up_p, "purchases")), None)
 
 with st.expander("Audit settings"):
     c1, c2, c3 = st.columns(3)
@@ -146,8 +154,8 @@ if not files:
     st.stop()
 
 
-def run_audit(files: tuple[Source, ...], purchases: Source | None, settings: tuple, _ref, _progress):
-    """Audit the files and reconcile with purchases; every message names the user's files.
+def run_audit(files: tuple[Source, ...], purchases: tuple[Source, ...], settings: tuple, _ref, _progress):
+    """Audit the files and reconcile with the purchases files; every message names the user's files.
 
     Returns (audit result, reconciliation or None, messages for purchase lines set aside, cost by item).
     """
@@ -164,19 +172,19 @@ def run_audit(files: tuple[Source, ...], purchases: Source | None, settings: tup
         time_zone=zone or None,
     )
     recon, purchase_notes, bought_table = None, [], None
-    if purchases is not None:
-        bought = load_purchases(purchases, _ref)
-        purchase_notes = bought.messages
-        recon = reconcile(bought.table, result.use_by_month(), _ref, gwp)
-        bought_table = bought.table
+    if purchases:
+        bought = [load_purchases(p, _ref) for p in purchases]
+        purchase_notes = [m for b in bought for m in b.messages]
+        bought_table = pd.concat([b.table for b in bought], ignore_index=True)
+        recon = reconcile(bought_table, result.use_by_month(), _ref, gwp)
     return result, recon, purchase_notes, cost_view(bought_table, result, _ref)
 
 
 digest = hashlib.sha256()
 for f in files:
     digest.update(f.digest().encode())
-if purchases_file:
-    digest.update(b"purchases" + purchases_file.digest().encode())
+for f in purchase_files:
+    digest.update(b"purchases" + f.digest().encode())
 settings = (
     float(gap_limit),
     float(high_flow),
@@ -196,7 +204,7 @@ if cache_key not in cache:
         bar.progress(min(max(fraction, 0.0), 1.0), text=text)
 
     try:
-        cache[cache_key] = run_audit(tuple(files), purchases_file, settings, ref, _progress)
+        cache[cache_key] = run_audit(tuple(files), tuple(purchase_files), settings, ref, _progress)
     except InputError as err:
         bar.empty()
         ui.show_input_error(err)
@@ -364,7 +372,7 @@ if purchase_notes:
     tables["Purchase lines set aside"] = pd.DataFrame({"message": purchase_notes})
 inputs = {
     "files": ", ".join(rep.files),
-    "purchases": purchases_file.name if purchases_file else "none",
+    "purchases": ", ".join(f.name for f in purchase_files) or "none",
     "record coverage": coverage["message"] if recon is not None else "no purchases to compare",
     "GWP source": result.gwp_label,
     "room temperature": f"{view.temperature_c:g} °C",

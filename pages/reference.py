@@ -13,7 +13,7 @@ from model import DEFAULT_REFERENCE, InputError
 from model.present.exports import html_export
 from model.reference import DEFAULT_MAC_SET, MAC_SETS, USER, VOLATILES
 from model.store.access import author_label
-from model.store.changelog import reference_changes
+from model.store.changelog import changes_between, reference_changes
 from model.store.changelog import shown as change_text
 
 view = ui.page_start(
@@ -121,7 +121,9 @@ if ss.pop("ref_reset_form", False):
     for k in [k for k in ss if str(k).startswith(FORM_KEYS)]:
         del ss[k]
     ss.update(_values_in_use())
-with st.form("ref_overrides"):
+# No form: Enter in a field only enters that value. Saving takes the button, under the list of
+# what would change; with nothing changed there is nothing to save (no new version).
+with st.container(border=True):
     tab_p, tab_g, tab_m, tab_v = st.tabs(["Prices", "GWP values", "MAC at age 40", "Vaporizer maximum"])
     with tab_p:
         c = st.columns(5)
@@ -223,10 +225,6 @@ with st.form("ref_overrides"):
                 format="%.3g",
                 disabled=locked,
             )
-    note = st.text_input(
-        "Note for this set of values", placeholder="optional, e.g. 2026 contract prices", disabled=locked
-    )
-    submitted = st.form_submit_button("Save my values", type="primary", icon=":material/save:", disabled=locked)
 
 
 def _collect() -> dict:
@@ -261,10 +259,45 @@ def _collect() -> dict:
     return out
 
 
+overrides = _collect()
+pending = changes_between(saved, overrides)
+with st.container(border=True):
+    if not pending:
+        st.caption("No value differs from the values in use: nothing to save.")
+    else:
+        st.markdown(f"**To save: {len(pending)} changed value(s)**, from the values in use now to those above")
+        st.dataframe(
+            pd.DataFrame(
+                {
+                    "value": [path for path, _, _ in pending],
+                    "now": [change_text(default, path, old) for path, old, _ in pending],
+                    "after saving": [change_text(default, path, new) for path, _, new in pending],
+                }
+            ),
+            hide_index=True,
+            width="stretch",
+        )
+    n1, n2 = st.columns([3, 1], vertical_alignment="bottom")
+    note = n1.text_input(
+        "Note for this set of values",
+        placeholder="optional, e.g. 2026 contract prices",
+        disabled=locked,
+        key="ref_note",
+    )
+    submitted = n2.button(
+        "Save my values",
+        type="primary",
+        icon=":material/save:",
+        disabled=locked,
+        key="ref_save_btn",
+        width="stretch",
+    )
+
 if submitted and locked:  # the button is disabled; refuse here too
     st.warning(ui.md(f"Not saved. {permission.reason}"), icon=":material/lock:")
+elif submitted and not pending:
+    st.info("No value differs from the values in use: nothing saved, no new version.", icon=":material/info:")
 elif submitted:
-    overrides = _collect()
     try:
         default.with_overrides(overrides, "dashboard")  # check before saving
     except InputError as err:
@@ -273,7 +306,15 @@ elif submitted:
         version = store.save_overrides(overrides, note=note, author=ui.author())
         ss["ref_reset_form"] = True  # a new MAC set changes the MAC values the form shows
         ss["gl_currency_pending"] = currency.strip()
-        ss["ref_msg"] = f"Saved your values as version {version}; every page now uses them."
+        ss.pop("ref_note", None)
+        ss["ref_msg"] = (
+            f"Saved your values as version {version}; every page now uses them. Changed: "
+            + "; ".join(
+                f"{path} {change_text(default, path, old)} -> {change_text(default, path, new)}"
+                for path, old, new in pending
+            )
+            + "."
+        )
         st.rerun()
 msg = ss.pop("ref_msg", None)
 if msg:
@@ -328,12 +369,18 @@ with st.expander(f"Earlier sets of values ({len(history)})", icon=":material/his
         if h2.button("Use this version again", icon=":material/restore:", disabled=locked) and not locked:
             body = store.get("overrides", "dashboard", int(pick)).body
             restored = json.loads(body)
+            if not changes_between(saved, restored):
+                ss["ref_msg"] = f"Version {pick}'s values are the values in use: nothing saved."
+                st.rerun()
             version = store.save_overrides(restored, note=f"restored version {pick}", author=ui.author())
             ss["ref_reset_form"] = True
             ss["gl_currency_pending"] = (restored.get("prices") or {}).get("currency") or default.prices.currency
             ss["ref_msg"] = f"Version {pick} is in use again (saved as version {version})."
             st.rerun()
         if h3.button("Go back to the built-in defaults", icon=":material/undo:", disabled=locked) and not locked:
+            if not changes_between(saved, {}):
+                ss["ref_msg"] = "The built-in defaults are in use: nothing saved."
+                st.rerun()
             version = store.save_overrides({}, note="back to built-in defaults", author=ui.author())
             ss["ref_reset_form"] = True
             ss["gl_currency_pending"] = default.prices.currency

@@ -115,14 +115,16 @@ def render(view) -> None:
             fig = year_charts.difference_figure(comp.summary, labels)
             st.plotly_chart(fig, width="stretch", key=f"yc_fig_{i}")
             figs.append((f"Change per year: {p_name}", fig))
-        table = nonzero_rows(comp.summary, ("baseline", "proposal", "p5", "p95")).drop(columns=["key"])
+            table = nonzero_rows(comp.summary, ("baseline", "proposal", "p5", "p95")).drop(columns=["key"])
+            if comp.proposal.unsafe or comp.baseline.unsafe:
+                table.insert(0, "safety", ui.cautions.UNSAFE)
+            # Shown under its own heading, so no column repeats the year's name: every column
+            # fits a laptop's width. The download's one table names the year on each row.
+            fmt.table(table, first.baseline.currency)
         table.insert(0, "year compared", p_name)
-        if comp.proposal.unsafe or comp.baseline.unsafe:
-            table.insert(1, "safety", ui.cautions.UNSAFE)
         rows_all.append(table)
         tables[f"Proposal {i + 1} per month"] = comp.proposal.monthly
     table = pd.concat(rows_all, ignore_index=True)
-    fmt.table(table, first.baseline.currency)
     ui.cautions.show_other_warnings(warnings)
     notes = list(dict.fromkeys(n for c in comps.values() for n in c.notes + c.proposal.notes))
     for note in notes:

@@ -47,6 +47,24 @@ def _body(text: str) -> dict:
     return data if isinstance(data, dict) else {}
 
 
+def changes_between(before: dict, after: dict) -> list[tuple[str, object, object]]:
+    """The values two sets of overrides differ in: ``(path, old, new)`` by dotted path, in order.
+
+    Parameters
+    ----------
+    before, after : dict
+        Overrides mappings (``Reference.with_overrides``); a value absent from one is the
+        built-in default there (``None`` in the result).
+
+    Returns
+    -------
+    list of tuple
+        One ``(path, old, new)`` per value that differs; empty when the two give the same values.
+    """
+    old, new = flatten(before), flatten(after)
+    return [(p, old.get(p), new.get(p)) for p in sorted(set(old) | set(new)) if old.get(p) != new.get(p)]
+
+
 def reference_changes(versions: Iterable) -> list[Change]:
     """Every value changed by each version of the overrides, newest first.
 
@@ -62,13 +80,11 @@ def reference_changes(versions: Iterable) -> list[Change]:
     """
     ordered = sorted(versions, key=lambda v: v.version)
     rows: list[Change] = []
-    before: dict[str, object] = {}
+    before: dict = {}
     for v in ordered:
-        after = flatten(_body(v.body))
-        for path in sorted(set(before) | set(after)):
-            old, new = before.get(path), after.get(path)
-            if old != new:
-                rows.append(Change(v.version, v.saved_at, v.author, v.note, path, old, new))
+        after = _body(v.body)
+        for path, old, new in changes_between(before, after):
+            rows.append(Change(v.version, v.saved_at, v.author, v.note, path, old, new))
         before = after
     return sorted(rows, key=lambda c: -c.version)
 

@@ -61,7 +61,32 @@ def test_going_back_to_the_defaults_empties_the_form(laptop, app_url, store_path
     wait_idle(pg)
     shot(pg, "reference_after_defaults")
     assert float(field(pg, "Sevoflurane per bottle").input_value()) == pytest.approx(default)
+    versions = len(Store(store_path).history("overrides", "dashboard"))
+    click_button(pg, "Save my values")
+    # The form shows the values in use, so saving it changes nothing and makes no new version.
+    pg.get_by_text("nothing saved, no new version").wait_for()
+    wait_idle(pg)
+    assert "bottle" not in Store(store_path).load_overrides().get("prices", {})
+    assert len(Store(store_path).history("overrides", "dashboard")) == versions
+
+
+def test_enter_in_a_price_field_saves_nothing_and_the_button_saves_what_is_listed(laptop, app_url, store_path):
+    """Enter in a price enters that value only; the changes are listed old -> new, and Save keeps them."""
+    pg = laptop
+    open_app(pg, app_url)
+    go(pg, "Reference", "Your values")
+    before = len(Store(store_path).history("overrides", "dashboard"))
+    box = field(pg, "Desflurane per bottle")
+    box.fill("444")
+    box.press("Enter")
+    pg.get_by_text("To save: 1 changed value(s)").wait_for()
+    wait_idle(pg)
+    assert len(Store(store_path).history("overrides", "dashboard")) == before
+    pg.get_by_text("To save: 1 changed value(s)").scroll_into_view_if_needed()
+    shot(pg, "reference_changes_to_save")
     click_button(pg, "Save my values")
     pg.get_by_text("every page now uses them").wait_for()
     wait_idle(pg)
-    assert "bottle" not in Store(store_path).load_overrides().get("prices", {})
+    assert len(Store(store_path).history("overrides", "dashboard")) == before + 1
+    assert Store(store_path).load_overrides()["prices"]["bottle"]["desflurane"] == 444
+    assert pg.get_by_text(re.compile(r"prices\.bottle\.desflurane .* (->|→) 444")).count() == 1

@@ -145,10 +145,10 @@ def test_a_case_mix_error_keeps_the_last_year_and_shows_the_error_by_the_table()
     assert any("last valid result" in w.value for w in at.warning)
     assert at.number_input(key=f"dy_flow_{name}") is not None
     assert [d.proto.label for d in at.get("download_button")][:3] == ["CSV", "Excel", "HTML report"]
-    # The error sits by the table: between the case-mix editor and the headline figures.
-    # (AppTest shows the editor as a Dataframe element; it is the first table on the page.)
+    # The error sits by the table, right after the case-mix editor (the headline figures are
+    # drawn above the inputs, laptop first). AppTest shows the editor as a Dataframe element.
     order = [type(e).__name__ for e in walk(at.main) if type(e).__name__ in ("Dataframe", "Error", "Metric")]
-    assert order.index("Dataframe") < order.index("Error") < order.index("Metric")
+    assert order.index("Error") == order.index("Dataframe") + 1
 
 
 def _inputs(at: AppTest) -> dict:
@@ -304,3 +304,31 @@ def test_year_bands_say_whether_they_include_model_physiology():
     charts = [json.loads(c.proto.spec) for c in at.get("plotly_chart")]
     names = {t.get("name") for c in charts for t in c["data"]}
     assert "P5-P95 ranges over case mix, prices and model physiology" in names
+
+
+def test_practice_edits_are_kept_per_scenario_named_while_another_is_shown_and_can_be_discarded():
+    """A change of scenario keeps the unsaved edits of the one left, says so, and Discard edits undoes them."""
+    at = app()
+    go(at, "department_year.py")
+    name = at.selectbox(key="dy_scenario").value
+    cost = metric_value(at, "Cost")
+    at.checkbox(key=f"dy_uf_{name}").check()
+    run(at)
+    at.number_input(key=f"dy_flow_{name}").set_value(0.8)
+    run(at)
+    edited_cost = metric_value(at, "Cost")
+    assert edited_cost != cost
+    assert any("not saved: practice" in w.value.replace("\\", "") for w in at.warning)
+    other = next(o for o in at.selectbox(key="dy_scenario").options if o != name)
+    at.selectbox(key="dy_scenario").select(other)
+    run(at)
+    kept = " ".join(c.value for c in at.caption).replace("\\", "")
+    assert f"your edits of '{name}' (practice)" in kept
+    at.selectbox(key="dy_scenario").select(name)
+    run(at)
+    assert at.number_input(key=f"dy_flow_{name}").value == 0.8
+    assert metric_value(at, "Cost") == edited_cost
+    click(at, "Discard edits")
+    assert at.checkbox(key=f"dy_uf_{name}").value is False  # the scenario as saved
+    assert metric_value(at, "Cost") == cost
+    assert not any("not saved" in w.value for w in at.warning)

@@ -131,8 +131,13 @@ def test_compare_renders_differences():
     at = page("compare.py")
     deltas = [m.delta for m in at.metric if m.label == "Liquid agent"]
     assert deltas and "%" in deltas[0]
+    at.radio(key="cmp_side_by_side").set_value("Difference %").run()
     table = at.dataframe[0].value
-    assert "figure" in table.columns and any(c.endswith("difference %") for c in table.columns)
+    # One column per plan after the baseline, each its difference from the baseline in %.
+    assert "figure" in table.columns and len(table.columns) >= 3
+    assert table.set_index("figure").loc["Liquid agent"].iloc[-1] == pytest.approx(
+        float(deltas[0].split("(")[-1].split()[0]), abs=1
+    )
 
 
 def test_compare_table_shows_emissions_in_the_sidebar_unit():

@@ -96,3 +96,36 @@ def test_mac_set_chosen_on_the_reference_page_is_used_and_named_on_other_pages(i
     # Source: Mapleson WW, Br J Anaesth 1996;76:179-85 (abstract): 1.80 % at 40.
     assert at.number_input(key="ref_mac_sevoflurane").value == pytest.approx(1.8)
     assert at.selectbox(key="ref_macset").value == "mapleson_1996"
+
+
+def _versions() -> int:
+    return len(Store().history("overrides", "dashboard"))
+
+
+def test_a_changed_value_is_listed_old_to_new_and_saved_only_by_the_button():
+    at = page("reference.py")
+    old = at.number_input(key="ref_bottle_sevoflurane").value
+    at.number_input(key="ref_bottle_sevoflurane").set_value(200.0)
+    run(at)  # what Enter in the field does: the value is entered, nothing is saved
+    assert _versions() == 0
+    listed = next(d.value for d in at.dataframe if "after saving" in d.value.columns)
+    assert listed.to_dict("records") == [
+        {"value": "prices.bottle.sevoflurane", "now": f"{old:g} (built-in default)", "after saving": "200"}
+    ]
+    _click(at, "Save my values")
+    assert _versions() == 1
+    assert any("prices.bottle.sevoflurane" in s.value and "-> 200" in s.value for s in at.success)
+
+
+def test_saving_the_values_in_use_unchanged_makes_no_new_version():
+    at = page("reference.py")
+    _click(at, "Save my values")
+    assert _versions() == 0
+    assert any("nothing saved" in i.value for i in at.info)
+    at.number_input(key="ref_bottle_sevoflurane").set_value(200.0)
+    _click(at, "Save my values")
+    _click(at, "Save my values")  # the same values again
+    assert _versions() == 1
+    # Putting back the values already in use makes none either.
+    _click(at, "Use this version again")
+    assert _versions() == 1
