@@ -17,6 +17,7 @@ from model.cautions import Caution, is_unsafe, severity_of
 from model.io.plans import plan_to_toml
 from model.present import case_charts as charts
 from model.present.exports import html_export
+from model.present.provenance import input_file
 from ui import tables as fmt
 
 view = ui.page_start(
@@ -42,6 +43,7 @@ FIGURES = [
     ("MAC-hours, end-tidal", "end_tidal_mac_hours", "MAC-h"),
     ("MAC-hours, dial-based", "mac_hours", "MAC-h"),
     ("Duration", "duration_min", "min"),
+    ("Lowest predicted inspired O2", "min_inspired_o2_pct", "%"),
 ]
 
 
@@ -271,8 +273,25 @@ def _offer_downloads(
         "room temperature": f"{view.temperature_c:g} °C",
         **ui.provenance.in_use(view, ref),
     }
+    prov = ui.provenance.block(
+        view,
+        ref,
+        "Plan comparison: " + ", ".join(results),
+        warnings=warnings,
+        lowest_inspired_o2_pct=min(float(r.totals["min_inspired_o2_pct"]) for r in results.values()),
+        files=[
+            input_file(
+                f"plan {i}" + (" (baseline)" if i == 1 else ""),
+                f"saved plan '{name}'" + ("" if " · version " in name else ", latest version"),
+                plan_to_toml(r.plan),
+                len(r.plan.phases),
+                "phases",
+            )
+            for i, (name, r) in enumerate(results.items(), start=1)
+        ],
+    )
 
-    def _report() -> str:
+    def _report(prov) -> str:
         return html_export(
             ("UNSAFE PRACTICE. " if unsafe else "") + "Plan comparison",
             inputs=inputs,
@@ -282,11 +301,12 @@ def _offer_downloads(
             cautions=[ui.CAUTION],
             sources=sources,
             currency=view.currency,
+            provenance=prov,
         )
 
     st.divider()
     st.markdown("**Download this comparison**")
-    ui.downloads("plan comparison", tables, _report, key="cmp_dl")
+    ui.downloads("plan comparison", tables, _report, key="cmp_dl", provenance=prov)
 
 
 with tab_plans:

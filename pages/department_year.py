@@ -17,6 +17,7 @@ from model.io.case_mix import case_mix_from_frame, case_mix_to_csv, case_mix_to_
 from model.present import year_charts
 from model.present.exports import html_export
 from model.present.palette import CO2E_COLOUR
+from model.present.provenance import input_file
 from model.reference import GWP_SOURCES, VOLATILES
 from model.store.access import author_label
 from model.year.compare import nonzero_rows
@@ -315,9 +316,23 @@ tables = {
 }
 with st.expander("What produced these figures", icon=":material/info:"):
     st.dataframe(tables["Inputs"], hide_index=True, width="stretch")
+opened = inputs["opened from"] + (f" ({', '.join(edits)} edited on this page)" if edits else "")
+prov = ui.provenance.block(
+    view,
+    ref,
+    title,
+    warnings=result.warnings,
+    lowest_inspired_o2_pct=result.lowest_inspired_o2_pct,
+    files=[
+        input_file("scenario", opened, ui.year_store.scenario_file(scenario, "case mix")),
+        input_file("case mix", f"case mix of {opened}", case_mix_to_csv(mix), len(mix.types), "case types"),
+    ],
+    own=own,
+    settings={k: inputs[k] for k in ("draws", "seed", "price spread (SD of ln price)", "car factor")},
+)
 
 
-def _report() -> str:
+def _report(prov) -> str:
     return html_export(
         ("UNSAFE PRACTICE. " if unsafe else "") + title,
         inputs=inputs,
@@ -327,12 +342,13 @@ def _report() -> str:
         cautions=[ui.CAUTION, *result.notes],
         sources=tables["Sources"],
         currency=cur,
+        provenance=prov,
     )
 
 
 st.divider()
 st.markdown("**Download this year**")
-ui.downloads(f"year {scenario.name}", tables, _report, key="dy_dl", notes=tuple(result.notes))
+ui.downloads(f"year {scenario.name}", tables, _report, key="dy_dl", notes=tuple(result.notes), provenance=prov)
 
 
 # ---- keeping the year: save, versions, files -----------------------------------------

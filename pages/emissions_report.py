@@ -10,13 +10,15 @@ import pandas as pd
 import streamlit as st
 
 import ui
+import ui.provenance
 from model import InputError
 from model.audit.engine import audit_records
 from model.base.files import Source
 from model.io.purchases import load_purchases
 from model.io.sites import parse_sites
+from model.present.provenance import input_file
 from model.present.report_charts import report_figures
-from model.present.report_document import report_html
+from model.present.report_document import report_html, report_provenance
 from model.report import build_report, parse_period, parse_target
 from ui.common import sources_table
 from ui.report_views import period_input, shown, sites_against_purchases, target_input
@@ -90,17 +92,19 @@ def audited(digest: str, ref_key: str, temperature_c: float, _files, _ref):
 
 @st.cache_data(show_spinner=False, max_entries=8)
 def purchases_table(digest: str, ref_key: str, _files, _ref):
-    """The purchases files' usable lines (one table) and the messages of lines set aside."""
-    tables, notes = [], []
+    """The purchases files' usable lines (one table), the messages of lines set aside, each file's lines."""
+    tables, notes, lines = [], [], []
     for f in _files:
         try:
             read = load_purchases(f, _ref)
         except InputError as err:
             notes.append(str(err))
+            lines.append(None)
             continue
         tables.append(read.table)
         notes += read.messages
-    return (pd.concat(tables, ignore_index=True) if tables else None), notes
+        lines.append(len(read.table) + len(read.messages))
+    return (pd.concat(tables, ignore_index=True) if tables else None), notes, lines
 
 
 cases, summary, absorbent_note = audited(
@@ -109,10 +113,10 @@ cases, summary, absorbent_note = audited(
 if cases is None:
     ui.show_input_error(InputError("records", "the files", summary))
     st.stop()
-purchases, purchase_notes = (
+purchases, purchase_notes, purchase_lines = (
     purchases_table(_digest(purchase_files), ui.reference_key(view), tuple(purchase_files), ref)
     if purchase_files
-    else (None, [])
+    else (None, [], [])
 )
 sites = None
 if sites_file is not None:
@@ -371,10 +375,32 @@ with tabs[6]:
     st.markdown("\n".join(f"- {ui.md(line)}" for line in [ui.CAUTION, *report.cautions]))
 
 
-def _html() -> str:
+record_rows = summary.get("file_rows") or [None] * len(files)
+prov = report_provenance(
+    report,
+    [input_file("case records", f.name, f, n) for f, n in zip(files, record_rows, strict=True)]
+    + [input_file("purchases", f.name, f, n) for f, n in zip(purchase_files, purchase_lines, strict=True)]
+    + ([input_file("sites", sites_file.name, sites_file, len(sites), "theatres")] if sites_file and sites else []),
+    ui.provenance.prices_text(),
+    {"room temperature": f"{view.temperature_c:g} °C"},
+)
+
+
+def _html(prov) -> str:
     return report_html(
-        report, list(charts.items()), cautions=[ui.CAUTION], sources=sources_table(ui.reference_key(view), ref)
+        report,
+        list(charts.items()),
+        cautions=[ui.CAUTION],
+        sources=sources_table(ui.reference_key(view), ref),
+        provenance=prov,
     )
 
 
-ui.downloads(f"emissions report {pr.period.text}", report.tables(), _html, key="er_dl", notes=tuple(report.notes()))
+ui.downloads(
+    f"emissions report {pr.period.text}",
+    report.tables(),
+    _html,
+    key="er_dl",
+    notes=tuple(report.notes()),
+    provenance=prov,
+)

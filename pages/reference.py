@@ -60,16 +60,26 @@ st.caption(
 )
 
 
-def _report() -> str:
+prov = ui.provenance.block(
+    view,
+    ref,
+    "Reference values",
+    not_assessed_because="reference values only; no case is computed",
+    settings={"your values": ui.provenance.prices_text()},
+)
+
+
+def _report(prov) -> str:
     return html_export(
         "Reference values",
         inputs={"your values": json.dumps(saved, sort_keys=True) or "none", "currency": view.currency},
         tables={"Reference values": table},
         cautions=[ui.CAUTION],
+        provenance=prov,
     )
 
 
-ui.downloads("reference values", {"Reference": table}, _report, key="ref_dl")
+ui.downloads("reference values", {"Reference": table}, _report, key="ref_dl", provenance=prov)
 
 # ---- the user's values ---------------------------------------------------------------
 

@@ -15,8 +15,10 @@ import ui.provenance
 import ui.year_store
 from model import InputError
 from model.cautions import by_severity
+from model.io.case_mix import case_mix_to_csv
 from model.present import year_charts
 from model.present.exports import html_export
+from model.present.provenance import input_file
 from model.year.compare import nonzero_rows
 
 from . import tables as fmt
@@ -150,7 +152,28 @@ def render(view) -> None:
         "Sources": pd.DataFrame(ref.table()),
     }
 
-    def _report() -> str:
+    years = {b_name: first.baseline, **{n: c.proposal for n, c in comps.items()}}
+    files = []
+    for i, (n, yr) in enumerate(years.items()):
+        role = "baseline scenario" if i == 0 else f"proposal {i}"
+        where = f"saved scenario '{n}'" if choices[n].kind == "saved" else f"demo file {choices[n].path.name}"
+        mix = yr.scenario.case_mix
+        files.append(input_file(role, where, ui.year_store.scenario_file(yr.scenario, "case mix")))
+        files.append(
+            input_file(f"{role}, case mix", f"case mix of {where}", case_mix_to_csv(mix), len(mix.types), "case types")
+        )
+    prov = ui.provenance.block(
+        view,
+        ref,
+        "Year comparison: " + ", ".join(years),
+        warnings=warnings,
+        lowest_inspired_o2_pct=min(yr.lowest_inspired_o2_pct for yr in years.values()),
+        files=files,
+        own=("each scenario", None) if own_prices else None,
+        settings={"paired draws": first.baseline.n_draws, "seed": first.baseline.seed},
+    )
+
+    def _report(prov) -> str:
         return html_export(
             ("UNSAFE PRACTICE. " if unsafe_names else "") + "Year comparison",
             inputs=inputs,
@@ -160,6 +183,7 @@ def render(view) -> None:
             cautions=[ui.CAUTION, *notes],
             sources=tables["Sources"],
             currency=first.baseline.currency,
+            provenance=prov,
         )
 
-    ui.downloads("year comparison", tables, _report, key="yc_dl")
+    ui.downloads("year comparison", tables, _report, key="yc_dl", provenance=prov)

@@ -9,6 +9,7 @@ JavaScript inline (nothing is fetched when it is opened).
 
 from __future__ import annotations
 
+import csv
 import html
 import io
 import math
@@ -19,6 +20,7 @@ from datetime import UTC, datetime
 import numpy as np
 import pandas as pd
 
+from model.present.provenance import HEADING, Provenance, time_text
 from model.present.readable import column_label, is_money, number_text, readable_frame
 
 #: Characters that make a spreadsheet read a cell as a formula.
@@ -48,12 +50,24 @@ def neutralise_frame(df: pd.DataFrame) -> pd.DataFrame:
     return out
 
 
-def to_csv(df: pd.DataFrame) -> bytes:
+def to_csv(df: pd.DataFrame, provenance: Provenance | None = None) -> bytes:
     """One table as CSV (UTF-8, RFC 4180 line ends), formula cells neutralised.
 
     CRLF line ends make the writer quote any field holding a carriage return or newline.
+    With ``provenance`` the file opens with its block (:mod:`model.present.provenance`):
+    one line per row, each beginning with ``#`` (a comment to readers such as
+    ``pandas.read_csv(..., comment="#")``), then a blank line, then the table.
     """
-    return neutralise_frame(df).to_csv(index=False, lineterminator="\r\n").encode("utf-8")
+    table = neutralise_frame(df).to_csv(index=False, lineterminator="\r\n")
+    if provenance is None:
+        return table.encode("utf-8")
+    buf = io.StringIO()
+    writer = csv.writer(buf, lineterminator="\r\n")
+    writer.writerow([f"# {HEADING}", neutralise(provenance.what)])
+    for name, value in provenance.rows():
+        writer.writerow([f"# {name}", neutralise(value)])
+    buf.write("\r\n")
+    return (buf.getvalue() + table).encode("utf-8")
 
 
 _SHEET_BAD = re.compile(r"[\[\]:*?/\\]")
@@ -91,10 +105,15 @@ def _cell(value):
     return neutralise(str(value))
 
 
-def to_xlsx(sheets: Mapping[str, pd.DataFrame], notes: Sequence[str] = ()) -> bytes:
+def to_xlsx(
+    sheets: Mapping[str, pd.DataFrame], notes: Sequence[str] = (), provenance: Provenance | None = None
+) -> bytes:
     """Several tables as one Excel workbook, one sheet each, plus an optional notes sheet.
 
-    Text cells are neutralised and typed as text; numbers are written as numbers.
+    Text cells are neutralised and typed as text; numbers are written as numbers. With
+    ``provenance`` the first sheet is its block ("About this file": safety and lowest
+    predicted inspired O2 first, then program, time, input files, prices, GWP source,
+    settings).
     """
     from openpyxl import Workbook
     from openpyxl.styles import Font
@@ -102,6 +121,8 @@ def to_xlsx(sheets: Mapping[str, pd.DataFrame], notes: Sequence[str] = ()) -> by
     wb = Workbook()
     wb.remove(wb.active)
     used: set = set()
+    if provenance is not None:
+        sheets = {HEADING: provenance.frame(), **{k: v for k, v in sheets.items() if k != HEADING}}
     for name, df in sheets.items():
         ws = wb.create_sheet(_sheet_title(name, used))
         ws.append([_cell(str(c)) for c in df.columns])
@@ -150,6 +171,8 @@ h2{break-after:avoid}}
 .headline{font-size:1.15rem;font-weight:600;background:#eef3f5;border-left:4px solid #2f6f8f;
 padding:.6rem 1rem}
 .warning{background:#fdecea;border-left:4px solid #c62828;padding:.4rem 1rem;margin:.3rem 0}
+table.about th{width:14rem}tr.unsafe td,tr.unsafe th{background:#fdecea;color:#8e0000;font-weight:600}
+table.about td{overflow-wrap:anywhere}
 """
 
 
@@ -208,6 +231,20 @@ def _report_figure(fig):
     return out
 
 
+def _provenance_html(provenance: Provenance) -> str:
+    """The provenance block as a small two-column table (its safety row marked when unsafe)."""
+    e = html.escape
+    rows = []
+    for name, value in provenance.rows():
+        mark = " class='unsafe'" if name == "safety" and value.startswith("UNSAFE") else ""
+        rows.append(f"<tr{mark}><th scope='row'>{e(name)}</th><td>{e(value)}</td></tr>")
+    return (
+        f"<section id='provenance'><h2>{e(HEADING)}</h2><div class='table-wrap'><table class='about'>"
+        + "".join(rows)
+        + "</table></div></section>"
+    )
+
+
 def html_export(
     title: str,
     *,
@@ -223,6 +260,7 @@ def html_export(
     sections: Mapping[str, Sequence[str]] | None = None,
     figures_first: bool = False,
     currency: str = "",
+    provenance: Provenance | None = None,
 ) -> str:
     """A self-contained HTML report: inputs, tables, charts, warnings, cautions, sources.
 
@@ -262,10 +300,13 @@ def html_export(
         f"<meta name='viewport' content='width=device-width, initial-scale=1'>"
         f"<title>{e(str(title))}</title><style>{_CSS}</style></head><body>",
         f"<h1>{e(str(title))}</h1>",
-        f"<p class='meta'>{e(generated_by)}, {datetime.now(UTC):%Y-%m-%d %H:%M} UTC</p>",
     ]
+    if provenance is None:
+        parts.append(f"<p class='meta'>{e(generated_by)}, {time_text(datetime.now(UTC))}</p>")
     if headline:
         parts.append(f"<p class='headline' id='headline'>{e(str(headline))}</p>")
+    if provenance is not None:
+        parts.append(_provenance_html(provenance))
     parts.extend(f"<p>{e(str(p))}</p>" for p in summary)
     for c in cautions:
         parts.append(f"<div class='caution'>{e(str(c))}</div>")

@@ -82,6 +82,11 @@ class YearResult:
         return self.inputs.warnings
 
     @property
+    def lowest_inspired_o2_pct(self) -> float:
+        """Lowest predicted inspired O2 of any of the year's case types, as simulated [%]."""
+        return self.inputs.lowest_inspired_o2_pct
+
+    @property
     def unsafe(self) -> bool:
         """Whether the practice of this year is unsafe as written.
 
@@ -113,6 +118,7 @@ class YearResult:
             "warnings": list(self.warnings),
             "warnings_by_severity": warnings_as_records(self.warnings),
             "unsafe": self.unsafe,
+            "lowest_inspired_o2_pct": to_json_value(self.lowest_inspired_o2_pct),
             "notes": list(self.notes),
             "caution": STANDING_CAUTION,
         }

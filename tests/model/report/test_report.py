@@ -823,3 +823,30 @@ def test_report_documents_escape_user_text_and_neutralise_formula_cells(demo, tm
     ws = openpyxl.load_workbook(path)["By site"]
     # OWASP "CSV injection" advice (common practice): a formula from a user file stays text.
     assert '\'=HYPERLINK("x")' in [c.value for c in ws["A"]]
+
+
+def test_cli_report_files_say_what_made_them(tmp_path, capsys):
+    """The workbook and the HTML of ``gas-ledger report`` carry the one provenance block."""
+    import hashlib
+
+    from model.cli import main
+    from model.present.provenance import program_version
+    from tests.model.present.test_provenance import html_block, xlsx_block
+
+    settings = ROOT / "demo_data" / "settings.toml"
+    args = ["--settings", settings, "report", *YEARS, "--purchases", PURCHASES[0], "--purchases", PURCHASES[1]]
+    args += ["--sites", SITES, "--period", "2026", "--baseline", "2025"]
+    code = main([str(a) for a in [*args, "--html", tmp_path / "r.html", "--xlsx", tmp_path / "r.xlsx"]])
+    capsys.readouterr()
+    assert code == 0
+    rows = xlsx_block((tmp_path / "r.xlsx").read_bytes())
+    assert html_block((tmp_path / "r.html").read_text(encoding="utf-8")) == rows
+    values = dict(rows)
+    assert values["program"] == f"Fresh Gas Ledger {program_version()}"
+    inputs = [v for n, v in rows if n.startswith("input: ")]
+    for path in [*YEARS, *PURCHASES, SITES, settings]:
+        # Source: FIPS 180-4 (SHA-256), as Python's hashlib computes it.
+        digest = hashlib.sha256(path.read_bytes()).hexdigest()
+        assert any(v.startswith(str(path)) and digest in v for v in inputs), (path, inputs)
+    assert any(" rows; " in v for v in inputs)
+    assert str(settings) in values["prices in use"]
