@@ -274,8 +274,17 @@ with head:
     for p in report.problems:
         ui.show_input_error(p, "Not worked out")
     m = st.columns(4) + st.columns(5)
-    delta = None if br is None else f"{pr.co2e_t - br.co2e_t:+,.1f} t on the baseline"
-    m[0].metric(f"Use-based, {report.gwp_label}", f"{pr.co2e_t:,.1f} t CO2e", delta, delta_color="inverse")
+    like = report.like_for_like_baseline_t()
+    delta = None if like is None else f"{pr.co2e_t - like:+,.1f} t on the baseline, like for like"
+    m[0].metric(
+        f"Use-based, {report.gwp_label}",
+        f"{pr.co2e_t:,.1f} t CO2e",
+        delta,
+        delta_color="inverse",
+        help=f"Against the baseline under {report.gwp_label} too; the change of GWP source is in the headline"
+        if report.mixes_gwp_sources
+        else None,
+    )
     ar5 = pr.figures["co2e_t"].get("ar5_gwp100")
     if ar5 is not None and pr.gwp_source != "ar5_gwp100":
         m[1].metric("Use-based, IPCC AR5 GWP100", f"{ar5:,.1f} t CO2e")

@@ -850,3 +850,31 @@ def test_cli_report_files_say_what_made_them(tmp_path, capsys):
         assert any(v.startswith(str(path)) and digest in v for v in inputs), (path, inputs)
     assert any(" rows; " in v for v in inputs)
     assert str(settings) in values["prices in use"]
+
+
+def test_a_headline_across_gwp_sources_states_the_like_for_like_change_first_and_the_source_effect_beside_it(demo):
+    """Baseline 2025 under AR5, period 2026 under AR6: the practice change is not mixed with the source."""
+    r = build_report(
+        demo.cases,
+        parse_period("2026"),
+        parse_period("2025"),
+        gwp_source="ar6_gwp100",
+        baseline_gwp_source="ar5_gwp100",
+    )
+    b = r.baseline
+    like = b.figures["co2e_t"]["ar6_gwp100"]
+    # Common practice, no source: a like-for-like change holds the conversion factors fixed.
+    change = r.period.co2e_t / like - 1.0
+    head = r.headline()
+    word = "down" if change < 0 else "up"
+    first = f", {word} {abs(change) * 100:.0f} % on calendar year 2025 like for like "
+    first += f"({like:,.1f} t, both under IPCC AR6 GWP100)"
+    assert first in head, head
+    effect = like - b.co2e_t
+    assert r.source_effect_t() == pytest.approx(effect)
+    assert f"IPCC AR5 GWP100 ({b.co2e_t:,.1f} t)" in head and f"{abs(effect):,.1f} t" in head
+    assert head.index("like for like") < head.index("change of GWP source")
+    # The two parts add to the change between the figures as given.
+    assert (r.period.co2e_t - like) + effect == pytest.approx(r.period.co2e_t - b.co2e_t)
+    same = build_report(demo.cases, parse_period("2026"), parse_period("2025"))
+    assert "like for like" not in same.headline() and same.source_effect_t() == 0.0
