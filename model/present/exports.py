@@ -20,7 +20,7 @@ from datetime import UTC, datetime
 import numpy as np
 import pandas as pd
 
-from model.present.provenance import HEADING, Provenance, time_text
+from model.present.provenance import HEADING, LOWEST_O2_ROW, Provenance, time_text
 from model.present.readable import column_label, is_money, number_text, readable_frame
 
 #: Characters that make a spreadsheet read a cell as a formula.
@@ -171,6 +171,9 @@ h2{break-after:avoid}}
 .headline{font-size:1.15rem;font-weight:600;background:#eef3f5;border-left:4px solid #2f6f8f;
 padding:.6rem 1rem}
 .warning{background:#fdecea;border-left:4px solid #c62828;padding:.4rem 1rem;margin:.3rem 0}
+.warning-mid{background:#fff8e1;border-left:4px solid #f0a500;padding:.4rem 1rem;margin:.3rem 0}
+.note{background:#f3f5f7;border-left:4px solid #78909c;padding:.4rem 1rem;margin:.3rem 0}
+.safety{margin:.4rem 0}.safety.unsafe{background:#fdecea;color:#8e0000;padding:.4rem 1rem}
 table.about th{width:14rem}tr.unsafe td,tr.unsafe th{background:#fdecea;color:#8e0000;font-weight:600}
 table.about td{overflow-wrap:anywhere}
 """
@@ -262,7 +265,11 @@ def html_export(
     currency: str = "",
     provenance: Provenance | None = None,
 ) -> str:
-    """A self-contained HTML report: inputs, tables, charts, warnings, cautions, sources.
+    """A self-contained HTML report: headline, hazards, figures, then cautions, notes, inputs, sources.
+
+    The figures come before the long parts: the standing caution and the hazards (each group
+    of identical cautions in one box) above them; cautions of the middle severity, labelling
+    notes, further notes, the inputs and the provenance block after them.
 
     Parameters
     ----------
@@ -306,16 +313,23 @@ def html_export(
     if headline:
         parts.append(f"<p class='headline' id='headline'>{e(str(headline))}</p>")
     if provenance is not None:
-        parts.append(_provenance_html(provenance))
+        rows = dict(provenance.rows()[:2])
+        mark = " unsafe" if provenance.safety.startswith("UNSAFE") else ""
+        parts.append(
+            f"<p class='safety{mark}' id='safety'><strong>Safety:</strong> {e(provenance.safety)}. "
+            f"<strong>Lowest predicted inspired O2:</strong> {e(rows[LOWEST_O2_ROW])}.</p>"
+        )
     parts.extend(f"<p>{e(str(p))}</p>" for p in summary)
-    for c in cautions:
-        parts.append(f"<div class='caution'>{e(str(c))}</div>")
-    if warnings:
-        parts.append("<h2>Warnings</h2>")
-        parts.extend(f"<div class='warning'>{e(str(w))}</div>" for w in warnings)
-    if inputs:
-        parts.append("<h2>Inputs</h2>")
-        parts.append(_table_html(pd.DataFrame({"input": list(inputs), "value": [str(v) for v in inputs.values()]})))
+    # The standing caution first; hazards next, each group in one red box; the figures follow,
+    # and the cautions of the middle severity, labelling notes and other notes after them.
+    cautions = list(cautions)
+    if cautions:
+        parts.append(f"<div class='caution'>{e(str(cautions[0]))}</div>")
+    hazards = [w for w in warnings if str(w).upper().startswith("HAZARD")]
+    rest = [w for w in warnings if not str(w).upper().startswith("HAZARD")]
+    if hazards:
+        parts.append("<h2>Hazards</h2>")
+        parts.extend(f"<div class='warning'>{e(str(w))}</div>" for w in hazards)
     table_parts = []
     for heading, df in (tables or {}).items():
         table_parts.append(f"<h2>{e(str(heading))}</h2>")
@@ -338,11 +352,25 @@ def html_export(
         )
         first = False
     parts.extend(figure_parts + table_parts if figures_first else table_parts + figure_parts)
+    if rest:
+        parts.append("<h2>Cautions and labelling notes</h2>")
+        parts.extend(
+            f"<div class='{'note' if str(w).upper().startswith('LABELLING') else 'warning-mid'}'>{e(str(w))}</div>"
+            for w in rest
+        )
+    if len(cautions) > 1:
+        parts.append("<h2>Notes and cautions</h2>")
+        parts.append("<ul>" + "".join(f"<li>{e(str(c))}</li>" for c in cautions[1:]) + "</ul>")
+    if inputs:
+        parts.append("<h2>Inputs</h2>")
+        parts.append(_table_html(pd.DataFrame({"input": list(inputs), "value": [str(v) for v in inputs.values()]})))
     for heading, paragraphs in (sections or {}).items():
         parts.append(f"<h2>{e(str(heading))}</h2>")
         parts.append("<ul>" + "".join(f"<li>{e(str(p))}</li>" for p in paragraphs) + "</ul>")
     if sources is not None and len(sources):
         parts.append("<h2>Reference values and their sources</h2>")
         parts.append(_table_html(sources))
+    if provenance is not None:
+        parts.append(_provenance_html(provenance))
     parts.append("</body></html>")
     return "\n".join(parts)
