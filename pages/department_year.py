@@ -22,6 +22,7 @@ from model.reference import GWP_SOURCES, VOLATILES
 from model.store.access import author_label
 from model.year.compare import nonzero_rows
 from model.year.inputs import MAX_DRAWS, Practice, Sampling
+from model.year.result import BOTTLES_COUNTED
 from ui import tables as fmt
 from ui import year_views as yv
 
@@ -249,7 +250,11 @@ for col, (label, key, value, digits) in zip(
     ],
     strict=True,
 ):
-    col.metric(label, value, help=scenario.car_source if key == "car_km" else None)
+    col.metric(
+        label,
+        value,
+        help=scenario.car_source if key == "car_km" else BOTTLES_COUNTED if key == "bottles_total" else None,
+    )
     col.caption(yv.band_text(rows.loc[key], digits))
 st.caption(
     f"Per case: {result.per_case['cost_total']:,.2f} {cur}, {result.per_case['co2e_total_t'] * 1000:,.1f} kg CO2e, "

@@ -16,6 +16,13 @@ from model.year.nodes import NODE_Z
 from model.year.sampling import Draws, _central, _percentiles, _sampled, make_draws
 from model.year.simulate import _EMIT, _LIQ, _Q, GASES, YearInputs, year_inputs
 
+#: How a year counts bottles (shown beside the figures and in every year's notes).
+BOTTLES_COUNTED = (
+    "Bottles are counted as opened: each month opens the whole bottles its liquid needs beyond what "
+    "is left in the bottle opened before, so a part-used bottle is carried into the next month and "
+    "the year's bottles are its liquid in whole bottles, rounded up once; agent cost is those bottles."
+)
+
 
 def _label(agent: str) -> str:
     return DEFAULT_REFERENCE.agents[agent].label
@@ -215,7 +222,7 @@ def _notes(inp: YearInputs, scenario: Scenario) -> list[str]:
         "the maintenance minutes (within 1 % of direct simulation) and summed over the year with the "
         f"exact mean; the sampled year minutes carry at least {inp.variance_explained * 100:.1f} % of "
         "each sub-plan's per-case variance.",
-        "Agent cost is whole bottles bought per month (rounded up); gases and absorbent pro rata.",
+        BOTTLES_COUNTED + " Gases and absorbent are priced pro rata.",
         f"Equivalence: {scenario.car_kg_per_km:g} kg CO2e per km by an average car ({scenario.car_source}).",
     ]
     if scenario.practice.changes_anything:

@@ -282,3 +282,17 @@ def test_year_follows_the_sidebar_room_temperature_like_the_case_plan():
     # Ideal gas (docs/methods.md, Vapour from liquid): warmer liquid gives more vapour per mL, so less liquid for the
     # same dial; the year must move with the sidebar's temperature as a single case does.
     assert _per_case_liquid_ml(at) < cool
+
+
+def test_the_page_says_how_bottles_are_counted_and_counts_them_across_months():
+    import numpy as np
+
+    from tests.helpers.pages import page as run_page
+
+    at = run_page("department_year.py")
+    bottles = next(m for m in at.metric if m.label == "Bottles bought")
+    assert "carried into the next month" in bottles.proto.help
+    # Common practice, no source: the year's isoflurane bottles are its liquid in whole bottles.
+    monthly = next(d.value for d in at.dataframe if "Isoflurane bottles" in d.value.columns)
+    liquid = monthly["Isoflurane liquid (mL)"].sum()
+    assert monthly["Isoflurane bottles"].sum() == np.ceil(liquid / 250 - 1e-9)
