@@ -18,6 +18,7 @@ from model.plan import CasePlan
 from model.present import case_charts as charts
 from model.present.exports import html_export
 from model.present.provenance import input_file
+from model.present.readable import when_text
 from model.reference import VOLATILES
 from model.store.access import author_label
 from ui import tables as fmt
@@ -775,7 +776,7 @@ with st.expander("Plan files and saved versions", icon=":material/description:")
             pd.DataFrame(
                 {
                     "version": [v.version for v in hist],
-                    "saved (UTC)": [v.saved_at[:19] for v in hist],
+                    "saved": [when_text(v.saved_at) for v in hist],
                     "by": [author_label(v.author) for v in hist],
                     "note": [v.note for v in hist],
                 }

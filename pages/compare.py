@@ -18,6 +18,7 @@ from model.io.plans import plan_to_toml
 from model.present import case_charts as charts
 from model.present.exports import html_export
 from model.present.provenance import input_file
+from model.present.readable import percent_change_text, signed_text
 from ui import tables as fmt
 
 view = ui.page_start(
@@ -56,11 +57,12 @@ def _pct(new: float, old: float) -> float | None:
 
 
 def _delta_text(new: float, old: float, unit: str, digits: int = 1) -> str | None:
-    d = new - old
-    if abs(d) < 1e-9:
+    """The change for a metric: "+1.2 mL (+5 %)"; None when it shows as no change at these decimals."""
+    d = signed_text(new - old, digits=digits)
+    if d == "0":
         return None
-    pct = _pct(new, old)
-    return f"{d:+,.{digits}f}" + (f" {unit}" if unit else "") + (f" ({pct:+.0f} %)" if pct is not None else "")
+    pct = percent_change_text(new, old)
+    return d + (f" {unit}" if unit else "") + (f" ({pct})" if pct else "")
 
 
 tab_plans, tab_year = st.tabs(["Case plans", "Year scenarios"])

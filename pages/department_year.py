@@ -18,6 +18,7 @@ from model.present import year_charts
 from model.present.exports import html_export
 from model.present.palette import CO2E_COLOUR
 from model.present.provenance import input_file
+from model.present.readable import when_text
 from model.reference import GWP_SOURCES, VOLATILES
 from model.store.access import author_label
 from model.year.compare import nonzero_rows
@@ -403,7 +404,7 @@ with k1:
             pd.DataFrame(
                 {
                     "version": [v.version for v in hist],
-                    "saved (UTC)": [v.saved_at[:19] for v in hist],
+                    "saved": [when_text(v.saved_at) for v in hist],
                     "by": [author_label(v.author) for v in hist],
                     "note": [v.note for v in hist],
                 }

@@ -18,6 +18,7 @@ import streamlit as st
 from model.cautions import is_unsafe
 from model.io.case_mix import case_mix_to_csv
 from model.present.provenance import InputFile, Provenance, program_version, provenance
+from model.present.readable import when_text
 from model.reference import Reference
 
 from .common import ViewSettings, get_store, md
@@ -47,7 +48,7 @@ def _saved_version() -> tuple[dict, str]:
         saved = store.load_overrides()
     except Exception:  # an unreadable set: ui.common.reference() says so and uses the defaults
         saved = {}
-    return saved, f"version {history[0].version}, saved {history[0].saved_at[:16].replace('T', ' ')} UTC"
+    return saved, f"version {history[0].version}, saved {when_text(history[0].saved_at)}"
 
 
 def prices_text(own: tuple[str, Mapping] | None = None) -> str:

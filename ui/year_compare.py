@@ -19,6 +19,7 @@ from model.io.case_mix import case_mix_to_csv
 from model.present import year_charts
 from model.present.exports import html_export
 from model.present.provenance import input_file
+from model.present.readable import signed_text
 from model.year.compare import nonzero_rows
 
 from . import tables as fmt
@@ -110,9 +111,14 @@ def render(view) -> None:
             cols = st.columns(len(HEADLINES))
             for col, (key, label) in zip(cols, HEADLINES, strict=True):
                 r = rows.loc[key]
-                unit = f" {comp.baseline.currency}" if key == "cost_total" else ""
-                col.metric(f"Change in {label}", f"{r['difference']:+,.1f}{unit}")
-                col.caption(f"P5-P95: {r['p5']:+,.1f} to {r['p95']:+,.1f}")
+                money = key == "cost_total"
+                unit = f" {comp.baseline.currency}" if money else ""
+                digits = None if money else 1
+                col.metric(f"Change in {label}", signed_text(r["difference"], money=money, digits=digits) + unit)
+                col.caption(
+                    f"P5-P95: {signed_text(r['p5'], money=money, digits=digits)} to "
+                    f"{signed_text(r['p95'], money=money, digits=digits)}"
+                )
             fig = year_charts.difference_figure(comp.summary, labels)
             st.plotly_chart(fig, width="stretch", key=f"yc_fig_{i}")
             figs.append((f"Change per year: {p_name}", fig))

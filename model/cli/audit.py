@@ -243,6 +243,7 @@ def _write_breakdowns(out, result: AuditResult) -> None:
             result.by(key).to_dict("records"),
             [key, "cases", "liquid_agent_ml", "co2e_total_kg", "cost_total", "mean_fgf_l_min", "high_flow_cases"],
             out,
+            result.currency,
         )
     out.write("\nBy theatre and month: time-weighted fresh gas flow and minutes in each flow band (Baker 1994)\n")
     print_table(

@@ -51,6 +51,7 @@ def cmd_sweep(args) -> int:
             "O2 safe",
             "target held",
         ],
+        currency=result.currency,
     )
     print()
 

@@ -58,7 +58,7 @@ def to_csv(df: pd.DataFrame, provenance: Provenance | None = None) -> bytes:
     one line per row, each beginning with ``#`` (a comment to readers such as
     ``pandas.read_csv(..., comment="#")``), then a blank line, then the table.
     """
-    table = neutralise_frame(df).to_csv(index=False, lineterminator="\r\n")
+    table = _whole_numbers(neutralise_frame(df)).to_csv(index=False, lineterminator="\r\n")
     if provenance is None:
         return table.encode("utf-8")
     buf = io.StringIO()
@@ -68,6 +68,19 @@ def to_csv(df: pd.DataFrame, provenance: Provenance | None = None) -> bytes:
         writer.writerow([f"# {name}", neutralise(value)])
     buf.write("\r\n")
     return (buf.getvalue() + table).encode("utf-8")
+
+
+def _whole_numbers(df: pd.DataFrame) -> pd.DataFrame:
+    """Whole-number floats of a table as integers ("3080", not "3080.0"); other figures unchanged."""
+    out = df.copy()
+    for col in out.columns:
+        s = out[col]
+        if pd.api.types.is_float_dtype(s):
+            whole = s.notna() & np.isfinite(s.to_numpy(dtype=float, na_value=np.nan)) & (s == s.round())
+            if whole.any() and not is_money(col):
+                values = [int(v) if w and abs(v) < 2**53 else v for v, w in zip(s, whole, strict=True)]
+                out[col] = pd.Series(values, index=s.index, dtype=object)
+    return out
 
 
 _SHEET_BAD = re.compile(r"[\[\]:*?/\\]")

@@ -323,6 +323,11 @@ def number_text(value, money: bool = False) -> str:
     return text or "0"
 
 
+def is_share(column) -> bool:
+    """Whether a column holds a share (a fraction of 1) that people read as per cent."""
+    return str(column) in _PERCENT_SHARES
+
+
 def is_money(column) -> bool:
     """Whether a column name is a money figure (shown with two decimals)."""
     return bool(_MONEY.match(str(column)))
@@ -373,3 +378,57 @@ def readable_frame(df: pd.DataFrame, currency: str = "", *, rename: bool = True)
     if rename:
         out.columns = [column_label(c, currency) for c in out.columns]
     return out
+
+
+def signed_text(value, money: bool = False, digits: int | None = None) -> str:
+    """A change with its sign, for people: "+1.2", "-17,172", and "0" (never "+0.00" or "-0").
+
+    ``digits`` fixes the decimals (default: :func:`decimals`); a change that rounds to zero
+    at those decimals is "0", with no sign.
+    """
+    v = float(value)
+    if not math.isfinite(v):
+        return ""
+    d = decimals(v, money) if digits is None else digits
+    if money and abs(v) >= 1000:
+        d = 0
+    text = f"{abs(v):,.{d}f}"
+    if not text.strip("0.,"):
+        return "0"
+    return ("+" if v > 0 else "-") + text
+
+
+def money_text(amount, currency: str, signed: bool = False) -> str:
+    """An amount of money for people: two decimals under 1,000 ("512.40 GBP"), whole from it ("17,172 GBP").
+
+    With ``signed`` the amount carries its sign ("+12.50 GBP", "-17,172 GBP"); no "-0.00".
+    """
+    v = float(amount)
+    if signed:
+        return f"{signed_text(v, money=True)} {currency}".strip()
+    d = 0 if abs(v) >= 1000 else 2
+    text = f"{v:,.{d}f}"
+    if text.startswith("-") and not text.strip("-0.,"):
+        text = text[1:]
+    return f"{text} {currency}".strip()
+
+
+def percent_change_text(new, old) -> str:
+    """The change from ``old`` to ``new`` in per cent, for people: "+12 %", "-3 %", "0 %"; "" when ``old`` is 0."""
+    if abs(float(old)) < 1e-12:
+        return ""
+    pct = (float(new) - float(old)) / float(old) * 100.0
+    text = signed_text(pct, digits=0)
+    return f"{text} %"
+
+
+def when_text(iso: str) -> str:
+    """A stored time ("2026-12-04T21:30:05+00:00") for people: "4 Dec 2026, 21:30 UTC"."""
+    from datetime import UTC, datetime
+
+    try:
+        when = datetime.fromisoformat(str(iso))
+    except ValueError:
+        return str(iso)
+    when = when.astimezone(UTC) if when.tzinfo else when.replace(tzinfo=UTC)
+    return f"{when.day} {when:%b %Y, %H:%M} UTC"
