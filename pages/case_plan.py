@@ -18,7 +18,7 @@ from model.plan import CasePlan
 from model.present import case_charts as charts
 from model.present.exports import html_export
 from model.present.provenance import input_file
-from model.present.readable import when_text
+from model.present.readable import field_words, when_text
 from model.reference import VOLATILES
 from model.store.access import author_label
 from ui import tables as fmt
@@ -300,7 +300,7 @@ def _place_error(field: str, message: str) -> None:
         return
     key = field.split(".")[-1]
     slot = slots.get(key)
-    (slot or table_slot).error(ui.md(message), icon=":material/error:")
+    (slot or table_slot).error(ui.md(field_words(message)), icon=":material/error:")
 
 
 status, payload, message = _build(_raw_inputs(), ref_key, ref)
@@ -741,7 +741,7 @@ with d2:
 with st.expander("Plan files and saved versions", icon=":material/description:"):
     f1, f2 = st.columns(2)
     with f1:
-        st.markdown("**Import a plan file** (TOML, the format in docs/formats.md)")
+        st.markdown("**Import a plan file** (TOML, its format below)")
         up = st.file_uploader(
             "Plan file", type=["toml"], key="cp_upload", label_visibility="collapsed", disabled=not may_save.allowed
         )
@@ -758,6 +758,7 @@ with st.expander("Plan files and saved versions", icon=":material/description:")
                 ss["cp_pending_load"] = (imported, f"imported file {up.name}")
                 ss["cp_flash"] = ("success", f"Imported '{imported.name}' as version {version}.")
                 st.rerun()
+        fmt.format_help("Plan files", inline=True)
     with f2:
         st.markdown("**Export this plan**")
         st.download_button(

@@ -18,7 +18,7 @@ from model.present import year_charts
 from model.present.exports import html_export
 from model.present.palette import CO2E_COLOUR
 from model.present.provenance import input_file
-from model.present.readable import when_text
+from model.present.readable import field_words, when_text
 from model.reference import GWP_SOURCES, VOLATILES
 from model.store.access import author_label
 from model.year.compare import nonzero_rows
@@ -116,7 +116,7 @@ try:
     mix = case_mix_from_frame(edited, library, "Case mix table")
 except InputError as err:
     # Shown by the table; the practice panel, the last valid figures and downloads stay.
-    mix_slot.error(ui.md(str(err)), icon=":material/error:")
+    mix_slot.error(ui.md(field_words(str(err))), icon=":material/error:")
     mix = ss[last_key][2] if last_key in ss else base.case_mix
     stale = True
 

@@ -22,6 +22,7 @@ from model.present.report_document import report_html, report_provenance
 from model.report import build_report, parse_period, parse_target
 from ui.common import sources_table
 from ui.report_views import period_input, shown, sites_against_purchases, target_input
+from ui.tables import format_help as fmt_help
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "demo_data" / "records"
@@ -68,8 +69,9 @@ else:
     files = ui.checked_uploads(ups, "records")
     purchase_files = ui.checked_uploads(ups_p, "purchases")
     sites_file = next(iter(ui.checked_uploads(up_s, "sites")), None)
+fmt_help("Case records", "Purchases")
 if not files:
-    st.info("Upload record files (format in docs/formats.md, 'Case records') to build the report.")
+    st.info("Upload record files ('Case records' under 'File formats' on this page) to build the report.")
     st.stop()
 
 

@@ -86,7 +86,7 @@ if source.startswith("Demo"):
         purchase_files = [Source(p.name, path=p) for p in DEMO_PURCHASES]
 else:
     uploads = st.file_uploader(
-        "Record files (.csv or .parquet; format in docs/formats.md, 'Case records')",
+        "Record files (.csv or .parquet; 'Case records' under 'File formats' on this page)",
         type=["csv", "parquet"],
         accept_multiple_files=True,
         key="ra_upload",
@@ -99,6 +99,7 @@ else:
     )
     files = ui.checked_uploads(uploads, "records")
     purchase_files = ui.checked_uploads(up_p, "purchases")
+fmt.format_help("Case records", "Purchases")
 
 with st.expander("Audit settings"):
     c1, c2, c3 = st.columns(3)
@@ -277,7 +278,7 @@ with tab_recon:
         f"is {result.absorbent_note()}"
     )
     if recon is None:
-        st.caption("Add a purchases file (format in docs/formats.md, 'Purchases') to compare with what was bought.")
+        st.caption("Add a purchases file ('Purchases' under 'File formats' above) to compare with what was bought.")
     else:
         totals = recon[recon["month"] == "all"]
         st.caption(

@@ -111,7 +111,9 @@ def get_store() -> Store:
     except StoreError as err:
         where = default_location()
         known = {} if is_postgres_url(where) else {where: Path(where).name}
-        st.error(md(plain_paths(str(err), known)), icon=":material/error:")
+        from ui.tables import page_words
+
+        st.error(md(page_words(plain_paths(str(err), known))), icon=":material/error:")
         st.stop()
 
 
@@ -412,8 +414,12 @@ def checked_uploads(uploaded, kind: str) -> list[Source]:
 
 def show_input_error(err: Exception, where: str = "") -> None:
     """One clear line for a bad entry (never a traceback); user text in it is escaped."""
+    from model.present.readable import field_words
+
     prefix = f"{where}: " if where else ""
-    st.error(md(plain_paths(prefix + str(err))), icon=":material/error:")
+    from ui.tables import page_words
+
+    st.error(md(page_words(plain_paths(field_words(prefix + str(err))))), icon=":material/error:")
 
 
 # ---- downloads -----------------------------------------------------------------------

@@ -432,3 +432,51 @@ def when_text(iso: str) -> str:
         return str(iso)
     when = when.astimezone(UTC) if when.tzinfo else when.replace(tzinfo=UTC)
     return f"{when.day} {when:%b %Y, %H:%M} UTC"
+
+
+#: File keys and table columns as the pages name them (messages on a page use these words).
+FIELD_WORDS: Mapping[str, str] = {
+    "cases_per_year": "cases / year",
+    "median_duration": "median min",
+    "duration_spread": "spread",
+    "n2o_share": "N2O share",
+    "case_type": "case type",
+    "inspired_o2_floor": "inspired O2 floor",
+    "sevoflurane_min_flow_l_min": "sevoflurane minimum flow",
+    "sevoflurane_min_flow_long_l_min": "sevoflurane minimum flow beyond 1 MAC-hour",
+    "capture_efficiency": "capture of exhaled agent",
+    "temperature_c": "room temperature",
+    "weight_kg": "weight",
+    "age_years": "age",
+    "target": "end-tidal target",
+    "dial": "dial setting",
+    "o2": "O2 flow",
+    "air": "air flow",
+    "n2o": "N2O flow",
+    "minutes": "duration",
+    "gwp_source": "GWP source",
+}
+_PHASE_KEY = re.compile(r"\bphases\[(\d+)\]\.?([a-z_0-9/]*)")
+_DOTTED = re.compile(r"\b(?:settings|patient|practice|uncertainty)\.([a-z_0-9]+)")
+
+
+def _field(key: str) -> str:
+    if key in FIELD_WORDS:
+        return FIELD_WORDS[key]
+    return column_label(key) if "_" in key else key
+
+
+def field_words(message: str) -> str:
+    """A message with the program's field names in the words the page shows.
+
+    "phases[2].target: ..." -> "phase 2, end-tidal target: ...";
+    "settings.inspired_o2_floor: ..." -> "inspired O2 floor: ..."; a table column such as
+    ``cases_per_year`` -> "cases a year". Values quoted in the message are left as typed.
+    """
+    text = str(message)
+    text = _PHASE_KEY.sub(lambda m: f"phase {m.group(1)}" + (f", {_field(m.group(2))}" if m.group(2) else ""), text)
+    text = _DOTTED.sub(lambda m: _field(m.group(1)), text)
+    for key in sorted(FIELD_WORDS, key=len, reverse=True):
+        if "_" in key:
+            text = re.sub(rf"(?<![\w'])({re.escape(key)})(?=:)", FIELD_WORDS[key], text)
+    return text
