@@ -263,8 +263,10 @@ def _offer_downloads(
     base_name, base = next(iter(results.items()))
     sources = pd.DataFrame(ref.table())
     tables = {"Comparison": table, "Cost by item": charts_.cost, "Emissions by source": charts_.co2e}
-    for name, res in results.items():
-        tables[f"Phases {name}"] = res.phases.assign(plan=name)
+    # "Plan 2 phases", not the plan's name cut to a sheet name's 31 characters: each sheet's
+    # rows name their plan, and the block names every plan with its number.
+    for i, (name, res) in enumerate(results.items(), start=1):
+        tables[f"Plan {i} phases"] = res.phases.assign(plan=name)
     tables["Warnings"] = ui.cautions.warnings_table(warnings)
     tables["Sources"] = sources
     inputs = {

@@ -426,8 +426,17 @@ def show_input_error(err: Exception, where: str = "") -> None:
 
 
 def _slug(name: str) -> str:
-    s = re.sub(r"[^A-Za-z0-9]+", "-", name).strip("-").lower()
-    return (s or "export")[:60]
+    """A file name part: words joined by "-", at most 60 characters, cut between words."""
+    s = re.sub(r"[^A-Za-z0-9]+", "-", name).strip("-").lower() or "export"
+    if len(s) > 60:
+        s = s[:61].rsplit("-", 1)[0] if "-" in s[:61] else s[:60]
+    return s
+
+
+def csv_file_name(name: str, table: str) -> str:
+    """The CSV's file name: the export's name and its table's, the table's left out when the name holds it."""
+    slug, part = _slug(name), _slug(table)
+    return f"{slug}.csv" if part in slug else f"{slug}-{part}.csv"
 
 
 def _currency() -> str:
@@ -478,7 +487,7 @@ def downloads(
     c1.download_button(
         "CSV",
         data=lambda: to_csv(readable_frame(first() if callable(first) else first, currency), prov()),
-        file_name=f"{slug}-{_slug(first_name)}.csv",
+        file_name=csv_file_name(name, first_name),
         mime="text/csv",
         key=f"{key}_csv",
         on_click="ignore",

@@ -87,7 +87,12 @@ _SHEET_BAD = re.compile(r"[\[\]:*?/\\]")
 
 
 def _sheet_title(name: str, used: set) -> str:
-    title = _SHEET_BAD.sub(" ", str(name)).strip("' ")[:31] or "Sheet"
+    """A sheet name Excel takes (31 characters at most, no reserved character), cut between words, never repeated."""
+    title = re.sub(r"\s+", " ", _SHEET_BAD.sub(" ", str(name))).strip("' ") or "Sheet"
+    if len(title) > 31:
+        cut = title[:31] if title[31] == " " else title[:31].rsplit(" ", 1)[0]
+        cut = cut.rstrip(" ,;:-")
+        title = cut if len(cut) >= 12 else title[:31]
     base, n = title, 2
     while title.lower() in used:
         suffix = f" ({n})"

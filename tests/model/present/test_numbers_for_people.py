@@ -50,3 +50,20 @@ def test_command_line_tables_are_headed_in_words_and_counts_are_whole(capsys):
     by_agent = out.split("By agent (use-based)\n", 1)[1].splitlines()[0]
     assert "_" not in by_agent, by_agent
     assert "1,502.00" not in out and "1,502" in out
+
+
+def test_sheet_names_are_cut_between_words_and_file_names_are_not_doubled():
+    from io import BytesIO
+
+    from openpyxl import load_workbook
+
+    from model.present.exports import to_xlsx
+    from ui.common import csv_file_name
+
+    table = pd.DataFrame({"a": [1]})
+    wb = load_workbook(BytesIO(to_xlsx({"Bottles and cylinders bought, by theatre and month": table})))
+    # Excel takes 31 characters: the name ends at a whole word, never "Bottles and cylinders bought, b".
+    assert wb.sheetnames == ["Bottles and cylinders bought"]
+    assert csv_file_name("plan comparison", "Comparison") == "plan-comparison.csv"
+    assert csv_file_name("year comparison", "Year comparison") == "year-comparison.csv"
+    assert csv_file_name("record audit", "Cases") == "record-audit-cases.csv"
