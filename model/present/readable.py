@@ -374,6 +374,9 @@ def readable_frame(df: pd.DataFrame, currency: str = "", *, rename: bool = True)
             s = s.map(lambda u: "°C" if u == "degC" else u)
         elif str(col) in ("item", "agent") and (pd.api.types.is_object_dtype(s) or pd.api.types.is_string_dtype(s)):
             s = s.map(lambda v: v.replace("_", " ") if isinstance(v, str) and re.fullmatch(r"[a-z_]+", v) else v)
+        if (pd.api.types.is_object_dtype(s) or pd.api.types.is_string_dtype(s)) and s.isna().any():
+            # No "None" or "nan" cell in a text column: a missing value is left blank.
+            s = s.astype(object).where(s.notna(), "")
         out[col] = s
     if rename:
         out.columns = [column_label(c, currency) for c in out.columns]

@@ -67,3 +67,11 @@ def test_sheet_names_are_cut_between_words_and_file_names_are_not_doubled():
     assert csv_file_name("plan comparison", "Comparison") == "plan-comparison.csv"
     assert csv_file_name("year comparison", "Year comparison") == "year-comparison.csv"
     assert csv_file_name("record audit", "Cases") == "record-audit-cases.csv"
+
+
+def test_a_missing_text_is_a_blank_cell_not_none():
+    from model.present.readable import readable_frame
+
+    shown = readable_frame(pd.DataFrame({"note": [None, "kept", float("nan")], "value": [1.5, 2.5, 3.5]}))
+    assert shown["note"].tolist() == ["", "kept", ""]
+    assert "None" not in to_csv(shown).decode("utf-8")
