@@ -284,7 +284,7 @@ def record_coverage(cases: pd.DataFrame, recon: pd.DataFrame, reference: Referen
     # Over the months that have both purchases and records: months recorded but not bought
     # would count use against nothing bought.
     both = recon[recon["month"].isin(set(bought_months) & set(per_case.index))]
-    volatile = both[[reference.agents[i].kind == "volatile" for i in both["item"]]]
+    volatile = both.loc[np.array([reference.agents[i].kind == "volatile" for i in both["item"]], dtype=bool)]
     bought = float(volatile["purchased"].sum())
     share = float(volatile["recorded"].sum()) / bought if bought > 0 else float("nan")
     missing = [m for m in bought_months if m not in set(per_case.index)]
