@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+import re
 from dataclasses import dataclass
 from typing import NamedTuple
 
@@ -15,6 +16,7 @@ from model.reference import Agent
 __all__ = [
     "CAUTION_CODES",
     "Caution",
+    "CautionGroup",
     "FLOW_UNDER_O2_CONSUMPTION",
     "FRESH_GAS_O2_UNDER_FLOOR",
     "FRESH_GAS_O2_UNDER_SAFE_SHARE",
@@ -30,6 +32,7 @@ __all__ = [
     "STANDING_CAUTION_SHORT",
     "by_severity",
     "case_cautions",
+    "group_cautions",
     "code_of",
     "is_unsafe",
     "severity_of",
@@ -154,6 +157,81 @@ def is_unsafe(cautions) -> bool:
 def cautions_as_records(cautions) -> list[dict]:
     """Cautions as ``{"severity": ..., "text": ...}``, most severe first (for files and JSON)."""
     return [{"severity": severity_of(c), "text": str(c)} for c in by_severity(cautions)]
+
+
+_NUMBER = re.compile(r"(?<![A-Za-z])\d[\d,]*(?:\.\d+)?")
+#: Gas formulae, whose digits are not figures.
+_FORMULAE = re.compile(r"\b(?:N2O|CO2|O2)\b")
+
+
+class CautionGroup(NamedTuple):
+    """Cautions that say the same thing, shown once.
+
+    ``text`` is the shared message with each figure that differs given as its range
+    ("falls to 5-28 %"); ``applies_to`` the subjects (case types, or a plan's phases) in the
+    order first met; ``variants`` the practice variants the message was raised for ("changed
+    practice, sevoflurane with N2O"), and ``members`` how many cautions it stands for.
+    """
+
+    severity: str
+    text: str
+    applies_to: tuple
+    variants: tuple
+    members: int
+
+    def line(self) -> str:
+        """The group in one line: subjects, the message, and the variants in brackets."""
+        head = f"{', '.join(self.applies_to)}: " if self.applies_to else ""
+        tail = f" ({'; '.join(self.variants)})" if self.variants else ""
+        return f"{head}{self.text}{tail}"
+
+
+def _split(warning: str) -> tuple[list[str], str, str]:
+    """(subjects, variant, message) of a caution written "subjects: [variant: ]message"."""
+    subject, sep, rest = str(warning).partition(": ")
+    if not sep:
+        return [], "", str(warning)
+    head, sep2, tail = rest.partition(": ")
+    if sep2 and not any(ch.isdigit() for ch in _FORMULAE.sub("", head)) and "%" not in head:
+        return subject.split(", "), head, tail
+    return subject.split(", "), "", rest
+
+
+def group_cautions(warnings) -> list[CautionGroup]:
+    """Identical cautions grouped: one per severity and message, most severe first.
+
+    Two cautions are the same when their messages match once their figures are set aside
+    (a year's "predicted inspired O2 falls to 17 %" of one case type and "... to 5 %" of
+    another): the group names every subject and variant, and each figure as its range.
+    Hazards come first, then cautions of the middle severity, then labelling notes.
+
+    Parameters
+    ----------
+    warnings : iterable of str or Caution
+        Texts written "subjects: message" (a plan's phase, or a year's case types, then the
+        practice variant), as :func:`case_cautions` and the year model write them.
+    """
+    groups: dict[tuple[str, str], dict] = {}
+    for w in by_severity(warnings):
+        subjects, variant, message = _split(w)
+        key = (severity_of(w), _NUMBER.sub("#", message))
+        g = groups.setdefault(key, {"subjects": {}, "variants": {}, "numbers": [], "members": 0})
+        g["subjects"].update(dict.fromkeys(subjects))
+        if variant:
+            g["variants"][variant] = None
+        g["numbers"].append(_NUMBER.findall(message))
+        g["members"] += 1
+    out = []
+    for (severity, masked), g in groups.items():
+        columns = list(zip(*g["numbers"], strict=True))
+        parts = masked.split("#")
+        text = parts[0]
+        for col, part in zip(columns, parts[1:], strict=True):
+            values = sorted(set(col), key=lambda v: float(v.replace(",", "")))
+            text += values[0] if len(values) == 1 else f"{values[0]}-{values[-1]}"
+            text += part
+        out.append(CautionGroup(severity, text, tuple(g["subjects"]), tuple(g["variants"]), g["members"]))
+    return sorted(out, key=lambda g: SEVERITIES.index(g.severity))
 
 
 class _Row(NamedTuple):

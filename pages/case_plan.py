@@ -17,6 +17,8 @@ from model.io.plans import plan_from_dict, plan_to_dict, plan_to_toml
 from model.plan import CasePlan
 from model.present import case_charts as charts
 from model.present.exports import html_export
+from model.present.provenance import input_file
+from model.present.readable import field_words, when_text
 from model.reference import VOLATILES
 from model.store.access import author_label
 from ui import tables as fmt
@@ -300,7 +302,7 @@ def _place_error(field: str, message: str) -> None:
         return
     key = field.split(".")[-1]
     slot = slots.get(key)
-    (slot or table_slot).error(ui.md(message), icon=":material/error:")
+    (slot or table_slot).error(ui.md(field_words(message)), icon=":material/error:")
 
 
 status, payload, message = _build(_raw_inputs(), ref_key, ref)
@@ -624,10 +626,12 @@ LABELS = [
     ("MAC-hours, dial-based", "mac_hours", "MAC-h"),
     ("Duration", "duration_min", "min"),
     ("Lowest fresh gas O2", "min_fd_o2_pct", "%"),
+    ("Lowest predicted inspired O2", "min_inspired_o2_pct", "%"),
 ]
 summary = pd.DataFrame(
     {
         "plan": plan.name,
+        "safety": ui.cautions.safety_text(result.warnings),
         "figure": [x[0] for x in LABELS],
         "value": [float(t[x[1]]) for x in LABELS],
         "unit": [x[2] for x in LABELS],
@@ -668,9 +672,23 @@ if tc is not None:
     tables["Time course"] = tc
 # Built when the workbook is downloaded (the sweep runs then if its tab was never opened).
 tables["Flow sweep"] = lambda: (lambda sw: None if sw is None else sw.table)(_sweep())
+edited = " (edited on this page)" if ui.apply_settings(ss["cp_base"], view) != plan else ""
+prov = ui.provenance.block(
+    view,
+    ref,
+    f"Case plan: {plan.name}",
+    warnings=result.warnings,
+    lowest_inspired_o2_pct=float(t["min_inspired_o2_pct"]),
+    files=[input_file("plan", ss["cp_origin"] + edited, plan_to_toml(plan), len(plan.phases), "phases")],
+    own=own,
+    settings={
+        "inspired O2 floor": f"{plan.settings.inspired_o2_floor:.0%}",
+        "overrides": ", ".join(ref.override_origins) or "none",
+    },
+)
 
 
-def _report() -> str:
+def _report(prov) -> str:
     return html_export(
         ("UNSAFE PRACTICE. " if unsafe else "") + f"Case plan: {plan.name}",
         inputs=inputs,
@@ -685,6 +703,7 @@ def _report() -> str:
         cautions=[ui.CAUTION],
         sources=sources,
         currency=result.currency,
+        provenance=prov,
     )
 
 
@@ -692,7 +711,7 @@ st.divider()
 d1, d2 = st.columns([3, 2])
 with d1:
     st.markdown("**Download these results**")
-    ui.downloads(plan.name, tables, _report, key="cp_dl")
+    ui.downloads(plan.name, tables, _report, key="cp_dl", provenance=prov)
 with d2:
     st.markdown("**Save this plan**")
     s1, s2 = st.columns([3, 1], vertical_alignment="bottom")
@@ -724,7 +743,7 @@ with d2:
 with st.expander("Plan files and saved versions", icon=":material/description:"):
     f1, f2 = st.columns(2)
     with f1:
-        st.markdown("**Import a plan file** (TOML, the format in docs/formats.md)")
+        st.markdown("**Import a plan file** (TOML, its format below)")
         up = st.file_uploader(
             "Plan file", type=["toml"], key="cp_upload", label_visibility="collapsed", disabled=not may_save.allowed
         )
@@ -741,6 +760,7 @@ with st.expander("Plan files and saved versions", icon=":material/description:")
                 ss["cp_pending_load"] = (imported, f"imported file {up.name}")
                 ss["cp_flash"] = ("success", f"Imported '{imported.name}' as version {version}.")
                 st.rerun()
+        fmt.format_help("Plan files", inline=True)
     with f2:
         st.markdown("**Export this plan**")
         st.download_button(
@@ -759,7 +779,7 @@ with st.expander("Plan files and saved versions", icon=":material/description:")
             pd.DataFrame(
                 {
                     "version": [v.version for v in hist],
-                    "saved (UTC)": [v.saved_at[:19] for v in hist],
+                    "saved": [when_text(v.saved_at) for v in hist],
                     "by": [author_label(v.author) for v in hist],
                     "note": [v.note for v in hist],
                 }

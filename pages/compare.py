@@ -17,6 +17,8 @@ from model.cautions import Caution, is_unsafe, severity_of
 from model.io.plans import plan_to_toml
 from model.present import case_charts as charts
 from model.present.exports import html_export
+from model.present.provenance import input_file
+from model.present.readable import percent_change_text, signed_text
 from ui import tables as fmt
 
 view = ui.page_start(
@@ -42,6 +44,7 @@ FIGURES = [
     ("MAC-hours, end-tidal", "end_tidal_mac_hours", "MAC-h"),
     ("MAC-hours, dial-based", "mac_hours", "MAC-h"),
     ("Duration", "duration_min", "min"),
+    ("Lowest predicted inspired O2", "min_inspired_o2_pct", "%"),
 ]
 
 
@@ -54,11 +57,12 @@ def _pct(new: float, old: float) -> float | None:
 
 
 def _delta_text(new: float, old: float, unit: str, digits: int = 1) -> str | None:
-    d = new - old
-    if abs(d) < 1e-9:
+    """The change for a metric: "+1.2 mL (+5 %)"; None when it shows as no change at these decimals."""
+    d = signed_text(new - old, digits=digits)
+    if d == "0":
         return None
-    pct = _pct(new, old)
-    return f"{d:+,.{digits}f}" + (f" {unit}" if unit else "") + (f" ({pct:+.0f} %)" if pct is not None else "")
+    pct = percent_change_text(new, old)
+    return d + (f" {unit}" if unit else "") + (f" ({pct})" if pct else "")
 
 
 tab_plans, tab_year = st.tabs(["Case plans", "Year scenarios"])
@@ -290,8 +294,10 @@ def _offer_downloads(
     base_name, base = next(iter(results.items()))
     sources = pd.DataFrame(ref.table())
     tables = {"Comparison": table, "Cost by item": charts_.cost, "Emissions by source": charts_.co2e}
-    for name, res in results.items():
-        tables[f"Phases {name}"] = res.phases.assign(plan=name)
+    # "Plan 2 phases", not the plan's name cut to a sheet name's 31 characters: each sheet's
+    # rows name their plan, and the block names every plan with its number.
+    for i, (name, res) in enumerate(results.items(), start=1):
+        tables[f"Plan {i} phases"] = res.phases.assign(plan=name)
     tables["Warnings"] = ui.cautions.warnings_table(warnings)
     tables["Sources"] = sources
     inputs = {
@@ -302,8 +308,25 @@ def _offer_downloads(
         "room temperature": f"{view.temperature_c:g} °C",
         **ui.provenance.in_use(view, ref),
     }
+    prov = ui.provenance.block(
+        view,
+        ref,
+        "Plan comparison: " + ", ".join(results),
+        warnings=warnings,
+        lowest_inspired_o2_pct=min(float(r.totals["min_inspired_o2_pct"]) for r in results.values()),
+        files=[
+            input_file(
+                f"plan {i}" + (" (baseline)" if i == 1 else ""),
+                f"saved plan '{name}'" + ("" if " · version " in name else ", latest version"),
+                plan_to_toml(r.plan),
+                len(r.plan.phases),
+                "phases",
+            )
+            for i, (name, r) in enumerate(results.items(), start=1)
+        ],
+    )
 
-    def _report() -> str:
+    def _report(prov) -> str:
         return html_export(
             ("UNSAFE PRACTICE. " if unsafe else "") + "Plan comparison",
             inputs=inputs,
@@ -313,11 +336,12 @@ def _offer_downloads(
             cautions=[ui.CAUTION],
             sources=sources,
             currency=view.currency,
+            provenance=prov,
         )
 
     st.divider()
     st.markdown("**Download this comparison**")
-    ui.downloads("plan comparison", tables, _report, key="cmp_dl")
+    ui.downloads("plan comparison", tables, _report, key="cmp_dl", provenance=prov)
 
 
 with tab_plans:

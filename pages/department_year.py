@@ -17,10 +17,13 @@ from model.io.case_mix import case_mix_from_frame, case_mix_to_csv, case_mix_to_
 from model.present import year_charts
 from model.present.exports import html_export
 from model.present.palette import CO2E_COLOUR
+from model.present.provenance import input_file
+from model.present.readable import field_words, when_text
 from model.reference import GWP_SOURCES, VOLATILES
 from model.store.access import author_label
 from model.year.compare import nonzero_rows
 from model.year.inputs import MAX_DRAWS, Practice, Sampling
+from model.year.result import BOTTLES_COUNTED
 from ui import tables as fmt
 from ui import year_views as yv
 
@@ -131,7 +134,7 @@ try:
     mix = case_mix_from_frame(edited, library, "Case mix table")
 except InputError as err:
     # Shown by the table; the practice panel, the last valid figures and downloads stay.
-    mix_slot.error(ui.md(str(err)), icon=":material/error:")
+    mix_slot.error(ui.md(field_words(str(err))), icon=":material/error:")
     mix = ss[last_key][2] if last_key in ss else base.case_mix
     stale = True
 
@@ -278,7 +281,11 @@ with head:
         ],
         strict=True,
     ):
-        col.metric(label, value, help=scenario.car_source if key == "car_km" else None)
+        col.metric(
+            label,
+            value,
+            help=scenario.car_source if key == "car_km" else BOTTLES_COUNTED if key == "bottles_total" else None,
+        )
         col.caption(yv.range_text(rows.loc[key], digits))
     st.caption(
         f"Per case: {result.per_case['cost_total']:,.2f} {cur}, {result.per_case['co2e_total_t'] * 1000:,.1f} kg CO2e, "
@@ -376,9 +383,23 @@ tables = {
 }
 with st.expander("What produced these figures", icon=":material/info:"):
     st.dataframe(tables["Inputs"], hide_index=True, width="stretch")
+opened = inputs["opened from"] + (f" ({', '.join(edits)} edited on this page)" if edits else "")
+prov = ui.provenance.block(
+    view,
+    ref,
+    title,
+    warnings=result.warnings,
+    lowest_inspired_o2_pct=result.lowest_inspired_o2_pct,
+    files=[
+        input_file("scenario", opened, ui.year_store.scenario_file(scenario, "case mix")),
+        input_file("case mix", f"case mix of {opened}", case_mix_to_csv(mix), len(mix.types), "case types"),
+    ],
+    own=own,
+    settings={k: inputs[k] for k in ("draws", "seed", "price spread (SD of ln price)", "car factor")},
+)
 
 
-def _report() -> str:
+def _report(prov) -> str:
     return html_export(
         ("UNSAFE PRACTICE. " if unsafe else "") + title,
         inputs=inputs,
@@ -388,12 +409,13 @@ def _report() -> str:
         cautions=[ui.CAUTION, *result.notes],
         sources=tables["Sources"],
         currency=cur,
+        provenance=prov,
     )
 
 
 st.divider()
 st.markdown("**Download this year**")
-ui.downloads(f"year {scenario.name}", tables, _report, key="dy_dl", notes=tuple(result.notes))
+ui.downloads(f"year {scenario.name}", tables, _report, key="dy_dl", notes=tuple(result.notes), provenance=prov)
 
 
 # ---- keeping the year: save, versions, files -----------------------------------------
@@ -443,7 +465,7 @@ with k1:
             pd.DataFrame(
                 {
                     "version": [v.version for v in hist],
-                    "saved (UTC)": [v.saved_at[:19] for v in hist],
+                    "saved": [when_text(v.saved_at) for v in hist],
                     "by": [author_label(v.author) for v in hist],
                     "note": [v.note for v in hist],
                 }

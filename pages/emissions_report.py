@@ -10,17 +10,20 @@ import pandas as pd
 import streamlit as st
 
 import ui
+import ui.provenance
 import ui.state
 from model import InputError
 from model.audit.engine import audit_records
 from model.base.files import Source
 from model.io.purchases import load_purchases
 from model.io.sites import parse_sites
+from model.present.provenance import input_file
 from model.present.report_charts import report_figures
-from model.present.report_document import report_html
+from model.present.report_document import report_html, report_provenance
 from model.report import build_report, parse_period, parse_target
 from ui.common import sources_table
 from ui.report_views import period_input, shown, sites_against_purchases, target_input
+from ui.tables import format_help as fmt_help
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "demo_data" / "records"
@@ -82,8 +85,9 @@ else:
         "Site file, theatre,site (optional)", "er_upload_sites", "sites", types=("csv",), where=c3
     )
     sites_file = site_files[0] if site_files else None
+fmt_help("Case records", "Purchases")
 if not files:
-    st.info("Upload record files (format in docs/formats.md, 'Case records') to build the report.")
+    st.info("Upload record files ('Case records' under 'File formats' on this page) to build the report.")
     st.stop()
 time_zone = st.text_input(
     "Time zone of record times without a UTC offset",
@@ -114,17 +118,19 @@ def audited(digest: str, ref_key: str, temperature_c: float, time_zone: str, _fi
 
 @st.cache_data(show_spinner=False, max_entries=8)
 def purchases_table(digest: str, ref_key: str, _files, _ref):
-    """The purchases files' usable lines (one table) and the messages of lines set aside."""
-    tables, notes = [], []
+    """The purchases files' usable lines (one table), the messages of lines set aside, each file's lines."""
+    tables, notes, lines = [], [], []
     for f in _files:
         try:
             read = load_purchases(f, _ref)
         except InputError as err:
             notes.append(str(err))
+            lines.append(None)
             continue
         tables.append(read.table)
         notes += read.messages
-    return (pd.concat(tables, ignore_index=True) if tables else None), notes
+        lines.append(len(read.table) + len(read.messages))
+    return (pd.concat(tables, ignore_index=True) if tables else None), notes, lines
 
 
 cases, summary, absorbent_note = audited(
@@ -133,10 +139,10 @@ cases, summary, absorbent_note = audited(
 if cases is None:
     ui.show_input_error(InputError("records", "the files", summary))
     st.stop()
-purchases, purchase_notes = (
+purchases, purchase_notes, purchase_lines = (
     purchases_table(_digest(purchase_files), ui.reference_key(view), tuple(purchase_files), ref)
     if purchase_files
-    else (None, [])
+    else (None, [], [])
 )
 sites = None
 if sites_file is not None:
@@ -294,8 +300,17 @@ with head:
     for p in report.problems:
         ui.show_input_error(p, "Not worked out")
     m = st.columns(4) + st.columns(5)
-    delta = None if br is None else f"{pr.co2e_t - br.co2e_t:+,.1f} t on the baseline"
-    m[0].metric(f"Use-based, {report.gwp_label}", f"{pr.co2e_t:,.1f} t CO2e", delta, delta_color="inverse")
+    like = report.like_for_like_baseline_t()
+    delta = None if like is None else f"{pr.co2e_t - like:+,.1f} t on the baseline, like for like"
+    m[0].metric(
+        f"Use-based, {report.gwp_label}",
+        f"{pr.co2e_t:,.1f} t CO2e",
+        delta,
+        delta_color="inverse",
+        help=f"Against the baseline under {report.gwp_label} too; the change of GWP source is in the headline"
+        if report.mixes_gwp_sources
+        else None,
+    )
     ar5 = pr.figures["co2e_t"].get("ar5_gwp100")
     if ar5 is not None and pr.gwp_source != "ar5_gwp100":
         m[1].metric("Use-based, IPCC AR5 GWP100", f"{ar5:,.1f} t CO2e")
@@ -395,10 +410,32 @@ with tabs[6]:
     st.markdown("\n".join(f"- {ui.md(line)}" for line in [ui.CAUTION, *report.cautions]))
 
 
-def _html() -> str:
+record_rows = summary.get("file_rows") or [None] * len(files)
+prov = report_provenance(
+    report,
+    [input_file("case records", f.name, f, n) for f, n in zip(files, record_rows, strict=True)]
+    + [input_file("purchases", f.name, f, n) for f, n in zip(purchase_files, purchase_lines, strict=True)]
+    + ([input_file("sites", sites_file.name, sites_file, len(sites), "theatres")] if sites_file and sites else []),
+    ui.provenance.prices_text(),
+    {"room temperature": f"{view.temperature_c:g} °C"},
+)
+
+
+def _html(prov) -> str:
     return report_html(
-        report, list(charts.items()), cautions=[ui.CAUTION], sources=sources_table(ui.reference_key(view), ref)
+        report,
+        list(charts.items()),
+        cautions=[ui.CAUTION],
+        sources=sources_table(ui.reference_key(view), ref),
+        provenance=prov,
     )
 
 
-ui.downloads(f"emissions report {pr.period.text}", report.tables(), _html, key="er_dl", notes=tuple(report.notes()))
+ui.downloads(
+    f"emissions report {pr.period.text}",
+    report.tables(),
+    _html,
+    key="er_dl",
+    notes=tuple(report.notes()),
+    provenance=prov,
+)

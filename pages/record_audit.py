@@ -13,13 +13,13 @@ import ui.provenance
 import ui.state
 from model import InputError
 from model.audit.engine import audit_records
-from model.audit.reconcile import cost_view, reconcile, record_coverage
+from model.audit.reconcile import N2O_LOSS_WHY_NOT, check_purchases
 from model.audit.result import BAND_COLUMNS, DEFAULT_HIGH_FLOW_L_MIN, DEFAULT_HIGH_FLOW_LIMIT_MIN
 from model.base.files import Source
-from model.io.purchases import load_purchases
 from model.io.record_files import DEFAULT_GAP_LIMIT_MIN
 from model.present import case_charts as charts
 from model.present.exports import html_export
+from model.present.provenance import input_file
 from ui import tables as fmt
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -30,18 +30,6 @@ DEMO_RECORDS = {
     "About 30 Birch cases, other layout, with deliberate problems (CSV)": DEMO / "fernhollow_birch_cases.csv",
 }
 DEMO_PURCHASES = [DEMO / "fernhollow_purchases_2025.csv", DEMO / "fernhollow_purchases_2026.csv"]
-
-
-def _demo_purchases() -> Source:
-    """The demo's two purchases files as one (the second's header and comments left out)."""
-    first, *rest = (p.read_text(encoding="utf-8") for p in DEMO_PURCHASES)
-    lines = [
-        line
-        for text in rest
-        for line in text.splitlines(keepends=True)
-        if line.strip() and not line.startswith("#") and not line.lower().startswith("month,")
-    ]
-    return Source("fernhollow_purchases_2025-2026.csv", data=(first + "".join(lines)).encode("utf-8"))
 
 
 #: Columns shown first in the wide audit tables (the rest follow, a scroll away).
@@ -98,24 +86,25 @@ if source.startswith("Demo"):
     chosen = st.multiselect("Demo files", list(DEMO_RECORDS), default=list(DEMO_RECORDS), key="ra_demo")
     # Read where they are, named as the user knows them.
     files = [Source(DEMO_RECORDS[c].name, path=DEMO_RECORDS[c]) for c in chosen]
-    if st.checkbox("Reconcile with the demo purchases", value=True, key="ra_demo_purchases"):
-        purchase_files = [_demo_purchases()]
+    if st.checkbox("Reconcile with the demo purchases (2025 and 2026)", value=True, key="ra_demo_purchases"):
+        purchase_files = [Source(p.name, path=p) for p in DEMO_PURCHASES]
 else:
     # Kept for the session and shared with the Emissions report (ui.state.kept_uploads).
     files = ui.state.kept_uploads(
-        "Record files (.csv or .parquet; format in docs/formats.md, 'Case records')",
+        "Record files (.csv or .parquet; 'Case records' under 'File formats' on this page)",
         "ra_upload",
         "records",
         multiple=True,
         types=("csv", "parquet"),
     )
     purchase_files = ui.state.kept_uploads(
-        "Purchases files (optional; .csv or .parquet)",
+        "Purchases files (optional; .csv or .parquet; all are reconciled together)",
         "ra_upload_purchases",
         "purchases",
         multiple=True,
         types=("csv", "parquet"),
     )
+fmt.format_help("Case records", "Purchases")
 
 with st.expander("Audit settings"):
     c1, c2, c3 = st.columns(3)
@@ -155,9 +144,9 @@ if not files:
 
 
 def run_audit(files: tuple[Source, ...], purchases: tuple[Source, ...], settings: tuple, _ref, _progress):
-    """Audit the files and reconcile with the purchases files; every message names the user's files.
+    """Audit the files and reconcile with every purchases file; every message names the user's files.
 
-    Returns (audit result, reconciliation or None, messages for purchase lines set aside, cost by item).
+    Returns (audit result, the purchases check: ``model.audit.reconcile.check_purchases``).
     """
     gap, high, limit, gwp, temp, zone = settings
     result = audit_records(
@@ -171,13 +160,7 @@ def run_audit(files: tuple[Source, ...], purchases: tuple[Source, ...], settings
         progress=_progress,
         time_zone=zone or None,
     )
-    recon, purchase_notes, bought_table = None, [], None
-    if purchases:
-        bought = [load_purchases(p, _ref) for p in purchases]
-        purchase_notes = [m for b in bought for m in b.messages]
-        bought_table = pd.concat([b.table for b in bought], ignore_index=True)
-        recon = reconcile(bought_table, result.use_by_month(), _ref, gwp)
-    return result, recon, purchase_notes, cost_view(bought_table, result, _ref)
+    return result, check_purchases(purchases, result, _ref)
 
 
 digest = hashlib.sha256()
@@ -212,7 +195,8 @@ if cache_key not in cache:
     bar.empty()
     while len(cache) > 3:
         cache.pop(next(iter(cache)))
-result, recon, purchase_notes, costs = cache[cache_key]
+result, bought = cache[cache_key]
+recon, purchase_notes, costs, coverage = bought.recon, bought.notes, bought.costs, bought.coverage
 
 rep = result.report
 summary = rep.summary()
@@ -315,32 +299,29 @@ with tab_recon:
         f"is {result.absorbent_note()}"
     )
     if recon is None:
-        st.caption("Add a purchases file (format in docs/formats.md, 'Purchases') to compare with what was bought.")
+        st.caption("Add a purchases file ('Purchases' under 'File formats' above) to compare with what was bought.")
     else:
         totals = recon[recon["month"] == "all"]
-        coverage = record_coverage(cases, recon, ref)
-        n2o = totals[totals["item"] == "nitrous_oxide"]
+        st.caption(
+            "Purchases reconciled together: "
+            + ", ".join(f"{ui.md(n)} ({rows:,} lines)" for n, rows in bought.files)
+            + "."
+        )
         if coverage["partial"]:
             # A few cases against a hospital's purchases: say what the records cover, and no loss.
             st.warning(ui.md(coverage["message"]), icon=":material/rule:")
-            if len(n2o):
-                st.metric(
-                    "N2O apparent loss",
-                    "not estimated",
-                    delta_color="off",
-                    help="The records cover only part of what the purchases serve; the gap between "
-                    "them is mostly use that is not in these records.",
-                )
-        elif len(n2o):
+        else:
             st.caption(ui.md(coverage["message"]))
-            r = n2o.iloc[0]
-            share = "" if pd.isna(r["unexplained_share"]) else f"{r['unexplained_share']:.0%} of purchases"
+        loss, share = bought.n2o_loss()
+        if loss:
             st.metric(
                 "N2O apparent loss",
-                f"{r['apparent_loss']:,.0f} L",
-                share,
+                loss,
+                share or None,
                 delta_color="off",
-                help="Purchased minus recorded N2O: losses in pipes and manifolds, part-full cylinders "
+                help=N2O_LOSS_WHY_NOT[0].upper() + N2O_LOSS_WHY_NOT[1:] + "."
+                if coverage["partial"]
+                else "Purchased minus recorded N2O: losses in pipes and manifolds, part-full cylinders "
                 "returned, and use not in the records.",
             )
         with st.expander("Coverage by month and theatre", expanded=coverage["partial"]):
@@ -372,7 +353,7 @@ if purchase_notes:
     tables["Purchase lines set aside"] = pd.DataFrame({"message": purchase_notes})
 inputs = {
     "files": ", ".join(rep.files),
-    "purchases": ", ".join(f.name for f in purchase_files) or "none",
+    "purchases": ", ".join(n for n, _ in bought.files) or "none",
     "record coverage": coverage["message"] if recon is not None else "no purchases to compare",
     "GWP source": result.gwp_label,
     "room temperature": f"{view.temperature_c:g} °C",
@@ -389,7 +370,23 @@ inputs = {
 }
 
 
-def _report() -> str:
+row_counts = rep.file_rows if len(rep.file_rows) == len(files) else [None] * len(files)
+prov = ui.provenance.block(
+    view,
+    ref,
+    "Record audit",
+    files=[input_file("case records", f.name, f, n) for f, n in zip(files, row_counts, strict=True)]
+    + [input_file("purchases", f.name, f, n) for f, (_, n) in zip(purchase_files, bought.files, strict=True)],
+    settings={
+        "longest interval counted": f"{gap_limit:g} min",
+        "high flow above": f"{high_flow:g} L/min",
+        "flag high-flow runs of at least": f"{high_limit:g} min",
+        "record coverage": coverage["message"] if coverage else "no purchases to compare",
+    },
+)
+
+
+def _report(prov) -> str:
     shown = {"By theatre": tables["By theatre"], "By month": tables["By month"], "By agent": tables["By agent"]}
     if recon is not None:
         shown["Purchases"] = recon
@@ -401,7 +398,8 @@ def _report() -> str:
         cautions=[ui.CAUTION, "Every delivered gram counts as emitted (no uptake model)."],
         sources=pd.DataFrame(ref.table()),
         currency=view.currency,
+        provenance=prov,
     )
 
 
-ui.downloads("record audit", tables, _report, key="ra_dl")
+ui.downloads("record audit", tables, _report, key="ra_dl", provenance=prov)

@@ -11,6 +11,7 @@ import ui
 import ui.provenance
 from model import DEFAULT_REFERENCE, InputError
 from model.present.exports import html_export
+from model.present.readable import when_text
 from model.reference import DEFAULT_MAC_SET, MAC_SETS, USER, VOLATILES
 from model.store.access import author_label
 from model.store.changelog import changes_between, reference_changes
@@ -60,16 +61,26 @@ st.caption(
 )
 
 
-def _report() -> str:
+prov = ui.provenance.block(
+    view,
+    ref,
+    "Reference values",
+    not_assessed_because="reference values only; no case is computed",
+    settings={"your values": ui.provenance.prices_text()},
+)
+
+
+def _report(prov) -> str:
     return html_export(
         "Reference values",
         inputs={"your values": json.dumps(saved, sort_keys=True) or "none", "currency": view.currency},
         tables={"Reference values": table},
         cautions=[ui.CAUTION],
+        provenance=prov,
     )
 
 
-ui.downloads("reference values", {"Reference": table}, _report, key="ref_dl")
+ui.downloads("reference values", {"Reference": table}, _report, key="ref_dl", provenance=prov)
 
 # ---- the user's values ---------------------------------------------------------------
 
@@ -77,7 +88,7 @@ st.subheader("Your values")
 ui.provenance.show(view, ref)
 if history:
     st.caption(
-        f"In use: version {history[0].version}, saved {history[0].saved_at[:19]} UTC by "
+        f"In use: version {history[0].version}, saved {when_text(history[0].saved_at)} by "
         f"{ui.md(author_label(history[0].author))}."
     )
 st.caption("Leave a value as it is to keep the default. Saving keeps every earlier set of values.")
@@ -332,7 +343,7 @@ with st.expander(f"Change log ({len(changes)} changed values)", icon=":material/
         st.dataframe(
             pd.DataFrame(
                 {
-                    "saved (UTC)": [c.saved_at[:19] for c in changes],
+                    "saved": [when_text(c.saved_at) for c in changes],
                     "by": [author_label(c.author) for c in changes],
                     "value": [c.path for c in changes],
                     "from": [change_text(default, c.path, c.old) for c in changes],
@@ -353,7 +364,7 @@ with st.expander(f"Earlier sets of values ({len(history)})", icon=":material/his
             pd.DataFrame(
                 {
                     "version": [v.version for v in history],
-                    "saved (UTC)": [v.saved_at[:19] for v in history],
+                    "saved": [when_text(v.saved_at) for v in history],
                     "by": [author_label(v.author) for v in history],
                     "note": [v.note for v in history],
                     "values": [v.body for v in history],

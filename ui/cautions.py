@@ -11,7 +11,7 @@ from __future__ import annotations
 import pandas as pd
 import streamlit as st
 
-from model.cautions import by_severity, is_unsafe, severity_of
+from model.cautions import group_cautions, is_unsafe
 
 from .common import md
 
@@ -25,19 +25,17 @@ _HEADINGS = {"hazard": "Unsafe as planned", "caution": "Check before use", "labe
 
 
 def grouped(warnings) -> list[tuple[str, str, list[str]]]:
-    """(severity, text, subjects) per distinct text, most severe first.
+    """(severity, text, subjects) per group of identical cautions, most severe first.
 
-    A warning "subject: text" (a phase, or the case types of a year) that repeats the text of
-    another of the same severity is listed once with both subjects.
+    Cautions that differ only in their figures or practice variant are one group
+    (:func:`model.cautions.group_cautions`): its subjects are every case type or phase it
+    applies to, its figures given as ranges.
     """
-    out: dict[tuple[str, str], list[str]] = {}
-    for w in by_severity(warnings):
-        subject, sep, rest = str(w).partition(": ")
-        key = (severity_of(w), rest if sep else str(w))
-        out.setdefault(key, [])
-        if sep:
-            out[key].append(subject)
-    return [(sev, text, subjects) for (sev, text), subjects in out.items()]
+    out = []
+    for g in group_cautions(warnings):
+        text = g.text + (f" ({'; '.join(g.variants)})" if g.variants else "")
+        out.append((g.severity, text, list(g.applies_to)))
+    return out
 
 
 def _line(text: str, subjects: list[str]) -> str:

@@ -112,7 +112,9 @@ def get_store() -> Store:
     except StoreError as err:
         where = default_location()
         known = {} if is_postgres_url(where) else {where: Path(where).name}
-        st.error(md(plain_paths(str(err), known)), icon=":material/error:")
+        from ui.tables import page_words
+
+        st.error(md(page_words(plain_paths(str(err), known))), icon=":material/error:")
         st.stop()
 
 
@@ -431,16 +433,29 @@ def checked_uploads(uploaded, kind: str) -> list[Source]:
 
 def show_input_error(err: Exception, where: str = "") -> None:
     """One clear line for a bad entry (never a traceback); user text in it is escaped."""
+    from model.present.readable import field_words
+
     prefix = f"{where}: " if where else ""
-    st.error(md(plain_paths(prefix + str(err))), icon=":material/error:")
+    from ui.tables import page_words
+
+    st.error(md(page_words(plain_paths(field_words(prefix + str(err))))), icon=":material/error:")
 
 
 # ---- downloads -----------------------------------------------------------------------
 
 
 def _slug(name: str) -> str:
-    s = re.sub(r"[^A-Za-z0-9]+", "-", name).strip("-").lower()
-    return (s or "export")[:60]
+    """A file name part: words joined by "-", at most 60 characters, cut between words."""
+    s = re.sub(r"[^A-Za-z0-9]+", "-", name).strip("-").lower() or "export"
+    if len(s) > 60:
+        s = s[:61].rsplit("-", 1)[0] if "-" in s[:61] else s[:60]
+    return s
+
+
+def csv_file_name(name: str, table: str) -> str:
+    """The CSV's file name: the export's name and its table's, the table's left out when the name holds it."""
+    slug, part = _slug(name), _slug(table)
+    return f"{slug}.csv" if part in slug else f"{slug}-{part}.csv"
 
 
 def _currency() -> str:
@@ -451,9 +466,10 @@ def _currency() -> str:
 def downloads(
     name: str,
     tables: Mapping[str, pd.DataFrame | Callable[[], pd.DataFrame | None]],
-    report: Callable[[], str] | None,
+    report: Callable[..., str] | None,
     key: str,
     notes: tuple[str, ...] = (),
+    provenance=None,
 ) -> None:
     """The row of downloads under a results view: CSV (first table), Excel (all), HTML report.
 
@@ -461,8 +477,16 @@ def downloads(
     for them. A table may be given as a function returning it (or None to leave it out), for
     tables worked out only for the download. Tables are written for people
     (``ui.tables.readable_frame``: headings in words with units, figures rounded).
+
+    ``provenance`` (:func:`ui.provenance.block`): every file opens with it, the time it is
+    made filled in when it is built; ``report`` is then called with it.
     """
     currency = _currency()
+
+    def prov():
+        from ui.provenance import made_now
+
+        return None if provenance is None else made_now(provenance)
 
     def ready() -> dict[str, pd.DataFrame]:
         out = {}
@@ -472,37 +496,41 @@ def downloads(
                 out[k] = readable_frame(df, currency)
         return out
 
+    def html() -> str:
+        assert report is not None
+        return report() if provenance is None else report(prov())
+
     slug = _slug(name)
     first_name, first = next(iter(tables.items()))
     c1, c2, c3, _ = st.columns([1, 1, 1.5, 1])
     c1.download_button(
         "CSV",
-        data=lambda: to_csv(readable_frame(first() if callable(first) else first, currency)),
-        file_name=f"{slug}-{_slug(first_name)}.csv",
+        data=lambda: to_csv(readable_frame(first() if callable(first) else first, currency), prov()),
+        file_name=csv_file_name(name, first_name),
         mime="text/csv",
         key=f"{key}_csv",
         on_click="ignore",
         icon=":material/download:",
-        help=f"The '{first_name}' table as CSV",
+        help=f"The '{first_name}' table as CSV, under what made it",
     )
     c2.download_button(
         "Excel",
-        data=lambda: to_xlsx(ready(), notes=(CAUTION,) + tuple(notes)),
+        data=lambda: to_xlsx(ready(), notes=(CAUTION,) + tuple(notes), provenance=prov()),
         file_name=f"{slug}.xlsx",
         key=f"{key}_xlsx",
         on_click="ignore",
         mime="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
         icon=":material/download:",
-        help="Every table, one sheet each",
+        help="Every table, one sheet each, after a sheet on what made them",
     )
     if report is not None:
         c3.download_button(
             "HTML report",
-            data=report,
+            data=html,
             file_name=f"{slug}.html",
             mime="text/html",
             key=f"{key}_html",
             on_click="ignore",
             icon=":material/download:",
-            help="Self-contained report: inputs, results, charts, sources, cautions",
+            help="Self-contained report: what made it, inputs, results, charts, sources, cautions",
         )

@@ -8,13 +8,17 @@ the items it names.
 
 from __future__ import annotations
 
-import importlib.metadata
-from collections.abc import Mapping
+from collections.abc import Iterable, Mapping
+from dataclasses import replace
+from datetime import UTC, datetime
 
 import pandas as pd
 import streamlit as st
 
+from model.cautions import is_unsafe
 from model.io.case_mix import case_mix_to_csv
+from model.present.provenance import InputFile, Provenance, program_version, provenance
+from model.present.readable import when_text
 from model.reference import Reference
 
 from .common import ViewSettings, get_store, md
@@ -25,14 +29,6 @@ _PRICE_NAMES = {
     "nitrous_oxide_per_1000_l": "nitrous oxide",
     "absorbent_per_kg": "CO2 absorbent",
 }
-
-
-def program_version() -> str:
-    """The installed version of fresh-gas-ledger (its package metadata)."""
-    try:
-        return importlib.metadata.version("fresh-gas-ledger")
-    except importlib.metadata.PackageNotFoundError:
-        return "unknown (run from a source folder that is not installed)"
 
 
 def price_items(prices: Mapping) -> list[str]:
@@ -52,7 +48,7 @@ def _saved_version() -> tuple[dict, str]:
         saved = store.load_overrides()
     except Exception:  # an unreadable set: ui.common.reference() says so and uses the defaults
         saved = {}
-    return saved, f"version {history[0].version}, saved {history[0].saved_at[:16].replace('T', ' ')} UTC"
+    return saved, f"version {history[0].version}, saved {when_text(history[0].saved_at)}"
 
 
 def prices_text(own: tuple[str, Mapping] | None = None) -> str:
@@ -91,6 +87,48 @@ def in_use(view: ViewSettings, ref: Reference, own: tuple[str, Mapping] | None =
         "currency": ref.prices.currency,
         "program": f"fresh-gas-ledger {program_version()}",
     }
+
+
+def block(
+    view: ViewSettings,
+    ref: Reference,
+    what: str,
+    *,
+    warnings: Iterable[str] | None = None,
+    lowest_inspired_o2_pct: float | None = None,
+    files: Iterable[InputFile] = (),
+    own: tuple[str, Mapping] | None = None,
+    settings: Mapping[str, object] | None = None,
+    not_assessed_because: str | None = None,
+) -> Provenance:
+    """A page's export provenance (:func:`model.present.provenance.provenance`, the one block).
+
+    ``warnings`` None: case records, where no inspired O2 is predicted (or
+    ``not_assessed_because`` says why no safety state is given).
+    """
+    from .cautions import grouped
+
+    hazards = [] if warnings is None else [t for sev, t, _ in grouped(warnings) if sev == "hazard"]
+    return provenance(
+        what,
+        unsafe=None if warnings is None else is_unsafe(warnings),
+        lowest_inspired_o2_pct=lowest_inspired_o2_pct,
+        hazards=hazards,
+        files=files,
+        prices=prices_text(own),
+        gwp_source=gwp_text(view, ref),
+        settings={
+            "currency": ref.prices.currency,
+            "room temperature": f"{view.temperature_c:g} °C",
+            **(settings or {}),
+        },
+        **({"not_assessed_because": not_assessed_because} if not_assessed_because else {}),
+    )
+
+
+def made_now(prov: Provenance) -> Provenance:
+    """The block with the time it is written (a download is built when it is asked for)."""
+    return replace(prov, made_at=datetime.now(UTC))
 
 
 def inputs_table(inputs: dict) -> pd.DataFrame:

@@ -110,7 +110,7 @@ def sites_against_purchases(report) -> None:
         st.caption(
             "The purchases name no site, so purchase-based figures are for all sites together and "
             "cannot be set beside each site's use. Add a site column to the purchases files "
-            "(docs/formats.md, 'Purchases') to compare site by site."
+            "('Purchases' under 'File formats' on this page) to compare site by site."
         )
         return
     lab = report.gwp_label

@@ -139,3 +139,48 @@ def plain_paths(text, known: Mapping[str, str] | None = None) -> str:
 def file_name(path) -> str:
     """The name of a file as a user knows it (no folder)."""
     return os.path.basename(str(path)) or str(path)
+
+
+#: The file formats a page reads, in short, shown on the page itself (the full formats are in
+#: the documentation's File formats page).
+FORMAT_HELP = {
+    "Case records": (
+        "One row per sample of a case, CSV (UTF-8) or Parquet, **de-identified**. Columns: `case_id`; "
+        "`time` (date-time) or `elapsed` (minutes since the start, with an optional `date`); optional "
+        "`theatre`; `agent` (sevoflurane, desflurane, isoflurane, halothane or none); flows `o2`, `air`, "
+        "`n2o` in L/min, or `fgf` with `o2_share` (and `n2o_share`); `dial` and/or `end_tidal` in %. "
+        "A unit may go in the column name, e.g. `o2 [mL/min]`. Bad rows are set aside and listed."
+    ),
+    "Purchases": (
+        "CSV or Parquet, one purchase a line: `month,item,quantity,unit,size`, e.g. "
+        "`2025-01,sevoflurane,9,bottle,` or `2025-01,nitrous_oxide,1,cylinder,9000 L`. `month` is "
+        "YYYY-MM; `unit` is bottle, cylinder (size required), a volume or a mass; an optional `site` "
+        "column. Lines beginning with `#` are comments; bad lines are set aside and listed."
+    ),
+    "Plan files": (
+        "TOML: `name`, `agent`, a `[patient]` table (`weight`, `age`), a `[settings]` table (all "
+        "optional) and one `[[phases]]` table per phase with `name`, `duration`, flows `o2`, `air`, "
+        "`n2o` and either `dial` (%) or `target` (x MAC). Numbers may carry units as text, e.g. "
+        '"500 mL/min". Export a plan from this page to see a complete file.'
+    ),
+}
+ON_THIS_PAGE = "'File formats' on this page"
+
+
+def page_words(text: str) -> str:
+    """A message as the page shows it: file formats pointed to on the page, not in the repository."""
+    text = re.sub(r"docs/formats\.md, ('[^']+')", rf"\1 under {ON_THIS_PAGE}", str(text))
+    text = re.sub(r"('[^']+') in docs/formats\.md", rf"\1 under {ON_THIS_PAGE}", text)
+    text = re.sub(r"in docs/formats\.md, the (\w+) format", rf"under {ON_THIS_PAGE}, the \1 format", text)
+    return text.replace("docs/formats.md", ON_THIS_PAGE)
+
+
+def format_help(*names: str, inline: bool = False) -> None:
+    """The formats this page reads, in an expander named 'File formats' (``inline``: as captions, inside another)."""
+    if inline:
+        for name in names:
+            st.caption(f"**File formats, {name.lower()}.** {FORMAT_HELP[name]}")
+        return
+    with st.expander("File formats", icon=":material/description:"):
+        for name in names:
+            st.markdown(f"**{name}.** {FORMAT_HELP[name]}")

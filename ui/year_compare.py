@@ -15,8 +15,11 @@ import ui.provenance
 import ui.year_store
 from model import InputError
 from model.cautions import by_severity
+from model.io.case_mix import case_mix_to_csv
 from model.present import year_charts
 from model.present.exports import html_export
+from model.present.provenance import input_file
+from model.present.readable import signed_text
 from model.year.compare import nonzero_rows
 
 from . import tables as fmt
@@ -109,9 +112,14 @@ def render(view) -> None:
             cols = st.columns(len(HEADLINES))
             for col, (key, label) in zip(cols, HEADLINES, strict=True):
                 r = rows.loc[key]
-                unit = f" {comp.baseline.currency}" if key == "cost_total" else ""
-                col.metric(f"Change in {label}", f"{r['difference']:+,.1f}{unit}")
-                col.caption(f"P5-P95: {r['p5']:+,.1f} to {r['p95']:+,.1f}")
+                money = key == "cost_total"
+                unit = f" {comp.baseline.currency}" if money else ""
+                digits = None if money else 1
+                col.metric(f"Change in {label}", signed_text(r["difference"], money=money, digits=digits) + unit)
+                col.caption(
+                    f"P5-P95: {signed_text(r['p5'], money=money, digits=digits)} to "
+                    f"{signed_text(r['p95'], money=money, digits=digits)}"
+                )
             fig = year_charts.difference_figure(comp.summary, labels)
             st.plotly_chart(fig, width="stretch", key=f"yc_fig_{i}")
             figs.append((f"Change per year: {p_name}", fig))
@@ -154,7 +162,28 @@ def render(view) -> None:
         "Sources": pd.DataFrame(ref.table()),
     }
 
-    def _report() -> str:
+    years = {b_name: first.baseline, **{n: c.proposal for n, c in comps.items()}}
+    files = []
+    for i, (n, yr) in enumerate(years.items()):
+        role = "baseline scenario" if i == 0 else f"proposal {i}"
+        where = f"saved scenario '{n}'" if choices[n].kind == "saved" else f"demo file {choices[n].path.name}"
+        mix = yr.scenario.case_mix
+        files.append(input_file(role, where, ui.year_store.scenario_file(yr.scenario, "case mix")))
+        files.append(
+            input_file(f"{role}, case mix", f"case mix of {where}", case_mix_to_csv(mix), len(mix.types), "case types")
+        )
+    prov = ui.provenance.block(
+        view,
+        ref,
+        "Year comparison: " + ", ".join(years),
+        warnings=warnings,
+        lowest_inspired_o2_pct=min(yr.lowest_inspired_o2_pct for yr in years.values()),
+        files=files,
+        own=("each scenario", None) if own_prices else None,
+        settings={"paired draws": first.baseline.n_draws, "seed": first.baseline.seed},
+    )
+
+    def _report(prov) -> str:
         return html_export(
             ("UNSAFE PRACTICE. " if unsafe_names else "") + "Year comparison",
             inputs=inputs,
@@ -164,6 +193,7 @@ def render(view) -> None:
             cautions=[ui.CAUTION, *notes],
             sources=tables["Sources"],
             currency=first.baseline.currency,
+            provenance=prov,
         )
 
-    ui.downloads("year comparison", tables, _report, key="yc_dl")
+    ui.downloads("year comparison", tables, _report, key="yc_dl", provenance=prov)

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
 import pandas as pd
 
@@ -241,6 +243,14 @@ def cost_view(purchases: pd.DataFrame | None, result, reference: Reference = DEF
 PARTIAL_RECORDS_SHARE = 0.5
 
 
+def _months_text(months) -> str:
+    """Months listed ("2026-01, 2026-02"), or their span ("between 2026-01 and 2026-12") when many."""
+    months = sorted(months)
+    if len(months) > 4:
+        return f"between {months[0]} and {months[-1]}"
+    return ", ".join(months)
+
+
 def record_coverage(cases: pd.DataFrame, recon: pd.DataFrame, reference: Reference = DEFAULT_REFERENCE) -> dict:
     """What part of the purchases the case records can explain: coverage by month and theatre.
 
@@ -257,9 +267,11 @@ def record_coverage(cases: pd.DataFrame, recon: pd.DataFrame, reference: Referen
         ``by_month`` (DataFrame: ``month``, ``cases``, ``theatres``, ``bought`` (the month
         has purchases), ``has_records``), ``months_bought``, ``months_with_records``,
         ``cases``, ``theatres`` (names), ``volatile_recorded_share`` (recorded of bought
-        volatile liquid in the months with records; NaN where none was bought), ``partial``
-        (records cover only part: months bought without records, or that share under
-        :data:`PARTIAL_RECORDS_SHARE`) and ``message`` (one plain sentence).
+        volatile liquid in the months with records; NaN where none was bought),
+        ``months_records_not_bought`` (months with records and no purchases), ``partial``
+        (records and purchases cover only part of each other: months bought without
+        records, months recorded without purchases, or that share under
+        :data:`PARTIAL_RECORDS_SHARE`) and ``message`` (plain sentences).
     """
     per_case = cases.groupby("month").agg(cases=("month", "size"), theatres=("theatre", lambda x: int(x.nunique())))
     bought_months = sorted(set(recon.loc[(recon["month"] != "all") & (recon["purchased"] > 0), "month"]))
@@ -269,13 +281,16 @@ def record_coverage(cases: pd.DataFrame, recon: pd.DataFrame, reference: Referen
     by_month["theatres"] = by_month["month"].map(per_case["theatres"]).fillna(0).astype(int)
     by_month["bought"] = by_month["month"].isin(bought_months)
     by_month["has_records"] = by_month["cases"] > 0
-    totals = recon[recon["month"] == "all"]
-    volatile = totals[[reference.agents[i].kind == "volatile" for i in totals["item"]]]
-    bought = float(volatile["purchased_with_records"].sum())
-    share = float(volatile["recorded_with_records"].sum()) / bought if bought > 0 else float("nan")
+    # Over the months that have both purchases and records: months recorded but not bought
+    # would count use against nothing bought.
+    both = recon[recon["month"].isin(set(bought_months) & set(per_case.index))]
+    volatile = both.loc[np.array([reference.agents[i].kind == "volatile" for i in both["item"]], dtype=bool)]
+    bought = float(volatile["purchased"].sum())
+    share = float(volatile["recorded"].sum()) / bought if bought > 0 else float("nan")
     missing = [m for m in bought_months if m not in set(per_case.index)]
     theatres = sorted(str(t) for t in cases["theatre"].dropna().unique())
-    partial = bool(missing) or (share == share and share < PARTIAL_RECORDS_SHARE)
+    unbought = [m for m in per_case.index if m not in set(bought_months)]
+    partial = bool(missing) or bool(unbought) or (share == share and share < PARTIAL_RECORDS_SHARE)
     n_with = sum(1 for m in bought_months if m not in missing)
     message = (
         f"The records hold {len(cases):,} case(s) in {len(theatres)} theatre(s) "
@@ -283,16 +298,27 @@ def record_coverage(cases: pd.DataFrame, recon: pd.DataFrame, reference: Referen
         f"{len(bought_months)} month(s) with purchases"
     )
     if share == share:
-        message += f"; in those months they account for {share:.0%} of the volatile agent bought"
-    if partial:
+        message += f"; in those months they account for {share * 100:.0f} % of the volatile agent bought"
+    if unbought:
+        message += (
+            f". {len(unbought)} of the {len(per_case)} month(s) with records ({_months_text(unbought)}) have "
+            "no purchases: give the purchases files of those months too"
+        )
+    if bool(missing) or (share == share and share < PARTIAL_RECORDS_SHARE):
         message += (
             ". They cover only part of what the purchases serve, so the unexplained amounts "
             "and the N2O gap are not losses: compare only months and theatres the records cover fully."
+        )
+    elif unbought:
+        message += (
+            ". The purchases cover only part of the records, so the unexplained amounts and the N2O "
+            "gap are not losses: compare only the months both cover."
         )
     else:
         message += "."
     return {
         "by_month": by_month,
+        "months_records_not_bought": unbought,
         "months_bought": len(bought_months),
         "months_with_records": n_with,
         "cases": int(len(cases)),
@@ -301,3 +327,101 @@ def record_coverage(cases: pd.DataFrame, recon: pd.DataFrame, reference: Referen
         "partial": partial,
         "message": message,
     }
+
+
+#: The N2O apparent loss where the records and the purchases cover only part of each other.
+N2O_LOSS_NOT_ESTIMATED = "not estimated"
+#: Why it is not estimated, in the same words on the page and the command line.
+N2O_LOSS_WHY_NOT = (
+    "the records and the purchases cover only part of each other, so the gap between them is "
+    "mostly use or purchases the other does not hold; see the coverage by month and theatre"
+)
+
+
+@dataclass
+class PurchaseCheck:
+    """Purchases against a record audit: the one reconciliation the page and the command share.
+
+    Attributes
+    ----------
+    files : list of (str, int)
+        Each purchases file as the user named it, with its lines read (used and set aside).
+    table : DataFrame or None
+        The usable purchase lines of every file together (None without purchases).
+    notes : list of str
+        One message per purchase line set aside, naming its file, line and column.
+    recon : DataFrame or None
+        :func:`reconcile` of every file's purchases against the recorded use.
+    coverage : dict or None
+        :func:`record_coverage`: what the records cover, by month and theatre.
+    costs : DataFrame
+        :func:`cost_view`.
+    """
+
+    files: list
+    table: pd.DataFrame | None
+    notes: list
+    recon: pd.DataFrame | None
+    coverage: dict | None
+    costs: pd.DataFrame
+
+    def n2o_loss(self) -> tuple[str, str]:
+        """The N2O apparent loss as (figure, share) text, the same words on the page and the command line.
+
+        ("not estimated", "") where the records cover only part of what the purchases serve;
+        ("", "") where no N2O was bought or recorded.
+        """
+        if self.recon is None:
+            return "", ""
+        n2o = self.recon[(self.recon["item"] == "nitrous_oxide") & (self.recon["month"] == "all")]
+        if not len(n2o):
+            return "", ""
+        if self.coverage is not None and self.coverage["partial"]:
+            return N2O_LOSS_NOT_ESTIMATED, ""
+        r = n2o.iloc[0]
+        share = "" if pd.isna(r["unexplained_share"]) else f"{r['unexplained_share'] * 100:.0f} % of purchases"
+        return f"{float(r['apparent_loss']):,.0f} L", share
+
+    def n2o_loss_line(self) -> str:
+        """The N2O apparent loss in one line, with why when it is not estimated ("" without N2O)."""
+        figure, share = self.n2o_loss()
+        if not figure:
+            return ""
+        if figure == N2O_LOSS_NOT_ESTIMATED:
+            return f"N2O apparent loss: {N2O_LOSS_NOT_ESTIMATED} ({N2O_LOSS_WHY_NOT})"
+        return f"N2O apparent loss: {figure}" + (f" ({share})" if share else "")
+
+
+def check_purchases(files, result, reference: Reference = DEFAULT_REFERENCE) -> PurchaseCheck:
+    """Read every purchases file and reconcile them all together against a record audit.
+
+    Parameters
+    ----------
+    files : sequence of Source or path
+        Purchases files (:func:`model.io.purchases.load_purchases`); their lines are
+        reconciled together, each file named in its own messages.
+    result : AuditResult
+        The record audit (its use by month, its cases and costs).
+    reference : Reference
+
+    Raises
+    ------
+    InputError
+        A file that cannot be read at all (missing, wrong format), named as given.
+    """
+    from model.base.files import Source
+    from model.io.purchases import load_purchases
+
+    tables, notes, named = [], [], []
+    for f in files:
+        src = Source.of(f)
+        read = load_purchases(src, reference)
+        tables.append(read.table)
+        notes += read.messages
+        named.append((src.name, int(len(read.table) + len(read.messages))))
+    table = pd.concat(tables, ignore_index=True) if tables else None
+    recon = coverage = None
+    if table is not None:
+        recon = reconcile(table, result.use_by_month(), reference, result.gwp_source)
+        coverage = record_coverage(result.cases, recon, reference)
+    return PurchaseCheck(named, table, notes, recon, coverage, cost_view(table, result, reference))

@@ -86,7 +86,10 @@ def neutralise_frame(df: pd.DataFrame) -> pd.DataFrame:
     out.columns = [neutralise(str(c)) for c in out.columns]
     for col in out.columns:
         if out[col].dtype == object or pd.api.types.is_string_dtype(out[col]):
-            out[col] = out[col].map(neutralise)
+            # Cell by cell into an object column: ``Series.map`` would infer a dtype again and
+            # turn a column of whole numbers held as objects (3080) back into floats (3080.0).
+            values = [neutralise(v) if isinstance(v, str) else v for v in out[col]]
+            out[col] = pd.Series(values, index=out.index, dtype=object)
     return out
 
 

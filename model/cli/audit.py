@@ -3,13 +3,12 @@
 from __future__ import annotations
 
 import sys
-from typing import TYPE_CHECKING, NamedTuple
+from typing import TYPE_CHECKING
 
 from model.cli.common import CAUTION, print_json, print_table, refuse_infinite, shown_cell
 
 if TYPE_CHECKING:
-    import pandas as pd
-
+    from model.audit.reconcile import PurchaseCheck
     from model.audit.result import AuditResult
     from model.reference import Reference
 
@@ -51,7 +50,13 @@ def register(subparsers) -> None:
         "purchases. Rows with problems are set aside and reported, never fatal.",
     )
     p.add_argument("files", nargs="+", metavar="FILES", help="record files or globs (.csv, .parquet)")
-    p.add_argument("--purchases", metavar="FILE", help="purchases file (.csv or .parquet)")
+    p.add_argument(
+        "--purchases",
+        action="append",
+        default=[],
+        metavar="FILE",
+        help="purchases file (.csv or .parquet); give it again for more files, all reconciled together",
+    )
     p.add_argument("--json", action="store_true", help="machine-readable output")
     p.add_argument(
         "--gap-limit",
@@ -87,18 +92,6 @@ def register(subparsers) -> None:
     p.set_defaults(func=cmd_audit)
 
 
-class _Purchases(NamedTuple):
-    """Purchases read for the audit.
-
-    The reconciliation (None without ``--purchases``), the purchase lines set aside, and
-    the cost view by item.
-    """
-
-    recon: pd.DataFrame | None
-    notes: list
-    costs: pd.DataFrame
-
-
 def cmd_audit(args) -> int:
     """Run ``gas-ledger audit``: audit the records, reconcile with purchases, print or give JSON.
 
@@ -124,7 +117,7 @@ def cmd_audit(args) -> int:
     _write_totals(out, result)
     _write_breakdowns(out, result)
     if purchases.recon is not None:
-        _write_reconciliation(out, purchases.recon, purchases.notes, args.messages)
+        _write_reconciliation(out, purchases, args.messages)
     out.write(f"\nCost by item, whole period ({result.currency}; purchases priced with the same prices)\n")
     print_table(
         purchases.costs.to_dict("records"),
@@ -159,29 +152,33 @@ def _audit(args, reference: Reference) -> AuditResult:
             progress.clear()
 
 
-def _purchases(args, reference: Reference, result: AuditResult) -> _Purchases:
-    """The purchases file (if given) against the recorded use, and the cost view by item."""
-    from model.audit.reconcile import cost_view
+def _purchases(args, reference: Reference, result: AuditResult) -> PurchaseCheck:
+    """Every purchases file given, reconciled together against the recorded use (as the page does)."""
+    from model.audit.reconcile import check_purchases
 
-    recon, purchase_notes, bought_table = None, [], None
-    if args.purchases:
-        from model.audit.reconcile import reconcile
-        from model.io.purchases import load_purchases
-
-        bought = load_purchases(args.purchases, reference)
-        purchase_notes = bought.messages
-        recon = reconcile(bought.table, result.use_by_month(), reference, result.gwp_source)
-        bought_table = bought.table
-    return _Purchases(recon, purchase_notes, cost_view(bought_table, result, reference))
+    return check_purchases(args.purchases, result, reference)
 
 
-def _audit_json(result: AuditResult, purchases: _Purchases) -> dict:
+def _audit_json(result: AuditResult, purchases: PurchaseCheck) -> dict:
     """The JSON output: the audit, the cost view, the reconciliation, the cautions."""
     data = result.to_dict()
     data["cost_view"] = [{k: _num(v) for k, v in r.items()} for r in purchases.costs.to_dict("records")]
     if purchases.recon is not None:
         data["reconciliation"] = [{k: _num(v) for k, v in r.items()} for r in purchases.recon.to_dict("records")]
         data["purchase_lines_set_aside"] = purchases.notes
+        data["purchases_files"] = [{"file": n, "lines": rows} for n, rows in purchases.files]
+        cov = purchases.coverage
+        assert cov is not None  # every reconciliation has its coverage (check_purchases)
+        data["record_coverage"] = {
+            "message": cov["message"],
+            "partial": cov["partial"],
+            "months_bought": cov["months_bought"],
+            "months_with_records": cov["months_with_records"],
+            "theatres": cov["theatres"],
+            "by_month": [{k: _num(v) for k, v in r.items()} for r in cov["by_month"].to_dict("records")],
+        }
+        figure, share = purchases.n2o_loss()
+        data["n2o_apparent_loss"] = {"figure": figure, "share": share} if figure else None
     data["caution"] = CAUTION
     data["de_identification"] = DE_IDENTIFY
     return data
@@ -255,6 +252,7 @@ def _write_breakdowns(out, result: AuditResult) -> None:
             result.by(key).to_dict("records"),
             [key, "cases", "liquid_agent_ml", "co2e_total_kg", "cost_total", "mean_fgf_l_min", "high_flow_cases"],
             out,
+            result.currency,
         )
     out.write("\nBy theatre and month: time-weighted fresh gas flow and minutes in each flow band (Baker 1994)\n")
     print_table(
@@ -265,15 +263,32 @@ def _write_breakdowns(out, result: AuditResult) -> None:
     out.write(f"\nCO2 absorbent: {result.absorbent_note()}\n")
 
 
-def _write_reconciliation(out, recon: pd.DataFrame, purchase_notes: list, messages: int) -> None:
-    """Purchases against recorded use: lines set aside, the table, the N2O apparent loss."""
+def _write_reconciliation(out, purchases: PurchaseCheck, messages: int) -> None:
+    """Purchases against recorded use: files, coverage, lines set aside, the table, the N2O apparent loss."""
+    recon, purchase_notes, cov = purchases.recon, purchases.notes, purchases.coverage
+    assert recon is not None and cov is not None  # called only with a reconciliation
     out.write("\nPurchases against recorded use (unexplained = purchased - recorded)\n")
+    out.write(
+        "Purchases reconciled together: " + ", ".join(f"{n} ({rows:,} lines)" for n, rows in purchases.files) + "\n"
+    )
+    out.write(cov["message"] + "\n")
+    out.write("\nCoverage by month and theatre\n")
+    by_month = cov["by_month"].assign(
+        bought=lambda d: d["bought"].map({True: "yes", False: "no"}),
+        has_records=lambda d: d["has_records"].map({True: "yes", False: "no"}),
+    )
+    print_table(
+        by_month.rename(columns={"bought": "purchases", "has_records": "case records"}).to_dict("records"),
+        ["month", "cases", "theatres", "purchases", "case records"],
+        out,
+    )
     if purchase_notes:
         out.write(f"{len(purchase_notes)} purchase line(s) set aside; the others are used:\n")
         for m in purchase_notes[:messages]:
             out.write(f"  - {m}\n")
         if len(purchase_notes) > messages:
             out.write(f"  ... {len(purchase_notes) - messages} more (--messages N, or --json)\n")
+    out.write("\n")
     print_table(
         recon.to_dict("records"),
         [
@@ -288,13 +303,9 @@ def _write_reconciliation(out, recon: pd.DataFrame, purchase_notes: list, messag
         ],
         out,
     )
-    loss = recon[(recon["item"] == "nitrous_oxide") & (recon["month"] == "all")]
-    if len(loss):
-        r = loss.iloc[0]
-        share = (
-            "" if r["unexplained_share"] != r["unexplained_share"] else f" ({r['unexplained_share']:.0%} of purchases)"
-        )
-        out.write(f"N2O apparent loss: {r['apparent_loss']:,.0f} L{share}\n")
+    line = purchases.n2o_loss_line()
+    if line:
+        out.write(line + "\n")
 
 
 def _num(v):

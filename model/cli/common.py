@@ -77,13 +77,18 @@ class _Parser(argparse.ArgumentParser):
         self.exit(EXIT_INPUT, f"gas-ledger: {message} (see 'gas-ledger --help')\n")
 
 
-def _fmt(value, digits=2):
+def _fmt(value, digits=2, money=False):
     if value is None or (isinstance(value, float) and value != value):
         return "-"  # None or NaN: no figure (e.g. the mean flow of a case with no minutes)
+    if isinstance(value, bool):
+        return "yes" if value else "no"
     if isinstance(value, float):
+        if value.is_integer() and not money:
+            return f"{int(value):,}"  # a count held as a float: "1,502", not "1,502.00"
         if value != 0 and abs(value) < 10**-digits:
             return f"{value:.2g}"  # small shares (e.g. 0.0002) would print as 0.00
-        return f"{value:,.{digits}f}"
+        text = f"{value:,.{digits}f}"
+        return text[1:] if text.startswith("-") and not text.strip("-0.,") else text  # no "-0.00"
     return str(value)
 
 
@@ -104,13 +109,26 @@ def refuse_infinite(data, what: str = "results") -> None:
         )
 
 
-def print_table(rows, columns, out=None):
-    """Print rows (dicts) as a plain aligned text table (refused if a figure is infinite)."""
+def print_table(rows, columns, out=None, currency: str = ""):
+    """Print rows (dicts) as a plain aligned text table, headed in words (``column_label``).
+
+    Shares are shown in per cent, as their headings say; ``currency`` labels cost headings.
+    Refused if a figure is infinite; characters a terminal would act on are shown escaped.
+    """
+    from model.present.readable import column_label, is_money, is_share
+
     refuse_infinite(rows)
     out = out or sys.stdout  # looked up at call time, so redirected output is honoured
-    cells = [[shown_cell(_fmt(r.get(c))) for c in columns] for r in rows]
-    widths = [max([len(c)] + [len(row[i]) for row in cells]) for i, c in enumerate(columns)]
-    out.write("  ".join(c.ljust(w) for c, w in zip(columns, widths, strict=True)).rstrip() + "\n")
+
+    def cell(value, column):
+        if is_share(column) and isinstance(value, (int, float)) and not isinstance(value, bool):
+            value = float(value) * 100.0
+        return shown_cell(_fmt(value, money=is_money(column)))
+
+    cells = [[cell(r.get(c), c) for c in columns] for r in rows]
+    heads = [column_label(c, currency) for c in columns]
+    widths = [max([len(h)] + [len(row[i]) for row in cells]) for i, h in enumerate(heads)]
+    out.write("  ".join(h.ljust(w) for h, w in zip(heads, widths, strict=True)).rstrip() + "\n")
     out.write("  ".join("-" * w for w in widths) + "\n")
     for row in cells:
         out.write("  ".join(v.ljust(w) for v, w in zip(row, widths, strict=True)).rstrip() + "\n")

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import sys
+from pathlib import Path
 
 from model.cli.common import CAUTION, print_json, print_table, refuse_infinite
 
@@ -64,8 +65,6 @@ def register(subparsers) -> None:
 
 def cmd_report(args) -> int:
     """The ``report`` command: the emissions report of a period from case records; the exit code."""
-    from pathlib import Path
-
     import pandas as pd
 
     from model.audit.engine import audit_records
@@ -117,16 +116,21 @@ def cmd_report(args) -> int:
         )
     # Nothing is written when a figure is infinite (the same guard as printed output).
     refuse_infinite(report.to_dict(), "report")
+    if args.xlsx or args.html:
+        lines = [len(r.table) + len(r.messages) for r in read] if args.purchases else []
+        prov = _provenance(args, report, result, lines)
     if args.xlsx:
         from model.present.report_document import report_xlsx
 
-        Path(args.xlsx).write_bytes(report_xlsx(report))
+        Path(args.xlsx).write_bytes(report_xlsx(report, provenance=prov))
     if args.html:
         # The page's figure builders (plotly is imported only when an HTML file is asked for).
         from model.present.report_charts import report_figures
         from model.present.report_document import report_html
 
-        Path(args.html).write_text(report_html(report, list(report_figures(report).items())), encoding="utf-8")
+        Path(args.html).write_text(
+            report_html(report, list(report_figures(report).items()), provenance=prov), encoding="utf-8"
+        )
     if args.json:
         data = report.to_dict()
         data["records"] = result.report.summary()
@@ -138,6 +142,35 @@ def cmd_report(args) -> int:
         # What could be worked out is printed above; the first problem is the one-line error.
         raise report.problems[0]
     return 0
+
+
+def cli_prices_text(reference) -> str:
+    """Where the command's prices come from: a settings file's values over the built-in examples."""
+    if reference.override_origins:
+        return (
+            f"your values from the settings file {', '.join(reference.override_origins)} where it gives them; "
+            "built-in invented example prices for the rest"
+        )
+    return "built-in invented example prices"
+
+
+def _provenance(args, report, result, purchase_lines):
+    """The provenance block of the files ``gas-ledger report`` writes (the page's, from the same function)."""
+    import os
+
+    from model.present.provenance import input_file
+    from model.present.report_document import report_provenance
+
+    rep = result.report
+    rows = rep.file_rows if len(rep.file_rows) == len(rep.files) else [None] * len(rep.files)
+    files = [input_file("case records", name, Path(name), n) for name, n in zip(rep.files, rows, strict=True)]
+    files += [input_file("purchases", f, Path(f), n) for f, n in zip(args.purchases, purchase_lines, strict=True)]
+    if args.sites:
+        files.append(input_file("sites", args.sites, Path(args.sites)))
+    settings_file = args.settings or os.environ.get("GAS_LEDGER_SETTINGS")
+    if settings_file:
+        files.append(input_file("settings", settings_file, Path(settings_file)))
+    return report_provenance(report, files, cli_prices_text(report.reference))
 
 
 def _print(report, result, out) -> None:

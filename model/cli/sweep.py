@@ -52,6 +52,7 @@ def cmd_sweep(args) -> int:
             "O2 safe",
             "target held",
         ],
+        currency=result.currency,
     )
     print()
 

@@ -95,7 +95,7 @@ def cmd_year(args) -> int:
         row["cost_total"] = f"{r['cost_total']:,.0f}"
         row["co2e_total_t"] = f"{r['co2e_total_t']:.2f}"
         month_rows.append(row)
-    print_table(month_rows, ["month", *used, "cost_total", "co2e_total_t"], sys.stdout)
+    print_table(month_rows, ["month", *used, "cost_total", "co2e_total_t"], sys.stdout, result.currency)
     _tail(result.warnings, result.notes)
     return 0
 

@@ -55,6 +55,9 @@ class ReadSummary:
     )
     notes: list[str] = field(default_factory=list)
     gap_limit_min: float = DEFAULT_GAP_LIMIT_MIN
+    #: Rows of each file, in the order of ``files`` (Parquet: from its footer; CSV: lines
+    #: read, set-aside ones included).
+    file_rows: list[int] = field(default_factory=list)
 
     @property
     def rows_set_aside(self) -> int:
@@ -65,6 +68,7 @@ class ReadSummary:
         """Plain-dict form with stable keys (for JSON)."""
         return {
             "files": list(self.files),
+            "file_rows": [int(n) for n in self.file_rows],
             "rows_read": int(self.rows_read),
             "rows_valid": int(self.rows_valid),
             "rows_set_aside": self.rows_set_aside,

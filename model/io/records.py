@@ -320,6 +320,7 @@ def read_records(
     #: Each file's ``prepared`` query and row count, and the agent names as read.
     recs.file_sql, recs.file_rows, recs.agent_map = (per_file["file_sql"], per_file["file_rows"], per_file["agent_map"])
     recs.csv_groups, recs.raw_sql = per_file["groups"], per_file["raw_sql"]
+    recs.report.file_rows = list(recs.file_rows)
     recs.report.issues = pd.DataFrame(rej_rows, columns=["file", "row", "kind", "column", "value", "message"])
     recs._rejected = len(rej_rows)
     recs._max_messages = max_messages

@@ -10,6 +10,7 @@ piece of text and carries plotly's JavaScript inline (nothing is fetched when it
 
 from __future__ import annotations
 
+import csv
 import html
 import io
 import math
@@ -25,16 +26,30 @@ from model.base.cells import NEUTRAL_PREFIX as NEUTRAL_PREFIX
 from model.base.cells import csv_text, workbook_text
 from model.base.cells import neutralise as neutralise
 from model.base.cells import neutralise_frame as neutralise_frame
+from model.present.provenance import HEADING, LOWEST_O2_ROW, Provenance, time_text
 from model.present.readable import column_label, is_money, number_text, readable_frame
 
 
-def to_csv(df: pd.DataFrame) -> bytes:
+def to_csv(df: pd.DataFrame, provenance: Provenance | None = None) -> bytes:
     """One table as CSV (UTF-8, RFC 4180 line ends), formula cells neutralised.
 
     CRLF line ends make the writer quote any field holding a carriage return or newline;
-    :func:`model.base.cells.csv_text` is the one neutralising writer.
+    :func:`model.base.cells.csv_text` is the one neutralising writer, and an infinite figure
+    is an empty cell (:func:`finite_or_empty`).
+    With ``provenance`` the file opens with its block (:mod:`model.present.provenance`):
+    one line per row, each beginning with ``#`` (a comment to readers such as
+    ``pandas.read_csv(..., comment="#")``), then a blank line, then the table.
     """
-    return csv_text(finite_or_empty(df)).encode("utf-8")
+    table = csv_text(_whole_numbers(finite_or_empty(df)))
+    if provenance is None:
+        return table.encode("utf-8")
+    buf = io.StringIO()
+    writer = csv.writer(buf, lineterminator="\r\n")
+    writer.writerow([f"# {HEADING}", neutralise(provenance.what)])
+    for name, value in provenance.rows():
+        writer.writerow([f"# {name}", neutralise(value)])
+    buf.write("\r\n")
+    return (buf.getvalue() + table).encode("utf-8")
 
 
 def finite_or_empty(df: pd.DataFrame) -> pd.DataFrame:
@@ -52,11 +67,29 @@ def finite_or_empty(df: pd.DataFrame) -> pd.DataFrame:
     return out
 
 
+def _whole_numbers(df: pd.DataFrame) -> pd.DataFrame:
+    """Whole-number floats of a table as integers ("3080", not "3080.0"); other figures unchanged."""
+    out = df.copy()
+    for col in out.columns:
+        s = out[col]
+        if pd.api.types.is_float_dtype(s):
+            whole = s.notna() & np.isfinite(s.to_numpy(dtype=float, na_value=np.nan)) & (s == s.round())
+            if whole.any() and not is_money(col):
+                values = [int(v) if w and abs(v) < 2**53 else v for v, w in zip(s, whole, strict=True)]
+                out[col] = pd.Series(values, index=s.index, dtype=object)
+    return out
+
+
 _SHEET_BAD = re.compile(r"[\[\]:*?/\\]")
 
 
 def _sheet_title(name: str, used: set) -> str:
-    title = _SHEET_BAD.sub(" ", workbook_text(str(name))).strip("' ")[:31] or "Sheet"
+    """A sheet name Excel takes (31 characters at most, no reserved character), cut between words, never repeated."""
+    title = re.sub(r"\s+", " ", _SHEET_BAD.sub(" ", workbook_text(str(name)))).strip("' ") or "Sheet"
+    if len(title) > 31:
+        cut = title[:31] if title[31] == " " else title[:31].rsplit(" ", 1)[0]
+        cut = cut.rstrip(" ,;:-")
+        title = cut if len(cut) >= 12 else title[:31]
     base, n = title, 2
     while title.lower() in used:
         suffix = f" ({n})"
@@ -87,10 +120,15 @@ def _cell(value):
     return workbook_text(str(value))
 
 
-def to_xlsx(sheets: Mapping[str, pd.DataFrame], notes: Sequence[str] = ()) -> bytes:
+def to_xlsx(
+    sheets: Mapping[str, pd.DataFrame], notes: Sequence[str] = (), provenance: Provenance | None = None
+) -> bytes:
     """Several tables as one Excel workbook, one sheet each, plus an optional notes sheet.
 
-    Text cells are neutralised and typed as text; numbers are written as numbers.
+    Text cells are neutralised and typed as text; numbers are written as numbers. With
+    ``provenance`` the first sheet is its block ("About this file": safety and lowest
+    predicted inspired O2 first, then program, time, input files, prices, GWP source,
+    settings).
     """
     from openpyxl import Workbook
     from openpyxl.styles import Font
@@ -98,6 +136,8 @@ def to_xlsx(sheets: Mapping[str, pd.DataFrame], notes: Sequence[str] = ()) -> by
     wb = Workbook()
     wb.remove(wb.active)
     used: set = set()
+    if provenance is not None:
+        sheets = {HEADING: provenance.frame(), **{k: v for k, v in sheets.items() if k != HEADING}}
     for name, df in sheets.items():
         ws = wb.create_sheet(_sheet_title(name, used))
         ws.append([_cell(str(c)) for c in df.columns])
@@ -146,6 +186,11 @@ h2{break-after:avoid}}
 .headline{font-size:1.15rem;font-weight:600;background:#eef3f5;border-left:4px solid #2f6f8f;
 padding:.6rem 1rem}
 .warning{background:#fdecea;border-left:4px solid #c62828;padding:.4rem 1rem;margin:.3rem 0}
+.warning-mid{background:#fff8e1;border-left:4px solid #f0a500;padding:.4rem 1rem;margin:.3rem 0}
+.note{background:#f3f5f7;border-left:4px solid #78909c;padding:.4rem 1rem;margin:.3rem 0}
+.safety{margin:.4rem 0}.safety.unsafe{background:#fdecea;color:#8e0000;padding:.4rem 1rem}
+table.about th{width:14rem}tr.unsafe td,tr.unsafe th{background:#fdecea;color:#8e0000;font-weight:600}
+table.about td{overflow-wrap:anywhere}
 """
 
 
@@ -204,6 +249,20 @@ def _report_figure(fig):
     return out
 
 
+def _provenance_html(provenance: Provenance) -> str:
+    """The provenance block as a small two-column table (its safety row marked when unsafe)."""
+    e = html.escape
+    rows = []
+    for name, value in provenance.rows():
+        mark = " class='unsafe'" if name == "safety" and value.startswith("UNSAFE") else ""
+        rows.append(f"<tr{mark}><th scope='row'>{e(name)}</th><td>{e(value)}</td></tr>")
+    return (
+        f"<section id='provenance'><h2>{e(HEADING)}</h2><div class='table-wrap'><table class='about'>"
+        + "".join(rows)
+        + "</table></div></section>"
+    )
+
+
 def html_export(
     title: str,
     *,
@@ -219,8 +278,13 @@ def html_export(
     sections: Mapping[str, Sequence[str]] | None = None,
     figures_first: bool = False,
     currency: str = "",
+    provenance: Provenance | None = None,
 ) -> str:
-    """A self-contained HTML report: inputs, tables, charts, warnings, cautions, sources.
+    """A self-contained HTML report: headline, hazards, figures, then cautions, notes, inputs, sources.
+
+    The figures come before the long parts: the standing caution and the hazards (each group
+    of identical cautions in one box) above them; cautions of the middle severity, labelling
+    notes, further notes, the inputs and the provenance block after them.
 
     Parameters
     ----------
@@ -258,19 +322,29 @@ def html_export(
         f"<meta name='viewport' content='width=device-width, initial-scale=1'>"
         f"<title>{e(str(title))}</title><style>{_CSS}</style></head><body>",
         f"<h1>{e(str(title))}</h1>",
-        f"<p class='meta'>{e(generated_by)}, {datetime.now(UTC):%Y-%m-%d %H:%M} UTC</p>",
     ]
+    if provenance is None:
+        parts.append(f"<p class='meta'>{e(generated_by)}, {time_text(datetime.now(UTC))}</p>")
     if headline:
         parts.append(f"<p class='headline' id='headline'>{e(str(headline))}</p>")
+    if provenance is not None:
+        rows = dict(provenance.rows()[:2])
+        mark = " unsafe" if provenance.safety.startswith("UNSAFE") else ""
+        parts.append(
+            f"<p class='safety{mark}' id='safety'><strong>Safety:</strong> {e(provenance.safety)}. "
+            f"<strong>Lowest predicted inspired O2:</strong> {e(rows[LOWEST_O2_ROW])}.</p>"
+        )
     parts.extend(f"<p>{e(str(p))}</p>" for p in summary)
-    for c in cautions:
-        parts.append(f"<div class='caution'>{e(str(c))}</div>")
-    if warnings:
-        parts.append("<h2>Warnings</h2>")
-        parts.extend(f"<div class='warning'>{e(str(w))}</div>" for w in warnings)
-    if inputs:
-        parts.append("<h2>Inputs</h2>")
-        parts.append(_table_html(pd.DataFrame({"input": list(inputs), "value": [str(v) for v in inputs.values()]})))
+    # The standing caution first; hazards next, each group in one red box; the figures follow,
+    # and the cautions of the middle severity, labelling notes and other notes after them.
+    cautions = list(cautions)
+    if cautions:
+        parts.append(f"<div class='caution'>{e(str(cautions[0]))}</div>")
+    hazards = [w for w in warnings if str(w).upper().startswith("HAZARD")]
+    rest = [w for w in warnings if not str(w).upper().startswith("HAZARD")]
+    if hazards:
+        parts.append("<h2>Hazards</h2>")
+        parts.extend(f"<div class='warning'>{e(str(w))}</div>" for w in hazards)
     table_parts = []
     for heading, df in (tables or {}).items():
         table_parts.append(f"<h2>{e(str(heading))}</h2>")
@@ -293,11 +367,25 @@ def html_export(
         )
         first = False
     parts.extend(figure_parts + table_parts if figures_first else table_parts + figure_parts)
+    if rest:
+        parts.append("<h2>Cautions and labelling notes</h2>")
+        parts.extend(
+            f"<div class='{'note' if str(w).upper().startswith('LABELLING') else 'warning-mid'}'>{e(str(w))}</div>"
+            for w in rest
+        )
+    if len(cautions) > 1:
+        parts.append("<h2>Notes and cautions</h2>")
+        parts.append("<ul>" + "".join(f"<li>{e(str(c))}</li>" for c in cautions[1:]) + "</ul>")
+    if inputs:
+        parts.append("<h2>Inputs</h2>")
+        parts.append(_table_html(pd.DataFrame({"input": list(inputs), "value": [str(v) for v in inputs.values()]})))
     for heading, paragraphs in (sections or {}).items():
         parts.append(f"<h2>{e(str(heading))}</h2>")
         parts.append("<ul>" + "".join(f"<li>{e(str(p))}</li>" for p in paragraphs) + "</ul>")
     if sources is not None and len(sources):
         parts.append("<h2>Reference values and their sources</h2>")
         parts.append(_table_html(sources))
+    if provenance is not None:
+        parts.append(_provenance_html(provenance))
     parts.append("</body></html>")
     return "\n".join(parts)

@@ -323,6 +323,11 @@ def number_text(value, money: bool = False) -> str:
     return text or "0"
 
 
+def is_share(column) -> bool:
+    """Whether a column holds a share (a fraction of 1) that people read as per cent."""
+    return str(column) in _PERCENT_SHARES
+
+
 def is_money(column) -> bool:
     """Whether a column name is a money figure (shown with two decimals)."""
     return bool(_MONEY.match(str(column)))
@@ -369,7 +374,112 @@ def readable_frame(df: pd.DataFrame, currency: str = "", *, rename: bool = True)
             s = s.map(lambda u: "°C" if u == "degC" else u)
         elif str(col) in ("item", "agent") and (pd.api.types.is_object_dtype(s) or pd.api.types.is_string_dtype(s)):
             s = s.map(lambda v: v.replace("_", " ") if isinstance(v, str) and re.fullmatch(r"[a-z_]+", v) else v)
+        if (pd.api.types.is_object_dtype(s) or pd.api.types.is_string_dtype(s)) and s.isna().any():
+            # No "None" or "nan" cell in a text column: a missing value is left blank.
+            s = s.astype(object).where(s.notna(), "")
         out[col] = s
     if rename:
         out.columns = [column_label(c, currency) for c in out.columns]
     return out
+
+
+def signed_text(value, money: bool = False, digits: int | None = None) -> str:
+    """A change with its sign, for people: "+1.2", "-17,172", and "0" (never "+0.00" or "-0").
+
+    ``digits`` fixes the decimals (default: :func:`decimals`); a change that rounds to zero
+    at those decimals is "0", with no sign.
+    """
+    v = float(value)
+    if not math.isfinite(v):
+        return ""
+    d = decimals(v, money) if digits is None else digits
+    if money and abs(v) >= 1000:
+        d = 0
+    text = f"{abs(v):,.{d}f}"
+    if not text.strip("0.,"):
+        return "0"
+    return ("+" if v > 0 else "-") + text
+
+
+def money_text(amount, currency: str, signed: bool = False) -> str:
+    """An amount of money for people: two decimals under 1,000 ("512.40 GBP"), whole from it ("17,172 GBP").
+
+    With ``signed`` the amount carries its sign ("+12.50 GBP", "-17,172 GBP"); no "-0.00".
+    """
+    v = float(amount)
+    if signed:
+        return f"{signed_text(v, money=True)} {currency}".strip()
+    d = 0 if abs(v) >= 1000 else 2
+    text = f"{v:,.{d}f}"
+    if text.startswith("-") and not text.strip("-0.,"):
+        text = text[1:]
+    return f"{text} {currency}".strip()
+
+
+def percent_change_text(new, old) -> str:
+    """The change from ``old`` to ``new`` in per cent, for people: "+12 %", "-3 %", "0 %"; "" when ``old`` is 0."""
+    if abs(float(old)) < 1e-12:
+        return ""
+    pct = (float(new) - float(old)) / float(old) * 100.0
+    text = signed_text(pct, digits=0)
+    return f"{text} %"
+
+
+def when_text(iso: str) -> str:
+    """A stored time ("2026-12-04T21:30:05+00:00") for people: "4 Dec 2026, 21:30 UTC"."""
+    from datetime import UTC, datetime
+
+    try:
+        when = datetime.fromisoformat(str(iso))
+    except ValueError:
+        return str(iso)
+    when = when.astimezone(UTC) if when.tzinfo else when.replace(tzinfo=UTC)
+    return f"{when.day} {when:%b %Y, %H:%M} UTC"
+
+
+#: File keys and table columns as the pages name them (messages on a page use these words).
+FIELD_WORDS: Mapping[str, str] = {
+    "cases_per_year": "cases / year",
+    "median_duration": "median min",
+    "duration_spread": "spread",
+    "n2o_share": "N2O share",
+    "case_type": "case type",
+    "inspired_o2_floor": "inspired O2 floor",
+    "sevoflurane_min_flow_l_min": "sevoflurane minimum flow",
+    "sevoflurane_min_flow_long_l_min": "sevoflurane minimum flow beyond 1 MAC-hour",
+    "capture_efficiency": "capture of exhaled agent",
+    "temperature_c": "room temperature",
+    "weight_kg": "weight",
+    "age_years": "age",
+    "target": "end-tidal target",
+    "dial": "dial setting",
+    "o2": "O2 flow",
+    "air": "air flow",
+    "n2o": "N2O flow",
+    "minutes": "duration",
+    "gwp_source": "GWP source",
+}
+_PHASE_KEY = re.compile(r"\bphases\[(\d+)\]\.?([a-z_0-9/]*)")
+_DOTTED = re.compile(r"\b(?:settings|patient|practice|uncertainty)\.([a-z_0-9]+)")
+
+
+def _field(key: str) -> str:
+    if key in FIELD_WORDS:
+        return FIELD_WORDS[key]
+    return column_label(key) if "_" in key else key
+
+
+def field_words(message: str) -> str:
+    """A message with the program's field names in the words the page shows.
+
+    "phases[2].target: ..." -> "phase 2, end-tidal target: ...";
+    "settings.inspired_o2_floor: ..." -> "inspired O2 floor: ..."; a table column such as
+    ``cases_per_year`` -> "cases a year". Values quoted in the message are left as typed.
+    """
+    text = str(message)
+    text = _PHASE_KEY.sub(lambda m: f"phase {m.group(1)}" + (f", {_field(m.group(2))}" if m.group(2) else ""), text)
+    text = _DOTTED.sub(lambda m: _field(m.group(1)), text)
+    for key in sorted(FIELD_WORDS, key=len, reverse=True):
+        if "_" in key:
+            text = re.sub(rf"(?<![\w'])({re.escape(key)})(?=:)", FIELD_WORDS[key], text)
+    return text

@@ -7,7 +7,37 @@ from collections.abc import Iterable
 import pandas as pd
 
 from model.present.exports import html_export, to_xlsx
+from model.present.provenance import InputFile, Provenance, provenance
 from model.report.report import EmissionsReport
+
+
+def report_provenance(
+    report: EmissionsReport, files: Iterable[InputFile], prices: str, settings: dict | None = None
+) -> Provenance:
+    """The provenance block of the report's files (the page's downloads and ``gas-ledger report``).
+
+    Parameters
+    ----------
+    report : EmissionsReport
+    files : iterable of InputFile
+        The record, purchases and site files as the user named them.
+    prices : str
+        The prices in use and where they come from.
+    settings : dict, optional
+        Further settings (e.g. the room temperature); the report's own choices
+        (:func:`report_inputs`) follow them.
+    """
+    gwp = report.gwp_label
+    if report.baseline is not None and report.baseline.gwp_source != report.period.gwp_source:
+        gwp += f" (baseline: {report.reference.gwp_source(report.baseline.gwp_source).label})"
+    return provenance(
+        report.title,
+        unsafe=None,
+        files=files,
+        prices=prices,
+        gwp_source=gwp,
+        settings={"currency": report.reference.prices.currency, **(settings or {}), **report_inputs(report)},
+    )
 
 
 def report_inputs(report: EmissionsReport) -> dict:
@@ -44,6 +74,7 @@ def report_html(
     figures: Iterable[tuple[str, object]] = (),
     cautions: Iterable[str] = (),
     sources: pd.DataFrame | None = None,
+    provenance: Provenance | None = None,
 ) -> str:
     """The self-contained HTML report: headline, what drove the change, tables, charts, method, cautions.
 
@@ -57,6 +88,8 @@ def report_html(
         Standing cautions shown first (the report's own cautions follow).
     sources : DataFrame, optional
         The reference table with sources.
+    provenance : Provenance, optional
+        What made the file (:func:`report_provenance`).
     """
     summary = [s for _, s in report.sentences()]
     if report.target is not None:
@@ -74,10 +107,12 @@ def report_html(
         summary=summary,
         sections={"Method statement": report.method_statement()},
         figures_first=True,
+        provenance=provenance,
+        currency=report.reference.prices.currency,
     )
 
 
-def report_xlsx(report: EmissionsReport, cautions: Iterable[str] = ()) -> bytes:
-    """The Excel workbook: every table one sheet, and a notes sheet (headline, sentences, method, cautions)."""
+def report_xlsx(report: EmissionsReport, cautions: Iterable[str] = (), provenance: Provenance | None = None) -> bytes:
+    """The Excel workbook: what made it, every table one sheet, a notes sheet (headline, method, cautions)."""
     notes = list(dict.fromkeys([*cautions, *report.notes()]))
-    return to_xlsx(report.tables(), notes=notes)
+    return to_xlsx(report.tables(), notes=notes, provenance=provenance)

@@ -114,8 +114,48 @@ class EmissionsReport:
         """The label of the period's GWP source."""
         return self.reference.gwp_source(self.period.gwp_source).label
 
+    @property
+    def mixes_gwp_sources(self) -> bool:
+        """Whether the baseline is under another GWP source than the period."""
+        return self.baseline is not None and self.baseline.gwp_source != self.period.gwp_source
+
+    def like_for_like_baseline_t(self) -> float | None:
+        """The baseline's CO2e under the period's GWP source, in tonnes (None without a baseline).
+
+        Set against the period, it gives the like-for-like change: what changed in practice,
+        with the GWP values held the same.
+        """
+        if self.baseline is None:
+            return None
+        b = self.baseline
+        return float(b.figures["co2e_t"].get(self.period.gwp_source, b.co2e_t))
+
+    def source_effect_t(self) -> float:
+        """The part of the change as given that is the change of GWP source alone [t CO2e].
+
+        Baseline under the period's source less the baseline under its own source, so that
+        like-for-like change + source effect = the change between the two figures as given
+        (at the annual rate when the periods differ in length). 0 when the sources are the same.
+        """
+        like = self.like_for_like_baseline_t()
+        if like is None or not self.mixes_gwp_sources:
+            return 0.0
+        assert self.baseline is not None
+        gap = self.baseline.co2e_t - like
+        if not self._same_length():
+            gap = annual_rate_t(gap * 1000.0, self.baseline.period)
+        return float(-gap)
+
+    def _same_length(self) -> bool:
+        assert self.baseline is not None
+        return abs(self.period.period.months - self.baseline.period.months) < 1e-9
+
     def headline(self) -> str:
-        """One sentence: the period's tonnes, against the baseline and the target."""
+        """One sentence: the period's tonnes, against the baseline and the target.
+
+        When the baseline is under another GWP source, the change stated first is like for
+        like (the baseline under the period's source), and the effect of the source beside it.
+        """
         p = self.period
         text = (
             f"Scope 1 anaesthetic emissions, {p.period.label}: {p.co2e_t:,.1f} t CO2e ({self.gwp_label}, "
@@ -123,32 +163,39 @@ class EmissionsReport:
         )
         if self.baseline is not None:
             b = self.baseline
-            same_length = p.period.months == b.period.months or abs(p.period.months - b.period.months) < 1e-9
-            now_t, then_t = (p.co2e_t, b.co2e_t) if same_length else (p.annual_t, b.annual_t)
+            like = self.like_for_like_baseline_t()
+            assert like is not None
+            same = self._same_length()
+            now, then = (p.co2e_t, like) if same else (p.annual_t, annual_rate_t(like * 1000.0, b.period))
             with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-                change = now_t / then_t - 1.0 if then_t > 0 else math.nan
+                change = now / then - 1.0 if then > 0 else math.nan
+            word = "down" if change < 0 else "up"
+            pct = f"{abs(change) * 100:.0f} %" if math.isfinite(change) else ""
+            rate = "" if same else " a year"
+            if not same:
+                text += f", {now:,.1f} t a year"
             if not math.isfinite(change):
                 # No percentage of nothing (or of next to nothing): say why instead of "up nan %".
                 why = (
                     "no anaesthetic hours"
                     if not b.figures["hours"] > 0
                     else "no emissions"
-                    if not then_t > 0
+                    if not then > 0
                     else "emissions too small to compare with"
                 )
+                text += f"; the change on {b.period.label} cannot be given as a percentage: the baseline has {why}"
+            elif self.mixes_gwp_sources:
+                own = b.co2e_t if same else b.annual_t
+                effect = self.source_effect_t()
                 text += (
-                    f"{'' if same_length else f', {p.annual_t:,.1f} t a year'}; the change on {b.period.label} "
-                    f"cannot be given as a percentage: the baseline has {why}"
+                    f"{':' if not same else ','} {word} {pct} on {b.period.label} like for like "
+                    f"({then:,.1f} t{rate}, both under "
+                    f"{self.gwp_label}); beside it, the change of GWP source from the baseline's "
+                    f"{self.reference.gwp_source(b.gwp_source).label} ({own:,.1f} t{rate}) "
+                    f"{'adds' if effect >= 0 else 'takes off'} {abs(effect):,.1f} t{rate}"
                 )
-            elif same_length:
-                word = "down" if change < 0 else "up"
-                text += f", {word} {abs(change):.0%} on {b.period.label} ({b.co2e_t:,.1f} t)"
             else:
-                word = "down" if change < 0 else "up"
-                text += (
-                    f", {p.annual_t:,.1f} t a year: {word} {abs(change):.0%} on {b.period.label} "
-                    f"({b.annual_t:,.1f} t a year)"
-                )
+                text += f"{':' if not same else ','} {word} {pct} on {b.period.label} ({then:,.1f} t{rate})"
         if self.target is not None:
             text += "; " + ("on track" if self.target.on_track else "not on track") + f" for {self.target.target.label}"
         return text + "."

@@ -28,6 +28,13 @@ from model.year.sampling import (
 )
 from model.year.simulate import _EMIT, _LIQ, _Q, GASES, YearInputs, _year_inputs_many, year_inputs
 
+#: How a year counts bottles (shown beside the figures and in every year's notes).
+BOTTLES_COUNTED = (
+    "Bottles are counted as opened: each month opens the whole bottles its liquid needs beyond what "
+    "is left in the bottle opened before, so a part-used bottle is carried into the next month and "
+    "the year's bottles are its liquid in whole bottles, rounded up once; agent cost is those bottles."
+)
+
 
 def _label(agent: str) -> str:
     return DEFAULT_REFERENCE.agents[agent].label
@@ -97,6 +104,11 @@ class YearResult:
         return self.inputs.warnings
 
     @property
+    def lowest_inspired_o2_pct(self) -> float:
+        """Lowest predicted inspired O2 of any of the year's case types, as simulated [%]."""
+        return self.inputs.lowest_inspired_o2_pct
+
+    @property
     def unsafe(self) -> bool:
         """Whether the practice of this year is unsafe as written.
 
@@ -130,6 +142,7 @@ class YearResult:
             "warnings": list(self.warnings),
             "warnings_by_severity": cautions_as_records(self.warnings),
             "unsafe": self.unsafe,
+            "lowest_inspired_o2_pct": to_json_value(self.lowest_inspired_o2_pct),
             "notes": list(self.notes),
             "caution": STANDING_CAUTION,
         }
@@ -226,7 +239,7 @@ def _notes(inp: YearInputs, scenario: Scenario) -> list[str]:
         "the maintenance minutes (within 1 % of direct simulation) and summed over the year with the "
         f"exact mean; the sampled year minutes carry at least {inp.variance_explained * 100:.1f} % of "
         "each sub-plan's per-case variance.",
-        "Agent cost is whole bottles bought per month (rounded up); gases and absorbent pro rata.",
+        BOTTLES_COUNTED + " Gases and absorbent are priced pro rata.",
         f"Equivalence: {scenario.car_kg_per_km:g} kg CO2e per km by an average car ({scenario.car_source}).",
     ]
     if scenario.practice.changes_anything:

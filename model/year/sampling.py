@@ -94,6 +94,34 @@ def triangular_ppf(u, low, mode, high):
     return np.where(u < fc, left, right)
 
 
+def bottles_opened(monthly_liquid_ml, bottle_ml) -> np.ndarray:
+    """Bottles opened each month when a part-used bottle is carried into the next month.
+
+    Parameters
+    ----------
+    monthly_liquid_ml : array_like, shape (..., 12, A)
+        Liquid agent used each month, per agent. [mL]
+    bottle_ml : array_like, shape (A,)
+        Volume of one bottle of each agent. [mL]
+
+    Returns
+    -------
+    ndarray, shape (..., 12, A)
+        Whole bottles opened in each month: the bottles needed by the end of the month for
+        all the liquid used so far, less those opened before. The year's total is the year's
+        liquid in whole bottles, ceil(sum / bottle), however the use falls across months.
+
+    Notes
+    -----
+    A bottle opened in one month and finished in the next is bought once, in the month it
+    is opened (common practice, no source: an opened bottle stays on the vaporizer's shelf
+    until used). A month's liquid within 1e-9 bottles of a whole number counts as that number.
+    """
+    used = np.cumsum(np.asarray(monthly_liquid_ml, dtype=float), axis=-2) / np.asarray(bottle_ml, dtype=float)
+    needed = np.maximum(np.ceil(used - _BOTTLE_SLACK), 0.0)
+    return np.diff(needed, axis=-2, prepend=0.0)
+
+
 def _simulate(
     inp: YearInputs, z: np.ndarray, adherence: np.ndarray, price_factor: np.ndarray, gwp_index: np.ndarray
 ) -> tuple[dict, dict]:
@@ -112,7 +140,7 @@ def _simulate(
     w = inp.month_weights
     liquid = q[:, _LIQ]  # (D, A)
     monthly_liquid = liquid[:, None, :] * w[None, :, None]  # (D, 12, A)
-    monthly_bottles = np.maximum(np.ceil(monthly_liquid / inp.bottle_ml - _BOTTLE_SLACK), 0.0)
+    monthly_bottles = bottles_opened(monthly_liquid, inp.bottle_ml)
     bottles = monthly_bottles.sum(axis=1)  # (D, A)
     price = inp.prices * price_factor  # (D, P)
     n_a = len(VOLATILES)

@@ -114,6 +114,9 @@ class YearInputs:
     #: Smallest share of a sub-plan's per-case variance (from durations) that the slope in
     #: the stretched minutes carries: R^2 over sub-plans and quantities. [1]
     variance_explained: float = 1.0
+    #: Lowest predicted inspired O2 of any sub-plan at any of its duration nodes (NaN when
+    #: nothing was simulated). [%]
+    lowest_inspired_o2_pct: float = float("nan")
 
 
 @dataclass
@@ -464,6 +467,10 @@ def _assemble(scenario: Scenario, ref: Reference, subplans: list[SubPlan], cols,
         warnings=by_severity(Caution(f"{', '.join(names)}: {text}", text.severity) for text, names in warnings.items()),
         subplans=subplans,
         variance_explained=float(np.clip(min(r2), 0.0, 1.0)),
+        lowest_inspired_o2_pct=min(
+            (float(groups[gk]["tot"]["min_inspired_o2_pct"][c]) for where in cols for gk, c in where),
+            default=float("nan"),
+        ),
     )
 
 

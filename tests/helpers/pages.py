@@ -47,3 +47,29 @@ def click(at: AppTest, text: str) -> AppTest:
 def metric_value(at: AppTest, label: str) -> str:
     """The value shown by the metric labelled ``label``."""
     return next(m.value for m in at.metric if m.label == label or m.label.startswith(label + " ("))
+
+
+def capture_downloads(monkeypatch) -> dict:
+    """Record every download button a page draws in a container: key -> (file name, data).
+
+    The data of a deferred download (a function) is kept as the function; :func:`download`
+    builds it, as a click would.
+    """
+    from streamlit.delta_generator import DeltaGenerator
+
+    seen: dict = {}
+    original = DeltaGenerator.download_button
+
+    def spy(self, label, data=None, file_name=None, *args, **kwargs):
+        seen[kwargs.get("key")] = (file_name, data)
+        return original(self, label, data, file_name, *args, **kwargs)
+
+    monkeypatch.setattr(DeltaGenerator, "download_button", spy)
+    return seen
+
+
+def download(seen: dict, key: str) -> bytes:
+    """The bytes of the download with ``key`` (built now if deferred)."""
+    data = seen[key][1]
+    data = data() if callable(data) else data
+    return data.encode("utf-8") if isinstance(data, str) else bytes(data)

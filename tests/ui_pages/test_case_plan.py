@@ -180,3 +180,13 @@ def test_a_bare_flow_is_read_in_the_unit_the_phases_table_shows():
     _edit_o2(at, "400")
     assert not at.error, [e.value for e in at.error]
     assert next(m.value for m in at.metric if m.label == "Oxygen") == with_unit
+
+
+def test_a_bad_setting_is_named_in_the_page_words_not_the_program_name():
+    """Item 10: "inspired O2 floor", not "settings.inspired_o2_floor"."""
+    at = page("case_plan.py")
+    at.text_input(key="cp_floor").input("200 %")
+    run(at)
+    shown = [e.value.replace("\\", "") for e in at.error]
+    assert any(m.startswith("inspired O2 floor") for m in shown), shown
+    assert not any("settings." in m or "inspired_o2_floor" in m for m in shown)

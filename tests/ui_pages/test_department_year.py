@@ -43,8 +43,8 @@ def test_more_cases_in_the_table_raise_cost():
 def test_bad_table_entry_shows_one_line_and_keeps_the_table():
     at = _page("department_year.py")
     _edit(at, 0, median_duration=5)
-    # The message may be shown with markdown escapes (e.g. "median\\_duration").
-    assert at.error and "row 1, median_duration" in at.error[0].value.replace("\\", "")
+    # The message may be shown with markdown escapes; the column is named as the table heads it.
+    assert at.error and "row 1, median min" in at.error[0].value.replace("\\", "")
     assert len(at.data_editor) == 1
 
 
@@ -140,7 +140,9 @@ def test_a_case_mix_error_keeps_the_last_year_and_shows_the_error_by_the_table()
     key = next(d.key for d in at.data_editor if d.key.startswith("dy_mix_"))
     at.session_state[key] = {"edited_rows": {0: {"median_duration": 5}}, "added_rows": [], "deleted_rows": []}
     run(at)
-    assert any("row 1, median_duration" in e.value.replace("\\", "") for e in at.error)
+    # Named in the table's own words ("median min"), never the file key "median_duration".
+    assert any("row 1, median min" in e.value.replace("\\", "") for e in at.error)
+    assert not any("median_duration" in e.value.replace("\\", "") for e in at.error)
     assert metric_value(at, "Cost") == cost
     assert any("last valid result" in w.value for w in at.warning)
     assert at.number_input(key=f"dy_flow_{name}") is not None
@@ -332,3 +334,27 @@ def test_practice_edits_are_kept_per_scenario_named_while_another_is_shown_and_c
     assert at.checkbox(key=f"dy_uf_{name}").value is False  # the scenario as saved
     assert metric_value(at, "Cost") == cost
     assert not any("not saved" in w.value for w in at.warning)
+
+
+def test_the_page_says_how_bottles_are_counted_and_counts_them_across_months():
+    import numpy as np
+
+    from tests.helpers.pages import page as run_page
+
+    at = run_page("department_year.py")
+    bottles = next(m for m in at.metric if m.label == "Bottles bought")
+    assert "carried into the next month" in bottles.proto.help
+    # Common practice, no source: the year's isoflurane bottles are its liquid in whole bottles.
+    monthly = next(d.value for d in at.dataframe if "Isoflurane bottles" in d.value.columns)
+    liquid = monthly["Isoflurane liquid (mL)"].sum()
+    assert monthly["Isoflurane bottles"].sum() == np.ceil(liquid / 250 - 1e-9)
+
+
+def test_a_year_change_in_money_is_whole_with_its_currency():
+    """Item 10: "-17,172 GBP", not "-17,172.2 GBP"; no "+0.00" in the bands."""
+    import re
+
+    at = _page("compare.py")
+    value = next(m.value for m in at.metric if m.label == "Change in cost")
+    assert re.fullmatch(r"[+-][\d,]+ GBP", value), value
+    assert not any("+0.00" in c.value or "-0.0" in c.value for c in at.caption)

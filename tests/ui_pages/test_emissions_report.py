@@ -202,3 +202,21 @@ def test_an_unknown_time_zone_shows_a_message_and_no_exception():
     assert any("time zone" in e.value and "Mars/Base" in e.value for e in at.error)
     at.text_input(key="er_time_zone").set_value("Europe/London").run()
     assert not at.exception and not at.error
+
+
+def test_a_baseline_under_another_gwp_source_shows_the_like_for_like_change_first():
+    """The headline and the headline figure's change hold the GWP source fixed; the source effect beside."""
+    from tests.helpers.pages import run
+
+    at = page("emissions_report.py")
+    at.selectbox(key="er_baseline_gwp").select("ar5_gwp100")
+    run(at)
+    cases = audit_records([DEMO / "fernhollow_2025.parquet", DEMO / "fernhollow_2026.parquet"]).cases
+    r = build_report(
+        cases, parse_period("2026"), parse_period("2025"), gwp_source="ar6_gwp100", baseline_gwp_source="ar5_gwp100"
+    )
+    like = r.baseline.figures["co2e_t"]["ar6_gwp100"]
+    head = next(m.value for m in at.markdown if "calendar year 2026" in m.value)
+    assert "like for like" in head and head.index("like for like") < head.index("change of GWP source")
+    delta = next(m for m in at.metric if m.label == "Use-based, IPCC AR6 GWP100").proto.delta
+    assert delta == f"{r.period.co2e_t - like:+,.1f} t on the baseline, like for like"

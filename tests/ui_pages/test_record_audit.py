@@ -117,3 +117,22 @@ def test_an_unknown_time_zone_shows_a_message_and_a_known_one_audits():
     at.text_input(key="ra_time_zone").set_value("Europe/London").run(timeout=TIMEOUT)
     assert not at.exception and not at.error
     assert int(_metric(at, "Cases").replace(",", "")) > 0
+
+
+def test_the_page_and_the_command_line_reconcile_the_same_purchases_in_the_same_words(capsys):
+    """The page's N2O apparent loss and coverage are the command line's, for the same files."""
+    import json
+
+    from tests.helpers.cli import run as cli
+
+    at = _run()
+    files = [DEMO / "fernhollow_2025.parquet", DEMO / "fernhollow_2026.parquet", DEMO / "fernhollow_birch_cases.csv"]
+    purchases = [DEMO / "fernhollow_purchases_2025.csv", DEMO / "fernhollow_purchases_2026.csv"]
+    status, out, err = cli(
+        ["audit", *files, "--purchases", purchases[0], "--purchases", purchases[1], "--json"], capsys
+    )
+    assert status == 0, err
+    data = json.loads(out)
+    assert _metric(at, "N2O apparent loss") == data["n2o_apparent_loss"]["figure"]
+    shown = " ".join(c.value for c in at.caption) + " ".join(w.value for w in at.warning)
+    assert data["record_coverage"]["message"].split(";")[0] in shown.replace("\\", "")

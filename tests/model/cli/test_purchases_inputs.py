@@ -74,3 +74,32 @@ def test_audit_sets_a_bad_purchase_line_aside_and_reconciles_the_rest(tmp_path, 
     # line that says "nine" adds nothing, the isoflurane line after it is kept.
     assert bought[("sevoflurane", "2025-09")] == pytest.approx(2250.0)
     assert ("isoflurane", "2025-09") in bought
+
+
+RECORDS = ROOT / "demo_data" / "records"
+YEARS = [RECORDS / "fernhollow_2025.parquet", RECORDS / "fernhollow_2026.parquet"]
+PURCHASES = [RECORDS / "fernhollow_purchases_2025.csv", RECORDS / "fernhollow_purchases_2026.csv"]
+
+
+def test_every_purchases_file_given_is_reconciled_not_only_the_last(capsys):
+    from model.io.purchases import read_purchases
+
+    args = ["audit", *YEARS, "--purchases", PURCHASES[0], "--purchases", PURCHASES[1], "--json"]
+    status, out, err = run(args, capsys)
+    assert status == 0, err
+    data = json.loads(out)
+    assert [f["file"] for f in data["purchases_files"]] == [str(p) for p in PURCHASES]
+    # The total bought of each item is the sum over both files (read one by one).
+    both = sum(read_purchases(p).query("item == 'sevoflurane'")["amount"].sum() for p in PURCHASES)
+    total = next(r for r in data["reconciliation"] if r["item"] == "sevoflurane" and r["month"] == "all")
+    assert total["purchased"] == pytest.approx(both, rel=1e-12)
+    assert data["record_coverage"]["months_bought"] == 24 and not data["record_coverage"]["partial"]
+
+
+def test_two_years_of_records_against_one_year_of_purchases_say_so_and_estimate_no_n2o_loss(capsys):
+    status, out, err = run(["audit", *YEARS, "--purchases", PURCHASES[0]], capsys)
+    assert status == 0, err
+    assert "12 of the 24 month(s) with records (between 2026-01 and 2026-12) have no purchases" in out
+    assert "Coverage by month and theatre" in out
+    assert "N2O apparent loss: not estimated" in out
+    assert "% of purchases" not in out

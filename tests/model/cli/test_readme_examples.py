@@ -74,3 +74,16 @@ def test_readme_plan_settings_scenario_and_purchases_examples_run(tmp_path, caps
         status, out, err = run(argv, capsys)
         assert status == 0, (argv, err)
         assert out.strip()
+
+
+def test_the_guide_audit_example_says_what_its_records_cover(capsys, monkeypatch):
+    """The guide's audit example reconciles both years of purchases and prints their coverage."""
+    monkeypatch.chdir(ROOT)
+    (command,) = [c for c in readme_cli_commands() if c.startswith("gas-ledger audit")]
+    assert command.count("--purchases") == 2
+    argv = []
+    for word in shlex.split(command)[1:]:
+        argv.extend(sorted(glob.glob(word)) if "*" in word else [word])
+    status, out, err = run(argv, capsys)
+    assert status == 0, err
+    assert "over 24 of the 24 month(s) with purchases" in out and "Coverage by month and theatre" in out

@@ -931,3 +931,58 @@ def test_a_baseline_of_next_to_no_emissions_gives_no_infinite_percentage(tmp_pat
     assert 0 < r.baseline.co2e_t < 1e-300
     assert not _NAN_WORD.search(r.headline()), r.headline()
     assert "cannot be given as a percentage: the baseline has emissions too small to compare with" in r.headline()
+
+
+def test_cli_report_files_say_what_made_them(tmp_path, capsys):
+    """The workbook and the HTML of ``gas-ledger report`` carry the one provenance block."""
+    import hashlib
+
+    from model.cli import main
+    from model.present.provenance import program_version
+    from tests.model.present.test_provenance import html_block, xlsx_block
+
+    settings = ROOT / "demo_data" / "settings.toml"
+    args = ["--settings", settings, "report", *YEARS, "--purchases", PURCHASES[0], "--purchases", PURCHASES[1]]
+    args += ["--sites", SITES, "--period", "2026", "--baseline", "2025"]
+    code = main([str(a) for a in [*args, "--html", tmp_path / "r.html", "--xlsx", tmp_path / "r.xlsx"]])
+    capsys.readouterr()
+    assert code == 0
+    rows = xlsx_block((tmp_path / "r.xlsx").read_bytes())
+    assert html_block((tmp_path / "r.html").read_text(encoding="utf-8")) == rows
+    values = dict(rows)
+    assert values["program"] == f"Fresh Gas Ledger {program_version()}"
+    inputs = [v for n, v in rows if n.startswith("input: ")]
+    for path in [*YEARS, *PURCHASES, SITES, settings]:
+        # Source: FIPS 180-4 (SHA-256), as Python's hashlib computes it.
+        digest = hashlib.sha256(path.read_bytes()).hexdigest()
+        assert any(v.startswith(str(path)) and digest in v for v in inputs), (path, inputs)
+    assert any(" rows; " in v for v in inputs)
+    assert str(settings) in values["prices in use"]
+
+
+def test_a_headline_across_gwp_sources_states_the_like_for_like_change_first_and_the_source_effect_beside_it(demo):
+    """Baseline 2025 under AR5, period 2026 under AR6: the practice change is not mixed with the source."""
+    r = build_report(
+        demo.cases,
+        parse_period("2026"),
+        parse_period("2025"),
+        gwp_source="ar6_gwp100",
+        baseline_gwp_source="ar5_gwp100",
+    )
+    b = r.baseline
+    like = b.figures["co2e_t"]["ar6_gwp100"]
+    # Common practice, no source: a like-for-like change holds the conversion factors fixed.
+    change = r.period.co2e_t / like - 1.0
+    head = r.headline()
+    word = "down" if change < 0 else "up"
+    first = f", {word} {abs(change) * 100:.0f} % on calendar year 2025 like for like "
+    first += f"({like:,.1f} t, both under IPCC AR6 GWP100)"
+    assert first in head, head
+    effect = like - b.co2e_t
+    assert r.source_effect_t() == pytest.approx(effect)
+    assert f"IPCC AR5 GWP100 ({b.co2e_t:,.1f} t)" in head and f"{abs(effect):,.1f} t" in head
+    assert head.index("like for like") < head.index("change of GWP source")
+    # The two parts add to the change between the figures as given.
+    assert (r.period.co2e_t - like) + effect == pytest.approx(r.period.co2e_t - b.co2e_t)
+    same = build_report(demo.cases, parse_period("2026"), parse_period("2025"))
+    assert "like for like" not in same.headline() and same.source_effect_t() == 0.0

@@ -122,19 +122,35 @@ def test_year_is_the_sum_of_its_case_types():
         assert got[name][0] == pytest.approx(got[name][1], rel=1e-12), name
 
 
-def test_bottles_are_whole_and_rounded_up_per_month():
+def test_part_used_bottles_are_carried_across_months_not_rounded_up_month_by_month():
     result = compute_year(_scenario(FIXED))
     sevo_ml = result.totals["liquid_ml_sevoflurane"]
     volume = DEFAULT_REFERENCE.agents["sevoflurane"].bottle_volume
-    # Common practice, no source: a month's bottles are its liquid divided by the bottle
-    # volume, rounded up; months share the year by their days.
-    expected = sum(np.ceil(sevo_ml * d / 365 / volume) for d in DAYS_PER_MONTH)
-    assert result.totals["bottles_sevoflurane"] == expected
+    # Common practice, no source: a bottle opened in one month and finished in the next is
+    # bought once; by the end of each month the bottles opened are the liquid used so far,
+    # rounded up to whole bottles; months share the year by their days.
+    used = np.cumsum([sevo_ml * d / 365 for d in DAYS_PER_MONTH])
+    opened = np.diff(np.ceil(used / volume - 1e-9), prepend=0.0)
+    assert result.monthly["bottles_sevoflurane"].tolist() == pytest.approx(opened.tolist())
+    assert result.totals["bottles_sevoflurane"] == np.ceil(sevo_ml / volume - 1e-9)
     assert (result.monthly["bottles_sevoflurane"] % 1 == 0).all()
     assert result.monthly["liquid_ml_sevoflurane"].sum() == pytest.approx(sevo_ml)
     assert result.monthly["cost_total"].sum() == pytest.approx(result.totals["cost_total"])
     price = DEFAULT_REFERENCE.prices.bottle["sevoflurane"]
-    assert result.totals["cost_sevoflurane"] == pytest.approx(expected * price)
+    assert result.totals["cost_sevoflurane"] == pytest.approx(np.ceil(sevo_ml / volume - 1e-9) * price)
+
+
+def test_a_low_use_agent_buys_its_liquid_in_bottles_not_a_bottle_every_month():
+    from model.year.sampling import bottles_opened
+
+    # 875 mL and 2,337 mL a year, spread evenly: once twelve bottles each (one a month).
+    volume = np.array([250.0])
+    for year_ml, bottles in ((875.0, 4), (2337.0, 10)):
+        monthly = np.full((12, 1), year_ml / 12)
+        opened = bottles_opened(monthly, volume)
+        # Common practice, no source: ceil(875 / 250) = 4, ceil(2337 / 250) = 10.
+        assert opened.sum() == bottles
+        assert set(opened.ravel()) <= {0.0, 1.0}
 
 
 def test_zero_spread_and_full_adherence_give_one_value():
