@@ -85,18 +85,24 @@ else:
         "Site file, theatre,site (optional)", "er_upload_sites", "sites", types=("csv",), where=c3
     )
     sites_file = site_files[0] if site_files else None
-fmt_help("Case records", "Purchases")
+# Folded (with uploads, into the uploads' own box), so that the report's headline stays on a
+# laptop's first screen.
+reading = (
+    st.expander("File formats and time zone", icon=":material/description:") if source.startswith("Demo") else box
+)
+with reading:
+    time_zone = st.text_input(
+        "Time zone of record times without a UTC offset",
+        "",
+        key="er_time_zone",
+        placeholder="as written (e.g. Europe/London)",
+        help="An IANA zone name. Times written with an offset (+01:00, Z) are read as that instant; "
+        "others in this zone, across its clock changes. Empty: read as written.",
+    ).strip()
+    fmt_help("Case records", "Purchases", inline=True)
 if not files:
     st.info("Upload record files ('Case records' under 'File formats' on this page) to build the report.")
     st.stop()
-time_zone = st.text_input(
-    "Time zone of record times without a UTC offset",
-    "",
-    key="er_time_zone",
-    placeholder="as written (e.g. Europe/London)",
-    help="An IANA zone name. Times written with an offset (+01:00, Z) are read as that instant; "
-    "others in this zone, across its clock changes. Empty: read as written.",
-).strip()
 
 
 def _digest(items: list[Source]) -> str:
@@ -156,15 +162,16 @@ if sites_file is not None:
 
 starts = pd.to_datetime(cases["start"], errors="coerce").dropna()
 last_year = int(starts.max().year) if len(starts) else 2026
+
+# The headline and key figures are drawn here, above the choices that make them, so that on a
+# laptop screen they are seen first.
+head = st.container()
+# What was read, under the headline (above it, it would push the figures off a laptop's screen).
 st.caption(
     f"{summary['rows_valid']:,} rows used from {len(files)} file(s), {summary['rows_set_aside']:,} set aside "
     "(the Record audit page lists them). Cases from "
     + (f"{starts.min():%Y-%m-%d} to {starts.max():%Y-%m-%d}." if len(starts) else "no dated case.")
 )
-
-# The headline and key figures are drawn here, above the choices that make them, so that on a
-# laptop screen they are seen first.
-head = st.container()
 with st.container(border=True):
     st.markdown("**Period, baseline and target**")
     period_text = period_input("Reporting period", "er_period", last_year)

@@ -168,9 +168,29 @@ def test_the_load_benchmark_runs_one_session_and_records_it(tmp_path):
     assert figures["sessions finished without error"] == 1
 
 
+@pytest.mark.browser
+@pytest.mark.skipif(not CHROMIUM.exists(), reason="needs Debian's chromium")
+def test_the_browser_benchmark_times_each_wait_and_its_bare_reference(tmp_path):
+    run_tiny("bench_browser", tmp_path)
+    run = json.loads((tmp_path / "bench_browser.json").read_text(encoding="utf-8"))["runs"][0]
+    check_run(run)
+    measures = {f["measure"] for f in run["figures"]}
+    for name in ("cold load", "warm load", "edit", "page switch", "first audit", "bare page: cold load"):
+        assert f"{name}: median of {2 if name in ('edit', 'page switch') else 1}" in measures, measures
+    goals = {f["measure"].split(":")[0]: f["goal"] for f in run["figures"] if "goal" in f}
+    assert goals == {"cold load": 3.0, "edit": 0.5, "page switch": 1.0, "first audit": 3.0}
+    assert {r["measure"] for r in run["ratios"]} == {
+        "cold load (median)",
+        "warm load (median)",
+        "edit (median)",
+        "page switch (median)",
+        "first audit (median)",
+    }
+
+
 def test_every_benchmark_has_its_recorded_results_and_its_readme_entry():
     scripts = sorted(p.stem for p in BENCHMARKS.glob("bench_*.py"))
-    assert scripts == sorted([*SCRIPTS, "bench_audit", "bench_load"])
+    assert scripts == sorted([*SCRIPTS, "bench_audit", "bench_load", "bench_browser"])
     readme = (BENCHMARKS / "README.md").read_text(encoding="utf-8")
     for name in scripts:
         assert f"`{name}.py`" in readme, name

@@ -59,5 +59,6 @@ def test_plan_lower_flow_save_reload_and_download(page, app_url, tmp_path):
     path = tmp_path / "plan.xlsx"
     dl.value.save_as(path)
     ws = openpyxl.load_workbook(path)["Summary"]
-    rows = {r[1]: r[2] for r in ws.iter_rows(min_row=2, values_only=True)}
+    head = [c.value for c in ws[1]]  # columns by their headings (the safety column comes first)
+    rows = {r[head.index("figure")]: r[head.index("value")] for r in ws.iter_rows(min_row=2, values_only=True)}
     assert rows["Liquid agent"] == pytest.approx(after, abs=0.05)
