@@ -127,7 +127,7 @@ if flash:
 # ---- the inputs ----------------------------------------------------------------------
 
 inputs_col.subheader("Inputs")
-a1, a2, a3, a4 = inputs_col.columns([3, 1.3, 1, 1])
+a1, a2, a3, a4 = inputs_col.columns([2.6, 1.7, 1, 1])  # "Sevoflurane" whole at 1366 px
 a1.text_input("Plan name", key="cp_name", max_chars=120)
 a2.selectbox("Agent", VOLATILES, key="cp_agent", format_func=lambda k: ref.agents[k].label)
 a3.text_input("Patient weight", key="cp_weight", help="e.g. 78 kg or 172 lb")
