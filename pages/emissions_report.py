@@ -87,9 +87,7 @@ else:
     sites_file = site_files[0] if site_files else None
 # Folded (with uploads, into the uploads' own box), so that the report's headline stays on a
 # laptop's first screen.
-reading = (
-    st.expander("File formats and time zone", icon=":material/description:") if source.startswith("Demo") else box
-)
+reading = st.expander("File formats and time zone", icon=":material/description:") if source.startswith("Demo") else box
 with reading:
     time_zone = st.text_input(
         "Time zone of record times without a UTC offset",

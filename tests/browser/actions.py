@@ -143,3 +143,13 @@ def shot(pg, name: str) -> None:
 def field(pg, label: str):
     """The input labelled exactly ``label``."""
     return pg.get_by_label(label, exact=True).first
+
+
+def set_year_maintenance_flow(pg, flow: str) -> None:
+    """On the Department year page: open the practice change, set the maintenance flow, Enter."""
+    pg.get_by_text("Practice change and uncertainty").first.click()
+    pg.get_by_text("Set maintenance flow").first.click()
+    wait_idle(pg)
+    box = field(pg, "Maintenance flow (L/min)")
+    box.fill(flow)
+    box.press("Enter")

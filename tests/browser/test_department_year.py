@@ -6,7 +6,7 @@ import re
 
 import pytest
 
-from tests.browser.actions import field, go, open_app, shot, wait_idle
+from tests.browser.actions import go, open_app, set_year_maintenance_flow, shot, wait_idle
 
 pytestmark = pytest.mark.browser
 
@@ -23,12 +23,7 @@ def test_year_workbook_records_the_practice_set_on_the_page(laptop, app_url, tmp
     pg = laptop
     open_app(pg, app_url)
     go(pg, "Department year", "Bottles bought per month")
-    pg.get_by_text("Practice change and uncertainty").first.click()
-    pg.get_by_text("Set maintenance flow").first.click()
-    wait_idle(pg)
-    flow = field(pg, "Maintenance flow (L/min)")
-    flow.fill("0.8")
-    flow.press("Enter")
+    set_year_maintenance_flow(pg, "0.8")
     wait_idle(pg)
     shot(pg, "department_year_practice")
     with pg.expect_download() as dl:

@@ -4,7 +4,16 @@ from __future__ import annotations
 
 import pytest
 
-from tests.browser.actions import field, go, metric_text, open_app, shot, wait_idle, wait_metric_change
+from tests.browser.actions import (
+    field,
+    go,
+    metric_text,
+    open_app,
+    set_year_maintenance_flow,
+    shot,
+    wait_idle,
+    wait_metric_change,
+)
 from tests.helpers import ROOT
 
 pytestmark = pytest.mark.browser
@@ -33,12 +42,7 @@ def test_department_year_practice_edits_survive_a_change_of_scenario(laptop, app
     open_app(pg, app_url)
     go(pg, "Department year", "Bottles bought per month")
     as_saved = metric_text(pg, "Cost")
-    pg.get_by_text("Practice change and uncertainty").first.click()
-    pg.get_by_text("Set maintenance flow").first.click()
-    wait_idle(pg)
-    flow = field(pg, "Maintenance flow (L/min)")
-    flow.fill("0.8")
-    flow.press("Enter")
+    set_year_maintenance_flow(pg, "0.8")
     cost = wait_metric_change(pg, "Cost", as_saved)
     choose(pg, "Scenario", "Fernhollow proposal: sevoflurane instead of desflurane")
     pg.get_by_text("Kept for this session, not saved").first.wait_for()
