@@ -201,8 +201,9 @@ _LATE_UPTAKE_CLOSED = (
 )
 _WASH_IN = (
     "the model's desflurane wash-in at 0.5-1 L/min is slower than measured; the circle volume "
-    "decides it and the study does not state it: with the model's 6 L it takes 6.0 and 12.2 min, "
-    "with a 3 L circle 4.3 and 9.0 min (inside); the default is not changed to suit one study"
+    "decides it and the study does not state it (the model's default is 6 L; a smaller circle "
+    "washes in faster), and 1 MAC is the model's age-adjusted MAC of the MAC set in use, which "
+    "need not be the study's; the default is not changed to suit one study"
 )
 
 _WASH_IN_ISO = (
