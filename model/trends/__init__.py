@@ -5,5 +5,17 @@ rules, run-chart rules for short series, and segmented regression around a progr
 """
 
 from model.trends.measures import LEVELS, MEASURES, monthly_measures
+from model.trends.spc import RULES, anhoj_limits, anhoj_signals, p_limits, rule_signals, signal_sentences, xmr_limits
 
-__all__ = ["LEVELS", "MEASURES", "monthly_measures"]
+__all__ = [
+    "LEVELS",
+    "MEASURES",
+    "RULES",
+    "anhoj_limits",
+    "anhoj_signals",
+    "monthly_measures",
+    "p_limits",
+    "rule_signals",
+    "signal_sentences",
+    "xmr_limits",
+]
