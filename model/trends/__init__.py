@@ -4,16 +4,20 @@ Monthly measures from the record audit's cases, individuals and p-charts with th
 rules, run-chart rules for short series, and segmented regression around a programme start.
 """
 
+from model.trends.its import InterruptedSeries, interrupted_series, newey_west_lag
 from model.trends.measures import LEVELS, MEASURES, monthly_measures
 from model.trends.spc import RULES, anhoj_limits, anhoj_signals, p_limits, rule_signals, signal_sentences, xmr_limits
 
 __all__ = [
+    "InterruptedSeries",
     "LEVELS",
     "MEASURES",
     "RULES",
     "anhoj_limits",
     "anhoj_signals",
+    "interrupted_series",
     "monthly_measures",
+    "newey_west_lag",
     "p_limits",
     "rule_signals",
     "signal_sentences",
