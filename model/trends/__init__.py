@@ -7,14 +7,18 @@ rules, run-chart rules for short series, and segmented regression around a progr
 from model.trends.its import InterruptedSeries, interrupted_series, newey_west_lag
 from model.trends.measures import LEVELS, MEASURES, monthly_measures
 from model.trends.spc import RULES, anhoj_limits, anhoj_signals, p_limits, rule_signals, signal_sentences, xmr_limits
+from model.trends.summary import CHART_MEASURES, Trends, build_trends
 
 __all__ = [
+    "CHART_MEASURES",
     "InterruptedSeries",
     "LEVELS",
     "MEASURES",
     "RULES",
+    "Trends",
     "anhoj_limits",
     "anhoj_signals",
+    "build_trends",
     "interrupted_series",
     "monthly_measures",
     "newey_west_lag",

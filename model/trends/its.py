@@ -77,10 +77,22 @@ class InterruptedSeries:
             f"({p} CI {self.level_ci[0]:+.3g} to {self.level_ci[1]:+.3g}).",
             f"{measure}: slope change {self.slope_change:+.3g} {unit} a month "
             f"({p} CI {self.slope_ci[0]:+.3g} to {self.slope_ci[1]:+.3g}).",
-            f"Against the line before the programme carried on, {self.n_after} programme months saved "
-            f"{self.saved:.3g} {unit}-months ({p} CI {self.saved_ci[0]:.3g} to {self.saved_ci[1]:.3g}); "
-            f"Newey-West errors with {self.lags} lag(s) for months that follow each other.",
+            self._saved_sentence(unit, p)
+            + f" Newey-West errors with {self.lags} lag(s) for months that follow each other.",
         ]
+
+    def _saved_sentence(self, unit: str, p: str) -> str:
+        lo, hi = self.saved_ci
+        if unit == "t CO2e":
+            return (
+                f"Against the line before the programme carried on, the {self.n_after} programme months "
+                f"saved {self.saved:.3g} t CO2e ({p} CI {lo:.3g} to {hi:.3g})."
+            )
+        n = self.n_after
+        return (
+            f"Against the line before the programme carried on, the {n} programme months were on average "
+            f"{self.saved / n:.3g} {unit} lower ({p} CI {lo / n:.3g} to {hi / n:.3g})."
+        )
 
 
 def design(n: int, change_index: int) -> np.ndarray:

@@ -272,13 +272,23 @@ def anhoj_signals(values) -> dict:
     }
 
 
-def signal_sentences(months, signals: pd.DataFrame, measure: str) -> list[str]:
-    """Each signal of a chart in words: the rule, its months and its source."""
+def signal_sentences(months, signals: pd.DataFrame, measure: str, chart: pd.DataFrame | None = None) -> list[str]:
+    """Each signal of a chart in words: the rule, its months and its source.
+
+    With the ``chart``, a span of flagged months is cut where the phase or the side of the
+    centre line changes, so a run above and a run below read as two signals.
+    """
     months = list(months)
     lines = []
+    cut = np.zeros(len(months), dtype=np.int64)
+    if chart is not None:
+        side = np.sign(chart["value"].to_numpy(dtype=float) - chart["centre"].to_numpy(dtype=float))
+        key = chart["phase"].to_numpy() * 3 + np.nan_to_num(side).astype(np.int64)
+        cut = np.cumsum(np.r_[0, key[1:] != key[:-1]])
     for rule, (text, source) in RULES.items():
         flags = signals[rule].to_numpy(dtype=bool)
-        starts, lengths = _runs(flags.astype(int))
+        keys = np.where(flags, cut if rule in ("shift_8", "two_of_three") else 0, -1)
+        starts, lengths = _runs(keys)
         for s, n in zip(starts, lengths, strict=True):
             if not flags[s]:
                 continue
