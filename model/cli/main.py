@@ -153,9 +153,10 @@ def _extra_commands():
     from model.cli.report import register as report
     from model.cli.store import register as store
     from model.cli.sweep import register as sweep
+    from model.cli.trends import register as trends
     from model.cli.year import register as year
 
-    return [sweep, year, audit, report, store]
+    return [sweep, year, audit, report, trends, store]
 
 
 def _command_names(parser) -> list[str]:
