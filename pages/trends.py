@@ -12,7 +12,7 @@ from model import InputError
 from model.audit.engine import audit_records
 from model.base.files import Source
 from model.io.sites import parse_sites
-from model.present.trend_charts import control_chart_figure
+from model.present.trend_charts import control_chart_figure, trends_html
 from model.trends import CHART_MEASURES, MEASURES, build_trends
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -155,6 +155,6 @@ with charts_area:
     ui.downloads(
         "trends",
         {"Charts": trends.charts, "Monthly measures": trends.measures},
-        None,
+        lambda: trends_html(trends, ui.CAUTION, ", ".join(f.name for f in files)),
         key="tr_downloads",
     )

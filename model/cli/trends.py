@@ -39,6 +39,12 @@ def register(subparsers) -> None:
         "--measure", action="append", default=[], metavar="NAME", help="a measure to chart (repeat); default all"
     )
     p.add_argument("--gwp", "--gwp-source", dest="gwp", default=None, help="GWP source (default ar6_gwp100)")
+    p.add_argument(
+        "--html",
+        default=None,
+        metavar="FILE",
+        help="also write the charts, signals and effect as a self-contained HTML file (opens offline)",
+    )
     out = p.add_mutually_exclusive_group()
     out.add_argument("--json", action="store_true", help="machine-readable output")
     out.add_argument(
@@ -64,10 +70,23 @@ def cmd_trends(args) -> int:
         if m not in CHART_MEASURES:
             raise InputError("--measure", m, "one of " + ", ".join(CHART_MEASURES))
     sites = read_sites(args.sites) if args.sites else None
+    if args.html:
+        from pathlib import Path
+
+        if not Path(args.html).parent.is_dir():
+            raise InputError("--html", args.html, "the folder to write into does not exist")
     result = audit_records(args.files, reference=reference, gwp_source=gwp)
     trends = build_trends(
         result.cases, args.change, args.level, sites, tuple(args.measure) or tuple(CHART_MEASURES), where="--change"
     )
+    if args.html:
+        from pathlib import Path
+
+        from model.present.trend_charts import trends_html
+
+        s = result.report.summary()
+        read = f"{len(s['files'])} file(s), {s['rows_valid']:,} rows used, {s['rows_set_aside']:,} set aside"
+        Path(args.html).write_text(trends_html(trends, CAUTION, read), encoding="utf-8")
     if args.json:
         data = trends.to_dict()
         data["records"] = result.report.summary()

@@ -99,3 +99,44 @@ def control_chart_figure(chart: pd.DataFrame, effect=None, title: str | None = N
     fig.update_yaxes(title_text=chart_text(label))
     kind = "p-chart" if chart["chart"].iloc[0] == "p" else "individuals chart"
     return house_style(fig, chart_text(title or f"{label} ({kind})"), 320)
+
+
+def trends_html(trends, caution: str, records: str = "") -> str:
+    """The trends as one self-contained HTML file: the charts first, then the signals and the effect in words.
+
+    Parameters
+    ----------
+    trends : model.trends.Trends
+    caution : str
+        The standing caution.
+    records : str
+        What was read, for the inputs table.
+    """
+    from model.present.exports import html_export
+
+    figures = []
+    for (group, m), chart in trends.charts.groupby(["group", "measure"], sort=False):
+        title = CHART_MEASURES.get(m, m) + ("" if group == "department" else f" ({group})")
+        figures.append((title, control_chart_figure(chart, trends.effects.get((group, m)), title)))
+    runs = [
+        f"{CHART_MEASURES[m]}{'' if g == 'department' else ' (' + g + ')'}: longest run {r['longest_run']} "
+        f"(limit {r['run_limit']}), crossings {r['crossings']} (fewest {r['crossings_limit']}): "
+        + ("signal" if r["signal"] else "no signal")
+        for (g, m), r in trends.run_checks.items()
+    ]
+    sections = {
+        "Signals (control-chart rules)": trends.signals or ["None."],
+        "Run-chart checks (Anhøj J, Olesen AV, PLoS One 2014;9(11):e113825)": runs,
+    }
+    if trends.effects:
+        sections[f"Programme from {trends.change_month}: interrupted time series"] = trends.effect_sentences()
+    return html_export(
+        "Trends",
+        inputs={"Records": records, "Series": trends.level, "Programme start": trends.change_month or "none"},
+        tables={"Monthly measures": trends.measures},
+        figures=figures,
+        warnings=list(trends.notes),
+        cautions=[caution],
+        sections=sections,
+        figures_first=True,
+    )

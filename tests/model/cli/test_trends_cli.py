@@ -42,3 +42,13 @@ def test_bad_change_and_measure_are_messages(capsys):
     assert "--change" in err and "2025-01 to 2026-12" in err and "Traceback" not in err
     assert main(["trends", *RECORDS, "--measure", "happiness"]) == 2
     assert "--measure" in capsys.readouterr().err
+
+
+def test_html_has_the_charts_and_the_signals(capsys, tmp_path):
+    out = tmp_path / "trends.html"
+    assert main(["trends", *RECORDS, "--change", "2026-01", *ONE, "--html", str(out)]) == 0
+    html = out.read_text(encoding="utf-8")
+    assert html.count("plotly-graph-div") >= 2 and "Western Electric" in html and "level change" in html
+    assert "not a prescription" in html
+    assert main(["trends", *RECORDS, "--html", str(tmp_path / "nowhere" / "t.html")]) == 2
+    assert "--html" in capsys.readouterr().err
