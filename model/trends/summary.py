@@ -154,7 +154,12 @@ def build_trends(
     for group, g in table.groupby("group", sort=True):
         g = g.sort_values("month").reset_index(drop=True)
         months = g["month"].tolist()
-        k = months.index(change_month) if change_month in months and change_month != months[0] else None
+        # The first month of the group from the change on (a theatre may have no case that month).
+        after = [i for i, mo in enumerate(months) if change_month is not None and mo >= change_month]
+        k = after[0] if after and 0 < after[0] < len(months) else None
+        if change_month is not None and k is None:
+            notes.append(f"{group}: no month on both sides of {change_month}; one set of limits is shown.")
+        whole = len(months) == len(pd.period_range(months[0], months[-1], freq="M"))
         for m in measures:
             if m in _SHARE_PARTS:
                 den = g[_SHARE_PARTS[m]].to_numpy(dtype=float)
@@ -176,7 +181,7 @@ def build_trends(
             frame["signal"] = flags.to_numpy().any(axis=1)
             parts.append(frame)
             y = g[m].to_numpy(dtype=float)
-            if k is not None and k >= 3 and len(y) - k >= 3 and np.isfinite(y).all() and len(full) == len(all_months):
+            if k is not None and k >= 3 and len(y) - k >= 3 and np.isfinite(y).all() and whole:
                 effects[(group, m)] = interrupted_series(y, k)
     if change_month is not None and not effects:
         notes.append("The programme's effect needs at least 3 months with a value on each side of the change date.")

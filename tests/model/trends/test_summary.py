@@ -53,3 +53,14 @@ def test_a_bad_change_date_is_a_message(cases, bad):
 def test_theatres_get_their_own_charts(cases):
     t = build_trends(cases, "2026-01", level="theatre", measures=("co2e_kg_per_case",))
     assert set(t.charts["group"]) == set(cases["theatre"])
+
+
+def test_a_theatre_without_a_case_in_the_change_month_still_gets_two_phases(cases):
+    # Alder's January 2026 cases removed: its limits change from February, and with a gap in
+    # its months no segmented regression is fitted for it (months must follow each other).
+    c = cases[~((cases["theatre"] == "Alder") & (cases["month"] == "2026-01"))]
+    t = build_trends(c, "2026-01", level="theatre", measures=("co2e_kg_per_case",))
+    alder = t.charts[t.charts["group"] == "Alder"]
+    assert alder[alder["phase"] == 1]["month"].iloc[0] == "2026-02"
+    assert ("Alder", "co2e_kg_per_case") not in t.effects
+    assert ("Birch", "co2e_kg_per_case") in t.effects
