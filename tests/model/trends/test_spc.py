@@ -104,8 +104,9 @@ def test_limits_recomputed_from_a_change_date():
 
 @pytest.mark.parametrize(("n", "run", "crossings"), [(10, 6, 2), (20, 7, 6), (24, 8, 8)])
 def test_anhoj_limits(n, run, crossings):
-    # Anhøj & Olesen, PLoS One 2014;9(11):e113825, table of critical values (from memory),
-    # and the binomial 5th percentile from scipy.stats.
+    # Anhøj & Olesen, PLoS One 2014;9(11):e113825, table of critical values (from memory);
+    # the same formulas, round(log2(n) + 3) and qbinom(0.05, n - 1, 0.5), are in the qicharts2
+    # vignette (CRAN); the binomial 5th percentile here from scipy.stats.
     assert anhoj_limits(n) == (run, crossings)
     assert crossings == binom.ppf(0.05, n - 1, 0.5)
 
