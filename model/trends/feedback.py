@@ -149,3 +149,37 @@ def people_list(cases: pd.DataFrame, key, min_cases: int = MIN_CASES) -> pd.Data
     per = _per_person(cases, key)
     total = per.groupby("person", as_index=False)["cases"].sum()
     return total[total["cases"] >= min_cases].sort_values("person").reset_index(drop=True)
+
+
+def attach_staff(cases: pd.DataFrame, staff: pd.DataFrame, where: str = "staff file") -> tuple[pd.DataFrame, list[str]]:
+    """The audit's cases with an ``anaesthetist`` column from a table ``case_id, anaesthetist``.
+
+    Returns
+    -------
+    tuple
+        The cases that have an anaesthetist (others are left out), and messages naming what
+        was set aside (never an identifier: a row is named by its line).
+
+    Raises
+    ------
+    InputError
+        When the table lacks either column.
+    """
+    missing = [c for c in ("case_id", "anaesthetist") if c not in staff.columns]
+    if missing:
+        raise InputError(where, ", ".join(missing), "columns case_id and anaesthetist")
+    s = staff[["case_id", "anaesthetist"]].astype(str).apply(lambda col: col.str.strip())
+    notes = []
+    blank = (s["case_id"] == "") | (s["anaesthetist"] == "") | staff["anaesthetist"].isna()
+    for i in np.flatnonzero(blank.to_numpy()):
+        notes.append(f"{where}, line {i + 2}: an empty case_id or anaesthetist; row set aside")
+    s = s[~blank.to_numpy()]
+    twice = s["case_id"].duplicated(keep=False)
+    if twice.any():
+        notes.append(f"{where}: {int(s.loc[twice, 'case_id'].nunique())} case(s) named more than once; left out")
+        s = s[~twice]
+    c = cases.merge(s, on="case_id", how="inner", validate="many_to_one")
+    left = int(cases["case_id"].nunique() - c["case_id"].nunique())
+    if left:
+        notes.append(f"{left} case(s) of the records have no anaesthetist in the {where}; left out of the feedback")
+    return c, notes
