@@ -161,12 +161,14 @@ def build_parser() -> argparse.ArgumentParser:
 def _extra_commands():
     """Sub-commands kept in modules of their own (each module has ``register``)."""
     from model.cli.audit import register as audit
+    from model.cli.feedback import register as feedback
     from model.cli.report import register as report
     from model.cli.store import register as store
     from model.cli.sweep import register as sweep
+    from model.cli.trends import register as trends
     from model.cli.year import register as year
 
-    return [sweep, year, audit, report, store]
+    return [sweep, year, audit, report, trends, feedback, store]
 
 
 def _command_names(parser) -> list[str]:

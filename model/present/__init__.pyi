@@ -34,3 +34,5 @@ from .theme import TEMPLATE as TEMPLATE
 from .theme import house_layout as house_layout
 from .theme import house_style as house_style
 from .theme import new_figure as new_figure
+from .trend_charts import control_chart_figure as control_chart_figure
+from .trend_charts import trends_html as trends_html
