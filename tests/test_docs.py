@@ -20,6 +20,7 @@ API_PAGES = {
     "model.year": "year.md",
     "model.audit": "audit.md",
     "model.report": "report.md",
+    "model.stock": "stock.md",
     "model.present": "present.md",
     "model.store": "store.md",
     "model.cli": "cli.md",
