@@ -1,5 +1,6 @@
 """Stock and orders: a periodic-review order-up-to plan for agent bottles, month by month."""
 
+from .forecast import Forecast, change_practice, forecast_from_history, forecast_from_year, monthly_history
 from .policy import (
     StockItem,
     StockPlan,
@@ -11,6 +12,11 @@ from .policy import (
 )
 
 __all__ = [
+    "Forecast",
+    "change_practice",
+    "forecast_from_history",
+    "forecast_from_year",
+    "monthly_history",
     "StockItem",
     "StockPlan",
     "check_item",
