@@ -30,11 +30,15 @@ def _holdout_lines(result) -> list[str]:
 
 def notes(result) -> list[str]:
     """Provenance and cautions written with every export of the orders."""
-    from model.cli.main import _version
+    import importlib.metadata
 
+    try:
+        version = importlib.metadata.version("fresh-gas-ledger")
+    except importlib.metadata.PackageNotFoundError:
+        version = "unknown (not installed)"
     return [
         f"Orders plan: {result.plan.title}",
-        f"gas-ledger (fresh-gas-ledger) {_version()}",
+        f"gas-ledger (fresh-gas-ledger) {version}",
         "Method: periodic-review order-up-to (R, S) policy, Silver, Pyke and Thomas 2017 (docs/methods.md, "
         "Stock and orders)",
         *[f"Forecast of {k}: {f.source}" for k, f in result.forecasts.items()],
