@@ -31,6 +31,7 @@ sections = {
         _page("department_year.py", "Department year", ":material/calendar_month:"),
         _page("record_audit.py", "Record audit", ":material/fact_check:"),
         _page("emissions_report.py", "Emissions report", ":material/summarize:"),
+        _page("orders.py", "Orders", ":material/inventory_2:"),
     ],
     "Data": [_page("reference.py", "Reference", ":material/menu_book:")],
 }

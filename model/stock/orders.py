@@ -214,8 +214,20 @@ def _read_practice(p: dict, at: str, items) -> dict:
     return {"item": p["item"], "from_month": month - 1, "factor": float(factor)}
 
 
-def work_out_orders(plan: OrdersPlan, reference, service_level: float | None = None) -> OrdersResult:
-    """Forecast and stock plan of every item (``service_level`` overrides every item's when given)."""
+#: Item fields a what-if may change for every item at once.
+WHAT_IF_FIELDS = ("lead_months", "service_level", "order_multiple", "pack_bottles", "review_months")
+
+
+def work_out_orders(plan: OrdersPlan, reference, overrides: dict | None = None) -> OrdersResult:
+    """Forecast and stock plan of every item.
+
+    ``overrides`` (keys of :data:`WHAT_IF_FIELDS`) replace every item's value, for a what-if;
+    a bad value raises :class:`InputError` naming the item and field.
+    """
+    overrides = dict(overrides or {})
+    for key in overrides:
+        if key not in WHAT_IF_FIELDS:
+            raise InputError("what-if", key, "one of " + ", ".join(WHAT_IF_FIELDS))
     if plan.forecast == "year":
         from ..io.scenario import load_scenario
         from ..year.result import compute_year
@@ -231,8 +243,8 @@ def work_out_orders(plan: OrdersPlan, reference, service_level: float | None = N
         forecasts[p["item"]] = change_practice(forecasts[p["item"]], p["from_month"], p["factor"])
     stock = {}
     for it in plan.items:
-        if service_level is not None:
-            it = check_item(replace(it, service_level=float(service_level)))
+        if overrides:
+            it = check_item(replace(it, **overrides))
         f = forecasts[it.agent]
         stock[it.agent] = plan_stock(it, f.p50, f.sigma, draws_ml=f.draws, seed=plan.seed)
     return OrdersResult(plan, forecasts, stock, reference.prices.currency)

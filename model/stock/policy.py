@@ -220,8 +220,12 @@ class StockPlan:
         return rows
 
 
-def _simulate(item: StockItem, use_ml, ordered):
-    """Carry stock over months for use draws (D, M) and a fixed order list; FIFO expiry."""
+def _simulate(item: StockItem, use_ml, level_ml):
+    """Run the (R, S) policy month by month for use draws (D, M); FIFO expiry.
+
+    Each draw places its own orders at the review months (the policy reacts to the stock it
+    has), raising its inventory position to ``level_ml`` in whole cases.
+    """
     use = np.atleast_2d(np.asarray(use_ml, dtype=float))
     n_draws, n_months = use.shape
     delay = math.ceil(item.lead_months - 1e-9)
@@ -230,12 +234,27 @@ def _simulate(item: StockItem, use_ml, ordered):
     lots[:, 0] = item.opening_bottles
     born = np.arange(n_months + 1, dtype=float)
     open_ml = np.full(n_draws, float(item.opening_open_ml))
-    out = {k: np.zeros((n_draws, n_months)) for k in ("opening", "received", "used", "short", "expired", "closing")}
+    ordered = np.zeros((n_draws, n_months + delay + 1))
+    out = {
+        k: np.zeros((n_draws, n_months))
+        for k in ("opening", "received", "used", "short", "expired", "closing", "ordered", "on_order")
+    }
     for m in range(n_months):
         out["opening"][:, m] = open_ml + lots.sum(axis=1) * item.bottle_ml
-        got = ordered[m - delay] if m - delay >= 0 else 0
+        got = ordered[:, m - delay] if m - delay >= 0 else np.zeros(n_draws)
         lots[:, m] += got
         out["received"][:, m] = got
+        if m % int(item.review_months) == 0:
+            pending = ordered[:, max(0, m - delay + 1) : m].sum(axis=1) if delay > 0 else 0.0
+            position = open_ml + lots.sum(axis=1) * item.bottle_ml + pending * item.bottle_ml
+            gap = np.maximum(level_ml[m] - position, 0.0)
+            cases = np.ceil(gap / item.bottle_ml / item.order_multiple - 1e-9)
+            ordered[:, m] = cases * item.order_multiple
+            if delay == 0:  # delivered at once
+                lots[:, m] += ordered[:, m]
+                out["received"][:, m] += ordered[:, m]
+        out["ordered"][:, m] = ordered[:, m]
+        out["on_order"][:, m] = ordered[:, max(0, m - delay + 1) : m + 1].sum(axis=1) if delay > 0 else 0.0
         need = use[:, m]
         from_open = np.minimum(open_ml, need)
         open_ml = open_ml - from_open
@@ -282,11 +301,15 @@ def plan_stock(item: StockItem, mean_ml, sigma_ml, draws_ml=None, seed: int = 0,
     At each review month t the order-up-to level is the forecast over the L + R months
     from t (L rounded up to whole months: a delivery arrives at the start of a month) plus
     z x sqrt(sum of sigma^2 over the same months), which is z x sigma x sqrt(L + R) when
-    sigma is the same each month [1]_. The order raises the inventory position (on hand at
-    P50 use, after this month's delivery, plus on order) to S, rounded up to whole cases.
+    sigma is the same each month [1]_. The order raises the inventory position (on hand
+    after this month's delivery, plus on order) to S, rounded up to whole cases. The orders
+    shown are those at P50 use; the chance of a stock-out in a month is the share of use
+    draws, each running the same policy on its own use, with a shortfall in that month.
     Part-used bottles are carried as mL; a bottle is opened only when the open liquid
     runs out; unopened bottles expire first in, first out. Beyond the last month the
-    forecast repeats its last month.
+    forecast repeats its last month. When use draws are given, sigma over L + R is the
+    standard deviation of the draws' sums over those months (the months of one draw of a
+    year move together, so their spread adds up faster than sqrt(L + R)).
 
     References
     ----------
@@ -302,39 +325,35 @@ def plan_stock(item: StockItem, mean_ml, sigma_ml, draws_ml=None, seed: int = 0,
     ext_var = np.concatenate([sigma, np.full(cover, sigma[-1])]) ** 2
     z = float(service_z(item.service_level))
     win_mean = np.array([ext_mean[t : t + cover].sum() for t in range(n_months)])
-    safety = z * np.sqrt(np.array([ext_var[t : t + cover].sum() for t in range(n_months)]))
+    if draws_ml is not None:
+        # the spread of use over L + R from the draws' own sums: months of one draw move together
+        d = np.asarray(draws_ml, dtype=float)
+        ext_d = np.concatenate([d, np.repeat(d[:, -1:], cover, axis=1)], axis=1)
+        sums = np.stack([ext_d[:, t : t + cover].sum(axis=1) for t in range(n_months)], axis=1)
+        safety = z * (sums.std(axis=0, ddof=1) if d.shape[0] > 1 else np.zeros(n_months))
+    else:
+        safety = z * np.sqrt(np.array([ext_var[t : t + cover].sum() for t in range(n_months)]))
     level = win_mean + safety
-    ordered = np.zeros(n_months, dtype=int)
-    for t in range(0, n_months, int(item.review_months)):
-        sim = _simulate(item, mean[None, : t + 1], ordered[: t + 1])
-        on_hand = sim["opening"][0, t] + sim["received"][0, t] * item.bottle_ml
-        pending = ordered[max(0, t - delay + 1) : t].sum() if delay > 0 else 0
-        position = on_hand + pending * item.bottle_ml
-        gap = level[t] - position
-        if gap > 0:
-            cases = math.ceil(gap / item.bottle_ml / item.order_multiple - 1e-9)
-            ordered[t] = cases * item.order_multiple
-    p50 = _simulate(item, mean[None, :], ordered)
+    p50 = _simulate(item, mean[None, :], level)
     if draws_ml is None:
         rng = np.random.default_rng(seed)
         draws = np.maximum(rng.normal(mean, sigma, size=(n_draws, n_months)), 0.0)
     else:
         draws = np.asarray(draws_ml, dtype=float)
-    drawn = _simulate(item, draws, ordered)
+    drawn = _simulate(item, draws, level)
     received = p50["received"][0]
-    on_order = np.array([ordered[max(0, m - delay + 1) : m + 1].sum() if delay > 0 else 0 for m in range(n_months)])
     return StockPlan(
         item=item,
         order_up_to_ml=level,
         safety_ml=safety,
-        ordered_bottles=ordered,
+        ordered_bottles=p50["ordered"][0].astype(int),
         received_bottles=received,
         opening_ml=p50["opening"][0],
         used_ml=p50["used"][0],
         short_ml=p50["short"][0],
         expired_bottles=p50["expired"][0],
         closing_ml=p50["closing"][0],
-        on_order_bottles=on_order,
+        on_order_bottles=p50["on_order"][0],
         stockout_chance=(drawn["short"] > 1e-9).mean(axis=0),
         cash=received * item.price_per_bottle,
     )
