@@ -9,6 +9,7 @@ import pandas as pd
 import streamlit as st
 
 import ui
+import ui.provenance
 from model import InputError
 from model.cli.orders import FORECAST_CAUTION, notes
 from model.present.stock_charts import stock_chart
@@ -57,6 +58,15 @@ st.subheader("Orders")
 st.dataframe(orders, hide_index=True, key="or_orders")
 st.subheader("Cash by month")
 st.dataframe(current.cash_by_month(), hide_index=True)
+
+ui.downloads(
+    "orders",
+    {"Orders": orders, "Months": months, "Cash": current.cash_by_month()},
+    None,
+    key="or_downloads",
+    notes=(*notes(current), *(f"{k}: {v}" for k, v in ui.provenance.in_use(view, ref).items())),
+)
+ui.provenance.show(view, ref)
 
 st.subheader("What if")
 first = current.plan.items[0]

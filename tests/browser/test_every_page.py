@@ -18,6 +18,7 @@ pytestmark = pytest.mark.browser
         ("Department year", "department_year", "Bottles bought per month"),
         ("Record audit", "record_audit", "Rows set aside"),
         ("Emissions report", "emissions_report", "What drove the change"),
+        ("Orders", "orders", "What if"),
     ],
 )
 def test_every_page_renders_and_is_captured(page, app_url, title, slug, marker):
