@@ -11,9 +11,8 @@ import streamlit as st
 import ui
 import ui.provenance
 from model import InputError
-from model.cli.orders import FORECAST_CAUTION, notes
 from model.present.stock_charts import stock_chart
-from model.stock.orders import read_orders_plan, total_stock_value, work_out_orders
+from model.stock.orders import FORECAST_CAUTION, notes, read_orders_plan, total_stock_value, work_out_orders
 
 FOLDER = Path(__file__).resolve().parent.parent / "demo_data" / "orders"
 

@@ -5,47 +5,8 @@ from __future__ import annotations
 from pathlib import Path
 
 from model.base.errors import InputError
-from model.cli.common import CAUTION, print_json, print_table
-
-#: Said wherever the order table is shown.
-FORECAST_CAUTION = (
-    "A forecast is not a guarantee: use can differ from it (see the hold-out error). "
-    "Keep local minimum stock rules and check orders with pharmacy before placing them."
-)
-
-
-def _holdout_lines(result) -> list[str]:
-    lines = []
-    for name, f in result.forecasts.items():
-        if f.holdout:
-            h = f.holdout
-            lines.append(
-                f"{name}: the last 3 months held out were forecast {h['mean_abs_error']:,.0f} {f.unit} off a month"
-                f" on average ({h['mean_abs_pct_error']:.0f} %), {h['inside_p5_p95']} of 3 inside P5-P95"
-            )
-        else:
-            lines.append(f"{name}: no hold-out check (a model year, not history)")
-    return lines
-
-
-def notes(result) -> list[str]:
-    """Provenance and cautions written with every export of the orders."""
-    import importlib.metadata
-
-    try:
-        version = importlib.metadata.version("fresh-gas-ledger")
-    except importlib.metadata.PackageNotFoundError:
-        version = "unknown (not installed)"
-    return [
-        f"Orders plan: {result.plan.title}",
-        f"gas-ledger (fresh-gas-ledger) {version}",
-        "Method: periodic-review order-up-to (R, S) policy, Silver, Pyke and Thomas 2017 (docs/methods.md, "
-        "Stock and orders)",
-        *[f"Forecast of {k}: {f.source}" for k, f in result.forecasts.items()],
-        *_holdout_lines(result),
-        FORECAST_CAUTION,
-        CAUTION,
-    ]
+from model.cli.common import print_json, print_table
+from model.stock.orders import FORECAST_CAUTION, notes
 
 
 def cmd_orders(args) -> int:
