@@ -46,10 +46,12 @@ except InputError as err:
 orders = current.orders_table()
 h = [ln for ln in notes(current) if "held out" in ln or "hold-out" in ln]
 st.warning(FORECAST_CAUTION + " " + " ".join(h), icon=":material/warning:")
-c1, c2, c3 = st.columns(3)
+c1, c2, c3, c4 = st.columns(4)
 months = current.months_table()
 c1.metric("Orders in the plan", f"{len(orders)}")
 c2.metric(f"Paid for deliveries ({current.currency})", f"{months[f'cash_{current.currency}'].sum():,.0f}")
+if current.year_budget is not None:
+    c4.metric(f"Department year's cost of these items ({current.currency})", f"{current.year_budget:,.0f}")
 c3.metric("Highest stock-out chance in a month", f"{months['stockout_chance'].max():.0%}")
 item = st.selectbox("Item", list(current.stock), key="or_item")
 st.plotly_chart(stock_chart(current, item), key="or_chart")

@@ -32,6 +32,8 @@ def cmd_orders(args) -> int:
     print_table(orders.to_dict("records"), list(orders.columns))
     total = float(result.months_table()[f"cash_{result.currency}"].sum())
     print(f"\nPaid for deliveries in the plan's months: {total:,.0f} {result.currency}")
+    if result.year_budget is not None:
+        print(f"The Department year's cost of these items: {result.year_budget:,.0f} {result.currency}")
     for line in notes(result)[3:]:
         print(line)
     return 0

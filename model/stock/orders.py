@@ -51,6 +51,8 @@ class OrdersResult:
     forecasts: dict[str, Forecast]
     stock: dict[str, StockPlan]
     currency: str
+    #: The Department year's cost of the plan's items (its budget for them; forecast = year only). [currency]
+    year_budget: float | None = None
 
     def orders_table(self) -> pd.DataFrame:
         """One row per order: item, month ordered and delivered, bottles, cost, stock after."""
@@ -122,6 +124,7 @@ class OrdersResult:
                     k: {"source": f.source, "unit": f.unit, "holdout": f.holdout} for k, f in self.forecasts.items()
                 },
                 "total_cost": float(self.months_table()[f"cash_{self.currency}"].sum()),
+                "year_budget": self.year_budget,
             }
         )
 
@@ -234,8 +237,11 @@ def work_out_orders(plan: OrdersPlan, reference, overrides: dict | None = None) 
 
         year = compute_year(load_scenario(plan.scenario), reference, draws=plan.draws, seed=plan.seed)
         forecasts = {it.agent: forecast_from_year(year, it.agent) for it in plan.items}
+        budget = float(sum(year.totals.get(f"cost_{it.agent}", 0.0) for it in plan.items))
     else:
         from ..io.purchases import read_purchases
+
+        budget = None
 
         table = pd.concat([read_purchases(p, reference) for p in plan.history], ignore_index=True)
         forecasts = {it.agent: forecast_from_history(monthly_history(table, it.agent), it.agent) for it in plan.items}
@@ -247,7 +253,7 @@ def work_out_orders(plan: OrdersPlan, reference, overrides: dict | None = None) 
             it = check_item(replace(it, **overrides))
         f = forecasts[it.agent]
         stock[it.agent] = plan_stock(it, f.p50, f.sigma, draws_ml=f.draws, seed=plan.seed)
-    return OrdersResult(plan, forecasts, stock, reference.prices.currency)
+    return OrdersResult(plan, forecasts, stock, reference.prices.currency, budget)
 
 
 def total_stock_value(result: OrdersResult) -> np.ndarray:

@@ -29,6 +29,8 @@ def test_orders_table_json_csv_and_workbook(tmp_path, capsys):
     assert all(o["delivery_month"] in ("Feb", "Mar", "Apr", "May", "Jun") for o in orders if o["item"] == "desflurane")
     # totals equal the sum of months (common practice, no source)
     assert data["total_cost"] == pytest.approx(sum(m["cash_GBP"] for m in data["months"]))
+    # the year's budget for the items is the Department year's own cost of them (model.year totals)
+    assert data["year_budget"] > 0
     assert csv.read_text(encoding="utf-8").count("\n") == len(orders) + 1
     wb = openpyxl.load_workbook(xlsx)
     assert {"Orders", "Months", "Cash", "Notes"} <= set(wb.sheetnames)
