@@ -46,6 +46,8 @@ except InputError as err:
 orders = current.orders_table()
 h = [ln for ln in notes(current) if "held out" in ln or "hold-out" in ln]
 st.warning(FORECAST_CAUTION + " " + " ".join(h), icon=":material/warning:")
+for line in (ln for ln in notes(current) if " stops from " in ln):
+    st.caption(ui.md(line))
 c1, c2, c3, c4 = st.columns(4)
 months = current.months_table()
 c1.metric("Orders in the plan", f"{len(orders)}")

@@ -270,6 +270,23 @@ FORECAST_CAUTION = (
 )
 
 
+def _phase_out_lines(result) -> list[str]:
+    """For each item stopped by a change of practice: the last order and the stock left."""
+    lines = []
+    for p in result.plan.practice:
+        if p["factor"] != 0:
+            continue
+        sp, f = result.stock[p["item"]], result.forecasts[p["item"]]
+        placed = np.flatnonzero(sp.ordered_bottles)
+        last = f"last order in {f.months[placed[-1]]}" if placed.size else "no order needed"
+        left = sp.closing_ml[-1] / sp.item.bottle_ml
+        lines.append(
+            f"{p['item']} stops from {f.months[p['from_month']]}: {last}; {left:.1f} bottles' worth left at the end"
+            f" ({left * sp.item.price_per_bottle:,.0f} {result.currency})"
+        )
+    return lines
+
+
 def _holdout_lines(result) -> list[str]:
     lines = []
     for name, f in result.forecasts.items():
@@ -301,6 +318,7 @@ def notes(result) -> list[str]:
         "Stock and orders)",
         *[f"Forecast of {k}: {f.source}" for k, f in result.forecasts.items()],
         *_holdout_lines(result),
+        *_phase_out_lines(result),
         FORECAST_CAUTION,
         STANDING_CAUTION,
     ]

@@ -22,6 +22,7 @@ def test_page_and_command_give_the_same_orders(capsys):
     assert shown["item"].tolist() == [o["item"] for o in cli]
     assert any("not a guarantee" in w.value for w in at.warning)
     assert len(at.get("plotly_chart")) == 1
+    assert any("stops from Jul" in c.value for c in at.caption)
     assert not at.error
 
 

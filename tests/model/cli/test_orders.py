@@ -27,6 +27,9 @@ def test_orders_table_json_csv_and_workbook(tmp_path, capsys):
     assert all(o["bottles"] % 6 == 0 for o in orders if o["item"] in ("sevoflurane", "desflurane"))
     # the desflurane phased out from July: no delivery after June
     assert all(o["delivery_month"] in ("Feb", "Mar", "Apr", "May", "Jun") for o in orders if o["item"] == "desflurane")
+    last = max(o["order_month"] for o in orders if o["item"] == "desflurane")
+    assert any(n.startswith("desflurane stops from Jul") and "bottles' worth left" in n for n in data["notes"])
+    assert last in ("Apr", "May", "Jun")
     # totals equal the sum of months (common practice, no source)
     assert data["total_cost"] == pytest.approx(sum(m["cash_GBP"] for m in data["months"]))
     # the year's budget for the items is the Department year's own cost of them (model.year totals)
