@@ -77,7 +77,11 @@ w1, w2, w3 = st.columns(3)
 lead = w1.number_input("Lead time [months]", 0.0, 12.0, float(first.lead_months), 0.5, key="or_lead")
 level = w2.number_input("Service level", 0.5, 0.999, float(first.service_level), 0.01, key="or_service")
 case = w3.number_input("Bottles per case", 1, 48, int(first.order_multiple), 1, key="or_case")
-overrides = {"lead_months": lead, "service_level": level, "order_multiple": int(case), "pack_bottles": 1}
+asked = {"lead_months": float(lead), "service_level": float(level), "order_multiple": int(case)}
+# only what was changed applies, to every item; an item's other values stay as the plan has them
+overrides = {k: v for k, v in asked.items() if v != getattr(first, k)}
+if "order_multiple" in overrides:
+    overrides["pack_bottles"] = 1
 try:
     what_if = _worked_out(str(path), path.read_text(encoding="utf-8"), json.dumps(overrides), ref_key, ref)
 except InputError as err:
@@ -99,5 +103,5 @@ def _summary(res) -> dict:
 
 
 st.dataframe(pd.DataFrame({"plan as written": _summary(current), "what if": _summary(what_if)}), key="or_what_if")
-st.caption("The what-if sets lead time, service level and case size for every item at once.")
+st.caption("The what-if starts from the first item's values; a value you change applies to every item at once.")
 st.dataframe(what_if.orders_table(), hide_index=True, key="or_what_if_orders")

@@ -29,6 +29,8 @@ def test_page_and_command_give_the_same_orders(capsys):
 def test_a_higher_service_level_orders_more_in_the_what_if():
     at = page("orders.py")
     plan_before = at.dataframe[0].value["bottles"].tolist()
+    # nothing changed yet: the what-if is the plan
+    assert at.dataframe[-1].value["bottles"].tolist() == plan_before
     at.number_input(key="or_case").set_value(1)  # single bottles: the demo's cases of 6 hide small changes
     run(at)
     before = at.dataframe[-1].value["bottles"].sum()
