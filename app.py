@@ -32,6 +32,7 @@ sections = {
         _page("record_audit.py", "Record audit", ":material/fact_check:"),
         _page("emissions_report.py", "Emissions report", ":material/summarize:"),
         _page("trends.py", "Trends", ":material/monitoring:"),
+        _page("orders.py", "Orders", ":material/inventory_2:"),
     ],
     "Data": [_page("reference.py", "Reference", ":material/menu_book:")],
 }

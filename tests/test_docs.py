@@ -21,6 +21,7 @@ API_PAGES = {
     "model.audit": "audit.md",
     "model.report": "report.md",
     "model.trends": "trends.md",
+    "model.stock": "stock.md",
     "model.present": "present.md",
     "model.store": "store.md",
     "model.cli": "cli.md",

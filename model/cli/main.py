@@ -162,13 +162,14 @@ def _extra_commands():
     """Sub-commands kept in modules of their own (each module has ``register``)."""
     from model.cli.audit import register as audit
     from model.cli.feedback import register as feedback
+    from model.cli.orders import register as orders
     from model.cli.report import register as report
     from model.cli.store import register as store
     from model.cli.sweep import register as sweep
     from model.cli.trends import register as trends
     from model.cli.year import register as year
 
-    return [sweep, year, audit, report, trends, feedback, store]
+    return [sweep, year, audit, report, trends, feedback, orders, store]
 
 
 def _command_names(parser) -> list[str]:

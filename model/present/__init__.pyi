@@ -29,6 +29,7 @@ from .report_charts import report_figures as report_figures
 from .report_charts import target_figure as target_figure
 from .report_charts import use_purchase_figure as use_purchase_figure
 from .report_charts import waterfall_figure as waterfall_figure
+from .stock_charts import stock_chart as stock_chart
 from .theme import FONT as FONT
 from .theme import TEMPLATE as TEMPLATE
 from .theme import house_layout as house_layout

@@ -92,6 +92,8 @@ class YearResult:
     #: What the P5-P95 ranges hold (:data:`model.year.sampling.RANGE_LABEL` or its
     #: ``RANGE_LABEL_PHYSIOLOGY``).
     range_label: str = RANGE_LABEL
+    #: Per-draw use by month: ``liquid_ml`` (D, 12, agents) and ``nitrous_oxide_l`` (D, 12).
+    month_draws: dict = field(default_factory=dict)
 
     @property
     def currency(self) -> str:
@@ -359,4 +361,8 @@ def _result(scenario, inp, central, central_months, sampled, sampled_months, sha
         n_draws=shared.n,
         seed=shared.seed,
         notes=_notes(inp, scenario),
+        month_draws={
+            "liquid_ml": sampled_months["liquid_ml"],
+            "nitrous_oxide_l": sampled_months["q"][:, _Q["nitrous_oxide_l"]][:, None] * inp.month_weights[None, :],
+        },
     )

@@ -19,6 +19,7 @@ pytestmark = pytest.mark.browser
         ("Record audit", "record_audit", "Rows set aside"),
         ("Emissions report", "emissions_report", "What drove the change"),
         ("Trends", "trends", "Run-chart checks"),
+        ("Orders", "orders", "What if"),
     ],
 )
 def test_every_page_renders_and_is_captured(page, app_url, title, slug, marker):

@@ -272,7 +272,7 @@ def test_a_vaporizer_maximum_raised_on_the_reference_page_lets_a_plan_dial_above
 
 
 @pytest.mark.parametrize(
-    "page_file", ["case_plan.py", "compare.py", "department_year.py", "record_audit.py", "reference.py"]
+    "page_file", ["case_plan.py", "compare.py", "department_year.py", "record_audit.py", "reference.py", "orders.py"]
 )
 def test_every_page_says_which_prices_and_gwp_values_are_in_use(page_file):
     """Defect 2: every page shows which prices and GWP values are in use and where they come from."""
