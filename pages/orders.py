@@ -35,7 +35,12 @@ files = sorted(FOLDER.glob("*.toml"))
 if not files:
     st.error("No orders plan files in demo_data/orders.")
     st.stop()
-picked = st.selectbox("Orders plan", [f.name for f in files], key="or_plan", help="Orders plan files, docs/formats.md.")
+picked = st.selectbox(
+    "Orders plan",
+    [f.name for f in files],
+    key="or_plan",
+    help="The orders plans of the demo folder (their format: File formats, 'Orders plan', in the documentation).",
+)
 path = FOLDER / picked
 try:
     current = _worked_out(str(path), path.read_text(encoding="utf-8"), "{}", ref_key, ref)
@@ -56,9 +61,9 @@ if current.year_budget is not None:
     c4.metric(f"Department year's cost of these items ({current.currency})", f"{current.year_budget:,.0f}")
 c3.metric("Highest stock-out chance in a month", f"{months['stockout_chance'].max():.0%}")
 item = st.selectbox("Item", list(current.stock), key="or_item")
-st.plotly_chart(stock_chart(current, item), key="or_chart")
+st.plotly_chart(stock_chart(current, item), key="or_stock_fig")
 st.subheader("Orders")
-st.dataframe(orders, hide_index=True, key="or_orders")
+st.dataframe(orders, hide_index=True, key="or_orders_fig")
 st.subheader("Cash by month")
 st.dataframe(current.cash_by_month(), hide_index=True)
 
@@ -102,6 +107,6 @@ def _summary(res) -> dict:
     }
 
 
-st.dataframe(pd.DataFrame({"plan as written": _summary(current), "what if": _summary(what_if)}), key="or_what_if")
+st.dataframe(pd.DataFrame({"plan as written": _summary(current), "what if": _summary(what_if)}), key="or_what_if_fig")
 st.caption("The what-if starts from the first item's values; a value you change applies to every item at once.")
-st.dataframe(what_if.orders_table(), hide_index=True, key="or_what_if_orders")
+st.dataframe(what_if.orders_table(), hide_index=True, key="or_what_if_orders_fig")

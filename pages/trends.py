@@ -128,7 +128,7 @@ with charts_area:
     group = groups[0] if len(groups) == 1 else st.selectbox(level.capitalize(), groups, key="tr_group")
     for m in shown:
         chart = trends.charts[(trends.charts["group"] == group) & (trends.charts["measure"] == m)]
-        st.plotly_chart(control_chart_figure(chart, trends.effects.get((group, m))), key=f"tr_chart_{m}")
+        st.plotly_chart(control_chart_figure(chart, trends.effects.get((group, m))), key=f"tr_fig_{m}")
     st.subheader("Signals")
     words = [w for w in trends.signals if group == "department" or f"({group})" in w]
     for line in words or ["None: every month is within its limits, with no run, trend or pair near a limit."]:

@@ -32,7 +32,7 @@ from model.base.files import Source
 from .common import checked_uploads, md
 
 #: Key prefixes of the pages' inputs (one per page, and the settings sidebar).
-PAGE_PREFIXES = ("cp_", "cmp_", "dy_", "yc_", "ref_", "ra_", "er_", "gl_")
+PAGE_PREFIXES = ("cp_", "cmp_", "dy_", "yc_", "ref_", "ra_", "er_", "gl_", "or_", "tr_")
 #: Keys Streamlit lets no one set: downloads (``*_dl*``), uploads (``*_upload*``), charts
 #: (``*_fig*``), buttons (``*_btn*``) and data editors (``cp_phases_*``, ``dy_mix_*``).
 NOT_SETTABLE = re.compile(r"_(dl|upload|fig|btn)(_|$)|^cp_phases_|^dy_mix_")
