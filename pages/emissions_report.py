@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import hashlib
 from dataclasses import replace
 from pathlib import Path
 
@@ -16,7 +15,6 @@ from model import InputError
 from model.audit.engine import audit_records
 from model.base.files import Source
 from model.io.purchases import load_purchases
-from model.io.sites import parse_sites
 from model.present.provenance import input_file
 from model.present.report_charts import report_figures
 from model.present.report_document import report_html, report_provenance
@@ -103,13 +101,6 @@ if not files:
     st.stop()
 
 
-def _digest(items: list[Source]) -> str:
-    h = hashlib.sha256()
-    for f in items:
-        h.update(f.digest().encode())
-    return h.hexdigest()
-
-
 @st.cache_data(show_spinner="Auditing the records...", max_entries=4)
 def audited(digest: str, ref_key: str, temperature_c: float, time_zone: str, _files, _ref):
     """The audit's case table, reading summary and absorbent note; messages name the user's files."""
@@ -137,26 +128,19 @@ def purchases_table(digest: str, ref_key: str, _files, _ref):
     return (pd.concat(tables, ignore_index=True) if tables else None), notes, lines
 
 
+records_key, purchases_key = ui.files_digest(files), ui.files_digest(purchase_files)  # hashed once a run
 cases, summary, absorbent_note = audited(
-    _digest(files), ui.reference_key(view), float(view.temperature_c), time_zone, tuple(files), ref
+    records_key, ui.reference_key(view), float(view.temperature_c), time_zone, tuple(files), ref
 )
 if cases is None:
     ui.show_input_error(InputError("records", "the files", summary))
     st.stop()
 purchases, purchase_notes, purchase_lines = (
-    purchases_table(_digest(purchase_files), ui.reference_key(view), tuple(purchase_files), ref)
+    purchases_table(purchases_key, ui.reference_key(view), tuple(purchase_files), ref)
     if purchase_files
     else (None, [], [])
 )
-sites = None
-if sites_file is not None:
-    try:
-        sites = parse_sites(sites_file.read_bytes().decode("utf-8-sig"), sites_file.name)
-    except (InputError, UnicodeDecodeError) as err:
-        ui.show_input_error(
-            err if isinstance(err, InputError) else InputError(sites_file.name, "the file", "not UTF-8 text"),
-            "Site file (not used)",
-        )
+sites = ui.read_sites(sites_file)
 
 starts = pd.to_datetime(cases["start"], errors="coerce").dropna()
 last_year = int(starts.max().year) if len(starts) else 2026
@@ -254,9 +238,9 @@ report_key = "|".join(
     map(
         str,
         (
-            _digest(files),
-            _digest(purchase_files),
-            sites_file and _digest([sites_file]),
+            records_key,
+            purchases_key,
+            sites_file and ui.files_digest([sites_file]),
             ui.reference_key(view),
             view.temperature_c,
             period.text,

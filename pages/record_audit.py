@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import hashlib
 from pathlib import Path
 
 import pandas as pd
@@ -163,11 +162,6 @@ def run_audit(files: tuple[Source, ...], purchases: tuple[Source, ...], settings
     return result, check_purchases(purchases, result, _ref)
 
 
-digest = hashlib.sha256()
-for f in files:
-    digest.update(f.digest().encode())
-for f in purchase_files:
-    digest.update(b"purchases" + f.digest().encode())
 settings = (
     float(gap_limit),
     float(high_flow),
@@ -176,7 +170,7 @@ settings = (
     float(view.temperature_c),
     time_zone,
 )
-cache_key = (digest.hexdigest(), settings, ui.reference_key(view))
+cache_key = (ui.files_digest(files, purchase_files), settings, ui.reference_key(view))
 # Results are kept per session (the last few), so moving between tabs does not re-run the audit;
 # st.cache_data cannot hold it because the progress bar is drawn while the audit runs.
 cache = ss.setdefault("ra_results", {})

@@ -2,16 +2,15 @@
 
 from __future__ import annotations
 
-import hashlib
 from pathlib import Path
 
 import streamlit as st
 
 import ui
+import ui.state
 from model import InputError
 from model.audit.engine import audit_records
 from model.base.files import Source
-from model.io.sites import parse_sites
 from model.present.trend_charts import control_chart_figure, trends_html
 from model.trends import CHART_MEASURES, MEASURES, build_trends
 
@@ -41,16 +40,20 @@ if source.startswith("Demo"):
     sites_file = Source(DEMO_SITES.name, path=DEMO_SITES)
     default_change = DEMO_CHANGE
 else:
+    # Kept for the session and shared with the Record audit and the Emissions report.
     c1, c2 = st.columns(2)
-    ups = c1.file_uploader(
-        "Record files (.csv, .parquet)", type=["csv", "parquet"], accept_multiple_files=True, key="tr_upload"
+    files = ui.state.kept_uploads(
+        "Record files (.csv, .parquet)", "tr_upload", "records", multiple=True, types=("csv", "parquet"), where=c1
     )
-    up_s = c2.file_uploader("Site file, theatre,site (optional)", type=["csv"], key="tr_upload_sites")
-    files = ui.checked_uploads(ups, "records")
-    sites_file = next(iter(ui.checked_uploads(up_s, "sites")), None)
+    site_files = ui.state.kept_uploads(
+        "Site file, theatre,site (optional)", "tr_upload_sites", "sites", types=("csv",), where=c2
+    )
+    sites_file = site_files[0] if site_files else None
     default_change = ""
 if not files:
-    st.info("Upload record files (format in docs/formats.md, 'Case records') to see their trends.")
+    st.info(
+        "Upload record files (their format: File formats, 'Case records', in the documentation) to see their trends."
+    )
     st.stop()
 
 
@@ -63,22 +66,12 @@ def audited(digest: str, ref_key: str, gwp: str, _files, _ref):
         return None, str(err)
 
 
-h = hashlib.sha256()
-for f in files:
-    h.update(f.digest().encode())
-cases, problem = audited(h.hexdigest(), ui.reference_key(view), view.gwp_source, tuple(files), ref)
+records_key = ui.files_digest(files)  # hashed once a run
+cases, problem = audited(records_key, ui.reference_key(view), view.gwp_source, tuple(files), ref)
 if cases is None:
     ui.show_input_error(InputError("records", "the files", problem))
     st.stop()
-sites = None
-if sites_file is not None:
-    try:
-        sites = parse_sites(sites_file.read_bytes().decode("utf-8-sig"), sites_file.name)
-    except (InputError, UnicodeDecodeError) as err:
-        ui.show_input_error(
-            err if isinstance(err, InputError) else InputError(sites_file.name, "the file", "not UTF-8 text"),
-            "Site file (not used)",
-        )
+sites = ui.read_sites(sites_file)
 
 charts_area = st.container()
 with st.container(border=True):
@@ -111,7 +104,7 @@ def cached_trends(key: str, _cases, change, level, _sites, measures):
 
 try:
     trends = cached_trends(
-        f"{h.hexdigest()}|{ui.reference_key(view)}|{view.gwp_source}|{change}|{level}|{sorted((sites or {}).items())}",
+        f"{records_key}|{ui.reference_key(view)}|{view.gwp_source}|{change}|{level}|{sorted((sites or {}).items())}",
         cases,
         change or None,
         level,

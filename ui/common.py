@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import hashlib
 import json
 import re
 from collections.abc import Callable, Mapping
@@ -429,6 +430,36 @@ def checked_uploads(uploaded, kind: str) -> list[Source]:
         show_input_error(err)
         st.stop()
     return out
+
+
+def files_digest(*groups) -> str:
+    """One SHA-256 over the content digests of groups of files (records, purchases, ...).
+
+    The cache key of a page's work on uploaded or demo files: the same bytes give the same key
+    whatever the files are called; each group after the first is marked, so a file moved from
+    records to purchases changes the key.
+    """
+    h = hashlib.sha256()
+    for i, files in enumerate(groups):
+        for f in files:
+            h.update(b"group %d " % i + f.digest().encode())
+    return h.hexdigest()
+
+
+def read_sites(sites_file: Source | None) -> dict | None:
+    """The theatre -> site map of a site file, or None (no file, or one refused with its message)."""
+    if sites_file is None:
+        return None
+    from model.io.sites import parse_sites
+
+    try:
+        return parse_sites(sites_file.read_bytes().decode("utf-8-sig"), sites_file.name)
+    except (InputError, UnicodeDecodeError) as err:
+        show_input_error(
+            err if isinstance(err, InputError) else InputError(sites_file.name, "the file", "not UTF-8 text"),
+            "Site file (not used)",
+        )
+        return None
 
 
 def show_input_error(err: Exception, where: str = "") -> None:
